@@ -1,0 +1,1 @@
+"""Observe: one batch of records → an Observation (per field path statistics)."""

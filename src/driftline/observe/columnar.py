@@ -1,0 +1,273 @@
+"""Columnar observation of Arrow data (Parquet batches, CSV text columns, typed JSON batches).
+
+Everything here is a pyarrow.compute call over whole arrays; no per-value Python.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from driftline.lattice import from_arrow
+from driftline.observe import paths
+from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
+from driftline.observe.records import SAFE_INT, pa_indices, value_text
+from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
+from driftline.observe.textclass import class_masks, classify
+
+_LOSSY_CLASSES = ("text", "null_token", "empty")
+
+
+class _Ctx:
+    __slots__ = ("file", "row_start", "lines", "text_source", "out")
+
+    def __init__(self, file: str, row_start: int, lines: Sequence[int] | None, text_source: bool) -> None:
+        self.file = file
+        self.row_start = row_start
+        self.lines = lines
+        self.text_source = text_source
+        self.out: dict[str, FieldStats] = {}
+
+    def example(self, row: int, value: Any) -> Example:
+        line = self.lines[row] if self.lines is not None else None
+        return Example(self.file, self.row_start + row, line, value_text(value))
+
+
+def observe_table(
+    table: pa.Table | pa.RecordBatch,
+    *,
+    file: str,
+    batch: int,
+    row_start: int,
+    lines: Sequence[int] | None = None,
+    text_source: bool = False,
+) -> Observation:
+    """Observe an Arrow batch column by column.
+
+    With text_source, string columns are untyped text (CSV cells): each cell's type is
+    inferred from its content class and empty cells count as null.
+
+    >>> obs = observe_table(pa.table({"a": [1, None, 3]}), file="f.parquet", batch=0, row_start=0)
+    >>> obs.fields["a"].types, obs.fields["a"].nulls
+    ({'int64': 2}, 1)
+    """
+    ctx = _Ctx(file, row_start, lines, text_source)
+    for name, col in zip(table.column_names, table.columns, strict=True):
+        arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
+        _observe(arr, paths.child(None, name), None, ctx)
+    return Observation(file=file, batch=batch, row_start=row_start, rows=table.num_rows, fields=dict(sorted(ctx.out.items())))
+
+
+def _rows(rows: pa.Array | None, idx: int) -> int:
+    return idx if rows is None else rows[idx].as_py()
+
+
+def _first_valid(arr: pa.Array) -> int | None:
+    if arr.null_count == len(arr):
+        return None
+    if arr.null_count == 0:
+        return 0
+    return pc.index(pc.is_valid(arr), True).as_py()
+
+
+def _first_null(arr: pa.Array) -> int | None:
+    if arr.null_count == 0:
+        return None
+    return pc.index(pc.is_null(arr), True).as_py()
+
+
+def _take_rows(rows: pa.Array | None, mask: pa.Array) -> pa.Array:
+    base = pa.array(range(len(mask)), pa.int64()) if rows is None else rows
+    return base.filter(mask)
+
+
+def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None:
+    t = arr.type
+    if pa.types.is_dictionary(t):
+        arr = arr.dictionary_decode()
+        t = arr.type
+    if isinstance(t, pa.ExtensionType):
+        arr = arr.storage
+        t = arr.type
+    if pa.types.is_run_end_encoded(t):
+        arr = pc.run_end_decode(arr) if hasattr(pc, "run_end_decode") else arr.cast(t.value_type)
+        t = arr.type
+    if pa.types.is_string_view(t) or pa.types.is_binary_view(t):
+        arr = arr.cast(pa.large_string() if pa.types.is_string_view(t) else pa.large_binary())
+        t = arr.type
+    if ctx.text_source and (pa.types.is_string(t) or pa.types.is_large_string(t)):
+        _observe_text(arr, path, rows, ctx)
+        return
+    nulls = arr.null_count if not pa.types.is_null(t) else len(arr)
+    nonnull = len(arr) - nulls
+    samples: dict[str, tuple[Example, ...]] = {}
+    fn = _first_null(arr) if not pa.types.is_null(t) else (0 if len(arr) else None)
+    if fn is not None:
+        samples["null"] = (ctx.example(_rows(rows, fn), None),)
+    if pa.types.is_null(t):
+        ctx.out[path] = FieldStats(nulls=nulls, samples=samples)
+        return
+    key = from_arrow(t).shallow_key()
+    fv = _first_valid(arr)
+    if fv is not None:
+        samples["type:" + key] = (ctx.example(_rows(rows, fv), _scalar(arr[fv])),)
+    extra: dict[str, Any] = {}
+    if pa.types.is_struct(t):
+        valid = pc.is_valid(arr)
+        sub_rows = _take_rows(rows, valid) if arr.null_count else rows
+        for i in range(t.num_fields):
+            child = arr.field(i)
+            if arr.null_count:
+                child = child.filter(valid)
+            _observe(child, paths.child(path, t.field(i).name), sub_rows, ctx)
+    elif pa.types.is_map(t):
+        parents = pc.list_parent_indices(arr)
+        sub_rows = parents if rows is None else rows.take(parents)
+        keys, items = arr.keys, arr.items
+        extra["items"] = len(keys)
+        _observe(keys, paths.map_part(path, "key"), sub_rows, ctx)
+        _observe(items, paths.map_part(path, "value"), sub_rows, ctx)
+    elif _is_list(t):
+        flat = pc.list_flatten(arr)
+        parents = pc.list_parent_indices(arr)
+        sub_rows = parents if rows is None else rows.take(parents)
+        extra["items"] = len(flat)
+        if len(flat):
+            _observe(flat, paths.element(path), sub_rows, ctx)
+        else:
+            _empty_items(path, ctx)
+    elif pa.types.is_string(t) or pa.types.is_large_string(t):
+        extra.update(_string_stats(arr, rows, ctx, samples))
+    elif pa.types.is_binary(t) or pa.types.is_large_binary(t) or pa.types.is_fixed_size_binary(t):
+        if nonnull:
+            extra["max_length"] = _max_or_zero(pc.binary_length(arr)) if not pa.types.is_fixed_size_binary(t) else t.byte_width
+    elif pa.types.is_integer(t) or pa.types.is_floating(t) or pa.types.is_decimal(t):
+        extra.update(_number_stats(arr, t))
+    elif pa.types.is_temporal(t) and nonnull:
+        lo, hi = _min_max(arr)
+        extra["minimum"], extra["maximum"] = _temporal_text(lo), _temporal_text(hi)
+    ctx.out[path] = FieldStats(types={key: nonnull} if nonnull else {}, nulls=nulls, samples=dict(sorted(samples.items())), **extra)
+
+
+def _empty_items(path: str, ctx: _Ctx) -> None:
+    # Lists that are always empty: the element path exists with nothing known about it.
+    ctx.out.setdefault(paths.element(path), FieldStats())
+
+
+def _is_list(t: pa.DataType) -> bool:
+    return (
+        pa.types.is_list(t)
+        or pa.types.is_large_list(t)
+        or pa.types.is_fixed_size_list(t)
+        or pa.types.is_list_view(t)
+        or pa.types.is_large_list_view(t)
+    )
+
+
+def _scalar(s: pa.Scalar) -> Any:
+    try:
+        v = s.as_py()
+    except (ValueError, OverflowError, pa.ArrowException):
+        return str(s)
+    if isinstance(v, bytes):
+        return v.decode("utf-8", "backslashreplace")
+    if isinstance(v, dict | list | tuple | str | int | float | bool) or v is None:
+        return v if not isinstance(v, tuple) else list(v)
+    return str(v)
+
+
+def _max_or_zero(arr: pa.Array) -> int:
+    m = pc.max(arr).as_py()
+    return int(m) if m is not None else 0
+
+
+def _min_max(arr: pa.Array) -> tuple[Any, Any]:
+    mm = pc.min_max(arr)
+    return mm["min"], mm["max"]
+
+
+def _temporal_text(s: pa.Scalar) -> str | None:
+    if not s.is_valid:
+        return None
+    try:
+        v = s.as_py()
+        return v.isoformat() if hasattr(v, "isoformat") else str(v)
+    except (ValueError, OverflowError, pa.ArrowException):
+        return str(s)
+
+
+def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    if arr.null_count == len(arr):
+        return out
+    work = arr
+    if pa.types.is_floating(t):
+        if pa.types.is_float16(t):
+            work = arr.cast(pa.float32())
+        work = pc.if_else(pc.is_nan(work), None, work)
+    lo, hi = _min_max(work)
+    if lo.is_valid:
+        lv, hv = lo.as_py(), hi.as_py()
+        if pa.types.is_decimal(t):
+            lv, hv = float(lv), float(hv)
+        out["minimum"], out["maximum"] = lv, hv
+    if pa.types.is_integer(t) and t.bit_width == 64:
+        big = pc.greater(arr, pa.scalar(SAFE_INT, t)) if pa.types.is_unsigned_integer(t) else pc.or_(
+            pc.greater(arr, pa.scalar(SAFE_INT, t)), pc.less(arr, pa.scalar(-SAFE_INT, t))
+        )
+        out["unsafe_ints"] = int(pc.sum(big).as_py() or 0)
+    return out
+
+
+def _string_stats(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: dict[str, tuple[Example, ...]]) -> dict[str, Any]:
+    if arr.null_count == len(arr):
+        return {}
+    scan = classify(arr)
+    masks = class_masks(arr) if any(scan.counts.get(c, 0) > 1 for c in _LOSSY_CLASSES) else {}
+    for cls, first in scan.first_index.items():
+        picks = pa_indices(masks[cls], SAMPLES_PER_KEY) if cls in masks and scan.counts[cls] > 1 else [first]
+        samples["class:" + cls] = tuple(ctx.example(_rows(rows, j), arr[j].as_py()) for j in picks)
+    return {
+        "classes": dict(scan.counts),
+        "max_length": _max_or_zero(pc.utf8_length(arr)),
+        "int_digits": scan.int_digits,
+        "frac_digits": scan.frac_digits,
+        "leap_seconds": scan.leap_seconds,
+        "lowercase_rfc3339": scan.lowercase_rfc3339,
+    }
+
+
+def _observe_text(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None:
+    """A text column: types are inferred from content classes; empty and null tokens are null."""
+    samples: dict[str, tuple[Example, ...]] = {}
+    stats = _string_stats(arr, rows, ctx, samples)
+    classes: dict[str, int] = stats.get("classes", {})
+    types: dict[str, int] = {}
+    nulls = arr.null_count
+    null_examples: list[Example] = []
+    if arr.null_count:
+        fn = _first_null(arr)
+        assert fn is not None
+        null_examples.append(ctx.example(_rows(rows, fn), None))
+    for cls, n in classes.items():
+        inferred = TEXT_CLASS_TYPE[cls]
+        if inferred is None:
+            nulls += n
+            null_examples.extend(samples.get("class:" + cls, ()))
+        else:
+            types[inferred] = types.get(inferred, 0) + n
+            first = samples.get("class:" + cls, ())[:1]
+            key = "type:" + inferred
+            samples[key] = tuple(sorted(set(samples.get(key, ())) | set(first)))[:SAMPLES_PER_KEY]
+    if null_examples:
+        samples["null"] = tuple(sorted(set(null_examples)))[:SAMPLES_PER_KEY]
+    ctx.out[path] = FieldStats(
+        types=dict(sorted(types.items())),
+        nulls=nulls,
+        samples=dict(sorted(samples.items())),
+        text=len(arr) - arr.null_count,
+        **stats,
+    )

@@ -1,0 +1,56 @@
+"""Observation: what one batch of one file shows, per field path."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+from driftline.observe.stats import FieldStats
+
+# Inferred type of a text cell (CSV/TSV) by its content class; None means null.
+TEXT_CLASS_TYPE: dict[str, str | None] = {
+    "empty": None,
+    "null_token": None,
+    "boolean": "bool",
+    "integer": "int64",
+    "decimal": "float64",
+    "float": "float64",
+    "date": "date32",
+    "timestamp_rfc3339": "timestamp[us, UTC]",
+    "timestamp_offset": "timestamp[us, UTC]",
+    "timestamp_local": "timestamp[us]",
+    "text": "string",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Observation:
+    """One batch: the file it came from, its place in the file, and per path statistics.
+
+    row_start is the 0-based index within the file of the batch's first row.
+    """
+
+    file: str
+    batch: int
+    row_start: int
+    rows: int
+    fields: dict[str, FieldStats] = field(default_factory=dict)
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "batch": self.batch,
+            "row_start": self.row_start,
+            "rows": self.rows,
+            "fields": {p: s.to_json() for p, s in self.fields.items()},
+        }
+
+    @staticmethod
+    def from_json(file: str, d: Mapping[str, Any]) -> Observation:
+        return Observation(
+            file=file,
+            batch=d["batch"],
+            row_start=d["row_start"],
+            rows=d["rows"],
+            fields={p: FieldStats.from_json(s) for p, s in d["fields"].items()},
+        )

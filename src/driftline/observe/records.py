@@ -1,0 +1,204 @@
+"""Exact per-record observation, for batches that cannot be typed columnar (JSON values).
+
+Records are shredded into per path columns in one walk; strings are then classified
+in bulk, so the per-value Python work is only the walk itself.
+"""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Sequence
+from typing import Any
+
+import orjson
+import pyarrow as pa
+
+from driftline.observe import paths
+from driftline.observe.observation import Observation
+from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
+from driftline.observe.textclass import classify, class_masks
+
+MAX_DEPTH = 2_000  # orjson stops at 1,024 levels; this guards values built elsewhere
+SAFE_INT = 2**53 - 1  # RFC 7493 §2.2 / IEEE 754 binary64: larger magnitudes are not exact
+INT64_MAX = 2**63 - 1
+INT64_MIN = -(2**63)
+EXAMPLE_CHARS = 80
+
+
+class DepthExceeded(ValueError):
+    pass
+
+
+# The walk recurses once per nesting level; orjson already refuses documents deeper than
+# 1,024 levels, so this limit only needs to sit above that.
+sys.setrecursionlimit(max(sys.getrecursionlimit(), 3 * MAX_DEPTH))
+
+
+def value_text(v: Any) -> str:
+    """Short JSON text of a value for examples."""
+    try:
+        text = orjson.dumps(v).decode()
+    except (TypeError, orjson.JSONEncodeError):
+        text = repr(v)
+    return text if len(text) <= EXAMPLE_CHARS else text[: EXAMPLE_CHARS - 1] + "…"
+
+
+class _Acc:
+    __slots__ = ("types", "nulls", "samples", "strings", "string_rows", "lo", "hi", "unsafe", "items")
+
+    def __init__(self) -> None:
+        self.types: dict[str, int] = {}
+        self.nulls = 0
+        self.samples: dict[str, list[tuple[int, Any]]] = {}
+        self.strings: list[str] = []
+        self.string_rows: list[int] = []
+        self.lo: Any = None
+        self.hi: Any = None
+        self.unsafe = 0
+        self.items = 0
+
+    def sample(self, key: str, row: int, value: Any) -> None:
+        got = self.samples.get(key)
+        if got is None:
+            self.samples[key] = [(row, value)]
+        elif len(got) < SAMPLES_PER_KEY:
+            got.append((row, value))
+
+    def count(self, key: str, row: int, value: Any) -> None:
+        n = self.types.get(key)
+        self.types[key] = 1 if n is None else n + 1
+        if n is None or n < SAMPLES_PER_KEY:
+            self.sample("type:" + key, row, value)
+
+    def number(self, v: int | float) -> None:
+        if v != v:  # NaN orders nowhere
+            return
+        if self.lo is None or v < self.lo:
+            self.lo = v
+        if self.hi is None or v > self.hi:
+            self.hi = v
+
+
+def _int_key(v: int) -> str:
+    if INT64_MIN <= v <= INT64_MAX:
+        return "int64"
+    return "uint64" if 0 <= v < 2**64 else "decimal(39,0)"
+
+
+def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> None:
+    acc = accs.get(path)
+    if acc is None:
+        acc = accs[path] = _Acc()
+    if v is None:
+        acc.nulls += 1
+        if acc.nulls <= SAMPLES_PER_KEY:
+            acc.sample("null", row, None)
+        return
+    t = type(v)
+    if t is str:
+        acc.types["string"] = acc.types.get("string", 0) + 1
+        acc.strings.append(v)
+        acc.string_rows.append(row)
+    elif t is bool:
+        acc.count("bool", row, v)
+    elif t is int:
+        acc.count(_int_key(v), row, v)
+        acc.number(v)
+        if v > SAFE_INT or v < -SAFE_INT:
+            acc.unsafe += 1
+    elif t is float:
+        acc.count("float64", row, v)
+        acc.number(v)
+    elif t is dict:
+        if depth >= MAX_DEPTH:
+            raise DepthExceeded(f"nesting deeper than {MAX_DEPTH} levels")
+        acc.count("struct", row, v)
+        for name, sub in v.items():
+            _walk(sub, paths.child(path, name), row, accs, depth + 1)
+    elif t is list:
+        if depth >= MAX_DEPTH:
+            raise DepthExceeded(f"nesting deeper than {MAX_DEPTH} levels")
+        acc.count("list", row, v)
+        acc.items += len(v)
+        item_path = paths.element(path)
+        for sub in v:
+            _walk(sub, item_path, row, accs, depth + 1)
+    else:  # pragma: no cover - orjson yields only JSON types
+        acc.count("string", row, str(v))
+
+
+def observe_records(
+    records: Sequence[Any],
+    *,
+    file: str,
+    batch: int,
+    row_start: int,
+    lines: Sequence[int] | None = None,
+) -> Observation:
+    """Observe parsed JSON values, one per row. Objects give their fields; anything else is '$'.
+
+    >>> obs = observe_records([{"a": 1}, {"a": "x"}, {}], file="f.jsonl", batch=0, row_start=0)
+    >>> obs.fields["a"].types, obs.rows
+    ({'int64': 1, 'string': 1}, 3)
+    """
+    accs: dict[str, _Acc] = {}
+    for i, rec in enumerate(records):
+        if type(rec) is dict:
+            for name, sub in rec.items():
+                _walk(sub, paths.child(None, name), i, accs, 1)
+        else:
+            _walk(rec, paths.ROOT, i, accs, 0)
+    fields = {p: _finish(acc, file, row_start, lines) for p, acc in sorted(accs.items())}
+    return Observation(file=file, batch=batch, row_start=row_start, rows=len(records), fields=fields)
+
+
+def _example(file: str, row_start: int, lines: Sequence[int] | None, i: int, value: Any) -> Example:
+    return Example(file, row_start + i, lines[i] if lines is not None else None, value_text(value))
+
+
+def _finish(acc: _Acc, file: str, row_start: int, lines: Sequence[int] | None) -> FieldStats:
+    samples = {
+        k: tuple(_example(file, row_start, lines, i, v) for i, v in got) for k, got in acc.samples.items()
+    }
+    classes: dict[str, int] = {}
+    extra: dict[str, Any] = {}
+    if acc.strings:
+        arr = pa.array(acc.strings, pa.string())
+        scan = classify(arr)
+        classes = dict(scan.counts)
+        rows = acc.string_rows
+        samples["type:string"] = tuple(
+            _example(file, row_start, lines, rows[j], acc.strings[j]) for j in range(min(SAMPLES_PER_KEY, len(rows)))
+        )
+        masks = class_masks(arr) if any(n > 1 for n in scan.counts.values()) else {}
+        for cls, first in scan.first_index.items():
+            picks = [first]
+            if scan.counts[cls] > 1 and cls in masks:
+                picks = pa_indices(masks[cls], SAMPLES_PER_KEY)
+            samples["class:" + cls] = tuple(_example(file, row_start, lines, rows[j], acc.strings[j]) for j in picks)
+        extra = {
+            "max_length": max(len(s) for s in acc.strings),
+            "int_digits": scan.int_digits,
+            "frac_digits": scan.frac_digits,
+            "leap_seconds": scan.leap_seconds,
+            "lowercase_rfc3339": scan.lowercase_rfc3339,
+        }
+    return FieldStats(
+        types=dict(sorted(acc.types.items())),
+        nulls=acc.nulls,
+        classes=classes,
+        samples=dict(sorted(samples.items())),
+        minimum=acc.lo,
+        maximum=acc.hi,
+        unsafe_ints=acc.unsafe,
+        items=acc.items,
+        **extra,
+    )
+
+
+def pa_indices(mask: pa.Array, k: int) -> list[int]:
+    """The first k positions where a boolean mask is true."""
+    import pyarrow.compute as pc
+
+    idx = pc.indices_nonzero(mask)
+    return idx.slice(0, k).to_pylist()

@@ -1,0 +1,194 @@
+"""Per field path statistics, and the one way two of them combine: merge.
+
+FieldStats are values. merge() is commutative and associative (counts add, extremes
+take min/max, samples keep the K earliest positions), so per-batch, per-file and
+per-worker results combine in any order and give the same profile.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field, replace
+from typing import Any
+
+SAMPLES_PER_KEY = 3  # earliest examples kept per type / class / null key
+
+
+@dataclass(frozen=True, slots=True, order=True)
+class Example:
+    """A value seen at one place: file (relative path), 0-based row within the file, line."""
+
+    file: str
+    row: int
+    line: int | None = field(default=None, compare=False)
+    value: str = field(default="", compare=False)  # short JSON text of the value
+
+    def to_json(self) -> dict[str, Any]:
+        return {"file": self.file, "row": self.row, "line": self.line, "value": self.value}
+
+    @staticmethod
+    def from_json(d: Mapping[str, Any]) -> Example:
+        return Example(d["file"], d["row"], d.get("line"), d.get("value", ""))
+
+
+def _add_counts(a: Mapping[str, int], b: Mapping[str, int]) -> dict[str, int]:
+    out = dict(a)
+    for k, v in b.items():
+        out[k] = out.get(k, 0) + v
+    return dict(sorted(out.items()))
+
+
+def _merge_samples(
+    a: Mapping[str, tuple[Example, ...]], b: Mapping[str, tuple[Example, ...]]
+) -> dict[str, tuple[Example, ...]]:
+    out = dict(a)
+    for k, exs in b.items():
+        if k in out:
+            out[k] = tuple(sorted(set(out[k]) | set(exs)))[:SAMPLES_PER_KEY]
+        else:
+            out[k] = exs
+    return dict(sorted(out.items()))
+
+
+def _lo(a: Any, b: Any) -> Any:
+    if a is None:
+        return b
+    if b is None:
+        return a
+    return a if _key(a) <= _key(b) else b
+
+
+def _hi(a: Any, b: Any) -> Any:
+    if a is None:
+        return b
+    if b is None:
+        return a
+    return a if _key(a) >= _key(b) else b
+
+
+def _key(v: Any) -> tuple[int, Any]:
+    # Numbers compare as numbers, anything else (temporal ISO text) as text: a total order.
+    return (0, v) if isinstance(v, int | float) and not isinstance(v, bool) else (1, str(v))
+
+
+@dataclass(frozen=True, slots=True)
+class FieldStats:
+    """What a set of rows shows for one field path.
+
+    types      non-null values per shallow type key ('int64', 'string', 'struct', 'list', ...)
+    nulls      values present but null (JSON null, Arrow/Parquet null, empty CSV cell)
+    classes    content classes of string values (for CSV: of every cell's text)
+    samples    'type:<key>' / 'class:<name>' / 'null' → earliest examples with position
+    items      list paths: number of elements; map paths: number of entries
+    text       values that came from untyped text (CSV/TSV), whose types were inferred
+    Absent counts are not stored: they derive from the container (rows, or the parent
+    struct's count), which keeps merge a plain sum.
+    """
+
+    types: dict[str, int] = field(default_factory=dict)
+    nulls: int = 0
+    classes: dict[str, int] = field(default_factory=dict)
+    samples: dict[str, tuple[Example, ...]] = field(default_factory=dict)
+    minimum: Any = None
+    maximum: Any = None
+    max_length: int = 0
+    int_digits: int = 0
+    frac_digits: int = 0
+    leap_seconds: int = 0
+    lowercase_rfc3339: int = 0
+    unsafe_ints: int = 0  # integers beyond ±(2**53-1): not exact as float64 (RFC 7493 §2.2)
+    items: int = 0
+    text: int = 0
+
+    @property
+    def present(self) -> int:
+        return sum(self.types.values()) + self.nulls
+
+    @property
+    def nonnull(self) -> int:
+        return sum(self.types.values())
+
+    def first(self, key: str) -> Example | None:
+        exs = self.samples.get(key)
+        return exs[0] if exs else None
+
+    def merge(self, other: FieldStats) -> FieldStats:
+        return FieldStats(
+            types=_add_counts(self.types, other.types),
+            nulls=self.nulls + other.nulls,
+            classes=_add_counts(self.classes, other.classes),
+            samples=_merge_samples(self.samples, other.samples),
+            minimum=_lo(self.minimum, other.minimum),
+            maximum=_hi(self.maximum, other.maximum),
+            max_length=max(self.max_length, other.max_length),
+            int_digits=max(self.int_digits, other.int_digits),
+            frac_digits=max(self.frac_digits, other.frac_digits),
+            leap_seconds=self.leap_seconds + other.leap_seconds,
+            lowercase_rfc3339=self.lowercase_rfc3339 + other.lowercase_rfc3339,
+            unsafe_ints=self.unsafe_ints + other.unsafe_ints,
+            items=self.items + other.items,
+            text=self.text + other.text,
+        )
+
+    def to_json(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"types": self.types, "nulls": self.nulls}
+        for name in ("classes",):
+            if self.classes:
+                out[name] = self.classes
+        out["samples"] = {k: [e.to_json() for e in v] for k, v in self.samples.items()}
+        for name in (
+            "minimum",
+            "maximum",
+            "max_length",
+            "int_digits",
+            "frac_digits",
+            "leap_seconds",
+            "lowercase_rfc3339",
+            "unsafe_ints",
+            "items",
+            "text",
+        ):
+            value = getattr(self, name)
+            if value:
+                out[name] = value
+        return out
+
+    @staticmethod
+    def from_json(d: Mapping[str, Any]) -> FieldStats:
+        return FieldStats(
+            types=dict(d.get("types", {})),
+            nulls=d.get("nulls", 0),
+            classes=dict(d.get("classes", {})),
+            samples={k: tuple(Example.from_json(e) for e in v) for k, v in d.get("samples", {}).items()},
+            minimum=d.get("minimum"),
+            maximum=d.get("maximum"),
+            max_length=d.get("max_length", 0),
+            int_digits=d.get("int_digits", 0),
+            frac_digits=d.get("frac_digits", 0),
+            leap_seconds=d.get("leap_seconds", 0),
+            lowercase_rfc3339=d.get("lowercase_rfc3339", 0),
+            unsafe_ints=d.get("unsafe_ints", 0),
+            items=d.get("items", 0),
+            text=d.get("text", 0),
+        )
+
+
+def merge_fields(
+    a: Mapping[str, FieldStats], b: Mapping[str, FieldStats]
+) -> dict[str, FieldStats]:
+    """Merge two path → FieldStats maps (paths present in one side are kept as they are)."""
+    out = dict(a)
+    for path, st in b.items():
+        out[path] = out[path].merge(st) if path in out else st
+    return dict(sorted(out.items()))
+
+
+def merge_all(maps: Iterable[Mapping[str, FieldStats]]) -> dict[str, FieldStats]:
+    out: dict[str, FieldStats] = {}
+    for m in maps:
+        out = merge_fields(out, m)
+    return out
+
+
+def with_samples(st: FieldStats, samples: dict[str, tuple[Example, ...]]) -> FieldStats:
+    return replace(st, samples=dict(sorted(samples.items())))

@@ -1,0 +1,160 @@
+"""Profile: the per-file results of a scan, and every view derived from them.
+
+A Profile is a value. Two profiles combine only through merge(), which unions their
+files by relative path; every derived view (fields, events, partitions) is computed from
+the sorted files, so the result is the same whatever order the files were read in.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import Any
+
+from driftline.observe import paths
+from driftline.observe.observation import Observation
+from driftline.observe.stats import FieldStats, merge_all
+from driftline.sources.base import FileIssue, FileResult
+from driftline.sources.discover import Skipped
+
+
+@dataclass(frozen=True, slots=True)
+class FieldSummary:
+    """One field path over a set of rows: its statistics plus the derived counts."""
+
+    path: str
+    stats: FieldStats
+    container: int  # rows (top level), parent struct values, or parent list elements
+
+    @property
+    def absent(self) -> int:
+        return max(self.container - self.stats.present, 0)
+
+    @property
+    def nullable(self) -> bool:
+        return self.stats.nulls > 0 or self.absent > 0
+
+    def share(self, n: int) -> float:
+        return n / self.container if self.container else 0.0
+
+
+def container_count(path: str, fields: Mapping[str, FieldStats], rows: int) -> int:
+    """How many places path could have held a value: the denominator of its shares."""
+    parent, how = paths.parent(path)
+    if parent is None:
+        return rows
+    pst = fields.get(parent)
+    if pst is None:
+        return 0
+    if how == "field":
+        return pst.types.get("struct", 0)
+    return pst.items
+
+
+def summarise(fields: Mapping[str, FieldStats], rows: int) -> dict[str, FieldSummary]:
+    return {p: FieldSummary(p, st, container_count(p, fields, rows)) for p, st in fields.items()}
+
+
+@dataclass(frozen=True)
+class Profile:
+    """What a scan found: files (sorted by relative path), what was skipped, and the options."""
+
+    root: str
+    files: tuple[FileResult, ...]
+    skipped: tuple[Skipped, ...] = ()
+    options: Mapping[str, Any] = field(default_factory=dict, compare=False)
+    duration_s: float = field(default=0.0, compare=False)
+
+    def __post_init__(self) -> None:
+        rels = [f.rel for f in self.files]
+        if rels != sorted(rels):
+            object.__setattr__(self, "files", tuple(sorted(self.files, key=lambda f: f.rel)))
+        if len(set(rels)) != len(rels):
+            raise ValueError("a profile holds each relative path once")
+
+    # -- combining -------------------------------------------------------------------
+    def merge(self, other: Profile) -> Profile:
+        """Union of two profiles' files; a file both hold must be the same result.
+
+        >>> Profile("r", ()).merge(Profile("r", ())).rows
+        0
+        """
+        mine = {f.rel: f for f in self.files}
+        for f in other.files:
+            if f.rel in mine and mine[f.rel] != f:
+                raise ValueError(f"both profiles hold {f.rel!r} with different content; rescan it")
+            mine[f.rel] = f
+        skipped = tuple(sorted(set(self.skipped) | set(other.skipped), key=lambda s: (s.rel, s.reason)))
+        return Profile(self.root, tuple(mine[k] for k in sorted(mine)), skipped, dict(self.options), self.duration_s + other.duration_s)
+
+    # -- derived views ----------------------------------------------------------------
+    @property
+    def rows(self) -> int:
+        return sum(f.rows for f in self.files)
+
+    @property
+    def bytes(self) -> int:
+        return sum(f.size for f in self.files)
+
+    @property
+    def issues(self) -> tuple[FileIssue, ...]:
+        return tuple(i for f in self.files for i in f.issues)
+
+    @property
+    def error_count(self) -> int:
+        return sum(f.errors for f in self.files)
+
+    def observations(self) -> Iterable[Observation]:
+        """Every batch observation in scan order: path order, then batch order."""
+        for f in self.files:
+            yield from f.observations
+
+    @cached_property
+    def stats(self) -> dict[str, FieldStats]:
+        return merge_all(o.fields for o in self.observations())
+
+    @cached_property
+    def fields(self) -> dict[str, FieldSummary]:
+        """Per field path over the whole scan."""
+        return summarise(self.stats, self.rows)
+
+    @cached_property
+    def events(self) -> tuple[Any, ...]:
+        from driftline.drift import drift_events
+
+        return drift_events(self)
+
+    def partition_keys(self) -> list[str]:
+        keys: list[str] = []
+        for f in self.files:
+            for k, _ in f.partitions:
+                if k not in keys:
+                    keys.append(k)
+        return keys
+
+    def by_partition(self, key: str) -> dict[str, dict[str, FieldSummary]]:
+        """Per value of partition key: the fields as they look in the files of that partition."""
+        groups: dict[str, list[FileResult]] = {}
+        for f in self.files:
+            value = dict(f.partitions).get(key)
+            if value is not None:
+                groups.setdefault(value, []).append(f)
+        out = {}
+        for value in sorted(groups):
+            files = groups[value]
+            merged = merge_all(o.fields for fr in files for o in fr.observations)
+            out[value] = summarise(merged, sum(fr.rows for fr in files))
+        return out
+
+    def file(self, rel: str) -> FileResult:
+        for f in self.files:
+            if f.rel == rel:
+                return f
+        raise KeyError(rel)
+
+    def __repr__(self) -> str:
+        return (
+            f"<Profile {self.root!r}: {len(self.files)} files, {self.rows:,} rows, "
+            f"{len(self.fields)} fields, {len(self.events)} drift events, {self.error_count} errors>"
+        )

@@ -1,0 +1,79 @@
+"""The scan: discover files, read each into a FileResult (in a process pool when asked), build a Profile."""
+
+from __future__ import annotations
+
+import os
+import time
+from collections.abc import Callable, Sequence
+from concurrent.futures import ProcessPoolExecutor
+
+
+from driftline.errors import InputPathError
+from driftline.profile import Profile
+from driftline.sources.base import FileResult, ReadOptions
+from driftline.sources.discover import FileRef, discover
+from driftline.sources.readers import read_file
+
+Progress = Callable[[int, int, str], None]  # (files done, files total, current file)
+
+
+def default_jobs() -> int:
+    return max(1, os.cpu_count() or 1)
+
+
+def scan_paths(
+    paths: Sequence[str | os.PathLike[str]],
+    *,
+    read: ReadOptions | None = None,
+    include: Sequence[str] = (),
+    exclude: Sequence[str] = (),
+    include_hidden: bool = False,
+    jobs: int = 1,
+    max_errors: int | None = None,
+    progress: Progress | None = None,
+) -> Profile:
+    """Scan paths into a Profile. Raises InputPathError when nothing can be found at all."""
+    opts = read or ReadOptions()
+    started = time.perf_counter()
+    found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden)
+    if not found.files:
+        raise InputPathError(
+            f"no readable data file under {', '.join(map(str, paths))} "
+            f"({len(found.skipped)} skipped); formats read: .jsonl .json .csv .tsv .parquet, optionally compressed"
+        )
+    results = _read_all(found.files, opts, jobs, max_errors, progress)
+    options = {"batch_rows": opts.batch_rows, "include": list(include), "exclude": list(exclude)}
+    return Profile(found.root, tuple(results), found.skipped, options, time.perf_counter() - started)
+
+
+def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
+              progress: Progress | None) -> list[FileResult]:
+    results: list[FileResult] = []
+    errors = 0
+    total = len(files)
+    if jobs <= 1 or total == 1:
+        for i, ref in enumerate(files):
+            if progress:
+                progress(i, total, ref.rel)
+            res = read_file(ref, opts)
+            results.append(res)
+            errors += res.errors
+            if max_errors is not None and errors >= max_errors:
+                break
+    else:
+        with ProcessPoolExecutor(max_workers=jobs) as pool:
+            # map keeps input order, so stopping at max_errors is the same as the serial run.
+            for i, res in enumerate(pool.map(read_file, files, [opts] * total, chunksize=max(1, total // (jobs * 8)))):
+                if progress:
+                    progress(i, total, res.rel)
+                results.append(res)
+                errors += res.errors
+                if max_errors is not None and errors >= max_errors:
+                    pool.shutdown(wait=True, cancel_futures=True)
+                    break
+    if progress:
+        progress(len(results), total, "")
+    return results
+
+
+

@@ -1,0 +1,1 @@
+"""Sources: turn user paths into FileRefs (discover) and FileRefs into batches (readers)."""

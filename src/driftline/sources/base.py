@@ -1,0 +1,97 @@
+"""What a reader returns: observations per batch, and the problems it met on the way."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+from driftline.observe.observation import Observation
+
+DEFAULT_BATCH_ROWS = 65_536
+DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
+DEFAULT_MAX_DECOMPRESSED_BYTES = 64 * 1024**3
+
+
+@dataclass(frozen=True, slots=True)
+class ReadOptions:
+    """Options every reader honours. Keyword-only, with safe defaults.
+
+    batch_rows              at most this many rows per batch (bounds memory per batch)
+    max_record_bytes        a longer JSON line / document / CSV row is reported, not read
+    max_decompressed_bytes  stop a compressed file past this many bytes (decompression bombs)
+    delimiter               CSV delimiter; None sniffs it from the first 64 KiB
+    """
+
+    batch_rows: int = DEFAULT_BATCH_ROWS
+    max_record_bytes: int = DEFAULT_MAX_RECORD_BYTES
+    max_decompressed_bytes: int = DEFAULT_MAX_DECOMPRESSED_BYTES
+    delimiter: str | None = None
+
+    def __post_init__(self) -> None:
+        if self.batch_rows < 1:
+            raise ValueError(f"batch_rows must be at least 1, got {self.batch_rows}")
+        if self.max_record_bytes < 1:
+            raise ValueError(f"max_record_bytes must be at least 1, got {self.max_record_bytes}")
+
+
+@dataclass(frozen=True, slots=True)
+class FileIssue:
+    """A problem in one file, with where it is. Warnings do not lose data; errors may."""
+
+    file: str
+    kind: str  # 'malformed-json' | 'ragged-row' | 'invalid-utf8' | 'unreadable' | 'truncated' | ...
+    message: str
+    severity: str = "error"  # 'error' | 'warning'
+    line: int | None = None
+    byte_offset: int | None = None
+    row: int | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "file": self.file,
+            "kind": self.kind,
+            "severity": self.severity,
+            "message": self.message,
+            "line": self.line,
+            "byte_offset": self.byte_offset,
+            "row": self.row,
+        }
+
+    @staticmethod
+    def from_json(d: Mapping[str, Any]) -> FileIssue:
+        return FileIssue(
+            d["file"], d["kind"], d["message"], d.get("severity", "error"), d.get("line"), d.get("byte_offset"), d.get("row")
+        )
+
+    def where(self) -> str:
+        parts = [self.file]
+        if self.line is not None:
+            parts.append(f"line {self.line}")
+        if self.row is not None:
+            parts.append(f"row {self.row}")
+        if self.byte_offset is not None:
+            parts.append(f"byte {self.byte_offset}")
+        return ", ".join(parts)
+
+
+@dataclass(frozen=True, slots=True)
+class FileResult:
+    """Everything one file contributed to a scan."""
+
+    rel: str
+    format: str
+    compression: str | None
+    partitions: tuple[tuple[str, str], ...]
+    size: int
+    mtime_ns: int
+    rows: int = 0
+    observations: tuple[Observation, ...] = ()
+    issues: tuple[FileIssue, ...] = ()
+    declared: dict[str, str] | None = None  # Parquet footer: path → type key
+    complete: bool = True  # False when a fatal problem stopped the read early
+    digest: str | None = field(default=None, compare=False)
+
+    @property
+    def errors(self) -> int:
+        return sum(1 for i in self.issues if i.severity == "error")

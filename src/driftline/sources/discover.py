@@ -1,0 +1,211 @@
+"""Discovery: user paths and globs → a sorted, deduplicated list of FileRef.
+
+Normalises user input once at the edge; the rest of the scan only sees FileRef.
+"""
+
+from __future__ import annotations
+
+import fnmatch
+import glob
+import os
+import stat
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, field
+
+from driftline.errors import InputPathError
+from driftline.sources.formats import detect_compression, detect_format
+
+
+@dataclass(frozen=True, slots=True)
+class FileRef:
+    """One input file: where it is, how the report names it, and how to read it."""
+
+    path: str  # absolute local path
+    rel: str  # posix path relative to the scan root: the name used in every report
+    partitions: tuple[tuple[str, str], ...]  # from key=value folders, outermost first
+    format: str  # 'jsonl' | 'json' | 'csv' | 'tsv' | 'parquet'
+    compression: str | None  # 'gzip' | 'bz2' | 'zstd' | 'xz' | None
+    size: int
+    mtime_ns: int
+
+
+@dataclass(frozen=True, slots=True)
+class Skipped:
+    """A path discovery passed over, and why (counted in the report)."""
+
+    rel: str
+    reason: str  # 'hidden' | 'marker' | 'excluded' | 'not-included' | 'special' | 'symlink-loop' | 'unknown-format'
+
+
+@dataclass(frozen=True, slots=True)
+class Discovery:
+    root: str
+    files: tuple[FileRef, ...]
+    skipped: tuple[Skipped, ...] = field(default=())
+
+
+def partition_values(rel: str) -> tuple[tuple[str, str], ...]:
+    """Partition values from the key=value folders of a relative path.
+
+    Values are data, never paths: they are kept verbatim as strings.
+
+    >>> partition_values("region=north/day=2026-11-30/part-0.jsonl")
+    (('region', 'north'), ('day', '2026-11-30'))
+    """
+    parts = rel.split("/")[:-1]
+    out = []
+    for part in parts:
+        key, sep, value = part.partition("=")
+        if sep and key:
+            out.append((key, value))
+    return tuple(out)
+
+
+def _display(path: str) -> str:
+    # File names that are not valid UTF-8 reach reports with surrogate escapes replaced.
+    return path.encode("utf-8", "surrogateescape").decode("utf-8", "backslashreplace")
+
+
+def _matches(rel: str, patterns: Sequence[str]) -> bool:
+    name = rel.rsplit("/", 1)[-1]
+    return any(fnmatch.fnmatchcase(rel, p) or fnmatch.fnmatchcase(name, p) for p in patterns)
+
+
+def _expand(arg: str) -> list[str]:
+    if any(ch in arg for ch in "*?["):
+        hits = sorted(glob.glob(arg, recursive=True))
+        if not hits:
+            raise InputPathError(f"no file matches the pattern {arg!r}")
+        return hits
+    if not os.path.lexists(arg):
+        raise InputPathError(f"{arg!r} does not exist; give a file, a folder or a glob")
+    return [arg]
+
+
+def _walk(top: str) -> Iterable[tuple[str, os.stat_result | None, str | None]]:
+    """Yield (path, stat, problem) for every entry below top, never following a loop."""
+    seen: set[tuple[int, int]] = set()
+    stack = [top]
+    while stack:
+        folder = stack.pop()
+        try:
+            st = os.stat(folder)
+        except OSError as exc:
+            yield folder, None, f"cannot list: {exc.strerror}"
+            continue
+        ident = (st.st_dev, st.st_ino)
+        if ident in seen:
+            yield folder, None, "symlink-loop"
+            continue
+        seen.add(ident)
+        try:
+            entries = sorted(os.scandir(folder), key=lambda e: e.name, reverse=True)
+        except OSError as exc:
+            yield folder, None, f"cannot list: {exc.strerror}"
+            continue
+        for entry in entries:
+            try:
+                is_dir = entry.is_dir()  # follows symlinks; loops are caught by `seen`
+            except OSError:
+                is_dir = False
+            if is_dir:
+                stack.append(entry.path)
+                continue
+            try:
+                yield entry.path, entry.stat(), None
+            except OSError as exc:
+                yield entry.path, None, f"cannot stat: {exc.strerror}"
+
+
+def discover(
+    paths: Sequence[str | os.PathLike[str]],
+    *,
+    include: Sequence[str] = (),
+    exclude: Sequence[str] = (),
+    include_hidden: bool = False,
+) -> Discovery:
+    """Find the input files below paths, in sorted relative-path order.
+
+    Hidden files and markers (names starting with '.' or '_') are skipped and counted,
+    and so are folders of those names, unless include_hidden is set.
+    """
+    if not paths:
+        raise InputPathError("no input path given; name a file, a folder or a glob")
+    expanded: list[str] = []
+    for p in paths:
+        expanded.extend(_expand(os.fspath(p)))
+    absolute = [os.path.abspath(p) for p in expanded]
+    root = _common_root(absolute)
+    files: dict[str, FileRef] = {}
+    skipped: list[Skipped] = []
+    for top in absolute:
+        entries = _walk(top) if os.path.isdir(top) else [(top, _stat(top), None)]
+        for path, st, problem in entries:
+            rel = _display(os.path.relpath(path, root).replace(os.sep, "/"))
+            if rel == ".":
+                rel = _display(os.path.basename(path))
+            if problem is not None:
+                skipped.append(Skipped(rel, problem))
+                continue
+            verdict = _filter(rel, st, include, exclude, include_hidden)
+            if verdict is not None:
+                skipped.append(Skipped(rel, verdict))
+                continue
+            fmt = detect_format(path)
+            if fmt is None:
+                skipped.append(Skipped(rel, "unknown-format"))
+                continue
+            assert st is not None
+            files[rel] = FileRef(
+                path=path,
+                rel=rel,
+                partitions=partition_values(rel),
+                format=fmt,
+                compression=detect_compression(path),
+                size=st.st_size,
+                mtime_ns=st.st_mtime_ns,
+            )
+    ordered = tuple(files[k] for k in sorted(files))
+    return Discovery(root=_display(root), files=ordered, skipped=tuple(sorted(set(skipped), key=lambda s: s.rel)))
+
+
+def _stat(path: str) -> os.stat_result | None:
+    try:
+        return os.stat(path)
+    except OSError:
+        return None
+
+
+def _filter(
+    rel: str,
+    st: os.stat_result | None,
+    include: Sequence[str],
+    exclude: Sequence[str],
+    include_hidden: bool,
+) -> str | None:
+    parts = rel.split("/")
+    if not include_hidden:
+        for part in parts:
+            if part.startswith("."):
+                return "hidden"
+            if part.startswith("_"):
+                return "marker"
+    if st is None:
+        return "cannot stat"
+    if not stat.S_ISREG(st.st_mode):
+        return "special"  # FIFOs, sockets and devices are never opened
+    if exclude and _matches(rel, exclude):
+        return "excluded"
+    if include and not _matches(rel, include):
+        return "not-included"
+    return None
+
+
+def _common_root(paths: Sequence[str]) -> str:
+    if len(paths) == 1:
+        only = paths[0]
+        return only if os.path.isdir(only) else os.path.dirname(only)
+    common = os.path.commonpath(paths)
+    return common if os.path.isdir(common) else os.path.dirname(common)
+
+

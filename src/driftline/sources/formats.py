@@ -1,0 +1,136 @@
+"""Format and compression detection, and opening a file as a decompressed byte stream."""
+
+from __future__ import annotations
+
+import bz2
+import gzip
+import io
+import lzma
+from typing import BinaryIO
+
+COMPRESSION_BY_SUFFIX = {".gz": "gzip", ".gzip": "gzip", ".bz2": "bz2", ".zst": "zstd", ".zstd": "zstd", ".xz": "xz"}
+FORMAT_BY_SUFFIX = {
+    ".jsonl": "jsonl",
+    ".ndjson": "jsonl",
+    ".jsonlines": "jsonl",
+    ".json": "json",
+    ".csv": "csv",
+    ".tsv": "tsv",
+    ".tab": "tsv",
+    ".parquet": "parquet",
+    ".pq": "parquet",
+    ".parq": "parquet",
+}
+# Magic numbers of the compressed containers, for files whose name says nothing.
+_MAGIC = ((b"\x1f\x8b", "gzip"), (b"BZh", "bz2"), (b"\x28\xb5\x2f\xfd", "zstd"), (b"\xfd7zXZ\x00", "xz"))
+
+
+def _suffixes(path: str) -> list[str]:
+    name = path.replace("\\", "/").rsplit("/", 1)[-1].lower()
+    return ["." + s for s in name.split(".")[1:]]
+
+
+def detect_compression(path: str) -> str | None:
+    """Compression from the last suffix, else from the file's magic number."""
+    sfx = _suffixes(path)
+    if sfx and sfx[-1] in COMPRESSION_BY_SUFFIX:
+        return COMPRESSION_BY_SUFFIX[sfx[-1]]
+    head = _head(path, 8)
+    for magic, name in _MAGIC:
+        if head.startswith(magic):
+            return name
+    return None
+
+
+def detect_format(path: str) -> str | None:
+    """Format from the suffix before any compression suffix, else by sniffing the first bytes."""
+    sfx = _suffixes(path)
+    while sfx and sfx[-1] in COMPRESSION_BY_SUFFIX:
+        sfx.pop()
+    if sfx and sfx[-1] in FORMAT_BY_SUFFIX:
+        return FORMAT_BY_SUFFIX[sfx[-1]]
+    return sniff_format(path)
+
+
+def sniff_format(path: str) -> str | None:
+    """Guess the format of a file whose name says nothing, from its first 4 KiB."""
+    raw = _head(path, 4)
+    if raw == b"PAR1":
+        return "parquet"
+    try:
+        with open_stream(path, detect_compression(path), limit=None) as stream:
+            head = stream.read(4096)
+    except (OSError, EOFError, ValueError):
+        return None
+    text = head.lstrip(b"\xef\xbb\xbf").lstrip()
+    if text.startswith(b"{"):
+        return "jsonl"
+    if text.startswith(b"["):
+        return "json"
+    if b"\x00" in head or not text:
+        return None
+    first = text.split(b"\n", 1)[0]
+    if b"\t" in first:
+        return "tsv"
+    if b"," in first or b";" in first or b"|" in first:
+        return "csv"
+    return None
+
+
+def _head(path: str, n: int) -> bytes:
+    try:
+        with open(path, "rb") as fh:
+            return fh.read(n)
+    except OSError:
+        return b""
+
+
+class LimitExceeded(ValueError):
+    """More decompressed bytes than the limit allows (a decompression bomb, or a too-large file)."""
+
+
+class _Limited(io.RawIOBase):
+    """Counts decompressed bytes and stops at a limit, so a bomb cannot fill memory."""
+
+    def __init__(self, inner: BinaryIO, limit: int) -> None:
+        self._inner = inner
+        self._limit = limit
+        self.count = 0
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
+        n = self._inner.readinto(buf)  # type: ignore[attr-defined]
+        self.count += n or 0
+        if self.count > self._limit:
+            raise LimitExceeded(f"more than {self._limit:,} decompressed bytes (--max-decompressed-bytes)")
+        return n or 0
+
+    def close(self) -> None:
+        self._inner.close()
+        super().close()
+
+
+def open_stream(path: str, compression: str | None, *, limit: int | None) -> BinaryIO:
+    """Open path for reading as decompressed bytes, never for writing."""
+    raw: BinaryIO = open(path, "rb")  # noqa: SIM115 - returned to the caller
+    stream: BinaryIO
+    if compression is None:
+        stream = raw
+    elif compression == "gzip":
+        stream = gzip.GzipFile(fileobj=raw, mode="rb")  # type: ignore[assignment]
+    elif compression == "bz2":
+        stream = bz2.BZ2File(raw, mode="rb")  # type: ignore[assignment]
+    elif compression == "xz":
+        stream = lzma.LZMAFile(raw, mode="rb")  # type: ignore[assignment]
+    elif compression == "zstd":
+        import zstandard
+
+        stream = zstandard.ZstdDecompressor().stream_reader(raw, closefd=True)  # type: ignore[assignment]
+    else:  # pragma: no cover - guarded by detect_compression
+        raw.close()
+        raise ValueError(f"unknown compression {compression!r}")
+    if limit is None:
+        return stream
+    return io.BufferedReader(_Limited(stream, limit), buffer_size=1 << 20)  # type: ignore[return-value]

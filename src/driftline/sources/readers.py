@@ -1,0 +1,150 @@
+"""Read one FileRef completely: dispatch on its format, never raise for bad content."""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import lzma
+import zlib
+from collections.abc import Iterator
+from typing import Any
+
+from driftline.observe.observation import Observation
+from driftline.sources.base import FileIssue, FileResult, ReadOptions
+from driftline.sources.csvfile import read_csv
+from driftline.sources.discover import FileRef
+from driftline.sources.formats import LimitExceeded, open_stream
+from driftline.sources.jsonfile import read_json, read_jsonl
+from driftline.sources.parquetfile import read_parquet
+
+
+class _SafeStream(io.RawIOBase):
+    """Turns a decompression or I/O failure into end of data, remembering what happened.
+
+    Readers then finish normally and keep every row read before the failure.
+    """
+
+    def __init__(self, inner: Any) -> None:
+        self._inner = inner
+        self.failure: BaseException | None = None
+        self.consumed = 0
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buf: Any) -> int:
+        if self.failure is not None:
+            return 0
+        try:
+            data = self._inner.read(len(buf))
+        except (OSError, EOFError, zlib.error, lzma.LZMAError, LimitExceeded, ValueError, MemoryError) as exc:
+            self.failure = exc
+            return 0
+        except Exception as exc:  # zstandard.ZstdError and friends
+            self.failure = exc
+            return 0
+        n = len(data)
+        buf[:n] = data
+        self.consumed += n
+        return n
+
+    def close(self) -> None:
+        try:
+            self._inner.close()
+        finally:
+            super().close()
+
+
+def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str, str]:
+    if isinstance(exc, LimitExceeded):
+        return "too-large", f"{exc}; rest of the file not profiled"
+    if isinstance(exc, EOFError) or "end" in str(exc).lower() and compression:
+        return "truncated", f"{compression or 'file'} data ends early ({exc}); rows before it were profiled"
+    if isinstance(exc, PermissionError):
+        return "unreadable", "permission denied"
+    return "unreadable", f"read failed: {exc}"
+
+
+def _items(ref: FileRef, opts: ReadOptions, stream: Any) -> Iterator[Any]:
+    if ref.format == "jsonl":
+        return read_jsonl(stream, ref.rel, opts)
+    if ref.format == "json":
+        return read_json(stream, ref.rel, opts)
+    return read_csv(stream, ref.rel, opts, tsv=ref.format == "tsv")
+
+
+def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileResult:
+    """Read a whole file into a FileResult. Problems become FileIssues; nothing is raised."""
+    observations: list[Observation] = []
+    issues: list[FileIssue] = []
+    declared: dict[str, str] | None = None
+    complete = True
+    try:
+        if ref.format == "parquet":
+            if ref.compression is not None:
+                issues.append(FileIssue(ref.rel, "unsupported", f"{ref.compression}-compressed Parquet files are not read; Parquet compresses its pages itself"))
+                items: Iterator[Any] = iter(())
+                complete = False
+            else:
+                items = read_parquet(ref.path, ref.rel, opts)
+            for item in items:
+                if isinstance(item, dict):
+                    declared = item
+                elif isinstance(item, FileIssue):
+                    issues.append(item)
+                    complete = complete and item.severity != "error"
+                else:
+                    observations.append(item)
+        else:
+            try:
+                raw = open_stream(ref.path, ref.compression, limit=opts.max_decompressed_bytes)
+            except OSError as exc:
+                kind, msg = _describe_failure(exc, None)
+                return _result(ref, [], [FileIssue(ref.rel, kind, f"cannot open: {msg}")], None, False)
+            safe = _SafeStream(raw)
+            with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
+                for item in _items(ref, opts, stream):
+                    (issues if isinstance(item, FileIssue) else observations).append(item)
+            if safe.failure is not None:
+                complete = False
+                kind, msg = _describe_failure(safe.failure, ref.compression)
+                issues.append(FileIssue(ref.rel, kind, msg, byte_offset=safe.consumed if ref.compression is None else None))
+    except Exception as exc:  # a reader bug must not stop the scan of the other files
+        complete = False
+        issues.append(FileIssue(ref.rel, "internal", f"unexpected {type(exc).__name__}: {exc}; please report this file"))
+    if not observations and not issues and ref.size == 0:
+        issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
+    result = _result(ref, observations, issues, declared, complete)
+    if digest:
+        result = _with_digest(result, ref.path)
+    return result
+
+
+def _result(ref: FileRef, observations: list[Observation], issues: list[FileIssue], declared: dict[str, str] | None, complete: bool) -> FileResult:
+    return FileResult(
+        rel=ref.rel,
+        format=ref.format,
+        compression=ref.compression,
+        partitions=ref.partitions,
+        size=ref.size,
+        mtime_ns=ref.mtime_ns,
+        rows=sum(o.rows for o in observations),
+        observations=tuple(observations),
+        issues=tuple(issues),
+        declared=declared,
+        complete=complete,
+    )
+
+
+def _with_digest(result: FileResult, path: str) -> FileResult:
+    from dataclasses import replace
+
+    h = hashlib.blake2b(digest_size=16)
+    try:
+        with open(path, "rb") as fh:
+            while chunk := fh.read(1 << 20):
+                h.update(chunk)
+    except OSError:
+        return result
+    return replace(result, digest=h.hexdigest())
+
