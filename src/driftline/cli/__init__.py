@@ -1,0 +1,84 @@
+"""The command line: a thin layer over the library. Nothing below driftline.cli imports it.
+
+Exit codes (all verbs):
+  0  done (scan: the data could be read; drift is information, not failure)
+  1  check: a policy violation
+  2  usage or input error: bad option, missing path, nothing readable, unwritable output
+"""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Callable
+from functools import wraps
+from typing import Any, TypeVar
+
+import typer
+from rich.console import Console
+
+from driftline import __version__
+from driftline.errors import DriftlineError
+from driftline.emit.safe import safe_text
+
+EXIT_OK, EXIT_VIOLATION, EXIT_USAGE = 0, 1, 2
+
+app = typer.Typer(
+    name="driftline",
+    help=(
+        "Profile raw landing directories (JSON Lines, JSON, CSV/TSV, Parquet; gz/bz2/zst/xz) in record "
+        "batches: observed schemas, drift with file/partition/row provenance, unified schema and cast "
+        "rules, pipeline gates.\n\n"
+        "Exit codes: 0 done, 1 policy violation (check), 2 usage or input error."
+    ),
+    no_args_is_help=True,
+    add_completion=False,
+    rich_markup_mode=None,
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
+
+err_console = Console(stderr=True, highlight=False)
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+
+def handles_errors(fn: F) -> F:
+    """Turn library errors into 'Type: message' on stderr and exit code 2, never a traceback."""
+
+    @wraps(fn)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        try:
+            return fn(*args, **kwargs)
+        except DriftlineError as exc:
+            err_console.print(f"{type(exc).__name__}: {safe_text(exc, None)}", markup=False)
+            raise typer.Exit(EXIT_USAGE) from None
+        except KeyboardInterrupt:
+            err_console.print("interrupted; no output file was left half-written", markup=False)
+            raise typer.Exit(130) from None
+
+    return wrapper  # type: ignore[return-value]
+
+
+def _version(value: bool) -> None:
+    if value:
+        print(f"driftline {__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _root(
+    version: bool = typer.Option(False, "--version", callback=_version, is_eager=True, help="Print the version and exit."),
+) -> None:
+    """driftline: what is really in a landing directory."""
+
+
+# Verbs register themselves on `app` when imported.
+from driftline.cli import scan_cmd  # noqa: E402,F401
+
+
+def main() -> None:
+    """Console-script entry point."""
+    try:
+        app(prog_name="driftline")
+    except BrokenPipeError:  # `driftline scan … | head` is fine
+        sys.stderr.close()
+        sys.exit(0)

@@ -1,0 +1,105 @@
+"""`driftline scan`: profile paths and print or save the report."""
+
+from __future__ import annotations
+
+import sys
+import time
+from pathlib import Path
+
+import typer
+from rich.console import Console
+from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.emit.atomic import write_output
+from driftline.emit.safe import safe_text
+from driftline.emit.terminal import render
+from driftline.errors import InputPathError
+from driftline.report import dumps
+from driftline.scan import default_jobs, scan_paths
+from driftline.sources.base import DEFAULT_BATCH_ROWS, DEFAULT_MAX_RECORD_BYTES, ReadOptions
+
+SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
+
+Folders are walked recursively in sorted order; key=value folder names become partition
+values. Files starting with '.' or '_' are skipped and counted. Formats come from the
+extension (.jsonl .ndjson .json .csv .tsv .parquet, plus .gz .bz2 .zst .xz) or from the
+first bytes.
+
+Examples:
+
+  driftline scan landing/
+
+  driftline scan landing/ --json report.json
+
+  driftline scan a.jsonl b.csv.gz exports/ --include '*.jsonl' --exclude '_*' --batch-rows 50000
+
+Exit codes: 0 the data could be read (drift is information); 2 usage or input error
+(a path that does not exist, nothing readable, an unwritable output).
+"""
+
+
+class _Bar:
+    """A progress bar on stderr, shown only on a terminal and only once a scan takes a moment."""
+
+    def __init__(self, enabled: bool) -> None:
+        self.enabled = enabled
+        self.started = time.monotonic()
+        self.progress: Progress | None = None
+        self.task = None
+
+    def __call__(self, done: int, total: int, current: str) -> None:
+        if not self.enabled:
+            return
+        if self.progress is None:
+            if time.monotonic() - self.started < 0.5 or done >= total:
+                return
+            self.progress = Progress(
+                TextColumn("scanning"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+                TextColumn("{task.description}"), console=err_console, transient=True,
+            )
+            self.progress.start()
+            self.task = self.progress.add_task("", total=total)
+        assert self.task is not None
+        self.progress.update(self.task, completed=done, description=safe_text(current, 60))
+
+    def close(self) -> None:
+        if self.progress is not None:
+            self.progress.stop()
+
+
+@app.command("scan", help=SCAN_HELP, no_args_is_help=True)
+@handles_errors
+def scan_command(
+    paths: list[str] = typer.Argument(..., help="Files, folders or globs to scan."),
+    json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the whole report as JSON ('-' for stdout)."),
+    include: list[str] = typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable)."),
+    exclude: list[str] = typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable)."),
+    batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch: drift is tracked batch by batch and memory is bounded by it."),
+    jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel (processes). Results do not depend on it."),
+    max_errors: int | None = typer.Option(None, "--max-errors", min=1, help="Stop reading new files once this many errors were found."),
+    max_record_bytes: int = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer JSON lines / CSV rows are reported, not read."),
+    delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
+    hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
+) -> None:
+    opts = ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter)
+    bar = _Bar(sys.stderr.isatty() and not quiet)
+    try:
+        profile = scan_paths(paths, read=opts, include=include, exclude=exclude, include_hidden=hidden,
+                             jobs=jobs, max_errors=max_errors, progress=bar)
+    finally:
+        bar.close()
+    if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
+        render(profile, err_console)
+        raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed (see the problems above)")
+    if json_out is not None:
+        write_output(json_out, dumps(profile))
+    if not quiet:
+        # Data goes to stdout; when the JSON report takes stdout, the summary moves to stderr.
+        console = err_console if json_out == "-" else Console(highlight=False)
+        render(profile, console)
+        if json_out not in (None, "-"):
+            console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
+    if profile.rows == 0 and not profile.files:
+        raise typer.Exit(EXIT_USAGE)

@@ -1,0 +1,1 @@
+"""Emit: reports and schema files out of a Profile (terminal, JSON, HTML, schema formats)."""

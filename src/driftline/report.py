@@ -1,0 +1,149 @@
+"""The JSON scan report: writing a Profile out and loading it back, losslessly.
+
+The format is described by docs/report.schema.json (JSON Schema 2020-12). A saved report loads back into an equal Profile, so later verbs (schema, diff,
+check) can work from it without rescanning.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from collections.abc import Mapping
+from pathlib import Path
+from typing import Any
+
+import orjson
+import pyarrow as pa
+
+from driftline import __version__
+from driftline.errors import ReportVersionError
+from driftline.lattice import join_all, parse_key
+from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
+from driftline.observe.textclass import classify
+from driftline.profile import Profile
+from driftline.sources.base import FileIssue, FileResult
+from driftline.sources.discover import Skipped
+
+REPORT_FORMAT = "driftline-report"
+REPORT_VERSION = 1
+
+
+def partition_types(profile: Profile) -> dict[str, dict[str, Any]]:
+    """Each partition key with its distinct values and the type those values read as."""
+    values: dict[str, set[str]] = {}
+    for f in profile.files:
+        for k, v in f.partitions:
+            values.setdefault(k, set()).add(v)
+    out = {}
+    for key in profile.partition_keys():
+        vals = sorted(values[key])
+        scan = classify(pa.array(vals, pa.string()))
+        kinds = [TEXT_CLASS_TYPE[c] for c in scan.counts]
+        inferred = join_all(parse_key(k) for k in kinds if k is not None).key() if any(kinds) else "null"
+        out[key] = {"type": inferred, "values": vals}
+    return out
+
+
+def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
+    """The whole report as plain JSON data."""
+    formats = Counter(f.format for f in profile.files)
+    issues = profile.issues
+    return {
+        "format": REPORT_FORMAT,
+        "version": REPORT_VERSION,
+        "tool": {"name": "driftline", "version": __version__},
+        "root": profile.root,
+        "options": dict(profile.options),
+        "duration_s": round(profile.duration_s, 3),
+        "summary": {
+            "files": len(profile.files),
+            "rows": profile.rows,
+            "bytes": profile.bytes,
+            "formats": dict(sorted(formats.items())),
+            "fields": len(profile.fields),
+            "events": len(profile.events),
+            "errors": sum(1 for i in issues if i.severity == "error"),
+            "warnings": sum(1 for i in issues if i.severity == "warning"),
+            "skipped": len(profile.skipped),
+        },
+        "partitions": partition_types(profile),
+        "fields": {
+            path: {
+                "container": s.container,
+                "absent": s.absent,
+                "nullable": s.nullable,
+                **s.stats.to_json(),
+            }
+            for path, s in profile.fields.items()
+        },
+        "events": [e.to_json() for e in profile.events],
+        "files": [_file_json(f, batches) for f in profile.files],
+        "skipped": [{"path": s.rel, "reason": s.reason} for s in profile.skipped],
+    }
+
+
+def _file_json(f: FileResult, batches: bool) -> dict[str, Any]:
+    return {
+        "path": f.rel,
+        "format": f.format,
+        "compression": f.compression,
+        "partitions": dict(f.partitions),
+        "size": f.size,
+        "mtime_ns": f.mtime_ns,
+        "rows": f.rows,
+        "complete": f.complete,
+        "declared": f.declared,
+        "issues": [i.to_json() for i in f.issues],
+        "batches": [o.to_json() for o in f.observations] if batches else None,
+    }
+
+
+def dumps(profile: Profile) -> bytes:
+    return orjson.dumps(to_dict(profile), option=orjson.OPT_INDENT_2 | orjson.OPT_NON_STR_KEYS) + b"\n"
+
+
+def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
+    """Load report data back into a Profile. Raises ReportVersionError for another format."""
+    if not isinstance(data, Mapping) or data.get("format") != REPORT_FORMAT:
+        raise ReportVersionError(f"{source} is not a driftline scan report (no \"format\": \"{REPORT_FORMAT}\")")
+    if data.get("version") != REPORT_VERSION:
+        raise ReportVersionError(
+            f"{source} has report version {data.get('version')!r}; this driftline reads version {REPORT_VERSION}. "
+            "Rescan the data to make a new report."
+        )
+    files = []
+    for fd in data["files"]:
+        if fd.get("batches") is None:
+            raise ReportVersionError(f"{source} was written without batch observations; rescan to load it")
+        rel = fd["path"]
+        files.append(
+            FileResult(
+                rel=rel,
+                format=fd["format"],
+                compression=fd.get("compression"),
+                partitions=tuple(fd.get("partitions", {}).items()),
+                size=fd["size"],
+                mtime_ns=fd["mtime_ns"],
+                rows=fd["rows"],
+                observations=tuple(Observation.from_json(rel, o) for o in fd["batches"]),
+                issues=tuple(FileIssue.from_json(i) for i in fd.get("issues", [])),
+                declared=fd.get("declared"),
+                complete=fd.get("complete", True),
+            )
+        )
+    skipped = tuple(Skipped(s["path"], s["reason"]) for s in data.get("skipped", []))
+    return Profile(data["root"], tuple(files), skipped, dict(data.get("options", {})), data.get("duration_s", 0.0))
+
+
+def load_report(path: str | Path) -> Profile:
+    """Read a saved scan report (JSON) back into a Profile."""
+    from driftline.errors import InputPathError
+
+    try:
+        raw = Path(path).read_bytes()
+    except OSError as exc:
+        raise InputPathError(f"cannot read report {str(path)!r}: {exc.strerror}") from None
+    try:
+        data = orjson.loads(raw)
+    except orjson.JSONDecodeError as exc:
+        raise ReportVersionError(f"{str(path)!r} is not JSON ({exc.msg} at line {exc.lineno}); give a report that driftline wrote") from None
+    return from_dict(data, source=repr(str(path)))
