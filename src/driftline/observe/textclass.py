@@ -48,7 +48,7 @@ the tests pin these facts):
   ``t``/``z`` are rejected; unit ``us`` rejects more than 6 fraction digits.
 
 Two things RFC 3339 allows but those casts reject are kept in their class and
-normalised only for the validity check, the cast rule has to do the same:
+normalised only for the validity check (a cast rule has to do the same):
 leap seconds (``:60``, counted in ``ClassScan.leap_seconds``) and lowercase
 ``t``/``z`` (counted in ``ClassScan.lowercase_rfc3339``).  A third one is
 fractions longer than microseconds (RFC 3339 has ``1*DIGIT``; Go's
@@ -208,7 +208,15 @@ _TIMESTAMP_CLASSES = ("timestamp_rfc3339", "timestamp_offset", "timestamp_local"
 
 @dataclass(frozen=True, slots=True)
 class ClassScan:
-    """What :func:`classify` found in one column (nulls are not counted)."""
+    """What :func:`classify` found in one column (nulls are not counted).
+
+    ``counts`` and ``first_index`` hold only classes that occur, in CLASSES
+    order; indices are positions in the whole (possibly chunked) input.
+    ``int_digits + frac_digits`` is the precision that holds every integer and
+    decimal value at scale ``frac_digits``.  Each decimal value has at most 76
+    digits, but the two maxima can come from different values and add up to
+    more, in which case no decimal type holds the column.
+    """
 
     counts: dict[str, int]
     first_index: dict[str, int]
@@ -248,8 +256,9 @@ def class_of(value: str) -> str:
         return "decimal"
     if _PY["float"].fullmatch(value):
         return "float"
-    # The clock ranges are in the patterns; only the day can still be wrong,
-    # and all temporal shapes share the same date prefix.
+    # The clock ranges are in the patterns, so only the day can still be
+    # wrong; the temporal shapes exclude one another, so a shaped value with
+    # an impossible day matches nothing further and is text.
     for name in ("date", *_TIMESTAMP_CLASSES):
         if _PY[name].fullmatch(value):
             return name if _real_day(value) else "text"
@@ -327,10 +336,14 @@ def _seconds_are_60(values: pa.Array) -> pa.BooleanArray:
     )
 
 
-def _normalise_for_cast(values: pa.Array) -> pa.Array:
-    """Turn valid RFC 3339 the casts reject into an equivalent they take."""
-    # Only t/z can be lower case in a matched value, so ASCII upper is exact.
-    values = pc.ascii_upper(values)
+def _normalise_for_cast(values: pa.Array, name: str) -> pa.Array:
+    """Turn valid values the casts reject into equivalents they take."""
+    if name == "date":
+        return values
+    if name == "timestamp_rfc3339":
+        # Only t/z can be lower case in a matched value, so ASCII upper is
+        # exact; the other two patterns admit upper case only.
+        values = pc.ascii_upper(values)
     leap = _seconds_are_60(values)
     if leap.true_count:
         # :59 has the same calendar validity as the :60 it stands in for.
@@ -373,7 +386,7 @@ def _masks(arr: pa.Array) -> dict[str, pa.BooleanArray]:
     for name in ("date", *_TIMESTAMP_CLASSES):
         shaped = pc.and_(_false_if_null(pc.match_substring_regex(arr, _RE2[name])), remaining)
         if shaped.true_count:
-            subset = _normalise_for_cast(arr.filter(shaped))
+            subset = _normalise_for_cast(arr.filter(shaped), name)
             ok = _cast_ok(subset, _TEMPORAL_CAST[name])
             # Scatter the subset's verdicts back to their positions.
             shaped = pc.replace_with_mask(shaped, shaped, ok)
