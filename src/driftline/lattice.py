@@ -1,18 +1,14 @@
-"""The type lattice: driftline's own type values and the one widening ``join``.
+"""The type lattice: driftline's type values, kept as data, and the one widening ``join``.
 
-Arrow has many spellings of one logical type (``string``/``large_string``/
-``string_view``, four decimal widths, dictionary encoding ...). ``from_arrow``
-folds them into a :class:`DType`; ``join`` then widens two observed types into
-the narrowest type holding both. Types of different *families* never coerce:
-they meet in a ``union`` with one member per family, which keeps ``join``
-commutative and associative by construction.
+``from_arrow`` folds Arrow's many spellings of a type (large/view strings, decimal widths,
+dictionaries ...) into one :class:`DType`. ``join`` widens within a family; across families
+types meet in a ``union`` with one member per family, so ``join`` stays commutative and
+associative by construction.
 
 >>> join(from_arrow(pa.int32()), from_arrow(pa.uint32())).key()
 'int64'
 >>> join(INT64, STRING).key()
 'union<int64 | string>'
->>> parse_key('list<decimal(10,2)>') == DType('list', item=DType('decimal', precision=10, scale=2))
-True
 """
 
 from __future__ import annotations
@@ -22,7 +18,7 @@ import functools
 import re
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
-from typing import NamedTuple
+from typing import NamedTuple, TypeVar
 
 import pyarrow as pa
 
@@ -40,7 +36,7 @@ _OPTIONAL = ('unit', 'tz', 'precision', 'scale', 'item', 'fields', 'members')
 _REQUIRED = frozenset({'unit', 'precision', 'scale', 'item'})
 _PARAMS: dict[str, frozenset[str]] = {
     **dict.fromkeys(NAMES, frozenset()),
-    **dict.fromkeys(('time32', 'time64', 'duration'), frozenset({'unit'})),
+    **dict.fromkeys(_UNITS_OF, frozenset({'unit'})),
     'timestamp': frozenset({'unit', 'tz'}), 'decimal': frozenset({'precision', 'scale'}),
     'list': frozenset({'item'}), 'struct': frozenset({'fields'}), 'map': frozenset({'fields'}),
     'union': frozenset({'members'}),
@@ -164,9 +160,7 @@ def family(t: DType) -> str:
 
 # Families whose members form a chain: the join is whichever comes later.
 _CHAINS: dict[str, tuple[str, ...]] = {
-    'bool': ('bool',),
-    'string': ('string',),
-    'binary': ('binary',),
+    'bool': ('bool',), 'string': ('string',), 'binary': ('binary',),
     # A date is midnight of that day, which every local timestamp holds exactly.
     'local-time': ('date32', 'date64', *(f'timestamp[{u}]' for u in _UNITS)),
     'time': ('time32[s]', 'time32[ms]', 'time64[us]', 'time64[ns]'),
@@ -228,7 +222,8 @@ def _canon(n: _Num) -> DType:
 
 
 def _join_numeric(a: DType, b: DType) -> DType:
-    # Every feature joins by max, None being the bottom: a product of chains, so associative.
+    # Features join by max (None lowest); _canon keeps whatever a later join needs, which
+    # keeps this associative (the tests walk every triple of a numeric sample).
     return _canon(_Num._make(y if x is None else x if y is None else max(x, y)
                              for x, y in zip(_features(a), _features(b), strict=True)))
 
@@ -310,44 +305,35 @@ def is_widening(old: DType, new: DType) -> bool:
     return joined != old and joined.name != 'union'
 
 
-def _pairs(left: Iterable[str], right: Iterable[str], why: str) -> dict[tuple[str, str], str]:
-    return {(a, b): why for a in left for b in right}
-
-
 _DEC = ('decimal(5,2)', 'decimal(10,4)', 'decimal(38,10)', 'decimal(38,0)')
-_NAIVE = tuple(f'timestamp[{u}]' for u in _UNITS)
-_SHORT_DIGITS = (('int16', 'decimal(5,2)'), ('int32', 'decimal(5,2)'), ('int32', 'decimal(10,4)'),
-                 ('int64', 'decimal(5,2)'), ('int64', 'decimal(10,4)'),
-                 ('uint64', 'decimal(5,2)'), ('uint64', 'decimal(10,4)'))
-_UINT_AS_INT = (('uint8', 'decimal(5,2)'), ('uint16', 'decimal(5,2)'),
-                ('uint16', 'decimal(10,4)'), ('uint32', 'decimal(5,2)'),
-                ('uint32', 'decimal(10,4)'))
-
+_SHORT = ('pyarrow sizes an integer one digit short (int64 + decimal(5,2) -> decimal(20,2), '
+          'which cannot hold 10**17); we count int8 3, int16 5, int32 10, int64 19, uint64 20')
+_UINT_AS_INT = ('pyarrow counts one digit short, and uintN counts as int(2N) (uint8 5 digits, '
+                'uint16 10, uint32 19): uint8 joins int8 as int16, so ints joined first or '
+                'last must give the same decimal')
+# (left keys, right keys, why): every left x right pair differs for that reason.
+_DIFFERENT = (
+    (('int8', 'int16', 'int32', 'int64'), ('uint64',),
+     'pyarrow gives int64, which loses uint64 values over 2**63-1; decimal(20,0) holds both'),
+    (('uint8',), ('float16',), 'pyarrow gives float16; uint8 joins int8 as int16, so it '
+                               'widens floats as int16 does (float32) to stay associative'),
+    (('uint16',), ('float16', 'float32'), 'pyarrow gives float32; uint16 widens floats as '
+                                          'int32 does: float64'),
+    (_DEC, ('float16', 'float32'),
+     'pyarrow keeps the narrow float (3 or 7 significant digits); we give float64'),
+    (('int16', 'int32', 'int64', 'uint64'), ('decimal(5,2)',), _SHORT),
+    (('int32', 'int64', 'uint64'), ('decimal(10,4)',), _SHORT),
+    (('uint8', 'uint16', 'uint32'), ('decimal(5,2)',), _UINT_AS_INT),
+    (('uint16', 'uint32'), ('decimal(10,4)',), _UINT_AS_INT),
+    (('string',), ('binary',), 'pyarrow reinterprets text as bytes; we keep a union so a cast '
+                               'rule decides'),
+    (('date32', 'date64'), tuple(f'timestamp[{u}]' for u in _UNITS),
+     'pyarrow raises; every local timestamp holds a date (its midnight) exactly'),
+)
 # (key_a, key_b) -> why join differs from pyarrow 26 unify_schemas(promote_options="permissive")
 # on the pairs the oracle test walks; either order of a pair is meant.
 DELIBERATE_DIFFERENCES: dict[tuple[str, str], str] = {
-    **_pairs(('int8', 'int16', 'int32', 'int64'), ('uint64',),
-             'pyarrow gives int64, which loses uint64 values over 2**63-1; '
-             'decimal(20,0) holds both ranges'),
-    ('uint8', 'float16'): 'pyarrow gives float16; uint8 joins int8 as int16, so for an '
-                          'order-independent join it widens floats as int16 does: float32',
-    ('uint16', 'float16'): 'pyarrow gives float32; uint16 widens floats as int32 does: float64',
-    ('uint16', 'float32'): 'pyarrow gives float32; uint16 widens floats as int32 does: float64',
-    **_pairs(_DEC, ('float16', 'float32'),
-             'pyarrow keeps the narrow float (3 or 7 significant digits); we give float64'),
-    **dict.fromkeys(_SHORT_DIGITS,
-                    'pyarrow sizes the integer one digit short (int64 + decimal(5,2) -> '
-                    'decimal(20,2), which cannot hold 10**17); we count int8 3, int16 5, '
-                    'int32 10, int64 19, uint64 20 digits'),
-    **dict.fromkeys(_UINT_AS_INT,
-                    'pyarrow counts one digit short; and uintN counts the digits of int(2N) '
-                    '(uint8 5, uint16 10, uint32 19) because uint8 joins int8 as int16: '
-                    'ints joined first or last must give the same decimal'),
-    ('string', 'binary'): 'pyarrow reinterprets the text as bytes; we keep a union so a cast '
-                          'rule decides',
-    **_pairs(('date32', 'date64'), _NAIVE,
-             'pyarrow raises; every local timestamp holds a date (its midnight) exactly'),
-}
+    (a, b): why for lefts, rights, why in _DIFFERENT for a in lefts for b in rights}
 
 # Arrow conversion.
 
@@ -443,61 +429,8 @@ _SCALAR = re.compile(r'decimal\((?P<p>-?\d+),(?P<s>-?\d+)\)'
                      r'|(?P<u>[a-z0-9]+)\[(?P<unit>[a-z]+)(?:, (?P<tz>[^\]]+))?\]'
                      r'|(?P<name>[a-z0-9]+)')
 _FIELD_NAME = re.compile(r'`(?P<quoted>(?:[^`]|``)*)`|(?P<bare>[^:`]+)')
-
-
-class _Parser:
-    def __init__(self, text: str) -> None:
-        self.text, self.pos = text, 0
-
-    def eat(self, s: str) -> bool:
-        found = self.text.startswith(s, self.pos)
-        self.pos += len(s) if found else 0
-        return found
-
-    def expect(self, s: str) -> None:
-        if not self.eat(s):
-            raise ValueError(f'expected {s!r} at position {self.pos}')
-
-    def match(self, pattern: re.Pattern[str], what: str) -> re.Match[str]:
-        m = pattern.match(self.text, self.pos)
-        if m is None:
-            raise ValueError(f'expected {what} at position {self.pos}')
-        self.pos = m.end()
-        return m
-
-    def type(self) -> DType:
-        m = self.match(_SCALAR, 'a type')
-        if m['p'] is not None:
-            return DType('decimal', precision=int(m['p']), scale=int(m['s']))
-        if m['u'] is not None:
-            return DType(m['u'], unit=m['unit'], tz=m['tz'])
-        name = m['name']
-        if name not in _NESTED:
-            return DType(name)
-        self.expect('<')
-        if name == 'list':
-            t = DType(name, item=self.type())
-        elif name == 'map':
-            k = self.type()
-            self.expect(', ')
-            t = DType(name, fields=(('key', k), ('value', self.type())))
-        elif name == 'union':
-            members = [self.type()]
-            while self.eat(' | '):
-                members.append(self.type())
-            t = DType(name, members=tuple(members))
-        else:
-            fields: list[tuple[str, DType]] = []
-            while not self.text.startswith('>', self.pos):
-                if fields:
-                    self.expect(', ')
-                f = self.match(_FIELD_NAME, 'a field name')
-                self.expect(': ')
-                fname = f['bare'] if f['quoted'] is None else f['quoted'].replace('``', '`')
-                fields.append((fname, self.type()))
-            t = DType(name, fields=tuple(fields))
-        self.expect('>')
-        return t
+_ARITY = {'list': 1, 'map': 2}
+T = TypeVar('T')
 
 
 def parse_key(text: str) -> DType:
@@ -506,11 +439,61 @@ def parse_key(text: str) -> DType:
     >>> parse_key('struct<`a b`: timestamp[us, UTC]>').fields[0][0]
     'a b'
     """
-    parser = _Parser(text)
+    pos = 0
+
+    def eat(s: str) -> bool:
+        nonlocal pos
+        found = text.startswith(s, pos)
+        pos += len(s) if found else 0
+        return found
+
+    def expect(s: str) -> None:
+        if not eat(s):
+            raise ValueError(f'expected {s!r} at position {pos}')
+
+    def match(pattern: re.Pattern[str], what: str) -> re.Match[str]:
+        nonlocal pos
+        if (m := pattern.match(text, pos)) is None:
+            raise ValueError(f'expected {what} at position {pos}')
+        pos = m.end()
+        return m
+
+    def field() -> tuple[str, DType]:
+        f = match(_FIELD_NAME, 'a field name')
+        expect(': ')
+        return (f['bare'] if f['quoted'] is None else f['quoted'].replace('``', '`'), parse())
+
+    def until_close(item: Callable[[], T], sep: str) -> list[T]:
+        out: list[T] = []
+        while not eat('>'):
+            if out:
+                expect(sep)
+            out.append(item())
+        return out
+
+    def parse() -> DType:
+        m = match(_SCALAR, 'a type')
+        if m['p'] is not None:
+            return DType('decimal', precision=int(m['p']), scale=int(m['s']))
+        if m['u'] is not None:
+            return DType(m['u'], unit=m['unit'], tz=m['tz'])
+        if (name := m['name']) not in _NESTED:
+            return DType(name)
+        expect('<')
+        if name == 'struct':
+            return DType(name, fields=tuple(until_close(field, ', ')))
+        if name == 'union':
+            return DType(name, members=tuple(until_close(parse, ' | ')))
+        parts = until_close(parse, ', ')
+        if len(parts) != _ARITY[name]:
+            raise ValueError(f'{name} takes {_ARITY[name]} types, got {len(parts)}')
+        return DType(name, item=parts[0]) if name == 'list' else \
+            DType(name, fields=(('key', parts[0]), ('value', parts[1])))
+
     try:
-        t = parser.type()
-        if parser.pos != len(text):
-            raise ValueError(f'unexpected text at position {parser.pos}')
+        t = parse()
+        if pos != len(text):
+            raise ValueError(f'unexpected text at position {pos}')
     except ValueError as e:
         raise ValueError(f'cannot parse type key {text!r}: {e}') from None
     if t.key() != text:  # e.g. unsorted struct fields: only the canonical spelling is a key
