@@ -23,6 +23,8 @@ from driftline.errors import (
 )
 from driftline.profile import FieldSummary, Profile
 from driftline.report import load_report
+# Imported here, before `def scan`, so the function (not the submodule) is driftline.scan.
+from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
 
 
@@ -45,8 +47,6 @@ def scan(
     >>> p.fields["x"].stats.types, [e.kind for e in p.events]
     ({'float64': 1, 'int64': 1}, ['type-widened'])
     """
-    from driftline.scan import scan_paths
-
     if isinstance(paths, str | os.PathLike):
         paths = [paths]
     read = ReadOptions(batch_rows=batch_rows) if max_record_bytes is None else ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes)

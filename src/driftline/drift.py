@@ -236,9 +236,18 @@ def _gone_events(sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]]
                     kind = "field-gone" if parent is None else "nested-gone"
                     later = sum(sequence[s][0].rows for s in seqs[i:])
                     out.append(Event(kind, path, _joined_key(states[path]), None, obs.file, parts, obs.batch,
-                                     obs.row_start, None, None, later, seqs[i]))
+                                     obs.row_start, _first_line(obs), None, later, seqs[i]))
                     break
     return out
+
+
+def _first_line(obs: Observation) -> int | None:
+    """The line of the batch's first row, when some sample of the batch sits on that row."""
+    for st in obs.fields.values():
+        for exs in st.samples.values():
+            if exs and exs[0].row == obs.row_start:
+                return exs[0].line
+    return None
 
 
 def _joined_key(state: _PathState) -> str:

@@ -116,7 +116,7 @@ def events_block(events: tuple[Event, ...]) -> Text:
     width = len(str(min(len(events), MAX_EVENTS_SHOWN)))
     for i, e in enumerate(events[:MAX_EVENTS_SHOWN], 1):
         text.append(f"{i:>{width}}  ")
-        text.append(f"{e.kind:<17}", style="bold")
+        text.append(f"{e.kind:<18}", style="bold")
         text.append(safe_text(e.path))
         if e.before or e.after:
             text.append(f": {safe_text(e.before or '–')} → {safe_text(e.after or '–')}")

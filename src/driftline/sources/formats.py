@@ -113,23 +113,22 @@ class _Limited(io.RawIOBase):
 
 
 def open_stream(path: str, compression: str | None, *, limit: int | None) -> BinaryIO:
-    """Open path for reading as decompressed bytes, never for writing."""
-    raw: BinaryIO = open(path, "rb")  # noqa: SIM115 - returned to the caller
+    """Open path for reading as decompressed bytes, never for writing; the caller closes it."""
     stream: BinaryIO
     if compression is None:
-        stream = raw
+        stream = open(path, "rb")  # noqa: SIM115 - returned to the caller
     elif compression == "gzip":
-        stream = gzip.GzipFile(fileobj=raw, mode="rb")  # type: ignore[assignment]
+        stream = gzip.GzipFile(filename=path, mode="rb")  # type: ignore[assignment]
     elif compression == "bz2":
-        stream = bz2.BZ2File(raw, mode="rb")  # type: ignore[assignment]
+        stream = bz2.BZ2File(path, mode="rb")  # type: ignore[assignment]
     elif compression == "xz":
-        stream = lzma.LZMAFile(raw, mode="rb")  # type: ignore[assignment]
+        stream = lzma.LZMAFile(path, mode="rb")  # type: ignore[assignment]
     elif compression == "zstd":
         import zstandard
 
+        raw = open(path, "rb")  # noqa: SIM115 - closed with the reader (closefd)
         stream = zstandard.ZstdDecompressor().stream_reader(raw, closefd=True)  # type: ignore[assignment]
     else:  # pragma: no cover - guarded by detect_compression
-        raw.close()
         raise ValueError(f"unknown compression {compression!r}")
     if limit is None:
         return stream
