@@ -58,8 +58,8 @@ def test_exact_events_across_batches(tmp_path: Path):
         ("field-new", "s", None, "struct", "a.jsonl", 2, 3),
         ("type-widened", "v", "int64", "float64", "a.jsonl", 2, 3),
         ("nulls-begin", "v", None, "null", "a.jsonl", 3, 4),
-        ("type-conflict", "id", "int64", "string", "a.jsonl", 4, 5),
         ("nested-gone", "s.y", "string", None, "a.jsonl", 4, 5),
+        ("type-conflict", "id", "int64", "string", "a.jsonl", 4, 5),
     ]
 
 
