@@ -136,9 +136,10 @@ class FieldStats:
             if self.classes:
                 out[name] = self.classes
         out["samples"] = {k: [e.to_json() for e in v] for k, v in self.samples.items()}
+        for name in ("minimum", "maximum"):
+            if getattr(self, name) is not None:
+                out[name] = getattr(self, name)
         for name in (
-            "minimum",
-            "maximum",
             "max_length",
             "int_digits",
             "frac_digits",
