@@ -49,10 +49,11 @@ def handles_errors(fn: F) -> F:
         try:
             return fn(*args, **kwargs)
         except DriftlineError as exc:
-            err_console.print(f"{type(exc).__name__}: {safe_text(exc, None)}", markup=False)
+            # Plain write: an error message is never re-wrapped or styled.
+            sys.stderr.write(f"{type(exc).__name__}: {safe_text(exc, None)}\n")
             raise typer.Exit(EXIT_USAGE) from None
         except KeyboardInterrupt:
-            err_console.print("interrupted; no output file was left half-written", markup=False)
+            sys.stderr.write("interrupted; no output file was left half-written\n")
             raise typer.Exit(130) from None
 
     return wrapper  # type: ignore[return-value]

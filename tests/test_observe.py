@@ -1,0 +1,66 @@
+"""Observation of one batch: types, present-null vs absent, nesting, content classes, samples."""
+
+from __future__ import annotations
+
+import pyarrow as pa
+
+from driftline.observe.columnar import observe_table
+from driftline.observe.records import observe_records
+from driftline.profile import summarise
+
+
+def test_null_and_absent_are_kept_apart():
+    obs = observe_records([{"a": 1}, {"a": None}, {}], file="f", batch=0, row_start=0)
+    s = summarise(obs.fields, obs.rows)["a"]
+    assert (s.stats.types, s.stats.nulls, s.absent, s.container) == ({"int64": 1}, 1, 1, 3)
+    assert s.stats.first("null").row == 1
+
+
+def test_nested_paths_and_list_elements():
+    recs = [{"s": {"x": 1, "l": [1, 2]}}, {"s": {"x": 2, "l": []}}, {"s": None}, {"e": []}]
+    obs = observe_records(recs, file="f", batch=0, row_start=10, lines=[1, 2, 3, 5])
+    f = summarise(obs.fields, obs.rows)
+    assert f["s"].stats.types == {"struct": 2} and f["s"].stats.nulls == 1 and f["s"].absent == 1
+    assert f["s.x"].container == 2 and f["s.x"].absent == 0
+    assert f["s.l"].stats.items == 2 and f["s.l[]"].stats.types == {"int64": 2}
+    # An element of lists that are always empty: nothing tells its type.
+    assert f["e"].stats.types == {"list": 1} and "e[]" not in f
+    assert f["s.l[]"].stats.first("type:int64").row == 10  # rows are file rows
+    assert f["e"].stats.first("type:list").line == 5
+
+
+def test_integers_beyond_2_pow_53_are_counted():
+    # source: RFC 7493 section 2.2 / IEEE 754 binary64: |n| > 9007199254740991 is not exact as a double
+    obs = observe_records([{"n": 9007199254740991}, {"n": 9007199254740993}, {"n": -9007199254740992}],
+                          file="f", batch=0, row_start=0)
+    assert obs.fields["n"].unsafe_ints == 2
+    assert float(9007199254740993) == 9007199254740992.0  # source: IEEE 754 binary64 (REFERENCES §2)
+
+
+def test_strings_get_content_classes_with_samples():
+    recs = [{"v": "12.5"}, {"v": "n/a"}, {"v": "13.25"}, {"v": "-"}]
+    st = observe_records(recs, file="p.jsonl", batch=0, row_start=0, lines=[1, 2, 3, 4]).fields["v"]
+    assert st.types == {"string": 4}
+    assert st.classes == {"decimal": 2, "null_token": 2}
+    assert (st.int_digits, st.frac_digits) == (2, 2)
+    assert [(e.row, e.value) for e in st.samples["class:null_token"]] == [(1, '"n/a"'), (3, '"-"')]
+
+
+def test_columnar_and_record_paths_agree_on_typed_data():
+    recs = [{"a": 1, "b": "x", "c": 2.5}, {"a": 3, "b": "2026-11-30", "c": None}]
+    table = pa.Table.from_pylist(recs)
+    by_records = observe_records(recs, file="f", batch=0, row_start=0)
+    by_columns = observe_table(table, file="f", batch=0, row_start=0)
+    for path in ("a", "b", "c"):
+        r, c = by_records.fields[path], by_columns.fields[path]
+        assert (r.types, r.nulls, r.classes, r.minimum, r.maximum) == (c.types, c.nulls, c.classes, c.minimum, c.maximum)
+
+
+def test_text_columns_infer_types_from_classes():
+    # source: RFC 4180 gives CSV no types; an empty cell reads as null (common practice,
+    # pyarrow.csv does the same, REFERENCES §3)
+    table = pa.table({"n": ["1", "", "007", "x"]})
+    st = observe_table(table, file="t.csv", batch=0, row_start=0, lines=[2, 3, 4, 5], text_source=True).fields["n"]
+    assert st.types == {"int64": 2, "string": 1}
+    assert st.nulls == 1 and st.text == 4
+    assert st.first("null").line == 3
