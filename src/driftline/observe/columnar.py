@@ -124,9 +124,14 @@ def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None
                 child = child.filter(valid)
             _observe(child, paths.child(path, t.field(i).name), sub_rows, ctx)
     elif pa.types.is_map(t):
-        parents = pc.list_parent_indices(arr)
+        # Seen as a list of its entries: list kernels on a MapArray abort the process
+        # (pyarrow 26.0.1 list_parent_indices), and .keys/.items ignore a slice's offset.
+        entry = pa.field("entries", pa.struct([t.key_field, t.item_field]), nullable=False)
+        entries = arr.cast(pa.list_(entry))
+        parents = pc.list_parent_indices(entries)
         sub_rows = parents if rows is None else rows.take(parents)
-        keys, items = arr.keys, arr.items
+        flat = pc.list_flatten(entries)
+        keys, items = flat.field(0), flat.field(1)
         extra["items"] = len(keys)
         _observe(keys, paths.map_part(path, "key"), sub_rows, ctx)
         _observe(items, paths.map_part(path, "value"), sub_rows, ctx)
