@@ -31,8 +31,13 @@ def scan_paths(
     jobs: int = 1,
     max_errors: int | None = None,
     progress: Progress | None = None,
+    reuse: Callable[[FileRef], FileResult | None] | None = None,
 ) -> Profile:
-    """Scan paths into a Profile. Raises InputPathError when nothing can be found at all."""
+    """Scan paths into a Profile. Raises InputPathError when nothing can be found at all.
+
+    reuse, when given, is asked first for each discovered file: a FileResult it returns
+    stands for that file unread (an incremental state), None means read the file.
+    """
     opts = read or ReadOptions()
     started = time.perf_counter()
     found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden)
@@ -41,7 +46,10 @@ def scan_paths(
             f"no readable data file under {', '.join(map(str, paths))} "
             f"({len(found.skipped)} skipped); formats read: .jsonl .json .csv .tsv .parquet, optionally compressed"
         )
-    results = _read_all(found.files, opts, jobs, max_errors, progress)
+    if reuse is None:
+        results = _read_all(found.files, opts, jobs, max_errors, progress)
+    else:
+        results = _read_reusing(found.files, opts, jobs, max_errors, progress, reuse)
     options = {"batch_rows": opts.batch_rows, "include": list(include), "exclude": list(exclude)}
     return Profile(found.root, tuple(results), found.skipped, options, time.perf_counter() - started)
 
@@ -76,4 +84,20 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
     return results
 
 
-
+def _read_reusing(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
+                  progress: Progress | None, reuse: Callable[[FileRef], FileResult | None]) -> list[FileResult]:
+    kept = {ref.rel: res for ref in files if (res := reuse(ref)) is not None}
+    todo = [ref for ref in files if ref.rel not in kept]
+    fresh = iter(_read_all(todo, opts, jobs, max_errors, progress) if todo else ())
+    # Back in discovery order; max_errors counts reused files' errors as the full scan would.
+    results: list[FileResult] = []
+    errors = 0
+    for ref in files:
+        res = kept[ref.rel] if ref.rel in kept else next(fresh, None)
+        if res is None:
+            break
+        results.append(res)
+        errors += res.errors
+        if max_errors is not None and errors >= max_errors:
+            break
+    return results
