@@ -96,6 +96,14 @@ _SHALLOW = {
 }
 
 
+def _show(t: DType) -> str:
+    """A type's key, with the shallow placeholders for nested kinds shown as plain names."""
+    text = t.key()
+    for name, placeholder in _SHALLOW.items():
+        text = text.replace(placeholder.key(), name)
+    return text
+
+
 def _type_of(key: str) -> DType:
     if key in _SHALLOW:
         return _SHALLOW[key]
@@ -175,7 +183,8 @@ def _type_events(path: str, st: FieldStats, state: _PathState, obs: Observation,
                 kind = ""
             if kind:
                 ex = st.first("type:" + key)
-                out.append(_event(kind, path, old.key(), new.key() if kind != "type-conflict" else key, obs, parts, ex, st.types[key], seq))
+                out.append(_event(kind, path, _show(old), _show(new) if kind != "type-conflict" else key, obs, parts, ex,
+                                  st.types[key], seq))
         state.types.add(key)
         state.joined = new
     return out
@@ -251,4 +260,4 @@ def _first_line(obs: Observation) -> int | None:
 
 
 def _joined_key(state: _PathState) -> str:
-    return state.joined.key() if state.joined is not UNKNOWN else "null"
+    return _show(state.joined) if state.joined is not UNKNOWN else "null"
