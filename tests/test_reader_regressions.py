@@ -47,3 +47,43 @@ def test_sliced_map_counts_only_the_entries_of_the_slice():
     assert (obs.fields["m{key}"].minimum, obs.fields["m{key}"].maximum) == (3, 7)
     assert obs.fields["m{key}"].first("type:int32").row == 1
     assert obs.fields["m{value}"].first("null").row == 2
+
+
+def _scan_one(path) -> tuple:
+    res = read_file(discover([str(path)]).files[0], ReadOptions())
+    fields = {p: st for o in res.observations for p, st in o.fields.items()}
+    return res, fields
+
+
+def test_nanosecond_timestamps_python_cannot_hold_are_profiled(tmp_path):
+    # found by: Parquet conformance suite, data/int96_from_spark.parquet (INT96 read as
+    # timestamp[ns]); as_py() and even str() of such a scalar raise ValueError.
+    from datetime import datetime, timedelta
+
+    f = tmp_path / "ns.parquet"
+    pq.write_table(pa.table({"t": pa.array([1, 2 * 10**18 + 1, None], pa.timestamp("ns"))}), f)
+    res, fields = _scan_one(f)
+    assert res.issues == () and res.rows == 3
+    assert fields["t"].types == {"timestamp[ns]": 2}
+    # source: Python datetime arithmetic from the Unix epoch; the ns digit kept as text
+    later = (datetime(1970, 1, 1) + timedelta(seconds=2 * 10**9)).isoformat()
+    assert fields["t"].minimum == "1970-01-01T00:00:00.000000001"
+    assert fields["t"].maximum == later + ".000000001" == "2033-05-18T03:33:20.000000001"
+    assert "1970-01-01" in fields["t"].first("type:timestamp[ns]").value
+
+
+def test_dates_past_year_9999_inside_a_struct_are_profiled(tmp_path):
+    # found by: Parquet conformance suite, data/nested_structs.rust.parquet: a struct whose
+    # example value held a date Python cannot build (OverflowError) stopped the whole file.
+    from datetime import date
+
+    last_python_day = (date(9999, 12, 31) - date(1970, 1, 1)).days  # source: Python datetime
+    days = pa.array([last_python_day + 1], pa.date32())
+    f = tmp_path / "d.parquet"
+    pq.write_table(pa.table({"s": pa.StructArray.from_arrays([days, pa.array([1])], ["d", "n"])}), f)
+    res, fields = _scan_one(f)
+    assert res.issues == () and res.rows == 1
+    # proleptic Gregorian: the day after 9999-12-31 is 10000-01-01
+    assert fields["s.d"].minimum == fields["s.d"].maximum == "10000-01-01"
+    assert fields["s"].first("type:struct").value == '{"d":"10000-01-01","n":1}'
+    assert fields["s.n"].types == {"int64": 1}

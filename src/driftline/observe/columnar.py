@@ -172,11 +172,33 @@ def _is_list(t: pa.DataType) -> bool:
     )
 
 
+def _display_type(t: pa.DataType) -> pa.DataType:
+    """t with every temporal leaf as string: Arrow formats any value, Python's datetime cannot."""
+    if pa.types.is_temporal(t):
+        return pa.string()
+    if pa.types.is_struct(t):
+        fields = [t.field(i) for i in range(t.num_fields)]
+        return pa.struct([f.with_type(_display_type(f.type)) for f in fields])
+    if pa.types.is_map(t):
+        return pa.map_(t.key_field.with_type(_display_type(t.key_type)),
+                       t.item_field.with_type(_display_type(t.item_type)))
+    if pa.types.is_list(t) or pa.types.is_large_list(t) or pa.types.is_fixed_size_list(t):
+        item = t.value_field.with_type(_display_type(t.value_type))
+        if pa.types.is_fixed_size_list(t):
+            return pa.list_(item, t.list_size)
+        return pa.large_list(item) if pa.types.is_large_list(t) else pa.list_(item)
+    return t
+
+
 def _scalar(s: pa.Scalar) -> Any:
     try:
         v = s.as_py()
     except (ValueError, OverflowError, pa.ArrowException):
-        return str(s)
+        # Out of Python's datetime range (year 1..9999, microseconds): let Arrow write it.
+        try:
+            return pa.array([s], s.type).cast(_display_type(s.type)).to_pylist()[0]
+        except (ValueError, OverflowError, TypeError, pa.ArrowException):
+            return f"<{s.type} value>"
     if isinstance(v, bytes):
         return v.decode("utf-8", "backslashreplace")
     if isinstance(v, dict | list | tuple | str | int | float | bool) or v is None:
@@ -201,7 +223,12 @@ def _temporal_text(s: pa.Scalar) -> str | None:
         v = s.as_py()
         return v.isoformat() if hasattr(v, "isoformat") else str(v)
     except (ValueError, OverflowError, pa.ArrowException):
-        return str(s)
+        # Out of Python's datetime range; str(s) would call as_py again. Arrow's text
+        # has a space where isoformat has 'T'; align them so extremes still order as text.
+        try:
+            return pc.cast(s, pa.string()).as_py().replace(" ", "T", 1)
+        except pa.ArrowException:
+            return f"<{s.type} value>"
 
 
 def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
