@@ -1,8 +1,29 @@
 """driftline: profile raw landing directories in record batches and report their drift.
 
->>> import driftline
->>> sorted(driftline.__all__)[:3]
-['DriftlineError', 'Event', 'FieldSummary']
+The public API is exactly the names in ``driftline.__all__``; every other module and name
+is internal and may change without notice. A session in brief:
+
+>>> import driftline, tempfile, pathlib
+>>> d = pathlib.Path(tempfile.mkdtemp())
+>>> _ = (d / "day=1").mkdir(), (d / "day=1" / "a.jsonl").write_text('{"x": 1}\\n')
+>>> _ = (d / "day=2").mkdir(), (d / "day=2" / "a.jsonl").write_text('{"x": "one"}\\n')
+>>> profile = driftline.scan(d)
+>>> profile  # doctest: +ELLIPSIS
+<Profile '...': 2 files, 2 rows, 1 fields, 1 drift events, 0 errors>
+>>> [(e.kind, e.path, e.before, e.after, e.file) for e in profile.events]
+[('type-conflict', 'x', 'int64', 'string', 'day=2/a.jsonl')]
+>>> {day: fields["x"].stats.types for day, fields in profile.by_partition("day").items()}
+{'1': {'int64': 1}, '2': {'string': 1}}
+>>> profile.to_polars().fields.select("path", "nullable").rows()
+[('x', False)]
+
+Every error driftline raises for bad input derives from DriftlineError:
+
+>>> try:
+...     driftline.scan(d / "missing")
+... except driftline.DriftlineError as exc:
+...     print(type(exc).__name__)
+InputPathError
 """
 
 from __future__ import annotations
@@ -10,7 +31,7 @@ from __future__ import annotations
 __version__ = "0.1.0"
 
 import os
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 
 from driftline.drift import Event
 from driftline.errors import (
@@ -23,6 +44,7 @@ from driftline.errors import (
 )
 from driftline.profile import FieldSummary, Profile
 from driftline.report import load_report
+
 # Imported here, before `def scan`, so the function (not the submodule) is driftline.scan.
 from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
@@ -38,8 +60,18 @@ def scan(
     jobs: int = 1,
     max_errors: int | None = None,
     max_record_bytes: int | None = None,
+    delimiter: str | None = None,
+    progress: Callable[[int, int, str], None] | None = None,
 ) -> Profile:
-    """Scan files, folders or globs into a Profile.
+    """Scan files, folders or globs (one, or a list of them) into a Profile.
+
+    batch_rows bounds the rows per batch (drift is tracked batch by batch); include and
+    exclude are globs on the path or name; jobs reads files in parallel processes;
+    max_errors stops reading new files after that many errors; max_record_bytes reports
+    longer JSON lines / CSV rows instead of reading them; delimiter fixes the CSV
+    delimiter (sniffed otherwise); progress(done, total, current_file) is called as files
+    finish. The result does not depend on jobs. Raises InputPathError when a path does
+    not exist or holds no data file.
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
@@ -49,8 +81,10 @@ def scan(
     """
     if isinstance(paths, str | os.PathLike):
         paths = [paths]
-    read = ReadOptions(batch_rows=batch_rows) if max_record_bytes is None else ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes)
-    return scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden, jobs=jobs, max_errors=max_errors)
+    extra = {} if max_record_bytes is None else {"max_record_bytes": max_record_bytes}
+    read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, **extra)
+    return scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
+                      jobs=jobs, max_errors=max_errors, progress=progress)
 
 
 __all__ = [

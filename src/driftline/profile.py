@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from driftline.observe import paths
 from driftline.observe.observation import Observation
@@ -18,10 +18,19 @@ from driftline.observe.stats import FieldStats, merge_all
 from driftline.sources.base import FileIssue, FileResult
 from driftline.sources.discover import Skipped
 
+if TYPE_CHECKING:
+    from driftline.tables import Tables
+
 
 @dataclass(frozen=True, slots=True)
 class FieldSummary:
-    """One field path over a set of rows: its statistics plus the derived counts."""
+    """One field path over a set of rows: its statistics plus the derived counts.
+
+    >>> from driftline.observe.stats import FieldStats
+    >>> s = FieldSummary("x", FieldStats(types={"int64": 2}, nulls=1), container=4)
+    >>> s.absent, s.nullable, s.share(s.absent)
+    (1, True, 0.25)
+    """
 
     path: str
     stats: FieldStats
@@ -29,13 +38,16 @@ class FieldSummary:
 
     @property
     def absent(self) -> int:
+        """Places that held no value at all (the key was missing), not even a null."""
         return max(self.container - self.stats.present, 0)
 
     @property
     def nullable(self) -> bool:
+        """Whether a reader must allow a missing value: some nulls or some absences."""
         return self.stats.nulls > 0 or self.absent > 0
 
     def share(self, n: int) -> float:
+        """n as a share of the container (0.0 for an empty container)."""
         return n / self.container if self.container else 0.0
 
 
@@ -58,7 +70,17 @@ def summarise(fields: Mapping[str, FieldStats], rows: int) -> dict[str, FieldSum
 
 @dataclass(frozen=True)
 class Profile:
-    """What a scan found: files (sorted by relative path), what was skipped, and the options."""
+    """What a scan found: files (sorted by relative path), what was skipped, and the options.
+
+    A Profile is an immutable value: equal content compares equal (the options and the
+    duration are not content), it pickles, and it merges with another profile.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"y": null}\\n')
+    >>> p = driftline.scan(d)
+    >>> p.rows, sorted(p.fields), p.fields["y"].nullable
+    (2, ['x', 'y'], True)
+    """
 
     root: str
     files: tuple[FileResult, ...]
@@ -91,18 +113,22 @@ class Profile:
     # -- derived views ----------------------------------------------------------------
     @property
     def rows(self) -> int:
+        """Rows read, over every file."""
         return sum(f.rows for f in self.files)
 
     @property
     def bytes(self) -> int:
+        """Size on disk of the files read."""
         return sum(f.size for f in self.files)
 
     @property
     def issues(self) -> tuple[FileIssue, ...]:
+        """Every file problem (errors and warnings) in file order."""
         return tuple(i for f in self.files for i in f.issues)
 
     @property
     def error_count(self) -> int:
+        """How many file problems were errors (data may be lost), not warnings."""
         return sum(f.errors for f in self.files)
 
     def observations(self) -> Iterable[Observation]:
@@ -112,6 +138,7 @@ class Profile:
 
     @cached_property
     def stats(self) -> dict[str, FieldStats]:
+        """Per field path: the merged statistics of every batch."""
         return merge_all(o.fields for o in self.observations())
 
     @cached_property
@@ -121,11 +148,13 @@ class Profile:
 
     @cached_property
     def events(self) -> tuple[Any, ...]:
+        """Drift events in scan order (file path, then batch), each with its provenance."""
         from driftline.drift import drift_events
 
         return drift_events(self)
 
     def partition_keys(self) -> list[str]:
+        """Partition keys (key=value folder names) in the order they first appear."""
         keys: list[str] = []
         for f in self.files:
             for k, _ in f.partitions:
@@ -148,10 +177,48 @@ class Profile:
         return out
 
     def file(self, rel: str) -> FileResult:
+        """The result of one file, by its path relative to the root; KeyError if absent."""
         for f in self.files:
             if f.rel == rel:
                 return f
         raise KeyError(rel)
+
+    # -- pickling: only the content, never the cached views -------------------------------
+    def __getstate__(self) -> dict[str, Any]:
+        # cached_property stores fields/events/stats in __dict__; a pickle (a process pool
+        # result, a saved notebook value) carries only the content and rebuilds the views.
+        return {f: getattr(self, f) for f in ("root", "files", "skipped", "options", "duration_s")}
+
+    def __setstate__(self, state: dict[str, Any]) -> None:
+        for k, v in state.items():
+            object.__setattr__(self, k, v)
+
+    # -- tables and notebook views --------------------------------------------------------
+    def to_arrow(self) -> Tables:
+        """Fields and drift events as pyarrow Tables: `fields, events = profile.to_arrow()`.
+
+        >>> fields, events = Profile("r", ()).to_arrow()
+        >>> fields.column_names[:4], events.num_rows
+        (['path', 'types', 'container', 'present'], 0)
+        """
+        from driftline.tables import to_arrow
+
+        return to_arrow(self)
+
+    def to_polars(self) -> Tables:
+        """Fields and drift events as polars DataFrames, with the same columns as to_arrow().
+
+        >>> Profile("r", ()).to_polars().fields.shape
+        (0, 10)
+        """
+        from driftline.tables import to_polars
+
+        return to_polars(self)
+
+    def _repr_html_(self) -> str:
+        from driftline.notebook import profile_html
+
+        return profile_html(self)
 
     def __repr__(self) -> str:
         return (
