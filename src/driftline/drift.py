@@ -35,7 +35,14 @@ _KIND_ORDER = {k: i for i, k in enumerate(EVENT_KINDS)}
 
 @dataclass(frozen=True, slots=True)
 class Event:
-    """One drift event with its provenance."""
+    """One drift event with its provenance.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": null}\\n')
+    >>> e = driftline.scan(d, batch_rows=1).events[0]
+    >>> e.kind, e.path, e.file, e.batch, e.row, e.line
+    ('nulls-begin', 'x', 'a.jsonl', 1, 1, 2)
+    """
 
     kind: str
     path: str

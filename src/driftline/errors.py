@@ -7,32 +7,70 @@
     ├── ReportVersionError         a saved report / state / rules file of another format
     └── OutputError                an output path that cannot be written
 
-Per-file problems found during a scan are *not* raised: they become FileError
-entries in the profile so that the scan goes on with the other files.
+Per-file problems found during a scan are *not* raised: they become FileIssue
+entries in the profile (``profile.issues``) so that the scan goes on with the other
+files. Each message says what was received and what to do about it. Catch
+DriftlineError to handle all of them:
+
+>>> import driftline
+>>> issubclass(driftline.PolicyError, driftline.DriftlineError)
+True
 """
 
 from __future__ import annotations
 
 
 class DriftlineError(Exception):
-    """Base class of every error driftline raises for bad input or bad options."""
+    """Base class of every error driftline raises for bad input or bad options.
+
+    >>> str(DriftlineError("bad option: use --help"))
+    'bad option: use --help'
+    """
 
 
 class InputPathError(DriftlineError):
-    """A path, glob or URL given to scan does not exist or holds nothing readable."""
+    """A path, glob or URL given to scan does not exist or holds nothing readable.
+
+    >>> import driftline
+    >>> try:
+    ...     driftline.scan("no/such/folder")
+    ... except InputPathError as exc:
+    ...     print(exc)
+    'no/such/folder' does not exist; give a file, a folder or a glob
+    """
 
 
 class UnreadableFileError(DriftlineError):
-    """A single file cannot be read; carries the file and position when known."""
+    """A single file cannot be read; carries the file and position when known.
+
+    >>> isinstance(UnreadableFileError("a.parquet: not a Parquet file"), DriftlineError)
+    True
+    """
 
 
 class PolicyError(DriftlineError):
-    """A policy or recommendation option has an unknown key or a bad value."""
+    """A policy or recommendation option has an unknown key or a bad value.
+
+    >>> isinstance(PolicyError("gate.toml: unknown key 'max_nul'"), DriftlineError)
+    True
+    """
 
 
 class ReportVersionError(DriftlineError):
-    """A saved report, rules or state file has another format or version."""
+    """A saved report, rules or state file has another format or version.
+
+    >>> from driftline.report import from_dict
+    >>> try:
+    ...     from_dict({"format": "driftline-report", "version": 0})
+    ... except ReportVersionError as exc:
+    ...     print(exc)
+    report has report version 0; this driftline reads version 1. Rescan the data to make a new report.
+    """
 
 
 class OutputError(DriftlineError):
-    """An output file cannot be written (folder missing, permission, disk full)."""
+    """An output file cannot be written (folder missing, permission, disk full).
+
+    >>> isinstance(OutputError("out/r.json: folder 'out' does not exist"), DriftlineError)
+    True
+    """
