@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import bz2
-import gzip
 import io
 import lzma
+import zlib
 from typing import BinaryIO
 
 COMPRESSION_BY_SUFFIX = {".gz": "gzip", ".gzip": "gzip", ".bz2": "bz2", ".zst": "zstd", ".zstd": "zstd", ".xz": "xz"}
@@ -112,13 +112,53 @@ class _Limited(io.RawIOBase):
         super().close()
 
 
+class _GzipStream(io.RawIOBase):
+    """Streaming gzip (all members) that hands out every byte decoded before a truncation.
+
+    gzip.GzipFile raises on a cut-off file without returning the data it had decoded in
+    that read; here the decoded bytes come first and the EOFError only after them.
+    """
+
+    def __init__(self, path: str) -> None:
+        self._raw = open(path, "rb")  # noqa: SIM115 - closed in close()
+        self._dec = zlib.decompressobj(wbits=31)
+        self._pending = b""
+        self._done = False
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
+        while not self._pending and not self._done:
+            chunk = self._raw.read(1 << 20)
+            if not chunk:
+                if not self._dec.eof:
+                    self._done = True
+                    raise EOFError("compressed file ended before the end-of-stream marker was reached")
+                self._done = True
+                break
+            self._pending = self._dec.decompress(chunk)
+            while self._dec.eof and self._dec.unused_data:
+                rest = self._dec.unused_data
+                self._dec = zlib.decompressobj(wbits=31)
+                self._pending += self._dec.decompress(rest)
+        n = min(len(buf), len(self._pending))
+        buf[:n] = self._pending[:n]
+        self._pending = self._pending[n:]
+        return n
+
+    def close(self) -> None:
+        self._raw.close()
+        super().close()
+
+
 def open_stream(path: str, compression: str | None, *, limit: int | None) -> BinaryIO:
     """Open path for reading as decompressed bytes, never for writing; the caller closes it."""
     stream: BinaryIO
     if compression is None:
         stream = open(path, "rb")  # noqa: SIM115 - returned to the caller
     elif compression == "gzip":
-        stream = gzip.GzipFile(filename=path, mode="rb")  # type: ignore[assignment]
+        stream = _GzipStream(path)  # type: ignore[assignment]
     elif compression == "bz2":
         stream = bz2.BZ2File(path, mode="rb")  # type: ignore[assignment]
     elif compression == "xz":

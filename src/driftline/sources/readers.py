@@ -36,7 +36,9 @@ class _SafeStream(io.RawIOBase):
         if self.failure is not None:
             return 0
         try:
-            data = self._inner.read(len(buf))
+            # read1: one underlying read, so bytes decoded before a failure are not dropped
+            reader = getattr(self._inner, "read1", self._inner.read)
+            data = reader(len(buf))
         except (OSError, EOFError, zlib.error, lzma.LZMAError, LimitExceeded, ValueError, MemoryError) as exc:
             self.failure = exc
             return 0
