@@ -30,8 +30,9 @@ from __future__ import annotations
 
 __version__ = "0.1.0"
 
-import os
-from collections.abc import Callable, Sequence
+import os as _os
+from collections.abc import Callable as _Callable
+from collections.abc import Sequence as _Sequence
 
 from driftline.drift import Event
 from driftline.errors import (
@@ -46,22 +47,22 @@ from driftline.profile import FieldSummary, Profile
 from driftline.report import load_report
 
 # Imported here, before `def scan`, so the function (not the submodule) is driftline.scan.
-from driftline.scan import scan_paths
+from driftline.scan import scan_paths as _scan_paths
 from driftline.sources.base import ReadOptions
 
 
 def scan(
-    paths: str | os.PathLike[str] | Sequence[str | os.PathLike[str]],
+    paths: str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]],
     *,
     batch_rows: int = 65_536,
-    include: Sequence[str] = (),
-    exclude: Sequence[str] = (),
+    include: _Sequence[str] = (),
+    exclude: _Sequence[str] = (),
     include_hidden: bool = False,
     jobs: int = 1,
     max_errors: int | None = None,
     max_record_bytes: int | None = None,
     delimiter: str | None = None,
-    progress: Callable[[int, int, str], None] | None = None,
+    progress: _Callable[[int, int, str], None] | None = None,
 ) -> Profile:
     """Scan files, folders or globs (one, or a list of them) into a Profile.
 
@@ -79,11 +80,11 @@ def scan(
     >>> p.fields["x"].stats.types, [e.kind for e in p.events]
     ({'float64': 1, 'int64': 1}, ['type-widened'])
     """
-    if isinstance(paths, str | os.PathLike):
+    if isinstance(paths, str | _os.PathLike):
         paths = [paths]
     extra = {} if max_record_bytes is None else {"max_record_bytes": max_record_bytes}
     read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, **extra)
-    return scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
+    return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                       jobs=jobs, max_errors=max_errors, progress=progress)
 
 

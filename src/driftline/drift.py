@@ -58,6 +58,7 @@ class Event:
     seq: int = field(default=0, compare=False)  # position of the batch in scan order
 
     def to_json(self) -> dict[str, Any]:
+        """The event as it appears in the JSON report's "events" list."""
         return {
             "kind": self.kind,
             "path": self.path,
@@ -74,6 +75,7 @@ class Event:
 
     @staticmethod
     def from_json(d: Mapping[str, Any]) -> Event:
+        """The event back from its report form (to_json's inverse; seq is not kept)."""
         return Event(
             d["kind"], d["path"], d.get("before"), d.get("after"), d["file"], tuple(d.get("partitions", {}).items()),
             d["batch"], d.get("row"), d.get("line"), d.get("example"), d.get("count", 0),

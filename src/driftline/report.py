@@ -135,7 +135,14 @@ def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
 
 
 def load_report(path: str | Path) -> Profile:
-    """Read a saved scan report (JSON) back into a Profile."""
+    """Read a saved scan report (JSON) back into a Profile equal to the one that was saved.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+    >>> p = driftline.scan(d); _ = (d / "r.json").write_bytes(dumps(p))
+    >>> driftline.load_report(d / "r.json") == p
+    True
+    """
     from driftline.errors import InputPathError
 
     try:
