@@ -96,3 +96,12 @@ def test_events_do_not_depend_on_parallelism(demo_dir):
     parallel = driftline.scan(demo_dir / "landing", jobs=2)
     assert serial.events == parallel.events
     assert serial == parallel
+
+
+def test_a_member_of_a_union_widens(tmp_path: Path):
+    write_lines(tmp_path / "a.jsonl", ['{"x": 1}', '{"x": "a"}', '{"x": 2.5}'])
+    kinds = [(e.kind, e.before, e.after, e.row) for e in driftline.scan(tmp_path).events]
+    assert kinds == [
+        ("type-conflict", "int64", "string", 1),
+        ("type-widened", "union<int64 | string>", "union<float64 | string>", 2),
+    ]

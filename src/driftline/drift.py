@@ -89,11 +89,10 @@ class _PathState:
     classes: set[str] = field(default_factory=set)
     had_values: bool = False
     had_null: bool = False
-    last_seen: int = -1
 
 
-def _earliest(st: FieldStats, prefix: str = "") -> Example | None:
-    firsts = [exs[0] for k, exs in st.samples.items() if exs and k.startswith(prefix)]
+def _earliest(st: FieldStats) -> Example | None:
+    firsts = [exs[0] for exs in st.samples.values() if exs]
     return min(firsts) if firsts else None
 
 
@@ -154,7 +153,6 @@ def drift_events(profile: Profile) -> tuple[Event, ...]:
             events.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
             state.had_null = state.had_null or st.nulls > 0
             state.had_values = state.had_values or st.nonnull > 0
-            state.last_seen = seq
     events.extend(_gone_events(sequence, states))
     events.sort(key=lambda e: (e.seq, e.row if e.row is not None else -1, _KIND_ORDER[e.kind], e.path))
     return tuple(events)
@@ -184,10 +182,10 @@ def _type_events(path: str, st: FieldStats, state: _PathState, obs: Observation,
         if state.types:
             if path.endswith("[]"):
                 kind = "element-changed"
-            elif new.name == "union" and old.name != "union" or new.name == "union" and len(new.members) > len(old.members):
-                kind = "type-conflict"
-            elif is_widening(old, new):
-                kind = "type-widened"
+            elif new.name == "union" and (old.name != "union" or len(new.members) > len(old.members)):
+                kind = "type-conflict"  # a type of a new family: several kinds live at once
+            elif is_widening(old, new) or new.name == "union" and new != old:
+                kind = "type-widened"  # within a family, including one member of a union
             else:
                 kind = ""
             if kind:
