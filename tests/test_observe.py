@@ -23,8 +23,8 @@ def test_nested_paths_and_list_elements():
     assert f["s"].stats.types == {"struct": 2} and f["s"].stats.nulls == 1 and f["s"].absent == 1
     assert f["s.x"].container == 2 and f["s.x"].absent == 0
     assert f["s.l"].stats.items == 2 and f["s.l[]"].stats.types == {"int64": 2}
-    # An element of lists that are always empty: nothing tells its type.
-    assert f["e"].stats.types == {"list": 1} and "e[]" not in f
+    # An element of lists that are always empty: the path exists, nothing tells its type.
+    assert f["e"].stats.types == {"list": 1} and f["e[]"].stats.types == {} and f["e[]"].container == 0
     assert f["s.l[]"].stats.first("type:int64").row == 10  # rows are file rows
     assert f["e"].stats.first("type:list").line == 5
 
@@ -64,3 +64,11 @@ def test_text_columns_infer_types_from_classes():
     assert st.types == {"int64": 2, "string": 1}
     assert st.nulls == 1 and st.text == 4
     assert st.first("null").line == 3
+
+
+def test_always_empty_lists_agree_between_paths():
+    recs = [{"e": []}, {"e": []}]
+    by_records = observe_records(recs, file="f", batch=0, row_start=0).fields
+    by_columns = observe_table(pa.table({"e": pa.array([[], []], pa.list_(pa.int64()))}), file="f", batch=0,
+                               row_start=0).fields
+    assert by_records["e[]"] == by_columns["e[]"]

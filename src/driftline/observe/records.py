@@ -121,6 +121,8 @@ def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> Non
         acc.count("list", row, v)
         acc.items += len(v)
         item_path = paths.element(path)
+        if not v and item_path not in accs:
+            accs[item_path] = _Acc()  # the element path exists even when nothing tells its type
         for sub in v:
             _walk(sub, item_path, row, accs, depth + 1)
     else:  # pragma: no cover - orjson yields only JSON types
