@@ -87,3 +87,67 @@ def test_dates_past_year_9999_inside_a_struct_are_profiled(tmp_path):
     assert fields["s.d"].minimum == fields["s.d"].maximum == "10000-01-01"
     assert fields["s"].first("type:struct").value == '{"d":"10000-01-01","n":1}'
     assert fields["s.n"].types == {"int64": 1}
+
+
+# -- Parquet footers and limits ----------------------------------------------------------
+
+def test_plaintext_footer_with_encrypted_columns_is_reported_not_aborted():
+    # found by: Parquet conformance suite, encrypt_columns_plaintext_footer.parquet.encrypted.
+    # Reading its column metadata (RowGroupMetaData.column, to_dict) aborts pyarrow 26.0.1.
+    from hostile_inputs import PARQUET_SUITE
+
+    f = PARQUET_SUITE / "data" / "encrypt_columns_plaintext_footer.parquet.encrypted"
+    res = read_file(discover([str(f)]).files[0], ReadOptions())
+    assert [(i.kind, i.severity) for i in res.issues] == [("encrypted", "error")]
+    assert "decrypt" in res.issues[0].message and res.rows == 0
+    # the footer is plain text, so the declared schema is still known
+    # source: pyarrow 26.0.1 pq.read_schema of the same file
+    from driftline.sources.parquetfile import declared_paths
+
+    assert res.declared == declared_paths(pq.read_schema(f))
+
+
+def test_row_group_declaring_a_bomb_ratio_is_skipped_before_decompressing(tmp_path):
+    # found by: Parquet conformance suite, large_string_map.brotli.parquet: 2 GiB of strings
+    # in a 4 KiB file took 17 s and then failed; the footer's sizes say so up front.
+    from hostile_inputs import parquet_ratio_bomb
+
+    f = tmp_path / "bomb.parquet"
+    size = parquet_ratio_bomb(f)
+    declared = pq.ParquetFile(f).metadata.row_group(0).total_byte_size
+    assert declared > size and declared > 1000 * f.stat().st_size  # pyarrow's own footer
+    res = read_file(discover([str(f)]).files[0], ReadOptions())
+    assert [(i.kind, i.row) for i in res.issues] == [("too-large", 0)]
+    assert f"declares {declared:,} decompressed bytes" in res.issues[0].message
+    assert "--max-decompression-ratio" in res.issues[0].message and res.rows == 0
+    # the same file with the limit raised is read whole: the guard only stopped it
+    lenient = read_file(discover([str(f)]).files[0], ReadOptions(max_decompression_ratio=10**9))
+    assert lenient.issues == () and lenient.rows == 200
+
+
+def test_row_group_past_max_decompressed_bytes_is_skipped_and_the_others_read(tmp_path):
+    f = tmp_path / "two.parquet"
+    t = pa.table({"s": pa.array(["a" * 1000] * 20 + ["b"] * 20)})
+    pq.write_table(t, f, row_group_size=20, use_dictionary=False)
+    meta = pq.ParquetFile(f).metadata
+    big, small = meta.row_group(0).total_byte_size, meta.row_group(1).total_byte_size
+    assert big > 20_000 > small
+    res = read_file(discover([str(f)]).files[0], ReadOptions(max_decompressed_bytes=10_000))
+    assert [(i.kind, i.row) for i in res.issues] == [("too-large", 0)]
+    assert res.rows == 20 and res.complete is False
+    fields = {p: st for o in res.observations for p, st in o.fields.items()}
+    assert fields["s"].max_length == 1  # only the second row group ('b' values) was read
+
+
+def test_footer_declaring_more_rows_than_the_pages_hold_is_an_error(tmp_path):
+    # found by: fault injection (footer num_rows patched to 2**62) and bad_data/ARROW-GH-41317,
+    # where pyarrow's iter_batches silently returns fewer rows than the footer declares.
+    from hostile_inputs import parquet_absurd_footers
+
+    f = tmp_path / "rows.parquet"
+    f.write_bytes(parquet_absurd_footers()["rows-2^62"])
+    assert pq.ParquetFile(f).metadata.num_rows == 2**62  # source: pyarrow 26.0.1 reads the claim
+    res = read_file(discover([str(f)]).files[0], ReadOptions())
+    assert res.rows == 12_345
+    assert [(i.kind, i.severity) for i in res.issues] == [("row-count", "error")]
+    assert f"declares {2**62:,} rows but 12,345 could be read" in res.issues[0].message

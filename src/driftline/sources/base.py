@@ -11,6 +11,10 @@ from driftline.observe.observation import Observation
 DEFAULT_BATCH_ROWS = 65_536
 DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
 DEFAULT_MAX_DECOMPRESSED_BYTES = 64 * 1024**3
+# Deflate cannot pass about 1,032:1, so real data stays far below this; bombs (zeros in
+# bz2/zstd/xz, or a Parquet footer promising gigabytes from a few kilobytes) go above it.
+DEFAULT_MAX_DECOMPRESSION_RATIO = 1000
+RATIO_FLOOR_BYTES = 16 * 1024 * 1024  # the ratio is only judged past this many bytes out
 
 
 @dataclass(frozen=True, slots=True)
@@ -20,6 +24,8 @@ class ReadOptions:
     batch_rows              at most this many rows per batch (bounds memory per batch)
     max_record_bytes        a longer JSON line / document / CSV row is reported, not read
     max_decompressed_bytes  stop a compressed file past this many bytes (decompression bombs)
+    max_decompression_ratio stop once bytes out / bytes in exceeds this, past RATIO_FLOOR_BYTES
+                            out (streams as they decompress; Parquet row groups by their footer)
     delimiter               CSV delimiter; None sniffs it from the first 64 KiB
     """
 
@@ -27,12 +33,17 @@ class ReadOptions:
     max_record_bytes: int = DEFAULT_MAX_RECORD_BYTES
     max_decompressed_bytes: int = DEFAULT_MAX_DECOMPRESSED_BYTES
     delimiter: str | None = None
+    max_decompression_ratio: float = DEFAULT_MAX_DECOMPRESSION_RATIO
 
     def __post_init__(self) -> None:
         if self.batch_rows < 1:
             raise ValueError(f"batch_rows must be at least 1, got {self.batch_rows}")
         if self.max_record_bytes < 1:
             raise ValueError(f"max_record_bytes must be at least 1, got {self.max_record_bytes}")
+        if self.max_decompressed_bytes < 1:
+            raise ValueError(f"max_decompressed_bytes must be at least 1, got {self.max_decompressed_bytes}")
+        if not self.max_decompression_ratio >= 1:
+            raise ValueError(f"max_decompression_ratio must be at least 1, got {self.max_decompression_ratio}")
 
 
 @dataclass(frozen=True, slots=True)

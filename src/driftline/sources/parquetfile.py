@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from collections.abc import Iterator
 
 import pyarrow as pa
@@ -11,7 +12,7 @@ from driftline.lattice import from_arrow
 from driftline.observe import paths
 from driftline.observe.columnar import observe_table
 from driftline.observe.observation import Observation
-from driftline.sources.base import FileIssue, ReadOptions
+from driftline.sources.base import RATIO_FLOOR_BYTES, FileIssue, ReadOptions
 
 Item = Observation | FileIssue | dict
 
@@ -44,25 +45,60 @@ def declared_paths(schema: pa.Schema) -> dict[str, str]:
 
 
 def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
-    """Yield the declared schema (a dict) first, then one Observation per batch."""
+    """Yield the declared schema (a dict) first, then one Observation per batch.
+
+    A row group the footer says would decompress past the limits is reported and
+    skipped before any of it is decompressed; the others are still read.
+    """
     try:
         pf = pq.ParquetFile(path)
         schema = pf.schema_arrow
     except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError) as exc:
-        kind = "encrypted" if "encrypt" in str(exc).lower() else "unreadable"
-        yield FileIssue(rel, kind, f"cannot read the Parquet footer: {_short(exc)}")
+        yield FileIssue(rel, _kind(exc), f"cannot read the Parquet footer: {_short(exc)}")
         return
     yield declared_paths(schema)
-    rows, batch = 0, 0
+    stored = os.path.getsize(path)
+    rows, batch, expected = 0, 0, 0
     for rg in range(pf.metadata.num_row_groups):
+        meta = pf.metadata.row_group(rg)
+        too_big = _oversized(meta, stored, opts)
+        if too_big:
+            yield FileIssue(rel, "too-large", f"row group {rg}: {too_big}; row group not read", row=rows)
+            continue
+        expected += meta.num_rows
         try:
             for rb in pf.iter_batches(batch_size=opts.batch_rows, row_groups=[rg], use_threads=False):
                 yield observe_table(rb, file=rel, batch=batch, row_start=rows)
                 rows += rb.num_rows
                 batch += 1
         except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError) as exc:
-            yield FileIssue(rel, "unreadable", f"row group {rg}: {_short(exc)}; rest of the file not profiled", row=rows)
+            yield FileIssue(rel, _kind(exc), f"row group {rg}: {_short(exc)}; rest of the file not profiled", row=rows)
             return
+    if rows != expected:
+        # Nothing lost silently: a footer promising rows the pages do not hold is corrupt.
+        yield FileIssue(rel, "row-count", f"the footer declares {expected:,} rows but {rows:,} could be read", row=rows)
+
+
+def _oversized(meta: pq.RowGroupMetaData, stored: int, opts: ReadOptions) -> str | None:
+    """Why the footer's size for a row group is past the limits, or None.
+
+    Only row-group totals are read: touching column metadata that is encrypted aborts
+    the process (pyarrow 26.0.1). The file size stands in for the compressed bytes,
+    which can only understate the ratio.
+    """
+    out = max(meta.total_byte_size, 0)
+    if out > opts.max_decompressed_bytes:
+        limit = opts.max_decompressed_bytes
+        return f"declares {out:,} decompressed bytes, more than {limit:,} (--max-decompressed-bytes)"
+    if out > RATIO_FLOOR_BYTES and out > opts.max_decompression_ratio * max(stored, 1):
+        return (f"declares {out:,} decompressed bytes in a file of {stored:,}, a ratio over "
+                f"{opts.max_decompression_ratio:,g}:1 (--max-decompression-ratio)")
+    return None
+
+
+def _kind(exc: BaseException) -> str:
+    # pyarrow says "encrypted metadata" (encrypted footer) or "Cannot decrypt" (encrypted columns).
+    return "encrypted" if "crypt" in str(exc).lower() else "unreadable"
 
 
 def _short(exc: BaseException) -> str:
