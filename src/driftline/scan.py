@@ -8,7 +8,7 @@ from collections.abc import Callable, Sequence
 from concurrent.futures import ProcessPoolExecutor
 
 
-from driftline.errors import InputPathError
+from driftline.errors import DriftlineError, InputPathError
 from driftline.profile import Profile
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef, discover
@@ -32,12 +32,18 @@ def scan_paths(
     max_errors: int | None = None,
     progress: Progress | None = None,
     reuse: Callable[[FileRef], FileResult | None] | None = None,
+    engine: str = "local",
+    scheduler: str | None = None,
 ) -> Profile:
     """Scan paths into a Profile. Raises InputPathError when nothing can be found at all.
 
     reuse, when given, is asked first for each discovered file: a FileResult it returns
     stands for that file unread (an incremental state), None means read the file.
+    engine 'dask' reads the files on a dask cluster (scheduler address, or a loopback local
+    cluster of `jobs` workers); the Profile is the same as the local one.
     """
+    if engine not in ("local", "dask"):
+        raise DriftlineError(f"unknown engine {engine!r}; choose local or dask")
     opts = read or ReadOptions()
     started = time.perf_counter()
     found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden)
@@ -46,10 +52,15 @@ def scan_paths(
             f"no readable data file under {', '.join(map(str, paths))} "
             f"({len(found.skipped)} skipped); formats read: .jsonl .json .csv .tsv .parquet, optionally compressed"
         )
+    read_all = _read_all
+    if engine == "dask":
+        from driftline.engines import dask_reader
+
+        read_all = dask_reader(found.root, scheduler)
     if reuse is None:
-        results = _read_all(found.files, opts, jobs, max_errors, progress)
+        results = read_all(found.files, opts, jobs, max_errors, progress)
     else:
-        results = _read_reusing(found.files, opts, jobs, max_errors, progress, reuse)
+        results = _read_reusing(found.files, opts, jobs, max_errors, progress, reuse, read_all)
     options = {"batch_rows": opts.batch_rows, "include": list(include), "exclude": list(exclude)}
     return Profile(found.root, tuple(results), found.skipped, options, time.perf_counter() - started)
 
@@ -85,10 +96,11 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
 
 
 def _read_reusing(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
-                  progress: Progress | None, reuse: Callable[[FileRef], FileResult | None]) -> list[FileResult]:
+                  progress: Progress | None, reuse: Callable[[FileRef], FileResult | None],
+                  read_all: Callable[..., list[FileResult]] = _read_all) -> list[FileResult]:
     kept = {ref.rel: res for ref in files if (res := reuse(ref)) is not None}
     todo = [ref for ref in files if ref.rel not in kept]
-    fresh = iter(_read_all(todo, opts, jobs, max_errors, progress) if todo else ())
+    fresh = iter(read_all(todo, opts, jobs, max_errors, progress) if todo else ())
     # Back in discovery order; max_errors counts reused files' errors as the full scan would.
     results: list[FileResult] = []
     errors = 0

@@ -1,0 +1,175 @@
+"""Scan engines: where the per-file reads run. `local` is scan.py's own loop; `dask` runs
+them on a dask.distributed cluster and merges the per-file profiles by tree reduction.
+
+What crosses the network is one FileRef going out and one FileResult (batch observations:
+field statistics and a few examples, never the rows) coming back per file. Drift is computed
+on the client from the merged Profile, whose files are sorted by relative path, so the result
+is exactly the local one whatever order the workers finished in.
+"""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import Callable, Sequence
+from typing import Any
+
+from driftline.errors import DriftlineError
+from driftline.profile import Profile
+from driftline.sources.base import FileResult, ReadOptions
+from driftline.sources.discover import FileRef
+from driftline.sources.readers import read_file
+
+ENGINES = ("local", "dask")
+Progress = Callable[[int, int, str], None]
+CONNECT_TIMEOUT_S = 10
+_LOST = ("KilledWorker", "CommClosedError", "CancelledError", "FutureCancelledError", "FutureLostError")
+
+
+class EngineError(DriftlineError):
+    """The distributed engine is missing, cannot be reached, or lost the scan."""
+
+
+def _read_one(ref: FileRef, opts: ReadOptions, root: str) -> Profile:
+    """Runs on a worker: one file's observations as a one-file Profile (a tree leaf)."""
+    return Profile(root, (read_file(ref, opts),))
+
+
+def _merge_pair(left: Profile, right: Profile) -> Profile:
+    """Runs on a worker: one inner node of the reduction tree."""
+    return left.merge(right)
+
+
+def tree_levels(n: int, fan_in: int = 2) -> int:
+    """How many merge rounds a tree reduction of n leaves takes.
+
+    >>> [tree_levels(n) for n in (1, 2, 3, 4, 5, 300)]
+    [0, 1, 2, 2, 3, 9]
+    """
+    levels = 0
+    while n > 1:
+        n = -(-n // fan_in)
+        levels += 1
+    return levels
+
+
+def _import_distributed() -> Any:
+    try:
+        import distributed
+    except ImportError as exc:
+        raise EngineError(
+            "--engine dask needs the dask extra: pip install 'driftline[dask]'"
+        ) from exc
+    return distributed
+
+
+def _connect(distributed: Any, scheduler: str | None, workers: int) -> tuple[Any, Any]:
+    """A Client on the given scheduler, or on a fresh loopback LocalCluster (returned to close)."""
+    if scheduler:
+        try:
+            return distributed.Client(scheduler, timeout=CONNECT_TIMEOUT_S, set_as_default=False), None
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise EngineError(f"cannot reach the dask scheduler at {scheduler!r}: {exc}") from exc
+    # Loopback only: a scan started on a laptop never listens on the network.
+    cluster = distributed.LocalCluster(
+        n_workers=max(1, workers), threads_per_worker=1, processes=True,
+        host="127.0.0.1", dashboard_address=":0", silence_logs=logging.ERROR,
+    )
+    try:
+        client = distributed.Client(cluster, set_as_default=False)
+    except Exception:
+        cluster.close()
+        raise
+    return client, cluster
+
+
+def read_dask(
+    files: Sequence[FileRef],
+    opts: ReadOptions,
+    root: str,
+    *,
+    scheduler: str | None = None,
+    workers: int = 2,
+    max_errors: int | None = None,
+    progress: Progress | None = None,
+) -> list[FileResult]:
+    """Read files on a dask cluster; return their FileResults in relative-path order.
+
+    max_errors keeps the local meaning (files in path order up to and including the one that
+    reaches the limit); every file is read, then the list is cut on the client.
+    """
+    distributed = _import_distributed()
+    client, cluster = _connect(distributed, scheduler, workers)
+    try:
+        merged = _reduce(distributed, client, files, opts, root, progress)
+    except EngineError:
+        raise
+    except Exception as exc:
+        # Lost workers (KilledWorker), closed connections, cancelled futures, timeouts: the
+        # scan is abandoned as a whole rather than reported from what happened to arrive.
+        if isinstance(exc, OSError | TimeoutError) or type(exc).__name__ in _LOST:
+            raise EngineError(
+                f"the dask cluster lost the scan ({type(exc).__name__}: {exc}); nothing was reported"
+            ) from exc
+        raise
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+    if sorted(f.rel for f in merged.files) != sorted(f.rel for f in files):
+        # Never a partial result passed off as a whole one.
+        raise EngineError(f"the dask scan returned {len(merged.files)} of {len(files)} files")
+    return _cut(list(merged.files), max_errors)
+
+
+def _reduce(distributed: Any, client: Any, files: Sequence[FileRef], opts: ReadOptions, root: str,
+            progress: Progress | None) -> Profile:
+    total = len(files)
+    # pure=False: a rescan must re-read files that changed under the same FileRef.
+    leaves = [client.submit(_read_one, ref, opts, root, pure=False, key=f"driftline-read-{i}-{_token()}")
+              for i, ref in enumerate(files)]
+    names = {leaf.key: ref.rel for leaf, ref in zip(leaves, files, strict=True)}
+    level = list(leaves)
+    while len(level) > 1:
+        # Neighbours merge, so each inner node covers a contiguous run of the sorted paths.
+        nxt = [client.submit(_merge_pair, level[i], level[i + 1], pure=False)
+               for i in range(0, len(level) - 1, 2)]
+        if len(level) % 2:
+            nxt.append(level[-1])
+        level = nxt
+    if progress:
+        for done, fut in enumerate(distributed.as_completed(leaves, loop=client.loop), start=1):
+            progress(done, total, names.get(fut.key, ""))
+    result: Profile = level[0].result()
+    return result
+
+
+def _token() -> str:
+    import uuid
+
+    return uuid.uuid4().hex[:12]
+
+
+def _cut(results: list[FileResult], max_errors: int | None) -> list[FileResult]:
+    """The serial scan's stopping rule applied after the fact."""
+    if max_errors is None:
+        return results
+    errors = 0
+    for i, res in enumerate(results):
+        errors += res.errors
+        if errors >= max_errors:
+            return results[: i + 1]
+    return results
+
+
+def dask_reader(root: str, scheduler: str | None) -> Callable[..., list[FileResult]]:
+    """A reader with scan.py's `_read_all` signature (files, opts, jobs, max_errors, progress).
+
+    jobs is the worker count of the local cluster made when no scheduler is given.
+    """
+
+    def read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
+                 progress: Progress | None) -> list[FileResult]:
+        return read_dask(files, opts, root, scheduler=scheduler, workers=jobs, max_errors=max_errors,
+                         progress=progress)
+
+    return read_all

@@ -1,0 +1,118 @@
+"""The dask engine against a real distributed.LocalCluster on loopback: equal to the local scan.
+
+The reference for every check is driftline's own local engine (scan_paths with engine='local'),
+which the rest of the suite checks against the demo manifest and published standards; the dask
+engine must reproduce it exactly (Profile ==, events ==).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from driftline.engines import EngineError, tree_levels
+from driftline.scan import scan_paths
+
+if os.environ.get("CI"):
+    import distributed  # CI installs the test extra: a missing package is a failure, never a skip
+else:
+    distributed = pytest.importorskip("distributed")
+
+
+@pytest.fixture(scope="module")
+def cluster() -> Iterator[Any]:
+    # source: distributed 2026.8.0 LocalCluster: worker processes behind nannies, loopback only
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                                  dashboard_address=":0") as c:
+        yield c
+
+
+@pytest.fixture(scope="module")
+def many_files(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """300 small JSON Lines files in day=… partitions, with a type change and a new field."""
+    root = tmp_path_factory.mktemp("many")
+    for i in range(300):
+        day = f"2026-11-{1 + i // 20:02d}"
+        rows = []
+        for r in range(5):
+            row: dict[str, Any] = {"id": i * 5 + r, "v": (i * 5 + r) * 1.5 if i >= 150 else i * 5 + r}
+            if i >= 250:
+                row["extra"] = f"x{r}"
+            rows.append(json.dumps(row))
+        target = root / f"day={day}" / f"part-{i:04d}.jsonl"
+        target.parent.mkdir(parents=True, exist_ok=True)
+        target.write_text("\n".join(rows) + "\n")
+    (root / "day=2026-11-03" / "part-bad.jsonl").write_text('{"id": 1}\n{"id": \n')
+    return root
+
+
+def test_tree_levels() -> None:
+    # A binary tree over n leaves has ceil(log2 n) levels (common practice).
+    assert [tree_levels(n) for n in (1, 2, 3, 8, 9, 300, 1024)] == [0, 1, 2, 3, 4, 9, 10]
+
+
+def test_demo_equals_local(cluster: Any, demo_dir: Path) -> None:
+    landing = demo_dir / "landing"
+    local = scan_paths([landing])
+    remote = scan_paths([landing], engine="dask", scheduler=cluster.scheduler_address)
+    assert remote == local
+    assert remote.events == local.events
+    assert remote.fields == local.fields
+    assert len(remote.files) == 16  # source: scripts/make_demo.py prints "16 data files"
+
+
+def test_many_files_equal_local(cluster: Any, many_files: Path) -> None:
+    local = scan_paths([many_files], jobs=1)
+    remote = scan_paths([many_files], engine="dask", scheduler=cluster.scheduler_address)
+    assert len(remote.files) == 301
+    assert remote == local
+    assert remote.events == local.events
+    assert remote.rows == 300 * 5 + 1
+    assert remote.fields["v"].stats.types == {"int64": 750, "float64": 750}
+    assert remote.fields["extra"].absent == 1500 + 1 - 250
+
+
+def test_max_errors_cut_like_serial(cluster: Any, many_files: Path) -> None:
+    local = scan_paths([many_files], max_errors=1)
+    remote = scan_paths([many_files], engine="dask", scheduler=cluster.scheduler_address, max_errors=1)
+    assert [f.rel for f in remote.files] == [f.rel for f in local.files]
+    assert remote.files[-1].rel == "day=2026-11-03/part-bad.jsonl"
+    assert remote == local
+
+
+def test_local_cluster_made_when_no_scheduler(demo_dir: Path) -> None:
+    landing = demo_dir / "landing"
+    assert scan_paths([landing], engine="dask", jobs=2) == scan_paths([landing])
+
+
+def test_killed_worker_is_never_wrong(many_files: Path) -> None:
+    local = scan_paths([many_files])
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                                  dashboard_address=":0") as c:
+        victim = next(iter(c.workers.values())).process.process.pid
+        killed: list[int] = []
+
+        def progress(done: int, total: int, current: str) -> None:
+            if done == 20 and not killed:
+                os.kill(victim, signal.SIGKILL)  # the nanny restarts it; its tasks and results are lost
+                killed.append(victim)
+
+        try:
+            remote = scan_paths([many_files], engine="dask", scheduler=c.scheduler_address, progress=progress)
+        except EngineError as exc:
+            assert "dask cluster lost the scan" in str(exc)
+        else:
+            assert remote == local
+            assert remote.events == local.events
+        assert killed == [victim]
+
+
+def test_unreachable_scheduler_is_a_clear_error(demo_dir: Path) -> None:
+    with pytest.raises(EngineError, match=r"cannot reach the dask scheduler at 'tcp://127.0.0.1:9'"):
+        scan_paths([demo_dir / "landing"], engine="dask", scheduler="tcp://127.0.0.1:9")
