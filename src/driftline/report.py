@@ -97,6 +97,29 @@ def _file_json(f: FileResult, batches: bool) -> dict[str, Any]:
     }
 
 
+def file_json(f: FileResult) -> dict[str, Any]:
+    """One file of a report, with its batch observations (the inverse of file_from_json)."""
+    return _file_json(f, True)
+
+
+def file_from_json(fd: Mapping[str, Any]) -> FileResult:
+    """One file back from its report JSON; it needs the batch observations."""
+    rel = fd["path"]
+    return FileResult(
+        rel=rel,
+        format=fd["format"],
+        compression=fd.get("compression"),
+        partitions=tuple(fd.get("partitions", {}).items()),
+        size=fd["size"],
+        mtime_ns=fd["mtime_ns"],
+        rows=fd["rows"],
+        observations=tuple(Observation.from_json(rel, o) for o in fd["batches"]),
+        issues=tuple(FileIssue.from_json(i) for i in fd.get("issues", [])),
+        declared=fd.get("declared"),
+        complete=fd.get("complete", True),
+    )
+
+
 def dumps(profile: Profile) -> bytes:
     return orjson.dumps(to_dict(profile), option=orjson.OPT_INDENT_2 | orjson.OPT_NON_STR_KEYS) + b"\n"
 
@@ -114,22 +137,7 @@ def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
     for fd in data["files"]:
         if fd.get("batches") is None:
             raise ReportVersionError(f"{source} was written without batch observations; rescan to load it")
-        rel = fd["path"]
-        files.append(
-            FileResult(
-                rel=rel,
-                format=fd["format"],
-                compression=fd.get("compression"),
-                partitions=tuple(fd.get("partitions", {}).items()),
-                size=fd["size"],
-                mtime_ns=fd["mtime_ns"],
-                rows=fd["rows"],
-                observations=tuple(Observation.from_json(rel, o) for o in fd["batches"]),
-                issues=tuple(FileIssue.from_json(i) for i in fd.get("issues", [])),
-                declared=fd.get("declared"),
-                complete=fd.get("complete", True),
-            )
-        )
+        files.append(file_from_json(fd))
     skipped = tuple(Skipped(s["path"], s["reason"]) for s in data.get("skipped", []))
     return Profile(data["root"], tuple(files), skipped, dict(data.get("options", {})), data.get("duration_s", 0.0))
 
