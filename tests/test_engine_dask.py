@@ -116,3 +116,30 @@ def test_killed_worker_is_never_wrong(many_files: Path) -> None:
 def test_unreachable_scheduler_is_a_clear_error(demo_dir: Path) -> None:
     with pytest.raises(EngineError, match=r"cannot reach the dask scheduler at 'tcp://127.0.0.1:9'"):
         scan_paths([demo_dir / "landing"], engine="dask", scheduler="tcp://127.0.0.1:9")
+
+
+def test_cli_engine_dask_report_equals_local(cluster: Any, demo_dir: Path, tmp_path: Path) -> None:
+    import subprocess
+    import sys
+
+    landing = str(demo_dir / "landing")
+    out = {}
+    for name, extra in (("local", []), ("dask", ["--engine", "dask", "--scheduler", cluster.scheduler_address])):
+        target = tmp_path / f"{name}.json"
+        proc = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", landing, "--json", str(target), "-q",
+                               *extra], capture_output=True, text=True, timeout=120)
+        assert proc.returncode == 0, proc.stderr
+        out[name] = json.loads(target.read_text())
+    for report in out.values():
+        report.pop("duration_s", None)
+    assert out["dask"] == out["local"]
+
+
+def test_cli_unknown_engine_exits_2(demo_dir: Path) -> None:
+    import subprocess
+    import sys
+
+    args = [sys.executable, "-m", "driftline.cli", "scan", str(demo_dir / "landing"), "--engine", "spark"]
+    proc = subprocess.run(args, capture_output=True, text=True, timeout=60)
+    assert proc.returncode == 2
+    assert "unknown engine 'spark'; choose local or dask" in proc.stderr

@@ -82,12 +82,14 @@ def scan_command(
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
+    engine: str = typer.Option("local", "--engine", help="Where files are read: local (processes) or dask (a cluster; install driftline[dask])."),
+    scheduler: str | None = typer.Option(None, "--scheduler", metavar="ADDRESS", help="dask scheduler, e.g. tcp://10.0.0.5:8786; without it --engine dask starts --jobs workers on 127.0.0.1."),
 ) -> None:
     opts = ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         profile = scan_paths(paths, read=opts, include=include, exclude=exclude, include_hidden=hidden,
-                             jobs=jobs, max_errors=max_errors, progress=bar)
+                             jobs=jobs, max_errors=max_errors, progress=bar, engine=engine, scheduler=scheduler)
     finally:
         bar.close()
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
