@@ -279,3 +279,20 @@ def test_issue_example_runs_on_the_demo(demo_dir: Path, monkeypatch: pytest.Monk
     report = tmp_path / "report.json"
     report.write_bytes(dumps(profile))
     assert driftline.load_report(str(report)) == profile
+
+
+def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pytest.MonkeyPatch):
+    from conftest import ROOT, _load_make_demo
+    from driftline.report import dumps
+
+    _load_make_demo().build(tmp_path)
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "report.json").write_bytes(dumps(driftline.scan("landing/", batch_rows=50_000)))
+    # Markdown fences would read as expected output: blank them, keep the line numbers.
+    text = "\n".join("" if line.startswith("```") else line
+                     for line in (ROOT / "docs" / "python.md").read_text(encoding="utf-8").splitlines())
+    parser = doctest.DocTestParser()
+    test = parser.get_doctest(text, {}, "docs/python.md", "docs/python.md", 0)
+    runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS)
+    runner.run(test)
+    assert runner.summarize(verbose=False) == (0, 19)
