@@ -12,6 +12,7 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
 from driftline.emit.atomic import write_output
+from driftline.emit.html import write_html
 from driftline.emit.safe import safe_text
 from driftline.emit.terminal import render
 from driftline.errors import InputPathError
@@ -73,6 +74,7 @@ class _Bar:
 def scan_command(
     paths: list[str] = typer.Argument(..., help="Files, folders or globs to scan."),
     json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the whole report as JSON ('-' for stdout)."),
+    html_out: str | None = typer.Option(None, "--html", metavar="FILE|-", help="Write a self-contained HTML report with drift charts (one file, works offline)."),
     include: list[str] = typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable)."),
     exclude: list[str] = typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable)."),
     batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch: drift is tracked batch by batch and memory is bounded by it."),
@@ -95,13 +97,19 @@ def scan_command(
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
         render(profile, err_console)
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed (see the problems above)")
+    if html_out == "-" and json_out == "-":
+        raise typer.BadParameter("only one of --json and --html can write to stdout ('-')")
     if json_out is not None:
         write_output(json_out, dumps(profile))
+    if html_out is not None:
+        write_html(profile, html_out)
     if not quiet:
         # Data goes to stdout; when the JSON report takes stdout, the summary moves to stderr.
-        console = err_console if json_out == "-" else Console(highlight=False)
+        console = err_console if "-" in (json_out, html_out) else Console(highlight=False)
         render(profile, console)
         if json_out not in (None, "-"):
             console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
+        if html_out not in (None, "-"):
+            console.print(f"HTML report written to {safe_text(Path(html_out))}", markup=False)
     if profile.rows == 0 and not profile.files:
         raise typer.Exit(EXIT_USAGE)

@@ -1,0 +1,304 @@
+"""The HTML report: one self-contained file with the overview, field table, drift timelines,
+partition matrices, events and file problems.
+
+Nothing is fetched when the page is viewed: the CSS, the small script and every chart
+(inline SVG drawn by emit.svg) are in the file, and a Content-Security-Policy with the
+hashes of our one style sheet and one script forbids anything else, so even a field
+name that slipped through escaping could not run. All data is escaped (jinja2
+autoescape after safe_text, or emit.svg.esc). Large scans are aggregated and capped
+(see the MAX_* numbers) and the browser pages the long lists.
+"""
+
+from __future__ import annotations
+
+import base64
+import hashlib
+from collections import Counter
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from importlib import resources
+from typing import Any
+
+import jinja2
+from markupsafe import Markup
+
+from driftline import __version__
+from driftline.drift import EVENT_KINDS, Event
+from driftline.emit import html_data as hd
+from driftline.emit import svg
+from driftline.emit.atomic import write_output
+from driftline.emit.safe import safe_text
+from driftline.profile import FieldSummary, Profile
+from driftline.report import partition_types
+
+MAX_TABLE_ROWS = 2_000
+MAX_CHARTS = 60
+MAX_MATRIX_ROWS = 60
+MAX_EVENTS = 1_000
+MAX_ISSUES = 1_000
+MAX_SKIPPED = 200
+CHART_EVENTS_LISTED = 8  # events written out under each chart; the events list has all
+PAGE = {"fields": 50, "charts": 6, "events": 50, "issues": 50}
+
+
+@dataclass(frozen=True)
+class Recommendation:
+    """What the recommender proposes for one field, as text for the table."""
+
+    type: str
+    rule: str
+    loss: str
+    lost: int  # values the rule loses (for sorting)
+
+
+def _assets() -> tuple[str, str, str]:
+    folder = resources.files("driftline.emit") / "html_assets"
+    return tuple((folder / name).read_text(encoding="utf-8") for name in ("report.html.j2", "report.css", "report.js"))  # type: ignore[return-value]
+
+
+def _sha256(text: str) -> str:
+    return "sha256-" + base64.b64encode(hashlib.sha256(text.encode("utf-8")).digest()).decode("ascii")
+
+
+def _t(value: object, limit: int | None = 120) -> str:
+    return "" if value is None else safe_text(value, limit)
+
+
+def _env() -> jinja2.Environment:
+    env = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
+    env.filters["t"] = _t
+    env.filters["num"] = lambda n: f"{n:,}"
+    return env
+
+
+def _bytes(n: int) -> str:
+    size = float(n)
+    for unit in ("B", "KiB", "MiB", "GiB"):
+        if size < 1024 or unit == "GiB":
+            return f"{n} B" if unit == "B" else f"{size:.1f} {unit}"
+        size /= 1024
+    return f"{n} B"
+
+
+def _where(e: Event) -> str:
+    bits = [f"row {e.row}" if e.row is not None else f"batch {e.batch}"]
+    if e.line is not None:
+        bits.append(f"line {e.line}")
+    return ", ".join(bits)
+
+
+def _parts(parts: Sequence[tuple[str, str]]) -> str:
+    return ", ".join(f"{k}={v}" for k, v in parts) or "none"
+
+
+def _count_text(e: Event) -> str:
+    unit = "rows from here on" if e.kind in ("field-gone", "nested-gone") else "values in that batch"
+    return f"{e.count:,} {unit}"
+
+
+def _tip(number: int, e: Event) -> str:
+    lines = [
+        f"#{number} {e.kind}: {safe_text(e.path, 80)}",
+        f"{safe_text(e.before or '–', 60)} → {safe_text(e.after or '–', 60)}",
+        f"file {safe_text(e.file, 160)}",
+        f"partition {safe_text(_parts(e.partitions), 120)}",
+        f"{_where(e)}, batch {e.batch}",
+    ]
+    if e.example is not None:
+        lines.append(f"example {safe_text(e.example, 60)}")
+    lines.append(_count_text(e))
+    return "\n".join(lines)
+
+
+def _summary_counts(s: FieldSummary) -> hd.Counts:
+    return hd.Counts(dict(s.stats.types), s.stats.nulls, s.absent, s.container)
+
+
+def _types_text(s: FieldSummary) -> str:
+    total = s.stats.nonnull
+    if not total:
+        return "null only" if s.stats.nulls else "no values"
+    parts = sorted(s.stats.types.items(), key=lambda kv: (-kv[1], kv[0]))
+    if len(parts) == 1:
+        return parts[0][0]
+    return " · ".join(f"{k} {svg.pct(n, total)}" for k, n in parts[:3]) + (" …" if len(parts) > 3 else "")
+
+
+def _overview(profile: Profile) -> list[tuple[str, str]]:
+    formats = Counter(f.format for f in profile.files)
+    issues = profile.issues
+    parts = partition_types(profile)
+    return [
+        ("files", f"{len(profile.files):,}"),
+        ("rows", f"{profile.rows:,}"),
+        ("bytes", _bytes(profile.bytes)),
+        ("formats", ", ".join(f"{n:,} {k}" for k, n in sorted(formats.items())) or "none"),
+        ("partitions", "; ".join(f"{k} ({v['type']}, {len(v['values']):,} values)" for k, v in parts.items())
+         or "none"),
+        ("fields", f"{len(profile.fields):,}"),
+        ("drift events", f"{len(profile.events):,}"),
+        ("file errors", f"{sum(1 for i in issues if i.severity == 'error'):,}"),
+        ("warnings", f"{sum(1 for i in issues if i.severity == 'warning'):,}"),
+        ("skipped", f"{len(profile.skipped):,}"),
+        ("duration", f"{profile.duration_s:.2f} s"),
+        ("driftline", __version__),
+    ]
+
+
+def _field_rows(profile: Profile, styles: svg.Styles, drift: Counter[str], charted: Mapping[str, str],
+                recs: Mapping[str, Recommendation] | None) -> list[dict[str, Any]]:
+    rows = []
+    for path, s in list(profile.fields.items())[:MAX_TABLE_ROWS]:
+        counts = _summary_counts(s)
+        order = hd.series_order(counts.series())
+        rec = recs.get(path) if recs is not None else None
+        rows.append({
+            "path": path,
+            "bar": Markup(svg.type_bar(counts, order, styles.assign(order))),
+            "types": _types_text(s),
+            "ntypes": len(s.stats.types),
+            "null": svg.pct(s.stats.nulls, s.container),
+            "null_v": s.share(s.stats.nulls),
+            "absent": svg.pct(s.absent, s.container),
+            "absent_v": s.share(s.absent),
+            "drift": drift[path],
+            "chart": charted.get(path),
+            "rec": rec,
+        })
+    return rows
+
+
+def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int]) -> list[dict[str, Any]]:
+    by_path: dict[str, list[Event]] = {}
+    for e in profile.events:
+        by_path.setdefault(e.path, []).append(e)
+    chosen = list(by_path)[:MAX_CHARTS]  # in the order their first event happens
+    if not chosen:
+        return []
+    bks = hd.buckets(profile)
+    per_bucket = hd.bucket_counts(profile, bks, chosen)
+    units = hd.scan_units(profile)
+    charts = []
+    for i, path in enumerate(chosen):
+        counts = [c[path] for c in per_bucket]
+        totals: Counter[str] = Counter()
+        for c in counts:
+            totals.update(c.series())
+        order = hd.series_order(dict(totals))
+        fills = styles.assign(order)
+        markers = []
+        for e in by_path[path]:
+            obs = units[e.seq][2]
+            in_batch = (e.row - obs.row_start) if e.row is not None else 0
+            n = numbers[id(e)]
+            markers.append(svg.Marker(n, e.kind, e.file, e.row, e.seq, in_batch, obs.rows, _tip(n, e)))
+        chart_id = f"chart-{i + 1}"
+        charts.append({
+            "id": chart_id,
+            "path": path,
+            "svg": Markup(svg.timeline(chart_id + "-svg", path, bks, counts, order, fills, markers)),
+            "events": [(numbers[id(e)], e) for e in by_path[path][:CHART_EVENTS_LISTED]],
+            "more_events": max(0, len(by_path[path]) - CHART_EVENTS_LISTED),
+            "hidden_markers": max(0, len(markers) - svg.MAX_MARKERS),
+            "steps": len(bks),
+        })
+    return charts
+
+
+def _cell(c: hd.Counts, slot: Mapping[str, str]) -> dict[str, Any]:
+    if not c.container:
+        return {"text": "·", "notes": "", "title": "no rows here", "cls": "none", "sig": None}
+    present = sorted(c.types.items(), key=lambda kv: (-kv[1], kv[0]))
+    if not present:
+        text = "null" if c.nulls else "absent"
+        cls = "null" if c.nulls else "absent"
+    else:
+        nonnull = sum(c.types.values())
+        text = present[0][0] if len(present) == 1 else " · ".join(f"{k} {svg.pct(n, nonnull)}" for k, n in present[:2])
+        cls = slot[present[0][0]].removeprefix("fill-")
+    notes = []
+    if c.nulls and present:
+        notes.append(f"null {svg.pct(c.nulls, c.container)}")
+    if c.absent and (present or c.nulls):
+        notes.append(f"absent {svg.pct(c.absent, c.container)}")
+    title = f"{text}; " + ", ".join(notes) if notes else text
+    sig = tuple(k for k, _ in present) or (cls,)
+    return {"text": text, "notes": ", ".join(notes), "title": title, "cls": cls, "sig": sig}
+
+
+def _matrices(profile: Profile, styles: svg.Styles) -> list[dict[str, Any]]:
+    drifting = list(dict.fromkeys(e.path for e in profile.events))
+    wanted = (drifting + [p for p in profile.fields if p not in set(drifting)])[:MAX_MATRIX_ROWS]
+    out = []
+    for key, info in partition_types(profile).items():
+        if len(info["values"]) < 2 or not wanted:
+            continue
+        columns = hd.partition_columns(info["values"], key=key)
+        per_col = hd.partition_counts(profile, key, columns, wanted)
+        rows = []
+        for path in wanted:
+            cells = [per_col[i][path] for i in range(len(columns))]
+            fills = styles.assign(hd.series_order(dict(profile.fields[path].stats.types)))
+            shown = [_cell(c, fills) for c in cells]
+            sigs = Counter(c["sig"] for c in shown if c["sig"] is not None)
+            usual = sigs.most_common(1)[0][0] if sigs else None
+            for c in shown:
+                c["odd"] = c["sig"] is not None and c["sig"] != usual
+            rows.append({"path": path, "cells": shown, "odd": sum(c["odd"] for c in shown)})
+        out.append({"key": key, "type": info["type"], "columns": columns, "rows": rows,
+                    "left_out": max(0, len(profile.fields) - len(wanted))})
+    return out
+
+
+def render_html(profile: Profile, *, recs: Mapping[str, Recommendation] | None = None) -> str:
+    """The whole report as one HTML document (a str).
+
+    >>> page = render_html(Profile("r", ()))
+    >>> page.startswith("<!DOCTYPE html>"), "<script" in page.split("</head>")[0]
+    (True, False)
+    """
+    template, css, js = _assets()
+    totals: Counter[str] = Counter()
+    for s in profile.fields.values():
+        totals.update(s.stats.types)
+    styles = svg.Styles.for_totals(dict(totals))
+    numbers = {id(e): i for i, e in enumerate(profile.events, 1)}
+    charts = _charts(profile, styles, numbers)
+    charted = {c["path"]: c["id"] for c in charts}
+    drift = Counter(e.path for e in profile.events)
+    fields = _field_rows(profile, styles, drift, charted, recs)
+    page = _env().from_string(template).render(
+        title=f"driftline report: {safe_text(profile.root, 80)}",
+        root=profile.root,
+        version=__version__,
+        csp=f"default-src 'none'; style-src '{_sha256(css)}'; script-src '{_sha256(js)}'; img-src data:; "
+            "base-uri 'none'; form-action 'none'",
+        css=Markup(css),
+        js=Markup(js),
+        defs=Markup(svg.defs()),
+        overview=_overview(profile),
+        fields=fields,
+        fields_left_out=max(0, len(profile.fields) - len(fields)),
+        with_recs=recs is not None,
+        charts=charts,
+        charts_left_out=max(0, len(drift) - len(charts)),
+        matrices=_matrices(profile, styles),
+        events=list(enumerate(profile.events[:MAX_EVENTS], 1)),
+        events_left_out=max(0, len(profile.events) - MAX_EVENTS),
+        kinds=EVENT_KINDS,
+        issues=profile.issues[:MAX_ISSUES],
+        issues_left_out=max(0, len(profile.issues) - MAX_ISSUES),
+        skipped=profile.skipped[:MAX_SKIPPED],
+        skipped_left_out=max(0, len(profile.skipped) - MAX_SKIPPED),
+        page=PAGE,
+        where=_where,
+        parts=_parts,
+        count_text=_count_text,
+        palette=svg.PALETTE,
+    )
+    return page
+
+
+def write_html(profile: Profile, target: str) -> None:
+    """Render the report and write it atomically to target ('-' for stdout)."""
+    write_output(target, render_html(profile))
