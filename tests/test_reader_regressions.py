@@ -151,3 +151,34 @@ def test_footer_declaring_more_rows_than_the_pages_hold_is_an_error(tmp_path):
     assert res.rows == 12_345
     assert [(i.kind, i.severity) for i in res.issues] == [("row-count", "error")]
     assert f"declares {2**62:,} rows but 12,345 could be read" in res.issues[0].message
+
+
+# -- compressed streams and sniffing -----------------------------------------------------
+
+def test_extensionless_file_with_a_corrupt_compressed_header_is_skipped_not_a_crash(tmp_path):
+    # found by: fault injection. Sniffing a file whose name says nothing decoded its first
+    # bytes and let zlib.error / ZstdError / LZMAError escape, which stopped discovery itself.
+    magics = {"gz": b"\x1f\x8b", "bz": b"BZh9", "zst": b"\x28\xb5\x2f\xfd", "xz": b"\xfd7zXZ\x00"}
+    for name, magic in magics.items():
+        (tmp_path / f"upload-{name}").write_bytes(magic + b"\x00garbage, not a stream" * 4)
+    (tmp_path / "good.jsonl").write_bytes(b'{"a": 1}\n')
+    found = discover([str(tmp_path)])
+    assert [f.rel for f in found.files] == ["good.jsonl"]
+    assert sorted((s.rel, s.reason) for s in found.skipped) == [
+        (f"upload-{n}", "unknown-format") for n in sorted(magics)
+    ]
+
+
+def test_encrypted_footer_magic_is_read_as_parquet_and_reported_encrypted():
+    # found by: Parquet conformance suite: files with an encrypted footer end in "PARE"
+    # (source: apache/parquet-format Encryption.md, "PARE" magic) and were skipped as
+    # an unknown format instead of being reported.
+    from hostile_inputs import PARQUET_SUITE
+
+    f = PARQUET_SUITE / "data" / "uniform_encryption.parquet.encrypted"
+    assert f.read_bytes()[-4:] == b"PARE"
+    found = discover([str(f)])
+    assert [(x.format, x.compression) for x in found.files] == [("parquet", None)]
+    res = read_file(found.files[0], ReadOptions())
+    assert [(i.kind, i.severity) for i in res.issues] == [("encrypted", "error")]
+    assert "encrypted" in res.issues[0].message and res.rows == 0

@@ -55,12 +55,12 @@ def detect_format(path: str) -> str | None:
 def sniff_format(path: str) -> str | None:
     """Guess the format of a file whose name says nothing, from its first 4 KiB."""
     raw = _head(path, 4)
-    if raw == b"PAR1":
+    if raw in (b"PAR1", b"PARE"):  # PARE: a Parquet file with an encrypted footer
         return "parquet"
     try:
         with open_stream(path, detect_compression(path), limit=None) as stream:
             head = stream.read(4096)
-    except (OSError, EOFError, ValueError):
+    except decode_errors():
         return None
     text = head.lstrip(b"\xef\xbb\xbf").lstrip()
     if text.startswith(b"{"):
@@ -87,6 +87,13 @@ def _head(path: str, n: int) -> bytes:
 
 class LimitExceeded(ValueError):
     """More decompressed bytes than the limit allows (a decompression bomb, or a too-large file)."""
+
+
+# What a decoder raises on corrupt input; none of them may escape a reader or discovery.
+def decode_errors() -> tuple[type[BaseException], ...]:
+    import zstandard
+
+    return (OSError, EOFError, ValueError, zlib.error, lzma.LZMAError, zstandard.ZstdError)
 
 
 class _Limited(io.RawIOBase):
