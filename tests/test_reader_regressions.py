@@ -182,3 +182,25 @@ def test_encrypted_footer_magic_is_read_as_parquet_and_reported_encrypted():
     res = read_file(found.files[0], ReadOptions())
     assert [(i.kind, i.severity) for i in res.issues] == [("encrypted", "error")]
     assert "encrypted" in res.issues[0].message and res.rows == 0
+
+
+def test_gzip_decoding_is_bounded_by_the_read_size_not_the_compressed_chunk(tmp_path):
+    # found by: review of the gzip reader: zlib.decompress() of a 1 MiB compressed chunk of
+    # a bomb returned ~1 GiB at once. Here 200 MiB of spaces (~200 KB compressed) stream
+    # through with the ratio check off; memory stays near the record limit.
+    import tracemalloc
+
+    from hostile_inputs import compress, jsonl_lines
+
+    f = tmp_path / "spaces.jsonl.gz"
+    f.write_bytes(compress(jsonl_lines(10) + b" " * (200 * 2**20), "gzip"))
+    tracemalloc.start()
+    try:
+        res = read_file(discover([str(f)]).files[0],
+                        ReadOptions(max_record_bytes=2**20, max_decompression_ratio=10**9))
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert res.rows == 10
+    assert [(i.kind, i.line) for i in res.issues] == [("too-large", 11)]
+    assert peak < 48 * 2**20, f"peak {peak / 2**20:.0f} MiB"

@@ -119,11 +119,15 @@ class _Limited(io.RawIOBase):
         super().close()
 
 
+_GZIP_IN = 64 * 1024  # compressed bytes fed to zlib at a time
+
+
 class _GzipStream(io.RawIOBase):
     """Streaming gzip (all members) that hands out every byte decoded before a truncation.
 
     gzip.GzipFile raises on a cut-off file without returning the data it had decoded in
-    that read; here the decoded bytes come first and the EOFError only after them.
+    that read; here the decoded bytes come first and the EOFError only after them. Each
+    call decodes at most len(buf) bytes (max_length), so a bomb never sits in memory whole.
     """
 
     def __init__(self, path: str) -> None:
@@ -136,19 +140,21 @@ class _GzipStream(io.RawIOBase):
         return True
 
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
+        want = max(len(buf), 1)
         while not self._pending and not self._done:
-            chunk = self._raw.read(1 << 20)
-            if not chunk:
-                if not self._dec.eof:
+            if self._dec.eof:  # a member ended: another one may follow (RFC 1952 section 2.2)
+                rest = self._dec.unused_data or self._raw.read(_GZIP_IN)
+                if not rest:
                     self._done = True
-                    raise EOFError("compressed file ended before the end-of-stream marker was reached")
-                self._done = True
-                break
-            self._pending = self._dec.decompress(chunk)
-            while self._dec.eof and self._dec.unused_data:
-                rest = self._dec.unused_data
+                    break
                 self._dec = zlib.decompressobj(wbits=31)
-                self._pending += self._dec.decompress(rest)
+                self._pending = self._dec.decompress(rest, want)
+                continue
+            data = self._dec.unconsumed_tail or self._raw.read(_GZIP_IN)
+            if not data:
+                self._done = True
+                raise EOFError("compressed file ended before the end-of-stream marker was reached")
+            self._pending = self._dec.decompress(data, want)
         n = min(len(buf), len(self._pending))
         buf[:n] = self._pending[:n]
         self._pending = self._pending[n:]
