@@ -204,3 +204,15 @@ def test_gzip_decoding_is_bounded_by_the_read_size_not_the_compressed_chunk(tmp_
     assert res.rows == 10
     assert [(i.kind, i.line) for i in res.issues] == [("too-large", 11)]
     assert peak < 48 * 2**20, f"peak {peak / 2**20:.0f} MiB"
+
+
+def test_a_stream_past_the_decompression_ratio_stops_and_keeps_the_rows_before(tmp_path):
+    from hostile_inputs import compress, jsonl_lines
+
+    for codec, suffix in (("bz2", ".bz2"), ("zstd", ".zst")):
+        f = tmp_path / f"bomb.jsonl{suffix}"
+        f.write_bytes(compress(jsonl_lines(1000) + b" " * (40 * 2**20), codec))
+        res = read_file(discover([str(f)]).files[0], ReadOptions())
+        assert res.rows == 1000 and res.complete is False, codec
+        assert [i.kind for i in res.issues] == ["too-large"], codec
+        assert "a ratio over 1,000:1 (--max-decompression-ratio)" in res.issues[0].message, codec

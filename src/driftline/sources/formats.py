@@ -8,6 +8,8 @@ import lzma
 import zlib
 from typing import BinaryIO
 
+from driftline.sources.base import RATIO_FLOOR_BYTES
+
 COMPRESSION_BY_SUFFIX = {".gz": "gzip", ".gzip": "gzip", ".bz2": "bz2", ".zst": "zstd", ".zstd": "zstd", ".xz": "xz"}
 FORMAT_BY_SUFFIX = {
     ".jsonl": "jsonl",
@@ -97,26 +99,40 @@ def decode_errors() -> tuple[type[BaseException], ...]:
 
 
 class _Limited(io.RawIOBase):
-    """Counts decompressed bytes and stops at a limit, so a bomb cannot fill memory."""
+    """Counts decompressed bytes and stops at a limit or a ratio, so a bomb cannot run on.
 
-    def __init__(self, inner: BinaryIO, limit: int) -> None:
-        self._inner = inner
-        self._limit = limit
+    The ratio is bytes out over bytes taken from the file, judged only once more than
+    RATIO_FLOOR_BYTES came out, so small files that compress well are never stopped.
+    """
+
+    def __init__(self, inner: BinaryIO, raw: BinaryIO, limit: int | None, ratio: float | None) -> None:
+        self._inner, self._raw = inner, raw
+        self._limit, self._ratio = limit, ratio
         self.count = 0
 
     def readable(self) -> bool:
         return True
 
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
-        n = self._inner.readinto(buf)  # type: ignore[attr-defined]
-        self.count += n or 0
-        if self.count > self._limit:
+        n = self._inner.readinto(buf) or 0  # type: ignore[attr-defined]
+        self.count += n
+        if self._limit is not None and self.count > self._limit:
             raise LimitExceeded(f"more than {self._limit:,} decompressed bytes (--max-decompressed-bytes)")
-        return n or 0
+        if self._ratio is not None and self.count > RATIO_FLOOR_BYTES and self._raw is not self._inner:
+            taken = max(self._raw.tell(), 1)
+            if self.count > self._ratio * taken:
+                raise LimitExceeded(
+                    f"{self.count:,} bytes decompressed from {taken:,}, a ratio over {self._ratio:,g}:1 "
+                    "(--max-decompression-ratio)"
+                )
+        return n
 
     def close(self) -> None:
-        self._inner.close()
-        super().close()
+        try:
+            self._inner.close()
+        finally:
+            self._raw.close()
+            super().close()
 
 
 _GZIP_IN = 64 * 1024  # compressed bytes fed to zlib at a time
@@ -130,8 +146,8 @@ class _GzipStream(io.RawIOBase):
     call decodes at most len(buf) bytes (max_length), so a bomb never sits in memory whole.
     """
 
-    def __init__(self, path: str) -> None:
-        self._raw = open(path, "rb")  # noqa: SIM115 - closed in close()
+    def __init__(self, raw: BinaryIO) -> None:
+        self._raw = raw
         self._dec = zlib.decompressobj(wbits=31)
         self._pending = b""
         self._done = False
@@ -160,29 +176,34 @@ class _GzipStream(io.RawIOBase):
         self._pending = self._pending[n:]
         return n
 
-    def close(self) -> None:
-        self._raw.close()
-        super().close()
 
-
-def open_stream(path: str, compression: str | None, *, limit: int | None) -> BinaryIO:
-    """Open path for reading as decompressed bytes, never for writing; the caller closes it."""
-    stream: BinaryIO
+def _decoder(raw: BinaryIO, compression: str | None) -> BinaryIO:
     if compression is None:
-        stream = open(path, "rb")  # noqa: SIM115 - returned to the caller
-    elif compression == "gzip":
-        stream = _GzipStream(path)  # type: ignore[assignment]
-    elif compression == "bz2":
-        stream = bz2.BZ2File(path, mode="rb")  # type: ignore[assignment]
-    elif compression == "xz":
-        stream = lzma.LZMAFile(path, mode="rb")  # type: ignore[assignment]
-    elif compression == "zstd":
+        return raw
+    if compression == "gzip":
+        return _GzipStream(raw)  # type: ignore[return-value]
+    if compression == "bz2":
+        return bz2.BZ2File(raw, mode="rb")  # type: ignore[return-value]
+    if compression == "xz":
+        return lzma.LZMAFile(raw, mode="rb")  # type: ignore[return-value]
+    if compression == "zstd":
         import zstandard
 
-        raw = open(path, "rb")  # noqa: SIM115 - closed with the reader (closefd)
-        stream = zstandard.ZstdDecompressor().stream_reader(raw, closefd=True)  # type: ignore[assignment]
-    else:  # pragma: no cover - guarded by detect_compression
-        raise ValueError(f"unknown compression {compression!r}")
-    if limit is None:
+        return zstandard.ZstdDecompressor().stream_reader(raw, closefd=False)  # type: ignore[no-any-return]
+    raise ValueError(f"unknown compression {compression!r}")  # pragma: no cover - guarded by detect_compression
+
+
+def open_stream(path: str, compression: str | None, *, limit: int | None, ratio: float | None = None) -> BinaryIO:
+    """Open path for reading as decompressed bytes, never for writing; the caller closes it.
+
+    limit caps the bytes that come out; ratio caps bytes out per byte read from the file.
+    """
+    raw: BinaryIO = open(path, "rb")  # noqa: SIM115 - closed with the returned stream
+    try:
+        stream = _decoder(raw, compression)
+    except BaseException:
+        raw.close()
+        raise
+    if compression is None and limit is None:
         return stream
-    return io.BufferedReader(_Limited(stream, limit), buffer_size=1 << 20)  # type: ignore[return-value]
+    return io.BufferedReader(_Limited(stream, raw, limit, ratio), buffer_size=1 << 20)  # type: ignore[return-value]

@@ -99,7 +99,8 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
                     observations.append(item)
         else:
             try:
-                raw = open_stream(ref.path, ref.compression, limit=opts.max_decompressed_bytes)
+                raw = open_stream(ref.path, ref.compression, limit=opts.max_decompressed_bytes,
+                                  ratio=opts.max_decompression_ratio)
             except OSError as exc:
                 kind, msg = _describe_failure(exc, None)
                 return _result(ref, [], [FileIssue(ref.rel, kind, f"cannot open: {msg}")], None, False)
