@@ -18,7 +18,13 @@ from driftline.emit.terminal import render
 from driftline.errors import InputPathError
 from driftline.report import dumps
 from driftline.scan import default_jobs, scan_paths
-from driftline.sources.base import DEFAULT_BATCH_ROWS, DEFAULT_MAX_RECORD_BYTES, ReadOptions
+from driftline.sources.base import (
+    DEFAULT_BATCH_ROWS,
+    DEFAULT_MAX_DECOMPRESSED_BYTES,
+    DEFAULT_MAX_DECOMPRESSION_RATIO,
+    DEFAULT_MAX_RECORD_BYTES,
+    ReadOptions,
+)
 
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
@@ -81,13 +87,16 @@ def scan_command(
     jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel (processes). Results do not depend on it."),
     max_errors: int | None = typer.Option(None, "--max-errors", min=1, help="Stop reading new files once this many errors were found."),
     max_record_bytes: int = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer JSON lines / CSV rows are reported, not read."),
+    max_decompressed_bytes: int = typer.Option(DEFAULT_MAX_DECOMPRESSED_BYTES, "--max-decompressed-bytes", min=1, help="Stop reading a file past this many bytes of content (decompression bombs); rows before are kept."),
+    max_decompression_ratio: float = typer.Option(DEFAULT_MAX_DECOMPRESSION_RATIO, "--max-decompression-ratio", min=1, help="Stop a compressed file once it expands more than this many times (judged past 16 MiB)."),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option("local", "--engine", help="Where files are read: local (processes) or dask (a cluster; install driftline[dask])."),
     scheduler: str | None = typer.Option(None, "--scheduler", metavar="ADDRESS", help="dask scheduler, e.g. tcp://10.0.0.5:8786; without it --engine dask starts --jobs workers on 127.0.0.1."),
 ) -> None:
-    opts = ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter)
+    opts = ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
+                       max_decompressed_bytes=max_decompressed_bytes, max_decompression_ratio=max_decompression_ratio)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         profile = scan_paths(paths, read=opts, include=include, exclude=exclude, include_hidden=hidden,
