@@ -1,0 +1,199 @@
+"""`driftline check` and `driftline diff`: gate a pipeline on a baseline, or show what changed."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import orjson
+import typer
+from rich.console import Console
+
+from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.emit.atomic import write_output
+from driftline.emit.safe import safe_text
+from driftline.errors import InputPathError
+from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, diff_fields, diff_partitions, render
+from driftline.gate.inputs import profile_of
+from driftline.gate.policy import ACTION_MEANING, key_help
+from driftline.gate.run import ScanSettings, run_check
+from driftline.gate.verdict import junit_xml
+from driftline.gate.verdict import render as render_verdict
+from driftline.scan import default_jobs
+from driftline.sources.base import DEFAULT_BATCH_ROWS, DEFAULT_MAX_RECORD_BYTES, ReadOptions
+
+EXIT_CODES = """Exit codes:
+
+\b
+  0  passed: no policy violation (warnings are allowed)
+  1  a policy violation: at least one change the policy says "fail" to
+  2  usage or input error: a bad option, an unknown policy key or value, a missing or
+     unreadable path, baseline or state file, an unwritable output
+"""
+
+
+def _policy_table() -> str:
+    width = max(len(k) for k, _, _ in key_help())
+    lines = [f"  {k:<{width}}  {d:<7} {m}" for k, d, m in key_help()]
+    actions = "; ".join(f"{a} {m}" for a, m in ACTION_MEANING.items())
+    return ("Policy keys (a TOML file of flat `key = value` lines; defaults shown). Actions: "
+            f"{actions}.\n\n\b\n" + "\n".join(lines) + "\n")
+
+
+CHECK_HELP = f"""Check scanned data against a baseline under a policy; exit 1 on a violation.
+
+The baseline is a JSON Schema 2020-12 file (as `driftline schema --to json-schema` writes
+it; the x-driftline annotation adds the Arrow type and cast rule), or a saved scan report
+(`driftline scan --json`). PATHS may be data files, folders or globs, or one saved report.
+
+The terminal shows the verdict first, then each violation and warning with its field,
+change, file, partition, row and an example value.
+
+Examples:
+
+\b
+  driftline check landing/ --baseline contract.schema.json --policy gate.toml
+  driftline check landing/ --baseline contract.schema.json --state .driftline-state --junit gate.xml
+
+{_policy_table()}
+With --state FILE only new or changed files are read (same relative path, size and
+modification time; with --verify also the same content hash); removed files drop out.
+The result equals a full rescan. A damaged or foreign state file is an error; --rebuild
+starts over.
+
+{EXIT_CODES}"""
+
+DIFF_KINDS_TEXT = "\n".join(f"  {k:<15} {v}" for k, v in DIFF_KINDS.items())
+
+DIFF_HELP = f"""Show which fields changed between two sides, or partition after partition.
+
+A side is a saved scan report or data paths (files, folders, globs). With one side and
+--by KEY, each value of partition KEY is compared with the value before it.
+
+Examples:
+
+\b
+  driftline diff yesterday-report.json landing/day=2026-11-30/
+  driftline diff landing/ --by day
+  driftline diff a.json b.json --json -
+
+Changes listed:
+
+\b
+{DIFF_KINDS_TEXT}
+
+Exit codes: 0 the diff was made (changes are information); 2 usage or input error.
+"""
+
+
+def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int, max_errors: int | None,
+              max_record_bytes: int, delimiter: str | None, hidden: bool) -> ScanSettings:
+    return ScanSettings(
+        read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter),
+        include=tuple(include), exclude=tuple(exclude), include_hidden=hidden, jobs=jobs, max_errors=max_errors,
+    )
+
+
+_INCLUDE = typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable).")
+_EXCLUDE = typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable).")
+_BATCH = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch (as for scan).")
+_JOBS = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel. Results do not depend on it.")
+_MAXERR = typer.Option(None, "--max-errors", min=1, help="Stop reading new files once this many errors were found.")
+_RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer records are reported.")
+_DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given.")
+_HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'.")
+
+
+@app.command("check", help=CHECK_HELP, no_args_is_help=True)
+@handles_errors
+def check_command(
+    paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
+    baseline: str = typer.Option(..., "--baseline", "-b", metavar="FILE",
+                                 help="JSON Schema file or saved scan report to check against."),
+    policy: str | None = typer.Option(None, "--policy", "-p", metavar="FILE",
+                                      help="TOML policy file (keys below); safe defaults when not given."),
+    json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the verdict as JSON."),
+    junit: str | None = typer.Option(None, "--junit", metavar="FILE|-",
+                                     help="Write JUnit XML: one test case per policy rule."),
+    state: str | None = typer.Option(None, "--state", metavar="FILE",
+                                     help="Incremental state: read only new or changed files."),
+    verify: bool = typer.Option(False, "--verify", help="With --state: also compare content hashes."),
+    rebuild: bool = typer.Option(False, "--rebuild", help="With --state: ignore the old state and start over."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary; only the exit code and files."),
+    include: list[str] = _INCLUDE,
+    exclude: list[str] = _EXCLUDE,
+    batch_rows: int = _BATCH,
+    jobs: int = _JOBS,
+    max_errors: int | None = _MAXERR,
+    max_record_bytes: int = _RECORD,
+    delimiter: str | None = _DELIM,
+    hidden: bool = _HIDDEN,
+) -> None:
+    if (verify or rebuild) and state is None:
+        raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
+    if json_out == "-" and junit == "-":
+        raise InputPathError("--json and --junit cannot both write to stdout ('-')")
+    settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden)
+    verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
+                              rebuild=rebuild, scan=settings)
+    if note:
+        err_console.print(f"note: {note}", markup=False)
+    if json_out is not None:
+        write_output(json_out, orjson.dumps(verdict.to_json(), option=orjson.OPT_INDENT_2) + b"\n")
+    if junit is not None:
+        write_output(junit, junit_xml(verdict))
+    if not quiet:
+        console = err_console if "-" in (json_out, junit) else Console(highlight=False)
+        render_verdict(verdict, console)
+    raise typer.Exit(verdict.exit_code)
+
+
+@app.command("diff", help=DIFF_HELP, no_args_is_help=True)
+@handles_errors
+def diff_command(
+    sides: list[str] = typer.Argument(..., help="Two sides (reports or paths), or one side with --by."),
+    by: str | None = typer.Option(None, "--by", metavar="KEY", help="Compare consecutive values of partition KEY."),
+    json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the changes as JSON."),
+    null_points: float = typer.Option(DEFAULT_NULL_POINTS, "--null-points", min=0.0, max=100.0,
+                                      help="Smallest change of null share listed, in percentage points."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal output (use with --json)."),
+    include: list[str] = _INCLUDE,
+    exclude: list[str] = _EXCLUDE,
+    batch_rows: int = _BATCH,
+    jobs: int = _JOBS,
+    max_record_bytes: int = _RECORD,
+    delimiter: str | None = _DELIM,
+    hidden: bool = _HIDDEN,
+) -> None:
+    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden)
+
+    def load(side: str):  # noqa: ANN202 - a Profile
+        return profile_of(side, read=s.read, include=s.include, exclude=s.exclude,
+                          include_hidden=s.include_hidden, jobs=s.jobs)
+
+    diffs: tuple[Diff, ...]
+    if by is not None:
+        if len(sides) != 1:
+            raise InputPathError(f"--by compares partitions of one side; got {len(sides)} sides")
+        profile = load(sides[0])
+        if by not in profile.partition_keys():
+            known = ", ".join(profile.partition_keys()) or "none (no key=value folders)"
+            raise InputPathError(f"no partition key {by!r} under {sides[0]!r}; partition keys: {known}")
+        diffs = diff_partitions(profile, by, min_null_points=null_points)
+    else:
+        if len(sides) != 2:
+            raise InputPathError(f"diff takes two sides (reports or paths), or one with --by KEY; got {len(sides)}")
+        a, b = load(sides[0]), load(sides[1])
+        diffs = (diff_fields(a.fields, b.fields, before=sides[0], after=sides[1], min_null_points=null_points),)
+    if json_out is not None:
+        doc = {"format": "driftline-diff", "version": 1, "by": by, "diffs": [d.to_json() for d in diffs]}
+        write_output(json_out, orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
+    if not quiet:
+        console = err_console if json_out == "-" else Console(highlight=False)
+        if not diffs:
+            console.print(f"only one value of partition {safe_text(by)}: nothing to compare", markup=False)
+        render(diffs, console)
+        if json_out not in (None, "-"):
+            console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)
+
+
+__all__ = ["EXIT_USAGE", "check_command", "diff_command"]

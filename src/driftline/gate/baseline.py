@@ -1,0 +1,308 @@
+"""Baselines: what was agreed about each field path, from whichever file records it.
+
+A baseline comes from
+  * a JSON Schema 2020-12 file (as `driftline schema --to json-schema` writes): only the
+    standard keywords type / properties / required / items / format / minimum / maximum
+    are read, plus an optional per-property annotation
+    ``"x-driftline": {"arrow": "<type key>", "rule": "<cast rule name>"}``;
+  * a saved scan report (`driftline scan --json`): what was observed then is the baseline;
+  * a cast-rules file that driftline wrote (see load_baseline for its status).
+
+Every source becomes the same Baseline: path → Expected, with paths spelled as the scan
+spells them ('a.b', 'a[]', 'm{key}', backtick-quoted odd names).
+
+>>> b = baseline_from_json_schema({"type": "object", "required": ["id"],
+...     "properties": {"id": {"type": "integer"}, "tag": {"type": ["string", "null"]}}})
+>>> b.fields["id"].type.key(), b.fields["id"].required, b.fields["tag"].nullable
+('int64', True, True)
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import orjson
+
+from driftline.errors import InputPathError, ReportVersionError, UnreadableFileError
+from driftline.lattice import NULL, UNKNOWN, DType, join_all, parse_key
+from driftline.observe import paths
+from driftline.profile import Profile
+
+# String content classes a JSON Schema format allows (observe/textclass.py names them).
+FORMAT_CLASSES: dict[str, frozenset[str]] = {
+    "date-time": frozenset({"timestamp_rfc3339"}),  # RFC 3339 section 5.6 date-time
+    "date": frozenset({"date"}),  # RFC 3339 full-date
+}
+# Classes that hold no value: CSV empty cells and null tokens are nulls, not content.
+NULL_CLASSES = frozenset({"empty", "null_token"})
+
+_JSON_TYPES: dict[str, DType] = {
+    "integer": DType("int64"),
+    "number": DType("float64"),
+    "string": DType("string"),
+    "boolean": DType("bool"),
+    "array": DType("list", item=UNKNOWN),
+    "object": DType("struct"),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Expected:
+    """What the baseline says about one field path. None means 'says nothing'.
+
+    type        the agreed type (nested kinds compare by kind; their children are paths too)
+    nullable    null values allowed
+    required    present wherever its container (the row, the parent struct) is
+    open        a struct whose children the baseline does not list: any child is fine
+    classes     content classes allowed for string values (from a format, or observed)
+    rule        the cast rule the pipeline applies to raw values (x-driftline annotation)
+    null_share  share of null or absent values when the baseline was made (reports only)
+    """
+
+    path: str
+    type: DType | None = None
+    nullable: bool = True
+    required: bool = False
+    open: bool = False
+    classes: frozenset[str] | None = None
+    minimum: float | None = None
+    maximum: float | None = None
+    rule: str | None = None
+    null_share: float | None = None
+
+
+@dataclass(frozen=True)
+class Baseline:
+    """Expected fields by path, and where they came from ('json-schema' | 'report' | 'rules')."""
+
+    kind: str
+    source: str
+    fields: Mapping[str, Expected] = field(default_factory=dict)
+
+    @property
+    def has_rules(self) -> bool:
+        return any(e.rule is not None for e in self.fields.values())
+
+    @property
+    def has_shares(self) -> bool:
+        return any(e.null_share is not None for e in self.fields.values())
+
+    @property
+    def has_ranges(self) -> bool:
+        return any(e.minimum is not None or e.maximum is not None for e in self.fields.values())
+
+
+# -- JSON Schema ------------------------------------------------------------------------
+
+class _SchemaError(Exception):
+    def __init__(self, pointer: str, message: str) -> None:
+        super().__init__(f"at {pointer or '/'}: {message}")
+
+
+def _pointer_part(name: str) -> str:
+    # RFC 6901 section 3: '~' is written '~0' and '/' is written '~1'.
+    return name.replace("~", "~0").replace("/", "~1")
+
+
+def _types_of(node: Mapping[str, Any], ptr: str) -> tuple[list[str], bool]:
+    raw = node.get("type")
+    if raw is None:
+        return [], True
+    names = [raw] if isinstance(raw, str) else raw
+    if not isinstance(names, list) or not all(isinstance(n, str) for n in names):
+        raise _SchemaError(ptr + "/type", f"'type' must be a string or a list of strings, not {raw!r}")
+    unknown = [n for n in names if n != "null" and n not in _JSON_TYPES]
+    if unknown:
+        raise _SchemaError(ptr + "/type", f"unknown JSON Schema type {unknown[0]!r}; "
+                                          f"allowed: {', '.join([*_JSON_TYPES, 'null'])}")
+    return [n for n in names if n != "null"], "null" in names
+
+
+def _number(node: Mapping[str, Any], key: str, ptr: str) -> float | None:
+    value = node.get(key)
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise _SchemaError(f"{ptr}/{key}", f"{key!r} must be a number, not {value!r}")
+    return value
+
+
+def _annotation(node: Mapping[str, Any], ptr: str) -> tuple[DType | None, str | None]:
+    note = node.get("x-driftline")
+    if note is None:
+        return None, None
+    if not isinstance(note, Mapping):
+        raise _SchemaError(ptr + "/x-driftline", "'x-driftline' must be an object with 'arrow' and 'rule'")
+    arrow, rule = note.get("arrow"), note.get("rule")
+    dtype = None
+    if arrow is not None:
+        if not isinstance(arrow, str):
+            raise _SchemaError(ptr + "/x-driftline/arrow", f"'arrow' must be a type key string, not {arrow!r}")
+        try:
+            dtype = parse_key(arrow)
+        except ValueError as exc:
+            raise _SchemaError(ptr + "/x-driftline/arrow", str(exc)) from None
+    if rule is not None and not isinstance(rule, str):
+        raise _SchemaError(ptr + "/x-driftline/rule", f"'rule' must be a rule name string, not {rule!r}")
+    return dtype, rule
+
+
+def _walk_schema(node: Any, path: str | None, ptr: str, required: bool, out: dict[str, Expected]) -> None:
+    if isinstance(node, bool):  # `true` allows anything, `false` nothing: neither says a type
+        node = {}
+    if not isinstance(node, Mapping):
+        raise _SchemaError(ptr, f"a schema must be an object or a boolean, not {type(node).__name__}")
+    names, nullable = _types_of(node, ptr)
+    arrow, rule = _annotation(node, ptr)
+    json_type = join_all(_JSON_TYPES[n] for n in names) if names else None
+    dtype = arrow.with_nullable(False) if arrow is not None else json_type
+    fmt = node.get("format")
+    props = node.get("properties")
+    if props is not None and not isinstance(props, Mapping):
+        raise _SchemaError(ptr + "/properties", "'properties' must be an object")
+    if path is not None:
+        out[path] = Expected(
+            path=path,
+            type=dtype,
+            nullable=nullable or not names,
+            required=required,
+            open=props is None and arrow is None and (dtype is None or dtype.name == "struct"),
+            classes=FORMAT_CLASSES.get(fmt) if isinstance(fmt, str) else None,
+            minimum=_number(node, "minimum", ptr),
+            maximum=_number(node, "maximum", ptr),
+            rule=rule,
+        )
+    if props is not None:
+        req = node.get("required", [])
+        if not isinstance(req, list) or not all(isinstance(r, str) for r in req):
+            raise _SchemaError(ptr + "/required", "'required' must be a list of property names")
+        for name, child in props.items():
+            _walk_schema(child, paths.child(path, name), f"{ptr}/properties/{_pointer_part(name)}", name in req, out)
+    items = node.get("items")
+    if items is not None and path is not None:
+        # Every list element is there when its list is: an element is never 'absent'.
+        _walk_schema(items, paths.element(path), ptr + "/items", True, out)
+    if arrow is not None and path is not None:
+        _expand_arrow(path, arrow, out)
+
+
+def _expand_arrow(path: str, t: DType, out: dict[str, Expected]) -> None:
+    """Children named by an annotated nested type that the schema keywords did not list."""
+    children: list[tuple[str, DType, bool]] = []
+    if t.name == "struct":
+        children = [(paths.child(path, n), c, not c.nullable) for n, c in t.fields]
+    elif t.name == "list" and t.item is not None:
+        children = [(paths.element(path), t.item, True)]
+    elif t.name == "map":
+        children = [(paths.map_part(path, part), c, True) for part, c in t.fields]
+    for cpath, ctype, req in children:
+        if cpath not in out:
+            out[cpath] = Expected(cpath, ctype.with_nullable(False), ctype.nullable, req)
+        _expand_arrow(cpath, ctype, out)
+
+
+def baseline_from_json_schema(doc: Any, *, source: str = "schema") -> Baseline:
+    """A Baseline from a parsed JSON Schema whose root describes one record (an object)."""
+    if not isinstance(doc, Mapping):
+        raise UnreadableFileError(f"{source} is not a JSON Schema: the document is not an object")
+    out: dict[str, Expected] = {}
+    try:
+        _walk_schema(doc, None, "", True, out)
+    except _SchemaError as exc:
+        raise UnreadableFileError(f"{source}: {exc}") from None
+    if doc.get("properties") is None:
+        raise UnreadableFileError(f"{source}: the root schema has no 'properties'; a baseline describes record fields")
+    return Baseline("json-schema", source, out)
+
+
+# -- saved scan report -------------------------------------------------------------------
+
+# Observations keep only the kind of a nested value; its children are paths of their own.
+_SHALLOW = {
+    "list": DType("list", item=UNKNOWN),
+    "struct": DType("struct"),
+    "map": DType("map", fields=(("key", UNKNOWN), ("value", UNKNOWN))),
+}
+
+
+def shallow(t: DType) -> DType:
+    """A type as observations record it: nested kinds without their children.
+
+    >>> shallow(parse_key("list<int64>")).key(), shallow(parse_key("int64")).key()
+    ('list<unknown>', 'int64')
+    """
+    if t.name in _SHALLOW:
+        return _SHALLOW[t.name]
+    if t.name == "union":
+        return join_all(shallow(m) for m in t.members)
+    return t.with_nullable(False)
+
+
+def type_of_key(key: str) -> DType:
+    """The type of an observed shallow type key ('int64', 'list', 'struct', ...)."""
+    if key in _SHALLOW:
+        return _SHALLOW[key]
+    try:
+        return parse_key(key)
+    except ValueError:
+        return UNKNOWN
+
+
+def _shallow_type(types: Mapping[str, int]) -> DType:
+    # A field seen only as null had type null then: any value type later widens it.
+    return join_all(type_of_key(k) for k in types).with_nullable(False) if types else NULL
+
+
+def baseline_from_profile(profile: Profile, *, source: str = "report") -> Baseline:
+    """What a profile observed, as a baseline: its types, nullability, presence and shares."""
+    out: dict[str, Expected] = {}
+    for p, s in profile.fields.items():
+        st = s.stats
+        classes = frozenset(st.classes) - NULL_CLASSES
+        out[p] = Expected(
+            path=p,
+            type=_shallow_type(st.types),
+            nullable=st.nulls > 0 or not st.types,
+            required=s.absent == 0,
+            open=False,
+            classes=classes,
+            rule=None,
+            null_share=(st.nulls + s.absent) / s.container if s.container else None,
+        )
+    return Baseline("report", source, out)
+
+
+# -- loading -----------------------------------------------------------------------------
+
+def load_baseline(path: str | Path) -> Baseline:
+    """Read a baseline file; its kind is told from its content.
+
+    A JSON Schema (it has "$schema", "properties" or "type"), or a scan report
+    ("format": "driftline-report"). Cast-rules files are not read yet: they have no
+    published format (docs/rules.schema.json) to read them by.
+    """
+    source = repr(str(path))
+    try:
+        raw = Path(path).read_bytes()
+    except OSError as exc:
+        raise InputPathError(f"cannot read baseline {source}: {exc.strerror}") from None
+    try:
+        doc = orjson.loads(raw)
+    except orjson.JSONDecodeError as exc:
+        raise UnreadableFileError(f"baseline {source} is not JSON ({exc.msg} at line {exc.lineno}, "
+                                  f"column {exc.colno})") from None
+    if isinstance(doc, Mapping) and doc.get("format") == "driftline-report":
+        from driftline.report import from_dict
+
+        return baseline_from_profile(from_dict(doc, source=source), source=source)
+    if isinstance(doc, Mapping) and any(k in doc for k in ("$schema", "properties", "type")):
+        return baseline_from_json_schema(doc, source=source)
+    kind = doc.get("format") if isinstance(doc, Mapping) else None
+    raise ReportVersionError(
+        f"baseline {source} is neither a JSON Schema nor a driftline scan report"
+        + (f" (its format is {kind!r})" if kind else "")
+        + "; give a file that `driftline schema --to json-schema` or `driftline scan --json` wrote"
+    )

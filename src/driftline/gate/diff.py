@@ -1,0 +1,203 @@
+"""Diff two profiles, or consecutive partitions of one: which fields changed, and how.
+
+Both sides are views of fields (path → FieldSummary), so the same comparison serves two
+reports, two scanned paths, and partition after partition (Profile.by_partition).
+
+>>> from driftline.observe.stats import FieldStats
+>>> from driftline.profile import summarise
+>>> a = summarise({"x": FieldStats(types={"int64": 2})}, 2)
+>>> b = summarise({"x": FieldStats(types={"int64": 1, "float64": 1})}, 2)
+>>> [(c.kind, c.path, c.before, c.after) for c in diff_fields(a, b).changes]
+[('widened', 'x', 'int64', 'float64')]
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from rich.console import Console
+from rich.text import Text
+
+from driftline.emit.safe import safe_text
+from driftline.gate.baseline import NULL_CLASSES, type_of_key
+from driftline.lattice import DType, join, join_all
+from driftline.observe import paths
+from driftline.observe.stats import Example, FieldStats
+from driftline.profile import FieldSummary, Profile
+
+# Kinds of change, in the order they are listed.
+DIFF_KINDS: dict[str, str] = {
+    "added": "a field the second side has and the first has not",
+    "removed": "a field the first side has and the second has not",
+    "type-changed": "values of another kind of type: the two types meet only in a union",
+    "widened": "the type grew to a wider one of the same kind (int64 → float64)",
+    "narrowed": "the type shrank to a narrower one (float64 → int64)",
+    "newly-nullable": "null or absent values where the first side had none",
+    "null-share": "the share of null or absent values moved by at least the threshold (points)",
+    "content-class": "string content classes appeared or disappeared",
+}
+_ORDER = {k: i for i, k in enumerate(DIFF_KINDS)}
+DEFAULT_NULL_POINTS = 1.0
+
+
+@dataclass(frozen=True, slots=True)
+class FieldChange:
+    """One change of one field; example is the first place the second side shows it."""
+
+    kind: str
+    path: str
+    before: str | None
+    after: str | None
+    example: Example | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        ex = self.example
+        return {
+            "kind": self.kind,
+            "path": self.path,
+            "before": self.before,
+            "after": self.after,
+            "file": ex.file if ex else None,
+            "row": ex.row if ex else None,
+            "line": ex.line if ex else None,
+            "example": ex.value if ex and ex.value else None,
+        }
+
+
+@dataclass(frozen=True)
+class Diff:
+    """The changes from one side (before) to the other (after)."""
+
+    before: str
+    after: str
+    changes: tuple[FieldChange, ...]
+
+    def counts(self) -> dict[str, int]:
+        n = Counter(c.kind for c in self.changes)
+        return {k: n[k] for k in DIFF_KINDS if n[k]}
+
+    def to_json(self) -> dict[str, Any]:
+        return {"before": self.before, "after": self.after, "counts": self.counts(),
+                "changes": [c.to_json() for c in self.changes]}
+
+
+def _type(st: FieldStats) -> DType | None:
+    return join_all(type_of_key(k) for k in st.types).with_nullable(False) if st.types else None
+
+
+def _share(s: FieldSummary) -> float:
+    return (s.stats.nulls + s.absent) / s.container if s.container else 0.0
+
+
+def _first_of(st: FieldStats, keys: list[str]) -> Example | None:
+    found = [st.first(k) for k in keys]
+    hits = [e for e in found if e is not None]
+    return min(hits) if hits else None
+
+
+def _earliest(st: FieldStats) -> Example | None:
+    return _first_of(st, list(st.samples))
+
+
+def _type_change(path: str, sa: FieldStats, sb: FieldStats) -> FieldChange | None:
+    ta, tb = _type(sa), _type(sb)
+    if ta is None or tb is None or ta == tb:
+        return None
+    joined = join(ta, tb).with_nullable(False)
+    if joined == tb and joined.name != "union":
+        kind = "widened"
+    elif joined == ta:
+        kind = "narrowed"
+    else:
+        kind = "type-changed"
+    ex = _first_of(sb, ["type:" + k for k in sb.types if k not in sa.types])
+    return FieldChange(kind, path, ta.key(), tb.key(), ex)
+
+
+def _null_change(path: str, a: FieldSummary, b: FieldSummary, points: float) -> FieldChange | None:
+    sa, sb = _share(a), _share(b)
+    shares = f"{100 * sa:.1f}% → {100 * sb:.1f}%"
+    if not a.nullable and b.nullable:
+        return FieldChange("newly-nullable", path, "not nullable", f"nullable ({shares})", b.stats.first("null"))
+    if a.nullable and b.nullable and abs(100 * (sb - sa)) >= points and sa != sb:
+        return FieldChange("null-share", path, f"{100 * sa:.1f}%", f"{100 * sb:.1f}%", b.stats.first("null"))
+    return None
+
+
+def _class_change(path: str, sa: FieldStats, sb: FieldStats) -> FieldChange | None:
+    ca, cb = set(sa.classes) - NULL_CLASSES, set(sb.classes) - NULL_CLASSES
+    if not ca or not cb or ca == cb:
+        return None
+    ex = _first_of(sb, ["class:" + c for c in sorted(cb - ca)])
+    return FieldChange("content-class", path, ", ".join(sorted(ca)), ", ".join(sorted(cb)), ex)
+
+
+def diff_fields(a: Mapping[str, FieldSummary], b: Mapping[str, FieldSummary], *, before: str = "before",
+                after: str = "after", min_null_points: float = DEFAULT_NULL_POINTS) -> Diff:
+    """Changes from fields a to fields b. A field under an added or removed one is not listed again."""
+    out: list[FieldChange] = []
+    for path in sorted(a.keys() | b.keys()):
+        parent, _ = paths.parent(path)
+        if path not in a:
+            if parent is None or parent in a:
+                out.append(FieldChange("added", path, None, _types_text(b[path].stats), _earliest(b[path].stats)))
+            continue
+        if path not in b:
+            if parent is None or parent in b:
+                out.append(FieldChange("removed", path, _types_text(a[path].stats), None))
+            continue
+        for change in (_type_change(path, a[path].stats, b[path].stats),
+                       _null_change(path, a[path], b[path], min_null_points),
+                       _class_change(path, a[path].stats, b[path].stats)):
+            if change is not None:
+                out.append(change)
+    out.sort(key=lambda c: (_ORDER[c.kind], c.path))
+    return Diff(before, after, tuple(out))
+
+
+def _types_text(st: FieldStats) -> str:
+    t = _type(st)
+    return t.key() if t is not None else "null"
+
+
+def diff_profiles(a: Profile, b: Profile, *, before: str | None = None, after: str | None = None,
+                  min_null_points: float = DEFAULT_NULL_POINTS) -> Diff:
+    """Changes from profile a to profile b, over all their fields."""
+    return diff_fields(a.fields, b.fields, before=before or a.root, after=after or b.root,
+                       min_null_points=min_null_points)
+
+
+def diff_partitions(profile: Profile, key: str, *, min_null_points: float = DEFAULT_NULL_POINTS) -> tuple[Diff, ...]:
+    """Each value of a partition key against the value before it (values in sorted order)."""
+    groups = profile.by_partition(key)
+    values = list(groups)
+    return tuple(
+        diff_fields(groups[x], groups[y], before=f"{key}={x}", after=f"{key}={y}", min_null_points=min_null_points)
+        for x, y in zip(values, values[1:], strict=False)
+    )
+
+
+def render(diffs: tuple[Diff, ...], console: Console) -> None:
+    """Each diff: a heading with its counts, then one line per change with where and a value."""
+    for i, d in enumerate(diffs):
+        if i:
+            console.print()
+        text = Text()
+        text.append(f"{safe_text(d.before, None)} → {safe_text(d.after, None)}", style="bold")
+        counts = d.counts()
+        text.append(": " + (", ".join(f"{n} {k}" for k, n in counts.items()) if counts else "no changes"))
+        for c in d.changes:
+            text.append(f"\n  {c.kind:<15}", style="bold")
+            text.append(safe_text(c.path))
+            if c.before is not None or c.after is not None:
+                text.append(f": {safe_text(c.before or '–')} → {safe_text(c.after or '–')}")
+            if c.example is not None:
+                where = c.example.file + (f" row {c.example.row}" if c.example.row >= 0 else "")
+                text.append(f"  (at {safe_text(where, 160)}")
+                if c.example.value:
+                    text.append(f", e.g. {safe_text(c.example.value, 40)}")
+                text.append(")")
+        console.print(text, soft_wrap=True)

@@ -1,0 +1,235 @@
+"""The incremental state file: per-file results kept between runs, so a rescan reads only
+new and changed files.
+
+A file is taken from the state when its relative path, absolute location, size,
+modification time (ns), format and compression are unchanged — and, with verify, when
+its content hash is too. Files gone from disk drop out. Because a Profile is built only
+from its per-file results, the incremental Profile equals a full rescan's.
+
+The file is JSON, written atomically (a temporary sibling, then a rename):
+
+    {"format": "driftline-state", "version": 1, "tool": {...}, "root": "<scan root>",
+     "read": {<read options>}, "digest": "blake2b-128" | null,
+     "files": [<a report file entry with its batches>, "digest": "<hex>" | null ...]}
+
+A damaged or foreign state file is an error that says so; rebuild=True starts over.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import dataclasses
+import hashlib
+import os
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import orjson
+
+from driftline import __version__
+from driftline.emit.atomic import write_output
+from driftline.errors import InputPathError, ReportVersionError
+from driftline.profile import Profile
+from driftline.report import file_from_json, file_json
+from driftline.scan import Progress, scan_paths
+from driftline.sources.base import FileResult, ReadOptions
+from driftline.sources.discover import FileRef
+
+STATE_FORMAT = "driftline-state"
+STATE_VERSION = 1
+DIGEST = "blake2b-128"
+
+
+@dataclass(frozen=True)
+class State:
+    """A loaded state: the root it was made for, its read options and per-file results."""
+
+    root: str
+    read: Mapping[str, Any]
+    files: Mapping[str, FileResult]
+
+
+@dataclass(frozen=True)
+class StateRun:
+    """An incremental scan: the profile, how many files were read, reused and dropped."""
+
+    profile: Profile
+    read: int
+    reused: int
+    dropped: int
+    note: str | None = None
+
+
+def file_digest(path: str) -> str:
+    """The content hash the state keeps with --verify (BLAKE2b, 16-byte digest)."""
+    h = hashlib.blake2b(digest_size=16)
+    with open(path, "rb") as fh:
+        while chunk := fh.read(1 << 20):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def _read_options_json(opts: ReadOptions) -> dict[str, Any]:
+    return dataclasses.asdict(opts)
+
+
+def _damaged(path: str | Path, why: str) -> ReportVersionError:
+    return ReportVersionError(
+        f"state file {str(path)!r} is damaged ({why}); run with --rebuild to start over from a full scan"
+    )
+
+
+def load_state(path: str | Path) -> State | None:
+    """Read a state file; None when there is none yet. Raises for a damaged or foreign file."""
+    try:
+        raw = Path(path).read_bytes()
+    except FileNotFoundError:
+        return None
+    except OSError as exc:
+        raise InputPathError(f"cannot read state file {str(path)!r}: {exc.strerror}") from None
+    try:
+        data = orjson.loads(raw)
+    except orjson.JSONDecodeError as exc:
+        raise _damaged(path, f"not JSON: {exc.msg} at line {exc.lineno}, column {exc.colno}") from None
+    if not isinstance(data, dict) or data.get("format") != STATE_FORMAT:
+        what = data.get("format") if isinstance(data, dict) else None
+        raise ReportVersionError(
+            f"{str(path)!r} is not a driftline state file"
+            + (f" (its format is {what!r})" if isinstance(what, str) else "")
+            + "; give --state another file name, or --rebuild to replace it with a new state"
+        )
+    if data.get("version") != STATE_VERSION:
+        raise ReportVersionError(
+            f"state file {str(path)!r} has format version {data.get('version')!r}; this driftline "
+            f"reads version {STATE_VERSION}; run with --rebuild to start over"
+        )
+    try:
+        files = {}
+        for fd in data["files"]:
+            res = dataclasses.replace(file_from_json(fd), digest=fd.get("digest"))
+            if res.rel in files:
+                raise ValueError(f"{res.rel!r} is listed twice")
+            files[res.rel] = res
+        root, read = data["root"], data["read"]
+        if not isinstance(root, str) or not isinstance(read, dict):
+            raise TypeError("root or read options of the wrong type")
+    except (KeyError, TypeError, ValueError, AttributeError) as exc:
+        raise _damaged(path, f"{type(exc).__name__}: {exc}") from None
+    return State(root, read, files)
+
+
+def state_bytes(profile: Profile, opts: ReadOptions, *, verify: bool) -> bytes:
+    """The state file's content for a profile."""
+    files = []
+    for f in profile.files:
+        entry = file_json(f)
+        entry["digest"] = f.digest if verify else None
+        files.append(entry)
+    doc = {
+        "format": STATE_FORMAT,
+        "version": STATE_VERSION,
+        "tool": {"name": "driftline", "version": __version__},
+        "root": profile.root,
+        "read": _read_options_json(opts),
+        "digest": DIGEST if verify else None,
+        "files": files,
+    }
+    return orjson.dumps(doc, option=orjson.OPT_NON_STR_KEYS) + b"\n"
+
+
+def _inside_scan(state_path: str, paths: Sequence[str | os.PathLike[str]]) -> bool:
+    target = os.path.abspath(state_path)
+    name = os.path.basename(target)
+    if name.startswith((".", "_")):
+        return False  # discovery skips hidden files and markers
+    for p in paths:
+        top = os.path.abspath(os.fspath(p))
+        if os.path.isdir(top) and os.path.commonpath([top, target]) == top:
+            return True
+    return False
+
+
+def scan_incremental(
+    paths: Sequence[str | os.PathLike[str]],
+    state_path: str | Path,
+    *,
+    read: ReadOptions | None = None,
+    include: Sequence[str] = (),
+    exclude: Sequence[str] = (),
+    include_hidden: bool = False,
+    jobs: int = 1,
+    max_errors: int | None = None,
+    verify: bool = False,
+    rebuild: bool = False,
+    progress: Progress | None = None,
+) -> StateRun:
+    """Scan paths reading only files the state does not hold unchanged; then save the state.
+
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+    >>> first = scan_incremental([d], d / ".state")
+    >>> again = scan_incremental([d], d / ".state")
+    >>> (first.read, again.read, again.reused, again.profile == scan_paths([d]))
+    (1, 0, 1, True)
+    """
+    opts = read or ReadOptions()
+    state_path = os.fspath(state_path)
+    if state_path == "-" or os.path.isdir(state_path):
+        raise InputPathError(f"--state needs a file name, not {state_path!r}")
+    if _inside_scan(state_path, paths) and not include_hidden:
+        raise InputPathError(
+            f"the state file {state_path!r} lies inside a scanned folder and would be read as data; "
+            "put it elsewhere or give it a name starting with '.'"
+        )
+    state = None if rebuild else load_state(state_path)
+    note = None
+    if state is not None and dict(state.read) != _read_options_json(opts):
+        note = "the read options changed since the state was written; every file is read again"
+        state = None
+    reused: dict[str, FileResult] = {}
+    where: dict[str, str] = {}
+
+    def reuse(ref: FileRef) -> FileResult | None:
+        where[ref.rel] = ref.path
+        if state is None:
+            return None
+        tail = os.sep + ref.rel.replace("/", os.sep)
+        if ref.path.endswith(tail) and ref.path[: -len(tail)] != state.root:
+            # Raised before any file is read: this state belongs to another scan.
+            raise ReportVersionError(
+                f"state file {state_path!r} was made for {state.root!r}, not {ref.path[: -len(tail)]!r}; "
+                "give this scan its own --state file, or --rebuild to replace it"
+            )
+        prev = state.files.get(ref.rel)
+        if prev is None or os.path.join(state.root, *ref.rel.split("/")) != ref.path:
+            return None
+        if (prev.size, prev.mtime_ns, prev.format, prev.compression, prev.partitions) != \
+                (ref.size, ref.mtime_ns, ref.format, ref.compression, ref.partitions):
+            return None
+        if verify:
+            try:
+                digest = file_digest(ref.path)
+            except OSError:
+                return None  # unreadable now: reading it reports why
+            if prev.digest != digest:
+                return None
+        reused[ref.rel] = prev
+        return prev
+
+    profile = scan_paths(paths, read=opts, include=include, exclude=exclude, include_hidden=include_hidden,
+                         jobs=jobs, max_errors=max_errors, progress=progress, reuse=reuse)
+    if verify:
+        files = []
+        for f in profile.files:
+            if f.digest is None and f.rel in where:
+                # A file that cannot be hashed stays without one: the next --verify run reads it again.
+                with contextlib.suppress(OSError):
+                    f = dataclasses.replace(f, digest=file_digest(where[f.rel]))
+            files.append(f)
+        profile = dataclasses.replace(profile, files=tuple(files))
+    write_output(state_path, state_bytes(profile, opts, verify=verify))
+    kept = {f.rel for f in profile.files}
+    dropped = sum(1 for rel in (state.files if state is not None else {}) if rel not in kept)
+    return StateRun(profile, len(profile.files) - len(reused), len(reused), dropped, note)

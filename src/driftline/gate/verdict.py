@@ -1,0 +1,231 @@
+"""The verdict of a check, and its renderings: JSON, JUnit XML and the terminal.
+
+A Verdict is a value: passed, the violations (severity fail), the warnings, the changes the
+policy allows, one result per rule, and counts. Every piece of data shown on a terminal
+goes through safe_text; the XML writer escapes what XML cannot hold.
+"""
+
+from __future__ import annotations
+
+import re
+import xml.etree.ElementTree as ET
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+from rich.console import Console
+from rich.text import Text
+
+from driftline.emit.safe import safe_text
+from driftline.gate.policy import RULES
+
+VERDICT_FORMAT = "driftline-verdict"
+VERDICT_VERSION = 1
+MAX_SHOWN = 100  # violations and warnings listed on the terminal; --json has them all
+
+
+@dataclass(frozen=True, slots=True)
+class Violation:
+    """One change the policy sees, with its provenance: the first place it shows.
+
+    rule      the policy key that judged it (policy.RULES)
+    severity  'allow' | 'warn' | 'fail', from the policy
+    field     the field path, or None for a file-level rule (file_errors)
+    change    what changed, e.g. 'int64 → string'
+    count     values (or rows) that show it; files: how many files
+    file, partitions, row, line, example   the first occurrence, when known
+    """
+
+    rule: str
+    severity: str
+    field: str | None
+    change: str
+    message: str
+    count: int = 0
+    files: int = 0
+    file: str | None = None
+    partitions: tuple[tuple[str, str], ...] = ()
+    row: int | None = None
+    line: int | None = None
+    example: str | None = None
+
+    def where(self) -> str:
+        """'file, partition k=v, row n (line m)' as far as known."""
+        parts = []
+        if self.file is not None:
+            parts.append(self.file)
+        if self.partitions:
+            parts.append("partition " + "/".join(f"{k}={v}" for k, v in self.partitions))
+        if self.row is not None:
+            parts.append(f"row {self.row}" + (f" (line {self.line})" if self.line is not None else ""))
+        return ", ".join(parts)
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "rule": self.rule,
+            "severity": self.severity,
+            "field": self.field,
+            "change": self.change,
+            "message": self.message,
+            "count": self.count,
+            "files": self.files,
+            "file": self.file,
+            "partitions": dict(self.partitions),
+            "row": self.row,
+            "line": self.line,
+            "example": self.example,
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class RuleResult:
+    """How one policy rule came out: 'passed' | 'warned' | 'failed' | 'skipped' (with why)."""
+
+    rule: str
+    action: str
+    status: str
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """The outcome of a check. passed is True when no change has severity 'fail'."""
+
+    passed: bool
+    violations: tuple[Violation, ...]
+    warnings: tuple[Violation, ...]
+    allowed: tuple[Violation, ...] = ()
+    rules: tuple[RuleResult, ...] = ()
+    counts: Mapping[str, int] = field(default_factory=dict)
+    baseline: str = ""
+    root: str = ""
+
+    @property
+    def exit_code(self) -> int:
+        """0 passed (warnings allowed), 1 a policy violation."""
+        return 0 if self.passed else 1
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "format": VERDICT_FORMAT,
+            "version": VERDICT_VERSION,
+            "passed": self.passed,
+            "exit_code": self.exit_code,
+            "root": self.root,
+            "baseline": self.baseline,
+            "counts": dict(self.counts),
+            "rules": [{"rule": r.rule, "action": r.action, "status": r.status, "reason": r.reason} for r in self.rules],
+            "violations": [v.to_json() for v in self.violations],
+            "warnings": [v.to_json() for v in self.warnings],
+            "allowed": [v.to_json() for v in self.allowed],
+        }
+
+
+# -- JUnit XML ---------------------------------------------------------------------------
+
+# XML 1.0 section 2.2 (Char): these code points cannot appear in a document at all.
+_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
+
+
+def _xml_text(value: object) -> str:
+    return _NOT_XML.sub(lambda m: f"\\x{ord(m.group(0)):02x}", str(value))
+
+
+def _line(v: Violation) -> str:
+    head = f"{v.field}: {v.change}" if v.field is not None else v.change
+    where = v.where()
+    example = f", e.g. {v.example}" if v.example else ""
+    return f"{head} — {v.message}" + (f" at {where}" if where else "") + example
+
+
+def junit_xml(verdict: Verdict, *, suite: str = "driftline check") -> bytes:
+    """The verdict as JUnit XML: one <testcase> per policy rule, a <failure> per failing rule.
+
+    Warnings go to the test case's <system-out>; rules the policy allows, or that the
+    baseline cannot check, are <skipped> with the reason.
+    """
+    by_rule: dict[str, list[Violation]] = {}
+    for v in (*verdict.violations, *verdict.warnings, *verdict.allowed):
+        by_rule.setdefault(v.rule, []).append(v)
+    failures = sum(1 for r in verdict.rules if r.status == "failed")
+    skipped = sum(1 for r in verdict.rules if r.status == "skipped")
+    root = ET.Element("testsuites", name=suite, tests=str(len(verdict.rules)), failures=str(failures),
+                      errors="0", skipped=str(skipped))
+    ts = ET.SubElement(root, "testsuite", name=suite, tests=str(len(verdict.rules)), failures=str(failures),
+                       errors="0", skipped=str(skipped))
+    props = ET.SubElement(ts, "properties")
+    ET.SubElement(props, "property", name="root", value=_xml_text(verdict.root))
+    ET.SubElement(props, "property", name="baseline", value=_xml_text(verdict.baseline))
+    for key, n in verdict.counts.items():
+        ET.SubElement(props, "property", name=key, value=str(n))
+    for r in verdict.rules:
+        case = ET.SubElement(ts, "testcase", name=r.rule, classname="driftline.check")
+        found = by_rule.get(r.rule, [])
+        if r.status == "failed":
+            fails = [v for v in found if v.severity == "fail"]
+            first = fails[0]
+            message = _xml_text(f"{len(fails)} violation(s); first: {_line(first)}")
+            failure = ET.SubElement(case, "failure", message=message, type=r.rule)
+            failure.text = _xml_text("\n".join(_line(v) for v in fails))
+        elif r.status == "skipped":
+            ET.SubElement(case, "skipped", message=_xml_text(r.reason))
+        warns = [v for v in found if v.severity == "warn"]
+        if warns:
+            out = ET.SubElement(case, "system-out")
+            out.text = _xml_text("\n".join("warning: " + _line(v) for v in warns))
+    ET.indent(root)
+    return ET.tostring(root, encoding="utf-8", xml_declaration=True) + b"\n"
+
+
+# -- terminal ----------------------------------------------------------------------------
+
+def _block(text: Text, v: Violation, style: str) -> None:
+    text.append(f"  {v.severity.upper():<5} ", style=style)
+    text.append(f"{v.rule:<17} ", style="bold")
+    if v.field is not None:
+        text.append(safe_text(v.field))
+        text.append(": ")
+    text.append(safe_text(v.change, 200))
+    text.append("\n        " + safe_text(v.message, 300))
+    where = v.where()
+    if where:
+        text.append("\n        at " + safe_text(where, 300))
+    if v.example:
+        text.append("\n        value " + safe_text(v.example, 80))
+    text.append("\n")
+
+
+def render(verdict: Verdict, console: Console) -> None:
+    """Verdict first, then each violation and warning with field, change, where and value."""
+    c = verdict.counts
+    head = Text()
+    if verdict.passed:
+        head.append("PASS", style="bold green")
+        head.append(f"  {len(verdict.warnings)} warning(s), 0 violations")
+    else:
+        head.append("FAIL", style="bold red")
+        head.append(f"  {len(verdict.violations)} violation(s), {len(verdict.warnings)} warning(s)")
+    head.append(f"\nchecked {safe_text(verdict.root, None)} against {safe_text(verdict.baseline, None)}: "
+                f"{c.get('files', 0)} files ({c.get('files_read', 0)} read, {c.get('files_reused', 0)} "
+                f"from state), {c.get('rows', 0):,} rows, {c.get('fields', 0)} fields")
+    console.print(head, soft_wrap=True)
+    for title, items, style in (("Violations", verdict.violations, "red"), ("Warnings", verdict.warnings, "yellow")):
+        if not items:
+            continue
+        body = Text()
+        body.append(f"\n{title} ({len(items)})\n", style="bold")
+        for v in items[:MAX_SHOWN]:
+            _block(body, v, style)
+        if len(items) > MAX_SHOWN:
+            body.append(f"  … {len(items) - MAX_SHOWN} more in --json\n")
+        console.print(body, end="", soft_wrap=True)
+    if verdict.allowed:
+        console.print(f"\n{len(verdict.allowed)} change(s) allowed by the policy (listed in --json)")
+    skipped = [r for r in verdict.rules if r.status == "skipped" and r.action != "allow"]
+    if skipped:
+        console.print("not checked: " + "; ".join(f"{r.rule} ({r.reason})" for r in skipped), markup=False,
+                      soft_wrap=True)
+
+
+def rule_names() -> tuple[str, ...]:
+    return tuple(RULES)
