@@ -43,6 +43,9 @@ from driftline.errors import (
     ReportVersionError,
     UnreadableFileError,
 )
+from driftline.gate.diff import Diff
+from driftline.gate.policy import Policy
+from driftline.gate.verdict import Verdict
 from driftline.profile import FieldSummary, Profile
 from driftline.report import load_report
 
@@ -88,18 +91,68 @@ def scan(
                       jobs=jobs, max_errors=max_errors, progress=progress)
 
 
+def check(
+    paths: str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]] | Profile,
+    *,
+    baseline: str | _os.PathLike[str],
+    policy: Policy | str | _os.PathLike[str] | None = None,
+    state: str | _os.PathLike[str] | None = None,
+    verify: bool = False,
+    rebuild: bool = False,
+) -> Verdict:
+    """Check data (paths, a saved report or a Profile) against a baseline under a policy.
+
+    baseline is a JSON Schema file or a saved scan report; policy a Policy, a TOML file or
+    None for the defaults; state an incremental state file (only new or changed files are
+    read; verify also compares content hashes, rebuild starts the state over).
+    Verdict.passed / Verdict.exit_code say whether the gate passes (docs/gate.md).
+
+    >>> import driftline, tempfile, pathlib, json
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": "1"}\\n')
+    >>> schema = d.parent / (d.name + ".schema.json")
+    >>> _ = schema.write_text(json.dumps({"type": "object", "properties": {"x": {"type": "integer"}}}))
+    >>> v = driftline.check(d, baseline=schema)
+    >>> v.exit_code, [(x.field, x.change, x.file, x.row, x.example) for x in v.violations]
+    (1, [('x', 'int64 → string', 'a.jsonl', 0, '"1"')])
+    """
+    from driftline.gate.run import run_check
+
+    verdict, _ = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify, rebuild=rebuild)
+    return verdict
+
+
+def diff(a: Profile | str | _os.PathLike[str], b: Profile | str | _os.PathLike[str]) -> Diff:
+    """The fields that changed from a to b; each side a Profile, a saved report or a path.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "a.jsonl").write_text('{"x": 1}\\n'), (d / "b.jsonl").write_text('{"x": 1.5, "y": true}\\n')
+    >>> [(c.kind, c.path, c.before, c.after) for c in driftline.diff(d / "a.jsonl", d / "b.jsonl").changes]
+    [('added', 'y', None, 'bool'), ('widened', 'x', 'int64', 'float64')]
+    """
+    from driftline.gate.diff import diff_profiles
+    from driftline.gate.inputs import profile_of
+
+    return diff_profiles(profile_of(a), profile_of(b))
+
+
 __all__ = [
+    "Diff",
     "DriftlineError",
     "Event",
     "FieldSummary",
     "InputPathError",
     "OutputError",
+    "Policy",
     "PolicyError",
     "Profile",
     "ReadOptions",
     "ReportVersionError",
     "UnreadableFileError",
+    "Verdict",
     "__version__",
+    "check",
+    "diff",
     "load_report",
     "scan",
 ]
