@@ -5,7 +5,9 @@
     ├── UnreadableFileError        a file that cannot be opened or decoded at all
     ├── PolicyError                a policy or option file with an unknown key or bad value
     ├── ReportVersionError         a saved report / state / rules file of another format
-    └── OutputError                an output path that cannot be written
+    ├── OutputError                an output path that cannot be written
+    └── EngineError                (driftline.engines) the distributed engine is missing,
+                                   cannot be reached, or lost the scan
 
 Per-file problems found during a scan are *not* raised: they become FileIssue
 entries in the profile (``profile.issues``) so that the scan goes on with the other
