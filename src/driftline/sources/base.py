@@ -27,6 +27,8 @@ class ReadOptions:
     max_decompression_ratio stop once bytes out / bytes in exceeds this, past RATIO_FLOOR_BYTES
                             out (streams as they decompress; Parquet row groups by their footer)
     delimiter               CSV delimiter; None sniffs it from the first 64 KiB
+    exact                   take the exact per-record path everywhere (no columnar fast path);
+                            the results are the same, only slower: for checking the fast path
     """
 
     batch_rows: int = DEFAULT_BATCH_ROWS
@@ -34,6 +36,7 @@ class ReadOptions:
     max_decompressed_bytes: int = DEFAULT_MAX_DECOMPRESSED_BYTES
     delimiter: str | None = None
     max_decompression_ratio: float = DEFAULT_MAX_DECOMPRESSION_RATIO
+    exact: bool = False
 
     def __post_init__(self) -> None:
         if self.batch_rows < 1:
