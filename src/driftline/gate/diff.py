@@ -69,7 +69,12 @@ class FieldChange:
 
 @dataclass(frozen=True)
 class Diff:
-    """The changes from one side (before) to the other (after)."""
+    """The changes from one side (before) to the other (after).
+
+    >>> d = Diff("day=1", "day=2", (FieldChange("added", "y", None, "bool"),))
+    >>> d.counts(), d.to_json()["changes"][0]["kind"]
+    ({'added': 1}, 'added')
+    """
 
     before: str
     after: str

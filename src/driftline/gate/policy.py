@@ -65,6 +65,12 @@ class Policy:
     Every action is one of 'allow', 'warn', 'fail'. Thresholds: a null share may rise by
     at most max_null_share_rise percentage points; at most max_file_error_rate percent of
     files may have a read error; a cast rule may lose at most max_cast_loss values.
+
+    >>> Policy(widening="warn", max_cast_loss=5).action("widening")
+    'warn'
+    >>> Policy(new_field="block")
+    Traceback (most recent call last):
+    driftline.errors.PolicyError: policy key 'new_field' has the value 'block'; allowed values: allow, warn, fail
     """
 
     type_change: Action = "fail"

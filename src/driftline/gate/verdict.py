@@ -89,7 +89,13 @@ class RuleResult:
 
 @dataclass(frozen=True)
 class Verdict:
-    """The outcome of a check. passed is True when no change has severity 'fail'."""
+    """The outcome of a check. passed is True when no change has severity 'fail'.
+
+    >>> v = Verdict(passed=False, violations=(Violation("type_change", "fail", "x", "int64 → string",
+    ...             "1 value", 1, 1, "a.jsonl", (), 4, 5, '"n/a"'),), warnings=())
+    >>> v.exit_code, v.violations[0].where()
+    (1, 'a.jsonl, row 4 (line 5)')
+    """
 
     passed: bool
     violations: tuple[Violation, ...]
