@@ -115,7 +115,9 @@ def load_state(path: str | Path) -> State | None:
         root, read = data["root"], data["read"]
         if not isinstance(root, str) or not isinstance(read, dict):
             raise TypeError("root or read options of the wrong type")
-    except (KeyError, TypeError, ValueError, AttributeError) as exc:
+    except KeyError as exc:
+        raise _damaged(path, f"an entry lacks the key {exc}") from None
+    except (TypeError, ValueError, AttributeError) as exc:
         raise _damaged(path, f"{type(exc).__name__}: {exc}") from None
     return State(root, read, files)
 
