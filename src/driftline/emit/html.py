@@ -38,17 +38,19 @@ MAX_EVENTS = 1_000
 MAX_ISSUES = 1_000
 MAX_SKIPPED = 200
 CHART_EVENTS_LISTED = 8  # events written out under each chart; the events list has all
+_KIND_RANK = {"type-conflict": 0, "type-widened": 0, "element-changed": 0, "textclass-changed": 0,
+              "field-new": 2, "nested-new": 2}  # the others (nulls, gone) rank 1
 PAGE = {"fields": 50, "charts": 6, "events": 50, "issues": 50}
 
 
 @dataclass(frozen=True)
-class Recommendation:
+class FieldRule:
     """What the recommender proposes for one field, as text for the table."""
 
     type: str
     rule: str
     loss: str
-    lost: int  # values the rule loses (for sorting)
+    lost: int  # values the rule nulls or changes (for sorting)
 
 
 def _assets() -> tuple[str, str, str]:
@@ -110,6 +112,33 @@ def _tip(number: int, e: Event) -> str:
     return "\n".join(lines)
 
 
+def field_rules(profile: Profile) -> dict[str, FieldRule] | None:
+    """The recommender's type, rule and measured loss per field path; None without the recommender."""
+    try:
+        from driftline.recommend import recommend
+    except ImportError:  # the report works without it, just without that column
+        return None
+    rec = recommend(profile)
+    out = {p.path: _rule(p) for p in rec.walk()}
+    for d in getattr(rec, "dropped", ()):
+        out[d.path] = FieldRule("–", "left out", f"present in {svg.pct(d.present, d.container)} of rows", d.present)
+    return out
+
+
+def _rule(plan: Any) -> FieldRule:
+    """One FieldPlan as text: effects that count values first, notes after."""
+    bits, lost = [], 0
+    for eff in plan.effects:
+        if eff.kind == "note":
+            continue
+        lost += eff.count
+        verb = "become null" if eff.kind == "null" else "change"
+        approx = "" if eff.exact else " (not counted exactly)"
+        bits.append(f"{eff.count:,} {verb}: {eff.cause}{approx}")
+    loss = "; ".join(bits) if bits else "no value lost or changed"
+    return FieldRule(plan.target.key(), f"{plan.rule}: {plan.does}" if plan.does else plan.rule, loss, lost)
+
+
 def _summary_counts(s: FieldSummary) -> hd.Counts:
     return hd.Counts(dict(s.stats.types), s.stats.nulls, s.absent, s.container)
 
@@ -146,7 +175,7 @@ def _overview(profile: Profile) -> list[tuple[str, str]]:
 
 
 def _field_rows(profile: Profile, styles: svg.Styles, drift: Counter[str], charted: Mapping[str, str],
-                recs: Mapping[str, Recommendation] | None) -> list[dict[str, Any]]:
+                recs: Mapping[str, FieldRule] | None) -> list[dict[str, Any]]:
     rows = []
     for path, s in list(profile.fields.items())[:MAX_TABLE_ROWS]:
         counts = _summary_counts(s)
@@ -172,7 +201,10 @@ def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int]) ->
     by_path: dict[str, list[Event]] = {}
     for e in profile.events:
         by_path.setdefault(e.path, []).append(e)
-    chosen = list(by_path)[:MAX_CHARTS]  # in the order their first event happens
+    # Fields whose values change type or form come first, then those that start carrying
+    # nulls or stop arriving; a field that merely starts later is the least telling.
+    ranked = sorted(by_path, key=lambda p: min(_KIND_RANK.get(e.kind, 1) for e in by_path[p]))
+    chosen = ranked[:MAX_CHARTS]
     if not chosen:
         return []
     bks = hd.buckets(profile)
@@ -191,7 +223,9 @@ def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int]) ->
             obs = units[e.seq][2]
             in_batch = (e.row - obs.row_start) if e.row is not None else 0
             n = numbers[id(e)]
-            markers.append(svg.Marker(n, e.kind, e.file, e.row, e.seq, in_batch, obs.rows, _tip(n, e)))
+            markers.append(
+                svg.Marker(n, e.kind, e.file, e.row, e.seq, in_batch, obs.rows, _tip(n, e), n <= MAX_EVENTS)
+            )
         chart_id = f"chart-{i + 1}"
         charts.append({
             "id": chart_id,
@@ -250,13 +284,22 @@ def _matrices(profile: Profile, styles: svg.Styles) -> list[dict[str, Any]]:
     return out
 
 
-def render_html(profile: Profile, *, recs: Mapping[str, Recommendation] | None = None) -> str:
+def render_html(profile: Profile, *, rules: Mapping[str, FieldRule] | bool = True) -> str:
     """The whole report as one HTML document (a str).
 
     >>> page = render_html(Profile("r", ()))
     >>> page.startswith("<!DOCTYPE html>"), "<script" in page.split("</head>")[0]
     (True, False)
     """
+    # rules=True asks the recommender (when installed), False leaves the column out,
+    # a mapping is shown as given.
+    recs: Mapping[str, FieldRule] | None
+    if rules is True:
+        recs = field_rules(profile)
+    elif rules is False:
+        recs = None
+    else:
+        recs = rules
     template, css, js = _assets()
     totals: Counter[str] = Counter()
     for s in profile.fields.values():
@@ -285,6 +328,7 @@ def render_html(profile: Profile, *, recs: Mapping[str, Recommendation] | None =
         matrices=_matrices(profile, styles),
         events=list(enumerate(profile.events[:MAX_EVENTS], 1)),
         events_left_out=max(0, len(profile.events) - MAX_EVENTS),
+        max_events=MAX_EVENTS,
         kinds=EVENT_KINDS,
         issues=profile.issues[:MAX_ISSUES],
         issues_left_out=max(0, len(profile.issues) - MAX_ISSUES),

@@ -27,7 +27,7 @@ PALETTE: tuple[tuple[str, str, str], ...] = (
     ("lagoon", "#0e7a66", "backslash"),
 )
 NULL_COLOUR, ABSENT_COLOUR = "#767676", "#6e6e6e"
-INK, PAPER, MUTED, MARK = "#1b2330", "#fbfaf6", "#525a66", "#1b2330"
+INK, PAPER, MUTED = "#1b2330", "#fbfaf6", "#525a66"
 
 
 def esc(value: object, limit: int | None = 200) -> str:
@@ -162,6 +162,7 @@ class Marker:
     row_in_batch: int
     batch_rows: int
     tip: str
+    listed: bool = True  # whether the events list holds it (links to #ev-<number>)
 
 
 def _step_band(xs: Sequence[float], lower: Sequence[float], upper: Sequence[float]) -> str:
@@ -251,6 +252,13 @@ def _axis(bks: Sequence[Bucket], xs: Sequence[float], bottom: float) -> str:
             runs[-1] = (runs[-1][0], i + 1, b.group)
         else:
             runs.append((i, i + 1, b.group))
+    # Leading folders every group shares say nothing: 'events/region=r01' shows as 'region=r01'.
+    common = _common_folders([g for _, _, g in runs])
+    runs = [(a, b, g[common:] or g) for a, b, g in runs]
+    # ... and so does one partition key over all of them: 'region=r01' shows as 'r01'.
+    keys = {g.split("=", 1)[0] if "=" in g and "/" not in g else None for _, _, g in runs}
+    if len(runs) > 1 and len(keys) == 1 and None not in keys:
+        runs = [(a, b, g.split("=", 1)[1]) for a, b, g in runs]
     rules = "".join(f"M{xs[a]:.1f} {PLOT_TOP}V{bottom + 32}" for a, _, _ in runs[1:])
     labels = "".join(
         f'<text x="{xs[a] + 4:.1f}" y="{bottom + 30}">{esc(g, max(4, int((xs[b] - xs[a]) / 6.5)))}</text>'
@@ -262,6 +270,23 @@ def _axis(bks: Sequence[Bucket], xs: Sequence[float], bottom: float) -> str:
         f'<path class="groups" d="{rules}" stroke="{INK}" stroke-width="1.2" stroke-dasharray="3 2" fill="none"/>'
         f'<g class="glab" font-size="11" fill="{INK}" font-weight="600">{labels}</g>'
     )
+
+
+def _common_folders(groups: Sequence[str]) -> int:
+    """Length of the leading folders all groups share (with the slash).
+
+    >>> _common_folders(["events/region=a", "events/region=b"]), _common_folders(["a/x", "b"])
+    (7, 0)
+    """
+    if len(set(groups)) < 2:
+        return 0
+    first, n = groups[0].split("/"), 0
+    for i in range(len(first) - 1):
+        if all(g.split("/")[: i + 1] == first[: i + 1] and g.count("/") > i for g in groups):
+            n += len(first[i]) + 1
+        else:
+            break
+    return n
 
 
 def _legend(order: Sequence[str], fills: Mapping[str, str], counts: Sequence[Counts], y: float) -> str:
@@ -290,14 +315,16 @@ def _markers(bks: Sequence[Bucket], xs: Sequence[float], markers: Sequence[Marke
         label = str(m.number)
         half = 5 + 3.2 * len(label)
         row = "" if m.row is None else m.row
+        # Flags of events beyond the events list link nowhere but stay reachable with Tab.
+        link = f'href="#ev-{m.number}"' if m.listed else 'tabindex="0"'
+        # The accessible name is also the tooltip's text (the script shows it on hover and focus).
+        tip = "&#10;".join(esc(line, None) for line in m.tip.split("\n"))
         flag = f"M{x - half:.1f} {y}h{2 * half:.1f}v12h{-half + 4:.1f}l-4 4l-4 -4h{-half + 4:.1f}Z"
         out.append(
-            f'<a class="mk" href="#ev-{m.number}" data-kind="{esc(m.kind, None)}" data-file="{esc(m.file, None)}" '
-            f'data-row="{row}" data-tip="{esc(m.tip, None)}" aria-label="{esc(m.tip.replace(chr(10), "; "), None)}">'
-            f'<path class="rule" d="M{x:.1f} {y + 14}V{bottom}" stroke="{MARK}" stroke-width="1.4" '
-            'stroke-dasharray="4 2"/>'
-            f'<path class="flag" d="{flag}" fill="{MARK}"/>'
-            f'<text x="{x:.1f}" y="{y + 10}" font-size="10" fill="#fff" text-anchor="middle" '
-            f'font-weight="700">{label}</text></a>'
+            f'<a class="mk" {link} data-kind="{esc(m.kind, None)}" data-file="{esc(m.file, None)}" '
+            f'data-row="{row}" aria-label="{tip}">'
+            f'<path class="rule" d="M{x:.1f} {y + 14}V{bottom}"/><path class="flag" d="{flag}"/>'
+            f'<text x="{x:.1f}" y="{y + 10}">{label}</text></a>'
         )
+    # Their strokes and fills are in the style sheet (report.css, "svg .mk"): one rule, not one per flag.
     return '<g class="markers">' + "".join(out) + "</g>"

@@ -105,7 +105,7 @@
   function showTip(mk) {
     current = mk;
     mk.classList.add("on");
-    tip.textContent = mk.getAttribute("data-tip");
+    tip.textContent = mk.getAttribute("aria-label");
     tip.hidden = false;
     var r = mk.getBoundingClientRect();
     var left = Math.min(r.left + window.scrollX, window.scrollX + doc.documentElement.clientWidth - tip.offsetWidth - 8);
