@@ -241,6 +241,19 @@ def shallow(t: DType) -> DType:
     return t.with_nullable(False)
 
 
+def type_text(t: DType) -> str:
+    """A shallow type as people read it: nested kinds by name ('struct', 'list').
+
+    >>> type_text(shallow(parse_key("union<int64 | struct<a: bool>>")))
+    'union<int64 | struct>'
+    """
+    if t.name in _SHALLOW:
+        return t.name
+    if t.name == "union":
+        return "union<" + " | ".join(type_text(m) for m in t.members) + ">"
+    return t.key()
+
+
 def type_of_key(key: str) -> DType:
     """The type of an observed shallow type key ('int64', 'list', 'struct', ...)."""
     if key in _SHALLOW:

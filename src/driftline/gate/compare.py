@@ -16,7 +16,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 
-from driftline.gate.baseline import NULL_CLASSES, Baseline, Expected, shallow, type_of_key
+from driftline.gate.baseline import NULL_CLASSES, Baseline, Expected, shallow, type_of_key, type_text
 from driftline.gate.policy import RULES, Policy
 from driftline.gate.verdict import RuleResult, Verdict, Violation
 from driftline.lattice import DType, family, join, join_all, parse_key
@@ -143,17 +143,17 @@ def check_types(w: _Walk, out: _Findings) -> None:
                     continue  # the rule parses strings: judged by content class below
                 joined = join(b, t).with_nullable(False)
                 if joined.name != "union" and family(joined) == family(b):
-                    out.add("widening", path, f"{b.key()} → {joined.key()}",
+                    out.add("widening", path, f"{type_text(b)} → {type_text(joined)}",
                             f"{{n}} value(s) of type {key} in {{files}} widen the baseline type", n, obs.file,
                             st.first("type:" + key))
                 else:
-                    out.add("type_change", path, f"{b.key()} → {key}",
-                            f"{{n}} value(s) of type {key} in {{files}}, which the baseline type {b.key()} cannot hold",
-                            n, obs.file, st.first("type:" + key))
+                    out.add("type_change", path, f"{type_text(b)} → {key}",
+                            f"{{n}} value(s) of type {key} in {{files}}, which the baseline type "
+                            f"{type_text(b)} cannot hold", n, obs.file, st.first("type:" + key))
             if casting and not _has_string(b):
                 for cls, n in _string_values(st).items():
                     if not _casts(cls, b, st):
-                        out.add("cast_loss", path, f"cast rule {exp.rule}: string → {b.key()}",
+                        out.add("cast_loss", path, f"cast rule {exp.rule}: string → {type_text(b)}",
                                 "{n} string(s) in {files} that the cast rule would turn into null", n, obs.file,
                                 st.first("class:" + cls) if not st.text else st.first("type:string"))
 
@@ -167,8 +167,8 @@ def check_narrowing(w: _Walk, out: _Findings) -> None:
         seen = join_all(type_of_key(k) for k in s.stats.types).with_nullable(False)
         if seen != b and fits(seen, b) and not (s.stats.text and _has_string(b)):
             ex = _earliest(s.stats)
-            out.add("narrowing", path, f"{b.key()} → {seen.key()}",
-                    f"all {s.stats.nonnull:,} values fit {seen.key()}", s.stats.nonnull, ex.file if ex else "", ex)
+            out.add("narrowing", path, f"{type_text(b)} → {type_text(seen)}",
+                    f"all {s.stats.nonnull:,} values fit {type_text(seen)}", s.stats.nonnull, ex.file if ex else "", ex)
 
 
 def _parent_known(w: _Walk, path: str) -> bool:

@@ -22,7 +22,7 @@ from rich.console import Console
 from rich.text import Text
 
 from driftline.emit.safe import safe_text
-from driftline.gate.baseline import NULL_CLASSES, type_of_key
+from driftline.gate.baseline import NULL_CLASSES, type_of_key, type_text
 from driftline.lattice import DType, join, join_all
 from driftline.observe import paths
 from driftline.observe.stats import Example, FieldStats
@@ -112,14 +112,15 @@ def _type_change(path: str, sa: FieldStats, sb: FieldStats) -> FieldChange | Non
     if ta is None or tb is None or ta == tb:
         return None
     joined = join(ta, tb).with_nullable(False)
-    if joined == tb and joined.name != "union":
-        kind = "widened"
-    elif joined == ta:
+    if joined == ta:
         kind = "narrowed"
+    elif joined.name != "union" or joined == tb and ta.name == "union":
+        # int32 → uint32 meet in int64: the unified type is wider than the first side's.
+        kind = "widened"
     else:
         kind = "type-changed"
     ex = _first_of(sb, ["type:" + k for k in sb.types if k not in sa.types])
-    return FieldChange(kind, path, ta.key(), tb.key(), ex)
+    return FieldChange(kind, path, type_text(ta), type_text(tb), ex)
 
 
 def _null_change(path: str, a: FieldSummary, b: FieldSummary, points: float) -> FieldChange | None:
@@ -127,7 +128,8 @@ def _null_change(path: str, a: FieldSummary, b: FieldSummary, points: float) -> 
     shares = f"{100 * sa:.1f}% → {100 * sb:.1f}%"
     if not a.nullable and b.nullable:
         return FieldChange("newly-nullable", path, "not nullable", f"nullable ({shares})", b.stats.first("null"))
-    if a.nullable and b.nullable and abs(100 * (sb - sa)) >= points and sa != sb:
+    # The small tolerance keeps 3 % − 2 % a one-point move despite binary fractions.
+    if a.nullable and b.nullable and sa != sb and abs(100 * (sb - sa)) + 1e-9 >= points:
         return FieldChange("null-share", path, f"{100 * sa:.1f}%", f"{100 * sb:.1f}%", b.stats.first("null"))
     return None
 
@@ -165,7 +167,7 @@ def diff_fields(a: Mapping[str, FieldSummary], b: Mapping[str, FieldSummary], *,
 
 def _types_text(st: FieldStats) -> str:
     t = _type(st)
-    return t.key() if t is not None else "null"
+    return type_text(t) if t is not None else "null"
 
 
 def diff_profiles(a: Profile, b: Profile, *, before: str | None = None, after: str | None = None,
