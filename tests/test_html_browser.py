@@ -23,6 +23,7 @@ from _cdp import Browser, Page, chromium_path, decode_png, env_requires_browser 
 
 ROOT = Path(__file__).resolve().parents[1]
 SCRIPT_NAME = "<script>alert(1)</script>"
+TIP = "(() => { const t = document.getElementById('tip'); return [t.hidden, t.textContent]; })()"
 
 
 @pytest.fixture(scope="module")
@@ -127,7 +128,7 @@ def test_flag_shows_provenance_on_keyboard_focus_and_hover(demo_page: Page, demo
             break
     else:
         pytest.fail("no drift flag is reachable with the Tab key")
-    tip = demo_page.evaluate("(() => { const t = document.getElementById('tip'); return [t.hidden, t.textContent]; })()")
+    tip = demo_page.evaluate(TIP)
     focused = demo_page.evaluate("document.activeElement.getAttribute('href')")
     number = int(focused.removeprefix("#ev-"))
     event = demo["report"]["events"][number - 1]
@@ -140,7 +141,7 @@ def test_flag_shows_provenance_on_keyboard_focus_and_hover(demo_page: Page, demo
         "(() => { const r = document.querySelector('a.mk .flag').getBoundingClientRect();"
         " return [r.x + r.width / 2, r.y + r.height / 2]; })()")
     demo_page.send("Input.dispatchMouseEvent", type="mouseMoved", x=box[0], y=box[1])
-    tip = demo_page.evaluate("(() => { const t = document.getElementById('tip'); return [t.hidden, t.textContent]; })()")
+    tip = demo_page.evaluate(TIP)
     assert tip[0] is False and f"file {first['file']}" in tip[1]
     demo_page.send("Input.dispatchMouseEvent", type="mouseMoved", x=1, y=1)
 
@@ -170,7 +171,8 @@ def test_table_filters_sorts_and_pages(demo_page: Page, demo: dict[str, Any]) ->
 
 def test_print_shows_every_chart(demo_page: Page) -> None:
     total = demo_page.evaluate("document.querySelectorAll('figure.chart').length")
-    visible = "Array.from(document.querySelectorAll('figure.chart')).filter(f => getComputedStyle(f).display !== 'none').length"
+    visible = ("Array.from(document.querySelectorAll('figure.chart'))"
+               ".filter(f => getComputedStyle(f).display !== 'none').length")
     demo_page.send("Emulation.setEmulatedMedia", media="print")
     try:
         assert demo_page.evaluate(visible) == total
@@ -195,7 +197,8 @@ def test_a_field_named_script_is_text_and_runs_nothing(browser: Browser, tmp_pat
     d = tmp_path / "landing"
     d.mkdir()
     (d / "a.jsonl").write_text(json.dumps({SCRIPT_NAME: 1, "n": 1}) + "\n", encoding="utf-8")
-    (d / "b.jsonl").write_text(json.dumps({SCRIPT_NAME: "<img src=x onerror=alert(2)>", "n": 2}) + "\n", encoding="utf-8")
+    hostile = {SCRIPT_NAME: "<img src=x onerror=alert(2)>", "n": 2}
+    (d / "b.jsonl").write_text(json.dumps(hostile) + "\n", encoding="utf-8")
     out = tmp_path / "hostile.html"
     res = CliRunner().invoke(app, ["scan", str(d), "--html", str(out), "-q"])
     assert res.exit_code == 0, res.output
