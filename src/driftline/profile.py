@@ -217,6 +217,16 @@ class Profile:
 
         return to_polars(self)
 
+    def recommend(self, **options: Any) -> Any:
+        """The unified schema with cast rules (driftline.recommend; options as RecommendOptions).
+
+        >>> Profile("r", ()).recommend(prefer_decimal=True).fields
+        ()
+        """
+        from driftline.recommend import recommend
+
+        return recommend(self, **options)
+
     def _repr_html_(self) -> str:
         from driftline.notebook import profile_html
 

@@ -1,0 +1,207 @@
+"""What the recommender hands out: a plan per field path, its effects, the whole recommendation.
+
+Values only; every view (the Arrow schema, the schema files, the rules file, the terminal
+lines) is derived from these by the emitters.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+from driftline.lattice import DType
+from driftline.observe.stats import Example
+from driftline.recommend.options import RecommendOptions
+
+EffectKind = Literal["null", "change", "note"]
+
+#: Every cause an effect can name, with what it means. Apply measures the same causes.
+CAUSES: dict[str, str] = {
+    "null_token": "a null token such as 'n/a' becomes null",
+    "empty": "an empty or blank string becomes null",
+    "unparsed": "a string that does not parse as the target type becomes null",
+    "unsafe_int": "an integer beyond ±(2**53-1) becomes float64, which need not hold it exactly (RFC 7493 §2.2)",
+    "leap_second": "a leap second (:60) becomes :59 of the same minute (pyarrow rejects :60)",
+    "truncated": "fraction digits finer than the target unit are cut off",
+    "rounded": "a decimal or integer with more than 15 significant digits becomes float64 and may round",
+    "wrapped": "a scalar becomes a one-element list",
+    "as_text": "a non-string value becomes its text",
+    "as_json_text": "a value becomes its JSON text",
+    "assumed_zone": "a local time (no offset) is read in the target zone",
+    "lowercase": "a lower-case RFC 3339 't' or 'z' is upper-cased before the cast (same instant)",
+    "dropped": "the field is left out of the schema",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Effect:
+    """What a rule does to some of the values: null them, change them, or a note.
+
+    exact is False when the scan could not count the values (count is then what it
+    could count, usually 0, and note says why).
+    """
+
+    kind: EffectKind
+    cause: str
+    count: int
+    examples: tuple[Example, ...] = ()
+    exact: bool = True
+    note: str = ""
+
+    def to_json(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"kind": self.kind, "cause": self.cause, "count": self.count,
+                               "exact": self.exact,
+                               "examples": [e.to_json() for e in self.examples]}
+        if self.note:
+            out["note"] = self.note
+        return out
+
+
+@dataclass(frozen=True, slots=True)
+class Alternative:
+    """Another target the rule considered, and what it would have cost."""
+
+    rule: str
+    target: str  # type key
+    note: str
+
+    def to_json(self) -> dict[str, Any]:
+        return {"rule": self.rule, "target": self.target, "note": self.note}
+
+
+@dataclass(frozen=True, slots=True)
+class FieldPlan:
+    """One field path: its target type, the cast rule and what that rule would cost.
+
+    inputs counts the values by the form they arrive in: a type key for typed values
+    (JSON, Parquet), 'text' for CSV/TSV cells (blank cells are nulls, not counted).
+    children are the struct fields, the list item ('[]') or the map key and value.
+    """
+
+    path: str
+    name: str
+    target: DType  # its nullable flag is the field's nullability
+    rule: str
+    does: str
+    why: str
+    inputs: dict[str, int] = field(default_factory=dict)
+    effects: tuple[Effect, ...] = ()
+    params: dict[str, Any] = field(default_factory=dict)
+    alternatives: tuple[Alternative, ...] = ()
+    children: tuple[FieldPlan, ...] = ()
+    required: bool = False  # present in every row / parent value (JSON Schema "required")
+    max_chars: int | None = None  # upper bound of the target's text length, when a string
+    input_chars: int | None = None  # upper bound of an input value's text (CSV cell, JSON text)
+
+    @property
+    def nullable(self) -> bool:
+        return self.target.nullable
+
+    @property
+    def nulled(self) -> int:
+        return sum(e.count for e in self.effects if e.kind == "null")
+
+    @property
+    def changed(self) -> int:
+        return sum(e.count for e in self.effects if e.kind == "change")
+
+    @property
+    def exact(self) -> bool:
+        return all(e.exact for e in self.effects)
+
+    def effect(self, cause: str) -> Effect | None:
+        """The effect with that cause, if the rule has one."""
+        return next((e for e in self.effects if e.cause == cause), None)
+
+    def child(self, name: str) -> FieldPlan:
+        """The plan of a direct child, by name ('item' for a list's elements)."""
+        for c in self.children:
+            if c.name == name:
+                return c
+        raise KeyError(name)
+
+    def walk(self) -> Iterator[FieldPlan]:
+        """This plan and every plan below it, depth first."""
+        yield self
+        for c in self.children:
+            yield from c.walk()
+
+
+@dataclass(frozen=True, slots=True)
+class Dropped:
+    """A field left out by min_field_share, with how often it was present."""
+
+    path: str
+    present: int
+    container: int
+
+    def to_json(self) -> dict[str, Any]:
+        return {"path": self.path, "present": self.present, "container": self.container}
+
+
+@dataclass(frozen=True)
+class Recommendation:
+    """The unified schema: one plan per top-level field (sorted by name), plus what was dropped.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"t": "2026-11-29T10:00:00Z"}\\n')
+    >>> rec = driftline.scan(d).recommend()
+    >>> [(p.name, p.rule, p.target.key()) for p in rec.fields]
+    [('t', 'parse_timestamp', 'timestamp[us, UTC]')]
+    """
+
+    root: str
+    rows: int
+    files: int
+    fields: tuple[FieldPlan, ...]
+    options: RecommendOptions
+    dropped: tuple[Dropped, ...] = ()
+
+    def walk(self) -> Iterator[FieldPlan]:
+        """Every plan, top-level fields first, each followed by the plans below it."""
+        for f in self.fields:
+            yield from f.walk()
+
+    def plan(self, path: str) -> FieldPlan:
+        """The plan of one field path.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+        >>> driftline.scan(d).recommend().plan("x").rule
+        'widen_numeric'
+        """
+        for p in self.walk():
+            if p.path == path:
+                return p
+        raise KeyError(path)
+
+    def field(self, name: str) -> FieldPlan:
+        """The plan of a top-level field, by name (KeyError if the schema has none)."""
+        for f in self.fields:
+            if f.name == name:
+                return f
+        raise KeyError(name)
+
+    def conflicts(self) -> tuple[FieldPlan, ...]:
+        """Plans that strict mode refuses (see is_conflict)."""
+        return tuple(p for p in self.walk() if is_conflict(p))
+
+    def arrow_schema(self) -> Any:
+        """The target as a pyarrow.Schema (with the rules as field metadata)."""
+        from driftline.recommend.arrow import target_schema
+
+        return target_schema(self)
+
+
+#: Rules whose very use means the kinds of a field disagree.
+CONFLICT_RULES = frozenset({"wrap_scalar_in_list", "format_as_string", "keep_as_json_text"})
+#: Effects strict mode accepts: the values were nulls in all but spelling.
+BENIGN_CAUSES = frozenset({"null_token", "empty", "lowercase"})
+
+
+def is_conflict(plan: FieldPlan) -> bool:
+    """True when strict mode refuses the plan: a conflicting rule, or a lossy or inexact effect."""
+    if plan.rule in CONFLICT_RULES:
+        return True
+    return any((e.count or not e.exact) and e.cause not in BENIGN_CAUSES for e in plan.effects)
