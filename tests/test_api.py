@@ -32,6 +32,7 @@ SURFACE = [
     "PolicyError",
     "Profile",
     "ReadOptions",
+    "Recommendation",
     "ReportVersionError",
     "UnreadableFileError",
     "Verdict",
@@ -39,6 +40,7 @@ SURFACE = [
     "check",
     "diff",
     "load_report",
+    "recommend",
     "scan",
 ]
 # Known gaps, owned by modules other engineers were editing when this test was written.

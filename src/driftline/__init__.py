@@ -47,6 +47,7 @@ from driftline.gate.diff import Diff
 from driftline.gate.policy import Policy
 from driftline.gate.verdict import Verdict
 from driftline.profile import FieldSummary, Profile
+from driftline.recommend import Recommendation, recommend
 from driftline.report import load_report
 
 # Imported here, before `def scan`, so the function (not the submodule) is driftline.scan.
@@ -147,6 +148,7 @@ __all__ = [
     "PolicyError",
     "Profile",
     "ReadOptions",
+    "Recommendation",
     "ReportVersionError",
     "UnreadableFileError",
     "Verdict",
@@ -154,5 +156,6 @@ __all__ = [
     "check",
     "diff",
     "load_report",
+    "recommend",
     "scan",
 ]
