@@ -186,14 +186,14 @@ def test_encrypted_footer_magic_is_read_as_parquet_and_reported_encrypted():
 
 def test_gzip_decoding_is_bounded_by_the_read_size_not_the_compressed_chunk(tmp_path):
     # found by: review of the gzip reader: zlib.decompress() of a 1 MiB compressed chunk of
-    # a bomb returned ~1 GiB at once. Here 200 MiB of spaces (~200 KB compressed) stream
+    # a bomb returned ~1 GiB at once. Here 96 MiB of spaces (~95 KB compressed) stream
     # through with the ratio check off; memory stays near the record limit.
     import tracemalloc
 
     from hostile_inputs import compress, jsonl_lines
 
     f = tmp_path / "spaces.jsonl.gz"
-    f.write_bytes(compress(jsonl_lines(10) + b" " * (200 * 2**20), "gzip"))
+    f.write_bytes(compress(jsonl_lines(10) + b" " * (96 * 2**20), "gzip"))
     tracemalloc.start()
     try:
         res = read_file(discover([str(f)]).files[0],
@@ -216,3 +216,64 @@ def test_a_stream_past_the_decompression_ratio_stops_and_keeps_the_rows_before(t
         assert res.rows == 1000 and res.complete is False, codec
         assert [i.kind for i in res.issues] == ["too-large"], codec
         assert "a ratio over 1,000:1 (--max-decompression-ratio)" in res.issues[0].message, codec
+
+
+def _cut_in_half(tmp_path, codec: str, suffix: str, data: bytes) -> tuple:
+    import lzma
+
+    from hostile_inputs import compress
+
+    packed = lzma.compress(data, preset=1) if codec == "xz" else compress(data, codec)
+    f = tmp_path / f"cut.jsonl{suffix}"
+    f.write_bytes(packed[: len(packed) // 2])
+    return f, packed[: len(packed) // 2]
+
+
+def test_truncated_xz_keeps_the_rows_decoded_before_the_cut(tmp_path):
+    # found by: fault injection. LZMAFile.readinto fills the whole buffer and, on a cut-off
+    # file, raises and drops what it had decoded in that call: 0 rows instead of ~10,000.
+    import lzma
+
+    from hostile_inputs import jsonl_lines
+
+    f, cut = _cut_in_half(tmp_path, "xz", ".xz", jsonl_lines(20_000))
+    decodable = lzma.LZMADecompressor().decompress(cut)  # source: CPython lzma, the reference
+    res = read_file(discover([str(f)]).files[0], ReadOptions())
+    assert res.rows == decodable.count(b"\n") > 5_000
+    assert [i.kind for i in res.issues][-1] == "truncated"
+
+
+def test_truncated_zstd_is_reported_not_read_as_complete(tmp_path):
+    # found by: fault injection. zstandard's stream_reader ends a cut-off frame silently,
+    # so a truncated .zst looked complete (and lost rows without a word when cut at a line end).
+    import zstandard
+
+    from hostile_inputs import jsonl_lines
+
+    f, cut = _cut_in_half(tmp_path, "zstd", ".zst", jsonl_lines(50_000))
+    decodable = zstandard.ZstdDecompressor().decompressobj().decompress(cut)  # the reference
+    res = read_file(discover([str(f)]).files[0], ReadOptions())
+    assert res.rows == decodable.count(b"\n")
+    assert [i.kind for i in res.issues][-1] == "truncated" and res.complete is False
+    # cut exactly at a line end: the loss is still reported
+    whole = zstandard.ZstdCompressor().compress(jsonl_lines(1000))
+    for n in range(len(whole) - 1, 0, -1):
+        lines = zstandard.ZstdDecompressor().decompressobj().decompress(whole[:n])
+        if lines.endswith(b"\n") and len(lines) < len(jsonl_lines(1000)):
+            break
+    f.write_bytes(whole[:n])
+    res = read_file(discover([str(f)]).files[0], ReadOptions())
+    assert res.rows == lines.count(b"\n") < 1000
+    assert [i.kind for i in res.issues] == ["truncated"]
+
+
+def test_concatenated_zstd_frames_are_all_read(tmp_path):
+    # source: RFC 8878 §3.1: a zstd stream is a sequence of frames; all of them are data
+    import zstandard
+
+    from hostile_inputs import jsonl_lines
+
+    f = tmp_path / "frames.jsonl.zst"
+    f.write_bytes(b"".join(zstandard.ZstdCompressor().compress(jsonl_lines(n)) for n in (10, 20, 30)))
+    res = read_file(discover([str(f)]).files[0], ReadOptions())
+    assert res.rows == 60 and res.issues == ()

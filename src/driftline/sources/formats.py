@@ -6,7 +6,7 @@ import bz2
 import io
 import lzma
 import zlib
-from typing import BinaryIO
+from typing import Any, BinaryIO
 
 from driftline.sources.base import RATIO_FLOOR_BYTES
 
@@ -114,7 +114,10 @@ class _Limited(io.RawIOBase):
         return True
 
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
-        n = self._inner.readinto(buf) or 0  # type: ignore[attr-defined]
+        # readinto1: one decode step. BZ2File/LZMAFile.readinto fill the whole buffer and,
+        # when the file is cut short, raise and drop the bytes already decoded in that call.
+        fill = getattr(self._inner, "readinto1", None) or self._inner.readinto  # type: ignore[attr-defined]
+        n = fill(buf) or 0
         self.count += n
         if self._limit is not None and self.count > self._limit:
             raise LimitExceeded(f"more than {self._limit:,} decompressed bytes (--max-decompressed-bytes)")
@@ -135,22 +138,41 @@ class _Limited(io.RawIOBase):
             super().close()
 
 
-_GZIP_IN = 64 * 1024  # compressed bytes fed to zlib at a time
+_GZIP_IN = 64 * 1024  # compressed bytes fed to zlib at a time (its output is capped by max_length)
+# zstd's decompressobj has no max_length; one RLE block turns 4 bytes into 128 KiB (RFC 8878
+# section 3.1.1.2), so feeding 1 KiB at a time caps one step's output near 32 MiB.
+_ZSTD_IN = 1024
 
 
-class _GzipStream(io.RawIOBase):
-    """Streaming gzip (all members) that hands out every byte decoded before a truncation.
+class _FrameStream(io.RawIOBase):
+    """Streaming gzip members / zstd frames, one after another, handing out every byte decoded
+    before a truncation; only then does EOFError say the last member or frame was cut short.
 
-    gzip.GzipFile raises on a cut-off file without returning the data it had decoded in
-    that read; here the decoded bytes come first and the EOFError only after them. Each
-    call decodes at most len(buf) bytes (max_length), so a bomb never sits in memory whole.
+    gzip.GzipFile raises on a cut-off file without returning the data it had decoded in that
+    read, and zstandard's stream_reader ends a cut-off frame silently, as if it were whole.
     """
 
-    def __init__(self, raw: BinaryIO) -> None:
-        self._raw = raw
-        self._dec = zlib.decompressobj(wbits=31)
+    def __init__(self, raw: BinaryIO, codec: str) -> None:
+        self._raw, self._codec = raw, codec
+        self._dec = self._new()
         self._pending = b""
         self._done = False
+
+    def _new(self) -> Any:
+        if self._codec == "gzip":
+            return zlib.decompressobj(wbits=31)
+        import zstandard
+
+        return zstandard.ZstdDecompressor().decompressobj()
+
+    def _step(self, data: bytes, want: int) -> bytes:
+        if self._codec == "gzip":
+            return self._dec.decompress(data, want)  # type: ignore[no-any-return]
+        return self._dec.decompress(data)  # type: ignore[no-any-return]
+
+    def _feed(self) -> bytes:
+        tail = self._dec.unconsumed_tail if self._codec == "gzip" else b""
+        return tail or self._raw.read(_GZIP_IN if self._codec == "gzip" else _ZSTD_IN)
 
     def readable(self) -> bool:
         return True
@@ -158,19 +180,19 @@ class _GzipStream(io.RawIOBase):
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
         want = max(len(buf), 1)
         while not self._pending and not self._done:
-            if self._dec.eof:  # a member ended: another one may follow (RFC 1952 section 2.2)
-                rest = self._dec.unused_data or self._raw.read(_GZIP_IN)
+            if self._dec.eof:  # a member / frame ended: another may follow (RFC 1952 §2.2, RFC 8878 §3.1)
+                rest = self._dec.unused_data or self._raw.read(_ZSTD_IN)
                 if not rest:
                     self._done = True
                     break
-                self._dec = zlib.decompressobj(wbits=31)
-                self._pending = self._dec.decompress(rest, want)
+                self._dec = self._new()
+                self._pending = self._step(rest, want)
                 continue
-            data = self._dec.unconsumed_tail or self._raw.read(_GZIP_IN)
+            data = self._feed()
             if not data:
                 self._done = True
                 raise EOFError("compressed file ended before the end-of-stream marker was reached")
-            self._pending = self._dec.decompress(data, want)
+            self._pending = self._step(data, want)
         n = min(len(buf), len(self._pending))
         buf[:n] = self._pending[:n]
         self._pending = self._pending[n:]
@@ -180,16 +202,12 @@ class _GzipStream(io.RawIOBase):
 def _decoder(raw: BinaryIO, compression: str | None) -> BinaryIO:
     if compression is None:
         return raw
-    if compression == "gzip":
-        return _GzipStream(raw)  # type: ignore[return-value]
+    if compression in ("gzip", "zstd"):
+        return _FrameStream(raw, compression)  # type: ignore[return-value]
     if compression == "bz2":
         return bz2.BZ2File(raw, mode="rb")  # type: ignore[return-value]
     if compression == "xz":
         return lzma.LZMAFile(raw, mode="rb")  # type: ignore[return-value]
-    if compression == "zstd":
-        import zstandard
-
-        return zstandard.ZstdDecompressor().stream_reader(raw, closefd=False)  # type: ignore[no-any-return]
     raise ValueError(f"unknown compression {compression!r}")  # pragma: no cover - guarded by detect_compression
 
 
@@ -198,7 +216,11 @@ def open_stream(path: str, compression: str | None, *, limit: int | None, ratio:
 
     limit caps the bytes that come out; ratio caps bytes out per byte read from the file.
     """
-    raw: BinaryIO = open(path, "rb")  # noqa: SIM115 - closed with the returned stream
+    return wrap_stream(open(path, "rb"), compression, limit=limit, ratio=ratio)  # noqa: SIM115 - closed with it
+
+
+def wrap_stream(raw: BinaryIO, compression: str | None, *, limit: int | None, ratio: float | None = None) -> BinaryIO:
+    """Decompressed bytes of an open binary file (local or remote); closing the result closes raw."""
     try:
         stream = _decoder(raw, compression)
     except BaseException:
