@@ -6,6 +6,7 @@ import os
 import time
 from collections.abc import Callable, Sequence
 from concurrent.futures import ProcessPoolExecutor
+from dataclasses import replace
 
 
 from driftline.errors import DriftlineError, InputPathError
@@ -13,6 +14,7 @@ from driftline.profile import Profile
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_file
+from driftline.sources.remote import StorageOptions, discover_remote, is_url, parse_condition, partitions_pass
 
 Progress = Callable[[int, int, str], None]  # (files done, files total, current file)
 
@@ -34,6 +36,8 @@ def scan_paths(
     reuse: Callable[[FileRef], FileResult | None] | None = None,
     engine: str = "local",
     scheduler: str | None = None,
+    where: Sequence[str] = (),
+    storage: StorageOptions | None = None,
 ) -> Profile:
     """Scan paths into a Profile. Raises InputPathError when nothing can be found at all.
 
@@ -41,12 +45,21 @@ def scan_paths(
     stands for that file unread (an incremental state), None means read the file.
     engine 'dask' reads the files on a dask cluster (scheduler address, or a loopback local
     cluster of `jobs` workers); the Profile is the same as the local one.
+    paths may be s3:// URLs (reached through storage); where holds partition conditions
+    like 'day>=2026-11-01' that keep only matching key=value partitions (pruned while listing).
     """
     if engine not in ("local", "dask"):
         raise DriftlineError(f"unknown engine {engine!r}; choose local or dask")
     opts = read or ReadOptions()
     started = time.perf_counter()
-    found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden)
+    conditions = [parse_condition(w) for w in where]
+    if any(is_url(p) for p in paths):
+        found = discover_remote(paths, storage=storage, include=include, exclude=exclude,
+                                include_hidden=include_hidden, where=conditions)
+    else:
+        found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden)
+        if conditions:
+            found = replace(found, files=tuple(f for f in found.files if partitions_pass(f.partitions, conditions)))
     if not found.files:
         raise InputPathError(
             f"no readable data file under {', '.join(map(str, paths))} "

@@ -57,7 +57,7 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         yield FileIssue(rel, _kind(exc), f"cannot read the Parquet footer: {_short(exc)}")
         return
     yield declared_paths(schema)
-    stored = os.path.getsize(path)
+    stored = path.size() if hasattr(path, "size") else os.path.getsize(path)  # an object-store file: its size
     rows, batch, expected = 0, 0, 0
     for rg in range(pf.metadata.num_row_groups):
         meta = pf.metadata.row_group(rg)

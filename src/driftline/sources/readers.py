@@ -16,6 +16,7 @@ from driftline.sources.discover import FileRef
 from driftline.sources.formats import LimitExceeded, open_stream
 from driftline.sources.jsonfile import read_json, read_jsonl
 from driftline.sources.parquetfile import read_parquet
+from driftline.sources.remote import is_url, open_random, open_stream_remote
 
 
 class _SafeStream(io.RawIOBase):
@@ -88,7 +89,13 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
                 items: Iterator[Any] = iter(())
                 complete = False
             else:
-                items = read_parquet(ref.path, ref.rel, opts)
+                source: Any = ref.path
+                if is_url(ref.path):  # random access: the footer and column chunks come as ranged GETs
+                    try:
+                        source = open_random(ref.path)
+                    except OSError as exc:
+                        return _result(ref, [], [FileIssue(ref.rel, "unreadable", f"cannot open: {exc}")], None, False)
+                items = read_parquet(source, ref.rel, opts)
             for item in items:
                 if isinstance(item, dict):
                     declared = item
@@ -99,7 +106,8 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
                     observations.append(item)
         else:
             try:
-                raw = open_stream(ref.path, ref.compression, limit=opts.max_decompressed_bytes,
+                opener = open_stream_remote if is_url(ref.path) else open_stream
+                raw = opener(ref.path, ref.compression, limit=opts.max_decompressed_bytes,
                                   ratio=opts.max_decompression_ratio)
             except OSError as exc:
                 kind, msg = _describe_failure(exc, None)

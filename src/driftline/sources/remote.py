@@ -1,0 +1,451 @@
+"""Object stores: discovering and opening `s3://bucket/prefix/` inputs through pyarrow.fs.
+
+A remote FileRef.path is a *locator*: `s3://bucket/key`, plus a query string holding the
+connection settings that are not secrets (endpoint, region, anonymous, retries), so that a
+FileRef shipped to a dask worker opens the same object there. Credentials never enter a
+locator, a report or a message: they come from the usual AWS environment variables
+(AWS_ACCESS_KEY_ID, AWS_SECRET_ACCESS_KEY, AWS_SESSION_TOKEN, AWS_PROFILE, instance roles),
+read by the AWS SDK inside pyarrow on the machine that opens the object.
+
+Listing walks one folder level at a time (each level's ListObjectsV2 pages are followed by
+the SDK) and never descends into a key=value folder that a --where condition rules out.
+Parquet is opened as a random-access file, so only the footer and the needed column chunks
+are fetched with ranged GETs. Transient errors are retried by the SDK's standard strategy
+(bounded attempts, exponential back-off).
+"""
+
+from __future__ import annotations
+
+import fnmatch
+import functools
+import io
+import os
+import re
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+from typing import Any, BinaryIO
+from urllib.parse import parse_qsl, quote, unquote, urlencode
+
+from driftline.errors import DriftlineError, InputPathError
+from driftline.sources.base import RATIO_FLOOR_BYTES
+from driftline.sources.discover import Discovery, FileRef, Skipped, partition_values
+from driftline.sources.formats import FORMAT_BY_SUFFIX, LimitExceeded, detect_compression, detect_format
+
+SCHEMES = ("s3://",)
+DEFAULT_RETRIES = 4
+
+
+
+@dataclass(frozen=True, slots=True)
+class StorageOptions:
+    """How to reach the object store; nothing here is a secret.
+
+    >>> StorageOptions(endpoint_url="http://127.0.0.1:9000").endpoint()
+    ('http', '127.0.0.1:9000')
+    """
+
+    endpoint_url: str | None = None  # e.g. http://127.0.0.1:9000; else AWS_ENDPOINT_URL_S3 / AWS_ENDPOINT_URL
+    region: str | None = None  # else AWS_REGION / AWS_DEFAULT_REGION
+    anonymous: bool = False  # public buckets: sign no request
+    retries: int = DEFAULT_RETRIES  # attempts per request, with the SDK's exponential back-off
+
+    def endpoint(self) -> tuple[str | None, str | None]:
+        url = self.endpoint_url or os.environ.get("AWS_ENDPOINT_URL_S3") or os.environ.get("AWS_ENDPOINT_URL")
+        if not url:
+            return None, None
+        scheme, sep, rest = url.partition("://")
+        if not sep:
+            return "https", url.rstrip("/")
+        return scheme, rest.rstrip("/")
+
+
+def is_url(path: str | os.PathLike[str]) -> bool:
+    """Whether a scan input names an object store rather than a local path.
+
+    >>> is_url("s3://bucket/landing/"), is_url("landing/")
+    (True, False)
+    """
+    return isinstance(path, str) and path.startswith(SCHEMES)
+
+
+def split_url(url: str) -> tuple[str, str]:
+    """(bucket, key prefix without slashes at either end) of an s3:// URL.
+
+    >>> split_url("s3://lake/landing/readings/")
+    ('lake', 'landing/readings')
+    """
+    rest = url.split("://", 1)[1].split("?", 1)[0]
+    bucket, _, key = rest.partition("/")
+    if not bucket:
+        raise InputPathError(f"{url!r} names no bucket; write s3://bucket/prefix/")
+    return bucket, key.strip("/")
+
+
+def locator(bucket: str, key: str, storage: StorageOptions) -> str:
+    """The FileRef.path of one object: its URL plus the non-secret connection settings.
+
+    >>> locator("lake", "day=1/a.jsonl", StorageOptions(region="eu-west-1"))
+    's3://lake/day%3D1/a.jsonl?region=eu-west-1&retries=4'
+    """
+    settings: dict[str, str] = {}
+    scheme, host = storage.endpoint()
+    if host:
+        settings["endpoint"] = f"{scheme}://{host}"
+    region = _region(storage)
+    if region:
+        settings["region"] = region
+    if storage.anonymous:
+        settings["anonymous"] = "1"
+    settings["retries"] = str(storage.retries)
+    return f"s3://{bucket}/{quote(key)}?{urlencode(settings)}"
+
+
+def parse_locator(path: str) -> tuple[str, str, StorageOptions]:
+    """Inverse of locator(): bucket, key and settings.
+
+    >>> parse_locator(locator("lake", "day=1/a b.jsonl", StorageOptions(anonymous=True)))[1:]
+    ('day=1/a b.jsonl', StorageOptions(endpoint_url=None, region=None, anonymous=True, retries=4))
+    """
+    rest, _, query = path.split("://", 1)[1].partition("?")
+    bucket, _, key = rest.partition("/")
+    q = dict(parse_qsl(query))
+    storage = StorageOptions(
+        endpoint_url=q.get("endpoint"), region=q.get("region"), anonymous=q.get("anonymous") == "1",
+        retries=int(q.get("retries", DEFAULT_RETRIES)),
+    )
+    return bucket, unquote(key), storage
+
+
+def _region(storage: StorageOptions) -> str | None:
+    return storage.region or os.environ.get("AWS_REGION") or os.environ.get("AWS_DEFAULT_REGION")
+
+
+@functools.lru_cache(maxsize=16)
+def filesystem(storage: StorageOptions) -> Any:
+    """One pyarrow S3FileSystem per set of settings (cached: the SDK client is costly to make)."""
+    from pyarrow import fs
+
+    scheme, host = storage.endpoint()
+    kwargs: dict[str, Any] = {
+        "anonymous": storage.anonymous,
+        "retry_strategy": fs.AwsStandardS3RetryStrategy(max_attempts=max(1, storage.retries)),
+        "connect_timeout": 5.0,
+        "request_timeout": 30.0,
+        "region": _region(storage) or "us-east-1",
+    }
+    if host:
+        kwargs["endpoint_override"] = host
+        kwargs["scheme"] = scheme
+    return fs.S3FileSystem(**kwargs)
+
+
+# -- partition conditions ------------------------------------------------------------------
+
+_CONDITION = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_.-]*)\s*(>=|<=|!=|==|=|>|<)\s*(.*?)\s*$")
+
+
+@dataclass(frozen=True, slots=True)
+class Condition:
+    """One `key OP value` test on a key=value partition, e.g. `day>=2026-11-01`.
+
+    Values compare as integers when both sides are integers, else as strings (ISO dates
+    order correctly as strings).
+
+    >>> c = parse_condition("day>=2026-11-29")
+    >>> c.holds("2026-11-30"), c.holds("2026-11-28")
+    (True, False)
+    """
+
+    key: str
+    op: str
+    value: str
+
+    def holds(self, actual: str) -> bool:
+        a: Any = actual
+        b: Any = self.value
+        if re.fullmatch(r"-?\d+", actual) and re.fullmatch(r"-?\d+", self.value):
+            a, b = int(actual), int(self.value)
+        return {
+            ">=": a >= b, "<=": a <= b, ">": a > b, "<": a < b, "=": a == b, "==": a == b, "!=": a != b,
+        }[self.op]
+
+
+def parse_condition(text: str) -> Condition:
+    m = _CONDITION.match(text)
+    if not m or not m.group(3):
+        raise DriftlineError(f"cannot read --where {text!r}; write key OP value, e.g. 'day>=2026-11-01' "
+                             "(OP one of = != < <= > >=)")
+    return Condition(m.group(1), m.group(2), m.group(3))
+
+
+def partitions_pass(parts: Sequence[tuple[str, str]], conditions: Sequence[Condition]) -> bool:
+    """Whether a file with these partition values is kept (a missing key fails, as in SQL)."""
+    values = dict(parts)
+    return all(c.key in values and c.holds(values[c.key]) for c in conditions)
+
+
+def folder_passes(name: str, conditions: Sequence[Condition]) -> bool:
+    """Whether listing may descend into a folder: only a key=value folder can be ruled out."""
+    key, sep, value = name.partition("=")
+    if not sep:
+        return True
+    return all(c.holds(value) for c in conditions if c.key == key)
+
+
+# -- discovery --------------------------------------------------------------------------------
+
+def discover_remote(
+    urls: Sequence[str | os.PathLike[str]],
+    *,
+    storage: StorageOptions | None = None,
+    include: Sequence[str] = (),
+    exclude: Sequence[str] = (),
+    include_hidden: bool = False,
+    where: Sequence[Condition] = (),
+) -> Discovery:
+    """List the objects below s3:// URLs (all in one bucket and prefix family) as FileRefs."""
+    storage = storage or StorageOptions()
+    urls = [os.fspath(u) for u in urls]
+    if not all(is_url(u) for u in urls):
+        raise InputPathError("scan local paths and s3:// URLs separately (one root per scan)")
+    fs = filesystem(storage)
+    roots = [split_url(u) for u in urls]
+    buckets = {b for b, _ in roots}
+    if len(buckets) != 1:
+        raise InputPathError(f"scan one bucket at a time; got {', '.join(sorted(buckets))}")
+    bucket = roots[0][0]
+    prefixes = [k for _, k in roots]
+    root = _common_prefix(prefixes)
+    files: dict[str, FileRef] = {}
+    skipped: list[Skipped] = []
+    for prefix in prefixes:
+        for key, size, mtime_ns in _walk(fs, bucket, prefix, where, url=f"s3://{bucket}/{prefix}"):
+            rel = key[len(root):].lstrip("/") if root else key
+            verdict = _filter_name(rel, include, exclude, include_hidden)
+            if verdict is not None:
+                skipped.append(Skipped(rel, verdict))
+                continue
+            if not partitions_pass(partition_values(rel), where):
+                continue  # a file outside the --where partitions is not part of the scan
+            path = locator(bucket, key, storage)
+            fmt = _format(rel, path)
+            if fmt is None:
+                skipped.append(Skipped(rel, "unknown-format"))
+                continue
+            files[rel] = FileRef(path=path, rel=rel, partitions=partition_values(rel), format=fmt,
+                                 compression=_compression(rel, path), size=size, mtime_ns=mtime_ns)
+    shown = f"s3://{bucket}/{root}".rstrip("/")
+    ordered = tuple(files[k] for k in sorted(files))
+    return Discovery(root=shown, files=ordered, skipped=tuple(sorted(set(skipped), key=lambda s: s.rel)))
+
+
+def _filter_name(rel: str, include: Sequence[str], exclude: Sequence[str], include_hidden: bool) -> str | None:
+    """discover.py's rules for names, for objects (which are always regular files)."""
+    if not include_hidden:
+        for part in rel.split("/"):
+            if part.startswith("."):
+                return "hidden"
+            if part.startswith("_"):
+                return "marker"
+    name = rel.rsplit("/", 1)[-1]
+
+    def matches(patterns: Sequence[str]) -> bool:
+        return any(fnmatch.fnmatchcase(rel, p) or fnmatch.fnmatchcase(name, p) for p in patterns)
+
+    if exclude and matches(exclude):
+        return "excluded"
+    if include and not matches(include):
+        return "not-included"
+    return None
+
+
+def _format(rel: str, path: str) -> str | None:
+    name = rel.rsplit("/", 1)[-1].lower()
+    # The suffix usually decides; only a name that says nothing costs a request to sniff.
+    for sfx in name.split(".")[1:]:
+        if "." + sfx in FORMAT_BY_SUFFIX:
+            return detect_format(rel)
+    return detect_format(path)
+
+
+def _compression(rel: str, path: str) -> str | None:
+    found = detect_compression(rel)
+    return found
+
+
+def _common_prefix(prefixes: Sequence[str]) -> str:
+    if len(prefixes) == 1:
+        return prefixes[0]
+    split = [p.split("/") for p in prefixes]
+    common: list[str] = []
+    for parts in zip(*split, strict=False):
+        if len(set(parts)) != 1:
+            break
+        common.append(parts[0])
+    return "/".join(common)
+
+
+def _walk(fs: Any, bucket: str, prefix: str, where: Sequence[Condition], *, url: str) -> Iterator[tuple[str, int, int]]:
+    """Yield (key, size, mtime_ns) below prefix in sorted order, one folder level at a time."""
+    from pyarrow import fs as pafs
+
+    start = f"{bucket}/{prefix}".rstrip("/")
+    stack = [start]
+    first = True
+    while stack:
+        folder = stack.pop()
+        try:
+            infos = fs.get_file_info(pafs.FileSelector(folder, recursive=False, allow_not_found=True))
+        except (OSError, ValueError) as exc:
+            raise InputPathError(f"cannot list {url}: {_short(exc)}") from exc
+        if first and not infos:
+            # A prefix that names one object rather than a folder.
+            try:
+                info = fs.get_file_info(start)
+            except (OSError, ValueError) as exc:
+                raise InputPathError(f"cannot list {url}: {_short(exc)}") from exc
+            if info.type == pafs.FileType.File:
+                yield prefix, info.size or 0, _mtime(info)
+                return
+            raise InputPathError(f"{url} holds no object; check the bucket and prefix")
+        first = False
+        subfolders = []
+        for info in sorted(infos, key=lambda i: i.path):
+            key = info.path[len(bucket) + 1:]
+            if info.type == pafs.FileType.Directory:
+                if folder_passes(info.base_name, where):
+                    subfolders.append(info.path)
+            elif info.type == pafs.FileType.File:
+                yield key, info.size or 0, _mtime(info)
+        stack.extend(reversed(subfolders))
+
+
+def _mtime(info: Any) -> int:
+    return int(info.mtime_ns or 0) if info.mtime_ns is not None else 0
+
+
+def _short(exc: BaseException) -> str:
+    text = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+    return text[:300]
+
+
+# -- opening ----------------------------------------------------------------------------------
+
+def open_random(path: str) -> Any:
+    """A random-access pyarrow file for a locator: Parquet reads its footer with ranged GETs."""
+    bucket, key, storage = parse_locator(path)
+    return filesystem(storage).open_input_file(f"{bucket}/{key}")
+
+
+def open_binary(path: str) -> BinaryIO:
+    """A sequential byte stream for a locator (JSON, CSV, compressed files)."""
+    bucket, key, storage = parse_locator(path)
+    stream = filesystem(storage).open_input_stream(f"{bucket}/{key}", compression=None)
+    return io.BufferedReader(_Raw(stream), buffer_size=1 << 20)  # type: ignore[return-value]
+
+
+class _Raw(io.RawIOBase):
+    """A pyarrow input stream as a Python raw stream, so gzip/bz2/lzma/zstd can wrap it."""
+
+    def __init__(self, inner: Any) -> None:
+        self._inner = inner
+        self.fetched = 0
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buf: Any) -> int:
+        data = self._inner.read(len(buf))
+        n = len(data)
+        buf[:n] = data
+        self.fetched += n
+        return n
+
+    def close(self) -> None:
+        try:
+            self._inner.close()
+        finally:
+            super().close()
+
+
+def open_stream_remote(path: str, compression: str | None, *, limit: int | None,
+                       ratio: float | None = None) -> BinaryIO:
+    """formats.open_stream for a locator: decompressed bytes, bounded by limit and ratio."""
+    import bz2
+    import gzip
+    import lzma
+
+    raw = open_binary(path)
+    stream: Any
+    if compression is None:
+        stream = raw
+    elif compression == "gzip":
+        stream = _Closing(gzip.GzipFile(fileobj=raw, mode="rb"), raw)
+    elif compression == "bz2":
+        stream = _Closing(bz2.BZ2File(raw, mode="rb"), raw)  # noqa: SIM115 - returned to the caller
+    elif compression == "xz":
+        stream = _Closing(lzma.LZMAFile(raw, mode="rb"), raw)  # noqa: SIM115 - returned to the caller
+    elif compression == "zstd":
+        import zstandard
+
+        stream = zstandard.ZstdDecompressor().stream_reader(raw, closefd=True)
+    else:  # pragma: no cover - guarded by detect_compression
+        raw.close()
+        raise ValueError(f"unknown compression {compression!r}")
+    if limit is None and (ratio is None or compression is None):
+        return stream  # type: ignore[no-any-return]
+    counted = raw.raw if compression is not None else None
+    return io.BufferedReader(_Limit(stream, limit, ratio, counted), buffer_size=1 << 20)  # type: ignore[return-value]
+
+
+class _Closing(io.RawIOBase):
+    """A decompressor that also closes the object stream under it (fileobj= leaves it open)."""
+
+    def __init__(self, inner: Any, under: Any) -> None:
+        self._inner, self._under = inner, under
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buf: Any) -> int:
+        return self._inner.readinto(buf) or 0
+
+    def read(self, n: int = -1) -> bytes:
+        return self._inner.read(n)  # type: ignore[no-any-return]
+
+    def close(self) -> None:
+        try:
+            self._inner.close()
+            self._under.close()
+        finally:
+            super().close()
+
+
+class _Limit(io.RawIOBase):
+    """Stops past limit decompressed bytes, or past ratio times the bytes fetched (bombs)."""
+
+    def __init__(self, inner: Any, limit: int | None, ratio: float | None, raw: Any) -> None:
+        self._inner, self._limit, self._ratio, self._raw, self.count = inner, limit, ratio, raw, 0
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buf: Any) -> int:
+        data = self._inner.read(len(buf))
+        n = len(data)
+        buf[:n] = data
+        self.count += n
+        if self._limit is not None and self.count > self._limit:
+            raise LimitExceeded(f"more than {self._limit:,} decompressed bytes (--max-decompressed-bytes)")
+        if self._ratio is not None and self._raw is not None and self.count > RATIO_FLOOR_BYTES:
+            taken = max(self._raw.fetched, 1)
+            if self.count > self._ratio * taken:
+                raise LimitExceeded(f"{self.count:,} bytes decompressed from {taken:,}, a ratio over "
+                                    f"{self._ratio:,g}:1 (--max-decompression-ratio)")
+        return n
+
+    def close(self) -> None:
+        try:
+            self._inner.close()
+        finally:
+            super().close()
