@@ -21,9 +21,12 @@ Stdlib + pyarrow only.  Layout (paths relative to ``landing/``; "row" is the
     readings/.staging-note                                   hidden, skipped
     readings/_SUCCESS                                        marker, skipped
     readings/region={east,north,south}/day=2026-11-27..30/part-0000.jsonl.gz
+    readings/region=south/day=2026-11-30/part-0001.parquet   nightly job: late rows
     readings/region=west/day=2026-11-2{8,9}/export.csv       legacy CSV export
-    rollups/day=2026-11-29/hourly.parquet                    nightly job
-    rollups/day=2026-11-30/hourly.parquet                    ... adds a column
+
+One dataset, the readings, in three formats.  Sorted relative path is the scan
+order, so the nightly job's Parquet (native types, one extra column) comes right
+after the JSON Lines file of the same partition.
 """
 
 from __future__ import annotations
@@ -40,7 +43,6 @@ import shutil
 import sys
 from collections.abc import Callable
 from datetime import UTC, datetime, timedelta
-from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -55,7 +57,6 @@ MANIFEST_FORMAT = 1
 DAYS = ("2026-11-27", "2026-11-28", "2026-11-29", "2026-11-30")
 JSON_REGIONS = ("east", "north", "south")
 WEST_DAYS = ("2026-11-28", "2026-11-29")
-ROLLUP_DAYS = ("2026-11-29", "2026-11-30")
 
 # region -> (station id prefix, number of stations, base temperature in degrees C)
 REGIONS: dict[str, tuple[str, int, float]] = {
@@ -114,12 +115,21 @@ WEST_NOTES = {  # day -> (row, site_note with a comma, needs RFC 4180 quoting)
 }
 WEST_BLANK_SHARE = 0.02  # share of empty temp_c / humidity / battery cells in the CSV
 
+# The nightly job: stations with a store-and-forward buffer also take a sample half
+# an hour after their usual one; those late rows reach the landing only through
+# the job's Parquet file, in the last partition of one region.
+NIGHTLY_PARTITION = ("south", DAYS[-1])
+NIGHTLY_FILE = f"readings/region={NIGHTLY_PARTITION[0]}/day={NIGHTLY_PARTITION[1]}/part-0001.parquet"
+LATE_STATIONS = (1, 3, 6, 8, 10, 12)  # includes every HUMIDITY_NULL_STATIONS station
+LATE_OFFSET_MINUTES = 30
+RECONNECT_FROM = datetime(2026, 12, 1, 0, 5, tzinfo=UTC)  # buffers flush after midnight
+
 PARQUET_OPTIONS: dict[str, Any] = {
     "version": "2.6",
     "data_page_version": "1.0",
     "compression": "zstd",
     "compression_level": 3,
-    "use_dictionary": ["region"],
+    "use_dictionary": ["station_id", "firmware"],
     "write_statistics": True,
     "row_group_size": 1024,
     "store_schema": True,
@@ -158,20 +168,32 @@ def _make_stations(rng: random.Random) -> dict[str, list[dict[str, Any]]]:
 
 
 def _readings(
-    rng: random.Random, region: str, day: str, stations: list[dict[str, Any]]
+    rng: random.Random,
+    region: str,
+    day: str,
+    stations: list[dict[str, Any]],
+    indices: tuple[int, ...] | None = None,
+    offset_minutes: int = 0,
 ) -> list[dict[str, Any]]:
-    """Plain readings of one region and day, sorted by time: the truth behind the files."""
+    """Plain readings of one region and day, sorted by time: the truth behind the files.
+
+    ``indices`` limits the stations (default: all); ``offset_minutes`` moves each
+    station's sampling minute (wrapping within the hour, so a sample stays in its hour).
+    """
     start = datetime.fromisoformat(day).replace(tzinfo=UTC)
     day_index = DAYS.index(day)
     base_temp = REGIONS[region][2]
     out = []
     for index, st in enumerate(stations):
+        if indices is not None and index not in indices:
+            continue
+        minute = (st["minute"] + offset_minutes) % 60
         for hour in range(24):
             jitter = rng.randrange(60)
             noise = (rng.gauss(0, 1.5), rng.uniform(1.4, 1.9), rng.gauss(0, 0.6), rng.gauss(0, 4))
             if rng.random() < DROP_SHARE:
                 continue
-            dt = start + timedelta(hours=hour, minutes=st["minute"], seconds=jitter)
+            dt = start + timedelta(hours=hour, minutes=minute, seconds=jitter)
             phase = 2 * math.pi * (hour - 8) / 24
             pm25 = max(0.5, round(st["pm_base"] * (1 + 0.35 * math.sin(phase)) + noise[0], 1))
             temp = round(base_temp + 4 * math.sin(2 * math.pi * (hour - 9) / 24) + noise[2], 1)
@@ -211,7 +233,7 @@ def _space_ts(dt: datetime) -> str:
 def _json_record(rng: random.Random, r: dict[str, Any]) -> dict[str, Any]:
     """One reading as the station uploads it, with the injections applied.
 
-    Also updates ``r`` to what a consumer can actually read back (for the rollups).
+    Also updates ``r`` to what a consumer can actually read back.
     """
     region, dt, st, index = r["region"], r["dt"], r["station"], r["station_index"]
     firmware = st["firmware"]
@@ -331,54 +353,56 @@ def _csv_file(rng: random.Random, day: str, readings: list[dict[str, Any]]) -> b
 # --------------------------------------------------------------------------- parquet
 
 
-def _mean(values: list[float]) -> Decimal | None:
-    """Mean with two decimals, or None when nothing was readable."""
-    if not values:
-        return None
-    return Decimal(f"{sum(values) / len(values):.2f}")
+NIGHTLY_SCHEMA = pa.schema(
+    [
+        pa.field("station_id", pa.string(), nullable=False),
+        pa.field("ts", pa.timestamp("us", tz="UTC"), nullable=False),
+        pa.field("pm25", pa.float64()),
+        pa.field("pm10", pa.int64()),
+        pa.field("temp_c", pa.float64()),
+        pa.field("humidity", pa.int64()),
+        pa.field("battery", pa.struct([("voltage", pa.float64()), ("level", pa.int64())])),
+        pa.field("tags", pa.list_(pa.string())),
+        pa.field("firmware", pa.string()),
+        pa.field("ingested_at", pa.timestamp("us", tz="UTC"), nullable=False),
+    ],
+    metadata={"job": "nightly-compaction", "partition": NIGHTLY_FILE.rsplit("/", 1)[0]},
+)
 
 
-def _rollup_file(day: str, readings: list[dict[str, Any]], with_nulls: bool) -> bytes:
-    groups: dict[tuple[datetime, str], list[dict[str, Any]]] = {}
-    for r in readings:
-        if r["day"] != day:
-            continue
-        hour = r["dt"].replace(minute=0, second=0)
-        groups.setdefault((hour, r["region"]), []).append(r)
-    keys = sorted(groups)
-    cols: dict[str, list[Any]] = {
-        "hour": [k[0] for k in keys],
-        "region": [k[1] for k in keys],
-        "station_count": [],
-        "reading_count": [],
-        "pm25_mean": [],
-        "pm10_mean": [],
-        "temp_c_mean": [],
+def _nightly_file(rng: random.Random, readings: list[dict[str, Any]]) -> bytes:
+    """The nightly job's Parquet: late half-hour samples in native types.
+
+    ``ingested_at`` is when the station's buffer reached the landing, one
+    reconnect time per station, always after the sample itself.
+    """
+    reconnect = {
+        index: RECONNECT_FROM
+        + timedelta(minutes=rng.randrange(90), seconds=rng.randrange(60), microseconds=rng.randrange(10**6))
+        for index in LATE_STATIONS
     }
-    if with_nulls:
-        cols["humidity_nulls"] = []
-    for key in keys:
-        rs = groups[key]
-        cols["station_count"].append(len({r["station"]["id"] for r in rs}))
-        cols["reading_count"].append(len(rs))
-        cols["pm25_mean"].append(_mean([r["pm25"] for r in rs if r["pm25"] is not None]))
-        cols["pm10_mean"].append(_mean([r["pm10"] for r in rs]))
-        cols["temp_c_mean"].append(_mean([r["temp_c"] for r in rs if r["temp_c"] is not None]))
-        if with_nulls:
-            cols["humidity_nulls"].append(sum(r["humidity"] is None for r in rs))
-    fields = [
-        pa.field("hour", pa.timestamp("us", tz="UTC"), nullable=False),
-        pa.field("region", pa.string(), nullable=False),
-        pa.field("station_count", pa.int32(), nullable=False),
-        pa.field("reading_count", pa.int32(), nullable=False),
-        pa.field("pm25_mean", pa.decimal128(6, 2)),
-        pa.field("pm10_mean", pa.decimal128(6, 2)),
-        pa.field("temp_c_mean", pa.decimal128(5, 2)),
-    ]
-    if with_nulls:
-        fields.append(pa.field("humidity_nulls", pa.int32(), nullable=False))
-    schema = pa.schema(fields, metadata={"job": "nightly-hourly-rollup", "day": day})
-    table = pa.table(cols, schema=schema)
+    rows = []
+    for r in readings:
+        st, index, dt = r["station"], r["station_index"], r["dt"]
+        humidity = r["humidity"]
+        # the same failed sensors as in the station feed (see HUMIDITY_NULL_FROM)
+        if index in HUMIDITY_NULL_STATIONS and dt >= HUMIDITY_NULL_FROM:
+            humidity = None
+        rows.append(
+            {
+                "station_id": st["id"],
+                "ts": dt,
+                "pm25": r["pm25"],
+                "pm10": round(r["pm25"] * r["pm10_ratio"]),
+                "temp_c": r["temp_c"],
+                "humidity": humidity,
+                "battery": {"voltage": r["voltage"], "level": r["level"]},
+                "tags": list(st["tags"]),
+                "firmware": st["firmware"],
+                "ingested_at": reconnect[index],
+            }
+        )
+    table = pa.Table.from_pylist(rows, schema=NIGHTLY_SCHEMA)
     buf = io.BytesIO()
     pq.write_table(table, buf, **PARQUET_OPTIONS)
     return buf.getvalue()
@@ -407,8 +431,10 @@ def _change(
     }
 
 
-# (change, field, region/day the first occurrence must fall in, predicate, note)
-_JSON_CHANGES: tuple[tuple[str, str, str, Callable[[dict[str, Any]], bool], str], ...] = (
+# (change, field, where the first occurrence must fall (a piece of its path), predicate
+# on a record as a reader gets it back, note).  Checked over every JSON Lines and
+# Parquet record in sorted path order, so no change can show earlier than planned.
+_CHANGES: tuple[tuple[str, str, str, Callable[[dict[str, Any]], bool], str], ...] = (
     (
         "type-conflict",
         "pm25",
@@ -460,19 +486,40 @@ _JSON_CHANGES: tuple[tuple[str, str, str, Callable[[dict[str, Any]], bool], str]
         lambda rec: "humidity" in rec and rec["humidity"] is None,
         "humidity is present but null for three stations whose sensors failed at 12:00 UTC",
     ),
+    (
+        "type-conflict",
+        "ts",
+        NIGHTLY_FILE,
+        lambda rec: isinstance(rec.get("ts"), datetime),
+        "the nightly job writes late readings with ts as a native Parquet timestamp[us, UTC] "
+        "(a string everywhere before)",
+    ),
+    (
+        "field-new",
+        "ingested_at",
+        NIGHTLY_FILE,
+        lambda rec: "ingested_at" in rec,
+        "only the nightly job writes ingested_at, a timestamp[us, UTC] of when each late "
+        "reading reached the landing",
+    ),
 )
 
 
-def _json_changes(
-    jsonl: list[tuple[str, list[dict[str, Any]], dict[str, int] | None]],
-) -> list[dict[str, Any]]:
-    """Find each change's first occurrence in sorted scan order and check it is where planned."""
+Scanned = list[tuple[str, list[dict[str, Any]], dict[str, int] | None, bool]]
+
+
+def _record_changes(scanned: Scanned) -> list[dict[str, Any]]:
+    """Find each change's first occurrence in sorted scan order and check it is where planned.
+
+    ``scanned`` holds (path, records, malformed-line position or None, has lines).
+    """
+    scanned = sorted(scanned, key=lambda item: item[0])
     out = []
-    for change, field, where, pred, note in _JSON_CHANGES:
+    for change, field, where, pred, note in _CHANGES:
         hit = next(
             (
                 (rel, row)
-                for rel, records, _bad in jsonl
+                for rel, records, _bad, _lines in scanned
                 for row, rec in enumerate(records)
                 if pred(rec)
             ),
@@ -481,10 +528,12 @@ def _json_changes(
         if hit is None or where not in hit[0]:
             raise AssertionError(f"{change} {field}: first occurrence {hit}, planned in {where}")
         rel, row = hit
-        bad = next(b for r, _records, b in jsonl if r == rel)
-        line = row + 1 + (1 if bad is not None and bad["line"] <= row + 1 else 0)
+        _rel, _records, bad, has_lines = next(item for item in scanned if item[0] == rel)
+        line = None
+        if has_lines:
+            line = row + 1 + (1 if bad is not None and bad["line"] <= row + 1 else 0)
         out.append(_change(change, field, rel, row, line, None, note))
-    for rel, _records, bad in jsonl:
+    for rel, _records, bad, _lines in scanned:
         if bad is not None:
             out.append(
                 _change(
@@ -518,16 +567,14 @@ def _generate() -> tuple[dict[str, bytes], list[dict[str, Any]], list[dict[str, 
         "readings/_SUCCESS": b"",
     }
     inventory: list[dict[str, Any]] = []
-    truth: list[dict[str, Any]] = []
-    jsonl: list[tuple[str, list[dict[str, Any]], dict[str, int] | None]] = []
+    scanned: Scanned = []
     for region in JSON_REGIONS:
         for day in DAYS:
             rel = f"readings/region={region}/day={day}/part-0000.jsonl.gz"
             readings = _readings(rng, region, day, stations[region])
             data, records, bad = _jsonl_file(rng, readings, (region, day) == MALFORMED_FILE)
             files[rel] = data
-            truth.extend(readings)
-            jsonl.append((rel, records, bad))
+            scanned.append((rel, records, bad, True))
             lines = len(records) + (bad is not None)
             inventory.append(
                 {
@@ -542,7 +589,6 @@ def _generate() -> tuple[dict[str, bytes], list[dict[str, Any]], list[dict[str, 
         rel = f"readings/region=west/day={day}/export.csv"
         readings = _readings(rng, "west", day, stations["west"])
         files[rel] = _csv_file(rng, day, readings)
-        truth.extend(readings)
         inventory.append(
             {
                 "path": rel,
@@ -552,26 +598,20 @@ def _generate() -> tuple[dict[str, bytes], list[dict[str, Any]], list[dict[str, 
                 "errors": 0,
             }
         )
-    for day in ROLLUP_DAYS:
-        rel = f"rollups/day={day}/hourly.parquet"
-        files[rel] = _rollup_file(day, truth, with_nulls=day == ROLLUP_DAYS[-1])
-        rows = pq.read_metadata(io.BytesIO(files[rel])).num_rows
-        inventory.append(
-            {"path": rel, "format": "parquet", "rows": rows, "lines": None, "errors": 0}
-        )
-
-    changes = _json_changes(jsonl)
-    changes.append(
-        _change(
-            "field-new",
-            "humidity_nulls",
-            f"rollups/day={ROLLUP_DAYS[-1]}/hourly.parquet",
-            0,
-            None,
-            None,
-            "the nightly job adds an int32 humidity_nulls column (not in the earlier file)",
-        )
+    # drawn last, so adding the nightly file left every earlier file as it was
+    region, day = NIGHTLY_PARTITION
+    late = _readings(
+        rng, region, day, stations[region], LATE_STATIONS, offset_minutes=LATE_OFFSET_MINUTES
     )
+    files[NIGHTLY_FILE] = _nightly_file(rng, late)
+    # checked as a reader gets it back, native types and all
+    nightly = pq.read_table(io.BytesIO(files[NIGHTLY_FILE])).to_pylist()
+    scanned.append((NIGHTLY_FILE, nightly, None, False))
+    inventory.append(
+        {"path": NIGHTLY_FILE, "format": "parquet", "rows": len(nightly), "lines": None, "errors": 0}
+    )
+
+    changes = _record_changes(scanned)
     changes.sort(key=_sort_key)
     for item in inventory:
         data = files[item["path"]]
@@ -629,9 +669,14 @@ def _summary(root: Path, changes: list[dict[str, Any]]) -> str:
     files = manifest["files"]
     total = sum(item["bytes"] for item in files)
     rows = sum(item["rows"] for item in files)
+    formats: dict[str, int] = {}
+    for item in files:
+        formats[item["format"]] = formats.get(item["format"], 0) + 1
+    kinds = ", ".join(f"{n} {fmt}" for fmt, n in sorted(formats.items()))
     lines = [
-        f"make_demo: {len(files)} data files + {len(manifest['skipped'])} skipped, "
-        f"{rows} rows, {total / 1024:.0f} KiB in {root / 'landing'}",
+        f"make_demo: one dataset, {len(files)} data files ({kinds}) + "
+        f"{len(manifest['skipped'])} skipped, {rows} rows, {total / 1024:.0f} KiB "
+        f"in {root / 'landing'}",
     ]
     for c in changes:
         where = f"row {c['row']}" if c["row"] is not None else f"line {c['line']}"

@@ -20,7 +20,7 @@ def test_scan_demo_prints_summary_and_events(demo_dir: Path):
     res = run("scan", str(demo_dir / "landing"), "--jobs", "1")
     assert res.returncode == 0, res.stderr
     out = res.stdout
-    assert "16 files (2 csv, 12 jsonl, 2 parquet), 4,727 rows" in out
+    assert "15 files (2 csv, 12 jsonl, 1 parquet), 4,694 rows" in out
     assert "type-conflict     pm25: float64 → string" in out
     assert "at readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 90 (line 91)" in out
     assert "unexpected end of data" in out and "line 218" in out

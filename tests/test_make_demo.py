@@ -12,6 +12,7 @@ import hashlib
 import importlib.util
 import json
 import re
+from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
@@ -73,6 +74,24 @@ def _jsonl(landing: Path) -> tuple[list[tuple[str, int, dict[str, Any]]], list[t
     return rows, bad
 
 
+def _records(landing: Path) -> list[tuple[str, int, dict[str, Any]]]:
+    """Every JSON Lines and Parquet record in scan order (sorted relative path)."""
+    json_rows, _bad = _jsonl(landing)
+    by_file: dict[str, list[tuple[str, int, dict[str, Any]]]] = {}
+    for item in json_rows:
+        by_file.setdefault(item[0], []).append(item)
+    for path in landing.rglob("*.parquet"):
+        rel = path.relative_to(landing).as_posix()
+        records = pq.read_table(path).to_pylist()
+        by_file[rel] = [(rel, row, rec) for row, rec in enumerate(records)]
+    return [item for rel in sorted(by_file) for item in by_file[rel]]
+
+
+def _space_utc(text: str) -> datetime:
+    # the south feed's "YYYY-MM-DD HH:MM:SS" is UTC wall clock (see the textclass note)
+    return datetime.strptime(text, "%Y-%m-%d %H:%M:%S").replace(tzinfo=UTC)
+
+
 def _is_int(value: Any) -> bool:
     return isinstance(value, int) and not isinstance(value, bool)
 
@@ -84,13 +103,21 @@ PREDICATES = {
     ("nested-new", "battery.charge_cycles"): lambda r: "charge_cycles" in r["battery"],
     ("nulls-begin", "humidity"): lambda r: "humidity" in r and r["humidity"] is None,
     ("field-gone", "temp_c"): lambda r: "temp_c" not in r,
-    ("textclass-changed", "ts"): lambda r: SPACE_TS.fullmatch(r["ts"]) is not None,
+    ("textclass-changed", "ts"): lambda r: (
+        isinstance(r["ts"], str) and SPACE_TS.fullmatch(r["ts"]) is not None
+    ),
     ("type-widened", "pm10"): lambda r: isinstance(r["pm10"], float),
+    # pyarrow hands a timestamp column back as datetime, a JSON or CSV ts is a str
+    ("type-conflict", "ts"): lambda r: isinstance(r["ts"], datetime),
+    ("field-new", "ingested_at"): lambda r: "ingested_at" in r,
 }
 
 
 def _part(region: str, day: int) -> str:
     return f"readings/region={region}/day=2026-11-{day}/part-0000.jsonl.gz"
+
+
+NIGHTLY = "readings/region=south/day=2026-11-30/part-0001.parquet"
 
 
 EXPECTED = {
@@ -102,7 +129,8 @@ EXPECTED = {
     ("type-widened", "pm10", _part("south", 28)),
     ("textclass-changed", "ts", _part("south", 29)),
     ("nulls-begin", "humidity", _part("south", 30)),
-    ("field-new", "humidity_nulls", "rollups/day=2026-11-30/hourly.parquet"),
+    ("type-conflict", "ts", NIGHTLY),
+    ("field-new", "ingested_at", NIGHTLY),
 }
 
 
@@ -136,6 +164,7 @@ def test_main_prints_summary(tmp_path: Path, capsys: pytest.CaptureFixture[str])
     assert make_demo.main([str(tmp_path / "cli")]) == 0
     out, err = capsys.readouterr()
     assert out == ""
+    assert "one dataset, 15 data files (2 csv, 12 jsonl.gz, 1 parquet) + 2 skipped" in err
     for change in ("type-conflict", "nested-new", "field-gone", "malformed-line"):
         assert change in err
     assert (tmp_path / "cli" / "landing" / "readings" / "_SUCCESS").is_file()
@@ -145,12 +174,18 @@ def test_size_and_layout(demo: dict[str, Any]) -> None:
     landing: Path = demo["landing"]
     files = [p for p in landing.rglob("*") if p.is_file()]
     assert sum(p.stat().st_size for p in files) < 600 * 1024
-    rels = {p.relative_to(landing).as_posix() for p in files}
-    assert {"readings/_SUCCESS", "readings/.staging-note"} <= rels
+    rels = sorted(p.relative_to(landing).as_posix() for p in files)
+    assert {"readings/_SUCCESS", "readings/.staging-note"} <= set(rels)
+    # one dataset: everything under readings/, nothing beside it
+    assert [p.name for p in landing.iterdir()] == ["readings"]
+    assert all(r.startswith("readings/") for r in rels)
     for region in ("east", "north", "south"):
         for day in range(27, 31):
             assert f"readings/region={region}/day=2026-11-{day}/part-0000.jsonl.gz" in rels
     assert any(r.startswith("readings/region=west/") and r.endswith(".csv") for r in rels)
+    # the nightly Parquet is the only one, and sorts right after its partition's JSON file
+    assert [r for r in rels if r.endswith(".parquet")] == [NIGHTLY]
+    assert rels[rels.index(NIGHTLY) - 1] == _part("south", 30)
 
 
 def test_manifest_entries_are_complete_sorted_and_point_at_files(demo: dict[str, Any]) -> None:
@@ -179,11 +214,15 @@ def test_inventory_matches_files(demo: dict[str, Any]) -> None:
         if item["format"] == "jsonl.gz":
             assert item["rows"] == sum(1 for rel, _, _ in rows if rel == item["path"])
             assert item["errors"] == sum(1 for rel, _ in bad if rel == item["path"])
+        elif item["format"] == "parquet":
+            assert item["rows"] == pq.read_metadata(landing / item["path"]).num_rows
+            assert item["lines"] is None and item["errors"] == 0
+    assert sorted({item["format"] for item in manifest["files"]}) == ["csv", "jsonl.gz", "parquet"]
 
 
-def test_json_changes_start_exactly_at_the_recorded_row(demo: dict[str, Any]) -> None:
+def test_changes_start_exactly_at_the_recorded_row(demo: dict[str, Any]) -> None:
     landing: Path = demo["landing"]
-    rows, _bad = _jsonl(landing)
+    rows = _records(landing)
     position = {(rel, row): i for i, (rel, row, _) in enumerate(rows)}
     checked = 0
     for entry in demo["changes"]:
@@ -194,15 +233,19 @@ def test_json_changes_start_exactly_at_the_recorded_row(demo: dict[str, Any]) ->
         assert pred(rows[i][2]), entry
         assert i > 0 and not pred(rows[i - 1][2]), entry  # the row before (maybe previous file)
         assert not any(pred(rec) for _, _, rec in rows[:i]), entry  # nothing earlier at all
-        # the recorded physical line holds that same record
-        with gzip.open(landing / entry["file"], "rt", encoding="utf-8") as fh:
-            lines = fh.read().split("\n")
-        assert json.loads(lines[entry["line"] - 1]) == rows[i][2]
+        if entry["file"].endswith(".parquet"):
+            assert entry["line"] is None, entry  # a columnar file has rows, not lines
+        else:
+            # the recorded physical line holds that same record
+            with gzip.open(landing / entry["file"], "rt", encoding="utf-8") as fh:
+                lines = fh.read().split("\n")
+            assert json.loads(lines[entry["line"] - 1]) == rows[i][2]
         checked += 1
     assert checked == len(PREDICATES)
 
 
 def test_json_changes_have_the_promised_shape(demo: dict[str, Any]) -> None:
+    # the station feed only; the nightly Parquet's own shape is checked below
     rows, _ = _jsonl(demo["landing"])
     start = {(e["change"], e["field"]): (e["file"], e["row"]) for e in demo["changes"]}
     order = {(rel, row): i for i, (rel, row, _) in enumerate(rows)}
@@ -257,26 +300,58 @@ def test_malformed_line_is_the_only_bad_line(demo: dict[str, Any]) -> None:
     assert lines[entry["line"]].startswith(cut)
 
 
-def test_parquet_rollups(demo: dict[str, Any]) -> None:
+def test_nightly_parquet_is_late_readings_in_native_types(demo: dict[str, Any]) -> None:
     landing: Path = demo["landing"]
-    (entry,) = [e for e in demo["changes"] if e["change"] == "field-new"]
-    paths = sorted(p.relative_to(landing).as_posix() for p in landing.rglob("*.parquet"))
-    assert entry["file"] == paths[-1] and len(paths) == 2
-    first, second = (pq.read_table(landing / p) for p in paths)
-    assert entry["field"] not in first.schema.names
-    assert second.schema.names == [*first.schema.names, entry["field"]]
-    assert second.column(entry["field"]).type == pa.int32()
-    assert second.column(entry["field"])[entry["row"]].as_py() is not None
-    for table in (first, second):
-        assert table.schema.field("hour").type == pa.timestamp("us", tz="UTC")
-        assert table.schema.field("pm25_mean").type == pa.decimal128(6, 2)
-        assert table.schema.field("temp_c_mean").type == pa.decimal128(5, 2)
-        assert table.schema.field("station_count").type == pa.int32()
-        assert table.num_rows > 0
-    # temp_c vanished from north on the 30th, so the rollup's mean is null there
-    north = [r for r in second.to_pylist() if r["region"] == "north"]
-    assert north and all(r["temp_c_mean"] is None for r in north)
-    assert sum(second.column(entry["field"]).to_pylist()) > 0
+    pf = pq.ParquetFile(landing / NIGHTLY)
+    # the readings' columns in native Arrow types, read back through pyarrow's own footer
+    utc_us = pa.timestamp("us", tz="UTC")
+    assert [(f.name, f.type) for f in pf.schema_arrow] == [
+        ("station_id", pa.string()),
+        ("ts", utc_us),
+        ("pm25", pa.float64()),
+        ("pm10", pa.int64()),
+        ("temp_c", pa.float64()),
+        ("humidity", pa.int64()),
+        ("battery", pa.struct([("voltage", pa.float64()), ("level", pa.int64())])),
+        ("tags", pa.list_(pa.string())),
+        ("firmware", pa.string()),
+        ("ingested_at", utc_us),
+    ]
+    meta = pf.metadata.row_group(0)
+    assert [meta.column(i).compression for i in range(meta.num_columns)] == ["ZSTD"] * 11
+    late = pf.read().to_pylist()
+    assert 100 <= len(late) <= 200
+    day_start = datetime(2026, 11, 30, tzinfo=UTC)
+    assert all(day_start <= r["ts"] < datetime(2026, 12, 1, tzinfo=UTC) for r in late)
+    assert all(r["ingested_at"] > r["ts"] for r in late)  # late arrivals
+    assert [r["ts"] for r in late] == sorted(r["ts"] for r in late)
+
+    # the same stations as that day's feed, with their tags and firmware, but new samples
+    feed = [rec for rel, _, rec in _jsonl(landing)[0] if rel == _part("south", 30)]
+    by_station = {rec["station_id"]: rec for rec in feed}
+    assert {r["station_id"] for r in late} < set(by_station)
+    for r in late:
+        st = by_station[r["station_id"]]
+        assert (r["tags"], r["firmware"]) == (st["tags"], st["firmware"])
+        assert list(r["battery"]) == ["voltage", "level"] and r["pm25"] > 0
+        assert _is_int(r["pm10"]) and isinstance(r["temp_c"], float)
+    feed_keys = {(rec["station_id"], _space_utc(rec["ts"])) for rec in feed}
+    assert not feed_keys & {(r["station_id"], r["ts"]) for r in late}
+
+    # humidity nulls: the feed's failed sensors, and only after their failure there
+    failed = {rec["station_id"] for rec in feed if rec["humidity"] is None}
+    assert failed and {r["station_id"] for r in late if r["humidity"] is None} == failed
+    for sid in failed:
+        times = [(_space_utc(rec["ts"]), rec["humidity"]) for rec in feed if rec["station_id"] == sid]
+        last_ok = max(t for t, h in times if h is not None)
+        first_null = min(t for t, h in times if h is None)
+        assert last_ok < first_null
+        for r in late:
+            if r["station_id"] == sid and r["ts"] < last_ok:
+                assert _is_int(r["humidity"]), r
+            elif r["station_id"] == sid and r["ts"] > first_null:
+                assert r["humidity"] is None, r
+    assert all(_is_int(r["humidity"]) for r in late if r["station_id"] not in failed)
 
 
 def test_legacy_csv_export(demo: dict[str, Any]) -> None:
