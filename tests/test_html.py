@@ -353,3 +353,34 @@ def test_cli_scan_writes_the_html_report(tmp_path: Path) -> None:
     assert res.exit_code == 0 and res.stdout.startswith("<!DOCTYPE html>") and res.stdout.rstrip().endswith("</html>")
     res = CliRunner().invoke(app, ["scan", str(d), "--html", "-", "--json", "-", "--jobs", "1"])
     assert res.exit_code == 2 and "only one of --json and --html" in res.output
+
+
+# -- the recommender's column ----------------------------------------------------------------------
+
+def test_recommended_rule_and_measured_loss_are_shown(demo: dict[str, Any]) -> None:
+    import gzip
+
+    # Count the demo's JSON "n/a" strings in pm25 ourselves (the manifest: "a few as "n/a"").
+    n_a = 0
+    for path in sorted((demo["root"] / "landing").rglob("*.jsonl.gz")):
+        with gzip.open(path, "rt", encoding="utf-8") as fh:
+            for line in fh:
+                try:
+                    n_a += json.loads(line).get("pm25") == "n/a"
+                except json.JSONDecodeError:
+                    continue
+    assert n_a > 0
+    row = re.search(r'<tr data-item data-name="pm25".*?</tr>', demo["page"], re.S)
+    assert row is not None
+    cell = Page(row.group(0))
+    text = " ".join(" ".join(cell.text).split())
+    assert "float64" in text and "parse_float" in text
+    assert re.search(rf"\b{n_a} of [\d,]+ \([\d.<]+%\) become null \(null_token\)", text), text
+
+
+def test_report_works_without_the_recommender(demo: dict[str, Any], monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setitem(sys.modules, "driftline.recommend", None)  # import now raises ImportError
+    page = html_report.render_html(demo["profile"])
+    assert "recommended type, cast rule, loss" not in page
+    assert "appear here once driftline's recommender is installed" in page
+    assert html_report.field_rules(demo["profile"]) is None

@@ -161,3 +161,31 @@ def test_failing_server_is_a_clear_error() -> None:
         port = sock.getsockname()[1]
     with pytest.raises(InputPathError, match=r"^cannot list s3://lake/landing: "):
         scan_paths(["s3://lake/landing/"], storage=StorageOptions(endpoint_url=f"http://127.0.0.1:{port}", retries=2))
+
+
+@pytest.mark.parametrize("engine", ["local", "dask"])
+def test_cli_s3_scan_matches_local_report(s3: Server, demo_dir: Path, tmp_path: Path, engine: str) -> None:
+    import json
+    import subprocess
+    import sys
+
+    if engine == "dask" and not os.environ.get("CI"):
+        pytest.importorskip("distributed")
+
+    def run(*args: str) -> dict[str, Any]:
+        out = tmp_path / "r.json"
+        proc = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", *args, "--where", "day>=2026-11-29",
+                               "--json", str(out), "-j", "2"], capture_output=True, text=True, timeout=120)
+        assert proc.returncode == 0, proc.stderr
+        assert SECRET not in proc.stdout + proc.stderr
+        report = json.loads(out.read_text())
+        report.pop("duration_s", None)
+        report.pop("root")
+        for f in report["files"]:
+            f.pop("mtime_ns", None)
+        return report
+
+    remote = run(f"s3://{BUCKET}/landing/", "--endpoint-url", s3.url, "--engine", engine)
+    local = run(str(demo_dir / "landing"))
+    assert remote == local
+    assert {f["partitions"]["day"] for f in remote["files"]} == {"2026-11-29", "2026-11-30"}

@@ -25,6 +25,7 @@ from driftline.sources.base import (
     DEFAULT_MAX_RECORD_BYTES,
     ReadOptions,
 )
+from driftline.sources.remote import StorageOptions
 
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
@@ -94,13 +95,18 @@ def scan_command(
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option("local", "--engine", help="Where files are read: local (processes) or dask (a cluster; install driftline[dask])."),
     scheduler: str | None = typer.Option(None, "--scheduler", metavar="ADDRESS", help="dask scheduler, e.g. tcp://10.0.0.5:8786; without it --engine dask starts --jobs workers on 127.0.0.1."),
+    where: list[str] = typer.Option([], "--where", metavar="KEY OP VALUE", help="Only key=value partitions that pass, e.g. 'day>=2026-11-01' (repeatable; s3:// listing is pruned by it)."),
+    endpoint_url: str | None = typer.Option(None, "--endpoint-url", metavar="URL", help="S3-compatible endpoint for s3:// inputs (else AWS_ENDPOINT_URL)."),
+    region: str | None = typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
+    anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
 ) -> None:
     opts = ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
                        max_decompressed_bytes=max_decompressed_bytes, max_decompression_ratio=max_decompression_ratio)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         profile = scan_paths(paths, read=opts, include=include, exclude=exclude, include_hidden=hidden,
-                             jobs=jobs, max_errors=max_errors, progress=bar, engine=engine, scheduler=scheduler)
+                             jobs=jobs, max_errors=max_errors, progress=bar, engine=engine, scheduler=scheduler,
+                             where=where, storage=StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous))
     finally:
         bar.close()
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):

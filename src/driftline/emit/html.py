@@ -49,6 +49,7 @@ class FieldRule:
 
     type: str
     rule: str
+    does: str
     loss: str
     lost: int  # values the rule nulls or changes (for sorting)
 
@@ -120,23 +121,30 @@ def field_rules(profile: Profile) -> dict[str, FieldRule] | None:
         return None
     rec = recommend(profile)
     out = {p.path: _rule(p) for p in rec.walk()}
-    for d in getattr(rec, "dropped", ()):
-        out[d.path] = FieldRule("–", "left out", f"present in {svg.pct(d.present, d.container)} of rows", d.present)
+    for d in rec.dropped:
+        out[d.path] = FieldRule("–", "left out", "too rare for the schema",
+                                f"present in {svg.pct(d.present, d.container)} of the places it could be", d.present)
     return out
 
 
 def _rule(plan: Any) -> FieldRule:
-    """One FieldPlan as text: effects that count values first, notes after."""
-    bits, lost = [], 0
+    """One FieldPlan as text: what its effects null or change, out of how many values; notes after.
+
+    plan is a driftline.recommend.FieldPlan (typed Any so this module imports without it).
+    """
+    values = sum(plan.inputs.values())
+    bits, notes, lost = [], [], 0
     for eff in plan.effects:
         if eff.kind == "note":
+            notes.append(f"{eff.count:,} {eff.cause}" + (f": {eff.note}" if eff.note else ""))
             continue
         lost += eff.count
         verb = "become null" if eff.kind == "null" else "change"
-        approx = "" if eff.exact else " (not counted exactly)"
-        bits.append(f"{eff.count:,} {verb}: {eff.cause}{approx}")
-    loss = "; ".join(bits) if bits else "no value lost or changed"
-    return FieldRule(plan.target.key(), f"{plan.rule}: {plan.does}" if plan.does else plan.rule, loss, lost)
+        share = f" of {values:,} ({svg.pct(eff.count, values)})" if values else ""
+        approx = "" if eff.exact else " at least" + (f" ({eff.note})" if eff.note else "")
+        bits.append(f"{eff.count:,}{share} {verb} ({eff.cause}){approx}")
+    loss = "; ".join(bits + notes) if bits or notes else "no value lost or changed"
+    return FieldRule(plan.target.key(), plan.rule, plan.does, loss, lost)
 
 
 def _summary_counts(s: FieldSummary) -> hd.Counts:

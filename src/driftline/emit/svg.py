@@ -255,10 +255,11 @@ def _axis(bks: Sequence[Bucket], xs: Sequence[float], bottom: float) -> str:
     # Leading folders every group shares say nothing: 'events/region=r01' shows as 'region=r01'.
     common = _common_folders([g for _, _, g in runs])
     runs = [(a, b, g[common:] or g) for a, b, g in runs]
-    # ... and so does one partition key over all of them: 'region=r01' shows as 'r01'.
+    # ... and so does one partition key over all of them: 'region=r01' shows as 'r01'
+    # after the first group, which keeps 'region=r00' to say what the values are.
     keys = {g.split("=", 1)[0] if "=" in g and "/" not in g else None for _, _, g in runs}
     if len(runs) > 1 and len(keys) == 1 and None not in keys:
-        runs = [(a, b, g.split("=", 1)[1]) for a, b, g in runs]
+        runs = runs[:1] + [(a, b, g.split("=", 1)[1]) for a, b, g in runs[1:]]
     rules = "".join(f"M{xs[a]:.1f} {PLOT_TOP}V{bottom + 32}" for a, _, _ in runs[1:])
     labels = "".join(
         f'<text x="{xs[a] + 4:.1f}" y="{bottom + 30}">{esc(g, max(4, int((xs[b] - xs[a]) / 6.5)))}</text>'
