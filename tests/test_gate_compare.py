@@ -229,3 +229,76 @@ def test_range_reports_the_extreme(tmp_path):
     v = compare(driftline.scan(tmp_path / "d"), baseline_from_json_schema(schema))
     got = [(x.change, x.file, x.example, x.files) for x in v.violations]
     assert got == [("below the minimum 0", "a.jsonl", "-3", 1), ("above the maximum 100", "b.jsonl", "180", 2)]
+
+
+# source: REFERENCES.md §5 — pyarrow 26.0.1 pc.cast from string (safe), and the RFC 3339 list of §1.
+CAST_CASES = {
+    "int64": ["42", "-42", "007", "+42", " 42", "4.0", "1e3", "9223372036854775808", "", "n/a"],
+    "timestamp[us, UTC]": ["1985-04-12T23:20:50.52Z", "1996-12-19T16:39:57-08:00", "1937-01-01T12:00:27.87+00:20",
+                           "1985-04-12T23:20:50+0800", "1985-04-12T23:20:50+08", "1985-04-12 23:20:50Z",
+                           "1985-04-12T23:20:50", "1985-04-12", "1985-04-12T24:00:00Z", "19850412T232050Z",
+                           "yesterday"],
+}
+# Where the gate and a bare pc.cast differ, and why (each value alone in its own row):
+CAST_DIFFERENCES = {
+    "0x1F": ("int64", "pc.cast reads hex (31); the gate counts it lost: its content class is text"),
+    "9223372036854775807": ("int64", "pc.cast takes int64's maximum; the scan classes 19-digit numbers as "
+                                     "decimal, so the gate counts it lost (conservative)"),
+    "1990-12-31T23:59:60Z": ("timestamp[us, UTC]", "pc.cast rejects leap seconds; the parse rule turns :60 "
+                                                   "into :59 (a change, not a loss: recommend/plan.py CAUSES)"),
+    "1985-04-12t23:20:50z": ("timestamp[us, UTC]", "pc.cast rejects lower-case t/z; the parse rule upper-cases "
+                                                   "them first (RFC 3339 §5.6 allows them)"),
+}
+
+
+@pytest.mark.parametrize("target", list(CAST_CASES))
+def test_cast_loss_agrees_with_pyarrow_casts(tmp_path, target):
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    from driftline.lattice import to_arrow
+
+    values = CAST_CASES[target] + [v for v, (t, _) in CAST_DIFFERENCES.items() if t == target]
+    rule = "parse_integer" if target == "int64" else "parse_timestamp"
+    schema = {"type": "object", "properties": {"v": {"x-driftline": {"arrow": target, "rule": rule}}}}
+    _write(tmp_path / "d", "a.jsonl", [{"v": v} for v in values])
+    v = compare(driftline.scan(tmp_path / "d"), baseline_from_json_schema(schema))
+    lost = sum(x.count for x in (*v.violations, *v.allowed) if x.rule == "cast_loss")
+
+    def casts(value: str) -> bool:
+        try:
+            pc.cast(pa.array([value]), to_arrow(parse_key(target)))
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            return False
+        return True
+
+    by_pyarrow = sum(not casts(x) for x in CAST_CASES[target])
+    assert by_pyarrow == {"int64": 7, "timestamp[us, UTC]": 5}[target]  # the published behaviour
+    extra = sum(1 for x, (t, _) in CAST_DIFFERENCES.items() if t == target and casts(x))  # we count these lost
+    assert lost == by_pyarrow + extra
+
+
+def test_rules_from_a_recommendation(tmp_path):
+    # The recommender (recommend/rules.py) plans day 1; its rules are the baseline of day 2.
+    from driftline.gate.baseline import baseline_from_recommendation
+
+    _write(tmp_path / "a", "x.jsonl", [
+        {"tags": ["a"], "odd": 1, "at": "2026-11-29T10:00:00Z", "n": "12"},
+        {"tags": "b", "odd": {"k": 1}, "at": "2026-11-29T11:00:00+01:00", "n": 7}])
+    rec = driftline.scan(tmp_path / "a").recommend()
+    base = baseline_from_recommendation(rec)
+    assert {p: (e.rule, e.type.key()) for p, e in base.fields.items()} == {
+        "at": ("parse_timestamp", "timestamp[us, UTC]"), "n": ("parse_integer", "int64"),
+        "odd": ("keep_as_json_text", "string"), "tags": ("wrap_scalar_in_list", "list<string>"),
+        "tags[]": ("identity", "string")}
+    _write(tmp_path / "b", "x.jsonl", [
+        {"tags": "c", "odd": [1], "at": "yesterday", "n": "x"},
+        {"tags": 5, "odd": "s", "at": "2026-11-29 10:00:00Z", "n": "n/a"}])
+    v = compare(driftline.scan(tmp_path / "b"), base)
+    # "c" is wrapped into a list of strings, 5 is not a string; odd is kept as JSON text whatever
+    # it holds; "yesterday" does not parse as a timestamp, "x" and "n/a" not as integers.
+    assert [(x.rule, x.field, x.change, x.count, x.example) for x in (*v.violations, *v.warnings)] == [
+        ("type_change", "tags", "list → int64", 1, "5"),
+        ("cast_loss", "at", "cast rule parse_timestamp: string → timestamp[us, UTC]", 1, '"yesterday"'),
+        ("cast_loss", "n", "cast rule parse_integer: string → int64", 2, '"x"'),
+    ]

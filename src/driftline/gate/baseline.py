@@ -22,7 +22,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import orjson
 
@@ -30,6 +30,9 @@ from driftline.errors import InputPathError, ReportVersionError, UnreadableFileE
 from driftline.lattice import NULL, UNKNOWN, DType, join_all, parse_key
 from driftline.observe import paths
 from driftline.profile import Profile
+
+if TYPE_CHECKING:
+    from driftline.recommend.plan import Recommendation
 
 # String content classes a JSON Schema format allows (observe/textclass.py names them).
 FORMAT_CLASSES: dict[str, frozenset[str]] = {
@@ -286,6 +289,25 @@ def baseline_from_profile(profile: Profile, *, source: str = "report") -> Baseli
             null_share=(st.nulls + s.absent) / s.container if s.container else None,
         )
     return Baseline("report", source, out)
+
+
+# -- a recommendation (what a cast-rules file records) -------------------------------------
+
+def baseline_from_recommendation(rec: Recommendation, *, source: str = "recommendation") -> Baseline:
+    """Each planned field path with its target type, nullability, presence and cast rule.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"t": "2026-11-29T10:00:00Z"}\\n')
+    >>> e = baseline_from_recommendation(driftline.scan(d).recommend()).fields["t"]
+    >>> e.type.key(), e.rule, e.required, e.nullable
+    ('timestamp[us, UTC]', 'parse_timestamp', True, False)
+    """
+    out: dict[str, Expected] = {}
+    for plan in rec.walk():
+        t = plan.target
+        out[plan.path] = Expected(plan.path, t.with_nullable(False) if t.name != "null" else t, t.nullable,
+                                  plan.required, open=False, rule=plan.rule)
+    return Baseline("rules", source, out)
 
 
 # -- loading -----------------------------------------------------------------------------

@@ -25,8 +25,24 @@ from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
 from driftline.observe.stats import Example, FieldStats
 from driftline.profile import Profile, container_count
 
-# Cast rules that apply no cast: raw values must already have the agreed type.
-NO_CAST_RULES = frozenset({"identity"})
+# What a cast rule (recommend/rules.py names them) lets into its target besides values that
+# already fit: parse_* rules parse strings (judged by content class, as cast_loss); these
+# write any value as text; wrap_scalar_in_list wraps scalars that fit the list's item type.
+# Every other rule (identity, merge_struct, widen_*, map_null_tokens) casts no kind into another.
+TEXT_RULES = frozenset({"format_as_string", "keep_as_json_text"})
+WRAP_RULE = "wrap_scalar_in_list"
+
+
+def parses_strings(rule: str | None) -> bool:
+    """True for the rules that parse strings into the target type (parse_integer, ...)."""
+    return rule is not None and rule.startswith("parse_")
+
+
+def _wrapped(key: str, exp: Expected) -> bool:
+    """A scalar the wrap rule turns into a one-element list of the agreed item type."""
+    t = exp.type
+    return (exp.rule == WRAP_RULE and t is not None and t.name == "list" and t.item is not None
+            and key not in ("list", "struct", "map") and fits(type_of_key(key), shallow(t.item)))
 
 
 # -- type relations --------------------------------------------------------------------
@@ -78,7 +94,8 @@ class _Tally:
         self.count += n
         if file:
             self.files.add(file)
-        if self.file is None:  # the walk is in scan order: the first one seen is the earliest
+        # The walk is in scan order, but one batch may add several classes: keep the earliest.
+        if self.file is None or ex is not None and self.first is not None and ex < self.first:
             self.file, self.first, self.row = file, ex, ex.row if ex is not None else row
 
 
@@ -133,11 +150,12 @@ def check_types(w: _Walk, out: _Findings) -> None:
             if exp is None or exp.type is None or not st.types:
                 continue
             b = shallow(exp.type)
-            casting = exp.rule is not None and exp.rule not in NO_CAST_RULES
-            text_fits = st.text and _has_string(b)  # CSV cells are text: a string column takes any
+            casting = parses_strings(exp.rule)
+            # CSV cells are text: a string column takes any; text rules write any value as text.
+            any_fits = st.text and _has_string(b) or exp.rule in TEXT_RULES
             for key, n in st.types.items():
                 t = type_of_key(key)
-                if text_fits or fits(t, b):
+                if any_fits or fits(t, b) or _wrapped(key, exp):
                     continue
                 if key == "string" and casting:
                     continue  # the rule parses strings: judged by content class below
@@ -177,7 +195,8 @@ def _parent_known(w: _Walk, path: str) -> bool:
     if parent is None:
         return True
     pexp = w.expected(parent)
-    return pexp is not None and not pexp.open
+    # A text rule writes the whole value as text, so its children are no fields of their own.
+    return pexp is not None and not pexp.open and pexp.rule not in TEXT_RULES
 
 
 def check_fields(w: _Walk, out: _Findings) -> None:
@@ -234,7 +253,7 @@ def check_content(w: _Walk, out: _Findings) -> None:
             if exp is None or exp.classes is None or not st.classes:
                 continue
             b = shallow(exp.type) if exp.type is not None else None
-            casting = exp.rule is not None and exp.rule not in NO_CAST_RULES
+            casting = parses_strings(exp.rule)
             for cls, n in st.classes.items():
                 if cls in NULL_CLASSES or cls in exp.classes:
                     continue
