@@ -1,0 +1,342 @@
+"""Raw data as Arrow, for apply(): every column a *variant*, a struct with one child per kind.
+
+A JSON field that holds 12.5 in one record and "n/a" in the next has no Arrow type; as a
+variant it is ``struct<float64: double, string: string>`` with one child set per row (a
+null row sets none). Typed columns (Parquet) become a variant of one child, named by
+their type key; CSV cells become the child ``text``, blank cells null. Struct values hold
+variants of their fields, lists hold variants. apply() casts variants with
+pyarrow.compute; loading them is the only per-value Python, and it does no casting.
+
+iter_records() gives the same data as JSON values (what a JSON Schema validates):
+JSON records as parsed, CSV cells as the scan reads them (by content class), Parquet
+rows with temporal values as RFC 3339 / ISO 8601 text.
+"""
+
+from __future__ import annotations
+
+import base64
+import csv
+import datetime as dt
+import decimal
+import io
+import os
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import orjson
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.csv as pcsv
+import pyarrow.parquet as pq
+
+from driftline.lattice import from_arrow
+from driftline.observe import paths
+from driftline.observe.observation import TEXT_CLASS_TYPE
+from driftline.observe.textclass import class_of
+from driftline.sources.csvfile import sniff_delimiter
+from driftline.sources.discover import FileRef, discover
+from driftline.sources.formats import open_stream
+
+TEXT = "text"  # the variant child of CSV cells
+_INT64 = (-(2**63), 2**63 - 1)
+_SCALAR_TYPES: dict[str, pa.DataType] = {
+    "bool": pa.bool_(), "int64": pa.int64(), "uint64": pa.uint64(), "float64": pa.float64(),
+    "string": pa.string(), TEXT: pa.string(),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class RawBatch:
+    """One batch of one file: rows row_start .. row_start + num_rows - 1 of file (relative path)."""
+
+    file: str
+    row_start: int
+    batch: pa.RecordBatch
+
+
+# -- JSON values to variants ----------------------------------------------------------------
+
+def _kind(v: Any) -> str:
+    t = type(v)
+    if t is bool:
+        return "bool"
+    if t is int:
+        return "int64" if _INT64[0] <= v <= _INT64[1] else "uint64"
+    if t is float:
+        return "float64"
+    if t is dict:
+        return "struct"
+    if t is list:
+        return "list"
+    return "string"
+
+
+def variant_value(v: Any) -> dict[str, Any] | None:
+    """A JSON value as a variant row: {kind: value}, nested values as variants.
+
+    >>> variant_value({"a": [1, "x"]})
+    {'struct': {'a': {'list': [{'int64': 1}, {'string': 'x'}]}}}
+    """
+    if v is None:
+        return None
+    kind = _kind(v)
+    if kind == "struct":
+        return {kind: {name: variant_value(sub) for name, sub in v.items()}}
+    if kind == "list":
+        return {kind: [variant_value(sub) for sub in v]}
+    return {kind: v if kind != "string" or type(v) is str else str(v)}
+
+
+class _Shape:
+    """The kinds seen at one place of nested variants, to build their Arrow type."""
+
+    __slots__ = ("kinds", "fields", "item")
+
+    def __init__(self) -> None:
+        self.kinds: set[str] = set()
+        self.fields: dict[str, _Shape] = {}
+        self.item: _Shape | None = None
+
+    def add(self, v: dict[str, Any] | None) -> None:
+        if v is None:
+            return
+        for kind, sub in v.items():
+            self.kinds.add(kind)
+            if kind == "struct":
+                for name, child in sub.items():
+                    self.fields.setdefault(name, _Shape()).add(child)
+            elif kind == "list":
+                self.item = self.item or _Shape()
+                for child in sub:
+                    self.item.add(child)
+
+    def arrow(self) -> pa.DataType:
+        children = []
+        for kind in sorted(self.kinds):
+            if kind == "struct":
+                t: pa.DataType = pa.struct([(n, s.arrow()) for n, s in self.fields.items()])
+            elif kind == "list":
+                t = pa.list_((self.item or _Shape()).arrow())
+            else:
+                t = _SCALAR_TYPES[kind]
+            children.append((kind, t))
+        return pa.struct(children)
+
+
+def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
+    """Parsed JSON records as a batch of variant columns ('$' for records that are not objects).
+
+    >>> records_to_batch([{"x": 1.5}, {"x": "n/a"}]).column("x").to_pylist()
+    [{'float64': 1.5, 'string': None}, {'float64': None, 'string': 'n/a'}]
+    """
+    names: dict[str, None] = {}
+    for rec in records:
+        for name in rec if type(rec) is dict else (paths.ROOT,):
+            names[name] = None
+    columns, fields = [], []
+    for name in names:
+        values = [variant_value(rec.get(name) if type(rec) is dict else
+                                (rec if name == paths.ROOT else None)) for rec in records]
+        shape = _Shape()
+        for v in values:
+            shape.add(v)
+        t = shape.arrow()
+        columns.append(pa.array(values, type=t))
+        fields.append(pa.field(name, t))
+    return pa.RecordBatch.from_arrays(columns, schema=pa.schema(fields)) if fields else \
+        pa.RecordBatch.from_pydict({})
+
+
+# -- Arrow arrays to variants ---------------------------------------------------------------
+
+def _plain(arr: pa.Array) -> pa.Array:
+    """Encodings unwrapped and wide layouts narrowed, so that compute kernels take them."""
+    t = arr.type
+    if pa.types.is_dictionary(t):
+        return _plain(arr.dictionary_decode())
+    if isinstance(t, pa.BaseExtensionType):
+        return _plain(arr.storage)
+    if pa.types.is_run_end_encoded(t):
+        return _plain(arr.cast(t.value_type))
+    if pa.types.is_large_string(t) or pa.types.is_string_view(t):
+        return arr.cast(pa.string())
+    if pa.types.is_large_binary(t) or pa.types.is_binary_view(t) or pa.types.is_fixed_size_binary(t):
+        return arr.cast(pa.binary())
+    if pa.types.is_large_list(t) or pa.types.is_fixed_size_list(t) or pa.types.is_list_view(t) \
+            or pa.types.is_large_list_view(t):
+        return arr.cast(pa.list_(t.value_field))
+    return arr
+
+
+def _mask(arr: pa.Array) -> pa.Array | None:
+    return pc.is_null(arr) if arr.null_count else None
+
+
+def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.StructArray:
+    """A typed Arrow column as a variant of one child; with text, CSV cells (blank → null).
+
+    >>> as_variant(pa.array([1, None], pa.int32())).to_pylist()
+    [{'int32': 1}, None]
+    """
+    if isinstance(arr, pa.ChunkedArray):
+        arr = arr.combine_chunks() if arr.num_chunks else pa.array([], arr.type)
+    arr = _plain(arr)
+    if pa.types.is_null(arr.type):
+        return pa.StructArray.from_arrays([], fields=[], mask=pa.repeat(True, len(arr)))
+    if text:
+        blank = pc.equal(pc.utf8_length(pc.utf8_trim_whitespace(arr)), 0)
+        cells = pc.if_else(pc.fill_null(blank, True), pa.nulls(len(arr), pa.string()), arr)
+        return pa.StructArray.from_arrays([cells], names=[TEXT], mask=pc.is_null(cells))
+    t = arr.type
+    if pa.types.is_struct(t):
+        kids = [as_variant(arr.field(i)) for i in range(t.num_fields)]
+        inner: pa.Array = pa.StructArray.from_arrays(kids, names=[t.field(i).name for i in range(t.num_fields)],
+                                                     mask=_mask(arr))
+        key = "struct"
+    elif pa.types.is_map(t):
+        inner = pa.MapArray.from_arrays(arr.offsets, as_variant(arr.keys), as_variant(arr.items), mask=_mask(arr))
+        key = "map"
+    elif pa.types.is_list(t):
+        inner = pa.ListArray.from_arrays(arr.offsets, as_variant(arr.values), mask=_mask(arr))
+        key = "list"
+    else:
+        inner, key = arr, from_arrow(t).shallow_key()
+    return pa.StructArray.from_arrays([inner], names=[key], mask=_mask(arr))
+
+
+# -- files ----------------------------------------------------------------------------------
+
+def _json_records(ref: FileRef) -> Iterator[Any]:
+    """Valid records in scan order (a line that does not parse is skipped, as the scan does)."""
+    with open_stream(ref.path, ref.compression, limit=None) as stream:
+        data = stream.read()
+    if data.startswith(b"\xef\xbb\xbf"):
+        data = data[3:]
+    if ref.format == "json":
+        try:
+            doc = orjson.loads(data)
+        except orjson.JSONDecodeError:
+            doc = None
+        if doc is not None or not data.strip():
+            yield from doc if isinstance(doc, list) else ([] if doc is None else [doc])
+            return
+    for line in data.split(b"\n"):
+        line = line.removesuffix(b"\r")
+        if line.strip():
+            try:
+                yield orjson.loads(line)
+            except orjson.JSONDecodeError:
+                continue
+
+
+def _csv_names(head: bytes, delimiter: str) -> list[str]:
+    # The scan's header rules: the first row, a BOM ignored, repeated names numbered name_2.
+    text = head.decode("utf-8", "replace").lstrip("\ufeff")
+    names = next(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter), [])
+    seen: dict[str, int] = {}
+    out = []
+    for name in names:
+        seen[name] = seen.get(name, 0) + 1
+        out.append(name if seen[name] == 1 else f"{name}_{seen[name]}")
+    return out
+
+
+def _csv_tables(ref: FileRef, batch_rows: int) -> Iterator[pa.Table]:
+    with open_stream(ref.path, ref.compression, limit=None) as stream:
+        data = stream.read()
+    head = data[: 64 * 1024]
+    delimiter = "\t" if ref.format == "tsv" else sniff_delimiter(head)
+    names = _csv_names(head, delimiter)
+    if not names:
+        return
+    table = pcsv.read_csv(
+        io.BytesIO(data.removeprefix(b"\xef\xbb\xbf")),
+        read_options=pcsv.ReadOptions(use_threads=False, column_names=names, skip_rows=1),
+        parse_options=pcsv.ParseOptions(delimiter=delimiter, newlines_in_values=True,
+                                        invalid_row_handler=lambda row: "skip"),
+        convert_options=pcsv.ConvertOptions(column_types={n: pa.string() for n in names},
+                                            strings_can_be_null=False, quoted_strings_can_be_null=False),
+    )
+    for start in range(0, table.num_rows, batch_rows):
+        yield table.slice(start, batch_rows)
+
+
+def _batches(ref: FileRef, batch_rows: int) -> Iterator[pa.RecordBatch]:
+    if ref.format in ("json", "jsonl"):
+        records = list(_json_records(ref))
+        for start in range(0, len(records), batch_rows):
+            yield records_to_batch(records[start:start + batch_rows])
+    elif ref.format in ("csv", "tsv"):
+        for t in _csv_tables(ref, batch_rows):
+            cols = [as_variant(c, text=True) for c in t.columns]
+            yield pa.RecordBatch.from_arrays(cols, names=t.column_names)
+    else:
+        for rb in pq.ParquetFile(ref.path).iter_batches(batch_size=batch_rows, use_threads=False):
+            yield pa.RecordBatch.from_arrays([as_variant(c) for c in rb.columns], names=rb.schema.names)
+
+
+def raw_batches(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str]], *,
+                batch_rows: int = 65_536) -> Iterator[RawBatch]:
+    """Every file under paths (as the scan discovers them), batch by batch, as variants."""
+    found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
+    for ref in found.files:
+        row = 0
+        for rb in _batches(ref, batch_rows):
+            yield RawBatch(ref.rel, row, rb)
+            row += rb.num_rows
+
+
+# -- JSON values ----------------------------------------------------------------------------
+
+def cell_value(cell: str) -> Any:
+    """A CSV cell as the scan reads it: by its content class (observe.TEXT_CLASS_TYPE).
+
+    >>> [cell_value(c) for c in ("7", "2.50", "TRUE", "", "n/a", "2026-11-29")]
+    [7, 2.5, True, None, None, '2026-11-29']
+    """
+    kind = TEXT_CLASS_TYPE[class_of(cell)]
+    if kind is None:
+        return None
+    if kind == "int64":
+        return int(cell)
+    if kind == "float64":
+        return float(cell)
+    if kind == "bool":
+        return cell.lower() == "true"
+    return cell
+
+
+def json_value(v: Any) -> Any:
+    """An Arrow value (as_py) as JSON data: temporal values as ISO 8601 text, bytes as base64."""
+    if isinstance(v, dict):
+        return {k: json_value(x) for k, x in v.items()}
+    if isinstance(v, list | tuple):
+        return [json_value(x) for x in v]
+    if isinstance(v, dt.datetime | dt.date | dt.time):
+        return v.isoformat()
+    if isinstance(v, dt.timedelta):
+        return v // dt.timedelta(microseconds=1)
+    if isinstance(v, bytes):
+        return base64.b64encode(v).decode("ascii")
+    if isinstance(v, decimal.Decimal | bool | int | float | str) or v is None:
+        return v
+    return str(v)
+
+
+def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str]]) -> Iterator[tuple[str, int, Any]]:
+    """(file, row, record) for every record, as JSON data (see the module docstring)."""
+    found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
+    for ref in found.files:
+        if ref.format in ("json", "jsonl"):
+            for row, rec in enumerate(_json_records(ref)):
+                yield ref.rel, row, rec
+        elif ref.format in ("csv", "tsv"):
+            row = 0
+            for t in _csv_tables(ref, 65_536):
+                for rec in t.to_pylist():
+                    yield ref.rel, row, {k: cell_value(v) for k, v in rec.items()}
+                    row += 1
+        else:
+            for row, rec in enumerate(pq.read_table(ref.path).to_pylist()):
+                yield ref.rel, row, json_value(rec)
