@@ -16,7 +16,7 @@ import pyarrow as pa
 from driftline.observe import paths
 from driftline.observe.observation import Observation
 from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
-from driftline.observe.textclass import classify, class_masks
+from driftline.observe.textclass import class_masks, classify
 
 MAX_DEPTH = 2_000  # orjson stops at 1,024 levels; this guards values built elsewhere
 SAFE_INT = 2**53 - 1  # RFC 7493 §2.2 / IEEE 754 binary64: larger magnitudes are not exact
@@ -136,8 +136,12 @@ def observe_records(
     batch: int,
     row_start: int,
     lines: Sequence[int] | None = None,
+    rows: Sequence[int] | None = None,
 ) -> Observation:
     """Observe parsed JSON values, one per row. Objects give their fields; anything else is '$'.
+
+    lines holds each record's line; rows, when given, each record's row within the batch
+    (for a walk over some of a batch's records), else records are rows 0, 1, 2, ...
 
     >>> obs = observe_records([{"a": 1}, {"a": "x"}, {}], file="f.jsonl", batch=0, row_start=0)
     >>> obs.fields["a"].types, obs.rows
@@ -150,18 +154,24 @@ def observe_records(
                 _walk(sub, paths.child(None, name), i, accs, 1)
         else:
             _walk(rec, paths.ROOT, i, accs, 0)
-    fields = {p: _finish(acc, file, row_start, lines) for p, acc in sorted(accs.items())}
+    where = _Where(file, row_start, lines, rows)
+    fields = {p: _finish(acc, where) for p, acc in sorted(accs.items())}
     return Observation(file=file, batch=batch, row_start=row_start, rows=len(records), fields=fields)
 
 
-def _example(file: str, row_start: int, lines: Sequence[int] | None, i: int, value: Any) -> Example:
-    return Example(file, row_start + i, lines[i] if lines is not None else None, value_text(value))
+class _Where:
+    __slots__ = ("file", "row_start", "lines", "rows")
+
+    def __init__(self, file: str, row_start: int, lines: Sequence[int] | None, rows: Sequence[int] | None) -> None:
+        self.file, self.row_start, self.lines, self.rows = file, row_start, lines, rows
+
+    def example(self, i: int, value: Any) -> Example:
+        row = self.row_start + (self.rows[i] if self.rows is not None else i)
+        return Example(self.file, row, self.lines[i] if self.lines is not None else None, value_text(value))
 
 
-def _finish(acc: _Acc, file: str, row_start: int, lines: Sequence[int] | None) -> FieldStats:
-    samples = {
-        k: tuple(_example(file, row_start, lines, i, v) for i, v in got) for k, got in acc.samples.items()
-    }
+def _finish(acc: _Acc, where: _Where) -> FieldStats:
+    samples = {k: tuple(where.example(i, v) for i, v in got) for k, got in acc.samples.items()}
     classes: dict[str, int] = {}
     extra: dict[str, Any] = {}
     if acc.strings:
@@ -170,14 +180,14 @@ def _finish(acc: _Acc, file: str, row_start: int, lines: Sequence[int] | None) -
         classes = dict(scan.counts)
         rows = acc.string_rows
         samples["type:string"] = tuple(
-            _example(file, row_start, lines, rows[j], acc.strings[j]) for j in range(min(SAMPLES_PER_KEY, len(rows)))
+            where.example(rows[j], acc.strings[j]) for j in range(min(SAMPLES_PER_KEY, len(rows)))
         )
         masks = class_masks(arr) if any(n > 1 for n in scan.counts.values()) else {}
         for cls, first in scan.first_index.items():
             picks = [first]
             if scan.counts[cls] > 1 and cls in masks:
                 picks = pa_indices(masks[cls], SAMPLES_PER_KEY)
-            samples["class:" + cls] = tuple(_example(file, row_start, lines, rows[j], acc.strings[j]) for j in picks)
+            samples["class:" + cls] = tuple(where.example(rows[j], acc.strings[j]) for j in picks)
         extra = {
             "max_length": max(len(s) for s in acc.strings),
             "int_digits": scan.int_digits,

@@ -3,18 +3,23 @@
 from __future__ import annotations
 
 import io
+import os
 from collections.abc import Iterator
 from typing import Any, BinaryIO
 
 import orjson
 
+from driftline.observe.jsonbatch import observe_json_lines
 from driftline.observe.observation import Observation
 from driftline.observe.records import observe_records
 from driftline.sources.base import FileIssue, ReadOptions
 
 _CHUNK = 4 * 1024 * 1024
+_WINDOW_BYTES = 256 * 1024 * 1024  # a window stops growing here, whatever batch_rows asks
 _BOM = b"\xef\xbb\xbf"
 DOCUMENT_LIMIT = 1024**3  # a single JSON document is parsed whole; larger ones should be JSON Lines
+
+EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) to take the exact per-record walk everywhere
 
 Item = Observation | FileIssue
 
@@ -88,35 +93,178 @@ class _Batcher:
         self.records, self.lines = [], ([] if self.lines is not None else None)
         return obs
 
+    def took(self, obs: Observation) -> None:
+        """A batch observed elsewhere (the columnar path) in this batcher's sequence."""
+        self.rows += obs.rows
+        self.batch += 1
+
+
+class _Window:
+    """Consecutive lines of normal length (without their newline), from first_line at offset."""
+
+    __slots__ = ("items", "first_line", "offset")
+
+    def __init__(self, items: list[bytes], first_line: int, offset: int) -> None:
+        self.items, self.first_line, self.offset = items, first_line, offset
+
+    def __len__(self) -> int:
+        return len(self.items)
+
+    def lines(self) -> Iterator[tuple[int, int, bytes]]:
+        """(line number, byte offset, content) per line, as iter_lines yields them."""
+        offset = self.offset
+        for i, content in enumerate(self.items):
+            yield self.first_line + i, offset, content
+            offset += len(content) + 1
+
+    def size(self) -> int:
+        return sum(map(len, self.items)) + len(self.items)
+
+
+class _TooLong:
+    """A line longer than the limit, already consumed: its number and byte offset."""
+
+    __slots__ = ("line", "offset")
+
+    def __init__(self, line: int, offset: int) -> None:
+        self.line, self.offset = line, offset
+
+
+class _Lines:
+    """The lines of a stream in bulk, split as iter_lines splits them, without a Python step per line.
+
+    peek(k) gives the next run of at most k lines of normal length (a _Window), or a
+    _TooLong for an over-long next line (consumed, and never held whole once it passes
+    the buffer), or None at the end.  advance(m) consumes m lines of the last window.
+    """
+
+    def __init__(self, stream: BinaryIO, max_bytes: int, first_line_offset: int = 0) -> None:
+        self.stream, self.max = stream, max_bytes
+        self.items: list[bytes] = []  # complete lines not yet consumed, from index k on
+        self.k = 0
+        self.held = 0  # bytes in items[k:]
+        self.tail = b""  # the start of a line whose newline has not been read yet
+        self.offset = first_line_offset  # stream offset of items[k] (plus the caller's shift)
+        self.lineno = 0  # lines consumed so far
+        self.eof = False
+
+    def _fill(self) -> None:
+        chunk = self.stream.read(_CHUNK)
+        if not chunk:
+            self.eof = True
+            if self.tail:  # a last line without a newline still counts, as in iter_lines
+                self._push([self.tail])
+                self.tail = b""
+            return
+        if self.k > 4096:
+            del self.items[: self.k]
+            self.k = 0
+        parts = (self.tail + chunk).split(b"\n") if self.tail else chunk.split(b"\n")
+        self.tail = parts.pop()
+        self._push(parts)
+
+    def _push(self, parts: list[bytes]) -> None:
+        self.items.extend(parts)
+        self.held += sum(map(len, parts)) + len(parts)
+
+    def peek(self, k: int) -> _Window | _TooLong | None:
+        while True:
+            avail = len(self.items) - self.k
+            if avail:
+                if len(self.items[self.k]) > self.max:
+                    at = self.offset
+                    self.advance(1)
+                    return _TooLong(self.lineno, at)
+                if avail >= k or self.eof or self.held > _WINDOW_BYTES or len(self.tail) > self.max:
+                    break  # (an over-long line is coming: hand out what is before it first)
+            elif self.eof:
+                return None
+            elif len(self.tail) > self.max:
+                at = self.offset
+                self._skip_long_line()
+                return _TooLong(self.lineno, at)
+            self._fill()
+        take = self.items[self.k : self.k + k]
+        if max(map(len, take)) > self.max:  # stop before an over-long line
+            take = take[: next(j for j, v in enumerate(take) if len(v) > self.max)]
+        return _Window(take, self.lineno + 1, self.offset)
+
+    def advance(self, m: int) -> None:
+        gone = self.items[self.k : self.k + m]
+        size = sum(map(len, gone)) + m
+        self.offset += size
+        self.held -= size
+        self.k += m
+        self.lineno += m
+
+    def _skip_long_line(self) -> None:
+        """Drop a line past the limit as it streams by, through its newline."""
+        self.lineno += 1
+        self.offset += len(self.tail)
+        self.tail = b""
+        while chunk := self.stream.read(_CHUNK):
+            nl = chunk.find(b"\n")
+            if nl < 0:
+                self.offset += len(chunk)
+                continue
+            self.offset += nl + 1
+            parts = chunk[nl + 1 :].split(b"\n")
+            self.tail = parts.pop()
+            self._push(parts)
+            return
+        self.eof = True
+
 
 def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offset: int = 0) -> Iterator[Item]:
-    """One JSON value per line. Blank lines are skipped; a bad line is reported and skipped."""
+    """One JSON value per line. Blank lines are skipped; a bad line is reported and skipped.
+
+    A batch of lines that are all objects goes to the columnar path (observe.jsonbatch),
+    which answers exactly or declines; everything else takes the exact walk line by line.
+    """
     out = _Batcher(rel, opts)
+    src = _Lines(stream, opts.max_record_bytes, first_line_offset)
+    fast = not (opts.exact or os.environ.get(EXACT_ENV))
+    hint = None
     crlf_noted = False
-    for lineno, offset, content in iter_lines(stream, opts.max_record_bytes):
-        offset += first_line_offset
-        if content is None:
-            yield FileIssue(rel, "too-large", f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); skipped", line=lineno, byte_offset=offset)
+    while True:
+        want = opts.batch_rows - len(out.records)
+        got = src.peek(want)
+        if got is None:
+            break
+        if isinstance(got, _TooLong):
+            msg = f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); skipped"
+            yield FileIssue(rel, "too-large", msg, line=got.line, byte_offset=got.offset)
             continue
-        if lineno == 1 and content.startswith(_BOM):
-            yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0)
-            content, offset = content[3:], offset + 3
-        if content.endswith(b"\r"):
-            content = content[:-1]
-            if not crlf_noted:
-                crlf_noted = True
-                yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=lineno, byte_offset=offset + len(content))
-        if not content.strip():
-            continue
-        try:
-            value = orjson.loads(content)
-        except orjson.JSONDecodeError as exc:
-            msg, _, col, pos = _decode_error(exc, content)
-            yield FileIssue(rel, "malformed-json", f"{msg} (column {col}); line skipped", line=lineno, byte_offset=offset + pos)
-            continue
-        obs = out.add(value, lineno)
-        if obs is not None:
-            yield obs
+        if fast and not out.records and (len(got) == want or src.eof):
+            done = observe_json_lines(got.items, file=rel, batch=out.batch, row_start=out.rows,
+                                      first_line=got.first_line, hint=hint)
+            if done is not None:
+                obs, hint = done
+                out.took(obs)
+                src.advance(len(got))
+                yield obs
+                continue
+        for lineno, offset, content in got.lines():
+            if lineno == 1 and content.startswith(_BOM):
+                yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0)
+                content, offset = content[3:], offset + 3
+            if content.endswith(b"\r"):
+                content = content[:-1]
+                if not crlf_noted:
+                    crlf_noted = True
+                    yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=lineno, byte_offset=offset + len(content))
+            if not content.strip():
+                continue
+            try:
+                value = orjson.loads(content)
+            except orjson.JSONDecodeError as exc:
+                msg, _, col, pos = _decode_error(exc, content)
+                yield FileIssue(rel, "malformed-json", f"{msg} (column {col}); line skipped", line=lineno, byte_offset=offset + pos)
+                continue
+            obs = out.add(value, lineno)
+            if obs is not None:
+                yield obs
+        src.advance(len(got))
     obs = out.flush()
     if obs is not None:
         yield obs

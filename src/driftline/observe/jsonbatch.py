@@ -1,0 +1,498 @@
+"""Columnar observation of a batch of JSON Lines, exact or not at all.
+
+Arrow parses and types the batch in C++; this module then proves, column by column,
+that what Arrow built says the same as the exact per-record walk (observe.records)
+would, and returns None when it cannot (the caller then takes the exact walk).
+
+Arrow's JSON reader blurs four things the profile keeps apart, and each is settled here:
+
+* absent vs null: Arrow writes both as null.  A null cell is certainly absent when its
+  line holds neither the key's text ``"name"`` nor a backslash (an escaped key); the
+  other null cells go to the exact walk, which counts the JSON nulls.
+* integer vs float literals: a column mixing ``1`` and ``2.5`` (or holding integers
+  beyond int64) comes back as double.  Non-integral doubles were float literals; every
+  row with an integral double goes to the exact walk, which tells ``1`` from ``1.0``.
+* timestamps: Arrow types RFC 3339-looking strings as timestamp; such batches are
+  parsed again with those fields declared as strings.
+* what Arrow accepts and orjson refuses (NaN and Infinity, several values on one line,
+  invalid UTF-8, very deep nesting): checked before or after the parse, and the batch
+  goes to the exact walk.
+
+Examples (the first three per type, class and null, with their rows) are taken from the
+exact walk over a small set of rows that holds the first three occurrences of every one
+of them, so they are the same examples the exact walk over the whole batch would keep.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Sequence
+from dataclasses import dataclass, field, replace
+from typing import Any
+
+import orjson
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.json as pj
+
+from driftline.observe import paths
+from driftline.observe.observation import Observation
+from driftline.observe.records import SAFE_INT, observe_records
+from driftline.observe.stats import SAMPLES_PER_KEY, FieldStats
+from driftline.observe.textclass import CLASSES, class_masks
+
+MAX_BRACKETS_PER_LINE = 512  # far below orjson's 1,024 levels: deeper lines take the exact walk
+_INT_KEYS = ("decimal(39,0)", "int64", "uint64")
+_STAMP_CLASSES = ("timestamp_rfc3339", "timestamp_offset", "timestamp_local")
+_SECONDS_AT = 17  # textclass: where the seconds sit in every timestamp shape
+_DICTIONARY_SHARE = 4  # classify the distinct values when they are at most 1/4 of the values
+_SAMPLE = 1024
+
+
+class NotExact(Exception):
+    """The batch holds something the columnar path cannot answer exactly."""
+
+
+@dataclass
+class _Partial:
+    """What the columnar pass knows about one path; the exact walk over R fills the rest."""
+
+    types: dict[str, int]
+    nulls: int | None  # None: count them in the exact walk (absent and null look alike)
+    extra: dict[str, Any] = field(default_factory=dict)
+    numbers_from_walk: bool = False  # integral doubles: the walk tells int from float literals
+    nonnull: int = 0
+    always: bool = False  # kept even with no value (the element path of empty lists)
+
+
+class _Batch:
+    def __init__(self, lines: pa.BinaryArray, n: int) -> None:
+        self.lines = lines
+        self.n = n
+        self.rows_needed: list[pa.Array] = []  # batch rows the exact walk must see
+        self.partials: dict[str, _Partial] = {}
+
+    def need(self, rows: pa.Array | None, positions: pa.Array) -> None:
+        if len(positions):
+            self.rows_needed.append(positions if rows is None else rows.take(positions))
+
+    def need_first(self, rows: pa.Array | None, mask: pa.Array) -> None:
+        """The rows of the first SAMPLES_PER_KEY true positions of a mask."""
+        self.need(rows, pc.indices_nonzero(mask).slice(0, SAMPLES_PER_KEY))
+
+
+def parse_lines(data: bytes, hint: pa.Schema | None) -> tuple[pa.Table | None, str]:
+    """Arrow's parse of newline-terminated JSON objects, with timestamps kept as strings.
+
+    Returns (table, "") or (None, Arrow's message).  A hint is tried first, then inference.
+
+    >>> table, _ = parse_lines(b'{"t": "1985-04-12T23:20:50Z"}\\n', None)
+    >>> table.schema.field("t").type
+    DataType(string)
+    """
+    buf = pa.py_buffer(data)
+    table, why = None, ""
+    for schema in ((hint, None) if hint is not None else (None,)):
+        try:
+            po = pj.ParseOptions(explicit_schema=schema, unexpected_field_behavior="infer", newlines_in_values=False)
+            table = pj.read_json(pa.BufferReader(buf), parse_options=po)
+            break
+        except _ARROW_FAILS as exc:
+            why = str(exc)
+    if table is None:
+        return None, why
+    if _has_temporal(table.schema):
+        # Arrow types RFC 3339-looking strings as timestamps; the profile wants the strings.
+        try:
+            po = pj.ParseOptions(explicit_schema=_strings_for_temporal(table.schema), unexpected_field_behavior="infer",
+                                 newlines_in_values=False)
+            table = pj.read_json(pa.BufferReader(buf), parse_options=po)
+        except _ARROW_FAILS as exc:
+            return None, str(exc)
+        if _has_temporal(table.schema):
+            return None, "timestamps inferred again"
+    return table, ""
+
+
+_ARROW_FAILS = (pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError, UnicodeDecodeError)
+
+
+def _has_temporal(schema: pa.Schema | pa.DataType) -> bool:
+    types = [f.type for f in schema] if isinstance(schema, pa.Schema) else [schema]
+    for t in types:
+        if pa.types.is_temporal(t):
+            return True
+        if pa.types.is_struct(t) and _has_temporal(pa.schema(list(t))):
+            return True
+        if pa.types.is_list(t) and _has_temporal(t.value_type):
+            return True
+    return False
+
+
+def _strings_for_temporal_type(t: pa.DataType) -> pa.DataType:
+    if pa.types.is_temporal(t):
+        return pa.string()
+    if pa.types.is_struct(t):
+        return pa.struct([f.with_type(_strings_for_temporal_type(f.type)) for f in t])
+    if pa.types.is_list(t):
+        return pa.list_(t.value_field.with_type(_strings_for_temporal_type(t.value_type)))
+    return t
+
+
+def _strings_for_temporal(schema: pa.Schema) -> pa.Schema:
+    return pa.schema([f.with_type(_strings_for_temporal_type(f.type)) for f in schema])
+
+
+def observe_json_lines(
+    lines: Sequence[bytes],
+    *,
+    file: str,
+    batch: int,
+    row_start: int,
+    first_line: int,
+    hint: pa.Schema | None = None,
+) -> tuple[Observation, pa.Schema | None] | None:
+    """Observe lines (without newlines), one JSON object each, as the exact walk would.
+
+    Returns the observation and the schema to hint the next batch with, or None when
+    the batch must take the exact walk.  Rows Arrow cannot type with the rest (a list
+    that is sometimes a scalar) are set aside and walked exactly; the two parts merge.
+
+    >>> obs, _ = observe_json_lines([b'{"a": 1, "b": null}', b'{"a": 2.5}'], file="f.jsonl", batch=0,
+    ...                             row_start=0, first_line=1)
+    >>> obs.fields["a"].types, obs.fields["b"].nulls
+    ({'float64': 1, 'int64': 1}, 1)
+    """
+    n = len(lines)
+    if n == 0 or sum(map(len, lines)) + n >= 2**31:
+        return None
+    arr = pa.array(lines, pa.binary())
+    aside = _odd_rows(lines, arr)
+    if aside is None:
+        return None
+    table, keep = None, None
+    for _ in range(_MAX_SET_ASIDE_ROUNDS):
+        keep = None if not aside else [i for i in range(n) if i not in aside]
+        part = lines if keep is None else [lines[i] for i in keep]
+        if not part:
+            break
+        table, why = parse_lines(b"\n".join(part) + b"\n", hint)
+        if table is not None:
+            if table.num_rows != len(part):
+                return None  # several values on one line
+            break
+        more = _conflict_rows(arr, why) if why else None
+        if not more or more <= aside:
+            return None
+        aside |= more
+    if table is None and keep:
+        return None
+    where = (file, batch, row_start, first_line)
+    groups: list[dict[str, FieldStats]] = []
+    if table is not None:
+        got = _observe_table(table, arr, lines, None if keep is None else pa.array(keep, pa.int64()), where)
+        if got is None:
+            return None
+        groups.append(got)
+    if aside:
+        rows = sorted(aside)
+        try:
+            records = [orjson.loads(lines[r]) for r in rows]
+        except orjson.JSONDecodeError:
+            return None
+        groups.append(_walk(records, rows, where))
+    fields = _merge_groups(groups)
+    if fields is None:
+        return None
+    obs = Observation(file=file, batch=batch, row_start=row_start, rows=n, fields=fields)
+    return obs, table.schema if table is not None else hint
+
+
+_MAX_SET_ASIDE_ROUNDS = 4
+_CONFLICT = re.compile(r"Column\((/[^)]*)\) changed from (\w+) to (\w+)")
+_KIND_START = {"string": '"', "array": r"\[", "object": r"\{", "number": "[-0-9]", "boolean": "[tf]", "null": "n"}
+
+
+def _conflict_rows(arr: pa.BinaryArray, why: str) -> set[int] | None:
+    """Rows that may hold the rarer of the two kinds Arrow's error names for one field.
+
+    Which rows are set aside decides only the speed: whatever is set aside is walked
+    exactly, and Arrow must still type all the rest together.
+    """
+    m = _CONFLICT.search(why)
+    if not m:
+        return None
+    name = m.group(1).rsplit("/", 1)[-1]
+    if not name or name == "[]":
+        return None
+    found = []
+    for kind in (m.group(2), m.group(3)):
+        start = _KIND_START.get(kind)
+        if start is None:
+            return None
+        pattern = '"' + re.escape(name) + r'"\s*:\s*' + start
+        try:
+            found.append(pc.match_substring_regex(arr, pattern))
+        except pa.ArrowException:
+            return None
+    rarer = min(found, key=lambda mask: mask.true_count)
+    if rarer.true_count * 2 > len(arr):
+        return None  # not a few odd rows: the exact walk of the batch is as quick
+    return set(pc.indices_nonzero(rarer).to_pylist())
+
+
+def _odd_rows(lines: Sequence[bytes], arr: pa.BinaryArray) -> set[int] | None:
+    """Rows to walk exactly because they are not a plain '{...}' line; None if one is not a record.
+
+    Lines the exact reader reports (blank, malformed, invalid UTF-8, CRLF, a byte order
+    mark) send the whole batch to the exact walk, which reports them.
+    """
+    shaped = pc.and_(pc.starts_with(arr, "{"), pc.ends_with(arr, "}"))
+    odd: set[int] = set()
+    if shaped.false_count:
+        for i in pc.indices_nonzero(pc.invert(shaped)).to_pylist():
+            line = lines[i]
+            if line.endswith(b"\r") or line.startswith(b"\xef\xbb\xbf") or not line.strip():
+                return None
+            try:
+                orjson.loads(line)
+            except orjson.JSONDecodeError:
+                return None
+            odd.add(i)
+    if not all(map(bytes.isascii, lines)):
+        try:
+            for line in lines:
+                line.decode("utf-8")
+        except UnicodeDecodeError:
+            return None
+    if max(map(len, lines)) <= MAX_BRACKETS_PER_LINE:
+        return odd  # too short to nest that deep
+    brackets = pc.add(pc.count_substring(arr, "["), pc.count_substring(arr, "{"))
+    if pc.max(brackets).as_py() > MAX_BRACKETS_PER_LINE:
+        odd |= set(pc.indices_nonzero(pc.greater(brackets, MAX_BRACKETS_PER_LINE)).to_pylist())
+    return odd
+
+
+def _walk(records: list[Any], rows: list[int], where: tuple[str, int, int, int]) -> dict[str, FieldStats]:
+    file, batch, row_start, first_line = where
+    lines_of = [first_line + r for r in rows]
+    return observe_records(records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows).fields
+
+
+def _observe_table(
+    table: pa.Table, arr: pa.BinaryArray, lines: Sequence[bytes], keep: pa.Array | None, where: tuple[str, int, int, int],
+) -> dict[str, FieldStats] | None:
+    """One parsed table (rows keep of the batch, or all): columnar counts, the walk for the rest."""
+    b = _Batch(arr, len(arr))
+    try:
+        for name, col in zip(table.column_names, table.columns, strict=True):
+            _visit(col.combine_chunks(), paths.child(None, name), keep, name, b)
+    except NotExact:
+        return None
+    rows = _needed_rows(b)
+    try:
+        records = [orjson.loads(lines[r]) for r in rows]
+    except orjson.JSONDecodeError:
+        return None  # Arrow took a line orjson refuses
+    return _combine(b.partials, _walk(records, rows, where))
+
+
+def _merge_groups(groups: list[dict[str, FieldStats]]) -> dict[str, FieldStats] | None:
+    """Merge the parts of one batch (disjoint rows); examples keep their order within a row."""
+    if len(groups) == 1:
+        return groups[0]
+    out: dict[str, FieldStats] = {}
+    for g in groups:
+        for path, st in g.items():
+            if path not in out:
+                out[path] = st
+                continue
+            mine = out[path]
+            if _tie_of_kinds(mine.minimum, st.minimum) or _tie_of_kinds(mine.maximum, st.maximum):
+                return None  # 1 and 1.0 at once: which came first is not known here
+            merged = mine.merge(st)
+            # sorted() is stable and Examples order by (file, row): within a row, walk order stays.
+            samples = {
+                k: tuple(sorted(mine.samples.get(k, ()) + st.samples.get(k, ())))[:SAMPLES_PER_KEY]
+                for k in merged.samples
+            }
+            classes = {c: merged.classes[c] for c in CLASSES if c in merged.classes}
+            out[path] = replace(merged, samples=samples, classes=classes)
+    return dict(sorted(out.items()))
+
+
+def _tie_of_kinds(a: Any, b: Any) -> bool:
+    return a is not None and b is not None and type(a) is not type(b) and a == b
+
+
+def _needed_rows(b: _Batch) -> list[int]:
+    if not b.rows_needed:
+        return []
+    allrows = pa.chunked_array([r.cast(pa.int64()) for r in b.rows_needed], pa.int64())
+    return pc.unique(allrows).sort().to_pylist()  # type: ignore[attr-defined]
+
+
+def _absent_for_sure(b: _Batch, rows: pa.Array, name: str) -> pa.Array:
+    """Mask over rows: their line holds neither '"name"' nor a backslash, so name is absent."""
+    cand = b.lines.take(rows)
+    key = orjson.dumps(name)
+    if b"\\" in key:
+        return pa.repeat(False, len(rows))
+    seen = pc.or_(pc.match_substring(cand, key.decode("utf-8")), pc.match_substring(cand, "\\"))
+    return pc.invert(seen)
+
+
+def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b: _Batch) -> None:
+    """One path; arr holds exactly the places its container had a value (rows maps them to rows)."""
+    t = arr.type
+    length = len(arr)
+    nulls_arrow = length if pa.types.is_null(t) else arr.null_count
+    part = _Partial(types={}, nulls=nulls_arrow, nonnull=length - nulls_arrow)
+    if nulls_arrow:
+        every = pa.types.is_null(t)
+        null_at = pa.array(range(length), pa.int64()) if every else pc.indices_nonzero(pc.is_null(arr))
+        if name is None:
+            b.need(rows, null_at.slice(0, SAMPLES_PER_KEY))  # list elements cannot be absent
+        else:
+            cand_rows = null_at if rows is None else rows.take(null_at)
+            keep = pc.invert(_absent_for_sure(b, cand_rows, name))
+            if keep.true_count:
+                b.rows_needed.append(cand_rows.filter(keep))
+                part.nulls = None
+            else:
+                part.nulls = 0
+    b.partials[path] = part
+    if pa.types.is_null(t) or part.nonnull == 0:
+        return
+    valid = pc.is_valid(arr)
+    b.need_first(rows, valid)
+    if pa.types.is_boolean(t):
+        part.types = {"bool": part.nonnull}
+    elif pa.types.is_int64(t):
+        part.types = {"int64": part.nonnull}
+        mm = pc.min_max(arr)
+        big = pc.or_(pc.greater(arr, SAFE_INT), pc.less(arr, -SAFE_INT))
+        part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py(), "unsafe_ints": big.true_count}
+    elif pa.types.is_float64(t):
+        _doubles(arr, rows, part, b)
+    elif pa.types.is_string(t):
+        part.types = {"string": part.nonnull}
+        part.extra = _strings(arr, rows, b)
+    elif pa.types.is_struct(t):
+        part.types = {"struct": part.nonnull}
+        sub_rows = rows
+        if nulls_arrow:
+            sub_rows = (pa.array(range(length), pa.int64()) if rows is None else rows).filter(valid)
+        for i in range(t.num_fields):
+            child = arr.field(i)
+            _visit(child.filter(valid) if nulls_arrow else child, paths.child(path, t.field(i).name), sub_rows,
+                   t.field(i).name, b)
+    elif pa.types.is_list(t):
+        part.types = {"list": part.nonnull}
+        flat = pc.list_flatten(arr)
+        part.extra = {"items": len(flat)}
+        if len(flat):
+            parents = pc.list_parent_indices(arr)
+            _visit(flat, paths.element(path), parents if rows is None else rows.take(parents), None, b)
+        else:  # only empty lists: the element path exists with nothing known, as in the walk
+            b.partials[paths.element(path)] = _Partial(types={}, nulls=0, always=True)
+    else:
+        raise NotExact(f"{path}: Arrow type {t}")
+
+
+def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch) -> None:
+    finite = pc.is_finite(arr)
+    if pc.sum(pc.invert(finite)).as_py():
+        raise NotExact("NaN or Infinity: not JSON, orjson refuses the line")
+    integral = pc.fill_null(pc.equal(pc.floor(arr), arr), False)
+    fractional = pc.and_(pc.is_valid(arr), pc.invert(integral))
+    part.types = {"float64": part.nonnull}
+    if integral.true_count:
+        b.need(rows, pc.indices_nonzero(integral))  # 1 or 1.0, 2**64 or 1.8e19: the walk knows
+        part.numbers_from_walk = True
+    b.need_first(rows, fractional)
+    if fractional.true_count:
+        mm = pc.min_max(arr.filter(fractional))
+        part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py()}
+
+
+def _strings(arr: pa.Array, rows: pa.Array | None, b: _Batch) -> dict[str, Any]:
+    """Class counts and string statistics, as textclass.classify would give them over arr."""
+    values, index = arr, None
+    # Few distinct values (codes, tags, quoted numbers): classify those, then count per row.
+    # A sample decides first, as hashing many distinct values (timestamps) costs more than it saves.
+    if len(arr) > 4 * _SAMPLE and len(pc.unique(arr.slice(0, _SAMPLE))) * 2 <= _SAMPLE:
+        enc = pc.dictionary_encode(arr)
+        if len(enc.dictionary) * _DICTIONARY_SHARE <= len(arr):
+            values, index = enc.dictionary, enc.indices
+    masks = class_masks(values)
+    counts: dict[str, int] = {}
+    per_row: dict[str, pa.Array] = {}
+    for cls in CLASSES:
+        m = masks[cls]
+        if not m.true_count:
+            continue
+        row_mask = m if index is None else pc.fill_null(pc.take(m, index), False)
+        counts[cls] = row_mask.true_count
+        per_row[cls] = row_mask
+        b.need_first(rows, row_mask)
+    int_digits = frac_digits = 0
+    number = pc.or_(masks["integer"], masks["decimal"])
+    if number.true_count:
+        int_digits, frac_digits = _digits(values.filter(number))
+    stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
+    leap = lower = 0
+    if stamp.true_count:
+        # textclass.classify's counts: a timestamp with second 60; an RFC 3339 one with t or z.
+        if pc.any(pc.match_substring(values, ":60")).as_py():
+            sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
+            leap = _row_count(pc.and_(stamp, sixty), index)
+        if masks["timestamp_rfc3339"].true_count:
+            lc = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
+            lower = _row_count(lc, index)
+    return {
+        "classes": counts,
+        "max_length": int(pc.max(pc.utf8_length(values)).as_py() or 0),
+        "int_digits": int_digits,
+        "frac_digits": frac_digits,
+        "leap_seconds": leap,
+        "lowercase_rfc3339": lower,
+    }
+
+
+def _row_count(mask: pa.Array, index: pa.Array | None) -> int:
+    if index is None or not mask.true_count:
+        return mask.true_count
+    return pc.fill_null(pc.take(mask, index), False).true_count
+
+
+def _digits(numbers: pa.Array) -> tuple[int, int]:
+    """Max digits before and after the point over integer/decimal strings (as textclass)."""
+    length = pc.cast(pc.binary_length(numbers), pa.int64())
+    minus = pc.cast(pc.starts_with(numbers, "-"), pa.int64())
+    point = pc.cast(pc.find_substring(numbers, "."), pa.int64())
+    has_point = pc.greater_equal(point, 0)
+    before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
+    after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
+    return pc.max(before).as_py() or 0, pc.max(after).as_py() or 0
+
+
+def _combine(partials: dict[str, _Partial], walked: dict[str, FieldStats]) -> dict[str, FieldStats] | None:
+    out: dict[str, FieldStats] = {}
+    for path, part in partials.items():
+        w = walked.get(path, FieldStats())
+        nulls = w.nulls if part.nulls is None else part.nulls
+        if part.nonnull == 0 and nulls == 0 and not part.always:
+            continue  # never present in this batch (absent wherever Arrow wrote null)
+        types, extra = part.types, dict(part.extra)
+        if part.numbers_from_walk:
+            ints = {k: v for k, v in w.types.items() if k in _INT_KEYS}
+            floats = part.nonnull - sum(ints.values())
+            types = {**ints, **({"float64": floats} if floats else {})}
+            lo_hi = FieldStats(minimum=extra.get("minimum"), maximum=extra.get("maximum")).merge(
+                FieldStats(minimum=w.minimum, maximum=w.maximum))
+            extra.update(minimum=lo_hi.minimum, maximum=lo_hi.maximum, unsafe_ints=w.unsafe_ints)
+        if part.nonnull and sum(w.types.values()) == 0 and not w.samples:
+            return None  # the walk missed rows it should have seen: do not guess
+        out[path] = FieldStats(types=dict(sorted(types.items())), nulls=nulls, samples=w.samples, **extra)
+    return dict(sorted(out.items()))
