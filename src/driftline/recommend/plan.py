@@ -93,6 +93,9 @@ class FieldPlan:
     required: bool = False  # present in every row / parent value (JSON Schema "required")
     max_chars: int | None = None  # upper bound of the target's text length, when a string
     input_chars: int | None = None  # upper bound of an input value's text (CSV cell, JSON text)
+    # What the scan saw that the schema files need: content classes and longest strings
+    # per source ('string' typed, 'text' CSV), and leap seconds.
+    observed: dict[str, Any] = field(default_factory=dict)
 
     @property
     def nullable(self) -> bool:

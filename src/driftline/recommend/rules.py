@@ -76,6 +76,19 @@ def _nested(f: Facts) -> set[str]:
     return set(f.kinds) & NESTED
 
 
+def _observed(f: Facts) -> dict[str, object]:
+    out: dict[str, object] = {}
+    classes = {side: dict(c) for side, c in (("string", f.strings), ("text", f.cells)) if c}
+    if classes:
+        out["classes"] = classes
+        out["max_length"] = {side: st.max_length for side, st in (("string", f.typed), ("text", f.text))
+                             if side in classes}
+    leap = f.typed.leap_seconds + f.text.leap_seconds
+    if leap:
+        out["leap_seconds"] = leap
+    return out
+
+
 def _inputs(f: Facts) -> dict[str, int]:
     out = dict(f.kinds)
     if f.text_values:
@@ -132,7 +145,7 @@ def _scalar_plan(f: Facts, ctx: Context, rule: str, does: str, why: str,
         why=why + (f"; {notes}" if notes and notes not in why else ""),
         inputs=_inputs(f), effects=effects, params=_params(r, target), alternatives=alternatives,
         required=f.summary.absent == 0, max_chars=value_chars(f) if target.name == "string" else None,
-        input_chars=value_chars(f),
+        input_chars=value_chars(f), observed=_observed(f),
     )
 
 
@@ -212,7 +225,8 @@ def _parse(name: str) -> Rule:
         strings = _strings(r)
         classes = ", ".join(sorted(r.accept)) or "no"
         does = f"parses {classes} strings as {r.target.key()}"
-        if r.tokens["string"] == "null" or r.tokens["text"] == "null":
+        _, effects = ctx.reading(f)
+        if any(e.cause == "null_token" for e in effects):
             does += f"; null tokens ({TOKENS_SHOWN}) become null"
         others = [x.key for x in r.forms if x.source == "typed" and x.dtype != r.target]
         if others:
@@ -291,7 +305,7 @@ def _struct(f: Facts, ctx: Context, rule: str, children: tuple[FieldPlan, ...], 
     target = DType("struct", fields=tuple((c.name, c.target) for c in children))
     return FieldPlan(path=f.path, name=f.name, target=target.with_nullable(f.summary.nullable),
                      rule=rule, does=does, why=why, inputs=_inputs(f), children=children,
-                     required=f.summary.absent == 0, input_chars=json_chars(ctx.tree, f))
+                     required=f.summary.absent == 0, input_chars=json_chars(ctx.tree, f), observed=_observed(f))
 
 
 def merge_struct(f: Facts, ctx: Context) -> FieldPlan | None:
@@ -319,7 +333,7 @@ def _list(f: Facts, ctx: Context, rule: str, does: str, why: str, item: FieldPla
     return FieldPlan(path=f.path, name=f.name, target=target_nullable(target, f.summary.nullable, effects),
                      rule=rule, does=does, why=why, inputs=_inputs(f), effects=effects,
                      params=params or {}, children=(item,), required=f.summary.absent == 0,
-                     input_chars=json_chars(ctx.tree, f))
+                     input_chars=json_chars(ctx.tree, f), observed=_observed(f))
 
 
 def _null_item(f: Facts) -> FieldPlan:
@@ -404,7 +418,7 @@ def keep_as_json_text(f: Facts, ctx: Context) -> FieldPlan:
                      params={"tokens": {"string": "keep",
                                         "text": "keep" if ctx.opts.null_tokens == "never" else "null"}},
                      required=f.summary.absent == 0, max_chars=json_chars(ctx.tree, f),
-                     input_chars=json_chars(ctx.tree, f))
+                     input_chars=json_chars(ctx.tree, f), observed=_observed(f))
 
 
 REGISTRY: dict[str, Rule] = {

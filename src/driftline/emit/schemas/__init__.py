@@ -1,0 +1,9 @@
+"""Schema files in open standards, written from a Recommendation.
+
+json_schema   JSON Schema 2020-12 (permissive: the data as it arrives; strict: after the rules)
+arrow_schema  Arrow IPC schema message, and its text form
+sql           CREATE TABLE with portable types, a staging table, and the rules as a SELECT
+avro          Avro schema (nullable fields as ["null", T] with "default": null)
+rules_json    the cast rules file (docs/rules.schema.json)
+summary       the terminal view: the unified schema and each field's rule
+"""

@@ -1,0 +1,36 @@
+"""The recommendation as an Arrow schema: an IPC schema message, and its text form.
+
+The IPC form is the encapsulated Schema message of the Arrow IPC format (what
+``pa.Schema.serialize`` writes); ``pyarrow.ipc.read_schema`` reads it back equal, field
+and schema metadata (the cast rules) included.
+"""
+
+from __future__ import annotations
+
+import pyarrow as pa
+
+from driftline.recommend.arrow import target_schema
+from driftline.recommend.plan import Recommendation
+
+
+def ipc_bytes(rec: Recommendation) -> bytes:
+    """The Arrow IPC schema message of the unified schema.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+    >>> rec = driftline.scan(d).recommend()
+    >>> read_ipc(ipc_bytes(rec)).equals(rec.arrow_schema(), check_metadata=True)
+    True
+    """
+    return target_schema(rec).serialize().to_pybytes()
+
+
+def read_ipc(data: bytes) -> pa.Schema:
+    return pa.ipc.read_schema(pa.py_buffer(data))
+
+
+def schema_text(rec: Recommendation) -> str:
+    """The schema as pyarrow prints it, each top-level field with its rule."""
+    schema = target_schema(rec)
+    head = f"# Arrow schema recommended by driftline for {rec.root} ({rec.rows:,} rows)\n"
+    return head + schema.to_string(show_field_metadata=True, show_schema_metadata=False) + "\n"

@@ -1,0 +1,173 @@
+"""The recommendation as JSON Schema 2020-12: plain standard keywords plus one annotation.
+
+Keywords used: type, properties, required, items, format, minimum, maximum, maxLength;
+each property (and each ``items``) carries ``"x-driftline": {"arrow": "<type key>",
+"rule": "<rule name>"}``. Two modes:
+
+* ``permissive``: describes the data as it arrives (JSON records; CSV cells read by their
+  content class; Parquet values as JSON), so every scanned record validates: a field's
+  ``type`` lists the target's JSON type and every form the rule reads.
+* ``strict``: describes the records after the cast rules (apply(), as JSON): only the
+  target's JSON type.
+
+JSON Schema counts 1.0 as an integer and gives integers no width (§6.1.1), so integer
+types carry their range as minimum/maximum and floats are "number". ``format:
+date-time`` is given only when every value is RFC 3339 (in permissive mode: every
+string the scan saw, no leap second, which the format checker rejects).
+"""
+
+from __future__ import annotations
+
+from typing import Any, Literal
+
+import orjson
+
+from driftline.lattice import DType, parse_key
+from driftline.observe.observation import TEXT_CLASS_TYPE
+from driftline.recommend.plan import FieldPlan, Recommendation
+
+META_SCHEMA = "https://json-schema.org/draft/2020-12/schema"
+Mode = Literal["permissive", "strict"]
+
+_INT_RANGES = {
+    "int8": (-(2**7), 2**7 - 1), "int16": (-(2**15), 2**15 - 1), "int32": (-(2**31), 2**31 - 1),
+    "int64": (-(2**63), 2**63 - 1), "uint8": (0, 2**8 - 1), "uint16": (0, 2**16 - 1),
+    "uint32": (0, 2**32 - 1), "uint64": (0, 2**64 - 1),
+}
+_ORDER = ("object", "array", "string", "number", "integer", "boolean", "null")
+_TEMPORAL = ("date32", "date64", "timestamp", "time32", "time64")
+
+
+def json_type(t: DType) -> str:
+    """The JSON type of values of t, as JSON data (temporal values are ISO 8601 text)."""
+    n = t.name
+    if n in _INT_RANGES or n == "duration":
+        return "integer"
+    if n.startswith("float") or n == "decimal":
+        return "number"
+    return {"bool": "boolean", "null": "null", "list": "array", "struct": "object",
+            "map": "object"}.get(n, "string")
+
+
+def _kind_type(key: str) -> str:
+    return {"struct": "object", "list": "array", "map": "object", "string": "string"}.get(key) \
+        or json_type(parse_key(key))
+
+
+def _cell_types(classes: dict[str, int]) -> set[str]:
+    # A CSV cell as the scan reads it (observe.TEXT_CLASS_TYPE): blanks and tokens are null.
+    out = set()
+    for cls in classes:
+        kind = TEXT_CLASS_TYPE[cls]
+        out.add("null" if kind is None else json_type(parse_key(kind)))
+    return out
+
+
+def _format(plan: FieldPlan, mode: Mode) -> str | None:
+    t = plan.target
+    wanted = "date-time" if t.name == "timestamp" and t.tz else "date" if t.name in ("date32", "date64") else None
+    if wanted is None or mode == "strict":
+        return wanted
+    allowed = {"date-time": {"timestamp_rfc3339"}, "date": {"date"}}[wanted]
+    classes = plan.observed.get("classes", {})
+    strings = set(classes.get("string", {}))
+    cells = {c for c in classes.get("text", {}) if TEXT_CLASS_TYPE[c] is not None}
+    if not strings <= allowed or not cells <= allowed or plan.observed.get("leap_seconds"):
+        return None
+    for key in plan.inputs:
+        if key in ("string", "text"):
+            continue
+        k = parse_key(key)
+        ok = k.name == "timestamp" and k.tz if wanted == "date-time" else k.name in ("date32", "date64")
+        if not ok:
+            return None
+    return wanted
+
+
+def _types(plan: FieldPlan, mode: Mode) -> list[str]:
+    types = {json_type(plan.target)}
+    if mode == "permissive":
+        for key in plan.inputs:
+            if key == "text":
+                types |= _cell_types(plan.observed.get("classes", {}).get("text", {}))
+            else:
+                types.add(_kind_type(key))
+    if plan.nullable:
+        types.add("null")
+    if "number" in types:
+        types.discard("integer")  # every integer is a number
+    first = json_type(plan.target)
+    return [first] * (first in types) + [t for t in _ORDER if t in types and t != first]
+
+
+def _string_bound(plan: FieldPlan, mode: Mode) -> int | None:
+    """The longest string a record can hold here: the target's, or the longest seen."""
+    if mode == "strict":
+        return plan.max_chars if plan.target.name == "string" else None
+    lengths = plan.observed.get("max_length", {})
+    out = 0
+    for key in plan.inputs:
+        if key in ("string", "text"):
+            out = max(out, lengths.get(key, 0))
+        elif key == "binary":
+            return None  # base64 text of bytes whose length the scan keeps only in bytes
+        elif key not in ("struct", "list", "map") and parse_key(key).name in _TEMPORAL:
+            out = max(out, 35)  # ISO 8601 text of a date, time or timestamp with an offset
+    return out
+
+
+def node(plan: FieldPlan, mode: Mode = "permissive") -> dict[str, Any]:
+    """The schema of one field (its children included)."""
+    types = _types(plan, mode)
+    out: dict[str, Any] = {"type": types[0] if len(types) == 1 else types}
+    t = plan.target
+    if t.name in _INT_RANGES and "integer" in types:
+        out["minimum"], out["maximum"] = _INT_RANGES[t.name]
+    if "string" in types:
+        fmt = _format(plan, mode)
+        if fmt:
+            out["format"] = fmt
+        bound = _string_bound(plan, mode)
+        if bound is not None:
+            out["maxLength"] = max(bound, 0)
+    if plan.rule != "keep_as_json_text":
+        if t.name == "struct":
+            out["properties"] = {c.name: node(c, mode) for c in plan.children}
+            required = [c.name for c in plan.children if c.required]
+            if required:
+                out["required"] = required
+        elif t.name == "list":
+            out["items"] = node(plan.children[0], mode)
+    out["x-driftline"] = {"arrow": t.key(), "rule": plan.rule}
+    return out
+
+
+def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | None = None) -> dict[str, Any]:
+    """The JSON Schema of one record.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
+    >>> s = json_schema(driftline.scan(d).recommend(parse_strings="always"))
+    >>> s["properties"]["n"]["type"], s["properties"]["n"]["maximum"], s["properties"]["n"]["x-driftline"]
+    (['string', 'integer'], 9223372036854775807, {'arrow': 'int64', 'rule': 'parse_integer'})
+    """
+    if mode not in ("permissive", "strict"):
+        raise ValueError(f"mode must be 'permissive' or 'strict', not {mode!r}")
+    required = [p.name for p in rec.fields if p.required]
+    out: dict[str, Any] = {
+        "$schema": META_SCHEMA,
+        "title": title or f"records of {rec.root}",
+        "$comment": (f"driftline schema, {mode} mode: "
+                     + ("every record as it arrives validates" if mode == "permissive"
+                        else "records after the cast rules validate")
+                     + f"; {rec.rows:,} rows in {rec.files:,} files"),
+        "type": "object",
+        "properties": {p.name: node(p, mode) for p in rec.fields},
+    }
+    if required:
+        out["required"] = required
+    return out
+
+
+def dumps(schema: dict[str, Any]) -> bytes:
+    return orjson.dumps(schema, option=orjson.OPT_INDENT_2) + b"\n"

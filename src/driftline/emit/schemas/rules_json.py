@@ -1,0 +1,89 @@
+"""The cast rules file: every field path's target, rule, parameters and measured loss, as JSON.
+
+The format is documented by docs/rules.schema.json (JSON Schema 2020-12). Fields are
+listed flat, parents before children, each with its path as the scan spells it.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import orjson
+
+from driftline import __version__
+from driftline.errors import InputPathError, ReportVersionError
+from driftline.observe import paths
+from driftline.recommend.plan import FieldPlan, Recommendation
+
+RULES_FORMAT = "driftline-rules"
+RULES_VERSION = 1
+
+
+def _field(plan: FieldPlan) -> dict[str, Any]:
+    parent, how = paths.parent(plan.path)
+    out: dict[str, Any] = {
+        "path": plan.path,
+        "name": plan.name,
+        "parent": parent,
+        "as": how,
+        "target": plan.target.key(),
+        "nullable": plan.nullable,
+        "required": plan.required,
+        "rule": plan.rule,
+        "does": plan.does,
+        "why": plan.why,
+        "inputs": dict(plan.inputs),
+        "params": dict(plan.params),
+        "nulled": plan.nulled,
+        "changed": plan.changed,
+        "exact": plan.exact,
+        "effects": [e.to_json() for e in plan.effects],
+        "alternatives": [a.to_json() for a in plan.alternatives],
+    }
+    if plan.max_chars is not None:
+        out["max_chars"] = plan.max_chars
+    return out
+
+
+def rules_document(rec: Recommendation) -> dict[str, Any]:
+    """The rules file as JSON data.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+    >>> doc = rules_document(driftline.scan(d).recommend())
+    >>> doc["format"], [(f["path"], f["rule"], f["target"]) for f in doc["fields"]]
+    ('driftline-rules', [('x', 'widen_numeric', 'float64')])
+    """
+    return {
+        "format": RULES_FORMAT,
+        "version": RULES_VERSION,
+        "tool": {"name": "driftline", "version": __version__},
+        "source": {"root": rec.root, "rows": rec.rows, "files": rec.files},
+        "options": rec.options.to_json(),
+        "fields": [_field(p) for p in rec.walk()],
+        "dropped": [d.to_json() for d in rec.dropped],
+    }
+
+
+def dumps(rec: Recommendation) -> bytes:
+    return orjson.dumps(rules_document(rec), option=orjson.OPT_INDENT_2) + b"\n"
+
+
+def load_rules(path: str | Path) -> dict[str, Any]:
+    """Read a rules file back as JSON data; ReportVersionError for another format or version."""
+    source = repr(str(path))
+    try:
+        raw = Path(path).read_bytes()
+    except OSError as exc:
+        raise InputPathError(f"cannot read rules file {source}: {exc.strerror}") from None
+    try:
+        doc = orjson.loads(raw)
+    except orjson.JSONDecodeError as exc:
+        raise ReportVersionError(f"{source} is not JSON ({exc.msg} at line {exc.lineno})") from None
+    if not isinstance(doc, dict) or doc.get("format") != RULES_FORMAT:
+        raise ReportVersionError(f"{source} is not a driftline rules file (no \"format\": \"{RULES_FORMAT}\")")
+    if doc.get("version") != RULES_VERSION:
+        raise ReportVersionError(f"{source} has rules version {doc.get('version')!r}; this driftline reads "
+                                 f"version {RULES_VERSION}. Write the rules again with driftline schema --rules")
+    return doc
