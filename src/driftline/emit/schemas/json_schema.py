@@ -149,7 +149,7 @@ def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | 
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
     >>> s = json_schema(driftline.scan(d).recommend(parse_strings="always"))
     >>> s["properties"]["n"]["type"], s["properties"]["n"]["maximum"], s["properties"]["n"]["x-driftline"]
-    (['string', 'integer'], 9223372036854775807, {'arrow': 'int64', 'rule': 'parse_integer'})
+    (['integer', 'string'], 9223372036854775807, {'arrow': 'int64', 'rule': 'parse_integer'})
     """
     if mode not in ("permissive", "strict"):
         raise ValueError(f"mode must be 'permissive' or 'strict', not {mode!r}")
