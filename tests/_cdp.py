@@ -87,7 +87,9 @@ class Page:
 
     def screenshot(self, width: int, height: int) -> bytes:
         self.send("Emulation.setDeviceMetricsOverride", width=width, height=height, deviceScaleFactor=1, mobile=False)
-        clip = {"x": 0, "y": 0, "width": width, "height": height, "scale": 1}
+        # clip is in document coordinates: the part of the page the window shows now.
+        x, y = self.evaluate("[window.scrollX, window.scrollY]")
+        clip = {"x": x, "y": y, "width": width, "height": height, "scale": 1}
         data = self.send("Page.captureScreenshot", format="png", clip=clip)
         return base64.b64decode(data["data"])
 

@@ -211,3 +211,34 @@ def test_a_field_named_script_is_text_and_runs_nothing(browser: Browser, tmp_pat
     assert page.evaluate("document.querySelector('#field-table tbody th').textContent") == SCRIPT_NAME
     assert page.evaluate("document.querySelector('figure.chart figcaption').textContent") == SCRIPT_NAME
     assert page.evaluate("document.querySelector('svg.timeline').dataset.path") == SCRIPT_NAME
+
+
+def test_large_report_pages_and_flags_open_the_page_of_their_event(browser: Browser, tmp_path: Path) -> None:
+    from _synthetic import big_profile
+    from driftline.emit.html import PAGE, write_html
+
+    out = tmp_path / "big.html"
+    write_html(big_profile(n_files=2_000, n_fields=500), str(out))
+    page = browser.open(out.as_uri())
+    assert _problems(page) == [] and _requests(page) == [out.as_uri()]
+    rows = "Array.from(document.querySelectorAll('#field-table tbody tr')).filter(r => r.offsetParent !== null).length"
+    assert page.evaluate(rows) == PAGE["fields"]
+    status = "document.getElementById('field-table').parentNode.nextElementSibling.querySelector('span').textContent"
+    assert page.evaluate(status) == f"page 1 of {500 // PAGE['fields']} · 500 shown"
+    # A real click on a flag whose event is past the first page of the events list.
+    href = page.evaluate("""(() => {
+        const a = Array.from(document.querySelectorAll('a.mk[href]'))
+          .find(a => a.getBoundingClientRect().width > 0 && +a.getAttribute('href').slice(4) > 60);
+        a.scrollIntoView({block: 'center'});
+        return a.getAttribute('href'); })()""")
+    x, y = page.evaluate(f"""(() => {{ const r = document.querySelector('a.mk[href="{href}"] .flag')
+        .getBoundingClientRect(); return [r.x + r.width / 2, r.y + r.height / 2]; }})()""")
+    for kind in ("mousePressed", "mouseReleased"):
+        page.send("Input.dispatchMouseEvent", type=kind, x=x, y=y, button="left", clickCount=1)
+    page.settle()
+    number = int(href.removeprefix("#ev-"))
+    assert page.evaluate("location.hash") == href
+    assert page.evaluate(f"document.getElementById('{href[1:]}').offsetParent !== null")
+    events_status = ("document.querySelector('table.events').parentNode.nextElementSibling"
+                     ".querySelector('span').textContent")
+    assert page.evaluate(events_status).startswith(f"page {(number - 1) // PAGE['events'] + 1} of ")
