@@ -75,6 +75,7 @@ def _root(
 # Verbs register themselves on `app` when imported.
 from driftline.cli import scan_cmd  # noqa: E402,F401
 from driftline.cli import gate_cmd  # noqa: E402,F401
+from driftline.cli import schema_cmd  # noqa: E402,F401
 
 
 def main() -> None:

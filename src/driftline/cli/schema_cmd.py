@@ -1,0 +1,158 @@
+"""`driftline schema`: recommend a unified schema with cast rules, and write it as schema files."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import typer
+from rich.console import Console
+
+from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
+from driftline.emit.atomic import write_output
+from driftline.emit.safe import safe_text
+from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
+from driftline.errors import OutputError, PolicyError
+from driftline.gate.inputs import profile_of
+from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
+from driftline.recommend.plan import Recommendation
+from driftline.scan import default_jobs
+from driftline.sources.base import DEFAULT_BATCH_ROWS, ReadOptions
+
+FORMATS = ("json-schema", "arrow", "arrow-text", "sql", "avro")
+
+SCHEMA_HELP = """Recommend one schema for files and folders (or a saved scan report), with a cast
+rule per field and what each rule would null or change, counted by the scan.
+
+The terminal shows the schema and every rule that does something. --to writes the schema
+as a file in an open standard; --rules writes the cast rules as JSON (docs/rules.schema.json).
+docs/recommend.md describes the rules, the options and the formats.
+
+Examples:
+
+  driftline schema landing/ --to json-schema --out landing.schema.json
+
+  driftline schema landing/ --to arrow --out landing.arrow-schema
+
+  driftline schema landing/ --to sql --table raw_readings --out create.sql
+
+  driftline schema landing/ --to avro --out landing.avsc
+
+  driftline schema landing/ --rules rules.json
+
+  driftline schema report.json --to sql          (a saved `driftline scan --json` report)
+
+Exit codes: 0 done; 1 --strict and some field needs a lossy or conflicting rule (they are
+listed); 2 usage or input error (unknown --to, bad option or config, a path that does not
+exist, a report of another format version, an unwritable output).
+"""
+
+
+def _options(config: str | None, strict: bool, prefer_decimal: bool, timestamp_unit: str | None,
+             timestamp_zone: str | None, parse_strings: str | None, null_tokens: str | None,
+             max_null_share: float | None, min_field_share: float | None) -> RecommendOptions:
+    # The config file first, then the flags that were given on the command line.
+    base = RecommendOptions.from_toml(config) if config else RecommendOptions()
+    return base.replace(mode="strict" if strict else None, prefer_decimal=True if prefer_decimal else None,
+                        timestamp_unit=timestamp_unit, timestamp_zone=timestamp_zone,
+                        parse_strings=parse_strings, null_tokens=null_tokens,
+                        max_null_share=max_null_share, min_field_share=min_field_share)
+
+
+def _table_name(rec: Recommendation, table: str | None) -> str:
+    if table:
+        return table
+    name = Path(rec.root).name or "records"
+    return name
+
+
+def _render(rec: Recommendation, fmt: str, table: str, json_mode: str) -> bytes:
+    if fmt == "json-schema":
+        return json_schema.dumps(json_schema.json_schema(rec, mode=json_mode, title=table))  # type: ignore[arg-type]
+    if fmt == "arrow":
+        return arrow_schema.ipc_bytes(rec)
+    if fmt == "arrow-text":
+        return arrow_schema.schema_text(rec).encode()
+    if fmt == "sql":
+        return sql.script(rec, table).encode()
+    return avro.dumps(avro.avro_schema(rec, name=avro.avro_name(table)))
+
+
+def _check_out(target: str | None, what: str) -> None:
+    """Refuse an unwritable output before any scanning is done."""
+    if target in (None, "-"):
+        return
+    folder = Path(target).resolve().parent
+    if not folder.is_dir():
+        raise OutputError(f"cannot write {target!r} ({what}): folder {str(folder)!r} does not exist")
+    if Path(target).is_dir():
+        raise OutputError(f"cannot write {target!r} ({what}): it is a folder; give a file name")
+
+
+@app.command("schema", help=SCHEMA_HELP, no_args_is_help=True)
+@handles_errors
+def schema_command(
+    paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
+    to: str | None = typer.Option(None, "--to", metavar="FORMAT",
+                                  help=f"Write the schema as one of: {', '.join(FORMATS)}."),
+    out: str = typer.Option("-", "--out", "-o", metavar="FILE|-", help="Where --to writes ('-' for stdout)."),
+    table: str | None = typer.Option(None, "--table", metavar="NAME",
+                                     help="Table name (SQL) or record name (Avro); default: the root folder's name."),
+    rules: str | None = typer.Option(None, "--rules", metavar="FILE|-", help="Write the cast rules as JSON."),
+    config: str | None = typer.Option(None, "--config", metavar="FILE",
+                                      help="TOML file with a [recommend] table of options; flags override it."),
+    strict: bool = typer.Option(False, "--strict", help="A conflict is an error: exit 1 and list the fields."),
+    prefer_decimal: bool = typer.Option(False, "--prefer-decimal", help="Decimal-looking strings become decimal(p,s)."),
+    timestamp_unit: str | None = typer.Option(None, "--timestamp-unit", metavar="s|ms|us|ns",
+                                              help="Unit of timestamps parsed from strings (default us)."),
+    timestamp_zone: str | None = typer.Option(None, "--timestamp-zone", metavar="ZONE",
+                                              help="Zone of zoned timestamps, assumed for local ones (default UTC)."),
+    parse_strings: str | None = typer.Option(None, "--parse-strings", metavar="mixed|always",
+                                             help="Parse number-looking strings only beside real numbers (mixed)."),
+    null_tokens: str | None = typer.Option(None, "--null-tokens", metavar="parse|always|never",
+                                           help="Where null tokens such as 'n/a' become null (default parse)."),
+    max_null_share: float | None = typer.Option(None, "--max-null-share", metavar="SHARE",
+                                                help="Null up to this share of values that do not parse (default 0)."),
+    min_field_share: float | None = typer.Option(None, "--min-field-share", metavar="SHARE",
+                                                 help="Drop fields present in less than this share (0: keep all)."),
+    json_mode: str | None = typer.Option(None, "--json-mode", metavar="permissive|strict",
+                                         help="JSON Schema of the data as it arrives, or after the rules "
+                                              "(default: the --strict setting)."),
+    batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch (as for scan)."),
+    jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
+) -> None:
+    if to is not None and to not in FORMATS:
+        raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
+    if json_mode is not None and json_mode not in ("permissive", "strict"):
+        raise PolicyError(f"unknown --json-mode {json_mode!r}; choose permissive or strict")
+    if to is not None and out == "-" and rules == "-":
+        raise PolicyError("--out and --rules cannot both write to stdout ('-'); give one a file name")
+    if to == "arrow" and out == "-" and sys.stdout.isatty():
+        raise OutputError("--to arrow writes a binary IPC message; give --out FILE (or use --to arrow-text)")
+    _check_out(out if to else None, "--out")
+    _check_out(rules, "--rules")
+    opts = _options(config, strict, prefer_decimal, timestamp_unit, timestamp_zone, parse_strings,
+                    null_tokens, max_null_share, min_field_share)
+    profile = profile_of(paths, read=ReadOptions(batch_rows=batch_rows), jobs=jobs)
+    to_stdout = (to is not None and out == "-") or rules == "-"
+    console = err_console if to_stdout else Console(highlight=False)
+    try:
+        rec = recommend(profile, options=opts)
+    except SchemaConflictError as exc:
+        if not quiet:
+            summary.render(exc.recommendation, console)
+        err_console.print(f"SchemaConflictError: {safe_text(exc, None)}", markup=False)
+        for plan in exc.conflicts:
+            err_console.print("  " + summary.rule_line(plan), markup=False)
+        raise typer.Exit(EXIT_VIOLATION) from None
+    name = _table_name(rec, table)
+    if to is not None:
+        write_output(out, _render(rec, to, name, json_mode or opts.mode))
+    if rules is not None:
+        write_output(rules, rules_json.dumps(rec))
+    if not quiet:
+        summary.render(rec, console)
+        for target, what in ((out if to else None, to), (rules, "cast rules")):
+            if target not in (None, "-"):
+                console.print(f"{what} written to {safe_text(target)}", markup=False)
