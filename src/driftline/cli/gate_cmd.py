@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 import orjson
@@ -9,6 +10,7 @@ import typer
 from rich.console import Console
 
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.errors import InputPathError
@@ -133,8 +135,12 @@ def check_command(
     if json_out == "-" and junit == "-":
         raise InputPathError("--json and --junit cannot both write to stdout ('-')")
     settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden)
-    verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
-                              rebuild=rebuild, scan=settings)
+    bar = _Bar(sys.stderr.isatty() and not quiet)
+    try:
+        verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
+                                  rebuild=rebuild, scan=settings, progress=bar)
+    finally:
+        bar.close()
     if note:
         err_console.print(f"note: {note}", markup=False)
     if json_out is not None:

@@ -80,7 +80,7 @@ class _Tally:
     """
 
     rule: str
-    field: str | None
+    path: str | None
     change: str
     message: str
     within: bool = False
@@ -218,13 +218,13 @@ def check_fields(w: _Walk, out: _Findings) -> None:
             if not exp.required:
                 continue
             parent, _ = paths.parent(path)
-            st = obs.fields.get(path)
-            container = containers.get(path) if st is not None else (
+            seen = obs.fields.get(path)
+            container = containers.get(path) if seen is not None else (
                 obs.rows if parent is None else container_count(path, obs.fields, obs.rows))
-            absent = (container or 0) - (st.present if st is not None else 0)
+            absent = (container or 0) - (seen.present if seen is not None else 0)
             if absent > 0:
                 # The first absent row is known only when the whole batch lacks a top-level field.
-                row = obs.row_start if st is None and parent is None else None
+                row = obs.row_start if seen is None and parent is None else None
                 places = "row(s)" if parent is None else "of its containers"
                 out.add("missing_required", path, "required field absent",
                         f"absent from {{n}} {places} in {{files}}, where the baseline requires it",
@@ -365,7 +365,7 @@ def _violations(profile: Profile, tallies: Iterable[_Tally], policy: Policy) -> 
         nfiles = f"{len(t.files)} file" + ("s" if len(t.files) != 1 else "")
         message = t.message.replace("{n}", f"{t.count:,}").replace("{files}", nfiles)
         out.append(Violation(
-            rule=t.rule, severity=severity, field=t.field, change=t.change, message=message, count=t.count,
+            rule=t.rule, severity=severity, field=t.path, change=t.change, message=message, count=t.count,
             files=len(t.files), file=t.file or None, partitions=parts.get(t.file or "", ()),
             row=t.row if t.row is not None and t.row >= 0 else None, line=ex.line if ex else None,
             example=ex.value if ex and ex.value else None,

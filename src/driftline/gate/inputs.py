@@ -56,6 +56,6 @@ def profile_of(
         return side
     items = [side] if isinstance(side, str | os.PathLike) else list(side)
     if len(items) == 1 and is_report(items[0]):
-        return load_report(items[0])
+        return load_report(os.fspath(items[0]))
     return scan_paths(items, read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                       jobs=jobs, max_errors=max_errors, progress=progress)

@@ -106,7 +106,8 @@ class Policy:
 
     def action(self, rule: str) -> Action:
         """The action for a rule name from RULES."""
-        return getattr(self, rule)  # type: ignore[no-any-return]
+        action: Action = getattr(self, rule)
+        return action
 
     def to_dict(self) -> dict[str, Any]:
         return dataclasses.asdict(self)

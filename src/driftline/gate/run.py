@@ -52,8 +52,8 @@ def run_check(
 ) -> tuple[Verdict, str | None]:
     """Judge paths (or a Profile, or a saved report) against a baseline; also a note for stderr."""
     settings = scan or ScanSettings()
-    pol = policy if isinstance(policy, Policy) else load_policy(policy) if policy is not None else Policy()
-    base = baseline if isinstance(baseline, Baseline) else load_baseline(baseline)
+    pol = policy if isinstance(policy, Policy) else load_policy(os.fspath(policy)) if policy is not None else Policy()
+    base = baseline if isinstance(baseline, Baseline) else load_baseline(os.fspath(baseline))
     note = None
     items = [] if isinstance(paths, Profile) else [paths] if isinstance(paths, str | os.PathLike) else list(paths)
     loaded = isinstance(paths, Profile) or (len(items) == 1 and is_report(items[0]))
