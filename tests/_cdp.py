@@ -27,6 +27,7 @@ FLAGS = [
     "--headless",
     "--no-sandbox",
     "--disable-gpu",
+    "--disable-dev-shm-usage",  # small /dev/shm in containers
     "--disable-quic",
     "--no-first-run",
     "--no-default-browser-check",
