@@ -11,8 +11,8 @@ import os
 import signal
 import sys
 import tempfile
-from contextlib import contextmanager
 from collections.abc import Iterator
+from contextlib import contextmanager
 
 from driftline.errors import OutputError
 
@@ -34,6 +34,16 @@ def _terminate_as_interrupt() -> Iterator[None]:
         signal.signal(signal.SIGTERM, previous)
 
 
+def _mode_for(target: str) -> int:
+    """Keep an existing file's mode; a new file gets the usual 0666 less the umask (mkstemp gives 0600)."""
+    try:
+        return os.stat(target).st_mode & 0o7777
+    except OSError:
+        umask = os.umask(0)
+        os.umask(umask)
+        return 0o666 & ~umask
+
+
 def write_output(target: str, data: str | bytes) -> None:
     """Write data to target atomically, or to stdout when target is '-'."""
     payload = data.encode("utf-8") if isinstance(data, str) else data
@@ -50,6 +60,7 @@ def write_output(target: str, data: str | bytes) -> None:
     try:
         with _terminate_as_interrupt():
             fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(target) + ".", suffix=".tmp", dir=folder)
+            os.fchmod(fd, _mode_for(target))
             with os.fdopen(fd, "wb") as fh:
                 fh.write(payload)
                 fh.flush()
