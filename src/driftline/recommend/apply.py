@@ -250,7 +250,7 @@ def _json_text(plan: FieldPlan, variant: pa.Array, tally: Tally) -> pa.Array:
         else:
             out.append(orjson.dumps(cell if cell is not None else plain(v)).decode())
     arr = pa.array(out, pa.string())
-    tally.add(plan.path, "as_json_text", arr.length() - arr.null_count)
+    tally.add(plan.path, "as_json_text", len(arr) - arr.null_count)
     return arr
 
 

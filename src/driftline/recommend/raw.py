@@ -338,5 +338,6 @@ def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str
                     yield ref.rel, row, {k: cell_value(v) for k, v in rec.items()}
                     row += 1
         else:
-            for row, rec in enumerate(pq.read_table(ref.path).to_pylist()):
+            # Maps as JSON objects (their keys), as a JSON producer would write them.
+            for row, rec in enumerate(pq.read_table(ref.path).to_pylist(maps_as_pydicts="lossy")):
                 yield ref.rel, row, json_value(rec)
