@@ -20,6 +20,7 @@ _BOM = b"\xef\xbb\xbf"
 DOCUMENT_LIMIT = 1024**3  # a single JSON document is parsed whole; larger ones should be JSON Lines
 
 EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) to take the exact per-record walk everywhere
+FAST_MIN_ROWS = 256  # smaller batches take the exact walk: the columnar set-up would cost more
 
 Item = Observation | FileIssue
 
@@ -189,6 +190,10 @@ class _Lines:
             take = take[: next(j for j, v in enumerate(take) if len(v) > self.max)]
         return _Window(take, self.lineno + 1, self.offset)
 
+    def ends(self, w: _Window) -> bool:
+        """Whether w holds every line left in the stream."""
+        return self.eof and not self.tail and self.k + len(w) == len(self.items)
+
     def advance(self, m: int) -> None:
         gone = self.items[self.k : self.k + m]
         size = sum(map(len, gone)) + m
@@ -235,9 +240,12 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
             msg = f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); skipped"
             yield FileIssue(rel, "too-large", msg, line=got.line, byte_offset=got.offset)
             continue
-        if fast and not out.records and (len(got) == want or src.eof):
-            done = observe_json_lines(got.items, file=rel, batch=out.batch, row_start=out.rows,
-                                      first_line=got.first_line, hint=hint)
+        if fast and not out.records and len(got) >= FAST_MIN_ROWS and (len(got) == want or src.ends(got)):
+            try:
+                done = observe_json_lines(got.items, file=rel, batch=out.batch, row_start=out.rows,
+                                          first_line=got.first_line, hint=hint)
+            except Exception:  # the fast path may only decline, never lose rows: the walk decides
+                done = None
             if done is not None:
                 obs, hint = done
                 out.took(obs)

@@ -1,0 +1,198 @@
+"""The fast paths and the exact path give the same report, byte for byte, on the test corpus.
+
+Every scan here runs twice: once as shipped (columnar fast paths where they apply) and once
+with ReadOptions(exact=True) (the per-record walk everywhere).  The reports are compared as
+JSON text without duration_s, so 1 and 1.0, or -0.0 and 0.0, count as different.  Batches
+are small and the fast path's minimum batch is lowered so the fast path is really taken.
+"""
+
+from __future__ import annotations
+
+import json
+import random
+from pathlib import Path
+from typing import Any
+
+import orjson
+import pytest
+
+import driftline.sources.jsonfile as jsonfile
+from driftline.report import to_dict
+from driftline.scan import scan_paths
+from driftline.sources.base import ReadOptions
+
+TESTDATA = Path(__file__).resolve().parents[1].parent / "shared" / "testdata"
+JSON_SUITE = TESTDATA / "json-parsing" / "test_parsing"
+CSV_SUITE = TESTDATA / "csv-edge-cases" / "csvs"
+PARQUET_SUITE = TESTDATA / "parquet-conformance" / "data"
+
+
+@pytest.fixture(autouse=True)
+def _fast_path_on_small_batches(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(jsonfile, "FAST_MIN_ROWS", 1)
+    monkeypatch.delenv(jsonfile.EXACT_ENV, raising=False)
+
+
+def _report(paths: list[Path], exact: bool, batch_rows: int) -> bytes:
+    profile = scan_paths([str(p) for p in paths], read=ReadOptions(batch_rows=batch_rows, exact=exact))
+    data = to_dict(profile)
+    data.pop("duration_s")
+    return orjson.dumps(data, option=orjson.OPT_SORT_KEYS)
+
+
+def _same(paths: list[Path], batch_rows: int) -> dict[str, Any]:
+    fast, exact = _report(paths, False, batch_rows), _report(paths, True, batch_rows)
+    if fast != exact:  # show where, not two walls of JSON
+        a, b = json.loads(fast), json.loads(exact)
+        for key in ("fields", "files", "events", "summary"):
+            assert a[key] == b[key], key
+    assert fast == exact
+    return json.loads(fast)
+
+
+# -- the demo landing directory ------------------------------------------------------
+
+
+@pytest.mark.parametrize("batch_rows", [50, 65_536])
+def test_demo(demo_dir: Path, batch_rows: int) -> None:
+    report = _same([demo_dir / "landing"], batch_rows)
+    assert report["summary"]["files"] > 10 and report["summary"]["rows"] > 1000
+
+
+# -- generated drift cases -----------------------------------------------------------
+
+_STRINGS = ["", " ", "null", "N/A", "true", "FALSE", "42", "007", "-3.25", "1e5", "12345678901234567890",
+            "2026-02-29", "2024-02-29", "1990-12-31T23:59:60Z", "1985-04-12t23:20:50.52z",
+            "1996-12-19T16:39:57-08:00", "1985-04-12 23:20:50", "1985-04-12T23:20:50+0800",
+            "2026-01-01T00:00:00.123456789Z", "plain text", "déjà vu", "😀", "a\nb", "0x1F", "+1"]
+_NUMBERS = [0, -0.0, 1, 1.0, -1, 2.5, 1e300, -1e-300, 2**53, 2**53 + 1, 2**63 - 1, 2**63, 2**64 - 1, 2**64,
+            -(2**63), -(2**63) - 1, 12.0, 0.1, 1e16, 123456789.0]
+
+
+def _value(rng: random.Random, depth: int = 0) -> Any:
+    roll = rng.random()
+    if roll < 0.12:
+        return None
+    if roll < 0.4:
+        return rng.choice(_STRINGS)
+    if roll < 0.65:
+        return rng.choice(_NUMBERS)
+    if roll < 0.72:
+        return rng.random() < 0.5
+    if depth >= 2:
+        return rng.randrange(10)
+    if roll < 0.86:
+        return [_value(rng, depth + 1) for _ in range(rng.randrange(4))]
+    return {k: _value(rng, depth + 1) for k in rng.sample(["x", "y", "a.b", "`q`", "é"], rng.randrange(4))}
+
+
+def _record(rng: random.Random, i: int, n: int, style: str) -> dict[str, Any]:
+    rec: dict[str, Any] = {"id": i}
+    if style == "typed":  # homogeneous columns with rare drift: where the fast path must hold
+        rec["n"] = rng.randrange(1000) if i < n // 2 else round(rng.uniform(0, 100), 1)
+        rec["s"] = rng.choice(_STRINGS[:8]) if rng.random() < 0.9 else rng.choice(_STRINGS)
+        rec["tags"] = rng.sample(["a", "b", "c"], rng.randrange(3)) if rng.random() < 0.97 else "a"
+        pos = {"lat": round(rng.uniform(-9, 9), 2)}
+        if rng.random() < 0.1:
+            pos["lat"] = None
+        if i > n // 3:
+            pos["alt"] = rng.choice([1, 2, 3.5, None])
+        rec["pos"] = pos if rng.random() < 0.95 else None
+        if rng.random() < 0.05:
+            rec["maybe"] = None
+        if rng.random() < 0.3:
+            rec["items"] = [{"k": rng.choice([1, None]), **({"z": "q"} if rng.random() < 0.5 else {})}]
+        rec["empty"] = [] if rng.random() < 0.5 else {}
+    else:  # anything anywhere
+        for name in rng.sample(["a", "b", "c", "d", "e", "f"], rng.randrange(1, 6)):
+            rec[name] = _value(rng)
+    return rec
+
+
+def _drift_file(path: Path, n: int, style: str, seed: int) -> Path:
+    rng = random.Random(seed)
+    # json.dumps, not orjson: it writes integers past 64 bits, and floats as 1e+300 / -0.0
+    text = "".join(json.dumps(_record(rng, i, n, style), ensure_ascii=rng.random() < 0.5) + "\n" for i in range(n))
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+@pytest.mark.parametrize("style", ["typed", "mixed"])
+@pytest.mark.parametrize("batch_rows", [1, 37, 500])
+def test_generated_drift(tmp_path: Path, style: str, batch_rows: int) -> None:
+    n = 120 if batch_rows == 1 else 900  # one Arrow parse per row is slow: fewer rows there
+    files = [_drift_file(tmp_path / f"{style}-{k}.jsonl", n, style, seed=k) for k in range(3)]
+    report = _same(files, batch_rows)
+    assert report["summary"]["rows"] == 3 * n and report["summary"]["errors"] == 0
+
+
+def test_lines_the_exact_reader_reports(tmp_path: Path) -> None:
+    # Blank, malformed, CRLF, BOM, NaN (RFC 8259 section 6 forbids it; Arrow accepts it),
+    # two objects on one line (Arrow reads both), a scalar line, a line past the limit,
+    # invalid UTF-8, deep nesting, and a last line without a newline.
+    good = [orjson.dumps({"a": i, "b": str(i)}) for i in range(40)]
+    odd = [b"", b"   ", b"{\"a\": 1,}", b"{\"a\": 1}\r", b"{\"a\": NaN}", b"{\"a\": 1} {\"a\": 2}", b"[1, 2]", b"7",
+           b"{\"a\": \"" + b"x" * 300 + b"\"}", b"{\"a\": \"\xff\"}", b"{\"a\": " + b"[" * 600 + b"]" * 600 + b"}",
+           b"{\"a\": -Infinity}", b"{\"a\": \"\\ud800\"}", b"{\"a\": 1, \"a\": 2}"]
+    files = []
+    for k, line in enumerate(odd):
+        f = tmp_path / f"odd-{k}.jsonl"
+        f.write_bytes(b"\n".join(good[:20] + [line] + good[20:]) + b"\n")
+        files.append(f)
+    (tmp_path / "bom.jsonl").write_bytes(b"\xef\xbb\xbf" + b"\n".join(good) + b"\n")
+    (tmp_path / "no-final-newline.jsonl").write_bytes(b"\n".join(good))
+    files += [tmp_path / "bom.jsonl", tmp_path / "no-final-newline.jsonl"]
+    for batch_rows in (8, 1000):
+        profile = scan_paths([str(f) for f in files], read=ReadOptions(batch_rows=batch_rows, max_record_bytes=200))
+        exact = scan_paths([str(f) for f in files], read=ReadOptions(batch_rows=batch_rows, max_record_bytes=200,
+                                                                     exact=True))
+        a, b = to_dict(profile), to_dict(exact)
+        a.pop("duration_s"), b.pop("duration_s")
+        assert orjson.dumps(a) == orjson.dumps(b)
+    kinds = sorted({i.kind for i in profile.issues})
+    assert kinds == ["bom", "crlf", "malformed-json", "too-large"]
+
+
+# -- conformance suites --------------------------------------------------------------
+
+
+def _suite_lines(tmp_path: Path, prefix: str) -> list[Path]:
+    """Each suite document as a field value on JSON Lines, between ordinary records."""
+    out = []
+    for f in sorted(JSON_SUITE.glob(prefix + "*.json")):
+        body = f.read_bytes().strip()
+        if b"\n" in body or b"\r" in body or not body:
+            continue
+        target = tmp_path / (f.stem + ".jsonl")
+        target.write_bytes(b'{"k": 1, "v": ' + body + b'}\n{"k": 2}\n{"k": 3, "v": ' + body + b"}\n")
+        out.append(target)
+    return out
+
+
+@pytest.mark.parametrize("prefix", ["y_", "n_", "i_"])
+def test_json_parsing_suite_values_on_lines(tmp_path: Path, prefix: str) -> None:
+    # source: JSON parsing test suite (RFC 8259 cases), y_/n_/i_ files: whatever the exact
+    # reader accepts or reports, the fast path must say the same.
+    files = _suite_lines(tmp_path, prefix)
+    assert len(files) == {"y_": 93, "n_": 183, "i_": 35}[prefix]  # the one-line documents
+    _same(files, 2)
+
+
+def test_json_parsing_suite_documents() -> None:
+    # source: JSON parsing test suite (RFC 8259 cases), y_ files as documents
+    files = sorted(JSON_SUITE.glob("y_*.json"))
+    assert len(files) == 95
+    report = _same(files, 3)
+    assert report["summary"]["errors"] == 0
+
+
+def test_csv_edge_cases() -> None:
+    # source: csv-edge-cases suite
+    _same(sorted(CSV_SUITE.glob("*.csv")), 2)
+
+
+def test_parquet_conformance_data() -> None:
+    # source: Apache Parquet conformance files (parquet-conformance/data)
+    files = sorted(p for p in PARQUET_SUITE.iterdir() if p.suffix == ".parquet")
+    assert len(files) > 40
+    _same(files, 1000)
