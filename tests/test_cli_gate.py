@@ -14,12 +14,10 @@ import pytest
 from jsonschema import Draft202012Validator
 from typer.testing import CliRunner
 
-import driftline
 from conftest import write_lines
 from driftline.cli import app
 from driftline.gate.diff import DIFF_KINDS
 from driftline.gate.policy import keys
-from driftline.profile import FieldSummary
 
 EXE = [sys.executable, "-m", "driftline.cli"]
 DAYS = ("2026-11-28", "2026-11-29", "2026-11-30")
@@ -62,51 +60,28 @@ def _day(land: Path, n: int) -> Path:
     return write_lines(land / f"day={day}" / "part-0.jsonl", lines)
 
 
-_JSON_TYPES = {"int64": "integer", "float64": "number", "string": "string", "bool": "boolean", "struct": "object",
-               "list": "array"}
-
-
-def _contract(fields: dict[str, FieldSummary], prefix: str = "") -> dict[str, Any]:
-    """A small JSON Schema writer for the test's baseline: the day-1 fields as they were seen.
-
-    (The project's own `driftline schema --to json-schema` is written for another issue;
-    this helper uses only the keywords the gate reads.)
-    """
-    props: dict[str, Any] = {}
-    required = []
-    for path, s in fields.items():
-        if not path.startswith(prefix) or "." in path[len(prefix):]:
-            continue
-        name = path[len(prefix):]
-        kinds = [_JSON_TYPES[k] for k in s.stats.types]
-        node: dict[str, Any] = {"type": kinds[0] if len(kinds) == 1 and not s.stats.nulls else kinds
-                                + (["null"] if s.stats.nulls else [])}
-        if set(s.stats.classes) == {"timestamp_rfc3339"}:
-            node["format"] = "date-time"
-        if kinds == ["object"]:
-            node.update(_contract(fields, path + "."))
-        props[name] = node
-        if not s.absent:
-            required.append(name)
-    return {"type": "object", "required": required, "properties": props}
-
-
 @pytest.fixture()
 def pipeline(tmp_path: Path) -> dict[str, Path]:
     land = tmp_path / "landing"
     _day(land, 1)
-    contract = tmp_path / "contract.schema.json"
-    schema = {"$schema": "https://json-schema.org/draft/2020-12/schema", **_contract(driftline.scan(land).fields)}
-    Draft202012Validator.check_schema(schema)  # source: jsonschema 4.26.0, the 2020-12 meta-schema
-    contract.write_text(json.dumps(schema, indent=2), encoding="utf-8")
     gate = tmp_path / "gate.toml"
     gate.write_text('# this team wants to hear about widenings\nwidening = "warn"\n', encoding="utf-8")
-    return {"land": land, "contract": contract, "gate": gate, "state": tmp_path / ".driftline-state",
-            "dir": tmp_path}
+    return {"land": land, "contract": tmp_path / "contract.schema.json", "gate": gate,
+            "state": tmp_path / ".driftline-state", "dir": tmp_path}
+
+
+def _write_contract(p: dict[str, Path]) -> None:
+    """Step 1: `driftline schema` writes the baseline from day 1 (then reviewed and committed)."""
+    res = run("schema", p["land"], "--to", "json-schema", "--out", p["contract"], "--jobs", "1")
+    assert res.returncode == 0, res.stderr
+    schema = json.loads(p["contract"].read_text())
+    Draft202012Validator.check_schema(schema)  # source: jsonschema 4.26.0, the 2020-12 meta-schema
+    assert schema["properties"]["seq"]["x-driftline"] == {"arrow": "int64", "rule": "identity"}
 
 
 def test_the_pipeline_flow(pipeline: dict[str, Path]):
     land, contract, gate, state, d = (pipeline[k] for k in ("land", "contract", "gate", "state", "dir"))
+    _write_contract(pipeline)
     check = ("check", land, "--baseline", contract, "--policy", gate, "--jobs", "1")
 
     # 1. The baseline was written from day 1: day 1 passes against it, and the state is built.
@@ -166,7 +141,12 @@ def test_the_pipeline_flow(pipeline: dict[str, Path]):
         assert inc[key] == full[key], key
 
 
+def _contract_here(p: dict[str, Path]) -> None:
+    assert invoke("schema", p["land"], "--to", "json-schema", "--out", p["contract"]).returncode == 0
+
+
 def test_damaged_state_exits_2_and_rebuild_starts_over(pipeline: dict[str, Path]):
+    _contract_here(pipeline)
     pipeline["state"].write_text('{"format": "driftline-state", "version": 1, "files": [', encoding="utf-8")
     base = ("check", pipeline["land"], "--baseline", pipeline["contract"], "--state", pipeline["state"])
     res = invoke(*base)
@@ -178,6 +158,7 @@ def test_damaged_state_exits_2_and_rebuild_starts_over(pipeline: dict[str, Path]
 
 
 def test_usage_errors_exit_2(pipeline: dict[str, Path]):
+    _contract_here(pipeline)
     land, contract = pipeline["land"], pipeline["contract"]
     cases = [
         (("check", land, "--baseline", pipeline["dir"] / "missing.json"), "cannot read baseline"),
@@ -234,6 +215,7 @@ def test_diff_a_report_against_a_partition_and_by_day(pipeline: dict[str, Path],
 
 
 def test_check_a_saved_report(pipeline: dict[str, Path], tmp_path: Path):
+    _contract_here(pipeline)
     land = pipeline["land"]
     _day(land, 3)
     assert invoke("scan", land, "--json", tmp_path / "r.json", "--quiet").returncode == 0
@@ -245,3 +227,17 @@ def test_check_a_saved_report(pipeline: dict[str, Path], tmp_path: Path):
         ("type_change", "seq", 17, '"17b"')]
     res = invoke("check", tmp_path / "r.json", "--baseline", pipeline["contract"], "--state", tmp_path / ".s")
     assert res.returncode == 2 and "give data paths, not a saved report" in res.stderr
+
+
+def test_check_against_a_rules_file(pipeline: dict[str, Path], tmp_path: Path):
+    land = pipeline["land"]
+    assert invoke("schema", land, "--rules", tmp_path / "rules.json").returncode == 0
+    _day(land, 2)
+    _day(land, 3)
+    res = invoke("check", land, "--baseline", tmp_path / "rules.json", "--junit", "-", "-q")
+    assert res.returncode == 1
+    suite = ET.fromstring(res.stdout).find("testsuite")
+    failing = [c.get("name") for c in suite.findall("testcase") if c.find("failure") is not None]
+    assert failing == ["type_change"]
+    rules = {c.get("name"): c for c in suite.findall("testcase")}
+    assert rules["cast_loss"].find("skipped") is None  # the rules file has a parse rule: cast_loss is checked

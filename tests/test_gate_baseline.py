@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import pytest
 from jsonschema import Draft202012Validator
@@ -18,6 +19,8 @@ from driftline.gate.baseline import (
 )
 from driftline.lattice import parse_key
 from driftline.report import dumps
+
+ROOT = Path(__file__).resolve().parents[1]
 
 SCHEMA = {
     "$schema": "https://json-schema.org/draft/2020-12/schema",
@@ -153,3 +156,54 @@ def test_load_errors_are_clear(tmp_path):
     with pytest.raises(ReportVersionError, match="neither a JSON Schema nor a driftline scan report "
                                                  r"\(its format is 'something-else'\)"):
         load_baseline(other)
+
+
+def _recommended(tmp_path):
+    data = write_lines(tmp_path / "d" / "a.jsonl", [
+        '{"id": 1, "at": "2026-11-29T10:00:00Z", "n": "12", "tags": ["a"], "geo": {"lat": 1.5}}',
+        '{"id": 2, "at": "2026-11-29T11:00:00Z", "n": 7, "tags": "b", "geo": {"lat": 2}, "opt": null}',
+    ])
+    return driftline.scan(data.parent).recommend()
+
+
+def test_a_rules_file_and_the_json_schema_give_the_same_baseline(tmp_path):
+    from driftline.emit.schemas.json_schema import json_schema
+    from driftline.emit.schemas.rules_json import rules_document
+
+    rec = _recommended(tmp_path)
+    doc = rules_document(rec)
+    # source: docs/rules.schema.json (the rules file's published format), checked by jsonschema 4.26.0
+    Draft202012Validator(json.loads((ROOT / "docs" / "rules.schema.json").read_text())).validate(doc)
+    rules_file, schema_file = tmp_path / "rules.json", tmp_path / "contract.schema.json"
+    rules_file.write_text(json.dumps(doc), encoding="utf-8")
+    schema = json_schema(rec)
+    Draft202012Validator.check_schema(schema)
+    schema_file.write_text(json.dumps(schema), encoding="utf-8")
+    from_rules, from_schema = load_baseline(rules_file), load_baseline(schema_file)
+    assert (from_rules.kind, from_schema.kind) == ("rules", "json-schema")
+    assert list(from_rules.fields) == list(from_schema.fields)
+    for path, r in from_rules.fields.items():
+        s = from_schema.fields[path]
+        assert (r.type, r.nullable, r.required, r.rule) == (s.type, s.nullable, s.required, s.rule), path
+    assert {p: e.rule for p, e in from_rules.fields.items()} == {
+        "at": "parse_timestamp", "geo": "identity", "geo.lat": "widen_numeric", "id": "identity",
+        "n": "parse_integer", "opt": "identity", "tags": "wrap_scalar_in_list", "tags[]": "identity"}
+    assert from_rules.fields["n"].accept == frozenset({"integer"})  # what the rule parses
+
+
+def test_bad_rules_files(tmp_path):
+    from driftline.emit.schemas.rules_json import rules_document
+
+    doc = rules_document(_recommended(tmp_path))
+    f = tmp_path / "rules.json"
+    f.write_text(json.dumps(doc | {"version": 9}), encoding="utf-8")
+    with pytest.raises(ReportVersionError, match="has rules version 9; this driftline reads version 1"):
+        load_baseline(f)
+    broken = dict(doc, fields=[*doc["fields"][:2], {k: v for k, v in doc["fields"][2].items() if k != "target"}])
+    f.write_text(json.dumps(broken), encoding="utf-8")
+    with pytest.raises(UnreadableFileError, match=r"fields\[2\] lacks the key 'target'"):
+        load_baseline(f)
+    broken["fields"][2] = doc["fields"][2] | {"target": "int65"}
+    f.write_text(json.dumps(broken), encoding="utf-8")
+    with pytest.raises(UnreadableFileError, match=r"fields\[2\]: cannot parse type key 'int65'"):
+        load_baseline(f)

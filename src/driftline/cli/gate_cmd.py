@@ -44,8 +44,9 @@ def _policy_table() -> str:
 CHECK_HELP = f"""Check scanned data against a baseline under a policy; exit 1 on a violation.
 
 The baseline is a JSON Schema 2020-12 file (as `driftline schema --to json-schema` writes
-it; the x-driftline annotation adds the Arrow type and cast rule), or a saved scan report
-(`driftline scan --json`). PATHS may be data files, folders or globs, or one saved report.
+it; the x-driftline annotation adds the Arrow type and cast rule), a cast-rules file
+(`driftline schema --rules`) or a saved scan report (`driftline scan --json`). PATHS may
+be data files, folders or globs, or one saved report.
 
 The terminal shows the verdict first, then each violation and warning with its field,
 change, file, partition, row and an example value.
@@ -110,7 +111,7 @@ _HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders star
 def check_command(
     paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
     baseline: str = typer.Option(..., "--baseline", "-b", metavar="FILE",
-                                 help="JSON Schema file or saved scan report to check against."),
+                                 help="JSON Schema, cast-rules file or saved scan report to check against."),
     policy: str | None = typer.Option(None, "--policy", "-p", metavar="FILE",
                                       help="TOML policy file (keys below); safe defaults when not given."),
     json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the verdict as JSON."),

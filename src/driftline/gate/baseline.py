@@ -6,7 +6,8 @@ A baseline comes from
     are read, plus an optional per-property annotation
     ``"x-driftline": {"arrow": "<type key>", "rule": "<cast rule name>"}``;
   * a saved scan report (`driftline scan --json`): what was observed then is the baseline;
-  * a cast-rules file that driftline wrote (see load_baseline for its status).
+  * a cast-rules file (`driftline schema --rules`, docs/rules.schema.json): each path's
+    target type, nullability, presence, rule and the content classes the rule parses.
 
 Every source becomes the same Baseline: path → Expected, with paths spelled as the scan
 spells them ('a.b', 'a[]', 'm{key}', backtick-quoted odd names).
@@ -26,6 +27,7 @@ from typing import TYPE_CHECKING, Any
 
 import orjson
 
+from driftline.emit.schemas.rules_json import RULES_FORMAT, RULES_VERSION
 from driftline.errors import InputPathError, ReportVersionError, UnreadableFileError
 from driftline.lattice import NULL, UNKNOWN, DType, join_all, parse_key
 from driftline.observe import paths
@@ -62,6 +64,7 @@ class Expected:
     open        a struct whose children the baseline does not list: any child is fine
     classes     content classes allowed for string values (from a format, or observed)
     rule        the cast rule the pipeline applies to raw values (x-driftline annotation)
+    accept      the content classes a parse_* rule parses (a rules file says; else judged by type)
     null_share  share of null or absent values when the baseline was made (reports only)
     """
 
@@ -74,6 +77,7 @@ class Expected:
     minimum: float | None = None
     maximum: float | None = None
     rule: str | None = None
+    accept: frozenset[str] | None = None
     null_share: float | None = None
 
 
@@ -306,8 +310,42 @@ def baseline_from_recommendation(rec: Recommendation, *, source: str = "recommen
     out: dict[str, Expected] = {}
     for plan in rec.walk():
         t = plan.target
+        accept = plan.params.get("accept")
         out[plan.path] = Expected(plan.path, t.with_nullable(False) if t.name != "null" else t, t.nullable,
-                                  plan.required, open=False, rule=plan.rule)
+                                  plan.required, open=False, rule=plan.rule,
+                                  accept=frozenset(accept) if accept is not None else None)
+    return Baseline("rules", source, out)
+
+
+def baseline_from_rules(doc: Mapping[str, Any], *, source: str = "rules") -> Baseline:
+    """A Baseline from a cast-rules document (docs/rules.schema.json, `driftline schema --rules`).
+
+    >>> doc = {"format": "driftline-rules", "version": 1, "fields": [{"path": "n", "target": "int64",
+    ...        "nullable": False, "required": True, "rule": "parse_integer", "params": {"accept": ["integer"]}}]}
+    >>> e = baseline_from_rules(doc).fields["n"]
+    >>> e.type.key(), e.rule, e.accept, e.required
+    ('int64', 'parse_integer', frozenset({'integer'}), True)
+    """
+    entries = doc.get("fields")
+    if not isinstance(entries, list):
+        raise UnreadableFileError(f"{source}: 'fields' must be a list of field entries")
+    out: dict[str, Expected] = {}
+    for i, fd in enumerate(entries):
+        where = f"{source}: fields[{i}]"
+        try:
+            path, target, rule = fd["path"], parse_key(fd["target"]), fd["rule"]
+            nullable, required = bool(fd["nullable"]), bool(fd["required"])
+            accept = (fd.get("params") or {}).get("accept")
+        except KeyError as exc:
+            raise UnreadableFileError(f"{where} lacks the key {exc}") from None
+        except (TypeError, ValueError) as exc:
+            raise UnreadableFileError(f"{where}: {exc}") from None
+        if not isinstance(path, str) or not isinstance(rule, str) or \
+                accept is not None and not (isinstance(accept, list) and all(isinstance(a, str) for a in accept)):
+            raise UnreadableFileError(f"{where}: 'path' and 'rule' must be strings, 'params.accept' a list of classes")
+        out[path] = Expected(path, target.with_nullable(False) if target.name != "null" else target,
+                             nullable or target.name == "null", required, open=False, rule=rule,
+                             accept=frozenset(accept) if accept is not None else None)
     return Baseline("rules", source, out)
 
 
@@ -316,9 +354,8 @@ def baseline_from_recommendation(rec: Recommendation, *, source: str = "recommen
 def load_baseline(path: str | Path) -> Baseline:
     """Read a baseline file; its kind is told from its content.
 
-    A JSON Schema (it has "$schema", "properties" or "type"), or a scan report
-    ("format": "driftline-report"). Cast-rules files are not read yet: they have no
-    published format (docs/rules.schema.json) to read them by.
+    A JSON Schema (it has "$schema", "properties" or "type"), a scan report
+    ("format": "driftline-report") or a cast-rules file ("format": "driftline-rules").
     """
     source = repr(str(path))
     try:
@@ -334,11 +371,18 @@ def load_baseline(path: str | Path) -> Baseline:
         from driftline.report import from_dict
 
         return baseline_from_profile(from_dict(doc, source=source), source=source)
+    if isinstance(doc, Mapping) and doc.get("format") == RULES_FORMAT:
+        if doc.get("version") != RULES_VERSION:
+            raise ReportVersionError(f"baseline {source} has rules version {doc.get('version')!r}; this "
+                                     f"driftline reads version {RULES_VERSION}; write the rules again with "
+                                     "driftline schema --rules")
+        return baseline_from_rules(doc, source=source)
     if isinstance(doc, Mapping) and any(k in doc for k in ("$schema", "properties", "type")):
         return baseline_from_json_schema(doc, source=source)
     kind = doc.get("format") if isinstance(doc, Mapping) else None
     raise ReportVersionError(
         f"baseline {source} is neither a JSON Schema nor a driftline scan report"
         + (f" (its format is {kind!r})" if kind else "")
-        + "; give a file that `driftline schema --to json-schema` or `driftline scan --json` wrote"
+        + "; give a file that `driftline schema --to json-schema`, `driftline schema --rules` or "
+        "`driftline scan --json` wrote"
     )

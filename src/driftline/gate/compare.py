@@ -56,10 +56,15 @@ def _has_string(b: DType) -> bool:
     return any(family(m) == "string" for m in (b.members or (b,)))
 
 
-def _casts(cls: str, b: DType, st: FieldStats) -> bool:
-    """Does a string of content class cls cast into b without becoming null?"""
+def _casts(cls: str, b: DType, st: FieldStats, accept: frozenset[str] | None = None) -> bool:
+    """Does a string of content class cls cast into b without becoming null?
+
+    accept, when the rule names them, are the classes it parses; else the class's type decides.
+    """
     if _has_string(b):
         return True
+    if accept is not None:
+        return cls in accept
     inferred = TEXT_CLASS_TYPE.get(cls)
     if inferred is None:
         return False  # empty strings and null tokens would become null
@@ -170,7 +175,7 @@ def check_types(w: _Walk, out: _Findings) -> None:
                             f"{type_text(b)} cannot hold", n, obs.file, st.first("type:" + key))
             if casting and not _has_string(b):
                 for cls, n in _string_values(st).items():
-                    if not _casts(cls, b, st):
+                    if not _casts(cls, b, st, exp.accept):
                         out.add("cast_loss", path, f"cast rule {exp.rule}: string → {type_text(b)}",
                                 "{n} string(s) in {files} that the cast rule would turn into null", n, obs.file,
                                 st.first("class:" + cls) if not st.text else st.first("type:string"))
@@ -257,7 +262,7 @@ def check_content(w: _Walk, out: _Findings) -> None:
             for cls, n in st.classes.items():
                 if cls in NULL_CLASSES or cls in exp.classes:
                     continue
-                if b is not None and not _class_kept(cls, b, st, casting):
+                if b is not None and not _class_kept(cls, b, st, casting, exp.accept):
                     continue  # the value's type changed: check_types reports it
                 allowed = ", ".join(sorted(exp.classes)) or "none"
                 out.add("content_class", path, f"new content class {cls}",
@@ -265,14 +270,14 @@ def check_content(w: _Walk, out: _Findings) -> None:
                         st.first("class:" + cls))
 
 
-def _class_kept(cls: str, b: DType, st: FieldStats, casting: bool) -> bool:
+def _class_kept(cls: str, b: DType, st: FieldStats, casting: bool, accept: frozenset[str] | None) -> bool:
     """True when a value of this class keeps a type the baseline holds."""
     if _has_string(b):
         return True
     if st.text:
         inferred = TEXT_CLASS_TYPE.get(cls)
         return inferred is not None and fits(parse_key(inferred), b)
-    return casting and _casts(cls, b, st)
+    return casting and _casts(cls, b, st, accept)
 
 
 def check_range(w: _Walk, out: _Findings) -> None:
