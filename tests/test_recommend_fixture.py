@@ -87,10 +87,11 @@ def make_orders(root: Path) -> Path:
     till.write_text(buf.getvalue())
     batch = landing / "source=batch" / "date=2026-12-03" / "orders.parquet"
     batch.parent.mkdir(parents=True)
-    utc = dt.timezone.utc
+    utc = dt.UTC
     table = pa.table({
         "id": pa.array(range(200, 200 + BATCH_ROWS), pa.int32()),
-        "created": pa.array([dt.datetime(2026, 12, 3, h, tzinfo=utc) for h in range(BATCH_ROWS)], pa.timestamp("ms", "UTC")),
+        "created": pa.array([dt.datetime(2026, 12, 3, h, tzinfo=utc) for h in range(BATCH_ROWS)],
+                            pa.timestamp("ms", "UTC")),
         "day": pa.array([dt.date(2026, 12, 3)] * BATCH_ROWS, pa.date32()),
         "labels": pa.array([["bulk"]] * BATCH_ROWS, pa.list_(pa.string())),
         "attrs": pa.array([[("w", i)] for i in range(BATCH_ROWS)], pa.map_(pa.string(), pa.int64())),
