@@ -176,3 +176,17 @@ def test_a_state_file_the_scan_would_read_is_refused(tmp_path):
     assert run.read == 1
     with pytest.raises(InputPathError, match="--state needs a file name"):
         scan_incremental([land], "-")
+
+
+def test_a_read_cut_short_is_read_again(tmp_path):
+    import gzip
+
+    land, state = tmp_path / "landing", tmp_path / "state.json"
+    _day(land, 1, 5)
+    whole = gzip.compress(b"".join(b'{"x": %d}\n' % i for i in range(2000)))
+    (land / "cut.jsonl.gz").write_bytes(whole[: len(whole) // 2])  # a gzip stream that ends early
+    first = scan_incremental([land], state)
+    assert not first.profile.file("cut.jsonl.gz").complete
+    again = scan_incremental([land], state)
+    assert (again.read, again.reused) == (1, 1)  # the cut file again, the whole one from the state
+    _same_as_full(again.profile, land)

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
+from types import MappingProxyType
 
 from driftline.gate.baseline import NULL_CLASSES, Baseline, Expected, shallow, type_of_key, type_text
 from driftline.gate.policy import RULES, Policy
@@ -416,7 +417,7 @@ def compare(profile: Profile, baseline: Baseline, policy: Policy | None = None,
         warnings=tuple(v for v in judged if v.severity == "warn"),
         allowed=tuple(v for v in judged if v.severity == "allow"),
         rules=tuple(rules),
-        counts=all_counts,
+        counts=MappingProxyType(all_counts),
         baseline=baseline.source,
         root=profile.root,
     )

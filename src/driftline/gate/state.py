@@ -3,8 +3,9 @@ new and changed files.
 
 A file is taken from the state when its relative path, absolute location, size,
 modification time (ns), format and compression are unchanged — and, with verify, when
-its content hash is too. Files gone from disk drop out. Because a Profile is built only
-from its per-file results, the incremental Profile equals a full rescan's.
+its content hash is too — and its last read went to the end. Files gone from disk drop
+out. Because a Profile is built only from its per-file results, the incremental Profile
+equals a full rescan's.
 
 The file is JSON, written atomically (a temporary sibling, then a rename):
 
@@ -207,6 +208,8 @@ def scan_incremental(
         prev = state.files.get(ref.rel)
         if prev is None or os.path.join(state.root, *ref.rel.split("/")) != ref.path:
             return None
+        if not prev.complete:
+            return None  # a read cut short (permissions, a failing disk) may go through now
         if (prev.size, prev.mtime_ns, prev.format, prev.compression, prev.partitions) != \
                 (ref.size, ref.mtime_ns, ref.format, ref.compression, ref.partitions):
             return None
