@@ -277,3 +277,58 @@ def test_concatenated_zstd_frames_are_all_read(tmp_path):
     f.write_bytes(b"".join(zstandard.ZstdCompressor().compress(jsonl_lines(n)) for n in (10, 20, 30)))
     res = read_file(discover([str(f)]).files[0], ReadOptions())
     assert res.rows == 60 and res.issues == ()
+
+
+# -- CSV header and line limits ----------------------------------------------------------
+
+def test_csv_header_longer_than_the_sniffed_head_is_read_whole(tmp_path):
+    # found by: fault injection (a CSV with 100,000 columns). The header was parsed from the
+    # first 64 KiB only, so a longer header lost its last columns and every row was "ragged".
+    names = [f"c{i:03d}_" + "n" * 400 for i in range(200)]  # about 81 KB of header
+    f = tmp_path / "wide.csv"
+    f.write_text(",".join(names) + "\n" + ",".join(str(i) for i in range(200)) + "\n1,2\n")
+    assert len(",".join(names)) > 64 * 1024
+    res = read_file(discover([str(f)]).files[0], ReadOptions())
+    fields = {p: st for o in res.observations for p, st in o.fields.items()}
+    assert res.rows == 1 and len(fields) == 200
+    assert fields[names[-1]].types == {"int64": 1}
+    # the short row is still reported at its own line (3), as before the header change
+    assert [(i.kind, i.line) for i in res.issues] == [("ragged-row", 3)]
+
+
+def test_csv_with_more_columns_than_the_limit_is_reported_not_read(tmp_path):
+    f = tmp_path / "w.csv"
+    f.write_text(",".join(f"c{i}" for i in range(30)) + "\n" + ",".join("1" * 30) + "\n")
+    res = read_file(discover([str(f)]).files[0], ReadOptions(max_columns=29))
+    assert [(i.kind, i.line) for i in res.issues] == [("too-wide", 1)]
+    assert "30 columns, more than 29 (--max-columns)" in res.issues[0].message and res.rows == 0
+    assert read_file(discover([str(f)]).files[0], ReadOptions(max_columns=30)).rows == 1
+
+
+def test_csv_line_past_max_record_bytes_stops_the_read_there_with_memory_bounded(tmp_path):
+    # found by: fault injection. --max-record-bytes was documented for CSV but not applied:
+    # a 1 GB line was handed to pyarrow whole. Memory is measured in a fresh process, as
+    # pyarrow's own pool peak (max_memory) plus Python's (tracemalloc).
+    import json
+    import subprocess
+    import sys
+
+    f = tmp_path / "long.csv"
+    f.write_bytes(b"a,b\n1,x\n2,y\n3," + b"z" * (48 * 2**20) + b"\n4,w\n")
+    probe = (
+        "import json, sys, tracemalloc, pyarrow as pa\n"
+        "from driftline.sources.discover import discover\n"
+        "from driftline.sources.readers import read_file\n"
+        "from driftline.sources.base import ReadOptions\n"
+        "tracemalloc.start()\n"
+        "res = read_file(discover([sys.argv[1]]).files[0], ReadOptions(max_record_bytes=2**20))\n"
+        "print(json.dumps({'rows': res.rows, 'issues': [[i.kind, i.line, i.byte_offset] for i in res.issues],\n"
+        "  'py': tracemalloc.get_traced_memory()[1], 'arrow': pa.default_memory_pool().max_memory()}))\n"
+    )
+    out = json.loads(subprocess.run([sys.executable, "-c", probe, str(f)], check=True,
+                                    capture_output=True, text=True, timeout=60).stdout)
+    assert out["rows"] == 2  # the rows before the long line are kept
+    assert out["issues"] == [["too-large", 4, len(b"a,b\n1,x\n2,y\n")]]
+    assert out["py"] < 16 * 2**20 and out["arrow"] < 24 * 2**20, out
+    whole = read_file(discover([str(f)]).files[0], ReadOptions())
+    assert whole.rows == 4 and whole.issues == ()

@@ -20,6 +20,7 @@ from driftline.report import dumps
 from driftline.scan import default_jobs, scan_paths
 from driftline.sources.base import (
     DEFAULT_BATCH_ROWS,
+    DEFAULT_MAX_COLUMNS,
     DEFAULT_MAX_DECOMPRESSED_BYTES,
     DEFAULT_MAX_DECOMPRESSION_RATIO,
     DEFAULT_MAX_RECORD_BYTES,
@@ -90,6 +91,7 @@ def scan_command(
     max_record_bytes: int = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer JSON lines / CSV rows are reported, not read."),
     max_decompressed_bytes: int = typer.Option(DEFAULT_MAX_DECOMPRESSED_BYTES, "--max-decompressed-bytes", min=1, help="Stop reading a file past this many bytes of content (decompression bombs); rows before are kept."),
     max_decompression_ratio: float = typer.Option(DEFAULT_MAX_DECOMPRESSION_RATIO, "--max-decompression-ratio", min=1, help="Stop a compressed file once it expands more than this many times (judged past 16 MiB)."),
+    max_columns: int = typer.Option(DEFAULT_MAX_COLUMNS, "--max-columns", min=1, help="A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch)."),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
@@ -101,7 +103,8 @@ def scan_command(
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
 ) -> None:
     opts = ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
-                       max_decompressed_bytes=max_decompressed_bytes, max_decompression_ratio=max_decompression_ratio)
+                       max_decompressed_bytes=max_decompressed_bytes, max_decompression_ratio=max_decompression_ratio,
+                       max_columns=max_columns)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         profile = scan_paths(paths, read=opts, include=include, exclude=exclude, include_hidden=hidden,

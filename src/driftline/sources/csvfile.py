@@ -57,10 +57,87 @@ def _unique(names: list[str]) -> list[str]:
     return out
 
 
+class _LineGuard(io.RawIOBase):
+    """Passes whole lines only, and ends the data just before a line longer than limit bytes.
+
+    Memory stays bounded by the limit whatever the file holds; a CSV line cannot be skipped
+    the way a JSON line can (it may sit inside a quoted field), so the read stops there.
+    """
+
+    def __init__(self, inner: BinaryIO, limit: int) -> None:
+        self._inner, self._limit = inner, limit
+        self._step = min(1 << 20, limit)  # a line inside one read is then never over the limit
+        self._carry: list[bytes] = []  # the start of a line whose newline is still to come
+        self._carry_len = 0
+        self._out = b""
+        self._eof = False
+        self.lines = 0  # newlines passed on
+        self.passed = 0  # bytes passed on
+        self.cut: tuple[int, int] | None = None  # (line, byte offset) of the over-long line
+
+    def readable(self) -> bool:
+        return True
+
+    def _stop(self) -> None:
+        self.cut = (self.lines + 1, self.passed)
+        self._carry, self._carry_len, self._eof = [], 0, True
+
+    def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
+        while not self._out and not self._eof:
+            chunk = self._inner.read(self._step)
+            if not chunk:
+                self._eof = True
+                self._out = b"".join(self._carry)  # a last line without a newline
+                self._carry, self._carry_len = [], 0
+                break
+            first = chunk.find(b"\n")
+            if first < 0:
+                self._carry.append(chunk)
+                self._carry_len += len(chunk)
+                if self._carry_len > self._limit:
+                    self._stop()
+                continue
+            if self._carry_len + first > self._limit:
+                self._stop()
+                break
+            last = chunk.rfind(b"\n")
+            self._out = b"".join([*self._carry, chunk[: last + 1]])
+            self._carry, self._carry_len = [chunk[last + 1 :]], len(chunk) - last - 1
+            self.lines += chunk.count(b"\n", 0, last + 1)
+        n = min(len(buf), len(self._out))
+        buf[:n] = self._out[:n]
+        self._out = self._out[n:]
+        self.passed += n
+        return n
+
+
+def _block(opts: ReadOptions) -> int:
+    # pyarrow fails a row that straddles two blocks, so a block holds the longest line allowed.
+    return min(max(_BLOCK, opts.max_record_bytes + 1), 2**31 - 1)
+
+
+def _read_header(buffered: io.BufferedReader) -> bytes:
+    """The bytes of the header record, however long: lines until its quotes are balanced.
+
+    An RFC 4180 field holding a newline is quoted and inner quotes are doubled, so a record
+    is complete exactly when it holds an even number of quote characters (common practice).
+    """
+    out = b""
+    while line := buffered.readline():
+        out += line
+        if out.count(b'"') % 2 == 0:
+            break
+    return out
+
+
 def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item]:
     """Stream a delimited text file in batches of at most opts.batch_rows rows."""
-    buffered = io.BufferedReader(stream, buffer_size=_SNIFF_BYTES) if not isinstance(stream, io.BufferedReader) else stream  # type: ignore[arg-type]
+    guard = _LineGuard(stream, opts.max_record_bytes)
+    buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
     head = buffered.peek(_SNIFF_BYTES)[:_SNIFF_BYTES]
+    if guard.cut is not None and not head:
+        yield _too_long(rel, opts, guard)
+        return
     if not head.strip():
         yield FileIssue(rel, "empty", "empty file: no header and no rows", "warning", line=1, byte_offset=0)
         return
@@ -70,12 +147,19 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     if first_line.endswith(b"\r"):
         yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=1, byte_offset=len(first_line) - 1)
     delimiter = opts.delimiter or ("\t" if tsv else sniff_delimiter(head))
-    names = _header(head, delimiter)
+    # The header is read whole here (it may be longer than the sniffed head: 100,000 columns)
+    # and pyarrow reads the rest, so its row numbers start after the header's lines.
+    header = _read_header(buffered)
+    names = _header(header, delimiter)
     if not names:
         yield FileIssue(rel, "malformed-csv", "no header row could be read", line=1, byte_offset=0)
         return
+    if len(names) > opts.max_columns:
+        yield FileIssue(rel, "too-wide", f"{len(names):,} columns, more than {opts.max_columns:,} (--max-columns); "
+                        "file not profiled", line=1, byte_offset=0)
+        return
     names = _unique(names)
-    header_lines = 1 + sum(n.count("\n") for n in names)
+    header_lines = max(header.count(b"\n"), 1)
     ragged: list[FileIssue] = []
 
     def on_invalid(row: pcsv.InvalidRow) -> str:
@@ -84,7 +168,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
                 rel,
                 "ragged-row",
                 f"expected {row.expected_columns} fields, found {row.actual_columns}; row skipped",
-                line=row.number,
+                line=None if row.number is None else row.number + header_lines,
             )
         )
         return "skip"
@@ -92,7 +176,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     try:
         reader = pcsv.open_csv(
             buffered,
-            read_options=pcsv.ReadOptions(use_threads=False, block_size=_BLOCK, column_names=names, skip_rows=1),
+            read_options=pcsv.ReadOptions(use_threads=False, block_size=_block(opts), column_names=names, skip_rows=0),
             parse_options=pcsv.ParseOptions(delimiter=delimiter, newlines_in_values=True, invalid_row_handler=on_invalid),
             convert_options=pcsv.ConvertOptions(column_types={n: pa.binary() for n in names}, strings_can_be_null=False, quoted_strings_can_be_null=False),
         )
@@ -124,6 +208,14 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     yield from ragged
     if pending_rows:
         yield from state.observe(pa.Table.from_batches(pending).combine_chunks())
+    if guard.cut is not None:
+        yield _too_long(rel, opts, guard)
+
+
+def _too_long(rel: str, opts: ReadOptions, guard: _LineGuard) -> FileIssue:
+    line, offset = guard.cut or (1, 0)
+    return FileIssue(rel, "too-large", f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
+                     "it and the rest of the file were not profiled", line=line, byte_offset=offset)
 
 
 class _CsvState:
