@@ -22,6 +22,7 @@ from driftline.sources.readers import read_file
 ENGINES = ("local", "dask")
 Progress = Callable[[int, int, str], None]
 CONNECT_TIMEOUT_S = 10
+TASKS_PER_WORKER = 4  # leaves per worker thread: enough to balance, few enough to keep overhead low
 _LOST = ("KilledWorker", "CommClosedError", "CancelledError", "FutureCancelledError", "FutureLostError")
 
 
@@ -29,9 +30,9 @@ class EngineError(DriftlineError):
     """The distributed engine is missing, cannot be reached, or lost the scan."""
 
 
-def _read_one(ref: FileRef, opts: ReadOptions, root: str) -> Profile:
-    """Runs on a worker: one file's observations as a one-file Profile (a tree leaf)."""
-    return Profile(root, (read_file(ref, opts),))
+def _read_run(refs: Sequence[FileRef], opts: ReadOptions, root: str) -> Profile:
+    """Runs on a worker: a contiguous run of files as one Profile (a tree leaf)."""
+    return Profile(root, tuple(read_file(ref, opts) for ref in refs))
 
 
 def _merge_pair(left: Profile, right: Profile) -> Profile:
@@ -72,7 +73,7 @@ def _connect(distributed: Any, scheduler: str | None, workers: int) -> tuple[Any
     # Loopback only: a scan started on a laptop never listens on the network.
     cluster = distributed.LocalCluster(
         n_workers=max(1, workers), threads_per_worker=1, processes=True,
-        host="127.0.0.1", dashboard_address=":0", silence_logs=logging.ERROR,
+        host="127.0.0.1", dashboard_address=":0", silence_logs=logging.CRITICAL,
     )
     try:
         client = distributed.Client(cluster, set_as_default=False)
@@ -121,13 +122,26 @@ def read_dask(
     return _cut(list(merged.files), max_errors)
 
 
+def runs_of(n: int, workers: int, per_worker: int = TASKS_PER_WORKER) -> list[range]:
+    """Contiguous runs of file indexes, about per_worker of them per worker (fewer tasks, same tree).
+
+    >>> runs_of(10, 2, 2)
+    [range(0, 3), range(3, 6), range(6, 9), range(9, 10)]
+    """
+    size = max(1, -(-n // max(1, workers * per_worker)))
+    return [range(i, min(i + size, n)) for i in range(0, n, size)]
+
+
 def _reduce(distributed: Any, client: Any, files: Sequence[FileRef], opts: ReadOptions, root: str,
             progress: Progress | None) -> Profile:
     total = len(files)
-    # pure=False: a rescan must re-read files that changed under the same FileRef.
-    leaves = [client.submit(_read_one, ref, opts, root, pure=False, key=f"driftline-read-{i}-{_token()}")
-              for i, ref in enumerate(files)]
-    names = {leaf.key: ref.rel for leaf, ref in zip(leaves, files, strict=True)}
+    workers = max(1, sum(client.nthreads().values()))
+    runs = runs_of(total, workers)
+    token = _token()
+    # pure=False and fresh keys: a rescan must re-read files that changed under the same FileRef.
+    leaves = [client.submit(_read_run, [files[i] for i in run], opts, root, pure=False,
+                            key=f"driftline-read-{token}-{k}") for k, run in enumerate(runs)]
+    sizes = {leaf.key: len(run) for leaf, run in zip(leaves, runs, strict=True)}
     level = list(leaves)
     while len(level) > 1:
         # Neighbours merge, so each inner node covers a contiguous run of the sorted paths.
@@ -137,8 +151,10 @@ def _reduce(distributed: Any, client: Any, files: Sequence[FileRef], opts: ReadO
             nxt.append(level[-1])
         level = nxt
     if progress:
-        for done, fut in enumerate(distributed.as_completed(leaves, loop=client.loop), start=1):
-            progress(done, total, names.get(fut.key, ""))
+        done = 0
+        for fut in distributed.as_completed(leaves, loop=client.loop):
+            done += sizes.get(fut.key, 0)
+            progress(done, total, "")
     result: Profile = level[0].result()
     return result
 
