@@ -196,3 +196,33 @@ def test_parquet_conformance_data() -> None:
     files = sorted(p for p in PARQUET_SUITE.iterdir() if p.suffix == ".parquet")
     assert len(files) > 40
     _same(files, 1000)
+
+
+# -- byte spans of one file in a process pool ----------------------------------------
+
+
+@pytest.mark.parametrize("style", ["typed", "mixed"])
+def test_spans_in_parallel_equal_one_reader(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, style: str) -> None:
+    import driftline.sources.jsonsplit as jsonsplit
+
+    monkeypatch.setattr(jsonsplit, "SPLIT_MIN_BYTES", 1)
+    f = _drift_file(tmp_path / "one.jsonl", 2000, style, seed=7)
+    odd = tmp_path / "odd.jsonl"  # a blank and a malformed line move every later batch start
+    lines = f.read_bytes().split(b"\n")
+    odd.write_bytes(b"\n".join(lines[:700] + [b"", b"{oops"] + lines[700:]))
+    for target in (f, odd):
+        spans = jsonsplit.plan(discover_one(target), ReadOptions(batch_rows=64), 4)
+        assert len(spans) == 4 and spans[1].lines % 64 == 0
+        reports = []
+        for jobs, exact in ((3, False), (1, True)):
+            profile = scan_paths([str(target)], read=ReadOptions(batch_rows=64, exact=exact), jobs=jobs)
+            data = to_dict(profile)
+            data.pop("duration_s")
+            reports.append(orjson.dumps(data))
+        assert reports[0] == reports[1]
+
+
+def discover_one(path: Path):  # noqa: ANN201 - a FileRef
+    from driftline.sources.discover import discover
+
+    return discover([str(path)]).files[0]

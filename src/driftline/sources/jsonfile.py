@@ -220,14 +220,19 @@ class _Lines:
         self.eof = True
 
 
-def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offset: int = 0) -> Iterator[Item]:
+def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offset: int = 0,
+               start: tuple[int, int, int] = (0, 0, 0), lines_read: list[int] | None = None) -> Iterator[Item]:
     """One JSON value per line. Blank lines are skipped; a bad line is reported and skipped.
 
     A batch of lines that are all objects goes to the columnar path (observe.jsonbatch),
     which answers exactly or declines; everything else takes the exact walk line by line.
+    start is (lines, rows, batches) before the stream, for a part of a file (jsonsplit);
+    lines_read, when given, receives the number of lines the stream held.
     """
     out = _Batcher(rel, opts)
+    out.rows, out.batch = start[1], start[2]
     src = _Lines(stream, opts.max_record_bytes, first_line_offset)
+    src.lineno = start[0]
     fast = not (opts.exact or os.environ.get(EXACT_ENV))
     hint = None
     crlf_noted = False
@@ -276,6 +281,8 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
     obs = out.flush()
     if obs is not None:
         yield obs
+    if lines_read is not None:
+        lines_read.append(src.lineno - start[0])
 
 
 def _looks_like_lines(data: bytes) -> bool:
