@@ -189,3 +189,13 @@ def test_cli_s3_scan_matches_local_report(s3: Server, demo_dir: Path, tmp_path: 
     local = run(str(demo_dir / "landing"))
     assert remote == local
     assert {f["partitions"]["day"] for f in remote["files"]} == {"2026-11-29", "2026-11-30"}
+
+
+def test_one_object_url(s3: Server, demo_dir: Path) -> None:
+    landing = demo_dir / "landing"
+    rel = sorted(p.relative_to(landing).as_posix() for p in landing.rglob("*.parquet"))[0]
+    remote = scan_paths([f"s3://{BUCKET}/landing/{rel}"], storage=StorageOptions(endpoint_url=s3.url))
+    local = scan_paths([demo_dir / "landing" / rel])
+    assert [f.rel for f in remote.files] == [rel.rsplit("/", 1)[-1]] == [f.rel for f in local.files]
+    assert remote.root == f"s3://{BUCKET}/landing/{rel.rpartition('/')[0]}"
+    assert remote.fields == local.fields

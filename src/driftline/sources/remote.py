@@ -221,6 +221,8 @@ def discover_remote(
     for prefix in prefixes:
         for key, size, mtime_ns in _walk(fs, bucket, prefix, where, url=f"s3://{bucket}/{prefix}"):
             rel = key[len(root):].lstrip("/") if root else key
+            if not rel:  # the URL names one object: it is named by its file name, as locally
+                rel, root = key.rsplit("/", 1)[-1], key.rpartition("/")[0]
             verdict = _filter_name(rel, include, exclude, include_hidden)
             if verdict is not None:
                 skipped.append(Skipped(rel, verdict))
