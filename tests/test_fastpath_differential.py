@@ -34,8 +34,12 @@ def _fast_path_on_small_batches(monkeypatch: pytest.MonkeyPatch) -> None:
 
 
 def _report(paths: list[Path], exact: bool, batch_rows: int) -> bytes:
-    profile = scan_paths([str(p) for p in paths], read=ReadOptions(batch_rows=batch_rows, exact=exact))
-    data = to_dict(profile)
+    # The environment switch reaches every reader (Parquet's too); ReadOptions.exact the ones given it.
+    with pytest.MonkeyPatch.context() as mp:
+        if exact:
+            mp.setenv(jsonfile.EXACT_ENV, "1")
+        profile = scan_paths([str(p) for p in paths], read=ReadOptions(batch_rows=batch_rows, exact=exact))
+        data = to_dict(profile)
     data.pop("duration_s")
     return orjson.dumps(data, option=orjson.OPT_SORT_KEYS)
 
@@ -226,3 +230,32 @@ def discover_one(path: Path):  # noqa: ANN201 - a FileRef
     from driftline.sources.discover import discover
 
     return discover([str(path)]).files[0]
+
+
+# -- CSV and Parquet string columns: distinct-value classification vs every value ---------
+
+
+def test_generated_csv_and_parquet(tmp_path: Path) -> None:
+    import csv
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    rng = random.Random(11)
+    n = 6000
+    cols = {
+        "few": [rng.choice(_STRINGS) for _ in range(n)],  # distinct values classified once
+        "many": [f"{rng.randrange(10**6)}.{rng.randrange(100)}" if rng.random() < 0.7 else rng.choice(_STRINGS)
+                 for _ in range(n)],
+        "stamps": [rng.choice(_STRINGS[11:19]) for _ in range(n)],
+        "flag": [rng.choice(["true", "false", "", "n/a"]) for _ in range(n)],
+    }
+    with open(tmp_path / "t.csv", "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(cols)
+        w.writerows(zip(*cols.values(), strict=True))
+    table = pa.table({k: pa.array([None if rng.random() < 0.05 else v for v in vs]) for k, vs in cols.items()})
+    pq.write_table(table, tmp_path / "t.parquet", row_group_size=2500)
+    for batch_rows in (5000, 65_536):
+        report = _same([tmp_path / "t.csv", tmp_path / "t.parquet"], batch_rows)
+        assert report["summary"]["rows"] == 2 * n

@@ -16,15 +16,18 @@ from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
 from driftline.observe.records import SAFE_INT, pa_indices, value_text
 from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
+from driftline.observe.strprofile import exact_requested, string_profile
 from driftline.observe.textclass import class_masks, classify
 
 _LOSSY_CLASSES = ("text", "null_token", "empty")
 
 
 class _Ctx:
-    __slots__ = ("file", "row_start", "lines", "text_source", "out")
+    __slots__ = ("file", "row_start", "lines", "text_source", "out", "exact")
 
-    def __init__(self, file: str, row_start: int, lines: Sequence[int] | None, text_source: bool) -> None:
+    def __init__(self, file: str, row_start: int, lines: Sequence[int] | None, text_source: bool,
+                 exact: bool = False) -> None:
+        self.exact = exact
         self.file = file
         self.row_start = row_start
         self.lines = lines
@@ -44,6 +47,7 @@ def observe_table(
     row_start: int,
     lines: Sequence[int] | None = None,
     text_source: bool = False,
+    exact: bool | None = None,
 ) -> Observation:
     """Observe an Arrow batch column by column.
 
@@ -54,7 +58,7 @@ def observe_table(
     >>> obs.fields["a"].types, obs.fields["a"].nulls
     ({'int64': 2}, 1)
     """
-    ctx = _Ctx(file, row_start, lines, text_source)
+    ctx = _Ctx(file, row_start, lines, text_source, exact_requested() if exact is None else exact)
     for name, col in zip(table.column_names, table.columns, strict=True):
         arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
         _observe(arr, paths.child(None, name), None, ctx)
@@ -257,6 +261,27 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
 def _string_stats(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: dict[str, tuple[Example, ...]]) -> dict[str, Any]:
     if arr.null_count == len(arr):
         return {}
+    if ctx.exact:
+        return _string_stats_reference(arr, rows, ctx, samples)
+    prof = string_profile(arr, SAMPLES_PER_KEY)
+    # Three examples per class once any lossy class repeats, else the first of each (as before).
+    many = any(prof.counts.get(c, 0) > 1 for c in _LOSSY_CLASSES)
+    for cls, firsts in prof.first.items():
+        picks = firsts if many and prof.counts[cls] > 1 else firsts[:1]
+        samples["class:" + cls] = tuple(ctx.example(_rows(rows, j), arr[j].as_py()) for j in picks)
+    return {
+        "classes": dict(prof.counts),
+        "max_length": prof.max_length,
+        "int_digits": prof.int_digits,
+        "frac_digits": prof.frac_digits,
+        "leap_seconds": prof.leap_seconds,
+        "lowercase_rfc3339": prof.lowercase_rfc3339,
+    }
+
+
+def _string_stats_reference(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx,
+                            samples: dict[str, tuple[Example, ...]]) -> dict[str, Any]:
+    """textclass.classify over every value: what string_profile must equal (the exact switch)."""
     scan = classify(arr)
     masks = class_masks(arr) if any(scan.counts.get(c, 0) > 1 for c in _LOSSY_CLASSES) else {}
     for cls, first in scan.first_index.items():

@@ -39,14 +39,11 @@ from driftline.observe import paths
 from driftline.observe.observation import Observation
 from driftline.observe.records import SAFE_INT, observe_records
 from driftline.observe.stats import SAMPLES_PER_KEY, FieldStats
-from driftline.observe.textclass import CLASSES, class_masks
+from driftline.observe.strprofile import string_profile
+from driftline.observe.textclass import CLASSES
 
 MAX_BRACKETS_PER_LINE = 512  # far below orjson's 1,024 levels: deeper lines take the exact walk
 _INT_KEYS = ("decimal(39,0)", "int64", "uint64")
-_STAMP_CLASSES = ("timestamp_rfc3339", "timestamp_offset", "timestamp_local")
-_SECONDS_AT = 17  # textclass: where the seconds sit in every timestamp shape
-_DICTIONARY_SHARE = 4  # classify the distinct values when they are at most 1/4 of the values
-_SAMPLE = 1024
 
 
 class NotExact(Exception):
@@ -430,64 +427,18 @@ def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch) ->
 
 
 def _strings(arr: pa.Array, rows: pa.Array | None, b: _Batch) -> dict[str, Any]:
-    """Class counts and string statistics, as textclass.classify would give them over arr."""
-    values, index = arr, None
-    # Few distinct values (codes, tags, quoted numbers): classify those, then count per row.
-    # A sample decides first, as hashing many distinct values (timestamps) costs more than it saves.
-    if len(arr) > 4 * _SAMPLE and len(pc.unique(arr.slice(0, _SAMPLE))) * 2 <= _SAMPLE:
-        enc = pc.dictionary_encode(arr)
-        if len(enc.dictionary) * _DICTIONARY_SHARE <= len(arr):
-            values, index = enc.dictionary, enc.indices
-    masks = class_masks(values)
-    counts: dict[str, int] = {}
-    per_row: dict[str, pa.Array] = {}
-    for cls in CLASSES:
-        m = masks[cls]
-        if not m.true_count:
-            continue
-        row_mask = m if index is None else pc.fill_null(pc.take(m, index), False)
-        counts[cls] = row_mask.true_count
-        per_row[cls] = row_mask
-        b.need_first(rows, row_mask)
-    int_digits = frac_digits = 0
-    number = pc.or_(masks["integer"], masks["decimal"])
-    if number.true_count:
-        int_digits, frac_digits = _digits(values.filter(number))
-    stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
-    leap = lower = 0
-    if stamp.true_count:
-        # textclass.classify's counts: a timestamp with second 60; an RFC 3339 one with t or z.
-        if pc.any(pc.match_substring(values, ":60")).as_py():
-            sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
-            leap = _row_count(pc.and_(stamp, sixty), index)
-        if masks["timestamp_rfc3339"].true_count:
-            lc = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
-            lower = _row_count(lc, index)
+    """Class counts and string statistics, as textclass.classify gives them over arr."""
+    prof = string_profile(arr, SAMPLES_PER_KEY)
+    for positions in prof.first.values():
+        b.need(rows, pa.array(positions, pa.int64()))
     return {
-        "classes": counts,
-        "max_length": int(pc.max(pc.utf8_length(values)).as_py() or 0),
-        "int_digits": int_digits,
-        "frac_digits": frac_digits,
-        "leap_seconds": leap,
-        "lowercase_rfc3339": lower,
+        "classes": prof.counts,
+        "max_length": prof.max_length,
+        "int_digits": prof.int_digits,
+        "frac_digits": prof.frac_digits,
+        "leap_seconds": prof.leap_seconds,
+        "lowercase_rfc3339": prof.lowercase_rfc3339,
     }
-
-
-def _row_count(mask: pa.Array, index: pa.Array | None) -> int:
-    if index is None or not mask.true_count:
-        return mask.true_count
-    return pc.fill_null(pc.take(mask, index), False).true_count
-
-
-def _digits(numbers: pa.Array) -> tuple[int, int]:
-    """Max digits before and after the point over integer/decimal strings (as textclass)."""
-    length = pc.cast(pc.binary_length(numbers), pa.int64())
-    minus = pc.cast(pc.starts_with(numbers, "-"), pa.int64())
-    point = pc.cast(pc.find_substring(numbers, "."), pa.int64())
-    has_point = pc.greater_equal(point, 0)
-    before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
-    after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
-    return pc.max(before).as_py() or 0, pc.max(after).as_py() or 0
 
 
 def _combine(partials: dict[str, _Partial], walked: dict[str, FieldStats]) -> dict[str, FieldStats] | None:

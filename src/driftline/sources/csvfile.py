@@ -233,7 +233,8 @@ class _CsvState:
         self.issues.clear()
         text = pa.Table.from_arrays(columns, names=table.column_names)
         lines = self._lines(table)
-        yield observe_table(text, file=self.rel, batch=self.batch, row_start=self.rows, lines=lines, text_source=True)
+        yield observe_table(text, file=self.rel, batch=self.batch, row_start=self.rows, lines=lines, text_source=True,
+                            exact=self.opts.exact or None)
         self.rows += table.num_rows
         self.batch += 1
 

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import io
-import os
 from collections.abc import Iterator
 from typing import Any, BinaryIO
 
@@ -12,6 +11,7 @@ import orjson
 from driftline.observe.jsonbatch import observe_json_lines
 from driftline.observe.observation import Observation
 from driftline.observe.records import observe_records
+from driftline.observe.strprofile import EXACT_ENV, exact_requested  # noqa: F401 - EXACT_ENV re-exported
 from driftline.sources.base import FileIssue, ReadOptions
 
 _CHUNK = 4 * 1024 * 1024
@@ -19,7 +19,6 @@ _WINDOW_BYTES = 256 * 1024 * 1024  # a window stops growing here, whatever batch
 _BOM = b"\xef\xbb\xbf"
 DOCUMENT_LIMIT = 1024**3  # a single JSON document is parsed whole; larger ones should be JSON Lines
 
-EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) to take the exact per-record walk everywhere
 FAST_MIN_ROWS = 256  # smaller batches take the exact walk: the columnar set-up would cost more
 
 Item = Observation | FileIssue
@@ -233,7 +232,7 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
     out.rows, out.batch = start[1], start[2]
     src = _Lines(stream, opts.max_record_bytes, first_line_offset)
     src.lineno = start[0]
-    fast = not (opts.exact or os.environ.get(EXACT_ENV))
+    fast = not (opts.exact or exact_requested())
     hint = None
     crlf_noted = False
     while True:

@@ -1,0 +1,103 @@
+"""What textclass.classify says about a string column, plus the first rows of each class, cheaper.
+
+A column with few distinct values (codes, flags, tags, quoted numbers, CSV cells) is
+classified on its distinct values only and counted back per row, so the regular
+expressions run over a dictionary instead of every cell.  The results equal
+textclass.classify's (the differential tests hold them to it): counts in CLASSES order,
+digits, leap seconds and lowercase RFC 3339 counts over the rows.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from driftline.observe.textclass import CLASSES, class_masks
+
+EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) for the reference paths everywhere, not the fast ones
+
+
+def exact_requested() -> bool:
+    """Whether the environment asks for the reference (exact, slower) paths."""
+    return bool(os.environ.get(EXACT_ENV))
+
+
+SAMPLE = 1024  # values looked at to guess whether a dictionary pays
+DICTIONARY_SHARE = 4  # use the dictionary when distinct values are at most 1/4 of the values
+_SECONDS_AT = 17  # textclass: where the seconds sit in every timestamp shape
+
+
+@dataclass(frozen=True, slots=True)
+class StringProfile:
+    """Per class (only those that occur, in CLASSES order): count and first positions (up to 3)."""
+
+    counts: dict[str, int]
+    first: dict[str, list[int]]
+    max_length: int
+    int_digits: int
+    frac_digits: int
+    leap_seconds: int
+    lowercase_rfc3339: int
+
+
+def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
+    """Classify a string array (nulls skipped), as textclass.classify would.
+
+    >>> p = string_profile(pa.array(["7", "x", None, "8", "2026-02-30"]))
+    >>> p.counts, p.first
+    ({'integer': 2, 'text': 2}, {'integer': [0, 3], 'text': [1, 4]})
+    """
+    values, index = arr, None
+    # Hashing many distinct values (timestamps, ids) costs more than it saves: a sample decides.
+    if len(arr) > 4 * SAMPLE and len(pc.unique(arr.slice(0, SAMPLE))) * 2 <= SAMPLE:
+        enc = pc.dictionary_encode(arr)
+        if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
+            values, index = enc.dictionary, enc.indices
+    masks = class_masks(values)
+    counts: dict[str, int] = {}
+    first: dict[str, list[int]] = {}
+    for cls in CLASSES:
+        m = masks[cls]
+        if not m.true_count:
+            continue
+        row_mask = m if index is None else pc.fill_null(pc.take(m, index), False)
+        counts[cls] = row_mask.true_count
+        first[cls] = pc.indices_nonzero(row_mask).slice(0, keep_first).to_pylist()
+    int_digits = frac_digits = 0
+    number = pc.or_(masks["integer"], masks["decimal"])
+    if number.true_count:
+        int_digits, frac_digits = _digits(values.filter(number))
+    stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
+    leap = lower = 0
+    if stamp.true_count:
+        # As textclass.classify counts them: a timestamp with second 60 (every timestamp shape
+        # has ':' just before the seconds, so ':60' finds the candidates), and an RFC 3339
+        # one with a lowercase t or z.
+        if pc.any(pc.match_substring(values, ":60")).as_py():
+            sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
+            leap = _row_count(pc.and_(stamp, sixty), index)
+        if masks["timestamp_rfc3339"].true_count:
+            lc = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
+            lower = _row_count(lc, index)
+    longest = pc.max(pc.utf8_length(values)).as_py() if len(values) else 0
+    return StringProfile(counts, first, int(longest or 0), int_digits, frac_digits, leap, lower)
+
+
+def _row_count(mask: pa.Array, index: pa.Array | None) -> int:
+    if index is None or not mask.true_count:
+        return mask.true_count
+    return pc.fill_null(pc.take(mask, index), False).true_count
+
+
+def _digits(numbers: pa.Array) -> tuple[int, int]:
+    """Max digits before and after the point over integer/decimal strings (as textclass)."""
+    length = pc.cast(pc.binary_length(numbers), pa.int64())
+    minus = pc.cast(pc.starts_with(numbers, "-"), pa.int64())
+    point = pc.cast(pc.find_substring(numbers, "."), pa.int64())
+    has_point = pc.greater_equal(point, 0)
+    before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
+    after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
+    return pc.max(before).as_py() or 0, pc.max(after).as_py() or 0
