@@ -54,7 +54,7 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         pf = pq.ParquetFile(path)
         schema = pf.schema_arrow
     except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError) as exc:
-        yield FileIssue(rel, _kind(exc), f"cannot read the Parquet footer: {_short(exc)}")
+        yield FileIssue(rel, _kind(exc), f"cannot read the Parquet footer: {_short(exc, path)}")
         return
     yield declared_paths(schema)
     stored = path.size() if hasattr(path, "size") else os.path.getsize(path)  # an object-store file: its size
@@ -72,7 +72,7 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
                 rows += rb.num_rows
                 batch += 1
         except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError) as exc:
-            yield FileIssue(rel, _kind(exc), f"row group {rg}: {_short(exc)}; rest of the file not profiled", row=rows)
+            yield FileIssue(rel, _kind(exc), f"row group {rg}: {_short(exc, path)}; rest of the file not profiled", row=rows)
             return
     if rows != expected:
         # Nothing lost silently: a footer promising rows the pages do not hold is corrupt.
@@ -97,10 +97,14 @@ def _oversized(meta: pq.RowGroupMetaData, stored: int, opts: ReadOptions) -> str
 
 
 def _kind(exc: BaseException) -> str:
+    if isinstance(exc, FileNotFoundError):
+        return "vanished"  # removed between discovery and reading
     # pyarrow says "encrypted metadata" (encrypted footer) or "Cannot decrypt" (encrypted columns).
     return "encrypted" if "crypt" in str(exc).lower() else "unreadable"
 
 
-def _short(exc: BaseException) -> str:
+def _short(exc: BaseException, path: object = None) -> str:
     text = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+    if isinstance(path, str) and path:
+        text = text.replace(path, os.path.basename(path))  # reports name files by relative path only
     return text[:300]

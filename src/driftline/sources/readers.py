@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import hashlib
 import io
+import os
 import lzma
 import zlib
 from collections.abc import Iterator
@@ -65,7 +66,27 @@ def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str,
         return "truncated", f"{compression or 'file'} data ends early ({exc}); rows before it were profiled"
     if isinstance(exc, PermissionError):
         return "unreadable", "permission denied"
+    if isinstance(exc, FileNotFoundError):
+        return "vanished", "the file was removed after it was found"
+    if isinstance(exc, OSError) and exc.strerror:
+        return "unreadable", f"read failed: {exc.strerror}"  # without the absolute path
     return "unreadable", f"read failed: {exc}"
+
+
+def _changed(ref: FileRef) -> str | None:
+    """How the file differs from what discovery saw, or None: a file rewritten, appended to or
+    removed during the scan gives rows that belong to no single version of it."""
+    try:
+        st = os.stat(ref.path)
+    except FileNotFoundError:
+        return "the file was removed while the scan read it"
+    except OSError:
+        return None
+    if st.st_size != ref.size:
+        return f"the file changed during the scan (size {ref.size:,} then {st.st_size:,} bytes); rescan it"
+    if st.st_mtime_ns != ref.mtime_ns:
+        return "the file was modified during the scan (same size, new modification time); rescan it"
+    return None
 
 
 def _items(ref: FileRef, opts: ReadOptions, stream: Any) -> Iterator[Any]:
@@ -125,6 +146,11 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
         issues.append(FileIssue(ref.rel, "internal", f"unexpected {type(exc).__name__}: {exc}; please report this file"))
     if not observations and not issues and ref.size == 0:
         issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
+    if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
+        change = _changed(ref)
+        if change is not None:
+            complete = False
+            issues.append(FileIssue(ref.rel, "changed", change))
     result = _result(ref, observations, issues, declared, complete)
     if digest:
         result = _with_digest(result, ref.path)
