@@ -10,6 +10,8 @@ import bz2
 import json
 import lzma
 import os
+import subprocess
+import sys
 import tempfile
 import zlib
 from pathlib import Path
@@ -22,7 +24,7 @@ import zstandard
 from driftline.profile import Profile
 from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
-from hostile_inputs import SUFFIX, compress, jsonl_lines
+from hostile_inputs import SUFFIX, bomb, compress, jsonl_lines
 
 GOOD = b'{"id": 1}\n{"id": 2}\n{"id": 3}\n'
 
@@ -184,4 +186,47 @@ def test_truncated_compressed_file_keeps_the_rows_before_the_cut(tmp_path, codec
     assert fr.rows == expected and fr.complete is False
     assert kinds(profile, fr.rel)[-1] == "truncated"
     assert set(kinds(profile, fr.rel)) <= {"truncated", "malformed-json"}  # the cut-off last line
+    assert_good_profiled(profile)
+
+
+# -- decompression bombs ---------------------------------------------------------------------
+
+def test_decompression_bombs_stop_at_the_limits_through_the_cli(tmp_path):
+    d = folder_with_good(tmp_path)
+    (d / "lines.jsonl.gz").write_bytes(compress(jsonl_lines(200_000), "gzip"))  # 5.2 MB of lines
+    (d / "zeros.jsonl.zst").write_bytes(bomb("zstd", 40 * 2**20))
+    (d / "zeros.jsonl.bz2").write_bytes(bomb("bz2", 20 * 2**20))
+    out = tmp_path / "report.json"
+    res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(d), "--json", str(out), "-q",
+                          "--jobs", "1", "--max-decompressed-bytes", str(2**20)],
+                         capture_output=True, text=True, timeout=120)
+    assert res.returncode == 0, res.stderr
+    files = {f["path"]: f for f in json.loads(out.read_text())["files"]}
+    # 1 MiB of decompressed lines: the whole lines before the limit, then a clear stop
+    lines = files["lines.jsonl.gz"]
+    assert lines["rows"] == jsonl_lines(200_000)[: 2**20].count(b"\n")
+    assert [i["kind"] for i in lines["issues"]][-1] == "too-large" and lines["complete"] is False
+    assert "--max-decompressed-bytes" in lines["issues"][-1]["message"]
+    # the run-of-one-line bombs pass 1 MiB too, long before their ratio would be judged
+    for name in ("zeros.jsonl.zst", "zeros.jsonl.bz2"):
+        assert [i["kind"] for i in files[name]["issues"]][-1] == "too-large", name
+        assert files[name]["rows"] == 2**20 // 9, name  # whole 9-byte lines in the first MiB
+    assert files["good.jsonl"]["rows"] == 3 and files["good.jsonl"]["issues"] == []
+
+
+@pytest.mark.parametrize("codec", ["bz2", "zstd"])
+def test_a_bomb_past_the_ratio_keeps_its_rows_and_the_other_files(tmp_path, codec):
+    d = folder_with_good(tmp_path)
+    (d / f"bomb.jsonl{SUFFIX[codec]}").write_bytes(bomb(codec, 24 * 2**20))
+    profile = scan(d)
+    fr = profile.files[0]
+    assert kinds(profile, fr.rel)[-1] == "too-large"
+    assert "ratio over 1,000:1" in fr.issues[-1].message
+    # judged past 16 MiB out; every whole line handed out before the stop was profiled
+    import re
+
+    out = int(re.match(r"([\d,]+) bytes decompressed", fr.issues[-1].message).group(1).replace(",", ""))
+    whole, rest = divmod(out, 9)
+    # a last fragment that is whole JSON without its newline ('{"a": 1}') counts as a record
+    assert out > 16 * 2**20 and fr.rows == whole + (rest == 8)
     assert_good_profiled(profile)

@@ -109,25 +109,34 @@ class _Limited(io.RawIOBase):
         self._inner, self._raw = inner, raw
         self._limit, self._ratio = limit, ratio
         self.count = 0
+        self._stop: LimitExceeded | None = None  # raised on the read after the one that reached a limit
 
     def readable(self) -> bool:
         return True
 
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
+        # The bytes up to a limit are handed out first and the error comes on the next read,
+        # so every whole record before the limit is kept.
+        if self._stop is not None:
+            raise self._stop
         # readinto1: one decode step. BZ2File/LZMAFile.readinto fill the whole buffer and,
         # when the file is cut short, raise and drop the bytes already decoded in that call.
         fill = getattr(self._inner, "readinto1", None) or self._inner.readinto  # type: ignore[attr-defined]
         n = fill(buf) or 0
         self.count += n
         if self._limit is not None and self.count > self._limit:
-            raise LimitExceeded(f"more than {self._limit:,} decompressed bytes (--max-decompressed-bytes)")
-        if self._ratio is not None and self.count > RATIO_FLOOR_BYTES and self._raw is not self._inner:
+            n -= self.count - self._limit
+            self.count = self._limit
+            self._stop = LimitExceeded(f"more than {self._limit:,} decompressed bytes (--max-decompressed-bytes)")
+        elif self._ratio is not None and self.count > RATIO_FLOOR_BYTES and self._raw is not self._inner:
             taken = max(self._raw.tell(), 1)
             if self.count > self._ratio * taken:
-                raise LimitExceeded(
+                self._stop = LimitExceeded(
                     f"{self.count:,} bytes decompressed from {taken:,}, a ratio over {self._ratio:,g}:1 "
                     "(--max-decompression-ratio)"
                 )
+        if n == 0 and self._stop is not None:
+            raise self._stop  # 0 would read as a clean end of file
         return n
 
     def close(self) -> None:
