@@ -10,6 +10,7 @@ import bz2
 import json
 import lzma
 import os
+import stat
 import subprocess
 import sys
 import tempfile
@@ -24,7 +25,7 @@ import zstandard
 from driftline.profile import Profile
 from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
-from hostile_inputs import SUFFIX, bomb, compress, jsonl_lines
+from hostile_inputs import SUFFIX, bomb, compress, jsonl_lines, parquet_absurd_footers
 
 GOOD = b'{"id": 1}\n{"id": 2}\n{"id": 3}\n'
 
@@ -230,3 +231,133 @@ def test_a_bomb_past_the_ratio_keeps_its_rows_and_the_other_files(tmp_path, code
     # a last fragment that is whole JSON without its newline ('{"a": 1}') counts as a record
     assert out > 16 * 2**20 and fr.rows == whole + (rest == 8)
     assert_good_profiled(profile)
+
+
+# -- limits: long lines, deep nesting, wide files ------------------------------------------------
+
+def _memory_probe(path: Path, **opts: object) -> dict:
+    """Read one file in a fresh process; report rows, issues, and peak memory (pyarrow's pool
+    and Python's tracemalloc), which a long-lived test process could not measure."""
+    probe = (
+        "import json, sys, tracemalloc, pyarrow as pa\n"
+        "from driftline.sources.discover import discover\n"
+        "from driftline.sources.readers import read_file\n"
+        "from driftline.sources.base import ReadOptions\n"
+        "tracemalloc.start()\n"
+        "res = read_file(discover([sys.argv[1]]).files[0], ReadOptions(**json.loads(sys.argv[2])))\n"
+        "print(json.dumps({'rows': res.rows, 'issues': [[i.kind, i.line, i.byte_offset] for i in res.issues],\n"
+        "  'py': tracemalloc.get_traced_memory()[1], 'arrow': pa.default_memory_pool().max_memory()}))\n"
+    )
+    done = subprocess.run([sys.executable, "-c", probe, str(path), json.dumps(opts)], check=True,
+                          capture_output=True, text=True, timeout=120)
+    return json.loads(done.stdout)
+
+
+@pytest.mark.parametrize("fmt", ["jsonl", "csv"])
+def test_a_single_huge_line_is_reported_and_memory_stays_bounded(tmp_path, fmt):
+    big = 24 * 2**20  # a few MB stand in for the 1 GB line: the limit, not the size, bounds memory
+    if fmt == "jsonl":
+        data = GOOD + b'{"blob": "' + b"x" * big + b'"}\n' + GOOD
+        expect_rows, expect = 6, [["too-large", 4, len(GOOD)]]  # skipped; the lines after it are read
+    else:
+        data = b"id,blob\n1,a\n2,b\n3," + b"x" * big + b"\n4,d\n"
+        expect_rows, expect = 2, [["too-large", 4, len(b"id,blob\n1,a\n2,b\n")]]  # the read stops there
+    f = tmp_path / f"huge.{fmt}"
+    f.write_bytes(data)
+    got = _memory_probe(f, max_record_bytes=2**20)
+    assert got["rows"] == expect_rows and got["issues"] == expect
+    assert got["py"] < 16 * 2**20 and got["arrow"] < 24 * 2**20, got
+    d = folder_with_good(tmp_path)
+    (d / f.name).write_bytes(data)
+    assert_good_profiled(scan(d, max_record_bytes=2**20))
+
+
+@pytest.mark.parametrize("shape", ["jsonl-line", "json-document", "object-in-arrays"])
+def test_nesting_100000_levels_deep_is_reported_without_recursion_error(tmp_path, shape):
+    depth = 100_000
+    deep = {"jsonl-line": b"[" * depth + b"]" * depth,
+            "json-document": b"[" * depth + b"]" * depth,
+            "object-in-arrays": b'{"a":' * depth + b"1" + b"}" * depth}[shape]
+    d = folder_with_good(tmp_path)
+    name = "deep.json" if shape == "json-document" else "deep.jsonl"
+    (d / name).write_bytes(deep if shape == "json-document" else GOOD + deep + b"\n" + GOOD)
+    profile = scan(d)
+    fr = profile.file(name)
+    assert kinds(profile, name) == ["malformed-json"]
+    message = fr.issues[0].message.lower()
+    assert "depth" in message or "recursion" in message  # a depth limit (orjson's is 1,024 levels)
+    assert fr.issues[0].line == (1 if shape == "json-document" else 4)
+    assert fr.rows == (0 if shape == "json-document" else 6)
+    assert_good_profiled(profile)
+
+
+def test_a_csv_with_100000_columns_is_reported_and_the_others_profiled(tmp_path):
+    d = folder_with_good(tmp_path)
+    n = 100_000
+    (d / "wide.csv").write_text(",".join(f"c{i}" for i in range(n)) + "\n" + ",".join("1" * n) + "\n")
+    profile = scan(d)
+    fr = profile.file("wide.csv")
+    assert [(i.kind, i.line) for i in fr.issues] == [("too-wide", 1)] and fr.rows == 0
+    assert "100,000 columns, more than 10,000 (--max-columns)" in fr.issues[0].message
+    assert_good_profiled(profile)
+
+
+def test_parquet_footers_claiming_absurd_sizes_are_reported(tmp_path):
+    d = folder_with_good(tmp_path)
+    for name, data in parquet_absurd_footers().items():
+        (d / f"{name}.parquet").write_bytes(data)
+    profile = scan(d)
+    # source: apache/parquet-format: the 4 bytes before the closing "PAR1" give the footer length
+    assert kinds(profile, "footer-length-4GiB.parquet") == ["unreadable"]
+    assert "smaller than the size reported by footer" in profile.file("footer-length-4GiB.parquet").issues[0].message
+    assert kinds(profile, "chunks-past-end-of-file.parquet") == ["unreadable"]
+    rows = profile.file("rows-2^62.parquet")
+    assert kinds(profile, "rows-2^62.parquet") == ["row-count"] and rows.rows == 12_345
+    assert_good_profiled(profile)
+
+
+# -- what a folder can hold besides files ---------------------------------------------------
+
+def test_symlink_loops_dangling_links_fifos_and_devices_are_skipped_and_counted(tmp_path):
+    d = folder_with_good(tmp_path)
+    (d / "sub").mkdir()
+    (d / "sub" / "in.jsonl").write_bytes(GOOD)
+    os.symlink("..", d / "sub" / "up")  # a loop back to the root
+    os.symlink(".", d / "here")  # a loop onto itself
+    os.symlink("self.jsonl", d / "self.jsonl")  # a link to itself: ELOOP
+    os.symlink("nowhere.jsonl", d / "dangling.jsonl")
+    os.mkfifo(d / "pipe.jsonl")  # opening it would block forever
+    os.symlink("/dev/zero", d / "zeros.jsonl")  # reading it would never end
+    try:
+        os.mknod(d / "dev.jsonl", 0o600 | stat.S_IFCHR, os.makedev(1, 3))  # a character device
+        devices = ["dev.jsonl"]
+    except (PermissionError, OSError):  # no CAP_MKNOD: the /dev/zero link covers devices
+        devices = []
+    profile = scan(d)
+    assert [f.rel for f in profile.files] == ["good.jsonl", "sub/in.jsonl"]
+    reasons = {s.rel: s.reason for s in profile.skipped}
+    assert reasons["here"] == "symlink-loop" and reasons["sub/up"] == "symlink-loop"
+    assert reasons["self.jsonl"] == "cannot stat: Too many levels of symbolic links"
+    assert reasons["dangling.jsonl"] == "cannot stat: No such file or directory"
+    for name in ["pipe.jsonl", "zeros.jsonl", *devices]:
+        assert reasons[name] == "special", name
+    assert profile.rows == 6
+
+
+def test_file_names_that_are_not_utf8_are_profiled_and_never_collide_silently(tmp_path):
+    d = folder_with_good(tmp_path)
+    raw = os.fsencode(d)
+    os.mkdir(raw + b"/region=\xff")
+    Path(os.fsdecode(raw + b"/region=\xff/caf\xe9.jsonl")).write_bytes(GOOD)
+    Path(os.fsdecode(raw + b"/caf\xe9.jsonl")).write_bytes(GOOD)
+    (d / "caf\\xe9.jsonl").write_bytes(GOOD)  # a real backslash: the same name once escaped
+    profile = scan(d)
+    rels = [f.rel for f in profile.files]
+    assert "region=\\xff/caf\\xe9.jsonl" in rels
+    assert profile.file("region=\\xff/caf\\xe9.jsonl").partitions == (("region", "\\xff"),)
+    assert rels.count("caf\\xe9.jsonl") == 1
+    assert [(s.rel, s.reason) for s in profile.skipped] == [("caf\\xe9.jsonl", "name-collision")]
+    assert profile.rows == 9
+    from driftline.report import dumps
+
+    json.loads(dumps(profile))  # the report is valid JSON: no lone surrogates

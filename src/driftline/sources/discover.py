@@ -35,6 +35,7 @@ class Skipped:
 
     rel: str
     reason: str  # 'hidden' | 'marker' | 'excluded' | 'not-included' | 'special' | 'symlink-loop' | 'unknown-format'
+    #              | 'name-collision'
 
 
 @dataclass(frozen=True, slots=True)
@@ -156,6 +157,11 @@ def discover(
                 skipped.append(Skipped(rel, "unknown-format"))
                 continue
             assert st is not None
+            if rel in files and files[rel].path != path:
+                # Two names show the same once undecodable bytes are escaped ('caf\xe9' as bytes
+                # and as text): keep the first, and count the other rather than lose it silently.
+                skipped.append(Skipped(rel, "name-collision"))
+                continue
             files[rel] = FileRef(
                 path=path,
                 rel=rel,
