@@ -42,7 +42,8 @@ def test_terminal_shows_the_schema_and_each_rule_with_its_loss(report: Path):
     assert PM25_LINE in out
     assert "    does: parses decimal strings as float64; null tokens ('n/a', 'null', '-', ...) become null" in out
     assert "    why:  715 of 721 strings parse as float64" in out
-    assert "ts: parse_timestamp → timestamp[us, UTC]; 3,960 strings and 599 CSV cells, 1,117 local times read as UTC" in out
+    assert ("ts: parse_timestamp → timestamp[us, UTC]; 3,960 strings and 599 CSV cells, "
+            "1,117 local times read as UTC") in out
 
 
 def test_each_format_passes_its_reference_reader(report: Path, tmp_path: Path):
@@ -56,7 +57,8 @@ def test_each_format_passes_its_reference_reader(report: Path, tmp_path: Path):
     assert schema.field("pm25").type == pa.float64()
     con = sqlite3.connect(":memory:")
     con.executescript(files["sql"].read_text())
-    assert [r[1] for r in con.execute('PRAGMA table_info("raw_readings")')][:2] == ["battery.charge_cycles", "battery.level"]
+    columns = [r[1] for r in con.execute('PRAGMA table_info("raw_readings")')]
+    assert columns[:2] == ["battery.charge_cycles", "battery.level"]
     parsed = avro.schema.parse(files["avro"].read_text())
     assert parsed.name == "raw_readings"
     assert sorted(os.listdir(tmp_path)) == sorted(p.name for p in files.values())  # no temporary files left
