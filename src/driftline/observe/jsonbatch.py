@@ -157,13 +157,13 @@ def observe_json_lines(
     batch: int,
     row_start: int,
     first_line: int,
-    hint: pa.Schema | None = None,
-) -> tuple[Observation, pa.Schema | None] | None:
+    hint: Hint | None = None,
+) -> tuple[Observation, Hint] | None:
     """Observe lines (without newlines), one JSON object each, as the exact walk would.
 
-    Returns the observation and the schema to hint the next batch with, or None when
-    the batch must take the exact walk.  Rows Arrow cannot type with the rest (a list
-    that is sometimes a scalar) are set aside and walked exactly; the two parts merge.
+    Returns the observation and a Hint for the next batch, or None when the batch must
+    take the exact walk.  Rows Arrow cannot type with the rest (a list that is sometimes
+    a scalar) are set aside and walked exactly; the two parts merge.
 
     >>> obs, _ = observe_json_lines([b'{"a": 1, "b": null}', b'{"a": 2.5}'], file="f.jsonl", batch=0,
     ...                             row_start=0, first_line=1)
@@ -177,21 +177,29 @@ def observe_json_lines(
     aside = _odd_rows(lines, arr)
     if aside is None:
         return None
+    schema, patterns = (hint.schema, []) if hint is not None else (None, [])
+    for pattern in hint.patterns if hint is not None else ():
+        rows = _matching(arr, pattern)  # the odd rows of the last batch are likely odd here too
+        if len(rows) * 4 <= n:  # ... while they stay few
+            aside |= rows
+            patterns.append(pattern)
     table, keep = None, None
     for _ in range(_MAX_SET_ASIDE_ROUNDS):
         keep = None if not aside else [i for i in range(n) if i not in aside]
         part = lines if keep is None else [lines[i] for i in keep]
         if not part:
             break
-        table, why = parse_lines(b"\n".join(part) + b"\n", hint)
+        table, why = parse_lines(b"\n".join(part) + b"\n", schema)
         if table is not None:
             if table.num_rows != len(part):
                 return None  # several values on one line
             break
-        more = _conflict_rows(arr, why) if why else None
-        if not more or more <= aside:
+        found = _conflict_rows(arr, why) if why else None
+        if found is None or found[0] <= aside:
             return None
-        aside |= more
+        aside |= found[0]
+        if found[1] not in patterns:
+            patterns.append(found[1])
     if table is None and keep:
         return None
     where = (file, batch, row_start, first_line)
@@ -212,7 +220,19 @@ def observe_json_lines(
     if fields is None:
         return None
     obs = Observation(file=file, batch=batch, row_start=row_start, rows=n, fields=fields)
-    return obs, table.schema if table is not None else hint
+    return obs, Hint(table.schema if table is not None else schema, tuple(patterns))
+
+
+@dataclass(frozen=True, slots=True)
+class Hint:
+    """What one batch teaches the next: Arrow's schema, and the patterns of rows set aside."""
+
+    schema: pa.Schema | None
+    patterns: tuple[str, ...] = ()
+
+
+def _matching(arr: pa.BinaryArray, pattern: str) -> set[int]:
+    return set(pc.indices_nonzero(pc.match_substring_regex(arr, pattern)).to_pylist())
 
 
 _MAX_SET_ASIDE_ROUNDS = 4
@@ -220,7 +240,7 @@ _CONFLICT = re.compile(r"Column\((/[^)]*)\) changed from (\w+) to (\w+)")
 _KIND_START = {"string": '"', "array": r"\[", "object": r"\{", "number": "[-0-9]", "boolean": "[tf]", "null": "n"}
 
 
-def _conflict_rows(arr: pa.BinaryArray, why: str) -> set[int] | None:
+def _conflict_rows(arr: pa.BinaryArray, why: str) -> tuple[set[int], str] | None:
     """Rows that may hold the rarer of the two kinds Arrow's error names for one field.
 
     Which rows are set aside decides only the speed: whatever is set aside is walked
@@ -239,13 +259,13 @@ def _conflict_rows(arr: pa.BinaryArray, why: str) -> set[int] | None:
             return None
         pattern = '"' + re.escape(name) + r'"\s*:\s*' + start
         try:
-            found.append(pc.match_substring_regex(arr, pattern))
+            found.append((pc.match_substring_regex(arr, pattern), pattern))
         except pa.ArrowException:
             return None
-    rarer = min(found, key=lambda mask: mask.true_count)
+    rarer, pattern = min(found, key=lambda got: got[0].true_count)
     if rarer.true_count * 2 > len(arr):
         return None  # not a few odd rows: the exact walk of the batch is as quick
-    return set(pc.indices_nonzero(rarer).to_pylist())
+    return set(pc.indices_nonzero(rarer).to_pylist()), pattern
 
 
 def _odd_rows(lines: Sequence[bytes], arr: pa.BinaryArray) -> set[int] | None:

@@ -25,8 +25,10 @@ def exact_requested() -> bool:
     return bool(os.environ.get(EXACT_ENV))
 
 
-SAMPLE = 1024  # values looked at to guess whether a dictionary pays
-DICTIONARY_SHARE = 4  # use the dictionary when distinct values are at most 1/4 of the values
+DICTIONARY_MIN = 1024  # shorter columns are classified value by value
+DICTIONARY_SHARE = 2  # use the dictionary when distinct values are at most half the values
+SAMPLE = 8192  # ... and try it only when fewer than 80% of the first SAMPLE values are distinct
+SAMPLE_DISTINCT = 0.8
 _SECONDS_AT = 17  # textclass: where the seconds sit in every timestamp shape
 
 
@@ -51,8 +53,9 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     ({'integer': 2, 'text': 2}, {'integer': [0, 3], 'text': [1, 4]})
     """
     values, index = arr, None
-    # Hashing many distinct values (timestamps, ids) costs more than it saves: a sample decides.
-    if len(arr) > 4 * SAMPLE and len(pc.unique(arr.slice(0, SAMPLE))) * 2 <= SAMPLE:
+    # Hashing costs about as much as classifying when nearly every value is distinct
+    # (timestamps, ids), and little otherwise: the head of the column decides.
+    if len(arr) > DICTIONARY_MIN and len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)):
         enc = pc.dictionary_encode(arr)
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
