@@ -144,8 +144,9 @@ def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
         t = shape.arrow()
         columns.append(pa.array(values, type=t))
         fields.append(pa.field(name, t))
-    return pa.RecordBatch.from_arrays(columns, schema=pa.schema(fields)) if fields else \
-        pa.RecordBatch.from_pydict({})
+    if not fields:  # empty objects only: rows without columns
+        return pa.RecordBatch.from_struct_array(pa.array([{}] * len(records), type=pa.struct([])))
+    return pa.RecordBatch.from_arrays(columns, schema=pa.schema(fields))
 
 
 # -- Arrow arrays to variants ---------------------------------------------------------------

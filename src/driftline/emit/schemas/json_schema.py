@@ -23,6 +23,7 @@ from typing import Any, Literal
 import orjson
 
 from driftline.lattice import DType, parse_key
+from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE
 from driftline.recommend.plan import FieldPlan, Recommendation
 
@@ -153,7 +154,11 @@ def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | 
     """
     if mode not in ("permissive", "strict"):
         raise ValueError(f"mode must be 'permissive' or 'strict', not {mode!r}")
-    required = [p.name for p in rec.fields if p.required]
+    # Records that are not objects (a bare JSON value) are the path '$': their schema is the
+    # root's own, beside "object"; type-specific keywords never clash with "properties".
+    bare = next((p for p in rec.fields if p.path == paths.ROOT), None)
+    fields = [p for p in rec.fields if p is not bare]
+    required = [p.name for p in fields if p.required]
     out: dict[str, Any] = {
         "$schema": META_SCHEMA,
         "title": title or f"records of {rec.root}",
@@ -162,10 +167,17 @@ def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | 
                         else "records after the cast rules validate")
                      + f"; {rec.rows:,} rows in {rec.files:,} files"),
         "type": "object",
-        "properties": {p.name: node(p, mode) for p in rec.fields},
+        "properties": {p.name: node(p, mode) for p in fields},
     }
     if required:
         out["required"] = required
+    if bare is not None:
+        extra = node(bare, mode)
+        kinds = extra.pop("type")
+        out["type"] = ["object", *(t for t in ([kinds] if isinstance(kinds, str) else kinds) if t != "object")]
+        extra.pop("x-driftline")
+        out.update({k: v for k, v in extra.items() if k not in out})
+        out["$comment"] += f"; records that are not objects: {bare.target.key()} ({bare.rule})"
     return out
 
 

@@ -75,7 +75,9 @@ def columns(rec: Recommendation) -> list[Column]:
                 walk(c, names)
             return
         name = ".".join(names)
-        if name in taken:  # a field named "a.b" beside a struct a with a field b
+        # A field named "a.b" beside a struct a with a field b, or an empty name (SQL has no
+        # zero-length identifier): the path as the scan spells it, which is unique.
+        if name in taken or "" in names:
             name = plan.path
         taken.add(name)
         out.append(Column(name, plan, names))
