@@ -332,3 +332,12 @@ def test_csv_line_past_max_record_bytes_stops_the_read_there_with_memory_bounded
     assert out["py"] < 16 * 2**20 and out["arrow"] < 24 * 2**20, out
     whole = read_file(discover([str(f)]).files[0], ReadOptions())
     assert whole.rows == 4 and whole.issues == ()
+
+
+def test_csv_with_a_header_and_no_rows_is_an_empty_table_not_an_error(tmp_path):
+    # found by: tests/test_properties.py (hypothesis, a header-only CSV): once the header was
+    # read whole, pyarrow saw no bytes at all and said "Empty CSV file".
+    for name, data in (("h.csv", b"a,b\n"), ("h2.csv", b"a,b"), ("h3.csv", b"a,b\r\n\r\n")):
+        (tmp_path / name).write_bytes(data)
+        res = read_file(discover([str(tmp_path / name)]).files[0], ReadOptions())
+        assert res.rows == 0 and res.errors == 0, (name, res.issues)

@@ -181,6 +181,10 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
             convert_options=pcsv.ConvertOptions(column_types={n: pa.binary() for n in names}, strings_can_be_null=False, quoted_strings_can_be_null=False),
         )
     except pa.ArrowInvalid as exc:
+        if "Empty CSV file" in str(exc):  # a header and no rows: an empty table, not a problem
+            if guard.cut is not None:
+                yield _too_long(rel, opts, guard)
+            return
         yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
         return
     state = _CsvState(rel, opts, header_lines)
