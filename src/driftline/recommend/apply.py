@@ -213,6 +213,8 @@ def _typed(arr: pa.Array, key: str, plan: FieldPlan, tally: Tally) -> pa.Array:
 # -- one plan ---------------------------------------------------------------------------------
 
 def _scalar(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
+    if plan.target.name == "null":  # only nulls were seen; a typed column of nulls stays null
+        return pa.nulls(n)
     parts = []
     for key, arr in forms.items():
         if key in _NESTED:
@@ -221,8 +223,6 @@ def _scalar(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -
             parts.append(_strings(arr, "string" if key == "string" else "text", plan, tally))
         else:
             parts.append(_typed(arr, key, plan, tally))
-    if plan.target.name == "null":
-        return pa.nulls(n)
     return pc.coalesce(*parts) if parts else pa.nulls(n, to_arrow(plan.target))
 
 

@@ -325,6 +325,31 @@ def json_value(v: Any) -> Any:
     return str(v)
 
 
+def jsonable(arr: pa.Array) -> pa.Array:
+    """Temporal values as ISO 8601 / RFC 3339 text (UTC for zoned ones), at any depth.
+
+    Done in Arrow, so values outside Python's datetime range (int96, far dates) still print.
+    """
+    arr = _plain(arr)
+    t = arr.type
+    if pa.types.is_timestamp(t):
+        if t.tz:
+            return pc.strftime(arr.cast(pa.timestamp(t.unit, "UTC")), format="%Y-%m-%dT%H:%M:%SZ")
+        return pc.strftime(arr, format="%Y-%m-%dT%H:%M:%S")
+    if pa.types.is_date(t) or pa.types.is_time(t):
+        return arr.cast(pa.string())
+    if pa.types.is_duration(t):
+        return arr.cast(pa.int64())
+    if pa.types.is_struct(t):
+        kids = [jsonable(arr.field(i)) for i in range(t.num_fields)]
+        return pa.StructArray.from_arrays(kids, names=[t.field(i).name for i in range(t.num_fields)], mask=_mask(arr))
+    if pa.types.is_map(t):
+        return pa.MapArray.from_arrays(arr.offsets, jsonable(arr.keys), jsonable(arr.items), mask=_mask(arr))
+    if pa.types.is_list(t):
+        return pa.ListArray.from_arrays(arr.offsets, jsonable(arr.values), mask=_mask(arr))
+    return arr
+
+
 def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str]]) -> Iterator[tuple[str, int, Any]]:
     """(file, row, record) for every record, as JSON data (see the module docstring)."""
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
@@ -339,6 +364,9 @@ def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str
                     yield ref.rel, row, {k: cell_value(v) for k, v in rec.items()}
                     row += 1
         else:
+            table = pq.read_table(ref.path)
+            table = pa.table({n: jsonable(c.combine_chunks()) for n, c in zip(table.column_names, table.columns,
+                                                                              strict=True)})
             # Maps as JSON objects (their keys), as a JSON producer would write them.
-            for row, rec in enumerate(pq.read_table(ref.path).to_pylist(maps_as_pydicts="lossy")):
+            for row, rec in enumerate(table.to_pylist(maps_as_pydicts="lossy")):
                 yield ref.rel, row, json_value(rec)

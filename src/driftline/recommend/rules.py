@@ -86,6 +86,8 @@ def _observed(f: Facts) -> dict[str, object]:
     leap = f.typed.leap_seconds + f.text.leap_seconds
     if leap:
         out["leap_seconds"] = leap
+    if isinstance(f.typed.minimum, str) and isinstance(f.typed.maximum, str):
+        out["range"] = [f.typed.minimum, f.typed.maximum]  # temporal values, as ISO 8601 text
     return out
 
 
@@ -345,6 +347,8 @@ def _map(f: Facts, ctx: Context) -> FieldPlan:
     key = ctx.plan(ctx.tree[paths.map_part(f.path, "key")])
     value = ctx.plan(ctx.tree[paths.map_part(f.path, "value")])
     assert key is not None and value is not None
+    if key.target.name == "null":  # maps that were always empty: Arrow keys cannot be null-typed
+        key = dataclasses.replace(key, target=STRING, why="no key was ever seen; string holds any")
     target = DType("map", fields=(("key", key.target.with_nullable(False)), ("value", value.target)))
     return FieldPlan(path=f.path, name=f.name, target=target.with_nullable(f.summary.nullable),
                      rule="identity", does="keeps each map", why="every value is a map",

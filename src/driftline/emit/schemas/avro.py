@@ -22,6 +22,8 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import orjson
+import pyarrow as pa
+import pyarrow.compute as pc
 
 from driftline.lattice import DType
 from driftline.recommend.plan import FieldPlan, Recommendation
@@ -82,8 +84,8 @@ def _logical(t: DType) -> Any:
         return {"type": "long", "logicalType": f"{local}timestamp-{_TIMESTAMP[t.unit]}"}
     if n == "time32":
         return {"type": "int", "logicalType": "time-millis"}
-    if n == "time64":
-        return {"type": "long", "logicalType": "time-micros"}
+    if n == "time64":  # Avro has no nanosecond time: time64[ns] is a plain long of nanoseconds
+        return {"type": "long", "logicalType": "time-micros"} if t.unit == "us" else "long"
     return {"null": "null", "bool": "boolean", "int8": "int", "int16": "int", "int32": "int",
             "uint8": "int", "uint16": "int", "int64": "long", "uint32": "long", "float16": "float",
             "float32": "float", "float64": "double", "string": "string", "binary": "bytes",
@@ -170,6 +172,32 @@ def avro_datum(rec: Recommendation, row: Mapping[str, Any]) -> dict[str, Any]:
     """One row of apply()'s output (as_py / to_pylist) as a datum of avro_schema(rec)."""
     _, names = _schema(rec, "record", None)
     return {names.fields[p.path]: _datum(p, row.get(p.name), names) for p in rec.fields}
+
+
+def _longs(arr: pa.Array) -> pa.Array:
+    """Values Avro writes as a plain long (nanosecond times, durations) as int64, at any depth."""
+    t = arr.type
+    if pa.types.is_timestamp(t) and t.unit == "ns" or pa.types.is_time64(t) and t.unit == "ns" \
+            or pa.types.is_duration(t):
+        return arr.cast(pa.int64())
+    if pa.types.is_struct(t):
+        kids = [_longs(arr.field(i)) for i in range(t.num_fields)]
+        return pa.StructArray.from_arrays(kids, fields=[t.field(i).with_type(k.type) for i, k in enumerate(kids)],
+                                          mask=pc.is_null(arr) if arr.null_count else None)
+    if pa.types.is_list(t):
+        items = _longs(arr.values)
+        return pa.ListArray.from_arrays(arr.offsets, items, type=pa.list_(t.value_field.with_type(items.type)),
+                                        mask=pc.is_null(arr) if arr.null_count else None)
+    return arr
+
+
+def avro_records(rec: Recommendation, table: pa.Table) -> list[dict[str, Any]]:
+    """apply()'s output as datums of avro_schema(rec); nanosecond values as their long.
+
+    (fastavro and the Apache package convert no nanosecond logical type.)
+    """
+    cols = {n: _longs(c.combine_chunks()) for n, c in zip(table.column_names, table.columns, strict=True)}
+    return [avro_datum(rec, row) for row in pa.table(cols).to_pylist()]
 
 
 def dumps(schema: dict[str, Any]) -> bytes:

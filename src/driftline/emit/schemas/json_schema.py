@@ -18,6 +18,7 @@ string the scan saw, no leap second, which the format checker rejects).
 
 from __future__ import annotations
 
+import re
 from typing import Any, Literal
 
 import orjson
@@ -64,9 +65,15 @@ def _cell_types(classes: dict[str, int]) -> set[str]:
     return out
 
 
+_YEAR = re.compile(r"(?!0000)[0-9]{4}-")  # RFC 3339 years; the format checkers reject 0000
+
+
 def _format(plan: FieldPlan, mode: Mode) -> str | None:
     t = plan.target
     wanted = "date-time" if t.name == "timestamp" and t.tz else "date" if t.name in ("date32", "date64") else None
+    typed = [k for k in plan.inputs if k not in ("string", "text")]
+    if wanted and typed and not all(_YEAR.match(v) for v in plan.observed.get("range", ("",))):
+        return None  # typed values beyond year 9999 (or before 0001) have no RFC 3339 form
     if wanted is None or mode == "strict":
         return wanted
     allowed = {"date-time": {"timestamp_rfc3339"}, "date": {"date"}}[wanted]

@@ -19,6 +19,7 @@
 from __future__ import annotations
 
 import decimal
+import math
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -30,7 +31,7 @@ from driftline.lattice import DType
 from driftline.observe.textclass import NULL_TOKENS
 from driftline.recommend.options import zone_is_fixed
 from driftline.recommend.plan import FieldPlan, Recommendation
-from driftline.recommend.raw import json_value
+from driftline.recommend.raw import json_value, jsonable
 
 MAX_DECIMAL = 38
 JSON_TEXT_RULES = frozenset({"keep_as_json_text", "wrap_scalar_in_list"})
@@ -111,8 +112,13 @@ def _staging_chars(col: Column) -> int:
     return max(col.plan.input_chars or 1, 1)
 
 
+_NO_COLUMNS = "-- no field was seen: a table needs at least one column\n"
+
+
 def create_table(rec: Recommendation, table: str) -> str:
     """CREATE TABLE for the target; NOT NULL where no value is ever missing."""
+    if not columns(rec):
+        return _NO_COLUMNS
     lines = [f"  {quote(c.name)} {sql_type(c.plan)}{'' if _nullable(c) else ' NOT NULL'}" for c in columns(rec)]
     return f"CREATE TABLE {quote(table)} (\n" + ",\n".join(lines) + "\n);\n"
 
@@ -123,6 +129,8 @@ def _nullable(col: Column) -> bool:
 
 
 def create_staging(rec: Recommendation, table: str) -> str:
+    if not columns(rec):
+        return _NO_COLUMNS
     lines = [f"  {quote(c.name)} VARCHAR({_staging_chars(c)})" for c in columns(rec)]
     return f"CREATE TABLE {quote(table + '_staging')} (\n" + ",\n".join(lines) + "\n);\n"
 
@@ -214,6 +222,8 @@ def expression(col: Column) -> str:
 
 def insert_select(rec: Recommendation, table: str) -> str:
     cols = columns(rec)
+    if not cols:
+        return _NO_COLUMNS
     names = ", ".join(quote(c.name) for c in cols)
     exprs = ",\n".join(f"  {expression(c)} AS {quote(c.name)}" for c in cols)
     return (f"INSERT INTO {quote(table)} ({names})\nSELECT\n{exprs}\nFROM {quote(table + '_staging')};\n")
@@ -253,6 +263,8 @@ def _text(v: Any, json_text: bool) -> str | None:
     value = _plain(v)
     if isinstance(value, decimal.Decimal):
         return str(value)
+    if isinstance(value, float) and not math.isfinite(value):
+        return "NaN" if value != value else ("Infinity" if value > 0 else "-Infinity")  # JSON has none
     if isinstance(value, str) and not json_text:
         return value  # strings, cells, and temporal values as ISO 8601 text
     return orjson.dumps(value, default=str).decode()
@@ -261,7 +273,8 @@ def _text(v: Any, json_text: bool) -> str | None:
 def staging_rows(batch: pa.RecordBatch, rec: Recommendation) -> Iterator[tuple[str | None, ...]]:
     """A raw batch (raw.py variants) as rows for the staging table, in columns() order."""
     cols = columns(rec)
-    data = {name: batch.column(name).to_pylist() for name in batch.schema.names}
+    # Temporal values as text in Arrow first: some lie outside Python's datetime range.
+    data = {name: jsonable(batch.column(name)).to_pylist() for name in batch.schema.names}
     for i in range(batch.num_rows):
         row = []
         for c in cols:
