@@ -20,9 +20,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 from dataclasses import dataclass, field
-from typing import Any
 
-import orjson
 import pyarrow as pa
 import pyarrow.compute as pc
 
@@ -30,7 +28,7 @@ from driftline.lattice import DType, to_arrow
 from driftline.observe import textclass as tc
 from driftline.recommend.arrow import arrow_field, arrow_type, target_schema
 from driftline.recommend.plan import FieldPlan, Recommendation
-from driftline.recommend.raw import TEXT, json_value
+from driftline.recommend.raw import TEXT, json_text, jsonable, plain_value
 
 SAFE_INT = 2**53 - 1  # RFC 7493 §2.2
 _UNIT_DIGITS = {"s": 0, "ms": 3, "us": 6, "ns": 9}
@@ -228,19 +226,9 @@ def _scalar(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -
 
 def _json_text(plan: FieldPlan, variant: pa.Array, tally: Tally) -> pa.Array:
     """The last resort: each value as its JSON text (the one step done in Python per value)."""
-    def plain(v: Any) -> Any:
-        if v is None:
-            return None
-        kind, value = next(((k, x) for k, x in v.items() if x is not None), (None, None))
-        if kind == "struct":
-            return {name: plain(x) for name, x in value.items()}
-        if kind == "list":
-            return [plain(x) for x in value]
-        return json_value(value)
-
     tokens = plan.params.get("tokens", {}).get("text") == "null"
-    out = []
-    for v in variant.to_pylist():
+    out: list[str | None] = []
+    for v in jsonable(variant).to_pylist():
         cell = v.get(TEXT) if v else None
         if cell is not None and tokens and cell.strip().lower() in tc.NULL_TOKENS:
             tally.add(plan.path, "null_token", 1)
@@ -248,7 +236,7 @@ def _json_text(plan: FieldPlan, variant: pa.Array, tally: Tally) -> pa.Array:
         elif v is None or all(x is None for x in v.values()):
             out.append(None)
         else:
-            out.append(orjson.dumps(cell if cell is not None else plain(v)).decode())
+            out.append(json_text(cell if cell is not None else plain_value(v)))
     arr = pa.array(out, pa.string())
     tally.add(plan.path, "as_json_text", len(arr) - arr.null_count)
     return arr

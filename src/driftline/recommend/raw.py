@@ -350,6 +350,40 @@ def jsonable(arr: pa.Array) -> pa.Array:
     return arr
 
 
+def plain_value(v: Any) -> Any:
+    """A variant row (as_py) as plain JSON data: the one kind that is set, nested ones too.
+
+    >>> plain_value({"struct": {"a": {"int64": 1, "string": None}}, "string": None})
+    {'a': 1}
+    """
+    if v is None:
+        return None
+    kind, value = next(((k, x) for k, x in v.items() if x is not None), (None, None))
+    if value is None:
+        return None
+    if kind == "struct":
+        return {name: plain_value(x) for name, x in value.items()}
+    if kind == "list":
+        return [plain_value(x) for x in value]
+    return json_value(value)
+
+
+def _fragment(v: Any) -> Any:
+    # A decimal's text is a JSON number as it is; a float would round it.
+    if isinstance(v, decimal.Decimal):
+        return orjson.Fragment(str(v))
+    raise TypeError(f"no JSON text for {type(v).__name__}")
+
+
+def json_text(value: Any) -> str:
+    """Compact JSON text of plain data (decimals exact; NaN and infinities as null).
+
+    >>> json_text({"p": decimal.Decimal("12.50"), "s": "x"})
+    '{"p":12.50,"s":"x"}'
+    """
+    return orjson.dumps(value, default=_fragment).decode()
+
+
 def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str]]) -> Iterator[tuple[str, int, Any]]:
     """(file, row, record) for every record, as JSON data (see the module docstring)."""
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))

@@ -31,7 +31,7 @@ from driftline.lattice import DType
 from driftline.observe.textclass import NULL_TOKENS
 from driftline.recommend.options import zone_is_fixed
 from driftline.recommend.plan import FieldPlan, Recommendation
-from driftline.recommend.raw import json_value, jsonable
+from driftline.recommend.raw import json_text, jsonable, plain_value
 
 MAX_DECIMAL = 38
 JSON_TEXT_RULES = frozenset({"keep_as_json_text", "wrap_scalar_in_list"})
@@ -242,32 +242,20 @@ def script(rec: Recommendation, table: str) -> str:
 
 # -- loading staging rows -----------------------------------------------------------------------
 
-def _plain(v: Any) -> Any:
-    """A variant row as plain JSON data."""
-    if v is None:
-        return None
-    kind, value = next(((k, x) for k, x in v.items() if x is not None), (None, None))
-    if kind == "struct":
-        return {n: _plain(x) for n, x in value.items()}
-    if kind == "list":
-        return [_plain(x) for x in value]
-    return json_value(value)
-
-
-def _text(v: Any, json_text: bool) -> str | None:
+def _text(v: Any, as_json: bool) -> str | None:
     if v is None:
         return None
     kind = next((k for k, x in v.items() if x is not None), None)
     if kind is None:
         return None
-    value = _plain(v)
+    value = plain_value(v)
     if isinstance(value, decimal.Decimal):
         return str(value)
     if isinstance(value, float) and not math.isfinite(value):
         return "NaN" if value != value else ("Infinity" if value > 0 else "-Infinity")  # JSON has none
-    if isinstance(value, str) and not json_text:
+    if isinstance(value, str) and not as_json:
         return value  # strings, cells, and temporal values as ISO 8601 text
-    return orjson.dumps(value, default=str).decode()
+    return json_text(value)
 
 
 def staging_rows(batch: pa.RecordBatch, rec: Recommendation) -> Iterator[tuple[str | None, ...]]:
