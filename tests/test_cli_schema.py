@@ -119,3 +119,8 @@ def test_bad_inputs_exit_2(report: Path, tmp_path: Path):
     assert res.returncode == 2 and "unknown option 'strictness'" in res.stderr
     res = run("schema", str(tmp_path / "missing"))
     assert res.returncode == 2 and "InputPathError:" in res.stderr
+    broken = tmp_path / "broken"
+    broken.mkdir()
+    (broken / "bad.jsonl").write_text("{nope\n")
+    res = run("schema", str(broken))
+    assert res.returncode == 2 and "InputPathError: nothing readable: every one of 1 files failed" in res.stderr

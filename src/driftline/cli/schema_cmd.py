@@ -12,7 +12,7 @@ from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
-from driftline.errors import OutputError, PolicyError
+from driftline.errors import InputPathError, OutputError, PolicyError
 from driftline.gate.inputs import profile_of
 from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
 from driftline.recommend.plan import Recommendation
@@ -135,6 +135,9 @@ def schema_command(
     opts = _options(config, strict, prefer_decimal, timestamp_unit, timestamp_zone, parse_strings,
                     null_tokens, max_null_share, min_field_share)
     profile = profile_of(paths, read=ReadOptions(batch_rows=batch_rows), jobs=jobs)
+    if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
+        raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "
+                             "(driftline scan shows the problems)")
     to_stdout = (to is not None and out == "-") or rules == "-"
     console = err_console if to_stdout else Console(highlight=False)
     try:

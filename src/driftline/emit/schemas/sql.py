@@ -234,6 +234,8 @@ def script(rec: Recommendation, table: str) -> str:
     head = (f"-- driftline schema: {rec.root} ({rec.rows:,} rows in {rec.files:,} files)\n"
             "-- Portable SQL. Load the raw values as text into the staging table\n"
             "-- (blank CSV cells as NULL; lists and JSON-text columns as JSON text), then run the INSERT.\n")
+    if not columns(rec):
+        return head + "\n" + _NO_COLUMNS
     rules = "".join(f"--   {c.name}: {c.plan.rule} → {c.plan.target.key()}\n" for c in columns(rec)
                     if c.plan.rule != "identity")
     return (head + "\n" + create_table(rec, table) + "\n" + create_staging(rec, table) + "\n"
