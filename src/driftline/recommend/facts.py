@@ -79,15 +79,20 @@ class FactsTree:
 
 
 def _split(profile: Profile) -> tuple[dict[str, FieldStats], dict[str, FieldStats], dict[str, int]]:
-    typed: dict[str, FieldStats] = {}
     text: dict[str, FieldStats] = {}
     items: dict[str, int] = {}
     for obs in profile.observations():
         for path, st in obs.fields.items():
-            side = text if st.text > 0 else typed
-            side[path] = side[path].merge(st) if path in side else st
+            if st.text > 0:
+                text[path] = text[path].merge(st) if path in text else st
             if st.items > items.get(path, 0):
                 items[path] = st.items
+    # Paths no CSV cell reached are typed throughout: the profile's own merge is their half.
+    typed = {p: st for p, st in profile.stats.items() if p not in text}
+    for obs in profile.observations():
+        for path, st in obs.fields.items():
+            if path in text and st.text == 0:
+                typed[path] = typed[path].merge(st) if path in typed else st
     return typed, text, items
 
 
