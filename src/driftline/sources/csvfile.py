@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import csv
 import io
+import re
 from collections.abc import Iterator
 from typing import BinaryIO
 
@@ -57,11 +58,18 @@ def _unique(names: list[str]) -> list[str]:
     return out
 
 
+_BAD_BYTES = re.compile("[\udc80-\udcff]+")  # undecodable bytes, as surrogateescape shows them
+
+
 class _LineGuard(io.RawIOBase):
-    """Passes whole lines only, and ends the data just before a line longer than limit bytes.
+    """Passes whole lines only, valid as UTF-8, and ends the data just before a line longer
+    than limit bytes.
 
     Memory stays bounded by the limit whatever the file holds; a CSV line cannot be skipped
     the way a JSON line can (it may sit inside a quoted field), so the read stops there.
+    Undecodable bytes become U+FFFD here, each line's first one noted in bad_utf8: pyarrow
+    cannot even hand a ragged row holding them to invalid_row_handler (it decodes the row's
+    text strictly first), and then gives up on the whole file.
     """
 
     def __init__(self, inner: BinaryIO, limit: int) -> None:
@@ -72,22 +80,47 @@ class _LineGuard(io.RawIOBase):
         self._out = b""
         self._eof = False
         self.lines = 0  # newlines passed on
-        self.passed = 0  # bytes passed on
+        self.consumed = 0  # bytes of the file passed on (before any U+FFFD)
         self.cut: tuple[int, int] | None = None  # (line, byte offset) of the over-long line
+        self.bad_utf8: list[tuple[int, int]] = []  # (line, byte offset) of undecodable bytes
+        self.bad_lines = 0
 
     def readable(self) -> bool:
         return True
 
     def _stop(self) -> None:
-        self.cut = (self.lines + 1, self.passed)
+        self.cut = (self.lines + 1, self.consumed)
         self._carry, self._carry_len, self._eof = [], 0, True
+
+    def _emit(self, data: bytes) -> None:
+        first_line, offset = self.lines + 1, self.consumed
+        self.lines += data.count(b"\n")
+        self.consumed += len(data)
+        if not data.isascii():
+            try:
+                data.decode("utf-8")
+            except UnicodeDecodeError:
+                data = self._scrub(data, first_line, offset)
+        self._out = data
+
+    def _scrub(self, data: bytes, first_line: int, offset: int) -> bytes:
+        text = data.decode("utf-8", "surrogateescape")
+        seen_line = 0
+        for m in _BAD_BYTES.finditer(text):
+            line = first_line + text.count("\n", 0, m.start())
+            if line != seen_line:
+                seen_line = line
+                self.bad_lines += 1
+                if len(self.bad_utf8) < _MAX_CELL_ISSUES:
+                    self.bad_utf8.append((line, offset + len(text[: m.start()].encode("utf-8", "surrogateescape"))))
+        return _BAD_BYTES.sub(lambda m: "\ufffd" * len(m.group()), text).encode("utf-8")
 
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
         while not self._out and not self._eof:
             chunk = self._inner.read(self._step)
             if not chunk:
                 self._eof = True
-                self._out = b"".join(self._carry)  # a last line without a newline
+                self._emit(b"".join(self._carry))  # a last line without a newline
                 self._carry, self._carry_len = [], 0
                 break
             first = chunk.find(b"\n")
@@ -101,14 +134,24 @@ class _LineGuard(io.RawIOBase):
                 self._stop()
                 break
             last = chunk.rfind(b"\n")
-            self._out = b"".join([*self._carry, chunk[: last + 1]])
+            self._emit(b"".join([*self._carry, chunk[: last + 1]]))
             self._carry, self._carry_len = [chunk[last + 1 :]], len(chunk) - last - 1
-            self.lines += chunk.count(b"\n", 0, last + 1)
         n = min(len(buf), len(self._out))
         buf[:n] = self._out[:n]
         self._out = self._out[n:]
-        self.passed += n
         return n
+
+    def take_issues(self, rel: str) -> list[FileIssue]:
+        out = [FileIssue(rel, "invalid-utf8", "invalid UTF-8 on this line; read with U+FFFD", line=line, byte_offset=at)
+               for line, at in self.bad_utf8]
+        self.bad_utf8.clear()
+        return out
+
+    def rest_issue(self, rel: str) -> list[FileIssue]:
+        more = self.bad_lines - _MAX_CELL_ISSUES
+        if more <= 0:
+            return []
+        return [FileIssue(rel, "invalid-utf8", f"{more:,} more lines hold invalid UTF-8; read with U+FFFD")]
 
 
 def _block(opts: ReadOptions) -> int:
@@ -136,7 +179,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
     head = buffered.peek(_SNIFF_BYTES)[:_SNIFF_BYTES]
     if guard.cut is not None and not head:
-        yield _too_long(rel, opts, guard)
+        yield from _ending(rel, opts, guard)
         return
     if not head.strip():
         yield FileIssue(rel, "empty", "empty file: no header and no rows", "warning", line=1, byte_offset=0)
@@ -151,6 +194,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     # and pyarrow reads the rest, so its row numbers start after the header's lines.
     header = _read_header(buffered)
     names = _header(header, delimiter)
+    yield from guard.take_issues(rel)
     if not names:
         yield FileIssue(rel, "malformed-csv", "no header row could be read", line=1, byte_offset=0)
         return
@@ -181,11 +225,9 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
             convert_options=pcsv.ConvertOptions(column_types={n: pa.binary() for n in names}, strings_can_be_null=False, quoted_strings_can_be_null=False),
         )
     except pa.ArrowInvalid as exc:
-        if "Empty CSV file" in str(exc):  # a header and no rows: an empty table, not a problem
-            if guard.cut is not None:
-                yield _too_long(rel, opts, guard)
-            return
-        yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
+        if "Empty CSV file" not in str(exc):  # a header and no rows is an empty table, not a problem
+            yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
+        yield from _ending(rel, opts, guard)
         return
     state = _CsvState(rel, opts, header_lines)
     pending: list[pa.RecordBatch] = []
@@ -197,10 +239,12 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
             break
         except (pa.ArrowInvalid, OSError, EOFError) as exc:
             yield from ragged
+            yield from guard.take_issues(rel)
             yield FileIssue(rel, "malformed-csv", f"parsing stopped: {exc}", line=state.line, row=state.rows)
             break
         yield from ragged
         ragged.clear()
+        yield from guard.take_issues(rel)
         pending.append(rb)
         pending_rows += rb.num_rows
         while pending_rows >= opts.batch_rows:
@@ -212,6 +256,12 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     yield from ragged
     if pending_rows:
         yield from state.observe(pa.Table.from_batches(pending).combine_chunks())
+    yield from _ending(rel, opts, guard)
+
+
+def _ending(rel: str, opts: ReadOptions, guard: _LineGuard) -> Iterator[FileIssue]:
+    yield from guard.take_issues(rel)
+    yield from guard.rest_issue(rel)
     if guard.cut is not None:
         yield _too_long(rel, opts, guard)
 
