@@ -273,14 +273,16 @@ def test_a_parallel_scan_equals_a_serial_one(files, table):
 
 def _known_recommender_bugs(profile: Profile) -> list[str]:
     """Shapes on which the recommender (src/driftline/recommend/) is known to fail, found by the
-    property below and pinned by the two xfail tests after it; excluded until they are fixed."""
+    property below and pinned by the xfail tests after it; excluded until they are fixed."""
     st_ = profile.stats
+    nested = {"list", "struct", "map"}
+    mixed = [p for p, s in st_.items() if set(s.types) & nested and len(s.types) > 1]
+
     out = []
-    mixed = [p for p, s in st_.items() if "list" in s.types and len(s.types) > 1]
-    if any(q.startswith(p + "[]") and st_[q].present == 0 for p in mixed for q in st_):
-        out.append("list-or-scalar over lists that are always empty")
-    if any(s.text and not s.nonnull for s in st_.values()):
-        out.append("CSV column of empty cells only")
+    if mixed:  # several shapes of this fail (the xfail tests below); all are left out for now
+        out.append("a path mixing a nested kind (list, struct, map) with another kind")
+    if any(s.text and not s.nonnull and s.classes.get("null_token") for s in st_.values()):
+        out.append("a CSV column of null tokens only: the null_token cause is predicted, not measured")
     return out
 
 
@@ -303,9 +305,20 @@ def _validate_and_cast(root: Path, profile: Profile) -> None:
         assert tally.get(plan.path, "nulled") == plan.nulled, plan.path
 
 
+@st.composite
+def shaped_files(draw: Any) -> list[list[list[dict[str, Any]]]]:
+    """JSON Lines files whose fields keep one nested shape each (scalars of any kind mix freely):
+    the recommender's known failures on mixed nested kinds are pinned by the xfail tests below."""
+    keys = draw(st.lists(KEYS, min_size=1, max_size=4, unique=True))
+    shapes = {k: draw(st.sampled_from([SCALARS, st.lists(SCALARS, max_size=3),
+                                       st.dictionaries(KEYS, SCALARS, max_size=3)])) for k in keys}
+    record = st.fixed_dictionaries({}, optional={k: st.one_of(st.none(), v) for k, v in shapes.items()})
+    return draw(st.lists(st.lists(st.lists(record, max_size=5), min_size=1, max_size=2), min_size=1, max_size=2))
+
+
 @pytest.mark.slow
-@SLOW
-@given(files=st.lists(JSONL_FILES, min_size=1, max_size=2), table=csv_tables())
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(files=shaped_files(), table=csv_tables())
 def test_every_record_validates_and_predicted_loss_equals_real_loss(files, table):
     with tempfile.TemporaryDirectory() as tmp:
         root = Path(tmp)
@@ -318,16 +331,39 @@ def test_every_record_validates_and_predicted_loss_equals_real_loss(files, table
 
 
 @pytest.mark.xfail(strict=True, raises=ValueError, reason="recommender: 'cannot parse type key list' "
-                   "(recommend/reading.py) when a path holds a scalar and lists that are always empty")
-def test_known_bug_scalar_and_lists_of_empty_lists(tmp_path):
-    # found by: the property above, shrunk to {"id": 1} and {"id": [[]]}
-    (tmp_path / "a.jsonl").write_text('{"id": 1}\n{"id": [[]]}\n')
+                   "(recommend/reading.py read_scalar) when a path holds a scalar and lists of lists")
+def test_known_bug_scalar_and_lists_of_lists(tmp_path):
+    # found by: the property above, shrunk to {"id": 1} and {"id": [[1]]}
+    (tmp_path / "a.jsonl").write_text('{"id": 1}\n{"id": [[1]]}\n')
     _validate_and_cast(tmp_path, _scan(tmp_path))
 
 
-@pytest.mark.xfail(strict=True, raises=pa.ArrowNotImplementedError, reason="recommender: apply() casts "
-                   "string to null for a CSV column of empty cells only (recommend/apply.py _try_cast)")
-def test_known_bug_csv_column_of_empty_cells(tmp_path):
-    # found by: the property above, shrunk to a one-column CSV whose only cell is empty
-    (tmp_path / "t.csv").write_text('a,b\n,1\n')
+@pytest.mark.xfail(strict=True, raises=ValueError, reason="recommender: 'cannot parse type key struct' "
+                   "when a path holds an empty list and a struct holding a struct")
+def test_known_bug_empty_list_and_struct_of_struct(tmp_path):
+    # found by: the property above, shrunk to {"pm25": []} and {"pm25": {"id": {}}}
+    (tmp_path / "a.jsonl").write_text('{"pm25": []}\n{"pm25": {"id": {}}}\n')
+    _validate_and_cast(tmp_path, _scan(tmp_path))
+
+
+@pytest.mark.xfail(strict=True, raises=AssertionError, reason="recommender: for a CSV column of null tokens "
+                   "only (rule map_null_tokens), apply() measures 'nulled' but not the predicted 'null_token'")
+def test_known_bug_csv_column_of_null_tokens_only(tmp_path):
+    # found by: the property above, shrunk to a CSV column whose only cell is NIL
+    (tmp_path / "t.csv").write_text("a,b\nNIL,1\n")
+    _validate_and_cast(tmp_path, _scan(tmp_path))
+
+
+@pytest.mark.xfail(strict=True, raises=pa.ArrowInvalid, reason="recommender: apply() 'Array arguments must "
+                   "all be the same length' when one file has a list and another a struct at one path")
+def test_known_bug_list_in_one_file_struct_in_another(tmp_path):
+    # found by: the property above, shrunk to {"id": []} in one file and {"id": {}} in the next
+    (tmp_path / "a.jsonl").write_text('{"id": []}\n')
+    (tmp_path / "b.jsonl").write_text('{"id": {}}\n')
+    _validate_and_cast(tmp_path, _scan(tmp_path))
+
+
+def test_csv_column_of_empty_cells_is_recommended_and_cast(tmp_path):
+    # found by: the property above (apply() cast string to null); fixed in the recommender since
+    (tmp_path / "t.csv").write_text("a,b\n,1\n")
     _validate_and_cast(tmp_path, _scan(tmp_path))
