@@ -273,17 +273,9 @@ def test_a_parallel_scan_equals_a_serial_one(files, table):
 
 def _known_recommender_bugs(profile: Profile) -> list[str]:
     """Shapes on which the recommender (src/driftline/recommend/) is known to fail, found by the
-    property below and pinned by the xfail tests after it; excluded until they are fixed."""
-    st_ = profile.stats
-    nested = {"list", "struct", "map"}
-    mixed = [p for p, s in st_.items() if set(s.types) & nested and len(s.types) > 1]
-
-    out = []
-    if mixed:  # several shapes of this fail (the xfail tests below); all are left out for now
-        out.append("a path mixing a nested kind (list, struct, map) with another kind")
-    if any(s.text and not s.nonnull and s.classes.get("null_token") for s in st_.values()):
-        out.append("a CSV column of null tokens only: the null_token cause is predicted, not measured")
-    return out
+    property below and pinned by tests after it; excluded until they are fixed. The four found
+    so far (mixed nested kinds, a CSV column of null tokens only) are fixed: none is excluded."""
+    return []
 
 
 def _validate_and_cast(root: Path, profile: Profile) -> None:
@@ -330,32 +322,24 @@ def test_every_record_validates_and_predicted_loss_equals_real_loss(files, table
         _validate_and_cast(root, profile)
 
 
-@pytest.mark.xfail(strict=True, raises=ValueError, reason="recommender: 'cannot parse type key list' "
-                   "(recommend/reading.py read_scalar) when a path holds a scalar and lists of lists")
 def test_known_bug_scalar_and_lists_of_lists(tmp_path):
     # found by: the property above, shrunk to {"id": 1} and {"id": [[1]]}
     (tmp_path / "a.jsonl").write_text('{"id": 1}\n{"id": [[1]]}\n')
     _validate_and_cast(tmp_path, _scan(tmp_path))
 
 
-@pytest.mark.xfail(strict=True, raises=ValueError, reason="recommender: 'cannot parse type key struct' "
-                   "when a path holds an empty list and a struct holding a struct")
 def test_known_bug_empty_list_and_struct_of_struct(tmp_path):
     # found by: the property above, shrunk to {"pm25": []} and {"pm25": {"id": {}}}
     (tmp_path / "a.jsonl").write_text('{"pm25": []}\n{"pm25": {"id": {}}}\n')
     _validate_and_cast(tmp_path, _scan(tmp_path))
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="recommender: for a CSV column of null tokens "
-                   "only (rule map_null_tokens), apply() measures 'nulled' but not the predicted 'null_token'")
 def test_known_bug_csv_column_of_null_tokens_only(tmp_path):
     # found by: the property above, shrunk to a CSV column whose only cell is NIL
     (tmp_path / "t.csv").write_text("a,b\nNIL,1\n")
     _validate_and_cast(tmp_path, _scan(tmp_path))
 
 
-@pytest.mark.xfail(strict=True, raises=pa.ArrowInvalid, reason="recommender: apply() 'Array arguments must "
-                   "all be the same length' when one file has a list and another a struct at one path")
 def test_known_bug_list_in_one_file_struct_in_another(tmp_path):
     # found by: the property above, shrunk to {"id": []} in one file and {"id": {}} in the next
     (tmp_path / "a.jsonl").write_text('{"id": []}\n')

@@ -212,6 +212,10 @@ def _typed(arr: pa.Array, key: str, plan: FieldPlan, tally: Tally) -> pa.Array:
 
 def _scalar(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
     if plan.target.name == "null":  # only nulls were seen; a typed column of nulls stays null
+        for key in ("string", TEXT):  # ... or tokens: a CSV column of 'n/a' maps them
+            if key in forms and plan.params.get("tokens", {}).get("text" if key == TEXT else key) == "null":
+                token = pc.is_in(pc.ascii_lower(pc.utf8_trim_whitespace(forms[key])), value_set=_TOKENS)
+                tally.add(plan.path, "null_token", _true(pc.fill_null(token, False)))
         return pa.nulls(n)
     parts = []
     for key, arr in forms.items():

@@ -192,8 +192,9 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
     t = arr.type
     if pa.types.is_struct(t):
         kids = [as_variant(arr.field(i)) for i in range(t.num_fields)]
-        inner: pa.Array = pa.StructArray.from_arrays(kids, names=[t.field(i).name for i in range(t.num_fields)],
-                                                     mask=_mask(arr))
+        # A struct of no fields keeps its own length; from_arrays would give it none.
+        inner: pa.Array = arr if not kids else pa.StructArray.from_arrays(
+            kids, names=[t.field(i).name for i in range(t.num_fields)], mask=_mask(arr))
         key = "struct"
     elif pa.types.is_map(t):
         inner = pa.MapArray.from_arrays(arr.offsets, as_variant(arr.keys), as_variant(arr.items), mask=_mask(arr))
@@ -340,7 +341,7 @@ def jsonable(arr: pa.Array) -> pa.Array:
         return arr.cast(pa.string())
     if pa.types.is_duration(t):
         return arr.cast(pa.int64())
-    if pa.types.is_struct(t):
+    if pa.types.is_struct(t) and t.num_fields:  # (a struct of no fields has nothing to convert)
         kids = [jsonable(arr.field(i)) for i in range(t.num_fields)]
         return pa.StructArray.from_arrays(kids, names=[t.field(i).name for i in range(t.num_fields)], mask=_mask(arr))
     if pa.types.is_map(t):

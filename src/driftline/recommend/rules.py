@@ -377,6 +377,8 @@ def wrap_scalar_in_list(f: Facts, ctx: Context) -> FieldPlan | None:
         return None
     item_path = paths.element(f.path)
     item_facts = ctx.tree.facts.get(item_path) or Facts(item_path, "item", f.summary)
+    if _nested(item_facts):
+        return None  # elements are lists, structs or maps: a scalar is not one of them
     merged = dataclasses.replace(item_facts, typed=item_facts.typed.merge(_without(f.typed, set())),
                                  text=f.text)
     r, _ = ctx.reading(merged)  # the item type decides which scalars are nulls

@@ -180,7 +180,7 @@ def _longs(arr: pa.Array) -> pa.Array:
     if pa.types.is_timestamp(t) and t.unit == "ns" or pa.types.is_time64(t) and t.unit == "ns" \
             or pa.types.is_duration(t):
         return arr.cast(pa.int64())
-    if pa.types.is_struct(t):
+    if pa.types.is_struct(t) and t.num_fields:
         kids = [_longs(arr.field(i)) for i in range(t.num_fields)]
         return pa.StructArray.from_arrays(kids, fields=[t.field(i).with_type(k.type) for i, k in enumerate(kids)],
                                           mask=pc.is_null(arr) if arr.null_count else None)
