@@ -6,6 +6,7 @@ import bz2
 import io
 import lzma
 import zlib
+from collections.abc import Callable
 from typing import Any, BinaryIO
 
 from driftline.sources.base import RATIO_FLOOR_BYTES
@@ -105,9 +106,11 @@ class _Limited(io.RawIOBase):
     RATIO_FLOOR_BYTES came out, so small files that compress well are never stopped.
     """
 
-    def __init__(self, inner: BinaryIO, raw: BinaryIO, limit: int | None, ratio: float | None) -> None:
+    def __init__(self, inner: BinaryIO, raw: BinaryIO, limit: int | None, ratio: float | None,
+                 taken: Callable[[], int] | None = None) -> None:
         self._inner, self._raw = inner, raw
         self._limit, self._ratio = limit, ratio
+        self._taken = taken or raw.tell  # bytes read from the file so far
         self.count = 0
         self._stop: LimitExceeded | None = None  # raised on the read after the one that reached a limit
 
@@ -129,7 +132,7 @@ class _Limited(io.RawIOBase):
             self.count = self._limit
             self._stop = LimitExceeded(f"more than {self._limit:,} decompressed bytes (--max-decompressed-bytes)")
         elif self._ratio is not None and self.count > RATIO_FLOOR_BYTES and self._raw is not self._inner:
-            taken = max(self._raw.tell(), 1)
+            taken = max(self._taken(), 1)
             if self.count > self._ratio * taken:
                 self._stop = LimitExceeded(
                     f"{self.count:,} bytes decompressed from {taken:,}, a ratio over {self._ratio:,g}:1 "
@@ -228,8 +231,12 @@ def open_stream(path: str, compression: str | None, *, limit: int | None, ratio:
     return wrap_stream(open(path, "rb"), compression, limit=limit, ratio=ratio)  # noqa: SIM115 - closed with it
 
 
-def wrap_stream(raw: BinaryIO, compression: str | None, *, limit: int | None, ratio: float | None = None) -> BinaryIO:
-    """Decompressed bytes of an open binary file (local or remote); closing the result closes raw."""
+def wrap_stream(raw: BinaryIO, compression: str | None, *, limit: int | None, ratio: float | None = None,
+                taken: Callable[[], int] | None = None) -> BinaryIO:
+    """Decompressed bytes of an open binary file (local or remote); closing the result closes raw.
+
+    taken counts the bytes read from raw so far, for the ratio; raw.tell() when not given.
+    """
     try:
         stream = _decoder(raw, compression)
     except BaseException:
@@ -237,4 +244,4 @@ def wrap_stream(raw: BinaryIO, compression: str | None, *, limit: int | None, ra
         raise
     if compression is None and limit is None:
         return stream
-    return io.BufferedReader(_Limited(stream, raw, limit, ratio), buffer_size=1 << 20)  # type: ignore[return-value]
+    return io.BufferedReader(_Limited(stream, raw, limit, ratio, taken), buffer_size=1 << 20)  # type: ignore[return-value]

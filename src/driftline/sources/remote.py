@@ -27,9 +27,8 @@ from typing import Any, BinaryIO
 from urllib.parse import parse_qsl, quote, unquote, urlencode
 
 from driftline.errors import DriftlineError, InputPathError
-from driftline.sources.base import RATIO_FLOOR_BYTES
 from driftline.sources.discover import Discovery, FileRef, Skipped, partition_values
-from driftline.sources.formats import FORMAT_BY_SUFFIX, LimitExceeded, detect_compression, detect_format
+from driftline.sources.formats import FORMAT_BY_SUFFIX, detect_compression, detect_format, wrap_stream
 
 SCHEMES = ("s3://",)
 DEFAULT_RETRIES = 4
@@ -372,82 +371,12 @@ class _Raw(io.RawIOBase):
 
 def open_stream_remote(path: str, compression: str | None, *, limit: int | None,
                        ratio: float | None = None) -> BinaryIO:
-    """formats.open_stream for a locator: decompressed bytes, bounded by limit and ratio."""
-    import bz2
-    import gzip
-    import lzma
+    """formats.open_stream for a locator: decompressed bytes, bounded by limit and ratio.
 
+    The decoders are the local ones (formats.wrap_stream): every byte decoded before a cut
+    is handed out, a truncated gzip/zstd/xz is reported, a bomb stops at the limits.
+    """
     raw = open_binary(path)
-    stream: Any
-    if compression is None:
-        stream = raw
-    elif compression == "gzip":
-        stream = _Closing(gzip.GzipFile(fileobj=raw, mode="rb"), raw)
-    elif compression == "bz2":
-        stream = _Closing(bz2.BZ2File(raw, mode="rb"), raw)  # noqa: SIM115 - returned to the caller
-    elif compression == "xz":
-        stream = _Closing(lzma.LZMAFile(raw, mode="rb"), raw)  # noqa: SIM115 - returned to the caller
-    elif compression == "zstd":
-        import zstandard
-
-        stream = zstandard.ZstdDecompressor().stream_reader(raw, closefd=True)
-    else:  # pragma: no cover - guarded by detect_compression
-        raw.close()
-        raise ValueError(f"unknown compression {compression!r}")
-    if limit is None and (ratio is None or compression is None):
-        return stream  # type: ignore[no-any-return]
-    counted = raw.raw if compression is not None else None
-    return io.BufferedReader(_Limit(stream, limit, ratio, counted), buffer_size=1 << 20)  # type: ignore[return-value]
+    return wrap_stream(raw, compression, limit=limit, ratio=ratio, taken=lambda: raw.raw.fetched)  # type: ignore[attr-defined]
 
 
-class _Closing(io.RawIOBase):
-    """A decompressor that also closes the object stream under it (fileobj= leaves it open)."""
-
-    def __init__(self, inner: Any, under: Any) -> None:
-        self._inner, self._under = inner, under
-
-    def readable(self) -> bool:
-        return True
-
-    def readinto(self, buf: Any) -> int:
-        return self._inner.readinto(buf) or 0
-
-    def read(self, n: int = -1) -> bytes:
-        return self._inner.read(n)  # type: ignore[no-any-return]
-
-    def close(self) -> None:
-        try:
-            self._inner.close()
-            self._under.close()
-        finally:
-            super().close()
-
-
-class _Limit(io.RawIOBase):
-    """Stops past limit decompressed bytes, or past ratio times the bytes fetched (bombs)."""
-
-    def __init__(self, inner: Any, limit: int | None, ratio: float | None, raw: Any) -> None:
-        self._inner, self._limit, self._ratio, self._raw, self.count = inner, limit, ratio, raw, 0
-
-    def readable(self) -> bool:
-        return True
-
-    def readinto(self, buf: Any) -> int:
-        data = self._inner.read(len(buf))
-        n = len(data)
-        buf[:n] = data
-        self.count += n
-        if self._limit is not None and self.count > self._limit:
-            raise LimitExceeded(f"more than {self._limit:,} decompressed bytes (--max-decompressed-bytes)")
-        if self._ratio is not None and self._raw is not None and self.count > RATIO_FLOOR_BYTES:
-            taken = max(self._raw.fetched, 1)
-            if self.count > self._ratio * taken:
-                raise LimitExceeded(f"{self.count:,} bytes decompressed from {taken:,}, a ratio over "
-                                    f"{self._ratio:,g}:1 (--max-decompression-ratio)")
-        return n
-
-    def close(self) -> None:
-        try:
-            self._inner.close()
-        finally:
-            super().close()
