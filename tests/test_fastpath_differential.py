@@ -259,3 +259,32 @@ def test_generated_csv_and_parquet(tmp_path: Path) -> None:
     for batch_rows in (5000, 65_536):
         report = _same([tmp_path / "t.csv", tmp_path / "t.parquet"], batch_rows)
         assert report["summary"]["rows"] == 2 * n
+
+
+def _stamp(rng: random.Random, shape: str) -> str:
+    # years 0000 (pyarrow accepts it), impossible days, leap seconds, lowercase t/z, long fractions
+    day = f"{rng.choice(['2024', '2026', '0000', '1900'])}-{rng.randint(1, 12):02d}-{rng.randint(1, 31):02d}"
+    clock = f"{rng.randint(0, 23):02d}:{rng.randint(0, 59):02d}:{rng.choice(['05', '59', '60'])}"
+    clock += rng.choice(["", ".5", ".123456789"])
+    if shape == "rfc3339":
+        return day + rng.choice("Tt") + clock + rng.choice(["Z", "z", "+05:30", "-08:00"])
+    if shape == "offset":
+        return day + " " + clock + rng.choice(["Z", "+0530", "-08"])
+    return day + rng.choice("T ") + clock
+
+
+def test_timestamp_columns(tmp_path: Path) -> None:
+    # Columns of one timestamp shape are classified from their distinct days (strprofile).
+    rng = random.Random(5)
+    n = 5000
+    rows = [{"rfc": _stamp(rng, "rfc3339"), "off": _stamp(rng, "offset"), "loc": _stamp(rng, "local"),
+             "mixed": _stamp(rng, rng.choice(["rfc3339", "local"]))} for _ in range(n)]
+    for row in rows[::97]:
+        row["rfc"] = None
+    (tmp_path / "t.jsonl").write_text("".join(json.dumps(r) + "\n" for r in rows), encoding="utf-8")
+    with open(tmp_path / "t.csv", "w", encoding="utf-8") as fh:
+        fh.write("rfc,off,loc,mixed\n")
+        fh.writelines(",".join(r[k] or "" for k in ("rfc", "off", "loc", "mixed")) + "\n" for r in rows)
+    report = _same([tmp_path / "t.jsonl", tmp_path / "t.csv"], 2048)
+    classes = report["fields"]["rfc"]["classes"]
+    assert set(classes) == {"timestamp_rfc3339", "text", "empty"}  # empty: the CSV's blank cells

@@ -10,12 +10,19 @@ digits, leap seconds and lowercase RFC 3339 counts over the rows.
 from __future__ import annotations
 
 import os
+import re
 from dataclasses import dataclass
 
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from driftline.observe.textclass import CLASSES, class_masks
+from driftline.observe.textclass import (
+    CLASSES,
+    TIMESTAMP_LOCAL_RE,
+    TIMESTAMP_OFFSET_RE,
+    TIMESTAMP_RFC3339_RE,
+    class_masks,
+)
 
 EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) for the reference paths everywhere, not the fast ones
 
@@ -59,7 +66,7 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
         enc = pc.dictionary_encode(arr)
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
-    masks = class_masks(values)
+    masks = _timestamp_masks(values) or class_masks(values)
     counts: dict[str, int] = {}
     first: dict[str, list[int]] = {}
     for cls in CLASSES:
@@ -87,6 +94,48 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
             lower = _row_count(lc, index)
     longest = pc.max(pc.utf8_length(values)).as_py() if len(values) else 0
     return StringProfile(counts, first, int(longest or 0), int_digits, frac_digits, leap, lower)
+
+
+def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
+    """Class masks of a column of timestamps all of one shape, from its distinct days.
+
+    textclass.class_of puts a value of a timestamp shape in that class when its date is a
+    real day and in text otherwise (the clock ranges are in the pattern, second 60 and
+    long fractions are accepted).  So one pattern pass over the values and class_masks
+    over the distinct 'YYYY-MM-DD' prefixes give the masks; None when the shortcut does
+    not apply (short columns, mixed content).
+    """
+    if len(values) <= DICTIONARY_MIN or values.null_count == len(values):
+        return None
+    first = values[_first_valid(values)].as_py()
+    name = next((n for n in _STAMP_SHAPES if _STAMP_PY[n].fullmatch(first)), None)
+    if name is None:
+        return None
+    shaped = pc.match_substring_regex(values, _STAMP_RE2[name])
+    if shaped.true_count != len(values) - values.null_count:
+        return None
+    days = pc.dictionary_encode(pc.utf8_slice_codeunits(values, 0, 10))
+    real = class_masks(days.dictionary)["date"]
+    ok = pc.fill_null(pc.take(real, days.indices), False)
+    none = pa.repeat(False, len(values))
+    masks = {cls: none for cls in CLASSES}
+    masks[name] = ok
+    masks["text"] = pc.and_(pc.is_valid(values), pc.invert(ok))
+    return masks
+
+
+def _first_valid(arr: pa.Array) -> int:
+    return 0 if arr.null_count == 0 else pc.index(pc.is_valid(arr), True).as_py()
+
+
+_STAMP_SHAPES = ("timestamp_rfc3339", "timestamp_offset", "timestamp_local")
+_STAMP_BODY = {
+    "timestamp_rfc3339": TIMESTAMP_RFC3339_RE,
+    "timestamp_offset": TIMESTAMP_OFFSET_RE,
+    "timestamp_local": TIMESTAMP_LOCAL_RE,
+}
+_STAMP_PY = {n: re.compile(body) for n, body in _STAMP_BODY.items()}  # fullmatch, as textclass
+_STAMP_RE2 = {n: f"^(?:{body})$" for n, body in _STAMP_BODY.items()}
 
 
 def _row_count(mask: pa.Array, index: pa.Array | None) -> int:
