@@ -31,7 +31,7 @@ with atheris.instrument_imports(include=["driftline"]):
     from driftline.emit.terminal import render
     from driftline.profile import Profile
     from driftline.report import dumps
-    from driftline.sources.base import ReadOptions
+    from driftline.sources.base import FileResult, ReadOptions
     from driftline.sources.discover import discover
     from driftline.sources.readers import read_file
 
@@ -59,7 +59,8 @@ def _unraisable(info: object) -> None:
 sys.unraisablehook = _unraisable
 
 
-def check(data: bytes) -> None:
+def check(data: bytes) -> FileResult | None:
+    """Read one fuzz input; raise Finding when an invariant breaks. None: discovery skipped it."""
     fdp = atheris.FuzzedDataProvider(data)
     suffix = SUFFIXES[fdp.ConsumeIntInRange(0, len(SUFFIXES) - 1)]
     body = fdp.ConsumeBytes(fdp.remaining_bytes())
@@ -67,7 +68,7 @@ def check(data: bytes) -> None:
     path.write_bytes(body)
     found = discover([str(path)])
     if not found.files:
-        return  # skipped (e.g. unknown format): counted, nothing to read
+        return None  # skipped (e.g. unknown format): counted, nothing to read
     ref = found.files[0]
     SWALLOWED.clear()
     res = read_file(ref, OPTIONS)
@@ -88,6 +89,7 @@ def check(data: bytes) -> None:
     shown = set(out.getvalue())
     if shown & CONTROL:
         raise Finding(f"raw control characters on the terminal: {sorted(map(repr, shown & CONTROL))}")
+    return res
 
 
 def seeds(folder: Path) -> None:
