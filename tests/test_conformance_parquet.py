@@ -13,6 +13,7 @@ import pyarrow.parquet as pq
 import pytest
 
 import driftline
+from driftline.lattice import from_arrow
 from driftline.observe import paths
 from driftline.scan import scan_paths
 from driftline.sources.base import FileResult, ReadOptions
@@ -90,6 +91,8 @@ def test_readable_file_agrees_with_pyarrow(f: Path):
         if table.num_rows:
             st = merged[paths.child(None, name)]
             assert (st.nonnull, st.nulls) == (len(col) - col.null_count, col.null_count), name
+            if st.nonnull:  # the column's type, straight from pyarrow's table through the lattice
+                assert st.types == {from_arrow(col.type).shallow_key(): st.nonnull}, name
 
 
 @pytest.mark.timeout(20)
