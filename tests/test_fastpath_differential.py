@@ -288,3 +288,30 @@ def test_timestamp_columns(tmp_path: Path) -> None:
     report = _same([tmp_path / "t.jsonl", tmp_path / "t.csv"], 2048)
     classes = report["fields"]["rfc"]["classes"]
     assert set(classes) == {"timestamp_rfc3339", "text", "empty"}  # empty: the CSV's blank cells
+
+
+def test_values_read_off_the_line(tmp_path: Path) -> None:
+    # Nulls and integer literals are read off a line's text when the key occurs once in it;
+    # these lines put the key's text elsewhere too (a string value, an escaped key, another
+    # depth of a name used twice) and numbers at the edges of what a double holds exactly.
+    rng = random.Random(9)
+    numbers = [0, -0, 0.0, -0.0, 1, 1.0, 2.5, 12, 12.0, 1e3, 2**53 - 1, 2**53, 2**53 + 1, -(2**53), 10**20, 1e20]
+    out = []
+    for i in range(3000):
+        rec: dict[str, Any] = {"i": i}
+        roll = rng.random()
+        if roll < 0.2:
+            rec["v"] = None
+        elif roll < 0.6:
+            rec["v"] = rng.choice(numbers)
+        elif roll < 0.7:
+            rec["note"] = "v"  # the key's text as a value; v absent
+        rec["w"] = rng.choice([None, 1, 1.5, 2.0])
+        rec["s"] = {"w": rng.choice([None, 3, 3.5])} if rng.random() < 0.5 else {}  # 'w' used twice
+        line = json.dumps(rec)
+        if rng.random() < 0.05:
+            line = line.replace('"v"', '"\\u0076"')  # an escaped key
+        out.append(line + ("  " if rng.random() < 0.05 else "") + "\n")
+    (tmp_path / "v.jsonl").write_text("".join(out), encoding="utf-8")
+    report = _same([tmp_path / "v.jsonl"], 1500)
+    assert report["fields"]["v"]["nulls"] > 400 and report["fields"]["s.w"]["types"]

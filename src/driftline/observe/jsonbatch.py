@@ -60,11 +60,17 @@ class _Partial:
     numbers_from_walk: bool = False  # integral doubles: the walk tells int from float literals
     nonnull: int = 0
     always: bool = False  # kept even with no value (the element path of empty lists)
+    # Rows settled from the line's text (see _settle): JSON nulls; integer and float
+    # literals among integral doubles, with their values.  Counted where the walk did not go.
+    text_nulls: pa.Array | None = None
+    text_ints: tuple[pa.Array, pa.Array] | None = None
+    text_floats: tuple[pa.Array, pa.Array] | None = None
 
 
 class _Batch:
-    def __init__(self, lines: pa.BinaryArray, n: int) -> None:
+    def __init__(self, lines: pa.BinaryArray, n: int, schema: pa.Schema | None = None) -> None:
         self.lines = lines
+        self.unique_names = _unique_names(schema) if schema is not None else set()
         self.n = n
         self.rows_needed: list[pa.Array] = []  # batch rows the exact walk must see
         self.partials: dict[str, _Partial] = {}
@@ -310,13 +316,13 @@ def _observe_table(
     table: pa.Table, arr: pa.BinaryArray, lines: Sequence[bytes], keep: pa.Array | None, where: tuple[str, int, int, int],
 ) -> dict[str, FieldStats] | None:
     """One parsed table (rows keep of the batch, or all): columnar counts, the walk for the rest."""
-    b = _Batch(arr, len(arr))
+    b = _Batch(arr, len(arr), table.schema)
     try:
         for name, col in zip(table.column_names, table.columns, strict=True):
             # One chunk is the common case; concatenating a struct with null-typed children
             # fails in pyarrow 26.0.1 ("array slice would exceed array length").
             whole = col.chunk(0) if col.num_chunks == 1 else col.combine_chunks()
-            _visit(whole, paths.child(None, name), keep, name, b)
+            _visit(whole, paths.child(None, name), keep, name, b, False)
     except (NotExact, pa.ArrowException):
         return None
     rows = _needed_rows(b)
@@ -324,7 +330,7 @@ def _observe_table(
         records = [orjson.loads(lines[r]) for r in rows]
     except orjson.JSONDecodeError:
         return None  # Arrow took a line orjson refuses
-    return _combine(b.partials, _walk(records, rows, where))
+    return _combine(b.partials, _walk(records, rows, where), pa.array(rows, pa.int64()))
 
 
 def _merge_groups(groups: list[dict[str, FieldStats]]) -> dict[str, FieldStats] | None:
@@ -372,8 +378,11 @@ def _absent_for_sure(b: _Batch, rows: pa.Array, name: str) -> pa.Array:
     return pc.invert(seen)
 
 
-def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b: _Batch) -> None:
-    """One path; arr holds exactly the places its container had a value (rows maps them to rows)."""
+def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b: _Batch, listed: bool) -> None:
+    """One path; arr holds exactly the places its container had a value (rows maps them to rows).
+
+    name is the field's key (None for list elements); listed, whether a list is above it.
+    """
     t = arr.type
     length = len(arr)
     nulls_arrow = length if pa.types.is_null(t) else arr.null_count
@@ -387,7 +396,14 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
             cand_rows = null_at if rows is None else rows.take(null_at)
             keep = pc.invert(_absent_for_sure(b, cand_rows, name))
             if keep.true_count:
-                b.rows_needed.append(cand_rows.filter(keep))
+                cand_rows = cand_rows.filter(keep)
+                settled = _settle(b, cand_rows, name, listed, r"null")
+                if settled is None:
+                    b.rows_needed.append(cand_rows)
+                else:
+                    nulls_at, unsettled = settled
+                    b.rows_needed += [unsettled, nulls_at.slice(0, SAMPLES_PER_KEY)]
+                    part.text_nulls = nulls_at
                 part.nulls = None
             else:
                 part.nulls = 0
@@ -404,7 +420,7 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
         big = pc.or_(pc.greater(arr, SAFE_INT), pc.less(arr, -SAFE_INT))
         part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py(), "unsafe_ints": big.true_count}
     elif pa.types.is_float64(t):
-        _doubles(arr, rows, part, b)
+        _doubles(arr, rows, part, b, name, listed)
     elif pa.types.is_string(t):
         part.types = {"string": part.nonnull}
         part.extra = _strings(arr, rows, b)
@@ -416,21 +432,62 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
         for i in range(t.num_fields):
             child = arr.field(i)
             _visit(child.filter(valid) if nulls_arrow else child, paths.child(path, t.field(i).name), sub_rows,
-                   t.field(i).name, b)
+                   t.field(i).name, b, listed)
     elif pa.types.is_list(t):
         part.types = {"list": part.nonnull}
         flat = pc.list_flatten(arr)
         part.extra = {"items": len(flat)}
         if len(flat):
             parents = pc.list_parent_indices(arr)
-            _visit(flat, paths.element(path), parents if rows is None else rows.take(parents), None, b)
+            _visit(flat, paths.element(path), parents if rows is None else rows.take(parents), None, b, True)
         else:  # only empty lists: the element path exists with nothing known, as in the walk
             b.partials[paths.element(path)] = _Partial(types={}, nulls=0, always=True)
     else:
         raise NotExact(f"{path}: Arrow type {t}")
 
 
-def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch) -> None:
+def _settle(b: _Batch, at_rows: pa.Array, name: str | None, listed: bool, value_re: str,
+            usable: pa.Array | None = None) -> tuple[pa.Array, pa.Array] | None:
+    """Read a field's value off its line where that is certain: (rows where it matches, the rest).
+
+    Certain where the key's text '"name"' occurs once in the line and no backslash does:
+    no other path of the batch has that name (Arrow's schema lists every key), so the one
+    '"name"' followed by ':' is this field's key, and what follows it is its value.
+    None when nothing can be settled so (a name used twice, a field under a list).
+    """
+    if name is None or listed or name not in b.unique_names or not len(at_rows):
+        return None
+    key = orjson.dumps(name).decode("utf-8")
+    if "\\" in key:
+        return None
+    text = b.lines.take(at_rows)
+    once = pc.and_(pc.equal(pc.count_substring(text, key), 1), pc.invert(pc.match_substring(text, "\\")))
+    if usable is not None:
+        once = pc.and_(once, usable)
+    hit = pc.and_(once, pc.match_substring_regex(text, re.escape(key) + r"\s*:\s*" + value_re))
+    return at_rows.filter(hit), at_rows.filter(pc.invert(once))
+
+
+def _unique_names(schema: pa.Schema) -> set[str]:
+    """Field names used by one path only, at any depth of the schema."""
+    seen: dict[str, int] = {}
+
+    def walk(t: pa.DataType) -> None:
+        if pa.types.is_struct(t):
+            for f in t:
+                seen[f.name] = seen.get(f.name, 0) + 1
+                walk(f.type)
+        elif pa.types.is_list(t):
+            walk(t.value_type)
+
+    for f in schema:
+        seen[f.name] = seen.get(f.name, 0) + 1
+        walk(f.type)
+    return {n for n, k in seen.items() if k == 1}
+
+
+def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, name: str | None,
+             listed: bool) -> None:
     finite = pc.is_finite(arr)
     if pc.sum(pc.invert(finite)).as_py():
         raise NotExact("NaN or Infinity: not JSON, orjson refuses the line")
@@ -438,8 +495,23 @@ def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch) ->
     fractional = pc.and_(pc.is_valid(arr), pc.invert(integral))
     part.types = {"float64": part.nonnull}
     if integral.true_count:
-        b.need(rows, pc.indices_nonzero(integral))  # 1 or 1.0, 2**64 or 1.8e19: the walk knows
+        # 1 or 1.0, 2**64 or 1.8e19: the line's text tells, or else the walk.
         part.numbers_from_walk = True
+        at = pc.indices_nonzero(integral)
+        at_rows = at if rows is None else rows.take(at)
+        values = arr.take(at)
+        small = pc.less(pc.abs(values), float(2**53))  # exact as a double, and int64
+        settled = _settle(b, at_rows, name, listed, r"-?[0-9]+\s*[,}]", small) if name is not None else None
+        if settled is None:
+            b.rows_needed.append(at_rows)
+        else:
+            int_rows, unsettled = settled
+            is_int = pc.is_in(at_rows, value_set=int_rows)
+            float_mask = pc.and_(pc.invert(is_int), pc.invert(pc.is_in(at_rows, value_set=unsettled)))
+            float_rows = at_rows.filter(float_mask)
+            part.text_ints = (int_rows, values.filter(is_int))
+            part.text_floats = (float_rows, values.filter(float_mask))
+            b.rows_needed += [unsettled, int_rows.slice(0, SAMPLES_PER_KEY), float_rows.slice(0, SAMPLES_PER_KEY)]
     b.need_first(rows, fractional)
     if fractional.true_count:
         mm = pc.min_max(arr.filter(fractional))
@@ -461,22 +533,58 @@ def _strings(arr: pa.Array, rows: pa.Array | None, b: _Batch) -> dict[str, Any]:
     }
 
 
-def _combine(partials: dict[str, _Partial], walked: dict[str, FieldStats]) -> dict[str, FieldStats] | None:
+def _combine(
+    partials: dict[str, _Partial], walked: dict[str, FieldStats], seen: pa.Array
+) -> dict[str, FieldStats] | None:
+    """Columnar counts, the walk over the rows it saw (seen), and what the lines settled elsewhere."""
     out: dict[str, FieldStats] = {}
     for path, part in partials.items():
         w = walked.get(path, FieldStats())
         nulls = w.nulls if part.nulls is None else part.nulls
+        if part.text_nulls is not None:
+            nulls += _outside(part.text_nulls, seen).true_count
         if part.nonnull == 0 and nulls == 0 and not part.always:
             continue  # never present in this batch (absent wherever Arrow wrote null)
         types, extra = part.types, dict(part.extra)
         if part.numbers_from_walk:
             ints = {k: v for k, v in w.types.items() if k in _INT_KEYS}
+            groups = [(extra.get("minimum"), extra.get("maximum")), (w.minimum, w.maximum)]
+            if part.text_ints is not None and part.text_floats is not None:
+                int_values = part.text_ints[1].filter(_outside(part.text_ints[0], seen))
+                float_values = part.text_floats[1].filter(_outside(part.text_floats[0], seen))
+                if len(int_values):
+                    ints["int64"] = ints.get("int64", 0) + len(int_values)
+                    mm = pc.min_max(int_values)
+                    groups.append((int(mm["min"].as_py()), int(mm["max"].as_py())))
+                if len(float_values):
+                    mm = pc.min_max(float_values)
+                    groups.append((mm["min"].as_py(), mm["max"].as_py()))
             floats = part.nonnull - sum(ints.values())
             types = {**ints, **({"float64": floats} if floats else {})}
-            lo_hi = FieldStats(minimum=extra.get("minimum"), maximum=extra.get("maximum")).merge(
-                FieldStats(minimum=w.minimum, maximum=w.maximum))
-            extra.update(minimum=lo_hi.minimum, maximum=lo_hi.maximum, unsafe_ints=w.unsafe_ints)
+            lo = _extreme([g[0] for g in groups], min)
+            hi = _extreme([g[1] for g in groups], max)
+            if lo is _TIE or hi is _TIE:
+                return None  # 1 and 1.0 both at the extreme: which came first is not known here
+            extra.update(minimum=lo, maximum=hi, unsafe_ints=w.unsafe_ints)
         if part.nonnull and sum(w.types.values()) == 0 and not w.samples:
             return None  # the walk missed rows it should have seen: do not guess
         out[path] = FieldStats(types=dict(sorted(types.items())), nulls=nulls, samples=w.samples, **extra)
     return dict(sorted(out.items()))
+
+
+def _outside(rows: pa.Array, seen: pa.Array) -> pa.Array:
+    """Which of rows the walk did not see (the walk counted the others itself)."""
+    return pc.invert(pc.is_in(rows, value_set=seen)) if len(seen) else pa.repeat(True, len(rows))
+
+
+_TIE = object()
+
+
+def _extreme(candidates: list[Any], pick: Any) -> Any:
+    """min or max of numbers; _TIE when an int and a float share the extreme value."""
+    got = [c for c in candidates if c is not None]
+    if not got:
+        return None
+    best = pick(got)
+    kinds = {type(c) for c in got if c == best}
+    return _TIE if len(kinds) > 1 else next(c for c in got if c == best and type(c) is type(best))
