@@ -234,19 +234,28 @@ class Hint:
     """What one batch teaches the next: Arrow's schema, and the patterns of rows set aside."""
 
     schema: pa.Schema | None
-    patterns: tuple[str, ...] = ()
+    patterns: tuple[tuple[str, str], ...] = ()  # (the key's text, the kind its odd rows hold)
 
 
-def _matching(arr: pa.BinaryArray, pattern: str) -> set[int]:
-    return set(pc.indices_nonzero(pc.match_substring_regex(arr, pattern)).to_pylist())
+def _matching(arr: pa.BinaryArray, pattern: tuple[str, str]) -> set[int]:
+    """Rows whose line gives the key the kind: two plain searches where the kind starts with
+    one character (written "k":x or "k": x), else the regular expression."""
+    key, kind = pattern
+    start = _LITERAL_START.get(kind)
+    if start is None:
+        mask = pc.match_substring_regex(arr, re.escape(key) + r"\s*:\s*" + _KIND_START[kind])
+    else:
+        mask = pc.or_(pc.match_substring(arr, key + ":" + start), pc.match_substring(arr, key + ": " + start))
+    return set(pc.indices_nonzero(mask).to_pylist())
 
 
 _MAX_SET_ASIDE_ROUNDS = 4
 _CONFLICT = re.compile(r"Column\((/[^)]*)\) changed from (\w+) to (\w+)")
+_LITERAL_START = {"string": '"', "array": "[", "object": "{", "null": "null"}
 _KIND_START = {"string": '"', "array": r"\[", "object": r"\{", "number": "[-0-9]", "boolean": "[tf]", "null": "n"}
 
 
-def _conflict_rows(arr: pa.BinaryArray, why: str) -> tuple[set[int], str] | None:
+def _conflict_rows(arr: pa.BinaryArray, why: str) -> tuple[set[int], tuple[str, str]] | None:
     """Rows that may hold the rarer of the two kinds Arrow's error names for one field.
 
     Which rows are set aside decides only the speed: whatever is set aside is walked
@@ -263,11 +272,11 @@ def _conflict_rows(arr: pa.BinaryArray, why: str) -> tuple[set[int], str] | None
         start = _KIND_START.get(kind)
         if start is None:
             return None
-        pattern = '"' + re.escape(name) + r'"\s*:\s*' + start
         try:
-            found.append((pc.match_substring_regex(arr, pattern), pattern))
+            mask = pc.match_substring_regex(arr, '"' + re.escape(name) + r'"\s*:\s*' + start)
         except pa.ArrowException:
             return None
+        found.append((mask, ('"' + name + '"', kind)))
     rarer, pattern = min(found, key=lambda got: got[0].true_count)
     if not rarer.true_count:
         return None
