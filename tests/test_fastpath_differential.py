@@ -249,6 +249,10 @@ def test_generated_csv_and_parquet(tmp_path: Path) -> None:
                  for _ in range(n)],
         "stamps": [rng.choice(_STRINGS[11:19]) for _ in range(n)],
         "flag": [rng.choice(["true", "false", "", "n/a"]) for _ in range(n)],
+        # distinct values of every class, dates among them: classified by their digit patterns
+        "ids": [rng.choice([str(rng.randrange(10**19)), f"-{rng.random():.9f}", f"{rng.random():e}", f"x{i}",
+                            f"{rng.randrange(9999):04d}-{rng.randint(1, 12):02d}-{rng.randint(1, 31):02d}",
+                            "1" * rng.randint(15, 80)]) for i in range(n)],
     }
     with open(tmp_path / "t.csv", "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)

@@ -60,13 +60,16 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     ({'integer': 2, 'text': 2}, {'integer': [0, 3], 'text': [1, 4]})
     """
     values, index = arr, None
-    # Hashing costs about as much as classifying when nearly every value is distinct
-    # (timestamps, ids), and little otherwise: the head of the column decides.
-    if len(arr) > DICTIONARY_MIN and len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)):
-        enc = pc.dictionary_encode(arr)
-        if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
-            values, index = enc.dictionary, enc.indices
-    masks = _timestamp_masks(values) or class_masks(values)
+    masks = _timestamp_masks(arr)
+    if masks is None and len(arr) > DICTIONARY_MIN:
+        # Hashing costs about as much as classifying when nearly every value is distinct
+        # (ids, amounts), and little otherwise: the head of the column decides.
+        if len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)):
+            enc = pc.dictionary_encode(arr)
+            if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
+                values, index = enc.dictionary, enc.indices
+    if masks is None:
+        masks = class_masks(values)
     counts: dict[str, int] = {}
     first: dict[str, list[int]] = {}
     for cls in CLASSES:
