@@ -61,13 +61,14 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     """
     values, index = arr, None
     masks = _timestamp_masks(arr)
-    if masks is None and len(arr) > DICTIONARY_MIN:
-        # Hashing costs about as much as classifying when nearly every value is distinct
-        # (ids, amounts), and little otherwise: the head of the column decides.
-        if len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)):
-            enc = pc.dictionary_encode(arr)
-            if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
-                values, index = enc.dictionary, enc.indices
+    # Hashing costs about as much as classifying when nearly every value is distinct
+    # (ids, amounts), and little otherwise: the head of the column decides.
+    head_repeats = len(arr) > DICTIONARY_MIN and (
+        len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
+    if masks is None and head_repeats:
+        enc = pc.dictionary_encode(arr)
+        if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
+            values, index = enc.dictionary, enc.indices
     if masks is None:
         masks = class_masks(values)
     counts: dict[str, int] = {}
