@@ -65,8 +65,10 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     # (ids, amounts), and little otherwise: the head of the column decides.
     head_repeats = len(arr) > DICTIONARY_MIN and (
         len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
-    if masks is None and head_repeats:
+    if masks is None and (head_repeats or len(arr) <= DICTIONARY_MIN):
         enc = pc.dictionary_encode(arr)
+        if 0 < len(enc.dictionary) <= FEW:
+            return _profile_few(enc, keep_first)
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
     if masks is None:
@@ -98,6 +100,64 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
             lower = _row_count(lc, index)
     longest = pc.max(pc.utf8_length(values)).as_py() if len(values) else 0
     return StringProfile(counts, first, int(longest or 0), int_digits, frac_digits, leap, lower)
+
+
+FEW = 512  # distinct values looked up one by one in a process-wide table of earlier verdicts
+_SEEN_MAX = 200_000
+_SEEN: dict[str, tuple[int, bool, bool, int, int]] = {}  # value -> (class, leap, lower, int d., frac d.)
+
+
+def _profile_few(enc: pa.DictionaryArray, keep_first: int) -> StringProfile:
+    """A column of few distinct values: each value's verdict is looked up (class_masks decides
+    the ones not seen before), then the rows are counted per class."""
+    distinct = enc.dictionary.to_pylist()
+    unseen = [v for v in distinct if v not in _SEEN]
+    if unseen:
+        _learn(unseen)
+    verdicts = [_SEEN[v] for v in distinct]
+    per_value = pc.value_counts(enc.indices.drop_null())
+    n_of = dict(zip(per_value.field("values").to_pylist(), per_value.field("counts").to_pylist(), strict=True))
+    counts_by_k: dict[int, int] = {}
+    leap = lower = int_digits = frac_digits = 0
+    for i, (k, is_leap, is_lower, d_int, d_frac) in enumerate(verdicts):
+        n = n_of.get(i, 0)
+        if not n:
+            continue
+        counts_by_k[k] = counts_by_k.get(k, 0) + n
+        leap += n if is_leap else 0
+        lower += n if is_lower else 0
+        int_digits, frac_digits = max(int_digits, d_int), max(frac_digits, d_frac)
+    row_class = pc.take(pa.array([v[0] for v in verdicts], pa.int8()), enc.indices)
+    counts: dict[str, int] = {}
+    first: dict[str, list[int]] = {}
+    for k, cls in enumerate(CLASSES):
+        if k in counts_by_k:
+            counts[cls] = counts_by_k[k]
+            hits = pc.fill_null(pc.equal(row_class, k), False)
+            first[cls] = pc.indices_nonzero(hits).slice(0, keep_first).to_pylist()
+    longest = max((len(v) for i, v in enumerate(distinct) if n_of.get(i)), default=0)
+    return StringProfile(counts, first, longest, int_digits, frac_digits, leap, lower)
+
+
+def _learn(values: list[str]) -> None:
+    """Record class_masks's verdict on each value, with what classify counts for it."""
+    if len(_SEEN) + len(values) > _SEEN_MAX:
+        _SEEN.clear()
+    masks = class_masks(pa.array(values, pa.string()))
+    kind = [0] * len(values)
+    for k, cls in enumerate(CLASSES):
+        for i in pc.indices_nonzero(masks[cls]).to_pylist():
+            kind[i] = k
+    for v, k in zip(values, kind, strict=True):
+        cls = CLASSES[k]
+        stamp = cls in _STAMP_SHAPES
+        d_int = d_frac = 0
+        if cls in ("integer", "decimal"):  # ASCII digits, '-' and '.': as textclass's _digits
+            body = v[1:] if v.startswith("-") else v
+            head, dot, tail = body.partition(".")
+            d_int, d_frac = len(head), (len(tail) if dot else 0)
+        _SEEN[v] = (k, stamp and v[_SECONDS_AT:_SECONDS_AT + 2] == "60",
+                    cls == "timestamp_rfc3339" and ("t" in v or "z" in v), d_int, d_frac)
 
 
 def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
