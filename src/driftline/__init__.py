@@ -65,18 +65,31 @@ def scan(
     jobs: int = 1,
     max_errors: int | None = None,
     max_record_bytes: int | None = None,
+    max_decompressed_bytes: int | None = None,
+    max_decompression_ratio: float | None = None,
+    max_columns: int | None = None,
     delimiter: str | None = None,
+    where: _Sequence[str] = (),
+    engine: str = "local",
+    scheduler: str | None = None,
+    endpoint_url: str | None = None,
+    region: str | None = None,
+    anonymous: bool = False,
     progress: _Callable[[int, int, str], None] | None = None,
 ) -> Profile:
-    """Scan files, folders or globs (one, or a list of them) into a Profile.
+    """Scan files, folders, globs or s3:// URLs (one, or a list of them) into a Profile.
 
     batch_rows bounds the rows per batch (drift is tracked batch by batch); include and
     exclude are globs on the path or name; jobs reads files in parallel processes;
-    max_errors stops reading new files after that many errors; max_record_bytes reports
-    longer JSON lines / CSV rows instead of reading them; delimiter fixes the CSV
-    delimiter (sniffed otherwise); progress(done, total, current_file) is called as files
-    finish. The result does not depend on jobs. Raises InputPathError when a path does
-    not exist or holds no data file.
+    max_errors stops reading new files after that many errors; the max_* limits (None:
+    the defaults of ReadOptions) report a too-long record, too many decompressed bytes,
+    too high a compression ratio or too many CSV columns instead of reading on; delimiter
+    fixes the CSV delimiter (sniffed otherwise); where keeps only key=value partitions
+    that pass ('day>=2026-11-01'); engine 'dask' reads on a cluster (scheduler address,
+    or local workers); endpoint_url, region and anonymous reach an S3-compatible store
+    (credentials come from the environment, never from here); progress(done, total,
+    current_file) is called as files finish. The result depends on none of jobs and
+    engine. Raises InputPathError when a path does not exist or holds no data file.
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
@@ -84,12 +97,25 @@ def scan(
     >>> p.fields["x"].stats.types, [e.kind for e in p.events]
     ({'float64': 1, 'int64': 1}, ['type-widened'])
     """
+    from driftline.sources.remote import StorageOptions
+
     if isinstance(paths, str | _os.PathLike):
         paths = [paths]
-    extra = {} if max_record_bytes is None else {"max_record_bytes": max_record_bytes}
-    read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, **extra)
+    limits = {
+        name: value
+        for name, value in (
+            ("max_record_bytes", max_record_bytes),
+            ("max_decompressed_bytes", max_decompressed_bytes),
+            ("max_decompression_ratio", max_decompression_ratio),
+            ("max_columns", max_columns),
+        )
+        if value is not None
+    }
+    read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, **limits)
+    storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
     return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
-                      jobs=jobs, max_errors=max_errors, progress=progress)
+                       jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
+                       where=where, storage=storage)
 
 
 def check(

@@ -10,6 +10,7 @@ import typer
 from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
+import driftline
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
 from driftline.emit.atomic import write_output
 from driftline.emit.html import write_html
@@ -17,16 +18,14 @@ from driftline.emit.safe import safe_text
 from driftline.emit.terminal import render
 from driftline.errors import InputPathError
 from driftline.report import dumps
-from driftline.scan import default_jobs, scan_paths
+from driftline.scan import default_jobs
 from driftline.sources.base import (
     DEFAULT_BATCH_ROWS,
     DEFAULT_MAX_COLUMNS,
     DEFAULT_MAX_DECOMPRESSED_BYTES,
     DEFAULT_MAX_DECOMPRESSION_RATIO,
     DEFAULT_MAX_RECORD_BYTES,
-    ReadOptions,
 )
-from driftline.sources.remote import StorageOptions
 
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
@@ -102,14 +101,16 @@ def scan_command(
     region: str | None = typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
 ) -> None:
-    opts = ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
-                       max_decompressed_bytes=max_decompressed_bytes, max_decompression_ratio=max_decompression_ratio,
-                       max_columns=max_columns)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
-        profile = scan_paths(paths, read=opts, include=include, exclude=exclude, include_hidden=hidden,
-                             jobs=jobs, max_errors=max_errors, progress=bar, engine=engine, scheduler=scheduler,
-                             where=where, storage=StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous))
+        # The verb is the library call, option for option (tests/test_cli_api_same.py).
+        profile = driftline.scan(
+            paths, batch_rows=batch_rows, include=include, exclude=exclude, include_hidden=hidden, jobs=jobs,
+            max_errors=max_errors, max_record_bytes=max_record_bytes, max_decompressed_bytes=max_decompressed_bytes,
+            max_decompression_ratio=max_decompression_ratio, max_columns=max_columns, delimiter=delimiter,
+            where=where, engine=engine, scheduler=scheduler, endpoint_url=endpoint_url, region=region,
+            anonymous=anonymous, progress=bar,
+        )
     finally:
         bar.close()
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
