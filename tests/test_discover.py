@@ -25,10 +25,16 @@ def test_sorted_partitions_and_skips(tmp_path: Path):
     _touch(tmp_path / ".tmp/x.jsonl")
     _touch(tmp_path / "notes.txt", b"hello")
     found = discover([tmp_path])
-    assert [f.rel for f in found.files] == ["region=north/day=2026-11-30/a.jsonl", "region=south/day=2026-11-30/b.jsonl"]
+    assert [f.rel for f in found.files] == [
+        "region=north/day=2026-11-30/a.jsonl",
+        "region=south/day=2026-11-30/b.jsonl",
+    ]
     assert found.files[0].partitions == (("region", "north"), ("day", "2026-11-30"))
     assert sorted((s.rel, s.reason) for s in found.skipped) == [
-        (".tmp/x.jsonl", "hidden"), ("_SUCCESS", "marker"), ("notes.txt", "unknown-format")]
+        (".tmp/x.jsonl", "hidden"),
+        ("_SUCCESS", "marker"),
+        ("notes.txt", "unknown-format"),
+    ]
 
 
 def test_include_exclude(tmp_path: Path):

@@ -9,9 +9,8 @@ from __future__ import annotations
 from pathlib import Path
 
 import driftline
-from driftline.drift import EVENT_KINDS
-
 from conftest import write_lines
+from driftline.drift import EVENT_KINDS
 
 
 def test_every_injected_change_is_named_with_field_file_and_row(demo_profile, demo_manifest):
@@ -45,14 +44,17 @@ def _kinds(profile):
 def test_exact_events_across_batches(tmp_path: Path):
     # Batches of 2 rows: row 2 starts batch 1, row 4 starts batch 2. s.y arrives in the
     # same batch as its struct s, so it is part of s's arrival, not an event of its own.
-    write_lines(tmp_path / "a.jsonl", [
-        '{"id": 1, "v": 1}',
-        '{"id": 2, "v": 2}',
-        '{"id": 3, "v": 2.5, "s": {"x": 1}}',
-        '{"id": 4, "v": null, "s": {"x": 1, "y": "a"}}',
-        '{"id": "5", "v": 3, "s": {"x": 2}}',
-        '{"id": 6, "v": 4, "s": {"x": 2}}',
-    ])
+    write_lines(
+        tmp_path / "a.jsonl",
+        [
+            '{"id": 1, "v": 1}',
+            '{"id": 2, "v": 2}',
+            '{"id": 3, "v": 2.5, "s": {"x": 1}}',
+            '{"id": 4, "v": null, "s": {"x": 1, "y": "a"}}',
+            '{"id": "5", "v": 3, "s": {"x": 2}}',
+            '{"id": 6, "v": 4, "s": {"x": 2}}',
+        ],
+    )
     profile = driftline.scan(tmp_path, batch_rows=2)
     assert _kinds(profile) == [
         ("field-new", "s", None, "struct", "a.jsonl", 2, 3),
@@ -78,10 +80,13 @@ def test_field_gone_is_found_per_series_of_partitions(tmp_path: Path):
 
 
 def test_list_element_change_and_timestamp_format_change(tmp_path: Path):
-    write_lines(tmp_path / "t.jsonl", [
-        '{"tags": [1, 2], "ts": "1985-04-12T23:20:50.52Z"}',
-        '{"tags": ["a"], "ts": "1985-04-12 23:20:50"}',
-    ])
+    write_lines(
+        tmp_path / "t.jsonl",
+        [
+            '{"tags": [1, 2], "ts": "1985-04-12T23:20:50.52Z"}',
+            '{"tags": ["a"], "ts": "1985-04-12 23:20:50"}',
+        ],
+    )
     profile = driftline.scan(tmp_path)
     kinds = [(e.kind, e.path, e.before, e.after, e.row) for e in profile.events]
     # source: RFC 3339 section 5.8 (first example); the second value has a space and no offset

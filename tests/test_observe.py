@@ -31,8 +31,9 @@ def test_nested_paths_and_list_elements():
 
 def test_integers_beyond_2_pow_53_are_counted():
     # source: RFC 7493 section 2.2 / IEEE 754 binary64: |n| > 9007199254740991 is not exact as a double
-    obs = observe_records([{"n": 9007199254740991}, {"n": 9007199254740993}, {"n": -9007199254740992}],
-                          file="f", batch=0, row_start=0)
+    obs = observe_records(
+        [{"n": 9007199254740991}, {"n": 9007199254740993}, {"n": -9007199254740992}], file="f", batch=0, row_start=0
+    )
     assert obs.fields["n"].unsafe_ints == 2
     assert float(9007199254740993) == 9007199254740992.0  # source: IEEE 754 binary64 (REFERENCES §2)
 
@@ -53,7 +54,13 @@ def test_columnar_and_record_paths_agree_on_typed_data():
     by_columns = observe_table(table, file="f", batch=0, row_start=0)
     for path in ("a", "b", "c"):
         r, c = by_records.fields[path], by_columns.fields[path]
-        assert (r.types, r.nulls, r.classes, r.minimum, r.maximum) == (c.types, c.nulls, c.classes, c.minimum, c.maximum)
+        assert (r.types, r.nulls, r.classes, r.minimum, r.maximum) == (
+            c.types,
+            c.nulls,
+            c.classes,
+            c.minimum,
+            c.maximum,
+        )
 
 
 def test_text_columns_infer_types_from_classes():
@@ -69,6 +76,7 @@ def test_text_columns_infer_types_from_classes():
 def test_always_empty_lists_agree_between_paths():
     recs = [{"e": []}, {"e": []}]
     by_records = observe_records(recs, file="f", batch=0, row_start=0).fields
-    by_columns = observe_table(pa.table({"e": pa.array([[], []], pa.list_(pa.int64()))}), file="f", batch=0,
-                               row_start=0).fields
+    by_columns = observe_table(
+        pa.table({"e": pa.array([[], []], pa.list_(pa.int64()))}), file="f", batch=0, row_start=0
+    ).fields
     assert by_records["e[]"] == by_columns["e[]"]

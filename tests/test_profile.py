@@ -10,10 +10,9 @@ from pathlib import Path
 from jsonschema import Draft202012Validator
 
 import driftline
+from conftest import ROOT
 from driftline.profile import Profile
 from driftline.report import dumps, from_dict, to_dict
-
-from conftest import ROOT
 
 
 def _single(profile: Profile, i: int) -> Profile:

@@ -77,8 +77,17 @@ class Event:
     def from_json(d: Mapping[str, Any]) -> Event:
         """The event back from its report form (to_json's inverse; seq is not kept)."""
         return Event(
-            d["kind"], d["path"], d.get("before"), d.get("after"), d["file"], tuple(d.get("partitions", {}).items()),
-            d["batch"], d.get("row"), d.get("line"), d.get("example"), d.get("count", 0),
+            d["kind"],
+            d["path"],
+            d.get("before"),
+            d.get("after"),
+            d["file"],
+            tuple(d.get("partitions", {}).items()),
+            d["batch"],
+            d.get("row"),
+            d.get("line"),
+            d.get("example"),
+            d.get("count", 0),
         )
 
 
@@ -162,17 +171,36 @@ def _types_text(st: FieldStats) -> str:
     return " | ".join(sorted(st.types)) if st.types else "null"
 
 
-def _event(kind: str, path: str, before: str | None, after: str | None, obs: Observation,
-           parts: tuple[tuple[str, str], ...], ex: Example | None, count: int, seq: int) -> Event:
+def _event(
+    kind: str,
+    path: str,
+    before: str | None,
+    after: str | None,
+    obs: Observation,
+    parts: tuple[tuple[str, str], ...],
+    ex: Example | None,
+    count: int,
+    seq: int,
+) -> Event:
     return Event(
-        kind=kind, path=path, before=before, after=after, file=obs.file, partitions=parts, batch=obs.batch,
-        row=ex.row if ex else obs.row_start, line=ex.line if ex else None, example=ex.value if ex else None,
-        count=count, seq=seq,
+        kind=kind,
+        path=path,
+        before=before,
+        after=after,
+        file=obs.file,
+        partitions=parts,
+        batch=obs.batch,
+        row=ex.row if ex else obs.row_start,
+        line=ex.line if ex else None,
+        example=ex.value if ex else None,
+        count=count,
+        seq=seq,
     )
 
 
-def _type_events(path: str, st: FieldStats, state: _PathState, obs: Observation,
-                 parts: tuple[tuple[str, str], ...], seq: int) -> list[Event]:
+def _type_events(
+    path: str, st: FieldStats, state: _PathState, obs: Observation, parts: tuple[tuple[str, str], ...], seq: int
+) -> list[Event]:
     out = []
     # New types in the order they first show within the batch.
     fresh = sorted((k for k in st.types if k not in state.types), key=lambda k: st.first("type:" + k) or Example("", 0))
@@ -190,17 +218,37 @@ def _type_events(path: str, st: FieldStats, state: _PathState, obs: Observation,
                 kind = ""
             if kind:
                 ex = st.first("type:" + key)
-                out.append(_event(kind, path, _show(old), _show(new) if kind != "type-conflict" else key, obs, parts, ex,
-                                  st.types[key], seq))
+                out.append(
+                    _event(
+                        kind,
+                        path,
+                        _show(old),
+                        _show(new) if kind != "type-conflict" else key,
+                        obs,
+                        parts,
+                        ex,
+                        st.types[key],
+                        seq,
+                    )
+                )
         state.types.add(key)
         state.joined = new
     return out
 
 
-def _class_events(path: str, st: FieldStats, state: _PathState, prior_types: set[str], obs: Observation,
-                  parts: tuple[tuple[str, str], ...], seq: int) -> list[Event]:
+def _class_events(
+    path: str,
+    st: FieldStats,
+    state: _PathState,
+    prior_types: set[str],
+    obs: Observation,
+    parts: tuple[tuple[str, str], ...],
+    seq: int,
+) -> list[Event]:
     out = []
-    fresh = sorted((c for c in st.classes if c not in state.classes), key=lambda c: st.first("class:" + c) or Example("", 0))
+    fresh = sorted(
+        (c for c in st.classes if c not in state.classes), key=lambda c: st.first("class:" + c) or Example("", 0)
+    )
     for cls in fresh:
         if state.classes and not _covered_by_type(st, cls, prior_types):
             ex = st.first("class:" + cls)
@@ -228,8 +276,9 @@ def _series(parts: tuple[tuple[str, str], ...]) -> tuple[tuple[str, str], ...]:
     return parts[:-1]
 
 
-def _gone_events(sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]],
-                 states: dict[str, _PathState]) -> list[Event]:
+def _gone_events(
+    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]], states: dict[str, _PathState]
+) -> list[Event]:
     by_series: dict[tuple[tuple[str, str], ...], list[int]] = {}
     for seq, (_, parts) in enumerate(sequence):
         by_series.setdefault(_series(parts), []).append(seq)
@@ -251,8 +300,22 @@ def _gone_events(sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]]
                 if parent is None or pst is not None and pst.types.get("struct"):
                     kind = "field-gone" if parent is None else "nested-gone"
                     later = sum(sequence[s][0].rows for s in seqs[i:])
-                    out.append(Event(kind, path, _joined_key(states[path]), None, obs.file, parts, obs.batch,
-                                     obs.row_start, _first_line(obs), None, later, seqs[i]))
+                    out.append(
+                        Event(
+                            kind,
+                            path,
+                            _joined_key(states[path]),
+                            None,
+                            obs.file,
+                            parts,
+                            obs.batch,
+                            obs.row_start,
+                            _first_line(obs),
+                            None,
+                            later,
+                            seqs[i],
+                        )
+                    )
                     break
     return out
 

@@ -108,9 +108,16 @@ class Profile:
                 raise ValueError(f"both profiles hold {f.rel!r} with different content; rescan it")
             mine[f.rel] = f
         # A file one side skipped (say, excluded) and the other read is read in the union.
-        skipped = tuple(sorted({s for s in (*self.skipped, *other.skipped) if s.rel not in mine},
-                               key=lambda s: (s.rel, s.reason)))
-        return Profile(self.root, tuple(mine[k] for k in sorted(mine)), skipped, dict(self.options), self.duration_s + other.duration_s)
+        skipped = tuple(
+            sorted({s for s in (*self.skipped, *other.skipped) if s.rel not in mine}, key=lambda s: (s.rel, s.reason))
+        )
+        return Profile(
+            self.root,
+            tuple(mine[k] for k in sorted(mine)),
+            skipped,
+            dict(self.options),
+            self.duration_s + other.duration_s,
+        )
 
     # -- derived views ----------------------------------------------------------------
     @property

@@ -1,7 +1,8 @@
 """The JSON scan report: writing a Profile out and loading it back, losslessly.
 
-The format is described by docs/report.schema.json (JSON Schema 2020-12). A saved report loads back into an equal Profile, so later verbs (schema, diff,
-check) can work from it without rescanning.
+The format is described by docs/report.schema.json (JSON Schema 2020-12). A saved
+report loads back into an equal Profile, so later verbs (schema, diff, check) can work
+from it without rescanning.
 """
 
 from __future__ import annotations
@@ -127,7 +128,7 @@ def dumps(profile: Profile) -> bytes:
 def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
     """Load report data back into a Profile. Raises ReportVersionError for another format."""
     if not isinstance(data, Mapping) or data.get("format") != REPORT_FORMAT:
-        raise ReportVersionError(f"{source} is not a driftline scan report (no \"format\": \"{REPORT_FORMAT}\")")
+        raise ReportVersionError(f'{source} is not a driftline scan report (no "format": "{REPORT_FORMAT}")')
     if data.get("version") != REPORT_VERSION:
         raise ReportVersionError(
             f"{source} has report version {data.get('version')!r}; this driftline reads version {REPORT_VERSION}. "
@@ -160,5 +161,7 @@ def load_report(path: str | Path) -> Profile:
     try:
         data = orjson.loads(raw)
     except orjson.JSONDecodeError as exc:
-        raise ReportVersionError(f"{str(path)!r} is not JSON ({exc.msg} at line {exc.lineno}); give a report that driftline wrote") from None
+        raise ReportVersionError(
+            f"{str(path)!r} is not JSON ({exc.msg} at line {exc.lineno}); give a report that driftline wrote"
+        ) from None
     return from_dict(data, source=repr(str(path)))

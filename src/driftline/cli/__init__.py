@@ -17,8 +17,8 @@ import typer
 from rich.console import Console
 
 from driftline import __version__
-from driftline.errors import DriftlineError
 from driftline.emit.safe import safe_text
+from driftline.errors import DriftlineError
 
 EXIT_OK, EXIT_VIOLATION, EXIT_USAGE = 0, 1, 2
 
@@ -67,15 +67,15 @@ def _version(value: bool) -> None:
 
 @app.callback()
 def _root(
-    version: bool = typer.Option(False, "--version", callback=_version, is_eager=True, help="Print the version and exit."),
+    version: bool = typer.Option(
+        False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
+    ),
 ) -> None:
     """driftline: what is really in a landing directory."""
 
 
 # Verbs register themselves on `app` when imported.
-from driftline.cli import scan_cmd  # noqa: E402,F401
-from driftline.cli import gate_cmd  # noqa: E402,F401
-from driftline.cli import schema_cmd  # noqa: E402,F401
+from driftline.cli import gate_cmd, scan_cmd, schema_cmd  # noqa: E402,F401
 
 
 def main() -> None:

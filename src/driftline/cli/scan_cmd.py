@@ -63,8 +63,13 @@ class _Bar:
             if time.monotonic() - self.started < 0.5 or done >= total:
                 return
             self.progress = Progress(
-                TextColumn("scanning"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
-                TextColumn("{task.description}"), console=err_console, transient=True,
+                TextColumn("scanning"),
+                BarColumn(),
+                MofNCompleteColumn(),
+                TimeElapsedColumn(),
+                TextColumn("{task.description}"),
+                console=err_console,
+                transient=True,
             )
             self.progress.start()
             self.task = self.progress.add_task("", total=total)
@@ -80,24 +85,80 @@ class _Bar:
 @handles_errors
 def scan_command(
     paths: list[str] = typer.Argument(..., help="Files, folders or globs to scan."),
-    json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the whole report as JSON ('-' for stdout)."),
-    html_out: str | None = typer.Option(None, "--html", metavar="FILE|-", help="Write a self-contained HTML report with drift charts (one file, works offline)."),
-    include: list[str] = typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable)."),
-    exclude: list[str] = typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable)."),
-    batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch: drift is tracked batch by batch and memory is bounded by it."),
-    jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel (processes). Results do not depend on it."),
-    max_errors: int | None = typer.Option(None, "--max-errors", min=1, help="Stop reading new files once this many errors were found."),
-    max_record_bytes: int = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer JSON lines / CSV rows are reported, not read."),
-    max_decompressed_bytes: int = typer.Option(DEFAULT_MAX_DECOMPRESSED_BYTES, "--max-decompressed-bytes", min=1, help="Stop reading a file past this many bytes of content (decompression bombs); rows before are kept."),
-    max_decompression_ratio: float = typer.Option(DEFAULT_MAX_DECOMPRESSION_RATIO, "--max-decompression-ratio", min=1, help="Stop a compressed file once it expands more than this many times (judged past 16 MiB)."),
-    max_columns: int = typer.Option(DEFAULT_MAX_COLUMNS, "--max-columns", min=1, help="A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch)."),
+    json_out: str | None = typer.Option(
+        None, "--json", metavar="FILE|-", help="Write the whole report as JSON ('-' for stdout)."
+    ),
+    html_out: str | None = typer.Option(
+        None,
+        "--html",
+        metavar="FILE|-",
+        help="Write a self-contained HTML report with drift charts (one file, works offline).",
+    ),
+    include: list[str] = typer.Option(
+        [], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable)."
+    ),
+    exclude: list[str] = typer.Option(
+        [], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable)."
+    ),
+    batch_rows: int = typer.Option(
+        DEFAULT_BATCH_ROWS,
+        "--batch-rows",
+        min=1,
+        help="Rows per batch: drift is tracked batch by batch and memory is bounded by it.",
+    ),
+    jobs: int = typer.Option(
+        default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel (processes). Results do not depend on it."
+    ),
+    max_errors: int | None = typer.Option(
+        None, "--max-errors", min=1, help="Stop reading new files once this many errors were found."
+    ),
+    max_record_bytes: int = typer.Option(
+        DEFAULT_MAX_RECORD_BYTES,
+        "--max-record-bytes",
+        min=1,
+        help="Longer JSON lines / CSV rows are reported, not read.",
+    ),
+    max_decompressed_bytes: int = typer.Option(
+        DEFAULT_MAX_DECOMPRESSED_BYTES,
+        "--max-decompressed-bytes",
+        min=1,
+        help="Stop reading a file past this many bytes of content (decompression bombs); rows before are kept.",
+    ),
+    max_decompression_ratio: float = typer.Option(
+        DEFAULT_MAX_DECOMPRESSION_RATIO,
+        "--max-decompression-ratio",
+        min=1,
+        help="Stop a compressed file once it expands more than this many times (judged past 16 MiB).",
+    ),
+    max_columns: int = typer.Option(
+        DEFAULT_MAX_COLUMNS,
+        "--max-columns",
+        min=1,
+        help="A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch).",
+    ),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
-    engine: str = typer.Option("local", "--engine", help="Where files are read: local (processes) or dask (a cluster; install driftline[dask])."),
-    scheduler: str | None = typer.Option(None, "--scheduler", metavar="ADDRESS", help="dask scheduler, e.g. tcp://10.0.0.5:8786; without it --engine dask starts --jobs workers on 127.0.0.1."),
-    where: list[str] = typer.Option([], "--where", metavar="KEY OP VALUE", help="Only key=value partitions that pass, e.g. 'day>=2026-11-01' (repeatable; s3:// listing is pruned by it)."),
-    endpoint_url: str | None = typer.Option(None, "--endpoint-url", metavar="URL", help="S3-compatible endpoint for s3:// inputs (else AWS_ENDPOINT_URL)."),
+    engine: str = typer.Option(
+        "local",
+        "--engine",
+        help="Where files are read: local (processes) or dask (a cluster; install driftline[dask]).",
+    ),
+    scheduler: str | None = typer.Option(
+        None,
+        "--scheduler",
+        metavar="ADDRESS",
+        help="dask scheduler, e.g. tcp://10.0.0.5:8786; without it --engine dask starts --jobs workers on 127.0.0.1.",
+    ),
+    where: list[str] = typer.Option(
+        [],
+        "--where",
+        metavar="KEY OP VALUE",
+        help="Only key=value partitions that pass, e.g. 'day>=2026-11-01' (repeatable; s3:// listing is pruned by it).",
+    ),
+    endpoint_url: str | None = typer.Option(
+        None, "--endpoint-url", metavar="URL", help="S3-compatible endpoint for s3:// inputs (else AWS_ENDPOINT_URL)."
+    ),
     region: str | None = typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
 ) -> None:
@@ -105,17 +166,33 @@ def scan_command(
     try:
         # The verb is the library call, option for option (tests/test_cli_api_same.py).
         profile = driftline.scan(
-            paths, batch_rows=batch_rows, include=include, exclude=exclude, include_hidden=hidden, jobs=jobs,
-            max_errors=max_errors, max_record_bytes=max_record_bytes, max_decompressed_bytes=max_decompressed_bytes,
-            max_decompression_ratio=max_decompression_ratio, max_columns=max_columns, delimiter=delimiter,
-            where=where, engine=engine, scheduler=scheduler, endpoint_url=endpoint_url, region=region,
-            anonymous=anonymous, progress=bar,
+            paths,
+            batch_rows=batch_rows,
+            include=include,
+            exclude=exclude,
+            include_hidden=hidden,
+            jobs=jobs,
+            max_errors=max_errors,
+            max_record_bytes=max_record_bytes,
+            max_decompressed_bytes=max_decompressed_bytes,
+            max_decompression_ratio=max_decompression_ratio,
+            max_columns=max_columns,
+            delimiter=delimiter,
+            where=where,
+            engine=engine,
+            scheduler=scheduler,
+            endpoint_url=endpoint_url,
+            region=region,
+            anonymous=anonymous,
+            progress=bar,
         )
     finally:
         bar.close()
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
         render(profile, err_console)
-        raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed (see the problems above)")
+        raise InputPathError(
+            f"nothing readable: every one of {len(profile.files)} files failed (see the problems above)"
+        )
     if html_out == "-" and json_out == "-":
         raise typer.BadParameter("only one of --json and --html can write to stdout ('-')")
     if json_out is not None:

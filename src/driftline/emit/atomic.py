@@ -12,7 +12,7 @@ import signal
 import sys
 import tempfile
 from collections.abc import Iterator
-from contextlib import contextmanager
+from contextlib import contextmanager, suppress
 
 from driftline.errors import OutputError
 
@@ -72,7 +72,5 @@ def write_output(target: str, data: str | bytes) -> None:
         raise OutputError(f"cannot write {target!r}: {reason}; the earlier file, if any, is unchanged") from None
     finally:
         if tmp is not None:
-            try:
+            with suppress(OSError):
                 os.unlink(tmp)
-            except OSError:
-                pass

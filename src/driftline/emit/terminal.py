@@ -134,7 +134,11 @@ def issues_table(profile: Profile) -> Table:
     for col in ("severity", "where", "problem"):
         table.add_column(col)
     for i in issues[:MAX_ISSUES_SHOWN]:
-        table.add_row(Text(i.severity, style="red" if i.severity == "error" else "yellow"), Text(safe_text(i.where(), 160)), Text(safe_text(i.message, 200)))
+        table.add_row(
+            Text(i.severity, style="red" if i.severity == "error" else "yellow"),
+            Text(safe_text(i.where(), 160)),
+            Text(safe_text(i.message, 200)),
+        )
     return table
 
 

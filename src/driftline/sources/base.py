@@ -81,7 +81,13 @@ class FileIssue:
     @staticmethod
     def from_json(d: Mapping[str, Any]) -> FileIssue:
         return FileIssue(
-            d["file"], d["kind"], d["message"], d.get("severity", "error"), d.get("line"), d.get("byte_offset"), d.get("row")
+            d["file"],
+            d["kind"],
+            d["message"],
+            d.get("severity", "error"),
+            d.get("line"),
+            d.get("byte_offset"),
+            d.get("row"),
         )
 
     def where(self) -> str:

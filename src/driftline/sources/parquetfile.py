@@ -36,7 +36,13 @@ def declared_paths(schema: pa.Schema) -> dict[str, str]:
         elif pa.types.is_map(t):
             walk(paths.map_part(path, "key"), t.key_type)
             walk(paths.map_part(path, "value"), t.item_type)
-        elif hasattr(t, "value_type") and (pa.types.is_list(t) or pa.types.is_large_list(t) or pa.types.is_fixed_size_list(t) or pa.types.is_list_view(t) or pa.types.is_large_list_view(t)):
+        elif hasattr(t, "value_type") and (
+            pa.types.is_list(t)
+            or pa.types.is_large_list(t)
+            or pa.types.is_fixed_size_list(t)
+            or pa.types.is_list_view(t)
+            or pa.types.is_large_list_view(t)
+        ):
             walk(paths.element(path), t.value_type)
 
     for f in schema:
@@ -72,7 +78,9 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
                 rows += rb.num_rows
                 batch += 1
         except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError) as exc:
-            yield FileIssue(rel, _kind(exc), f"row group {rg}: {_short(exc, path)}; rest of the file not profiled", row=rows)
+            yield FileIssue(
+                rel, _kind(exc), f"row group {rg}: {_short(exc, path)}; rest of the file not profiled", row=rows
+            )
             return
     if rows != expected:
         # Nothing lost silently: a footer promising rows the pages do not hold is corrupt.
@@ -91,8 +99,10 @@ def _oversized(meta: pq.RowGroupMetaData, stored: int, opts: ReadOptions) -> str
         limit = opts.max_decompressed_bytes
         return f"declares {out:,} decompressed bytes, more than {limit:,} (--max-decompressed-bytes)"
     if out > RATIO_FLOOR_BYTES and out > opts.max_decompression_ratio * max(stored, 1):
-        return (f"declares {out:,} decompressed bytes in a file of {stored:,}, a ratio over "
-                f"{opts.max_decompression_ratio:,g}:1 (--max-decompression-ratio)")
+        return (
+            f"declares {out:,} decompressed bytes in a file of {stored:,}, a ratio over "
+            f"{opts.max_decompression_ratio:,g}:1 (--max-decompression-ratio)"
+        )
     return None
 
 

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import hashlib
 import io
-import os
 import lzma
+import os
 import zlib
 from collections.abc import Iterator
 from typing import Any
@@ -106,7 +106,13 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
     try:
         if ref.format == "parquet":
             if ref.compression is not None:
-                issues.append(FileIssue(ref.rel, "unsupported", f"{ref.compression}-compressed Parquet files are not read; Parquet compresses its pages itself"))
+                issues.append(
+                    FileIssue(
+                        ref.rel,
+                        "unsupported",
+                        f"{ref.compression}-compressed Parquet files are not read; Parquet compresses its pages itself",
+                    )
+                )
                 items: Iterator[Any] = iter(())
                 complete = False
             else:
@@ -128,8 +134,9 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
         else:
             try:
                 opener = open_stream_remote if is_url(ref.path) else open_stream
-                raw = opener(ref.path, ref.compression, limit=opts.max_decompressed_bytes,
-                                  ratio=opts.max_decompression_ratio)
+                raw = opener(
+                    ref.path, ref.compression, limit=opts.max_decompressed_bytes, ratio=opts.max_decompression_ratio
+                )
             except OSError as exc:
                 kind, msg = _describe_failure(exc, None)
                 return _result(ref, [], [FileIssue(ref.rel, kind, f"cannot open: {msg}")], None, False)
@@ -140,10 +147,14 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
             if safe.failure is not None:
                 complete = False
                 kind, msg = _describe_failure(safe.failure, ref.compression)
-                issues.append(FileIssue(ref.rel, kind, msg, byte_offset=safe.consumed if ref.compression is None else None))
+                issues.append(
+                    FileIssue(ref.rel, kind, msg, byte_offset=safe.consumed if ref.compression is None else None)
+                )
     except Exception as exc:  # a reader bug must not stop the scan of the other files
         complete = False
-        issues.append(FileIssue(ref.rel, "internal", f"unexpected {type(exc).__name__}: {exc}; please report this file"))
+        issues.append(
+            FileIssue(ref.rel, "internal", f"unexpected {type(exc).__name__}: {exc}; please report this file")
+        )
     if not observations and not issues and ref.size == 0:
         issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
     if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
@@ -157,7 +168,13 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
     return result
 
 
-def _result(ref: FileRef, observations: list[Observation], issues: list[FileIssue], declared: dict[str, str] | None, complete: bool) -> FileResult:
+def _result(
+    ref: FileRef,
+    observations: list[Observation],
+    issues: list[FileIssue],
+    declared: dict[str, str] | None,
+    complete: bool,
+) -> FileResult:
     return FileResult(
         rel=ref.rel,
         format=ref.format,
@@ -184,4 +201,3 @@ def _with_digest(result: FileResult, path: str) -> FileResult:
     except OSError:
         return result
     return replace(result, digest=h.hexdigest())
-
