@@ -199,3 +199,26 @@ def test_one_object_url(s3: Server, demo_dir: Path) -> None:
     assert [f.rel for f in remote.files] == [rel.rsplit("/", 1)[-1]] == [f.rel for f in local.files]
     assert remote.root == f"s3://{BUCKET}/landing/{rel.rpartition('/')[0]}"
     assert remote.fields == local.fields
+
+
+def test_other_verbs_take_s3_urls(s3: Server, demo_dir: Path) -> None:
+    """schema and diff read s3:// like scan does; the endpoint comes from AWS_ENDPOINT_URL."""
+    import json
+    import subprocess
+    import sys
+
+    env = {**os.environ, "AWS_ENDPOINT_URL": s3.url}
+
+    def run(*args: str) -> subprocess.CompletedProcess[str]:
+        return subprocess.run([sys.executable, "-m", "driftline.cli", *args], capture_output=True, text=True,
+                              timeout=120, env=env)
+
+    remote = run("schema", f"s3://{BUCKET}/landing/", "--to", "json-schema", "--out", "-")
+    local = run("schema", str(demo_dir / "landing"), "--to", "json-schema", "--out", "-")
+    assert remote.returncode == 0 == local.returncode, remote.stderr
+    assert remote.stdout == local.stdout and '"$schema"' in remote.stdout
+    assert SECRET not in remote.stdout + remote.stderr
+    same = run("diff", f"s3://{BUCKET}/landing/", str(demo_dir / "landing"), "--json", "-")
+    assert same.returncode == 0, same.stderr
+    (only,) = json.loads(same.stdout)["diffs"]
+    assert (only["counts"], only["changes"]) == ({}, [])  # the bucket holds what the folder holds
