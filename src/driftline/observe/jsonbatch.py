@@ -4,7 +4,8 @@ Arrow parses and types the batch in C++; this module then proves, column by colu
 that what Arrow built says the same as the exact per-record walk (observe.records)
 would, and returns None when it cannot (the caller then takes the exact walk).
 
-Arrow's JSON reader blurs four things the profile keeps apart, and each is settled here:
+Arrow's JSON reader blurs four things the profile keeps apart, and each is settled here
+(with observe.linetext, which reads what it can off the lines' text):
 
 * absent vs null: Arrow writes both as null.  A null cell is certainly absent when its
   line holds neither the key's text ``"name"`` nor a backslash (an escaped key); the
@@ -25,7 +26,6 @@ of them, so they are the same examples the exact walk over the whole batch would
 
 from __future__ import annotations
 
-import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -35,14 +35,13 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.json as pj
 
-from driftline.observe import paths
+from driftline.observe import linetext, paths
 from driftline.observe.observation import Observation
 from driftline.observe.records import SAFE_INT, observe_records
 from driftline.observe.stats import SAMPLES_PER_KEY, FieldStats
 from driftline.observe.strprofile import string_profile
 from driftline.observe.textclass import CLASSES
 
-MAX_BRACKETS_PER_LINE = 512  # far below orjson's 1,024 levels: deeper lines take the exact walk
 _INT_KEYS = ("decimal(39,0)", "int64", "uint64")
 
 
@@ -70,7 +69,7 @@ class _Partial:
 class _Batch:
     def __init__(self, lines: pa.BinaryArray, n: int, schema: pa.Schema | None = None) -> None:
         self.lines = lines
-        self.unique_names = _unique_names(schema) if schema is not None else set()
+        self.unique_names = linetext.unique_names(schema) if schema is not None else set()
         self.n = n
         self.rows_needed: list[pa.Array] = []  # batch rows the exact walk must see
         self.partials: dict[str, _Partial] = {}
@@ -180,12 +179,12 @@ def observe_json_lines(
     if n == 0 or sum(map(len, lines)) + n >= 2**31:
         return None
     arr = pa.array(lines, pa.binary())
-    aside = _odd_rows(lines, arr)
+    aside = linetext.odd_rows(lines, arr)
     if aside is None:
         return None
     schema, patterns = (hint.schema, []) if hint is not None else (None, [])
     for pattern in hint.patterns if hint is not None else ():
-        rows = _matching(arr, pattern)  # the odd rows of the last batch are likely odd here too
+        rows = linetext.matching(arr, pattern)  # the odd rows of the last batch are likely odd here too
         if len(rows) * 4 <= n:  # ... while they stay few
             aside |= rows
             patterns.append(pattern)
@@ -200,7 +199,7 @@ def observe_json_lines(
             if table.num_rows != len(part):
                 return None  # several values on one line
             break
-        found = _conflict_rows(arr, why) if why else None
+        found = linetext.conflict_rows(arr, why) if why else None
         if found is None or found[0] <= aside:
             return None
         aside |= found[0]
@@ -229,6 +228,9 @@ def observe_json_lines(
     return obs, Hint(table.schema if table is not None else schema, tuple(patterns))
 
 
+_MAX_SET_ASIDE_ROUNDS = 4
+
+
 @dataclass(frozen=True, slots=True)
 class Hint:
     """What one batch teaches the next: Arrow's schema, and the patterns of rows set aside."""
@@ -237,92 +239,17 @@ class Hint:
     patterns: tuple[tuple[str, str], ...] = ()  # (the key's text, the kind its odd rows hold)
 
 
-def _matching(arr: pa.BinaryArray, pattern: tuple[str, str]) -> set[int]:
-    """Rows whose line gives the key the kind: two plain searches where the kind starts with
-    one character (written "k":x or "k": x), else the regular expression."""
-    key, kind = pattern
-    start = _LITERAL_START.get(kind)
-    if start is None:
-        mask = pc.match_substring_regex(arr, re.escape(key) + r"\s*:\s*" + _KIND_START[kind])
-    else:
-        mask = pc.or_(pc.match_substring(arr, key + ":" + start), pc.match_substring(arr, key + ": " + start))
-    return set(pc.indices_nonzero(mask).to_pylist())
-
-
-_MAX_SET_ASIDE_ROUNDS = 4
-_CONFLICT = re.compile(r"Column\((/[^)]*)\) changed from (\w+) to (\w+)")
-_LITERAL_START = {"string": '"', "array": "[", "object": "{", "null": "null"}
-_KIND_START = {"string": '"', "array": r"\[", "object": r"\{", "number": "[-0-9]", "boolean": "[tf]", "null": "n"}
-
-
-def _conflict_rows(arr: pa.BinaryArray, why: str) -> tuple[set[int], tuple[str, str]] | None:
-    """Rows that may hold the rarer of the two kinds Arrow's error names for one field.
-
-    Which rows are set aside decides only the speed: whatever is set aside is walked
-    exactly, and Arrow must still type all the rest together.
-    """
-    m = _CONFLICT.search(why)
-    if not m:
-        return None
-    name = m.group(1).rsplit("/", 1)[-1]
-    if not name or name == "[]":
-        return None
-    found = []
-    for kind in (m.group(2), m.group(3)):
-        start = _KIND_START.get(kind)
-        if start is None:
-            return None
-        try:
-            mask = pc.match_substring_regex(arr, '"' + re.escape(name) + r'"\s*:\s*' + start)
-        except pa.ArrowException:
-            return None
-        found.append((mask, ('"' + name + '"', kind)))
-    rarer, pattern = min(found, key=lambda got: got[0].true_count)
-    if not rarer.true_count:
-        return None
-    return set(pc.indices_nonzero(rarer).to_pylist()), pattern
-
-
-def _odd_rows(lines: Sequence[bytes], arr: pa.BinaryArray) -> set[int] | None:
-    """Rows to walk exactly because they are not a plain '{...}' line; None if one is not a record.
-
-    Lines the exact reader reports (blank, malformed, invalid UTF-8, CRLF, a byte order
-    mark) send the whole batch to the exact walk, which reports them.
-    """
-    shaped = pc.and_(pc.starts_with(arr, "{"), pc.ends_with(arr, "}"))
-    odd: set[int] = set()
-    if shaped.false_count:
-        for i in pc.indices_nonzero(pc.invert(shaped)).to_pylist():
-            line = lines[i]
-            if line.endswith(b"\r") or line.startswith(b"\xef\xbb\xbf") or not line.strip():
-                return None
-            try:
-                orjson.loads(line)
-            except orjson.JSONDecodeError:
-                return None
-            odd.add(i)
-    if not all(map(bytes.isascii, lines)):
-        try:
-            for line in lines:
-                line.decode("utf-8")
-        except UnicodeDecodeError:
-            return None
-    if max(map(len, lines)) <= MAX_BRACKETS_PER_LINE:
-        return odd  # too short to nest that deep
-    brackets = pc.add(pc.count_substring(arr, "["), pc.count_substring(arr, "{"))
-    if pc.max(brackets).as_py() > MAX_BRACKETS_PER_LINE:
-        odd |= set(pc.indices_nonzero(pc.greater(brackets, MAX_BRACKETS_PER_LINE)).to_pylist())
-    return odd
-
-
 def _walk(records: list[Any], rows: list[int], where: tuple[str, int, int, int]) -> dict[str, FieldStats]:
     file, batch, row_start, first_line = where
     lines_of = [first_line + r for r in rows]
     return observe_records(records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows).fields
 
 
+Where = tuple[str, int, int, int]  # file, batch, row_start, first_line
+
+
 def _observe_table(
-    table: pa.Table, arr: pa.BinaryArray, lines: Sequence[bytes], keep: pa.Array | None, where: tuple[str, int, int, int],
+    table: pa.Table, arr: pa.BinaryArray, lines: Sequence[bytes], keep: pa.Array | None, where: Where,
 ) -> dict[str, FieldStats] | None:
     """One parsed table (rows keep of the batch, or all): columnar counts, the walk for the rest."""
     b = _Batch(arr, len(arr), table.schema)
@@ -377,16 +304,6 @@ def _needed_rows(b: _Batch) -> list[int]:
     return pc.unique(allrows).sort().to_pylist()  # type: ignore[attr-defined]
 
 
-def _absent_for_sure(b: _Batch, rows: pa.Array, name: str) -> pa.Array:
-    """Mask over rows: their line holds neither '"name"' nor a backslash, so name is absent."""
-    cand = b.lines.take(rows)
-    key = orjson.dumps(name)
-    if b"\\" in key:
-        return pa.repeat(False, len(rows))
-    seen = pc.or_(pc.match_substring(cand, key.decode("utf-8")), pc.match_substring(cand, "\\"))
-    return pc.invert(seen)
-
-
 def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b: _Batch, listed: bool) -> None:
     """One path; arr holds exactly the places its container had a value (rows maps them to rows).
 
@@ -403,10 +320,10 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
             b.need(rows, null_at.slice(0, SAMPLES_PER_KEY))  # list elements cannot be absent
         else:
             cand_rows = null_at if rows is None else rows.take(null_at)
-            keep = pc.invert(_absent_for_sure(b, cand_rows, name))
+            keep = pc.invert(linetext.absent_for_sure(b.lines, cand_rows, name))
             if keep.true_count:
                 cand_rows = cand_rows.filter(keep)
-                settled = _settle(b, cand_rows, name, listed, r"null")
+                settled = linetext.settle(b.lines, b.unique_names, cand_rows, name, listed, r"null")
                 if settled is None:
                     b.rows_needed.append(cand_rows)
                 else:
@@ -455,46 +372,6 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
         raise NotExact(f"{path}: Arrow type {t}")
 
 
-def _settle(b: _Batch, at_rows: pa.Array, name: str | None, listed: bool, value_re: str,
-            usable: pa.Array | None = None) -> tuple[pa.Array, pa.Array] | None:
-    """Read a field's value off its line where that is certain: (rows where it matches, the rest).
-
-    Certain where the key's text '"name"' occurs once in the line and no backslash does:
-    no other path of the batch has that name (Arrow's schema lists every key), so the one
-    '"name"' followed by ':' is this field's key, and what follows it is its value.
-    None when nothing can be settled so (a name used twice, a field under a list).
-    """
-    if name is None or listed or name not in b.unique_names or not len(at_rows):
-        return None
-    key = orjson.dumps(name).decode("utf-8")
-    if "\\" in key:
-        return None
-    text = b.lines.take(at_rows)
-    once = pc.and_(pc.equal(pc.count_substring(text, key), 1), pc.invert(pc.match_substring(text, "\\")))
-    if usable is not None:
-        once = pc.and_(once, usable)
-    hit = pc.and_(once, pc.match_substring_regex(text, re.escape(key) + r"\s*:\s*" + value_re))
-    return at_rows.filter(hit), at_rows.filter(pc.invert(once))
-
-
-def _unique_names(schema: pa.Schema) -> set[str]:
-    """Field names used by one path only, at any depth of the schema."""
-    seen: dict[str, int] = {}
-
-    def walk(t: pa.DataType) -> None:
-        if pa.types.is_struct(t):
-            for f in t:
-                seen[f.name] = seen.get(f.name, 0) + 1
-                walk(f.type)
-        elif pa.types.is_list(t):
-            walk(t.value_type)
-
-    for f in schema:
-        seen[f.name] = seen.get(f.name, 0) + 1
-        walk(f.type)
-    return {n for n, k in seen.items() if k == 1}
-
-
 def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, name: str | None,
              listed: bool) -> None:
     finite = pc.is_finite(arr)
@@ -510,7 +387,9 @@ def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, na
         at_rows = at if rows is None else rows.take(at)
         values = arr.take(at)
         small = pc.less(pc.abs(values), float(2**53))  # exact as a double, and int64
-        settled = _settle(b, at_rows, name, listed, r"-?[0-9]+\s*[,}]", small) if name is not None else None
+        settled = None
+        if name is not None:
+            settled = linetext.settle(b.lines, b.unique_names, at_rows, name, listed, r"-?[0-9]+\s*[,}]", small)
         if settled is None:
             b.rows_needed.append(at_rows)
         else:
