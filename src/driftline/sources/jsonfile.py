@@ -117,9 +117,6 @@ class _Window:
             yield self.first_line + i, offset, content
             offset += len(content) + 1
 
-    def size(self) -> int:
-        return sum(map(len, self.items)) + len(self.items)
-
 
 class _TooLong:
     """A line longer than the limit, already consumed: its number and byte offset."""
