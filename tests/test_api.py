@@ -58,8 +58,10 @@ DOCTEST_MODULES = [
     "driftline",
     "driftline.drift",
     "driftline.errors",
+    "driftline.lattice",
     "driftline.notebook",
     "driftline.profile",
+    "driftline.observe.paths",
     "driftline.report",
     "driftline.tables",
 ]

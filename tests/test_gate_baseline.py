@@ -15,9 +15,8 @@ from driftline.gate.baseline import (
     FORMAT_CLASSES,
     baseline_from_json_schema,
     load_baseline,
-    shallow,
 )
-from driftline.lattice import parse_key
+from driftline.lattice import parse_key, shallow
 from driftline.report import dumps
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -10,7 +10,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-from driftline.lattice import UNKNOWN, DType, is_widening, join, parse_key
+from driftline.lattice import UNKNOWN, DType, is_widening, join, type_of_key, type_text
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
 from driftline.observe.stats import Example, FieldStats
@@ -105,31 +105,6 @@ def _earliest(st: FieldStats) -> Example | None:
     return min(firsts) if firsts else None
 
 
-# Observations store shallow keys for nested kinds; their children are paths of their own.
-_SHALLOW = {
-    "list": DType("list", item=UNKNOWN),
-    "struct": DType("struct"),
-    "map": DType("map", fields=(("key", UNKNOWN), ("value", UNKNOWN))),
-}
-
-
-def _show(t: DType) -> str:
-    """A type's key, with the shallow placeholders for nested kinds shown as plain names."""
-    text = t.key()
-    for name, placeholder in _SHALLOW.items():
-        text = text.replace(placeholder.key(), name)
-    return text
-
-
-def _type_of(key: str) -> DType:
-    if key in _SHALLOW:
-        return _SHALLOW[key]
-    try:
-        return parse_key(key)
-    except ValueError:
-        return UNKNOWN
-
-
 def _present(st: FieldStats | None) -> bool:
     return st is not None and st.present > 0
 
@@ -206,7 +181,7 @@ def _type_events(
     fresh = sorted((k for k in st.types if k not in state.types), key=lambda k: st.first("type:" + k) or Example("", 0))
     for key in fresh:
         old = state.joined
-        new = join(old, _type_of(key)).with_nullable(False)
+        new = join(old, type_of_key(key)).with_nullable(False)
         if state.types:
             if path.endswith("[]"):
                 kind = "element-changed"
@@ -222,8 +197,8 @@ def _type_events(
                     _event(
                         kind,
                         path,
-                        _show(old),
-                        _show(new) if kind != "type-conflict" else key,
+                        type_text(old),
+                        type_text(new) if kind != "type-conflict" else key,
                         obs,
                         parts,
                         ex,
@@ -330,4 +305,4 @@ def _first_line(obs: Observation) -> int | None:
 
 
 def _joined_key(state: _PathState) -> str:
-    return _show(state.joined) if state.joined is not UNKNOWN else "null"
+    return type_text(state.joined) if state.joined is not UNKNOWN else "null"

@@ -499,3 +499,49 @@ def parse_key(text: str) -> DType:
     if t.key() != text:  # e.g. unsorted struct fields: only the canonical spelling is a key
         raise ValueError(f'type key {text!r} is not canonical; expected {t.key()!r}')
     return t
+
+
+# -- shallow types ------------------------------------------------------------------------
+
+# Observations keep only the kind of a nested value; its children are paths of their own.
+_SHALLOW = {
+    "list": DType("list", item=UNKNOWN),
+    "struct": DType("struct"),
+    "map": DType("map", fields=(("key", UNKNOWN), ("value", UNKNOWN))),
+}
+
+
+def shallow(t: DType) -> DType:
+    """A type as observations record it: nested kinds without their children.
+
+    >>> shallow(parse_key("list<int64>")).key(), shallow(parse_key("int64")).key()
+    ('list<unknown>', 'int64')
+    """
+    if t.name in _SHALLOW:
+        return _SHALLOW[t.name]
+    if t.name == "union":
+        return join_all(shallow(m) for m in t.members)
+    return t.with_nullable(False)
+
+
+def type_text(t: DType) -> str:
+    """A shallow type as people read it: nested kinds by name ('struct', 'list').
+
+    >>> type_text(shallow(parse_key("union<int64 | struct<a: bool>>")))
+    'union<int64 | struct>'
+    """
+    if t.name in _SHALLOW:
+        return t.name
+    if t.name == "union":
+        return "union<" + " | ".join(type_text(m) for m in t.members) + ">"
+    return t.key()
+
+
+def type_of_key(key: str) -> DType:
+    """The type of an observed shallow type key ('int64', 'list', 'struct', ...)."""
+    if key in _SHALLOW:
+        return _SHALLOW[key]
+    try:
+        return parse_key(key)
+    except ValueError:
+        return UNKNOWN

@@ -29,7 +29,7 @@ import orjson
 
 from driftline.emit.schemas.rules_json import RULES_FORMAT, RULES_VERSION
 from driftline.errors import InputPathError, ReportVersionError, UnreadableFileError
-from driftline.lattice import NULL, UNKNOWN, DType, join_all, parse_key
+from driftline.lattice import NULL, UNKNOWN, DType, join_all, parse_key, type_of_key
 from driftline.observe import paths
 from driftline.profile import Profile
 
@@ -227,48 +227,6 @@ def baseline_from_json_schema(doc: Any, *, source: str = "schema") -> Baseline:
 
 # -- saved scan report -------------------------------------------------------------------
 
-# Observations keep only the kind of a nested value; its children are paths of their own.
-_SHALLOW = {
-    "list": DType("list", item=UNKNOWN),
-    "struct": DType("struct"),
-    "map": DType("map", fields=(("key", UNKNOWN), ("value", UNKNOWN))),
-}
-
-
-def shallow(t: DType) -> DType:
-    """A type as observations record it: nested kinds without their children.
-
-    >>> shallow(parse_key("list<int64>")).key(), shallow(parse_key("int64")).key()
-    ('list<unknown>', 'int64')
-    """
-    if t.name in _SHALLOW:
-        return _SHALLOW[t.name]
-    if t.name == "union":
-        return join_all(shallow(m) for m in t.members)
-    return t.with_nullable(False)
-
-
-def type_text(t: DType) -> str:
-    """A shallow type as people read it: nested kinds by name ('struct', 'list').
-
-    >>> type_text(shallow(parse_key("union<int64 | struct<a: bool>>")))
-    'union<int64 | struct>'
-    """
-    if t.name in _SHALLOW:
-        return t.name
-    if t.name == "union":
-        return "union<" + " | ".join(type_text(m) for m in t.members) + ">"
-    return t.key()
-
-
-def type_of_key(key: str) -> DType:
-    """The type of an observed shallow type key ('int64', 'list', 'struct', ...)."""
-    if key in _SHALLOW:
-        return _SHALLOW[key]
-    try:
-        return parse_key(key)
-    except ValueError:
-        return UNKNOWN
 
 
 def _shallow_type(types: Mapping[str, int]) -> DType:

@@ -17,10 +17,10 @@ from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from types import MappingProxyType
 
-from driftline.gate.baseline import NULL_CLASSES, Baseline, Expected, shallow, type_of_key, type_text
+from driftline.gate.baseline import NULL_CLASSES, Baseline, Expected
 from driftline.gate.policy import RULES, Policy
 from driftline.gate.verdict import RuleResult, Verdict, Violation
-from driftline.lattice import DType, family, join, join_all, parse_key
+from driftline.lattice import DType, family, join, join_all, parse_key, shallow, type_of_key, type_text
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
 from driftline.observe.stats import Example, FieldStats

@@ -22,8 +22,8 @@ from rich.console import Console
 from rich.text import Text
 
 from driftline.emit.safe import safe_text
-from driftline.gate.baseline import NULL_CLASSES, type_of_key, type_text
-from driftline.lattice import DType, join, join_all
+from driftline.gate.baseline import NULL_CLASSES
+from driftline.lattice import DType, join, join_all, type_of_key, type_text
 from driftline.observe import paths
 from driftline.observe.stats import Example, FieldStats
 from driftline.profile import FieldSummary, Profile
