@@ -57,6 +57,7 @@ NO_DOCSTRING_YET = {"Diff.counts", "Diff.to_json", "Policy.to_dict", "Verdict.to
 DOCTEST_MODULES = [
     "driftline",
     "driftline.drift",
+    "driftline.emit.units",
     "driftline.errors",
     "driftline.lattice",
     "driftline.notebook",

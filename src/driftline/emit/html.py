@@ -28,6 +28,7 @@ from driftline.emit import html_data as hd
 from driftline.emit import svg
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
+from driftline.emit.units import human_bytes
 from driftline.profile import FieldSummary, Profile
 from driftline.report import partition_types
 
@@ -72,15 +73,6 @@ def _env() -> jinja2.Environment:
     env.filters["t"] = _t
     env.filters["num"] = lambda n: f"{n:,}"
     return env
-
-
-def _bytes(n: int) -> str:
-    size = float(n)
-    for unit in ("B", "KiB", "MiB", "GiB"):
-        if size < 1024 or unit == "GiB":
-            return f"{n} B" if unit == "B" else f"{size:.1f} {unit}"
-        size /= 1024
-    return f"{n} B"
 
 
 def _where(e: Event) -> str:
@@ -168,7 +160,7 @@ def _overview(profile: Profile) -> list[tuple[str, str]]:
     return [
         ("files", f"{len(profile.files):,}"),
         ("rows", f"{profile.rows:,}"),
-        ("bytes", _bytes(profile.bytes)),
+        ("bytes", human_bytes(profile.bytes)),
         ("formats", ", ".join(f"{n:,} {k}" for k, n in sorted(formats.items())) or "none"),
         ("partitions", "; ".join(f"{k} ({v['type']}, {len(v['values']):,} values)" for k, v in parts.items())
          or "none"),

@@ -13,20 +13,12 @@ from rich.text import Text
 
 from driftline.drift import Event
 from driftline.emit.safe import safe_text
+from driftline.emit.units import human_bytes
 from driftline.profile import FieldSummary, Profile
 from driftline.report import partition_types
 
 MAX_EVENTS_SHOWN = 200
 MAX_ISSUES_SHOWN = 50
-
-
-def _bytes(n: int) -> str:
-    size = float(n)
-    for unit in ("B", "KiB", "MiB", "GiB"):
-        if size < 1024 or unit == "GiB":
-            return f"{size:.0f} {unit}" if unit == "B" else f"{size:.1f} {unit}"
-        size /= 1024
-    return f"{n} B"
 
 
 def _pct(part: int, whole: int) -> str:
@@ -69,7 +61,7 @@ def overview(profile: Profile) -> Text:
     text.append("\n")
     text.append(
         f"{len(profile.files)} files ({', '.join(f'{n} {k}' for k, n in sorted(formats.items()))}), "
-        f"{profile.rows:,} rows, {_bytes(profile.bytes)}, {len(profile.fields)} fields, "
+        f"{profile.rows:,} rows, {human_bytes(profile.bytes)}, {len(profile.fields)} fields, "
         f"{len(profile.skipped)} skipped, {errors} file errors, {profile.duration_s:.2f} s"
     )
     parts = partition_types(profile)
