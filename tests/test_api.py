@@ -56,6 +56,7 @@ NO_DOCSTRING_YET = {"Diff.counts", "Diff.to_json", "Policy.to_dict", "Verdict.to
 # Modules whose docstring examples run as tests (not the whole tree: see docs/python.md).
 DOCTEST_MODULES = [
     "driftline",
+    "driftline.documents",
     "driftline.drift",
     "driftline.emit.units",
     "driftline.errors",

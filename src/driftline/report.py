@@ -16,6 +16,7 @@ import orjson
 import pyarrow as pa
 
 from driftline import __version__
+from driftline.documents import read_json_document
 from driftline.errors import ReportVersionError
 from driftline.lattice import join_all, parse_key
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
@@ -152,16 +153,5 @@ def load_report(path: str | Path) -> Profile:
     >>> driftline.load_report(d / "r.json") == p
     True
     """
-    from driftline.errors import InputPathError
-
-    try:
-        raw = Path(path).read_bytes()
-    except OSError as exc:
-        raise InputPathError(f"cannot read report {str(path)!r}: {exc.strerror}") from None
-    try:
-        data = orjson.loads(raw)
-    except orjson.JSONDecodeError as exc:
-        raise ReportVersionError(
-            f"{str(path)!r} is not JSON ({exc.msg} at line {exc.lineno}); give a report that driftline wrote"
-        ) from None
+    data = read_json_document(path, "report", ReportVersionError, "; give a report that driftline wrote")
     return from_dict(data, source=repr(str(path)))

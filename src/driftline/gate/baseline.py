@@ -25,10 +25,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-import orjson
-
+from driftline.documents import read_json_document
 from driftline.emit.schemas.rules_json import RULES_FORMAT, RULES_VERSION
-from driftline.errors import InputPathError, ReportVersionError, UnreadableFileError
+from driftline.errors import ReportVersionError, UnreadableFileError
 from driftline.lattice import NULL, UNKNOWN, DType, join_all, parse_key, type_of_key
 from driftline.observe import paths
 from driftline.profile import Profile
@@ -316,15 +315,7 @@ def load_baseline(path: str | Path) -> Baseline:
     ("format": "driftline-report") or a cast-rules file ("format": "driftline-rules").
     """
     source = repr(str(path))
-    try:
-        raw = Path(path).read_bytes()
-    except OSError as exc:
-        raise InputPathError(f"cannot read baseline {source}: {exc.strerror}") from None
-    try:
-        doc = orjson.loads(raw)
-    except orjson.JSONDecodeError as exc:
-        raise UnreadableFileError(f"baseline {source} is not JSON ({exc.msg} at line {exc.lineno}, "
-                                  f"column {exc.colno})") from None
+    doc = read_json_document(path, "baseline", UnreadableFileError)
     if isinstance(doc, Mapping) and doc.get("format") == "driftline-report":
         from driftline.report import from_dict
 

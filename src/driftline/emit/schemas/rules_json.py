@@ -12,7 +12,8 @@ from typing import Any
 import orjson
 
 from driftline import __version__
-from driftline.errors import InputPathError, ReportVersionError
+from driftline.documents import read_json_document
+from driftline.errors import ReportVersionError
 from driftline.observe import paths
 from driftline.recommend.plan import FieldPlan, Recommendation
 
@@ -73,14 +74,7 @@ def dumps(rec: Recommendation) -> bytes:
 def load_rules(path: str | Path) -> dict[str, Any]:
     """Read a rules file back as JSON data; ReportVersionError for another format or version."""
     source = repr(str(path))
-    try:
-        raw = Path(path).read_bytes()
-    except OSError as exc:
-        raise InputPathError(f"cannot read rules file {source}: {exc.strerror}") from None
-    try:
-        doc = orjson.loads(raw)
-    except orjson.JSONDecodeError as exc:
-        raise ReportVersionError(f"{source} is not JSON ({exc.msg} at line {exc.lineno})") from None
+    doc = read_json_document(path, "rules file", ReportVersionError)
     if not isinstance(doc, dict) or doc.get("format") != RULES_FORMAT:
         raise ReportVersionError(f"{source} is not a driftline rules file (no \"format\": \"{RULES_FORMAT}\")")
     if doc.get("version") != RULES_VERSION:
