@@ -81,10 +81,12 @@ class Diff:
     changes: tuple[FieldChange, ...]
 
     def counts(self) -> dict[str, int]:
+        """How many changes of each kind, in DIFF_KINDS order (kinds with none left out)."""
         n = Counter(c.kind for c in self.changes)
         return {k: n[k] for k in DIFF_KINDS if n[k]}
 
     def to_json(self) -> dict[str, Any]:
+        """The diff as plain JSON data: both sides, the counts and every change."""
         return {"before": self.before, "after": self.after, "counts": self.counts(),
                 "changes": [c.to_json() for c in self.changes]}
 

@@ -110,6 +110,7 @@ class Policy:
         return action
 
     def to_dict(self) -> dict[str, Any]:
+        """Every key with its value, as a policy file would spell it."""
         return dataclasses.asdict(self)
 
 

@@ -61,6 +61,7 @@ class Violation:
         return ", ".join(parts)
 
     def to_json(self) -> dict[str, Any]:
+        """The violation as plain JSON data, with its provenance."""
         return {
             "rule": self.rule,
             "severity": self.severity,
@@ -112,6 +113,7 @@ class Verdict:
         return 0 if self.passed else 1
 
     def to_json(self) -> dict[str, Any]:
+        """The verdict as plain JSON data: passed, exit code, violations, warnings and rules."""
         return {
             "format": VERDICT_FORMAT,
             "version": VERDICT_VERSION,

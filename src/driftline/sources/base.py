@@ -32,6 +32,12 @@ class ReadOptions:
     delimiter               CSV delimiter; None sniffs it from the first 64 KiB
     exact                   take the exact per-record path everywhere (no columnar fast path);
                             the results are the same, only slower: for checking the fast path
+
+    >>> ReadOptions(batch_rows=50_000).batch_rows
+    50000
+    >>> ReadOptions(batch_rows=0)
+    Traceback (most recent call last):
+    ValueError: batch_rows must be at least 1, got 0
     """
 
     batch_rows: int = DEFAULT_BATCH_ROWS
