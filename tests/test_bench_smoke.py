@@ -76,3 +76,17 @@ def test_table_and_targets(results: dict) -> None:
     assert "fails (ArrowInvalid)" in lines[3]
     names = [t["target"] for t in results["json"]["targets"]]
     assert len(names) == 8 and names[0] == "drift-json / pyarrow clean-json <= 1.5"
+
+
+def test_dask_engine_line(tmp_path: Path) -> None:
+    out = tmp_path / "engines.json"
+    proc = subprocess.run(
+        [sys.executable, str(BENCH), "--dask", "--quick", "--scale", "0.01", "--jobs", "2",
+         "--data-dir", str(tmp_path / "data"), "--out", str(out)],
+        capture_output=True, text=True, timeout=240,
+    )
+    assert proc.returncode == 0, proc.stderr
+    rows = json.loads(out.read_text())["engines"]
+    assert [(r["tool"], r["dataset"], r["jobs"], r["ok"]) for r in rows] == [
+        ("driftline", "parquet", 2, True), ("driftline-dask", "parquet", 2, True)]
+    assert "--engine dask, 2 local workers" in proc.stdout
