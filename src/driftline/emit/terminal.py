@@ -120,18 +120,19 @@ def events_block(events: tuple[Event, ...]) -> Text:
     return text
 
 
-def issues_table(profile: Profile) -> Table:
+def issues_block(profile: Profile) -> Text:
+    """File problems as a list: severity and problem on one line, the place on the next.
+
+    A list rather than a table, so that a long file path is never cut short.
+    """
     issues = profile.issues
-    table = Table(title=f"File problems ({len(issues)})", title_justify="left", pad_edge=False)
-    for col in ("severity", "where", "problem"):
-        table.add_column(col)
+    text = Text()
+    text.append(f"File problems ({len(issues)})\n", style="bold")
     for i in issues[:MAX_ISSUES_SHOWN]:
-        table.add_row(
-            Text(i.severity, style="red" if i.severity == "error" else "yellow"),
-            Text(safe_text(i.where(), 160)),
-            Text(safe_text(i.message, 200)),
-        )
-    return table
+        text.append(f"{i.severity:<8} ", style="red" if i.severity == "error" else "yellow")
+        text.append(safe_text(i.message, 200))
+        text.append("\n         at " + safe_text(i.where(), 240) + "\n")
+    return text
 
 
 def render(profile: Profile, console: Console) -> None:
@@ -147,6 +148,6 @@ def render(profile: Profile, console: Console) -> None:
         console.print("No drift: every batch shows the same fields and types.")
     if profile.issues:
         console.print()
-        console.print(issues_table(profile))
+        console.print(issues_block(profile), end="")
         if len(profile.issues) > MAX_ISSUES_SHOWN:
             console.print(f"… {len(profile.issues) - MAX_ISSUES_SHOWN} more in the JSON report (--json)")
