@@ -110,3 +110,9 @@ def test_a_member_of_a_union_widens(tmp_path: Path):
         ("type-conflict", "int64", "string", 1),
         ("type-widened", "union<int64 | string>", "union<float64 | string>", 2),
     ]
+
+
+def test_a_type_the_field_already_holds_is_no_drift(tmp_path: Path):
+    # float64 holds int64 (the widening join): an integer after floats changes nothing
+    write_lines(tmp_path / "a.jsonl", ['{"x": 1.5, "l": [1.5]}', '{"x": 2, "l": [2]}'])
+    assert driftline.scan(tmp_path).events == ()

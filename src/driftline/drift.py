@@ -182,7 +182,7 @@ def _type_events(
     for key in fresh:
         old = state.joined
         new = join(old, type_of_key(key)).with_nullable(False)
-        if state.types:
+        if state.types and new != old:  # a type the old one already holds (int in float) is no drift
             if path.endswith("[]"):
                 kind = "element-changed"
             elif new.name == "union" and (old.name != "union" or len(new.members) > len(old.members)):
