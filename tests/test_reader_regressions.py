@@ -9,6 +9,7 @@ import pyarrow.parquet as pq
 from driftline.observe.columnar import observe_table
 from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
+from driftline.sources.formats import CountingRaw
 from driftline.sources.readers import read_file
 
 
@@ -362,7 +363,7 @@ def test_remote_streams_use_the_local_decoders(monkeypatch):
         ref_dec = zlib.decompressobj(wbits=31) if codec == "gzip" else zstandard.ZstdDecompressor().decompressobj()
         decodable = ref_dec.decompress(cut)  # the reference decoders
         def object_stream(path: str, b: bytes = cut) -> io.BufferedReader:
-            return io.BufferedReader(remote._Raw(pa.BufferReader(b)))
+            return io.BufferedReader(CountingRaw(pa.BufferReader(b)))
 
         monkeypatch.setattr(remote, "open_binary", object_stream)
         stream = remote.open_stream_remote("s3://lake/x", codec, limit=2**30, ratio=1000)

@@ -88,6 +88,36 @@ def _head(path: str, n: int) -> bytes:
         return b""
 
 
+class CountingRaw(io.RawIOBase):
+    """Any object with read(n) as a Python raw stream, counting the bytes it passed on.
+
+    Decoders (gzip, bz2, lzma, zstd) and buffered readers can then wrap it.
+    """
+
+    def __init__(self, inner: Any) -> None:
+        self._inner = inner
+        self.count = 0
+
+    def readable(self) -> bool:
+        return True
+
+    def _read(self, n: int) -> bytes:
+        return self._inner.read(n)
+
+    def readinto(self, buf: Any) -> int:
+        data = self._read(len(buf))
+        n = len(data)
+        buf[:n] = data
+        self.count += n
+        return n
+
+    def close(self) -> None:
+        try:
+            self._inner.close()
+        finally:
+            super().close()
+
+
 class LimitExceeded(ValueError):
     """More decompressed bytes than the limit allows (a decompression bomb, or a too-large file)."""
 

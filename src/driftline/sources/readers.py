@@ -4,9 +4,7 @@ from __future__ import annotations
 
 import hashlib
 import io
-import lzma
 import os
-import zlib
 from collections.abc import Iterator
 from typing import Any
 
@@ -14,49 +12,31 @@ from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import read_csv
 from driftline.sources.discover import FileRef
-from driftline.sources.formats import LimitExceeded, open_stream
+from driftline.sources.formats import CountingRaw, LimitExceeded, open_stream
 from driftline.sources.jsonfile import read_json, read_jsonl
 from driftline.sources.parquetfile import read_parquet
 from driftline.sources.remote import is_url, open_random, open_stream_remote
 
 
-class _SafeStream(io.RawIOBase):
+class _SafeStream(CountingRaw):
     """Turns a decompression or I/O failure into end of data, remembering what happened.
 
     Readers then finish normally and keep every row read before the failure.
     """
 
     def __init__(self, inner: Any) -> None:
-        self._inner = inner
+        super().__init__(inner)
         self.failure: BaseException | None = None
-        self.consumed = 0
 
-    def readable(self) -> bool:
-        return True
-
-    def readinto(self, buf: Any) -> int:
+    def _read(self, n: int) -> bytes:
         if self.failure is not None:
-            return 0
+            return b""
         try:
             # read1: one underlying read, so bytes decoded before a failure are not dropped
-            reader = getattr(self._inner, "read1", self._inner.read)
-            data = reader(len(buf))
-        except (OSError, EOFError, zlib.error, lzma.LZMAError, LimitExceeded, ValueError, MemoryError) as exc:
+            return getattr(self._inner, "read1", self._inner.read)(n)
+        except Exception as exc:  # OSError, EOFError, zlib/lzma/zstd errors, LimitExceeded, MemoryError…
             self.failure = exc
-            return 0
-        except Exception as exc:  # zstandard.ZstdError and friends
-            self.failure = exc
-            return 0
-        n = len(data)
-        buf[:n] = data
-        self.consumed += n
-        return n
-
-    def close(self) -> None:
-        try:
-            self._inner.close()
-        finally:
-            super().close()
+            return b""
 
 
 def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str, str]:
@@ -148,7 +128,7 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
                 complete = False
                 kind, msg = _describe_failure(safe.failure, ref.compression)
                 issues.append(
-                    FileIssue(ref.rel, kind, msg, byte_offset=safe.consumed if ref.compression is None else None)
+                    FileIssue(ref.rel, kind, msg, byte_offset=safe.count if ref.compression is None else None)
                 )
     except Exception as exc:  # a reader bug must not stop the scan of the other files
         complete = False

@@ -28,7 +28,7 @@ from urllib.parse import parse_qsl, quote, unquote, urlencode
 
 from driftline.errors import DriftlineError, InputPathError
 from driftline.sources.discover import Discovery, FileRef, Skipped, partition_values
-from driftline.sources.formats import FORMAT_BY_SUFFIX, detect_compression, detect_format, wrap_stream
+from driftline.sources.formats import FORMAT_BY_SUFFIX, CountingRaw, detect_compression, detect_format, wrap_stream
 
 SCHEMES = ("s3://",)
 DEFAULT_RETRIES = 4
@@ -342,31 +342,7 @@ def open_binary(path: str) -> BinaryIO:
     """A sequential byte stream for a locator (JSON, CSV, compressed files)."""
     bucket, key, storage = parse_locator(path)
     stream = filesystem(storage).open_input_stream(f"{bucket}/{key}", compression=None)
-    return io.BufferedReader(_Raw(stream), buffer_size=1 << 20)  # type: ignore[return-value]
-
-
-class _Raw(io.RawIOBase):
-    """A pyarrow input stream as a Python raw stream, so gzip/bz2/lzma/zstd can wrap it."""
-
-    def __init__(self, inner: Any) -> None:
-        self._inner = inner
-        self.fetched = 0
-
-    def readable(self) -> bool:
-        return True
-
-    def readinto(self, buf: Any) -> int:
-        data = self._inner.read(len(buf))
-        n = len(data)
-        buf[:n] = data
-        self.fetched += n
-        return n
-
-    def close(self) -> None:
-        try:
-            self._inner.close()
-        finally:
-            super().close()
+    return io.BufferedReader(CountingRaw(stream), buffer_size=1 << 20)  # type: ignore[return-value]
 
 
 def open_stream_remote(path: str, compression: str | None, *, limit: int | None,
@@ -377,6 +353,6 @@ def open_stream_remote(path: str, compression: str | None, *, limit: int | None,
     is handed out, a truncated gzip/zstd/xz is reported, a bomb stops at the limits.
     """
     raw = open_binary(path)
-    return wrap_stream(raw, compression, limit=limit, ratio=ratio, taken=lambda: raw.raw.fetched)  # type: ignore[attr-defined]
+    return wrap_stream(raw, compression, limit=limit, ratio=ratio, taken=lambda: raw.raw.count)  # type: ignore[attr-defined]
 
 
