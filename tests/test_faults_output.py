@@ -35,11 +35,11 @@ def ready():
     open(marker, "w").close()
 
 if mode == "scan":
-    real_read = scanning.read_file
-    def slow_read(ref, opts, **kw):
+    real_read = scanning.read_files
+    def slow_read(refs, opts, **kw):
         ready(); time.sleep(60)
-        return real_read(ref, opts, **kw)
-    scanning.read_file = slow_read
+        return real_read(refs, opts, **kw)
+    scanning.read_files = slow_read
 elif mode == "write":
     real_fsync = os.fsync
     def slow_fsync(fd):

@@ -14,7 +14,7 @@ from driftline.profile import Profile
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.jsonsplit import assemble, can_split, plan, read_span
-from driftline.sources.readers import read_file
+from driftline.sources.readers import read_file, read_files
 from driftline.sources.remote import StorageOptions, discover_remote, is_url, parse_condition, partitions_pass
 
 Progress = Callable[[int, int, str], None]  # (files done, files total, current file)
@@ -81,34 +81,66 @@ def scan_paths(
 
 def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
               progress: Progress | None) -> list[FileResult]:
+    if jobs > 1 and any(can_split(ref, opts) for ref in files):
+        return _read_split(files, opts, jobs, max_errors, progress)
     results: list[FileResult] = []
     errors = 0
     total = len(files)
-    if jobs > 1 and any(can_split(ref, opts) for ref in files):
-        return _read_split(files, opts, jobs, max_errors, progress)
-    if jobs <= 1 or total == 1:
-        for i, ref in enumerate(files):
-            if progress:
-                progress(i, total, ref.rel)
-            res = read_file(ref, opts)
-            results.append(res)
-            errors += res.errors
-            if max_errors is not None and errors >= max_errors:
-                break
-    else:
-        with ProcessPoolExecutor(max_workers=jobs) as pool:
-            # map keeps input order, so stopping at max_errors is the same as the serial run.
-            for i, res in enumerate(pool.map(read_file, files, [opts] * total, chunksize=max(1, total // (jobs * 8)))):
-                if progress:
-                    progress(i, total, res.rel)
+    pool = ProcessPoolExecutor(max_workers=jobs) if jobs > 1 and total > 1 else None
+    groups = _groups(files, max(1, total // (jobs * 8)) if pool else _GROUP_FILES)
+    started = 0
+
+    def before(ref: FileRef) -> None:  # serial: progress names the file about to be read
+        nonlocal started
+        if progress:
+            progress(started, total, ref.rel)
+        started += 1
+
+    try:
+        # map keeps input order, so stopping at max_errors is the same as the serial run.
+        done = (pool.map(read_files, groups, [opts] * len(groups)) if pool
+                else (read_files(g, opts, before=before) for g in groups))
+        for group in done:
+            for res in group:
+                if progress and pool:
+                    progress(len(results), total, res.rel)
                 results.append(res)
                 errors += res.errors
                 if max_errors is not None and errors >= max_errors:
-                    pool.shutdown(wait=True, cancel_futures=True)
-                    break
+                    raise _Enough
+    except _Enough:
+        pass
+    finally:
+        if pool:
+            pool.shutdown(wait=True, cancel_futures=True)
     if progress:
         progress(len(results), total, "")
     return results
+
+
+class _Enough(Exception):
+    """max_errors reached: stop reading."""
+
+
+_GROUP_FILES = 256  # Parquet files read one after another and observed together (observe.bulk)
+_GROUP_BYTES = 64 * 2**20
+
+
+def _groups(files: Sequence[FileRef], most: int) -> list[list[FileRef]]:
+    """Files in order, runs of Parquet files in groups of at most `most` files and _GROUP_BYTES;
+    any other file is a group of its own, so stopping at max_errors reads little more than it must."""
+    groups: list[list[FileRef]] = []
+    size = 0
+    for ref in files:
+        grow = (ref.format == "parquet" and groups and groups[-1][-1].format == "parquet"
+                and len(groups[-1]) < min(most, _GROUP_FILES) and size + ref.size <= _GROUP_BYTES)
+        if grow:
+            groups[-1].append(ref)
+            size += ref.size
+        else:
+            groups.append([ref])
+            size = ref.size
+    return groups
 
 
 def _task(task: tuple[str, Any], opts: ReadOptions) -> Any:

@@ -65,6 +65,13 @@ def observe_table(
     return Observation(file=file, batch=batch, row_start=row_start, rows=table.num_rows, fields=dict(sorted(ctx.out.items())))
 
 
+def observe_column(arr: pa.Array, name: str, *, file: str, row_start: int) -> dict[str, FieldStats]:
+    """The statistics one top-level column of a (non-text) batch gives: its path and those below it."""
+    ctx = _Ctx(file, row_start, None, False, exact_requested())
+    _observe(arr, paths.child(None, name), None, ctx)
+    return ctx.out
+
+
 def _rows(rows: pa.Array | None, idx: int) -> int:
     return idx if rows is None else rows[idx].as_py()
 

@@ -217,3 +217,49 @@ def _digits(numbers: pa.Array) -> tuple[int, int]:
     before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
     after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
     return pc.max(before).as_py() or 0, pc.max(after).as_py() or 0
+
+
+@dataclass(frozen=True, slots=True)
+class Verdicts:
+    """Per value of a string array: its class (index in CLASSES) and what classify counts for it."""
+
+    kind: pa.Array  # int8
+    leap: pa.Array  # bool: a timestamp with second 60
+    lower: pa.Array  # bool: an RFC 3339 timestamp with a lowercase t or z
+    int_digits: pa.Array  # int64, 0 unless integer or decimal
+    frac_digits: pa.Array  # int64, 0 unless decimal
+
+
+def verdicts(values: pa.Array) -> Verdicts:
+    """Each value's verdict, as _profile_few and string_profile count them (values: no nulls).
+
+    >>> v = verdicts(pa.array(["7", "x", "-1.25", "1990-12-31T23:59:60Z"]))
+    >>> [CLASSES[k] for k in v.kind.to_pylist()], v.leap.to_pylist(), v.frac_digits.to_pylist()
+    (['integer', 'text', 'decimal', 'timestamp_rfc3339'], [False, False, False, True], [0, 0, 2, 0])
+    """
+    if len(values) <= FEW:  # few values: the process-wide table answers most of them
+        py = values.to_pylist()
+        unseen = [v for v in py if v not in _SEEN]
+        if unseen:
+            _learn(unseen)
+        got = [_SEEN[v] for v in py]
+        return Verdicts(*(pa.array([g[i] for g in got], t) for i, t in enumerate(_VERDICT_TYPES)))
+    masks = class_masks(values)
+    kind = pc.case_when(pc.make_struct(*(masks[c] for c in CLASSES), field_names=list(CLASSES)),
+                        *(pa.scalar(k, pa.int8()) for k in range(len(CLASSES))))
+    stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
+    sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
+    lower = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
+    number = pc.or_(masks["integer"], masks["decimal"])
+    length = pc.cast(pc.binary_length(values), pa.int64())
+    minus = pc.cast(pc.starts_with(values, "-"), pa.int64())
+    point = pc.cast(pc.find_substring(values, "."), pa.int64())
+    has_point = pc.greater_equal(point, 0)
+    before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
+    after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
+    zero = pa.scalar(0, pa.int64())
+    return Verdicts(kind, pc.and_(stamp, sixty), lower, pc.if_else(number, before, zero),
+                    pc.if_else(number, after, zero))
+
+
+_VERDICT_TYPES = (pa.int8(), pa.bool_(), pa.bool_(), pa.int64(), pa.int64())  # the fields of a _SEEN entry

@@ -5,9 +5,10 @@ from __future__ import annotations
 import hashlib
 import io
 import os
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator, Sequence
 from typing import Any
 
+from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import read_csv
@@ -79,73 +80,155 @@ def _items(ref: FileRef, opts: ReadOptions, stream: Any) -> Iterator[Any]:
 
 def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileResult:
     """Read a whole file into a FileResult. Problems become FileIssues; nothing is raised."""
-    observations: list[Observation] = []
-    issues: list[FileIssue] = []
-    declared: dict[str, str] | None = None
-    complete = True
+    return read_files([ref], opts, digest=digest)[0]
+
+
+def read_files(refs: Sequence[FileRef], opts: ReadOptions, *, digest: bool = False,
+               before: Callable[[FileRef], None] | None = None) -> list[FileResult]:
+    """Read files in order, each as read_file would; the batches of Parquet files are observed
+    together, a group of at most about batch_rows rows at a time (observe.bulk).
+
+    before, when given, is called with each file just before it is read (progress).
+    """
+    pending = _Pending(opts)
+    reads = []
+    for ref in refs:
+        if before:
+            before(ref)
+        reads.append(_read_one(ref, opts, pending))
+    pending.flush()
+    results = [r.finish(pending) for r in reads]
+    return [_with_digest(r, ref.path) for r, ref in zip(results, refs, strict=True)] if digest else results
+
+
+class _Pending:
+    """Parquet batches waiting to be observed together: memory stays bounded by batch_rows rows."""
+
+    def __init__(self, opts: ReadOptions) -> None:
+        self._limit = opts.batch_rows
+        self._exact = opts.exact
+        self._batches: list[Batch] = []
+        self._rows = 0
+        self.done: dict[int, Observation | Exception] = {}  # ticket -> its observation, or what went wrong
+
+    def add(self, batch: Batch) -> int:
+        ticket = len(self.done) + len(self._batches)
+        self._batches.append(batch)
+        self._rows += batch.data.num_rows
+        if self._rows >= self._limit:
+            self.flush()
+        return ticket
+
+    def flush(self) -> None:
+        first = len(self.done)
+        try:
+            got: list[Observation | Exception] = list(observe_batches(self._batches, exact=self._exact))
+        except Exception:  # a bug in one batch must not cost the others: observe them one by one
+            got = [_observe_one(b, self._exact) for b in self._batches]
+        self.done.update(enumerate(got, start=first))
+        self._batches, self._rows = [], 0
+
+
+def _observe_one(b: Batch, exact: bool) -> Observation | Exception:
+    try:
+        return observe_batches([b], exact=exact)[0]
+    except Exception as exc:
+        return exc
+
+
+class _Read:
+    """One file's reading so far: observations (or tickets of batches still pending) and issues."""
+
+    def __init__(self, ref: FileRef) -> None:
+        self.ref = ref
+        self.parts: list[Observation | int] = []
+        self.issues: list[FileIssue] = []
+        self.declared: dict[str, str] | None = None
+        self.complete = True
+        self.opened = True  # False: the file could not even be opened; nothing more is checked
+
+    def fail(self, exc: BaseException) -> None:
+        self.complete = False
+        self.issues.append(
+            FileIssue(self.ref.rel, "internal", f"unexpected {type(exc).__name__}: {exc}; please report this file")
+        )
+
+    def not_opened(self, issue: FileIssue) -> None:
+        self.complete, self.opened = False, False
+        self.issues.append(issue)
+
+    def finish(self, pending: _Pending) -> FileResult:
+        if not self.opened:
+            return _result(self.ref, [], self.issues, None, False)
+        observations: list[Observation] = []
+        for part in self.parts:
+            got = pending.done[part] if isinstance(part, int) else part
+            if isinstance(got, Exception):
+                self.fail(got)  # as if the reader had raised there: the batches before it are kept
+                break
+            observations.append(got)
+        ref, issues = self.ref, self.issues
+        if not observations and not issues and ref.size == 0:
+            issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
+        if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
+            change = _changed(ref)
+            if change is not None:
+                self.complete = False
+                issues.append(FileIssue(ref.rel, "changed", change))
+        return _result(ref, observations, issues, self.declared, self.complete)
+
+
+def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
+    read = _Read(ref)
     try:
         if ref.format == "parquet":
-            if ref.compression is not None:
-                issues.append(
-                    FileIssue(
-                        ref.rel,
-                        "unsupported",
-                        f"{ref.compression}-compressed Parquet files are not read; Parquet compresses its pages itself",
-                    )
-                )
-                items: Iterator[Any] = iter(())
-                complete = False
-            else:
-                source: Any = ref.path
-                if is_url(ref.path):  # random access: the footer and column chunks come as ranged GETs
-                    try:
-                        source = open_random(ref.path)
-                    except OSError as exc:
-                        return _result(ref, [], [FileIssue(ref.rel, "unreadable", f"cannot open: {exc}")], None, False)
-                items = read_parquet(source, ref.rel, opts)
-            for item in items:
-                if isinstance(item, dict):
-                    declared = item
-                elif isinstance(item, FileIssue):
-                    issues.append(item)
-                    complete = complete and item.severity != "error"
-                else:
-                    observations.append(item)
+            _read_parquet(ref, opts, pending, read)
         else:
-            try:
-                opener = open_stream_remote if is_url(ref.path) else open_stream
-                raw = opener(
-                    ref.path, ref.compression, limit=opts.max_decompressed_bytes, ratio=opts.max_decompression_ratio
-                )
-            except OSError as exc:
-                kind, msg = _describe_failure(exc, None)
-                return _result(ref, [], [FileIssue(ref.rel, kind, f"cannot open: {msg}")], None, False)
-            safe = _SafeStream(raw)
-            with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
-                for item in _items(ref, opts, stream):
-                    (issues if isinstance(item, FileIssue) else observations).append(item)
-            if safe.failure is not None:
-                complete = False
-                kind, msg = _describe_failure(safe.failure, ref.compression)
-                issues.append(
-                    FileIssue(ref.rel, kind, msg, byte_offset=safe.count if ref.compression is None else None)
-                )
+            _read_stream(ref, opts, read)
     except Exception as exc:  # a reader bug must not stop the scan of the other files
-        complete = False
-        issues.append(
-            FileIssue(ref.rel, "internal", f"unexpected {type(exc).__name__}: {exc}; please report this file")
-        )
-    if not observations and not issues and ref.size == 0:
-        issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
-    if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
-        change = _changed(ref)
-        if change is not None:
-            complete = False
-            issues.append(FileIssue(ref.rel, "changed", change))
-    result = _result(ref, observations, issues, declared, complete)
-    if digest:
-        result = _with_digest(result, ref.path)
-    return result
+        read.fail(exc)
+    return read
+
+
+def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Read) -> None:
+    if ref.compression is not None:
+        read.complete = False
+        read.issues.append(FileIssue(ref.rel, "unsupported", f"{ref.compression}-compressed Parquet files are not "
+                                     "read; Parquet compresses its pages itself"))
+        return
+    source: Any = ref.path
+    if is_url(ref.path):  # random access: the footer and column chunks come as ranged GETs
+        try:
+            source = open_random(ref.path)
+        except OSError as exc:
+            read.not_opened(FileIssue(ref.rel, "unreadable", f"cannot open: {exc}"))
+            return
+    for item in read_parquet(source, ref.rel, opts):
+        if isinstance(item, dict):
+            read.declared = item
+        elif isinstance(item, FileIssue):
+            read.issues.append(item)
+            read.complete = read.complete and item.severity != "error"
+        else:
+            read.parts.append(pending.add(item))
+
+
+def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
+    try:
+        opener = open_stream_remote if is_url(ref.path) else open_stream
+        raw = opener(ref.path, ref.compression, limit=opts.max_decompressed_bytes, ratio=opts.max_decompression_ratio)
+    except OSError as exc:
+        kind, msg = _describe_failure(exc, None)
+        read.not_opened(FileIssue(ref.rel, kind, f"cannot open: {msg}"))
+        return
+    safe = _SafeStream(raw)
+    with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
+        for item in _items(ref, opts, stream):
+            (read.issues if isinstance(item, FileIssue) else read.parts).append(item)
+    if safe.failure is not None:
+        read.complete = False
+        kind, msg = _describe_failure(safe.failure, ref.compression)
+        read.issues.append(FileIssue(ref.rel, kind, msg, byte_offset=safe.count if ref.compression is None else None))
 
 
 def _result(

@@ -1,0 +1,107 @@
+"""observe.bulk: many small batches observed at once equal observe_table on each, batch by batch."""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import random
+
+import pyarrow as pa
+import pytest
+
+from driftline.observe.bulk import Batch, observe_batches
+from driftline.observe.columnar import observe_table
+
+# Values at the edges the statistics care about, each with its source.
+_FLOATS = [0.0, -0.0, 1.5, -2.25, math.nan, math.inf, -math.inf,  # source: IEEE 754 (signed zero, NaN, infinities)
+           0.1 + 0.2,  # source: IEEE 754 binary64, 0.30000000000000004
+           float(2**53), 1e308, 5e-324]  # source: IEEE 754 binary64 limits
+_INTS = [0, -1, 7, 2**53 - 1, 2**53, 2**53 + 1, -(2**53) - 5,  # source: RFC 7493 section 2.2 (exact to 2**53-1)
+         2**63 - 1, -(2**63)]  # source: int64 range
+_STRINGS = ["", " ", "n/a", "NULL", "true", "FALSE", "42", "007", "-3.25", "1e5", "12345678901234567890",
+            "0x1F", "+1", "2024-02-29", "2026-02-29",  # source: Gregorian calendar (2024 is a leap year)
+            "1985-04-12T23:20:50.52Z", "1996-12-19T16:39:57-08:00", "1990-12-31T23:59:60Z",  # source: RFC 3339 5.8
+            "1985-04-12t23:20:50.52z", "1985-04-12 23:20:50", "1985-04-12T23:20:50+0800", "déjà vu", "😀", "a\nb"]
+
+
+def _column(rng: random.Random, t: pa.DataType, n: int, null_share: float) -> pa.Array:
+    def value() -> object:
+        if rng.random() < null_share:
+            return None
+        if pa.types.is_floating(t):
+            return rng.choice(_FLOATS)
+        if pa.types.is_unsigned_integer(t):
+            return rng.choice([0, 1, 2**53 + 1, 2**64 - 1]) if t.bit_width == 64 else rng.randrange(200)
+        if pa.types.is_integer(t):
+            return rng.choice(_INTS) if t.bit_width == 64 else rng.randrange(-100, 100)
+        if pa.types.is_string(t) or pa.types.is_large_string(t):
+            return rng.choice(_STRINGS) if rng.random() < 0.7 else f"id-{rng.randrange(10**6)}"
+        if pa.types.is_boolean(t):
+            return rng.random() < 0.5
+        if pa.types.is_date(t):
+            return dt.date(rng.choice([1, 1970, 2026, 9999]), rng.randint(1, 12), rng.randint(1, 28))
+        if pa.types.is_timestamp(t):
+            return dt.datetime(rng.choice([1970, 2026]), 1, rng.randint(1, 28), rng.randrange(24), tzinfo=dt.UTC if t.tz
+                               else None)
+        return [rng.randrange(3)]  # a list: observe_table's own walk
+    return pa.array([value() for _ in range(n)], t)
+
+
+_TYPES = [pa.int8(), pa.int32(), pa.int64(), pa.uint32(), pa.uint64(), pa.float32(), pa.float64(), pa.bool_(),
+          pa.string(), pa.large_string(), pa.date32(), pa.date64(), pa.timestamp("ms"), pa.timestamp("us", "UTC"),
+          pa.list_(pa.int64())]
+
+
+def _batches(seed: int, count: int) -> list[Batch]:
+    rng = random.Random(seed)
+    out = []
+    for k in range(count):
+        n = rng.choice([1, 2, 3, 17, 200])
+        names = rng.sample(["a", "b", "c", "d", "e"], rng.randint(1, 5))
+        null_share = rng.choice([0.0, 0.0, 0.3, 1.0])
+        cols = {name: _column(rng, rng.choice(_TYPES[:3]) if name == "a" else rng.choice(_TYPES), n, null_share)
+                for name in names}
+        out.append(Batch(pa.table(cols), f"part-{k // 3:03d}.parquet", k % 3, (k % 3) * 200))
+    return out
+
+
+def _one_by_one(batches: list[Batch]) -> list:
+    return [observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start) for b in batches]
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_equal_to_observe_table_batch_by_batch(seed: int) -> None:
+    batches = _batches(seed, 60)
+    assert observe_batches(batches) == _one_by_one(batches)
+
+
+def test_strings_of_every_class_and_their_examples() -> None:
+    # Three examples per class once a lossy class repeats, else the first of each: the rule of
+    # columnar._string_stats, kept batch by batch although the batches are classified together.
+    rows = [["x", "1", "2", "3", "y"], ["1", "2", "3", "4"], ["", "", None, "2026-02-29", "2024-02-29"],
+            [None, None], ["1990-12-31T23:59:60Z", "1985-04-12t23:20:50.52z", "n/a"]]
+    batches = [Batch(pa.table({"s": pa.array(r, pa.string())}), "f.parquet", k, 10 * k) for k, r in enumerate(rows)]
+    got = observe_batches(batches)
+    assert got == _one_by_one(batches)
+    first = got[0].fields["s"]
+    assert first.classes == {"integer": 3, "text": 2}
+    assert [e.row for e in first.samples["class:integer"]] == [1, 2, 3]
+    assert [e.row for e in got[1].fields["s"].samples["class:integer"]] == [10]  # no lossy class: the first only
+    assert got[2].fields["s"].classes == {"empty": 2, "date": 1, "text": 1}  # source: 2026 is not a leap year
+    assert got[4].fields["s"].leap_seconds == 1 and got[4].fields["s"].lowercase_rfc3339 == 1  # source: RFC 3339 5.8
+
+
+def test_signed_zeros_and_nan_keep_observe_tables_extremes() -> None:
+    # source: IEEE 754: -0.0 == 0.0 and NaN compares with nothing; the extremes skip NaN
+    batches = [Batch(pa.table({"x": pa.array(v, pa.float64())}), "f.parquet", k, 0)
+               for k, v in enumerate([[0.0, -0.0], [-0.0, 0.0], [math.nan, 1.0], [math.nan], [None, -0.0, 2.0]])]
+    got = observe_batches(batches)
+    assert got == _one_by_one(batches)
+    assert got[2].fields["x"].minimum == 1.0 and got[3].fields["x"].minimum is None
+
+
+def test_repeated_column_names_and_empty_batches() -> None:
+    twice = pa.Table.from_arrays([pa.array([1, 2]), pa.array(["a", None])], names=["x", "x"])
+    batches = [Batch(twice, "a.parquet", 0, 0), Batch(pa.table({"x": pa.array([], pa.int64())}), "b.parquet", 0, 0),
+               Batch(pa.table({"x": [5]}), "c.parquet", 0, 0)]
+    assert observe_batches(batches) == _one_by_one(batches)
