@@ -32,6 +32,7 @@ from jsonschema import Draft202012Validator
 from driftline.emit.schemas.json_schema import json_schema
 from driftline.observe import paths
 from driftline.observe.records import observe_records
+from driftline.observe.stats import merge_all, merge_fields
 from driftline.profile import Profile
 from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
@@ -234,6 +235,21 @@ def test_fieldstats_merge_is_commutative_and_associative(parts):
         merged = x.merge(y).merge(z)
         assert (merged.types, merged.nulls, merged.classes, merged.items) == \
             (whole.types, whole.nulls, whole.classes, whole.items)
+
+
+@FAST
+@given(parts=st.lists(BATCHES, min_size=1, max_size=6), same_file=st.booleans())
+def test_merge_all_is_the_fold_of_merge(parts, same_file):
+    # merge_all merges many maps in one pass per path; it must equal merging them one by one,
+    # batches of one file (rows that overlap: equal places) or of several
+    obs = [observe_records(b, file="f.jsonl" if same_file else f"f{i}.jsonl", batch=i, row_start=0)
+           for i, b in enumerate(parts)]
+    folded: dict = {}
+    for o in obs:
+        folded = merge_fields(folded, o.fields)
+    merged = merge_all(o.fields for o in obs)
+    # as JSON: examples compare by place only, their values and lines must match too
+    assert [(p, st_.to_json()) for p, st_ in merged.items()] == [(p, st_.to_json()) for p, st_ in folded.items()]
 
 
 @FAST

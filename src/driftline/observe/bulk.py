@@ -12,7 +12,7 @@ tests/test_bulk.py holds every Observation equal to observe_table's.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from itertools import accumulate
 from typing import Any
@@ -58,15 +58,18 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
     groups: dict[tuple[str, pa.DataType], list[tuple[int, pa.Array]]] = {}
     for i, b in enumerate(batches):
         names = b.data.column_names
-        alone = len(set(names)) != len(names)  # repeated names: observe_table's last one wins, in order
+        if len(set(names)) != len(names) or not b.data.num_rows:  # repeated names: the last one wins, in order
+            out[i].update(observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start).fields)
+            continue
         for name, col in zip(names, b.data.columns, strict=True):
             arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
-            if not alone and len(arr) and _kind(arr.type) is not None:
-                groups.setdefault((name, arr.type), []).append((i, arr))
-            else:
-                out[i].update(observe_column(arr, name, file=b.file, row_start=b.row_start))
+            groups.setdefault((name, arr.type), []).append((i, arr))
     for (name, t), members in groups.items():
-        _observe_group(paths.child(None, name), t, members, batches, out)
+        if _kind(t) is None:  # observe_table's own walk, batch by batch
+            for i, arr in members:
+                out[i].update(observe_column(arr, name, file=batches[i].file, row_start=batches[i].row_start))
+        else:
+            _observe_group(paths.child(None, name), t, members, batches, out)
     return [
         Observation(file=b.file, batch=b.batch, row_start=b.row_start, rows=b.data.num_rows,
                     fields=dict(sorted(out[i].items())))
@@ -128,16 +131,24 @@ def _observe_group(path: str, t: pa.DataType, members: list[tuple[int, pa.Array]
         extras = _strings(g, [batches[i] for i, _ in members], samples)
     else:
         extras = [{} for _ in members]
+    firsts = _values(g, [g.starts[k] + v for k, v in enumerate(first_valid) if v is not None], kind)
+    null_text = value_text(None)
     for k, (i, arr) in enumerate(members):
         b, s = batches[i], samples[k]
         if first_null[k] is not None:
-            s["null"] = (Example(b.file, b.row_start + first_null[k], None, value_text(None)),)
+            s["null"] = (Example(b.file, b.row_start + first_null[k], None, null_text),)
         if first_valid[k] is not None:
-            value = _scalar(g.col[g.starts[k] + first_valid[k]])
-            s["type:" + key] = (Example(b.file, b.row_start + first_valid[k], None, value_text(value)),)
+            s["type:" + key] = (Example(b.file, b.row_start + first_valid[k], None, value_text(next(firsts))),)
         nonnull = len(arr) - arr.null_count
         out[i][path] = FieldStats(types={key: nonnull} if nonnull else {}, nulls=arr.null_count,
                                   samples=dict(sorted(s.items())), **extras[k])
+
+
+def _values(g: _Group, at: list[int], kind: str | None) -> Iterator[Any]:
+    """The values at these positions as observe_table shows them (columnar._scalar)."""
+    if kind == "temporal":  # dates out of Python's range need _scalar's care, value by value
+        return (_scalar(g.col[j]) for j in at)
+    return iter(g.col.take(pa.array(at, pa.int64())).to_pylist())
 
 
 def _firsts(g: _Group) -> tuple[list[int | None], list[int | None]]:
@@ -218,16 +229,14 @@ def _strings(g: _Group, batches: list[Batch], samples: list[dict[str, tuple[Exam
                                firsts, strict=True):
         found[gk][kk] = (n, rows)
     columns = {name: totals[name].to_pylist() for name in ("len_max", "int_max", "frac_max", "leap_sum", "lower_sum")}
+    picked: list[tuple[int, str, list[int]]] = []  # (batch, sample key, positions)
     for k, arr in enumerate(g.arrays):
         if arr.null_count == len(arr):
             continue
         per_class = dict(sorted(found[k].items()))
         many = any(per_class.get(c, (0,))[0] > 1 for c in _LOSSY)
-        b = batches[k]
-        for c, (n, rows) in per_class.items():
-            picks = rows if many and n > 1 else rows[:1]
-            samples[k]["class:" + CLASSES[c]] = tuple(
-                Example(b.file, b.row_start + j - g.starts[k], None, value_text(g.col[j].as_py())) for j in picks)
+        picked.extend((k, "class:" + CLASSES[c], rows if many and n > 1 else rows[:1])
+                      for c, (n, rows) in per_class.items())
         extras[k] = {
             "classes": {CLASSES[c]: n for c, (n, _) in per_class.items()},
             "max_length": int(columns["len_max"][k] or 0),
@@ -236,4 +245,8 @@ def _strings(g: _Group, batches: list[Batch], samples: list[dict[str, tuple[Exam
             "leap_seconds": int(columns["leap_sum"][k] or 0),
             "lowercase_rfc3339": int(columns["lower_sum"][k] or 0),
         }
+    values = _values(g, [j for _, _, rows in picked for j in rows], "string")
+    for k, name, rows in picked:
+        b, start = batches[k], batches[k].row_start - g.starts[k]
+        samples[k][name] = tuple(Example(b.file, start + j, None, value_text(next(values))) for j in rows)
     return extras

@@ -6,7 +6,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
-from driftline.observe.stats import FieldStats
+from driftline.observe.stats import FieldStats, pickled_by_fields
 
 # Inferred type of a text cell (CSV/TSV) by its content class; None means null.
 TEXT_CLASS_TYPE: dict[str, str | None] = {
@@ -24,6 +24,7 @@ TEXT_CLASS_TYPE: dict[str, str | None] = {
 }
 
 
+@pickled_by_fields
 @dataclass(frozen=True, slots=True)
 class Observation:
     """One batch: the file it came from, its place in the file, and per path statistics.

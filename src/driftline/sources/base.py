@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from driftline.observe.observation import Observation
+from driftline.observe.stats import pickled_by_fields
 
 DEFAULT_BATCH_ROWS = 65_536
 DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
@@ -61,6 +62,7 @@ class ReadOptions:
             raise ValueError(f"max_decompression_ratio must be at least 1, got {self.max_decompression_ratio}")
 
 
+@pickled_by_fields
 @dataclass(frozen=True, slots=True)
 class FileIssue:
     """A problem in one file, with where it is. Warnings do not lose data; errors may."""
@@ -107,6 +109,7 @@ class FileIssue:
         return ", ".join(parts)
 
 
+@pickled_by_fields
 @dataclass(frozen=True, slots=True)
 class FileResult:
     """Everything one file contributed to a scan."""
