@@ -62,7 +62,7 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
             out[i].update(observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start).fields)
             continue
         for name, col in zip(names, b.data.columns, strict=True):
-            arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
+            arr = _whole(col)
             groups.setdefault((name, arr.type), []).append((i, arr))
     for (name, t), members in groups.items():
         if _kind(t) is None:  # observe_table's own walk, batch by batch
@@ -75,6 +75,12 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
                     fields=dict(sorted(out[i].items())))
         for i, b in enumerate(batches)
     ]
+
+
+def _whole(col: pa.Array | pa.ChunkedArray) -> pa.Array:
+    if not isinstance(col, pa.ChunkedArray):
+        return col
+    return col.chunk(0) if col.num_chunks == 1 else col.combine_chunks()  # one chunk: no copy
 
 
 def _kind(t: pa.DataType) -> str | None:
