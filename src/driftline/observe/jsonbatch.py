@@ -26,6 +26,7 @@ of them, so they are the same examples the exact walk over the whole batch would
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -86,47 +87,111 @@ class _Batch:
 def parse_lines(data: bytes, hint: pa.Schema | None) -> tuple[pa.Table | None, str]:
     """Arrow's parse of newline-terminated JSON objects, with timestamps kept as strings.
 
-    Returns (table, "") or (None, Arrow's message).  A hint is tried first, then inference.
+    Returns (table, "") or (None, Arrow's message).  A hint (the schema of an earlier
+    batch) is tried first.  Where Arrow says a hinted field changed kind, the field is
+    dropped from the hint and inferred: either its kind changed since that batch, or this
+    batch holds two kinds of it, which the parse without it then reports.  Any other
+    failure drops the hint.  Without a hint, the types of the first lines are learnt
+    first, so that a field of RFC 3339-looking strings (which Arrow types as timestamps)
+    is declared a string and the batch is parsed once rather than twice.
 
     >>> table, _ = parse_lines(b'{"t": "1985-04-12T23:20:50Z"}\\n', None)
     >>> table.schema.field("t").type
     DataType(string)
     """
-    buf = pa.py_buffer(data)
+    schema = hint if hint is not None else _probe(data)
     table, why = None, ""
-    for schema in ((hint, None) if hint is not None else (None,)):
+    for _ in range(_MAX_HINT_DROPS):
         try:
-            po = pj.ParseOptions(explicit_schema=schema, unexpected_field_behavior="infer", newlines_in_values=False)
-            table = pj.read_json(pa.BufferReader(buf), parse_options=po)
+            table = _read(data, schema)
             break
         except _ARROW_FAILS as exc:
             why = str(exc)
+        if schema is None:
+            return None, why
+        top = conflict_field(why)
+        if top is None:
+            schema = None  # not a change of kind: infer everything
+        elif top in schema.names:
+            schema = schema.remove(schema.get_field_index(top))
+        else:
+            return None, why  # an inferred field of two kinds: the caller sets the rarer aside
     if table is None:
         return None, why
-    try:
-        # pyarrow 26.0.1 can build a list whose offsets overrun its values when a list starts
-        # with null ('[null, "x"]'); such a table is never used.
-        table.validate(full=True)
-    except pa.ArrowInvalid:
+    if not _valid(table):
         return None, ""
     if _has_temporal(table.schema):
         # Arrow types RFC 3339-looking strings as timestamps; the profile wants the strings.
         try:
-            po = pj.ParseOptions(explicit_schema=_strings_for_temporal(table.schema), unexpected_field_behavior="infer",
-                                 newlines_in_values=False)
-            table = pj.read_json(pa.BufferReader(buf), parse_options=po)
+            table = _read(data, _strings_for_temporal(table.schema))
         except _ARROW_FAILS as exc:
             return None, str(exc)
         if _has_temporal(table.schema):
             return None, "timestamps inferred again"
-        try:
-            table.validate(full=True)
-        except pa.ArrowInvalid:
+        if not _valid(table):
             return None, ""
     return table, ""
 
 
+_MAX_HINT_DROPS = 4
 _ARROW_FAILS = (pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError, UnicodeDecodeError)
+_PROBE_BYTES = 64 * 1024
+_CONFLICT_FIELD = re.compile(r"Column\(/([^/)]*)[/)].* changed from \w+ to \w+")
+
+
+def conflict_field(why: str) -> str | None:
+    """The top-level field of a change of kind Arrow reports ("Column(/a/b) changed from ...").
+
+    >>> conflict_field("JSON parse error: Column(/pos/lat) changed from number to string in row 3")
+    'pos'
+    """
+    m = _CONFLICT_FIELD.search(why)
+    return m.group(1) if m else None
+
+
+def _read(data: bytes, schema: pa.Schema | None) -> pa.Table:
+    po = pj.ParseOptions(explicit_schema=schema, unexpected_field_behavior="infer", newlines_in_values=False)
+    return pj.read_json(pa.BufferReader(pa.py_buffer(data)), parse_options=po)
+
+
+def _valid(table: pa.Table) -> bool:
+    # pyarrow 26.0.1 can build a list whose offsets overrun its values when a list starts
+    # with null ('[null, "x"]'); such a table is never used.
+    try:
+        table.validate(full=True)
+    except pa.ArrowInvalid:
+        return False
+    return True
+
+
+def _probe(data: bytes) -> pa.Schema | None:
+    """A hint from the first lines when they hold timestamps, else None (plain inference).
+
+    Only fields whose type the first lines settle are declared: one that is null there,
+    or holds a null-typed part (an empty list), is left to inference.  A declared type
+    the later lines contradict costs a retry in parse_lines, never a different table
+    shape than the exact checks expect.
+    """
+    end = data.find(b"\n", _PROBE_BYTES)
+    if end < 0 or end + 1 >= len(data):
+        return None  # the batch is hardly larger than the probe
+    try:
+        head = _read(data[: end + 1], None).schema
+    except _ARROW_FAILS:
+        return None
+    if not _has_temporal(head):
+        return None
+    return pa.schema([f for f in _strings_for_temporal(head) if not _has_null(f.type)])
+
+
+def _has_null(t: pa.DataType) -> bool:
+    if pa.types.is_null(t):
+        return True
+    if pa.types.is_struct(t):
+        return any(_has_null(f.type) for f in t)
+    if pa.types.is_list(t):
+        return _has_null(t.value_type)
+    return False
 
 
 def _has_temporal(schema: pa.Schema | pa.DataType) -> bool:
@@ -168,7 +233,8 @@ def observe_json_lines(
 
     Returns the observation and a Hint for the next batch, or None when the batch must
     take the exact walk.  Rows Arrow cannot type with the rest (a list that is sometimes
-    a scalar) are set aside and walked exactly; the two parts merge.
+    a scalar, a number that became a string) are set aside: a few are walked exactly,
+    many are typed by Arrow on their own; the parts merge.
 
     >>> obs, _ = observe_json_lines([b'{"a": 1, "b": null}', b'{"a": 2.5}'], file="f.jsonl", batch=0,
     ...                             row_start=0, first_line=1)
@@ -176,59 +242,35 @@ def observe_json_lines(
     ({'float64': 1, 'int64': 1}, 1)
     """
     n = len(lines)
-    if n == 0 or sum(map(len, lines)) + n >= 2**31:
+    if n == 0:
         return None
+    data = b"\n".join(lines) + b"\n"
+    if len(data) >= 2**31:
+        return None  # Arrow's binary offsets are 32-bit
     arr = pa.array(lines, pa.binary())
-    aside = linetext.odd_rows(lines, arr)
-    if aside is None:
+    walk_only = linetext.odd_rows(lines, arr, data)
+    if walk_only is None:
         return None
-    schema, patterns = (hint.schema, []) if hint is not None else (None, [])
+    aside: dict[tuple[str, str], set[int]] = {}  # rows set aside, by the pattern that found them
     for pattern in hint.patterns if hint is not None else ():
-        rows = linetext.matching(arr, pattern)  # the odd rows of the last batch are likely odd here too
-        if len(rows) * 4 <= n:  # ... while they stay few
-            aside |= rows
-            patterns.append(pattern)
-    table, keep = None, None
-    for _ in range(_MAX_SET_ASIDE_ROUNDS):
-        keep = None if not aside else [i for i in range(n) if i not in aside]
-        part = lines if keep is None else [lines[i] for i in keep]
-        if not part:
-            break
-        table, why = parse_lines(b"\n".join(part) + b"\n", schema)
-        if table is not None:
-            if table.num_rows != len(part):
-                return None  # several values on one line
-            break
-        found = linetext.conflict_rows(arr, why) if why else None
-        if found is None or found[0] <= aside:
-            return None
-        aside |= found[0]
-        if found[1] not in patterns:
-            patterns.append(found[1])
-    if table is None and keep:
+        rows = linetext.matching(data, pattern, n // 4)  # the odd rows of the last batch are likely odd here too
+        if rows is not None:  # ... while they stay few
+            aside[pattern] = rows - walk_only
+    text = _Text(lines, arr, data, (file, batch, row_start, first_line))
+    got = _observe_part(text, None, walk_only, aside, hint.schema if hint is not None else None)
+    if got is None:
         return None
-    where = (file, batch, row_start, first_line)
-    groups: list[dict[str, FieldStats]] = []
-    if table is not None:
-        got = _observe_table(table, arr, lines, None if keep is None else pa.array(keep, pa.int64()), where)
-        if got is None:
-            return None
-        groups.append(got)
-    if aside:
-        rows = sorted(aside)
-        try:
-            records = [orjson.loads(lines[r]) for r in rows]
-        except orjson.JSONDecodeError:
-            return None
-        groups.append(_walk(records, rows, where))
-    fields = _merge_groups(groups)
+    fields = _merge_groups(got[0])
     if fields is None:
         return None
     obs = Observation(file=file, batch=batch, row_start=row_start, rows=n, fields=fields)
-    return obs, Hint(table.schema if table is not None else schema, tuple(patterns))
+    return obs, Hint(got[1], tuple(aside))
 
 
 _MAX_SET_ASIDE_ROUNDS = 4
+ARROW_ASIDE_MIN = 512  # set-aside rows from this many on are typed by Arrow, not walked (about 50 µs a row)
+
+Where = tuple[str, int, int, int]  # file, batch, row_start, first_line
 
 
 @dataclass(frozen=True, slots=True)
@@ -239,20 +281,104 @@ class Hint:
     patterns: tuple[tuple[str, str], ...] = ()  # (the key's text, the kind its odd rows hold)
 
 
-def _walk(records: list[Any], rows: list[int], where: tuple[str, int, int, int]) -> dict[str, FieldStats]:
+@dataclass(frozen=True, slots=True)
+class _Text:
+    """One batch's lines: as bytes, as an Arrow array, and joined (each ending in a newline)."""
+
+    lines: Sequence[bytes]
+    arr: pa.BinaryArray
+    data: bytes
+    where: Where
+
+
+def _observe_part(
+    text: _Text, rows: list[int] | None, walk_only: set[int], aside: dict[tuple[str, str], set[int]],
+    schema: pa.Schema | None,
+) -> tuple[list[dict[str, FieldStats]], pa.Schema | None] | None:
+    """Observe some rows of a batch (all when rows is None): (groups of disjoint rows, Arrow's schema).
+
+    Arrow parses the rows neither walk_only nor aside; when it names a field of two kinds,
+    the rows of the rarer kind are set aside under the pattern that finds them, and the
+    rest is parsed again.  When rows is None, the largest group set aside, if it is large
+    (a field that changed kind within the batch), is observed the same way on its own;
+    the other rows set aside are walked exactly with walk_only.
+    """
+    table, keep = None, None
+    sub_rows = None if rows is None else pa.array(rows, pa.int64())
+    for _ in range(_MAX_SET_ASIDE_ROUNDS):
+        out = walk_only.union(*aside.values())
+        keep, data = _kept(text, rows, out)
+        if keep is not None and not keep:
+            break
+        table, why = parse_lines(data, schema)
+        if table is not None:
+            if table.num_rows != (len(keep) if keep is not None else len(text.lines)):
+                return None  # several values on one line
+            break
+        found = linetext.conflict_rows(text.arr, why, sub_rows) if why else None
+        if found is None:
+            return None
+        odd = found[0] - walk_only
+        if odd <= out:
+            return None
+        aside[found[1]] = aside.get(found[1], set()) | odd
+    if table is None and keep:
+        return None
+    groups: list[dict[str, FieldStats]] = []
+    if table is not None:
+        got = _observe_table(table, text, None if keep is None else pa.array(keep, pa.int64()))
+        if got is None:
+            return None
+        groups.append(got)
+    walked = walk_only.union(*aside.values())
+    big = max(aside.values(), key=len, default=set())
+    if rows is None and len(big) >= ARROW_ASIDE_MIN:
+        # A field that changed kind within the batch: the rows of its other kind type together.
+        own = big.difference(*(g for g in aside.values() if g is not big))
+        sub = _observe_part(text, sorted(own), set(), {}, table.schema if table is not None else schema)
+        if sub is not None:
+            groups += sub[0]
+            walked -= own
+    if walked:
+        at = sorted(walked)
+        try:
+            records = [orjson.loads(text.lines[r]) for r in at]
+        except orjson.JSONDecodeError:
+            return None
+        groups.append(_walk(records, at, text.where))
+    return groups, table.schema if table is not None else schema
+
+
+def _kept(text: _Text, rows: list[int] | None, out: set[int]) -> tuple[list[int] | None, bytes]:
+    """The rows (of rows, or of the batch) not in out, and their lines joined; None: the whole batch."""
+    if rows is None and not out:
+        return None, text.data
+    lines = text.lines
+    if rows is None:
+        keep: list[int] = []
+        part: list[bytes] = []
+        prev = 0
+        for r in sorted(out):  # runs of kept lines between the rows left out
+            keep.extend(range(prev, r))
+            part.extend(lines[prev:r])
+            prev = r + 1
+        keep.extend(range(prev, len(lines)))
+        part.extend(lines[prev:])
+    else:
+        keep = [r for r in rows if r not in out]
+        part = [lines[r] for r in keep]
+    return keep, b"\n".join(part) + b"\n" if part else b""
+
+
+def _walk(records: list[Any], rows: list[int], where: Where) -> dict[str, FieldStats]:
     file, batch, row_start, first_line = where
     lines_of = [first_line + r for r in rows]
     return observe_records(records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows).fields
 
 
-Where = tuple[str, int, int, int]  # file, batch, row_start, first_line
-
-
-def _observe_table(
-    table: pa.Table, arr: pa.BinaryArray, lines: Sequence[bytes], keep: pa.Array | None, where: Where,
-) -> dict[str, FieldStats] | None:
+def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[str, FieldStats] | None:
     """One parsed table (rows keep of the batch, or all): columnar counts, the walk for the rest."""
-    b = _Batch(arr, len(arr), table.schema)
+    b = _Batch(text.arr, len(text.arr), table.schema)
     try:
         for name, col in zip(table.column_names, table.columns, strict=True):
             # One chunk is the common case; concatenating a struct with null-typed children
@@ -263,10 +389,10 @@ def _observe_table(
         return None
     rows = _needed_rows(b)
     try:
-        records = [orjson.loads(lines[r]) for r in rows]
+        records = [orjson.loads(text.lines[r]) for r in rows]
     except orjson.JSONDecodeError:
         return None  # Arrow took a line orjson refuses
-    return _combine(b.partials, _walk(records, rows, where), pa.array(rows, pa.int64()))
+    return _combine(b.partials, _walk(records, rows, text.where), pa.array(rows, pa.int64()))
 
 
 def _merge_groups(groups: list[dict[str, FieldStats]]) -> dict[str, FieldStats] | None:
