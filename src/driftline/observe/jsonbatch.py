@@ -79,9 +79,18 @@ class _Batch:
         if len(positions):
             self.rows_needed.append(positions if rows is None else rows.take(positions))
 
-    def need_first(self, rows: pa.Array | None, mask: pa.Array) -> None:
-        """The rows of the first SAMPLES_PER_KEY true positions of a mask."""
-        self.need(rows, pc.indices_nonzero(mask).slice(0, SAMPLES_PER_KEY))
+    def need_first(self, rows: pa.Array | None, mask: pa.Array | None, length: int) -> None:
+        """The rows of the first SAMPLES_PER_KEY true positions of a mask over length places (None: all true)."""
+        if mask is None:
+            self.need(rows, pa.array(range(min(SAMPLES_PER_KEY, length)), pa.int64()))
+            return
+        head = mask.slice(0, _HEAD)  # the first few are usually near the start: no pass over the whole mask
+        if head.true_count < SAMPLES_PER_KEY:
+            head = mask
+        self.need(rows, pc.indices_nonzero(head).slice(0, SAMPLES_PER_KEY))
+
+
+_HEAD = 256
 
 
 def parse_lines(data: bytes, hint: pa.Schema | None) -> tuple[pa.Table | None, str]:
@@ -353,21 +362,26 @@ def _kept(text: _Text, rows: list[int] | None, out: set[int]) -> tuple[list[int]
     """The rows (of rows, or of the batch) not in out, and their lines joined; None: the whole batch."""
     if rows is None and not out:
         return None, text.data
-    lines = text.lines
-    if rows is None:
-        keep: list[int] = []
-        part: list[bytes] = []
-        prev = 0
-        for r in sorted(out):  # runs of kept lines between the rows left out
-            keep.extend(range(prev, r))
-            part.extend(lines[prev:r])
-            prev = r + 1
-        keep.extend(range(prev, len(lines)))
-        part.extend(lines[prev:])
-    else:
-        keep = [r for r in rows if r not in out]
-        part = [lines[r] for r in keep]
-    return keep, b"\n".join(part) + b"\n" if part else b""
+    if rows is not None:
+        kept = [r for r in rows if r not in out]
+        return kept, b"\n".join([text.lines[r] for r in kept]) + b"\n" if kept else b""
+    # The kept lines are runs of the joined batch between the rows left out: slices, no re-join per line.
+    gone = sorted(out)
+    n = len(text.lines)
+    arr = text.arr
+    offsets = pa.Array.from_buffers(pa.int32(), len(arr) + 1, [None, arr.buffers()[1]], offset=arr.offset)
+    starts = offsets.take(pa.array([i for r in gone for i in (r, r + 1)], pa.int64())).to_pylist()
+    keep: list[int] = []
+    pieces: list[memoryview] = []
+    data = memoryview(text.data)
+    prev, at = 0, 0  # first kept row of the run, and its byte offset in text.data
+    for k, r in enumerate(gone):
+        keep.extend(range(prev, r))
+        pieces.append(data[at : starts[2 * k] + r])  # line i starts at offsets[i] + i (one newline each)
+        prev, at = r + 1, starts[2 * k + 1] + r + 1
+    keep.extend(range(prev, n))
+    pieces.append(data[at:])
+    return keep, b"".join(pieces)
 
 
 def _walk(records: list[Any], rows: list[int], where: Where) -> dict[str, FieldStats]:
@@ -462,15 +476,18 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
     b.partials[path] = part
     if pa.types.is_null(t) or part.nonnull == 0:
         return
-    valid = pc.is_valid(arr)
-    b.need_first(rows, valid)
+    valid = pc.is_valid(arr) if nulls_arrow else None
+    b.need_first(rows, valid, length)
     if pa.types.is_boolean(t):
         part.types = {"bool": part.nonnull}
     elif pa.types.is_int64(t):
         part.types = {"int64": part.nonnull}
         mm = pc.min_max(arr)
-        big = pc.or_(pc.greater(arr, SAFE_INT), pc.less(arr, -SAFE_INT))
-        part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py(), "unsafe_ints": big.true_count}
+        lo, hi = mm["min"].as_py(), mm["max"].as_py()
+        unsafe = 0
+        if lo < -SAFE_INT or hi > SAFE_INT:  # only then count the integers a double cannot hold exactly
+            unsafe = pc.or_(pc.greater(arr, SAFE_INT), pc.less(arr, -SAFE_INT)).true_count
+        part.extra = {"minimum": lo, "maximum": hi, "unsafe_ints": unsafe}
     elif pa.types.is_float64(t):
         _doubles(arr, rows, part, b, name, listed)
     elif pa.types.is_string(t):
@@ -500,11 +517,14 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
 
 def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, name: str | None,
              listed: bool) -> None:
-    finite = pc.is_finite(arr)
-    if pc.sum(pc.invert(finite)).as_py():
+    if not pc.all(pc.is_finite(arr)).as_py():  # over the values (there is one at least)
         raise NotExact("NaN or Infinity: not JSON, orjson refuses the line")
-    integral = pc.fill_null(pc.equal(pc.floor(arr), arr), False)
-    fractional = pc.and_(pc.is_valid(arr), pc.invert(integral))
+    integral = pc.equal(pc.floor(arr), arr)
+    if arr.null_count:
+        integral = pc.fill_null(integral, False)
+        fractional = pc.and_(pc.is_valid(arr), pc.invert(integral))
+    else:
+        fractional = pc.invert(integral)
     part.types = {"float64": part.nonnull}
     if integral.true_count:
         # 1 or 1.0, 2**64 or 1.8e19: the line's text tells, or else the walk.
@@ -526,7 +546,7 @@ def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, na
             part.text_ints = (int_rows, values.filter(is_int))
             part.text_floats = (float_rows, values.filter(float_mask))
             b.rows_needed += [unsettled, int_rows.slice(0, SAMPLES_PER_KEY), float_rows.slice(0, SAMPLES_PER_KEY)]
-    b.need_first(rows, fractional)
+    b.need_first(rows, fractional, len(arr))
     if fractional.true_count:
         mm = pc.min_max(arr.filter(fractional))
         part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py()}
