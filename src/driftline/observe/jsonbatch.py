@@ -144,7 +144,7 @@ def parse_lines(data: bytes, hint: pa.Schema | None) -> tuple[pa.Table | None, s
 
 _MAX_HINT_DROPS = 4
 _ARROW_FAILS = (pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError, UnicodeDecodeError)
-_PROBE_BYTES = 64 * 1024
+PROBE_BYTES = 64 * 1024
 _CONFLICT_FIELD = re.compile(r"Column\(/([^/)]*)[/)].* changed from \w+ to \w+")
 
 
@@ -181,7 +181,7 @@ def _probe(data: bytes) -> pa.Schema | None:
     the later lines contradict costs a retry in parse_lines, never a different table
     shape than the exact checks expect.
     """
-    end = data.find(b"\n", _PROBE_BYTES)
+    end = data.find(b"\n", PROBE_BYTES)
     if end < 0 or end + 1 >= len(data):
         return None  # the batch is hardly larger than the probe
     try:
@@ -302,15 +302,15 @@ class _Text:
 
 def _observe_part(
     text: _Text, rows: list[int] | None, walk_only: set[int], aside: dict[tuple[str, str], set[int]],
-    schema: pa.Schema | None,
+    schema: pa.Schema | None, depth: int = 0,
 ) -> tuple[list[dict[str, FieldStats]], pa.Schema | None] | None:
     """Observe some rows of a batch (all when rows is None): (groups of disjoint rows, Arrow's schema).
 
     Arrow parses the rows neither walk_only nor aside; when it names a field of two kinds,
     the rows of the rarer kind are set aside under the pattern that finds them, and the
-    rest is parsed again.  When rows is None, the largest group set aside, if it is large
-    (a field that changed kind within the batch), is observed the same way on its own;
-    the other rows set aside are walked exactly with walk_only.
+    rest is parsed again.  The rows of the large groups set aside (fields that changed kind
+    within the batch) are observed the same way on their own, to _MAX_DEPTH; the other
+    rows set aside are walked exactly with walk_only.
     """
     table, keep = None, None
     sub_rows = None if rows is None else pa.array(rows, pa.int64())
@@ -340,11 +340,11 @@ def _observe_part(
             return None
         groups.append(got)
     walked = walk_only.union(*aside.values())
-    big = max(aside.values(), key=len, default=set())
-    if rows is None and len(big) >= ARROW_ASIDE_MIN:
-        # A field that changed kind within the batch: the rows of its other kind type together.
-        own = big.difference(*(g for g in aside.values() if g is not big))
-        sub = _observe_part(text, sorted(own), set(), {}, table.schema if table is not None else schema)
+    large = set().union(*(g for g in aside.values() if len(g) >= ARROW_ASIDE_MIN))
+    own = large.difference(*(g for g in aside.values() if len(g) < ARROW_ASIDE_MIN))
+    if own and depth < _MAX_DEPTH and (rows is None or len(own) < len(rows)):
+        # Fields that changed kind within the batch: the rows of their other kinds type together.
+        sub = _observe_part(text, sorted(own), set(), {}, table.schema if table is not None else schema, depth + 1)
         if sub is not None:
             groups += sub[0]
             walked -= own
@@ -356,6 +356,9 @@ def _observe_part(
             return None
         groups.append(_walk(records, at, text.where))
     return groups, table.schema if table is not None else schema
+
+
+_MAX_DEPTH = 2  # rows set aside, and rows set aside among those, are typed by Arrow; deeper ones walked
 
 
 def _kept(text: _Text, rows: list[int] | None, out: set[int]) -> tuple[list[int] | None, bytes]:
