@@ -39,9 +39,9 @@ def walked(monkeypatch: pytest.MonkeyPatch) -> Iterator[list[int]]:
     rows: list[int] = []
     real = jsonbatch._walk
 
-    def counting(records: list[Any], at: list[int], where: jsonbatch.Where) -> Any:
+    def counting(records: list[Any], at: list[int], where: jsonbatch.Where, samples_only: bool = False) -> Any:
         rows.extend(at)
-        return real(records, at, where)
+        return real(records, at, where, samples_only)
 
     monkeypatch.setattr(jsonbatch, "_walk", counting)
     yield rows

@@ -102,13 +102,15 @@ def parse_lines(data: bytes, hint: pa.Schema | None) -> tuple[pa.Table | None, s
     batch holds two kinds of it, which the parse without it then reports.  Any other
     failure drops the hint.  Without a hint, the types of the first lines are learnt
     first, so that a field of RFC 3339-looking strings (which Arrow types as timestamps)
-    is declared a string and the batch is parsed once rather than twice.
+    is declared a string and the batch is parsed once rather than twice; a field those
+    lines typed that changes kind later holds two kinds in this batch, and is reported.
 
     >>> table, _ = parse_lines(b'{"t": "1985-04-12T23:20:50Z"}\\n', None)
     >>> table.schema.field("t").type
     DataType(string)
     """
     schema = hint if hint is not None else _probe(data)
+    probed = hint is None
     table, why = None, ""
     for _ in range(_MAX_HINT_DROPS):
         try:
@@ -121,7 +123,7 @@ def parse_lines(data: bytes, hint: pa.Schema | None) -> tuple[pa.Table | None, s
         top = conflict_field(why)
         if top is None:
             schema = None  # not a change of kind: infer everything
-        elif top in schema.names:
+        elif top in schema.names and not probed:
             schema = schema.remove(schema.get_field_index(top))
         else:
             return None, why  # an inferred field of two kinds: the caller sets the rarer aside
@@ -314,6 +316,7 @@ def _observe_part(
     """
     table, keep = None, None
     sub_rows = None if rows is None else pa.array(rows, pa.int64())
+    changed: set[str] = set()  # top-level fields Arrow found of two kinds here
     for _ in range(_MAX_SET_ASIDE_ROUNDS):
         out = walk_only.union(*aside.values())
         keep, data = _kept(text, rows, out)
@@ -331,6 +334,7 @@ def _observe_part(
         if odd <= out:
             return None
         aside[found[1]] = aside.get(found[1], set()) | odd
+        changed.add(conflict_field(why) or "")
     if table is None and keep:
         return None
     groups: list[dict[str, FieldStats]] = []
@@ -344,7 +348,9 @@ def _observe_part(
     own = large.difference(*(g for g in aside.values() if len(g) < ARROW_ASIDE_MIN))
     if own and depth < _MAX_DEPTH and (rows is None or len(own) < len(rows)):
         # Fields that changed kind within the batch: the rows of their other kinds type together.
-        sub = _observe_part(text, sorted(own), set(), {}, table.schema if table is not None else schema, depth + 1)
+        # Their hint is this part's schema without the fields of two kinds: those the rows hold otherwise.
+        hint = _without_fields(table.schema if table is not None else schema, changed)
+        sub = _observe_part(text, sorted(own), set(), {}, hint, depth + 1)
         if sub is not None:
             groups += sub[0]
             walked -= own
@@ -356,6 +362,12 @@ def _observe_part(
             return None
         groups.append(_walk(records, at, text.where))
     return groups, table.schema if table is not None else schema
+
+
+def _without_fields(schema: pa.Schema | None, names: set[str]) -> pa.Schema | None:
+    if schema is None:
+        return None
+    return pa.schema([f for f in schema if f.name not in names])
 
 
 _MAX_DEPTH = 2  # rows set aside, and rows set aside among those, are typed by Arrow; deeper ones walked
@@ -387,10 +399,11 @@ def _kept(text: _Text, rows: list[int] | None, out: set[int]) -> tuple[list[int]
     return keep, b"".join(pieces)
 
 
-def _walk(records: list[Any], rows: list[int], where: Where) -> dict[str, FieldStats]:
+def _walk(records: list[Any], rows: list[int], where: Where, samples_only: bool = False) -> dict[str, FieldStats]:
     file, batch, row_start, first_line = where
     lines_of = [first_line + r for r in rows]
-    return observe_records(records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows).fields
+    return observe_records(records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows,
+                           samples_only=samples_only).fields
 
 
 def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[str, FieldStats] | None:
@@ -409,7 +422,9 @@ def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[
         records = [orjson.loads(text.lines[r]) for r in rows]
     except orjson.JSONDecodeError:
         return None  # Arrow took a line orjson refuses
-    return _combine(b.partials, _walk(records, rows, text.where), pa.array(rows, pa.int64()))
+    # The columns gave the string statistics: the walk over these rows is for examples, counts
+    # of nulls and of integer literals, and extremes.
+    return _combine(b.partials, _walk(records, rows, text.where, samples_only=True), pa.array(rows, pa.int64()))
 
 
 def _merge_groups(groups: list[dict[str, FieldStats]]) -> dict[str, FieldStats] | None:
