@@ -6,6 +6,7 @@ in bulk, so the per-value Python work is only the walk itself.
 
 from __future__ import annotations
 
+import functools
 import sys
 from collections.abc import Sequence
 from typing import Any
@@ -85,6 +86,11 @@ def _int_key(v: int) -> str:
     return "uint64" if 0 <= v < 2**64 else "decimal(39,0)"
 
 
+# Child paths repeat in every record; quoting a name is a regular-expression match, so the
+# walk remembers the last few thousand (bounded: a file may hold any number of distinct keys).
+_child = functools.lru_cache(maxsize=8192)(paths.child)
+
+
 def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> None:
     acc = accs.get(path)
     if acc is None:
@@ -114,7 +120,7 @@ def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> Non
             raise DepthExceeded(f"nesting deeper than {MAX_DEPTH} levels")
         acc.count("struct", row, v)
         for name, sub in v.items():
-            _walk(sub, paths.child(path, name), row, accs, depth + 1)
+            _walk(sub, _child(path, name), row, accs, depth + 1)
     elif t is list:
         if depth >= MAX_DEPTH:
             raise DepthExceeded(f"nesting deeper than {MAX_DEPTH} levels")
@@ -156,7 +162,7 @@ def observe_records(
     for i, rec in enumerate(records):
         if type(rec) is dict:
             for name, sub in rec.items():
-                _walk(sub, paths.child(None, name), i, accs, 1)
+                _walk(sub, _child(None, name), i, accs, 1)
         else:
             _walk(rec, paths.ROOT, i, accs, 0)
     where = _Where(file, row_start, lines, rows)
