@@ -6,7 +6,6 @@ in bulk, so the per-value Python work is only the walk itself.
 
 from __future__ import annotations
 
-import functools
 import sys
 from collections.abc import Sequence
 from typing import Any
@@ -87,8 +86,19 @@ def _int_key(v: int) -> str:
 
 
 # Child paths repeat in every record; quoting a name is a regular-expression match, so the
-# walk remembers the last few thousand (bounded: a file may hold any number of distinct keys).
-_child = functools.lru_cache(maxsize=8192)(paths.child)
+# walk remembers short ones, up to a bound (a file may hold any number of keys, of any length).
+_CHILD: dict[tuple[str | None, str], str] = {}
+_CHILD_MAX, _CHILD_CHARS = 8192, 200
+
+
+def _child(parent: str | None, name: str) -> str:
+    key = (parent, name)
+    got = _CHILD.get(key)
+    if got is None:
+        got = paths.child(parent, name)
+        if len(got) <= _CHILD_CHARS and len(_CHILD) < _CHILD_MAX:
+            _CHILD[key] = got
+    return got
 
 
 def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> None:
