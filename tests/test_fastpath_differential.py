@@ -17,7 +17,7 @@ import orjson
 import pytest
 
 import driftline.sources.jsonfile as jsonfile
-from driftline.observe import jsonbatch
+from driftline.observe import jsonbatch, jsonparse
 from driftline.report import to_dict
 from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
@@ -41,7 +41,7 @@ def knobs(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> st
     declared from a probe of its first line or two."""
     if request.param == "eager":
         monkeypatch.setattr(jsonbatch, "ARROW_ASIDE_MIN", 1)
-        monkeypatch.setattr(jsonbatch, "PROBE_BYTES", 64)
+        monkeypatch.setattr(jsonparse, "PROBE_BYTES", 64)
     return str(request.param)
 
 
