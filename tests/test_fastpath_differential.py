@@ -17,6 +17,7 @@ import orjson
 import pytest
 
 import driftline.sources.jsonfile as jsonfile
+from driftline.observe import jsonbatch, jsonparse
 from driftline.report import to_dict
 from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
@@ -31,6 +32,17 @@ PARQUET_SUITE = TESTDATA / "parquet-conformance" / "data"
 def _fast_path_on_small_batches(monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setattr(jsonfile, "FAST_MIN_ROWS", 1)
     monkeypatch.delenv(jsonfile.EXACT_ENV, raising=False)
+
+
+@pytest.fixture(params=["shipped", "eager"])
+def knobs(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> str:
+    """The JSON fast path as shipped, and with its shortcuts taken on tiny inputs: every
+    group of rows set aside typed by Arrow on its own, and every batch's first parse
+    declared from a probe of its first line or two."""
+    if request.param == "eager":
+        monkeypatch.setattr(jsonbatch, "ARROW_ASIDE_MIN", 1)
+        monkeypatch.setattr(jsonparse, "PROBE_BYTES", 64)
+    return str(request.param)
 
 
 def _report(paths: list[Path], exact: bool, batch_rows: int) -> bytes:
@@ -123,14 +135,14 @@ def _drift_file(path: Path, n: int, style: str, seed: int) -> Path:
 
 @pytest.mark.parametrize("style", ["typed", "mixed"])
 @pytest.mark.parametrize("batch_rows", [1, 37, 500])
-def test_generated_drift(tmp_path: Path, style: str, batch_rows: int) -> None:
+def test_generated_drift(tmp_path: Path, style: str, batch_rows: int, knobs: str) -> None:
     n = 120 if batch_rows == 1 else 900  # one Arrow parse per row is slow: fewer rows there
     files = [_drift_file(tmp_path / f"{style}-{k}.jsonl", n, style, seed=k) for k in range(3)]
     report = _same(files, batch_rows)
     assert report["summary"]["rows"] == 3 * n and report["summary"]["errors"] == 0
 
 
-def test_lines_the_exact_reader_reports(tmp_path: Path) -> None:
+def test_lines_the_exact_reader_reports(tmp_path: Path, knobs: str) -> None:
     # Blank, malformed, CRLF, BOM, NaN (RFC 8259 section 6 forbids it; Arrow accepts it),
     # two objects on one line (Arrow reads both), a scalar line, a line past the limit,
     # invalid UTF-8, deep nesting, and a last line without a newline.
@@ -157,6 +169,65 @@ def test_lines_the_exact_reader_reports(tmp_path: Path) -> None:
     assert kinds == ["bom", "crlf", "malformed-json", "too-large"]
 
 
+_EDGE_NUMBERS = [0, -0.0, 1, 1.0, 2.5, 12.0, 2**53 - 1, 2**53, 2**53 + 1, 2**63 - 1, 2**63, 2**64, -(2**63),
+                 -(2**63) - 1, 1e308, -1.7976931348623157e308, 5e-324, 1e16]  # float64/int64 edges (IEEE 754)
+
+
+def _changing_line(rng: random.Random, i: int, n: int, duplicates: bool = False) -> str:
+    """A record whose fields change kind within a batch, written with varied spacing and traps."""
+    late = i >= n // 2
+    rec: dict[str, Any] = {"id": i, "ts": f"2026-03-{1 + i % 28:02d}T10:00:{i % 60:02d}Z"}
+    roll = rng.random()
+    if roll < 0.03:
+        rec["v"] = None
+    elif roll < 0.05:
+        pass  # v absent
+    elif late:
+        rec["v"] = rng.choice(["1", "1.0", "x", "2026-01-01T00:00:00Z", "", "v"]) if rng.random() < 0.98 else 7
+    else:
+        rec["v"] = rng.choice(_EDGE_NUMBERS)
+    pos: dict[str, Any] = {"lat": round(rng.uniform(-9, 9), 1) if i < 2 * n // 3 else f"{rng.randrange(9)}N"}
+    if rng.random() < 0.1:
+        pos["v"] = rng.choice([1, None] if not 400 <= i < 420 else ["1"])  # the same name one level down
+    if rng.random() < 0.05:
+        pos["lat"] = None
+    rec["pos"] = pos
+    rec["tags"] = rng.sample(["a", "v", "lat"], rng.randrange(3)) if rng.random() < 0.95 else "v"  # keys as values
+    if rng.random() < 0.05:
+        rec["note"] = rng.choice(['"v": "x"', "v", "\\", '{"lat": 1}'])  # a key's text inside a string
+    if rng.random() < 0.02:
+        rec["deep"] = json.loads("[" * 30 + "]" * 30)
+    sep = rng.choice([(", ", ": "), (",", ":"), (",", " :\t")])
+    line = json.dumps(rec, separators=sep, ensure_ascii=rng.random() < 0.5)
+    if rng.random() < 0.03 and i < 600:  # (among rows of two kinds, an escaped key hides from the patterns)
+        line = line.replace('"v"', '"\\u0076"', 1)  # an escaped key (RFC 8259 section 7)
+    if duplicates and i in (1234, 1240):
+        line = '{"v": 0, ' + line[1:]  # a duplicate key: orjson keeps the last; Arrow refuses the batch
+    return line
+
+
+@pytest.mark.parametrize("batch_rows", [64, 700, 4096])
+def test_kinds_that_change_within_a_batch(tmp_path: Path, batch_rows: int, knobs: str) -> None:
+    # A number that becomes a string halfway, a nested number that becomes a string at two
+    # thirds, rare lists that are strings, the same names at two depths and as values,
+    # escaped and duplicate keys, float64/int64 edges: the rows of each kind are set aside,
+    # walked or typed on their own, and the report is the exact walk's.
+    files = []
+    for k in range(3):
+        rng = random.Random(100 + k)
+        n = 3000
+        lines = [_changing_line(rng, i, n, duplicates=k == 0) for i in range(n)]
+        if k == 1:
+            lines.insert(1500, "")  # a blank line: that batch takes the exact walk, the others not
+        f = tmp_path / f"changing-{k}.jsonl"
+        f.write_text("".join(x + "\n" for x in lines), encoding="utf-8")
+        files.append(f)
+    report = _same(files, batch_rows)
+    assert report["summary"]["rows"] == 9000
+    assert set(report["fields"]["v"]["types"]) >= {"float64", "int64", "string"}
+    assert set(report["fields"]["pos.lat"]["types"]) == {"float64", "string"}
+
+
 # -- conformance suites --------------------------------------------------------------
 
 
@@ -174,7 +245,7 @@ def _suite_lines(tmp_path: Path, prefix: str) -> list[Path]:
 
 
 @pytest.mark.parametrize("prefix", ["y_", "n_", "i_"])
-def test_json_parsing_suite_values_on_lines(tmp_path: Path, prefix: str) -> None:
+def test_json_parsing_suite_values_on_lines(tmp_path: Path, prefix: str, knobs: str) -> None:
     # source: JSON parsing test suite (RFC 8259 cases), y_/n_/i_ files: whatever the exact
     # reader accepts or reports, the fast path must say the same.
     files = _suite_lines(tmp_path, prefix)
@@ -277,7 +348,7 @@ def _stamp(rng: random.Random, shape: str) -> str:
     return day + rng.choice("T ") + clock
 
 
-def test_timestamp_columns(tmp_path: Path) -> None:
+def test_timestamp_columns(tmp_path: Path, knobs: str) -> None:
     # Columns of one timestamp shape are classified from their distinct days (strprofile).
     rng = random.Random(5)
     n = 5000
@@ -294,7 +365,7 @@ def test_timestamp_columns(tmp_path: Path) -> None:
     assert set(classes) == {"timestamp_rfc3339", "text", "empty"}  # empty: the CSV's blank cells
 
 
-def test_values_read_off_the_line(tmp_path: Path) -> None:
+def test_values_read_off_the_line(tmp_path: Path, knobs: str) -> None:
     # Nulls and integer literals are read off a line's text when the key occurs once in it;
     # these lines put the key's text elsewhere too (a string value, an escaped key, another
     # depth of a name used twice) and numbers at the edges of what a double holds exactly.

@@ -80,3 +80,21 @@ def test_always_empty_lists_agree_between_paths():
         pa.table({"e": pa.array([[], []], pa.list_(pa.int64()))}), file="f", batch=0, row_start=0
     ).fields
     assert by_records["e[]"] == by_columns["e[]"]
+
+
+def test_samples_only_walk_keeps_the_examples_and_class_counts():
+    # The JSON fast path walks a few rows for their examples only; the examples, class
+    # counts, types and nulls equal the full walk's (the reference), the leap-second and
+    # digit statistics are left to the caller.  "1990-12-31T23:59:60Z" is RFC 3339's own
+    # leap-second example (source: RFC 3339 section 5.8).
+    values = ["12", "007", "-3.25", "1e5", "2024-02-29", "1990-12-31T23:59:60Z", "1985-04-12t23:20:50.52z",
+              "N/A", "", "true", "plain", "12", "x", "12", None, 4]
+    records = [{"s": v, "l": [v, v]} for v in values]
+    full = observe_records(records, file="f", batch=0, row_start=0, lines=list(range(1, 17)))
+    short = observe_records(records, file="f", batch=0, row_start=0, lines=list(range(1, 17)), samples_only=True)
+    for path in ("s", "l", "l[]"):
+        a, b = full.fields[path], short.fields[path]
+        assert b.samples == a.samples and b.classes == a.classes and b.types == a.types and b.nulls == a.nulls
+    assert short.fields["s"].classes["integer"] == 4
+    assert full.fields["s"].leap_seconds == 1 and short.fields["s"].leap_seconds == 0
+    assert [e.row for e in short.fields["s"].samples["class:integer"]] == [0, 1, 11]

@@ -13,8 +13,8 @@ Arrow's JSON reader blurs four things the profile keeps apart, and each is settl
 * integer vs float literals: a column mixing ``1`` and ``2.5`` (or holding integers
   beyond int64) comes back as double.  Non-integral doubles were float literals; every
   row with an integral double goes to the exact walk, which tells ``1`` from ``1.0``.
-* timestamps: Arrow types RFC 3339-looking strings as timestamp; such batches are
-  parsed again with those fields declared as strings.
+* timestamps: Arrow types RFC 3339-looking strings as timestamp; observe.jsonparse
+  declares those fields strings (learnt from the first lines, or the last batch).
 * what Arrow accepts and orjson refuses (NaN and Infinity, several values on one line,
   invalid UTF-8, very deep nesting): checked before or after the parse, and the batch
   goes to the exact walk.
@@ -33,9 +33,9 @@ from typing import Any
 import orjson
 import pyarrow as pa
 import pyarrow.compute as pc
-import pyarrow.json as pj
 
 from driftline.observe import linetext, paths
+from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.observation import Observation
 from driftline.observe.records import SAFE_INT, observe_records
 from driftline.observe.stats import SAMPLES_PER_KEY, FieldStats
@@ -78,81 +78,18 @@ class _Batch:
         if len(positions):
             self.rows_needed.append(positions if rows is None else rows.take(positions))
 
-    def need_first(self, rows: pa.Array | None, mask: pa.Array) -> None:
-        """The rows of the first SAMPLES_PER_KEY true positions of a mask."""
-        self.need(rows, pc.indices_nonzero(mask).slice(0, SAMPLES_PER_KEY))
+    def need_first(self, rows: pa.Array | None, mask: pa.Array | None, length: int) -> None:
+        """The rows of the first SAMPLES_PER_KEY true positions of a mask over length places (None: all true)."""
+        if mask is None:
+            self.need(rows, pa.array(range(min(SAMPLES_PER_KEY, length)), pa.int64()))
+            return
+        head = mask.slice(0, _HEAD)  # the first few are usually near the start: no pass over the whole mask
+        if head.true_count < SAMPLES_PER_KEY:
+            head = mask
+        self.need(rows, pc.indices_nonzero(head).slice(0, SAMPLES_PER_KEY))
 
 
-def parse_lines(data: bytes, hint: pa.Schema | None) -> tuple[pa.Table | None, str]:
-    """Arrow's parse of newline-terminated JSON objects, with timestamps kept as strings.
-
-    Returns (table, "") or (None, Arrow's message).  A hint is tried first, then inference.
-
-    >>> table, _ = parse_lines(b'{"t": "1985-04-12T23:20:50Z"}\\n', None)
-    >>> table.schema.field("t").type
-    DataType(string)
-    """
-    buf = pa.py_buffer(data)
-    table, why = None, ""
-    for schema in ((hint, None) if hint is not None else (None,)):
-        try:
-            po = pj.ParseOptions(explicit_schema=schema, unexpected_field_behavior="infer", newlines_in_values=False)
-            table = pj.read_json(pa.BufferReader(buf), parse_options=po)
-            break
-        except _ARROW_FAILS as exc:
-            why = str(exc)
-    if table is None:
-        return None, why
-    try:
-        # pyarrow 26.0.1 can build a list whose offsets overrun its values when a list starts
-        # with null ('[null, "x"]'); such a table is never used.
-        table.validate(full=True)
-    except pa.ArrowInvalid:
-        return None, ""
-    if _has_temporal(table.schema):
-        # Arrow types RFC 3339-looking strings as timestamps; the profile wants the strings.
-        try:
-            po = pj.ParseOptions(explicit_schema=_strings_for_temporal(table.schema), unexpected_field_behavior="infer",
-                                 newlines_in_values=False)
-            table = pj.read_json(pa.BufferReader(buf), parse_options=po)
-        except _ARROW_FAILS as exc:
-            return None, str(exc)
-        if _has_temporal(table.schema):
-            return None, "timestamps inferred again"
-        try:
-            table.validate(full=True)
-        except pa.ArrowInvalid:
-            return None, ""
-    return table, ""
-
-
-_ARROW_FAILS = (pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError, UnicodeDecodeError)
-
-
-def _has_temporal(schema: pa.Schema | pa.DataType) -> bool:
-    types = [f.type for f in schema] if isinstance(schema, pa.Schema) else [schema]
-    for t in types:
-        if pa.types.is_temporal(t):
-            return True
-        if pa.types.is_struct(t) and _has_temporal(pa.schema(list(t))):
-            return True
-        if pa.types.is_list(t) and _has_temporal(t.value_type):
-            return True
-    return False
-
-
-def _strings_for_temporal_type(t: pa.DataType) -> pa.DataType:
-    if pa.types.is_temporal(t):
-        return pa.string()
-    if pa.types.is_struct(t):
-        return pa.struct([f.with_type(_strings_for_temporal_type(f.type)) for f in t])
-    if pa.types.is_list(t):
-        return pa.list_(t.value_field.with_type(_strings_for_temporal_type(t.value_type)))
-    return t
-
-
-def _strings_for_temporal(schema: pa.Schema) -> pa.Schema:
-    return pa.schema([f.with_type(_strings_for_temporal_type(f.type)) for f in schema])
+_HEAD = 256
 
 
 def observe_json_lines(
@@ -168,7 +105,8 @@ def observe_json_lines(
 
     Returns the observation and a Hint for the next batch, or None when the batch must
     take the exact walk.  Rows Arrow cannot type with the rest (a list that is sometimes
-    a scalar) are set aside and walked exactly; the two parts merge.
+    a scalar, a number that became a string) are set aside: a few are walked exactly,
+    many are typed by Arrow on their own; the parts merge.
 
     >>> obs, _ = observe_json_lines([b'{"a": 1, "b": null}', b'{"a": 2.5}'], file="f.jsonl", batch=0,
     ...                             row_start=0, first_line=1)
@@ -176,59 +114,37 @@ def observe_json_lines(
     ({'float64': 1, 'int64': 1}, 1)
     """
     n = len(lines)
-    if n == 0 or sum(map(len, lines)) + n >= 2**31:
+    if n == 0:
         return None
+    # One join with an empty last piece, not join + b"\n": a second copy of the batch costs
+    # a fresh allocation (page faults) each time.
+    data = b"\n".join([*lines, b""])
+    if len(data) >= 2**31:
+        return None  # Arrow's binary offsets are 32-bit
     arr = pa.array(lines, pa.binary())
-    aside = linetext.odd_rows(lines, arr)
-    if aside is None:
+    walk_only = linetext.odd_rows(lines, arr, data)
+    if walk_only is None:
         return None
-    schema, patterns = (hint.schema, []) if hint is not None else (None, [])
+    aside: dict[tuple[str, str], set[int]] = {}  # rows set aside, by the pattern that found them
     for pattern in hint.patterns if hint is not None else ():
-        rows = linetext.matching(arr, pattern)  # the odd rows of the last batch are likely odd here too
-        if len(rows) * 4 <= n:  # ... while they stay few
-            aside |= rows
-            patterns.append(pattern)
-    table, keep = None, None
-    for _ in range(_MAX_SET_ASIDE_ROUNDS):
-        keep = None if not aside else [i for i in range(n) if i not in aside]
-        part = lines if keep is None else [lines[i] for i in keep]
-        if not part:
-            break
-        table, why = parse_lines(b"\n".join(part) + b"\n", schema)
-        if table is not None:
-            if table.num_rows != len(part):
-                return None  # several values on one line
-            break
-        found = linetext.conflict_rows(arr, why) if why else None
-        if found is None or found[0] <= aside:
-            return None
-        aside |= found[0]
-        if found[1] not in patterns:
-            patterns.append(found[1])
-    if table is None and keep:
+        rows = linetext.matching(data, pattern, n // 4)  # the odd rows of the last batch are likely odd here too
+        if rows is not None:  # ... while they stay few
+            aside[pattern] = rows - walk_only
+    text = _Text(lines, arr, data, (file, batch, row_start, first_line))
+    got = _observe_part(text, None, walk_only, aside, hint.schema if hint is not None else None)
+    if got is None:
         return None
-    where = (file, batch, row_start, first_line)
-    groups: list[dict[str, FieldStats]] = []
-    if table is not None:
-        got = _observe_table(table, arr, lines, None if keep is None else pa.array(keep, pa.int64()), where)
-        if got is None:
-            return None
-        groups.append(got)
-    if aside:
-        rows = sorted(aside)
-        try:
-            records = [orjson.loads(lines[r]) for r in rows]
-        except orjson.JSONDecodeError:
-            return None
-        groups.append(_walk(records, rows, where))
-    fields = _merge_groups(groups)
+    fields = _merge_groups(got[0])
     if fields is None:
         return None
     obs = Observation(file=file, batch=batch, row_start=row_start, rows=n, fields=fields)
-    return obs, Hint(table.schema if table is not None else schema, tuple(patterns))
+    return obs, Hint(got[1], tuple(aside))
 
 
 _MAX_SET_ASIDE_ROUNDS = 4
+ARROW_ASIDE_MIN = 512  # set-aside rows from this many on are typed by Arrow, not walked (about 50 µs a row)
+
+Where = tuple[str, int, int, int]  # file, batch, row_start, first_line
 
 
 @dataclass(frozen=True, slots=True)
@@ -239,20 +155,125 @@ class Hint:
     patterns: tuple[tuple[str, str], ...] = ()  # (the key's text, the kind its odd rows hold)
 
 
-def _walk(records: list[Any], rows: list[int], where: tuple[str, int, int, int]) -> dict[str, FieldStats]:
+@dataclass(frozen=True, slots=True)
+class _Text:
+    """One batch's lines: as bytes, as an Arrow array, and joined (each ending in a newline)."""
+
+    lines: Sequence[bytes]
+    arr: pa.BinaryArray
+    data: bytes
+    where: Where
+
+
+def _observe_part(
+    text: _Text, rows: list[int] | None, walk_only: set[int], aside: dict[tuple[str, str], set[int]],
+    schema: pa.Schema | None, depth: int = 0,
+) -> tuple[list[dict[str, FieldStats]], pa.Schema | None] | None:
+    """Observe some rows of a batch (all when rows is None): (groups of disjoint rows, Arrow's schema).
+
+    Arrow parses the rows neither walk_only nor aside; when it names a field of two kinds,
+    the rows of the rarer kind are set aside under the pattern that finds them, and the
+    rest is parsed again.  The rows of the large groups set aside (fields that changed kind
+    within the batch) are observed the same way on their own, to _MAX_DEPTH; the other
+    rows set aside are walked exactly with walk_only.
+    """
+    table, keep = None, None
+    sub_rows = None if rows is None else pa.array(rows, pa.int64())
+    changed: set[str] = set()  # top-level fields Arrow found of two kinds here
+    for _ in range(_MAX_SET_ASIDE_ROUNDS):
+        out = walk_only.union(*aside.values())
+        keep, data = _kept(text, rows, out)
+        if keep is not None and not keep:
+            break
+        table, why = parse_lines(data, schema)
+        if table is not None:
+            if table.num_rows != (len(keep) if keep is not None else len(text.lines)):
+                return None  # several values on one line
+            break
+        found = linetext.conflict_rows(text.arr, why, sub_rows) if why else None
+        if found is None:
+            return None
+        odd = found[0] - walk_only
+        if odd <= out:
+            return None
+        aside[found[1]] = aside.get(found[1], set()) | odd
+        top = conflict_field(why)
+        if top is not None:
+            changed.add(top)
+    if table is None and keep:
+        return None
+    groups: list[dict[str, FieldStats]] = []
+    if table is not None:
+        got = _observe_table(table, text, None if keep is None else pa.array(keep, pa.int64()))
+        if got is None:
+            return None
+        groups.append(got)
+    walked = walk_only.union(*aside.values())
+    large = set().union(*(g for g in aside.values() if len(g) >= ARROW_ASIDE_MIN))
+    own = large.difference(*(g for g in aside.values() if len(g) < ARROW_ASIDE_MIN))
+    if own and depth < _MAX_DEPTH and (rows is None or len(own) < len(rows)):
+        # Fields that changed kind within the batch: the rows of their other kinds type together.
+        # Their hint is this part's schema without the fields of two kinds: those the rows hold otherwise.
+        hint = _without_fields(table.schema if table is not None else schema, changed)
+        sub = _observe_part(text, sorted(own), set(), {}, hint, depth + 1)
+        if sub is not None:
+            groups += sub[0]
+            walked -= own
+    if walked:
+        at = sorted(walked)
+        try:
+            records = [orjson.loads(text.lines[r]) for r in at]
+        except orjson.JSONDecodeError:
+            return None
+        groups.append(_walk(records, at, text.where))
+    return groups, table.schema if table is not None else schema
+
+
+def _without_fields(schema: pa.Schema | None, names: set[str]) -> pa.Schema | None:
+    if schema is None:
+        return None
+    return pa.schema([f for f in schema if f.name not in names])
+
+
+_MAX_DEPTH = 2  # rows set aside, and rows set aside among those, are typed by Arrow; deeper ones walked
+
+
+def _kept(text: _Text, rows: list[int] | None, out: set[int]) -> tuple[list[int] | None, bytes]:
+    """The rows (of rows, or of the batch) not in out, and their lines joined; None: the whole batch."""
+    if rows is None and not out:
+        return None, text.data
+    if rows is not None:
+        kept = [r for r in rows if r not in out]
+        return kept, b"\n".join([*(text.lines[r] for r in kept), b""]) if kept else b""
+    # The kept lines are runs of the joined batch between the rows left out: slices, no re-join per line.
+    gone = sorted(out)
+    n = len(text.lines)
+    arr = text.arr
+    offsets = pa.Array.from_buffers(pa.int32(), len(arr) + 1, [None, arr.buffers()[1]], offset=arr.offset)
+    starts = offsets.take(pa.array([i for r in gone for i in (r, r + 1)], pa.int64())).to_pylist()
+    keep: list[int] = []
+    pieces: list[memoryview] = []
+    data = memoryview(text.data)
+    prev, at = 0, 0  # first kept row of the run, and its byte offset in text.data
+    for k, r in enumerate(gone):
+        keep.extend(range(prev, r))
+        pieces.append(data[at : starts[2 * k] + r])  # line i starts at offsets[i] + i (one newline each)
+        prev, at = r + 1, starts[2 * k + 1] + r + 1
+    keep.extend(range(prev, n))
+    pieces.append(data[at:])
+    return keep, b"".join(pieces)
+
+
+def _walk(records: list[Any], rows: list[int], where: Where, samples_only: bool = False) -> dict[str, FieldStats]:
     file, batch, row_start, first_line = where
     lines_of = [first_line + r for r in rows]
-    return observe_records(records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows).fields
+    return observe_records(records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows,
+                           samples_only=samples_only).fields
 
 
-Where = tuple[str, int, int, int]  # file, batch, row_start, first_line
-
-
-def _observe_table(
-    table: pa.Table, arr: pa.BinaryArray, lines: Sequence[bytes], keep: pa.Array | None, where: Where,
-) -> dict[str, FieldStats] | None:
+def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[str, FieldStats] | None:
     """One parsed table (rows keep of the batch, or all): columnar counts, the walk for the rest."""
-    b = _Batch(arr, len(arr), table.schema)
+    b = _Batch(text.arr, len(text.arr), table.schema)
     try:
         for name, col in zip(table.column_names, table.columns, strict=True):
             # One chunk is the common case; concatenating a struct with null-typed children
@@ -263,10 +284,12 @@ def _observe_table(
         return None
     rows = _needed_rows(b)
     try:
-        records = [orjson.loads(lines[r]) for r in rows]
+        records = [orjson.loads(text.lines[r]) for r in rows]
     except orjson.JSONDecodeError:
         return None  # Arrow took a line orjson refuses
-    return _combine(b.partials, _walk(records, rows, where), pa.array(rows, pa.int64()))
+    # The columns gave the string statistics: the walk over these rows is for examples, counts
+    # of nulls and of integer literals, and extremes.
+    return _combine(b.partials, _walk(records, rows, text.where, samples_only=True), pa.array(rows, pa.int64()))
 
 
 def _merge_groups(groups: list[dict[str, FieldStats]]) -> dict[str, FieldStats] | None:
@@ -336,15 +359,18 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
     b.partials[path] = part
     if pa.types.is_null(t) or part.nonnull == 0:
         return
-    valid = pc.is_valid(arr)
-    b.need_first(rows, valid)
+    valid = pc.is_valid(arr) if nulls_arrow else None
+    b.need_first(rows, valid, length)
     if pa.types.is_boolean(t):
         part.types = {"bool": part.nonnull}
     elif pa.types.is_int64(t):
         part.types = {"int64": part.nonnull}
         mm = pc.min_max(arr)
-        big = pc.or_(pc.greater(arr, SAFE_INT), pc.less(arr, -SAFE_INT))
-        part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py(), "unsafe_ints": big.true_count}
+        lo, hi = mm["min"].as_py(), mm["max"].as_py()
+        unsafe = 0
+        if lo < -SAFE_INT or hi > SAFE_INT:  # only then count the integers a double cannot hold exactly
+            unsafe = pc.or_(pc.greater(arr, SAFE_INT), pc.less(arr, -SAFE_INT)).true_count
+        part.extra = {"minimum": lo, "maximum": hi, "unsafe_ints": unsafe}
     elif pa.types.is_float64(t):
         _doubles(arr, rows, part, b, name, listed)
     elif pa.types.is_string(t):
@@ -374,11 +400,14 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
 
 def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, name: str | None,
              listed: bool) -> None:
-    finite = pc.is_finite(arr)
-    if pc.sum(pc.invert(finite)).as_py():
+    if not pc.all(pc.is_finite(arr)).as_py():  # over the values (there is one at least)
         raise NotExact("NaN or Infinity: not JSON, orjson refuses the line")
-    integral = pc.fill_null(pc.equal(pc.floor(arr), arr), False)
-    fractional = pc.and_(pc.is_valid(arr), pc.invert(integral))
+    integral = pc.equal(pc.floor(arr), arr)
+    if arr.null_count:
+        integral = pc.fill_null(integral, False)
+        fractional = pc.and_(pc.is_valid(arr), pc.invert(integral))
+    else:
+        fractional = pc.invert(integral)
     part.types = {"float64": part.nonnull}
     if integral.true_count:
         # 1 or 1.0, 2**64 or 1.8e19: the line's text tells, or else the walk.
@@ -400,7 +429,7 @@ def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, na
             part.text_ints = (int_rows, values.filter(is_int))
             part.text_floats = (float_rows, values.filter(float_mask))
             b.rows_needed += [unsettled, int_rows.slice(0, SAMPLES_PER_KEY), float_rows.slice(0, SAMPLES_PER_KEY)]
-    b.need_first(rows, fractional)
+    b.need_first(rows, fractional, len(arr))
     if fractional.true_count:
         mm = pc.min_max(arr.filter(fractional))
         part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py()}

@@ -9,6 +9,7 @@ a different result.
 
 from __future__ import annotations
 
+import functools
 import re
 from collections.abc import Sequence
 
@@ -19,28 +20,50 @@ import pyarrow.compute as pc
 MAX_BRACKETS_PER_LINE = 512  # far below orjson's 1,024 levels: deeper lines take the exact walk
 
 
-def matching(arr: pa.BinaryArray, pattern: tuple[str, str]) -> set[int]:
-    """Rows whose line gives the key the kind: two plain searches where the kind starts with
-    one character (written "k":x or "k": x), else the regular expression."""
+def matching(data: bytes, pattern: tuple[str, str], limit: int) -> set[int] | None:
+    """Rows of a batch (its lines joined, each ending in a newline) whose line gives the key
+    the kind, or None when more than limit rows do.
+
+    One regular-expression pass over the joined bytes: the key's text occurs in nearly
+    every line, so a search per line costs several times more, and the hits are few.  Rows
+    are counted by the newlines before each hit.  The search stops past limit hits.
+
+    >>> matching(b'{"t": [1]}\\n{"t": "x"}\\n{"u": "t"}\\n', ('"t"', "string"), 10)
+    {1}
+    """
     key, kind = pattern
-    start = _LITERAL_START.get(kind)
-    if start is None:
-        mask = pc.match_substring_regex(arr, re.escape(key) + r"\s*:\s*" + _KIND_START[kind])
-    else:
-        mask = pc.or_(pc.match_substring(arr, key + ":" + start), pc.match_substring(arr, key + ": " + start))
-    return set(pc.indices_nonzero(mask).to_pylist())
+    found = _kind_re(key, kind).finditer(data)
+    rows: set[int] = set()
+    row, at = 0, 0
+    for m in found:
+        start = m.start()
+        row += data.count(b"\n", at, start)
+        at = start
+        rows.add(row)
+        if len(rows) > limit:
+            return None
+    return rows
+
+
+@functools.lru_cache(maxsize=256)
+def _kind_re(key: str, kind: str) -> re.Pattern[bytes]:
+    # JSON whitespace within a line (RFC 8259 section 2); a newline ends the line here.
+    name = re.escape(key.encode("utf-8", "surrogatepass"))
+    return re.compile(name + rb"[ \t\r]*:[ \t\r]*" + _KIND_START[kind].encode())
 
 
 _CONFLICT = re.compile(r"Column\((/[^)]*)\) changed from (\w+) to (\w+)")
-_LITERAL_START = {"string": '"', "array": "[", "object": "{", "null": "null"}
 _KIND_START = {"string": '"', "array": r"\[", "object": r"\{", "number": "[-0-9]", "boolean": "[tf]", "null": "n"}
 
 
-def conflict_rows(arr: pa.BinaryArray, why: str) -> tuple[set[int], tuple[str, str]] | None:
-    """Rows that may hold the rarer of the two kinds Arrow's error names for one field.
+def conflict_rows(arr: pa.BinaryArray, why: str, rows: pa.Array | None = None,
+                  ) -> tuple[set[int], tuple[str, str]] | None:
+    """Rows (of rows, or of all lines) that may hold the rarer of the two kinds Arrow's error
+    names for one field, and the pattern that finds them.
 
-    Which rows are set aside decides only the speed: whatever is set aside is walked
-    exactly, and Arrow must still type all the rest together.
+    Which rows are set aside decides only the speed: whatever is set aside is observed
+    apart (walked exactly, or typed by Arrow on its own), and Arrow must still type all
+    the rest together.
     """
     m = _CONFLICT.search(why)
     if not m:
@@ -48,27 +71,30 @@ def conflict_rows(arr: pa.BinaryArray, why: str) -> tuple[set[int], tuple[str, s
     name = m.group(1).rsplit("/", 1)[-1]
     if not name or name == "[]":
         return None
+    text = arr if rows is None else arr.take(rows)
     found = []
     for kind in (m.group(2), m.group(3)):
         start = _KIND_START.get(kind)
         if start is None:
             return None
         try:
-            mask = pc.match_substring_regex(arr, '"' + re.escape(name) + r'"\s*:\s*' + start)
+            mask = pc.match_substring_regex(text, '"' + re.escape(name) + r'"\s*:\s*' + start)
         except pa.ArrowException:
             return None
         found.append((mask, ('"' + name + '"', kind)))
     rarer, pattern = min(found, key=lambda got: got[0].true_count)
     if not rarer.true_count:
         return None
-    return set(pc.indices_nonzero(rarer).to_pylist()), pattern
+    at = pc.indices_nonzero(rarer)
+    return set((at if rows is None else rows.take(at)).to_pylist()), pattern
 
 
-def odd_rows(lines: Sequence[bytes], arr: pa.BinaryArray) -> set[int] | None:
+def odd_rows(lines: Sequence[bytes], arr: pa.BinaryArray, data: bytes) -> set[int] | None:
     """Rows to walk exactly because they are not a plain '{...}' line; None if one is not a record.
 
-    Lines the exact reader reports (blank, malformed, invalid UTF-8, CRLF, a byte order
-    mark) send the whole batch to the exact walk, which reports them.
+    data is the lines joined, each ending in a newline.  Lines the exact reader reports
+    (blank, malformed, invalid UTF-8, CRLF, a byte order mark) send the whole batch to
+    the exact walk, which reports them.
     """
     shaped = pc.and_(pc.starts_with(arr, "{"), pc.ends_with(arr, "}"))
     odd: set[int] = set()
@@ -82,13 +108,12 @@ def odd_rows(lines: Sequence[bytes], arr: pa.BinaryArray) -> set[int] | None:
             except orjson.JSONDecodeError:
                 return None
             odd.add(i)
-    if not all(map(bytes.isascii, lines)):
+    if not data.isascii():  # one pass over the bytes; the rare batch with other text is decoded
         try:
-            for line in lines:
-                line.decode("utf-8")
+            data.decode("utf-8")
         except UnicodeDecodeError:
             return None
-    if max(map(len, lines)) <= MAX_BRACKETS_PER_LINE:
+    if pc.max(pc.binary_length(arr)).as_py() <= MAX_BRACKETS_PER_LINE:
         return odd  # too short to nest that deep
     brackets = pc.add(pc.count_substring(arr, "["), pc.count_substring(arr, "{"))
     if pc.max(brackets).as_py() > MAX_BRACKETS_PER_LINE:

@@ -85,6 +85,22 @@ def _int_key(v: int) -> str:
     return "uint64" if 0 <= v < 2**64 else "decimal(39,0)"
 
 
+# Child paths repeat in every record; quoting a name is a regular-expression match, so the
+# walk remembers short ones, up to a bound (a file may hold any number of keys, of any length).
+_CHILD: dict[tuple[str | None, str], str] = {}
+_CHILD_MAX, _CHILD_CHARS = 8192, 200
+
+
+def _child(parent: str | None, name: str) -> str:
+    key = (parent, name)
+    got = _CHILD.get(key)
+    if got is None:
+        got = paths.child(parent, name)
+        if len(got) <= _CHILD_CHARS and len(_CHILD) < _CHILD_MAX:
+            _CHILD[key] = got
+    return got
+
+
 def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> None:
     acc = accs.get(path)
     if acc is None:
@@ -114,7 +130,7 @@ def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> Non
             raise DepthExceeded(f"nesting deeper than {MAX_DEPTH} levels")
         acc.count("struct", row, v)
         for name, sub in v.items():
-            _walk(sub, paths.child(path, name), row, accs, depth + 1)
+            _walk(sub, _child(path, name), row, accs, depth + 1)
     elif t is list:
         if depth >= MAX_DEPTH:
             raise DepthExceeded(f"nesting deeper than {MAX_DEPTH} levels")
@@ -137,11 +153,16 @@ def observe_records(
     row_start: int,
     lines: Sequence[int] | None = None,
     rows: Sequence[int] | None = None,
+    samples_only: bool = False,
 ) -> Observation:
     """Observe parsed JSON values, one per row. Objects give their fields; anything else is '$'.
 
     lines holds each record's line; rows, when given, each record's row within the batch
     (for a walk over some of a batch's records), else records are rows 0, 1, 2, ...
+    samples_only: the caller has the string statistics already (the JSON fast path walks a
+    few rows for their examples), so strings are classified only as far as the examples
+    of each class need: their class counts are kept, the digit, leap-second and lowercase
+    counts left at 0.
 
     >>> obs = observe_records([{"a": 1}, {"a": "x"}, {}], file="f.jsonl", batch=0, row_start=0)
     >>> obs.fields["a"].types, obs.rows
@@ -151,11 +172,11 @@ def observe_records(
     for i, rec in enumerate(records):
         if type(rec) is dict:
             for name, sub in rec.items():
-                _walk(sub, paths.child(None, name), i, accs, 1)
+                _walk(sub, _child(None, name), i, accs, 1)
         else:
             _walk(rec, paths.ROOT, i, accs, 0)
     where = _Where(file, row_start, lines, rows)
-    fields = {p: _finish(acc, where) for p, acc in sorted(accs.items())}
+    fields = {p: _finish(acc, where, samples_only) for p, acc in sorted(accs.items())}
     return Observation(file=file, batch=batch, row_start=row_start, rows=len(records), fields=fields)
 
 
@@ -170,11 +191,22 @@ class _Where:
         return Example(self.file, row, self.lines[i] if self.lines is not None else None, value_text(value))
 
 
-def _finish(acc: _Acc, where: _Where) -> FieldStats:
+def _finish(acc: _Acc, where: _Where, samples_only: bool = False) -> FieldStats:
     samples = {k: tuple(where.example(i, v) for i, v in got) for k, got in acc.samples.items()}
     classes: dict[str, int] = {}
     extra: dict[str, Any] = {}
-    if acc.strings:
+    if acc.strings and samples_only:
+        # The same masks classify() counts (one pass of class_masks), without its other statistics.
+        rows = acc.string_rows
+        samples["type:string"] = tuple(
+            where.example(rows[j], acc.strings[j]) for j in range(min(SAMPLES_PER_KEY, len(rows)))
+        )
+        for cls, mask in class_masks(pa.array(acc.strings, pa.string())).items():
+            if mask.true_count:
+                classes[cls] = mask.true_count
+                picks = pa_indices(mask, SAMPLES_PER_KEY)
+                samples["class:" + cls] = tuple(where.example(rows[j], acc.strings[j]) for j in picks)
+    elif acc.strings:
         arr = pa.array(acc.strings, pa.string())
         scan = classify(arr)
         classes = dict(scan.counts)

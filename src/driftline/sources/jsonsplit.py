@@ -89,6 +89,8 @@ def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
                 if not cuts or base + pos > cuts[-1][0]:
                     cuts.append((base + pos, want))
                 want = None
+            if want is None and not targets:
+                break  # every cut is placed: the rest of the file need not be read
             seen += chunk.count(b"\n", pos)
             base += len(chunk)
     starts = [(0, 0), *[(o, li) for o, li in cuts if o < size]]
