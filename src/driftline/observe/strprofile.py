@@ -18,6 +18,7 @@ import pyarrow.compute as pc
 
 from driftline.observe.textclass import (
     CLASSES,
+    MAX_DECIMAL_DIGITS,
     TIMESTAMP_LOCAL_RE,
     TIMESTAMP_OFFSET_RE,
     TIMESTAMP_RFC3339_RE,
@@ -71,8 +72,9 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
             return _profile_few(enc, keep_first)
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
+    numbers = _number_masks(values) if masks is None else None
     if masks is None:
-        masks = class_masks(values)
+        masks = numbers.masks if numbers is not None else class_masks(values)
     counts: dict[str, int] = {}
     first: dict[str, list[int]] = {}
     for cls in CLASSES:
@@ -84,7 +86,9 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
         first[cls] = pc.indices_nonzero(row_mask).slice(0, keep_first).to_pylist()
     int_digits = frac_digits = 0
     number = pc.or_(masks["integer"], masks["decimal"])
-    if number.true_count:
+    if numbers is not None:
+        int_digits, frac_digits = numbers.int_digits, numbers.frac_digits
+    elif number.true_count:
         int_digits, frac_digits = _digits(values.filter(number))
     stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
     leap = lower = 0
@@ -186,6 +190,57 @@ def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
     masks[name] = ok
     masks["text"] = pc.and_(pc.is_valid(values), pc.invert(ok))
     return masks
+
+
+@dataclass(frozen=True, slots=True)
+class _Numbers:
+    masks: dict[str, pa.Array]
+    int_digits: int
+    frac_digits: int
+
+
+_NUMBER_BODY = r"-?[0-9]+(?:\.[0-9]+)?"  # the integer class and the point form of decimal
+_NUMBER_PY = re.compile(_NUMBER_BODY)  # fullmatch, as textclass
+_NUMBER_RE2 = f"^(?:{_NUMBER_BODY})$"
+_PROBE = 1024  # values checked before the whole column is: a mixed column costs little
+
+
+def _number_masks(values: pa.Array) -> _Numbers | None:
+    """Class masks of a column of plain integers and point decimals, checked in one pass.
+
+    Nothing before integer in CLASSES takes a digit string, and a value of this shape is
+    an integer (no point, at most 18 digits) or a decimal (a point or 19 digits and more,
+    at most 76 in all); beyond 76 it would be a float, and then None is returned, as for
+    any other value: class_masks decides those columns.  So one anchored RE2 pass and
+    arithmetic on lengths give textclass's verdict (ids, amounts: about ten times fewer
+    passes than class_masks).
+    """
+    valid = len(values) - values.null_count
+    if not valid or not _NUMBER_PY.fullmatch(values[_first_valid(values)].as_py()):
+        return None
+    probe = values.slice(0, _PROBE)
+    if pc.match_substring_regex(probe, _NUMBER_RE2).true_count != len(probe) - probe.null_count:
+        return None
+    if pc.match_substring_regex(values, _NUMBER_RE2).true_count != valid:
+        return None
+    length = pc.binary_length(values)  # bytes: the shape is ASCII
+    minus = pc.cast(pc.starts_with(values, "-"), length.type)
+    point = pc.find_substring(values, ".")  # -1 without a point
+    has_point = pc.greater_equal(point, 0)
+    digits = pc.subtract(pc.subtract(length, minus), pc.cast(has_point, length.type))
+    if (pc.max(digits).as_py() or 0) > MAX_DECIMAL_DIGITS:
+        return None
+    integer = pc.fill_null(pc.and_(pc.invert(has_point), pc.less_equal(digits, _INTEGER_DIGITS)), False)
+    none = pa.repeat(False, len(values))
+    masks = {cls: none for cls in CLASSES}
+    masks["integer"] = integer
+    masks["decimal"] = pc.and_not(pc.is_valid(values), integer)
+    before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
+    after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
+    return _Numbers(masks, pc.max(before).as_py() or 0, pc.max(after).as_py() or 0)
+
+
+_INTEGER_DIGITS = 18  # textclass.INTEGER_RE: at most 18 digits always fits int64
 
 
 def _first_valid(arr: pa.Array) -> int:
