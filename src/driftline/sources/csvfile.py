@@ -9,7 +9,8 @@ from __future__ import annotations
 import csv
 import io
 import re
-from collections.abc import Iterator
+from collections import deque
+from collections.abc import Iterator, Sequence
 from typing import BinaryIO
 
 import pyarrow as pa
@@ -229,9 +230,8 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
             yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
         yield from _ending(rel, opts, guard)
         return
-    state = _CsvState(rel, opts, header_lines)
-    pending: list[pa.RecordBatch] = []
-    pending_rows = 0
+    state = _CsvState(rel, opts, line=header_lines + 1)
+    batches = Rebatch(opts.batch_rows)
     while True:
         try:
             rb = reader.read_next_batch()
@@ -245,17 +245,11 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         yield from ragged
         ragged.clear()
         yield from guard.take_issues(rel)
-        pending.append(rb)
-        pending_rows += rb.num_rows
-        while pending_rows >= opts.batch_rows:
-            table = pa.Table.from_batches(pending).combine_chunks()
-            yield from state.observe(table.slice(0, opts.batch_rows))
-            rest = table.slice(opts.batch_rows)
-            pending = rest.to_batches()
-            pending_rows = rest.num_rows
+        for batch in batches.add(rb):
+            yield state.observe(batch)
     yield from ragged
-    if pending_rows:
-        yield from state.observe(pa.Table.from_batches(pending).combine_chunks())
+    for batch in batches.rest():
+        yield state.observe(batch)
     yield from _ending(rel, opts, guard)
 
 
@@ -272,61 +266,99 @@ def _too_long(rel: str, opts: ReadOptions, guard: _LineGuard) -> FileIssue:
                      "it and the rest of the file were not profiled", line=line, byte_offset=offset)
 
 
+class Rebatch:
+    """Cuts Arrow's record batches, whatever their size, into batches of exactly `size` rows
+    (the last one shorter): slices, and a copy only of a batch that straddles two of Arrow's."""
+
+    def __init__(self, size: int) -> None:
+        self.size = size
+        self._parts: deque[pa.RecordBatch] = deque()
+        self._rows = 0
+
+    def add(self, rb: pa.RecordBatch) -> Iterator[pa.RecordBatch]:
+        if rb.num_rows:
+            self._parts.append(rb)
+            self._rows += rb.num_rows
+        while self._rows >= self.size:
+            yield self._take(self.size)
+
+    def rest(self) -> Iterator[pa.RecordBatch]:
+        if self._rows:
+            yield self._take(self._rows)
+
+    def _take(self, n: int) -> pa.RecordBatch:
+        pieces: list[pa.RecordBatch] = []
+        need = n
+        while need:
+            head = self._parts[0]
+            if head.num_rows <= need:
+                pieces.append(self._parts.popleft())
+                need -= head.num_rows
+            else:
+                pieces.append(head.slice(0, need))
+                self._parts[0] = head.slice(need)
+                need = 0
+        self._rows -= n
+        if len(pieces) == 1:
+            return pieces[0]
+        columns = [pa.concat_arrays([p.column(i) for p in pieces]) for i in range(pieces[0].num_columns)]
+        return pa.RecordBatch.from_arrays(columns, schema=pieces[0].schema)
+
+
 class _CsvState:
-    def __init__(self, rel: str, opts: ReadOptions, header_lines: int) -> None:
+    """Rows, batches and the line of the next row, from a given start (a file's first row, or
+    a span's, see csvsplit)."""
+
+    def __init__(self, rel: str, opts: ReadOptions, line: int, rows: int = 0, batch: int = 0) -> None:
         self.rel, self.opts = rel, opts
-        self.rows = 0
-        self.batch = 0
-        self.line = header_lines + 1  # line of the next row (exact unless blank or ragged lines intervene)
-        self.cell_issues = 0
-        self.issues: list[FileIssue] = []
+        self.rows = rows
+        self.batch = batch
+        self.line = line  # line of the next row (exact unless blank or ragged lines intervene)
 
-    def observe(self, table: pa.Table) -> Iterator[Item]:
-        columns = [self._decode(name, col.combine_chunks()) for name, col in zip(table.column_names, table.columns, strict=True)]
-        yield from self.issues
-        self.issues.clear()
-        text = pa.Table.from_arrays(columns, names=table.column_names)
-        lines = self._lines(table)
-        yield observe_table(text, file=self.rel, batch=self.batch, row_start=self.rows, lines=lines, text_source=True,
-                            exact=self.opts.exact or None)
-        self.rows += table.num_rows
+    def observe(self, cells: pa.RecordBatch) -> Observation:
+        """One batch of binary cells observed as text.
+
+        The cells are valid UTF-8 without a check here: every byte Arrow reads passed
+        _LineGuard's check (or csvsplit's, for a span), and a cell is cut from that text at
+        ASCII bytes only (Arrow takes an ASCII delimiter, quotes and line ends), so it cannot
+        split a character.  A view as string is then exact and costs nothing.
+        """
+        text = pa.RecordBatch.from_arrays([c.view(pa.string()) for c in cells.columns], names=cells.schema.names)
+        lines = self._lines(cells)
+        obs = observe_table(text, file=self.rel, batch=self.batch, row_start=self.rows, lines=lines,
+                            text_source=True, exact=self.opts.exact or None)
+        self.rows += cells.num_rows
         self.batch += 1
+        return obs
 
-    def _decode(self, name: str, arr: pa.Array) -> pa.Array:
-        try:
-            return arr.cast(pa.string())
-        except pa.ArrowInvalid:
-            pass
-        # Rare path: find the bad cells one by one, report them, keep the rest of the column.
-        fixed: list[str | None] = []
-        for i, v in enumerate(arr.to_pylist()):
-            if v is None:
-                fixed.append(None)
-                continue
-            try:
-                fixed.append(v.decode("utf-8"))
-            except UnicodeDecodeError as exc:
-                fixed.append(v.decode("utf-8", "replace"))
-                self.cell_issues += 1
-                if self.cell_issues <= _MAX_CELL_ISSUES:
-                    self.issues.append(
-                        FileIssue(
-                            self.rel,
-                            "invalid-utf8",
-                            f"column {name!r}: invalid UTF-8 at byte {exc.start} of the cell; read with U+FFFD",
-                            row=self.rows + i,
-                        )
-                    )
-        return pa.array(fixed, pa.string())
-
-    def _lines(self, table: pa.Table) -> list[int]:
+    def _lines(self, cells: pa.RecordBatch) -> Sequence[int]:
         # Each row starts one line after the previous one, plus the newlines inside its cells.
-        if table.num_rows == 0:
+        n = cells.num_rows
+        if n == 0:
             return []
-        step = pa.array([1] * table.num_rows, pa.int64())
-        for col in table.columns:
-            step = pc.add(step, pc.fill_null(pc.count_substring(col.combine_chunks(), "\n"), 0))
+        multiline = [col for col in cells.columns if holds_newline(col)]
+        if not multiline:  # the common case, found by one byte search per column
+            starts: Sequence[int] = range(self.line, self.line + n)
+            self.line += n
+            return starts
+        step = pa.array([1] * n, pa.int64())
+        for col in multiline:
+            step = pc.add(step, pc.fill_null(pc.count_substring(col, "\n"), 0))
         ends = pc.cumulative_sum(step).to_pylist()
         starts = [self.line] + [self.line + e for e in ends[:-1]]
         self.line += ends[-1]
         return starts
+
+
+_NEWLINE = re.compile(b"\n")
+
+
+def holds_newline(arr: pa.Array) -> bool:
+    """Whether any value of a binary array holds a newline, searched in its data buffer
+    (only the part its values use: batches are slices of a bigger one)."""
+    if len(arr) == 0 or arr.buffers()[2] is None:
+        return False
+    _, offsets, data = arr.buffers()
+    bounds = memoryview(offsets).cast("q" if pa.types.is_large_binary(arr.type) else "i")
+    lo, hi = bounds[arr.offset], bounds[arr.offset + len(arr)]
+    return _NEWLINE.search(memoryview(data)[lo:hi]) is not None
