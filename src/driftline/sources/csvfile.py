@@ -10,8 +10,9 @@ import csv
 import io
 import re
 from collections import deque
-from collections.abc import Iterator, Sequence
-from typing import BinaryIO
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass
+from typing import Any, BinaryIO
 
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -174,10 +175,19 @@ def _read_header(buffered: io.BufferedReader) -> bytes:
     return out
 
 
-def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item]:
-    """Stream a delimited text file in batches of at most opts.batch_rows rows."""
-    guard = _LineGuard(stream, opts.max_record_bytes)
-    buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
+@dataclass(frozen=True, slots=True)
+class Header:
+    """What the header record says: how to cut the rows that follow it."""
+
+    delimiter: str
+    names: tuple[str, ...]
+    lines: int  # lines it spans (at least 1)
+    size: int  # its bytes, a byte order mark included: where the first row starts
+
+
+def read_header(guard: _LineGuard, buffered: io.BufferedReader, rel: str, opts: ReadOptions,
+                tsv: bool) -> Iterator[FileIssue | Header]:
+    """The problems found before the first row, then the Header when rows may follow."""
     head = buffered.peek(_SNIFF_BYTES)[:_SNIFF_BYTES]
     if guard.cut is not None and not head:
         yield from _ending(rel, opts, guard)
@@ -186,7 +196,8 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         yield FileIssue(rel, "empty", "empty file: no header and no rows", "warning", line=1, byte_offset=0)
         return
     if head.startswith(b"\xef\xbb\xbf"):
-        yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0)
+        yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning",
+                        line=1, byte_offset=0)
     first_line = head.split(b"\n", 1)[0]
     if first_line.endswith(b"\r"):
         yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=1, byte_offset=len(first_line) - 1)
@@ -203,8 +214,36 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         yield FileIssue(rel, "too-wide", f"{len(names):,} columns, more than {opts.max_columns:,} (--max-columns); "
                         "file not profiled", line=1, byte_offset=0)
         return
-    names = _unique(names)
-    header_lines = max(header.count(b"\n"), 1)
+    yield Header(delimiter, tuple(_unique(names)), max(header.count(b"\n"), 1), len(header))
+
+
+def arrow_options(header: Header, block: int,
+                  on_invalid: Callable[[pcsv.InvalidRow], str]) -> dict[str, Any]:
+    """Arrow's CSV options for the rows after a header: binary cells, RFC 4180 quoting with
+    newlines in quoted values, ragged rows handed to on_invalid."""
+    names = list(header.names)
+    return {
+        "read_options": pcsv.ReadOptions(use_threads=False, block_size=block, column_names=names, skip_rows=0),
+        "parse_options": pcsv.ParseOptions(delimiter=header.delimiter, newlines_in_values=True,
+                                           invalid_row_handler=on_invalid),
+        "convert_options": pcsv.ConvertOptions(column_types=dict.fromkeys(names, pa.binary()),
+                                               strings_can_be_null=False, quoted_strings_can_be_null=False),
+    }
+
+
+def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item]:
+    """Stream a delimited text file in batches of at most opts.batch_rows rows."""
+    guard = _LineGuard(stream, opts.max_record_bytes)
+    buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
+    header: Header | None = None
+    for item in read_header(guard, buffered, rel, opts, tsv):
+        if isinstance(item, Header):
+            header = item
+        else:
+            yield item
+    if header is None:
+        return
+    header_lines = header.lines
     ragged: list[FileIssue] = []
 
     def on_invalid(row: pcsv.InvalidRow) -> str:
@@ -219,12 +258,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         return "skip"
 
     try:
-        reader = pcsv.open_csv(
-            buffered,
-            read_options=pcsv.ReadOptions(use_threads=False, block_size=_block(opts), column_names=names, skip_rows=0),
-            parse_options=pcsv.ParseOptions(delimiter=delimiter, newlines_in_values=True, invalid_row_handler=on_invalid),
-            convert_options=pcsv.ConvertOptions(column_types={n: pa.binary() for n in names}, strings_can_be_null=False, quoted_strings_can_be_null=False),
-        )
+        reader = pcsv.open_csv(buffered, **arrow_options(header, _block(opts), on_invalid))
     except pa.ArrowInvalid as exc:
         if "Empty CSV file" not in str(exc):  # a header and no rows is an empty table, not a problem
             yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
