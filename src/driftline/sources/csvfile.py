@@ -63,7 +63,7 @@ def _unique(names: list[str]) -> list[str]:
 _BAD_BYTES = re.compile("[\udc80-\udcff]+")  # undecodable bytes, as surrogateescape shows them
 
 
-class _LineGuard(io.RawIOBase):
+class LineGuard(io.RawIOBase):
     """Passes whole lines only, valid as UTF-8, and ends the data just before a line longer
     than limit bytes.
 
@@ -185,7 +185,7 @@ class Header:
     size: int  # its bytes, a byte order mark included: where the first row starts
 
 
-def read_header(guard: _LineGuard, buffered: io.BufferedReader, rel: str, opts: ReadOptions,
+def read_header(guard: LineGuard, buffered: io.BufferedReader, rel: str, opts: ReadOptions,
                 tsv: bool) -> Iterator[FileIssue | Header]:
     """The problems found before the first row, then the Header when rows may follow."""
     head = buffered.peek(_SNIFF_BYTES)[:_SNIFF_BYTES]
@@ -231,9 +231,24 @@ def arrow_options(header: Header, block: int,
     }
 
 
+def head_of(stream: BinaryIO, rel: str, opts: ReadOptions, *,
+            tsv: bool = False) -> tuple[list[FileIssue], Header | None]:
+    """What read_csv reports before the first row of stream, and the header (None when no
+    rows can follow)."""
+    guard = LineGuard(stream, opts.max_record_bytes)
+    issues: list[FileIssue] = []
+    header: Header | None = None
+    for item in read_header(guard, io.BufferedReader(guard, buffer_size=_SNIFF_BYTES), rel, opts, tsv):
+        if isinstance(item, Header):
+            header = item
+        else:
+            issues.append(item)
+    return issues, header
+
+
 def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item]:
     """Stream a delimited text file in batches of at most opts.batch_rows rows."""
-    guard = _LineGuard(stream, opts.max_record_bytes)
+    guard = LineGuard(stream, opts.max_record_bytes)
     buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
     header: Header | None = None
     for item in read_header(guard, buffered, rel, opts, tsv):
@@ -264,7 +279,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
             yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
         yield from _ending(rel, opts, guard)
         return
-    state = _CsvState(rel, opts, line=header_lines + 1)
+    state = CsvState(rel, opts, line=header_lines + 1)
     batches = Rebatch(opts.batch_rows)
     while True:
         try:
@@ -287,14 +302,14 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     yield from _ending(rel, opts, guard)
 
 
-def _ending(rel: str, opts: ReadOptions, guard: _LineGuard) -> Iterator[FileIssue]:
+def _ending(rel: str, opts: ReadOptions, guard: LineGuard) -> Iterator[FileIssue]:
     yield from guard.take_issues(rel)
     yield from guard.rest_issue(rel)
     if guard.cut is not None:
         yield _too_long(rel, opts, guard)
 
 
-def _too_long(rel: str, opts: ReadOptions, guard: _LineGuard) -> FileIssue:
+def _too_long(rel: str, opts: ReadOptions, guard: LineGuard) -> FileIssue:
     line, offset = guard.cut or (1, 0)
     return FileIssue(rel, "too-large", f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
                      "it and the rest of the file were not profiled", line=line, byte_offset=offset)
@@ -339,7 +354,7 @@ class Rebatch:
         return pa.RecordBatch.from_arrays(columns, schema=pieces[0].schema)
 
 
-class _CsvState:
+class CsvState:
     """Rows, batches and the line of the next row, from a given start (a file's first row, or
     a span's, see csvsplit)."""
 
@@ -353,7 +368,7 @@ class _CsvState:
         """One batch of binary cells observed as text.
 
         The cells are valid UTF-8 without a check here: every byte Arrow reads passed
-        _LineGuard's check (or csvsplit's, for a span), and a cell is cut from that text at
+        LineGuard's check (or csvsplit's, for a span), and a cell is cut from that text at
         ASCII bytes only (Arrow takes an ASCII delimiter, quotes and line ends), so it cannot
         split a character.  A view as string is then exact and costs nothing.
         """

@@ -1,0 +1,311 @@
+"""One big CSV file read as byte spans in parallel, with the same result as one reader.
+
+The header is read once, the way read_csv reads it.  After it, the planner cuts the file
+where a row whose index is a multiple of batch_rows would start if every newline outside
+quotes ended a row: a field that holds a line break is quoted (RFC 4180 section 2, rule 6),
+so a newline is taken to be outside quotes when an even number of quote characters precede
+it (common practice; a stray quote inside an unquoted field breaks it).  That is only a
+guess.  Each span is read from its assumed state (line, rows, batches) by Arrow with the
+header's options, and checks on its own that it ended where a row ends, whatever its quotes
+did:
+
+* no problem at all: Arrow read it without a ragged row or an error, its bytes are UTF-8,
+  no line is longer than max_record_bytes (what read_csv would report);
+* no blank line and no CR outside a CRLF pair (Arrow skips the one and ends a row at the
+  other: neither is then a newline that ends a row);
+* its rows plus the newlines inside their cells equal the newlines of its bytes.
+
+Arrow's lexer ends a row at each newline outside quotes, or at the end of the data inside an
+unclosed quote.  Without blank lines and lone CRs every newline of the span is a row's end or
+inside a cell, so the sum above falls one short of the newlines exactly when the last row
+ran into the end of the span; when they are equal, the span ends where a row ends for one
+reader too, and the next span's assumed start holds (its rows, lines and batch index are
+checked to join).  Any span that fails, or a file that changed, is read again by one reader,
+whole: the result is always that reader's.
+"""
+
+from __future__ import annotations
+
+import codecs
+import os
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import pyarrow as pa
+import pyarrow.csv as pcsv
+
+from driftline.observe.observation import Observation
+from driftline.observe.strprofile import exact_requested
+from driftline.sources.base import FileIssue, FileResult, ReadOptions
+from driftline.sources.csvfile import CsvState, Header, Rebatch, arrow_options, head_of
+from driftline.sources.discover import FileRef
+from driftline.sources.readers import file_changed, read_file
+
+FORMATS = ("csv", "tsv")
+SPLIT_MIN_BYTES = 32 * 2**20  # smaller files are one task: a span must outweigh its set-up
+SPAN_MAX_BYTES = 32 * 2**20  # a span is read whole, so this bounds a worker's memory
+_BLOCK = 4 * 2**20  # Arrow parses cache-sized blocks faster; a longer row makes the span fail
+_SCAN_CHUNK = 16 * 2**20
+_QUOTES_PER_KIB = 1  # the planner steps from quote to quote; files with more are one task
+_HEAD_WARNINGS = ("bom", "crlf")  # what a header may carry in a file read as spans
+_UTF8_STEP = 2**20
+
+
+@dataclass(frozen=True, slots=True)
+class Head:
+    header: Header
+    warnings: tuple[FileIssue, ...]  # what read_csv reports before the first row
+
+
+@dataclass(frozen=True, slots=True)
+class Span:
+    """Bytes [start, end) of a file (end None: to the end), whose first row would be row
+    `rows` of batch `batches`, on line `lines`."""
+
+    ref: FileRef
+    head: Head
+    start: int
+    end: int | None
+    lines: int
+    rows: int
+    batches: int
+
+
+@dataclass(frozen=True, slots=True)
+class SpanResult:
+    span: Span
+    observations: tuple[Observation, ...]
+    rows: int
+    next_line: int  # the line a row after the span would start on
+    clean: bool  # the checks above held: the span ended where one reader's row ends
+
+
+def can_split(ref: FileRef, opts: ReadOptions) -> bool:
+    return (ref.format in FORMATS and ref.compression is None and not opts.exact and not exact_requested()
+            and SPLIT_MIN_BYTES <= ref.size <= opts.max_decompressed_bytes and os.path.isfile(ref.path))
+
+
+def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
+    """Spans at assumed batch starts; [] when the file is better read by one reader (a header
+    with problems, more quotes than the planner walks, no row to cut at)."""
+    head = _head(ref, opts)
+    if head is None:
+        return []
+    begin = head.header.size
+    # Spans of about one batch or two balance the pool (a span costs little to start);
+    # SPAN_MAX_BYTES bounds what a worker holds.
+    parts = max(2 * parts, -(-(ref.size - begin) // SPAN_MAX_BYTES))
+    targets = [begin + (ref.size - begin) * i // parts for i in range(1, parts)]
+    cuts = _cuts(ref.path, begin, ref.size, opts.batch_rows, targets, max(1, ref.size // 1024) * _QUOTES_PER_KIB)
+    if not cuts:
+        return []
+    starts = [(begin, head.header.lines + 1, 0), *cuts]
+    return [Span(ref, head, offset, starts[k + 1][0] if k + 1 < len(starts) else None, line, rows,
+                 rows // opts.batch_rows)
+            for k, (offset, line, rows) in enumerate(starts)]
+
+
+def _head(ref: FileRef, opts: ReadOptions) -> Head | None:
+    with open(ref.path, "rb") as fh:
+        issues, header = head_of(fh, ref.rel, opts, tsv=ref.format == "tsv")
+    if header is None or any(i.kind not in _HEAD_WARNINGS or i.severity != "warning" for i in issues):
+        return None
+    return Head(header, tuple(issues))
+
+
+def _cuts(path: str, begin: int, size: int, step: int, targets: list[int],
+          quote_budget: int) -> list[tuple[int, int, int]] | None:
+    """(byte offset, line, rows before) of the first assumed row start after each target whose
+    row index is a multiple of step; None past quote_budget quotes.
+
+    One pass: quotes are found with memchr (bytes.find) and newlines counted between them,
+    so the cost is a read of the file plus a count of its newlines.
+    """
+    cuts: list[tuple[int, int, int]] = []
+    buf = bytearray(_SCAN_CHUNK)
+    quotes = rows = quoted = 0  # quoted: newlines inside quotes
+    inside = False  # after an odd number of quotes since `begin`
+    want: int | None = None  # the row index the next cut waits for
+    with open(path, "rb", buffering=0) as fh:
+        first = 1 + fh.read(begin).count(b"\n")  # the line of the first row
+        base = begin
+        while n := fh.readinto(buf):
+            pos = 0
+            while True:
+                quote = buf.find(b'"', pos, n)
+                end = n if quote < 0 else quote
+                if not inside:
+                    while True:  # a row ends at each newline of [pos, end)
+                        if want is None:
+                            while targets and cuts and targets[0] <= cuts[-1][0]:
+                                targets.pop(0)  # behind the last cut already
+                            if not targets or targets[0] >= base + end:
+                                break
+                            # a target passed inside quotes (or in an earlier chunk) counts from here
+                            at = max(targets.pop(0) - base, pos)
+                            want = ((rows + buf.count(b"\n", pos, at)) // step + 1) * step
+                        pos, rows = _walk(buf, pos, end, want - rows, rows)
+                        if rows < want:
+                            break
+                        cuts.append((base + pos, first + rows + quoted, rows))
+                        want = None
+                    rows += buf.count(b"\n", pos, end)
+                else:
+                    quoted += buf.count(b"\n", pos, end)
+                if quote < 0:
+                    break
+                quotes += 1
+                if quotes > quote_budget:
+                    return None
+                inside, pos = not inside, quote + 1
+            base += n
+            if not targets and want is None:
+                break  # every cut found: the rest is the last span's
+    return [c for c in cuts if c[0] < size]
+
+
+def _walk(buf: bytearray, pos: int, end: int, need: int, rows: int) -> tuple[int, int]:
+    """Past up to `need` newlines of buf[pos:end]: the position after the last one passed and
+    the rows then ended (counted a block at a time, then newline by newline)."""
+    while need:
+        stop = min(pos + 65536, end)
+        got = buf.count(b"\n", pos, stop)
+        if got >= need:
+            for _ in range(need):
+                pos = buf.find(b"\n", pos, stop) + 1
+            return pos, rows + need
+        need -= got
+        rows += got
+        if stop == end:
+            return end, rows
+        pos = stop
+    return pos, rows
+
+
+def read_span(span: Span, opts: ReadOptions) -> SpanResult:
+    """Read one span from its assumed state, and check that it ended where a row ends."""
+    header = span.head.header
+    last = span.end is None
+    marker = b"" if last else _marker(header)
+    data = _read(span, marker)
+    size = len(data) - len(marker)
+    state = CsvState(span.ref.rel, opts, line=span.lines, rows=span.rows, batch=span.batches)
+    failed = SpanResult(span, (), 0, span.lines, clean=False)
+    if not _utf8(data, size) or not _lines_within(data, size, opts.max_record_bytes):
+        return failed
+    ragged: list[pcsv.InvalidRow] = []
+
+    def on_invalid(row: pcsv.InvalidRow) -> str:
+        ragged.append(row)
+        return "skip"
+
+    observations: list[Observation] = []
+    batches = Rebatch(opts.batch_rows)
+    held: pa.RecordBatch | None = None  # Arrow's latest batch: its last row may be the marker
+    try:
+        reader = pcsv.open_csv(pa.BufferReader(pa.py_buffer(data)), **arrow_options(header, _BLOCK, on_invalid))
+        while True:
+            try:
+                rb = reader.read_next_batch()
+            except StopIteration:
+                break
+            if ragged:
+                return failed
+            if held is not None:
+                observations.extend(state.observe(batch) for batch in batches.add(held))
+            held = rb
+    except (pa.ArrowInvalid, OSError, EOFError):
+        return failed
+    if ragged:
+        return failed
+    if not last:
+        if held is None or not _is_marker_row(held, marker):
+            return failed  # the span ended inside quotes: the marker was read as part of a cell
+        held = held.slice(0, held.num_rows - 1)
+    if held is not None:
+        observations.extend(state.observe(batch) for batch in batches.add(held))
+    observations.extend(state.observe(batch) for batch in batches.rest())
+    return SpanResult(span, tuple(observations), state.rows - span.rows, state.line, clean=True)
+
+
+_MARKER_CELL = b"\x00driftline: end of span"
+
+
+def _marker(header: Header) -> bytes:
+    """A row appended after a span's bytes.  Arrow reads it as a row of its own, the first
+    cell _MARKER_CELL and the others empty, exactly when the span's last newline ended a row;
+    had it ended inside quotes, the marker (which holds no quote) would join that quoted cell,
+    newline and all."""
+    return _MARKER_CELL + header.delimiter.encode("ascii") * (len(header.names) - 1) + b"\n"
+
+
+def _is_marker_row(rb: pa.RecordBatch, marker: bytes) -> bool:
+    if rb.num_rows == 0:
+        return False
+    row = [col[rb.num_rows - 1].as_py() for col in rb.columns]
+    return row[0] == _MARKER_CELL and not any(row[1:])
+
+
+def _read(span: Span, tail: bytes) -> bytearray:
+    """The span's bytes followed by tail, read into one buffer (Arrow reads it in place)."""
+    with open(span.ref.path, "rb", buffering=0) as fh:
+        size = (span.end if span.end is not None else os.fstat(fh.fileno()).st_size) - span.start
+        data = bytearray(size + len(tail))
+        view = memoryview(data)
+        fh.seek(span.start)
+        got = 0
+        while got < size and (n := fh.readinto(view[got:size])):
+            got += n
+        if got < size:
+            raise OSError(f"{span.ref.rel}: the file ended early (it changed while being read)")
+        view[size:] = tail
+    return data
+
+
+def _utf8(data: bytearray, size: int) -> bool:
+    """data[:size] is valid UTF-8, checked a piece at a time (memory stays bounded).  LineGuard
+    reports the lines that are not; a multi-byte character never holds a newline, so the span
+    as a whole answers the same."""
+    if data.isascii():
+        return True
+    decoder = codecs.getincrementaldecoder("utf-8")()
+    view = memoryview(data)[:size]
+    try:
+        for at in range(0, size, _UTF8_STEP):
+            decoder.decode(view[at:at + _UTF8_STEP])
+        decoder.decode(b"", final=True)
+    except UnicodeDecodeError:
+        return False
+    return True
+
+
+def _lines_within(data: bytearray, size: int, limit: int) -> bool:
+    """No line of data[:size] is longer than limit bytes (LineGuard would stop there).  Such a
+    line covers a whole window of limit // 2 aligned bytes, so a newline in every window rules
+    it out (a shorter line may fail this too: the file is then read by one reader)."""
+    if size <= limit:
+        return True
+    width = max(1, limit // 2)
+    return all(data.find(b"\n", at, at + width) >= 0 for at in range(0, size - width + 1, width))
+
+
+def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> FileResult:
+    """The file's result from its spans when they join, else one reader's."""
+    if not _joined(results) or file_changed(ref) is not None:
+        return read_file(ref, opts)
+    observations = tuple(o for res in results for o in res.observations)
+    return FileResult(rel=ref.rel, format=ref.format, compression=ref.compression, partitions=ref.partitions,
+                      size=ref.size, mtime_ns=ref.mtime_ns, rows=sum(o.rows for o in observations),
+                      observations=observations, issues=results[0].span.head.warnings, declared=None, complete=True)
+
+
+def _joined(results: Sequence[SpanResult]) -> bool:
+    for k, res in enumerate(results):
+        if not res.clean:
+            return False
+        if k + 1 < len(results):
+            after = results[k + 1].span
+            if (res.span.end, res.span.rows + res.rows, res.next_line, res.span.batches + len(res.observations)) != (
+                    after.start, after.rows, after.lines, after.batches):
+                return False
+    return bool(results) and results[-1].span.end is None
