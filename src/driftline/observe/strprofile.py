@@ -16,9 +16,9 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from driftline.observe.numbers import number_masks, value_bytes
 from driftline.observe.textclass import (
     CLASSES,
-    MAX_DECIMAL_DIGITS,
     TIMESTAMP_LOCAL_RE,
     TIMESTAMP_OFFSET_RE,
     TIMESTAMP_RFC3339_RE,
@@ -72,7 +72,8 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
             return _profile_few(enc, keep_first)
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
-    numbers = _number_masks(values) if masks is None else None
+    raw = value_bytes(values)  # for byte-level checks; a copy of the values' bytes, not per value
+    numbers = number_masks(values, raw) if masks is None else None
     if masks is None:
         masks = numbers.masks if numbers is not None else class_masks(values)
     counts: dict[str, int] = {}
@@ -83,7 +84,7 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
             continue
         row_mask = m if index is None else pc.fill_null(pc.take(m, index), False)
         counts[cls] = row_mask.true_count
-        first[cls] = pc.indices_nonzero(row_mask).slice(0, keep_first).to_pylist()
+        first[cls] = _first_rows(row_mask, keep_first, counts[cls])
     int_digits = frac_digits = 0
     number = pc.or_(masks["integer"], masks["decimal"])
     if numbers is not None:
@@ -94,16 +95,29 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     leap = lower = 0
     if stamp.true_count:
         # As textclass.classify counts them: a timestamp with second 60 (every timestamp shape
-        # has ':' just before the seconds, so ':60' finds the candidates), and an RFC 3339
-        # one with a lowercase t or z.
-        if pc.any(pc.match_substring(values, ":60")).as_py():
+        # has ':' just before the seconds, so ':60' in the bytes finds the candidates), and an
+        # RFC 3339 one with a lowercase t or z.
+        if b":60" in raw:
             sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
             leap = _row_count(pc.and_(stamp, sixty), index)
         if masks["timestamp_rfc3339"].true_count:
             lc = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
             lower = _row_count(lc, index)
-    longest = pc.max(pc.utf8_length(values)).as_py() if len(values) else 0
+    # ASCII bytes are characters: the byte lengths are then the lengths, and cost nothing.
+    lengths = pc.binary_length(values) if raw.isascii() else pc.utf8_length(values)
+    longest = pc.max(lengths).as_py() if len(values) else 0
     return StringProfile(counts, first, int(longest or 0), int_digits, frac_digits, leap, lower)
+
+
+_HEAD_ROWS = 4096  # the first rows of a class are nearly always among these
+
+
+def _first_rows(mask: pa.Array, keep: int, count: int) -> list[int]:
+    """The first `keep` positions where mask is true (it is true `count` times)."""
+    head = pc.indices_nonzero(mask.slice(0, _HEAD_ROWS))
+    if len(head) < min(keep, count):
+        head = pc.indices_nonzero(mask)
+    return head.slice(0, keep).to_pylist()
 
 
 FEW = 512  # distinct values looked up one by one in a process-wide table of earlier verdicts
@@ -119,28 +133,29 @@ def _profile_few(enc: pa.DictionaryArray, keep_first: int) -> StringProfile:
     if unseen:
         _learn(unseen)
     verdicts = [_SEEN[v] for v in distinct]
-    per_value = pc.value_counts(enc.indices.drop_null())
-    n_of = dict(zip(per_value.field("values").to_pylist(), per_value.field("counts").to_pylist(), strict=True))
-    counts_by_k: dict[int, int] = {}
-    leap = lower = int_digits = frac_digits = 0
-    for i, (k, is_leap, is_lower, d_int, d_frac) in enumerate(verdicts):
-        n = n_of.get(i, 0)
-        if not n:
-            continue
-        counts_by_k[k] = counts_by_k.get(k, 0) + n
-        leap += n if is_leap else 0
-        lower += n if is_lower else 0
-        int_digits, frac_digits = max(int_digits, d_int), max(frac_digits, d_frac)
+    # Every value of a dictionary occurs in the rows it was made from: the maxima need no counts.
+    int_digits = max((v[3] for v in verdicts), default=0)
+    frac_digits = max((v[4] for v in verdicts), default=0)
     row_class = pc.take(pa.array([v[0] for v in verdicts], pa.int8()), enc.indices)
+    if row_class.null_count:
+        row_class = pc.fill_null(row_class, -1)
     counts: dict[str, int] = {}
     first: dict[str, list[int]] = {}
-    for k, cls in enumerate(CLASSES):
-        if k in counts_by_k:
-            counts[cls] = counts_by_k[k]
-            hits = pc.fill_null(pc.equal(row_class, k), False)
-            first[cls] = pc.indices_nonzero(hits).slice(0, keep_first).to_pylist()
-    longest = max((len(v) for i, v in enumerate(distinct) if n_of.get(i)), default=0)
+    for k in sorted({v[0] for v in verdicts}):
+        hits = pc.equal(row_class, k)
+        counts[CLASSES[k]] = hits.true_count
+        first[CLASSES[k]] = _first_rows(hits, keep_first, counts[CLASSES[k]])
+    leap = _flagged_rows(enc.indices, [v[1] for v in verdicts])
+    lower = _flagged_rows(enc.indices, [v[2] for v in verdicts])
+    longest = max((len(v) for v in distinct), default=0)
     return StringProfile(counts, first, longest, int_digits, frac_digits, leap, lower)
+
+
+def _flagged_rows(indices: pa.Array, flags: list[bool]) -> int:
+    """How many rows hold a value whose flag is set."""
+    if not any(flags):
+        return 0
+    return int(pc.sum(pc.take(pa.array(flags, pa.int64()), indices)).as_py() or 0)
 
 
 def _learn(values: list[str]) -> None:
@@ -190,57 +205,6 @@ def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
     masks[name] = ok
     masks["text"] = pc.and_(pc.is_valid(values), pc.invert(ok))
     return masks
-
-
-@dataclass(frozen=True, slots=True)
-class _Numbers:
-    masks: dict[str, pa.Array]
-    int_digits: int
-    frac_digits: int
-
-
-_NUMBER_BODY = r"-?[0-9]+(?:\.[0-9]+)?"  # the integer class and the point form of decimal
-_NUMBER_PY = re.compile(_NUMBER_BODY)  # fullmatch, as textclass
-_NUMBER_RE2 = f"^(?:{_NUMBER_BODY})$"
-_PROBE = 1024  # values checked before the whole column is: a mixed column costs little
-
-
-def _number_masks(values: pa.Array) -> _Numbers | None:
-    """Class masks of a column of plain integers and point decimals, checked in one pass.
-
-    Nothing before integer in CLASSES takes a digit string, and a value of this shape is
-    an integer (no point, at most 18 digits) or a decimal (a point or 19 digits and more,
-    at most 76 in all); beyond 76 it would be a float, and then None is returned, as for
-    any other value: class_masks decides those columns.  So one anchored RE2 pass and
-    arithmetic on lengths give textclass's verdict (ids, amounts: about ten times fewer
-    passes than class_masks).
-    """
-    valid = len(values) - values.null_count
-    if not valid or not _NUMBER_PY.fullmatch(values[_first_valid(values)].as_py()):
-        return None
-    probe = values.slice(0, _PROBE)
-    if pc.match_substring_regex(probe, _NUMBER_RE2).true_count != len(probe) - probe.null_count:
-        return None
-    if pc.match_substring_regex(values, _NUMBER_RE2).true_count != valid:
-        return None
-    length = pc.binary_length(values)  # bytes: the shape is ASCII
-    minus = pc.cast(pc.starts_with(values, "-"), length.type)
-    point = pc.find_substring(values, ".")  # -1 without a point
-    has_point = pc.greater_equal(point, 0)
-    digits = pc.subtract(pc.subtract(length, minus), pc.cast(has_point, length.type))
-    if (pc.max(digits).as_py() or 0) > MAX_DECIMAL_DIGITS:
-        return None
-    integer = pc.fill_null(pc.and_(pc.invert(has_point), pc.less_equal(digits, _INTEGER_DIGITS)), False)
-    none = pa.repeat(False, len(values))
-    masks = {cls: none for cls in CLASSES}
-    masks["integer"] = integer
-    masks["decimal"] = pc.and_not(pc.is_valid(values), integer)
-    before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
-    after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
-    return _Numbers(masks, pc.max(before).as_py() or 0, pc.max(after).as_py() or 0)
-
-
-_INTEGER_DIGITS = 18  # textclass.INTEGER_RE: at most 18 digits always fits int64
 
 
 def _first_valid(arr: pa.Array) -> int:
