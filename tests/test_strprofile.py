@@ -138,3 +138,14 @@ def test_bytes_under_null_values_change_nothing(hidden: bytes) -> None:
                                                           pa.py_buffer(b"".join(cells))])
     assert arr.null_count == 700
     assert string_profile(arr) == reference(arr.to_pylist())
+
+
+def test_few_values_with_leap_seconds_and_lowercase() -> None:
+    # source: RFC 3339 section 5.6 (date-time; 't' and 'z' may be lowercase) and 5.7 (second 60)
+    few = ["1990-12-31T23:59:60Z", "1985-04-12t23:20:50.52z", "1996-12-19T16:39:57-08:00", "2026-02-30T00:00:00Z",
+           "1990-12-31 23:59:60", "x", None]
+    rng = random.Random(2)
+    values = [rng.choice(few) for _ in range(3000)]
+    p = check(values)
+    assert p.leap_seconds == values.count("1990-12-31T23:59:60Z") + values.count("1990-12-31 23:59:60")
+    assert p.lowercase_rfc3339 == values.count("1985-04-12t23:20:50.52z")

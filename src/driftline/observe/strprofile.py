@@ -155,7 +155,7 @@ def _flagged_rows(indices: pa.Array, flags: list[bool]) -> int:
     """How many rows hold a value whose flag is set."""
     if not any(flags):
         return 0
-    return int(pc.sum(pc.take(pa.array(flags, pa.int64()), indices)).as_py() or 0)
+    return int(pc.sum(pc.take(pa.array([int(f) for f in flags], pa.int64()), indices)).as_py() or 0)
 
 
 def _learn(values: list[str]) -> None:
