@@ -149,3 +149,13 @@ def test_few_values_with_leap_seconds_and_lowercase() -> None:
     p = check(values)
     assert p.leap_seconds == values.count("1990-12-31T23:59:60Z") + values.count("1990-12-31 23:59:60")
     assert p.lowercase_rfc3339 == values.count("1985-04-12t23:20:50.52z")
+
+
+@pytest.mark.parametrize("extra", [None, "", "1" * 19, "0" * 76, "9" * 77, "007"])
+def test_digit_strings_that_repeat(extra: str | None) -> None:
+    # Digits alone are checked whole before any dictionary; an empty value has no bytes to
+    # show it, a 19-digit one is a decimal, 77 digits a float (textclass.CLASSES).
+    rng = random.Random(4)
+    values: list[str | None] = [str(rng.randrange(2000)) for _ in range(5000)]
+    values[2500] = extra
+    check(values)

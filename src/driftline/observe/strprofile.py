@@ -61,7 +61,12 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     ({'integer': 2, 'text': 2}, {'integer': [0, 3], 'text': [1, 4]})
     """
     values, index = arr, None
+    raw = value_bytes(arr)  # for byte-level checks: one copy of the values' bytes, not a pass per value
     masks = _timestamp_masks(arr)
+    # Digits alone (ids, counts) are cheaper to check whole than to hash, however often they repeat.
+    numbers = number_masks(arr, raw) if masks is None and raw.isdigit() else None
+    if numbers is not None:
+        masks = numbers.masks
     # Hashing costs about as much as classifying when nearly every value is distinct
     # (ids, amounts), and little otherwise: the head of the column decides.
     head_repeats = len(arr) > DICTIONARY_MIN and (
@@ -72,9 +77,9 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
             return _profile_few(enc, keep_first)
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
-    raw = value_bytes(values)  # for byte-level checks; a copy of the values' bytes, not per value
-    numbers = number_masks(values, raw) if masks is None else None
+            raw = value_bytes(values)
     if masks is None:
+        numbers = number_masks(values, raw)
         masks = numbers.masks if numbers is not None else class_masks(values)
     counts: dict[str, int] = {}
     first: dict[str, list[int]] = {}
