@@ -159,3 +159,17 @@ def test_digit_strings_that_repeat(extra: str | None) -> None:
     values: list[str | None] = [str(rng.randrange(2000)) for _ in range(5000)]
     values[2500] = extra
     check(values)
+
+
+@pytest.mark.parametrize("typ", [pa.string(), pa.large_string(), pa.binary(), pa.large_binary()])
+def test_value_bytes_of_slices(typ: pa.DataType) -> None:
+    # source: Arrow columnar format, variable-size binary layout (offsets into one data buffer;
+    # a slice keeps the buffers and moves its offset)
+    from driftline.observe.valuebytes import value_bytes
+
+    arr = pa.array(["ab", "", None, "cde", "f"], typ)
+    assert value_bytes(arr) == b"abcdef"
+    assert value_bytes(arr.slice(1, 3)) == b"cde"
+    assert value_bytes(arr.slice(3)) == b"cdef"
+    assert value_bytes(arr.slice(2, 1)) == b""
+    assert value_bytes(arr.slice(5)) == b""

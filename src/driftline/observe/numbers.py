@@ -29,23 +29,10 @@ class Numbers:
     frac_digits: int
 
 
-def value_bytes(arr: pa.Array) -> bytes:
-    """The bytes the values of a string or binary array take in its data buffer (a slice of a
-    bigger array takes part of it; null values may take some too)."""
-    if len(arr) == 0 or arr.buffers()[2] is None:
-        return b""
-    _, offsets, data = arr.buffers()
-    width = 8 if pa.types.is_large_string(arr.type) or pa.types.is_large_binary(arr.type) else 4
-    end = arr.offset + len(arr)
-    bounds = memoryview(offsets)[: (end + 1) * width].cast("q" if width == 8 else "i")
-    lo, hi = bounds[arr.offset], bounds[end]
-    return data.slice(lo, hi - lo).to_pybytes()
-
-
 def number_masks(values: pa.Array, raw: bytes) -> Numbers | None:
     """textclass's masks of a column whose every value is a plain number, else None.
 
-    raw is value_bytes(values).  The shape is checked with byte counts, not a regular
+    raw is valuebytes.value_bytes(values).  The shape is checked with byte counts, not a regular
     expression: besides digits only '-' and '.' occur; there are as many '-' as values that
     start with one and as many '.' as values that hold one (so each holds at most one of
     each, the '-' first); and each value has a digit, and one on each side of its point.

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from driftline.observe.numbers import number_masks, value_bytes
+from driftline.observe.numbers import number_masks
 from driftline.observe.textclass import (
     CLASSES,
     TIMESTAMP_LOCAL_RE,
@@ -24,6 +24,7 @@ from driftline.observe.textclass import (
     TIMESTAMP_RFC3339_RE,
     class_masks,
 )
+from driftline.observe.valuebytes import value_bytes
 
 EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) for the reference paths everywhere, not the fast ones
 

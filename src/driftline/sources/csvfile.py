@@ -20,6 +20,7 @@ import pyarrow.csv as pcsv
 
 from driftline.observe.columnar import observe_table
 from driftline.observe.observation import Observation
+from driftline.observe.valuebytes import value_view
 from driftline.sources.base import FileIssue, ReadOptions
 
 _SNIFF_BYTES = 64 * 1024
@@ -403,11 +404,5 @@ _NEWLINE = re.compile(b"\n")
 
 
 def holds_newline(arr: pa.Array) -> bool:
-    """Whether any value of a binary array holds a newline, searched in its data buffer
-    (only the part its values use: batches are slices of a bigger one)."""
-    if len(arr) == 0 or arr.buffers()[2] is None:
-        return False
-    _, offsets, data = arr.buffers()
-    bounds = memoryview(offsets).cast("q" if pa.types.is_large_binary(arr.type) else "i")
-    lo, hi = bounds[arr.offset], bounds[arr.offset + len(arr)]
-    return _NEWLINE.search(memoryview(data)[lo:hi]) is not None
+    """Whether any value of a binary array holds a newline: one search of its bytes."""
+    return _NEWLINE.search(value_view(arr)) is not None
