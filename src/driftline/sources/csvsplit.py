@@ -4,24 +4,22 @@ The header is read once, the way read_csv reads it.  After it, the planner cuts 
 where a row whose index is a multiple of batch_rows would start if every newline outside
 quotes ended a row: a field that holds a line break is quoted (RFC 4180 section 2, rule 6),
 so a newline is taken to be outside quotes when an even number of quote characters precede
-it (common practice; a stray quote inside an unquoted field breaks it).  That is only a
-guess.  Each span is read from its assumed state (line, rows, batches) by Arrow with the
-header's options, and checks on its own that it ended where a row ends, whatever its quotes
-did:
+it (common practice; a quote inside an unquoted field, which Arrow keeps as a character,
+breaks it).  That is only a guess.  Each span is read by Arrow from its assumed state (line,
+rows, batches) with the header's options, and proves on its own that it ended where a row
+ends, whatever its quotes did: a marker row is appended to its bytes, and Arrow's lexer
+(a newline outside quotes ends a row, quotes open only at a field's start) gives it back as
+a row of its own exactly when the span's last newline ended a row; inside quotes the marker,
+which holds no quote, becomes part of the open cell.  A span also reports what read_csv
+would: a ragged row, an Arrow error, bytes that are not UTF-8, a line longer than
+max_record_bytes.
 
-* no problem at all: Arrow read it without a ragged row or an error, its bytes are UTF-8,
-  no line is longer than max_record_bytes (what read_csv would report);
-* no blank line and no CR outside a CRLF pair (Arrow skips the one and ends a row at the
-  other: neither is then a newline that ends a row);
-* its rows plus the newlines inside their cells equal the newlines of its bytes.
-
-Arrow's lexer ends a row at each newline outside quotes, or at the end of the data inside an
-unclosed quote.  Without blank lines and lone CRs every newline of the span is a row's end or
-inside a cell, so the sum above falls one short of the newlines exactly when the last row
-ran into the end of the span; when they are equal, the span ends where a row ends for one
-reader too, and the next span's assumed start holds (its rows, lines and batch index are
-checked to join).  Any span that fails, or a file that changed, is read again by one reader,
-whole: the result is always that reader's.
+The spans make the file's result only when none reported anything and each one's rows,
+batches and next line are what the next one assumed (a blank line or a lone CR outside
+quotes, which the planner counts as a row, breaks that chain); then each span started where
+one reader's row starts, in the state one reader would be in, by induction from the header.
+Otherwise, or if the file changed, the whole file is read again by one reader, so the result
+is always that reader's.
 """
 
 from __future__ import annotations
@@ -77,7 +75,7 @@ class SpanResult:
     observations: tuple[Observation, ...]
     rows: int
     next_line: int  # the line a row after the span would start on
-    clean: bool  # the checks above held: the span ended where one reader's row ends
+    clean: bool  # nothing reported, and the span ended where a row ends
 
 
 def can_split(ref: FileRef, opts: ReadOptions) -> bool:
@@ -219,7 +217,7 @@ def read_span(span: Span, opts: ReadOptions) -> SpanResult:
     if ragged:
         return failed
     if not last:
-        if held is None or not _is_marker_row(held, marker):
+        if held is None or not _is_marker_row(held):
             return failed  # the span ended inside quotes: the marker was read as part of a cell
         held = held.slice(0, held.num_rows - 1)
     if held is not None:
@@ -239,7 +237,7 @@ def _marker(header: Header) -> bytes:
     return _MARKER_CELL + header.delimiter.encode("ascii") * (len(header.names) - 1) + b"\n"
 
 
-def _is_marker_row(rb: pa.RecordBatch, marker: bytes) -> bool:
+def _is_marker_row(rb: pa.RecordBatch) -> bool:
     if rb.num_rows == 0:
         return False
     row = [col[rb.num_rows - 1].as_py() for col in rb.columns]
