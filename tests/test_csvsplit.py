@@ -25,13 +25,6 @@ SETTINGS = settings(max_examples=300, deadline=None, suppress_health_check=[Heal
                                                                            HealthCheck.function_scoped_fixture])
 
 
-@pytest.fixture(autouse=True)
-def _walk_any_quotes(monkeypatch: pytest.MonkeyPatch, request: pytest.FixtureRequest) -> None:
-    # The generated files quote often; the planner's quote budget is tested on its own.
-    if "budget" not in request.node.name:
-        monkeypatch.setattr(csvsplit, "_QUOTES_PER_KIB", 10**6)
-
-
 def ref_of(path: Path) -> FileRef:
     return discover([str(path)]).files[0]
 
@@ -207,13 +200,42 @@ def test_a_span_with_anything_one_reader_reports_does_not_join(tmp_path: Path, b
     assert not joined_result(ref, opts, spans), why
 
 
-def test_the_quote_budget_and_a_header_with_problems(tmp_path: Path) -> None:
-    quoted = tmp_path / "q.csv"
-    quoted.write_text("a,b\n" + '"x","y"\n' * 2000, encoding="utf-8")  # 4 quotes per 8 bytes
-    assert plan(ref_of(quoted), ReadOptions(batch_rows=10), 2) == []
-    sparse = tmp_path / "s.csv"
-    sparse.write_text("a,b\n" + '"x",y\n' * 3 + "1,2\n" * 2000, encoding="utf-8")  # 6 quotes in 8 KiB
-    assert len(plan(ref_of(sparse), ReadOptions(batch_rows=10), 2)) == 4
+def test_dense_quotes_and_a_header_with_problems(tmp_path: Path) -> None:
+    # Every field quoted (common practice of some writers), then quoted line breaks in every
+    # row: the planner counts them a block at a time.
+    opts = ReadOptions(batch_rows=100)
+    for body in ('"x","y"\n' * 8000, '"x\ny","z"\n' * 8000, '"a""b",c\n' * 8000):  # past _WALK_QUOTES
+        quoted = tmp_path / "q.csv"
+        quoted.write_text("a,b\n" + body, encoding="utf-8")
+        spans = plan(ref_of(quoted), opts, 2)
+        assert len(spans) == 4
+        assert joined_result(ref_of(quoted), opts, spans)
     bad = tmp_path / "h.csv"
     bad.write_bytes(b"a,\xff\n" + b"1,2\n" * 2000)  # invalid UTF-8 in the header
     assert plan(ref_of(bad), ReadOptions(batch_rows=10), 2) == []
+
+
+@SETTINGS
+@given(st.binary(max_size=300).map(lambda b: bytes(b'"\nx'[c % 3] for c in b)), st.booleans(), st.integers(0, 600))
+def test_the_planners_count_either_way(data: bytes, inside: bool, walk: int) -> None:
+    # A newline is outside quotes when an even number of quotes precede it (common practice,
+    # see RFC 4180 section 2 rule 6): counted quote by quote, or a block at once past `walk`
+    # quotes, and found again by halving.
+    rows = newlines = 0
+    state = inside
+    ends = []
+    for i, c in enumerate(data):
+        if c == 34:
+            state = not state
+        elif c == 10:
+            newlines += 1
+            if not state:
+                rows += 1
+                ends.append(i + 1)
+    buf = bytearray(data)
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(csvsplit, "_WALK_QUOTES", walk)
+        mp.setattr(csvsplit, "_LOCATE_WINDOW", walk % 16)
+        assert csvsplit._count(buf, 0, len(buf), inside) == (rows, newlines, state)
+        for k in range(1, rows + 1):
+            assert csvsplit._locate(buf, 0, len(buf), inside, k) == ends[k - 1]

@@ -274,7 +274,6 @@ def test_csv_spans_in_parallel_equal_one_reader(tmp_path: Path, monkeypatch: pyt
     import driftline.sources.csvsplit as csvsplit
 
     monkeypatch.setattr(csvsplit, "SPLIT_MIN_BYTES", 1)
-    monkeypatch.setattr(csvsplit, "_QUOTES_PER_KIB", 10**6)  # a quote on most lines here
     fallbacks: list[str] = []
     real_read_file = csvsplit.read_file
     monkeypatch.setattr(csvsplit, "read_file", lambda ref, opts: fallbacks.append(ref.rel) or real_read_file(ref, opts))
@@ -302,7 +301,6 @@ def test_csv_edge_cases_as_spans(monkeypatch: pytest.MonkeyPatch) -> None:
     import driftline.sources.csvsplit as csvsplit
 
     monkeypatch.setattr(csvsplit, "SPLIT_MIN_BYTES", 1)
-    monkeypatch.setattr(csvsplit, "_QUOTES_PER_KIB", 10**6)
     files = sorted(CSV_SUITE.glob("*.csv"))
     for batch_rows in (1, 2):
         reports = []

@@ -44,7 +44,10 @@ SPLIT_MIN_BYTES = 32 * 2**20  # smaller files are one task: a span must outweigh
 SPAN_MAX_BYTES = 32 * 2**20  # a span is read whole, so this bounds a worker's memory
 _BLOCK = 4 * 2**20  # Arrow parses cache-sized blocks faster; a longer row makes the span fail
 _SCAN_CHUNK = 16 * 2**20
-_QUOTES_PER_KIB = 1  # the planner steps from quote to quote; files with more are one task
+_SUB = 2**20  # the planner counts a megabyte at a time
+_WALK_QUOTES = 512  # quotes stepped over one by one in a block before it is counted at once
+_SPLIT_QUOTES = 2**14  # quotes left between newlines in a block (of 2**20 bytes), past which the planner gives up
+_LOCATE_WINDOW = 4096  # a cut is found by halving down to this many bytes, then byte by byte
 _HEAD_WARNINGS = ("bom", "crlf")  # what a header may carry in a file read as spans
 _UTF8_STEP = 2**20
 
@@ -85,7 +88,7 @@ def can_split(ref: FileRef, opts: ReadOptions) -> bool:
 
 def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
     """Spans at assumed batch starts; [] when the file is better read by one reader (a header
-    with problems, more quotes than the planner walks, no row to cut at)."""
+    with problems, a quoted line break on most rows, no row to cut at)."""
     head = _head(ref, opts)
     if head is None:
         return []
@@ -94,8 +97,8 @@ def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
     # SPAN_MAX_BYTES bounds what a worker holds.
     parts = max(2 * parts, -(-(ref.size - begin) // SPAN_MAX_BYTES))
     targets = [begin + (ref.size - begin) * i // parts for i in range(1, parts)]
-    cuts = _cuts(ref.path, begin, ref.size, opts.batch_rows, targets, max(1, ref.size // 1024) * _QUOTES_PER_KIB)
-    if not cuts:
+    cuts = _cuts(ref.path, begin, ref.size, opts.batch_rows, targets)
+    if not cuts:  # None: too many quoted line breaks to plan cheaply
         return []
     starts = [(begin, head.header.lines + 1, 0), *cuts]
     return [Span(ref, head, offset, starts[k + 1][0] if k + 1 < len(starts) else None, line, rows,
@@ -111,73 +114,102 @@ def _head(ref: FileRef, opts: ReadOptions) -> Head | None:
     return Head(header, tuple(issues))
 
 
-def _cuts(path: str, begin: int, size: int, step: int, targets: list[int],
-          quote_budget: int) -> list[tuple[int, int, int]] | None:
+def _cuts(path: str, begin: int, size: int, step: int, targets: list[int]) -> list[tuple[int, int, int]] | None:
     """(byte offset, line, rows before) of the first assumed row start after each target whose
-    row index is a multiple of step; None past quote_budget quotes.
-
-    One pass: quotes are found with memchr (bytes.find) and newlines counted between them,
-    so the cost is a read of the file plus a count of its newlines.
-    """
+    row index is a multiple of step.  One read of the file, a megabyte at a time; None when
+    quoted line breaks are so many that counting them would cost more than the spans save."""
     cuts: list[tuple[int, int, int]] = []
     buf = bytearray(_SCAN_CHUNK)
-    quotes = rows = quoted = 0  # quoted: newlines inside quotes
+    rows = 0
     inside = False  # after an odd number of quotes since `begin`
     want: int | None = None  # the row index the next cut waits for
     with open(path, "rb", buffering=0) as fh:
-        first = 1 + fh.read(begin).count(b"\n")  # the line of the first row
+        line = 1 + fh.read(begin).count(b"\n")  # the line `base + lo` is on
         base = begin
-        while n := fh.readinto(buf):
-            pos = 0
-            while True:
-                quote = buf.find(b'"', pos, n)
-                end = n if quote < 0 else quote
-                if not inside:
-                    while True:  # a row ends at each newline of [pos, end)
-                        if want is None:
-                            while targets and cuts and targets[0] <= cuts[-1][0]:
-                                targets.pop(0)  # behind the last cut already
-                            if not targets or targets[0] >= base + end:
-                                break
-                            # a target passed inside quotes (or in an earlier chunk) counts from here
-                            at = max(targets.pop(0) - base, pos)
-                            want = ((rows + buf.count(b"\n", pos, at)) // step + 1) * step
-                        pos, rows = _walk(buf, pos, end, want - rows, rows)
-                        if rows < want:
-                            break
-                        cuts.append((base + pos, first + rows + quoted, rows))
-                        want = None
-                    rows += buf.count(b"\n", pos, end)
-                else:
-                    quoted += buf.count(b"\n", pos, end)
-                if quote < 0:
-                    break
-                quotes += 1
-                if quotes > quote_budget:
+        while (n := fh.readinto(buf)) and (targets or want is not None):
+            for start in range(0, n, _SUB):
+                lo, hi = start, min(start + _SUB, n)
+                try:
+                    ended, newlines, after = _count(buf, lo, hi, inside, cap=_SPLIT_QUOTES)
+                except _TooDense:
                     return None
-                inside, pos = not inside, quote + 1
+                while True:
+                    if want is None:
+                        while targets and cuts and targets[0] <= cuts[-1][0]:
+                            targets.pop(0)  # behind the last cut already
+                        if not targets or targets[0] >= base + hi:
+                            break
+                        # a target passed inside quotes (or in an earlier block) counts from here
+                        at = max(targets.pop(0) - base, lo)
+                        want = ((rows + _count(buf, lo, at, inside)[0]) // step + 1) * step
+                    if rows + ended < want:
+                        break
+                    pos = _locate(buf, lo, hi, inside, want - rows)
+                    line += buf.count(b"\n", lo, pos)
+                    rows, inside, lo, want = want, False, pos, None
+                    cuts.append((base + pos, line, rows))
+                    ended, newlines, after = _count(buf, lo, hi, inside)
+                rows, line, inside = rows + ended, line + newlines, after
             base += n
-            if not targets and want is None:
-                break  # every cut found: the rest is the last span's
     return [c for c in cuts if c[0] < size]
 
 
-def _walk(buf: bytearray, pos: int, end: int, need: int, rows: int) -> tuple[int, int]:
-    """Past up to `need` newlines of buf[pos:end]: the position after the last one passed and
-    the rows then ended (counted a block at a time, then newline by newline)."""
-    while need:
-        stop = min(pos + 65536, end)
-        got = buf.count(b"\n", pos, stop)
-        if got >= need:
-            for _ in range(need):
-                pos = buf.find(b"\n", pos, stop) + 1
-            return pos, rows + need
-        need -= got
-        rows += got
-        if stop == end:
-            return end, rows
-        pos = stop
-    return pos, rows
+_OTHER_BYTES = bytes(b for b in range(256) if b not in b'"\n')
+
+
+class _TooDense(Exception):
+    pass
+
+
+def _count(buf: bytearray, lo: int, hi: int, inside: bool, cap: int | None = None) -> tuple[int, int, bool]:
+    """Rows ended in buf[lo:hi] (newlines outside quotes), its newlines, and whether it ends
+    inside quotes.  Quote by quote while they are few (bytes.find is memchr); where they are
+    many, only quotes and newlines are kept and split at the quotes (two adjacent quotes
+    change no newline's side, so they go first).  _TooDense when more than `cap` quotes are
+    left apart by newlines (a quoted line break on most rows)."""
+    rows = quoted = 0
+    pos = lo
+    for _ in range(_WALK_QUOTES):
+        quote = buf.find(b'"', pos, hi)
+        end = hi if quote < 0 else quote
+        if inside:
+            quoted += buf.count(b"\n", pos, end)
+        else:
+            rows += buf.count(b"\n", pos, end)
+        if quote < 0:
+            return rows, rows + quoted, inside
+        inside, pos = not inside, quote + 1
+    kept = buf[pos:hi].translate(None, _OTHER_BYTES)
+    paired = kept.replace(b'""', b"")
+    if cap is not None and len(paired) - paired.count(b"\n") > cap:
+        raise _TooDense
+    parts = paired.split(b'"')
+    outside = b"".join(parts[1 if inside else 0::2]).count(b"\n")
+    return rows + outside, rows + quoted + kept.count(b"\n"), inside ^ (len(parts) % 2 == 0)
+
+
+def _locate(buf: bytearray, lo: int, hi: int, inside: bool, k: int) -> int:
+    """The position after the k-th newline outside quotes in buf[lo:hi] (there are k or more)."""
+    while hi - lo > max(_LOCATE_WINDOW, 1):  # halve the range by counting
+        mid = (lo + hi) // 2
+        ended, _, after = _count(buf, lo, mid, inside)
+        if ended >= k:
+            hi = mid
+        else:
+            k, lo, inside = k - ended, mid, after
+    pos = lo
+    while True:
+        newline, quote = buf.find(b"\n", pos, hi), buf.find(b'"', pos, hi)
+        if quote >= 0 and (newline < 0 or quote < newline):
+            inside, pos = not inside, quote + 1
+            continue
+        if newline < 0:
+            return hi  # not reached: k newlines were counted here; a wrong cut fails its span
+        pos = newline + 1
+        if not inside:
+            k -= 1
+            if k == 0:
+                return pos
 
 
 def read_span(span: Span, opts: ReadOptions) -> SpanResult:
