@@ -70,7 +70,7 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
         masks = numbers.masks
     # Hashing costs about as much as classifying when nearly every value is distinct
     # (ids, amounts), and little otherwise: the head of the column decides.
-    head_repeats = len(arr) > DICTIONARY_MIN and (
+    head_repeats = masks is None and len(arr) > DICTIONARY_MIN and (
         len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
     if masks is None and (head_repeats or len(arr) <= DICTIONARY_MIN):
         enc = pc.dictionary_encode(arr)
