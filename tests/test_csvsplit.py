@@ -239,3 +239,13 @@ def test_the_planners_count_either_way(data: bytes, inside: bool, walk: int) -> 
         assert csvsplit._count(buf, 0, len(buf), inside) == (rows, newlines, state)
         for k in range(1, rows + 1):
             assert csvsplit._locate(buf, 0, len(buf), inside, k) == ends[k - 1]
+
+
+def test_a_file_gone_before_planning_is_left_to_one_reader(tmp_path: Path) -> None:
+    path = tmp_path / "g.csv"
+    path.write_text("a,b\n" + "1,2\n" * 1000, encoding="utf-8")
+    ref = ref_of(path)
+    path.unlink()
+    assert plan(ref, ReadOptions(batch_rows=10), 2) == []
+    issues = read_file(ref, ReadOptions(batch_rows=10)).issues
+    assert [i.kind for i in issues] == ["vanished"]

@@ -88,7 +88,15 @@ def can_split(ref: FileRef, opts: ReadOptions) -> bool:
 
 def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
     """Spans at assumed batch starts; [] when the file is better read by one reader (a header
-    with problems, a quoted line break on most rows, no row to cut at)."""
+    with problems, a quoted line break on most rows, no row to cut at, or the file cannot be
+    read here: one reader then reports why)."""
+    try:
+        return _plan(ref, opts, parts)
+    except Exception:  # planning runs in the scan's own process: one reader reports the problem instead
+        return []
+
+
+def _plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
     head = _head(ref, opts)
     if head is None:
         return []
