@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import random
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -291,6 +292,92 @@ def test_spans_in_parallel_equal_one_reader(tmp_path: Path, monkeypatch: pytest.
         reports = []
         for jobs, exact in ((3, False), (1, True)):
             profile = scan_paths([str(target)], read=ReadOptions(batch_rows=64, exact=exact), jobs=jobs)
+            data = to_dict(profile)
+            data.pop("duration_s")
+            reports.append(orjson.dumps(data))
+        assert reports[0] == reports[1]
+
+
+def _csv_rows(rng: random.Random, n: int) -> list[list[str]]:
+    """Rows mixing every content class and the edge strings (a quoted newline among them)."""
+    rows = []
+    for i in range(n):
+        rows.append([str(i), rng.choice(_STRINGS), f"{rng.uniform(-1e4, 1e4):.{rng.randrange(4)}f}",
+                     rng.choice(_STRINGS[11:19]), rng.choice(["a", "b", 'say "hi"', "x,y", "two\nlines", ""])])
+    return rows
+
+
+def _csv_text(rows: list[list[str]], eol: str) -> str:
+    import csv
+    import io
+
+    out = io.StringIO()
+    csv.writer(out, lineterminator=eol).writerows([["id", "s", "amount", "stamp", "note"], *rows])
+    return out.getvalue()
+
+
+# Each variant: what to do to the written file, and whether the spans join (True: nothing for
+# their checks to catch), must fall back to one reader (False: the reader reports something)
+# or may do either (None: a quote or line end that moves rows, caught by a check or harmless).
+_CSV_VARIANTS = {
+    "clean": (lambda b: b, True),
+    "crlf": (None, True),
+    "bom": (lambda b: b"\xef\xbb\xbf" + b, True),
+    "no final newline": (lambda b: b.rstrip(b"\n"), True),
+    "ragged": (lambda b: b.replace(b"\n170,", b"\n170,extra,", 1), False),
+    "invalid utf-8": (lambda b: b.replace(b"\n190,", b"\n190,\xff", 1), False),
+    "line too long": (lambda b: b.replace(b"\n130,", b"\n130," + b"z" * 5000, 1), False),
+    "stray quote": (lambda b: b.replace(b"\n30,", b'\n30x"y,', 1), None),
+    "unclosed quote": (lambda b: b.replace(b"\n150,", b'\n150,"', 1), None),
+    "blank lines": (lambda b: b.replace(b"\n50,", b"\n\n50,", 1), None),
+    "cr alone": (lambda b: b.replace(b"\n110,", b"\r110,", 1), None),
+}
+
+
+@pytest.mark.parametrize(("variant", "batch_rows"), [
+    *[("clean", n) for n in (1, 7, 64, 500)],
+    *[(v, n) for k, v in enumerate(sorted(_CSV_VARIANTS)) if v != "clean" for n in ((1, 7, 64, 500)[k % 4], 37)],
+])
+def test_csv_spans_in_parallel_equal_one_reader(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, variant: str,
+                                                batch_rows: int) -> None:
+    # source: RFC 4180 section 2 (quoted fields hold commas, doubled quotes and line breaks;
+    # CRLF ends records); the other variants are what writers get wrong.
+    import driftline.sources.csvsplit as csvsplit
+
+    monkeypatch.setattr(csvsplit, "SPLIT_MIN_BYTES", 1)
+    fallbacks: list[str] = []
+    real_read_file = csvsplit.read_file
+    monkeypatch.setattr(csvsplit, "read_file", lambda ref, opts: fallbacks.append(ref.rel) or real_read_file(ref, opts))
+    change, joins = _CSV_VARIANTS[variant]
+    rows = _csv_rows(random.Random(batch_rows), 200 if batch_rows == 1 else 1500)
+    data = _csv_text(rows, "\r\n").encode() if variant == "crlf" else change(_csv_text(rows, "\n").encode())
+    target = tmp_path / "one.csv"
+    target.write_bytes(data)
+    opts = ReadOptions(batch_rows=batch_rows, max_record_bytes=4000)
+    if joins:
+        assert len(csvsplit.plan(discover_one(target), opts, 6)) > 1
+    reports = []
+    for jobs, exact in ((3, False), (1, True)):
+        profile = scan_paths([str(target)], read=replace(opts, exact=exact), jobs=jobs)
+        data_ = to_dict(profile)
+        data_.pop("duration_s")
+        reports.append(orjson.dumps(data_))
+    assert reports[0] == reports[1]
+    if joins is not None:
+        assert fallbacks == ([] if joins else ["one.csv"])
+
+
+def test_csv_edge_cases_as_spans(monkeypatch: pytest.MonkeyPatch) -> None:
+    # source: csv-edge-cases suite, each file cut into spans of one row where it has rows enough
+    import driftline.sources.csvsplit as csvsplit
+
+    monkeypatch.setattr(csvsplit, "SPLIT_MIN_BYTES", 1)
+    files = sorted(CSV_SUITE.glob("*.csv"))
+    for batch_rows in (1, 2):
+        reports = []
+        for jobs, exact in ((2, False), (1, True)):
+            read = ReadOptions(batch_rows=batch_rows, exact=exact)
+            profile = scan_paths([str(f) for f in files], read=read, jobs=jobs)
             data = to_dict(profile)
             data.pop("duration_s")
             reports.append(orjson.dumps(data))

@@ -78,7 +78,7 @@ def test_problems_have_positions_and_the_scan_goes_on(tmp_path: Path):
         ("a.jsonl", "bom", "warning", 1, None),
         ("a.jsonl", "crlf", "warning", 1, None),
         ("a.jsonl", "malformed-json", "error", 2, None),
-        ("b.csv", "invalid-utf8", "error", 4, None),  # found while decoding the line (see csvfile._LineGuard)
+        ("b.csv", "invalid-utf8", "error", 4, None),  # found while decoding the line (see csvfile.LineGuard)
         ("b.csv", "ragged-row", "error", 3, None),
         ("c.jsonl", "empty", "warning", 1, None),
         ("d.jsonl.gz", "malformed-json", "error", cut.line, None),

@@ -13,9 +13,9 @@ from driftline.errors import DriftlineError, InputPathError
 from driftline.profile import Profile
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef, discover
-from driftline.sources.jsonsplit import assemble, can_split, plan, read_span
 from driftline.sources.readers import read_file, read_files
 from driftline.sources.remote import StorageOptions, discover_remote, is_url, parse_condition, partitions_pass
+from driftline.sources.split import assemble, can_split, plan, read_span
 
 Progress = Callable[[int, int, str], None]  # (files done, files total, current file)
 
@@ -155,7 +155,7 @@ def _task(task: tuple[str, Any], opts: ReadOptions) -> Any:
 
 def _read_split(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
                 progress: Progress | None) -> list[FileResult]:
-    """Files as tasks, big JSON Lines files as several byte spans; the same results as one by one."""
+    """Files as tasks, big JSON Lines and CSV files as several byte spans; the same results as one by one."""
     tasks: list[tuple[str, Any]] = []
     for ref in files:
         spans = plan(ref, opts, 2 * jobs) if can_split(ref, opts) else []

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from driftline.observe.numbers import number_masks
 from driftline.observe.textclass import (
     CLASSES,
     TIMESTAMP_LOCAL_RE,
@@ -23,6 +24,7 @@ from driftline.observe.textclass import (
     TIMESTAMP_RFC3339_RE,
     class_masks,
 )
+from driftline.observe.valuebytes import value_bytes
 
 EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) for the reference paths everywhere, not the fast ones
 
@@ -60,10 +62,15 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     ({'integer': 2, 'text': 2}, {'integer': [0, 3], 'text': [1, 4]})
     """
     values, index = arr, None
+    raw = value_bytes(arr)  # for byte-level checks: one copy of the values' bytes, not a pass per value
     masks = _timestamp_masks(arr)
+    # Digits alone (ids, counts) are cheaper to check whole than to hash, however often they repeat.
+    numbers = number_masks(arr, raw) if masks is None and raw.isdigit() else None
+    if numbers is not None:
+        masks = numbers.masks
     # Hashing costs about as much as classifying when nearly every value is distinct
     # (ids, amounts), and little otherwise: the head of the column decides.
-    head_repeats = len(arr) > DICTIONARY_MIN and (
+    head_repeats = masks is None and len(arr) > DICTIONARY_MIN and (
         len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
     if masks is None and (head_repeats or len(arr) <= DICTIONARY_MIN):
         enc = pc.dictionary_encode(arr)
@@ -71,8 +78,10 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
             return _profile_few(enc, keep_first)
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
+            raw = value_bytes(values)
     if masks is None:
-        masks = class_masks(values)
+        numbers = number_masks(values, raw)
+        masks = numbers.masks if numbers is not None else class_masks(values)
     counts: dict[str, int] = {}
     first: dict[str, list[int]] = {}
     for cls in CLASSES:
@@ -81,25 +90,40 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
             continue
         row_mask = m if index is None else pc.fill_null(pc.take(m, index), False)
         counts[cls] = row_mask.true_count
-        first[cls] = pc.indices_nonzero(row_mask).slice(0, keep_first).to_pylist()
+        first[cls] = _first_rows(row_mask, keep_first, counts[cls])
     int_digits = frac_digits = 0
     number = pc.or_(masks["integer"], masks["decimal"])
-    if number.true_count:
+    if numbers is not None:
+        int_digits, frac_digits = numbers.int_digits, numbers.frac_digits
+    elif number.true_count:
         int_digits, frac_digits = _digits(values.filter(number))
     stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
     leap = lower = 0
     if stamp.true_count:
         # As textclass.classify counts them: a timestamp with second 60 (every timestamp shape
-        # has ':' just before the seconds, so ':60' finds the candidates), and an RFC 3339
-        # one with a lowercase t or z.
-        if pc.any(pc.match_substring(values, ":60")).as_py():
+        # has ':' just before the seconds, so ':60' in the bytes finds the candidates), and an
+        # RFC 3339 one with a lowercase t or z.
+        if b":60" in raw:
             sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
             leap = _row_count(pc.and_(stamp, sixty), index)
         if masks["timestamp_rfc3339"].true_count:
             lc = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
             lower = _row_count(lc, index)
-    longest = pc.max(pc.utf8_length(values)).as_py() if len(values) else 0
+    # ASCII bytes are characters: the byte lengths are then the lengths, and cost nothing.
+    lengths = pc.binary_length(values) if raw.isascii() else pc.utf8_length(values)
+    longest = pc.max(lengths).as_py() if len(values) else 0
     return StringProfile(counts, first, int(longest or 0), int_digits, frac_digits, leap, lower)
+
+
+_HEAD_ROWS = 4096  # the first rows of a class are nearly always among these
+
+
+def _first_rows(mask: pa.Array, keep: int, count: int) -> list[int]:
+    """The first `keep` positions where mask is true (it is true `count` times)."""
+    head = pc.indices_nonzero(mask.slice(0, _HEAD_ROWS))
+    if len(head) < min(keep, count):
+        head = pc.indices_nonzero(mask)
+    return head.slice(0, keep).to_pylist()
 
 
 FEW = 512  # distinct values looked up one by one in a process-wide table of earlier verdicts
@@ -115,28 +139,29 @@ def _profile_few(enc: pa.DictionaryArray, keep_first: int) -> StringProfile:
     if unseen:
         _learn(unseen)
     verdicts = [_SEEN[v] for v in distinct]
-    per_value = pc.value_counts(enc.indices.drop_null())
-    n_of = dict(zip(per_value.field("values").to_pylist(), per_value.field("counts").to_pylist(), strict=True))
-    counts_by_k: dict[int, int] = {}
-    leap = lower = int_digits = frac_digits = 0
-    for i, (k, is_leap, is_lower, d_int, d_frac) in enumerate(verdicts):
-        n = n_of.get(i, 0)
-        if not n:
-            continue
-        counts_by_k[k] = counts_by_k.get(k, 0) + n
-        leap += n if is_leap else 0
-        lower += n if is_lower else 0
-        int_digits, frac_digits = max(int_digits, d_int), max(frac_digits, d_frac)
+    # Every value of a dictionary occurs in the rows it was made from: the maxima need no counts.
+    int_digits = max((v[3] for v in verdicts), default=0)
+    frac_digits = max((v[4] for v in verdicts), default=0)
     row_class = pc.take(pa.array([v[0] for v in verdicts], pa.int8()), enc.indices)
+    if row_class.null_count:
+        row_class = pc.fill_null(row_class, -1)
     counts: dict[str, int] = {}
     first: dict[str, list[int]] = {}
-    for k, cls in enumerate(CLASSES):
-        if k in counts_by_k:
-            counts[cls] = counts_by_k[k]
-            hits = pc.fill_null(pc.equal(row_class, k), False)
-            first[cls] = pc.indices_nonzero(hits).slice(0, keep_first).to_pylist()
-    longest = max((len(v) for i, v in enumerate(distinct) if n_of.get(i)), default=0)
+    for k in sorted({v[0] for v in verdicts}):
+        hits = pc.equal(row_class, k)
+        counts[CLASSES[k]] = hits.true_count
+        first[CLASSES[k]] = _first_rows(hits, keep_first, counts[CLASSES[k]])
+    leap = _flagged_rows(enc.indices, [v[1] for v in verdicts])
+    lower = _flagged_rows(enc.indices, [v[2] for v in verdicts])
+    longest = max((len(v) for v in distinct), default=0)
     return StringProfile(counts, first, longest, int_digits, frac_digits, leap, lower)
+
+
+def _flagged_rows(indices: pa.Array, flags: list[bool]) -> int:
+    """How many rows hold a value whose flag is set."""
+    if not any(flags):
+        return 0
+    return int(pc.sum(pc.take(pa.array([int(f) for f in flags], pa.int64()), indices)).as_py() or 0)
 
 
 def _learn(values: list[str]) -> None:

@@ -9,8 +9,10 @@ from __future__ import annotations
 import csv
 import io
 import re
-from collections.abc import Iterator
-from typing import BinaryIO
+from collections import deque
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass
+from typing import Any, BinaryIO
 
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -18,6 +20,7 @@ import pyarrow.csv as pcsv
 
 from driftline.observe.columnar import observe_table
 from driftline.observe.observation import Observation
+from driftline.observe.valuebytes import value_view
 from driftline.sources.base import FileIssue, ReadOptions
 
 _SNIFF_BYTES = 64 * 1024
@@ -61,7 +64,7 @@ def _unique(names: list[str]) -> list[str]:
 _BAD_BYTES = re.compile("[\udc80-\udcff]+")  # undecodable bytes, as surrogateescape shows them
 
 
-class _LineGuard(io.RawIOBase):
+class LineGuard(io.RawIOBase):
     """Passes whole lines only, valid as UTF-8, and ends the data just before a line longer
     than limit bytes.
 
@@ -173,10 +176,19 @@ def _read_header(buffered: io.BufferedReader) -> bytes:
     return out
 
 
-def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item]:
-    """Stream a delimited text file in batches of at most opts.batch_rows rows."""
-    guard = _LineGuard(stream, opts.max_record_bytes)
-    buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
+@dataclass(frozen=True, slots=True)
+class Header:
+    """What the header record says: how to cut the rows that follow it."""
+
+    delimiter: str
+    names: tuple[str, ...]
+    lines: int  # lines it spans (at least 1)
+    size: int  # its bytes, a byte order mark included: where the first row starts
+
+
+def read_header(guard: LineGuard, buffered: io.BufferedReader, rel: str, opts: ReadOptions,
+                tsv: bool) -> Iterator[FileIssue | Header]:
+    """The problems found before the first row, then the Header when rows may follow."""
     head = buffered.peek(_SNIFF_BYTES)[:_SNIFF_BYTES]
     if guard.cut is not None and not head:
         yield from _ending(rel, opts, guard)
@@ -185,7 +197,8 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         yield FileIssue(rel, "empty", "empty file: no header and no rows", "warning", line=1, byte_offset=0)
         return
     if head.startswith(b"\xef\xbb\xbf"):
-        yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0)
+        yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning",
+                        line=1, byte_offset=0)
     first_line = head.split(b"\n", 1)[0]
     if first_line.endswith(b"\r"):
         yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=1, byte_offset=len(first_line) - 1)
@@ -202,8 +215,51 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         yield FileIssue(rel, "too-wide", f"{len(names):,} columns, more than {opts.max_columns:,} (--max-columns); "
                         "file not profiled", line=1, byte_offset=0)
         return
-    names = _unique(names)
-    header_lines = max(header.count(b"\n"), 1)
+    yield Header(delimiter, tuple(_unique(names)), max(header.count(b"\n"), 1), len(header))
+
+
+def arrow_options(header: Header, block: int,
+                  on_invalid: Callable[[pcsv.InvalidRow], str]) -> dict[str, Any]:
+    """Arrow's CSV options for the rows after a header: binary cells, RFC 4180 quoting with
+    newlines in quoted values, ragged rows handed to on_invalid."""
+    names = list(header.names)
+    return {
+        "read_options": pcsv.ReadOptions(use_threads=False, block_size=block, column_names=names, skip_rows=0),
+        "parse_options": pcsv.ParseOptions(delimiter=header.delimiter, newlines_in_values=True,
+                                           invalid_row_handler=on_invalid),
+        "convert_options": pcsv.ConvertOptions(column_types=dict.fromkeys(names, pa.binary()),
+                                               strings_can_be_null=False, quoted_strings_can_be_null=False),
+    }
+
+
+def head_of(stream: BinaryIO, rel: str, opts: ReadOptions, *,
+            tsv: bool = False) -> tuple[list[FileIssue], Header | None]:
+    """What read_csv reports before the first row of stream, and the header (None when no
+    rows can follow)."""
+    guard = LineGuard(stream, opts.max_record_bytes)
+    issues: list[FileIssue] = []
+    header: Header | None = None
+    for item in read_header(guard, io.BufferedReader(guard, buffer_size=_SNIFF_BYTES), rel, opts, tsv):
+        if isinstance(item, Header):
+            header = item
+        else:
+            issues.append(item)
+    return issues, header
+
+
+def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item]:
+    """Stream a delimited text file in batches of at most opts.batch_rows rows."""
+    guard = LineGuard(stream, opts.max_record_bytes)
+    buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
+    header: Header | None = None
+    for item in read_header(guard, buffered, rel, opts, tsv):
+        if isinstance(item, Header):
+            header = item
+        else:
+            yield item
+    if header is None:
+        return
+    header_lines = header.lines
     ragged: list[FileIssue] = []
 
     def on_invalid(row: pcsv.InvalidRow) -> str:
@@ -218,20 +274,14 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         return "skip"
 
     try:
-        reader = pcsv.open_csv(
-            buffered,
-            read_options=pcsv.ReadOptions(use_threads=False, block_size=_block(opts), column_names=names, skip_rows=0),
-            parse_options=pcsv.ParseOptions(delimiter=delimiter, newlines_in_values=True, invalid_row_handler=on_invalid),
-            convert_options=pcsv.ConvertOptions(column_types={n: pa.binary() for n in names}, strings_can_be_null=False, quoted_strings_can_be_null=False),
-        )
+        reader = pcsv.open_csv(buffered, **arrow_options(header, _block(opts), on_invalid))
     except pa.ArrowInvalid as exc:
         if "Empty CSV file" not in str(exc):  # a header and no rows is an empty table, not a problem
             yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
         yield from _ending(rel, opts, guard)
         return
-    state = _CsvState(rel, opts, header_lines)
-    pending: list[pa.RecordBatch] = []
-    pending_rows = 0
+    state = CsvState(rel, opts, line=header_lines + 1)
+    batches = Rebatch(opts.batch_rows)
     while True:
         try:
             rb = reader.read_next_batch()
@@ -245,88 +295,114 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         yield from ragged
         ragged.clear()
         yield from guard.take_issues(rel)
-        pending.append(rb)
-        pending_rows += rb.num_rows
-        while pending_rows >= opts.batch_rows:
-            table = pa.Table.from_batches(pending).combine_chunks()
-            yield from state.observe(table.slice(0, opts.batch_rows))
-            rest = table.slice(opts.batch_rows)
-            pending = rest.to_batches()
-            pending_rows = rest.num_rows
+        for batch in batches.add(rb):
+            yield state.observe(batch)
     yield from ragged
-    if pending_rows:
-        yield from state.observe(pa.Table.from_batches(pending).combine_chunks())
+    for batch in batches.rest():
+        yield state.observe(batch)
     yield from _ending(rel, opts, guard)
 
 
-def _ending(rel: str, opts: ReadOptions, guard: _LineGuard) -> Iterator[FileIssue]:
+def _ending(rel: str, opts: ReadOptions, guard: LineGuard) -> Iterator[FileIssue]:
     yield from guard.take_issues(rel)
     yield from guard.rest_issue(rel)
     if guard.cut is not None:
         yield _too_long(rel, opts, guard)
 
 
-def _too_long(rel: str, opts: ReadOptions, guard: _LineGuard) -> FileIssue:
+def _too_long(rel: str, opts: ReadOptions, guard: LineGuard) -> FileIssue:
     line, offset = guard.cut or (1, 0)
     return FileIssue(rel, "too-large", f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
                      "it and the rest of the file were not profiled", line=line, byte_offset=offset)
 
 
-class _CsvState:
-    def __init__(self, rel: str, opts: ReadOptions, header_lines: int) -> None:
+class Rebatch:
+    """Cuts Arrow's record batches, whatever their size, into batches of exactly `size` rows
+    (the last one shorter): slices, and a copy only of a batch that straddles two of Arrow's."""
+
+    def __init__(self, size: int) -> None:
+        self.size = size
+        self._parts: deque[pa.RecordBatch] = deque()
+        self._rows = 0
+
+    def add(self, rb: pa.RecordBatch) -> Iterator[pa.RecordBatch]:
+        if rb.num_rows:
+            self._parts.append(rb)
+            self._rows += rb.num_rows
+        while self._rows >= self.size:
+            yield self._take(self.size)
+
+    def rest(self) -> Iterator[pa.RecordBatch]:
+        if self._rows:
+            yield self._take(self._rows)
+
+    def _take(self, n: int) -> pa.RecordBatch:
+        pieces: list[pa.RecordBatch] = []
+        need = n
+        while need:
+            head = self._parts[0]
+            if head.num_rows <= need:
+                pieces.append(self._parts.popleft())
+                need -= head.num_rows
+            else:
+                pieces.append(head.slice(0, need))
+                self._parts[0] = head.slice(need)
+                need = 0
+        self._rows -= n
+        if len(pieces) == 1:
+            return pieces[0]
+        columns = [pa.concat_arrays([p.column(i) for p in pieces]) for i in range(pieces[0].num_columns)]
+        return pa.RecordBatch.from_arrays(columns, schema=pieces[0].schema)
+
+
+class CsvState:
+    """Rows, batches and the line of the next row, from a given start (a file's first row, or
+    a span's, see csvsplit)."""
+
+    def __init__(self, rel: str, opts: ReadOptions, line: int, rows: int = 0, batch: int = 0) -> None:
         self.rel, self.opts = rel, opts
-        self.rows = 0
-        self.batch = 0
-        self.line = header_lines + 1  # line of the next row (exact unless blank or ragged lines intervene)
-        self.cell_issues = 0
-        self.issues: list[FileIssue] = []
+        self.rows = rows
+        self.batch = batch
+        self.line = line  # line of the next row (exact unless blank or ragged lines intervene)
 
-    def observe(self, table: pa.Table) -> Iterator[Item]:
-        columns = [self._decode(name, col.combine_chunks()) for name, col in zip(table.column_names, table.columns, strict=True)]
-        yield from self.issues
-        self.issues.clear()
-        text = pa.Table.from_arrays(columns, names=table.column_names)
-        lines = self._lines(table)
-        yield observe_table(text, file=self.rel, batch=self.batch, row_start=self.rows, lines=lines, text_source=True,
-                            exact=self.opts.exact or None)
-        self.rows += table.num_rows
+    def observe(self, cells: pa.RecordBatch) -> Observation:
+        """One batch of binary cells observed as text.
+
+        The cells are valid UTF-8 without a check here: every byte Arrow reads passed
+        LineGuard's check (or csvsplit's, for a span), and a cell is cut from that text at
+        ASCII bytes only (Arrow takes an ASCII delimiter, quotes and line ends), so it cannot
+        split a character.  A view as string is then exact and costs nothing.
+        """
+        text = pa.RecordBatch.from_arrays([c.view(pa.string()) for c in cells.columns], names=cells.schema.names)
+        lines = self._lines(cells)
+        obs = observe_table(text, file=self.rel, batch=self.batch, row_start=self.rows, lines=lines,
+                            text_source=True, exact=self.opts.exact or None)
+        self.rows += cells.num_rows
         self.batch += 1
+        return obs
 
-    def _decode(self, name: str, arr: pa.Array) -> pa.Array:
-        try:
-            return arr.cast(pa.string())
-        except pa.ArrowInvalid:
-            pass
-        # Rare path: find the bad cells one by one, report them, keep the rest of the column.
-        fixed: list[str | None] = []
-        for i, v in enumerate(arr.to_pylist()):
-            if v is None:
-                fixed.append(None)
-                continue
-            try:
-                fixed.append(v.decode("utf-8"))
-            except UnicodeDecodeError as exc:
-                fixed.append(v.decode("utf-8", "replace"))
-                self.cell_issues += 1
-                if self.cell_issues <= _MAX_CELL_ISSUES:
-                    self.issues.append(
-                        FileIssue(
-                            self.rel,
-                            "invalid-utf8",
-                            f"column {name!r}: invalid UTF-8 at byte {exc.start} of the cell; read with U+FFFD",
-                            row=self.rows + i,
-                        )
-                    )
-        return pa.array(fixed, pa.string())
-
-    def _lines(self, table: pa.Table) -> list[int]:
+    def _lines(self, cells: pa.RecordBatch) -> Sequence[int]:
         # Each row starts one line after the previous one, plus the newlines inside its cells.
-        if table.num_rows == 0:
+        n = cells.num_rows
+        if n == 0:
             return []
-        step = pa.array([1] * table.num_rows, pa.int64())
-        for col in table.columns:
-            step = pc.add(step, pc.fill_null(pc.count_substring(col.combine_chunks(), "\n"), 0))
+        multiline = [col for col in cells.columns if holds_newline(col)]
+        if not multiline:  # the common case, found by one byte search per column
+            starts: Sequence[int] = range(self.line, self.line + n)
+            self.line += n
+            return starts
+        step = pa.array([1] * n, pa.int64())
+        for col in multiline:
+            step = pc.add(step, pc.fill_null(pc.count_substring(col, "\n"), 0))
         ends = pc.cumulative_sum(step).to_pylist()
         starts = [self.line] + [self.line + e for e in ends[:-1]]
         self.line += ends[-1]
         return starts
+
+
+_NEWLINE = re.compile(b"\n")
+
+
+def holds_newline(arr: pa.Array) -> bool:
+    """Whether any value of a binary array holds a newline: one search of its bytes."""
+    return _NEWLINE.search(value_view(arr)) is not None

@@ -54,7 +54,7 @@ def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str,
     return "unreadable", f"read failed: {exc}"
 
 
-def _changed(ref: FileRef) -> str | None:
+def file_changed(ref: FileRef) -> str | None:
     """How the file differs from what discovery saw, or None: a file rewritten, appended to or
     removed during the scan gives rows that belong to no single version of it."""
     try:
@@ -171,7 +171,7 @@ class _Read:
         if not observations and not issues and ref.size == 0:
             issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
         if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
-            change = _changed(ref)
+            change = file_changed(ref)
             if change is not None:
                 self.complete = False
                 issues.append(FileIssue(ref.rel, "changed", change))
