@@ -62,7 +62,8 @@ def observe_table(
     for name, col in zip(table.column_names, table.columns, strict=True):
         arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
         _observe(arr, paths.child(None, name), None, ctx)
-    return Observation(file=file, batch=batch, row_start=row_start, rows=table.num_rows, fields=dict(sorted(ctx.out.items())))
+    return Observation(file=file, batch=batch, row_start=row_start, rows=table.num_rows,
+                       fields=dict(sorted(ctx.out.items())))
 
 
 def observe_column(arr: pa.Array, name: str, *, file: str, row_start: int) -> dict[str, FieldStats]:
@@ -159,13 +160,15 @@ def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None
         extra.update(_string_stats(arr, rows, ctx, samples))
     elif pa.types.is_binary(t) or pa.types.is_large_binary(t) or pa.types.is_fixed_size_binary(t):
         if nonnull:
-            extra["max_length"] = _max_or_zero(pc.binary_length(arr)) if not pa.types.is_fixed_size_binary(t) else t.byte_width
+            fixed = pa.types.is_fixed_size_binary(t)
+            extra["max_length"] = t.byte_width if fixed else _max_or_zero(pc.binary_length(arr))
     elif pa.types.is_integer(t) or pa.types.is_floating(t) or pa.types.is_decimal(t):
         extra.update(_number_stats(arr, t))
     elif pa.types.is_temporal(t) and nonnull:
         lo, hi = _min_max(arr)
         extra["minimum"], extra["maximum"] = _temporal_text(lo), _temporal_text(hi)
-    ctx.out[path] = FieldStats(types={key: nonnull} if nonnull else {}, nulls=nulls, samples=dict(sorted(samples.items())), **extra)
+    ctx.out[path] = FieldStats(types={key: nonnull} if nonnull else {}, nulls=nulls,
+                               samples=dict(sorted(samples.items())), **extra)
 
 
 def _empty_items(path: str, ctx: _Ctx) -> None:
@@ -265,7 +268,8 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
     return out
 
 
-def _string_stats(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: dict[str, tuple[Example, ...]]) -> dict[str, Any]:
+def _string_stats(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx,
+                  samples: dict[str, tuple[Example, ...]]) -> dict[str, Any]:
     if arr.null_count == len(arr):
         return {}
     if ctx.exact:

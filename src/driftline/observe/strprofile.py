@@ -23,6 +23,8 @@ from driftline.observe.textclass import (
     TIMESTAMP_OFFSET_RE,
     TIMESTAMP_RFC3339_RE,
     class_masks,
+    digit_counts,
+    max_digits,
 )
 from driftline.observe.valuebytes import value_bytes
 
@@ -96,7 +98,7 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     if numbers is not None:
         int_digits, frac_digits = numbers.int_digits, numbers.frac_digits
     elif number.true_count:
-        int_digits, frac_digits = _digits(values.filter(number))
+        int_digits, frac_digits = max_digits(values.filter(number))
     stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
     leap = lower = 0
     if stamp.true_count:
@@ -177,7 +179,7 @@ def _learn(values: list[str]) -> None:
         cls = CLASSES[k]
         stamp = cls in _STAMP_SHAPES
         d_int = d_frac = 0
-        if cls in ("integer", "decimal"):  # ASCII digits, '-' and '.': as textclass's _digits
+        if cls in ("integer", "decimal"):  # ASCII digits, '-' and '.': as textclass.digit_counts
             body = v[1:] if v.startswith("-") else v
             head, dot, tail = body.partition(".")
             d_int, d_frac = len(head), (len(tail) if dot else 0)
@@ -233,17 +235,6 @@ def _row_count(mask: pa.Array, index: pa.Array | None) -> int:
     return pc.fill_null(pc.take(mask, index), False).true_count
 
 
-def _digits(numbers: pa.Array) -> tuple[int, int]:
-    """Max digits before and after the point over integer/decimal strings (as textclass)."""
-    length = pc.cast(pc.binary_length(numbers), pa.int64())
-    minus = pc.cast(pc.starts_with(numbers, "-"), pa.int64())
-    point = pc.cast(pc.find_substring(numbers, "."), pa.int64())
-    has_point = pc.greater_equal(point, 0)
-    before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
-    after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
-    return pc.max(before).as_py() or 0, pc.max(after).as_py() or 0
-
-
 @dataclass(frozen=True, slots=True)
 class Verdicts:
     """Per value of a string array: its class (index in CLASSES) and what classify counts for it."""
@@ -276,12 +267,7 @@ def verdicts(values: pa.Array) -> Verdicts:
     sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
     lower = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
     number = pc.or_(masks["integer"], masks["decimal"])
-    length = pc.cast(pc.binary_length(values), pa.int64())
-    minus = pc.cast(pc.starts_with(values, "-"), pa.int64())
-    point = pc.cast(pc.find_substring(values, "."), pa.int64())
-    has_point = pc.greater_equal(point, 0)
-    before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
-    after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
+    before, after = digit_counts(values)
     zero = pa.scalar(0, pa.int64())
     return Verdicts(kind, pc.and_(stamp, sixty), lower, pc.if_else(number, before, zero),
                     pc.if_else(number, after, zero))

@@ -83,6 +83,8 @@ __all__ = [
     "classify",
     "class_masks",
     "class_of",
+    "digit_counts",
+    "max_digits",
 ]
 
 CLASSES: tuple[str, ...] = (
@@ -430,7 +432,7 @@ def classify(arr: pa.Array | pa.ChunkedArray) -> ClassScan:
                     first_index[name] = offset + _first_true(mask)
         number = pc.or_(masks["integer"], masks["decimal"])
         if number.true_count:
-            i, f = _digits(chunk.filter(number))
+            i, f = max_digits(chunk.filter(number))
             int_digits, frac_digits = max(int_digits, i), max(frac_digits, f)
         stamp = pc.or_(
             pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]),
@@ -458,12 +460,18 @@ def classify(arr: pa.Array | pa.ChunkedArray) -> ClassScan:
     )
 
 
-def _digits(numbers: pa.Array) -> tuple[int, int]:
-    """Max digits before and after the point over integer/decimal strings."""
+def digit_counts(numbers: pa.Array) -> tuple[pa.Array, pa.Array]:
+    """Per integer or decimal string: its digits before and after the point."""
     length = pc.cast(pc.binary_length(numbers), pa.int64())
     minus = pc.cast(pc.starts_with(numbers, "-"), pa.int64())
     point = pc.cast(pc.find_substring(numbers, "."), pa.int64())  # -1: no point
     has_point = pc.greater_equal(point, 0)
     before = pc.if_else(has_point, pc.subtract(point, minus), pc.subtract(length, minus))
     after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
+    return before, after
+
+
+def max_digits(numbers: pa.Array) -> tuple[int, int]:
+    """Max digits before and after the point over integer/decimal strings."""
+    before, after = digit_counts(numbers)
     return pc.max(before).as_py() or 0, pc.max(after).as_py() or 0
