@@ -5,12 +5,15 @@ from __future__ import annotations
 import datetime as dt
 import math
 import random
+from pathlib import Path
 
 import pyarrow as pa
 import pytest
 
 from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.columnar import observe_table
+from driftline.profile import Profile
+from driftline.report import to_dict
 
 # Values at the edges the statistics care about, each with its source.
 _FLOATS = [0.0, -0.0, 1.5, -2.25, math.nan, math.inf, -math.inf,  # source: IEEE 754 (signed zero, NaN, infinities)
@@ -105,3 +108,61 @@ def test_repeated_column_names_and_empty_batches() -> None:
     batches = [Batch(twice, "a.parquet", 0, 0), Batch(pa.table({"x": pa.array([], pa.int64())}), "b.parquet", 0, 0),
                Batch(pa.table({"x": [5]}), "c.parquet", 0, 0)]
     assert observe_batches(batches) == _one_by_one(batches)
+
+
+# -- through the scan: files read in groups, in a pool or not --------------------------------
+
+
+def _landing(root: Path) -> Path:
+    import pyarrow.parquet as pq
+
+    for k in range(40):
+        cols = {"id": pa.array(range(k * 10, k * 10 + 10), pa.int64()),
+                "reading": pa.array([None if i % 4 == 0 else k * i for i in range(10)],
+                                    pa.int32() if k < 15 else pa.int64()),  # a widening after 15 files
+                "site": pa.array([["a", "b", "", "n/a"][i % 4] for i in range(10)])}
+        if k >= 30:
+            cols["battery"] = pa.array([float(i) for i in range(10)])  # a column appears
+        pq.write_table(pa.table(cols), root / f"part-{k:03d}.parquet")
+    (root / "part-020-bad.parquet").write_bytes(b"PAR1" + b"\x00" * 64 + b"PAR1")  # a footer that cannot be read
+    (root / "notes.jsonl").write_text('{"id": 1}\n')
+    return root
+
+
+def test_grouped_reading_equals_file_by_file(tmp_path: Path) -> None:
+    from driftline.scan import scan_paths
+    from driftline.sources.base import ReadOptions
+    from driftline.sources.discover import discover
+    from driftline.sources.readers import read_file
+
+    root = _landing(tmp_path)
+    found = discover([root])
+    alone = Profile(found.root, tuple(read_file(ref, ReadOptions()) for ref in found.files), found.skipped)
+    for jobs in (1, 2):
+        profile = scan_paths([root], jobs=jobs)
+        assert profile.files == alone.files
+        # as the report too: examples compare by place only, their values must match as well
+        assert _report(profile) == _report(alone)
+    # the widening shows at the first valid value of the first int64 file (row 0 holds a null)
+    assert [(e.kind, e.path, e.file, e.row, e.example) for e in profile.events] == [
+        ("field-new", "reading", "part-000.parquet", 0, "null"), ("field-new", "site", "part-000.parquet", 0, '"a"'),
+        ("textclass-changed", "site", "part-000.parquet", 2, '""'),
+        ("textclass-changed", "site", "part-000.parquet", 3, '"n/a"'),
+        ("type-widened", "reading", "part-015.parquet", 1, "15"),
+        ("field-new", "battery", "part-030.parquet", 0, "0.0")]
+
+
+def _report(profile: Profile) -> dict:
+    data = to_dict(profile)
+    data.pop("duration_s"), data.pop("options")  # not content: how long, and how it was asked for
+    return data
+
+
+def test_max_errors_stops_at_the_same_file_with_and_without_a_pool(tmp_path: Path) -> None:
+    from driftline.scan import scan_paths
+
+    root = _landing(tmp_path)
+    serial, pooled = (scan_paths([root], jobs=jobs, max_errors=1) for jobs in (1, 2))
+    assert [f.rel for f in serial.files] == [f.rel for f in pooled.files]
+    assert serial.files[-1].rel == "part-020-bad.parquet" and len(serial.files) == 22
+    assert serial == pooled

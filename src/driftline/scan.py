@@ -100,26 +100,19 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
         # map keeps input order, so stopping at max_errors is the same as the serial run.
         done = (pool.map(read_files, groups, [opts] * len(groups)) if pool
                 else (read_files(g, opts, before=before) for g in groups))
-        for group in done:
-            for res in group:
-                if progress and pool:
-                    progress(len(results), total, res.rel)
-                results.append(res)
-                errors += res.errors
-                if max_errors is not None and errors >= max_errors:
-                    raise _Enough
-    except _Enough:
-        pass
+        for res in (res for group in done for res in group):
+            if progress and pool:
+                progress(len(results), total, res.rel)
+            results.append(res)
+            errors += res.errors
+            if max_errors is not None and errors >= max_errors:
+                break
     finally:
         if pool:
             pool.shutdown(wait=True, cancel_futures=True)
     if progress:
         progress(len(results), total, "")
     return results
-
-
-class _Enough(Exception):
-    """max_errors reached: stop reading."""
 
 
 _GROUP_FILES = 256  # Parquet files read one after another and observed together (observe.bulk)
