@@ -114,11 +114,10 @@ class _Group:
             self._row = pc.subtract(pc.cumulative_sum(pa.repeat(pa.scalar(1, pa.int64()), len(self.col))), 1)
         return self._row
 
-    def per_batch(self, columns: dict[str, pa.Array], aggs: list[tuple[str, str]], keys: tuple[str, ...] = ()
-                  ) -> pa.Table:
-        """Aggregates of columns per batch (and per extra key column), in batch order."""
+    def per_batch(self, columns: dict[str, pa.Array], aggs: list[tuple[str, str]]) -> pa.Table:
+        """Aggregates of columns per batch, in batch order."""
         table = pa.table({"g": self.gid, **columns})
-        return table.group_by(["g", *keys], use_threads=False).aggregate(aggs).sort_by([("g", "ascending")])
+        return table.group_by("g", use_threads=False).aggregate(aggs).sort_by([("g", "ascending")])
 
 
 def _observe_group(path: str, t: pa.DataType, members: list[tuple[int, pa.Array]], batches: Sequence[Batch],
