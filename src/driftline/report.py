@@ -23,6 +23,7 @@ from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
 from driftline.observe.textclass import classify
 from driftline.profile import Profile
 from driftline.sources.base import FileIssue, FileResult
+from driftline.sources.dialect import Dialect
 from driftline.sources.discover import Skipped
 
 REPORT_FORMAT = "driftline-report"
@@ -94,6 +95,7 @@ def _file_json(f: FileResult, batches: bool) -> dict[str, Any]:
         "rows": f.rows,
         "complete": f.complete,
         "declared": f.declared,
+        "dialect": f.dialect.to_json() if f.dialect is not None else None,
         "issues": [i.to_json() for i in f.issues],
         "batches": [o.to_json() for o in f.observations] if batches else None,
     }
@@ -119,6 +121,7 @@ def file_from_json(fd: Mapping[str, Any]) -> FileResult:
         issues=tuple(FileIssue.from_json(i) for i in fd.get("issues", [])),
         declared=fd.get("declared"),
         complete=fd.get("complete", True),
+        dialect=Dialect.from_json(fd["dialect"]) if fd.get("dialect") else None,
     )
 
 

@@ -6,8 +6,10 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from driftline.errors import PolicyError
 from driftline.observe.observation import Observation
 from driftline.observe.stats import pickled_by_fields
+from driftline.sources.dialect import Dialect, parse_pin
 
 DEFAULT_BATCH_ROWS = 65_536
 DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
@@ -30,7 +32,9 @@ class ReadOptions:
     max_decompressed_bytes  stop a compressed file past this many bytes (decompression bombs)
     max_decompression_ratio stop once bytes out / bytes in exceeds this, past RATIO_FLOOR_BYTES
                             out (streams as they decompress; Parquet row groups by their footer)
-    delimiter               CSV delimiter; None sniffs it from the first 64 KiB
+    delimiter               CSV delimiter; None finds it (sources/dialect.py)
+    csv_dialects            pins of the CSV dialect, '[GLOB:]KEY=VALUE[,KEY=VALUE…]' each (parse_pin);
+                            what a pin leaves open is still found from the data
     exact                   take the exact per-record path everywhere (no columnar fast path);
                             the results are the same, only slower: for checking the fast path
 
@@ -48,6 +52,7 @@ class ReadOptions:
     max_decompression_ratio: float = DEFAULT_MAX_DECOMPRESSION_RATIO
     max_columns: int = DEFAULT_MAX_COLUMNS
     exact: bool = False
+    csv_dialects: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if self.batch_rows < 1:
@@ -58,8 +63,22 @@ class ReadOptions:
             raise ValueError(f"max_decompressed_bytes must be at least 1, got {self.max_decompressed_bytes}")
         if self.max_columns < 1:
             raise ValueError(f"max_columns must be at least 1, got {self.max_columns}")
+        for spec in self.csv_dialects:
+            parse_pin(spec)  # a bad pin is an error before any file is read
+        if self.delimiter is not None:
+            # a name ('tab', 'pipe') or a typed escape ('\\t') as --csv-dialect takes it
+            try:
+                delimiter = parse_pin(f"delimiter={_typed(self.delimiter)}").delimiter
+            except PolicyError:
+                raise PolicyError(f"--delimiter {self.delimiter!r}: give one punctuation character or a name "
+                                  "(comma, tab, semicolon, pipe, colon, caret, tilde, space)") from None
+            object.__setattr__(self, "delimiter", delimiter)
         if not self.max_decompression_ratio >= 1:
             raise ValueError(f"max_decompression_ratio must be at least 1, got {self.max_decompression_ratio}")
+
+
+def _typed(delimiter: str) -> str:
+    return {"\\t": "tab", "\t": "tab", " ": "space", ",": "comma"}.get(delimiter, delimiter)
 
 
 @pickled_by_fields
@@ -125,6 +144,7 @@ class FileResult:
     issues: tuple[FileIssue, ...] = ()
     declared: dict[str, str] | None = None  # Parquet footer: path → type key
     complete: bool = True  # False when a fatal problem stopped the read early
+    dialect: Dialect | None = None  # CSV / TSV: how the file is written (found or pinned)
     digest: str | None = field(default=None, compare=False)
 
     @property

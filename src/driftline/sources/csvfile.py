@@ -1,4 +1,4 @@
-"""CSV / TSV (RFC 4180 quoting, header row, sniffed delimiter) → observations of text columns.
+"""CSV / TSV (dialect found by sources/dialect.py, or pinned) → observations of text columns.
 
 Cells are read as bytes and checked as UTF-8 here, so one bad cell is reported with its
 row instead of failing the whole block; types are inferred later from content classes.
@@ -6,7 +6,6 @@ row instead of failing the whole block; types are inferred later from content cl
 
 from __future__ import annotations
 
-import csv
 import io
 import re
 from collections import deque
@@ -22,6 +21,15 @@ from driftline.observe.columnar import observe_table
 from driftline.observe.observation import Observation
 from driftline.observe.valuebytes import value_view
 from driftline.sources.base import FileIssue, ReadOptions
+from driftline.sources.dialect import (
+    ROW_NAME_COLUMN,
+    SAMPLE_BYTES,
+    Dialect,
+    Finding,
+    find_dialect,
+    pin_for,
+    positional_name,
+)
 
 _SNIFF_BYTES = 64 * 1024
 _BLOCK = 8 * 1024 * 1024
@@ -31,24 +39,14 @@ Item = Observation | FileIssue
 
 
 def sniff_delimiter(head: bytes, default: str = ",") -> str:
-    """The delimiter of a CSV sample: one of , ; TAB |.
+    """The delimiter of a CSV sample, as the dialect finder sees it.
 
     >>> sniff_delimiter(b"a;b;c\\n1;2;3\\n")
     ';'
     """
-    text = head.decode("utf-8", "replace")
-    try:
-        return csv.Sniffer().sniff(text, delimiters=",;\t|").delimiter
-    except csv.Error:
+    if not head.strip():
         return default
-
-
-def _header(head: bytes, delimiter: str) -> list[str] | None:
-    text = head.decode("utf-8", "replace").lstrip("\ufeff")
-    try:
-        return next(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter))
-    except (StopIteration, csv.Error):
-        return None
+    return find_dialect(head.removeprefix(_BOM), at_end=True).dialect.delimiter
 
 
 def _unique(names: list[str]) -> list[str]:
@@ -75,8 +73,10 @@ class LineGuard(io.RawIOBase):
     text strictly first), and then gives up on the whole file.
     """
 
-    def __init__(self, inner: BinaryIO, limit: int) -> None:
+    def __init__(self, inner: BinaryIO, limit: int, prefix: bytes = b"", cr: bool = False) -> None:
         self._inner, self._limit = inner, limit
+        self._prefix = prefix  # bytes already taken from inner (the dialect finder's sample)
+        self._cr = cr  # CR-only line ends: each CR becomes LF, byte for byte, so offsets and lines stay exact
         self._step = min(1 << 20, limit)  # a line inside one read is then never over the limit
         self._carry: list[bytes] = []  # the start of a line whose newline is still to come
         self._carry_len = 0
@@ -120,7 +120,7 @@ class LineGuard(io.RawIOBase):
 
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
         while not self._out and not self._eof:
-            chunk = self._inner.read(self._step)
+            chunk = self._chunk()
             if not chunk:
                 self._eof = True
                 self._emit(b"".join(self._carry))  # a last line without a newline
@@ -144,6 +144,13 @@ class LineGuard(io.RawIOBase):
         self._out = self._out[n:]
         return n
 
+    def _chunk(self) -> bytes:
+        if self._prefix:
+            chunk, self._prefix = self._prefix[: self._step], self._prefix[self._step :]
+        else:
+            chunk = self._inner.read(self._step)
+        return chunk.replace(b"\r", b"\n") if self._cr else chunk
+
     def take_issues(self, rel: str) -> list[FileIssue]:
         out = [FileIssue(rel, "invalid-utf8", "invalid UTF-8 on this line; read with U+FFFD", line=line, byte_offset=at)
                for line, at in self.bad_utf8]
@@ -162,71 +169,128 @@ def _block(opts: ReadOptions) -> int:
     return min(max(_BLOCK, opts.max_record_bytes + 1), 2**31 - 1)
 
 
-def _read_header(buffered: io.BufferedReader) -> bytes:
-    """The bytes of the header record, however long: lines until its quotes are balanced.
+_BOM = b"\xef\xbb\xbf"
 
-    An RFC 4180 field holding a newline is quoted and inner quotes are doubled, so a record
-    is complete exactly when it holds an even number of quote characters (common practice).
-    """
-    out = b""
-    while line := buffered.readline():
-        out += line
-        if out.count(b'"') % 2 == 0:
-            break
-    return out
+
+def read_sample(stream: BinaryIO, limit: int) -> tuple[bytes, bool]:
+    """The dialect finder's sample: SAMPLE_BYTES of stream, more only to end its first line
+    (up to limit + 1 bytes); and whether it is the whole stream.  Linear: each read is
+    searched once."""
+    parts = [stream.read(SAMPLE_BYTES)]
+    size = len(parts[0])
+    ended = b"\n" in parts[0] or b"\r" in parts[0]
+    at_end = size < SAMPLE_BYTES
+    while not ended and not at_end and size <= limit:
+        more = stream.read(min(SAMPLE_BYTES, limit + 1 - size) or 1)
+        parts.append(more)
+        size += len(more)
+        ended, at_end = b"\n" in more or b"\r" in more, not more
+    return b"".join(parts), at_end
 
 
 @dataclass(frozen=True, slots=True)
 class Header:
-    """What the header record says: how to cut the rows that follow it."""
+    """Where the table starts and how to cut its rows (the dialect found or pinned)."""
 
     delimiter: str
     names: tuple[str, ...]
-    lines: int  # lines it spans (at least 1)
-    size: int  # its bytes, a byte order mark included: where the first row starts
+    lines: int  # lines before the first row: preamble and header (0 without either)
+    size: int  # their bytes, a byte order mark included: where the first row starts
+    quote: str | None = '"'
+    escape: str | None = None
+    dialect: Dialect | None = None
 
 
-def read_header(guard: LineGuard, buffered: io.BufferedReader, rel: str, opts: ReadOptions,
-                tsv: bool) -> Iterator[FileIssue | Header]:
-    """The problems found before the first row, then the Header when rows may follow."""
-    head = buffered.peek(_SNIFF_BYTES)[:_SNIFF_BYTES]
-    if guard.cut is not None and not head:
-        yield from _ending(rel, opts, guard)
-        return
-    if not head.strip():
+@dataclass(frozen=True, slots=True)
+class Opened:
+    """A stream positioned at its first row: the LineGuard, the buffered reader over it, the header."""
+
+    guard: LineGuard
+    buffered: io.BufferedReader
+    header: Header
+
+
+def read_header(stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool) -> Iterator[FileIssue | Dialect | Opened]:
+    """The problems found before the first row, the dialect, then the stream at its first row
+    (Opened) when rows may follow."""
+    sample, at_end = read_sample(stream, opts.max_record_bytes)
+    if not sample.strip():
         yield FileIssue(rel, "empty", "empty file: no header and no rows", "warning", line=1, byte_offset=0)
         return
-    if head.startswith(b"\xef\xbb\xbf"):
+    bom = sample.startswith(_BOM)
+    if bom:
         yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning",
                         line=1, byte_offset=0)
-    first_line = head.split(b"\n", 1)[0]
-    if first_line.endswith(b"\r"):
-        yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=1, byte_offset=len(first_line) - 1)
-    delimiter = opts.delimiter or ("\t" if tsv else sniff_delimiter(head))
-    # The header is read whole here (it may be longer than the sniffed head: 100,000 columns)
-    # and pyarrow reads the rest, so its row numbers start after the header's lines.
-    header = _read_header(buffered)
-    names = _header(header, delimiter)
+    text = sample[len(_BOM):] if bom else sample
+    if not at_end and b"\n" not in text and b"\r" not in text:  # the first line alone passes the limit
+        yield FileIssue(rel, "too-large", f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
+                        "it and the rest of the file were not profiled", line=1, byte_offset=0)
+        return
+    finding = find_dialect(text, at_end=at_end, tsv=tsv, pin=pin_for(rel, opts.csv_dialects, opts.delimiter))
+    d = finding.dialect
+    yield d
+    yield from _dialect_notes(rel, sample, finding)
+    guard = LineGuard(stream, opts.max_record_bytes, prefix=sample, cr=d.line_end == "CR")
+    buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
+    size = finding.start_bytes + (len(_BOM) if bom else 0)
+    buffered.read(size)  # the preamble and header, through the guard: their bytes are checked too
     yield from guard.take_issues(rel)
+    names = _names(finding)
     if not names:
         yield FileIssue(rel, "malformed-csv", "no header row could be read", line=1, byte_offset=0)
         return
     if len(names) > opts.max_columns:
         yield FileIssue(rel, "too-wide", f"{len(names):,} columns, more than {opts.max_columns:,} (--max-columns); "
-                        "file not profiled", line=1, byte_offset=0)
+                        "file not profiled", line=d.skip + 1, byte_offset=0)
         return
-    yield Header(delimiter, tuple(_unique(names)), max(header.count(b"\n"), 1), len(header))
+    yield Opened(guard, buffered, Header(d.delimiter, names, finding.start_lines, size, d.quote, d.escape, d))
+
+
+def _names(finding: Finding) -> tuple[str, ...]:
+    d = finding.dialect
+    if d.header == "no":
+        return tuple(positional_name(i) for i in range(finding.width))
+    names = list(finding.names or ())
+    if d.header == "row-names":
+        names = [ROW_NAME_COLUMN, *names]
+    return tuple(_unique(names))
+
+
+def _dialect_notes(rel: str, sample: bytes, finding: Finding) -> Iterator[FileIssue]:
+    """Warnings about what the dialect makes the reader do: nothing is lost, but a person
+    should know (line ends converted, lines skipped, names invented)."""
+    d = finding.dialect
+    if d.line_end == "CRLF":
+        yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=1, byte_offset=sample.find(b"\r\n"))
+    elif d.line_end == "CR":
+        yield FileIssue(rel, "cr", "CR-only line ends (as old spreadsheet exports write them); read as LF", "warning",
+                        line=1, byte_offset=sample.find(b"\r"))
+    if d.skip:
+        yield FileIssue(rel, "preamble", f"{d.skip:,} line{'s' if d.skip != 1 else ''} before the header skipped "
+                        "(comments, a title or notes)", "warning", line=1, byte_offset=0)
+    if d.header == "no":
+        yield FileIssue(rel, "no-header", f"no header row: the first row reads like the rows after it; columns named "
+                        f"{positional_name(0)} … {positional_name(finding.width - 1)} by position", "warning",
+                        line=d.skip + 1)
+    elif d.header == "row-names":
+        yield FileIssue(rel, "row-names", f"the header has one name fewer than the rows: the first column holds row "
+                        f"names, read as {ROW_NAME_COLUMN!r}", "warning", line=d.skip + 1)
+    if finding.stray_quote:
+        yield FileIssue(rel, "stray-quote", "the header line opens a quote it never closes; the header was read as "
+                        "that one line", "warning", line=d.skip + 1)
 
 
 def arrow_options(header: Header, block: int,
                   on_invalid: Callable[[pcsv.InvalidRow], str]) -> dict[str, Any]:
-    """Arrow's CSV options for the rows after a header: binary cells, RFC 4180 quoting with
-    newlines in quoted values, ragged rows handed to on_invalid."""
+    """Arrow's CSV options for the rows after a header: binary cells, the dialect's quoting
+    (newlines in quoted values), ragged rows handed to on_invalid."""
     names = list(header.names)
+    quote = header.quote or False
     return {
         "read_options": pcsv.ReadOptions(use_threads=False, block_size=block, column_names=names, skip_rows=0),
-        "parse_options": pcsv.ParseOptions(delimiter=header.delimiter, newlines_in_values=True,
-                                           invalid_row_handler=on_invalid),
+        "parse_options": pcsv.ParseOptions(delimiter=header.delimiter, quote_char=quote,
+                                           escape_char=header.escape or False,
+                                           newlines_in_values=quote is not False, invalid_row_handler=on_invalid),
         "convert_options": pcsv.ConvertOptions(column_types=dict.fromkeys(names, pa.binary()),
                                                strings_can_be_null=False, quoted_strings_can_be_null=False),
     }
@@ -236,29 +300,28 @@ def head_of(stream: BinaryIO, rel: str, opts: ReadOptions, *,
             tsv: bool = False) -> tuple[list[FileIssue], Header | None]:
     """What read_csv reports before the first row of stream, and the header (None when no
     rows can follow)."""
-    guard = LineGuard(stream, opts.max_record_bytes)
     issues: list[FileIssue] = []
     header: Header | None = None
-    for item in read_header(guard, io.BufferedReader(guard, buffer_size=_SNIFF_BYTES), rel, opts, tsv):
-        if isinstance(item, Header):
-            header = item
-        else:
+    for item in read_header(stream, rel, opts, tsv):
+        if isinstance(item, Opened):
+            header = item.header
+        elif isinstance(item, FileIssue):
             issues.append(item)
     return issues, header
 
 
-def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item]:
-    """Stream a delimited text file in batches of at most opts.batch_rows rows."""
-    guard = LineGuard(stream, opts.max_record_bytes)
-    buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
-    header: Header | None = None
-    for item in read_header(guard, buffered, rel, opts, tsv):
-        if isinstance(item, Header):
-            header = item
+def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item | Dialect]:
+    """Stream a delimited text file in batches of at most opts.batch_rows rows; its Dialect
+    comes first (unless the file is empty)."""
+    opened: Opened | None = None
+    for item in read_header(stream, rel, opts, tsv):
+        if isinstance(item, Opened):
+            opened = item
         else:
             yield item
-    if header is None:
+    if opened is None:
         return
+    guard, buffered, header = opened.guard, opened.buffered, opened.header
     header_lines = header.lines
     ragged: list[FileIssue] = []
 
@@ -273,14 +336,15 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         )
         return "skip"
 
+    state = CsvState(rel, opts, line=header_lines + 1)
     try:
         reader = pcsv.open_csv(buffered, **arrow_options(header, _block(opts), on_invalid))
     except pa.ArrowInvalid as exc:
         if "Empty CSV file" not in str(exc):  # a header and no rows is an empty table, not a problem
-            yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
+            yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=header_lines + 1)
+        yield state.observe(_no_rows(header))  # the header's columns, with no values
         yield from _ending(rel, opts, guard)
         return
-    state = CsvState(rel, opts, line=header_lines + 1)
     batches = Rebatch(opts.batch_rows)
     while True:
         try:
@@ -300,7 +364,13 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     yield from ragged
     for batch in batches.rest():
         yield state.observe(batch)
+    if state.batch == 0:
+        yield state.observe(_no_rows(header))
     yield from _ending(rel, opts, guard)
+
+
+def _no_rows(header: Header) -> pa.RecordBatch:
+    return pa.RecordBatch.from_arrays([pa.array([], pa.binary()) for _ in header.names], names=list(header.names))
 
 
 def _ending(rel: str, opts: ReadOptions, guard: LineGuard) -> Iterator[FileIssue]:

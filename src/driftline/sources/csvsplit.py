@@ -48,7 +48,9 @@ _SUB = 2**20  # the planner counts a megabyte at a time
 _WALK_QUOTES = 512  # quotes stepped over one by one in a block before it is counted at once
 _SPLIT_QUOTES = 2**14  # quotes left between newlines in a block (of 2**20 bytes), past which the planner gives up
 _LOCATE_WINDOW = 4096  # a cut is found by halving down to this many bytes, then byte by byte
-_HEAD_WARNINGS = ("bom", "crlf")  # what a header may carry in a file read as spans
+# What a header may carry in a file read as spans: the preamble and header are read once, the
+# way read_csv reads them, so only the dialect of the rows matters to the spans.
+_HEAD_WARNINGS = ("bom", "crlf", "preamble", "no-header", "row-names", "stray-quote")
 _UTF8_STEP = 2**20
 
 
@@ -119,6 +121,9 @@ def _head(ref: FileRef, opts: ReadOptions) -> Head | None:
         issues, header = head_of(fh, ref.rel, opts, tsv=ref.format == "tsv")
     if header is None or any(i.kind not in _HEAD_WARNINGS or i.severity != "warning" for i in issues):
         return None
+    d = header.dialect
+    if d is None or d.line_end == "CR" or d.quote != '"' or d.escape is not None:
+        return None  # the planner knows RFC 4180 quoting and LF ends only: one reader takes the others
     return Head(header, tuple(issues))
 
 
@@ -334,7 +339,8 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
     observations = tuple(o for res in results for o in res.observations)
     return FileResult(rel=ref.rel, format=ref.format, compression=ref.compression, partitions=ref.partitions,
                       size=ref.size, mtime_ns=ref.mtime_ns, rows=sum(o.rows for o in observations),
-                      observations=observations, issues=results[0].span.head.warnings, declared=None, complete=True)
+                      observations=observations, issues=results[0].span.head.warnings, declared=None, complete=True,
+                      dialect=results[0].span.head.header.dialect)
 
 
 def _joined(results: Sequence[SpanResult]) -> bool:
@@ -346,4 +352,5 @@ def _joined(results: Sequence[SpanResult]) -> bool:
             if (res.span.end, res.span.rows + res.rows, res.next_line, res.span.batches + len(res.observations)) != (
                     after.start, after.rows, after.lines, after.batches):
                 return False
-    return bool(results) and results[-1].span.end is None
+    # no row at all: one reader gives the header's columns with no values
+    return bool(results) and results[-1].span.end is None and any(r.observations for r in results)

@@ -12,6 +12,7 @@ from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import read_csv
+from driftline.sources.dialect import Dialect
 from driftline.sources.discover import FileRef
 from driftline.sources.formats import CountingRaw, LimitExceeded, open_stream
 from driftline.sources.jsonfile import read_json, read_jsonl
@@ -144,6 +145,7 @@ class _Read:
         self.parts: list[Observation | int] = []
         self.issues: list[FileIssue] = []
         self.declared: dict[str, str] | None = None
+        self.dialect: Dialect | None = None
         self.complete = True
         self.opened = True  # False: the file could not even be opened; nothing more is checked
 
@@ -159,7 +161,7 @@ class _Read:
 
     def finish(self, pending: _Pending) -> FileResult:
         if not self.opened:
-            return _result(self.ref, [], self.issues, None, False)
+            return _result(self.ref, [], self.issues, None, False, self.dialect)
         observations: list[Observation] = []
         for part in self.parts:
             got = pending.done[part] if isinstance(part, int) else part
@@ -175,7 +177,7 @@ class _Read:
             if change is not None:
                 self.complete = False
                 issues.append(FileIssue(ref.rel, "changed", change))
-        return _result(ref, observations, issues, self.declared, self.complete)
+        return _result(ref, observations, issues, self.declared, self.complete, self.dialect)
 
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
@@ -224,7 +226,10 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
     safe = _SafeStream(raw)
     with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
         for item in _items(ref, opts, stream):
-            (read.issues if isinstance(item, FileIssue) else read.parts).append(item)
+            if isinstance(item, Dialect):
+                read.dialect = item
+            else:
+                (read.issues if isinstance(item, FileIssue) else read.parts).append(item)
     if safe.failure is not None:
         read.complete = False
         kind, msg = _describe_failure(safe.failure, ref.compression)
@@ -237,6 +242,7 @@ def _result(
     issues: list[FileIssue],
     declared: dict[str, str] | None,
     complete: bool,
+    dialect: Dialect | None = None,
 ) -> FileResult:
     return FileResult(
         rel=ref.rel,
@@ -250,6 +256,7 @@ def _result(
         issues=tuple(issues),
         declared=declared,
         complete=complete,
+        dialect=dialect,
     )
 
 

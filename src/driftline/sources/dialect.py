@@ -1,0 +1,604 @@
+"""CSV dialect finding: line ends, delimiter, quoting, header and preamble, from a bounded sample.
+
+Every choice is made from the evidence of many rows, never from the first line alone:
+
+- line ends: the counts of CRLF, lone CR and lone LF in the sample;
+- delimiter and quoting: each candidate parses the sample (Python's csv module, linear in
+  its size); the winner gives the most rows of one field count, a header line of that count
+  (or one less: a row-name column), and more fields when two are as consistent;
+- quoting: a quote character is used when fields wrapped in it are seen or when only it
+  makes the field counts agree; a field that starts with a quote but does not end with one
+  (a title such as `"Heroes" season 1`) is evidence of none.  With no quote in the sample,
+  CSV follows RFC 4180 (double quotes) and TSV the IANA text/tab-separated-values
+  registration (no quoting at all);
+- header: each column's values below the first row are typed (integer, number, date, text);
+  a first row that fits the types of the rows below it is data, a text cell above numbers
+  is a name.  With no typed column the first row is taken as the header (common practice);
+- preamble: comment (`#`) and title lines before the first line of the table's width.
+
+The cost is bounded: SAMPLE_BYTES of the file (plus the first line whole, up to the record
+limit), a fixed number of candidate parses, each linear.  A user may pin any part per glob
+(`--csv-dialect`); the rest is still found from the data.
+"""
+
+from __future__ import annotations
+
+import csv
+import fnmatch
+import re
+from collections import Counter
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, replace
+from typing import Any
+
+from driftline.errors import PolicyError
+
+SAMPLE_BYTES = 1 << 20  # what the finder reads of a file (more only to hold the first line whole)
+MAX_PREAMBLE = 64  # lines before the header that may be skipped as a preamble
+_HEAD_LINES = MAX_PREAMBLE + 2
+_TYPED_ROWS = 2000  # body rows whose cells are typed for the header decision
+# Candidates in order of preference when the evidence is equal; space only as a last resort.
+DELIMITERS = (",", "\t", ";", "|", ":", "^", "~")
+_SPACE = " "
+DELIMITER_NAMES = {"comma": ",", "tab": "\t", "semicolon": ";", "pipe": "|", "colon": ":", "caret": "^",
+                   "tilde": "~", "space": " "}
+QUOTE_NAMES = {"double": '"', "single": "'", "none": None}
+ESCAPE_NAMES = {"backslash": "\\", "none": None}
+HEADER_VALUES = ("yes", "no", "row-names")
+LINE_ENDS = ("LF", "CRLF", "CR")
+ROW_NAME_COLUMN = "row_name"
+
+
+def positional_name(i: int) -> str:
+    """The name of column i (0-based) of a file without a header: column_1, column_2, …"""
+    return f"column_{i + 1}"
+
+
+@dataclass(frozen=True, slots=True)
+class Dialect:
+    """How a delimited text file is written, as found (or pinned) for one file.
+
+    header is 'yes', 'no' (columns get positional names) or 'row-names' (the header has one
+    name fewer than the rows: the first column holds row names); skip counts the preamble
+    lines before the header; confidence is in [0, 1]; pinned lists the keys the user fixed.
+    """
+
+    delimiter: str
+    quote: str | None
+    escape: str | None
+    line_end: str
+    header: str
+    skip: int = 0
+    confidence: float = 1.0
+    rows_sampled: int = 0
+    pinned: tuple[str, ...] = ()
+
+    def describe(self) -> str:
+        """One line for a person, e.g. `'|' no quotes, header, CR (confidence 0.97)`."""
+        quote = "no quotes" if self.quote is None else f"{self.quote}-quoted"
+        if self.escape is not None:
+            quote += f", {self.escape!r}-escaped"
+        header = {"yes": "header", "no": "no header", "row-names": "header + row names"}[self.header]
+        parts = [_show(self.delimiter), quote, header, self.line_end]
+        if self.skip:
+            parts.append(f"{self.skip} preamble line{'s' if self.skip != 1 else ''} skipped")
+        tail = "pinned" if len(self.pinned) == len(_PIN_KEYS) else f"confidence {self.confidence:.2f}"
+        return ", ".join(parts).replace(", ", " ", 1) + f" ({tail})"
+
+    def to_json(self) -> dict[str, Any]:
+        return {"delimiter": self.delimiter, "quote": self.quote, "escape": self.escape, "line_end": self.line_end,
+                "header": self.header, "skip": self.skip, "confidence": self.confidence,
+                "rows_sampled": self.rows_sampled, "pinned": list(self.pinned)}
+
+    @staticmethod
+    def from_json(d: Mapping[str, Any]) -> Dialect:
+        return Dialect(d["delimiter"], d.get("quote"), d.get("escape"), d["line_end"], d["header"], d.get("skip", 0),
+                       d.get("confidence", 1.0), d.get("rows_sampled", 0), tuple(d.get("pinned", ())))
+
+
+def _show(delimiter: str) -> str:
+    return {"\t": "TAB", " ": "SPACE"}.get(delimiter, repr(delimiter))
+
+
+# -- pins ------------------------------------------------------------------------------------
+
+_PIN_KEYS = ("delimiter", "quote", "escape", "header", "skip", "lines")
+
+
+@dataclass(frozen=True, slots=True)
+class Pin:
+    """What the user fixed for the files matching glob (None: every CSV/TSV file); a key left
+    out (None) is still found from the data."""
+
+    glob: str | None = None
+    delimiter: str | None = None
+    quote: str | None | bool = False  # False: not pinned (None is "no quoting")
+    escape: str | None | bool = False
+    header: str | None = None
+    skip: int | None = None
+    lines: str | None = None
+
+    def matches(self, rel: str) -> bool:
+        if self.glob is None:
+            return True
+        name = rel.rsplit("/", 1)[-1]
+        return fnmatch.fnmatchcase(rel, self.glob) or fnmatch.fnmatchcase(name, self.glob)
+
+    def keys(self) -> tuple[str, ...]:
+        return tuple(k for k in _PIN_KEYS if getattr(self, k) not in (None, False) or
+                     (k in ("quote", "escape") and getattr(self, k) is None))
+
+    def over(self, other: Pin) -> Pin:
+        """This pin's keys, the other's where this one leaves a key open."""
+        mine = {k: getattr(self, k) for k in _PIN_KEYS if k in self.keys()}
+        return replace(other, **mine)
+
+
+_SPEC = re.compile(r"^(?:(?P<glob>.*):)?(?P<items>[a-z]+=[^,]*(?:,[a-z]+=[^,]*)*)$")
+
+
+def parse_pin(spec: str) -> Pin:
+    """A --csv-dialect value: `[GLOB:]KEY=VALUE[,KEY=VALUE…]`.
+
+    >>> parse_pin("legacy/*.csv:delimiter=pipe,quote=none,header=no,lines=cr")
+    Pin(glob='legacy/*.csv', delimiter='|', quote=None, escape=False, header='no', skip=None, lines='CR')
+    >>> parse_pin("delimiter=;,skip=2").skip
+    2
+    """
+    m = _SPEC.match(spec.strip())
+    if m is None:
+        raise PolicyError(f"--csv-dialect {spec!r}: expected [GLOB:]KEY=VALUE[,KEY=VALUE…] with keys "
+                          f"{', '.join(_PIN_KEYS)}, e.g. 'exports/*.txt:delimiter=pipe,quote=none,header=no'")
+    fields: dict[str, Any] = {"glob": m.group("glob") or None}
+    for item in m.group("items").split(","):
+        key, _, value = item.partition("=")
+        fields[key] = _pin_value(spec, key, value.strip())
+    return Pin(**fields)
+
+
+def _pin_value(spec: str, key: str, value: str) -> Any:
+    low = value.lower()
+
+    def bad(choices: Iterable[str]) -> PolicyError:
+        return PolicyError(f"--csv-dialect {spec!r}: {key}={value!r} is not one of {', '.join(choices)}")
+
+    if key == "delimiter":
+        if low in DELIMITER_NAMES:
+            return DELIMITER_NAMES[low]
+        if len(value) == 1 and value not in "\r\n\"'" and not value.isalnum():
+            return value
+        raise bad([*DELIMITER_NAMES, "or one punctuation character"])
+    if key == "quote":
+        if low in QUOTE_NAMES:
+            return QUOTE_NAMES[low]
+        raise bad(QUOTE_NAMES)
+    if key == "escape":
+        if low in ESCAPE_NAMES:
+            return ESCAPE_NAMES[low]
+        raise bad(ESCAPE_NAMES)
+    if key == "header":
+        if low in HEADER_VALUES:
+            return low
+        raise bad(HEADER_VALUES)
+    if key == "skip":
+        if value.isdigit():
+            return int(value)
+        raise bad(["a number of lines"])
+    if key == "lines":
+        if value.upper() in LINE_ENDS:
+            return value.upper()
+        raise bad(["lf", "crlf", "cr"])
+    raise PolicyError(f"--csv-dialect {spec!r}: unknown key {key!r}; keys: {', '.join(_PIN_KEYS)}")
+
+
+def pin_for(rel: str, specs: Sequence[str], delimiter: str | None = None) -> Pin:
+    """The pin that applies to rel: the last matching spec wins key by key over earlier ones,
+    and --delimiter applies under all of them."""
+    pin = Pin(delimiter=delimiter)
+    for spec in specs:
+        p = parse_pin(spec)
+        if p.matches(rel):
+            pin = p.over(pin)
+    return pin
+
+
+# -- the sample --------------------------------------------------------------------------------
+
+@dataclass(frozen=True, slots=True)
+class Finding:
+    """A dialect, and where the table starts in the sample (after any byte order mark)."""
+
+    dialect: Dialect
+    names: tuple[str, ...] | None  # the header's names (None: no header)
+    width: int  # fields per row
+    start_lines: int  # lines before the first row: preamble and header
+    start_bytes: int  # their bytes
+    stray_quote: bool  # the header line opens a quote it never closes; it was read alone
+
+
+def line_end_of(sample: bytes) -> str:
+    """LF, CRLF or CR, by count: a file of lone CRs (old spreadsheet exports) is CR."""
+    crlf = sample.count(b"\r\n")
+    cr = sample.count(b"\r") - crlf
+    lf = sample.count(b"\n") - crlf
+    if cr > lf + crlf:
+        return "CR"
+    return "CRLF" if crlf > lf else "LF"
+
+
+def _lines(text: str, line_end: str) -> list[str]:
+    """The sample's lines, each with its line end, for the csv module; characters that module
+    refuses (NUL, a lone CR in an LF file) become spaces, one for one."""
+    text = text.replace("\x00", " ")
+    cr = line_end == "CR"
+    text = text.replace("\n", " ").replace("\r", "\n") if cr else re.sub("\r(?!\n)", " ", text)
+    parts = text.split("\n")  # not splitlines(): it also ends lines at \v, \f, U+2028 …
+    return [p + "\n" for p in parts[:-1]] + ([parts[-1]] if parts[-1] else [])
+
+
+def _reader(lines: Iterable[str], delimiter: str, quote: str | None, escape: str | None) -> Any:
+    if quote is None:
+        return csv.reader(lines, delimiter=delimiter, quoting=csv.QUOTE_NONE, escapechar=escape, strict=False)
+    return csv.reader(lines, delimiter=delimiter, quotechar=quote, escapechar=escape, doublequote=True, strict=False)
+
+
+def _counts(lines: Sequence[str], delimiter: str, quote: str | None, escape: str | None) -> list[int]:
+    try:
+        return [len(r) for r in _reader(lines, delimiter, quote, escape) if r]
+    except csv.Error:  # a field longer than the csv module's limit: a candidate without evidence
+        return []
+
+
+def _first_record(lines: Sequence[str], at: int, dialect: tuple[str, str | None, str | None]) -> tuple[list[str], int]:
+    """The record starting at line `at` and the lines it spans (at least one).  A record is
+    looked for in _HEAD_LINES lines at most: the cost stays bounded whatever quotes do."""
+    reader = _reader(iter(lines[at:at + _HEAD_LINES]), *dialect)
+    try:
+        rec = next(reader, [])
+    except csv.Error:
+        return [], 1
+    return rec, max(reader.line_num, 1)
+
+
+@dataclass(slots=True)
+class _Candidate:
+    delimiter: str
+    quote: str | None
+    escape: str | None
+    width: int = 0
+    share: float = 0.0  # body rows of `width` fields over all body rows
+    cover: float = 0.0  # lines the reading explains (header and rows of `width`) over all non-blank lines
+    rows: int = 0
+    fit: int = 0  # 2: the header has `width` names, 1: one fewer (row names), 0: neither
+    skip: int = 0
+    header: list[str] | None = None
+    header_lines: int = 1
+    stray: bool = False
+
+    @property
+    def key(self) -> tuple[str, str | None, str | None]:
+        return self.delimiter, self.quote, self.escape
+
+
+def _is_comment(line: str) -> bool:
+    return line.lstrip().startswith("#")
+
+
+def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | None) -> _Candidate:
+    """Field counts, table start and header record of one candidate."""
+    head = [(i, len(r)) for i, r in enumerate(_per_line(lines[:_HEAD_LINES], c.key)) if r]
+    widths = Counter(n for i, n in head if not _is_comment(lines[i]))
+    guess = widths.most_common(1)[0][0] if widths else 1
+    for _ in range(2):  # once with the width of the first lines, again with the body's if it differs
+        start = skip if skip is not None else _table_start(lines, head, guess, header, c.key)
+        rec, span = _first_record(lines, start, c.key)
+        stray = False
+        if span > 1 and len(rec) not in (guess, guess - 1):
+            # an opening quote never closed (or closed far below): read the header line alone
+            rec, span, stray = _alone(lines[start], c.key), 1, True
+        counts = _counts(lines[start + span:], *c.key)
+        width = Counter(counts).most_common(1)[0][0] if counts else len(rec)
+        if width == guess or counts == []:
+            break
+        guess = width
+    c.width, c.rows = width, len(counts)
+    c.share = (sum(1 for n in counts if n == width) / len(counts)) if counts else (1.0 if len(rec) > 1 else 0.0)
+    row_names = len(rec) == width - 1 and len(rec) >= 2 and header != "no"
+    c.fit = 2 if len(rec) == width else 1 if row_names or header == "row-names" else 0
+    c.skip, c.header, c.header_lines, c.stray = start, rec, span, stray
+    # a skipped line is one the reading could not explain, unless the user said to skip it
+    skipped = 0 if skip is not None else sum(1 for i, _ in head if i < start)
+    c.cover = (sum(1 for n in counts if n == width) + (c.fit > 0)) / (len(counts) + 1 + skipped)
+    return c
+
+
+def _per_line(lines: Sequence[str], key: tuple[str, str | None, str | None]) -> list[list[str]]:
+    return [_alone(line, key) for line in lines]
+
+
+def _alone(line: str, key: tuple[str, str | None, str | None]) -> list[str]:
+    try:
+        return next(_reader([line], *key), [])
+    except csv.Error:
+        return []
+
+
+def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, header: str | None,
+                 key: tuple[str, str | None, str | None]) -> int:
+    """The first line of the table: past comment lines and title lines of another width, the
+    first record of `width` fields (or one fewer: row names) followed by one of `width`.
+    Records, not lines: a quoted field may hold a line break.  A record that opens a quote it
+    never closes is tried as its line alone."""
+    want = (width, width - 1) if header != "no" else (width,)
+    for i, n in head:
+        if i > MAX_PREAMBLE:
+            break
+        if _is_comment(lines[i]) or (n == 1 and width == 2 and header != "row-names"):
+            continue
+        rec, span = _first_record(lines, i, key)
+        if len(rec) not in want:
+            rec, span = _alone(lines[i], key), 1
+            if len(rec) not in want:
+                continue
+        after, _ = _first_record(lines, _next_line(lines, i + span), key)
+        if not after or len(after) == width:
+            return i
+    return next((i for i, _ in head if i <= MAX_PREAMBLE and not _is_comment(lines[i])), 0)
+
+
+def _next_line(lines: Sequence[str], at: int) -> int:
+    while at < len(lines) and not lines[at].strip():
+        at += 1
+    return at
+
+
+# -- cell types for the header ---------------------------------------------------------------
+
+_INT = re.compile(r"[+-]?\d+")
+_NUM = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?|[+-]?(?:inf|nan)", re.I)
+_DATE = re.compile(r"\d{4}-\d{1,2}-\d{1,2}(?:[T ][\d:.]+(?:Z|[+-]\d\d:?\d\d)?)?|\d{1,2}/\d{1,2}/\d{2,4}|"
+                   r"\d{1,2}:\d\d(?::\d\d(?:\.\d+)?)?")
+_BOOL = {"true", "false", "t", "f", "yes", "no"}
+
+
+def _kind(cell: str) -> str:
+    s = cell.strip()
+    if not s:
+        return "empty"
+    if _INT.fullmatch(s):
+        return "int"
+    if _NUM.fullmatch(s):
+        return "number"
+    if _DATE.fullmatch(s):
+        return "date"
+    if s.lower() in _BOOL:
+        return "bool"
+    return "text"
+
+
+def _fits(cell: str, column: str) -> bool:
+    kind = _kind(cell)
+    return kind == column or (kind == "int" and column == "number")
+
+
+def header_votes(first: Sequence[str], rows: Sequence[Sequence[str]]) -> tuple[int, int]:
+    """(votes for a header, votes for data) from the columns of rows below the first.
+
+    A column whose values below are all of one type (integer, number, date, boolean) votes
+    for a header when the first row's cell is text there, for data when it fits; a text
+    column of values all of one length votes for a header when the first cell's length
+    differs (csv.Sniffer's test), for data when the first cell is one of its values.
+
+    >>> header_votes(["id", "price"], [["1", "2.5"], ["2", "3"]])
+    (2, 0)
+    >>> header_votes(["155190", "0.5"], [["15519", "0.25"], ["2", "3"]])
+    (0, 2)
+    """
+    yes = no = 0
+    for j, cell in enumerate(first):
+        values = [r[j] for r in rows if j < len(r) and r[j].strip()]
+        if not values or not cell.strip():
+            continue
+        kinds = {_kind(v) for v in values}
+        column = "number" if kinds == {"int", "number"} else next(iter(kinds)) if len(kinds) == 1 else "text"
+        if column != "text":
+            if _fits(cell, column):
+                no += 1
+            elif _kind(cell) == "text":
+                yes += 1
+            continue
+        lengths = {len(v) for v in values}
+        if len(values) > 1 and len(lengths) == 1 and len(cell) not in lengths:
+            yes += 1
+        elif len(values) > 1 and cell in set(values):
+            no += 1
+    return yes, no
+
+
+# -- the finder ------------------------------------------------------------------------------
+
+def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | None = None) -> Finding:
+    """The dialect of a delimited text sample (the file's first bytes, without a byte order mark).
+
+    at_end says the sample is the whole file (else its last, partial line is left out).
+    tsv is the format the file name says; it decides quoting when the sample has no quote.
+
+    >>> f = find_dialect(b"a|b|j\\r1|x|{\\"k\\": 1, \\"l\\": 2}\\r2|y|{}\\r", at_end=True)
+    >>> f.dialect.describe(), f.names
+    ("'|' no quotes, header, CR (confidence 0.24)", ('a', 'b', 'j'))
+    """
+    pin = pin or Pin()
+    line_end = pin.lines or line_end_of(sample)
+    text = sample.decode("utf-8", "replace")
+    lines = _lines(text, line_end)
+    if not at_end and len(lines) > 1:
+        lines.pop()  # cut short by the sample's end
+    best, others = _choose(lines, tsv, pin)
+    rows = _body_rows(lines, best)
+    header = pin.header or _header_kind(best, rows)
+    skip, span = best.skip, best.header_lines
+    names: tuple[str, ...] | None = tuple(best.header or ())
+    width = best.width
+    if header == "no":
+        names, span = None, 0
+    elif header == "row-names":
+        width = max(width, len(names) + 1)
+    else:
+        width = len(names)
+    start_lines = skip + span
+    confidence = _confidence(best, others, rows, header, pin)
+    dialect = Dialect(best.delimiter, best.quote, best.escape, line_end, header, skip, confidence, best.rows,
+                      pin.keys())
+    return Finding(dialect, names, width, start_lines, _line_offset(sample, line_end, start_lines),
+                   best.stray and header != "no")
+
+
+def _choose(lines: Sequence[str], tsv: bool, pin: Pin) -> tuple[_Candidate, list[_Candidate]]:
+    """The best candidate, and the runners-up of other delimiters (for the confidence)."""
+    delimiters = [pin.delimiter] if pin.delimiter else _present(lines)
+    judged = []
+    for d in delimiters:
+        judged.append(_best_quoting(d, lines, tsv, pin))
+    valid = [c for c in judged if c.width >= 2 and c.fit]
+    if not valid and not pin.delimiter:
+        space = _best_quoting(_SPACE, lines, tsv, pin) if any(_SPACE in x for x in lines[:_HEAD_LINES]) else None
+        valid = [space] if space is not None and space.width >= 2 and space.fit and space.cover >= 0.9 else []
+    if not valid:  # one column, or nothing fits: the most consistent reading, commas by default
+        pool = judged or [_judge(_Candidate(",", _default_quote(tsv, pin), None), lines, pin.skip, pin.header)]
+        best = max(pool, key=lambda c: (c.cover, c.width > 1, -DELIMITERS.index(c.delimiter)
+                                        if c.delimiter in DELIMITERS else 0))
+        if best.width < 2:
+            best = _judge(_Candidate(pin.delimiter or ("\t" if tsv else ","), _default_quote(tsv, pin), None),
+                          lines, pin.skip, pin.header)
+        return best, []
+    top = max(c.cover for c in valid)
+    close = [c for c in valid if c.cover >= top - 0.05]
+    order = list(DELIMITERS) + [_SPACE] + [d for d in delimiters if d not in DELIMITERS]
+    best = max(close, key=lambda c: (c.fit == 2, c.width, -order.index(c.delimiter)))
+    return best, [c for c in judged if c is not best and c.width >= 2 and c.fit]
+
+
+def _present(lines: Sequence[str]) -> list[str]:
+    """Candidate delimiters that occur on the first lines (the header is among them)."""
+    head = "".join(lines[:_HEAD_LINES])
+    return [d for d in DELIMITERS if d in head]
+
+
+def _default_quote(tsv: bool, pin: Pin) -> str | None:
+    if pin.quote is not False:
+        return pin.quote  # type: ignore[return-value]
+    return None if tsv else '"'
+
+
+def _best_quoting(d: str, lines: Sequence[str], tsv: bool, pin: Pin) -> _Candidate:
+    """The quoting of delimiter d that its rows support (see the module's docstring)."""
+    fixed_escape = pin.escape is not False
+    escape = pin.escape if fixed_escape else None
+    if pin.quote is not False:
+        return _judge(_Candidate(d, pin.quote, escape), lines, pin.skip, pin.header)  # type: ignore[arg-type]
+    bare = _judge(_Candidate(d, None, None), lines, pin.skip, pin.header)
+    wrapped, opened = _quote_starts(lines, d, '"')
+    if not wrapped and not opened:
+        if tsv:
+            single = _single_quoted(d, lines, pin, bare)
+            return single or bare
+        # no field opens a quote: quoting changes nothing in the sample, RFC 4180 decides
+        quoted = replace(bare, quote='"', escape=escape)  # type: ignore[arg-type]
+        return _single_quoted(d, lines, pin, bare) or quoted
+    quoted = _judge(_Candidate(d, '"', escape), lines, pin.skip, pin.header)  # type: ignore[arg-type]
+    if not fixed_escape and '\\"' in "".join(lines):
+        escaped = _judge(_Candidate(d, '"', "\\"), lines, pin.skip, pin.header)
+        text = "".join(lines)
+        if _score(escaped) > _score(quoted) or (_score(escaped) == _score(quoted)
+                                                and text.count('\\"') > text.count('""')):
+            quoted = escaped
+    if _score(quoted) > _score(bare):
+        return quoted
+    if _score(quoted) == _score(bare) and wrapped and (not opened or not tsv):
+        return quoted  # fields wrapped in quotes, and none only opened: quoting
+    return bare
+
+
+def _single_quoted(d: str, lines: Sequence[str], pin: Pin, bare: _Candidate) -> _Candidate | None:
+    """Single quotes, only where the rows need them (apostrophes are common in text)."""
+    if not any(_quote_starts(lines, d, "'")):
+        return None
+    quoted = _judge(_Candidate(d, "'", None), lines, pin.skip, pin.header)
+    return quoted if _score(quoted) > _score(bare) else None
+
+
+def _score(c: _Candidate) -> tuple[bool, float, int, bool]:
+    return c.fit > 0, round(c.cover, 4), c.fit, not c.stray
+
+
+def _quote_starts(lines: Sequence[str], d: str, q: str) -> tuple[int, int]:
+    """Fields that start with q (at a line's start or after d): wrapped in it (the closing q,
+    inner ones doubled, right before d or the line end), or only opened."""
+    text = "".join(lines)
+    if q not in text:
+        return 0, 0
+    dq, qq = re.escape(d), re.escape(q)
+    starts = len(re.findall(f"(?:^|{dq}){qq}", text, re.M))
+    wrapped = len(re.findall(f"(?:^|{dq}){qq}(?:[^{qq}]|{qq}{qq})*{qq}(?={dq}|\r?$)", text, re.M))
+    return wrapped, starts - wrapped
+
+
+def _body_rows(lines: Sequence[str], c: _Candidate) -> list[list[str]]:
+    body = lines[c.skip + c.header_lines:]
+    rows: list[list[str]] = []
+    try:
+        for r in _reader(body, *c.key):
+            if len(r) == c.width:
+                rows.append(r)
+                if len(rows) >= _TYPED_ROWS:
+                    break
+    except csv.Error:
+        pass
+    return rows
+
+
+def _header_kind(c: _Candidate, rows: list[list[str]]) -> str:
+    first = c.header or []
+    if c.fit == 1 and len(first) == c.width - 1:
+        return "row-names"
+    if not rows:  # a single line: a header, unless every cell is a number
+        cells = [x for x in first if x.strip()]
+        return "no" if cells and all(_kind(x) in ("int", "number") for x in cells) else "yes"
+    yes, no = header_votes(first, rows)
+    return "no" if no > 0 and yes == 0 else "yes"
+
+
+def _confidence(best: _Candidate, others: list[_Candidate], rows: list[list[str]], header: str, pin: Pin) -> float:
+    """How sure the finder is, in [0, 1]: the product of the evidence for each part.
+
+    delimiter: the share of lines read as the header or a row of the table's width, times
+    (n + 1) / (n + 6) for n body rows (few rows are weak evidence), less half the share a
+    rival delimiter reached; header: the share
+    of column votes it won (0.6 with no vote: a guess by convention).
+    """
+    keys = pin.keys()
+    n = best.rows
+    if "delimiter" in keys:
+        part_d = 1.0
+    else:
+        rival = max((o.cover for o in others if o.delimiter != best.delimiter), default=0.0)
+        part_d = best.cover * ((n + 1) / (n + 6)) * (1 - rival / 2)
+    if "header" in keys or header == "row-names":
+        part_h = 1.0
+    else:
+        yes, no = header_votes(best.header or [], rows) if rows else (0, 0)
+        part_h = max(yes, no) / (yes + no) if yes + no else 0.6
+    part_q = 1.0 if best.stray is False else 0.5
+    return round(max(0.0, min(1.0, part_d * part_h * part_q)), 2)
+
+
+def _line_offset(sample: bytes, line_end: str, lines: int) -> int:
+    """The byte offset after the first `lines` lines of sample."""
+    sep = b"\r" if line_end == "CR" else b"\n"
+    at = 0
+    for _ in range(lines):
+        nxt = sample.find(sep, at)
+        if nxt < 0:
+            return len(sample)
+        at = nxt + 1
+    return at
