@@ -61,6 +61,7 @@ DOCTEST_MODULES = [
     "driftline.observe.paths",
     "driftline.report",
     "driftline.sources.base",
+    "driftline.sources.dialect",
     "driftline.tables",
 ]
 

@@ -10,7 +10,7 @@ import typer
 from rich.console import Console
 
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
-from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
+from driftline.cli.scan_cmd import CSV_DIALECT_HELP, _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.errors import InputPathError
@@ -89,9 +89,10 @@ Exit codes: 0 the diff was made (changes are information); 2 usage or input erro
 
 
 def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int, max_errors: int | None,
-              max_record_bytes: int, delimiter: str | None, hidden: bool) -> ScanSettings:
+              max_record_bytes: int, delimiter: str | None, hidden: bool, csv_dialect: list[str]) -> ScanSettings:
     return ScanSettings(
-        read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter),
+        read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
+                         csv_dialects=tuple(csv_dialect)),
         include=tuple(include), exclude=tuple(exclude), include_hidden=hidden, jobs=jobs, max_errors=max_errors,
     )
 
@@ -102,7 +103,8 @@ _BATCH = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per 
 _JOBS = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel. Results do not depend on it.")
 _MAXERR = typer.Option(None, "--max-errors", min=1, help="Stop reading new files once this many errors were found.")
 _RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer records are reported.")
-_DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given.")
+_DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data when not given.")
+_DIALECT = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP)
 _HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'.")
 
 
@@ -129,13 +131,15 @@ def check_command(
     max_errors: int | None = _MAXERR,
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
+    csv_dialect: list[str] = _DIALECT,
     hidden: bool = _HIDDEN,
 ) -> None:
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
     if json_out == "-" and junit == "-":
         raise InputPathError("--json and --junit cannot both write to stdout ('-')")
-    settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden)
+    settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden,
+                         csv_dialect)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
@@ -169,9 +173,10 @@ def diff_command(
     jobs: int = _JOBS,
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
+    csv_dialect: list[str] = _DIALECT,
     hidden: bool = _HIDDEN,
 ) -> None:
-    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden)
+    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden, csv_dialect)
 
     def load(side: str):  # noqa: ANN202 - a Profile
         return profile_of(side, read=s.read, include=s.include, exclude=s.exclude,

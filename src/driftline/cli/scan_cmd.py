@@ -47,6 +47,14 @@ Exit codes: 0 the data could be read (drift is information); 2 usage or input er
 """
 
 
+CSV_DIALECT_HELP = (
+    "Pin the CSV dialect of the files matching GLOB (all CSV/TSV files without it); repeatable, later pins win. "
+    "Keys: delimiter (comma, tab, semicolon, pipe, colon, space or a character), quote (double, single, none), "
+    "escape (backslash, none), header (yes, no, row-names), skip (lines before the header), lines (lf, crlf, cr). "
+    "Keys left out are found from the data. E.g. 'legacy/*.txt:delimiter=pipe,quote=none,header=no'."
+)
+
+
 class _Bar:
     """A progress bar on stderr, shown only on a terminal and only once a scan takes a moment."""
 
@@ -136,7 +144,8 @@ def scan_command(
         min=1,
         help="A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch).",
     ),
-    delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
+    delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data when not given."),
+    csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option(
@@ -178,6 +187,7 @@ def scan_command(
             max_decompression_ratio=max_decompression_ratio,
             max_columns=max_columns,
             delimiter=delimiter,
+            csv_dialect=csv_dialect,
             where=where,
             engine=engine,
             scheduler=scheduler,

@@ -9,6 +9,7 @@ import typer
 from rich.console import Console
 
 from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
+from driftline.cli.scan_cmd import CSV_DIALECT_HELP
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
@@ -120,6 +121,7 @@ def schema_command(
                                               "(default: the --strict setting)."),
     batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch (as for scan)."),
     jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel."),
+    csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
 ) -> None:
     if to is not None and to not in FORMATS:
@@ -134,7 +136,7 @@ def schema_command(
     _check_out(rules, "--rules")
     opts = _options(config, strict, prefer_decimal, timestamp_unit, timestamp_zone, parse_strings,
                     null_tokens, max_null_share, min_field_share)
-    profile = profile_of(paths, read=ReadOptions(batch_rows=batch_rows), jobs=jobs)
+    profile = profile_of(paths, read=ReadOptions(batch_rows=batch_rows, csv_dialects=tuple(csv_dialect)), jobs=jobs)
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "
                              "(driftline scan shows the problems)")

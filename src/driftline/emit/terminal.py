@@ -71,6 +71,29 @@ def overview(profile: Profile) -> Text:
     return text
 
 
+MAX_DIALECT_FILES_SHOWN = 3
+
+
+def dialects_block(profile: Profile) -> Text:
+    """The CSV dialects found, one line per distinct dialect with its files (a few named)."""
+    groups: dict[str, list[tuple[str, float, str]]] = {}
+    for f in profile.files:
+        if f.dialect is not None:
+            groups.setdefault(f.dialect.shape(), []).append((f.rel, f.dialect.confidence, f.dialect.certainty()))
+    text = Text()
+    for shape, files in groups.items():
+        text.append("dialect: ", style="bold")
+        text.append(safe_text(shape, None))
+        low, high = min(c for _, c, _ in files), max(c for _, c, _ in files)
+        how = files[0][2] if len({h for _, _, h in files}) == 1 else f"confidence {low:.2f}–{high:.2f}"
+        text.append(f" ({how}): ")
+        if len(files) > 1:
+            text.append(f"{len(files):,} files, e.g. ")
+        text.append(", ".join(safe_text(rel, 80) for rel, _, _ in files[:MAX_DIALECT_FILES_SHOWN]))
+        text.append("\n")
+    return text
+
+
 def fields_table(profile: Profile) -> Table:
     drifting = Counter(e.path for e in profile.events)
     table = Table(title="Fields", title_justify="left", show_lines=False, pad_edge=False)
@@ -137,6 +160,8 @@ def issues_block(profile: Profile) -> Text:
 
 def render(profile: Profile, console: Console) -> None:
     console.print(overview(profile))
+    if any(f.dialect is not None for f in profile.files):
+        console.print(dialects_block(profile), end="")
     console.print()
     console.print(fields_table(profile))
     console.print()

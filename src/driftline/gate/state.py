@@ -73,7 +73,8 @@ def file_digest(path: str) -> str:
 
 
 def _read_options_json(opts: ReadOptions) -> dict[str, Any]:
-    return dataclasses.asdict(opts)
+    # as the state file holds them (tuples become lists), so a loaded state compares equal
+    return orjson.loads(orjson.dumps(dataclasses.asdict(opts)))  # type: ignore[no-any-return]
 
 
 def _damaged(path: str | Path, why: str) -> ReportVersionError:

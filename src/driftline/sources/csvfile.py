@@ -269,9 +269,9 @@ def _dialect_notes(rel: str, sample: bytes, finding: Finding) -> Iterator[FileIs
         yield FileIssue(rel, "preamble", f"{d.skip:,} line{'s' if d.skip != 1 else ''} before the header skipped "
                         "(comments, a title or notes)", "warning", line=1, byte_offset=0)
     if d.header == "no":
-        yield FileIssue(rel, "no-header", f"no header row: the first row reads like the rows after it; columns named "
-                        f"{positional_name(0)} … {positional_name(finding.width - 1)} by position", "warning",
-                        line=d.skip + 1)
+        why = "as pinned" if "header" in d.pinned else "the first row reads like the rows after it"
+        yield FileIssue(rel, "no-header", f"no header row ({why}); columns named {positional_name(0)} … "
+                        f"{positional_name(finding.width - 1)} by position", "warning", line=d.skip + 1)
     elif d.header == "row-names":
         yield FileIssue(rel, "row-names", f"the header has one name fewer than the rows: the first column holds row "
                         f"names, read as {ROW_NAME_COLUMN!r}", "warning", line=d.skip + 1)

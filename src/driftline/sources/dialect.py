@@ -75,15 +75,24 @@ class Dialect:
 
     def describe(self) -> str:
         """One line for a person, e.g. `'|' no quotes, header, CR (confidence 0.97)`."""
+        return f"{self.shape()} ({self.certainty()})"
+
+    def shape(self) -> str:
+        """The dialect without its confidence: `'|' no quotes, header, CR`."""
         quote = "no quotes" if self.quote is None else f"{self.quote}-quoted"
         if self.escape is not None:
             quote += f", {self.escape!r}-escaped"
         header = {"yes": "header", "no": "no header", "row-names": "header + row names"}[self.header]
-        parts = [_show(self.delimiter), quote, header, self.line_end]
+        parts = [f"{_show(self.delimiter)} {quote}", header, self.line_end]
         if self.skip:
             parts.append(f"{self.skip} preamble line{'s' if self.skip != 1 else ''} skipped")
-        tail = "pinned" if len(self.pinned) == len(_PIN_KEYS) else f"confidence {self.confidence:.2f}"
-        return ", ".join(parts).replace(", ", " ", 1) + f" ({tail})"
+        return ", ".join(parts)
+
+    def certainty(self) -> str:
+        if len(self.pinned) == len(_PIN_KEYS):
+            return "pinned"
+        pinned = f", {'/'.join(self.pinned)} pinned" if self.pinned else ""
+        return f"confidence {self.confidence:.2f}{pinned}"
 
     def to_json(self) -> dict[str, Any]:
         return {"delimiter": self.delimiter, "quote": self.quote, "escape": self.escape, "line_end": self.line_end,
@@ -386,8 +395,8 @@ def header_votes(first: Sequence[str], rows: Sequence[Sequence[str]]) -> tuple[i
 
     A column whose values below are all of one type (integer, number, date, boolean) votes
     for a header when the first row's cell is text there, for data when it fits; a text
-    column of values all of one length votes for a header when the first cell's length
-    differs (csv.Sniffer's test), for data when the first cell is one of its values.
+    column of five or more values all of one length votes for a header when the first cell's
+    length differs (csv.Sniffer's test), for data when the first cell is one of its values.
 
     >>> header_votes(["id", "price"], [["1", "2.5"], ["2", "3"]])
     (2, 0)
@@ -408,7 +417,7 @@ def header_votes(first: Sequence[str], rows: Sequence[Sequence[str]]) -> tuple[i
                 yes += 1
             continue
         lengths = {len(v) for v in values}
-        if len(values) > 1 and len(lengths) == 1 and len(cell) not in lengths:
+        if len(values) >= 5 and len(lengths) == 1 and len(cell) not in lengths:
             yes += 1
         elif len(values) > 1 and cell in set(values):
             no += 1
@@ -423,9 +432,12 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
     at_end says the sample is the whole file (else its last, partial line is left out).
     tsv is the format the file name says; it decides quoting when the sample has no quote.
 
-    >>> f = find_dialect(b"a|b|j\\r1|x|{\\"k\\": 1, \\"l\\": 2}\\r2|y|{}\\r", at_end=True)
+    >>> f = find_dialect(b'id|title|tags\\r1|"Heroes" season 1|{"a": 1, "b": 2}\\r2|Fargo|{}\\r3|"Lost|[]\\r',
+    ...                  at_end=True)
     >>> f.dialect.describe(), f.names
-    ("'|' no quotes, header, CR (confidence 0.24)", ('a', 'b', 'j'))
+    ("'|' no quotes, header, CR (confidence 0.44)", ('id', 'title', 'tags'))
+    >>> print(find_dialect(b"155190,0.5\\n15519,0.25\\n2,3\\n", at_end=True).dialect.shape())
+    ',' "-quoted, no header, LF
     """
     pin = pin or Pin()
     line_end = pin.lines or line_end_of(sample)
