@@ -144,7 +144,7 @@ def scan_command(
         min=1,
         help="A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch).",
     ),
-    delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data when not given."),
+    delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data if not given."),
     csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),

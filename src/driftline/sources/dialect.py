@@ -303,8 +303,9 @@ def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | 
         rec, span = _first_record(lines, start, c.key)
         stray = False
         if span > 1 and len(rec) not in (guess, guess - 1):
-            # an opening quote never closed (or closed far below): read the header line alone
-            rec, span, stray = _alone(lines[start], c.key), 1, True
+            # an opening quote never closed (or closed far below): the header line alone, its
+            # quotes taken as characters
+            rec, span, stray = _alone(lines[start], (c.delimiter, None, c.escape)), 1, True
         counts = _counts(lines[start + span:], *c.key)
         width = Counter(counts).most_common(1)[0][0] if counts else len(rec)
         if width == guess or counts == []:
@@ -337,7 +338,7 @@ def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, 
     """The first line of the table: past comment lines and title lines of another width, the
     first record of `width` fields (or one fewer: row names) followed by one of `width`.
     Records, not lines: a quoted field may hold a line break.  A record that opens a quote it
-    never closes is tried as its line alone."""
+    never closes is tried as its line alone, its quotes taken as characters."""
     want = (width, width - 1) if header != "no" else (width,)
     for i, n in head:
         if i > MAX_PREAMBLE:
@@ -346,7 +347,7 @@ def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, 
             continue
         rec, span = _first_record(lines, i, key)
         if len(rec) not in want:
-            rec, span = _alone(lines[i], key), 1
+            rec, span = _alone(lines[i], (key[0], None, key[2])), 1
             if len(rec) not in want:
                 continue
         after, _ = _first_record(lines, _next_line(lines, i + span), key)
