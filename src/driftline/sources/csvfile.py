@@ -233,7 +233,10 @@ def read_header(stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool) -> Ite
     guard = LineGuard(stream, opts.max_record_bytes, prefix=sample, cr=d.line_end == "CR")
     buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
     size = finding.start_bytes + (len(_BOM) if bom else 0)
-    buffered.read(size)  # the preamble and header, through the guard: their bytes are checked too
+    # The preamble and header pass through the guard, line by line (its output may differ from
+    # the file's bytes: undecodable ones become U+FFFD); their bytes are checked too.
+    for _ in range(finding.start_lines):
+        buffered.readline()
     yield from guard.take_issues(rel)
     names = _names(finding)
     if not names:

@@ -236,13 +236,15 @@ def line_end_of(sample: bytes) -> str:
 
 
 def _lines(text: str, line_end: str) -> list[str]:
-    """The sample's lines, each with its line end, for the csv module; characters that module
-    refuses (NUL, a lone CR in an LF file) become spaces, one for one."""
-    text = text.replace("\x00", " ")
-    cr = line_end == "CR"
-    text = text.replace("\n", " ").replace("\r", "\n") if cr else re.sub("\r(?!\n)", " ", text)
+    """The sample's lines, each with its line end, for the csv module.  In a CR file every CR
+    ends a line (the reader turns it into LF); elsewhere a lone CR, which the csv module
+    refuses outside quotes, stands in as _LONE_CR (one character for one)."""
+    text = text.replace("\r", "\n") if line_end == "CR" else re.sub("\r(?!\n)", _LONE_CR, text)
     parts = text.split("\n")  # not splitlines(): it also ends lines at \v, \f, U+2028 …
     return [p + "\n" for p in parts[:-1]] + ([parts[-1]] if parts[-1] else [])
+
+
+_LONE_CR = "\ue000"  # a private-use character
 
 
 def _reader(lines: Iterable[str], delimiter: str, quote: str | None, escape: str | None) -> Any:
@@ -450,7 +452,7 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
     rows = _body_rows(lines, best)
     header = pin.header or _header_kind(best, rows)
     skip, span = best.skip, best.header_lines
-    names: tuple[str, ...] | None = tuple(best.header or ())
+    names: tuple[str, ...] | None = tuple(n.replace(_LONE_CR, "\r") for n in best.header or ())
     width = best.width
     if header == "no":
         names, span = None, 0
@@ -574,9 +576,8 @@ def _header_kind(c: _Candidate, rows: list[list[str]]) -> str:
     first = c.header or []
     if c.fit == 1 and len(first) == c.width - 1:
         return "row-names"
-    if not rows:  # a single line: a header, unless every cell is a number
-        cells = [x for x in first if x.strip()]
-        return "no" if cells and all(_kind(x) in ("int", "number") for x in cells) else "yes"
+    if not rows:  # a single line: nothing to compare it with, so a header by convention
+        return "yes"
     yes, no = header_votes(first, rows)
     return "no" if no > 0 and yes == 0 else "yes"
 
@@ -606,11 +607,13 @@ def _confidence(best: _Candidate, others: list[_Candidate], rows: list[list[str]
 
 
 def _line_offset(sample: bytes, line_end: str, lines: int) -> int:
-    """The byte offset after the first `lines` lines of sample."""
-    sep = b"\r" if line_end == "CR" else b"\n"
+    """The byte offset after the first `lines` lines of sample (in a CR file, CR and LF both
+    end a line, as they do for the reader)."""
+    if line_end == "CR":
+        sample = sample.replace(b"\r", b"\n")
     at = 0
     for _ in range(lines):
-        nxt = sample.find(sep, at)
+        nxt = sample.find(b"\n", at)
         if nxt < 0:
             return len(sample)
         at = nxt + 1
