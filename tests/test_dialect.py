@@ -458,3 +458,16 @@ def test_binary_cells_stay_bytes_with_no_quotes(tmp_path: Path):
     p = read_one(tmp_path / "q.tsv")
     assert p.files[0].rows == t.num_rows == 3
     assert p.fields["a"].stats.max_length == max(len(v) for v in t.column("a").to_pylist())
+
+
+def test_raw_batches_for_apply_read_the_dialect_as_the_scan_does(tmp_path: Path):
+    from driftline.recommend.raw import raw_batches
+
+    data = b"".join(b"%d|x%d\r" % (155190 + i, i) for i in range(40))
+    f = tmp_path / "h.csv"
+    f.write_bytes(data)
+    ref = reference_rows(data, delimiter="|")
+    (batch,) = [b.batch for b in raw_batches(f)]
+    scanned = driftline.scan(f)
+    assert (batch.num_rows, batch.schema.names) == (len(ref), ["column_1", "column_2"]) == (
+        scanned.files[0].rows, sorted(scanned.fields))

@@ -15,7 +15,6 @@ rows with temporal values as RFC 3339 / ISO 8601 text.
 from __future__ import annotations
 
 import base64
-import csv
 import datetime as dt
 import decimal
 import io
@@ -34,7 +33,8 @@ from driftline.lattice import from_arrow
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE
 from driftline.observe.textclass import class_of
-from driftline.sources.csvfile import sniff_delimiter
+from driftline.sources.base import ReadOptions
+from driftline.sources.csvfile import arrow_options, head_of
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.formats import open_stream
 
@@ -232,34 +232,26 @@ def _json_records(ref: FileRef) -> Iterator[Any]:
                 continue
 
 
-def _csv_names(head: bytes, delimiter: str) -> list[str]:
-    # The scan's header rules: the first row, a BOM ignored, repeated names numbered name_2.
-    text = head.decode("utf-8", "replace").lstrip("\ufeff")
-    names = next(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter), [])
-    seen: dict[str, int] = {}
-    out = []
-    for name in names:
-        seen[name] = seen.get(name, 0) + 1
-        out.append(name if seen[name] == 1 else f"{name}_{seen[name]}")
-    return out
-
-
 def _csv_tables(ref: FileRef, batch_rows: int) -> Iterator[pa.Table]:
+    # The scan's dialect and header rules (sources/dialect.py, csvfile.head_of): the same
+    # columns, names and rows as the scan reads.
     with open_stream(ref.path, ref.compression, limit=None) as stream:
         data = stream.read()
-    head = data[: 64 * 1024]
-    delimiter = "\t" if ref.format == "tsv" else sniff_delimiter(head)
-    names = _csv_names(head, delimiter)
-    if not names:
+    _, header = head_of(io.BytesIO(data), ref.rel, ReadOptions(), tsv=ref.format == "tsv")
+    if header is None:
         return
+    body = data[header.size:]
+    if header.dialect is not None and header.dialect.line_end == "CR":
+        body = body.replace(b"\r", b"\n")
+    names = list(header.names)
+    options = arrow_options(header, 1 << 20, lambda row: "skip")
     table = pcsv.read_csv(
-        io.BytesIO(data.removeprefix(b"\xef\xbb\xbf")),
-        read_options=pcsv.ReadOptions(use_threads=False, column_names=names, skip_rows=1),
-        parse_options=pcsv.ParseOptions(delimiter=delimiter, newlines_in_values=True,
-                                        invalid_row_handler=lambda row: "skip"),
-        convert_options=pcsv.ConvertOptions(column_types={n: pa.string() for n in names},
+        io.BytesIO(body),
+        read_options=pcsv.ReadOptions(use_threads=False, column_names=names, skip_rows=0),
+        parse_options=options["parse_options"],
+        convert_options=pcsv.ConvertOptions(column_types=dict.fromkeys(names, pa.string()),
                                             strings_can_be_null=False, quoted_strings_can_be_null=False),
-    )
+    ) if body.strip() else pa.table({n: pa.array([], pa.string()) for n in names})
     for start in range(0, table.num_rows, batch_rows):
         yield table.slice(start, batch_rows)
 
