@@ -431,7 +431,7 @@ def test_dialect_json_round_trip():
 def test_spans_of_unusual_headers_join_as_one_reader(tmp_path: Path, kind: str):
     rng = random.Random(9)
     body = b"".join(b"%d,%d,%s\n" % (i, rng.randint(0, 99), rng.choice([b"x", b'"a,b"', b""])) for i in range(3000))
-    head = {"headerless": b"", "preamble": b"# note\ntitle\nk,v,w\n", "row-names": b"v,w\n"}[kind]
+    head = {"headerless": b"", "preamble": b"exported 2024-03-01\nreadings\nk,v,w\n", "row-names": b"v,w\n"}[kind]
     f = tmp_path / "s.csv"
     f.write_bytes(head + body)
     ref = discover([str(f)]).files[0]
@@ -471,3 +471,40 @@ def test_raw_batches_for_apply_read_the_dialect_as_the_scan_does(tmp_path: Path)
     scanned = driftline.scan(f)
     assert (batch.num_rows, batch.schema.names) == (len(ref), ["column_1", "column_2"]) == (
         scanned.files[0].rows, sorted(scanned.fields))
+
+
+def test_comment_lines_between_rows_are_skipped_with_exact_line_numbers(tmp_path: Path):
+    # numpy's umath validation sets put '## section ##' lines between data rows
+    lines = ["dtype,input,output,ulperrortol"]
+    for section in range(6):
+        lines.append(f"## section {section} ##")
+        lines += [f"np.float32,0x{section:02x}{i:06x},0x3f800000,{i % 4}" for i in range(30)]
+    data = ("\n".join(lines) + "\n").encode()
+    f = tmp_path / "validation.csv"
+    f.write_bytes(data)
+    # source: DuckDB read_csv with comment='#' given explicitly
+    import duckdb
+
+    n = duckdb.connect().execute(f"select count(*) from read_csv('{f}', comment='#', header=true)").fetchone()[0]
+    p = driftline.scan(f, batch_rows=7)
+    fr = p.files[0]
+    assert (fr.rows, field_names(p)) == (n, ["dtype", "input", "output", "ulperrortol"]) == (180, field_names(p))
+    assert [(i.kind, i.line) for i in fr.issues] == [("comments", 2)]
+    assert "6 comment lines" in fr.issues[0].message and fr.dialect.comment == "#"
+    # every row's line is its line in the file: the first row of each section follows its comment
+    want = {v: k + 1 for k, v in enumerate(lines)}
+    for o in fr.observations:
+        for ex in o.fields["input"].samples.get("class:text", ()):
+            assert ex.line == next(k for v, k in want.items() if v.split(",")[1:2] == [json.loads(ex.value)])
+
+
+def test_header_with_a_trailing_delimiter_above_rows_without_one(tmp_path: Path):
+    # statsmodels' unemp.csv: 'Series id,Year,Period,Value,' above rows of four fields
+    data = b"Series id,Year,Period,Value,\n" + b"".join(b"LNS1,%d,Q0%d,5.%d\n" % (1959 + i // 4, 1 + i % 4, i % 10)
+                                                        for i in range(40))
+    f = tmp_path / "u.csv"
+    f.write_bytes(data)
+    ref = reference_rows(data)
+    p = read_one(f)
+    assert (p.files[0].rows, field_names(p)) == (len(ref) - 1, sorted(ref[0][:4]))
+    assert p.files[0].errors == 0

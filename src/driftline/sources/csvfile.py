@@ -73,10 +73,18 @@ class LineGuard(io.RawIOBase):
     text strictly first), and then gives up on the whole file.
     """
 
-    def __init__(self, inner: BinaryIO, limit: int, prefix: bytes = b"", cr: bool = False) -> None:
+    def __init__(self, inner: BinaryIO, limit: int, prefix: bytes = b"", cr: bool = False,
+                 comment: str | None = None) -> None:
         self._inner, self._limit = inner, limit
         self._prefix = prefix  # bytes already taken from inner (the dialect finder's sample)
         self._cr = cr  # CR-only line ends: each CR becomes LF, byte for byte, so offsets and lines stay exact
+        # comment lines lose their content (not their newline): Arrow skips them as blank lines,
+        # and their numbers let CsvState keep row lines exact
+        self._comment = None if comment is None else re.compile(
+            rb"(?m)^[ \t]*" + re.escape(comment.encode()) + rb"[^\n]*")
+        self.comment_lines: deque[int] = deque()  # line numbers of comment lines not yet passed by the rows
+        self.comments = 0
+        self.first_comment: int | None = None
         self._step = min(1 << 20, limit)  # a line inside one read is then never over the limit
         self._carry: list[bytes] = []  # the start of a line whose newline is still to come
         self._carry_len = 0
@@ -104,7 +112,22 @@ class LineGuard(io.RawIOBase):
                 data.decode("utf-8")
             except UnicodeDecodeError:
                 data = self._scrub(data, first_line, offset)
+        if self._comment is not None:
+            data = self._blank_comments(data, first_line)
         self._out = data
+
+    def _blank_comments(self, data: bytes, first_line: int) -> bytes:
+        assert self._comment is not None
+        line, pos, found = first_line, 0, 0
+        for m in self._comment.finditer(data):
+            line += data.count(b"\n", pos, m.start())
+            pos = m.start()
+            self.comment_lines.append(line)
+            found += 1
+            if self.first_comment is None:
+                self.first_comment = line
+        self.comments += found
+        return self._comment.sub(b"", data) if found else data
 
     def _scrub(self, data: bytes, first_line: int, offset: int) -> bytes:
         text = data.decode("utf-8", "surrogateescape")
@@ -230,13 +253,17 @@ def read_header(stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool) -> Ite
     d = finding.dialect
     yield d
     yield from _dialect_notes(rel, sample, finding)
-    guard = LineGuard(stream, opts.max_record_bytes, prefix=sample, cr=d.line_end == "CR")
+    guard = LineGuard(stream, opts.max_record_bytes, prefix=sample, cr=d.line_end == "CR", comment=d.comment)
     buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
     size = finding.start_bytes + (len(_BOM) if bom else 0)
     # The preamble and header pass through the guard, line by line (its output may differ from
     # the file's bytes: undecodable ones become U+FFFD); their bytes are checked too.
     for _ in range(finding.start_lines):
         buffered.readline()
+    while guard.comment_lines and guard.comment_lines[0] <= finding.start_lines:
+        guard.comment_lines.popleft()  # the preamble's (reported as such), not between rows
+        guard.comments -= 1
+    guard.first_comment = guard.comment_lines[0] if guard.comment_lines else None
     yield from guard.take_issues(rel)
     names = _names(finding)
     if not names:
@@ -339,7 +366,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         )
         return "skip"
 
-    state = CsvState(rel, opts, line=header_lines + 1)
+    state = CsvState(rel, opts, line=header_lines + 1, comment_lines=guard.comment_lines)
     try:
         reader = pcsv.open_csv(buffered, **arrow_options(header, _block(opts), on_invalid))
     except pa.ArrowInvalid as exc:
@@ -378,6 +405,10 @@ def _no_rows(header: Header) -> pa.RecordBatch:
 
 def _ending(rel: str, opts: ReadOptions, guard: LineGuard) -> Iterator[FileIssue]:
     yield from guard.take_issues(rel)
+    if guard.comments:
+        n = guard.comments
+        yield FileIssue(rel, "comments", f"{n:,} comment line{'s' if n != 1 else ''} skipped", "warning",
+                        line=guard.first_comment)
     yield from guard.rest_issue(rel)
     if guard.cut is not None:
         yield _too_long(rel, opts, guard)
@@ -432,8 +463,10 @@ class CsvState:
     """Rows, batches and the line of the next row, from a given start (a file's first row, or
     a span's, see csvsplit)."""
 
-    def __init__(self, rel: str, opts: ReadOptions, line: int, rows: int = 0, batch: int = 0) -> None:
+    def __init__(self, rel: str, opts: ReadOptions, line: int, rows: int = 0, batch: int = 0,
+                 comment_lines: deque[int] | None = None) -> None:
         self.rel, self.opts = rel, opts
+        self.comment_lines = comment_lines  # lines skipped between rows (LineGuard fills it ahead of the rows)
         self.rows = rows
         self.batch = batch
         self.line = line  # line of the next row (exact unless blank or ragged lines intervene)
@@ -460,16 +493,36 @@ class CsvState:
         if n == 0:
             return []
         multiline = [col for col in cells.columns if holds_newline(col)]
-        if not multiline:  # the common case, found by one byte search per column
+        if not multiline and not self.comment_lines:  # the common case, found by one byte search per column
             starts: Sequence[int] = range(self.line, self.line + n)
             self.line += n
             return starts
+        if not multiline:
+            return self._past_comments([1] * n)
         step = pa.array([1] * n, pa.int64())
         for col in multiline:
             step = pc.add(step, pc.fill_null(pc.count_substring(col, "\n"), 0))
+        if self.comment_lines:
+            return self._past_comments(step.to_pylist())
         ends = pc.cumulative_sum(step).to_pylist()
         starts = [self.line] + [self.line + e for e in ends[:-1]]
         self.line += ends[-1]
+        return starts
+
+
+    def _past_comments(self, steps: list[int]) -> list[int]:
+        """Row lines when comment lines (emptied by LineGuard, skipped by Arrow) lie between rows."""
+        skipped = self.comment_lines
+        assert skipped is not None
+        starts = []
+        line = self.line
+        for step in steps:
+            while skipped and skipped[0] <= line:
+                skipped.popleft()
+                line += 1
+            starts.append(line)
+            line += step
+        self.line = line
         return starts
 
 

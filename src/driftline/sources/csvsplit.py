@@ -122,7 +122,7 @@ def _head(ref: FileRef, opts: ReadOptions) -> Head | None:
     if header is None or any(i.kind not in _HEAD_WARNINGS or i.severity != "warning" for i in issues):
         return None
     d = header.dialect
-    if d is None or d.line_end == "CR" or d.quote != '"' or d.escape is not None:
+    if d is None or d.line_end == "CR" or d.quote != '"' or d.escape is not None or d.comment is not None:
         return None  # the planner knows RFC 4180 quoting and LF ends only: one reader takes the others
     return Head(header, tuple(issues))
 

@@ -14,7 +14,9 @@ Every choice is made from the evidence of many rows, never from the first line a
 - header: each column's values below the first row are typed (integer, number, date, text);
   a first row that fits the types of the rows below it is data, a text cell above numbers
   is a name.  With no typed column the first row is taken as the header (common practice);
-- preamble: comment (`#`) and title lines before the first line of the table's width.
+- preamble and comments: title and note lines before the first line of the table's width
+  are skipped; lines starting with `#` are comments wherever they are, when the sample
+  shows them below the header or before it.
 
 The cost is bounded: SAMPLE_BYTES of the file (plus the first line whole, up to the record
 limit), a fixed number of candidate parses, each linear.  A user may pin any part per glob
@@ -60,7 +62,8 @@ class Dialect:
 
     header is 'yes', 'no' (columns get positional names) or 'row-names' (the header has one
     name fewer than the rows: the first column holds row names); skip counts the preamble
-    lines before the header; confidence is in [0, 1]; pinned lists the keys the user fixed.
+    lines before the header; comment starts lines that are skipped wherever they are;
+    confidence is in [0, 1]; pinned lists the keys the user fixed.
     """
 
     delimiter: str
@@ -72,6 +75,7 @@ class Dialect:
     confidence: float = 1.0
     rows_sampled: int = 0
     pinned: tuple[str, ...] = ()
+    comment: str | None = None  # a line starting with it (after blanks) is a comment, skipped
 
     def describe(self) -> str:
         """One line for a person, e.g. `'|' no quotes, header, CR (confidence 0.97)`."""
@@ -84,6 +88,8 @@ class Dialect:
             quote += f", {self.escape!r}-escaped"
         header = {"yes": "header", "no": "no header", "row-names": "header + row names"}[self.header]
         parts = [f"{_show(self.delimiter)} {quote}", header, self.line_end]
+        if self.comment is not None:
+            parts.append(f"{self.comment!r} comments")
         if self.skip:
             parts.append(f"{self.skip} preamble line{'s' if self.skip != 1 else ''} skipped")
         return ", ".join(parts)
@@ -97,12 +103,12 @@ class Dialect:
     def to_json(self) -> dict[str, Any]:
         return {"delimiter": self.delimiter, "quote": self.quote, "escape": self.escape, "line_end": self.line_end,
                 "header": self.header, "skip": self.skip, "confidence": self.confidence,
-                "rows_sampled": self.rows_sampled, "pinned": list(self.pinned)}
+                "rows_sampled": self.rows_sampled, "pinned": list(self.pinned), "comment": self.comment}
 
     @staticmethod
     def from_json(d: Mapping[str, Any]) -> Dialect:
         return Dialect(d["delimiter"], d.get("quote"), d.get("escape"), d["line_end"], d["header"], d.get("skip", 0),
-                       d.get("confidence", 1.0), d.get("rows_sampled", 0), tuple(d.get("pinned", ())))
+                       d.get("confidence", 1.0), d.get("rows_sampled", 0), tuple(d.get("pinned", ())), d.get("comment"))
 
 
 def _show(delimiter: str) -> str:
@@ -111,7 +117,7 @@ def _show(delimiter: str) -> str:
 
 # -- pins ------------------------------------------------------------------------------------
 
-_PIN_KEYS = ("delimiter", "quote", "escape", "header", "skip", "lines")
+_PIN_KEYS = ("delimiter", "quote", "escape", "header", "skip", "lines", "comment")
 
 
 @dataclass(frozen=True, slots=True)
@@ -126,6 +132,7 @@ class Pin:
     header: str | None = None
     skip: int | None = None
     lines: str | None = None
+    comment: str | None | bool = False  # False: not pinned (None: no comment lines)
 
     def matches(self, rel: str) -> bool:
         if self.glob is None:
@@ -135,7 +142,7 @@ class Pin:
 
     def keys(self) -> tuple[str, ...]:
         return tuple(k for k in _PIN_KEYS if getattr(self, k) not in (None, False) or
-                     (k in ("quote", "escape") and getattr(self, k) is None))
+                     (k in ("quote", "escape", "comment") and getattr(self, k) is None))
 
     def over(self, other: Pin) -> Pin:
         """This pin's keys, the other's where this one leaves a key open."""
@@ -150,7 +157,7 @@ def parse_pin(spec: str) -> Pin:
     """A --csv-dialect value: `[GLOB:]KEY=VALUE[,KEY=VALUE…]`.
 
     >>> parse_pin("legacy/*.csv:delimiter=pipe,quote=none,header=no,lines=cr")
-    Pin(glob='legacy/*.csv', delimiter='|', quote=None, escape=False, header='no', skip=None, lines='CR')
+    Pin(glob='legacy/*.csv', delimiter='|', quote=None, escape=False, header='no', skip=None, lines='CR', comment=False)
     >>> parse_pin("delimiter=;,skip=2").skip
     2
     """
@@ -193,6 +200,12 @@ def _pin_value(spec: str, key: str, value: str) -> Any:
         if value.isdigit():
             return int(value)
         raise bad(["a number of lines"])
+    if key == "comment":
+        if low == "none":
+            return None
+        if len(value) == 1 and not value.isalnum() and value not in "\r\n\"'":
+            return value
+        raise bad(["none", "one punctuation character such as #"])
     if key == "lines":
         if value.upper() in LINE_ENDS:
             return value.upper()
@@ -285,6 +298,7 @@ class _Candidate:
     header: list[str] | None = None
     header_lines: int = 1
     stray: bool = False
+    comments: int = 0  # lines starting with '#' below the header
 
     @property
     def key(self) -> tuple[str, str | None, str | None]:
@@ -308,12 +322,16 @@ def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | 
             # an opening quote never closed (or closed far below): the header line alone, its
             # quotes taken as characters
             rec, span, stray = _alone(lines[start], (c.delimiter, None, c.escape)), 1, True
-        counts = _counts(lines[start + span:], *c.key)
+        body = [line for line in lines[start + span:] if not _is_comment(line)]
+        counts = _counts(body, *c.key)
         width = Counter(counts).most_common(1)[0][0] if counts else len(rec)
         if width == guess or counts == []:
             break
         guess = width
+    if len(rec) == width + 1 and not rec[-1].strip():
+        rec = rec[:-1]  # a header line ending with the delimiter above rows that do not
     c.width, c.rows = width, len(counts)
+    c.comments = len(lines) - start - span - len(body)
     c.share = (sum(1 for n in counts if n == width) / len(counts)) if counts else (1.0 if len(rec) > 1 else 0.0)
     row_names = len(rec) == width - 1 and len(rec) >= 2 and header != "no"
     c.fit = 2 if len(rec) == width else 1 if row_names or header == "row-names" else 0
@@ -341,16 +359,16 @@ def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, 
     first record of `width` fields (or one fewer: row names) followed by one of `width`.
     Records, not lines: a quoted field may hold a line break.  A record that opens a quote it
     never closes is tried as its line alone, its quotes taken as characters."""
-    want = (width, width - 1) if header != "no" else (width,)
+    want = (width, width - 1, width + 1) if header != "no" else (width,)
     for i, n in head:
         if i > MAX_PREAMBLE:
             break
         if _is_comment(lines[i]) or (n == 1 and width == 2 and header != "row-names"):
             continue
         rec, span = _first_record(lines, i, key)
-        if len(rec) not in want:
+        if not _fits_width(rec, want, width):
             rec, span = _alone(lines[i], (key[0], None, key[2])), 1
-            if len(rec) not in want:
+            if not _fits_width(rec, want, width):
                 continue
         after, _ = _first_record(lines, _next_line(lines, i + span), key)
         if not after or len(after) == width:
@@ -358,8 +376,13 @@ def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, 
     return next((i for i, _ in head if i <= MAX_PREAMBLE and not _is_comment(lines[i])), 0)
 
 
+def _fits_width(rec: list[str], want: tuple[int, ...], width: int) -> bool:
+    # one name more than the rows only as a trailing delimiter (an empty last name)
+    return len(rec) in want and not (len(rec) == width + 1 and rec[-1].strip())
+
+
 def _next_line(lines: Sequence[str], at: int) -> int:
-    while at < len(lines) and not lines[at].strip():
+    while at < len(lines) and (not lines[at].strip() or _is_comment(lines[at])):
         at += 1
     return at
 
@@ -462,8 +485,12 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
         width = len(names)
     start_lines = skip + span
     confidence = _confidence(best, others, rows, header, pin)
+    if pin.comment is not False:
+        comment = pin.comment
+    else:  # '#' lines below the header, or a preamble of them: the file's comment convention
+        comment = "#" if best.comments or any(_is_comment(x) for x in lines[:skip]) else None
     dialect = Dialect(best.delimiter, best.quote, best.escape, line_end, header, skip, confidence, best.rows,
-                      pin.keys())
+                      pin.keys(), comment)
     return Finding(dialect, names, width, start_lines, _line_offset(sample, line_end, start_lines),
                    best.stray and header != "no")
 
