@@ -332,13 +332,16 @@ def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | 
         rec = rec[:-1]  # a header line ending with the delimiter above rows that do not
     c.width, c.rows = width, len(counts)
     c.comments = len(lines) - start - span - len(body)
-    c.share = (sum(1 for n in counts if n == width) / len(counts)) if counts else (1.0 if len(rec) > 1 else 0.0)
+    # rows as wide as a longer header are explained too: rows short of trailing empty fields
+    explained = sum(1 for n in counts if n == width or (n == len(rec) > width))
+    c.share = explained / len(counts) if counts else (1.0 if len(rec) > 1 else 0.0)
     row_names = len(rec) == width - 1 and len(rec) >= 2 and header != "no"
-    c.fit = 2 if len(rec) == width else 1 if row_names or header == "row-names" else 0
+    longer = len(rec) > width and header != "no"
+    c.fit = 2 if len(rec) == width else 1 if row_names or longer or header == "row-names" else 0
     c.skip, c.header, c.header_lines, c.stray = start, rec, span, stray
     # a skipped line is one the reading could not explain, unless the user said to skip it
     skipped = 0 if skip is not None else sum(1 for i, _ in head if i < start)
-    c.cover = (sum(1 for n in counts if n == width) + (c.fit > 0)) / (len(counts) + 1 + skipped)
+    c.cover = (explained + (c.fit > 0)) / (len(counts) + 1 + skipped)
     return c
 
 
@@ -371,14 +374,14 @@ def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, 
             if not _fits_width(rec, want, width):
                 continue
         after, _ = _first_record(lines, _next_line(lines, i + span), key)
-        if not after or len(after) == width:
+        if not after or len(after) in (width, len(rec)):
             return i
     return next((i for i, _ in head if i <= MAX_PREAMBLE and not _is_comment(lines[i])), 0)
 
 
 def _fits_width(rec: list[str], want: tuple[int, ...], width: int) -> bool:
-    # one name more than the rows only as a trailing delimiter (an empty last name)
-    return len(rec) in want and not (len(rec) == width + 1 and rec[-1].strip())
+    # a header may be wider than the rows (rows short of trailing empty fields)
+    return len(rec) in want or (width + 1 in want and len(rec) > width)
 
 
 def _next_line(lines: Sequence[str], at: int) -> int:
@@ -516,7 +519,8 @@ def _choose(lines: Sequence[str], tsv: bool, pin: Pin) -> tuple[_Candidate, list
     top = max(c.cover for c in valid)
     close = [c for c in valid if c.cover >= top - 0.05]
     order = list(DELIMITERS) + [_SPACE] + [d for d in delimiters if d not in DELIMITERS]
-    best = max(close, key=lambda c: (c.fit == 2, c.width, -order.index(c.delimiter)))
+    # nearly as consistent: the one with no preamble to skip, an exact header, more columns
+    best = max(close, key=lambda c: (c.skip == 0, c.fit == 2, c.width, -order.index(c.delimiter)))
     return best, [c for c in judged if c is not best and c.width >= 2 and c.fit]
 
 
@@ -566,7 +570,9 @@ def _single_quoted(d: str, lines: Sequence[str], pin: Pin, bare: _Candidate) -> 
     if not any(_quote_starts(lines, d, "'")):
         return None
     quoted = _judge(_Candidate(d, "'", None), lines, pin.skip, pin.header)
-    return quoted if _score(quoted) > _score(bare) else None
+    wrapped, opened = _quote_starts(lines, d, "'")
+    better = _score(quoted) > _score(bare) or (_score(quoted) == _score(bare) and wrapped and not opened)
+    return quoted if better else None
 
 
 def _score(c: _Candidate) -> tuple[bool, float, int, bool]:
