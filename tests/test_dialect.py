@@ -508,3 +508,31 @@ def test_header_with_a_trailing_delimiter_above_rows_without_one(tmp_path: Path)
     p = read_one(f)
     assert (p.files[0].rows, field_names(p)) == (len(ref) - 1, sorted(ref[0][:4]))
     assert p.files[0].errors == 0
+
+
+def test_a_count_line_above_the_header_is_a_preamble(tmp_path: Path):
+    # scikit-learn's boston_house_prices.csv: '506,13,,,…' (as wide as the rows) above the names
+    rng = random.Random(11)
+    rows = [",".join(f"{rng.uniform(0, 50):.3f}" for _ in range(5)) for _ in range(60)]
+    data = ("60,5,,,\n" + ",".join(f'"{n}"' for n in ["CRIM", "ZN", "INDUS", "NOX", "MEDV"]) + "\n"
+            + "\n".join(rows) + "\n").encode()
+    f = tmp_path / "b.csv"
+    f.write_bytes(data)
+    # source: DuckDB read_csv with skip=1 and header=true given explicitly
+    import duckdb
+
+    n, = duckdb.connect().execute(f"select count(*) from read_csv('{f}', skip=1, header=true)").fetchone()
+    p = read_one(f)
+    assert (p.files[0].rows, field_names(p)) == (n, ["CRIM", "INDUS", "MEDV", "NOX", "ZN"]) == (60, field_names(p))
+    assert p.files[0].dialect.skip == 1
+
+
+def test_years_as_column_names_stay_a_header(tmp_path: Path):
+    # a wide table of yearly values (as statistics offices publish them): the header holds years
+    data = b"country,1960,1961,1962\n" + b"".join(b"c%d,%d.25,,%d.5\n" % (i, i, i) for i in range(30))
+    f = tmp_path / "wide.csv"
+    f.write_bytes(data)
+    ref = reference_rows(data)
+    p = read_one(f)
+    assert (p.files[0].rows, field_names(p)) == (len(ref) - 1, sorted(ref[0]))
+    assert p.files[0].dialect.header == "yes"

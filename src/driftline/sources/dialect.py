@@ -426,11 +426,14 @@ def header_votes(first: Sequence[str], rows: Sequence[Sequence[str]]) -> tuple[i
     for a header when the first row's cell is text there, for data when it fits; a text
     column of five or more values all of one length votes for a header when the first cell's
     length differs (csv.Sniffer's test), for data when the first cell is one of its values.
+    An integer above a column of decimals does not vote (a year as a column name).
 
     >>> header_votes(["id", "price"], [["1", "2.5"], ["2", "3"]])
     (2, 0)
     >>> header_votes(["155190", "0.5"], [["15519", "0.25"], ["2", "3"]])
     (0, 2)
+    >>> header_votes(["country", "1960", "1961"], [["Aruba", "8.41", "8.2"], ["Chad", "", "7.25"]])
+    (0, 0)
     """
     yes = no = 0
     for j, cell in enumerate(first):
@@ -440,6 +443,8 @@ def header_votes(first: Sequence[str], rows: Sequence[Sequence[str]]) -> tuple[i
         kinds = {_kind(v) for v in values}
         column = "number" if kinds == {"int", "number"} else next(iter(kinds)) if len(kinds) == 1 else "text"
         if column != "text":
+            if column == "number" and _kind(cell) == "int":
+                continue  # an integer over decimals may be a name: years above yearly values
             if _fits(cell, column):
                 no += 1
             elif _kind(cell) == "text":
@@ -475,6 +480,8 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
     if not at_end and len(lines) > 1:
         lines.pop()  # cut short by the sample's end
     best, others = _choose(lines, tsv, pin)
+    if pin.skip is None and pin.header is None:
+        best = _names_below(lines, best)
     rows = _body_rows(lines, best)
     header = pin.header or _header_kind(best, rows)
     skip, span = best.skip, best.header_lines
@@ -591,6 +598,32 @@ def _quote_starts(lines: Sequence[str], d: str, q: str) -> tuple[int, int]:
     return wrapped, starts - wrapped
 
 
+_NAMES_BELOW = 3  # lines below the table's first line where a header may still be found
+
+
+def _names_below(lines: Sequence[str], c: _Candidate) -> _Candidate:
+    """A line of names just below the first line of the table's width: a count line above a
+    header (scikit-learn's '506,13,,,…' above 'CRIM,ZN,…') is a preamble, not the header.
+    Taken when that line reads as names over the rows below it and the first line does not."""
+    at = c.skip + c.header_lines
+    for _ in range(_NAMES_BELOW):
+        at = _next_line(lines, at)
+        if at >= len(lines):
+            break
+        rec, span = _first_record(lines, at, c.key)
+        if len(rec) != c.width:
+            break
+        below = _body_rows(lines, replace(c, skip=at, header_lines=span))
+        yes, no = header_votes(rec, below)
+        if yes and not no:
+            first_yes, first_no = header_votes(c.header or [], below)
+            if first_no or not first_yes:
+                return replace(c, skip=at, header=rec, header_lines=span, fit=2)
+            break
+        at += span
+    return c
+
+
 def _body_rows(lines: Sequence[str], c: _Candidate) -> list[list[str]]:
     body = lines[c.skip + c.header_lines:]
     rows: list[list[str]] = []
@@ -609,8 +642,10 @@ def _header_kind(c: _Candidate, rows: list[list[str]]) -> str:
     first = c.header or []
     if c.fit == 1 and len(first) == c.width - 1:
         return "row-names"
-    if not rows:  # a single line: nothing to compare it with, so a header by convention
-        return "yes"
+    if not rows:  # a single line: a header by convention, unless it repeats numbers (names are distinct)
+        cells = [x for x in first if x.strip()]
+        numbers = all(_kind(x) in ("int", "number") for x in cells)
+        return "no" if cells and numbers and len(set(cells)) < len(cells) else "yes"
     yes, no = header_votes(first, rows)
     return "no" if no > 0 and yes == 0 else "yes"
 
