@@ -38,7 +38,7 @@ from driftline.errors import PolicyError
 SAMPLE_BYTES = 1 << 20  # what the finder reads of a file (more only to hold the first line whole)
 MAX_PREAMBLE = 64  # lines before the header that may be skipped as a preamble
 _HEAD_LINES = MAX_PREAMBLE + 2
-_TYPED_ROWS = 2000  # body rows whose cells are typed for the header decision
+_TYPED_ROWS = 300  # body rows whose cells are typed for the header decision
 # Candidates in order of preference when the evidence is equal; space only as a last resort.
 DELIMITERS = (",", "\t", ";", "|", ":", "^", "~")
 _SPACE = " "
@@ -309,6 +309,15 @@ def _is_comment(line: str) -> bool:
     return line.lstrip().startswith("#")
 
 
+_COMMENT_LINE = re.compile(r"^[ \t]*#", re.M)
+
+
+def _without_comments(lines: Sequence[str]) -> Sequence[str]:
+    if not _COMMENT_LINE.search("".join(lines)):
+        return lines  # the common case: one search
+    return [line for line in lines if not _is_comment(line)]
+
+
 def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | None) -> _Candidate:
     """Field counts, table start and header record of one candidate."""
     head = [(i, len(r)) for i, r in enumerate(_per_line(lines[:_HEAD_LINES], c.key)) if r]
@@ -322,7 +331,7 @@ def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | 
             # an opening quote never closed (or closed far below): the header line alone, its
             # quotes taken as characters
             rec, span, stray = _alone(lines[start], (c.delimiter, None, c.escape)), 1, True
-        body = [line for line in lines[start + span:] if not _is_comment(line)]
+        body = _without_comments(lines[start + span:])
         counts = _counts(body, *c.key)
         width = Counter(counts).most_common(1)[0][0] if counts else len(rec)
         if width == guess or counts == []:
@@ -440,7 +449,7 @@ def header_votes(first: Sequence[str], rows: Sequence[Sequence[str]]) -> tuple[i
         values = [r[j] for r in rows if j < len(r) and r[j].strip()]
         if not values or not cell.strip():
             continue
-        kinds = {_kind(v) for v in values}
+        kinds = {_kind(v) for v in set(values)}
         column = "number" if kinds == {"int", "number"} else next(iter(kinds)) if len(kinds) == 1 else "text"
         if column != "text":
             if column == "number" and _kind(cell) == "int":
@@ -483,7 +492,8 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
     if pin.skip is None and pin.header is None:
         best = _names_below(lines, best)
     rows = _body_rows(lines, best)
-    header = pin.header or _header_kind(best, rows)
+    votes = header_votes(best.header or [], rows) if rows else (0, 0)
+    header = pin.header or _header_kind(best, rows, votes)
     skip, span = best.skip, best.header_lines
     names: tuple[str, ...] | None = tuple(n.replace(_LONE_CR, "\r") for n in best.header or ())
     width = best.width
@@ -494,7 +504,7 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
     else:
         width = len(names)
     start_lines = skip + span
-    confidence = _confidence(best, others, rows, header, pin)
+    confidence = _confidence(best, others, votes, header, pin)
     if pin.comment is not False:
         comment = pin.comment
     else:  # '#' lines below the header, or a preamble of them: the file's comment convention
@@ -592,9 +602,13 @@ def _quote_starts(lines: Sequence[str], d: str, q: str) -> tuple[int, int]:
     text = "".join(lines)
     if q not in text:
         return 0, 0
+    starts = text.count(d + q) + text.count("\n" + q) + text.startswith(q)
+    if not starts:
+        return 0, 0
     dq, qq = re.escape(d), re.escape(q)
-    starts = len(re.findall(f"(?:^|{dq}){qq}", text, re.M))
-    wrapped = len(re.findall(f"(?:^|{dq}){qq}(?:[^{qq}]|{qq}{qq})*{qq}(?={dq}|\r?$)", text, re.M))
+    wrapped = 0
+    for m in re.finditer(f"{qq}(?:[^{qq}]|{qq}{qq})*{qq}(?={dq}|\r?\n|\\Z)", text):
+        wrapped += m.start() == 0 or text[m.start() - 1] in (d, "\n")  # at a field's start
     return wrapped, starts - wrapped
 
 
@@ -605,6 +619,8 @@ def _names_below(lines: Sequence[str], c: _Candidate) -> _Candidate:
     """A line of names just below the first line of the table's width: a count line above a
     header (scikit-learn's '506,13,,,…' above 'CRIM,ZN,…') is a preamble, not the header.
     Taken when that line reads as names over the rows below it and the first line does not."""
+    if c.header and all(_kind(x) == "text" for x in c.header):
+        return c  # already a line of names
     at = c.skip + c.header_lines
     for _ in range(_NAMES_BELOW):
         at = _next_line(lines, at)
@@ -638,7 +654,7 @@ def _body_rows(lines: Sequence[str], c: _Candidate) -> list[list[str]]:
     return rows
 
 
-def _header_kind(c: _Candidate, rows: list[list[str]]) -> str:
+def _header_kind(c: _Candidate, rows: list[list[str]], votes: tuple[int, int]) -> str:
     first = c.header or []
     if c.fit == 1 and len(first) == c.width - 1:
         return "row-names"
@@ -646,11 +662,11 @@ def _header_kind(c: _Candidate, rows: list[list[str]]) -> str:
         cells = [x for x in first if x.strip()]
         numbers = all(_kind(x) in ("int", "number") for x in cells)
         return "no" if cells and numbers and len(set(cells)) < len(cells) else "yes"
-    yes, no = header_votes(first, rows)
+    yes, no = votes
     return "no" if no > 0 and yes == 0 else "yes"
 
 
-def _confidence(best: _Candidate, others: list[_Candidate], rows: list[list[str]], header: str, pin: Pin) -> float:
+def _confidence(best: _Candidate, others: list[_Candidate], votes: tuple[int, int], header: str, pin: Pin) -> float:
     """How sure the finder is, in [0, 1]: the product of the evidence for each part.
 
     delimiter: the share of lines read as the header or a row of the table's width, times
@@ -663,12 +679,13 @@ def _confidence(best: _Candidate, others: list[_Candidate], rows: list[list[str]
     if "delimiter" in keys:
         part_d = 1.0
     else:
-        rival = max((o.cover for o in others if o.delimiter != best.delimiter), default=0.0)
+        # a rival that needs more lines skipped than the best is a weaker one
+        rival = max((o.cover for o in others if o.delimiter != best.delimiter and o.skip <= best.skip), default=0.0)
         part_d = best.cover * ((n + 1) / (n + 6)) * (1 - rival / 2)
     if "header" in keys or header == "row-names":
         part_h = 1.0
     else:
-        yes, no = header_votes(best.header or [], rows) if rows else (0, 0)
+        yes, no = votes
         part_h = max(yes, no) / (yes + no) if yes + no else 0.6
     part_q = 1.0 if best.stray is False else 0.5
     return round(max(0.0, min(1.0, part_d * part_h * part_q)), 2)
