@@ -8,7 +8,6 @@ Files driftline misreads today are strict xfails naming the fix that is pending.
 
 from __future__ import annotations
 
-import codecs
 import csv
 import io
 from typing import Any
@@ -32,10 +31,7 @@ def _python_csv_shape(entry: dict[str, Any]) -> tuple[int, int]:
     raw = (corpus.CORPUS / entry["path"]).read_bytes()
     options = entry.get("pyarrow", {})
     read, parse = options.get("read", {}), options.get("parse", {})
-    encoding = read.get("encoding", "utf-8")
-    if encoding == "utf-16" and raw.startswith(codecs.BOM_UTF16_BE):
-        encoding = "utf-16"  # Python's utf-16 codec honours either BOM
-    text = raw.decode(encoding)
+    text = raw.decode(read.get("encoding", "utf-8"))  # source: Python codecs; utf-16 follows the BOM either way
     quoting = csv.QUOTE_NONE if parse.get("quote_char") is False else csv.QUOTE_MINIMAL
     rows = list(csv.reader(io.StringIO(text, newline=""), delimiter=parse.get("delimiter", ","), quoting=quoting))
     rows = [r for r in rows[read.get("skip_rows", 0) :] if r]  # source: Python csv docs; a blank line is []
