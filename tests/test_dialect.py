@@ -536,3 +536,16 @@ def test_years_as_column_names_stay_a_header(tmp_path: Path):
     p = read_one(f)
     assert (p.files[0].rows, field_names(p)) == (len(ref) - 1, sorted(ref[0]))
     assert p.files[0].dialect.header == "yes"
+
+
+def test_undecodable_bytes_in_a_preamble_keep_rows_and_lines_exact(tmp_path: Path):
+    # the preamble and header are skipped line by line: U+FFFD for a bad byte changes their length
+    data = b"exported by caf\xe9 tool\n\nk,v\n" + b"".join(b"%d,x%d\n" % (i, i) for i in range(25))
+    f = tmp_path / "p.csv"
+    f.write_bytes(data)
+    ref = reference_rows(data[data.index(b"k,v"):])
+    p = read_one(f)
+    fr = p.files[0]
+    assert (fr.rows, field_names(p)) == (len(ref) - 1, ["k", "v"]) == (25, field_names(p))
+    assert [(i.kind, i.line) for i in fr.issues] == [("preamble", 1), ("invalid-utf8", 1)]
+    assert p.fields["k"].stats.samples["class:integer"][0].line == 4

@@ -38,17 +38,6 @@ _MAX_CELL_ISSUES = 20  # per file; the count of further ones is reported once
 Item = Observation | FileIssue
 
 
-def sniff_delimiter(head: bytes, default: str = ",") -> str:
-    """The delimiter of a CSV sample, as the dialect finder sees it.
-
-    >>> sniff_delimiter(b"a;b;c\\n1;2;3\\n")
-    ';'
-    """
-    if not head.strip():
-        return default
-    return find_dialect(head.removeprefix(_BOM), at_end=True).dialect.delimiter
-
-
 def _unique(names: list[str]) -> list[str]:
     seen: dict[str, int] = {}
     out = []
@@ -229,7 +218,7 @@ class Opened:
     """A stream positioned at its first row: the LineGuard, the buffered reader over it, the header."""
 
     guard: LineGuard
-    buffered: io.BufferedReader
+    buffered: io.BufferedReader[LineGuard]
     header: Header
 
 

@@ -278,7 +278,7 @@ def _first_record(lines: Sequence[str], at: int, dialect: tuple[str, str | None,
     looked for in _HEAD_LINES lines at most: the cost stays bounded whatever quotes do."""
     reader = _reader(iter(lines[at:at + _HEAD_LINES]), *dialect)
     try:
-        rec = next(reader, [])
+        rec: list[str] = next(reader, [])
     except csv.Error:
         return [], 1
     return rec, max(reader.line_num, 1)
@@ -495,18 +495,20 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
     votes = header_votes(best.header or [], rows) if rows else (0, 0)
     header = pin.header or _header_kind(best, rows, votes)
     skip, span = best.skip, best.header_lines
-    names: tuple[str, ...] | None = tuple(n.replace(_LONE_CR, "\r") for n in best.header or ())
+    found = tuple(n.replace(_LONE_CR, "\r") for n in best.header or ())
+    names: tuple[str, ...] | None = found
     width = best.width
     if header == "no":
         names, span = None, 0
     elif header == "row-names":
-        width = max(width, len(names) + 1)
+        width = max(width, len(found) + 1)
     else:
-        width = len(names)
+        width = len(found)
     start_lines = skip + span
     confidence = _confidence(best, others, votes, header, pin)
+    comment: str | None
     if pin.comment is not False:
-        comment = pin.comment
+        comment = pin.comment if isinstance(pin.comment, str) else None
     else:  # '#' lines below the header, or a preamble of them: the file's comment convention
         comment = "#" if best.comments or any(_is_comment(x) for x in lines[:skip]) else None
     dialect = Dialect(best.delimiter, best.quote, best.escape, line_end, header, skip, confidence, best.rows,
