@@ -282,7 +282,7 @@ def _stray_file(path: Path, header: bytes, quoted_body: bool, target: int = 8 * 
     return data
 
 
-@pytest.mark.timeout(60)
+@pytest.mark.timeout(20)
 @pytest.mark.parametrize(("header", "quoted_body"), [
     (b'id,"name,value\n', False),  # opens a quote at a field's start and never closes it
     (b'id,"name,value\n', True),  # … above rows that do use quoting
@@ -369,8 +369,7 @@ def test_dialect_round_trips_through_the_report_and_shows_in_the_terminal(tmp_pa
     assert doc["files"][0]["dialect"]["line_end"] == "CR"
     p = load_report(out)
     assert p.files[0].dialect == driftline.scan(tmp_path / "p.csv").files[0].dialect
-    assert load_report(out) == load_report(out) and dumps(p) == out.read_bytes().replace(
-        str(doc["duration_s"]).encode(), str(doc["duration_s"]).encode())
+    assert dumps(p) == out.read_bytes()  # the report round-trips byte for byte
 
 
 def test_report_validates_against_the_schema(tmp_path: Path):
