@@ -62,6 +62,7 @@ DOCTEST_MODULES = [
     "driftline.report",
     "driftline.sources.base",
     "driftline.sources.dialect",
+    "driftline.sources.dialectpin",
     "driftline.tables",
 ]
 

@@ -9,7 +9,8 @@ from typing import Any
 from driftline.errors import PolicyError
 from driftline.observe.observation import Observation
 from driftline.observe.stats import pickled_by_fields
-from driftline.sources.dialect import Dialect, parse_pin
+from driftline.sources.dialect import Dialect
+from driftline.sources.dialectpin import parse_pin
 
 DEFAULT_BATCH_ROWS = 65_536
 DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
