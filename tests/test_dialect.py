@@ -548,3 +548,14 @@ def test_undecodable_bytes_in_a_preamble_keep_rows_and_lines_exact(tmp_path: Pat
     assert (fr.rows, field_names(p)) == (len(ref) - 1, ["k", "v"]) == (25, field_names(p))
     assert [(i.kind, i.line) for i in fr.issues] == [("preamble", 1), ("invalid-utf8", 1)]
     assert p.fields["k"].stats.samples["class:integer"][0].line == 4
+
+
+def test_rows_starting_with_a_hash_as_wide_as_the_others_are_data(tmp_path: Path):
+    data = b"tag,n\n#python,5\n#rust,3\nplain,1\n# a note\n"
+    f = tmp_path / "tags.csv"
+    f.write_bytes(data)
+    ref = reference_rows(data)
+    p = read_one(f)
+    # the csv module reads 5 rows below the header; '# a note' is one of them, a ragged one here
+    assert len(ref) - 1 == 4 and p.files[0].dialect.comment is None
+    assert p.files[0].rows == 3 and [(i.kind, i.line) for i in p.files[0].issues] == [("ragged-row", 5)]

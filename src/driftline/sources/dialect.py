@@ -184,7 +184,8 @@ class _Candidate:
     header: list[str] | None = None
     header_lines: int = 1
     stray: bool = False
-    comments: int = 0  # lines starting with '#' below the header
+    comments: int = 0  # lines starting with '#' below the header, of another width than the rows
+    hash_rows: int = 0  # lines starting with '#' below the header that are as wide as the rows: data
 
     @property
     def key(self) -> tuple[str, str | None, str | None]:
@@ -226,7 +227,10 @@ def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | 
     if len(rec) == width + 1 and not rec[-1].strip():
         rec = rec[:-1]  # a header line ending with the delimiter above rows that do not
     c.width, c.rows = width, len(counts)
-    c.comments = len(lines) - start - span - len(body)
+    if len(body) < len(lines) - start - span:  # '#' lines: comments, unless as wide as the rows
+        hashed = [len(_alone(x, c.key)) for x in lines[start + span:] if _is_comment(x)]
+        c.hash_rows = sum(1 for n in hashed if n == width)
+        c.comments = len(hashed) - c.hash_rows
     # rows as wide as a longer header are explained too: rows short of trailing empty fields
     explained = sum(1 for n in counts if n == width or (n == len(rec) > width))
     c.share = explained / len(counts) if counts else (1.0 if len(rec) > 1 else 0.0)
@@ -396,7 +400,9 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
     if pin.comment is not False:
         comment = pin.comment if isinstance(pin.comment, str) else None
     else:  # '#' lines below the header, or a preamble of them: the file's comment convention
-        comment = "#" if best.comments or any(_is_comment(x) for x in lines[:skip]) else None
+        # only where no '#' line is as wide as the rows, and a row has more than one field
+        seen = best.comments or any(_is_comment(x) for x in lines[:skip])
+        comment = "#" if seen and not best.hash_rows and best.width > 1 else None
     dialect = Dialect(best.delimiter, best.quote, best.escape, line_end, header, skip, confidence, best.rows,
                       pin.keys(), comment)
     return Finding(dialect, names, width, start_lines, _line_offset(sample, line_end, start_lines),
