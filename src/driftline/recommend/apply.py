@@ -36,9 +36,10 @@ _CLASS_RE = {
     "date": tc.DATE_RE, "timestamp_rfc3339": tc.TIMESTAMP_RFC3339_RE,
     "timestamp_offset": tc.TIMESTAMP_OFFSET_RE, "timestamp_local": tc.TIMESTAMP_LOCAL_RE,
 }
-# Measured on the cast's input and output, not taken from the classes: a zero before another
-# digit, which no number's text has; and an input that is not infinity (or zero) itself.
-_LEADING_ZERO = r"^-?0[0-9]"
+# Measured on the cast's input and output, not taken from the classes: a positional numeral
+# with a zero before another digit, which no number's text has (a float form such as 00e5 is
+# read for its value alone); and an input that is not infinity (or zero) itself.
+_LEADING_ZERO = r"^-?0[0-9]+(?:\.[0-9]+)?$"
 _SPECIAL = r"^-?[IiNn]"
 _NONZERO_MANTISSA = r"^-?[0-9]*\.?[0-9]*[1-9]"
 _ZONED = ("timestamp_rfc3339", "timestamp_offset")

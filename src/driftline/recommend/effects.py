@@ -9,6 +9,7 @@ made no such count, the effect says so (exact=False) instead of guessing.
 from __future__ import annotations
 
 from driftline.lattice import STRING, DType
+from driftline.observe.textclass import MAX_DECIMAL_DIGITS
 from driftline.recommend.options import RecommendOptions, zone_is_fixed
 from driftline.recommend.plan import Effect
 from driftline.recommend.reading import FLOAT_EXACT_DIGITS, PADDED, TIMESTAMP_CLASSES, UNIT_DIGITS, Form, Reading
@@ -85,6 +86,11 @@ def _numeric(r: Reading) -> list[Effect]:
     typed_str, cells = _sides(r, ("integer", "decimal", PADDED))
     wide = wide or typed_str and f.typed.int_digits + f.typed.frac_digits > FLOAT_EXACT_DIGITS \
         or cells and f.text.int_digits + f.text.frac_digits > FLOAT_EXACT_DIGITS
+    # A float string is a digit string too long for decimal256 (77 digits and more) or a float
+    # literal; the scan does not count its digits, but one that long may hold more than float64.
+    typed_str, cells = _sides(r, ("float",))
+    wide = wide or typed_str and f.typed.max_length > MAX_DECIMAL_DIGITS \
+        or cells and f.text.max_length > MAX_DECIMAL_DIGITS
     if wide:
         out.append(Effect("change", "rounded", 0, (), False,
                           "numbers with more than 15 significant digits may round as float64; the scan "
