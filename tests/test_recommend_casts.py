@@ -18,6 +18,7 @@ import math
 import re
 import string
 from decimal import Decimal
+from pathlib import Path
 
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -25,6 +26,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+import driftline
 from driftline.lattice import to_arrow
 from driftline.observe.columnar import observe_table
 from driftline.observe.records import observe_records
@@ -217,7 +219,7 @@ def test_date_and_timestamp_casts_lose_what_the_plan_says(values: list[str], sou
 
 # -- regressions, each with its exact counts ------------------------------------------------------
 
-def test_leading_zero_codes_stay_text_or_count_every_one(tmp_path: object) -> None:
+def test_leading_zero_codes_stay_text_or_count_every_one() -> None:
     # common practice: FIPS county codes and US ZIP codes are fixed-width with leading zeros
     codes = ["000009113186", "09001", "06", "0900", "10001", "-007"]
     plan, out, _ = _field(codes, "text")
@@ -268,3 +270,25 @@ def test_integers_beyond_int64_never_claim_no_loss() -> None:
     plan, _, _ = _field([*wide, "1e3"], "text")
     assert plan.target.key() == "float64"
     assert [(e.cause, e.exact) for e in plan.effects] == [("rounded", False)]
+
+
+def test_a_scan_types_19_digit_ids_as_int64_on_every_path(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # source: int64 holds up to 2**63 - 1 = 9223372036854775807; JSON (RFC 8259 section 6) gives
+    # integers no width, so an integer literal within int64 is an int64 whatever its digits.
+    ids = [2**63 - 1 - 104729 * k for k in range(50)] + [10**18 + 7, -(2**63), 42]
+    (tmp_path / "a.csv").write_text("id\n" + "".join(f"{i}\n" for i in ids))
+    (tmp_path / "b.jsonl").write_text("".join(f'{{"id": {i}}}\n' for i in ids))
+    # beside a float in the same column, Arrow's JSON reader gives doubles: the exact walk settles them
+    (tmp_path / "c.jsonl").write_text("".join(f'{{"id": {i}}}\n' for i in ids) + '{"id": 0.5}\n')
+    for exact in ("", "1"):
+        monkeypatch.setenv("DRIFTLINE_EXACT", exact)
+        profile = driftline.scan(tmp_path)
+        for f in profile.files:
+            [obs] = f.observations
+            st_ = obs.fields["id"]
+            want = {"int64": len(ids)} if f.rel != "c.jsonl" else {"float64": 1, "int64": len(ids)}
+            assert st_.types == want, (f.rel, exact)
+            if f.rel != "a.csv":  # (text cells keep no extremes)
+                assert (st_.minimum, st_.maximum) == (-(2**63), 2**63 - 1), (f.rel, exact)
+        csv_classes = next(f for f in profile.files if f.rel == "a.csv").observations[0].fields["id"].classes
+        assert csv_classes == {"integer": len(ids)}

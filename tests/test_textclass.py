@@ -798,7 +798,12 @@ _run = st.builds(
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
 @given(st.lists(_run, min_size=1, max_size=3))
 def test_classifiers_are_linear_on_long_runs(values: list[str]) -> None:
-    # Whatever a pattern does with a long run, every path agrees with class_of, in bounded time.
+    # Whatever a pattern does with a long run, every path agrees with class_of, in bounded time:
+    # the masks, string_profile (dictionary and plain-number shortcuts) and the bulk verdicts.
+    from driftline.observe.strprofile import string_profile, verdicts
+
     want = [class_of(v) for v in values]
     masks = class_masks(pa.array(values))
     assert [next(c for c in CLASSES if masks[c][i].as_py()) for i in range(len(values))] == want
+    assert string_profile(pa.array(values * 2)).counts == {c: 2 * want.count(c) for c in CLASSES if c in want}
+    assert [CLASSES[k] for k in verdicts(pa.array(values)).kind.to_pylist()] == want
