@@ -68,30 +68,38 @@ def number_masks(values: pa.Array, raw: bytes) -> Numbers | None:
             return None
     else:
         digits = body
-    if (pc.min(digits).as_py() or 0) < 1 or (pc.max(digits).as_py() or 0) > MAX_DECIMAL_DIGITS:
+    extremes = pc.min_max(digits)
+    most = extremes["max"].as_py() or 0
+    if (extremes["min"].as_py() or 0) < 1 or most > MAX_DECIMAL_DIGITS:
         return None
     before = body if not n_point else pc.if_else(has_point, pc.subtract(point, pc.subtract(length, body)), body)
     # A '0' first (after the sign) and another digit before the point: zero_padded.
+    none = pa.repeat(False, len(values))
     lead = pc.starts_with(values, "0")
     if n_minus:
         lead = pc.or_(lead, pc.starts_with(values, "-0"))
-    padded = pc.fill_null(pc.and_(lead, pc.greater_equal(before, 2)), False)
-    whole = pc.invert(has_point) if n_point else pa.repeat(True, len(values))
-    integer = pc.and_(pc.and_not(whole, padded), pc.less_equal(digits, _INTEGER_DIGITS))
-    if (pc.max(digits).as_py() or 0) > _INTEGER_DIGITS:
+    padded = pc.fill_null(pc.and_(lead, pc.greater_equal(before, 2)), False) if lead.true_count else none
+    whole = pc.invert(has_point) if n_point else None  # None: every value
+    if padded.true_count:
+        whole = pc.and_not(pc.is_valid(values) if whole is None else whole, padded)
+    short = pc.less_equal(digits, _INTEGER_DIGITS)
+    integer = short if whole is None else pc.and_(whole, short)
+    if most > _INTEGER_DIGITS:
         # 19 digits without a leading zero: as long as the bound, so the text compares as the number.
-        at_bound = pc.and_(pc.and_not(whole, padded), pc.equal(digits, _INTEGER_DIGITS + 1))
+        at_bound = pc.equal(digits, _INTEGER_DIGITS + 1)
+        if whole is not None:
+            at_bound = pc.and_(whole, at_bound)
         fits = pc.less_equal(values, str(INT64_MAX))
         if n_minus:
             fits = pc.if_else(minus, pc.less_equal(values, str(INT64_MIN)), fits)
         integer = pc.or_(integer, pc.and_(at_bound, fits))
     integer = pc.fill_null(integer, False)
-    none = pa.repeat(False, len(values))
     masks = {cls: none for cls in CLASSES}
     masks["zero_padded"] = padded
     masks["integer"] = integer
-    masks["decimal"] = pc.and_not(pc.and_not(pc.is_valid(values), integer), padded)
+    decimal = pc.and_not(pc.is_valid(values), integer)
+    masks["decimal"] = pc.and_not(decimal, padded) if padded.true_count else decimal
     if not n_point:
-        return Numbers(masks, pc.max(digits).as_py() or 0, 0)
+        return Numbers(masks, most, 0)
     after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
     return Numbers(masks, pc.max(before).as_py() or 0, pc.max(after).as_py() or 0)

@@ -181,6 +181,8 @@ FLOAT_RE = (
 NUMBER_SHAPED: tuple[str, ...] = ("zero_padded", "integer", "decimal", "float", "float_out_of_range")
 
 _INT64_TEXT = (str(INT64_MAX), str(INT64_MIN))
+# The plain numerals: what zero_padded, integer and decimal split between them (RE2 syntax).
+_PLAIN_RE2 = r"^-?[0-9]+(?:\.[0-9]+)?$"
 # A non-zero digit in the mantissa (the part before any exponent): RE2 syntax.
 _NONZERO_MANTISSA = r"^-?[0-9]*\.?[0-9]*[1-9]"
 
@@ -446,17 +448,13 @@ def _masks(arr: pa.Array) -> dict[str, pa.BooleanArray]:
     # while str.lower() gives 'i' + U+0307, so "nİl" would differ.  No other
     # non-ASCII character lowers to ASCII letters used by the tokens.
     take("null_token", pc.is_in(pc.ascii_lower(trimmed), value_set=_NULL_TOKEN_SET))
-    for name in ("boolean", "zero_padded"):
-        take(name, pc.match_substring_regex(arr, _RE2[name]))
-    take("integer", _integers(arr))
-    decimal = _false_if_null(pc.match_substring_regex(arr, _RE2["decimal"]))
-    if decimal.true_count:
-        digits = pc.subtract(
-            pc.subtract(pc.binary_length(arr), pc.cast(pc.starts_with(arr, "-"), pa.int64())),
-            pc.cast(pc.match_substring(arr, "."), pa.int64()),
-        )
-        decimal = pc.and_(decimal, _false_if_null(pc.less_equal(digits, MAX_DECIMAL_DIGITS)))
-    take("decimal", decimal)
+    take("boolean", pc.match_substring_regex(arr, _RE2["boolean"]))
+    # One pattern finds the plain numerals; lengths and first characters then split them into
+    # zero_padded, integer and decimal (what their three patterns and bounds say).
+    plain = pc.and_(_false_if_null(pc.match_substring_regex(arr, _PLAIN_RE2)), remaining)
+    split = plain_numerals(arr.filter(plain)) if plain.true_count else None
+    for name in ("zero_padded", "integer", "decimal"):
+        take(name, plain if split is None else pc.replace_with_mask(plain, plain, split[name]))
     floats = pc.and_(_false_if_null(pc.match_substring_regex(arr, _RE2["float"])), remaining)
     beyond = _beyond_float64_mask(arr, floats)
     take("float", pc.and_not(floats, beyond))
@@ -473,32 +471,50 @@ def _masks(arr: pa.Array) -> dict[str, pa.BooleanArray]:
     return {name: masks[name] for name in CLASSES}
 
 
-def _integers(arr: pa.Array) -> pa.BooleanArray:
-    """INTEGER_RE matches within int64: a 19-digit one is compared with the bound as text."""
-    shaped = _false_if_null(pc.match_substring_regex(arr, _RE2["integer"]))
-    if not shaped.true_count:
-        return shaped
-    minus = _false_if_null(pc.starts_with(arr, "-"))
-    digits = pc.subtract(pc.binary_length(arr), pc.cast(minus, pa.int32()))
-    wide = pc.and_(shaped, _false_if_null(pc.equal(digits, 19)))
-    if not wide.true_count:
-        return shaped
-    # Strings of one length order as their numbers do (no leading zeros here).
-    fits = pc.if_else(minus, pc.less_equal(arr, _INT64_TEXT[1]), pc.less_equal(arr, _INT64_TEXT[0]))
-    return pc.and_(shaped, pc.or_(pc.invert(wide), _false_if_null(fits)))
+def plain_numerals(values: pa.Array) -> dict[str, pa.BooleanArray]:
+    """zero_padded / integer / decimal masks of values that all have the shape -?[0-9]+(.[0-9]+)?.
+
+    Such a value is zero_padded (a '0' and another digit before the point), an integer (no
+    point, within int64), a decimal (at most 76 digits), or else (a float) in none of them.
+
+    >>> m = plain_numerals(pa.array(["007", "9223372036854775807", "9223372036854775808", "0.5"]))
+    >>> m["zero_padded"].to_pylist(), m["integer"].to_pylist(), m["decimal"].to_pylist()
+    ([True, False, False, False], [False, True, False, False], [False, False, True, True])
+    """
+    length = pc.cast(pc.binary_length(values), pa.int64())
+    minus = pc.starts_with(values, "-")
+    body = pc.subtract(length, pc.cast(minus, pa.int64()))
+    point = pc.cast(pc.find_substring(values, "."), pa.int64())  # -1: no point
+    has_point = pc.greater_equal(point, 0)
+    digits = pc.subtract(body, pc.cast(has_point, pa.int64()))
+    before = pc.if_else(has_point, pc.subtract(point, pc.cast(minus, pa.int64())), body)
+    lead = pc.or_(pc.starts_with(values, "0"), pc.starts_with(values, "-0"))
+    padded = pc.and_(lead, pc.greater_equal(before, 2)) if lead.true_count else pa.repeat(False, len(values))
+    whole = pc.and_not(pc.invert(has_point), padded)
+    integer = pc.and_(whole, pc.less_equal(digits, 18))
+    wide = pc.and_(whole, pc.equal(digits, 19))
+    if wide.true_count:
+        # Digit strings of one length (no leading zero) order as their numbers do.
+        fits = pc.if_else(minus, pc.less_equal(values, _INT64_TEXT[1]), pc.less_equal(values, _INT64_TEXT[0]))
+        integer = pc.or_(integer, pc.and_(wide, fits))
+    decimal = pc.and_(pc.and_not(pc.invert(padded), integer), pc.less_equal(digits, MAX_DECIMAL_DIGITS))
+    return {"zero_padded": padded, "integer": integer, "decimal": decimal}
 
 
 def _beyond_float64_mask(arr: pa.Array, floats: pa.BooleanArray) -> pa.BooleanArray:
     """Of the FLOAT_RE matches, those float64 turns to infinity or (from non-zero) to zero."""
     if not floats.true_count:
         return floats
-    values = arr.filter(floats)
-    got = pc.cast(values, pa.float64())
-    inf = pc.is_inf(got)
-    letters = pc.match_substring_regex(values, "^-?[IiNn]")  # inf, infinity, nan
-    lost = pc.or_(pc.and_not(inf, letters),
+    got = pc.cast(arr.filter(floats), pa.float64())
+    edge = pc.or_(pc.is_inf(got), pc.equal(got, 0.0))  # the candidates; their text decides
+    if not edge.true_count:
+        return pa.repeat(False, len(arr))
+    at = pc.replace_with_mask(floats, floats, edge)
+    values, got = arr.filter(at), got.filter(edge)
+    letters = pc.match_substring_regex(values, "^-?[IiNn]")  # inf, infinity, nan: the value itself
+    lost = pc.or_(pc.and_not(pc.is_inf(got), letters),
                   pc.and_(pc.equal(got, 0.0), pc.match_substring_regex(values, _NONZERO_MANTISSA)))
-    return pc.replace_with_mask(floats, floats, lost)
+    return pc.replace_with_mask(at, at, lost)
 
 
 def class_masks(arr: pa.Array | pa.ChunkedArray) -> dict[str, pa.BooleanArray]:
