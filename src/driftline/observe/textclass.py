@@ -104,11 +104,11 @@ __all__ = [
     "MAX_DECIMAL_DIGITS",
     "INT64_MAX",
     "INT64_MIN",
-    "NUMBER_SHAPED",
     "ClassScan",
     "classify",
     "class_masks",
     "class_of",
+    "plain_numerals",
     "digit_counts",
     "max_digits",
 ]
@@ -175,10 +175,6 @@ FLOAT_RE = (
     r"-?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
     r"|-?(?:[Ii][Nn][Ff](?:[Ii][Nn][Ii][Tt][Yy])?|[Nn][Aa][Nn])"
 )
-
-#: The classes a number cast reads (float_out_of_range is a float that
-#: float64 cannot hold).
-NUMBER_SHAPED: tuple[str, ...] = ("zero_padded", "integer", "decimal", "float", "float_out_of_range")
 
 _INT64_TEXT = (str(INT64_MAX), str(INT64_MIN))
 # The plain numerals: what zero_padded, integer and decimal split between them (RE2 syntax).

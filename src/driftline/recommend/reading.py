@@ -94,7 +94,7 @@ def _has_real(f: Facts, wanted: str, opts: RecommendOptions) -> bool:
     return any(f.cells.get(c) for c in classes)
 
 
-def parses_padded(f: Facts, opts: RecommendOptions) -> bool:
+def _parses_padded(f: Facts, opts: RecommendOptions) -> bool:
     """Whether zero_padded strings are read as numbers (leading_zeros = "parse"), and there are some."""
     return opts.leading_zeros == "parse" and bool(f.strings.get(PADDED) or f.cells.get(PADDED))
 
@@ -103,7 +103,7 @@ def _number_type(f: Facts, opts: RecommendOptions, floats: bool) -> tuple[DType,
     """The type of integer/decimal (and parsed zero_padded) strings, and why."""
     i, s = _digits(f)
     p = max(i + s, 1)
-    padded = parses_padded(f, opts)
+    padded = _parses_padded(f, opts)
     # Integer strings have no point, so digits after one are a decimal's or a zero_padded one's.
     has_decimal = bool(f.strings.get("decimal") or f.cells.get("decimal")) or padded and s > 0
     if not has_decimal and not (padded and i > 18):
