@@ -124,3 +124,22 @@ def test_bad_inputs_exit_2(report: Path, tmp_path: Path):
     (broken / "bad.jsonl").write_text("{nope\n")
     res = run("schema", str(broken))
     assert res.returncode == 2 and "InputPathError: nothing readable: every one of 1 files failed" in res.stderr
+
+
+def test_leading_zeros_flag(tmp_path: Path):
+    # common practice: US ZIP codes keep their leading zeros (06390 is not 6390)
+    (tmp_path / "zips.csv").write_text("zip\n06390\n10001\n02134\n")
+    keep = run("schema", str(tmp_path), "--rules", "-", "-q")
+    assert keep.returncode == 0, keep.stderr
+    [field] = json.loads(keep.stdout)["fields"]
+    assert (field["rule"], field["target"], field["effects"]) == ("identity", "string", [])
+    parse = run("schema", str(tmp_path), "--rules", "-", "-q", "--leading-zeros", "parse")
+    doc = json.loads(parse.stdout)
+    assert doc["options"]["leading_zeros"] == "parse"
+    [field] = doc["fields"]
+    assert (field["rule"], field["target"]) == ("parse_integer", "int64")
+    assert [(e["cause"], e["count"]) for e in field["effects"]] == [("leading_zeros", 2)]
+    shown = run("schema", str(tmp_path), "--leading-zeros", "parse")
+    assert "2 would change (leading zeros dropped)" in shown.stdout + shown.stderr
+    bad = run("schema", str(tmp_path), "--leading-zeros", "drop")
+    assert bad.returncode == 2 and "PolicyError: leading_zeros must be one of keep, parse; got 'drop'" in bad.stderr

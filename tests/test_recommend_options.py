@@ -101,8 +101,13 @@ def test_parse_strings_keeps_quoted_numbers_by_default(tmp_path: Path):
     p = driftline.scan(_jsonl(tmp_path, [{"zip": "01234"}, {"zip": "99501"}]))
     keep = recommend(p).plan("zip")
     assert (keep.rule, keep.target.key()) == ("identity", "string")
-    assert [(a.rule, a.target) for a in keep.alternatives] == [("parse_integer", "int64")]
-    assert recommend(p, parse_strings="always").plan("zip").rule == "parse_integer"
+    # "01234" has a leading zero (a ZIP code, common practice): only leading_zeros = "parse" makes it a number.
+    assert [(a.rule, a.target, a.note) for a in keep.alternatives] == [
+        ("parse_integer", "int64",
+         'drops the leading zeros of 1 values; leading_zeros = "parse" and parse_strings = "always" chooses it')]
+    assert recommend(p, parse_strings="always").plan("zip").rule == "identity"
+    parsed = recommend(p, parse_strings="always", leading_zeros="parse").plan("zip")
+    assert (parsed.rule, [(e.cause, e.count) for e in parsed.effects]) == ("parse_integer", [("leading_zeros", 1)])
 
 
 def test_null_tokens_never_treats_them_as_text(tmp_path: Path):

@@ -101,7 +101,7 @@ def test_widen_numeric_across_files_of_different_widths(tmp_path: Path):
 # -- parse_* --------------------------------------------------------------------------------
 
 def test_parse_integer_nulls_tokens_with_where_they_are(tmp_path: Path):
-    root = _write(tmp_path, {"till.csv": "qty\n7\n007\nN/A\n12\n\n"})
+    root = _write(tmp_path, {"till.csv": "qty\n7\n8\nN/A\n12\n\n"})
     rec = _rec(root)
     plan = rec.plan("qty")
     assert (plan.rule, plan.target.key()) == ("parse_integer", "int64")
@@ -109,9 +109,31 @@ def test_parse_integer_nulls_tokens_with_where_they_are(tmp_path: Path):
     assert (token.kind, token.cause, token.count) == ("null", "null_token", 1)
     assert [(e.file, e.row, e.line, e.value) for e in token.examples] == [("till.csv", 2, 4, '"N/A"')]
     table, tally = _applied(root, rec)
-    # source: pyarrow 26.0.1 pc.cast string -> int64 reads "007" as 7 (REFERENCES.md section 5)
-    assert table.column("qty").to_pylist() == [7, 7, None, 12]
+    assert table.column("qty").to_pylist() == [7, 8, None, 12]
     assert tally.counts["qty"] == {"null_token": 1, "nulled": 1}
+
+
+def test_leading_zeros_keep_the_field_text_or_count_as_changed(tmp_path: Path):
+    # source: pyarrow 26.0.1 pc.cast string -> int64 reads "007" as 7 (REFERENCES.md section 5): the
+    # zeros are gone. common practice: codes such as ZIP codes keep them ("007" is not 7).
+    root = _write(tmp_path, {"till.csv": "qty\n7\n007\nN/A\n12\n\n"})
+    rec = _rec(root)
+    plan = rec.plan("qty")
+    assert (plan.rule, plan.target.key(), _effects(plan)) == ("map_null_tokens", "string", {"null_token": 1})
+    assert "1 value has leading zeros" in plan.why
+    assert [(a.rule, a.target) for a in plan.alternatives] == [("parse_integer", "int64"), ("parse_integer", "int64")]
+    assert plan.alternatives[1].note == 'drops the leading zeros of 1 values; leading_zeros = "parse" chooses it'
+    table, tally = _applied(root, rec)
+    assert table.column("qty").to_pylist() == ["7", "007", None, "12"]
+    parsed = _rec(root, leading_zeros="parse").plan("qty")
+    assert (parsed.rule, parsed.target.key()) == ("parse_integer", "int64")
+    assert _effects(parsed) == {"null_token": 1, "leading_zeros": 1}
+    zeros = parsed.effect("leading_zeros")
+    assert (zeros.kind, zeros.exact) == ("change", True)
+    assert [(e.file, e.row, e.line, e.value) for e in zeros.examples] == [("till.csv", 1, 3, '"007"')]
+    table, tally = _applied(root, _rec(root, leading_zeros="parse"))
+    assert table.column("qty").to_pylist() == [7, 7, None, 12]
+    assert tally.counts["qty"] == {"null_token": 1, "leading_zeros": 1, "nulled": 1}
 
 
 def test_parse_decimal_when_float64_would_round(tmp_path: Path):

@@ -129,3 +129,20 @@ def test_unparsed_text_is_guarded_before_the_cast(tmp_path: Path):
     _load(con, rec, tmp_path, "t")  # a bare CAST('lots' AS BIGINT) would fail in DuckDB
     got = [r[0] for r in con.execute('SELECT "n" FROM "t"').fetchall()]
     assert got == _applied(tmp_path, rec).column("n").to_pylist() == [*range(19), None, -7]
+
+
+@pytest.mark.parametrize("zeros", ["keep", "parse"])
+def test_the_guard_takes_int64_whole_and_leading_zeros_by_the_option(tmp_path: Path, zeros: str):
+    # source: int64 is -2**63 .. 2**63 - 1; 19-digit values inside it are integers, past it they are not.
+    # common practice: "007" is a code; it parses only under leading_zeros = "parse".
+    rows = [*map(str, range(40)), "9223372036854775807", "-9223372036854775808", "007", "lots"]
+    (tmp_path / "a.csv").write_text("n\n" + "".join(f"{r}\n" for r in rows))
+    rec = driftline.scan(tmp_path).recommend(max_null_share=0.1, leading_zeros=zeros)
+    # Parsed codes count their zeros as digits, so beside 19-digit integers the field asks for a decimal.
+    assert rec.plan("n").target.key() == ("int64" if zeros == "keep" else "decimal(19,0)")
+    assert rec.plan("n").effect("unparsed").count == (2 if zeros == "keep" else 1)
+    con = duckdb.connect()
+    _load(con, rec, tmp_path, "t")
+    got = [r[0] for r in con.execute('SELECT "n" FROM "t"').fetchall()]
+    want = [*range(40), 2**63 - 1, -(2**63), None if zeros == "keep" else 7, None]
+    assert got == _applied(tmp_path, rec).column("n").to_pylist() == want

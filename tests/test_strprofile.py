@@ -2,7 +2,7 @@
 
 The reference here is textclass.class_of, value by value in Python: the class of each value
 (the first class of textclass.CLASSES whose definition it meets), the first three rows of
-each class, the longest value, the digits of integers and decimals, leap seconds and
+each class, the longest value, the digits of integers, decimals and zero-padded codes, leap seconds and
 lowercase RFC 3339 timestamps.  The columns are built so that each shortcut of
 string_profile is taken (few distinct values, a dictionary, one timestamp shape, plain
 numbers checked in one pass) and so that each is refused at its edges.
@@ -38,7 +38,7 @@ def reference(values: list[str | None], keep_first: int = 3) -> StringProfile:
         if len(hits) < keep_first:
             hits.append(i)
         longest = max(longest, len(v))
-        if cls in ("integer", "decimal"):
+        if cls in ("zero_padded", "integer", "decimal"):
             head, _, tail = v.removeprefix("-").partition(".")
             int_digits, frac_digits = max(int_digits, len(head)), max(frac_digits, len(tail))
         leap += cls in _STAMPS and v[17:19] == "60"
@@ -56,10 +56,12 @@ def check(values: list[str | None], typ: pa.DataType = pa.string()) -> StringPro
 
 # -- plain numbers: one anchored pass instead of class_masks ----------------------------
 
-# textclass: integer is at most 18 digits, decimal a point form or 19+ digits up to 76 in all,
-# float beyond that; a leading '+', a bare point side or an exponent is not this shape.
+# textclass: zero_padded is a '0' before another digit, integer within int64 (19 digits up to the
+# bound), decimal a point form or an integer past int64 up to 76 digits in all, float beyond that;
+# a leading '+', a bare point side or an exponent is not this shape.
 _EDGES = ["0", "-0", "007", "9" * 18, "-" + "9" * 18, "1" * 19, "-" + "1" * 19, "1" * 76, "1" * 75 + ".5",
-          "0.5", "-0.5", "00.50", "12345678901234567.8"]
+          "0.5", "-0.5", "00.50", "12345678901234567.8", "9223372036854775807", "9223372036854775808",
+          "-9223372036854775808", "-9223372036854775809", "-00", "0" * 20]
 _NOT_PLAIN = ["1" * 77, "1" * 76 + ".5", ".5", "5.", "-.5", "+1", "1e5", "-", "", " 1", "1 ", "1.2.3", "--1",
               "1-", "0x1F", "١٢", "nan", "１"]
 
@@ -75,7 +77,7 @@ def test_plain_number_columns_take_one_pass(monkeypatch: pytest.MonkeyPatch) -> 
     mixed = [rng.choice(_EDGES) if rng.random() < 0.2 else f"{rng.uniform(-1e6, 1e6):.{rng.randrange(5)}f}"
              for _ in range(5000)]
     p = check(mixed)
-    assert set(p.counts) == {"integer", "decimal"}
+    assert set(p.counts) == {"zero_padded", "integer", "decimal"}
     assert (p.int_digits, p.frac_digits) == (76, 4)  # "1" * 76, and the 4-place amounts
     assert calls == []  # neither column needed class_masks
 

@@ -6,6 +6,7 @@ pyarrow 26.0.1 (the version pyproject allows); the test module checks it.
 
 from __future__ import annotations
 
+import math
 import string
 from collections import Counter
 
@@ -44,8 +45,8 @@ def test_pinned_pyarrow_version() -> None:
 
 def test_api_constants() -> None:
     assert CLASSES == (
-        "empty", "null_token", "boolean", "integer", "decimal", "float", "date",
-        "timestamp_rfc3339", "timestamp_offset", "timestamp_local", "text",
+        "empty", "null_token", "boolean", "zero_padded", "integer", "decimal", "float",
+        "float_out_of_range", "date", "timestamp_rfc3339", "timestamp_offset", "timestamp_local", "text",
     )  # fmt: skip
     tokens = {"null", "none", "nil", "na", "n/a", "#n/a", "-", "--", "?"}
     assert tokens == NULL_TOKENS
@@ -181,8 +182,8 @@ def test_calendar_including_year_zero() -> None:
 # not JSON numbers but float64 takes them, so they are floats; a leading
 # "+" and hex are text because the int64/float64 classes exclude them.
 RFC8259_CHECKS = [
-    ("01", "integer"),  # JSON: invalid (leading zero)
-    ("-01", "integer"),  # JSON: invalid
+    ("01", "zero_padded"),  # JSON: invalid (leading zero)
+    ("-01", "zero_padded"),  # JSON: invalid
     (".5", "float"),  # JSON: invalid (no int part); float64 takes it
     ("1.", "float"),  # JSON: invalid (empty frac); float64 takes it
     ("+1", "text"),  # JSON: invalid; leading '+' is excluded here
@@ -193,7 +194,7 @@ RFC8259_CHECKS = [
     ("-0", "integer"),  # JSON: valid
     ("-0.0", "decimal"),  # JSON: valid
     ("1E+05", "float"),  # JSON: valid, leading zeros fine in the exponent
-    ("1E400", "float"),  # JSON: valid grammar; float64 makes it inf
+    ("1E400", "float_out_of_range"),  # JSON: valid grammar; float64 makes it inf
 ]
 
 
@@ -204,14 +205,17 @@ def test_rfc8259_number_check_values(value: str, expected: str) -> None:
 
 def test_pyarrow_string_cast_facts() -> None:
     # Source: REFERENCES.md section 5, pyarrow 26.0.1 pc.cast from string.
+    # int64 reads "007" as 7: the zeros are gone, so "007" is a class of its own.
     assert pc.cast(pa.array(["007"]), pa.int64()).to_pylist() == [7]
-    assert class_of("007") == "integer"
+    assert class_of("007") == "zero_padded"
     assert not casts(["+42"], pa.int64())
     assert class_of("+42") == "text"
     assert not casts([" 42"], pa.int64())
     assert class_of(" 42") == "text"
     assert not casts(["9223372036854775808"], pa.int64())
-    assert class_of("9223372036854775808") == "decimal"  # 19 digits
+    assert class_of("9223372036854775808") == "decimal"  # 19 digits, past int64
+    assert casts(["9223372036854775807", "-9223372036854775808"], pa.int64())
+    assert class_of("9223372036854775807") == class_of("-9223372036854775808") == "integer"
     assert casts(["9223372036854775808"], pa.decimal128(19, 0))
     assert not casts(["4.0"], pa.int64())
     assert class_of("4.0") == "decimal"
@@ -226,7 +230,9 @@ def test_pyarrow_string_cast_facts() -> None:
 def test_integer_and_decimal_boundaries() -> None:
     assert class_of("9" * 18) == "integer"
     assert class_of("-" + "9" * 18) == "integer"
-    assert class_of("1" * 19) == "decimal"
+    assert class_of("1" * 19) == "integer"  # within int64 (source: 2**63 - 1 = 9223372036854775807)
+    assert class_of("9" * 19) == "decimal"
+    assert class_of("1" * 20) == "decimal"
     assert class_of("1" * 76) == "decimal"
     assert class_of("1" * 38 + "." + "2" * 38) == "decimal"
     # decimal256 stops at 76 digits; float64 still parses the rest.
@@ -251,7 +257,7 @@ def test_digits() -> None:
 
 # pyarrow 26.0.1, found by running it.  Accepted by cast(float64):
 FLOAT_ACCEPTED_BY_PYARROW = [
-    "1.", "-1.", ".5", "-.5", "1e3", "1E+05", "1e-3", "1.e3", ".5e3", "1e0003", "1e400",
+    "1.", "-1.", ".5", "-.5", "1e3", "1E+05", "1e-3", "1.e3", ".5e3", "1e0003",
     "inf", "-inf", "Inf", "INF", "infinity", "Infinity", "-Infinity", "INFINITY",
     "nan", "NaN", "NAN", "-nan",
 ]  # fmt: skip
@@ -519,7 +525,7 @@ _column = st.lists(st.one_of(st.none(), _padded, _padded, _padded), max_size=60)
 def _expected_digits(values: list[str], classes: list[str]) -> tuple[int, int]:
     before = after = 0
     for value, cls in zip(values, classes, strict=True):
-        if cls in ("integer", "decimal"):
+        if cls in ("zero_padded", "integer", "decimal"):
             head, _, tail = value.lstrip("-").partition(".")
             before, after = max(before, len(head)), max(after, len(tail))
     return before, after
@@ -617,3 +623,187 @@ def test_masks_disjoint_and_cover(values: list[str | None]) -> None:
     masks = class_masks(pa.array(values, pa.large_string()))
     hits = [sum(bool(m[i].as_py()) for m in masks.values()) for i in range(len(values))]
     assert hits == [0 if v is None else 1 for v in values]
+
+
+# ---------------------------------------------------------------------------
+# Codes with leading zeros, int64's whole range, floats float64 cannot hold
+# ---------------------------------------------------------------------------
+
+# common practice: US ZIP codes, FIPS state and county codes, account numbers and clock
+# times like 0900 are fixed-width digit strings whose leading zeros are part of the value.
+# The cases at the edges are the decision written in textclass's docstring.
+ZERO_PADDED_CASES = [
+    ("000009113186", "zero_padded"),
+    ("09001", "zero_padded"),
+    ("06", "zero_padded"),
+    ("0900", "zero_padded"),
+    ("00", "zero_padded"),
+    ("-007", "zero_padded"),
+    ("-00", "zero_padded"),
+    ("00.5", "zero_padded"),
+    ("-00.50", "zero_padded"),
+    ("0" * 100, "zero_padded"),  # no digit limit: a code is a code
+    ("0", "integer"),  # one zero is how zero is written
+    ("-0", "integer"),  # the integer 0 (int64 has no negative zero)
+    ("0.5", "decimal"),  # one zero before the point is how a fraction is written
+    ("-0.25", "decimal"),
+    ("0e5", "float"),  # float forms: a number cast never keeps their text
+    ("00e5", "float"),
+    ("007.", "float"),
+    ("+0012", "text"),  # a '+' is text, like "+12": int64 casts reject it
+    (" 007", "text"),  # padding with spaces is text, like " 42"
+]
+
+
+@pytest.mark.parametrize(("value", "expected"), ZERO_PADDED_CASES)
+def test_zero_padded_cases(value: str, expected: str) -> None:
+    assert class_of(value) == expected
+
+
+def test_zero_padded_is_a_class_on_every_path() -> None:
+    values = [v for v, _ in ZERO_PADDED_CASES]
+    masks = class_masks(pa.array(values))
+    assert [next(c for c in CLASSES if masks[c][i].as_py()) for i in range(len(values))] == \
+        [c for _, c in ZERO_PADDED_CASES]
+    # A column of plain numbers takes observe.numbers' path; few distinct values the dictionary's.
+    plain = ["000009113186", "09001", "06", "0900", "-007", "00.5", "0", "-0", "0.5", "12"] * 300
+    scan = classify(pa.array(plain))
+    assert scan.counts == {"zero_padded": 1800, "integer": 900, "decimal": 300}
+    assert (scan.int_digits, scan.frac_digits) == (12, 1)  # "000009113186": its zeros are digits
+
+
+def test_zero_padded_values_lose_their_zeros_in_a_number_cast() -> None:
+    # source: REFERENCES.md section 5, pyarrow 26.0.1 pc.cast from string: "007" -> 7.
+    codes = [v for v, c in ZERO_PADDED_CASES if c == "zero_padded" and "." not in v]
+    as_ints = pc.cast(pa.array(codes), pa.int64()).to_pylist()
+    assert [str(n) for n in as_ints] == ["9113186", "9001", "6", "900", "0", "-7", "0", "0"]
+    assert all(str(n) != v for n, v in zip(as_ints, codes, strict=True))
+    assert pc.cast(pa.array(["00.5", "-00.50"]), pa.float64()).to_pylist() == [0.5, -0.5]
+
+
+# source: 2**63 - 1 = 9223372036854775807 and -2**63 (two's complement int64, e.g. C's
+# INT64_MAX / INT64_MIN); REFERENCES.md section 5: pc.cast accepts 9223372036854775807 and
+# rejects 9223372036854775808.
+INT64_EDGES = [
+    ("9223372036854775807", "integer"),
+    ("-9223372036854775808", "integer"),
+    ("9223372036854775808", "decimal"),
+    ("-9223372036854775809", "decimal"),
+    ("1000000000000000000", "integer"),  # the smallest 19-digit number
+    ("-1000000000000000000", "integer"),
+    ("9999999999999999999", "decimal"),
+    ("10000000000000000000", "decimal"),  # 20 digits
+]
+
+
+def test_integers_of_19_digits_are_int64_when_they_fit() -> None:
+    values = [v for v, _ in INT64_EDGES]
+    assert [class_of(v) for v in values] == [c for _, c in INT64_EDGES]
+    masks = class_masks(pa.array(values))
+    assert masks["integer"].to_pylist() == [c == "integer" for _, c in INT64_EDGES]
+    assert masks["decimal"].to_pylist() == [c == "decimal" for _, c in INT64_EDGES]
+    for value, cls in INT64_EDGES:
+        assert casts([value], pa.int64()) == (cls == "integer"), value
+
+
+def test_ids_of_19_digits_are_integers_not_decimals() -> None:
+    # Snowflake-style ids (common practice: 64-bit ids of 19 digits) all fit int64.
+    ids = [str(2**63 - 1 - 7919 * k) for k in range(2000)] + [str(10**18 + k) for k in range(200)]
+    scan = classify(pa.array(ids))
+    assert scan.counts == {"integer": 2200}
+    assert casts(ids, pa.int64())
+
+
+# source: IEEE 754 binary64: the largest finite value is 1.7976931348623157e308 (a string
+# rounds to infinity from the midpoint to 2**1024 up), the smallest subnormal 4.9e-324 (half
+# of it rounds to 0); pyarrow 26.0.1 pc.cast(float64) gives inf / 0 for them (checked below).
+FLOAT_RANGE_EDGES = [
+    ("3E4415", "float_out_of_range", math.inf),  # a hex colour code read as a number
+    ("1e400", "float_out_of_range", math.inf),
+    ("-1e400", "float_out_of_range", -math.inf),
+    (".5e400", "float_out_of_range", math.inf),
+    ("1" * 400, "float_out_of_range", math.inf),
+    ("1e-400", "float_out_of_range", 0.0),
+    ("-2e-324", "float_out_of_range", -0.0),
+    ("1.7976931348623157e308", "float", 1.7976931348623157e308),
+    ("1.7976931348623158e308", "float", 1.7976931348623157e308),  # below the midpoint
+    ("1.7976931348623159e308", "float_out_of_range", math.inf),
+    ("3e-324", "float", 5e-324),
+    ("0e999", "float", 0.0),  # zero is zero
+    ("0.000e-999", "float", 0.0),
+    ("inf", "float", math.inf),  # the text says infinity: nothing is lost
+    ("-Infinity", "float", -math.inf),
+    ("1" * 77, "float", float("1" * 77)),
+]
+
+
+def test_floats_float64_cannot_hold() -> None:
+    values = [v for v, _, _ in FLOAT_RANGE_EDGES]
+    got = pc.cast(pa.array(values), pa.float64()).to_pylist()
+    assert got == [x for _, _, x in FLOAT_RANGE_EDGES]
+    assert [math.copysign(1, g) for g in got] == [math.copysign(1, x) for _, _, x in FLOAT_RANGE_EDGES]
+    assert [class_of(v) for v in values] == [c for _, c, _ in FLOAT_RANGE_EDGES]
+    scan = classify(pa.array(values))
+    assert scan.counts == {"float": 8, "float_out_of_range": 8}
+    assert scan.first_index == {"float": 7, "float_out_of_range": 0}
+
+
+# -- linear time on any input ----------------------------------------------------------------
+
+# Each of these made a backtracking pattern take time quadratic in the length (32,000 digits
+# and a letter took 20 s); at 100,000 characters a quadratic pattern needs minutes.
+_LONG = 100_000
+ADVERSARIAL = [
+    "1" * _LONG + "x",
+    "1" * _LONG + ".",
+    "1." + "1" * _LONG + "x",
+    "1e" + "1" * _LONG + "x",
+    "0" * _LONG + "x",
+    "-" + "0" * _LONG + ".x",
+    "-" * _LONG,
+    ":" * _LONG,
+    "." * _LONG,
+    "e" * _LONG,
+    "1e" * (_LONG // 2),
+    "1." * (_LONG // 2),
+    "2024-01-01T00:00:00." + "1" * _LONG + "x",
+    "2024-01-01 00:00:00." + "1" * _LONG + "+0",
+    "1" * _LONG,
+    "1" * (_LONG // 2) + "." + "1" * (_LONG // 2),
+]
+
+
+@pytest.mark.timeout(60)
+def test_classifiers_are_linear_on_adversarial_strings() -> None:
+    expected = ["text", "float_out_of_range"] + ["text"] * 12 + ["float_out_of_range"] * 2  # "1…1." is "1." form
+    assert [class_of(v) for v in ADVERSARIAL] == expected
+    arr = pa.array(ADVERSARIAL)
+    masks = class_masks(arr)
+    assert [next(c for c in CLASSES if masks[c][i].as_py()) for i in range(len(arr))] == expected
+    from driftline.observe.strprofile import string_profile
+
+    assert string_profile(pa.array(ADVERSARIAL * 3)).counts == {"float_out_of_range": 9, "text": 39}
+
+
+_run = st.builds(
+    lambda head, unit, n, tail: head + unit * n + tail,
+    st.sampled_from(["", "-", "0", "1", "1.", "1e", "2024-01-01T00:00:00.", "00"]),
+    st.sampled_from(["1", "0", "-", ":", ".", "e", "E", "1e", "0.", "1-", " "]),
+    st.integers(20_000, 60_000),
+    st.sampled_from(["", "x", ".", "e", "e+", "Z", "-", "1", " "]),
+)
+
+
+@pytest.mark.timeout(120)
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+@given(st.lists(_run, min_size=1, max_size=3))
+def test_classifiers_are_linear_on_long_runs(values: list[str]) -> None:
+    # Whatever a pattern does with a long run, every path agrees with class_of, in bounded time:
+    # the masks, string_profile (dictionary and plain-number shortcuts) and the bulk verdicts.
+    from driftline.observe.strprofile import string_profile, verdicts
+
+    want = [class_of(v) for v in values]
+    masks = class_masks(pa.array(values))
+    assert [next(c for c in CLASSES if masks[c][i].as_py()) for i in range(len(values))] == want
+    assert string_profile(pa.array(values * 2)).counts == {c: 2 * want.count(c) for c in CLASSES if c in want}
+    assert [CLASSES[k] for k in verdicts(pa.array(values)).kind.to_pylist()] == want

@@ -51,12 +51,13 @@ exist, a report of another format version, an unwritable output).
 
 def _options(config: str | None, strict: bool, prefer_decimal: bool, timestamp_unit: str | None,
              timestamp_zone: str | None, parse_strings: str | None, null_tokens: str | None,
-             max_null_share: float | None, min_field_share: float | None) -> RecommendOptions:
+             max_null_share: float | None, min_field_share: float | None,
+             leading_zeros: str | None = None) -> RecommendOptions:
     # The config file first, then the flags that were given on the command line.
     base = RecommendOptions.from_toml(config) if config else RecommendOptions()
     return base.replace(mode="strict" if strict else None, prefer_decimal=True if prefer_decimal else None,
                         timestamp_unit=timestamp_unit, timestamp_zone=timestamp_zone,
-                        parse_strings=parse_strings, null_tokens=null_tokens,
+                        parse_strings=parse_strings, leading_zeros=leading_zeros, null_tokens=null_tokens,
                         max_null_share=max_null_share, min_field_share=min_field_share)
 
 
@@ -110,6 +111,9 @@ def schema_command(
                                               help="Zone of zoned timestamps, assumed for local ones (default UTC)."),
     parse_strings: str | None = typer.Option(None, "--parse-strings", metavar="mixed|always",
                                              help="Parse number-looking strings only beside real numbers (mixed)."),
+    leading_zeros: str | None = typer.Option(None, "--leading-zeros", metavar="keep|parse",
+                                             help="Digits with leading zeros (09001) stay strings (keep), or "
+                                                  "become numbers, each counted as changed (parse)."),
     null_tokens: str | None = typer.Option(None, "--null-tokens", metavar="parse|always|never",
                                            help="Where null tokens such as 'n/a' become null (default parse)."),
     max_null_share: float | None = typer.Option(None, "--max-null-share", metavar="SHARE",
@@ -135,7 +139,7 @@ def schema_command(
     _check_out(out if to else None, "--out")
     _check_out(rules, "--rules")
     opts = _options(config, strict, prefer_decimal, timestamp_unit, timestamp_zone, parse_strings,
-                    null_tokens, max_null_share, min_field_share)
+                    null_tokens, max_null_share, min_field_share, leading_zeros)
     profile = profile_of(paths, read=ReadOptions(batch_rows=batch_rows, csv_dialects=tuple(csv_dialect)), jobs=jobs)
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "

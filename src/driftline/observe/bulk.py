@@ -22,14 +22,21 @@ import pyarrow.compute as pc
 
 from driftline.lattice import from_arrow
 from driftline.observe import paths
-from driftline.observe.columnar import _number_stats, _scalar, _temporal_text, observe_column, observe_table
+from driftline.observe.columnar import (
+    _LOSSY_CLASSES,
+    _number_stats,
+    _scalar,
+    _temporal_text,
+    observe_column,
+    observe_table,
+)
 from driftline.observe.observation import Observation
 from driftline.observe.records import SAFE_INT, value_text
 from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
 from driftline.observe.strprofile import exact_requested, verdicts
 from driftline.observe.textclass import CLASSES
 
-_LOSSY = {CLASSES.index(c) for c in ("text", "null_token", "empty")}  # as columnar._LOSSY_CLASSES
+_LOSSY = {CLASSES.index(c) for c in _LOSSY_CLASSES}
 
 
 @dataclass(frozen=True, slots=True)

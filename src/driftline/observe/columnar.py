@@ -19,7 +19,8 @@ from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
 from driftline.observe.strprofile import exact_requested, string_profile
 from driftline.observe.textclass import class_masks, classify
 
-_LOSSY_CLASSES = ("text", "null_token", "empty")
+# Classes a cast may null or change: once one repeats, each class keeps 3 examples, not 1.
+_LOSSY_CLASSES = ("text", "null_token", "empty", "zero_padded", "float_out_of_range")
 
 
 class _Ctx:

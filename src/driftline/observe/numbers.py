@@ -1,10 +1,12 @@
 """Columns of plain integers and point decimals, classified without a pass per class.
 
-Nothing before integer in textclass.CLASSES takes a digit string, and a value shaped
--?[0-9]+(.[0-9]+)? is an integer (no point, at most 18 digits) or a decimal (a point, or 19
-digits and more, at most 76 in all); past 76 digits it would be a float.  So when every value
-of a column has that shape, lengths and the position of the point give textclass's verdict;
-ids and amounts then cost a few byte operations instead of class_masks' ten passes.
+Nothing before zero_padded in textclass.CLASSES takes a digit string, and a value shaped
+-?[0-9]+(.[0-9]+)? is zero_padded (a '0' and another digit before the point), an integer (no
+point, within int64: up to 18 digits always, 19 digits when the text is at most the bound's)
+or a decimal (a point, or an integer beyond int64, at most 76 digits in all); past 76 digits
+it would be a float.  So when every value of a column has that shape, lengths, the first
+characters and the position of the point give textclass's verdict; ids and amounts then
+cost a few byte operations instead of class_masks' ten passes.
 """
 
 from __future__ import annotations
@@ -15,10 +17,10 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from driftline.observe.textclass import CLASSES, MAX_DECIMAL_DIGITS
+from driftline.observe.textclass import CLASSES, INT64_MAX, INT64_MIN, MAX_DECIMAL_DIGITS
 
 _PLAIN = re.compile(r"-?[0-9]+(?:\.[0-9]+)?")  # fullmatch, as textclass
-_INTEGER_DIGITS = 18  # textclass.INTEGER_RE's bound: at most 18 digits always fits int64
+_INTEGER_DIGITS = 18  # at most 18 digits always fits int64; 19 digits fit up to the bound
 _DIGITS = b"0123456789"
 
 
@@ -66,16 +68,38 @@ def number_masks(values: pa.Array, raw: bytes) -> Numbers | None:
             return None
     else:
         digits = body
-    if (pc.min(digits).as_py() or 0) < 1 or (pc.max(digits).as_py() or 0) > MAX_DECIMAL_DIGITS:
+    extremes = pc.min_max(digits)
+    most = extremes["max"].as_py() or 0
+    if (extremes["min"].as_py() or 0) < 1 or most > MAX_DECIMAL_DIGITS:
         return None
-    short = pc.less_equal(digits, _INTEGER_DIGITS)
-    integer = pc.fill_null(pc.and_(pc.invert(has_point), short) if n_point else short, False)
+    before = body if not n_point else pc.if_else(has_point, pc.subtract(point, pc.subtract(length, body)), body)
+    # A '0' first (after the sign) and another digit before the point: zero_padded.
     none = pa.repeat(False, len(values))
+    lead = pc.starts_with(values, "0")
+    if n_minus:
+        lead = pc.or_(lead, pc.starts_with(values, "-0"))
+    padded = pc.fill_null(pc.and_(lead, pc.greater_equal(before, 2)), False) if lead.true_count else none
+    whole = pc.invert(has_point) if n_point else None  # None: every value
+    if padded.true_count:
+        whole = pc.and_not(pc.is_valid(values) if whole is None else whole, padded)
+    short = pc.less_equal(digits, _INTEGER_DIGITS)
+    integer = short if whole is None else pc.and_(whole, short)
+    if most > _INTEGER_DIGITS:
+        # 19 digits without a leading zero: as long as the bound, so the text compares as the number.
+        at_bound = pc.equal(digits, _INTEGER_DIGITS + 1)
+        if whole is not None:
+            at_bound = pc.and_(whole, at_bound)
+        fits = pc.less_equal(values, str(INT64_MAX))
+        if n_minus:
+            fits = pc.if_else(minus, pc.less_equal(values, str(INT64_MIN)), fits)
+        integer = pc.or_(integer, pc.and_(at_bound, fits))
+    integer = pc.fill_null(integer, False)
     masks = {cls: none for cls in CLASSES}
+    masks["zero_padded"] = padded
     masks["integer"] = integer
-    masks["decimal"] = pc.and_not(pc.is_valid(values), integer)
+    decimal = pc.and_not(pc.is_valid(values), integer)
+    masks["decimal"] = pc.and_not(decimal, padded) if padded.true_count else decimal
     if not n_point:
-        return Numbers(masks, pc.max(digits).as_py() or 0, 0)
-    before = pc.if_else(has_point, pc.subtract(point, pc.subtract(length, body)), body)
+        return Numbers(masks, most, 0)
     after = pc.if_else(has_point, pc.subtract(pc.subtract(length, point), 1), 0)
     return Numbers(masks, pc.max(before).as_py() or 0, pc.max(after).as_py() or 0)

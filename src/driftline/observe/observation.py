@@ -13,9 +13,11 @@ TEXT_CLASS_TYPE: dict[str, str | None] = {
     "empty": None,
     "null_token": None,
     "boolean": "bool",
+    "zero_padded": "string",  # a code: a number would drop its leading zeros
     "integer": "int64",
     "decimal": "float64",
     "float": "float64",
+    "float_out_of_range": "float64",  # pyarrow reads it as ±inf or 0; the class says so
     "date": "date32",
     "timestamp_rfc3339": "timestamp[us, UTC]",
     "timestamp_offset": "timestamp[us, UTC]",

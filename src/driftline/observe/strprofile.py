@@ -94,7 +94,7 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
         counts[cls] = row_mask.true_count
         first[cls] = _first_rows(row_mask, keep_first, counts[cls])
     int_digits = frac_digits = 0
-    number = pc.or_(masks["integer"], masks["decimal"])
+    number = pc.or_(pc.or_(masks["integer"], masks["decimal"]), masks["zero_padded"])
     if numbers is not None:
         int_digits, frac_digits = numbers.int_digits, numbers.frac_digits
     elif number.true_count:
@@ -179,7 +179,7 @@ def _learn(values: list[str]) -> None:
         cls = CLASSES[k]
         stamp = cls in _STAMP_SHAPES
         d_int = d_frac = 0
-        if cls in ("integer", "decimal"):  # ASCII digits, '-' and '.': as textclass.digit_counts
+        if cls in _DIGIT_CLASSES:  # ASCII digits, '-' and '.': as textclass.digit_counts
             body = v[1:] if v.startswith("-") else v
             head, dot, tail = body.partition(".")
             d_int, d_frac = len(head), (len(tail) if dot else 0)
@@ -242,8 +242,8 @@ class Verdicts:
     kind: pa.Array  # int8
     leap: pa.Array  # bool: a timestamp with second 60
     lower: pa.Array  # bool: an RFC 3339 timestamp with a lowercase t or z
-    int_digits: pa.Array  # int64, 0 unless integer or decimal
-    frac_digits: pa.Array  # int64, 0 unless decimal
+    int_digits: pa.Array  # int64, 0 unless zero_padded, integer or decimal
+    frac_digits: pa.Array  # int64, 0 unless decimal or zero_padded
 
 
 def verdicts(values: pa.Array) -> Verdicts:
@@ -266,11 +266,12 @@ def verdicts(values: pa.Array) -> Verdicts:
     stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
     sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
     lower = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
-    number = pc.or_(masks["integer"], masks["decimal"])
+    number = pc.or_(pc.or_(masks["integer"], masks["decimal"]), masks["zero_padded"])
     before, after = digit_counts(values)
     zero = pa.scalar(0, pa.int64())
     return Verdicts(kind, pc.and_(stamp, sixty), lower, pc.if_else(number, before, zero),
                     pc.if_else(number, after, zero))
 
 
+_DIGIT_CLASSES = ("zero_padded", "integer", "decimal")  # the classes whose digits classify counts
 _VERDICT_TYPES = (pa.int8(), pa.bool_(), pa.bool_(), pa.int64(), pa.int64())  # the fields of a _SEEN entry

@@ -13,11 +13,18 @@ empty                 length 0 or whitespace only (``str.isspace`` whitespace,
                       which is exactly Arrow's ``utf8_trim_whitespace`` set)
 null_token            ``value.strip().lower() in NULL_TOKENS``
 boolean               ``true`` / ``false`` in any letter case
-integer               :data:`INTEGER_RE` - at most 18 digits, always int64
-decimal               :data:`DECIMAL_RE` (point form, or 19+ digits), at most
-                      76 digits in all (decimal256's precision limit)
+zero_padded           :data:`ZERO_PADDED_RE` - digits with a leading zero before
+                      another digit (``007``, ``-0012``, ``00.5``): codes such as
+                      ZIP and FIPS codes, whose zeros no number keeps
+integer               :data:`INTEGER_RE` and within int64 (-2**63 .. 2**63 - 1),
+                      whatever its digit count
+decimal               :data:`DECIMAL_RE` (point form, or an integer beyond
+                      int64), at most 76 digits in all (decimal256's limit)
 float                 :data:`FLOAT_RE` - the rest of what a person calls a
                       number and ``cast(float64)`` accepts
+float_out_of_range    a ``float`` whose magnitude float64 cannot hold: it
+                      rounds to infinity (``1e400``, ``3E4415``) or to zero
+                      (``1e-400``) although the text is a finite, non-zero number
 date                  :data:`DATE_RE` and a real calendar day
 timestamp_rfc3339     :data:`TIMESTAMP_RFC3339_RE` (RFC 3339 section 5.6
                       ``date-time`` with the section 5.7 ranges) and a real day
@@ -26,6 +33,20 @@ timestamp_offset      :data:`TIMESTAMP_OFFSET_RE`: a zoned form pyarrow parses
 timestamp_local       :data:`TIMESTAMP_LOCAL_RE`: no offset at all
 text                  everything else
 ==================== ==========================================================
+
+Which strings are ``zero_padded`` (decided here; the tests pin each case): an
+optional ``-``, a ``0``, at least one more digit, then optionally a point and
+digits.  So ``0``, ``-0``, ``0.5`` and ``-0.25`` are not (one zero before the point
+is how a number is written: ``-0`` is the integer 0), ``00``, ``007``, ``-007``,
+``00.5`` and ``0900`` are.  ``+0012`` is ``text``, like ``+12`` (int64 casts reject
+a ``+``).  Float forms are not: ``0e5`` and ``00e5`` are ``float``, ``007.``
+too - a number cast never keeps the text of a float form (``1e3`` becomes
+1000.0), so a zero before one is part of that rewrite.  A number keeps none of a
+``zero_padded`` value's leading zeros, so every cast of one to a number changes it.
+
+Every pattern is matched in time linear in the value's length, by Python's ``re``
+(no pattern can match a run of digits two ways, so a failed match backtracks
+over each character at most a fixed number of times) and by RE2 (linear by design).
 
 What pyarrow 26.0.1 ``pc.cast`` from string accepts (checked by running it;
 the tests pin these facts):
@@ -61,6 +82,7 @@ truncation step (which loses the sub-microsecond part).
 from __future__ import annotations
 
 import calendar
+import math
 import re
 from dataclasses import dataclass
 
@@ -71,6 +93,7 @@ __all__ = [
     "CLASSES",
     "NULL_TOKENS",
     "BOOLEAN_RE",
+    "ZERO_PADDED_RE",
     "INTEGER_RE",
     "DECIMAL_RE",
     "FLOAT_RE",
@@ -79,10 +102,13 @@ __all__ = [
     "TIMESTAMP_OFFSET_RE",
     "TIMESTAMP_LOCAL_RE",
     "MAX_DECIMAL_DIGITS",
+    "INT64_MAX",
+    "INT64_MIN",
     "ClassScan",
     "classify",
     "class_masks",
     "class_of",
+    "plain_numerals",
     "digit_counts",
     "max_digits",
 ]
@@ -91,9 +117,11 @@ CLASSES: tuple[str, ...] = (
     "empty",
     "null_token",
     "boolean",
+    "zero_padded",
     "integer",
     "decimal",
     "float",
+    "float_out_of_range",
     "date",
     "timestamp_rfc3339",
     "timestamp_offset",
@@ -116,26 +144,43 @@ NULL_TOKENS: frozenset[str] = frozenset(
 #: ``true`` / ``false`` in any letter case.
 BOOLEAN_RE = r"[Tt][Rr][Uu][Ee]|[Ff][Aa][Ll][Ss][Ee]"
 
-#: Up to 18 digits always fits int64 (max 9223372036854775807 has 19).
-#: Leading zeros are fine (pyarrow casts "007" to 7); a leading '+' is not
-#: (pyarrow's int64 cast rejects it).
-INTEGER_RE = r"-?[0-9]{1,18}"
+#: Digits led by a zero that stands before another digit.  A ``+`` is left to
+#: ``text`` (like ``+12``), and float forms (an exponent, a point without
+#: digits after it) to ``float``.
+ZERO_PADDED_RE = r"-?0[0-9]+(?:\.[0-9]+)?"
 
-#: A point with digits on both sides, or an integer too long for the
-#: integer class.  At most MAX_DECIMAL_DIGITS digits in all, checked apart
-#: (a counted repetition over two groups is not expressible here).
-DECIMAL_RE = r"-?[0-9]+\.[0-9]+|-?[0-9]{19,}"
+#: No leading zero (those are zero_padded), at most 19 digits; the 19-digit ones
+#: are checked against int64's range apart (a regular expression cannot say
+#: 9223372036854775807 briefly).  A leading '+' is not an integer (pyarrow's int64
+#: cast rejects it).
+INTEGER_RE = r"-?(?:0|[1-9][0-9]{0,18})"
+
+#: The int64 range; integers of 19 digits beyond it are decimals.
+INT64_MAX = 2**63 - 1
+INT64_MIN = -(2**63)
+
+#: A point with digits on both sides (one zero at most before the point), or
+#: an integer beyond int64.  At most MAX_DECIMAL_DIGITS digits in all, checked
+#: apart (a counted repetition over two groups is not expressible here).
+DECIMAL_RE = r"-?(?:0|[1-9][0-9]*)\.[0-9]+|-?[1-9][0-9]{18,}"
 
 #: decimal256's largest precision.
 MAX_DECIMAL_DIGITS = 76
 
 #: What is left of pyarrow's float64 grammar once integers and decimals are
 #: taken: exponent forms, "1.", ".5", digit strings too long for decimal256,
-#: and the IEEE specials inf / infinity / nan in any letter case.
+#: and the IEEE specials inf / infinity / nan in any letter case.  The digits
+#: before an optional point are one group, so a run of digits has one parse.
 FLOAT_RE = (
-    r"-?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+    r"-?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
     r"|-?(?:[Ii][Nn][Ff](?:[Ii][Nn][Ii][Tt][Yy])?|[Nn][Aa][Nn])"
 )
+
+_INT64_TEXT = (str(INT64_MAX), str(INT64_MIN))
+# The plain numerals: what zero_padded, integer and decimal split between them (RE2 syntax).
+_PLAIN_RE2 = r"^-?[0-9]+(?:\.[0-9]+)?$"
+# A non-zero digit in the mantissa (the part before any exponent): RE2 syntax.
+_NONZERO_MANTISSA = r"^-?[0-9]*\.?[0-9]*[1-9]"
 
 # Building blocks.  Clock ranges (RFC 3339 section 5.7) are in the pattern;
 # day-of-month is left to the cast (it depends on month and year).
@@ -193,6 +238,7 @@ _TEMPORAL_CAST: dict[str, pa.DataType] = {
 
 _REGEX: dict[str, str] = {
     "boolean": BOOLEAN_RE,
+    "zero_padded": ZERO_PADDED_RE,
     "integer": INTEGER_RE,
     "decimal": DECIMAL_RE,
     "float": FLOAT_RE,
@@ -214,8 +260,9 @@ class ClassScan:
 
     ``counts`` and ``first_index`` hold only classes that occur, in CLASSES
     order; indices are positions in the whole (possibly chunked) input.
-    ``int_digits + frac_digits`` is the precision that holds every integer and
-    decimal value at scale ``frac_digits``.  Each decimal value has at most 76
+    ``int_digits + frac_digits`` is the precision that holds every integer,
+    decimal and zero_padded value at scale ``frac_digits`` (a zero_padded
+    value's zeros count as digits).  Each decimal value has at most 76
     digits, but the two maxima can come from different values and add up to
     more, in which case no decimal type holds the column.
     """
@@ -251,13 +298,15 @@ def class_of(value: str) -> str:
         return "empty"
     if stripped.lower() in NULL_TOKENS:
         return "null_token"
-    for name in ("boolean", "integer"):
+    for name in ("boolean", "zero_padded"):
         if _PY[name].fullmatch(value):
             return name
+    if _PY["integer"].fullmatch(value) and _fits_int64(value):
+        return "integer"
     if _PY["decimal"].fullmatch(value) and _digit_count(value) <= MAX_DECIMAL_DIGITS:
         return "decimal"
     if _PY["float"].fullmatch(value):
-        return "float"
+        return "float_out_of_range" if _beyond_float64(value) else "float"
     # The clock ranges are in the patterns, so only the day can still be
     # wrong; the temporal shapes exclude one another, so a shaped value with
     # an impossible day matches nothing further and is text.
@@ -265,6 +314,27 @@ def class_of(value: str) -> str:
         if _PY[name].fullmatch(value):
             return name if _real_day(value) else "text"
     return "text"
+
+
+def _fits_int64(value: str) -> bool:
+    # INTEGER_RE allows 19 digits at most, so int() is cheap here.
+    return INT64_MIN <= int(value) <= INT64_MAX
+
+
+def _beyond_float64(value: str) -> bool:
+    """A FLOAT_RE match that float64 turns to infinity, or to zero from a non-zero number.
+
+    Python's float() rounds to nearest like pyarrow's parser (both correctly
+    rounded), so it meets the same bounds.
+    """
+    body = value.lstrip("-")
+    if body[:1].isalpha():  # inf, infinity, nan: the value itself
+        return False
+    got = float(value)
+    if got in (math.inf, -math.inf):
+        return True
+    mantissa = body.partition("e")[0].partition("E")[0]
+    return got == 0.0 and mantissa.strip("0.") != ""
 
 
 def _digit_count(value: str) -> int:
@@ -374,17 +444,17 @@ def _masks(arr: pa.Array) -> dict[str, pa.BooleanArray]:
     # while str.lower() gives 'i' + U+0307, so "nİl" would differ.  No other
     # non-ASCII character lowers to ASCII letters used by the tokens.
     take("null_token", pc.is_in(pc.ascii_lower(trimmed), value_set=_NULL_TOKEN_SET))
-    for name in ("boolean", "integer"):
-        take(name, pc.match_substring_regex(arr, _RE2[name]))
-    decimal = _false_if_null(pc.match_substring_regex(arr, _RE2["decimal"]))
-    if decimal.true_count:
-        digits = pc.subtract(
-            pc.subtract(pc.binary_length(arr), pc.cast(pc.starts_with(arr, "-"), pa.int64())),
-            pc.cast(pc.match_substring(arr, "."), pa.int64()),
-        )
-        decimal = pc.and_(decimal, _false_if_null(pc.less_equal(digits, MAX_DECIMAL_DIGITS)))
-    take("decimal", decimal)
-    take("float", pc.match_substring_regex(arr, _RE2["float"]))
+    take("boolean", pc.match_substring_regex(arr, _RE2["boolean"]))
+    # One pattern finds the plain numerals; lengths and first characters then split them into
+    # zero_padded, integer and decimal (what their three patterns and bounds say).
+    plain = pc.and_(_false_if_null(pc.match_substring_regex(arr, _PLAIN_RE2)), remaining)
+    split = plain_numerals(arr.filter(plain)) if plain.true_count else None
+    for name in ("zero_padded", "integer", "decimal"):
+        take(name, plain if split is None else pc.replace_with_mask(plain, plain, split[name]))
+    floats = pc.and_(_false_if_null(pc.match_substring_regex(arr, _RE2["float"])), remaining)
+    beyond = _beyond_float64_mask(arr, floats)
+    take("float", pc.and_not(floats, beyond))
+    take("float_out_of_range", beyond)
     for name in ("date", *_TIMESTAMP_CLASSES):
         shaped = pc.and_(_false_if_null(pc.match_substring_regex(arr, _RE2[name])), remaining)
         if shaped.true_count:
@@ -395,6 +465,52 @@ def _masks(arr: pa.Array) -> dict[str, pa.BooleanArray]:
         take(name, shaped)
     masks["text"] = remaining
     return {name: masks[name] for name in CLASSES}
+
+
+def plain_numerals(values: pa.Array) -> dict[str, pa.BooleanArray]:
+    """zero_padded / integer / decimal masks of values that all have the shape -?[0-9]+(.[0-9]+)?.
+
+    Such a value is zero_padded (a '0' and another digit before the point), an integer (no
+    point, within int64), a decimal (at most 76 digits), or else (a float) in none of them.
+
+    >>> m = plain_numerals(pa.array(["007", "9223372036854775807", "9223372036854775808", "0.5"]))
+    >>> m["zero_padded"].to_pylist(), m["integer"].to_pylist(), m["decimal"].to_pylist()
+    ([True, False, False, False], [False, True, False, False], [False, False, True, True])
+    """
+    length = pc.cast(pc.binary_length(values), pa.int64())
+    minus = pc.starts_with(values, "-")
+    body = pc.subtract(length, pc.cast(minus, pa.int64()))
+    point = pc.cast(pc.find_substring(values, "."), pa.int64())  # -1: no point
+    has_point = pc.greater_equal(point, 0)
+    digits = pc.subtract(body, pc.cast(has_point, pa.int64()))
+    before = pc.if_else(has_point, pc.subtract(point, pc.cast(minus, pa.int64())), body)
+    lead = pc.or_(pc.starts_with(values, "0"), pc.starts_with(values, "-0"))
+    padded = pc.and_(lead, pc.greater_equal(before, 2)) if lead.true_count else pa.repeat(False, len(values))
+    whole = pc.and_not(pc.invert(has_point), padded)
+    integer = pc.and_(whole, pc.less_equal(digits, 18))
+    wide = pc.and_(whole, pc.equal(digits, 19))
+    if wide.true_count:
+        # Digit strings of one length (no leading zero) order as their numbers do.
+        fits = pc.if_else(minus, pc.less_equal(values, _INT64_TEXT[1]), pc.less_equal(values, _INT64_TEXT[0]))
+        integer = pc.or_(integer, pc.and_(wide, fits))
+    decimal = pc.and_(pc.and_not(pc.invert(padded), integer), pc.less_equal(digits, MAX_DECIMAL_DIGITS))
+    return {"zero_padded": padded, "integer": integer, "decimal": decimal}
+
+
+def _beyond_float64_mask(arr: pa.Array, floats: pa.BooleanArray) -> pa.BooleanArray:
+    """Of the FLOAT_RE matches, those float64 turns to infinity or (from non-zero) to zero."""
+    if not floats.true_count:
+        return floats
+    got = pc.cast(arr.filter(floats), pa.float64())
+    edge = pc.or_(pc.is_inf(got), pc.equal(got, 0.0))  # the candidates; their text decides
+    if not edge.true_count:
+        return pa.repeat(False, len(arr))
+    at = pc.replace_with_mask(floats, floats, edge)
+    values, got = arr.filter(at), got.filter(edge)
+    letters = pc.match_substring_regex(values, "^-?[IiNn]")  # inf, infinity, nan: the value itself
+    lost = pc.or_(pc.and_not(pc.is_inf(got), letters),
+                  pc.and_(pc.equal(got, 0.0), pc.match_substring_regex(values, _NONZERO_MANTISSA)))
+    return pc.replace_with_mask(at, at, lost)
 
 
 def class_masks(arr: pa.Array | pa.ChunkedArray) -> dict[str, pa.BooleanArray]:
@@ -430,7 +546,7 @@ def classify(arr: pa.Array | pa.ChunkedArray) -> ClassScan:
                 counts[name] += n
                 if name not in first_index:
                     first_index[name] = offset + _first_true(mask)
-        number = pc.or_(masks["integer"], masks["decimal"])
+        number = pc.or_(pc.or_(masks["integer"], masks["decimal"]), masks["zero_padded"])
         if number.true_count:
             i, f = max_digits(chunk.filter(number))
             int_digits, frac_digits = max(int_digits, i), max(frac_digits, f)
@@ -461,7 +577,7 @@ def classify(arr: pa.Array | pa.ChunkedArray) -> ClassScan:
 
 
 def digit_counts(numbers: pa.Array) -> tuple[pa.Array, pa.Array]:
-    """Per integer or decimal string: its digits before and after the point."""
+    """Per integer, decimal or zero_padded string: its digits before and after the point."""
     length = pc.cast(pc.binary_length(numbers), pa.int64())
     minus = pc.cast(pc.starts_with(numbers, "-"), pa.int64())
     point = pc.cast(pc.find_substring(numbers, "."), pa.int64())  # -1: no point
@@ -472,6 +588,6 @@ def digit_counts(numbers: pa.Array) -> tuple[pa.Array, pa.Array]:
 
 
 def max_digits(numbers: pa.Array) -> tuple[int, int]:
-    """Max digits before and after the point over integer/decimal strings."""
+    """Max digits before and after the point over integer/decimal/zero_padded strings."""
     before, after = digit_counts(numbers)
     return pc.max(before).as_py() or 0, pc.max(after).as_py() or 0

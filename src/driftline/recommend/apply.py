@@ -33,10 +33,15 @@ from driftline.recommend.raw import TEXT, json_text, jsonable, plain_value
 SAFE_INT = 2**53 - 1  # RFC 7493 §2.2
 _UNIT_DIGITS = {"s": 0, "ms": 3, "us": 6, "ns": 9}
 _CLASS_RE = {
-    "boolean": tc.BOOLEAN_RE, "integer": tc.INTEGER_RE, "decimal": tc.DECIMAL_RE, "float": tc.FLOAT_RE,
     "date": tc.DATE_RE, "timestamp_rfc3339": tc.TIMESTAMP_RFC3339_RE,
     "timestamp_offset": tc.TIMESTAMP_OFFSET_RE, "timestamp_local": tc.TIMESTAMP_LOCAL_RE,
 }
+# Measured on the cast's input and output, not taken from the classes: a positional numeral
+# with a zero before another digit, which no number's text has (a float form such as 00e5 is
+# read for its value alone); and an input that is not infinity (or zero) itself.
+_LEADING_ZERO = r"^-?0[0-9]+(?:\.[0-9]+)?$"
+_SPECIAL = r"^-?[IiNn]"
+_NONZERO_MANTISSA = r"^-?[0-9]*\.?[0-9]*[1-9]"
 _ZONED = ("timestamp_rfc3339", "timestamp_offset")
 _TOKENS = pa.array(sorted(tc.NULL_TOKENS), pa.string())
 _NESTED = ("struct", "list", "map")
@@ -113,6 +118,32 @@ def _try_cast(values: pa.Array, target: pa.DataType) -> pa.Array:
     return pc.cast(_null_where(values, mask), target)
 
 
+def _accepted(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
+    """Values of the classes a rule parses, exactly as the scan classed them (textclass.class_masks)."""
+    wanted = set(classes)
+    out = pa.repeat(False, len(arr))
+    if not wanted:
+        return out
+    for name, mask in tc.class_masks(arr).items():
+        if name in wanted:
+            out = pc.or_(out, mask)
+    return out
+
+
+def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally) -> None:
+    """Count what a number cast did beyond parsing: leading zeros dropped, values beyond float64."""
+    parsed = pc.is_valid(out)
+    zeros = pc.fill_null(pc.match_substring_regex(arr, _LEADING_ZERO), False)
+    tally.add(path, "leading_zeros", _true(pc.and_(parsed, zeros)))
+    if not pa.types.is_floating(out.type):
+        return
+    finite_text = pc.invert(pc.fill_null(pc.match_substring_regex(arr, _SPECIAL), False))
+    inf = pc.and_(pc.fill_null(pc.is_inf(out), False), finite_text)
+    nonzero = pc.fill_null(pc.match_substring_regex(arr, _NONZERO_MANTISSA), False)
+    zero = pc.and_(pc.fill_null(pc.equal(out, 0.0), False), nonzero)
+    tally.add(path, "out_of_range", _true(pc.or_(inf, zero)))
+
+
 def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
     body = "|".join(f"(?:{_CLASS_RE[c]})" for c in sorted(classes) if c in _CLASS_RE)
     if not body:
@@ -172,11 +203,13 @@ def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Ar
         tally.add(path, "empty", _true(pc.and_(blank, pc.is_valid(arr))))
         arr = _null_where(arr, blank)
     accept = params.get("accept", [])
-    ok = pc.and_(pc.is_valid(arr), _matches(arr, accept))
+    ok = pc.and_(pc.is_valid(arr), _accepted(arr, accept))
     if t.name == "timestamp":
         out = _timestamps(arr, ok, plan, t, tally)
     else:
         out = _try_cast(_null_where(arr, pc.invert(ok)), out_type)
+        if t.name.startswith(("int", "uint", "float")) or t.name == "decimal":
+            _number_changes(arr, out, path, tally)
     tally.add(path, "unparsed", _true(pc.and_(pc.is_valid(arr), pc.is_null(out))))
     return out
 

@@ -1,16 +1,18 @@
 """What a scalar verdict costs, counted from the profile: values nulled, changed, or noted.
 
 Each count is a sum of counts the scan already made (content classes, leap seconds,
-integers beyond 2**53). Where the scan made no such count, the effect says so
-(exact=False) instead of guessing.
+integers beyond 2**53): a zero_padded string parsed as a number loses its leading zeros,
+a float_out_of_range one becomes ±inf or 0, so each of them is a change. Where the scan
+made no such count, the effect says so (exact=False) instead of guessing.
 """
 
 from __future__ import annotations
 
 from driftline.lattice import STRING, DType
+from driftline.observe.textclass import MAX_DECIMAL_DIGITS
 from driftline.recommend.options import RecommendOptions, zone_is_fixed
 from driftline.recommend.plan import Effect
-from driftline.recommend.reading import FLOAT_EXACT_DIGITS, TIMESTAMP_CLASSES, UNIT_DIGITS, Reading
+from driftline.recommend.reading import FLOAT_EXACT_DIGITS, PADDED, TIMESTAMP_CLASSES, UNIT_DIGITS, Form, Reading
 
 _FRACTION_AT = 21  # 'YYYY-MM-DD HH:MM:SS.' plus one digit: the shortest text with a fraction
 
@@ -47,6 +49,27 @@ def _as_text(r: Reading) -> list[Effect]:
     return [Effect("change", "as_text", n, r.facts.samples(*("type:" + x.key for x in typed), text=False))]
 
 
+def _parsed(r: Reading, cls: str) -> list[Form]:
+    """The string and cell forms of a class that the target really parses (not nulled as unparsed)."""
+    if r.target == STRING or cls not in r.accept:
+        return []
+    return [x for x in r.forms if x.key == cls and x.source != "typed" and x not in r.unparsed
+            and x.dtype is not None and x.dtype != STRING]
+
+
+def _class_changes(r: Reading) -> list[Effect]:
+    """Values a number cast changes whatever the target: leading zeros, and floats beyond float64."""
+    out: list[Effect] = []
+    for cls, cause in ((PADDED, "leading_zeros"), ("float_out_of_range", "out_of_range")):
+        forms = _parsed(r, cls)
+        n = sum(x.count for x in forms)
+        if n:
+            examples = tuple(sorted({e for x in forms for e in r.facts.samples("class:" + cls,
+                                                                              text=x.source == "text")}))[:3]
+            out.append(Effect("change", cause, n, examples))
+    return out
+
+
 def _numeric(r: Reading) -> list[Effect]:
     f, t = r.facts, r.target
     if not t.name.startswith("float"):
@@ -60,9 +83,14 @@ def _numeric(r: Reading) -> list[Effect]:
                           "of them exactly (IEEE 754 binary64 has a 53-bit significand)"))
     wide = any(x.source == "typed" and x.dtype is not None and x.dtype.name == "decimal"
                and (x.dtype.precision or 0) > FLOAT_EXACT_DIGITS for x in r.forms)
-    typed_str, cells = _sides(r, ("integer", "decimal"))
+    typed_str, cells = _sides(r, ("integer", "decimal", PADDED))
     wide = wide or typed_str and f.typed.int_digits + f.typed.frac_digits > FLOAT_EXACT_DIGITS \
         or cells and f.text.int_digits + f.text.frac_digits > FLOAT_EXACT_DIGITS
+    # A float string is a digit string too long for decimal256 (77 digits and more) or a float
+    # literal; the scan does not count its digits, but one that long may hold more than float64.
+    typed_str, cells = _sides(r, ("float",))
+    wide = wide or typed_str and f.typed.max_length > MAX_DECIMAL_DIGITS \
+        or cells and f.text.max_length > MAX_DECIMAL_DIGITS
     if wide:
         out.append(Effect("change", "rounded", 0, (), False,
                           "numbers with more than 15 significant digits may round as float64; the scan "
@@ -108,7 +136,7 @@ def _temporal(r: Reading, opts: RecommendOptions) -> tuple[list[Effect], int]:
 def scalar_effects(r: Reading, opts: RecommendOptions) -> tuple[Effect, ...]:
     """Every effect of a scalar verdict, in a fixed order: nulls, then changes, then notes."""
     temporal, _ = _temporal(r, opts)
-    effects = [*_nulls(r), *_as_text(r), *_numeric(r), *temporal]
+    effects = [*_nulls(r), *_as_text(r), *_class_changes(r), *_numeric(r), *temporal]
     order = {"null": 0, "change": 1, "note": 2}
     return tuple(sorted(effects, key=lambda e: order[e.kind]))
 

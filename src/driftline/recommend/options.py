@@ -26,6 +26,12 @@ parse_strings
     only where the field also holds real numbers or booleans, or CSV cells of them,
     because producers quote ids and zip codes on purpose. ``"always"``: string fields
     whose every value reads as a number or boolean are parsed too.
+leading_zeros
+    ``"keep"`` (default): strings of digits with leading zeros (the ``zero_padded``
+    content class: ``09001``, ``0900``, ``-007``, ``00.5``) are codes, not numbers: they
+    ask for string, so a field holding them stays a string field.  ``"parse"``: they
+    are read as numbers like integer and decimal strings, and the rule counts every one
+    of them as changed (cause ``leading_zeros``: a number keeps none of the zeros).
 null_tokens
     ``"parse"`` (default): null tokens ("n/a", "null", "-", ...) become null where a
     field is parsed to a non-string type, and in CSV cells (the scan already counts
@@ -64,6 +70,7 @@ _CHOICES: dict[str, tuple[str, ...]] = {
     "mode": ("permissive", "strict"),
     "timestamp_unit": ("s", "ms", "us", "ns"),
     "parse_strings": ("mixed", "always"),
+    "leading_zeros": ("keep", "parse"),
     "null_tokens": ("parse", "always", "never"),
 }
 _SHARES = ("max_null_share", "min_field_share")
@@ -101,6 +108,7 @@ class RecommendOptions:
     timestamp_unit: Unit = "us"
     timestamp_zone: str = "UTC"
     parse_strings: Literal["mixed", "always"] = "mixed"
+    leading_zeros: Literal["keep", "parse"] = "keep"
     null_tokens: Literal["parse", "always", "never"] = "parse"
     max_null_share: float = 0.0
     min_field_share: float = 0.0

@@ -25,6 +25,8 @@ CAUSES: dict[str, str] = {
     "leap_second": "a leap second (:60) becomes :59 of the same minute (pyarrow rejects :60)",
     "truncated": "fraction digits finer than the target unit are cut off",
     "rounded": "a decimal or integer with more than 15 significant digits becomes float64 and may round",
+    "leading_zeros": "a string with leading zeros (zero_padded: 09001) becomes a number, which keeps none of them",
+    "out_of_range": "a float string beyond float64's range becomes ±inf (1e400), or 0 when too small (1e-400)",
     "wrapped": "a scalar becomes a one-element list",
     "as_text": "a non-string value becomes its text",
     "as_json_text": "a value becomes its JSON text",

@@ -21,7 +21,9 @@ from driftline.recommend.facts import Facts
 from driftline.recommend.options import RecommendOptions
 
 Source = Literal["typed", "string", "text"]
-NUMBER_CLASSES = ("integer", "decimal", "float")
+NUMBER_CLASSES = ("integer", "decimal", "float", "float_out_of_range")
+FLOAT_CLASSES = ("float", "float_out_of_range")
+PADDED = "zero_padded"  # digits with leading zeros: a string unless leading_zeros = "parse"
 TIMESTAMP_CLASSES = ("timestamp_rfc3339", "timestamp_offset", "timestamp_local")
 TEMPORAL_CLASSES = ("date", *TIMESTAMP_CLASSES)
 NULLISH = ("empty", "null_token")
@@ -81,22 +83,35 @@ def _digits(f: Facts) -> tuple[int, int]:
     return max(f.typed.int_digits, f.text.int_digits), max(f.typed.frac_digits, f.text.frac_digits)
 
 
-def _has_real(f: Facts, wanted: str) -> bool:
-    """Does the field hold real values of a group (typed, or CSV cells the scan typed)?"""
+def _has_real(f: Facts, wanted: str, opts: RecommendOptions) -> bool:
+    """Does the field hold real values of a group (typed, or CSV cells the scan typed, or
+    zero_padded cells that leading_zeros = "parse" reads as numbers)?"""
     for key in f.kinds:
         if key != "string" and key not in NESTED and _group(parse_key(key)) == wanted:
             return True
-    classes = {"numeric": NUMBER_CLASSES, "bool": ("boolean",)}[wanted]
+    padded = (PADDED,) if opts.leading_zeros == "parse" else ()
+    classes = {"numeric": (*NUMBER_CLASSES, *padded), "bool": ("boolean",)}[wanted]
     return any(f.cells.get(c) for c in classes)
 
 
+def _parses_padded(f: Facts, opts: RecommendOptions) -> bool:
+    """Whether zero_padded strings are read as numbers (leading_zeros = "parse"), and there are some."""
+    return opts.leading_zeros == "parse" and bool(f.strings.get(PADDED) or f.cells.get(PADDED))
+
+
 def _number_type(f: Facts, opts: RecommendOptions, floats: bool) -> tuple[DType, str]:
-    """The type of integer/decimal strings, and why."""
+    """The type of integer/decimal (and parsed zero_padded) strings, and why."""
     i, s = _digits(f)
     p = max(i + s, 1)
-    has_decimal = bool(f.strings.get("decimal") or f.cells.get("decimal"))
-    if not has_decimal:
+    padded = _parses_padded(f, opts)
+    # Integer strings have no point, so digits after one are a decimal's or a zero_padded one's.
+    has_decimal = bool(f.strings.get("decimal") or f.cells.get("decimal")) or padded and s > 0
+    if not has_decimal and not (padded and i > 18):
         return INT64, ""
+    if not has_decimal and not floats and p <= 76:
+        # zero_padded strings of 19 digits and more: their zeros count, so int64 may not hold them.
+        return DType("decimal", precision=p, scale=0), \
+            f"decimal({p},0): zero_padded strings of {i} digits may not fit int64"
     dec = DType("decimal", precision=p, scale=s)
     if floats:
         why = "float64: the field also holds floats, whose decimal digits the scan does not count"
@@ -113,27 +128,28 @@ def _number_type(f: Facts, opts: RecommendOptions, floats: bool) -> tuple[DType,
 def _forms(f: Facts, opts: RecommendOptions) -> tuple[list[Form], list[str]]:
     notes: list[str] = []
     typed = [Form("typed", k, n, parse_key(k)) for k, n in f.kinds.items() if k != "string" and n]
-    floats = any(t.dtype is not None and t.dtype.name.startswith("float") for t in typed) or bool(
-        f.strings.get("float") or f.cells.get("float"))
+    floats = any(t.dtype is not None and t.dtype.name.startswith("float") for t in typed) or any(
+        f.strings.get(c) or f.cells.get(c) for c in FLOAT_CLASSES)
     number, why = _number_type(f, opts, floats)
     if why:
         notes.append(why)
     zoned = DType("timestamp", unit=opts.timestamp_unit, tz=opts.timestamp_zone)
     local = DType("timestamp", unit=opts.timestamp_unit)
     by_class: dict[str, DType | None] = {
-        "boolean": BOOL, "integer": number, "decimal": number, "float": FLOAT64, "date": DATE32,
+        "boolean": BOOL, "integer": number, "decimal": number, "float": FLOAT64, "float_out_of_range": FLOAT64,
+        PADDED: number if opts.leading_zeros == "parse" else STRING, "date": DATE32,
         "timestamp_rfc3339": zoned, "timestamp_offset": zoned, "timestamp_local": local,
         "text": STRING, "empty": None, "null_token": None if opts.null_tokens != "never" else STRING,
     }
-    quoted_numbers = opts.parse_strings == "always" or _has_real(f, "numeric")
-    quoted_bools = opts.parse_strings == "always" or _has_real(f, "bool")
+    quoted_numbers = opts.parse_strings == "always" or _has_real(f, "numeric", opts)
+    quoted_bools = opts.parse_strings == "always" or _has_real(f, "bool", opts)
     out = list(typed)
     for source, classes in (("string", f.strings), ("text", f.cells)):
         for cls, n in classes.items():
             if not n or source == "text" and cls == "empty":
                 continue
             t = by_class[cls]
-            if source == "string" and (cls in NUMBER_CLASSES and not quoted_numbers
+            if source == "string" and ((cls in NUMBER_CLASSES or cls == PADDED) and not quoted_numbers
                                        or cls == "boolean" and not quoted_bools):
                 t = STRING
             out.append(Form(source, cls, n, t))  # type: ignore[arg-type]
@@ -143,6 +159,12 @@ def _forms(f: Facts, opts: RecommendOptions) -> tuple[list[Form], list[str]]:
         notes.append("strings that read as numbers or booleans are kept: the field holds no real ones "
                      "(parse_strings = \"always\" parses them)")
     return out, notes
+
+
+def _zeros_note(n: int) -> str:
+    values = "1 value has" if n == 1 else f"{n:,} values have"
+    return (f"{values} leading zeros (zero_padded, like ZIP or FIPS codes) that a number would drop, so "
+            "the field stays text (leading_zeros = \"parse\" reads them as numbers)")
 
 
 def _join_time(types: list[DType], opts: RecommendOptions) -> DType:
@@ -175,6 +197,9 @@ def _target(forms: list[Form], f: Facts, opts: RecommendOptions) -> tuple[DType,
         if all(x.source != "typed" for x in rest) and share <= opts.max_null_share:
             notes.append(f"{lost:,} strings that are not {core} become null: {share:.1%} of the values, "
                          f"within max_null_share = {opts.max_null_share:g}")
+        elif all(x.key == PADDED for x in rest):
+            notes.append(_zeros_note(lost))
+            return STRING, [], notes
         else:
             why = "typed values of other kinds" if any(x.source == "typed" for x in rest) else \
                 f"{lost:,} strings ({share:.1%}) that do not parse, above max_null_share = {opts.max_null_share:g}"
@@ -208,6 +233,9 @@ def read_scalar(f: Facts, opts: RecommendOptions) -> Reading:
     forms, notes = _forms(f, opts)
     target, unparsed, why = _target(forms, f, opts)
     notes += why
+    padded = f.strings.get(PADDED, 0) + f.cells.get(PADDED, 0)
+    if target == STRING and padded and opts.leading_zeros == "keep" and not any("zero_padded" in n for n in notes):
+        notes.append(_zeros_note(padded))
     is_string = target == STRING
     tokens = {
         "string": "null" if opts.null_tokens == "always" or (opts.null_tokens == "parse" and not is_string) else "keep",

@@ -23,7 +23,7 @@ from driftline.recommend.effects import scalar_effects, target_nullable
 from driftline.recommend.facts import Facts, FactsTree
 from driftline.recommend.options import RecommendOptions
 from driftline.recommend.plan import Alternative, Dropped, Effect, FieldPlan
-from driftline.recommend.reading import NESTED, Reading, read_scalar, timestamp_formats
+from driftline.recommend.reading import NESTED, PADDED, Reading, read_scalar, timestamp_formats
 
 TOKENS_SHOWN = "'n/a', 'null', '-', ..."
 
@@ -156,17 +156,30 @@ def _strings(r: Reading) -> int:
 
 
 def _lossy_alternatives(f: Facts, ctx: Context) -> tuple[Alternative, ...]:
-    """Typed targets a string field would get at the price of nulls, or with parse_strings."""
+    """Typed targets a string field would get at the price of nulls, with parse_strings, or by
+    dropping leading zeros."""
     out = []
-    for change, note in ((dict(max_null_share=1.0), "max_null_share"), (dict(parse_strings="always"), "")):
+    changes: list[tuple[dict[str, object], str]] = [(dict(max_null_share=1.0), "max_null_share"),
+                                                    (dict(parse_strings="always"), "")]
+    padded = f.strings.get(PADDED, 0) + f.cells.get(PADDED, 0)
+    if padded and ctx.opts.leading_zeros == "keep":
+        zeros: dict[str, object] = dict(leading_zeros="parse")
+        if f.strings.get(PADDED):
+            zeros["parse_strings"] = "always"
+        changes.append((zeros, "leading_zeros"))
+    for change, note in changes:
         alt = read_scalar(f, ctx.opts.replace(**change))
         if alt.target == STRING or alt.target.name == "null":
             continue
         lost = sum(x.count for x in alt.unparsed)
         share = lost / f.values if f.values else 0.0
-        text = (f"would null {lost:,} strings ({share:.1%}) that do not parse; max_null_share >= {share:.4g} chooses it"
-                if note else "parse_strings = \"always\" parses these strings")
-        if lost and not note:
+        if note == "leading_zeros":
+            both = " and parse_strings = \"always\"" if "parse_strings" in change else ""
+            text = f"drops the leading zeros of {padded:,} values; leading_zeros = \"parse\"{both} chooses it"
+        else:
+            text = (f"would null {lost:,} strings ({share:.1%}) that do not parse; max_null_share >= {share:.4g} "
+                    "chooses it" if note else "parse_strings = \"always\" parses these strings")
+        if lost and note != "max_null_share":
             continue
         out.append(Alternative(parse_rule_name(alt.target), alt.target.key(), text))
     return tuple({a.target + a.note: a for a in out}.values())
@@ -264,7 +277,7 @@ def map_null_tokens(f: Facts, ctx: Context) -> FieldPlan | None:
         return None
     return _scalar_plan(f, ctx, "map_null_tokens",
                         f"turns null tokens ({TOKENS_SHOWN}) into null and keeps every other value",
-                        f"the field holds {describe_inputs(_inputs(f))}")
+                        f"the field holds {describe_inputs(_inputs(f))}", _lossy_alternatives(f, ctx))
 
 
 def _widen(name: str, families: tuple[str, ...]) -> Rule:

@@ -28,7 +28,7 @@ import orjson
 import pyarrow as pa
 
 from driftline.lattice import DType
-from driftline.observe.textclass import NULL_TOKENS
+from driftline.observe.textclass import INT64_MAX, INT64_MIN, NULL_TOKENS
 from driftline.recommend.options import zone_is_fixed
 from driftline.recommend.plan import FieldPlan, Recommendation
 from driftline.recommend.raw import json_text, jsonable, plain_value
@@ -148,14 +148,20 @@ def _digits_only(x: str) -> str:
     return f"{inner} = ''"
 
 
-def _number_guard(x: str, decimal: bool) -> str:
+def _number_guard(x: str, decimal: bool, zeros: bool = False) -> str:
+    """The integer or decimal shapes the rule parses (textclass); zeros: zero_padded ones too."""
     body = f"CASE WHEN SUBSTR({x}, 1, 1) = '-' THEN SUBSTR({x}, 2) ELSE {x} END"
+    # A zero before another digit is zero_padded, parsed only under leading_zeros = "parse".
+    padded = "" if zeros else f" AND NOT (SUBSTR({body}, 1, 1) = '0' AND SUBSTR({body}, 2, 1) BETWEEN '0' AND '9')"
     if not decimal:
-        return f"({body}) <> '' AND {_digits_only(f'({body})')} AND LENGTH({body}) <= 18"
+        # int64: 18 digits always, 19 up to the bound (digit strings of one length order as numbers)
+        bound = f"CASE WHEN SUBSTR({x}, 1, 1) = '-' THEN '{-INT64_MIN}' ELSE '{INT64_MAX}' END"
+        fits = f"(LENGTH({body}) <= 18 OR LENGTH({body}) = 19 AND ({body}) <= {bound})"
+        return f"({body}) <> '' AND {_digits_only(f'({body})')} AND {fits}{padded}"
     no_point = f"REPLACE({body}, '.', '')"
     return (f"({no_point}) <> '' AND {_digits_only(f'({no_point})')} "
             f"AND LENGTH({body}) - LENGTH({no_point}) <= 1 "
-            f"AND SUBSTR({body}, 1, 1) <> '.' AND SUBSTR({body}, LENGTH({body}), 1) <> '.'")
+            f"AND SUBSTR({body}, 1, 1) <> '.' AND SUBSTR({body}, LENGTH({body}), 1) <> '.'{padded}")
 
 
 def _tokens(plan: FieldPlan, col: Column) -> bool:
@@ -213,7 +219,8 @@ def expression(col: Column) -> str:
     else:
         value = f"CAST({x} AS {typ})"
     if plan.effect("unparsed") and (t.name.startswith(("int", "uint")) or t.name in ("decimal", "float64")):
-        guard = _number_guard(x, decimal=not t.name.startswith(("int", "uint")))
+        guard = _number_guard(x, decimal=not t.name.startswith(("int", "uint")),
+                              zeros="zero_padded" in plan.params.get("accept", []))
         value = f"CASE WHEN {guard} THEN {value} ELSE NULL END"
     if nulls:
         return f"CASE WHEN {' OR '.join(nulls)} THEN NULL ELSE {value} END"

@@ -26,7 +26,8 @@ _LABEL = {
     "null_token": "null tokens", "empty": "blank strings", "unparsed": "do not parse",
     "unsafe_int": "integers beyond 2**53", "leap_second": "leap seconds", "truncated": "fractions cut",
     "rounded": "more than 15 digits", "wrapped": "scalars wrapped in a list", "as_text": "written as text",
-    "as_json_text": "written as JSON text",
+    "as_json_text": "written as JSON text", "leading_zeros": "leading zeros dropped",
+    "out_of_range": "beyond float64's range",
 }
 
 
