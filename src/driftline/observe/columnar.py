@@ -126,8 +126,8 @@ def _plain(arr: pa.Array) -> pa.Array:
     """
     while True:
         t = arr.type
-        if pa.types.is_dictionary(t):
-            arr = arr.dictionary_decode()
+        if pa.types.is_dictionary(t):  # values unwrapped first: no take kernel for view types (pyarrow 26)
+            arr = _plain(arr.dictionary).take(arr.indices)
         elif isinstance(t, pa.Bool8Type):  # canonical bool8: int8 storage, 0 false, other values true
             arr = pc.cast(arr.storage, pa.bool_())
         elif isinstance(t, pa.BaseExtensionType):  # json, uuid, tensors, opaque, user types: their storage
@@ -222,9 +222,9 @@ def _observe_union(arr: pa.UnionArray, path: str, rows: pa.Array | None, ctx: _C
     as a JSON field holding sometimes a number, sometimes a string is. A union has no nulls
     of its own: a null is a null of the member that holds it."""
     t = arr.type
-    codes = arr.type_codes
     dense = t.mode == "dense"
-    offsets = arr.offsets if dense else None
+    codes = _union_buffer(arr, 1, pa.int8())
+    offsets = _union_buffer(arr, 2, pa.int32()) if dense else None
     parts: list[dict[str, FieldStats]] = [{path: FieldStats()}]
     for i, code in enumerate(t.type_codes):
         mask = pc.equal(codes, pa.scalar(code, codes.type))
@@ -236,6 +236,13 @@ def _observe_union(arr: pa.UnionArray, path: str, rows: pa.Array | None, ctx: _C
         _observe(values, path, _take_rows(rows, mask), sub)
         parts.append(sub.out)
     ctx.out.update(merge_all(parts))
+
+
+def _union_buffer(arr: pa.UnionArray, i: int, t: pa.DataType) -> pa.Array:
+    """A union's type codes (i=1) or dense offsets (i=2) for its own rows: .type_codes and
+    .offsets start at the buffer's first value even when the array is a slice (pyarrow 26)."""
+    whole = pa.Array.from_buffers(t, arr.offset + len(arr), [None, arr.buffers()[i]])
+    return whole.slice(arr.offset, len(arr))
 
 
 def _empty_items(path: str, ctx: _Ctx) -> None:
