@@ -342,3 +342,33 @@ def test_duration_values_are_counted_not_ordered() -> None:
     d = obs.fields["d"]
     assert (d.types, d.nulls, d.minimum, d.maximum) == ({"duration[ns]": 2}, 1, None, None)
     assert pc.min_max(arr.cast(pa.int64()))["max"].as_py() == 2**62  # the values pyarrow holds
+
+
+def _as_plain(arr: pa.Array) -> pa.Array:
+    """The reference value of a column: pyarrow's own decoding of its dictionary or extension."""
+    if pa.types.is_dictionary(arr.type):
+        return _as_plain(arr.dictionary_decode())
+    if isinstance(arr.type, pa.Bool8Type):
+        return pa.array(arr.to_numpy(zero_copy_only=False), pa.bool_()) if arr.null_count == 0 else \
+            pa.array([None if v is None else bool(v) for v in arr.storage.to_pylist()], pa.bool_())
+    return arr.storage if isinstance(arr.type, pa.BaseExtensionType) else arr
+
+
+@pytest.mark.parametrize(("name", "arr"), [c[:2] for c in CASES], ids=[c[0] for c in CASES])
+def test_apply_casts_each_type_into_the_schema_it_recommends(tmp_path: Path, name: str, arr: pa.Array) -> None:
+    from driftline.recommend.apply import apply
+    from driftline.recommend.raw import raw_batches
+
+    folder = _write(tmp_path, name, arr)
+    rec = driftline.scan(folder).recommend()
+    (batch,) = [apply(b.batch, rec) for b in raw_batches(folder)]
+    assert batch.schema.equals(rec.arrow_schema())
+    got = batch.column("col")
+    want = _as_plain(pq.read_table(folder / "part.parquet").column("col").combine_chunks())
+    if pa.types.is_nested(want.type):  # values below the column: compare them as Python sees them
+        assert got.to_pylist() == want.to_pylist()
+    elif pa.types.is_floating(want.type):  # NaN equals nothing: compare the bit patterns
+        bits = {16: pa.int16(), 32: pa.int32(), 64: pa.int64()}[got.type.bit_width]
+        assert got.view(bits).equals(want.cast(got.type).view(bits))
+    else:  # pyarrow's cast is the reference (timedelta and datetime cannot hold nanoseconds)
+        assert got.equals(want.cast(got.type))
