@@ -13,6 +13,7 @@ import decimal
 import json
 import multiprocessing
 import uuid
+import warnings
 from pathlib import Path
 from typing import Any
 
@@ -372,3 +373,65 @@ def test_apply_casts_each_type_into_the_schema_it_recommends(tmp_path: Path, nam
         assert got.view(bits).equals(want.cast(got.type).view(bits))
     else:  # pyarrow's cast is the reference (timedelta and datetime cannot hold nanoseconds)
         assert got.equals(want.cast(got.type))
+
+
+@pytest.fixture(scope="module")
+def every_type(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """One Parquet file with a column of each type of CASES."""
+    root = tmp_path_factory.mktemp("every_type")
+    pq.write_table(pa.table({name: arr for name, arr, _, _ in CASES}), root / "all.parquet")
+    return root
+
+
+def test_every_schema_format_names_each_type_or_says_what_stands_in(every_type: Path) -> None:
+    import avro.errors
+    import avro.schema
+    import duckdb
+    from jsonschema import Draft202012Validator
+
+    from driftline.emit.schemas import arrow_schema, json_schema, sql
+    from driftline.emit.schemas.avro import avro_schema
+    from test_schema_sql import _load
+
+    rec = driftline.scan(every_type).recommend()
+    table = pq.read_table(every_type / "all.parquet")
+    valued = {n for n in table.column_names if table.column(n).null_count < len(table)}
+    # JSON Schema: a valid 2020-12 schema (source: the 2020-12 meta-schema) whose fields that
+    # hold values never claim the null type; a duration says its unit.
+    doc = json_schema.json_schema(rec)
+    Draft202012Validator.check_schema(doc)
+    props = doc["properties"]
+    assert sorted(n for n in valued if props[n]["x-driftline"]["arrow"] == "null") == []
+    assert props["null"]["x-driftline"]["arrow"] == "null"  # a column of nulls is one
+    assert props["duration-us"]["description"] == "duration[us]: an integer count of microseconds"
+    # Avro: the Apache parser takes it (source: avro 1.12 avro.schema.parse); durations say their unit
+    fields = {f["x-driftline"]["path"]: f for f in avro_schema(rec, name="every")["fields"]}
+    with warnings.catch_warnings():
+        # The Apache package (1.12.2) knows no local-timestamp-* or *-nanos logical type of the
+        # 1.12 specification: it warns and reads the long beneath, as the specification allows.
+        warnings.simplefilter("ignore", avro.errors.IgnoredLogicalType)
+        avro.schema.parse(json.dumps(avro_schema(rec, name="every")))
+    assert fields["duration-ms"]["type"] == ["null", "long"]
+    assert fields["duration-ms"]["doc"].endswith("duration[ms] as a long count of milliseconds (Avro's duration "
+                                                 "logical type counts months, days and milliseconds)")
+    # Arrow: the IPC message reads back equal (source: pyarrow.ipc.read_schema)
+    assert arrow_schema.read_ipc(arrow_schema.ipc_bytes(rec)).equals(rec.arrow_schema(), check_metadata=True)
+    # SQL: DuckDB creates and loads it, with as many NULLs per column as pyarrow counts
+    ddl = sql.create_table(rec, "t")
+    assert '"duration-ns" BIGINT,  -- duration[ns] as BIGINT, a count of nanoseconds' in ddl
+    assert '"decimal256" VARCHAR(53),  -- decimal(50,2) as text: wider than DECIMAL(38)' in ddl
+    con = duckdb.connect()
+    _load(con, rec, every_type, "t")
+    nulls = {c.name: con.execute(f'SELECT count(*) FROM "t" WHERE {sql.quote(c.name)} IS NULL').fetchone()[0]
+             for c in sql.columns(rec)}
+    # a struct's fields are columns of their own, null where the struct is (source: StructArray.flatten)
+    flat = table.flatten()
+    assert nulls == {n: flat.column(n).null_count for n in flat.column_names}  # source: pyarrow null_count
+
+
+def test_check_passes_every_type_against_its_own_schema(every_type: Path, tmp_path: Path) -> None:
+    contract, rules, report = tmp_path / "c.schema.json", tmp_path / "rules.json", tmp_path / "report.json"
+    assert _cli("schema", every_type, "--to", "json-schema", "--out", contract, "--rules", rules) == 0
+    assert _cli("scan", every_type, "--json", report, "-q") == 0
+    for baseline in (contract, rules, report):
+        assert _cli("check", every_type, "--baseline", baseline, "-q") == 0, baseline.name
