@@ -21,6 +21,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 import pytest
+from jsonschema import Draft202012Validator
 from typer.testing import CliRunner
 
 import driftline
@@ -29,6 +30,7 @@ from driftline.lattice import from_arrow
 from driftline.observe import columnar
 from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.columnar import observe_table
+from driftline.report import to_dict
 
 D = decimal.Decimal
 U1, U2 = uuid.UUID("f81d4fae-7dec-11d0-a765-00a0c91e6bf6"), uuid.UUID("00000000-0000-0000-0000-000000000001")
@@ -311,6 +313,9 @@ def test_the_reader_reports_each_unsupported_column_once_per_file(tmp_path: Path
             "column 't' not profiled: pyarrow cannot compute its statistics (Function 'min_max' has no kernel "
             "matching input types (time64[us])); the other columns are")]
     assert list(profile.fields) == ["n"]
+    # the report carries them as it carries every file problem (source: docs/report.schema.json)
+    schema = json.loads((Path(__file__).parent.parent / "docs" / "report.schema.json").read_text())
+    Draft202012Validator(schema).validate(json.loads(json.dumps(to_dict(profile))))
     n = profile.fields["n"].stats
     assert (n.types, n.nulls, n.minimum, n.maximum) == ({"int64": 8}, 2, 10, 50)  # source: pyarrow null_count
 
@@ -387,7 +392,6 @@ def test_every_schema_format_names_each_type_or_says_what_stands_in(every_type: 
     import avro.errors
     import avro.schema
     import duckdb
-    from jsonschema import Draft202012Validator
 
     from driftline.emit.schemas import arrow_schema, json_schema, sql
     from driftline.emit.schemas.avro import avro_schema
