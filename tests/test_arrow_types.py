@@ -256,8 +256,8 @@ def test_bulk_observation_agrees_with_observe_table_on_every_type() -> None:
     columns = {c[0]: c[1] for c in CASES} | {c[0] + "-mem": c[1] for c in IN_MEMORY}
     columns["interval"] = pa.array([pa.MonthDayNano([1, 2, 3]), None, None, None, None])
     batches = []
-    for k in range(6):  # the same columns in several batches and files, some sliced
-        table = pa.table(columns).slice(k % 3, 5 - k % 3)
+    for k in range(7):  # the same columns in several batches and files, some sliced, the last one empty
+        table = pa.table(columns).slice(k % 3, 5 - k % 3) if k < 6 else pa.table(columns).slice(0, 0)
         batches.append(Batch(table, f"f{k // 2}.parquet", k % 2, (k % 2) * 5))
     one_by_one = [observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start) for b in batches]
     assert observe_batches(batches) == one_by_one

@@ -86,12 +86,15 @@ def _observe_or_why(arr: pa.Array, name: str, ctx: _Ctx) -> str | None:
     reason = unsupported_reason(arr.type)
     if reason is not None:
         return reason
-    before = dict(ctx.out)
+    done, ctx.out = ctx.out, {}  # this column's paths apart, so a failure leaves nothing of it
     try:
         _observe(arr, paths.child(None, name), None, ctx)
     except pa.ArrowNotImplementedError as exc:
-        ctx.out = before
         return f"pyarrow cannot compute its statistics ({str(exc).splitlines()[0]})"
+    else:
+        done.update(ctx.out)
+    finally:
+        ctx.out = done
     return None
 
 
