@@ -22,7 +22,8 @@ from driftline.recommend.apply import apply
 from driftline.recommend.raw import iter_records, json_value, raw_batches
 from test_recommend_fixture import make_orders
 
-ALLOWED = {"type", "properties", "required", "items", "format", "minimum", "maximum", "maxLength", "x-driftline"}
+ALLOWED = {"type", "properties", "required", "items", "additionalProperties", "format", "minimum", "maximum",
+           "maxLength", "description", "x-driftline"}
 CHECKER = Draft202012Validator.FORMAT_CHECKER
 
 
@@ -126,7 +127,7 @@ def test_the_gate_reads_the_schema_as_a_baseline(sources):
     for plan in rec.walk():
         expected = baseline.fields[plan.path]
         assert expected.type is not None and expected.type.key() == plan.target.key(), plan.path
-        # Map keys and values have no node of their own (an object has no 'properties'
-        # for them); the gate takes their types from the map's annotation.
-        assert expected.rule == (None if "{" in plan.path else plan.rule), plan.path
+        # Map keys have no node of their own (an object's keys are its property names); the
+        # gate takes their types from the map's annotation. Values are additionalProperties.
+        assert expected.rule == (None if "{key}" in plan.path else plan.rule), plan.path
     assert baseline.fields["created"].required and not baseline.fields["meta.agent"].required

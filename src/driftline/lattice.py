@@ -354,6 +354,9 @@ _UNIT_TYPES = {'time32': pa.time32, 'time64': pa.time64, 'duration': pa.duration
 _types = pa.types
 # Ordered: the first matching predicate converts; encodings unwrap to their logical type.
 _FROM_ARROW: tuple[tuple[Callable[[pa.DataType], bool], Callable[[pa.DataType], DType]], ...] = (
+    # Canonical bool8 is a boolean kept in int8 (0 false, anything else true); other
+    # extension types (json, uuid, tensors, opaque, user types) are their storage type.
+    (lambda t: isinstance(t, pa.Bool8Type), lambda t: BOOL),
     (lambda t: isinstance(t, pa.BaseExtensionType), lambda t: from_arrow(t.storage_type)),
     (_types.is_dictionary, lambda t: from_arrow(t.value_type)),
     (_types.is_run_end_encoded, lambda t: from_arrow(t.value_type)),
@@ -391,7 +394,21 @@ def from_arrow(t: pa.DataType) -> DType:
     for matches, convert in _FROM_ARROW:
         if matches(t):
             return convert(t)
-    raise ValueError(f'Arrow type {t} has no driftline type')
+    why = ' (intervals are not supported)' if _types.is_interval(t) else ''
+    raise ValueError(f'Arrow type {t} has no driftline type{why}')
+
+
+def unsupported_reason(t: pa.DataType) -> str | None:
+    """Why an Arrow type, or a type inside it, has no driftline type; None when it has one.
+
+    >>> unsupported_reason(pa.struct([("i", pa.month_day_nano_interval())]))
+    'Arrow type month_day_nano_interval has no driftline type (intervals are not supported)'
+    """
+    try:
+        from_arrow(t)
+    except ValueError as exc:
+        return str(exc)
+    return None
 
 
 def _field(name: str, t: DType) -> pa.Field:

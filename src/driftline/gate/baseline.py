@@ -191,6 +191,10 @@ def _walk_schema(node: Any, path: str | None, ptr: str, required: bool, out: dic
     if items is not None and path is not None:
         # Every list element is there when its list is: an element is never 'absent'.
         _walk_schema(items, paths.element(path), ptr + "/items", True, out)
+    values = node.get("additionalProperties")
+    if arrow is not None and arrow.name == "map" and isinstance(values, Mapping | bool) and path is not None:
+        # A map's values, as an object's: whether they may be null is said here, not in the type key.
+        _walk_schema(values, paths.map_part(path, "value"), ptr + "/additionalProperties", True, out)
     if arrow is not None and path is not None:
         _expand_arrow(path, arrow, out)
 

@@ -62,11 +62,14 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
         return [observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start, exact=exact or None)
                 for b in batches]
     out: list[dict[str, FieldStats]] = [{} for _ in batches]
+    unobserved: list[dict[str, str]] = [{} for _ in batches]  # column -> why it cannot be observed
     groups: dict[tuple[str, pa.DataType], list[tuple[int, pa.Array]]] = {}
     for i, b in enumerate(batches):
         names = b.data.column_names
         if len(set(names)) != len(names) or not b.data.num_rows:  # repeated names: the last one wins, in order
-            out[i].update(observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start).fields)
+            whole = observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start)
+            out[i].update(whole.fields)
+            unobserved[i].update(whole.unobserved)
             continue
         for name, col in zip(names, b.data.columns, strict=True):
             arr = _whole(col)
@@ -74,12 +77,16 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
     for (name, t), members in groups.items():
         if _kind(t) is None:  # observe_table's own walk, batch by batch
             for i, arr in members:
-                out[i].update(observe_column(arr, name, file=batches[i].file, row_start=batches[i].row_start))
+                got = observe_column(arr, name, file=batches[i].file, row_start=batches[i].row_start)
+                if isinstance(got, str):
+                    unobserved[i][name] = got
+                else:
+                    out[i].update(got)
         else:
             _observe_group(paths.child(None, name), t, members, batches, out)
     return [
         Observation(file=b.file, batch=b.batch, row_start=b.row_start, rows=b.data.num_rows,
-                    fields=dict(sorted(out[i].items())))
+                    fields=dict(sorted(out[i].items())), unobserved=tuple(sorted(unobserved[i].items())))
         for i, b in enumerate(batches)
     ]
 

@@ -11,11 +11,11 @@ from typing import Any
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from driftline.lattice import from_arrow
+from driftline.lattice import from_arrow, unsupported_reason
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
 from driftline.observe.records import SAFE_INT, pa_indices, value_text
-from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
+from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats, merge_all
 from driftline.observe.strprofile import exact_requested, string_profile
 from driftline.observe.textclass import class_masks, classify
 
@@ -60,18 +60,43 @@ def observe_table(
     ({'int64': 2}, 1)
     """
     ctx = _Ctx(file, row_start, lines, text_source, exact_requested() if exact is None else exact)
+    unobserved: dict[str, str] = {}
     for name, col in zip(table.column_names, table.columns, strict=True):
         arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
-        _observe(arr, paths.child(None, name), None, ctx)
+        reason = _observe_or_why(arr, name, ctx)
+        if reason is not None:
+            unobserved[name] = reason
     return Observation(file=file, batch=batch, row_start=row_start, rows=table.num_rows,
-                       fields=dict(sorted(ctx.out.items())))
+                       fields=dict(sorted(ctx.out.items())), unobserved=tuple(sorted(unobserved.items())))
 
 
-def observe_column(arr: pa.Array, name: str, *, file: str, row_start: int) -> dict[str, FieldStats]:
-    """The statistics one top-level column of a (non-text) batch gives: its path and those below it."""
+def observe_column(arr: pa.Array, name: str, *, file: str, row_start: int) -> dict[str, FieldStats] | str:
+    """The statistics one top-level column of a (non-text) batch gives: its path and those below it;
+    or, for a column of a type driftline cannot observe, why (see unsupported_reason)."""
     ctx = _Ctx(file, row_start, None, False, exact_requested())
-    _observe(arr, paths.child(None, name), None, ctx)
-    return ctx.out
+    reason = _observe_or_why(arr, name, ctx)
+    return ctx.out if reason is None else reason
+
+
+def _observe_or_why(arr: pa.Array, name: str, ctx: _Ctx) -> str | None:
+    """Observe one top-level column into ctx, or leave ctx as it was and say why it cannot be.
+
+    A column of a type with no driftline type, or one a pyarrow kernel cannot compute over,
+    costs that column only: the caller reports it, and the batch's other columns are kept.
+    """
+    reason = unsupported_reason(arr.type)
+    if reason is not None:
+        return reason
+    done, ctx.out = ctx.out, {}  # this column's paths apart, so a failure leaves nothing of it
+    try:
+        _observe(arr, paths.child(None, name), None, ctx)
+    except pa.ArrowNotImplementedError as exc:
+        return f"pyarrow cannot compute its statistics ({str(exc).splitlines()[0]})"
+    else:
+        done.update(ctx.out)
+    finally:
+        ctx.out = done
+    return None
 
 
 def _rows(rows: pa.Array | None, idx: int) -> int:
@@ -97,20 +122,35 @@ def _take_rows(rows: pa.Array | None, mask: pa.Array) -> pa.Array:
     return base.filter(mask)
 
 
+def _plain(arr: pa.Array) -> pa.Array:
+    """arr as the plain array of its logical type: encodings and extension wrappers removed.
+
+    The lattice (from_arrow) folds the same wrappers, so the type key comes out the same.
+    Loops because wrappers nest: an extension over a dictionary, a dictionary of a view type.
+    """
+    while True:
+        t = arr.type
+        if pa.types.is_dictionary(t):  # values unwrapped first: no take kernel for view types (pyarrow 26)
+            arr = _plain(arr.dictionary).take(arr.indices)
+        elif isinstance(t, pa.Bool8Type):  # canonical bool8: int8 storage, 0 false, other values true
+            arr = pc.cast(arr.storage, pa.bool_())
+        elif isinstance(t, pa.BaseExtensionType):  # json, uuid, tensors, opaque, user types: their storage
+            arr = arr.storage
+        elif pa.types.is_run_end_encoded(t):
+            arr = pc.run_end_decode(arr)
+        elif pa.types.is_string_view(t) or pa.types.is_binary_view(t):
+            arr = arr.cast(pa.large_string() if pa.types.is_string_view(t) else pa.large_binary())
+        else:
+            return arr
+
+
 def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None:
+    shown = arr
+    arr = _plain(arr)
     t = arr.type
-    if pa.types.is_dictionary(t):
-        arr = arr.dictionary_decode()
-        t = arr.type
-    if isinstance(t, pa.ExtensionType):
-        arr = arr.storage
-        t = arr.type
-    if pa.types.is_run_end_encoded(t):
-        arr = pc.run_end_decode(arr) if hasattr(pc, "run_end_decode") else arr.cast(t.value_type)
-        t = arr.type
-    if pa.types.is_string_view(t) or pa.types.is_binary_view(t):
-        arr = arr.cast(pa.large_string() if pa.types.is_string_view(t) else pa.large_binary())
-        t = arr.type
+    if pa.types.is_union(t):
+        _observe_union(arr, path, rows, ctx)
+        return
     if ctx.text_source and (pa.types.is_string(t) or pa.types.is_large_string(t)):
         _observe_text(arr, path, rows, ctx)
         return
@@ -126,7 +166,7 @@ def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None
     key = from_arrow(t).shallow_key()
     fv = _first_valid(arr)
     if fv is not None:
-        samples["type:" + key] = (ctx.example(_rows(rows, fv), _scalar(arr[fv])),)
+        samples["type:" + key] = (ctx.example(_rows(rows, fv), _sample(shown, arr, fv)),)
     extra: dict[str, Any] = {}
     if pa.types.is_struct(t):
         valid = pc.is_valid(arr)
@@ -165,11 +205,48 @@ def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None
             extra["max_length"] = t.byte_width if fixed else _max_or_zero(pc.binary_length(arr))
     elif pa.types.is_integer(t) or pa.types.is_floating(t) or pa.types.is_decimal(t):
         extra.update(_number_stats(arr, t))
-    elif pa.types.is_temporal(t) and nonnull:
+    elif pa.types.is_temporal(t) and not pa.types.is_duration(t) and nonnull:
+        # A duration has no extremes here: its text does not order, and a number would
+        # mix units with the field's other types when observations merge.
         lo, hi = _min_max(arr)
         extra["minimum"], extra["maximum"] = _temporal_text(lo), _temporal_text(hi)
     ctx.out[path] = FieldStats(types={key: nonnull} if nonnull else {}, nulls=nulls,
                                samples=dict(sorted(samples.items())), **extra)
+
+
+def _sample(shown: pa.Array, plain: pa.Array, i: int) -> Any:
+    """The value at i as _scalar shows it; a UUID as its canonical text rather than 16 raw bytes."""
+    if isinstance(shown.type, pa.UuidType) and shown[i].is_valid:
+        return str(shown[i].as_py())  # source: RFC 9562 section 4 (8-4-4-4-12 hex digits)
+    return _scalar(plain[i])
+
+
+def _observe_union(arr: pa.UnionArray, path: str, rows: pa.Array | None, ctx: _Ctx) -> None:
+    """A union column: each member's values are observed at the union's own path and merged,
+    as a JSON field holding sometimes a number, sometimes a string is. A union has no nulls
+    of its own: a null is a null of the member that holds it."""
+    t = arr.type
+    dense = t.mode == "dense"
+    codes = _union_buffer(arr, 1, pa.int8())
+    offsets = _union_buffer(arr, 2, pa.int32()) if dense else None
+    parts: list[dict[str, FieldStats]] = [{path: FieldStats()}]
+    for i, code in enumerate(t.type_codes):
+        mask = pc.equal(codes, pa.scalar(code, codes.type))
+        if not pc.any(mask).as_py():
+            continue
+        child = arr.field(i)
+        values = child.take(offsets.filter(mask)) if dense else child.filter(mask)
+        sub = _Ctx(ctx.file, ctx.row_start, ctx.lines, ctx.text_source, ctx.exact)
+        _observe(values, path, _take_rows(rows, mask), sub)
+        parts.append(sub.out)
+    ctx.out.update(merge_all(parts))
+
+
+def _union_buffer(arr: pa.UnionArray, i: int, t: pa.DataType) -> pa.Array:
+    """A union's type codes (i=1) or dense offsets (i=2) for its own rows: .type_codes and
+    .offsets start at the buffer's first value even when the array is a slice (pyarrow 26)."""
+    whole = pa.Array.from_buffers(t, arr.offset + len(arr), [None, arr.buffers()[i]])
+    return whole.slice(arr.offset, len(arr))
 
 
 def _empty_items(path: str, ctx: _Ctx) -> None:
@@ -206,6 +283,9 @@ def _display_type(t: pa.DataType) -> pa.DataType:
 
 
 def _scalar(s: pa.Scalar) -> Any:
+    if pa.types.is_duration(s.type) and s.is_valid:
+        # One form for every unit: a timedelta cannot hold nanoseconds, and its text differs by size.
+        return f"{s.value} {s.type.unit}"
     try:
         v = s.as_py()
     except (ValueError, OverflowError, pa.ArrowException):
@@ -251,6 +331,8 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
     if arr.null_count == len(arr):
         return out
     work = arr
+    if pa.types.is_decimal(t) and t.bit_width < 128:  # decimal32/64 have no min_max kernel (pyarrow 26)
+        work = arr.cast(pa.decimal128(t.precision, t.scale))
     if pa.types.is_floating(t):
         if pa.types.is_float16(t):
             work = arr.cast(pa.float32())

@@ -31,7 +31,10 @@ TEXT_CLASS_TYPE: dict[str, str | None] = {
 class Observation:
     """One batch: the file it came from, its place in the file, and per path statistics.
 
-    row_start is the 0-based index within the file of the batch's first row.
+    row_start is the 0-based index within the file of the batch's first row. unobserved
+    names the top-level columns left out because driftline cannot observe their type, each
+    with why; the reader turns them into one file problem per column. It is not part of the
+    saved report: the problems are.
     """
 
     file: str
@@ -39,6 +42,7 @@ class Observation:
     row_start: int
     rows: int
     fields: dict[str, FieldStats] = field(default_factory=dict)
+    unobserved: tuple[tuple[str, str], ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         return {

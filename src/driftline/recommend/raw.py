@@ -154,20 +154,32 @@ def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
 def _plain(arr: pa.Array) -> pa.Array:
     """Encodings unwrapped and wide layouts narrowed, so that compute kernels take them."""
     t = arr.type
-    if pa.types.is_dictionary(t):
-        return _plain(arr.dictionary_decode())
+    if pa.types.is_dictionary(t):  # values first: no take kernel for view types (pyarrow 26)
+        return _plain(_plain(arr.dictionary).take(arr.indices))
+    if isinstance(t, pa.Bool8Type):  # canonical bool8: int8 storage, 0 false, other values true
+        return pc.cast(arr.storage, pa.bool_())
     if isinstance(t, pa.BaseExtensionType):
         return _plain(arr.storage)
+    if pa.types.is_list_view(t) or pa.types.is_large_list_view(t):
+        return _list_of_view(arr)
     if pa.types.is_run_end_encoded(t):
         return _plain(arr.cast(t.value_type))
     if pa.types.is_large_string(t) or pa.types.is_string_view(t):
         return arr.cast(pa.string())
     if pa.types.is_large_binary(t) or pa.types.is_binary_view(t) or pa.types.is_fixed_size_binary(t):
         return arr.cast(pa.binary())
-    if pa.types.is_large_list(t) or pa.types.is_fixed_size_list(t) or pa.types.is_list_view(t) \
-            or pa.types.is_large_list_view(t):
+    if pa.types.is_large_list(t) or pa.types.is_fixed_size_list(t):
         return arr.cast(pa.list_(t.value_field))
     return arr
+
+
+def _list_of_view(arr: pa.Array) -> pa.Array:
+    """A list view as a list, built from its lengths: pyarrow 26's cast from list_view to list
+    gives an offsets buffer one entry short, which fails validation (and ListArray.from_arrays)."""
+    lengths = pc.fill_null(pc.list_value_length(arr), 0).cast(pa.int32())
+    offsets = pa.concat_arrays([pa.array([0], pa.int32()), pc.cumulative_sum(lengths)])
+    return pa.ListArray.from_arrays(offsets, pc.list_flatten(arr), type=pa.list_(arr.type.value_field),
+                                    mask=_mask(arr))
 
 
 def _mask(arr: pa.Array) -> pa.Array | None:

@@ -12,7 +12,7 @@ from collections.abc import Iterator
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from driftline.lattice import from_arrow
+from driftline.lattice import from_arrow, unsupported_reason
 from driftline.observe import paths
 from driftline.observe.bulk import Batch
 from driftline.sources.base import RATIO_FLOOR_BYTES, FileIssue, ReadOptions
@@ -33,10 +33,11 @@ def declared_paths(schema: pa.Schema) -> dict[str, str]:
     out: dict[str, str] = {}
 
     def walk(path: str, t: pa.DataType) -> None:
-        dt = from_arrow(t)
-        out[path] = dt.shallow_key()
-        while pa.types.is_dictionary(t) or isinstance(t, pa.ExtensionType):
-            t = t.value_type if pa.types.is_dictionary(t) else t.storage_type
+        if unsupported_reason(t) is not None:
+            return  # a column the reader leaves out, with a problem saying why
+        out[path] = from_arrow(t).shallow_key()
+        while pa.types.is_dictionary(t) or pa.types.is_run_end_encoded(t) or isinstance(t, pa.BaseExtensionType):
+            t = t.storage_type if isinstance(t, pa.BaseExtensionType) else t.value_type
         if pa.types.is_struct(t):
             for i in range(t.num_fields):
                 walk(paths.child(path, t.field(i).name), t.field(i).type)

@@ -163,13 +163,17 @@ class _Read:
         if not self.opened:
             return _result(self.ref, [], self.issues, None, False, self.dialect)
         observations: list[Observation] = []
+        unobserved: dict[str, tuple[str, int]] = {}  # column -> (why, first row of its first batch)
         for part in self.parts:
             got = pending.done[part] if isinstance(part, int) else part
             if isinstance(got, Exception):
                 self.fail(got)  # as if the reader had raised there: the batches before it are kept
                 break
             observations.append(got)
+            for name, why in got.unobserved:
+                unobserved.setdefault(name, (why, got.row_start))
         ref, issues = self.ref, self.issues
+        issues.extend(_unobserved_issue(ref.rel, name, why, row) for name, (why, row) in unobserved.items())
         if not observations and not issues and ref.size == 0:
             issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
         if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
@@ -178,6 +182,12 @@ class _Read:
                 self.complete = False
                 issues.append(FileIssue(ref.rel, "changed", change))
         return _result(ref, observations, issues, self.declared, self.complete, self.dialect)
+
+
+def _unobserved_issue(rel: str, column: str, why: str, row: int) -> FileIssue:
+    """One warning per column a file's batches left out: the other columns were profiled."""
+    return FileIssue(rel, "unsupported-type", f"column {column!r} not profiled: {why}; the other columns are",
+                     "warning", row=row)
 
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:

@@ -92,6 +92,25 @@ def _logical(t: DType) -> Any:
             "duration": "long"}[n]
 
 
+_UNIT_NAMES = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns": "nanoseconds"}
+
+
+def stand_in(t: DType) -> str | None:
+    """What a plain Avro type stands in for, when Avro has no logical type of t's meaning.
+
+    >>> from driftline.lattice import parse_key
+    >>> print(stand_in(parse_key("duration[s]")))
+    duration[s] as a long count of seconds (Avro's duration logical type counts months, days and milliseconds)
+    """
+    if t.name == "duration":
+        assert t.unit is not None
+        return (f"{t.key()} as a long count of {_UNIT_NAMES[t.unit]} "
+                "(Avro's duration logical type counts months, days and milliseconds)")
+    if t.name == "time64" and t.unit == "ns":
+        return "time64[ns] as a long count of nanoseconds since midnight (Avro times stop at microseconds)"
+    return None
+
+
 def _type(plan: FieldPlan, names: _Names, record: str) -> Any:
     t = plan.target
     if plan.rule == "keep_as_json_text" or t.name not in ("struct", "list", "map"):
@@ -118,7 +137,8 @@ def _fields(plans: tuple[FieldPlan, ...], names: _Names, record: str) -> list[di
         f: dict[str, Any] = {"name": name, "type": _type(p, names, record)}
         if p.nullable:
             f["default"] = None
-        f["doc"] = f"{p.rule}: {p.does}"
+        note = None if p.rule == "keep_as_json_text" else stand_in(p.target)
+        f["doc"] = f"{p.rule}: {p.does}" + (f"; {note}" if note else "")
         f["x-driftline"] = {"path": p.path, "name": p.name, "arrow": p.target.key(), "rule": p.rule}
         out.append(f)
     return out

@@ -1,6 +1,8 @@
 """The recommendation as JSON Schema 2020-12: plain standard keywords plus one annotation.
 
-Keywords used: type, properties, required, items, format, minimum, maximum, maxLength;
+Keywords used: type, properties, required, items, additionalProperties (a map's values),
+format, minimum, maximum, maxLength, description (the unit of a duration, which JSON
+holds as an integer);
 each property (and each ``items``) carries ``"x-driftline": {"arrow": "<type key>",
 "rule": "<rule name>"}``. Two modes:
 
@@ -36,6 +38,7 @@ _INT_RANGES = {
     "int64": (-(2**63), 2**63 - 1), "uint8": (0, 2**8 - 1), "uint16": (0, 2**16 - 1),
     "uint32": (0, 2**32 - 1), "uint64": (0, 2**64 - 1),
 }
+_UNIT_NAMES = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns": "nanoseconds"}
 _ORDER = ("object", "array", "string", "number", "integer", "boolean", "null")
 _TEMPORAL = ("date32", "date64", "timestamp", "time32", "time64")
 
@@ -146,6 +149,10 @@ def node(plan: FieldPlan, mode: Mode = "permissive") -> dict[str, Any]:
                 out["required"] = required
         elif t.name == "list":
             out["items"] = node(plan.children[0], mode)
+        elif t.name == "map":  # a map is an object of its entries: the value's schema (nulls included)
+            out["additionalProperties"] = node(plan.children[1], mode)
+    if t.name == "duration" and plan.rule != "keep_as_json_text":  # JSON has no duration of its own
+        out["description"] = f"{t.key()}: an integer count of {_UNIT_NAMES[t.unit or 's']}"
     out["x-driftline"] = {"arrow": t.key(), "rule": plan.rule}
     return out
 

@@ -108,6 +108,26 @@ def sql_type(plan: FieldPlan) -> str:
             "time32": "TIME", "time64": "TIME", "duration": "BIGINT"}[n]
 
 
+UNIT_NAMES = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns": "nanoseconds"}
+
+
+def stand_in(t: DType) -> str | None:
+    """What the SQL type of a target stands in for, when portable SQL cannot name the type itself.
+
+    >>> from driftline.lattice import parse_key
+    >>> print(stand_in(parse_key("duration[ns]")))
+    duration[ns] as BIGINT, a count of nanoseconds: portable SQL has no interval of one fixed unit
+    """
+    if t.name == "duration":
+        assert t.unit is not None
+        return f"{t.key()} as BIGINT, a count of {UNIT_NAMES[t.unit]}: portable SQL has no interval of one fixed unit"
+    if t.name == "decimal" and t.precision is not None and t.precision > MAX_DECIMAL:
+        return f"{t.key()} as text: wider than DECIMAL({MAX_DECIMAL}), the widest most engines take"
+    if t.name == "null":
+        return "only nulls were seen: SQL has no null type, so a text column of NULLs"
+    return None
+
+
 def _staging_chars(col: Column) -> int:
     return max(col.plan.input_chars or 1, 1)
 
@@ -119,8 +139,13 @@ def create_table(rec: Recommendation, table: str) -> str:
     """CREATE TABLE for the target; NOT NULL where no value is ever missing."""
     if not columns(rec):
         return _NO_COLUMNS
-    lines = [f"  {quote(c.name)} {sql_type(c.plan)}{'' if _nullable(c) else ' NOT NULL'}" for c in columns(rec)]
-    return f"CREATE TABLE {quote(table)} (\n" + ",\n".join(lines) + "\n);\n"
+    cols = columns(rec)
+    lines = []
+    for i, c in enumerate(cols):
+        line = f"  {quote(c.name)} {sql_type(c.plan)}{'' if _nullable(c) else ' NOT NULL'}{',' * (i < len(cols) - 1)}"
+        note = None if c.json_text else stand_in(c.plan.target)
+        lines.append(line if note is None else f"{line}  -- {note}")
+    return f"CREATE TABLE {quote(table)} (\n" + "\n".join(lines) + "\n);\n"
 
 
 def _nullable(col: Column) -> bool:
