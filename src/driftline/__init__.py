@@ -69,6 +69,7 @@ def scan(
     max_decompression_ratio: float | None = None,
     max_columns: int | None = None,
     delimiter: str | None = None,
+    encoding: str | None = None,
     where: _Sequence[str] = (),
     engine: str = "local",
     scheduler: str | None = None,
@@ -84,7 +85,9 @@ def scan(
     max_errors stops reading new files after that many errors; the max_* limits (None:
     the defaults of ReadOptions) report a too-long record, too many decompressed bytes,
     too high a compression ratio or too many CSV columns instead of reading on; delimiter
-    fixes the CSV delimiter (sniffed otherwise); where keeps only key=value partitions
+    fixes the CSV delimiter (sniffed otherwise); encoding fixes the text encoding of CSV/TSV
+    and JSON files, a name Python's codecs know (found per file otherwise; an unknown name
+    raises ValueError); where keeps only key=value partitions
     that pass ('day>=2026-11-01'); engine 'dask' reads on a cluster (scheduler address,
     or local workers); endpoint_url, region and anonymous reach an S3-compatible store
     (credentials come from the environment, never from here); progress(done, total,
@@ -111,7 +114,7 @@ def scan(
         )
         if value is not None
     }
-    read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, **limits)
+    read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, encoding=encoding, **limits)
     storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
     return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                        jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,

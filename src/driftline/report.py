@@ -24,6 +24,7 @@ from driftline.observe.textclass import classify
 from driftline.profile import Profile
 from driftline.sources.base import FileIssue, FileResult
 from driftline.sources.discover import Skipped
+from driftline.sources.encoding import TextEncoding
 
 REPORT_FORMAT = "driftline-report"
 REPORT_VERSION = 1
@@ -93,6 +94,7 @@ def _file_json(f: FileResult, batches: bool) -> dict[str, Any]:
         "mtime_ns": f.mtime_ns,
         "rows": f.rows,
         "complete": f.complete,
+        "encoding": None if f.encoding is None else f.encoding.to_json(),
         "declared": f.declared,
         "issues": [i.to_json() for i in f.issues],
         "batches": [o.to_json() for o in f.observations] if batches else None,
@@ -119,6 +121,7 @@ def file_from_json(fd: Mapping[str, Any]) -> FileResult:
         issues=tuple(FileIssue.from_json(i) for i in fd.get("issues", [])),
         declared=fd.get("declared"),
         complete=fd.get("complete", True),
+        encoding=TextEncoding.from_json(fd.get("encoding")),
     )
 
 

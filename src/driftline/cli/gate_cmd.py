@@ -9,7 +9,7 @@ import orjson
 import typer
 from rich.console import Console
 
-from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
@@ -89,9 +89,10 @@ Exit codes: 0 the diff was made (changes are information); 2 usage or input erro
 
 
 def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int, max_errors: int | None,
-              max_record_bytes: int, delimiter: str | None, hidden: bool) -> ScanSettings:
+              max_record_bytes: int, delimiter: str | None, hidden: bool, encoding: str | None = None) -> ScanSettings:
     return ScanSettings(
-        read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter),
+        read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
+                         encoding=encoding),
         include=tuple(include), exclude=tuple(exclude), include_hidden=hidden, jobs=jobs, max_errors=max_errors,
     )
 
@@ -129,13 +130,14 @@ def check_command(
     max_errors: int | None = _MAXERR,
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
+    encoding: str | None = ENCODING_OPTION,
     hidden: bool = _HIDDEN,
 ) -> None:
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
     if json_out == "-" and junit == "-":
         raise InputPathError("--json and --junit cannot both write to stdout ('-')")
-    settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden)
+    settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden, encoding)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
@@ -169,9 +171,10 @@ def diff_command(
     jobs: int = _JOBS,
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
+    encoding: str | None = ENCODING_OPTION,
     hidden: bool = _HIDDEN,
 ) -> None:
-    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden)
+    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden, encoding)
 
     def load(side: str):  # noqa: ANN202 - a Profile
         return profile_of(side, read=s.read, include=s.include, exclude=s.exclude,

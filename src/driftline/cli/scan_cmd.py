@@ -11,7 +11,7 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
 import driftline
-from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
 from driftline.emit.atomic import write_output
 from driftline.emit.html import write_html
 from driftline.emit.safe import safe_text
@@ -137,6 +137,7 @@ def scan_command(
         help="A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch).",
     ),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
+    encoding: str | None = ENCODING_OPTION,
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option(
@@ -178,6 +179,7 @@ def scan_command(
             max_decompression_ratio=max_decompression_ratio,
             max_columns=max_columns,
             delimiter=delimiter,
+            encoding=encoding,
             where=where,
             engine=engine,
             scheduler=scheduler,

@@ -4,10 +4,13 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from driftline.observe.observation import Observation
 from driftline.observe.stats import pickled_by_fields
+
+if TYPE_CHECKING:
+    from driftline.sources.encoding import TextEncoding
 
 DEFAULT_BATCH_ROWS = 65_536
 DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
@@ -31,6 +34,8 @@ class ReadOptions:
     max_decompression_ratio stop once bytes out / bytes in exceeds this, past RATIO_FLOOR_BYTES
                             out (streams as they decompress; Parquet row groups by their footer)
     delimiter               CSV delimiter; None sniffs it from the first 64 KiB
+    encoding                text encoding of CSV/TSV/JSON files (a name Python's codecs know);
+                            None finds it per file from its first bytes (sources/encoding.py)
     exact                   take the exact per-record path everywhere (no columnar fast path);
                             the results are the same, only slower: for checking the fast path
 
@@ -48,8 +53,13 @@ class ReadOptions:
     max_decompression_ratio: float = DEFAULT_MAX_DECOMPRESSION_RATIO
     max_columns: int = DEFAULT_MAX_COLUMNS
     exact: bool = False
+    encoding: str | None = None
 
     def __post_init__(self) -> None:
+        if self.encoding is not None:
+            from driftline.sources.encoding import codec_name
+
+            codec_name(self.encoding)  # ValueError for a name Python's codecs do not know
         if self.batch_rows < 1:
             raise ValueError(f"batch_rows must be at least 1, got {self.batch_rows}")
         if self.max_record_bytes < 1:
@@ -126,6 +136,7 @@ class FileResult:
     declared: dict[str, str] | None = None  # Parquet footer: path → type key
     complete: bool = True  # False when a fatal problem stopped the read early
     digest: str | None = field(default=None, compare=False)
+    encoding: TextEncoding | None = None  # how a text file's bytes were decoded; None for Parquet
 
     @property
     def errors(self) -> int:
