@@ -348,3 +348,22 @@ def test_a_large_utf16_file_streams_in_bounded_memory(tmp_path: Path):
     assert not can_split(big, ReadOptions())
     assert can_split(big, ReadOptions(encoding="utf-8"))  # the encoding is what decides (pinned here)
     assert SAMPLE_BYTES == 64 * 1024
+
+
+def test_a_utf16_file_without_a_known_extension_is_sniffed_as_csv(tmp_path: Path):
+    f = tmp_path / "export"
+    f.write_bytes(CSV_TEXT.encode("utf-16"))  # source: Python's utf-16 codec (BOM, native order)
+    res = driftline.scan(f).files[0]
+    assert (res.format, res.rows, res.errors) == ("csv", 2, 0)
+    assert _first_text(res) == {"name": "René", "city": "Köln", "note": "café"}
+
+
+def test_apply_reads_raw_values_in_the_files_encoding(tmp_path: Path):
+    from driftline.recommend.raw import iter_records, raw_batches
+
+    f = tmp_path / "people.csv"
+    f.write_bytes(CSV_TEXT.encode("utf-16-be"))
+    (batch,) = list(raw_batches(f))
+    # source: Python's codecs: the text decoded from UTF-16 BE; raw cells are the 'text' child
+    assert batch.batch.column(1).to_pylist() == [{"text": "Köln"}, {"text": "Besançon"}]
+    assert [rec["note"] for _, _, rec in iter_records(f)] == ["café", "naïve"]

@@ -36,6 +36,7 @@ from driftline.observe.observation import TEXT_CLASS_TYPE
 from driftline.observe.textclass import class_of
 from driftline.sources.csvfile import sniff_delimiter
 from driftline.sources.discover import FileRef, discover
+from driftline.sources.encoding import TextStream
 from driftline.sources.formats import open_stream
 
 TEXT = "text"  # the variant child of CSV cells
@@ -209,10 +210,15 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
 
 # -- files ----------------------------------------------------------------------------------
 
+def _utf8_text(ref: FileRef) -> bytes:
+    """The file's text as UTF-8, in the encoding the scan finds for it (sources/encoding.py)."""
+    with open_stream(ref.path, ref.compression, limit=None) as stream:
+        return TextStream(stream, ref.format).stream.read()
+
+
 def _json_records(ref: FileRef) -> Iterator[Any]:
     """Valid records in scan order (a line that does not parse is skipped, as the scan does)."""
-    with open_stream(ref.path, ref.compression, limit=None) as stream:
-        data = stream.read()
+    data = _utf8_text(ref)
     if data.startswith(b"\xef\xbb\xbf"):
         data = data[3:]
     if ref.format == "json":
@@ -245,8 +251,7 @@ def _csv_names(head: bytes, delimiter: str) -> list[str]:
 
 
 def _csv_tables(ref: FileRef, batch_rows: int) -> Iterator[pa.Table]:
-    with open_stream(ref.path, ref.compression, limit=None) as stream:
-        data = stream.read()
+    data = _utf8_text(ref)
     head = data[: 64 * 1024]
     delimiter = "\t" if ref.format == "tsv" else sniff_delimiter(head)
     names = _csv_names(head, delimiter)
