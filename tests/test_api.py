@@ -61,6 +61,7 @@ DOCTEST_MODULES = [
     "driftline.observe.paths",
     "driftline.report",
     "driftline.sources.base",
+    "driftline.sources.encoding",
     "driftline.tables",
 ]
 
