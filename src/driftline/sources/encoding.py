@@ -91,8 +91,8 @@ _WINDOWS_1252 = _windows_1252_table()
 class _Windows1252Decoder(codecs.IncrementalDecoder):
     """A single-byte decoder that decodes every byte (no state: one byte is one character)."""
 
-    def decode(self, input: bytes, final: bool = False) -> str:  # noqa: A002 - the codecs signature
-        return codecs.charmap_decode(input, "strict", _WINDOWS_1252)[0]
+    def decode(self, input: Any, final: bool = False) -> str:  # noqa: A002 - the codecs signature
+        return codecs.charmap_decode(bytes(input), "strict", _WINDOWS_1252)[0]
 
 
 @dataclass(frozen=True, slots=True)
@@ -307,7 +307,7 @@ class _Prefixed(io.BufferedIOBase):
     def read(self, n: int | None = -1) -> bytes:
         head = self._head
         if not head:
-            return self._inner.read(n)
+            return self._inner.read(-1 if n is None else n)
         if n is not None and 0 <= n <= len(head):
             self._head = head[n:]
             return head[:n]
@@ -347,7 +347,7 @@ class TextStream:
             self.stream = _Prefixed(inner, head)  # type: ignore[assignment]
         else:
             self._transcoded = Transcoded(inner, head, self.encoding)
-            self.stream = io.BufferedReader(self._transcoded, buffer_size=_STEP)  # type: ignore[assignment]
+            self.stream = io.BufferedReader(self._transcoded, buffer_size=_STEP)
 
     @property
     def transcoded(self) -> bool:
