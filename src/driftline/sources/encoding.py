@@ -20,9 +20,8 @@ The decision looks at a head of at most SAMPLE_BYTES (linear cost, bounded memor
 Why windows-1252 and not ISO-8859-1 (Latin-1): both give the same characters for bytes
 0x00-0x7F and 0xA0-0xFF.  They differ on 0x80-0x9F, which Latin-1 maps to C1 control
 characters that text never holds, and windows-1252 to the characters real files hold there
-(euro sign, curly quotes, dashes).  Files labelled Latin-1 are written by Windows programs
-more often than not, which is why the WHATWG Encoding Standard decodes the label
-"iso-8859-1" as windows-1252.  Its windows-1252 maps the five bytes the code page leaves
+(euro sign, curly quotes, dashes).  Text labelled Latin-1 is so often windows-1252 in
+practice that the WHATWG Encoding Standard decodes the label "iso-8859-1" as windows-1252.  Its windows-1252 maps the five bytes the code page leaves
 unassigned (0x81 0x8D 0x8F 0x90 0x9D) to the C1 controls of the same number, so every byte
 decodes; that is the decoding used here (Python's cp1252 codec rejects those five).
 
@@ -32,8 +31,9 @@ count bytes of that UTF-8 text, not of the file, so they are left out for such a
 (readers.py); the line numbers stay exact.  Bytes the encoding cannot decode become
 U+FFFD, each line that held some reported once.
 
-JSON between systems must be UTF-8 (RFC 8259 section 8.1); a JSON file found in another
-encoding is still read, with a warning that says so.
+JSON between systems must be UTF-8 (RFC 8259 section 8.1); a JSON file found in UTF-16 or
+UTF-32 is still read (the practitioner's choice, as Python's json.loads does from bytes),
+with a warning that says so.
 """
 
 from __future__ import annotations
