@@ -63,6 +63,7 @@ DOCTEST_MODULES = [
     "driftline.sources.base",
     "driftline.sources.dialect",
     "driftline.sources.dialectpin",
+    "driftline.sources.encoding",
     "driftline.tables",
 ]
 

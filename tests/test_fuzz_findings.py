@@ -21,7 +21,7 @@ def test_ragged_csv_row_with_invalid_utf8_does_not_lose_the_file(tmp_path):
     # sources/csvfile.py: undecodable bytes become U+FFFD before pyarrow sees them.
     f = tmp_path / "rag.csv"
     f.write_bytes(b"a,b\n1,2\n3,4,\xff\xfe\n5,6\n")
-    res = _read(f)
+    res = _read(f, encoding="utf-8")  # pinned: alone, these bytes would be read as windows-1252
     assert res.rows == 2
     assert [(i.kind, i.line, i.byte_offset) for i in res.issues] == [
         ("invalid-utf8", 3, len(b"a,b\n1,2\n3,4,")),
@@ -30,11 +30,12 @@ def test_ragged_csv_row_with_invalid_utf8_does_not_lose_the_file(tmp_path):
 
 
 def test_latin1_csv_reports_each_line_once_and_counts_the_rest(tmp_path):
-    # The same fix on a whole file in Latin-1 (common from legacy exports): one problem per
-    # line for the first 20 lines, then one count, and every row is profiled.
+    # The same fix on a whole file in Latin-1 read as UTF-8 (pinned: found alone, it is read
+    # as windows-1252, tests/test_encoding.py): one problem per line for the first 20 lines,
+    # then one count, and every row is profiled.
     f = tmp_path / "latin1.csv"
     f.write_bytes(b"name,city\n" + "".join(f"Ren\u00e9{i},K\u00f6ln\n" for i in range(50)).encode("latin-1"))
-    res = _read(f)
+    res = _read(f, encoding="utf-8")
     assert res.rows == 50
     bad = [i for i in res.issues if i.kind == "invalid-utf8"]
     assert [i.line for i in bad[:20]] == list(range(2, 22))

@@ -70,6 +70,7 @@ def scan(
     max_columns: int | None = None,
     delimiter: str | None = None,
     csv_dialect: str | _Sequence[str] = (),
+    encoding: str | None = None,
     where: _Sequence[str] = (),
     engine: str = "local",
     scheduler: str | None = None,
@@ -87,7 +88,9 @@ def scan(
     too high a compression ratio or too many CSV columns instead of reading on; delimiter
     fixes the CSV delimiter (found from the data otherwise); csv_dialect pins more of the
     CSV dialect, per glob ('legacy/*.csv:delimiter=pipe,quote=none,header=no', one
-    string or several; what a pin leaves open is still found); where keeps only key=value partitions
+    string or several; what a pin leaves open is still found); encoding fixes the text encoding of CSV/TSV
+    and JSON files, a name Python's codecs know (found per file otherwise; an unknown name
+    raises ValueError); where keeps only key=value partitions
     that pass ('day>=2026-11-01'); engine 'dask' reads on a cluster (scheduler address,
     or local workers); endpoint_url, region and anonymous reach an S3-compatible store
     (credentials come from the environment, never from here); progress(done, total,
@@ -115,7 +118,7 @@ def scan(
         if value is not None
     }
     pins = (csv_dialect,) if isinstance(csv_dialect, str) else tuple(csv_dialect)
-    read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, csv_dialects=pins, **limits)
+    read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, csv_dialects=pins, encoding=encoding, **limits)
     storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
     return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                        jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,

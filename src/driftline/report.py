@@ -25,6 +25,7 @@ from driftline.profile import Profile
 from driftline.sources.base import FileIssue, FileResult
 from driftline.sources.dialect import Dialect
 from driftline.sources.discover import Skipped
+from driftline.sources.encoding import TextEncoding
 
 REPORT_FORMAT = "driftline-report"
 REPORT_VERSION = 1
@@ -94,6 +95,7 @@ def _file_json(f: FileResult, batches: bool) -> dict[str, Any]:
         "mtime_ns": f.mtime_ns,
         "rows": f.rows,
         "complete": f.complete,
+        "encoding": None if f.encoding is None else f.encoding.to_json(),
         "declared": f.declared,
         "dialect": f.dialect.to_json() if f.dialect is not None else None,
         "issues": [i.to_json() for i in f.issues],
@@ -122,6 +124,7 @@ def file_from_json(fd: Mapping[str, Any]) -> FileResult:
         declared=fd.get("declared"),
         complete=fd.get("complete", True),
         dialect=Dialect.from_json(fd["dialect"]) if fd.get("dialect") else None,
+        encoding=TextEncoding.from_json(fd.get("encoding")),
     )
 
 

@@ -59,6 +59,24 @@ def handles_errors(fn: F) -> F:
     return wrapper  # type: ignore[return-value]
 
 
+def _known_encoding(value: str | None) -> str | None:
+    from driftline.sources.encoding import codec_name
+
+    if value is not None:
+        try:
+            codec_name(value)
+        except ValueError as exc:
+            raise typer.BadParameter(str(exc)) from None  # usage error: exit 2, never a traceback
+    return value
+
+
+ENCODING_OPTION: Any = typer.Option(
+    None, "--encoding", metavar="NAME", callback=_known_encoding,
+    help="Text encoding of CSV/TSV/JSON files (a Python codec name: utf-8, utf-16, latin-1, cp1252...); "
+    "found per file from its first 64 KiB when not given.",
+)
+
+
 def _version(value: bool) -> None:
     if value:
         print(f"driftline {__version__}")

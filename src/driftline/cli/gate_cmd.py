@@ -9,7 +9,7 @@ import orjson
 import typer
 from rich.console import Console
 
-from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.scan_cmd import CSV_DIALECT_HELP, _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
@@ -89,10 +89,11 @@ Exit codes: 0 the diff was made (changes are information); 2 usage or input erro
 
 
 def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int, max_errors: int | None,
-              max_record_bytes: int, delimiter: str | None, hidden: bool, csv_dialect: list[str]) -> ScanSettings:
+              max_record_bytes: int, delimiter: str | None, hidden: bool, csv_dialect: list[str],
+              encoding: str | None = None) -> ScanSettings:
     return ScanSettings(
         read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
-                         csv_dialects=tuple(csv_dialect)),
+                         csv_dialects=tuple(csv_dialect), encoding=encoding),
         include=tuple(include), exclude=tuple(exclude), include_hidden=hidden, jobs=jobs, max_errors=max_errors,
     )
 
@@ -132,6 +133,7 @@ def check_command(
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
     csv_dialect: list[str] = _DIALECT,
+    encoding: str | None = ENCODING_OPTION,
     hidden: bool = _HIDDEN,
 ) -> None:
     if (verify or rebuild) and state is None:
@@ -139,7 +141,7 @@ def check_command(
     if json_out == "-" and junit == "-":
         raise InputPathError("--json and --junit cannot both write to stdout ('-')")
     settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden,
-                         csv_dialect)
+                         csv_dialect, encoding)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
@@ -174,9 +176,11 @@ def diff_command(
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
     csv_dialect: list[str] = _DIALECT,
+    encoding: str | None = ENCODING_OPTION,
     hidden: bool = _HIDDEN,
 ) -> None:
-    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden, csv_dialect)
+    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden, csv_dialect,
+                  encoding)
 
     def load(side: str):  # noqa: ANN202 - a Profile
         return profile_of(side, read=s.read, include=s.include, exclude=s.exclude,

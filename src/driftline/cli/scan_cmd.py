@@ -11,7 +11,7 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
 import driftline
-from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
 from driftline.emit.atomic import write_output
 from driftline.emit.html import write_html
 from driftline.emit.safe import safe_text
@@ -146,6 +146,7 @@ def scan_command(
     ),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data if not given."),
     csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
+    encoding: str | None = ENCODING_OPTION,
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option(
@@ -188,6 +189,7 @@ def scan_command(
             max_columns=max_columns,
             delimiter=delimiter,
             csv_dialect=csv_dialect,
+            encoding=encoding,
             where=where,
             engine=engine,
             scheduler=scheduler,

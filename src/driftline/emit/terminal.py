@@ -19,6 +19,7 @@ from driftline.report import partition_types
 
 MAX_EVENTS_SHOWN = 200
 MAX_ISSUES_SHOWN = 50
+MAX_ENCODINGS_SHOWN = 10
 
 
 def _pct(part: int, whole: int) -> str:
@@ -68,6 +69,9 @@ def overview(profile: Profile) -> Text:
     if parts:
         text.append("\npartitions: ")
         text.append(", ".join(f"{safe_text(k)} ({v['type']}, {len(v['values'])} values)" for k, v in parts.items()))
+    encodings = encodings_line(profile)
+    if encodings:
+        text.append("\n" + encodings)
     return text
 
 
@@ -92,6 +96,20 @@ def dialects_block(profile: Profile) -> Text:
         text.append(", ".join(safe_text(rel, 80) for rel, _, _ in files[:MAX_DIALECT_FILES_SHOWN]))
         text.append("\n")
     return text
+
+
+def encodings_line(profile: Profile) -> str:
+    """The text files not read as UTF-8, each with its encoding and how it was found; '' when
+    every text file was UTF-8."""
+    text_files = [f for f in profile.files if f.encoding is not None]
+    other = [f for f in text_files if not f.encoding.is_utf8]  # type: ignore[union-attr]
+    if not other:
+        return ""
+    parts = [f"{safe_text(f.rel)} {f.encoding.describe()}" for f in other[:MAX_ENCODINGS_SHOWN]]  # type: ignore[union-attr]
+    if len(other) > MAX_ENCODINGS_SHOWN:
+        parts.append(f"… {len(other) - MAX_ENCODINGS_SHOWN} more in the JSON report")
+    utf8 = len(text_files) - len(other)
+    return "text encodings: " + (f"{utf8} files utf-8; " if utf8 else "") + "; ".join(parts)
 
 
 def fields_table(profile: Profile) -> Table:

@@ -36,6 +36,7 @@ from driftline.observe.textclass import class_of
 from driftline.sources.base import ReadOptions
 from driftline.sources.csvfile import arrow_options, head_of
 from driftline.sources.discover import FileRef, discover
+from driftline.sources.encoding import TextStream
 from driftline.sources.formats import open_stream
 
 TEXT = "text"  # the variant child of CSV cells
@@ -221,10 +222,15 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
 
 # -- files ----------------------------------------------------------------------------------
 
+def _utf8_text(ref: FileRef) -> bytes:
+    """The file's text as UTF-8, in the encoding the scan finds for it (sources/encoding.py)."""
+    with open_stream(ref.path, ref.compression, limit=None) as stream:
+        return TextStream(stream, ref.format).stream.read()
+
+
 def _json_records(ref: FileRef) -> Iterator[Any]:
     """Valid records in scan order (a line that does not parse is skipped, as the scan does)."""
-    with open_stream(ref.path, ref.compression, limit=None) as stream:
-        data = stream.read()
+    data = _utf8_text(ref)
     if data.startswith(b"\xef\xbb\xbf"):
         data = data[3:]
     if ref.format == "json":
@@ -247,8 +253,7 @@ def _json_records(ref: FileRef) -> Iterator[Any]:
 def _csv_tables(ref: FileRef, batch_rows: int) -> Iterator[pa.Table]:
     # The scan's dialect and header rules (sources/dialect.py, csvfile.head_of): the same
     # columns, names and rows as the scan reads.
-    with open_stream(ref.path, ref.compression, limit=None) as stream:
-        data = stream.read()
+    data = _utf8_text(ref)
     _, header = head_of(io.BytesIO(data), ref.rel, ReadOptions(), tsv=ref.format == "tsv")
     if header is None:
         return

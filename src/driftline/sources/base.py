@@ -4,13 +4,16 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from driftline.errors import PolicyError
 from driftline.observe.observation import Observation
 from driftline.observe.stats import pickled_by_fields
 from driftline.sources.dialect import Dialect
 from driftline.sources.dialectpin import parse_pin
+
+if TYPE_CHECKING:
+    from driftline.sources.encoding import TextEncoding
 
 DEFAULT_BATCH_ROWS = 65_536
 DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
@@ -36,6 +39,8 @@ class ReadOptions:
     delimiter               CSV delimiter; None finds it (sources/dialect.py)
     csv_dialects            pins of the CSV dialect, '[GLOB:]KEY=VALUE[,KEY=VALUE…]' each (parse_pin);
                             what a pin leaves open is still found from the data
+    encoding                text encoding of CSV/TSV/JSON files (a name Python's codecs know);
+                            None finds it per file from its first bytes (sources/encoding.py)
     exact                   take the exact per-record path everywhere (no columnar fast path);
                             the results are the same, only slower: for checking the fast path
 
@@ -54,8 +59,13 @@ class ReadOptions:
     max_columns: int = DEFAULT_MAX_COLUMNS
     exact: bool = False
     csv_dialects: tuple[str, ...] = ()
+    encoding: str | None = None
 
     def __post_init__(self) -> None:
+        if self.encoding is not None:
+            from driftline.sources.encoding import codec_name
+
+            codec_name(self.encoding)  # ValueError for a name Python's codecs do not know
         if self.batch_rows < 1:
             raise ValueError(f"batch_rows must be at least 1, got {self.batch_rows}")
         if self.max_record_bytes < 1:
@@ -147,6 +157,7 @@ class FileResult:
     complete: bool = True  # False when a fatal problem stopped the read early
     dialect: Dialect | None = None  # CSV / TSV: how the file is written (found or pinned)
     digest: str | None = field(default=None, compare=False)
+    encoding: TextEncoding | None = None  # how a text file's bytes were decoded; None for Parquet
 
     @property
     def errors(self) -> int:

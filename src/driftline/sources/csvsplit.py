@@ -37,6 +37,7 @@ from driftline.observe.strprofile import exact_requested
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import CsvState, Header, Rebatch, arrow_options, head_of
 from driftline.sources.discover import FileRef
+from driftline.sources.encoding import file_encoding
 from driftline.sources.readers import file_changed, read_file
 
 FORMATS = ("csv", "tsv")
@@ -340,7 +341,8 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
     return FileResult(rel=ref.rel, format=ref.format, compression=ref.compression, partitions=ref.partitions,
                       size=ref.size, mtime_ns=ref.mtime_ns, rows=sum(o.rows for o in observations),
                       observations=observations, issues=results[0].span.head.warnings, declared=None, complete=True,
-                      dialect=results[0].span.head.header.dialect)
+                      dialect=results[0].span.head.header.dialect,
+                      encoding=file_encoding(ref.path, ref.format, opts.encoding))
 
 
 def _joined(results: Sequence[SpanResult]) -> bool:

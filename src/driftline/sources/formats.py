@@ -10,6 +10,7 @@ from collections.abc import Callable
 from typing import Any, BinaryIO
 
 from driftline.sources.base import RATIO_FLOOR_BYTES
+from driftline.sources.encoding import decide
 
 COMPRESSION_BY_SUFFIX = {".gz": "gzip", ".gzip": "gzip", ".bz2": "bz2", ".zst": "zstd", ".zstd": "zstd", ".xz": "xz"}
 FORMAT_BY_SUFFIX = {
@@ -65,6 +66,9 @@ def sniff_format(path: str) -> str | None:
             head = stream.read(4096)
     except decode_errors():
         return None
+    enc = decide(head, whole=len(head) < 4096, fallback=False)
+    if not enc.is_utf8:  # UTF-16/32 (sources/encoding.py): sniff the text, not its NUL bytes
+        head = head[enc.bom :].decode(enc.name, "ignore").encode()
     text = head.lstrip(b"\xef\xbb\xbf").lstrip()
     if text.startswith(b"{"):
         return "jsonl"

@@ -19,6 +19,7 @@ from typing import Any
 from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.discover import FileRef
+from driftline.sources.encoding import file_encoding
 from driftline.sources.jsonfile import read_jsonl
 
 SPLIT_MIN_BYTES = 48 * 2**20  # smaller files are one task: a range must outweigh its set-up
@@ -149,4 +150,5 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
     issues = results[-1].issues if results else ()
     return FileResult(rel=ref.rel, format=ref.format, compression=ref.compression, partitions=ref.partitions,
                       size=ref.size, mtime_ns=ref.mtime_ns, rows=sum(o.rows for o in observations),
-                      observations=tuple(observations), issues=issues, declared=None, complete=True)
+                      observations=tuple(observations), issues=issues, declared=None, complete=True,
+                      encoding=file_encoding(ref.path, ref.format, opts.encoding))

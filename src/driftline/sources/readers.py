@@ -6,6 +6,7 @@ import hashlib
 import io
 import os
 from collections.abc import Callable, Iterator, Sequence
+from dataclasses import replace
 from typing import Any
 
 from driftline.observe.bulk import Batch, observe_batches
@@ -14,6 +15,7 @@ from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import read_csv
 from driftline.sources.dialect import Dialect
 from driftline.sources.discover import FileRef
+from driftline.sources.encoding import TextEncoding, TextStream
 from driftline.sources.formats import CountingRaw, LimitExceeded, open_stream
 from driftline.sources.jsonfile import read_json, read_jsonl
 from driftline.sources.parquetfile import read_parquet
@@ -146,6 +148,7 @@ class _Read:
         self.issues: list[FileIssue] = []
         self.declared: dict[str, str] | None = None
         self.dialect: Dialect | None = None
+        self.encoding: TextEncoding | None = None
         self.complete = True
         self.opened = True  # False: the file could not even be opened; nothing more is checked
 
@@ -181,7 +184,8 @@ class _Read:
             if change is not None:
                 self.complete = False
                 issues.append(FileIssue(ref.rel, "changed", change))
-        return _result(ref, observations, issues, self.declared, self.complete, self.dialect)
+        return _result(ref, observations, issues, self.declared, self.complete, self.dialect,
+                       self.encoding)
 
 
 def _unobserved_issue(rel: str, column: str, why: str, row: int) -> FileIssue:
@@ -235,11 +239,19 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
         return
     safe = _SafeStream(raw)
     with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
-        for item in _items(ref, opts, stream):
+        text = TextStream(stream, ref.format, opts.encoding)
+        read.encoding = text.encoding
+        read.issues.extend(text.issues(ref.rel))
+        for item in _items(ref, opts, text.stream):
             if isinstance(item, Dialect):
                 read.dialect = item
+            elif isinstance(item, FileIssue):
+                # The readers count bytes of the UTF-8 text they see, which are not the file's
+                # when it was transcoded: only the line is kept then.
+                read.issues.append(replace(item, byte_offset=None) if text.transcoded else item)
             else:
-                (read.issues if isinstance(item, FileIssue) else read.parts).append(item)
+                read.parts.append(item)
+        read.issues.extend(text.transcoding_issues(ref.rel))
     if safe.failure is not None:
         read.complete = False
         kind, msg = _describe_failure(safe.failure, ref.compression)
@@ -253,6 +265,7 @@ def _result(
     declared: dict[str, str] | None,
     complete: bool,
     dialect: Dialect | None = None,
+    encoding: TextEncoding | None = None,
 ) -> FileResult:
     return FileResult(
         rel=ref.rel,
@@ -267,12 +280,11 @@ def _result(
         declared=declared,
         complete=complete,
         dialect=dialect,
+        encoding=encoding,
     )
 
 
 def _with_digest(result: FileResult, path: str) -> FileResult:
-    from dataclasses import replace
-
     h = hashlib.blake2b(digest_size=16)
     try:
         with open(path, "rb") as fh:

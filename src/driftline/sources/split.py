@@ -12,6 +12,7 @@ from typing import Any
 from driftline.sources import csvsplit, jsonsplit
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef
+from driftline.sources.encoding import file_encoding
 
 
 def _module(ref: FileRef) -> Any:
@@ -19,7 +20,14 @@ def _module(ref: FileRef) -> Any:
 
 
 def can_split(ref: FileRef, opts: ReadOptions) -> bool:
-    return bool(_module(ref).can_split(ref, opts))
+    # Spans are cut and read as UTF-8 bytes: a file in another encoding goes to the one
+    # reader, which transcodes it as it streams.
+    if not _module(ref).can_split(ref, opts):
+        return False
+    try:
+        return file_encoding(ref.path, ref.format, opts.encoding).is_utf8
+    except OSError:  # one reader reports why the file cannot be read
+        return False
 
 
 def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Any]:
