@@ -37,6 +37,7 @@ from driftline.observe.textclass import class_of
 from driftline.sources.csvfile import sniff_delimiter
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.formats import open_stream
+from driftline.sources.native import hand, hand_bytes
 
 TEXT = "text"  # the variant child of CSV cells
 _INT64 = (-(2**63), 2**63 - 1)
@@ -253,10 +254,10 @@ def _csv_tables(ref: FileRef, batch_rows: int) -> Iterator[pa.Table]:
     if not names:
         return
     table = pcsv.read_csv(
-        io.BytesIO(data.removeprefix(b"\xef\xbb\xbf")),
+        pa.BufferReader(hand_bytes(data.removeprefix(b"\xef\xbb\xbf"))),
         read_options=pcsv.ReadOptions(use_threads=False, column_names=names, skip_rows=1),
         parse_options=pcsv.ParseOptions(delimiter=delimiter, newlines_in_values=True,
-                                        invalid_row_handler=lambda row: "skip"),
+                                        invalid_row_handler=hand(lambda row: "skip")),
         convert_options=pcsv.ConvertOptions(column_types={n: pa.string() for n in names},
                                             strings_can_be_null=False, quoted_strings_can_be_null=False),
     )

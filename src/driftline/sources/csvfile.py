@@ -22,6 +22,7 @@ from driftline.observe.columnar import observe_table
 from driftline.observe.observation import Observation
 from driftline.observe.valuebytes import value_view
 from driftline.sources.base import FileIssue, ReadOptions
+from driftline.sources.native import hand
 
 _SNIFF_BYTES = 64 * 1024
 _BLOCK = 8 * 1024 * 1024
@@ -274,7 +275,8 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         return "skip"
 
     try:
-        reader = pcsv.open_csv(buffered, **arrow_options(header, _block(opts), on_invalid))
+        # Arrow's threads may outlive this reader: what they hold is awaited at exit (native.py)
+        reader = pcsv.open_csv(hand(buffered), **arrow_options(header, _block(opts), hand(on_invalid)))
     except pa.ArrowInvalid as exc:
         if "Empty CSV file" not in str(exc):  # a header and no rows is an empty table, not a problem
             yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)

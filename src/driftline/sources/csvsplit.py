@@ -37,6 +37,7 @@ from driftline.observe.strprofile import exact_requested
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import CsvState, Header, Rebatch, arrow_options, head_of
 from driftline.sources.discover import FileRef
+from driftline.sources.native import hand, hand_bytes
 from driftline.sources.readers import file_changed, read_file
 
 FORMATS = ("csv", "tsv")
@@ -241,7 +242,7 @@ def read_span(span: Span, opts: ReadOptions) -> SpanResult:
     batches = Rebatch(opts.batch_rows)
     held: pa.RecordBatch | None = None  # Arrow's latest batch: its last row may be the marker
     try:
-        reader = pcsv.open_csv(pa.BufferReader(pa.py_buffer(data)), **arrow_options(header, _BLOCK, on_invalid))
+        reader = pcsv.open_csv(pa.BufferReader(hand_bytes(data)), **arrow_options(header, _BLOCK, hand(on_invalid)))
         while True:
             try:
                 rb = reader.read_next_batch()
