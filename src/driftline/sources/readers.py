@@ -13,7 +13,7 @@ from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import read_csv
 from driftline.sources.discover import FileRef
-from driftline.sources.formats import CountingRaw, LimitExceeded, open_stream
+from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
 from driftline.sources.jsonfile import read_json, read_jsonl
 from driftline.sources.parquetfile import read_parquet
 from driftline.sources.remote import is_url, open_random, open_stream_remote
@@ -43,6 +43,8 @@ class _SafeStream(CountingRaw):
 def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str, str]:
     if isinstance(exc, LimitExceeded):
         return "too-large", f"{exc}; rest of the file not profiled"
+    if isinstance(exc, CorruptStream):
+        return "corrupt", f"{exc}; rows before it were profiled"
     if isinstance(exc, EOFError) or "end" in str(exc).lower() and compression:
         return "truncated", f"{compression or 'file'} data ends early ({exc}); rows before it were profiled"
     if isinstance(exc, PermissionError):
@@ -214,9 +216,11 @@ def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Rea
 
 
 def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
+    notes: list[IgnoredTail] = []
     try:
         opener = open_stream_remote if is_url(ref.path) else open_stream
-        raw = opener(ref.path, ref.compression, limit=opts.max_decompressed_bytes, ratio=opts.max_decompression_ratio)
+        raw = opener(ref.path, ref.compression, limit=opts.max_decompressed_bytes, ratio=opts.max_decompression_ratio,
+                     notes=notes)
     except OSError as exc:
         kind, msg = _describe_failure(exc, None)
         read.not_opened(FileIssue(ref.rel, kind, f"cannot open: {msg}"))
@@ -229,6 +233,8 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
         read.complete = False
         kind, msg = _describe_failure(safe.failure, ref.compression)
         read.issues.append(FileIssue(ref.rel, kind, msg, byte_offset=safe.count if ref.compression is None else None))
+    for note in notes:
+        read.issues.append(FileIssue(ref.rel, "trailing-data", note.message(ref.size), "warning"))
 
 
 def _result(
