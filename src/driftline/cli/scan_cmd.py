@@ -31,8 +31,10 @@ SCAN_HELP = """Profile files and folders: fields, types, nulls, string content a
 
 Folders are walked recursively in sorted order; key=value folder names become partition
 values. Files starting with '.' or '_' are skipped and counted. Formats come from the
-extension (.jsonl .ndjson .json .csv .tsv .parquet, plus .gz .bz2 .zst .xz) or from the
-first bytes.
+extension (.jsonl .ndjson .json .csv .tsv .parquet, plus .gz .bz2 .zst .xz); a file
+without an extension is sniffed from its first bytes; one with another extension (.sql,
+.txt) is skipped and counted, or sniffed with --sniff-unknown. A path that exists is
+read as it is, even with [ ] * ? in its name; one that does not is a glob.
 
 Examples:
 
@@ -138,6 +140,12 @@ def scan_command(
     ),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
+    sniff_unknown: bool = typer.Option(
+        False,
+        "--sniff-unknown",
+        help="Also read files of other extensions (.txt, .dat...) whose first bytes look like JSON, CSV or Parquet; "
+        "without it they are skipped unopened. Files without an extension are always sniffed.",
+    ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option(
         "local",
@@ -173,6 +181,7 @@ def scan_command(
             include=include,
             exclude=exclude,
             include_hidden=hidden,
+            sniff_unknown=sniff_unknown,
             jobs=jobs,
             max_errors=max_errors,
             max_record_bytes=max_record_bytes,

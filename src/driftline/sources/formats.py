@@ -5,6 +5,7 @@ from __future__ import annotations
 import bz2
 import io
 import lzma
+import re
 import zlib
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -46,14 +47,53 @@ def detect_compression(path: str) -> str | None:
     return None
 
 
-def detect_format(path: str) -> str | None:
-    """Format from the suffix before any compression suffix, else by sniffing the first bytes."""
+_EXTENSION = re.compile(r"\.[a-z][a-z0-9]{0,9}")  # '.csv', '.sql', '.c000'; not '.1' nor '.2024-01-01'
+
+
+def data_extension(path: str) -> str | None:
+    """The extension that names a file's format: its last suffix before any compression suffix,
+    or None when its name has none ('part-00000', 'data.gz', 'events.2024-01-01').
+
+    >>> data_extension("a/b.CSV.gz"), data_extension("schema.sql"), data_extension("part-00000.gz")
+    ('.csv', '.sql', None)
+    """
     sfx = _suffixes(path)
     while sfx and sfx[-1] in COMPRESSION_BY_SUFFIX:
         sfx.pop()
-    if sfx and sfx[-1] in FORMAT_BY_SUFFIX:
-        return FORMAT_BY_SUFFIX[sfx[-1]]
-    return sniff_format(path)
+    return sfx[-1] if sfx and _EXTENSION.fullmatch(sfx[-1]) else None
+
+
+def detect_format(path: str, *, sniff_unknown: bool = False) -> str | None:
+    """Format from the extension (data_extension); a name without one is sniffed from its first
+    bytes, and so is a name with an extension driftline does not read when sniff_unknown is set.
+    Otherwise such a file is only checked for Parquet's magic number at both ends ('x.parquet.
+    encrypted'), which no text file carries by chance: the text in it (.sql, .txt, .md) is not
+    taken for CSV.  None: not a data file driftline reads (discovery skips it, with skip_reason)."""
+    ext = data_extension(path)
+    if ext in FORMAT_BY_SUFFIX:
+        return FORMAT_BY_SUFFIX[ext]
+    if ext is None or sniff_unknown:
+        return sniff_format(path)
+    return "parquet" if _parquet_magic(path) else None
+
+
+def _parquet_magic(path: str) -> bool:
+    # source: Apache Parquet file format: "PAR1" (or "PARE", encrypted footer) at the start and the end
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(4)
+            if head not in (b"PAR1", b"PARE") or fh.seek(0, io.SEEK_END) < 12:
+                return False
+            fh.seek(-4, io.SEEK_END)
+            return fh.read(4) == head
+    except OSError:
+        return False
+
+
+def skip_reason(path: str, sniff_unknown: bool = False) -> str:
+    """Why detect_format found no format: 'other-extension' (an extension driftline does not read,
+    such as .sql or .txt, never opened) or 'unknown-format' (sniffed, and not JSON, CSV or Parquet)."""
+    return "other-extension" if data_extension(path) is not None and not sniff_unknown else "unknown-format"
 
 
 def sniff_format(path: str) -> str | None:

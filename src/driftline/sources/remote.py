@@ -34,6 +34,7 @@ from driftline.sources.formats import (
     IgnoredTail,
     detect_compression,
     detect_format,
+    skip_reason,
     wrap_stream,
 )
 
@@ -238,7 +239,7 @@ def discover_remote(
             path = locator(bucket, key, storage)
             fmt = _format(rel, path)
             if fmt is None:
-                skipped.append(Skipped(rel, "unknown-format"))
+                skipped.append(Skipped(rel, skip_reason(rel)))
                 continue
             files[rel] = FileRef(path=path, rel=rel, partitions=partition_values(rel), format=fmt,
                                  compression=_compression(rel, path), size=size, mtime_ns=mtime_ns)
