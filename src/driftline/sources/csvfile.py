@@ -22,6 +22,7 @@ from driftline.observe.columnar import observe_table
 from driftline.observe.observation import Observation
 from driftline.observe.valuebytes import value_view
 from driftline.sources.base import FileIssue, ReadOptions
+from driftline.sources.linecount import LineTally, RowLines
 from driftline.sources.native import hand
 
 _SNIFF_BYTES = 64 * 1024
@@ -88,6 +89,7 @@ class LineGuard(io.RawIOBase):
         self.cut: tuple[int, int] | None = None  # (line, byte offset) of the over-long line
         self.bad_utf8: list[tuple[int, int]] = []  # (line, byte offset) of undecodable bytes
         self.bad_lines = 0
+        self.tally: LineTally | None = None  # sees every byte passed on (linecount.py)
 
     def readable(self) -> bool:
         return True
@@ -100,6 +102,8 @@ class LineGuard(io.RawIOBase):
         first_line, offset = self.lines + 1, self.consumed
         self.lines += data.count(b"\n")
         self.consumed += len(data)
+        if self.tally is not None:
+            self.tally.see(data, first_line - 1, self.lines)
         if not data.isascii():
             try:
                 data.decode("utf-8")
@@ -251,6 +255,7 @@ def head_of(stream: BinaryIO, rel: str, opts: ReadOptions, *,
 def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item]:
     """Stream a delimited text file in batches of at most opts.batch_rows rows."""
     guard = LineGuard(stream, opts.max_record_bytes)
+    tally = guard.tally = LineTally(None, "csv")  # blank lines and CR line ends, to place each row (linecount.py)
     buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
     header: Header | None = None
     for item in read_header(guard, buffered, rel, opts, tsv):
@@ -261,17 +266,11 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     if header is None:
         return
     header_lines = header.lines
-    ragged: list[FileIssue] = []
+    places = RowLines(rel, tally, header_lines + 1, header.names)
 
     def on_invalid(row: pcsv.InvalidRow) -> str:
-        ragged.append(
-            FileIssue(
-                rel,
-                "ragged-row",
-                f"expected {row.expected_columns} fields, found {row.actual_columns}; row skipped",
-                line=None if row.number is None else row.number + header_lines,
-            )
-        )
+        places.set_aside(row.number, row.text,
+                         f"expected {row.expected_columns} fields, found {row.actual_columns}; row skipped")
         return "skip"
 
     try:
@@ -280,9 +279,13 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     except pa.ArrowInvalid as exc:
         if "Empty CSV file" not in str(exc):  # a header and no rows is an empty table, not a problem
             yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=1)
+            yield from places.unplaced()
+        elif guard.cut is None:
+            yield from places.finish(0)
         yield from _ending(rel, opts, guard)
         return
-    state = CsvState(rel, opts, line=header_lines + 1)
+    state = CsvState(rel, opts, line=header_lines + 1, places=places)
+    stopped = False
     batches = Rebatch(opts.batch_rows)
     while True:
         try:
@@ -290,18 +293,18 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         except StopIteration:
             break
         except (pa.ArrowInvalid, OSError, EOFError) as exc:
-            yield from ragged
+            stopped = True
             yield from guard.take_issues(rel)
             yield FileIssue(rel, "malformed-csv", f"parsing stopped: {exc}", line=state.line, row=state.rows)
             break
-        yield from ragged
-        ragged.clear()
+        yield from places.ready()
         yield from guard.take_issues(rel)
         for batch in batches.add(rb):
             yield state.observe(batch)
-    yield from ragged
     for batch in batches.rest():
         yield state.observe(batch)
+    # Every line is a row, a set-aside row or a blank line, unless the reading stopped early.
+    yield from places.unplaced() if stopped or guard.cut is not None else places.finish(state.rows)
     yield from _ending(rel, opts, guard)
 
 
@@ -361,11 +364,13 @@ class CsvState:
     """Rows, batches and the line of the next row, from a given start (a file's first row, or
     a span's, see csvsplit)."""
 
-    def __init__(self, rel: str, opts: ReadOptions, line: int, rows: int = 0, batch: int = 0) -> None:
+    def __init__(self, rel: str, opts: ReadOptions, line: int, rows: int = 0, batch: int = 0,
+                 places: RowLines | None = None) -> None:
         self.rel, self.opts = rel, opts
         self.rows = rows
         self.batch = batch
         self.line = line  # line of the next row (exact unless blank or ragged lines intervene)
+        self.places = places  # when given, places each row on its line, blank and set-aside lines included
 
     def observe(self, cells: pa.RecordBatch) -> Observation:
         """One batch of binary cells observed as text.
@@ -388,6 +393,10 @@ class CsvState:
         n = cells.num_rows
         if n == 0:
             return []
+        if self.places is not None:
+            starts = self.places.starts(cells)
+            self.line = self.places.line
+            return starts
         multiline = [col for col in cells.columns if holds_newline(col)]
         if not multiline:  # the common case, found by one byte search per column
             starts: Sequence[int] = range(self.line, self.line + n)

@@ -37,6 +37,7 @@ from driftline.observe.strprofile import exact_requested
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import CsvState, Header, Rebatch, arrow_options, head_of
 from driftline.sources.discover import FileRef
+from driftline.sources.linecount import has_lone_cr
 from driftline.sources.native import hand, hand_bytes
 from driftline.sources.readers import file_changed, read_file
 
@@ -230,8 +231,8 @@ def read_span(span: Span, opts: ReadOptions) -> SpanResult:
     size = len(data) - len(marker)
     state = CsvState(span.ref.rel, opts, line=span.lines, rows=span.rows, batch=span.batches)
     failed = SpanResult(span, (), 0, span.lines, clean=False)
-    if not _utf8(data, size) or not _lines_within(data, size, opts.max_record_bytes):
-        return failed
+    if not _utf8(data, size) or not _lines_within(data, size, opts.max_record_bytes) or has_lone_cr(data):
+        return failed  # (a lone CR: one reader counts the lines, see linecount.py)
     ragged: list[pcsv.InvalidRow] = []
 
     def on_invalid(row: pcsv.InvalidRow) -> str:

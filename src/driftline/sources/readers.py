@@ -15,6 +15,7 @@ from driftline.sources.csvfile import read_csv
 from driftline.sources.discover import FileRef
 from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
 from driftline.sources.jsonfile import read_json, read_jsonl
+from driftline.sources.linecount import LineTally, jsonl_issue
 from driftline.sources.parquetfile import read_parquet
 from driftline.sources.remote import is_url, open_random, open_stream_remote
 
@@ -227,8 +228,15 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
         return
     safe = _SafeStream(raw)
     with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
-        for item in _items(ref, opts, stream):
+        # JSON Lines: lines counted apart, reconciled with rows, reported lines and blank lines
+        tally = LineTally(stream, "jsonl", opts.max_record_bytes) if ref.format == "jsonl" else None
+        for item in _items(ref, opts, tally or stream):
             (read.issues if isinstance(item, FileIssue) else read.parts).append(item)
+    if tally is not None:
+        rows = sum(p.rows for p in read.parts if isinstance(p, Observation))
+        unaccounted = jsonl_issue(ref.rel, tally, rows, read.issues)
+        if unaccounted is not None:
+            read.issues.append(unaccounted)
     if safe.failure is not None:
         read.complete = False
         kind, msg = _describe_failure(safe.failure, ref.compression)
