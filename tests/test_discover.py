@@ -113,6 +113,14 @@ def test_sniff_unknown_reads_files_of_other_extensions_that_look_like_data(tmp_p
     assert [(s.rel, s.reason) for s in sniffed.skipped] == [("readme.md", "unknown-format")]
 
 
+def test_a_file_named_on_its_own_is_read_whatever_its_extension(tmp_path: Path):
+    export = _touch(tmp_path / "export.txt", b"id,name\n1,a\n")
+    _touch(tmp_path / "other.txt", b"id,name\n2,b\n")
+    assert [(f.rel, f.format) for f in discover([str(export)]).files] == [("export.txt", "csv")]
+    globbed = discover([str(tmp_path / "*.txt")])  # a glob finds files as a folder does
+    assert globbed.files == () and [s.reason for s in globbed.skipped] == ["other-extension"] * 2
+
+
 def test_names_without_an_extension_are_still_sniffed(tmp_path: Path):
     import gzip
 

@@ -32,9 +32,10 @@ SCAN_HELP = """Profile files and folders: fields, types, nulls, string content a
 Folders are walked recursively in sorted order; key=value folder names become partition
 values. Files starting with '.' or '_' are skipped and counted. Formats come from the
 extension (.jsonl .ndjson .json .csv .tsv .parquet, plus .gz .bz2 .zst .xz); a file
-without an extension is sniffed from its first bytes; one with another extension (.sql,
-.txt) is skipped and counted, or sniffed with --sniff-unknown. A path that exists is
-read as it is, even with [ ] * ? in its name; one that does not is a glob.
+without an extension, or named on its own, is sniffed from its first bytes; one with
+another extension (.sql, .txt) found in a folder is skipped and counted, or sniffed with
+--sniff-unknown. A path that exists is read as it is, even with [ ] * ? in its name; one
+that does not is a glob.
 
 Examples:
 
@@ -143,8 +144,9 @@ def scan_command(
     sniff_unknown: bool = typer.Option(
         False,
         "--sniff-unknown",
-        help="Also read files of other extensions (.txt, .dat...) whose first bytes look like JSON, CSV or Parquet; "
-        "without it they are skipped unopened. Files without an extension are always sniffed.",
+        help="Also read files of other extensions (.txt, .dat...) found in folders whose first bytes look like JSON, "
+        "CSV or Parquet; without it they are skipped unread. Files without an extension, and files named on their "
+        "own, are always sniffed.",
     ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option(

@@ -131,16 +131,21 @@ def discover(
 
     A path that exists is taken as it is; only one that does not is expanded as a glob.
     Hidden files and markers (names starting with '.' or '_') are skipped and counted,
-    and so are folders of those names, unless include_hidden is set.  Files with an
-    extension driftline does not read (.sql, .txt, .md) are skipped as 'other-extension'
-    without being opened, unless sniff_unknown is set: then, as files without an extension
-    always are, they are read when their first bytes look like JSON, CSV/TSV or Parquet.
+    and so are folders of those names, unless include_hidden is set.  Files found in a
+    folder or by a glob with an extension driftline does not read (.sql, .txt, .md) are
+    skipped as 'other-extension' without being read, unless sniff_unknown is set: then, as
+    files without an extension always are, and as a file named on its own always is, they
+    are read when their first bytes look like JSON, CSV/TSV or Parquet.
     """
     if not paths:
         raise InputPathError("no input path given; name a file, a folder or a glob")
     expanded: list[str] = []
+    named: set[str] = set()  # files named as they are: read whatever their extension
     for p in paths:
-        expanded.extend(_expand(os.fspath(p)))
+        hits = _expand(os.fspath(p))
+        expanded.extend(hits)
+        if hits == [os.fspath(p)]:
+            named.add(os.path.abspath(hits[0]))
     absolute = [os.path.abspath(p) for p in expanded]
     root = _common_root(absolute)
     files: dict[str, FileRef] = {}
@@ -158,9 +163,10 @@ def discover(
             if verdict is not None:
                 skipped.append(Skipped(rel, verdict))
                 continue
-            fmt = detect_format(path, sniff_unknown=sniff_unknown)
+            sniff = sniff_unknown or path in named
+            fmt = detect_format(path, sniff_unknown=sniff)
             if fmt is None:
-                skipped.append(Skipped(rel, skip_reason(path, sniff_unknown)))
+                skipped.append(Skipped(rel, skip_reason(path, sniff)))
                 continue
             assert st is not None
             if rel in files and files[rel].path != path:
