@@ -169,7 +169,7 @@ def test_pythons_modules_decode_the_accepted_files_alike(tmp_path, name, suffix,
 
 
 def test_pythons_lzma_misjudges_padding_and_we_do_not(tmp_path):
-    # Why the reading is our own (failure 12 of the issue): CPython's lzma (and LZMAFile, which
+    # Why the reading is our own: CPython's lzma (and LZMAFile, which
     # the reader used) calls padding at the end a truncation, and takes padding followed by
     # another stream as trailing garbage: it stops there without an error, and the stream is lost.
     padded = lzma.compress(HEAD) + bytes(4)

@@ -67,7 +67,7 @@ def test_formats_by_extension_and_by_sniffing(tmp_path: Path):
     assert detect_format(str(csv_like)) == "csv"
 
 
-# -- files that are not data (issue 13, failure 9) ---------------------------------------------
+# -- files that are not data ------------------------------------------------------------------------
 
 def _parquet(path: Path, n: int) -> Path:
     import pyarrow as pa
@@ -163,7 +163,7 @@ def test_the_cli_names_the_files_it_did_not_read_for_their_extension(tmp_path: P
         in res.stderr
 
 
-# -- paths taken as globs (issue 13, failure 10) -------------------------------------------------
+# -- paths taken as globs -------------------------------------------------------------------------
 
 def test_an_existing_path_with_glob_characters_is_taken_literally(tmp_path: Path):
     _touch(tmp_path / "report[1].jsonl")

@@ -113,8 +113,8 @@ def test_blank_lines_and_multiline_cells_do_not_move_the_line_of_a_row(tmp_path)
 
 
 def test_a_csv_with_cr_line_ends_is_reported_not_read_as_empty(tmp_path):
-    # Failure 1 of issue 13 (a spreadsheet export with CR-only line ends read as 0 rows, no
-    # problem, exit 0): until the reader reads such files, the count of lines says so.
+    # A spreadsheet export with CR-only line ends was read as 0 rows, with no problem and
+    # exit 0: until the reader reads such files, the count of lines says so.
     path = tmp_path / "mac.csv"
     path.write_bytes(b"a,b\r1,2\r3,4\r5,6\r")
     res = read(path)
