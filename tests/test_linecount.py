@@ -207,7 +207,7 @@ def test_jsonl_rows_lost_inside_the_reader_are_reported(tmp_path, monkeypatch):
                              "reported, 0 blank lines): 1 lines unaccounted for; rows may be missing")
 
 
-def test_a_blank_line_longer_than_the_limit_is_the_readers_too_large_line(tmp_path):
+def test_a_blank_line_longer_than_the_limit_is_only_the_readers_too_large_line(tmp_path):
     path = tmp_path / "f.jsonl"
     path.write_bytes(b'{"a": 1}\n' + b" " * 5000 + b"\n\n")
     res = read(path, max_record_bytes=1000)

@@ -10,6 +10,8 @@ blank line, which Arrow skips without a word, takes one of its own.  That gives 
 each set-aside row its true line (Arrow numbers records, not lines), and at the end the lines
 placed must be the lines counted.  A difference no problem explains is reported itself.
 JSON Lines reconcile the same way (`jsonl_issue`): rows, lines set aside and blank lines.
+The counting costs one search of the bytes per block beyond the line feed count the reader
+makes anyway (none for JSON Lines, whose reader tells the blank lines it skipped).
 """
 
 from __future__ import annotations
@@ -26,14 +28,13 @@ import pyarrow.compute as pc
 from driftline.observe.valuebytes import value_view
 from driftline.sources.base import FileIssue
 
-# A blank line, found by the line feed before it: for Arrow's CSV reader an empty line (or one
-# holding only carriage returns, each an empty line of its own); for JSON Lines, whitespace only.
-_BLANK = {"csv": re.compile(rb"\n(?=(\r*)\n)"), "jsonl": re.compile(rb"\n(?=([ \t\r\x0b\x0c]*)\n)")}
-_BLANK_CHARS = {"csv": b"\r", "jsonl": b" \t\r\x0b\x0c"}
-_START = {"csv": re.compile(rb"\r*\n"), "jsonl": re.compile(rb"[ \t\r\x0b\x0c]*\n")}  # a blank line's end
+# A blank line for Arrow's CSV reader, found by the line feed before it: an empty line (or one
+# holding only carriage returns, each an empty line of its own).
+_BLANK = re.compile(rb"\n(?=\r*\n)")
+_START = re.compile(rb"\r*\n")  # the end of a blank line that began before the data
 # Where a blank line may start; a regular expression with a literal first byte is the fastest
 # search the standard library has for it (a line feed is too common for bytes.find to skip far).
-_MAYBE_BLANK = {"csv": re.compile(b"\n[\n\r]"), "jsonl": re.compile(rb"\n[\n\r \t\x0b\x0c]")}
+_MAYBE_BLANK = re.compile(b"\n[\n\r]")
 # Carriage returns that end a line for Arrow without a line feed, between two pieces of one LF
 # line: Arrow cuts it into two rows there.  (A CR next to a line end or another CR only adds
 # an empty line, which Arrow skips: "a,b\r\r\n" and "\r1,2\n" are one row each.)
@@ -56,16 +57,13 @@ class LineTally(io.RawIOBase):
     """Lines counted as the bytes of a text file go by, without parsing them.
 
     Either a binary stream passed through unchanged (JSON Lines), or fed by a reader that
-    counts line feeds already (`see`, from csvfile.LineGuard).  mode 'csv' or 'jsonl' says
-    which lines are blank (see _BLANK).
+    counts line feeds already (`see`, from csvfile.LineGuard).  mode 'csv' also finds the
+    blank lines (see _BLANK) and the CRs that cut lines; 'lines' counts line feeds only.
     """
 
-    def __init__(self, inner: BinaryIO | None, mode: str, limit: int | None = None) -> None:
+    def __init__(self, inner: BinaryIO | None, mode: str) -> None:
         self._inner = inner
-        self._blank, self._chars, self._maybe = _BLANK[mode], _BLANK_CHARS[mode], _MAYBE_BLANK[mode]
-        self._start = _START[mode]
-        self._limit = limit  # a longer blank line is the reader's too-large line, not a blank one
-        self._keep = mode == "csv"  # where the blank lines are: only rows placed on lines need it
+        self._csv = mode == "csv"  # 'lines': line feeds only (the JSON Lines reader tells its blank lines)
         self.lf = 0  # line feeds seen
         self.blanks: deque[int] = deque()  # line numbers of blank lines, in order
         self.blank_count = 0
@@ -93,11 +91,13 @@ class LineTally(io.RawIOBase):
         """The next bytes of the file, with the line feeds before them and after them."""
         if not data:
             return
-        if self._plen is not None:  # the current line, blank so far, may end blank at the start of data
-            m = self._start.match(data)
-            if m is not None:
-                self._blank_line(lf_before + 1, self._plen + m.end() - 1)
-        if self._maybe.search(data):
+        if not self._csv:
+            self.lf, self._last = lf_after, data[-1:]
+            return
+        # the current line, blank so far, may end blank at the start of data
+        if self._plen is not None and _START.match(data) is not None:
+            self._blank_line(lf_before + 1)
+        if _MAYBE_BLANK.search(data):
             self._find_blanks(data, lf_before)
         if self._last == b"\r" or b"\r" in data:
             self._count_cr(self._cr_carry + data, lf_before - self._cr_carry.count(b"\n"))
@@ -108,23 +108,21 @@ class LineTally(io.RawIOBase):
         cut = data.rfind(b"\n")
         if cut < 0:  # no line feed: the current line goes on
             if self._plen is not None:
-                self._plen = self._plen + len(data) if not data.strip(self._chars) else None
+                self._plen = self._plen + len(data) if not data.strip(b"\r") else None
         else:
             tail = data[cut + 1:]
-            self._plen = len(tail) if not tail.strip(self._chars) else None
+            self._plen = len(tail) if not tail.strip(b"\r") else None
 
-    def _blank_line(self, line: int, size: int) -> None:
-        if self._limit is None or size <= self._limit:
-            self.blank_count += 1
-            if self._keep:
-                self.blanks.append(line)
+    def _blank_line(self, line: int) -> None:
+        self.blank_count += 1
+        self.blanks.append(line)
 
     def _find_blanks(self, x: bytes, lf_base: int) -> None:
         pos, lf = 0, lf_base
-        for m in self._blank.finditer(x):
+        for m in _BLANK.finditer(x):
             lf += x.count(b"\n", pos, m.end())
             pos = m.end()
-            self._blank_line(lf + 1, len(m.group(1)))  # the blank line starts after m's line feed
+            self._blank_line(lf + 1)  # the blank line starts after m's line feed
 
     def _count_cr(self, x: bytes, lf_base: int) -> None:
         if _LONE_CR.search(x) is None:
@@ -146,10 +144,8 @@ class LineTally(io.RawIOBase):
 
     def end(self) -> None:
         """At the end of the data: a last line without a line feed may be blank too ('\\r' alone)."""
-        if self._plen and (self._limit is None or self._plen <= self._limit):
-            self.blank_count += 1
-            if self._keep:
-                self.blanks.append(self.lf + 1)
+        if self._plen and self._csv:
+            self._blank_line(self.lf + 1)
         self._plen = None
 
 
@@ -300,15 +296,15 @@ class RowLines:
         return out
 
 
-def jsonl_issue(rel: str, tally: LineTally, rows: int, issues: Sequence[FileIssue]) -> FileIssue | None:
-    """A problem when a JSON Lines file's lines are not all rows, blank, or a reported line."""
+def jsonl_issue(rel: str, tally: LineTally, rows: int, blanks: int, issues: Sequence[FileIssue]) -> FileIssue | None:
+    """A problem when a JSON Lines file's lines are not all rows, blank lines the reader skipped, or
+    reported lines (the line feeds are counted apart; the reader tells the blank lines it skipped)."""
     aside = sum(1 for i in issues if i.line is not None and i.kind in ("malformed-json", "too-large"))
-    tally.end()
     counted = tally.lines()
-    accounted = rows + aside + tally.blank_count
+    accounted = rows + aside + blanks
     if counted == accounted:
         return None
     return FileIssue(rel, "unaccounted-lines",
                      f"{counted:,} lines counted apart from the reader, {accounted:,} accounted for ({rows:,} rows, "
-                     f"{aside:,} lines reported, {tally.blank_count:,} blank lines): {counted - accounted:,} lines "
+                     f"{aside:,} lines reported, {blanks:,} blank lines): {counted - accounted:,} lines "
                      "unaccounted for; rows may be missing")

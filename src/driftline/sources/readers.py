@@ -73,9 +73,9 @@ def file_changed(ref: FileRef) -> str | None:
     return None
 
 
-def _items(ref: FileRef, opts: ReadOptions, stream: Any) -> Iterator[Any]:
+def _items(ref: FileRef, opts: ReadOptions, stream: Any, blanks: list[int] | None = None) -> Iterator[Any]:
     if ref.format == "jsonl":
-        return read_jsonl(stream, ref.rel, opts)
+        return read_jsonl(stream, ref.rel, opts, blank_read=blanks)
     if ref.format == "json":
         return read_json(stream, ref.rel, opts)
     return read_csv(stream, ref.rel, opts, tsv=ref.format == "tsv")
@@ -228,13 +228,14 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
         return
     safe = _SafeStream(raw)
     with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
-        # JSON Lines: lines counted apart, reconciled with rows, reported lines and blank lines
-        tally = LineTally(stream, "jsonl", opts.max_record_bytes) if ref.format == "jsonl" else None
-        for item in _items(ref, opts, tally or stream):
+        # JSON Lines: line feeds counted apart, reconciled with rows, reported lines and blank lines
+        tally = LineTally(stream, "lines") if ref.format == "jsonl" else None
+        blanks: list[int] = []
+        for item in _items(ref, opts, tally or stream, blanks):
             (read.issues if isinstance(item, FileIssue) else read.parts).append(item)
-    if tally is not None:
+    if tally is not None and blanks:
         rows = sum(p.rows for p in read.parts if isinstance(p, Observation))
-        unaccounted = jsonl_issue(ref.rel, tally, rows, read.issues)
+        unaccounted = jsonl_issue(ref.rel, tally, rows, blanks[0], read.issues)
         if unaccounted is not None:
             read.issues.append(unaccounted)
     if safe.failure is not None:
