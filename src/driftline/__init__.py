@@ -62,6 +62,7 @@ def scan(
     include: _Sequence[str] = (),
     exclude: _Sequence[str] = (),
     include_hidden: bool = False,
+    sniff_unknown: bool = False,
     jobs: int = 1,
     max_errors: int | None = None,
     max_record_bytes: int | None = None,
@@ -82,7 +83,9 @@ def scan(
     """Scan files, folders, globs or s3:// URLs (one, or a list of them) into a Profile.
 
     batch_rows bounds the rows per batch (drift is tracked batch by batch); include and
-    exclude are globs on the path or name; jobs reads files in parallel processes;
+    exclude are globs on the path or name; sniff_unknown also reads files of an extension
+    driftline does not read (.txt, .dat; else skipped unopened) when their first bytes look
+    like data; jobs reads files in parallel processes;
     max_errors stops reading new files after that many errors; the max_* limits (None:
     the defaults of ReadOptions) report a too-long record, too many decompressed bytes,
     too high a compression ratio or too many CSV columns instead of reading on; delimiter
@@ -121,8 +124,8 @@ def scan(
     read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, csv_dialects=pins, encoding=encoding, **limits)
     storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
     return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
-                       jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
-                       where=where, storage=storage)
+                       sniff_unknown=sniff_unknown, jobs=jobs, max_errors=max_errors, progress=progress,
+                       engine=engine, scheduler=scheduler, where=where, storage=storage)
 
 
 def check(

@@ -31,6 +31,7 @@ def scan_paths(
     include: Sequence[str] = (),
     exclude: Sequence[str] = (),
     include_hidden: bool = False,
+    sniff_unknown: bool = False,
     jobs: int = 1,
     max_errors: int | None = None,
     progress: Progress | None = None,
@@ -58,13 +59,14 @@ def scan_paths(
         found = discover_remote(paths, storage=storage, include=include, exclude=exclude,
                                 include_hidden=include_hidden, where=conditions)
     else:
-        found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden)
+        found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden,
+                         sniff_unknown=sniff_unknown)
         if conditions:
             found = replace(found, files=tuple(f for f in found.files if partitions_pass(f.partitions, conditions)))
     if not found.files:
         raise InputPathError(
             f"no readable data file under {', '.join(map(str, paths))} "
-            f"({len(found.skipped)} skipped); formats read: .jsonl .json .csv .tsv .parquet, optionally compressed"
+            f"({_skipped_summary(found.skipped)}); formats read: .jsonl .json .csv .tsv .parquet, optionally compressed"
         )
     read_all = _read_all
     if engine == "dask":
@@ -77,6 +79,19 @@ def scan_paths(
         results = _read_reusing(found.files, opts, jobs, max_errors, progress, reuse, read_all)
     options = {"batch_rows": opts.batch_rows, "include": list(include), "exclude": list(exclude)}
     return Profile(found.root, tuple(results), found.skipped, options, time.perf_counter() - started)
+
+
+def _skipped_summary(skipped: Sequence[Any]) -> str:
+    """'3 skipped: 2 other-extension, 1 hidden', and how to read the files of other extensions."""
+    if not skipped:
+        return "0 skipped"
+    counts: dict[str, int] = {}
+    for s in skipped:
+        counts[s.reason] = counts.get(s.reason, 0) + 1
+    text = f"{len(skipped)} skipped: " + ", ".join(f"{n} {r}" for r, n in sorted(counts.items()))
+    if "other-extension" in counts:
+        text += " (--sniff-unknown reads files of other extensions that look like data)"
+    return text
 
 
 def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,

@@ -31,8 +31,11 @@ SCAN_HELP = """Profile files and folders: fields, types, nulls, string content a
 
 Folders are walked recursively in sorted order; key=value folder names become partition
 values. Files starting with '.' or '_' are skipped and counted. Formats come from the
-extension (.jsonl .ndjson .json .csv .tsv .parquet, plus .gz .bz2 .zst .xz) or from the
-first bytes.
+extension (.jsonl .ndjson .json .csv .tsv .parquet, plus .gz .bz2 .zst .xz); a file
+without an extension, or named on its own, is sniffed from its first bytes; one with
+another extension (.sql, .txt) found in a folder is skipped and counted, or sniffed with
+--sniff-unknown. A path that exists is read as it is, even with [ ] * ? in its name; one
+that does not is a glob.
 
 Examples:
 
@@ -148,6 +151,13 @@ def scan_command(
     csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
     encoding: str | None = ENCODING_OPTION,
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
+    sniff_unknown: bool = typer.Option(
+        False,
+        "--sniff-unknown",
+        help="Also read files of other extensions (.txt, .dat...) found in folders whose first bytes look like JSON, "
+        "CSV or Parquet; without it they are skipped unread. Files without an extension, and files named on their "
+        "own, are always sniffed.",
+    ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option(
         "local",
@@ -172,6 +182,8 @@ def scan_command(
     region: str | None = typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
 ) -> None:
+    if html_out == "-" and json_out == "-":
+        raise typer.BadParameter("only one of --json and --html can write to stdout ('-')")
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         # The verb is the library call, option for option (tests/test_cli_api_same.py).
@@ -181,6 +193,7 @@ def scan_command(
             include=include,
             exclude=exclude,
             include_hidden=hidden,
+            sniff_unknown=sniff_unknown,
             jobs=jobs,
             max_errors=max_errors,
             max_record_bytes=max_record_bytes,
@@ -200,24 +213,23 @@ def scan_command(
         )
     finally:
         bar.close()
-    if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
-        render(profile, err_console)
-        raise InputPathError(
-            f"nothing readable: every one of {len(profile.files)} files failed (see the problems above)"
-        )
-    if html_out == "-" and json_out == "-":
-        raise typer.BadParameter("only one of --json and --html can write to stdout ('-')")
+    # Every file failed: the report (with the problems) is still written, then exit 2.
+    failed = profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files)
     if json_out is not None:
         write_output(json_out, dumps(profile))
     if html_out is not None:
         write_html(profile, html_out)
     if not quiet:
-        # Data goes to stdout; when the JSON report takes stdout, the summary moves to stderr.
-        console = err_console if "-" in (json_out, html_out) else Console(highlight=False)
+        # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
+        console = err_console if failed or "-" in (json_out, html_out) else Console(highlight=False)
         render(profile, console)
         if json_out not in (None, "-"):
             console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
         if html_out not in (None, "-"):
             console.print(f"HTML report written to {safe_text(Path(html_out))}", markup=False)
+    if failed:
+        hint = ("see the problems above" if not quiet else "the problems are in the report" if json_out or html_out
+                else "run without -q to see the problems")
+        raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed ({hint})")
     if profile.rows == 0 and not profile.files:
         raise typer.Exit(EXIT_USAGE)

@@ -65,6 +65,11 @@ def overview(profile: Profile) -> Text:
         f"{profile.rows:,} rows, {human_bytes(profile.bytes)}, {len(profile.fields)} fields, "
         f"{len(profile.skipped)} skipped, {errors} file errors, {profile.duration_s:.2f} s"
     )
+    other = [s.rel for s in profile.skipped if s.reason == "other-extension"]
+    if other:  # skipped unopened for their extension alone: say so, they may be data
+        names = ", ".join(safe_text(r, 60) for r in other[:3])
+        more = f" and {len(other) - 3:,} more" if len(other) > 3 else ""
+        text.append(f"\nskipped for their extension: {names}{more} (--sniff-unknown reads them)")
     parts = partition_types(profile)
     if parts:
         text.append("\npartitions: ")

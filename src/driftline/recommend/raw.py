@@ -38,6 +38,7 @@ from driftline.sources.csvfile import arrow_options, head_of
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.encoding import TextStream
 from driftline.sources.formats import open_stream
+from driftline.sources.native import hand, hand_bytes
 
 TEXT = "text"  # the variant child of CSV cells
 _INT64 = (-(2**63), 2**63 - 1)
@@ -261,9 +262,9 @@ def _csv_tables(ref: FileRef, batch_rows: int) -> Iterator[pa.Table]:
     if header.dialect is not None and header.dialect.line_end == "CR":
         body = body.replace(b"\r", b"\n")
     names = list(header.names)
-    options = arrow_options(header, 1 << 20, lambda row: "skip")
+    options = arrow_options(header, 1 << 20, hand(lambda row: "skip"))
     table = pcsv.read_csv(
-        io.BytesIO(body),
+        pa.BufferReader(hand_bytes(body)),
         read_options=pcsv.ReadOptions(use_threads=False, column_names=names, skip_rows=0),
         parse_options=options["parse_options"],
         convert_options=pcsv.ConvertOptions(column_types=dict.fromkeys(names, pa.string()),

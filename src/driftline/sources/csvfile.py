@@ -30,6 +30,8 @@ from driftline.sources.dialect import (
     pin_for,
     positional_name,
 )
+from driftline.sources.linecount import LineTally, RowLines
+from driftline.sources.native import hand
 
 _SNIFF_BYTES = 64 * 1024
 _BLOCK = 8 * 1024 * 1024
@@ -84,6 +86,7 @@ class LineGuard(io.RawIOBase):
         self.cut: tuple[int, int] | None = None  # (line, byte offset) of the over-long line
         self.bad_utf8: list[tuple[int, int]] = []  # (line, byte offset) of undecodable bytes
         self.bad_lines = 0
+        self.tally: LineTally | None = None  # sees every byte passed on (linecount.py)
 
     def readable(self) -> bool:
         return True
@@ -103,6 +106,8 @@ class LineGuard(io.RawIOBase):
                 data = self._scrub(data, first_line, offset)
         if self._comment is not None:
             data = self._blank_comments(data, first_line)
+        if self.tally is not None:  # after the comments are emptied: to the tally they are blank lines
+            self.tally.see(data, first_line - 1, self.lines)
         self._out = data
 
     def _blank_comments(self, data: bytes, first_line: int) -> bytes:
@@ -243,6 +248,8 @@ def read_header(stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool) -> Ite
     yield d
     yield from _dialect_notes(rel, sample, finding)
     guard = LineGuard(stream, opts.max_record_bytes, prefix=sample, cr=d.line_end == "CR", comment=d.comment)
+    # Blank lines, emptied comment lines and stray CRs, to place each row on its line (linecount.py)
+    guard.tally = LineTally(None, "csv")
     buffered = io.BufferedReader(guard, buffer_size=_SNIFF_BYTES)
     size = finding.start_bytes + (len(_BOM) if bom else 0)
     # The preamble and header pass through the guard, line by line (its output may differ from
@@ -342,28 +349,28 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         return
     guard, buffered, header = opened.guard, opened.buffered, opened.header
     header_lines = header.lines
-    ragged: list[FileIssue] = []
+    assert guard.tally is not None
+    places = RowLines(rel, guard.tally, header_lines + 1, header.names)
 
     def on_invalid(row: pcsv.InvalidRow) -> str:
-        ragged.append(
-            FileIssue(
-                rel,
-                "ragged-row",
-                f"expected {row.expected_columns} fields, found {row.actual_columns}; row skipped",
-                line=None if row.number is None else row.number + header_lines,
-            )
-        )
+        places.set_aside(row.number, row.text,
+                         f"expected {row.expected_columns} fields, found {row.actual_columns}; row skipped")
         return "skip"
 
-    state = CsvState(rel, opts, line=header_lines + 1, comment_lines=guard.comment_lines)
+    state = CsvState(rel, opts, line=header_lines + 1, places=places)
     try:
-        reader = pcsv.open_csv(buffered, **arrow_options(header, _block(opts), on_invalid))
+        # Arrow's threads may outlive this reader: what they hold is awaited at exit (native.py)
+        reader = pcsv.open_csv(hand(buffered), **arrow_options(header, _block(opts), hand(on_invalid)))
     except pa.ArrowInvalid as exc:
         if "Empty CSV file" not in str(exc):  # a header and no rows is an empty table, not a problem
             yield FileIssue(rel, "malformed-csv", f"cannot parse: {exc}", line=header_lines + 1)
+            yield from places.unplaced()
+        elif guard.cut is None:
+            yield from places.finish(0)
         yield state.observe(_no_rows(header))  # the header's columns, with no values
         yield from _ending(rel, opts, guard)
         return
+    stopped = False
     batches = Rebatch(opts.batch_rows)
     while True:
         try:
@@ -371,20 +378,20 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         except StopIteration:
             break
         except (pa.ArrowInvalid, OSError, EOFError) as exc:
-            yield from ragged
+            stopped = True
             yield from guard.take_issues(rel)
             yield FileIssue(rel, "malformed-csv", f"parsing stopped: {exc}", line=state.line, row=state.rows)
             break
-        yield from ragged
-        ragged.clear()
+        yield from places.ready()
         yield from guard.take_issues(rel)
         for batch in batches.add(rb):
             yield state.observe(batch)
-    yield from ragged
     for batch in batches.rest():
         yield state.observe(batch)
     if state.batch == 0:
         yield state.observe(_no_rows(header))
+    # Every line is a row, a set-aside row or a blank line, unless the reading stopped early.
+    yield from places.unplaced() if stopped or guard.cut is not None else places.finish(state.rows)
     yield from _ending(rel, opts, guard)
 
 
@@ -453,9 +460,10 @@ class CsvState:
     a span's, see csvsplit)."""
 
     def __init__(self, rel: str, opts: ReadOptions, line: int, rows: int = 0, batch: int = 0,
-                 comment_lines: deque[int] | None = None) -> None:
+                 comment_lines: deque[int] | None = None, places: RowLines | None = None) -> None:
         self.rel, self.opts = rel, opts
         self.comment_lines = comment_lines  # lines skipped between rows (LineGuard fills it ahead of the rows)
+        self.places = places  # when given, places each row on its line, blank and set-aside lines included
         self.rows = rows
         self.batch = batch
         self.line = line  # line of the next row (exact unless blank or ragged lines intervene)
@@ -481,6 +489,10 @@ class CsvState:
         n = cells.num_rows
         if n == 0:
             return []
+        if self.places is not None:
+            starts = self.places.starts(cells)
+            self.line = self.places.line
+            return starts
         multiline = [col for col in cells.columns if holds_newline(col)]
         if not multiline and not self.comment_lines:  # the common case, found by one byte search per column
             starts: Sequence[int] = range(self.line, self.line + n)

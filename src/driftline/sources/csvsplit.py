@@ -38,6 +38,8 @@ from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import CsvState, Header, Rebatch, arrow_options, head_of
 from driftline.sources.discover import FileRef
 from driftline.sources.encoding import file_encoding
+from driftline.sources.linecount import has_lone_cr
+from driftline.sources.native import hand, hand_bytes
 from driftline.sources.readers import file_changed, read_file
 
 FORMATS = ("csv", "tsv")
@@ -235,8 +237,8 @@ def read_span(span: Span, opts: ReadOptions) -> SpanResult:
     size = len(data) - len(marker)
     state = CsvState(span.ref.rel, opts, line=span.lines, rows=span.rows, batch=span.batches)
     failed = SpanResult(span, (), 0, span.lines, clean=False)
-    if not _utf8(data, size) or not _lines_within(data, size, opts.max_record_bytes):
-        return failed
+    if not _utf8(data, size) or not _lines_within(data, size, opts.max_record_bytes) or has_lone_cr(data):
+        return failed  # (a lone CR: one reader counts the lines, see linecount.py)
     ragged: list[pcsv.InvalidRow] = []
 
     def on_invalid(row: pcsv.InvalidRow) -> str:
@@ -247,7 +249,7 @@ def read_span(span: Span, opts: ReadOptions) -> SpanResult:
     batches = Rebatch(opts.batch_rows)
     held: pa.RecordBatch | None = None  # Arrow's latest batch: its last row may be the marker
     try:
-        reader = pcsv.open_csv(pa.BufferReader(pa.py_buffer(data)), **arrow_options(header, _BLOCK, on_invalid))
+        reader = pcsv.open_csv(pa.BufferReader(hand_bytes(data)), **arrow_options(header, _BLOCK, hand(on_invalid)))
         while True:
             try:
                 rb = reader.read_next_batch()

@@ -13,7 +13,7 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 
 from driftline.errors import InputPathError
-from driftline.sources.formats import detect_compression, detect_format
+from driftline.sources.formats import detect_compression, detect_format, skip_reason
 
 
 @dataclass(frozen=True, slots=True)
@@ -35,7 +35,7 @@ class Skipped:
 
     rel: str
     reason: str  # 'hidden' | 'marker' | 'excluded' | 'not-included' | 'special' | 'symlink-loop' | 'unknown-format'
-    #              | 'name-collision'
+    #              | 'other-extension' | 'name-collision'
 
 
 @dataclass(frozen=True, slots=True)
@@ -73,7 +73,8 @@ def _matches(rel: str, patterns: Sequence[str]) -> bool:
 
 
 def _expand(arg: str) -> list[str]:
-    if any(ch in arg for ch in "*?["):
+    # A path that exists is itself, before it is a pattern: 'report[1].csv' names one file.
+    if any(ch in arg for ch in "*?[") and not os.path.lexists(arg):
         hits = sorted(glob.glob(arg, recursive=True))
         if not hits:
             raise InputPathError(f"no file matches the pattern {arg!r}")
@@ -124,17 +125,27 @@ def discover(
     include: Sequence[str] = (),
     exclude: Sequence[str] = (),
     include_hidden: bool = False,
+    sniff_unknown: bool = False,
 ) -> Discovery:
     """Find the input files below paths, in sorted relative-path order.
 
+    A path that exists is taken as it is; only one that does not is expanded as a glob.
     Hidden files and markers (names starting with '.' or '_') are skipped and counted,
-    and so are folders of those names, unless include_hidden is set.
+    and so are folders of those names, unless include_hidden is set.  Files found in a
+    folder or by a glob with an extension driftline does not read (.sql, .txt, .md) are
+    skipped as 'other-extension' without being read, unless sniff_unknown is set: then, as
+    files without an extension always are, and as a file named on its own always is, they
+    are read when their first bytes look like JSON, CSV/TSV or Parquet.
     """
     if not paths:
         raise InputPathError("no input path given; name a file, a folder or a glob")
     expanded: list[str] = []
+    named: set[str] = set()  # files named as they are: read whatever their extension
     for p in paths:
-        expanded.extend(_expand(os.fspath(p)))
+        hits = _expand(os.fspath(p))
+        expanded.extend(hits)
+        if hits == [os.fspath(p)]:
+            named.add(os.path.abspath(hits[0]))
     absolute = [os.path.abspath(p) for p in expanded]
     root = _common_root(absolute)
     files: dict[str, FileRef] = {}
@@ -152,9 +163,10 @@ def discover(
             if verdict is not None:
                 skipped.append(Skipped(rel, verdict))
                 continue
-            fmt = detect_format(path)
+            sniff = sniff_unknown or path in named
+            fmt = detect_format(path, sniff_unknown=sniff)
             if fmt is None:
-                skipped.append(Skipped(rel, "unknown-format"))
+                skipped.append(Skipped(rel, skip_reason(path, sniff)))
                 continue
             assert st is not None
             if rel in files and files[rel].path != path:

@@ -5,8 +5,10 @@ from __future__ import annotations
 import bz2
 import io
 import lzma
+import re
 import zlib
 from collections.abc import Callable
+from dataclasses import dataclass
 from typing import Any, BinaryIO
 
 from driftline.sources.base import RATIO_FLOOR_BYTES
@@ -46,14 +48,53 @@ def detect_compression(path: str) -> str | None:
     return None
 
 
-def detect_format(path: str) -> str | None:
-    """Format from the suffix before any compression suffix, else by sniffing the first bytes."""
+_EXTENSION = re.compile(r"\.[a-z][a-z0-9]{0,9}")  # '.csv', '.sql', '.c000'; not '.1' nor '.2024-01-01'
+
+
+def data_extension(path: str) -> str | None:
+    """The extension that names a file's format: its last suffix before any compression suffix,
+    or None when its name has none ('part-00000', 'data.gz', 'events.2024-01-01').
+
+    >>> data_extension("a/b.CSV.gz"), data_extension("schema.sql"), data_extension("part-00000.gz")
+    ('.csv', '.sql', None)
+    """
     sfx = _suffixes(path)
     while sfx and sfx[-1] in COMPRESSION_BY_SUFFIX:
         sfx.pop()
-    if sfx and sfx[-1] in FORMAT_BY_SUFFIX:
-        return FORMAT_BY_SUFFIX[sfx[-1]]
-    return sniff_format(path)
+    return sfx[-1] if sfx and _EXTENSION.fullmatch(sfx[-1]) else None
+
+
+def detect_format(path: str, *, sniff_unknown: bool = False) -> str | None:
+    """Format from the extension (data_extension); a name without one is sniffed from its first
+    bytes, and so is a name with an extension driftline does not read when sniff_unknown is set.
+    Otherwise such a file is only checked for Parquet's magic number at both ends ('x.parquet.
+    encrypted'), which no text file carries by chance: the text in it (.sql, .txt, .md) is not
+    taken for CSV.  None: not a data file driftline reads (discovery skips it, with skip_reason)."""
+    ext = data_extension(path)
+    if ext in FORMAT_BY_SUFFIX:
+        return FORMAT_BY_SUFFIX[ext]
+    if ext is None or sniff_unknown:
+        return sniff_format(path)
+    return "parquet" if _parquet_magic(path) else None
+
+
+def _parquet_magic(path: str) -> bool:
+    # source: Apache Parquet file format: "PAR1" (or "PARE", encrypted footer) at the start and the end
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(4)
+            if head not in (b"PAR1", b"PARE") or fh.seek(0, io.SEEK_END) < 12:
+                return False
+            fh.seek(-4, io.SEEK_END)
+            return fh.read(4) == head
+    except OSError:
+        return False
+
+
+def skip_reason(path: str, sniff_unknown: bool = False) -> str:
+    """Why detect_format found no format: 'other-extension' (an extension driftline does not read,
+    such as .sql or .txt, never opened) or 'unknown-format' (sniffed, and not JSON, CSV or Parquet)."""
+    return "other-extension" if data_extension(path) is not None and not sniff_unknown else "unknown-format"
 
 
 def sniff_format(path: str) -> str | None:
@@ -184,41 +225,96 @@ class _Limited(io.RawIOBase):
             super().close()
 
 
-_GZIP_IN = 64 * 1024  # compressed bytes fed to zlib at a time (its output is capped by max_length)
+_RAW_IN = 64 * 1024  # compressed bytes fed to gzip, bzip2 and xz at a time (their output is capped by max_length)
 # zstd's decompressobj has no max_length; one RLE block turns 4 bytes into 128 KiB (RFC 8878
 # section 3.1.1.2), so feeding 1 KiB at a time caps one step's output near 32 MiB.
 _ZSTD_IN = 1024
+_XZ_MAGIC = b"\xfd7zXZ\x00"  # .xz file format 1.2.0, section 2.1.1.1
+_ZSTD_MAGIC = b"\x28\xb5\x2f\xfd"  # RFC 8878 section 3.1.1; skippable frames: 0x184D2A5? (section 3.1.2)
+_TOOL = {"gzip": "gzip -t", "bz2": "bzip2 -t", "xz": "xz -t", "zstd": "zstd -t"}
 
 
-class _FrameStream(io.RawIOBase):
-    """Streaming gzip members / zstd frames, one after another, handing out every byte decoded
-    before a truncation; only then does EOFError say the last member or frame was cut short.
+class CorruptStream(ValueError):
+    """Bytes between or after compressed streams that the format's reference tool rejects."""
 
-    gzip.GzipFile raises on a cut-off file without returning the data it had decoded in that
-    read, and zstandard's stream_reader ends a cut-off frame silently, as if it were whole.
+
+@dataclass(frozen=True, slots=True)
+class IgnoredTail:
+    """Data after the last complete stream that the reference tool also ignores, with a warning."""
+
+    codec: str
+    offset: int  # compressed byte offset where it starts
+
+    def message(self, size: int | None) -> str:
+        count = f"{size - self.offset:,} bytes" if size is not None and size > self.offset else "the bytes"
+        name = "gzip member" if self.codec == "gzip" else "bzip2 stream"
+        return (f"{count} from byte {self.offset:,} on are not a {name}: ignored, as `{_TOOL[self.codec]}` "
+                "ignores trailing garbage; the data before them is complete")
+
+
+class _Streams(io.RawIOBase):
+    """Concatenated gzip members, bzip2 streams, xz streams and zstd frames, judged as the reference
+    tools judge them (`gzip -t`, `bzip2 -t`, `xz -t`, `zstd -t`), handing out every byte decoded
+    before a problem; only then does the problem surface.
+
+    - gzip: members follow one another (RFC 1952 section 2.2); null bytes up to the end of the
+      file are padding and accepted silently (gzip(1) ignores trailing zeros); anything else after
+      a member is trailing garbage, ignored with a warning (gzip -t exits 2, "decompression OK").
+    - bzip2: streams follow one another; data that does not start as a stream ("BZh1".."BZh9") is
+      trailing garbage that bzip2 -t ignores with a warning (exit 0); a cut-off magic is an error.
+    - xz: streams may be separated and followed by Stream Padding, null bytes in a multiple of
+      four (.xz file format 1.2.0, section 2.2); any other byte, or padding of another length, is
+      an error, as for xz -t.
+    - zstd: frames, skippable ones included, follow one another (RFC 8878 section 3.1); anything
+      else is an error, as for zstd -t.
+
+    The stdlib's GzipFile, BZ2File and LZMAFile differ: they raise on a cut-off file without the
+    data decoded in that read, take any trailing bytes as a new member (gzip) or drop them and
+    every stream after them without a word (bz2, xz); zstandard's stream_reader ends a cut-off
+    frame silently, as if it were whole.
     """
 
-    def __init__(self, raw: BinaryIO, codec: str) -> None:
-        self._raw, self._codec = raw, codec
-        self._dec = self._new()
+    def __init__(self, raw: BinaryIO, codec: str, notes: list[IgnoredTail] | None) -> None:
+        self._raw, self._codec, self._notes = raw, codec, notes
+        self._dec = self._new(first=True)
         self._pending = b""
         self._done = False
+        self._taken = 0  # compressed bytes read from raw
 
-    def _new(self) -> Any:
+    def _new(self, first: bool = False) -> Any:
         if self._codec == "gzip":
             return zlib.decompressobj(wbits=31)
+        if self._codec == "bz2":
+            return bz2.BZ2Decompressor()
+        if self._codec == "xz":  # the first stream may also be a legacy .lzma one, as xz -t accepts
+            return lzma.LZMADecompressor(lzma.FORMAT_AUTO if first else lzma.FORMAT_XZ)
         import zstandard
 
         return zstandard.ZstdDecompressor().decompressobj()
 
-    def _step(self, data: bytes, want: int) -> bytes:
-        if self._codec == "gzip":
-            return self._dec.decompress(data, want)  # type: ignore[no-any-return]
-        return self._dec.decompress(data)  # type: ignore[no-any-return]
+    def _read(self) -> bytes:
+        data = self._raw.read(_ZSTD_IN if self._codec == "zstd" else _RAW_IN)
+        self._taken += len(data)
+        return data
 
-    def _feed(self) -> bytes:
-        tail = self._dec.unconsumed_tail if self._codec == "gzip" else b""
-        return tail or self._raw.read(_GZIP_IN if self._codec == "gzip" else _ZSTD_IN)
+    def _more(self, rest: bytes, n: int) -> bytes:
+        """rest extended from the file to at least n bytes, unless the file ends first."""
+        while len(rest) < n and (data := self._read()):
+            rest += data
+        return rest
+
+    def _step(self, data: bytes, want: int) -> bytes:
+        if self._codec == "zstd":
+            return self._dec.decompress(data)  # type: ignore[no-any-return]
+        return self._dec.decompress(data, want)  # type: ignore[no-any-return]
+
+    def _input(self) -> bytes | None:
+        """The decoder's next input: held input first; None at the end of the file."""
+        if self._codec == "gzip" and self._dec.unconsumed_tail:
+            return self._dec.unconsumed_tail  # type: ignore[no-any-return]
+        if self._codec in ("bz2", "xz") and not self._dec.needs_input:
+            return b""  # output is still waiting inside the decoder
+        return self._read() or None
 
     def readable(self) -> bool:
         return True
@@ -226,16 +322,16 @@ class _FrameStream(io.RawIOBase):
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
         want = max(len(buf), 1)
         while not self._pending and not self._done:
-            if self._dec.eof:  # a member / frame ended: another may follow (RFC 1952 §2.2, RFC 8878 §3.1)
-                rest = self._dec.unused_data or self._raw.read(_ZSTD_IN)
-                if not rest:
+            if self._dec.eof:
+                rest = self._next(self._dec.unused_data)
+                if rest is None:
                     self._done = True
                     break
                 self._dec = self._new()
                 self._pending = self._step(rest, want)
                 continue
-            data = self._feed()
-            if not data:
+            data = self._input()
+            if data is None:
                 self._done = True
                 raise EOFError("compressed file ended before the end-of-stream marker was reached")
             self._pending = self._step(data, want)
@@ -244,35 +340,98 @@ class _FrameStream(io.RawIOBase):
         self._pending = self._pending[n:]
         return n
 
+    def _next(self, rest: bytes) -> bytes | None:
+        """After a complete stream: the start of the next one, or None when the data ends here."""
+        at = self._taken - len(rest)  # compressed offset of rest[0]
+        if self._codec == "zstd":
+            rest = self._more(rest, 4)
+            if not rest:
+                return None
+            if len(rest) < 4:
+                raise EOFError(f"the file ends inside the magic number of a zstd frame at byte {at:,}")
+            if rest[:4] != _ZSTD_MAGIC and (rest[0] & 0xF0 != 0x50 or rest[1:4] != b"\x2a\x4d\x18"):
+                raise CorruptStream(f"the bytes at byte {at:,} are not a zstd frame (RFC 8878 section 3.1); "
+                                    "zstd -t rejects them")
+            return rest
+        if self._codec == "xz":
+            return self._after_xz(rest, at)
+        rest = self._more(rest, 4)
+        if not rest:
+            return None
+        if self._codec == "gzip":
+            if rest[0] == 0:
+                rest = rest.lstrip(b"\x00")
+                while not rest and (data := self._read()):
+                    rest = data.lstrip(b"\x00")
+                if not rest:
+                    return None  # null padding to the end: gzip(1) ignores trailing zeros silently
+                return self._ignore(at)
+            if len(rest) < 2:  # gzip(1) reads both bytes of the magic number before it judges them
+                raise EOFError(f"the file ends inside the header of a gzip member at byte {at:,}")
+            magic: tuple[bytes, ...] = (b"\x1f", b"\x8b")
+        else:
+            magic = (b"B", b"Z", b"h", b"123456789")  # bzip2's stream header, block size 1 to 9
+        for i, allowed in enumerate(magic):
+            if i == len(rest):  # as the tools: a cut-off header is an unexpected end, not garbage
+                raise EOFError(f"the file ends inside the header of a {self._codec} stream at byte {at:,}")
+            if rest[i] not in allowed:
+                return self._ignore(at)
+        return rest
 
-def _decoder(raw: BinaryIO, compression: str | None) -> BinaryIO:
+    def _ignore(self, at: int) -> None:
+        if self._notes is not None:
+            self._notes.append(IgnoredTail(self._codec, at))
+        return None
+
+    def _after_xz(self, rest: bytes, at: int) -> bytes | None:
+        zeros = 0
+        while True:
+            stripped = rest.lstrip(b"\x00")
+            zeros += len(rest) - len(stripped)
+            if stripped:
+                rest = stripped
+                break
+            rest = self._read()
+            if not rest:
+                break
+        if zeros % 4:
+            raise CorruptStream(f"xz stream padding of {zeros:,} null bytes at byte {at:,} is not a multiple of "
+                                "four (.xz file format, section 2.2); xz -t rejects it")
+        if not rest:
+            return None
+        rest = self._more(rest, len(_XZ_MAGIC))
+        if not rest.startswith(_XZ_MAGIC):
+            raise CorruptStream(f"the bytes at byte {at + zeros:,} are neither stream padding nor an xz stream; "
+                                "xz -t rejects them")
+        return rest
+
+
+def _decoder(raw: BinaryIO, compression: str | None, notes: list[IgnoredTail] | None) -> BinaryIO:
     if compression is None:
         return raw
-    if compression in ("gzip", "zstd"):
-        return _FrameStream(raw, compression)  # type: ignore[return-value]
-    if compression == "bz2":
-        return bz2.BZ2File(raw, mode="rb")  # type: ignore[return-value]
-    if compression == "xz":
-        return lzma.LZMAFile(raw, mode="rb")  # type: ignore[return-value]
+    if compression in _TOOL:
+        return _Streams(raw, compression, notes)  # type: ignore[return-value]
     raise ValueError(f"unknown compression {compression!r}")  # pragma: no cover - guarded by detect_compression
 
 
-def open_stream(path: str, compression: str | None, *, limit: int | None, ratio: float | None = None) -> BinaryIO:
+def open_stream(path: str, compression: str | None, *, limit: int | None, ratio: float | None = None,
+                notes: list[IgnoredTail] | None = None) -> BinaryIO:
     """Open path for reading as decompressed bytes, never for writing; the caller closes it.
 
-    limit caps the bytes that come out; ratio caps bytes out per byte read from the file.
+    limit caps the bytes that come out; ratio caps bytes out per byte read from the file;
+    notes, when given, receives the trailing data the decoder ignored (as the reference tool does).
     """
-    return wrap_stream(open(path, "rb"), compression, limit=limit, ratio=ratio)  # noqa: SIM115 - closed with it
+    return wrap_stream(open(path, "rb"), compression, limit=limit, ratio=ratio, notes=notes)  # noqa: SIM115
 
 
 def wrap_stream(raw: BinaryIO, compression: str | None, *, limit: int | None, ratio: float | None = None,
-                taken: Callable[[], int] | None = None) -> BinaryIO:
+                taken: Callable[[], int] | None = None, notes: list[IgnoredTail] | None = None) -> BinaryIO:
     """Decompressed bytes of an open binary file (local or remote); closing the result closes raw.
 
     taken counts the bytes read from raw so far, for the ratio; raw.tell() when not given.
     """
     try:
-        stream = _decoder(raw, compression)
+        stream = _decoder(raw, compression, notes)
     except BaseException:
         raw.close()
         raise

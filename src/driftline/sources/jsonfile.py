@@ -217,13 +217,15 @@ class _Lines:
 
 
 def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offset: int = 0,
-               start: tuple[int, int, int] = (0, 0, 0), lines_read: list[int] | None = None) -> Iterator[Item]:
+               start: tuple[int, int, int] = (0, 0, 0), lines_read: list[int] | None = None,
+               blank_read: list[int] | None = None) -> Iterator[Item]:
     """One JSON value per line. Blank lines are skipped; a bad line is reported and skipped.
 
     A batch of lines that are all objects goes to the columnar path (observe.jsonbatch),
     which answers exactly or declines; everything else takes the exact walk line by line.
     start is (lines, rows, batches) before the stream, for a part of a file (jsonsplit);
-    lines_read, when given, receives the number of lines the stream held.
+    lines_read, when given, receives the number of lines the stream held; blank_read, the
+    number of blank lines skipped (for the reconciliation of lines, linecount.py).
     """
     out = _Batcher(rel, opts)
     out.rows, out.batch = start[1], start[2]
@@ -231,6 +233,7 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
     src.lineno = start[0]
     fast = not (opts.exact or exact_requested())
     hint = None
+    blanks = 0
     crlf_noted = False
     while True:
         want = opts.batch_rows - len(out.records)
@@ -263,6 +266,7 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
                     crlf_noted = True
                     yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=lineno, byte_offset=offset + len(content))
             if not content.strip():
+                blanks += 1
                 continue
             try:
                 value = orjson.loads(content)
@@ -279,6 +283,8 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
         yield obs
     if lines_read is not None:
         lines_read.append(src.lineno - start[0])
+    if blank_read is not None:
+        blank_read.append(blanks)
 
 
 def _looks_like_lines(data: bytes) -> bool:

@@ -16,8 +16,9 @@ from driftline.sources.csvfile import read_csv
 from driftline.sources.dialect import Dialect
 from driftline.sources.discover import FileRef
 from driftline.sources.encoding import TextEncoding, TextStream
-from driftline.sources.formats import CountingRaw, LimitExceeded, open_stream
+from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
 from driftline.sources.jsonfile import read_json, read_jsonl
+from driftline.sources.linecount import LineTally, jsonl_issue
 from driftline.sources.parquetfile import read_parquet
 from driftline.sources.remote import is_url, open_random, open_stream_remote
 
@@ -46,6 +47,8 @@ class _SafeStream(CountingRaw):
 def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str, str]:
     if isinstance(exc, LimitExceeded):
         return "too-large", f"{exc}; rest of the file not profiled"
+    if isinstance(exc, CorruptStream):
+        return "corrupt", f"{exc}; rows before it were profiled"
     if isinstance(exc, EOFError) or "end" in str(exc).lower() and compression:
         return "truncated", f"{compression or 'file'} data ends early ({exc}); rows before it were profiled"
     if isinstance(exc, PermissionError):
@@ -73,9 +76,9 @@ def file_changed(ref: FileRef) -> str | None:
     return None
 
 
-def _items(ref: FileRef, opts: ReadOptions, stream: Any) -> Iterator[Any]:
+def _items(ref: FileRef, opts: ReadOptions, stream: Any, blanks: list[int] | None = None) -> Iterator[Any]:
     if ref.format == "jsonl":
-        return read_jsonl(stream, ref.rel, opts)
+        return read_jsonl(stream, ref.rel, opts, blank_read=blanks)
     if ref.format == "json":
         return read_json(stream, ref.rel, opts)
     return read_csv(stream, ref.rel, opts, tsv=ref.format == "tsv")
@@ -230,9 +233,11 @@ def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Rea
 
 
 def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
+    notes: list[IgnoredTail] = []
     try:
         opener = open_stream_remote if is_url(ref.path) else open_stream
-        raw = opener(ref.path, ref.compression, limit=opts.max_decompressed_bytes, ratio=opts.max_decompression_ratio)
+        raw = opener(ref.path, ref.compression, limit=opts.max_decompressed_bytes, ratio=opts.max_decompression_ratio,
+                     notes=notes)
     except OSError as exc:
         kind, msg = _describe_failure(exc, None)
         read.not_opened(FileIssue(ref.rel, kind, f"cannot open: {msg}"))
@@ -242,7 +247,10 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
         text = TextStream(stream, ref.format, opts.encoding)
         read.encoding = text.encoding
         read.issues.extend(text.issues(ref.rel))
-        for item in _items(ref, opts, text.stream):
+        # JSON Lines: line feeds counted apart, reconciled with rows, reported lines and blank lines
+        tally = LineTally(text.stream, "lines") if ref.format == "jsonl" else None
+        blanks: list[int] = []
+        for item in _items(ref, opts, tally or text.stream, blanks):
             if isinstance(item, Dialect):
                 read.dialect = item
             elif isinstance(item, FileIssue):
@@ -252,10 +260,17 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
             else:
                 read.parts.append(item)
         read.issues.extend(text.transcoding_issues(ref.rel))
+    if tally is not None and blanks:
+        rows = sum(p.rows for p in read.parts if isinstance(p, Observation))
+        unaccounted = jsonl_issue(ref.rel, tally, rows, blanks[0], read.issues)
+        if unaccounted is not None:
+            read.issues.append(unaccounted)
     if safe.failure is not None:
         read.complete = False
         kind, msg = _describe_failure(safe.failure, ref.compression)
         read.issues.append(FileIssue(ref.rel, kind, msg, byte_offset=safe.count if ref.compression is None else None))
+    for note in notes:
+        read.issues.append(FileIssue(ref.rel, "trailing-data", note.message(ref.size), "warning"))
 
 
 def _result(

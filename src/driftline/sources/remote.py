@@ -28,7 +28,15 @@ from urllib.parse import parse_qsl, quote, unquote, urlencode
 
 from driftline.errors import DriftlineError, InputPathError
 from driftline.sources.discover import Discovery, FileRef, Skipped, partition_values
-from driftline.sources.formats import FORMAT_BY_SUFFIX, CountingRaw, detect_compression, detect_format, wrap_stream
+from driftline.sources.formats import (
+    FORMAT_BY_SUFFIX,
+    CountingRaw,
+    IgnoredTail,
+    detect_compression,
+    detect_format,
+    skip_reason,
+    wrap_stream,
+)
 
 SCHEMES = ("s3://",)
 DEFAULT_RETRIES = 4
@@ -231,7 +239,7 @@ def discover_remote(
             path = locator(bucket, key, storage)
             fmt = _format(rel, path)
             if fmt is None:
-                skipped.append(Skipped(rel, "unknown-format"))
+                skipped.append(Skipped(rel, skip_reason(rel)))
                 continue
             files[rel] = FileRef(path=path, rel=rel, partitions=partition_values(rel), format=fmt,
                                  compression=_compression(rel, path), size=size, mtime_ns=mtime_ns)
@@ -346,13 +354,14 @@ def open_binary(path: str) -> BinaryIO:
 
 
 def open_stream_remote(path: str, compression: str | None, *, limit: int | None,
-                       ratio: float | None = None) -> BinaryIO:
+                       ratio: float | None = None, notes: list[IgnoredTail] | None = None) -> BinaryIO:
     """formats.open_stream for a locator: decompressed bytes, bounded by limit and ratio.
 
     The decoders are the local ones (formats.wrap_stream): every byte decoded before a cut
     is handed out, a truncated gzip/zstd/xz is reported, a bomb stops at the limits.
     """
     raw = open_binary(path)
-    return wrap_stream(raw, compression, limit=limit, ratio=ratio, taken=lambda: raw.raw.count)  # type: ignore[attr-defined]
+    return wrap_stream(raw, compression, limit=limit, ratio=ratio, notes=notes,
+                       taken=lambda: raw.raw.count)  # type: ignore[attr-defined]
 
 
