@@ -559,3 +559,23 @@ def test_rows_starting_with_a_hash_as_wide_as_the_others_are_data(tmp_path: Path
     # the csv module reads 5 rows below the header; '# a note' is one of them, a ragged one here
     assert len(ref) - 1 == 4 and p.files[0].dialect.comment is None
     assert p.files[0].rows == 3 and [(i.kind, i.line) for i in p.files[0].issues] == [("ragged-row", 5)]
+
+
+def test_a_pinned_skip_of_zero_is_kept(tmp_path: Path):
+    # a header of 3 names above one row of 5 empty fields: with skip=0 pinned the first line is
+    # the header and the row is ragged, as Python's csv module reads it (RFC 4180 section 2)
+    f = tmp_path / "p.csv"
+    f.write_bytes(b"a,b,c\n,,,,")
+    assert [len(r) for r in reference_rows(f.read_bytes())] == [3, 5]
+    p = read_one(f, csv_dialect="header=yes,skip=0")
+    fr = p.files[0]
+    assert (fr.rows, fr.dialect.skip, [i.kind for i in fr.issues]) == (0, 0, ["ragged-row"])
+
+
+def test_no_line_is_skipped_as_a_preamble_above_a_table_without_rows(tmp_path: Path):
+    # two lines of different widths and no more: nothing shows the first is a title, so it is
+    # the header (common practice: RFC 4180 section 2 puts an optional header on the first line)
+    f = tmp_path / "p.csv"
+    f.write_bytes(b"a,b,c\n,")
+    fr = read_one(f).files[0]
+    assert (fr.dialect.skip, fr.dialect.header) == (0, "yes")

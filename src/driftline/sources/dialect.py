@@ -262,6 +262,7 @@ def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, 
     Records, not lines: a quoted field may hold a line break.  A record that opens a quote it
     never closes is tried as its line alone, its quotes taken as characters."""
     want = (width, width - 1, width + 1) if header != "no" else (width,)
+    passed = False  # a line that could have been the header was passed over
     for i, n in head:
         if i > MAX_PREAMBLE:
             break
@@ -273,8 +274,10 @@ def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, 
             if not _fits_width(rec, want, width):
                 continue
         after, _ = _first_record(lines, _next_line(lines, i + span), key)
-        if not after or len(after) in (width, len(rec)):
+        # a line is skipped as a preamble only for a table that has rows below its header
+        if (after and len(after) in (width, len(rec))) or (not after and not passed):
             return i
+        passed = True
     return next((i for i, _ in head if i <= MAX_PREAMBLE and not _is_comment(lines[i])), 0)
 
 

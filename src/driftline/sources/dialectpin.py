@@ -45,7 +45,8 @@ class Pin:
         return fnmatch.fnmatchcase(rel, self.glob) or fnmatch.fnmatchcase(name, self.glob)
 
     def keys(self) -> tuple[str, ...]:
-        return tuple(k for k in PIN_KEYS if getattr(self, k) not in (None, False) or
+        # identity, not equality: skip=0 is a pin (0 == False)
+        return tuple(k for k in PIN_KEYS if (getattr(self, k) is not None and getattr(self, k) is not False) or
                      (k in ("quote", "escape", "comment") and getattr(self, k) is None))
 
     def over(self, other: Pin) -> Pin:
