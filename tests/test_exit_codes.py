@@ -18,6 +18,9 @@ from driftline.sources.csvfile import read_csv
 
 EXE = [sys.executable, "-m", "driftline.cli"]
 ALL_RAGGED = b"x,y\n1,2,3\n4\n"  # two rows, neither with the header's 2 fields
+# Pinned: the dialect finder may rightly read '1,2,3' as a row under a header one name short
+# (row names); these tests need a file whose every row is set aside.
+PIN = "header=yes,skip=0"
 
 
 def run(*args: str) -> subprocess.CompletedProcess[str]:
@@ -30,7 +33,7 @@ def test_arrow_lets_go_of_every_handed_object_once_a_csv_is_read(tmp_path: Path)
     # ~PyReadableFile -> PyGILState_Ensure -> pthread_exit -> std::terminate).
     import io
 
-    items = list(read_csv(io.BytesIO(ALL_RAGGED), "r.csv", ReadOptions()))
+    items = list(read_csv(io.BytesIO(ALL_RAGGED), "r.csv", ReadOptions(csv_dialects=(PIN,))))
     assert [(i.kind, i.line) for i in items if isinstance(i, FileIssue)] == [("ragged-row", 2), ("ragged-row", 3)]
     assert native.settle(30) is True
     assert native.live() == 0
@@ -38,7 +41,7 @@ def test_arrow_lets_go_of_every_handed_object_once_a_csv_is_read(tmp_path: Path)
 
 def test_quiet_is_quiet_on_exit_2(tmp_path: Path):
     (tmp_path / "r.csv").write_bytes(ALL_RAGGED)
-    res = run("scan", str(tmp_path / "r.csv"), "-q")
+    res = run("scan", str(tmp_path / "r.csv"), "-q", "--csv-dialect", PIN)
     assert res.returncode == 2
     assert res.stdout == ""
     # only the reason for the exit code, on one line: no table, no problem list
@@ -52,7 +55,7 @@ def test_every_file_failed_still_writes_the_json_report(tmp_path: Path):
     (d / "r.csv").write_bytes(ALL_RAGGED)
     (d / "bad.jsonl").write_bytes(b"{nope\n")
     out = tmp_path / "report.json"
-    res = run("scan", str(d), "-q", "--json", str(out), "--jobs", "1")
+    res = run("scan", str(d), "-q", "--json", str(out), "--jobs", "1", "--csv-dialect", PIN)
     assert res.returncode == 2
     assert res.stderr == ("InputPathError: nothing readable: every one of 2 files failed "
                           "(the problems are in the report)\n")
@@ -64,7 +67,7 @@ def test_every_file_failed_still_writes_the_json_report(tmp_path: Path):
 
 def test_every_file_failed_without_q_shows_the_problems_on_stderr(tmp_path: Path):
     (tmp_path / "r.csv").write_bytes(ALL_RAGGED)
-    res = run("scan", str(tmp_path / "r.csv"))
+    res = run("scan", str(tmp_path / "r.csv"), "--csv-dialect", PIN)
     assert res.returncode == 2 and res.stdout == ""
     assert "expected 2 fields, found 3; row skipped" in res.stderr
     assert res.stderr.endswith("InputPathError: nothing readable: every one of 1 files failed "
@@ -93,7 +96,7 @@ def test_scan_exit_codes_are_stable_under_load(tmp_path: Path):
     jobs = [name for _ in range(40) for name in files]  # 200 runs
 
     def one(name: str) -> tuple[str, int, str]:
-        res = run("scan", str(tmp_path / name), "-q", "--jobs", "1")
+        res = run("scan", str(tmp_path / name), "-q", "--jobs", "1", "--csv-dialect", PIN)
         return name, res.returncode, res.stderr
 
     with ThreadPoolExecutor(4) as pool:

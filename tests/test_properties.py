@@ -168,7 +168,7 @@ def test_csv_rows_and_columns_reconcile_with_the_rows_written(table, batch_rows)
         write_csv(root / "t.csv", header, rows)
         # the dialect as written: a header of any names (a numeric name above numbers would
         # read as a headerless file, which the finder is right to say)
-        profile = _scan(root, batch_rows=batch_rows, delimiter=",", csv_dialects=("header=yes",))
+        profile = _scan(root, batch_rows=batch_rows, delimiter=",", csv_dialects=("header=yes,skip=0",))
         _no_internal(profile)
         fr = profile.files[0]
         assert fr.errors == 0, [i.message for i in fr.issues]

@@ -214,7 +214,8 @@ def scan_command(
     finally:
         bar.close()
     # Every file failed: the report (with the problems) is still written, then exit 2.
-    failed = profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files)
+    failed = profile.rows == 0 and profile.error_count and all(
+        not f.rows and (f.errors or not f.observations) for f in profile.files)
     if json_out is not None:
         write_output(json_out, dumps(profile))
     if html_out is not None:

@@ -141,7 +141,8 @@ def schema_command(
     opts = _options(config, strict, prefer_decimal, timestamp_unit, timestamp_zone, parse_strings,
                     null_tokens, max_null_share, min_field_share, leading_zeros)
     profile = profile_of(paths, read=ReadOptions(batch_rows=batch_rows, csv_dialects=tuple(csv_dialect)), jobs=jobs)
-    if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
+    if profile.rows == 0 and profile.error_count and all(
+        not f.rows and (f.errors or not f.observations) for f in profile.files):
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "
                              "(driftline scan shows the problems)")
     to_stdout = (to is not None and out == "-") or rules == "-"
