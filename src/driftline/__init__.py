@@ -38,6 +38,7 @@ from driftline.drift import Event
 from driftline.errors import (
     DriftlineError,
     InputPathError,
+    OptionError,
     OutputError,
     PolicyError,
     ReportVersionError,
@@ -59,6 +60,7 @@ def scan(
     paths: str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]],
     *,
     batch_rows: int = 65_536,
+    batch_bytes: int | None = None,
     include: _Sequence[str] = (),
     exclude: _Sequence[str] = (),
     include_hidden: bool = False,
@@ -68,6 +70,8 @@ def scan(
     max_decompressed_bytes: int | None = None,
     max_decompression_ratio: float | None = None,
     max_columns: int | None = None,
+    max_paths: int | None = None,
+    max_events: int | None = None,
     delimiter: str | None = None,
     where: _Sequence[str] = (),
     engine: str = "local",
@@ -79,17 +83,21 @@ def scan(
 ) -> Profile:
     """Scan files, folders, globs or s3:// URLs (one, or a list of them) into a Profile.
 
-    batch_rows bounds the rows per batch (drift is tracked batch by batch); include and
+    batch_rows bounds the rows per batch (drift is tracked batch by batch) and batch_bytes
+    the input bytes of its records (None: 64 MiB), whichever ends a batch first; include and
     exclude are globs on the path or name; jobs reads files in parallel processes;
     max_errors stops reading new files after that many errors; the max_* limits (None:
     the defaults of ReadOptions) report a too-long record, too many decompressed bytes,
-    too high a compression ratio or too many CSV columns instead of reading on; delimiter
+    too high a compression ratio or too many CSV columns instead of reading on; max_paths
+    caps the distinct field paths kept (the rest are counted as "other fields") and
+    max_events the drift events listed (their totals stay exact); delimiter
     fixes the CSV delimiter (sniffed otherwise); where keeps only key=value partitions
     that pass ('day>=2026-11-01'); engine 'dask' reads on a cluster (scheduler address,
     or local workers); endpoint_url, region and anonymous reach an S3-compatible store
     (credentials come from the environment, never from here); progress(done, total,
     current_file) is called as files finish. The result depends on none of jobs and
-    engine. Raises InputPathError when a path does not exist or holds no data file.
+    engine. Raises InputPathError when a path does not exist or holds no data file, and
+    OptionError for an option value of the wrong type or outside its range.
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
@@ -108,6 +116,8 @@ def scan(
             ("max_decompressed_bytes", max_decompressed_bytes),
             ("max_decompression_ratio", max_decompression_ratio),
             ("max_columns", max_columns),
+            ("batch_bytes", batch_bytes),
+            ("max_paths", max_paths),
         )
         if value is not None
     }
@@ -115,7 +125,7 @@ def scan(
     storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
     return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                        jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
-                       where=where, storage=storage)
+                       where=where, storage=storage, max_events=max_events)
 
 
 def check(
@@ -169,6 +179,7 @@ __all__ = [
     "Event",
     "FieldSummary",
     "InputPathError",
+    "OptionError",
     "OutputError",
     "Policy",
     "PolicyError",

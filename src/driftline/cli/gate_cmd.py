@@ -20,6 +20,7 @@ from driftline.gate.policy import ACTION_MEANING, key_help
 from driftline.gate.run import ScanSettings, run_check
 from driftline.gate.verdict import junit_xml
 from driftline.gate.verdict import render as render_verdict
+from driftline.ranges import RANGES
 from driftline.scan import default_jobs
 from driftline.sources.base import DEFAULT_BATCH_ROWS, DEFAULT_MAX_RECORD_BYTES, ReadOptions
 
@@ -98,10 +99,14 @@ def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int
 
 _INCLUDE = typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable).")
 _EXCLUDE = typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable).")
-_BATCH = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch (as for scan).")
-_JOBS = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel. Results do not depend on it.")
-_MAXERR = typer.Option(None, "--max-errors", min=1, help="Stop reading new files once this many errors were found.")
-_RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer records are reported.")
+_BATCH = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1],
+                      help="Rows per batch (as for scan).")
+_JOBS = typer.Option(default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
+                     help="Files read in parallel. Results do not depend on it.")
+_MAXERR = typer.Option(None, "--max-errors", min=1, max=RANGES["max_errors"][1],
+                       help="Stop reading new files once this many errors were found.")
+_RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, max=RANGES["max_record_bytes"][1],
+                       help="Longer records are reported.")
 _DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given.")
 _HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'.")
 

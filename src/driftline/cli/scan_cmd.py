@@ -12,18 +12,22 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 
 import driftline
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.drift import DEFAULT_MAX_EVENTS
 from driftline.emit.atomic import write_output
 from driftline.emit.html import write_html
 from driftline.emit.safe import safe_text
 from driftline.emit.terminal import render
 from driftline.errors import InputPathError
-from driftline.report import dumps
+from driftline.ranges import RANGES
+from driftline.report import dumps, limit_notes
 from driftline.scan import default_jobs
 from driftline.sources.base import (
+    DEFAULT_BATCH_BYTES,
     DEFAULT_BATCH_ROWS,
     DEFAULT_MAX_COLUMNS,
     DEFAULT_MAX_DECOMPRESSED_BYTES,
     DEFAULT_MAX_DECOMPRESSION_RATIO,
+    DEFAULT_MAX_PATHS,
     DEFAULT_MAX_RECORD_BYTES,
 )
 
@@ -104,37 +108,65 @@ def scan_command(
         DEFAULT_BATCH_ROWS,
         "--batch-rows",
         min=1,
-        help="Rows per batch: drift is tracked batch by batch and memory is bounded by it.",
+        max=RANGES["batch_rows"][1],
+        help="Rows per batch: drift is tracked batch by batch.",
+    ),
+    batch_bytes: int = typer.Option(
+        DEFAULT_BATCH_BYTES,
+        "--batch-bytes",
+        min=1,
+        max=RANGES["batch_bytes"][1],
+        help="A batch also ends once its records reach this many bytes of input (bounds memory; default 64 MiB).",
     ),
     jobs: int = typer.Option(
-        default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel (processes). Results do not depend on it."
+        default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
+        help="Files read in parallel (processes). Results do not depend on it.",
     ),
     max_errors: int | None = typer.Option(
-        None, "--max-errors", min=1, help="Stop reading new files once this many errors were found."
+        None, "--max-errors", min=1, max=RANGES["max_errors"][1],
+        help="Stop reading new files once this many errors were found.",
     ),
     max_record_bytes: int = typer.Option(
         DEFAULT_MAX_RECORD_BYTES,
         "--max-record-bytes",
         min=1,
+        max=RANGES["max_record_bytes"][1],
         help="Longer JSON lines / CSV rows are reported, not read.",
     ),
     max_decompressed_bytes: int = typer.Option(
         DEFAULT_MAX_DECOMPRESSED_BYTES,
         "--max-decompressed-bytes",
         min=1,
+        max=RANGES["max_decompressed_bytes"][1],
         help="Stop reading a file past this many bytes of content (decompression bombs); rows before are kept.",
     ),
     max_decompression_ratio: float = typer.Option(
         DEFAULT_MAX_DECOMPRESSION_RATIO,
         "--max-decompression-ratio",
         min=1,
+        max=RANGES["max_decompression_ratio"][1],
         help="Stop a compressed file once it expands more than this many times (judged past 16 MiB).",
     ),
     max_columns: int = typer.Option(
         DEFAULT_MAX_COLUMNS,
         "--max-columns",
         min=1,
+        max=RANGES["max_columns"][1],
         help="A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch).",
+    ),
+    max_paths: int = typer.Option(
+        DEFAULT_MAX_PATHS,
+        "--max-paths",
+        min=1,
+        max=RANGES["max_paths"][1],
+        help="Distinct field paths kept; past it, a warning and the rest counted as other fields.",
+    ),
+    max_events: int = typer.Option(
+        DEFAULT_MAX_EVENTS,
+        "--max-events",
+        min=1,
+        max=RANGES["max_events"][1],
+        help="Drift events listed; past it they are counted by kind only (the report says so).",
     ),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
@@ -168,6 +200,7 @@ def scan_command(
         profile = driftline.scan(
             paths,
             batch_rows=batch_rows,
+            batch_bytes=batch_bytes,
             include=include,
             exclude=exclude,
             include_hidden=hidden,
@@ -177,6 +210,8 @@ def scan_command(
             max_decompressed_bytes=max_decompressed_bytes,
             max_decompression_ratio=max_decompression_ratio,
             max_columns=max_columns,
+            max_paths=max_paths,
+            max_events=max_events if max_events != DEFAULT_MAX_EVENTS else None,
             delimiter=delimiter,
             where=where,
             engine=engine,
@@ -199,6 +234,9 @@ def scan_command(
         write_output(json_out, dumps(profile))
     if html_out is not None:
         write_html(profile, html_out)
+    if quiet:
+        for note in limit_notes(profile):  # a limit reached is said even without the summary
+            err_console.print(f"warning: {note}", markup=False)
     if not quiet:
         # Data goes to stdout; when the JSON report takes stdout, the summary moves to stderr.
         console = err_console if "-" in (json_out, html_out) else Console(highlight=False)

@@ -14,6 +14,7 @@ from driftline.emit.safe import safe_text
 from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
 from driftline.errors import InputPathError, OutputError, PolicyError
 from driftline.gate.inputs import profile_of
+from driftline.ranges import RANGES
 from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
 from driftline.recommend.plan import Recommendation
 from driftline.scan import default_jobs
@@ -118,8 +119,10 @@ def schema_command(
     json_mode: str | None = typer.Option(None, "--json-mode", metavar="permissive|strict",
                                          help="JSON Schema of the data as it arrives, or after the rules "
                                               "(default: the --strict setting)."),
-    batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch (as for scan)."),
-    jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel."),
+    batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1],
+                                   help="Rows per batch (as for scan)."),
+    jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
+                             help="Files read in parallel."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
 ) -> None:
     if to is not None and to not in FORMATS:

@@ -8,6 +8,7 @@ import os
 from collections.abc import Callable, Iterator, Sequence
 from typing import Any
 
+from driftline import thinning
 from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
@@ -17,6 +18,7 @@ from driftline.sources.formats import CountingRaw, LimitExceeded, open_stream
 from driftline.sources.jsonfile import read_json, read_jsonl
 from driftline.sources.parquetfile import read_parquet
 from driftline.sources.remote import is_url, open_random, open_stream_remote
+from driftline.thinning import Thinner, thin
 
 
 class _SafeStream(CountingRaw):
@@ -106,16 +108,19 @@ class _Pending:
 
     def __init__(self, opts: ReadOptions) -> None:
         self._limit = opts.batch_rows
+        self._byte_limit = opts.batch_bytes
         self._exact = opts.exact
         self._batches: list[Batch] = []
         self._rows = 0
+        self._bytes = 0
         self.done: dict[int, Observation | Exception] = {}  # ticket -> its observation, or what went wrong
 
     def add(self, batch: Batch) -> int:
         ticket = len(self.done) + len(self._batches)
         self._batches.append(batch)
         self._rows += batch.data.num_rows
-        if self._rows >= self._limit:
+        self._bytes += batch.data.nbytes
+        if self._rows >= self._limit or self._bytes >= self._byte_limit:
             self.flush()
         return ticket
 
@@ -126,7 +131,7 @@ class _Pending:
         except Exception:  # a bug in one batch must not cost the others: observe them one by one
             got = [_observe_one(b, self._exact) for b in self._batches]
         self.done.update(enumerate(got, start=first))
-        self._batches, self._rows = [], 0
+        self._batches, self._rows, self._bytes = [], 0, 0
 
 
 def _observe_one(b: Batch, exact: bool) -> Observation | Exception:
@@ -146,6 +151,7 @@ class _Read:
         self.declared: dict[str, str] | None = None
         self.complete = True
         self.opened = True  # False: the file could not even be opened; nothing more is checked
+        self.thinner = Thinner()  # a stream's observations, summarised in blocks past FILE_BATCHES
 
     def fail(self, exc: BaseException) -> None:
         self.complete = False
@@ -167,6 +173,12 @@ class _Read:
                 self.fail(got)  # as if the reader had raised there: the batches before it are kept
                 break
             observations.append(got)
+        blocks, span = self.thinner.result()
+        if blocks:  # a stream's observations, summarised as they came
+            observations = list(blocks)
+        elif len(observations) > thinning.FILE_BATCHES:
+            blocks, span = thin(observations)
+            observations = list(blocks)
         ref, issues = self.ref, self.issues
         if not observations and not issues and ref.size == 0:
             issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
@@ -175,7 +187,7 @@ class _Read:
             if change is not None:
                 self.complete = False
                 issues.append(FileIssue(ref.rel, "changed", change))
-        return _result(ref, observations, issues, self.declared, self.complete)
+        return _result(ref, observations, issues, self.declared, self.complete, span)
 
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
@@ -224,7 +236,10 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
     safe = _SafeStream(raw)
     with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
         for item in _items(ref, opts, stream):
-            (read.issues if isinstance(item, FileIssue) else read.parts).append(item)
+            if isinstance(item, FileIssue):
+                read.issues.append(item)
+            else:
+                read.thinner.add(item)
     if safe.failure is not None:
         read.complete = False
         kind, msg = _describe_failure(safe.failure, ref.compression)
@@ -237,6 +252,7 @@ def _result(
     issues: list[FileIssue],
     declared: dict[str, str] | None,
     complete: bool,
+    span: int = 1,
 ) -> FileResult:
     return FileResult(
         rel=ref.rel,
@@ -250,6 +266,7 @@ def _result(
         issues=tuple(issues),
         declared=declared,
         complete=complete,
+        batch_span=span,
     )
 
 
