@@ -35,14 +35,13 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from driftline.observe import linetext, paths
+from driftline.observe.jsonnum import loads as json_loads
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.observation import Observation
-from driftline.observe.records import SAFE_INT, observe_records
+from driftline.observe.records import SAFE_INT, is_int_key, observe_records
 from driftline.observe.stats import SAMPLES_PER_KEY, FieldStats
 from driftline.observe.strprofile import string_profile
 from driftline.observe.textclass import CLASSES
-
-_INT_KEYS = ("decimal(39,0)", "int64", "uint64")
 
 
 class NotExact(Exception):
@@ -284,7 +283,7 @@ def _observe_part(
     if walked:
         at = sorted(walked)
         try:
-            records = [orjson.loads(text.lines[r]) for r in at]
+            records = [json_loads(text.lines[r]) for r in at]
         except orjson.JSONDecodeError:
             return None
         groups.append(_walk(records, at, text.where))
@@ -346,7 +345,7 @@ def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[
         return None
     rows = _needed_rows(b)
     try:
-        records = [orjson.loads(text.lines[r]) for r in rows]
+        records = [json_loads(text.lines[r]) for r in rows]
     except orjson.JSONDecodeError:
         return None  # Arrow took a line orjson refuses
     # The columns gave the string statistics: the walk over these rows is for examples, counts
@@ -526,7 +525,7 @@ def _combine(
             continue  # never present in this batch (absent wherever Arrow wrote null)
         types, extra = part.types, dict(part.extra)
         if part.numbers_from_walk:
-            ints = {k: v for k, v in w.types.items() if k in _INT_KEYS}
+            ints = {k: v for k, v in w.types.items() if is_int_key(k)}
             groups = [(extra.get("minimum"), extra.get("maximum")), (w.minimum, w.maximum)]
             if part.text_ints is not None and part.text_floats is not None:
                 int_values = part.text_ints[1].filter(_outside(part.text_ints[0], seen))

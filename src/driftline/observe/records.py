@@ -79,10 +79,25 @@ class _Acc:
             self.hi = v
 
 
-def _int_key(v: int) -> str:
+def int_key(v: int) -> str:
+    """int64, uint64, or beyond both a decimal of the literal's digits: an integer literal of any
+    length is an integer (RFC 8259 section 6 sets no limit), never a float64 that rounds it.
+
+    >>> int_key(2**63 - 1), int_key(2**63), int_key(-(2**63) - 1), int_key(10**29)
+    ('int64', 'uint64', 'decimal(19,0)', 'decimal(30,0)')
+    """
     if INT64_MIN <= v <= INT64_MAX:
         return "int64"
-    return "uint64" if 0 <= v < 2**64 else "decimal(39,0)"
+    return "uint64" if 0 <= v < 2**64 else f"decimal({len(str(abs(v)))},0)"
+
+
+def is_int_key(key: str) -> bool:
+    """Whether a type key is one int_key gives (what an integer literal is observed as).
+
+    >>> is_int_key("int64"), is_int_key("decimal(30,0)"), is_int_key("decimal(5,2)")
+    (True, True, False)
+    """
+    return key in ("int64", "uint64") or key.startswith("decimal(") and key.endswith(",0)")
 
 
 # Child paths repeat in every record; quoting a name is a regular-expression match, so the
@@ -141,7 +156,7 @@ def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int, other:
     elif t is bool:
         acc.count("bool", row, v)
     elif t is int:
-        acc.count(_int_key(v), row, v)
+        acc.count(int_key(v), row, v)
         acc.number(v)
         if v > SAFE_INT or v < -SAFE_INT:
             acc.unsafe += 1

@@ -297,7 +297,7 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
             if not content.strip():
                 continue
             try:
-                value = orjson.loads(content)
+                value = jsonnum.loads(content)
             except orjson.JSONDecodeError as exc:
                 msg, _, col, pos = _decode_error(exc, content)
                 yield FileIssue(rel, "malformed-json", f"{msg} (column {col}); line skipped", line=lineno,
