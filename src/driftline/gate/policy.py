@@ -45,6 +45,7 @@ RULES: dict[str, str] = {
     "out_of_range": "a number below the baseline's minimum or above its maximum",
     "null_share_rise": "null/absent share up more than max_null_share_rise points",
     "file_errors": "more than max_file_error_rate percent of files have read errors",
+    "unread_rows": "a file with rows set aside, or read as empty although it holds data",
     "cast_loss": "a cast rule would null more than max_cast_loss values of a field",
 }
 
@@ -86,6 +87,7 @@ class Policy:
     max_null_share_rise: float = 10.0
     file_errors: Action = "fail"
     max_file_error_rate: float = 0.0
+    unread_rows: Action = "fail"
     cast_loss: Action = "fail"
     max_cast_loss: int = 0
 

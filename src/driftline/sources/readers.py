@@ -182,12 +182,44 @@ class _Read:
         ref, issues = self.ref, self.issues
         if not observations and not issues and ref.size == 0:
             issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
+        if not observations and ref.size and ref.format in ("csv", "tsv") and not any(
+                i.severity == "error" for i in issues):
+            unread = nothing_read(ref)
+            if unread is not None:
+                self.complete = False
+                issues.append(unread)
         if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
             change = file_changed(ref)
             if change is not None:
                 self.complete = False
                 issues.append(FileIssue(ref.rel, "changed", change))
         return _result(ref, observations, issues, self.declared, self.complete, span)
+
+
+def nothing_read(ref: FileRef, limit: int = 64 * 2**20) -> FileIssue | None:
+    """A CSV/TSV file read as a header and no rows, although a line after its first holds data:
+    a quote opened in the header and never closed takes every row into one column name
+    (RFC 4180 section 2, rule 6), which no reader reports.  None when the file is a header only
+    (or cannot be read again: the read already reported why)."""
+    if is_url(ref.path):
+        return None
+    try:
+        with open_stream(ref.path, ref.compression, limit=limit) as fh:
+            in_first_line = True
+            while chunk := fh.read(1 << 20):
+                if in_first_line:
+                    nl = chunk.find(b"\n")
+                    if nl < 0:
+                        continue
+                    chunk, in_first_line = chunk[nl + 1 :], False
+                if chunk.strip():
+                    break
+            else:
+                return None
+    except Exception:  # noqa: BLE001 - unreadable now: the read itself reported what it met
+        return None
+    return FileIssue(ref.rel, "nothing-read", f"no row was read from {ref.size:,} bytes of more than one line: "
+                     "a quote opened in the header and never closed takes every row into a column name", line=2)
 
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
