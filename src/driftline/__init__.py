@@ -64,6 +64,7 @@ def scan(
     include: _Sequence[str] = (),
     exclude: _Sequence[str] = (),
     include_hidden: bool = False,
+    follow_links: bool = False,
     jobs: int = 1,
     max_errors: int | None = None,
     max_record_bytes: int | None = None,
@@ -85,7 +86,8 @@ def scan(
 
     batch_rows bounds the rows per batch (drift is tracked batch by batch) and batch_bytes
     the input bytes of its records (None: 64 MiB), whichever ends a batch first; include and
-    exclude are globs on the path or name; jobs reads files in parallel processes;
+    exclude are globs on the path or name; symbolic links that lead out of the paths given
+    are skipped (link-outside-root) unless follow_links; jobs reads files in parallel processes;
     max_errors stops reading new files after that many errors; the max_* limits (None:
     the defaults of ReadOptions) report a too-long record, too many decompressed bytes,
     too high a compression ratio or too many CSV columns instead of reading on; max_paths
@@ -125,7 +127,7 @@ def scan(
     storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
     return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                        jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
-                       where=where, storage=storage, max_events=max_events)
+                       where=where, storage=storage, max_events=max_events, follow_links=follow_links)
 
 
 def check(

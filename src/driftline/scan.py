@@ -42,6 +42,7 @@ def scan_paths(
     where: Sequence[str] = (),
     storage: StorageOptions | None = None,
     max_events: int | None = None,
+    follow_links: bool = False,
 ) -> Profile:
     """Scan paths into a Profile. Raises InputPathError when nothing can be found at all.
 
@@ -66,7 +67,8 @@ def scan_paths(
         found = discover_remote(paths, storage=storage, include=include, exclude=exclude,
                                 include_hidden=include_hidden, where=conditions)
     else:
-        found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden)
+        found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden,
+                         follow_links=follow_links)
         if conditions:
             found = replace(found, files=tuple(f for f in found.files if partitions_pass(f.partitions, conditions)))
     if not found.files:
@@ -92,6 +94,8 @@ def scan_paths(
         options["max_paths"] = opts.max_paths
     if max_events is not None:
         options["max_events"] = max_events
+    if follow_links:
+        options["follow_links"] = True
     return Profile(found.root, tuple(results), found.skipped, options, time.perf_counter() - started)
 
 

@@ -34,7 +34,8 @@ from driftline.sources.base import (
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
 Folders are walked recursively in sorted order; key=value folder names become partition
-values. Files starting with '.' or '_' are skipped and counted. Formats come from the
+values. Files starting with '.' or '_' are skipped and counted, and so are symbolic links
+that lead out of the paths given (--follow-links follows them). Formats come from the
 extension (.jsonl .ndjson .json .csv .tsv .parquet, plus .gz .bz2 .zst .xz) or from the
 first bytes.
 
@@ -170,6 +171,11 @@ def scan_command(
     ),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
+    follow_links: bool = typer.Option(
+        False,
+        "--follow-links",
+        help="Follow symbolic links that lead out of the paths given (skipped and listed by default).",
+    ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option(
         "local",
@@ -204,6 +210,7 @@ def scan_command(
             include=include,
             exclude=exclude,
             include_hidden=hidden,
+            follow_links=follow_links,
             jobs=jobs,
             max_errors=max_errors,
             max_record_bytes=max_record_bytes,
