@@ -80,6 +80,8 @@ def scan(
     endpoint_url: str | None = None,
     region: str | None = None,
     anonymous: bool = False,
+    example_values: str = "show",
+    hash_key: bytes | str | None = None,
     progress: _Callable[[int, int, str], None] | None = None,
 ) -> Profile:
     """Scan files, folders, globs or s3:// URLs (one, or a list of them) into a Profile.
@@ -96,7 +98,10 @@ def scan(
     fixes the CSV delimiter (sniffed otherwise); where keeps only key=value partitions
     that pass ('day>=2026-11-01'); engine 'dask' reads on a cluster (scheduler address,
     or local workers); endpoint_url, region and anonymous reach an S3-compatible store
-    (credentials come from the environment, never from here); progress(done, total,
+    (credentials come from the environment, never from here); example_values 'hide' keeps
+    every example value out of the profile and so out of every output made from it, 'hash'
+    replaces each by a keyed HMAC-SHA256 (hash_key, else the DRIFTLINE_HASH_KEY
+    environment variable), so a report can be shared; progress(done, total,
     current_file) is called as files finish. The result depends on none of jobs and
     engine. Raises InputPathError when a path does not exist or holds no data file, and
     OptionError for an option value of the wrong type or outside its range.
@@ -107,8 +112,10 @@ def scan(
     >>> p.fields["x"].stats.types, [e.kind for e in p.events]
     ({'float64': 1, 'int64': 1}, ['type-widened'])
     """
+    from driftline.conceal import conceal, value_policy
     from driftline.sources.remote import StorageOptions
 
+    values = value_policy(example_values, hash_key)  # a bad mode or a missing key fails before the scan
     if isinstance(paths, str | _os.PathLike):
         paths = [paths]
     limits = {
@@ -125,9 +132,10 @@ def scan(
     }
     read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, **limits)
     storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
-    return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
-                       jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
-                       where=where, storage=storage, max_events=max_events, follow_links=follow_links)
+    profile = _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
+                          jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
+                          where=where, storage=storage, max_events=max_events, follow_links=follow_links)
+    return conceal(profile, values)
 
 
 def check(
@@ -138,12 +146,15 @@ def check(
     state: str | _os.PathLike[str] | None = None,
     verify: bool = False,
     rebuild: bool = False,
+    example_values: str = "show",
+    hash_key: bytes | str | None = None,
 ) -> Verdict:
     """Check data (paths, a saved report or a Profile) against a baseline under a policy.
 
     baseline is a JSON Schema file or a saved scan report; policy a Policy, a TOML file or
     None for the defaults; state an incremental state file (only new or changed files are
-    read; verify also compares content hashes, rebuild starts the state over).
+    read; verify also compares content hashes, rebuild starts the state over);
+    example_values and hash_key as for scan (the verdict's examples).
     Verdict.passed / Verdict.exit_code say whether the gate passes (docs/gate.md).
 
     >>> import driftline, tempfile, pathlib, json
@@ -154,9 +165,11 @@ def check(
     >>> v.exit_code, [(x.field, x.change, x.file, x.row, x.example) for x in v.violations]
     (1, [('x', 'int64 → string', 'a.jsonl', 0, '"1"')])
     """
+    from driftline.conceal import value_policy
     from driftline.gate.run import run_check
 
-    verdict, _ = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify, rebuild=rebuild)
+    verdict, _ = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify, rebuild=rebuild,
+                           values=value_policy(example_values, hash_key))
     return verdict
 
 

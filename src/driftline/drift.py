@@ -201,7 +201,7 @@ def _event(
         batch=obs.batch,
         row=ex.row if ex else obs.row_start,
         line=ex.line if ex else None,
-        example=ex.value if ex else None,
+        example=ex.value if ex and ex.value else None,  # "" once values are hidden (conceal)
         count=count,
         seq=seq,
     )

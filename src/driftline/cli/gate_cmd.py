@@ -11,6 +11,8 @@ from rich.console import Console
 
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
+from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
+from driftline.conceal import conceal
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.errors import InputPathError
@@ -135,7 +137,10 @@ def check_command(
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
     hidden: bool = _HIDDEN,
+    example_values: str | None = EXAMPLE_VALUES,
+    hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
+    values = values_of(example_values, hash_key_file, policy)
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
     if json_out == "-" and junit == "-":
@@ -144,7 +149,7 @@ def check_command(
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
-                                  rebuild=rebuild, scan=settings, progress=bar)
+                                  rebuild=rebuild, scan=settings, progress=bar, values=values)
     finally:
         bar.close()
     if note:
@@ -175,12 +180,15 @@ def diff_command(
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
     hidden: bool = _HIDDEN,
+    example_values: str | None = EXAMPLE_VALUES,
+    hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
     s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden)
+    values = values_of(example_values, hash_key_file)
 
     def load(side: str):  # noqa: ANN202 - a Profile
-        return profile_of(side, read=s.read, include=s.include, exclude=s.exclude,
-                          include_hidden=s.include_hidden, jobs=s.jobs)
+        return conceal(profile_of(side, read=s.read, include=s.include, exclude=s.exclude,
+                                  include_hidden=s.include_hidden, jobs=s.jobs), values)
 
     diffs: tuple[Diff, ...]
     if by is not None:

@@ -12,6 +12,7 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 
 import driftline
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
 from driftline.drift import DEFAULT_MAX_EVENTS
 from driftline.emit.atomic import write_output
 from driftline.emit.html import write_html
@@ -199,7 +200,10 @@ def scan_command(
     ),
     region: str | None = typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
+    example_values: str | None = EXAMPLE_VALUES,
+    hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
+    values = values_of(example_values, hash_key_file)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         # The verb is the library call, option for option (tests/test_cli_api_same.py).
@@ -226,6 +230,8 @@ def scan_command(
             endpoint_url=endpoint_url,
             region=region,
             anonymous=anonymous,
+            example_values=values.mode,
+            hash_key=values.key,
             progress=bar,
         )
     finally:

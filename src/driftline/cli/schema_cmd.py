@@ -9,6 +9,8 @@ import typer
 from rich.console import Console
 
 from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
+from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
+from driftline.conceal import conceal
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
@@ -124,7 +126,10 @@ def schema_command(
     jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
                              help="Files read in parallel."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
+    example_values: str | None = EXAMPLE_VALUES,
+    hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
+    values = values_of(example_values, hash_key_file, config)
     if to is not None and to not in FORMATS:
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
@@ -137,7 +142,7 @@ def schema_command(
     _check_out(rules, "--rules")
     opts = _options(config, strict, prefer_decimal, timestamp_unit, timestamp_zone, parse_strings,
                     null_tokens, max_null_share, min_field_share)
-    profile = profile_of(paths, read=ReadOptions(batch_rows=batch_rows), jobs=jobs)
+    profile = conceal(profile_of(paths, read=ReadOptions(batch_rows=batch_rows), jobs=jobs), values)
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "
                              "(driftline scan shows the problems)")
