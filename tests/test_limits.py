@@ -305,6 +305,18 @@ def test_events_past_max_events_are_counted_not_listed(tmp_path: Path):
     assert summary["summarised"] == {"events_listed": 10, "events_by_kind": {"field-new": 40, "field-gone": 40}}
     assert len(to_dict(cut)["events"]) == 10
     valid_report(to_dict(cut))
+    # The HTML and the terminal say so too.
+    from rich.console import Console
+
+    from driftline.emit.html import render_html
+    from driftline.emit.terminal import render
+
+    assert "80 (the first 10 listed; --max-events)" in render_html(cut)
+    console = Console(record=True, width=200)
+    render(cut, console)
+    text = console.export_text()
+    assert "… 70 more events counted, not listed (--max-events)" in text
+    assert "warning  80 drift events found; the first 10 are listed (--max-events)" in text
 
 
 def test_batches_past_the_limit_merge_into_blocks_with_exact_counts(tmp_path: Path, monkeypatch: pytest.MonkeyPatch):
