@@ -33,6 +33,7 @@ __version__ = "0.1.0"
 import os as _os
 from collections.abc import Callable as _Callable
 from collections.abc import Sequence as _Sequence
+from typing import Any as _Any
 
 from driftline.drift import Event
 from driftline.errors import (
@@ -118,7 +119,7 @@ def scan(
     values = value_policy(example_values, hash_key)  # a bad mode or a missing key fails before the scan
     if isinstance(paths, str | _os.PathLike):
         paths = [paths]
-    limits = {
+    limits: dict[str, _Any] = {
         name: value
         for name, value in (
             ("max_record_bytes", max_record_bytes),

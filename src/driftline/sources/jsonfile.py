@@ -346,7 +346,8 @@ def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
         return
     if len(data) > whole:
         if first == ord("{") and _first_line_is_object(data, start):
-            yield from read_jsonl(_Chain(data[start:], stream), rel, opts, first_line_offset=start)
+            chained = io.BufferedReader(_Chain(data[start:], stream), buffer_size=1 << 20)
+            yield from read_jsonl(chained, rel, opts, first_line_offset=start)
             return
         yield FileIssue(rel, "too-large", f"JSON document larger than {whole:,} bytes that is not an array: it is "
                         "one record (--max-record-bytes); write it as JSON Lines or as an array to scan it",
