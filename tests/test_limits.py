@@ -221,6 +221,15 @@ def test_a_large_document_that_is_not_an_array_is_reported(tmp_path: Path):
     assert [(i.kind, i.line, i.byte_offset) for i in res.issues] == [("too-large", 1, 0)]
 
 
+def test_a_large_json_file_of_json_lines_is_read_as_lines(tmp_path: Path):
+    (tmp_path / "a.json").write_text("".join(json.dumps({"id": i, "s": "x" * 50}) + "\n" for i in range(5000)))
+    big = driftline.scan(tmp_path, batch_bytes=10_000, max_record_bytes=10_000).files[0]  # past both: streamed
+    whole = driftline.scan(tmp_path).files[0]  # under both: parsed whole, then read as lines
+    assert big.rows == whole.rows == 5000 and big.issues == whole.issues == ()
+    sizes = [len(json.dumps({"id": i, "s": "x" * 50})) + 1 for i in range(5000)]
+    assert [o.rows for o in big.observations] == reference_batches(sizes, 65_536, 10_000)
+
+
 # -- field paths are capped --------------------------------------------------------------------------
 
 
