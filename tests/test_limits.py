@@ -375,3 +375,29 @@ def test_batch_rows_1_is_summarised_not_flooded(tmp_path: Path):
     assert report["fields"]["v"]["types"] == {"int64": 2500, "string": 2500}
     assert res["rss"] < RSS_LIMIT
     assert digests(data) == before
+
+
+def test_thinning_as_it_comes_equals_the_offline_rule_in_one_part_or_two():
+    from driftline.observe.observation import Observation
+    from driftline.observe.stats import Example, FieldStats
+    from driftline.thinning import Thinner, block_size, concat_blocks, merge_block
+
+    def obs(i: int) -> Observation:
+        st = FieldStats(types={"int64": 2}, samples={"type:int64": (Example("f", 2 * i, None, str(i)),)})
+        return Observation("f", i, 2 * i, 2, {"x": st})
+
+    for limit in (1, 2, 3, 5, 41):  # odd limits make a block stay open across a doubling
+        for n in (1, 2, 3, 10, 57, 333):
+            span = block_size(n, limit)  # the rule: the smallest power of two with ceil(n / span) <= limit
+            assert -(-n // span) <= limit and (span == 1 or -(-n // (span // 2)) > limit)
+            offline = [merge_block([obs(i) for i in range(j, min(n, j + span))], j // span)
+                       for j in range(0, n, span)]
+            for cut in (0, n // 3, n):  # one reader, or two byte spans of the file
+                parts = []
+                for lo, hi in ((0, cut), (cut, n)):
+                    t = Thinner(limit)
+                    for i in range(lo, hi):
+                        t.add(obs(i))
+                    parts.append(t.result())
+                blocks, got = concat_blocks(parts)
+                assert (got, list(blocks)) == (span, offline), (limit, n, cut)
