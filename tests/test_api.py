@@ -27,6 +27,7 @@ SURFACE = [
     "Event",
     "FieldSummary",
     "InputPathError",
+    "OptionError",
     "OutputError",
     "Policy",
     "PolicyError",

@@ -18,7 +18,7 @@ import orjson
 import pytest
 
 import driftline.sources.jsonfile as jsonfile
-from driftline.observe import jsonbatch, jsonparse
+from driftline.observe import jsonbatch, jsonnum, jsonparse
 from driftline.report import to_dict
 from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
@@ -54,7 +54,7 @@ def _report(paths: list[Path], exact: bool, batch_rows: int) -> bytes:
         profile = scan_paths([str(p) for p in paths], read=ReadOptions(batch_rows=batch_rows, exact=exact))
         data = to_dict(profile)
     data.pop("duration_s")
-    return orjson.dumps(data, option=orjson.OPT_SORT_KEYS)
+    return jsonnum.dumps(data, option=orjson.OPT_SORT_KEYS)  # integers past 64 bits stay exact
 
 
 def _same(paths: list[Path], batch_rows: int) -> dict[str, Any]:
@@ -165,7 +165,7 @@ def test_lines_the_exact_reader_reports(tmp_path: Path, knobs: str) -> None:
                                                                      exact=True))
         a, b = to_dict(profile), to_dict(exact)
         a.pop("duration_s"), b.pop("duration_s")
-        assert orjson.dumps(a) == orjson.dumps(b)
+        assert jsonnum.dumps(a) == jsonnum.dumps(b)
     kinds = sorted({i.kind for i in profile.issues})
     assert kinds == ["bom", "crlf", "malformed-json", "too-large"]
 
@@ -294,7 +294,7 @@ def test_spans_in_parallel_equal_one_reader(tmp_path: Path, monkeypatch: pytest.
             profile = scan_paths([str(target)], read=ReadOptions(batch_rows=64, exact=exact), jobs=jobs)
             data = to_dict(profile)
             data.pop("duration_s")
-            reports.append(orjson.dumps(data))
+            reports.append(jsonnum.dumps(data))
         assert reports[0] == reports[1]
 
 
@@ -361,7 +361,7 @@ def test_csv_spans_in_parallel_equal_one_reader(tmp_path: Path, monkeypatch: pyt
         profile = scan_paths([str(target)], read=replace(opts, exact=exact), jobs=jobs)
         data_ = to_dict(profile)
         data_.pop("duration_s")
-        reports.append(orjson.dumps(data_))
+        reports.append(jsonnum.dumps(data_))
     assert reports[0] == reports[1]
     if joins is not None:
         assert fallbacks == ([] if joins else ["one.csv"])
@@ -380,7 +380,7 @@ def test_csv_edge_cases_as_spans(monkeypatch: pytest.MonkeyPatch) -> None:
             profile = scan_paths([str(f) for f in files], read=read, jobs=jobs)
             data = to_dict(profile)
             data.pop("duration_s")
-            reports.append(orjson.dumps(data))
+            reports.append(jsonnum.dumps(data))
         assert reports[0] == reports[1]
 
 

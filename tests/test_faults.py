@@ -339,9 +339,14 @@ def test_symlink_loops_dangling_links_fifos_and_devices_are_skipped_and_counted(
     assert reasons["here"] == "symlink-loop" and reasons["sub/up"] == "symlink-loop"
     assert reasons["self.jsonl"] == "cannot stat: Too many levels of symbolic links"
     assert reasons["dangling.jsonl"] == "cannot stat: No such file or directory"
-    for name in ["pipe.jsonl", "zeros.jsonl", *devices]:
+    for name in ["pipe.jsonl", *devices]:
         assert reasons[name] == "special", name
+    assert reasons["zeros.jsonl"] == "link-outside-root"  # /dev/zero is outside the scanned folder
     assert profile.rows == 6
+    # Following links out of the root, devices and loops are still never read.
+    followed = scan_paths([d], read=ReadOptions(), jobs=1, follow_links=True)
+    assert [f.rel for f in followed.files] == ["good.jsonl", "sub/in.jsonl"]
+    assert {s.rel: s.reason for s in followed.skipped}["zeros.jsonl"] == "special"
 
 
 def test_file_names_that_are_not_utf8_are_profiled_and_never_collide_silently(tmp_path):

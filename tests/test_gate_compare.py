@@ -188,11 +188,16 @@ def test_file_errors_against_the_rate(tmp_path):
     write_lines(d / "bad.jsonl", ['{"id": 2, "ts": "1985-04-12T23:20:50.52Z"}', '{"id": 3,'])
     p = driftline.scan(d)
     v = compare(p, baseline_from_json_schema(CONTRACT))
-    [e] = v.violations
+    e, lost = v.violations
     assert (e.rule, e.field, e.change, e.file, e.line) == ("file_errors", None, "file error: malformed-json",
                                                             "bad.jsonl", 2)
     assert "1 of 2 files (50.0%)" in e.message
-    assert compare(p, baseline_from_json_schema(CONTRACT), Policy(max_file_error_rate=50)).passed
+    # The rate may allow the errors; the line set aside still counts (unread_rows, default fail).
+    assert (lost.rule, lost.change, lost.file, lost.line) == ("unread_rows", "rows not read: malformed-json",
+                                                              "bad.jsonl", 2)
+    lenient = compare(p, baseline_from_json_schema(CONTRACT), Policy(max_file_error_rate=50))
+    assert [v.rule for v in lenient.violations] == ["unread_rows"]
+    assert compare(p, baseline_from_json_schema(CONTRACT), Policy(max_file_error_rate=50, unread_rows="warn")).passed
 
 
 def test_cast_rules_turn_strings_into_cast_loss(tmp_path):

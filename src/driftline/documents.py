@@ -13,6 +13,7 @@ from typing import Any
 import orjson
 
 from driftline.errors import DriftlineError, InputPathError
+from driftline.observe import jsonnum
 
 
 def read_json_document(path: str | Path, what: str, not_json: type[DriftlineError], hint: str = "") -> Any:
@@ -32,7 +33,7 @@ def read_json_document(path: str | Path, what: str, not_json: type[DriftlineErro
     except OSError as exc:
         raise InputPathError(f"cannot read {what} {source}: {exc.strerror}") from None
     try:
-        return orjson.loads(raw)
+        return jsonnum.loads(raw)  # integers past 64 bits stay exact (a report's extremes)
     except orjson.JSONDecodeError as exc:
         raise not_json(
             f"{what} {source} is not JSON ({exc.msg} at line {exc.lineno}, column {exc.colno}){hint}"

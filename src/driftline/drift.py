@@ -6,7 +6,9 @@ reading never changes which event is "first".
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+import heapq
+from collections import Counter
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -109,14 +111,47 @@ def _present(st: FieldStats | None) -> bool:
     return st is not None and st.present > 0
 
 
+DEFAULT_MAX_EVENTS = 10_000  # events listed; past it they are only counted, by kind
+
+
 def drift_events(profile: Profile) -> tuple[Event, ...]:
-    """All drift events of a profile, in scan order."""
+    """The drift events of a profile in scan order: the first max_events of them (the scan
+    option, else DEFAULT_MAX_EVENTS); drift_summary also gives the exact totals."""
+    return drift_summary(profile)[0]
+
+
+def drift_summary(profile: Profile, limit: int | None = None) -> tuple[tuple[Event, ...], dict[str, int]]:
+    """(the first `limit` events in scan order, the number of events of each kind, all counted).
+
+    Only `limit` events are held at any time: a scan with a tiny batch_rows over many paths
+    and partitions finds events by the million.
+    """
+    if limit is None:
+        limit = int(profile.options.get("max_events", DEFAULT_MAX_EVENTS))
+    counts: Counter[str] = Counter()
+
+    def counted() -> Iterator[Event]:
+        for e in _all_events(profile):
+            counts[e.kind] += 1
+            yield e
+
+    # nsmallest is sorted(...)[:limit] (ties keep their order) with a heap of limit events.
+    kept = heapq.nsmallest(limit, counted(), key=_order)
+    return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}
+
+
+def _order(e: Event) -> tuple[int, int, int, str]:
+    return (e.seq, e.row if e.row is not None else -1, _KIND_ORDER[e.kind], e.path)
+
+
+def _all_events(profile: Profile) -> Iterator[Event]:
+    """Every drift event, batch by batch (the events of one batch in no set order), then the gone ones."""
     sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]] = [
         (o, f.partitions) for f in profile.files for o in f.observations
     ]
     states: dict[str, _PathState] = {}
-    events: list[Event] = []
     for seq, (obs, parts) in enumerate(sequence):
+        events: list[Event] = []
         new_paths = {p for p, st in obs.fields.items() if p not in states and _present(st)}
         for path, st in obs.fields.items():
             if not _present(st):
@@ -137,9 +172,8 @@ def drift_events(profile: Profile) -> tuple[Event, ...]:
             events.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
             state.had_null = state.had_null or st.nulls > 0
             state.had_values = state.had_values or st.nonnull > 0
-    events.extend(_gone_events(sequence, states))
-    events.sort(key=lambda e: (e.seq, e.row if e.row is not None else -1, _KIND_ORDER[e.kind], e.path))
-    return tuple(events)
+        yield from events
+    yield from _gone_events(sequence, states)
 
 
 def _types_text(st: FieldStats) -> str:
@@ -167,7 +201,7 @@ def _event(
         batch=obs.batch,
         row=ex.row if ex else obs.row_start,
         line=ex.line if ex else None,
-        example=ex.value if ex else None,
+        example=ex.value if ex and ex.value else None,  # "" once values are hidden (conceal)
         count=count,
         seq=seq,
     )

@@ -4,6 +4,7 @@
     ├── InputPathError             a path or URL that does not exist or cannot be listed
     ├── UnreadableFileError        a file that cannot be opened or decoded at all
     ├── PolicyError                a policy or option file with an unknown key or bad value
+    ├── OptionError                an option value of the wrong type or outside its range
     ├── ReportVersionError         a saved report / state / rules file of another format
     ├── OutputError                an output path that cannot be written
     └── EngineError                (driftline.engines) the distributed engine is missing,
@@ -55,6 +56,20 @@ class PolicyError(DriftlineError):
 
     >>> isinstance(PolicyError("gate.toml: unknown key 'max_nul'"), DriftlineError)
     True
+    """
+
+
+class OptionError(DriftlineError, ValueError):
+    """An option value of the wrong type or outside its range (batch_rows=0, a 20-digit batch size).
+
+    It is also a ValueError, which option checks raised before it existed.
+
+    >>> import driftline
+    >>> try:
+    ...     driftline.scan(".", batch_rows=0)
+    ... except OptionError as exc:
+    ...     print(exc)
+    batch_rows must be an integer from 1 to 1,099,511,627,776, got 0
     """
 
 

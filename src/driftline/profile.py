@@ -156,11 +156,54 @@ class Profile:
         return summarise(self.stats, self.rows)
 
     @cached_property
-    def events(self) -> tuple[Any, ...]:
-        """Drift events in scan order (file path, then batch), each with its provenance."""
-        from driftline.drift import drift_events
+    def _drift(self) -> tuple[tuple[Any, ...], dict[str, int]]:
+        from driftline.drift import drift_summary
 
-        return drift_events(self)
+        return drift_summary(self)
+
+    @property
+    def events(self) -> tuple[Any, ...]:
+        """Drift events in scan order (file path, then batch), each with its provenance: the
+        first max_events of them (a scan option, 10,000 by default); see event_counts."""
+        return self._drift[0]
+
+    @property
+    def event_counts(self) -> dict[str, int]:
+        """How many drift events of each kind the scan found, listed in events or not.
+
+        >>> Profile("r", ()).event_counts
+        {}
+        """
+        return self._drift[1]
+
+    @property
+    def event_total(self) -> int:
+        """How many drift events the scan found (events lists at most max_events of them).
+
+        >>> Profile("r", ()).event_total
+        0
+        """
+        return sum(self._drift[1].values())
+
+    @property
+    def other_fields(self) -> tuple[int, int]:
+        """(paths, values) past the cap on distinct paths (max_paths): paths are counted per
+        batch, so a path past the cap in several batches counts in each.
+
+        >>> Profile("r", ()).other_fields
+        (0, 0)
+        """
+        obs = list(self.observations())
+        return sum(o.other_paths for o in obs), sum(o.other_values for o in obs)
+
+    @property
+    def batch_span(self) -> int:
+        """The most batches one observation stands for: 1 unless batches were summarised in blocks.
+
+        >>> Profile("r", ()).batch_span
+        1
+        """
+        return max((f.batch_span for f in self.files), default=1)
 
     def partition_keys(self) -> list[str]:
         """Partition keys (key=value folder names) in the order they first appear."""

@@ -19,10 +19,11 @@ from driftline import __version__
 from driftline.documents import read_json_document
 from driftline.errors import ReportVersionError
 from driftline.lattice import join_all, parse_key
+from driftline.observe import jsonnum
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
 from driftline.observe.textclass import classify
 from driftline.profile import Profile
-from driftline.sources.base import FileIssue, FileResult
+from driftline.sources.base import DEFAULT_MAX_PATHS, FileIssue, FileResult
 from driftline.sources.dialect import Dialect
 from driftline.sources.discover import Skipped
 from driftline.sources.encoding import TextEncoding
@@ -64,10 +65,11 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
             "bytes": profile.bytes,
             "formats": dict(sorted(formats.items())),
             "fields": len(profile.fields),
-            "events": len(profile.events),
+            "events": profile.event_total,
             "errors": sum(1 for i in issues if i.severity == "error"),
             "warnings": sum(1 for i in issues if i.severity == "warning"),
             "skipped": len(profile.skipped),
+            **summarised(profile),
         },
         "partitions": partition_types(profile),
         "fields": {
@@ -85,7 +87,40 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
     }
 
 
+def summarised(profile: Profile) -> dict[str, Any]:
+    """{"summarised": what the scan kept in summary only}, or {} when it kept everything:
+    events past max_events (counted by kind), batches merged into blocks, paths past max_paths."""
+    out: dict[str, Any] = {}
+    if len(profile.events) < profile.event_total:
+        out["events_listed"] = len(profile.events)
+        out["events_by_kind"] = profile.event_counts
+    if profile.batch_span > 1:
+        out["batch_span"] = profile.batch_span
+    paths, values = profile.other_fields
+    if paths:
+        out["other_paths"], out["other_values"] = paths, values
+    return {"summarised": out} if out else {}
+
+
+def limit_notes(profile: Profile) -> list[str]:
+    """One sentence per limit the scan reached (summarised), for the terminal and stderr."""
+    got = summarised(profile).get("summarised", {})
+    notes = []
+    if "other_paths" in got:
+        cap = profile.options.get("max_paths", DEFAULT_MAX_PATHS)
+        notes.append(f"field paths capped at {cap:,} (--max-paths): {got['other_values']:,} values of "
+                     f"{got['other_paths']:,} more paths (counted per batch) are counted as other fields")
+    if "events_listed" in got:
+        notes.append(f"{profile.event_total:,} drift events found; the first {got['events_listed']:,} are listed "
+                     "(--max-events), all are counted by kind in the JSON report")
+    if "batch_span" in got:
+        notes.append(f"batches summarised: up to {got['batch_span']:,} consecutive batches per observation, so that "
+                     "memory stays bounded (counts stay exact; drift is located per block)")
+    return notes
+
+
 def _file_json(f: FileResult, batches: bool) -> dict[str, Any]:
+    extra = {"batch_span": f.batch_span} if f.batch_span > 1 else {}
     return {
         "path": f.rel,
         "format": f.format,
@@ -100,6 +135,7 @@ def _file_json(f: FileResult, batches: bool) -> dict[str, Any]:
         "dialect": f.dialect.to_json() if f.dialect is not None else None,
         "issues": [i.to_json() for i in f.issues],
         "batches": [o.to_json() for o in f.observations] if batches else None,
+        **extra,
     }
 
 
@@ -125,11 +161,12 @@ def file_from_json(fd: Mapping[str, Any]) -> FileResult:
         complete=fd.get("complete", True),
         dialect=Dialect.from_json(fd["dialect"]) if fd.get("dialect") else None,
         encoding=TextEncoding.from_json(fd.get("encoding")),
+        batch_span=fd.get("batch_span", 1),
     )
 
 
 def dumps(profile: Profile) -> bytes:
-    return orjson.dumps(to_dict(profile), option=orjson.OPT_INDENT_2 | orjson.OPT_NON_STR_KEYS) + b"\n"
+    return jsonnum.dumps(to_dict(profile), option=orjson.OPT_INDENT_2 | orjson.OPT_NON_STR_KEYS) + b"\n"
 
 
 def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:

@@ -11,11 +11,13 @@ from typing import Any
 
 from driftline.errors import DriftlineError, InputPathError
 from driftline.profile import Profile
-from driftline.sources.base import FileResult, ReadOptions
+from driftline.ranges import check
+from driftline.sources.base import DEFAULT_BATCH_BYTES, DEFAULT_MAX_PATHS, FileResult, ReadOptions
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_file, read_files
 from driftline.sources.remote import StorageOptions, discover_remote, is_url, parse_condition, partitions_pass
 from driftline.sources.split import assemble, can_split, plan, read_span
+from driftline.thinning import ScanThinner, cap_paths, thin_result, thin_scan
 
 Progress = Callable[[int, int, str], None]  # (files done, files total, current file)
 
@@ -40,6 +42,8 @@ def scan_paths(
     scheduler: str | None = None,
     where: Sequence[str] = (),
     storage: StorageOptions | None = None,
+    max_events: int | None = None,
+    follow_links: bool = False,
 ) -> Profile:
     """Scan paths into a Profile. Raises InputPathError when nothing can be found at all.
 
@@ -52,6 +56,11 @@ def scan_paths(
     """
     if engine not in ("local", "dask"):
         raise DriftlineError(f"unknown engine {engine!r}; choose local or dask")
+    check("jobs", jobs)
+    if max_errors is not None:
+        check("max_errors", max_errors)
+    if max_events is not None:
+        check("max_events", max_events)
     opts = read or ReadOptions()
     started = time.perf_counter()
     conditions = [parse_condition(w) for w in where]
@@ -60,7 +69,7 @@ def scan_paths(
                                 include_hidden=include_hidden, where=conditions)
     else:
         found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden,
-                         sniff_unknown=sniff_unknown)
+                         sniff_unknown=sniff_unknown, follow_links=follow_links)
         if conditions:
             found = replace(found, files=tuple(f for f in found.files if partitions_pass(f.partitions, conditions)))
     if not found.files:
@@ -77,7 +86,17 @@ def scan_paths(
         results = read_all(found.files, opts, jobs, max_errors, progress)
     else:
         results = _read_reusing(found.files, opts, jobs, max_errors, progress, reuse, read_all)
-    options = {"batch_rows": opts.batch_rows, "include": list(include), "exclude": list(exclude)}
+    results = cap_paths(thin_scan(results), opts.max_paths)
+    options: dict[str, Any] = {"batch_rows": opts.batch_rows, "include": list(include), "exclude": list(exclude)}
+    # Only the limits that differ from their defaults: a report of a default scan stays as it was.
+    if opts.batch_bytes != DEFAULT_BATCH_BYTES:
+        options["batch_bytes"] = opts.batch_bytes
+    if opts.max_paths != DEFAULT_MAX_PATHS:
+        options["max_paths"] = opts.max_paths
+    if max_events is not None:
+        options["max_events"] = max_events
+    if follow_links:
+        options["follow_links"] = True
     return Profile(found.root, tuple(results), found.skipped, options, time.perf_counter() - started)
 
 
@@ -98,7 +117,7 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
               progress: Progress | None) -> list[FileResult]:
     if jobs > 1 and any(can_split(ref, opts) for ref in files):
         return _read_split(files, opts, jobs, max_errors, progress)
-    results: list[FileResult] = []
+    keep = ScanThinner()  # batch observations summarised as they come: memory stays bounded
     errors = 0
     total = len(files)
     pool = ProcessPoolExecutor(max_workers=jobs) if jobs > 1 and total > 1 else None
@@ -117,8 +136,8 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
                 else (read_files(g, opts, before=before) for g in groups))
         for res in (res for group in done for res in group):
             if progress and pool:
-                progress(len(results), total, res.rel)
-            results.append(res)
+                progress(len(keep.results), total, res.rel)
+            keep.add(res)
             errors += res.errors
             if max_errors is not None and errors >= max_errors:
                 break
@@ -126,8 +145,8 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
         if pool:
             pool.shutdown(wait=True, cancel_futures=True)
     if progress:
-        progress(len(results), total, "")
-    return results
+        progress(len(keep.results), total, "")
+    return keep.results
 
 
 _GROUP_FILES = 256  # Parquet files read one after another and observed together (observe.bulk)
@@ -170,7 +189,7 @@ def _read_split(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_erro
         tasks.extend(("span", sp) for sp in spans) if len(spans) > 1 else tasks.append(("file", ref))
     with ProcessPoolExecutor(max_workers=jobs) as pool:
         done = list(pool.map(_task, tasks, [opts] * len(tasks), chunksize=max(1, len(tasks) // (jobs * 8))))
-    results: list[FileResult] = []
+    keep = ScanThinner()
     errors, k, total = 0, 0, len(files)
     for i, ref in enumerate(files):
         if progress:
@@ -182,13 +201,13 @@ def _read_split(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_erro
             n = sum(1 for kind, sp in tasks[k:] if kind == "span" and sp.ref is tasks[k][1].ref)
             res = _assemble(ref, done[k : k + n], opts)
             k += n
-        results.append(res)
+        keep.add(thin_result(res))
         errors += res.errors
         if max_errors is not None and errors >= max_errors:
             break
     if progress:
-        progress(len(results), total, "")
-    return results
+        progress(len(keep.results), total, "")
+    return keep.results
 
 
 def _assemble(ref: FileRef, parts: list[Any], opts: ReadOptions) -> FileResult:

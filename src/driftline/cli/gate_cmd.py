@@ -11,6 +11,8 @@ from rich.console import Console
 
 from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.scan_cmd import CSV_DIALECT_HELP, _Bar  # the scan's progress bar: stderr, terminals only
+from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
+from driftline.conceal import conceal
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.errors import InputPathError
@@ -20,6 +22,7 @@ from driftline.gate.policy import ACTION_MEANING, key_help
 from driftline.gate.run import ScanSettings, run_check
 from driftline.gate.verdict import junit_xml
 from driftline.gate.verdict import render as render_verdict
+from driftline.ranges import RANGES
 from driftline.scan import default_jobs
 from driftline.sources.base import DEFAULT_BATCH_ROWS, DEFAULT_MAX_RECORD_BYTES, ReadOptions
 
@@ -100,10 +103,14 @@ def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int
 
 _INCLUDE = typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable).")
 _EXCLUDE = typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable).")
-_BATCH = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch (as for scan).")
-_JOBS = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel. Results do not depend on it.")
-_MAXERR = typer.Option(None, "--max-errors", min=1, help="Stop reading new files once this many errors were found.")
-_RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer records are reported.")
+_BATCH = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1],
+                      help="Rows per batch (as for scan).")
+_JOBS = typer.Option(default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
+                     help="Files read in parallel. Results do not depend on it.")
+_MAXERR = typer.Option(None, "--max-errors", min=1, max=RANGES["max_errors"][1],
+                       help="Stop reading new files once this many errors were found.")
+_RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, max=RANGES["max_record_bytes"][1],
+                       help="Longer records are reported.")
 _DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data when not given.")
 _DIALECT = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP)
 _HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'.")
@@ -135,7 +142,10 @@ def check_command(
     csv_dialect: list[str] = _DIALECT,
     encoding: str | None = ENCODING_OPTION,
     hidden: bool = _HIDDEN,
+    example_values: str | None = EXAMPLE_VALUES,
+    hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
+    values = values_of(example_values, hash_key_file, policy)
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
     if json_out == "-" and junit == "-":
@@ -145,7 +155,7 @@ def check_command(
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
-                                  rebuild=rebuild, scan=settings, progress=bar)
+                                  rebuild=rebuild, scan=settings, progress=bar, values=values)
     finally:
         bar.close()
     if note:
@@ -178,13 +188,16 @@ def diff_command(
     csv_dialect: list[str] = _DIALECT,
     encoding: str | None = ENCODING_OPTION,
     hidden: bool = _HIDDEN,
+    example_values: str | None = EXAMPLE_VALUES,
+    hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
     s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden, csv_dialect,
                   encoding)
+    values = values_of(example_values, hash_key_file)
 
     def load(side: str):  # noqa: ANN202 - a Profile
-        return profile_of(side, read=s.read, include=s.include, exclude=s.exclude,
-                          include_hidden=s.include_hidden, jobs=s.jobs)
+        return conceal(profile_of(side, read=s.read, include=s.include, exclude=s.exclude,
+                                  include_hidden=s.include_hidden, jobs=s.jobs), values)
 
     diffs: tuple[Diff, ...]
     if by is not None:

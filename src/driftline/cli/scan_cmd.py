@@ -12,18 +12,23 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 
 import driftline
 from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
+from driftline.drift import DEFAULT_MAX_EVENTS
 from driftline.emit.atomic import write_output
 from driftline.emit.html import write_html
 from driftline.emit.safe import safe_text
 from driftline.emit.terminal import render
 from driftline.errors import InputPathError
-from driftline.report import dumps
+from driftline.ranges import RANGES
+from driftline.report import dumps, limit_notes
 from driftline.scan import default_jobs
 from driftline.sources.base import (
+    DEFAULT_BATCH_BYTES,
     DEFAULT_BATCH_ROWS,
     DEFAULT_MAX_COLUMNS,
     DEFAULT_MAX_DECOMPRESSED_BYTES,
     DEFAULT_MAX_DECOMPRESSION_RATIO,
+    DEFAULT_MAX_PATHS,
     DEFAULT_MAX_RECORD_BYTES,
 )
 
@@ -115,37 +120,65 @@ def scan_command(
         DEFAULT_BATCH_ROWS,
         "--batch-rows",
         min=1,
-        help="Rows per batch: drift is tracked batch by batch and memory is bounded by it.",
+        max=RANGES["batch_rows"][1],
+        help="Rows per batch: drift is tracked batch by batch.",
+    ),
+    batch_bytes: int = typer.Option(
+        DEFAULT_BATCH_BYTES,
+        "--batch-bytes",
+        min=1,
+        max=RANGES["batch_bytes"][1],
+        help="A batch also ends once its records reach this many bytes of input (bounds memory; default 64 MiB).",
     ),
     jobs: int = typer.Option(
-        default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel (processes). Results do not depend on it."
+        default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
+        help="Files read in parallel (processes). Results do not depend on it.",
     ),
     max_errors: int | None = typer.Option(
-        None, "--max-errors", min=1, help="Stop reading new files once this many errors were found."
+        None, "--max-errors", min=1, max=RANGES["max_errors"][1],
+        help="Stop reading new files once this many errors were found.",
     ),
     max_record_bytes: int = typer.Option(
         DEFAULT_MAX_RECORD_BYTES,
         "--max-record-bytes",
         min=1,
+        max=RANGES["max_record_bytes"][1],
         help="Longer JSON lines / CSV rows are reported, not read.",
     ),
     max_decompressed_bytes: int = typer.Option(
         DEFAULT_MAX_DECOMPRESSED_BYTES,
         "--max-decompressed-bytes",
         min=1,
+        max=RANGES["max_decompressed_bytes"][1],
         help="Stop reading a file past this many bytes of content (decompression bombs); rows before are kept.",
     ),
     max_decompression_ratio: float = typer.Option(
         DEFAULT_MAX_DECOMPRESSION_RATIO,
         "--max-decompression-ratio",
         min=1,
+        max=RANGES["max_decompression_ratio"][1],
         help="Stop a compressed file once it expands more than this many times (judged past 16 MiB).",
     ),
     max_columns: int = typer.Option(
         DEFAULT_MAX_COLUMNS,
         "--max-columns",
         min=1,
+        max=RANGES["max_columns"][1],
         help="A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch).",
+    ),
+    max_paths: int = typer.Option(
+        DEFAULT_MAX_PATHS,
+        "--max-paths",
+        min=1,
+        max=RANGES["max_paths"][1],
+        help="Distinct field paths kept; past it, a warning and the rest counted as other fields.",
+    ),
+    max_events: int = typer.Option(
+        DEFAULT_MAX_EVENTS,
+        "--max-events",
+        min=1,
+        max=RANGES["max_events"][1],
+        help="Drift events listed; past it they are counted by kind only (the report says so).",
     ),
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data if not given."),
     csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
@@ -157,6 +190,11 @@ def scan_command(
         help="Also read files of other extensions (.txt, .dat...) found in folders whose first bytes look like JSON, "
         "CSV or Parquet; without it they are skipped unread. Files without an extension, and files named on their "
         "own, are always sniffed.",
+    ),
+    follow_links: bool = typer.Option(
+        False,
+        "--follow-links",
+        help="Follow symbolic links that lead out of the paths given (skipped and listed by default).",
     ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
     engine: str = typer.Option(
@@ -181,25 +219,32 @@ def scan_command(
     ),
     region: str | None = typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
+    example_values: str | None = EXAMPLE_VALUES,
+    hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
     if html_out == "-" and json_out == "-":
         raise typer.BadParameter("only one of --json and --html can write to stdout ('-')")
+    values = values_of(example_values, hash_key_file)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         # The verb is the library call, option for option (tests/test_cli_api_same.py).
         profile = driftline.scan(
             paths,
             batch_rows=batch_rows,
+            batch_bytes=batch_bytes,
             include=include,
             exclude=exclude,
             include_hidden=hidden,
             sniff_unknown=sniff_unknown,
+            follow_links=follow_links,
             jobs=jobs,
             max_errors=max_errors,
             max_record_bytes=max_record_bytes,
             max_decompressed_bytes=max_decompressed_bytes,
             max_decompression_ratio=max_decompression_ratio,
             max_columns=max_columns,
+            max_paths=max_paths,
+            max_events=max_events if max_events != DEFAULT_MAX_EVENTS else None,
             delimiter=delimiter,
             csv_dialect=csv_dialect,
             encoding=encoding,
@@ -209,6 +254,8 @@ def scan_command(
             endpoint_url=endpoint_url,
             region=region,
             anonymous=anonymous,
+            example_values=values.mode,
+            hash_key=values.key,
             progress=bar,
         )
     finally:
@@ -220,6 +267,9 @@ def scan_command(
         write_output(json_out, dumps(profile))
     if html_out is not None:
         write_html(profile, html_out)
+    if quiet:
+        for note in limit_notes(profile):  # a limit reached is said even without the summary
+            err_console.print(f"warning: {note}", markup=False)
     if not quiet:
         # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
         console = err_console if failed or "-" in (json_out, html_out) else Console(highlight=False)

@@ -10,11 +10,14 @@ from rich.console import Console
 
 from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.cli.scan_cmd import CSV_DIALECT_HELP
+from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
+from driftline.conceal import conceal
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
 from driftline.errors import InputPathError, OutputError, PolicyError
 from driftline.gate.inputs import profile_of
+from driftline.ranges import RANGES
 from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
 from driftline.recommend.plan import Recommendation
 from driftline.scan import default_jobs
@@ -123,11 +126,16 @@ def schema_command(
     json_mode: str | None = typer.Option(None, "--json-mode", metavar="permissive|strict",
                                          help="JSON Schema of the data as it arrives, or after the rules "
                                               "(default: the --strict setting)."),
-    batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch (as for scan)."),
-    jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel."),
+    batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1],
+                                   help="Rows per batch (as for scan)."),
+    jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
+                             help="Files read in parallel."),
     csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
+    example_values: str | None = EXAMPLE_VALUES,
+    hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
+    values = values_of(example_values, hash_key_file, config)
     if to is not None and to not in FORMATS:
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
@@ -140,7 +148,8 @@ def schema_command(
     _check_out(rules, "--rules")
     opts = _options(config, strict, prefer_decimal, timestamp_unit, timestamp_zone, parse_strings,
                     null_tokens, max_null_share, min_field_share, leading_zeros)
-    profile = profile_of(paths, read=ReadOptions(batch_rows=batch_rows, csv_dialects=tuple(csv_dialect)), jobs=jobs)
+    profile = conceal(profile_of(paths, read=ReadOptions(batch_rows=batch_rows, csv_dialects=tuple(csv_dialect)),
+                                 jobs=jobs), values)
     if profile.rows == 0 and profile.error_count and all(
         not f.rows and (f.errors or not f.observations) for f in profile.files):
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "

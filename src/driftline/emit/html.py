@@ -30,7 +30,7 @@ from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
 from driftline.profile import FieldSummary, Profile
-from driftline.report import partition_types
+from driftline.report import limit_notes, partition_types
 
 MAX_TABLE_ROWS = 2_000
 MAX_CHARTS = 60
@@ -165,7 +165,9 @@ def _overview(profile: Profile) -> list[tuple[str, str]]:
         ("partitions", "; ".join(f"{k} ({v['type']}, {len(v['values']):,} values)" for k, v in parts.items())
          or "none"),
         ("fields", f"{len(profile.fields):,}"),
-        ("drift events", f"{len(profile.events):,}"),
+        ("drift events", f"{profile.event_total:,}" + (f" (the first {len(profile.events):,} listed; --max-events)"
+                                                       if profile.event_total > len(profile.events) else "")),
+        *(("limit reached", note) for note in limit_notes(profile)),
         ("file errors", f"{sum(1 for i in issues if i.severity == 'error'):,}"),
         ("warnings", f"{sum(1 for i in issues if i.severity == 'warning'):,}"),
         ("skipped", f"{len(profile.skipped):,}"),

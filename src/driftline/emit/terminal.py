@@ -15,7 +15,7 @@ from driftline.drift import Event
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
 from driftline.profile import FieldSummary, Profile
-from driftline.report import partition_types
+from driftline.report import limit_notes, partition_types
 
 MAX_EVENTS_SHOWN = 200
 MAX_ISSUES_SHOWN = 50
@@ -190,10 +190,17 @@ def render(profile: Profile, console: Console) -> None:
     console.print()
     if profile.events:
         console.print(events_block(profile.events), end="")
+        if profile.event_total > len(profile.events):
+            console.print(f"… {profile.event_total - len(profile.events):,} more events counted, not listed "
+                          "(--max-events)")
         if len(profile.events) > MAX_EVENTS_SHOWN:
             console.print(f"… {len(profile.events) - MAX_EVENTS_SHOWN} more events in the JSON report (--json)")
     else:
         console.print("No drift: every batch shows the same fields and types.")
+    notes = limit_notes(profile)
+    if notes:
+        console.print()
+        console.print(Text("Limits reached\n", style="bold") + Text("".join(f"warning  {n}\n" for n in notes)), end="")
     if profile.issues:
         console.print()
         console.print(issues_block(profile), end="")

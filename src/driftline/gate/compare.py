@@ -340,9 +340,30 @@ def check_file_errors(w: _Walk, out: _Findings) -> None:
                 within=rate <= limit)
 
 
+def check_unread_rows(w: _Walk, out: _Findings) -> None:
+    """unread_rows: every file the scan could not read whole, whatever the error rate allows.
+
+    A gate must not pass data it did not see: rows set aside (a malformed line, a ragged row,
+    a line past --max-record-bytes), a read stopped early (truncated, changed, unreadable),
+    or a file read as empty although it holds data (nothing-read).  Each file is listed with
+    its first such problem; the count is the problems, as rows lost cannot always be told.
+    """
+    for f in w.profile.files:
+        lost = [i for i in f.issues if i.severity == "error"]
+        if not lost and f.complete:
+            continue
+        first = lost[0] if lost else None
+        what = first.kind if first else "incomplete"
+        where = Example(f.rel, first.row if first and first.row is not None else -1, first.line if first else None,
+                        first.message if first else "the read stopped early")
+        out.add("unread_rows", None, f"rows not read: {what}",
+                "{files} not read whole: rows set aside or never read; a gate passes only data it read",
+                max(len(lost), 1), f.rel, where)
+
+
 RULE_CHECKS: tuple[Callable[[_Walk, _Findings], None], ...] = (
     check_types, check_narrowing, check_fields, check_gone, check_content, check_range, check_null_share,
-    check_file_errors,
+    check_file_errors, check_unread_rows,
 )
 
 

@@ -45,6 +45,7 @@ RULES: dict[str, str] = {
     "out_of_range": "a number below the baseline's minimum or above its maximum",
     "null_share_rise": "null/absent share up more than max_null_share_rise points",
     "file_errors": "more than max_file_error_rate percent of files have read errors",
+    "unread_rows": "a file with rows set aside, or read as empty although it holds data",
     "cast_loss": "a cast rule would null more than max_cast_loss values of a field",
 }
 
@@ -86,6 +87,7 @@ class Policy:
     max_null_share_rise: float = 10.0
     file_errors: Action = "fail"
     max_file_error_rate: float = 0.0
+    unread_rows: Action = "fail"
     cast_loss: Action = "fail"
     max_cast_loss: int = 0
 
@@ -165,6 +167,7 @@ def load_policy(path: str | Path) -> Policy:
         raise PolicyError(f"policy file {str(path)!r} is not UTF-8 text (byte {exc.start})") from None
     except tomllib.TOMLDecodeError as exc:
         raise PolicyError(f"policy file {str(path)!r} is not valid TOML: {exc}") from None
+    data.pop("output", None)  # the [output] table: how examples are shown (driftline.conceal.output_values)
     tables = [k for k, v in data.items() if isinstance(v, dict)]
     if tables:
         raise PolicyError(

@@ -15,6 +15,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
+from driftline.conceal import ValuePolicy, conceal, output_values
 from driftline.errors import InputPathError
 from driftline.gate.baseline import Baseline, baseline_from_json_schema, load_baseline  # noqa: F401
 from driftline.gate.compare import compare
@@ -49,8 +50,13 @@ def run_check(
     rebuild: bool = False,
     scan: ScanSettings | None = None,
     progress: Progress | None = None,
+    values: ValuePolicy | None = None,
 ) -> tuple[Verdict, str | None]:
-    """Judge paths (or a Profile, or a saved report) against a baseline; also a note for stderr."""
+    """Judge paths (or a Profile, or a saved report) against a baseline; also a note for stderr.
+
+    values, when it hides or hashes example values, applies to the verdict's examples (and
+    to those of the scanned profile it judges); the policy file's [output] table may set it.
+    """
     settings = scan or ScanSettings()
     pol = policy if isinstance(policy, Policy) else load_policy(os.fspath(policy)) if policy is not None else Policy()
     base = baseline if isinstance(baseline, Baseline) else load_baseline(os.fspath(baseline))
@@ -74,4 +80,7 @@ def run_check(
                              max_errors=settings.max_errors, progress=progress)
         # files_reused counts files taken as they were: from a state file or a saved report.
         counts = {"files_read": 0, "files_reused": len(profile.files)} if loaded else {"files_read": len(profile.files)}
+    values = values if values is not None and values.mode != "show" else output_values(policy) or values
+    if values is not None:
+        profile = conceal(profile, values)
     return compare(profile, base, pol, counts=counts), note

@@ -32,6 +32,7 @@ import orjson
 from driftline import __version__
 from driftline.emit.atomic import write_output
 from driftline.errors import InputPathError, ReportVersionError
+from driftline.observe import jsonnum
 from driftline.profile import Profile
 from driftline.report import file_from_json, file_json
 from driftline.scan import Progress, scan_paths
@@ -92,7 +93,7 @@ def load_state(path: str | Path) -> State | None:
     except OSError as exc:
         raise InputPathError(f"cannot read state file {str(path)!r}: {exc.strerror}") from None
     try:
-        data = orjson.loads(raw)
+        data = jsonnum.loads(raw)
     except orjson.JSONDecodeError as exc:
         raise _damaged(path, f"not JSON: {exc.msg} at line {exc.lineno}, column {exc.colno}") from None
     if not isinstance(data, dict) or data.get("format") != STATE_FORMAT:
@@ -140,7 +141,7 @@ def state_bytes(profile: Profile, opts: ReadOptions, *, verify: bool) -> bytes:
         "digest": DIGEST if verify else None,
         "files": files,
     }
-    return orjson.dumps(doc, option=orjson.OPT_NON_STR_KEYS) + b"\n"
+    return jsonnum.dumps(doc, option=orjson.OPT_NON_STR_KEYS) + b"\n"
 
 
 def _inside_scan(state_path: str, paths: Sequence[str | os.PathLike[str]]) -> bool:

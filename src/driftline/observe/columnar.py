@@ -348,6 +348,8 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
             pc.greater(arr, pa.scalar(SAFE_INT, t)), pc.less(arr, pa.scalar(-SAFE_INT, t))
         )
         out["unsafe_ints"] = int(pc.sum(big).as_py() or 0)
+    elif pa.types.is_decimal(t) and t.scale == 0:  # integers too: float64 holds them only up to 2**53
+        out["unsafe_ints"] = pc.sum(pc.greater(pc.abs(arr), pa.scalar(SAFE_INT, pa.int64()))).as_py() or 0
     return out
 
 
@@ -391,6 +393,38 @@ def _string_stats_reference(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx,
     }
 
 
+_INT64_DIGITS = 19  # 9223372036854775807: the decimal class's integers start here
+_INTEGER_TEXT = r"^\s*-?[0-9]+\s*$"
+
+
+def _integer_text(arr: pa.Array) -> pa.Array:
+    return pc.fill_null(pc.match_substring_regex(arr, _INTEGER_TEXT), False)
+
+
+def _firsts(arr: pa.Array, rows: pa.Array | None, mask: pa.Array) -> list[tuple[int, Any]]:
+    """The first value where mask holds: a type inferred from text keeps one example, as below."""
+    return [(_rows(rows, i), arr[i].as_py()) for i in pa_indices(mask, 1)]
+
+
+def _big_integers(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, types: dict[str, int],
+                  samples: dict[str, tuple[Example, ...]]) -> int:
+    """Integer literals of the decimal class (19 digits or more: past int64 or near it) as a type
+    of their own, decimal(N,0) with N the literal's digits, as a JSON literal is (observe.records),
+    never float64, which rounds them (RFC 8259 section 6 leaves integer length open; IEEE 754
+    binary64 holds 15 to 17 digits).  Returns how many there were."""
+    mask = pc.and_(class_masks(arr)["decimal"], _integer_text(arr))
+    n = mask.true_count
+    if n:
+        digits = pc.utf8_length(pc.utf8_ltrim(pc.utf8_trim_whitespace(arr), characters="-"))
+        digits = pc.if_else(mask, digits, None)
+        for d in sorted(pc.unique(digits.drop_null()).to_pylist()):
+            at = pc.fill_null(pc.equal(digits, d), False)
+            key = f"decimal({d},0)"
+            types[key] = types.get(key, 0) + at.true_count
+            samples["type:" + key] = tuple(ctx.example(r, v) for r, v in _firsts(arr, rows, at))
+    return n
+
+
 def _observe_text(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None:
     """A text column: types are inferred from content classes; empty and null tokens are null."""
     samples: dict[str, tuple[Example, ...]] = {}
@@ -408,6 +442,12 @@ def _observe_text(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) ->
         if inferred is None:
             nulls += n
             null_examples.extend(samples.get("class:" + cls, ()))
+        elif cls == "decimal" and stats.get("int_digits", 0) >= _INT64_DIGITS:
+            n -= _big_integers(arr, rows, ctx, types, samples)
+            if n:
+                types[inferred] = types.get(inferred, 0) + n
+                samples["type:" + inferred] = tuple(ctx.example(r, v) for r, v in _firsts(
+                    arr, rows, pc.and_(class_masks(arr)["decimal"], pc.invert(_integer_text(arr)))))
         else:
             types[inferred] = types.get(inferred, 0) + n
             first = samples.get("class:" + cls, ())[:1]

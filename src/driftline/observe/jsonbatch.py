@@ -35,14 +35,13 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from driftline.observe import linetext, paths
+from driftline.observe.jsonnum import loads as json_loads
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.observation import Observation
-from driftline.observe.records import SAFE_INT, observe_records
+from driftline.observe.records import SAFE_INT, is_int_key, observe_records
 from driftline.observe.stats import SAMPLES_PER_KEY, FieldStats
 from driftline.observe.strprofile import string_profile
 from driftline.observe.textclass import CLASSES
-
-_INT_KEYS = ("decimal(39,0)", "int64", "uint64")
 
 
 class NotExact(Exception):
@@ -100,13 +99,16 @@ def observe_json_lines(
     row_start: int,
     first_line: int,
     hint: Hint | None = None,
+    max_paths: int | None = None,
 ) -> tuple[Observation, Hint] | None:
     """Observe lines (without newlines), one JSON object each, as the exact walk would.
 
     Returns the observation and a Hint for the next batch, or None when the batch must
     take the exact walk.  Rows Arrow cannot type with the rest (a list that is sometimes
     a scalar, a number that became a string) are set aside: a few are walked exactly,
-    many are typed by Arrow on their own; the parts merge.
+    many are typed by Arrow on their own; the parts merge.  A batch whose records hold many
+    different keys (Arrow's work grows with rows times columns), or more paths than
+    max_paths, takes the exact walk, which keeps the paths within the cap.
 
     >>> obs, _ = observe_json_lines([b'{"a": 1, "b": null}', b'{"a": 2.5}'], file="f.jsonl", batch=0,
     ...                             row_start=0, first_line=1)
@@ -114,7 +116,7 @@ def observe_json_lines(
     ({'float64': 1, 'int64': 1}, 1)
     """
     n = len(lines)
-    if n == 0:
+    if n == 0 or keys_vary(lines):
         return None
     # One join with an empty last piece, not join + b"\n": a second copy of the batch costs
     # a fresh allocation (page faults) each time.
@@ -135,10 +137,69 @@ def observe_json_lines(
     if got is None:
         return None
     fields = _merge_groups(got[0])
-    if fields is None:
+    if fields is None or max_paths is not None and len(fields) > max_paths:
         return None
     obs = Observation(file=file, batch=batch, row_start=row_start, rows=n, fields=fields)
     return obs, Hint(got[1], tuple(aside))
+
+
+_CENSUS_LINES = 64
+_SPARSE_CELLS = 50_000_000  # rows × columns past which Arrow's parse of mostly-empty columns costs seconds
+_SPARSE_COLUMNS = 256
+
+
+def keys_vary(lines: Sequence[bytes]) -> bool:
+    """Whether the records seem to hold many more distinct paths than one record holds (records
+    keyed by ids, say), so many that Arrow's parse, which builds every column over every row,
+    would cost far more than the walk: 20,000 keys over 20,000 lines took Arrow 30 s and 5 GB.
+
+    A sample of lines spread over the batch is read: when nearly every line of its second
+    half still brings a path not seen before, keys do not repeat, and the batch's distinct
+    paths are projected from that rate.  A bounded set of optional keys stops bringing new
+    ones early and keeps the columnar path.
+
+    >>> keys_vary([b'{"id": %d, "k%d": 1}' % (i, i) for i in range(100_000)])
+    True
+    >>> keys_vary([b'{"id": %d, "v": [1, {"w": 2}]}' % i for i in range(100_000)])
+    False
+    """
+    n = len(lines)
+    step = max(1, n // _CENSUS_LINES)
+    seen: set[str] = set()
+    total = count = late_new = 0
+    for i in range(0, n, step):
+        try:
+            value = orjson.loads(lines[i])
+        except orjson.JSONDecodeError:
+            continue
+        got: list[str] = []
+        _paths_of(value, "", got, 0)
+        before = len(seen)
+        seen.update(got)
+        total += len(got)
+        count += 1
+        if count > _CENSUS_LINES // 2:
+            late_new += len(seen) - before
+    if count <= _CENSUS_LINES // 2:
+        return False
+    rate = late_new / (count - _CENSUS_LINES // 2)
+    projected = len(seen) + rate * (n - count)
+    sparse = rate >= 0.9 and projected > 2 * total / count
+    # Each column also costs the columnar pass about a millisecond, whatever its values.
+    return sparse and (projected * n > _SPARSE_CELLS or projected > _SPARSE_COLUMNS)
+
+
+def _paths_of(v: Any, path: str, out: list[str], depth: int) -> None:
+    if depth > 64:  # deep nesting: a census needs no more
+        return
+    if type(v) is dict:
+        for k, sub in v.items():
+            child = path + "." + k
+            out.append(child)
+            _paths_of(sub, child, out, depth + 1)
+    elif type(v) is list:
+        for sub in v:
+            _paths_of(sub, path + "[]", out, depth + 1)
 
 
 _MAX_SET_ASIDE_ROUNDS = 4
@@ -222,7 +283,7 @@ def _observe_part(
     if walked:
         at = sorted(walked)
         try:
-            records = [orjson.loads(text.lines[r]) for r in at]
+            records = [json_loads(text.lines[r]) for r in at]
         except orjson.JSONDecodeError:
             return None
         groups.append(_walk(records, at, text.where))
@@ -284,7 +345,7 @@ def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[
         return None
     rows = _needed_rows(b)
     try:
-        records = [orjson.loads(text.lines[r]) for r in rows]
+        records = [json_loads(text.lines[r]) for r in rows]
     except orjson.JSONDecodeError:
         return None  # Arrow took a line orjson refuses
     # The columns gave the string statistics: the walk over these rows is for examples, counts
@@ -464,7 +525,7 @@ def _combine(
             continue  # never present in this batch (absent wherever Arrow wrote null)
         types, extra = part.types, dict(part.extra)
         if part.numbers_from_walk:
-            ints = {k: v for k, v in w.types.items() if k in _INT_KEYS}
+            ints = {k: v for k, v in w.types.items() if is_int_key(k)}
             groups = [(extra.get("minimum"), extra.get("maximum")), (w.minimum, w.maximum)]
             if part.text_ints is not None and part.text_floats is not None:
                 int_values = part.text_ints[1].filter(_outside(part.text_ints[0], seen))

@@ -34,7 +34,9 @@ class Observation:
     row_start is the 0-based index within the file of the batch's first row. unobserved
     names the top-level columns left out because driftline cannot observe their type, each
     with why; the reader turns them into one file problem per column. It is not part of the
-    saved report: the problems are.
+    saved report: the problems are.  other_paths
+    counts the distinct paths past the cap on paths (ReadOptions.max_paths) that the batch
+    held, other_values their values; neither is in fields.
     """
 
     file: str
@@ -43,14 +45,19 @@ class Observation:
     rows: int
     fields: dict[str, FieldStats] = field(default_factory=dict)
     unobserved: tuple[tuple[str, str], ...] = ()
+    other_paths: int = 0
+    other_values: int = 0
 
     def to_json(self) -> dict[str, Any]:
-        return {
+        out: dict[str, Any] = {
             "batch": self.batch,
             "row_start": self.row_start,
             "rows": self.rows,
             "fields": {p: s.to_json() for p, s in self.fields.items()},
         }
+        if self.other_paths:  # written only when a cap was reached: other reports stay as they were
+            out["other_paths"], out["other_values"] = self.other_paths, self.other_values
+        return out
 
     @staticmethod
     def from_json(file: str, d: Mapping[str, Any]) -> Observation:
@@ -60,4 +67,6 @@ class Observation:
             row_start=d["row_start"],
             rows=d["rows"],
             fields={p: FieldStats.from_json(s) for p, s in d["fields"].items()},
+            other_paths=d.get("other_paths", 0),
+            other_values=d.get("other_values", 0),
         )

@@ -79,10 +79,25 @@ class _Acc:
             self.hi = v
 
 
-def _int_key(v: int) -> str:
+def int_key(v: int) -> str:
+    """int64, uint64, or beyond both a decimal of the literal's digits: an integer literal of any
+    length is an integer (RFC 8259 section 6 sets no limit), never a float64 that rounds it.
+
+    >>> int_key(2**63 - 1), int_key(2**63), int_key(-(2**63) - 1), int_key(10**29)
+    ('int64', 'uint64', 'decimal(19,0)', 'decimal(30,0)')
+    """
     if INT64_MIN <= v <= INT64_MAX:
         return "int64"
-    return "uint64" if 0 <= v < 2**64 else "decimal(39,0)"
+    return "uint64" if 0 <= v < 2**64 else f"decimal({len(str(abs(v)))},0)"
+
+
+def is_int_key(key: str) -> bool:
+    """Whether a type key is one int_key gives (what an integer literal is observed as).
+
+    >>> is_int_key("int64"), is_int_key("decimal(30,0)"), is_int_key("decimal(5,2)")
+    (True, True, False)
+    """
+    return key in ("int64", "uint64") or key.startswith("decimal(") and key.endswith(",0)")
 
 
 # Child paths repeat in every record; quoting a name is a regular-expression match, so the
@@ -101,9 +116,32 @@ def _child(parent: str | None, name: str) -> str:
     return got
 
 
-def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> None:
+class _Other:
+    """Values of paths past the cap: how many, and of how many distinct paths (one batch)."""
+
+    __slots__ = ("limit", "values", "paths")
+
+    def __init__(self, limit: int) -> None:
+        self.limit = limit
+        self.values = 0
+        self.paths: set[str] = set()
+
+    def full(self, accs: dict[str, _Acc], path: str) -> bool:
+        if len(accs) < self.limit:
+            return False
+        self.values += 1
+        self.paths.add(path)
+        return True
+
+
+_NO_CAP = 2**62
+
+
+def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int, other: _Other) -> None:
     acc = accs.get(path)
     if acc is None:
+        if other.full(accs, path):
+            return  # a path past the cap: counted, its value (and what it holds) not walked
         acc = accs[path] = _Acc()
     if v is None:
         acc.nulls += 1
@@ -118,7 +156,7 @@ def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> Non
     elif t is bool:
         acc.count("bool", row, v)
     elif t is int:
-        acc.count(_int_key(v), row, v)
+        acc.count(int_key(v), row, v)
         acc.number(v)
         if v > SAFE_INT or v < -SAFE_INT:
             acc.unsafe += 1
@@ -130,17 +168,17 @@ def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int) -> Non
             raise DepthExceeded(f"nesting deeper than {MAX_DEPTH} levels")
         acc.count("struct", row, v)
         for name, sub in v.items():
-            _walk(sub, _child(path, name), row, accs, depth + 1)
+            _walk(sub, _child(path, name), row, accs, depth + 1, other)
     elif t is list:
         if depth >= MAX_DEPTH:
             raise DepthExceeded(f"nesting deeper than {MAX_DEPTH} levels")
         acc.count("list", row, v)
         acc.items += len(v)
         item_path = paths.element(path)
-        if not v and item_path not in accs:
+        if not v and item_path not in accs and len(accs) < other.limit:
             accs[item_path] = _Acc()  # the element path exists even when nothing tells its type
         for sub in v:
-            _walk(sub, item_path, row, accs, depth + 1)
+            _walk(sub, item_path, row, accs, depth + 1, other)
     else:  # pragma: no cover - orjson yields only JSON types
         acc.count("string", row, str(v))
 
@@ -154,6 +192,7 @@ def observe_records(
     lines: Sequence[int] | None = None,
     rows: Sequence[int] | None = None,
     samples_only: bool = False,
+    max_paths: int | None = None,
 ) -> Observation:
     """Observe parsed JSON values, one per row. Objects give their fields; anything else is '$'.
 
@@ -163,21 +202,25 @@ def observe_records(
     few rows for their examples), so strings are classified only as far as the examples
     of each class need: their class counts are kept, the digit, leap-second and lowercase
     counts left at 0.
+    max_paths: the batch keeps at most this many paths, in the order they first show; the
+    values of the others are counted in Observation.other_values (other_paths of them).
 
     >>> obs = observe_records([{"a": 1}, {"a": "x"}, {}], file="f.jsonl", batch=0, row_start=0)
     >>> obs.fields["a"].types, obs.rows
     ({'int64': 1, 'string': 1}, 3)
     """
     accs: dict[str, _Acc] = {}
+    other = _Other(_NO_CAP if max_paths is None else max_paths)
     for i, rec in enumerate(records):
         if type(rec) is dict:
             for name, sub in rec.items():
-                _walk(sub, _child(None, name), i, accs, 1)
+                _walk(sub, _child(None, name), i, accs, 1, other)
         else:
-            _walk(rec, paths.ROOT, i, accs, 0)
+            _walk(rec, paths.ROOT, i, accs, 0, other)
     where = _Where(file, row_start, lines, rows)
     fields = {p: _finish(acc, where, samples_only) for p, acc in sorted(accs.items())}
-    return Observation(file=file, batch=batch, row_start=row_start, rows=len(records), fields=fields)
+    return Observation(file=file, batch=batch, row_start=row_start, rows=len(records), fields=fields,
+                       other_paths=len(other.paths), other_values=other.values)
 
 
 class _Where:

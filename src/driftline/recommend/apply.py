@@ -233,6 +233,14 @@ def _typed(arr: pa.Array, key: str, plan: FieldPlan, tally: Tally) -> pa.Array:
         changed = pc.not_equal(back, pc.cast(arr, pa.decimal128(38, 0)))
         tally.add(path, "unsafe_int:changed", _true(pc.fill_null(changed, False)))
         return out
+    if t.name.startswith("float") and pa.types.is_decimal(src) and src.scale == 0:
+        # Integers as decimal(N,0) (JSON literals past uint64, or a Parquet column): as for int64.
+        beyond = pc.greater(pc.abs(arr), pa.scalar(SAFE_INT, pa.int64()))
+        tally.add(path, "unsafe_int", _true(pc.fill_null(beyond, False)))
+        out = pc.cast(arr, out_type, safe=False)
+        back = pc.cast(out, src, safe=False)
+        tally.add(path, "unsafe_int:changed", _true(pc.fill_null(pc.not_equal(back, arr), False)))
+        return out
     if t.name == "timestamp" and t.tz and (pa.types.is_date(src) or pa.types.is_timestamp(src) and not src.tz):
         naive = pc.cast(arr, pa.timestamp(t.unit))
         tally.add(path, "assumed_zone", valid)

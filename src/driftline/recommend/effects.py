@@ -9,6 +9,7 @@ made no such count, the effect says so (exact=False) instead of guessing.
 from __future__ import annotations
 
 from driftline.lattice import STRING, DType
+from driftline.observe.records import is_int_key
 from driftline.observe.textclass import MAX_DECIMAL_DIGITS
 from driftline.recommend.options import RecommendOptions, zone_is_fixed
 from driftline.recommend.plan import Effect
@@ -75,13 +76,14 @@ def _numeric(r: Reading) -> list[Effect]:
     if not t.name.startswith("float"):
         return []
     out: list[Effect] = []
+    # JSON integer literals past uint64 arrive as decimal(N,0): integers too, counted in unsafe_ints.
     ints = [x for x in r.forms if x.source == "typed" and x.dtype is not None
-            and (x.dtype.name.startswith("int") or x.dtype.name.startswith("uint"))]
+            and (x.dtype.name.startswith("int") or x.dtype.name.startswith("uint") or is_int_key(x.key))]
     if ints and f.typed.unsafe_ints:
         out.append(Effect("change", "unsafe_int", f.typed.unsafe_ints, (), True,
                           "integers beyond ±9007199254740991 (RFC 7493 §2.2): float64 holds only some "
                           "of them exactly (IEEE 754 binary64 has a 53-bit significand)"))
-    wide = any(x.source == "typed" and x.dtype is not None and x.dtype.name == "decimal"
+    wide = any(x.source == "typed" and x.dtype is not None and x.dtype.name == "decimal" and x not in ints
                and (x.dtype.precision or 0) > FLOAT_EXACT_DIGITS for x in r.forms)
     typed_str, cells = _sides(r, ("integer", "decimal", PADDED))
     wide = wide or typed_str and f.typed.int_digits + f.typed.frac_digits > FLOAT_EXACT_DIGITS \

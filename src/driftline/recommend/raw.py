@@ -30,8 +30,9 @@ import pyarrow.csv as pcsv
 import pyarrow.parquet as pq
 
 from driftline.lattice import from_arrow
-from driftline.observe import paths
+from driftline.observe import jsonnum, paths
 from driftline.observe.observation import TEXT_CLASS_TYPE
+from driftline.observe.records import int_key
 from driftline.observe.textclass import class_of
 from driftline.sources.base import ReadOptions
 from driftline.sources.csvfile import arrow_options, head_of
@@ -41,7 +42,6 @@ from driftline.sources.formats import open_stream
 from driftline.sources.native import hand, hand_bytes
 
 TEXT = "text"  # the variant child of CSV cells
-_INT64 = (-(2**63), 2**63 - 1)
 _SCALAR_TYPES: dict[str, pa.DataType] = {
     "bool": pa.bool_(), "int64": pa.int64(), "uint64": pa.uint64(), "float64": pa.float64(),
     "string": pa.string(), TEXT: pa.string(),
@@ -64,7 +64,7 @@ def _kind(v: Any) -> str:
     if t is bool:
         return "bool"
     if t is int:
-        return "int64" if _INT64[0] <= v <= _INT64[1] else "uint64"
+        return int_key(v)  # as the scan types it: int64, uint64, or decimal(N,0) past both
     if t is float:
         return "float64"
     if t is dict:
@@ -72,6 +72,12 @@ def _kind(v: Any) -> str:
     if t is list:
         return "list"
     return "string"
+
+
+def _int_decimal(kind: str) -> pa.DataType:
+    """The Arrow type of an integer literal past uint64 ('decimal(30,0)'): decimal128 up to 38 digits."""
+    digits = int(kind[len("decimal(") : kind.index(",")])
+    return pa.decimal128(digits, 0) if digits <= 38 else pa.decimal256(digits, 0)
 
 
 def variant_value(v: Any) -> dict[str, Any] | None:
@@ -121,7 +127,7 @@ class _Shape:
             elif kind == "list":
                 t = pa.list_((self.item or _Shape()).arrow())
             else:
-                t = _SCALAR_TYPES[kind]
+                t = _SCALAR_TYPES.get(kind) or _int_decimal(kind)
             children.append((kind, t))
         return pa.struct(children)
 
@@ -236,7 +242,7 @@ def _json_records(ref: FileRef) -> Iterator[Any]:
         data = data[3:]
     if ref.format == "json":
         try:
-            doc = orjson.loads(data)
+            doc = jsonnum.loads(data)
         except orjson.JSONDecodeError:
             doc = None
         if doc is not None or not data.strip():
@@ -246,7 +252,7 @@ def _json_records(ref: FileRef) -> Iterator[Any]:
         line = line.removesuffix(b"\r")
         if line.strip():
             try:
-                yield orjson.loads(line)
+                yield jsonnum.loads(line)
             except orjson.JSONDecodeError:
                 continue
 

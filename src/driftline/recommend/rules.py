@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 
 from driftline.lattice import STRING, DType, family
 from driftline.observe import paths
+from driftline.observe.records import is_int_key
 from driftline.observe.stats import FieldStats
 from driftline.recommend.bounds import json_chars, value_chars
 from driftline.recommend.effects import scalar_effects, target_nullable
@@ -291,10 +292,7 @@ def _widen(name: str, families: tuple[str, ...]) -> Rule:
         alts: tuple[Alternative, ...] = ()
         unsafe = next((e for e in effects if e.cause == "unsafe_int"), None)
         if unsafe is not None:
-            alts = (Alternative("widen_numeric", "int64", f"keeps the {unsafe.count:,} large integers exact; "
-                                "float values lose their fraction (the scan does not count how many have one)"),
-                    Alternative("widen_numeric", "decimal(38,18)", "holds every integer up to 20 digits and "
-                                "floats to 18 places; floats are binary fractions, so most are rounded"))
+            alts = _exact_integer_alternatives(kinds, unsafe.count)
         return _scalar_plan(f, ctx, name, f"widens {', '.join(kinds)} to {r.target.key()}",
                             f"the field holds {describe_inputs(_inputs(f))}; {r.target.key()} holds them all",
                             alts)
@@ -302,6 +300,22 @@ def _widen(name: str, families: tuple[str, ...]) -> Rule:
     rule.__name__ = rule.__qualname__ = name
     rule.__doc__ = f"Typed values of several {families[0]} types, widened to the narrowest type holding all."
     return rule
+
+
+def _exact_integer_alternatives(kinds: list[str], unsafe: int) -> tuple[Alternative, ...]:
+    """What keeps large integers exact instead of float64: int64 while they all fit it; else a
+    decimal with room for the longest integer literal (and 18 places), or their digits as text."""
+    wide = [k for k in kinds if k == "uint64" or k.startswith("decimal(") and is_int_key(k)]
+    digits = max([20, *(int(k[len("decimal("):k.index(",")]) for k in wide if k != "uint64")])
+    places = min(18, 76 - digits)
+    decimal = Alternative("widen_numeric", f"decimal({digits + places},{places})", f"holds every integer up to "
+                          f"{digits} digits and floats to {places} places; floats are binary fractions, so most "
+                          "are rounded")
+    if not wide:
+        return (Alternative("widen_numeric", "int64", f"keeps the {unsafe:,} large integers exact; float values "
+                            "lose their fraction (the scan does not count how many have one)"), decimal)
+    return (decimal, Alternative("keep_as_json_text", "string", f"keeps the {unsafe:,} large integers exactly, "
+                                 "as their digits"))
 
 
 widen_numeric = _widen("widen_numeric", ("numeric",))

@@ -14,6 +14,7 @@ from driftline.sources.dialectpin import parse_pin
 
 if TYPE_CHECKING:
     from driftline.sources.encoding import TextEncoding
+from driftline.ranges import check
 
 DEFAULT_BATCH_ROWS = 65_536
 DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
@@ -25,13 +26,21 @@ RATIO_FLOOR_BYTES = 16 * 1024 * 1024  # the ratio is only judged past this many 
 # Each column costs its own pass per batch (about 1.5 ms, measured with 2 rows), so 100,000
 # columns would take minutes per batch and memory grows with rows times columns.
 DEFAULT_MAX_COLUMNS = 10_000
+# A batch also ends once its records' bytes reach this: parsed JSON takes about ten times its
+# text in memory, so batch_rows alone let a batch of long records grow to gigabytes.
+DEFAULT_BATCH_BYTES = 64 * 1024 * 1024
+# Distinct field paths one batch keeps (in the order they first show); the paths past it are
+# counted as "other fields".  Records with a key per id would otherwise grow without bound.
+DEFAULT_MAX_PATHS = 10_000
 
 
 @dataclass(frozen=True, slots=True)
 class ReadOptions:
     """Options every reader honours. Keyword-only, with safe defaults.
 
-    batch_rows              at most this many rows per batch (bounds memory per batch)
+    batch_rows              at most this many rows per batch
+    batch_bytes             a batch also ends once its records' input bytes reach this (bounds memory)
+    max_paths               distinct field paths kept per batch and per scan; the rest are "other fields"
     max_record_bytes        a longer JSON line / document / CSV line is reported, not read
     max_decompressed_bytes  stop a compressed file past this many bytes (decompression bombs)
     max_decompression_ratio stop once bytes out / bytes in exceeds this, past RATIO_FLOOR_BYTES
@@ -48,7 +57,7 @@ class ReadOptions:
     50000
     >>> ReadOptions(batch_rows=0)
     Traceback (most recent call last):
-    ValueError: batch_rows must be at least 1, got 0
+    driftline.errors.OptionError: batch_rows must be an integer from 1 to 1,099,511,627,776, got 0
     """
 
     batch_rows: int = DEFAULT_BATCH_ROWS
@@ -58,22 +67,20 @@ class ReadOptions:
     max_decompression_ratio: float = DEFAULT_MAX_DECOMPRESSION_RATIO
     max_columns: int = DEFAULT_MAX_COLUMNS
     exact: bool = False
+    batch_bytes: int = DEFAULT_BATCH_BYTES
+    max_paths: int = DEFAULT_MAX_PATHS
+
     csv_dialects: tuple[str, ...] = ()
     encoding: str | None = None
 
     def __post_init__(self) -> None:
+        for name in ("batch_rows", "batch_bytes", "max_record_bytes", "max_decompressed_bytes",
+                     "max_decompression_ratio", "max_columns", "max_paths"):
+            check(name, getattr(self, name))
         if self.encoding is not None:
             from driftline.sources.encoding import codec_name
 
             codec_name(self.encoding)  # ValueError for a name Python's codecs do not know
-        if self.batch_rows < 1:
-            raise ValueError(f"batch_rows must be at least 1, got {self.batch_rows}")
-        if self.max_record_bytes < 1:
-            raise ValueError(f"max_record_bytes must be at least 1, got {self.max_record_bytes}")
-        if self.max_decompressed_bytes < 1:
-            raise ValueError(f"max_decompressed_bytes must be at least 1, got {self.max_decompressed_bytes}")
-        if self.max_columns < 1:
-            raise ValueError(f"max_columns must be at least 1, got {self.max_columns}")
         for spec in self.csv_dialects:
             parse_pin(spec)  # a bad pin is an error before any file is read
         if self.delimiter is not None:
@@ -84,8 +91,6 @@ class ReadOptions:
                 raise PolicyError(f"--delimiter {self.delimiter!r}: give one punctuation character or a name "
                                   "(comma, tab, semicolon, pipe, colon, caret, tilde, space)") from None
             object.__setattr__(self, "delimiter", delimiter)
-        if not self.max_decompression_ratio >= 1:
-            raise ValueError(f"max_decompression_ratio must be at least 1, got {self.max_decompression_ratio}")
 
 
 def _typed(delimiter: str) -> str:
@@ -158,6 +163,7 @@ class FileResult:
     dialect: Dialect | None = None  # CSV / TSV: how the file is written (found or pinned)
     digest: str | None = field(default=None, compare=False)
     encoding: TextEncoding | None = None  # how a text file's bytes were decoded; None for Parquet
+    batch_span: int = 1  # batches per observation: more than 1 once a file's batches were summarised (thinning)
 
     @property
     def errors(self) -> int:

@@ -371,7 +371,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         yield from _ending(rel, opts, guard)
         return
     stopped = False
-    batches = Rebatch(opts.batch_rows)
+    batches = Rebatch(opts.batch_rows, opts.batch_bytes)
     while True:
         try:
             rb = reader.read_next_batch()
@@ -417,42 +417,85 @@ def _too_long(rel: str, opts: ReadOptions, guard: LineGuard) -> FileIssue:
 
 
 class Rebatch:
-    """Cuts Arrow's record batches, whatever their size, into batches of exactly `size` rows
-    (the last one shorter): slices, and a copy only of a batch that straddles two of Arrow's."""
+    """Cuts Arrow's record batches, whatever their size, into batches of `size` rows (the last
+    one shorter), or fewer when their cells' bytes reach max_bytes first (through the row that
+    reaches it; a row's bytes are its cells' plus one separator each, whatever Arrow's chunks):
+    slices, and a copy only of a batch that straddles two of Arrow's.  Row bytes are counted
+    only once Arrow's own size of what is held (an upper bound of them) reaches max_bytes."""
 
-    def __init__(self, size: int) -> None:
-        self.size = size
+    def __init__(self, size: int, max_bytes: int = 2**62) -> None:
+        self.size, self.max_bytes = size, max_bytes
         self._parts: deque[pa.RecordBatch] = deque()
+        self._sizes: dict[int, pa.Array] = {}  # id of a held part → its rows' bytes, once counted
         self._rows = 0
+        self._upper = 0  # bytes held, at least: Arrow's size plus a separator per cell
 
     def add(self, rb: pa.RecordBatch) -> Iterator[pa.RecordBatch]:
         if rb.num_rows:
             self._parts.append(rb)
             self._rows += rb.num_rows
-        while self._rows >= self.size:
-            yield self._take(self.size)
+            self._upper += _upper(rb)
+        while n := self._ready():
+            yield self._take(n)
 
     def rest(self) -> Iterator[pa.RecordBatch]:
-        if self._rows:
-            yield self._take(self._rows)
+        while self._rows:
+            yield self._take(self._ready() or self._rows)
+
+    def _ready(self) -> int:
+        """Rows of the next batch once it is complete, else 0."""
+        if self._upper >= self.max_bytes:
+            seen_rows = seen_bytes = 0
+            for part in self._parts:
+                sizes = self._sizes.get(id(part))
+                if sizes is None:
+                    sizes = self._sizes[id(part)] = _row_bytes(part)
+                total = pc.sum(sizes).as_py() or 0
+                if seen_bytes + total >= self.max_bytes:
+                    ends = pc.cumulative_sum(sizes)
+                    j = pc.index(pc.greater_equal(ends, self.max_bytes - seen_bytes), True).as_py()
+                    return min(self.size, seen_rows + j + 1)
+                seen_rows += part.num_rows
+                seen_bytes += total
+                if seen_rows >= self.size:
+                    break
+        return self.size if self._rows >= self.size else 0
 
     def _take(self, n: int) -> pa.RecordBatch:
         pieces: list[pa.RecordBatch] = []
         need = n
         while need:
             head = self._parts[0]
+            sizes = self._sizes.pop(id(head), None)
+            self._upper -= _upper(head)
             if head.num_rows <= need:
                 pieces.append(self._parts.popleft())
                 need -= head.num_rows
             else:
                 pieces.append(head.slice(0, need))
-                self._parts[0] = head.slice(need)
+                rest = self._parts[0] = head.slice(need)
+                self._upper += _upper(rest)
+                if sizes is not None:
+                    self._sizes[id(rest)] = sizes.slice(need)
                 need = 0
         self._rows -= n
         if len(pieces) == 1:
             return pieces[0]
         columns = [pa.concat_arrays([p.column(i) for p in pieces]) for i in range(pieces[0].num_columns)]
         return pa.RecordBatch.from_arrays(columns, schema=pieces[0].schema)
+
+
+def _upper(rb: pa.RecordBatch) -> int:
+    return int(rb.nbytes) + rb.num_rows * rb.num_columns
+
+
+def _row_bytes(rb: pa.RecordBatch) -> pa.Array:
+    """Each row's cell bytes plus one separator per cell (int64)."""
+    total = pa.repeat(pa.scalar(rb.num_columns, pa.int64()), rb.num_rows)
+    for col in rb.columns:
+        length = col.cast(pa.binary()) if not pa.types.is_binary(col.type) else col
+        total = pc.add(total, pc.fill_null(pc.binary_length(length).cast(pa.int64()), 0))
+    return total
 
 
 class CsvState:

@@ -246,7 +246,7 @@ def read_span(span: Span, opts: ReadOptions) -> SpanResult:
         return "skip"
 
     observations: list[Observation] = []
-    batches = Rebatch(opts.batch_rows)
+    batches = Rebatch(opts.batch_rows, opts.batch_bytes)
     held: pa.RecordBatch | None = None  # Arrow's latest batch: its last row may be the marker
     try:
         reader = pcsv.open_csv(pa.BufferReader(hand_bytes(data)), **arrow_options(header, _BLOCK, hand(on_invalid)))

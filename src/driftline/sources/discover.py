@@ -35,7 +35,7 @@ class Skipped:
 
     rel: str
     reason: str  # 'hidden' | 'marker' | 'excluded' | 'not-included' | 'special' | 'symlink-loop' | 'unknown-format'
-    #              | 'other-extension' | 'name-collision'
+    #              | 'other-extension' | 'name-collision' | 'link-outside-root'
 
 
 @dataclass(frozen=True, slots=True)
@@ -84,8 +84,33 @@ def _expand(arg: str) -> list[str]:
     return [arg]
 
 
-def _walk(top: str) -> Iterable[tuple[str, os.stat_result | None, str | None]]:
-    """Yield (path, stat, problem) for every entry below top, never following a loop."""
+def outside_root(path: str, bounds: Sequence[str] | None) -> bool:
+    """Whether path is a symbolic link whose target lies outside every bound (the real paths of
+    the folders and files the user named); None bounds: links are followed wherever they go.
+
+    A landing folder that links to a system file or another team's folder would otherwise put
+    their values in a report that travels.  Only links are judged: what the user named is in.
+    """
+    if bounds is None or not os.path.islink(path):
+        return False
+    target = os.path.realpath(path)
+    return not any(target == b or target.startswith(b.rstrip(os.sep) + os.sep) for b in bounds)
+
+
+def _bounds(tops: Sequence[str], args: Sequence[str]) -> list[str]:
+    """The real paths within which links are followed: each path named, and the folder a glob
+    starts from (not what its matches link to)."""
+    out = [os.path.realpath(t) for t, a in zip(tops, args, strict=True) if not any(ch in a for ch in "*?[")]
+    for a in args:
+        if any(ch in a for ch in "*?["):
+            base = a[: min(a.index(ch) for ch in "*?[" if ch in a)]
+            out.append(os.path.realpath(os.path.dirname(base) or "."))
+    return out
+
+
+def _walk(top: str, bounds: Sequence[str] | None = None) -> Iterable[tuple[str, os.stat_result | None, str | None]]:
+    """Yield (path, stat, problem) for every entry below top, never following a loop, nor a
+    link out of bounds (outside_root)."""
     seen: set[tuple[int, int]] = set()
     stack = [top]
     while stack:
@@ -106,6 +131,9 @@ def _walk(top: str) -> Iterable[tuple[str, os.stat_result | None, str | None]]:
             yield folder, None, f"cannot list: {exc.strerror}"
             continue
         for entry in entries:
+            if outside_root(entry.path, bounds):
+                yield entry.path, None, "link-outside-root"
+                continue
             try:
                 is_dir = entry.is_dir()  # follows symlinks; loops are caught by `seen`
             except OSError:
@@ -126,6 +154,7 @@ def discover(
     exclude: Sequence[str] = (),
     include_hidden: bool = False,
     sniff_unknown: bool = False,
+    follow_links: bool = False,
 ) -> Discovery:
     """Find the input files below paths, in sorted relative-path order.
 
@@ -136,6 +165,9 @@ def discover(
     skipped as 'other-extension' without being read, unless sniff_unknown is set: then, as
     files without an extension always are, and as a file named on its own always is, they
     are read when their first bytes look like JSON, CSV/TSV or Parquet.
+    and so are folders of those names, unless include_hidden is set.  Symbolic links whose
+    target lies outside the paths named are skipped and counted (link-outside-root) unless
+    follow_links is set; devices, FIFOs and loops are never read either way.
     """
     if not paths:
         raise InputPathError("no input path given; name a file, a folder or a glob")
@@ -147,11 +179,15 @@ def discover(
         if hits == [os.fspath(p)]:
             named.add(os.path.abspath(hits[0]))
     absolute = [os.path.abspath(p) for p in expanded]
+    args = [os.fspath(p) for p in paths]
+    bounds = None if follow_links else _bounds([os.path.abspath(a) for a in args], args)
     root = _common_root(absolute)
     files: dict[str, FileRef] = {}
     skipped: list[Skipped] = []
     for top in absolute:
-        entries = _walk(top) if os.path.isdir(top) else [(top, _stat(top), None)]
+        entries = _walk(top, bounds) if os.path.isdir(top) else [(top, _stat(top), None)]
+        if outside_root(top, bounds):  # a glob's match that links out of the folder it searched
+            entries = [(top, None, "link-outside-root")]
         for path, st, problem in entries:
             rel = _display(os.path.relpath(path, root).replace(os.sep, "/"))
             if rel == ".":

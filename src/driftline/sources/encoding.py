@@ -21,7 +21,8 @@ Why windows-1252 and not ISO-8859-1 (Latin-1): both give the same characters for
 0x00-0x7F and 0xA0-0xFF.  They differ on 0x80-0x9F, which Latin-1 maps to C1 control
 characters that text never holds, and windows-1252 to the characters real files hold there
 (euro sign, curly quotes, dashes).  Text labelled Latin-1 is so often windows-1252 in
-practice that the WHATWG Encoding Standard decodes the label "iso-8859-1" as windows-1252.  Its windows-1252 maps the five bytes the code page leaves
+practice that the WHATWG Encoding Standard decodes the label "iso-8859-1" as windows-1252.
+Its windows-1252 maps the five bytes the code page leaves
 unassigned (0x81 0x8D 0x8F 0x90 0x9D) to the C1 controls of the same number, so every byte
 decodes; that is the decoding used here (Python's cp1252 codec rejects those five).
 

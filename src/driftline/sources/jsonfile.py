@@ -3,11 +3,16 @@
 from __future__ import annotations
 
 import io
+import re
+from bisect import bisect_left
 from collections.abc import Iterator
+from dataclasses import replace
+from itertools import accumulate
 from typing import Any, BinaryIO
 
 import orjson
 
+from driftline.observe import jsonnum
 from driftline.observe.jsonbatch import observe_json_lines
 from driftline.observe.observation import Observation
 from driftline.observe.records import observe_records
@@ -17,7 +22,6 @@ from driftline.sources.base import FileIssue, ReadOptions
 _CHUNK = 4 * 1024 * 1024
 _WINDOW_BYTES = 256 * 1024 * 1024  # a window stops growing here, whatever batch_rows asks
 _BOM = b"\xef\xbb\xbf"
-DOCUMENT_LIMIT = 1024**3  # a single JSON document is parsed whole; larger ones should be JSON Lines
 
 FAST_MIN_ROWS = 256  # smaller batches take the exact walk: the columnar set-up would cost more
 
@@ -67,30 +71,43 @@ def _decode_error(exc: orjson.JSONDecodeError, data: bytes) -> tuple[str, int, i
 
 
 class _Batcher:
-    """Collects parsed records into batches of at most batch_rows rows."""
+    """Collects parsed records into batches: a batch ends at batch_rows records, or once its
+    records' input bytes (each with its line end or separator) reach batch_bytes."""
 
     def __init__(self, rel: str, opts: ReadOptions) -> None:
         self.rel, self.opts = rel, opts
         self.records: list[Any] = []
         self.lines: list[int] | None = []
+        self.bytes = 0  # input bytes of the records held
         self.rows = 0
         self.batch = 0
 
-    def add(self, record: Any, line: int | None) -> Observation | None:
+    def add(self, record: Any, line: int | None, size: int = 0) -> Observation | None:
         self.records.append(record)
+        self.bytes += size
         if self.lines is not None and line is not None:
             self.lines.append(line)
         else:
             self.lines = None
-        return self.flush() if len(self.records) >= self.opts.batch_rows else None
+        full = len(self.records) >= self.opts.batch_rows or self.bytes >= self.opts.batch_bytes
+        return self.flush() if full else None
 
     def flush(self) -> Observation | None:
         if not self.records:
             return None
-        obs = observe_records(self.records, file=self.rel, batch=self.batch, row_start=self.rows, lines=self.lines)
+        obs = observe_records(self.records, file=self.rel, batch=self.batch, row_start=self.rows, lines=self.lines,
+                              max_paths=self.opts.max_paths)
         self.rows += len(self.records)
         self.batch += 1
         self.records, self.lines = [], ([] if self.lines is not None else None)
+        self.bytes = 0
+        return obs
+
+    def observe_all(self, records: list[Any]) -> Observation:
+        """One batch of records gathered elsewhere (a JSON array read element by element)."""
+        self.records, self.lines = records, None
+        obs = self.flush()
+        assert obs is not None
         return obs
 
     def took(self, obs: Observation) -> None:
@@ -100,12 +117,15 @@ class _Batcher:
 
 
 class _Window:
-    """Consecutive lines of normal length (without their newline), from first_line at offset."""
+    """Consecutive lines of normal length (without their newline), from first_line at offset.
 
-    __slots__ = ("items", "first_line", "offset")
+    full: the window stopped at the line whose bytes reached the batch's byte budget.
+    """
 
-    def __init__(self, items: list[bytes], first_line: int, offset: int) -> None:
-        self.items, self.first_line, self.offset = items, first_line, offset
+    __slots__ = ("items", "first_line", "offset", "full")
+
+    def __init__(self, items: list[bytes], first_line: int, offset: int, full: bool = False) -> None:
+        self.items, self.first_line, self.offset, self.full = items, first_line, offset, full
 
     def __len__(self) -> int:
         return len(self.items)
@@ -164,7 +184,9 @@ class _Lines:
         self.items.extend(parts)
         self.held += sum(map(len, parts)) + len(parts)
 
-    def peek(self, k: int) -> _Window | _TooLong | None:
+    def peek(self, k: int, room: int = 2**62) -> _Window | _TooLong | None:
+        """The next lines: at most k, through the first one whose bytes (with its newline)
+        bring the window's total to room."""
         while True:
             avail = len(self.items) - self.k
             if avail:
@@ -172,7 +194,8 @@ class _Lines:
                     at = self.offset
                     self.advance(1)
                     return _TooLong(self.lineno, at)
-                if avail >= k or self.eof or self.held > _WINDOW_BYTES or len(self.tail) > self.max:
+                if (avail >= k or self.eof or self.held > _WINDOW_BYTES or self.held >= room
+                        or len(self.tail) > self.max):
                     break  # (an over-long line is coming: hand out what is before it first)
             elif self.eof:
                 return None
@@ -184,7 +207,12 @@ class _Lines:
         take = self.items[self.k : self.k + k]
         if max(map(len, take)) > self.max:  # stop before an over-long line
             take = take[: next(j for j, v in enumerate(take) if len(v) > self.max)]
-        return _Window(take, self.lineno + 1, self.offset)
+        full = False
+        if sum(map(len, take)) + len(take) >= room:
+            ends = list(accumulate(len(v) + 1 for v in take))
+            take = take[: bisect_left(ends, room) + 1]
+            full = True
+        return _Window(take, self.lineno + 1, self.offset, full)
 
     def ends(self, w: _Window) -> bool:
         """Whether w holds every line left in the stream."""
@@ -237,17 +265,18 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
     crlf_noted = False
     while True:
         want = opts.batch_rows - len(out.records)
-        got = src.peek(want)
+        got = src.peek(want, opts.batch_bytes - out.bytes)
         if got is None:
             break
         if isinstance(got, _TooLong):
             msg = f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); skipped"
             yield FileIssue(rel, "too-large", msg, line=got.line, byte_offset=got.offset)
             continue
-        if fast and not out.records and len(got) >= FAST_MIN_ROWS and (len(got) == want or src.ends(got)):
+        whole = len(got) == want or got.full or src.ends(got)
+        if fast and not out.records and len(got) >= FAST_MIN_ROWS and whole:
             try:
                 done = observe_json_lines(got.items, file=rel, batch=out.batch, row_start=out.rows,
-                                          first_line=got.first_line, hint=hint)
+                                          first_line=got.first_line, hint=hint, max_paths=opts.max_paths)
             except Exception:  # the fast path may only decline, never lose rows: the walk decides
                 done = None
             if done is not None:
@@ -257,24 +286,28 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
                 yield obs
                 continue
         for lineno, offset, content in got.lines():
+            size = len(content) + 1  # the line as read, with its newline: as the window counts it
             if lineno == 1 and content.startswith(_BOM):
-                yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0)
+                yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning",
+                                line=1, byte_offset=0)
                 content, offset = content[3:], offset + 3
             if content.endswith(b"\r"):
                 content = content[:-1]
                 if not crlf_noted:
                     crlf_noted = True
-                    yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=lineno, byte_offset=offset + len(content))
+                    yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=lineno,
+                                    byte_offset=offset + len(content))
             if not content.strip():
                 blanks += 1
                 continue
             try:
-                value = orjson.loads(content)
+                value = jsonnum.loads(content)
             except orjson.JSONDecodeError as exc:
                 msg, _, col, pos = _decode_error(exc, content)
-                yield FileIssue(rel, "malformed-json", f"{msg} (column {col}); line skipped", line=lineno, byte_offset=offset + pos)
+                yield FileIssue(rel, "malformed-json", f"{msg} (column {col}); line skipped", line=lineno,
+                                byte_offset=offset + pos)
                 continue
-            obs = out.add(value, lineno)
+            obs = out.add(value, lineno, size)
             if obs is not None:
                 yield obs
         src.advance(len(got))
@@ -301,28 +334,44 @@ def _looks_like_lines(data: bytes) -> bool:
 def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
     """A JSON document: an array gives one record per element, anything else one record.
 
-    A .json file that holds JSON Lines is read as JSON Lines.
+    A document of at most batch_bytes is parsed whole.  A larger array is read element by
+    element (array_elements), one batch at a time, so memory follows the batch and not the
+    file; a larger document that is not an array is one record, read whole up to
+    max_record_bytes.  A .json file that holds JSON Lines is read as JSON Lines.
     """
-    data = stream.read(DOCUMENT_LIMIT + 1)
-    if len(data) > DOCUMENT_LIMIT:
-        yield FileIssue(rel, "too-large", f"JSON document larger than {DOCUMENT_LIMIT:,} bytes; write it as JSON Lines to scan it")
-        return
+    whole = max(opts.batch_bytes, opts.max_record_bytes)
+    data = stream.read(whole + 1)
     start = 0
     if data.startswith(_BOM):
-        yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0)
+        yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning",
+                        line=1, byte_offset=0)
         start = 3
+    first = _first_byte(data, start)
+    if len(data) > opts.batch_bytes and first == ord("["):
+        yield from _stream_array(data, stream, start, rel, opts)
+        return
+    if len(data) > whole:
+        if first == ord("{") and _first_line_is_object(data, start):
+            chained = io.BufferedReader(_Chain(data[start:], stream), buffer_size=1 << 20)
+            yield from read_jsonl(chained, rel, opts, first_line_offset=start)
+            return
+        yield FileIssue(rel, "too-large", f"JSON document larger than {whole:,} bytes that is not an array: it is "
+                        "one record (--max-record-bytes); write it as JSON Lines or as an array to scan it",
+                        line=1, byte_offset=start)
+        return
     body = data[start:]
     if not body.strip():
         yield FileIssue(rel, "empty", "empty file: no records", "warning", line=1, byte_offset=0)
         return
     try:
-        doc = orjson.loads(body)
+        doc = jsonnum.loads(body)
     except orjson.JSONDecodeError as exc:
         if _looks_like_lines(body):
             yield from read_jsonl(io.BytesIO(body), rel, opts, first_line_offset=start)
             return
         msg, line, col, pos = _decode_error(exc, body)
-        yield FileIssue(rel, "malformed-json", f"{msg} (line {line}, column {col}); file not profiled", line=line, byte_offset=start + pos)
+        yield FileIssue(rel, "malformed-json", f"{msg} (line {line}, column {col}); file not profiled", line=line,
+                        byte_offset=start + pos)
         return
     out = _Batcher(rel, opts)
     for record in doc if isinstance(doc, list) else [doc]:
@@ -332,3 +381,160 @@ def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
     obs = out.flush()
     if obs is not None:
         yield obs
+
+
+def _first_byte(data: bytes, start: int) -> int | None:
+    m = _SPACE.match(data, start)
+    end = m.end() if m else start
+    return data[end] if end < len(data) else None
+
+
+def _first_line_is_object(data: bytes, start: int) -> bool:
+    nl = data.find(b"\n", start)
+    if nl < 0:
+        return False
+    try:
+        return isinstance(orjson.loads(data[start:nl]), dict)
+    except orjson.JSONDecodeError:
+        return False
+
+
+class _Chain(io.RawIOBase):
+    """Bytes already read, then the rest of a stream."""
+
+    def __init__(self, head: bytes, rest: BinaryIO) -> None:
+        self._head, self._rest = memoryview(head), rest
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buf: Any) -> int:
+        if self._head:
+            n = min(len(buf), len(self._head))
+            buf[:n] = self._head[:n]
+            self._head = self._head[n:]
+            return n
+        data = self._rest.read(len(buf))
+        buf[: len(data)] = data
+        return len(data)
+
+
+# JSON's whitespace (RFC 8259 section 2).  At the array's level a run stops at a comma or
+# a bracket; inside an element it takes commas too, and whole strings (escapes included)
+# either way, so a step of the scan is a bracket, not a character.
+_SPACE = re.compile(rb"[ \t\n\r]*")
+_STRING = rb'"[^"\\]*(?:\\.[^"\\]*)*"'
+_RUN_TOP = re.compile(rb'(?:[^\[\]{}",]+|' + _STRING + rb")*", re.S)
+_RUN_IN = re.compile(rb'(?:[^\[\]{}"]+|' + _STRING + rb")*", re.S)
+_ARRAY_CHUNK = 4 * 1024 * 1024
+
+
+def array_elements(data: bytes, stream: BinaryIO, at: int, max_bytes: int) -> Iterator[tuple[int, int, bytes] | str]:
+    """(file offset, line, text) of each element of the array whose '[' is at offset `at` of
+    data (the file's first bytes; the stream holds the rest), in order.  A str instead says
+    what is wrong, and ends the elements: one longer than max_bytes, an array the file
+    does not close, or text after it.  Only the current element and one chunk are held.
+
+    >>> [(o, ln, t) for o, ln, t in array_elements(b' [1, {"a": [2, "]"]},\\n "x,y" ] ', io.BytesIO(), 1, 100)]
+    [(2, 1, b'1'), (5, 1, b'{"a": [2, "]"]}'), (23, 2, b'"x,y"')]
+    """
+    buf, base = data, 0  # base: file offset of buf[0]
+    line, counted = 1, 0  # the line at buf[counted]
+    i = at + 1
+    while True:
+        i = _SPACE.match(buf, i).end()  # type: ignore[union-attr]
+        if i == len(buf):
+            more = stream.read(_ARRAY_CHUNK)
+            if not more:
+                yield "the array is not closed: the file ends first"
+                return
+            line += buf.count(b"\n", counted, i)
+            buf, base, i, counted = buf[i:] + more, base + i, 0, 0
+            continue
+        if buf[i] == ord("]"):
+            if buf[i + 1 :].strip() or stream.read(_ARRAY_CHUNK).strip():
+                yield "text after the end of the array"
+            return
+        begin, depth = i, 0
+        line += buf.count(b"\n", counted, begin)
+        counted = begin
+        while True:
+            i = (_RUN_TOP if depth == 0 else _RUN_IN).match(buf, i).end()  # type: ignore[union-attr]
+            if i - begin > max_bytes:
+                yield f"an element longer than {max_bytes:,} bytes (--max-record-bytes)"
+                return
+            if i == len(buf) or buf[i] == ord('"'):  # the text ends, or inside a string: read on
+                more = stream.read(_ARRAY_CHUNK)
+                if not more:
+                    yield "the array is not closed: the file ends first"
+                    return
+                buf, base, i, begin, counted = buf[begin:] + more, base + begin, i - begin, 0, 0
+                continue
+            c = buf[i]
+            if c in b"[{":
+                depth += 1
+            elif c in b"]}":
+                if depth == 0:  # the array's own ']' ends its last element
+                    break
+                depth -= 1
+            elif depth == 0:  # a comma between elements
+                break
+            i += 1
+        yield base + begin, line, buf[begin:i].rstrip(b" \t\n\r")
+        if buf[i] == ord(","):
+            i += 1
+
+
+def _stream_array(data: bytes, stream: BinaryIO, at: int, rel: str, opts: ReadOptions) -> Iterator[Item]:
+    """The elements of a large array as records, a batch at a time: a batch's elements are
+    parsed in one call, and only when one of them is not JSON one by one, to say which."""
+    out = _Batcher(rel, opts)
+    pieces: list[bytes] = []
+    where: list[tuple[int, int]] = []  # (offset, line) of each piece
+    size = 0
+    problem: str | None = None
+    start = _SPACE.match(data, at).end()  # type: ignore[union-attr]
+    for got in array_elements(data, stream, start, opts.max_record_bytes):
+        if isinstance(got, str):
+            problem = got
+            break
+        pieces.append(got[2])
+        where.append(got[:2])
+        size += len(got[2]) + 1  # with its separator
+        if len(pieces) >= opts.batch_rows or size >= opts.batch_bytes:
+            values, bad = _parse_elements(pieces, where, rel)
+            if values:
+                yield out.observe_all(values)
+            if bad is not None:
+                yield replace(bad, row=out.rows)
+                return
+            pieces, where, size = [], [], 0
+    values, bad = _parse_elements(pieces, where, rel)
+    if values:
+        yield out.observe_all(values)
+    if bad is not None:
+        yield replace(bad, row=out.rows)
+    elif problem is not None:
+        yield FileIssue(rel, "malformed-json", f"{problem}; the elements before it were profiled", row=out.rows)
+
+
+def _parse_elements(pieces: list[bytes], where: list[tuple[int, int]], rel: str) -> tuple[list[Any], FileIssue | None]:
+    """The values of the pieces, and the problem of the first one that is not JSON (the values
+    stop before it)."""
+    if not pieces:
+        return [], None
+    try:
+        values = jsonnum.loads(b"[" + b",".join(pieces) + b"]")
+        if isinstance(values, list) and len(values) == len(pieces):
+            return values, None
+    except orjson.JSONDecodeError:
+        pass
+    values = []
+    for piece, (offset, line) in zip(pieces, where, strict=True):
+        try:
+            values.append(jsonnum.loads(piece))
+        except orjson.JSONDecodeError as exc:
+            msg, eline, col, pos = _decode_error(exc, piece)
+            return values, FileIssue(rel, "malformed-json", f"{msg} (line {line + eline - 1}); rest of the file not "
+                                     "profiled", line=line + eline - 1, byte_offset=offset + pos)
+    return values, None

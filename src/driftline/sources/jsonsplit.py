@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import io
 import os
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -21,6 +21,7 @@ from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.discover import FileRef
 from driftline.sources.encoding import file_encoding
 from driftline.sources.jsonfile import read_jsonl
+from driftline.thinning import Thinner, concat_blocks
 
 SPLIT_MIN_BYTES = 48 * 2**20  # smaller files are one task: a range must outweigh its set-up
 _SCAN_CHUNK = 16 * 2**20
@@ -45,6 +46,7 @@ class SpanResult:
     issues: tuple[FileIssue, ...]
     lines: int  # lines the span held
     clean: bool  # every line a record and nothing reported: the next span's assumption holds
+    block: int = 1  # batches per observation (thinning)
 
 
 def can_split(ref: FileRef, opts: ReadOptions) -> bool:
@@ -55,51 +57,71 @@ def can_split(ref: FileRef, opts: ReadOptions) -> bool:
 def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
     """Cut a file into about `parts` spans at batch starts, in one pass over its newlines.
 
+    Batches end as read_jsonl ends them when every line is a record: at batch_rows lines,
+    or at the line whose bytes (with its newline) bring the batch to batch_bytes.
+
     >>> import tempfile, pathlib
     >>> from driftline.sources.discover import discover
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_bytes(b'{"a": 1}\\n' * 10)
-    >>> [(s.start, s.lines) for s in plan(discover([d]).files[0], ReadOptions(batch_rows=4), 2)]
-    [(0, 0), (72, 8)]
+    >>> [(s.start, s.lines, s.batches) for s in plan(discover([d]).files[0], ReadOptions(batch_rows=4), 2)]
+    [(0, 0, 0), (72, 8, 2)]
+    >>> [(s.start, s.lines, s.batches) for s in plan(discover([d]).files[0], ReadOptions(batch_bytes=20), 2)]
+    [(0, 0, 0), (54, 6, 2)]
     """
-    size, step = ref.size, opts.batch_rows
-    targets = [size * i // parts for i in range(1, parts)]
-    cuts: list[tuple[int, int]] = []  # (byte offset, line index) of each cut
-    seen, base = 0, 0  # newlines before the chunk; its offset
-    want: int | None = None  # line index the next cut waits for
+    targets = [ref.size * i // parts for i in range(1, parts)]
+    cuts: list[tuple[int, int, int]] = []  # (byte offset, lines before, batches before)
     with open(ref.path, "rb") as fh:
-        while chunk := fh.read(_SCAN_CHUNK):
-            pos = 0
-            while True:
-                if want is None:
-                    if not targets or targets[0] >= base + len(chunk):
-                        break
-                    at = targets.pop(0) - base
-                    line = seen + chunk.count(b"\n", pos, max(at, pos))
-                    # the first batch start after the line holding the target byte
-                    want = (line // step + 1) * step
-                    seen, pos = line, max(at, pos)
-                # walk newline by newline to line `want`
-                while seen < want:
-                    nl = chunk.find(b"\n", pos)
-                    if nl < 0:
-                        break
-                    seen += 1
-                    pos = nl + 1
-                if seen < want:
+        for offset, line, batch in _batch_starts(fh, opts.batch_rows, opts.batch_bytes):
+            if offset >= ref.size:
+                break
+            if offset >= targets[0]:
+                cuts.append((offset, line, batch))
+                while targets and targets[0] <= offset:
+                    targets.pop(0)
+                if not targets:
                     break
-                if not cuts or base + pos > cuts[-1][0]:
-                    cuts.append((base + pos, want))
-                want = None
-            if want is None and not targets:
-                break  # every cut is placed: the rest of the file need not be read
-            seen += chunk.count(b"\n", pos)
-            base += len(chunk)
-    starts = [(0, 0), *[(o, li) for o, li in cuts if o < size]]
+    starts = [(0, 0, 0), *cuts]
     spans = []
-    for k, (offset, line) in enumerate(starts):
+    for k, (offset, line, batch) in enumerate(starts):
         end = starts[k + 1][0] if k + 1 < len(starts) else None
-        spans.append(Span(ref, offset, end, line, line, line // step))
+        spans.append(Span(ref, offset, end, line, line, batch))
     return spans
+
+
+def _batch_starts(fh: Any, rows: int, budget: int) -> Iterator[tuple[int, int, int]]:
+    """(byte offset, line, batch) of each batch start after the first, if every line were a record."""
+    buf = b""
+    base = 0  # file offset of buf[0]
+    at, line, batch = 0, 0, 0  # the current batch's start
+    eof = False
+    while True:
+        p = at - base
+        while not eof and len(buf) - p < budget + 1:
+            chunk = fh.read(max(_SCAN_CHUNK, budget + 1))
+            if not chunk:
+                eof = True
+                break
+            buf, base, p = buf[p:] + chunk, at, 0
+        under = buf.count(b"\n", p, p + budget - 1)  # lines that end before the budget is reached
+        if under >= rows:
+            end = p
+            for _ in range(rows):
+                end = buf.find(b"\n", end) + 1
+            n = rows
+        else:
+            nl = buf.find(b"\n", p + budget - 1)
+            while nl < 0 and not eof:  # the line that reaches the budget goes on past the buffer
+                chunk = fh.read(_SCAN_CHUNK)
+                if not chunk:
+                    eof = True
+                    break
+                buf = buf + chunk
+                nl = buf.find(b"\n", p + budget - 1)
+            if nl < 0:
+                return  # the rest of the file is the last batch
+            end, n = nl + 1, under + 1
+        at, line, batch = base + end, line + n, batch + 1
+        yield at, line, batch
 
 
 class _Slice(io.RawIOBase):
@@ -126,29 +148,32 @@ class _Slice(io.RawIOBase):
 
 def read_span(span: Span, opts: ReadOptions) -> SpanResult:
     """Read one span from its assumed state."""
-    observations: list[Observation] = []
+    thinner = Thinner()  # blocks aligned on the file's batch index, as one reader would make them
     issues: list[FileIssue] = []
     counter: list[int] = []
     with io.BufferedReader(_Slice(span.ref.path, span.start, span.end), buffer_size=1 << 20) as stream:
         items = read_jsonl(stream, span.ref.rel, opts, first_line_offset=span.start,
                            start=(span.lines, span.rows, span.batches), lines_read=counter)
         for item in items:
-            (issues if isinstance(item, FileIssue) else observations).append(item)
+            if isinstance(item, FileIssue):
+                issues.append(item)
+            else:
+                thinner.add(item)
     lines = counter[0] if counter else 0
+    observations, block = thinner.result()
     rows = sum(o.rows for o in observations)
-    return SpanResult(span, tuple(observations), tuple(issues), lines, clean=not issues and rows == lines)
+    return SpanResult(span, observations, tuple(issues), lines, clean=not issues and rows == lines, block=block)
 
 
 def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> FileResult | Span:
     """The file's result from its spans, or the span to read again (from there to the end)."""
-    observations: list[Observation] = []
     for k, res in enumerate(results):
         last = k == len(results) - 1
         if not res.clean and not last:
             return replace(res.span, end=None)
-        observations.extend(res.observations)
+    observations, block = concat_blocks([(res.observations, res.block) for res in results])
     issues = results[-1].issues if results else ()
     return FileResult(rel=ref.rel, format=ref.format, compression=ref.compression, partitions=ref.partitions,
                       size=ref.size, mtime_ns=ref.mtime_ns, rows=sum(o.rows for o in observations),
-                      observations=tuple(observations), issues=issues, declared=None, complete=True,
+                      observations=observations, issues=issues, declared=None, complete=True, batch_span=block,
                       encoding=file_encoding(ref.path, ref.format, opts.encoding))

@@ -81,7 +81,7 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
             continue
         expected += meta.num_rows
         try:
-            for rb in _row_group(pf, rg, meta.num_rows, opts.batch_rows):
+            for rb in _row_group(pf, rg, meta.num_rows, _rows_per_batch(meta, opts)):
                 yield Batch(rb, rel, batch, rows)
                 rows += rb.num_rows
                 batch += 1
@@ -105,6 +105,15 @@ def _source(path: object) -> tuple[object, int]:
     with open(path, "rb") as fh:
         data = fh.read(IN_MEMORY_BYTES + 1)
     return pa.BufferReader(data), len(data)
+
+
+def _rows_per_batch(meta: pq.RowGroupMetaData, opts: ReadOptions) -> int:
+    """batch_rows, or fewer when the footer's size of the row group says that many rows would
+    pass batch_bytes once decoded (the same for every reading of the file)."""
+    size = max(meta.total_byte_size, 0)
+    if size <= opts.batch_bytes or meta.num_rows == 0:
+        return opts.batch_rows
+    return max(1, min(opts.batch_rows, opts.batch_bytes * meta.num_rows // size))
 
 
 def _row_group(pf: pq.ParquetFile, rg: int, rows: int, batch_rows: int) -> Iterator[pa.Table | pa.RecordBatch]:

@@ -9,6 +9,7 @@ from collections.abc import Callable, Iterator, Sequence
 from dataclasses import replace
 from typing import Any
 
+from driftline import thinning
 from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
@@ -21,6 +22,7 @@ from driftline.sources.jsonfile import read_json, read_jsonl
 from driftline.sources.linecount import LineTally, jsonl_issue
 from driftline.sources.parquetfile import read_parquet
 from driftline.sources.remote import is_url, open_random, open_stream_remote
+from driftline.thinning import Thinner, thin
 
 
 class _SafeStream(CountingRaw):
@@ -112,16 +114,19 @@ class _Pending:
 
     def __init__(self, opts: ReadOptions) -> None:
         self._limit = opts.batch_rows
+        self._byte_limit = opts.batch_bytes
         self._exact = opts.exact
         self._batches: list[Batch] = []
         self._rows = 0
+        self._bytes = 0
         self.done: dict[int, Observation | Exception] = {}  # ticket -> its observation, or what went wrong
 
     def add(self, batch: Batch) -> int:
         ticket = len(self.done) + len(self._batches)
         self._batches.append(batch)
         self._rows += batch.data.num_rows
-        if self._rows >= self._limit:
+        self._bytes += batch.data.nbytes
+        if self._rows >= self._limit or self._bytes >= self._byte_limit:
             self.flush()
         return ticket
 
@@ -132,7 +137,7 @@ class _Pending:
         except Exception:  # a bug in one batch must not cost the others: observe them one by one
             got = [_observe_one(b, self._exact) for b in self._batches]
         self.done.update(enumerate(got, start=first))
-        self._batches, self._rows = [], 0
+        self._batches, self._rows, self._bytes = [], 0, 0
 
 
 def _observe_one(b: Batch, exact: bool) -> Observation | Exception:
@@ -154,6 +159,7 @@ class _Read:
         self.encoding: TextEncoding | None = None
         self.complete = True
         self.opened = True  # False: the file could not even be opened; nothing more is checked
+        self.thinner = Thinner()  # a stream's observations, summarised in blocks past FILE_BATCHES
 
     def fail(self, exc: BaseException) -> None:
         self.complete = False
@@ -178,23 +184,61 @@ class _Read:
             observations.append(got)
             for name, why in got.unobserved:
                 unobserved.setdefault(name, (why, got.row_start))
+        blocks, span = self.thinner.result()
+        if blocks:  # a stream's observations, summarised as they came
+            observations = list(blocks)
+        elif len(observations) > thinning.FILE_BATCHES:
+            blocks, span = thin(observations)
+            observations = list(blocks)
         ref, issues = self.ref, self.issues
         issues.extend(_unobserved_issue(ref.rel, name, why, row) for name, (why, row) in unobserved.items())
         if not observations and not issues and ref.size == 0:
             issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
+        if not observations and ref.size and ref.format in ("csv", "tsv") and not any(
+                i.severity == "error" for i in issues):
+            unread = nothing_read(ref)
+            if unread is not None:
+                self.complete = False
+                issues.append(unread)
         if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
             change = file_changed(ref)
             if change is not None:
                 self.complete = False
                 issues.append(FileIssue(ref.rel, "changed", change))
         return _result(ref, observations, issues, self.declared, self.complete, self.dialect,
-                       self.encoding)
+                       self.encoding, span)
 
 
 def _unobserved_issue(rel: str, column: str, why: str, row: int) -> FileIssue:
     """One warning per column a file's batches left out: the other columns were profiled."""
     return FileIssue(rel, "unsupported-type", f"column {column!r} not profiled: {why}; the other columns are",
                      "warning", row=row)
+
+
+def nothing_read(ref: FileRef, limit: int = 64 * 2**20) -> FileIssue | None:
+    """A CSV/TSV file read as a header and no rows, although a line after its first holds data:
+    a quote opened in the header and never closed takes every row into one column name
+    (RFC 4180 section 2, rule 6), which no reader reports.  None when the file is a header only
+    (or cannot be read again: the read already reported why)."""
+    if is_url(ref.path):
+        return None
+    try:
+        with open_stream(ref.path, ref.compression, limit=limit) as fh:
+            in_first_line = True
+            while chunk := fh.read(1 << 20):
+                if in_first_line:
+                    nl = chunk.find(b"\n")
+                    if nl < 0:
+                        continue
+                    chunk, in_first_line = chunk[nl + 1 :], False
+                if chunk.strip():
+                    break
+            else:
+                return None
+    except Exception:  # noqa: BLE001 - unreadable now: the read itself reported what it met
+        return None
+    return FileIssue(ref.rel, "nothing-read", f"no row was read from {ref.size:,} bytes of more than one line: "
+                     "a quote opened in the header and never closed takes every row into a column name", line=2)
 
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
@@ -250,6 +294,7 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
         # JSON Lines: line feeds counted apart, reconciled with rows, reported lines and blank lines
         tally = LineTally(text.stream, "lines") if ref.format == "jsonl" else None
         blanks: list[int] = []
+        rows = 0
         for item in _items(ref, opts, tally or text.stream, blanks):
             if isinstance(item, Dialect):
                 read.dialect = item
@@ -258,10 +303,10 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
                 # when it was transcoded: only the line is kept then.
                 read.issues.append(replace(item, byte_offset=None) if text.transcoded else item)
             else:
-                read.parts.append(item)
+                rows += item.rows
+                read.thinner.add(item)
         read.issues.extend(text.transcoding_issues(ref.rel))
     if tally is not None and blanks:
-        rows = sum(p.rows for p in read.parts if isinstance(p, Observation))
         unaccounted = jsonl_issue(ref.rel, tally, rows, blanks[0], read.issues)
         if unaccounted is not None:
             read.issues.append(unaccounted)
@@ -281,6 +326,7 @@ def _result(
     complete: bool,
     dialect: Dialect | None = None,
     encoding: TextEncoding | None = None,
+    span: int = 1,
 ) -> FileResult:
     return FileResult(
         rel=ref.rel,
@@ -296,6 +342,7 @@ def _result(
         complete=complete,
         dialect=dialect,
         encoding=encoding,
+        batch_span=span,
     )
 
 
