@@ -170,10 +170,15 @@ def test_an_interrupted_write_keeps_the_earlier_state(tmp_path, monkeypatch):
 def test_a_state_file_the_scan_would_read_is_refused(tmp_path):
     land = tmp_path / "landing"
     _day(land, 1, 4)
-    with pytest.raises(InputPathError, match="lies inside a scanned folder"):
+    with pytest.raises(OutputError, match="lies inside the scanned folder .*pass --write-inside"):
         scan_incremental([land], land / "state.json")
     run = scan_incremental([land], land / ".driftline-state")  # hidden: the scan skips it
     assert run.read == 1
+    run = scan_incremental([land], land / "state.json", write_inside=True)  # it carries the marker: skipped
+    assert (run.read, [(s.rel, s.reason) for s in run.profile.skipped]) == (1, [(".driftline-state", "hidden")])
+    again = scan_incremental([land], land / "state.json", write_inside=True)
+    assert (again.reused, [(s.rel, s.reason) for s in again.profile.skipped]) == \
+        (1, [(".driftline-state", "hidden"), ("state.json", "own-output")])
     with pytest.raises(InputPathError, match="--state needs a file name"):
         scan_incremental([land], "-")
 

@@ -355,7 +355,7 @@ def test_cli_scan_writes_the_html_report(tmp_path: Path) -> None:
     res = CliRunner().invoke(app, ["scan", str(d), "--html", "-", "--quiet", "--jobs", "1"])
     assert res.exit_code == 0 and res.stdout.startswith(marked) and res.stdout.rstrip().endswith("</html>")
     res = CliRunner().invoke(app, ["scan", str(d), "--html", "-", "--json", "-", "--jobs", "1"])
-    assert res.exit_code == 2 and "only one of --json and --html" in res.output
+    assert res.exit_code == 2 and "--json and --html both write to standard output" in res.output
 
 
 # -- the recommender's column ----------------------------------------------------------------------

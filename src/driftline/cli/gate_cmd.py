@@ -11,8 +11,9 @@ from rich.console import Console
 
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
-from driftline.emit.atomic import write_output
+from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
+from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
 from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, diff_fields, diff_partitions, render
 from driftline.gate.inputs import profile_of
@@ -89,10 +90,11 @@ Exit codes: 0 the diff was made (changes are information); 2 usage or input erro
 
 
 def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int, max_errors: int | None,
-              max_record_bytes: int, delimiter: str | None, hidden: bool) -> ScanSettings:
+              max_record_bytes: int, delimiter: str | None, hidden: bool, write_inside: bool) -> ScanSettings:
     return ScanSettings(
         read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter),
         include=tuple(include), exclude=tuple(exclude), include_hidden=hidden, jobs=jobs, max_errors=max_errors,
+        write_inside=write_inside,
     )
 
 
@@ -104,6 +106,8 @@ _MAXERR = typer.Option(None, "--max-errors", min=1, help="Stop reading new files
 _RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, help="Longer records are reported.")
 _DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given.")
 _HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'.")
+_INSIDE = typer.Option(False, WRITE_INSIDE, help="Let outputs go inside a scanned folder (a new file or an earlier "
+                                                 "driftline output, never a data file); scans leave them out.")
 
 
 @app.command("check", help=CHECK_HELP, no_args_is_help=True)
@@ -130,12 +134,14 @@ def check_command(
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
     hidden: bool = _HIDDEN,
+    write_inside: bool = _INSIDE,
 ) -> None:
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
-    if json_out == "-" and junit == "-":
-        raise InputPathError("--json and --junit cannot both write to stdout ('-')")
-    settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden)
+    check_targets([("--json", json_out), ("--junit", junit), ("--state", state)], scanned=paths,
+                  named=[baseline, policy], write_inside=write_inside, include_hidden=hidden)
+    settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden,
+                         write_inside)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
@@ -149,7 +155,8 @@ def check_command(
     if junit is not None:
         write_output(junit, junit_xml(verdict))
     if not quiet:
-        console = err_console if "-" in (json_out, junit) else Console(highlight=False)
+        to_stdout = any(t is not None and is_stdout(t) for t in (json_out, junit))
+        console = err_console if to_stdout else Console(highlight=False)
         render_verdict(verdict, console)
     raise typer.Exit(verdict.exit_code)
 
@@ -170,8 +177,10 @@ def diff_command(
     max_record_bytes: int = _RECORD,
     delimiter: str | None = _DELIM,
     hidden: bool = _HIDDEN,
+    write_inside: bool = _INSIDE,
 ) -> None:
-    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden)
+    check_targets([("--json", json_out)], scanned=sides, write_inside=write_inside, include_hidden=hidden)
+    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden, write_inside)
 
     def load(side: str):  # noqa: ANN202 - a Profile
         return profile_of(side, read=s.read, include=s.include, exclude=s.exclude,
@@ -195,11 +204,11 @@ def diff_command(
         doc = {"format": "driftline-diff", "version": 1, "by": by, "diffs": [d.to_json() for d in diffs]}
         write_output(json_out, orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
-        console = err_console if json_out == "-" else Console(highlight=False)
+        console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
         if not diffs:
             console.print(f"only one value of partition {safe_text(by)}: nothing to compare", markup=False)
         render(diffs, console)
-        if json_out not in (None, "-"):
+        if json_out is not None and not is_stdout(json_out):
             console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)
 
 

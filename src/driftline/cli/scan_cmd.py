@@ -12,9 +12,10 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 
 import driftline
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
-from driftline.emit.atomic import write_output
+from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.html import write_html
 from driftline.emit.safe import safe_text
+from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.emit.terminal import render
 from driftline.errors import InputPathError
 from driftline.report import dumps
@@ -139,6 +140,12 @@ def scan_command(
     delimiter: str | None = typer.Option(None, "--delimiter", help="CSV delimiter; sniffed when not given."),
     hidden: bool = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
+    write_inside: bool = typer.Option(
+        False,
+        WRITE_INSIDE,
+        help="Let --json/--html go inside a scanned folder (a new file or an earlier driftline output, never a "
+        "data file); scans leave driftline's own outputs out.",
+    ),
     engine: str = typer.Option(
         "local",
         "--engine",
@@ -162,6 +169,8 @@ def scan_command(
     region: str | None = typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
 ) -> None:
+    check_targets([("--json", json_out), ("--html", html_out)], scanned=paths, write_inside=write_inside,
+                  include_hidden=hidden)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         # The verb is the library call, option for option (tests/test_cli_api_same.py).
@@ -193,19 +202,18 @@ def scan_command(
         raise InputPathError(
             f"nothing readable: every one of {len(profile.files)} files failed (see the problems above)"
         )
-    if html_out == "-" and json_out == "-":
-        raise typer.BadParameter("only one of --json and --html can write to stdout ('-')")
     if json_out is not None:
         write_output(json_out, dumps(profile))
     if html_out is not None:
         write_html(profile, html_out)
     if not quiet:
         # Data goes to stdout; when the JSON report takes stdout, the summary moves to stderr.
-        console = err_console if "-" in (json_out, html_out) else Console(highlight=False)
+        to_stdout = any(t is not None and is_stdout(t) for t in (json_out, html_out))
+        console = err_console if to_stdout else Console(highlight=False)
         render(profile, console)
-        if json_out not in (None, "-"):
+        if json_out is not None and not is_stdout(json_out):
             console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
-        if html_out not in (None, "-"):
+        if html_out is not None and not is_stdout(html_out):
             console.print(f"HTML report written to {safe_text(Path(html_out))}", markup=False)
     if profile.rows == 0 and not profile.files:
         raise typer.Exit(EXIT_USAGE)

@@ -9,9 +9,10 @@ import typer
 from rich.console import Console
 
 from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
-from driftline.emit.atomic import write_output
+from driftline.emit.atomic import is_stdout, own_descriptor, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
+from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError, OutputError, PolicyError
 from driftline.gate.inputs import profile_of
 from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
@@ -80,7 +81,7 @@ def _render(rec: Recommendation, fmt: str, table: str, json_mode: str) -> bytes:
 
 def _check_out(target: str | None, what: str) -> None:
     """Refuse an unwritable output before any scanning is done."""
-    if target in (None, "-"):
+    if target is None or target == "-" or own_descriptor(target) is not None:
         return
     folder = Path(target).resolve().parent
     if not folder.is_dir():
@@ -121,14 +122,17 @@ def schema_command(
     batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, help="Rows per batch (as for scan)."),
     jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
+    write_inside: bool = typer.Option(False, WRITE_INSIDE,
+                                      help="Let --out/--rules go inside a scanned folder (a new file or an earlier "
+                                           "driftline output, never a data file)."),
 ) -> None:
     if to is not None and to not in FORMATS:
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
         raise PolicyError(f"unknown --json-mode {json_mode!r}; choose permissive or strict")
-    if to is not None and out == "-" and rules == "-":
-        raise PolicyError("--out and --rules cannot both write to stdout ('-'); give one a file name")
-    if to == "arrow" and out == "-" and sys.stdout.isatty():
+    check_targets([("--out", out if to else None), ("--rules", rules)], scanned=paths, named=[config],
+                  write_inside=write_inside)
+    if to == "arrow" and is_stdout(out) and sys.stdout.isatty():
         raise OutputError("--to arrow writes a binary IPC message; give --out FILE (or use --to arrow-text)")
     _check_out(out if to else None, "--out")
     _check_out(rules, "--rules")
@@ -138,7 +142,7 @@ def schema_command(
     if profile.rows == 0 and profile.error_count and all(not f.observations for f in profile.files):
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "
                              "(driftline scan shows the problems)")
-    to_stdout = (to is not None and out == "-") or rules == "-"
+    to_stdout = (to is not None and is_stdout(out)) or (rules is not None and is_stdout(rules))
     console = err_console if to_stdout else Console(highlight=False)
     try:
         rec = recommend(profile, options=opts)
@@ -157,5 +161,5 @@ def schema_command(
     if not quiet:
         summary.render(rec, console)
         for target, what in ((out if to else None, to), (rules, "cast rules")):
-            if target not in (None, "-"):
+            if target is not None and not is_stdout(target):
                 console.print(f"{what} written to {safe_text(target)}", markup=False)

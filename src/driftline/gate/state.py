@@ -31,6 +31,7 @@ import orjson
 
 from driftline import __version__
 from driftline.emit.atomic import write_output
+from driftline.emit.targets import check_targets
 from driftline.errors import InputPathError, ReportVersionError
 from driftline.profile import Profile
 from driftline.report import file_from_json, file_json
@@ -142,18 +143,6 @@ def state_bytes(profile: Profile, opts: ReadOptions, *, verify: bool) -> bytes:
     return orjson.dumps(doc, option=orjson.OPT_NON_STR_KEYS) + b"\n"
 
 
-def _inside_scan(state_path: str, paths: Sequence[str | os.PathLike[str]]) -> bool:
-    target = os.path.abspath(state_path)
-    name = os.path.basename(target)
-    if name.startswith((".", "_")):
-        return False  # discovery skips hidden files and markers
-    for p in paths:
-        top = os.path.abspath(os.fspath(p))
-        if os.path.isdir(top) and os.path.commonpath([top, target]) == top:
-            return True
-    return False
-
-
 def scan_incremental(
     paths: Sequence[str | os.PathLike[str]],
     state_path: str | Path,
@@ -167,6 +156,7 @@ def scan_incremental(
     verify: bool = False,
     rebuild: bool = False,
     progress: Progress | None = None,
+    write_inside: bool = False,
 ) -> StateRun:
     """Scan paths reading only files the state does not hold unchanged; then save the state.
 
@@ -181,11 +171,8 @@ def scan_incremental(
     state_path = os.fspath(state_path)
     if state_path == "-" or os.path.isdir(state_path):
         raise InputPathError(f"--state needs a file name, not {state_path!r}")
-    if _inside_scan(state_path, paths) and not include_hidden:
-        raise InputPathError(
-            f"the state file {state_path!r} lies inside a scanned folder and would be read as data; "
-            "put it elsewhere or give it a name starting with '.'"
-        )
+    # Not over an input, and not inside a scanned folder unless asked (or named as discovery skips).
+    check_targets([("--state", state_path)], scanned=paths, write_inside=write_inside, include_hidden=include_hidden)
     state = None if rebuild else load_state(state_path)
     note = None
     if state is not None and dict(state.read) != _read_options_json(opts):
