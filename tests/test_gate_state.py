@@ -91,16 +91,14 @@ def test_verify_catches_a_rewrite_with_the_same_size_and_mtime(tmp_path):
 @pytest.mark.parametrize(
     ("content", "message"),
     [
-        (b"\x00\x01 not json", r"state file .* is damaged \(not JSON: .* at line 1, column 1\); run with --rebuild"),
-        (b'{"format": "driftline-state", "version": 1, "root": "/x", "read": {}, "files": [{"path": "a"}]}',
-         r"is damaged \(an entry lacks the key 'format'\); run with --rebuild"),
+        (b"\x00\x01 not json", r"is not a driftline state file \(it is not JSON\); give --state another file name"),
         (b'{"format": "driftline-state", "version": 7, "files": []}',
          r"has format version 7; this driftline reads version 1; run with --rebuild"),
         (b'{"format": "something", "files": []}', r"is not a driftline state file \(its format is 'something'\)"),
         (b"[1, 2]", r"is not a driftline state file; give --state another file name, or --rebuild"),
     ],
 )
-def test_damaged_or_foreign_state_is_an_error_and_rebuild_starts_over(tmp_path, content, message):
+def test_foreign_state_is_an_error_and_rebuild_starts_over(tmp_path, content, message):
     land, state = tmp_path / "landing", tmp_path / "state.json"
     _day(land, 1, 4)
     state.write_bytes(content)
@@ -110,6 +108,29 @@ def test_damaged_or_foreign_state_is_an_error_and_rebuild_starts_over(tmp_path, 
     run = scan_incremental([land], state, rebuild=True)
     assert (run.read, run.reused) == (1, 0)
     assert load_state(state) is not None
+
+
+@pytest.mark.parametrize(
+    ("content", "message"),
+    [
+        (b'{"format": "driftline-state", "version": 1, "root": "/x", "read": {}, "digest": null, '
+         b'"tool": {"name": "driftline", "version": "0"}, "files": [{"path": "a"}]}',
+         "is damaged at /files/0/format: expected a required key, found none"),
+        (b'{"format": "driftline-state", "version": 1, "files": [',
+         "is damaged at /files/0: expected JSON, found unexpected end of data at line 1, column"),
+        (b'{"format": "drift', "is damaged at /format: expected JSON, found unexpected end of data"),
+        (b"", 'is damaged at "" (the whole document): expected JSON, found'),
+    ],
+)
+def test_a_damaged_state_is_set_aside_and_everything_is_read_again(tmp_path, content, message):
+    land, state = tmp_path / "landing", tmp_path / "state.json"
+    _day(land, 1, 4)
+    state.write_bytes(content)
+    run = scan_incremental([land], state)
+    assert (run.read, run.reused) == (1, 0)
+    assert run.note is not None and message in run.note and f"set aside as '{state}.damaged'" in run.note
+    assert Path(f"{state}.damaged").read_bytes() == content  # kept as it was, for a look
+    assert scan_incremental([land], state).reused == 1  # the new state is whole
 
 
 def test_a_report_is_not_a_state(tmp_path):

@@ -36,6 +36,7 @@ from collections.abc import Sequence as _Sequence
 
 from driftline.drift import Event
 from driftline.errors import (
+    DamagedFileError,
     DriftlineError,
     InputPathError,
     OutputError,
@@ -164,6 +165,7 @@ def diff(a: Profile | str | _os.PathLike[str], b: Profile | str | _os.PathLike[s
 
 
 __all__ = [
+    "DamagedFileError",
     "Diff",
     "DriftlineError",
     "Event",

@@ -13,7 +13,9 @@ The file is JSON, written atomically (a temporary sibling, then a rename):
      "read": {<read options>}, "digest": "blake2b-128" | null,
      "files": [<a report file entry with its batches>, "digest": "<hex>" | null ...]}
 
-A damaged or foreign state file is an error that says so; rebuild=True starts over.
+A damaged state file of ours (cut short, garbled, or not matching docs/state.schema.json)
+is set aside as <name>.damaged and every file is read again, with a note that says why;
+a foreign file or another version is an error that says so; rebuild=True starts over.
 """
 
 from __future__ import annotations
@@ -22,6 +24,7 @@ import contextlib
 import dataclasses
 import hashlib
 import os
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -30,14 +33,16 @@ from typing import Any
 import orjson
 
 from driftline import __version__
+from driftline.documents import pointer_at
 from driftline.emit.atomic import write_output
 from driftline.emit.targets import check_targets
-from driftline.errors import InputPathError, ReportVersionError
+from driftline.errors import DamagedFileError, InputPathError, ReportVersionError
 from driftline.profile import Profile
-from driftline.report import file_from_json, file_json
+from driftline.report import file_from_json, file_json, files_from_json
 from driftline.scan import Progress, scan_paths
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef
+from driftline.validation import check_document, damaged
 
 STATE_FORMAT = "driftline-state"
 STATE_VERSION = 1
@@ -77,24 +82,37 @@ def _read_options_json(opts: ReadOptions) -> dict[str, Any]:
     return dataclasses.asdict(opts)
 
 
-def _damaged(path: str | Path, why: str) -> ReportVersionError:
-    return ReportVersionError(
-        f"state file {str(path)!r} is damaged ({why}); run with --rebuild to start over from a full scan"
-    )
+_STATE_HEAD = re.compile(rb'\A\s*\{\s*"format"\s*:\s*"driftline-state"')
+_STATE_START = b'{"format":"driftline-state"'
+
+
+def _ours(raw: bytes) -> bool:
+    """A state file of ours, perhaps cut short: it begins as one, or is a beginning of one (even empty)."""
+    return _STATE_HEAD.match(raw) is not None or _STATE_START.startswith(re.sub(rb"\s+", b"", raw[:64]))
 
 
 def load_state(path: str | Path) -> State | None:
-    """Read a state file; None when there is none yet. Raises for a damaged or foreign file."""
+    """Read a state file; None when there is none yet.
+
+    A state file of ours that is damaged (cut short, not JSON, or not matching
+    docs/state.schema.json) raises DamagedFileError with the JSON pointer of the problem;
+    a file of another kind or version raises ReportVersionError.
+    """
+    source = repr(str(path))
     try:
         raw = Path(path).read_bytes()
     except FileNotFoundError:
         return None
     except OSError as exc:
-        raise InputPathError(f"cannot read state file {str(path)!r}: {exc.strerror}") from None
+        raise InputPathError(f"cannot read state file {source}: {exc.strerror}") from None
     try:
         data = orjson.loads(raw)
     except orjson.JSONDecodeError as exc:
-        raise _damaged(path, f"not JSON: {exc.msg} at line {exc.lineno}, column {exc.colno}") from None
+        if not _ours(raw):
+            raise ReportVersionError(f"{source} is not a driftline state file (it is not JSON); give --state "
+                                     "another file name, or --rebuild to replace it with a new state") from None
+        raise damaged("state file", source, pointer_at(raw, exc.pos), "JSON",
+                      f"{exc.msg} at line {exc.lineno}, column {exc.colno} (cut short or garbled)") from None
     if not isinstance(data, dict) or data.get("format") != STATE_FORMAT:
         what = data.get("format") if isinstance(data, dict) else None
         raise ReportVersionError(
@@ -107,21 +125,17 @@ def load_state(path: str | Path) -> State | None:
             f"state file {str(path)!r} has format version {data.get('version')!r}; this driftline "
             f"reads version {STATE_VERSION}; run with --rebuild to start over"
         )
-    try:
-        files = {}
-        for fd in data["files"]:
-            res = dataclasses.replace(file_from_json(fd), digest=fd.get("digest"))
-            if res.rel in files:
-                raise ValueError(f"{res.rel!r} is listed twice")
-            files[res.rel] = res
-        root, read = data["root"], data["read"]
-        if not isinstance(root, str) or not isinstance(read, dict):
-            raise TypeError("root or read options of the wrong type")
-    except KeyError as exc:
-        raise _damaged(path, f"an entry lacks the key {exc}") from None
-    except (TypeError, ValueError, AttributeError) as exc:
-        raise _damaged(path, f"{type(exc).__name__}: {exc}") from None
-    return State(root, read, files)
+    check_document(data, "state", "state file", source)
+    results = files_from_json(data["files"], "state file", source,
+                              lambda fd: dataclasses.replace(file_from_json(fd), digest=fd["digest"]))
+    return State(data["root"], data["read"], {f.rel: f for f in results})
+
+
+def set_aside(path: str) -> str:
+    """Move a damaged state file out of the way (kept for a look, never read again); its new name."""
+    aside = path + ".damaged"
+    os.replace(path, aside)
+    return aside
 
 
 def state_bytes(profile: Profile, opts: ReadOptions, *, verify: bool) -> bytes:
@@ -173,8 +187,17 @@ def scan_incremental(
         raise InputPathError(f"--state needs a file name, not {state_path!r}")
     # Not over an input, and not inside a scanned folder unless asked (or named as discovery skips).
     check_targets([("--state", state_path)], scanned=paths, write_inside=write_inside, include_hidden=include_hidden)
-    state = None if rebuild else load_state(state_path)
     note = None
+    try:
+        state = None if rebuild else load_state(state_path)
+    except DamagedFileError as exc:
+        # A damaged state costs a full rescan, never a wrong result and never a stop.
+        try:
+            aside = set_aside(state_path)
+        except OSError as err:
+            raise InputPathError(f"{exc}; it cannot be set aside ({err.strerror}); remove it, or --rebuild") from None
+        note = f"{exc}; it was set aside as {aside!r} and every file is read again"
+        state = None
     if state is not None and dict(state.read) != _read_options_json(opts):
         note = "the read options changed since the state was written; every file is read again"
         state = None
