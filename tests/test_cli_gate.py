@@ -172,7 +172,8 @@ def test_usage_errors_exit_2(pipeline: dict[str, Path]):
     cases = [
         (("check", land, "--baseline", pipeline["dir"] / "missing.json"), "cannot read baseline"),
         (("check", land, "--baseline", contract, "--verify"), "--verify and --rebuild work on a state file"),
-        (("check", land, "--baseline", contract, "--json", "-", "--junit", "-"), "--json and --junit both write to standard output"),
+        (("check", land, "--baseline", contract, "--json", "-", "--junit", "-"),
+         "--json and --junit both write to standard output"),
         (("check", pipeline["dir"] / "nope", "--baseline", contract), "does not exist"),
         (("diff", land), "diff takes two sides"),
         (("diff", land, "--by", "region"), "no partition key 'region'"),

@@ -196,7 +196,7 @@ def test_bad_rules_files(tmp_path):
     doc = rules_document(_recommended(tmp_path))
     f = tmp_path / "rules.json"
     f.write_text(json.dumps(doc | {"version": 9}), encoding="utf-8")
-    with pytest.raises(ReportVersionError, match=r"has rules version 9 \(at /version\); this driftline reads version 1"):
+    with pytest.raises(ReportVersionError, match=r"has rules version 9 \(at /version\); this driftline reads"):
         load_baseline(f)
     broken = dict(doc, fields=[*doc["fields"][:2], {k: v for k, v in doc["fields"][2].items() if k != "target"}])
     f.write_text(json.dumps(broken), encoding="utf-8")
