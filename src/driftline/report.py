@@ -157,7 +157,7 @@ def files_from_json(entries: Sequence[Mapping[str, Any]], what: str, source: str
     """File entries (already valid against their JSON Schema) back as FileResults.
 
     What a schema cannot say is checked here, each as a DamagedFileError with its JSON
-    pointer: type keys that parse, each path once, and statistics that combine.
+    pointer: type keys that parse, and each path once.
     """
     bad = _bad_type_key(entries)
     if bad is not None:
@@ -175,34 +175,7 @@ def files_from_json(entries: Sequence[Mapping[str, Any]], what: str, source: str
                           f"{found(f.rel)} again (first at /files/{first[f.rel]})")
         first[f.rel] = i
         files.append(f)
-    _check_combines(files, what, source)
     return tuple(files)
-
-
-def _combine_error(files: Sequence[FileResult]) -> Exception | None:
-    try:
-        _ = Profile("", tuple(files)).fields
-    except (KeyError, TypeError, ValueError, AttributeError, ArithmeticError) as exc:
-        return exc
-    return None
-
-
-def _check_combines(files: Sequence[FileResult], what: str, source: str) -> None:
-    # A value of the right JSON type can still be wrong (a minimum "5" beside a minimum 3):
-    # merge the statistics now, and on failure find the first file that breaks them.
-    exc = _combine_error(files)
-    if exc is None:
-        return
-    order = sorted(range(len(files)), key=lambda i: files[i].rel)  # a Profile merges in path order
-    lo, hi = 0, len(order)  # the first `hi` files in path order fail together; the first `lo` do not
-    while hi - lo > 1:
-        mid = (lo + hi) // 2
-        if _combine_error([files[i] for i in order[:mid]]) is None:
-            lo = mid
-        else:
-            hi = mid
-    raise damaged(what, source, f"/files/{order[hi - 1]}/batches", "statistics that combine with the other files'",
-                  f"{type(exc).__name__}: {exc}")
 
 
 def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
