@@ -204,7 +204,8 @@ def test_check_diff_and_schema_on_a_damaged_report(valid: dict[str, Any], data: 
                 ("schema", f, "--to", "sql", "--quiet"), ("check", f, "--baseline", valid["contract"], "--quiet")]
         for args in runs:
             code, _, err = _invoke(*args)
-            assert code != 1 or (args[0] == "check" and expect_valid and args[1] != f), (why, args, err)
+            # Exit 1 is a policy violation: only a valid (if altered) report can give one.
+            assert code != 1 or (args[0] == "check" and expect_valid), (why, args, err)
             if code == 2:
                 _assert_damage_message(err, str(f), why)
             else:
@@ -232,6 +233,30 @@ def test_check_on_a_damaged_rules_baseline(valid: dict[str, Any], data: st.DataO
             assert code == 2, (why, err)
         if code == 2:
             _assert_damage_message(err, str(f), why)
+        assert f.read_bytes() == raw
+
+
+@FUZZ
+@given(data=st.data())
+def test_check_on_a_damaged_json_schema_baseline(valid: dict[str, Any], data: st.DataObject):
+    contract = json.loads(valid["contract"].read_bytes())
+    raw, why = data.draw(mutated(contract, keep=(("$comment",),)))
+    with tempfile.TemporaryDirectory() as d:
+        f = Path(d) / "contract.schema.json"
+        f.write_bytes(raw)
+        code, _, err = _invoke("check", valid["land"], "--baseline", f, "--quiet")
+        try:
+            doc = json.loads(raw)
+            # source: the JSON Schema 2020-12 meta-schema, checked by jsonschema
+            meta_valid = isinstance(doc, dict) and Draft202012Validator(
+                Draft202012Validator.META_SCHEMA).is_valid(doc)
+        except ValueError:
+            meta_valid = False
+        if not meta_valid:
+            assert code == 2, (why, code, err)  # never 1: a damaged contract is not a failed gate
+        if code == 2:
+            assert str(f) in err and ("at /" in err or 'at ""' in err or "is not JSON" in err), (why, err)
+            assert "Traceback" not in err
         assert f.read_bytes() == raw
 
 

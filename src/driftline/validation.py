@@ -319,6 +319,10 @@ def check_json_schema(doc: Any, what: str, source: str) -> None:
     from jsonschema.exceptions import SchemaError
     from jsonschema.validators import Draft202012Validator, validator_for
 
+    dialect = doc.get("$schema") if isinstance(doc, dict) else None
+    if dialect is not None and not isinstance(dialect, str):
+        # Core 2020-12 section 8.1.1: "$schema" is a URI (a string); jsonschema cannot look up anything else.
+        raise damaged(what, source, "/$schema", "a URI string naming the dialect", found(dialect))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", DeprecationWarning)  # an unknown $schema: 2020-12 is used
         cls = validator_for(doc, default=Draft202012Validator)

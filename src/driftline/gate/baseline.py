@@ -214,14 +214,15 @@ def _expand_arrow(path: str, t: DType, out: dict[str, Expected]) -> None:
 def baseline_from_json_schema(doc: Any, *, source: str = "schema") -> Baseline:
     """A Baseline from a parsed JSON Schema whose root describes one record (an object)."""
     if not isinstance(doc, Mapping):
-        raise UnreadableFileError(f"{source} is not a JSON Schema: the document is not an object")
+        raise UnreadableFileError(f'{source} is not a JSON Schema: the document (at "") is not an object')
     out: dict[str, Expected] = {}
     try:
         _walk_schema(doc, None, "", True, out)
     except _SchemaError as exc:
         raise UnreadableFileError(f"{source}: {exc}") from None
     if doc.get("properties") is None:
-        raise UnreadableFileError(f"{source}: the root schema has no 'properties'; a baseline describes record fields")
+        raise UnreadableFileError(f"{source} at /properties: the root schema has no 'properties'; a baseline "
+                                  "describes record fields")
     return Baseline("json-schema", source, out)
 
 
