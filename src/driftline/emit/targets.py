@@ -74,12 +74,12 @@ def _inputs(scanned: Sequence[str | os.PathLike[str]], named: Sequence[str | os.
                 matched[_ident(st)] = hit
             else:
                 files[_ident(st)] = hit
-    for raw in named:
-        if raw is None:
+    for other in named:
+        if other is None:
             continue
-        st = _stat(os.fspath(raw))
+        st = _stat(os.fspath(other))
         if st is not None:
-            files[_ident(st)] = os.fspath(raw)
+            files[_ident(st)] = os.fspath(other)
     return _Inputs(files, tuple(folders), matched)
 
 

@@ -146,8 +146,8 @@ def policy_from_mapping(data: Mapping[str, Any], *, source: str = "policy") -> P
     try:
         return Policy(**data)
     except PolicyError as exc:
-        key = next((k for k in data if f"policy key {k!r} " in str(exc)), None)
-        raise PolicyError(f"{source}{f' at /{key}' if key else ''}: {exc}") from None
+        bad = next((k for k in data if f"policy key {k!r} " in str(exc)), None)
+        raise PolicyError(f"{source}{f' at /{bad}' if bad else ''}: {exc}") from None
 
 
 def load_policy(path: str | Path) -> Policy:
