@@ -29,8 +29,9 @@ EXIT_CODES = """Exit codes:
 \b
   0  passed: no policy violation (warnings are allowed)
   1  a policy violation: at least one change the policy says "fail" to
-  2  usage or input error: a bad option, an unknown policy key or value, a missing or
-     unreadable path, baseline or state file, an unwritable output
+  2  usage or input error: a bad option, an unknown policy key or value, a missing,
+     unreadable or damaged path, baseline or policy (the message names the file and a
+     JSON pointer), an unwritable output, an output aimed at an input
 """
 
 
@@ -61,8 +62,8 @@ Examples:
 {_policy_table()}
 With --state FILE only new or changed files are read (same relative path, size and
 modification time; with --verify also the same content hash); removed files drop out.
-The result equals a full rescan. A damaged or foreign state file is an error; --rebuild
-starts over.
+The result equals a full rescan. A damaged state file is set aside (<name>.damaged) and
+every file is read again, with a note; a foreign one is an error; --rebuild starts over.
 
 {EXIT_CODES}"""
 

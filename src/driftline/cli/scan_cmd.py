@@ -31,7 +31,8 @@ from driftline.sources.base import (
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
 Folders are walked recursively in sorted order; key=value folder names become partition
-values. Files starting with '.' or '_' are skipped and counted. Formats come from the
+values. Files starting with '.' or '_' are skipped and counted, and so are driftline's own
+outputs (reports, schemas, state files: they carry a mark). Formats come from the
 extension (.jsonl .ndjson .json .csv .tsv .parquet, plus .gz .bz2 .zst .xz) or from the
 first bytes.
 
@@ -43,8 +44,12 @@ Examples:
 
   driftline scan a.jsonl b.csv.gz exports/ --include '*.jsonl' --exclude '_*' --batch-rows 50000
 
+An output is never written over an input, nor inside a scanned folder unless
+--write-inside is given; a device, a FIFO or /dev/stdout is written into.
+
 Exit codes: 0 the data could be read (drift is information); 2 usage or input error
-(a path that does not exist, nothing readable, an unwritable output).
+(a path that does not exist, nothing readable, an unwritable output, an output aimed at
+an input or at another output's target).
 """
 
 
