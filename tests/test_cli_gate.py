@@ -156,7 +156,7 @@ def test_a_damaged_state_is_set_aside_with_a_note_and_everything_is_read(pipelin
         return "".join(text.split())
 
     note = bare(res.stderr)
-    assert bare(f"note: state file '{pipeline['state']}' is damaged at /files/0: expected JSON, found") in note
+    assert bare(f"warning: state file '{pipeline['state']}' is damaged at /files/0: expected JSON, found") in note
     assert bare(f"set aside as '{pipeline['state']}.damaged' and every file is read again") in note
     assert "Traceback" not in res.stderr
     assert json.loads(res.stdout)["counts"]["files_read"] == 1

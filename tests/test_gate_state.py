@@ -128,7 +128,8 @@ def test_a_damaged_state_is_set_aside_and_everything_is_read_again(tmp_path, con
     state.write_bytes(content)
     run = scan_incremental([land], state)
     assert (run.read, run.reused) == (1, 0)
-    assert run.note is not None and message in run.note and f"set aside as '{state}.damaged'" in run.note
+    assert run.note is not None and run.note.startswith("warning: state file ") and message in run.note
+    assert f"set aside as '{state}.damaged'" in run.note
     assert Path(f"{state}.damaged").read_bytes() == content  # kept as it was, for a look
     assert scan_incremental([land], state).reused == 1  # the new state is whole
 

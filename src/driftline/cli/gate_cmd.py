@@ -150,7 +150,7 @@ def check_command(
     finally:
         bar.close()
     if note:
-        err_console.print(f"note: {note}", markup=False)
+        err_console.print(note if note.startswith("warning: ") else f"note: {note}", markup=False)
     if json_out is not None:
         write_output(json_out, orjson.dumps(verdict.to_json(), option=orjson.OPT_INDENT_2) + b"\n")
     if junit is not None:

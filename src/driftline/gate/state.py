@@ -196,7 +196,7 @@ def scan_incremental(
             aside = set_aside(state_path)
         except OSError as err:
             raise InputPathError(f"{exc}; it cannot be set aside ({err.strerror}); remove it, or --rebuild") from None
-        note = f"{exc}; it was set aside as {aside!r} and every file is read again"
+        note = f"warning: {exc}; it was set aside as {aside!r} and every file is read again"
         state = None
     if state is not None and dict(state.read) != _read_options_json(opts):
         note = "the read options changed since the state was written; every file is read again"
