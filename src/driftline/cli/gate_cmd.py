@@ -63,7 +63,7 @@ Examples:
 With --state FILE only new or changed files are read (same relative path, size and
 modification time; with --verify also the same content hash); removed files drop out.
 The result equals a full rescan. A damaged state file is set aside (<name>.damaged) and
-every file is read again, with a note; a foreign one is an error; --rebuild starts over.
+every file is read again, with a warning; a foreign one is an error; --rebuild starts over.
 
 {EXIT_CODES}"""
 

@@ -14,7 +14,7 @@ The file is JSON, written atomically (a temporary sibling, then a rename):
      "files": [<a report file entry with its batches>, "digest": "<hex>" | null ...]}
 
 A damaged state file of ours (cut short, garbled, or not matching docs/state.schema.json)
-is set aside as <name>.damaged and every file is read again, with a note that says why;
+is set aside as <name>.damaged and every file is read again, with a warning that says why;
 a foreign file or another version is an error that says so; rebuild=True starts over.
 """
 
