@@ -22,6 +22,7 @@ from driftline.tables import EVENTS_SCHEMA, FIELDS_SCHEMA
 
 # The public surface. A change here is an API change: update docs/python.md with it.
 SURFACE = [
+    "DamagedFileError",
     "Diff",
     "DriftlineError",
     "Event",

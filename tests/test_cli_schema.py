@@ -112,7 +112,8 @@ def test_bad_inputs_exit_2(report: Path, tmp_path: Path):
     other.write_text(report.read_text().replace('"version": 1', '"version": 2', 1))
     res = run("schema", str(other), "--to", "sql")
     assert res.returncode == 2
-    assert "ReportVersionError:" in res.stderr and "has report version 2; this driftline reads version 1" in res.stderr
+    assert "ReportVersionError:" in res.stderr
+    assert "has report version 2 (at /version); this driftline reads version 1" in res.stderr
     config = tmp_path / "bad.toml"
     config.write_text("[recommend]\nstrictness = 1\n")
     res = run("schema", str(report), "--config", str(config))

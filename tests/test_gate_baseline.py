@@ -10,7 +10,7 @@ from jsonschema import Draft202012Validator
 
 import driftline
 from conftest import write_lines
-from driftline.errors import InputPathError, ReportVersionError, UnreadableFileError
+from driftline.errors import DamagedFileError, InputPathError, ReportVersionError, UnreadableFileError
 from driftline.gate.baseline import (
     FORMAT_CLASSES,
     baseline_from_json_schema,
@@ -196,13 +196,14 @@ def test_bad_rules_files(tmp_path):
     doc = rules_document(_recommended(tmp_path))
     f = tmp_path / "rules.json"
     f.write_text(json.dumps(doc | {"version": 9}), encoding="utf-8")
-    with pytest.raises(ReportVersionError, match="has rules version 9; this driftline reads version 1"):
+    with pytest.raises(ReportVersionError, match=r"has rules version 9 \(at /version\); this driftline reads"):
         load_baseline(f)
     broken = dict(doc, fields=[*doc["fields"][:2], {k: v for k, v in doc["fields"][2].items() if k != "target"}])
     f.write_text(json.dumps(broken), encoding="utf-8")
-    with pytest.raises(UnreadableFileError, match=r"fields\[2\] lacks the key 'target'"):
+    # source: docs/rules.schema.json — "target" is a required key of every field entry
+    with pytest.raises(DamagedFileError, match=r"is damaged at /fields/2/target: expected a required key, found none"):
         load_baseline(f)
     broken["fields"][2] = doc["fields"][2] | {"target": "int65"}
     f.write_text(json.dumps(broken), encoding="utf-8")
-    with pytest.raises(UnreadableFileError, match=r"fields\[2\]: cannot parse type key 'int65'"):
+    with pytest.raises(UnreadableFileError, match=r"at /fields/2/target: cannot parse type key 'int65'"):
         load_baseline(f)

@@ -91,16 +91,14 @@ def test_verify_catches_a_rewrite_with_the_same_size_and_mtime(tmp_path):
 @pytest.mark.parametrize(
     ("content", "message"),
     [
-        (b"\x00\x01 not json", r"state file .* is damaged \(not JSON: .* at line 1, column 1\); run with --rebuild"),
-        (b'{"format": "driftline-state", "version": 1, "root": "/x", "read": {}, "files": [{"path": "a"}]}',
-         r"is damaged \(an entry lacks the key 'format'\); run with --rebuild"),
+        (b"\x00\x01 not json", r"is not a driftline state file \(it is not JSON\); give --state another file name"),
         (b'{"format": "driftline-state", "version": 7, "files": []}',
          r"has format version 7; this driftline reads version 1; run with --rebuild"),
         (b'{"format": "something", "files": []}', r"is not a driftline state file \(its format is 'something'\)"),
         (b"[1, 2]", r"is not a driftline state file; give --state another file name, or --rebuild"),
     ],
 )
-def test_damaged_or_foreign_state_is_an_error_and_rebuild_starts_over(tmp_path, content, message):
+def test_foreign_state_is_an_error_and_rebuild_starts_over(tmp_path, content, message):
     land, state = tmp_path / "landing", tmp_path / "state.json"
     _day(land, 1, 4)
     state.write_bytes(content)
@@ -110,6 +108,30 @@ def test_damaged_or_foreign_state_is_an_error_and_rebuild_starts_over(tmp_path, 
     run = scan_incremental([land], state, rebuild=True)
     assert (run.read, run.reused) == (1, 0)
     assert load_state(state) is not None
+
+
+@pytest.mark.parametrize(
+    ("content", "message"),
+    [
+        (b'{"format": "driftline-state", "version": 1, "root": "/x", "read": {}, "digest": null, '
+         b'"tool": {"name": "driftline", "version": "0"}, "files": [{"path": "a"}]}',
+         "is damaged at /files/0/format: expected a required key, found none"),
+        (b'{"format": "driftline-state", "version": 1, "files": [',
+         "is damaged at /files/0: expected JSON, found unexpected end of data at line 1, column"),
+        (b'{"format": "drift', "is damaged at /format: expected JSON, found unexpected end of data"),
+        (b"", 'is damaged at "" (the whole document): expected JSON, found'),
+    ],
+)
+def test_a_damaged_state_is_set_aside_and_everything_is_read_again(tmp_path, content, message):
+    land, state = tmp_path / "landing", tmp_path / "state.json"
+    _day(land, 1, 4)
+    state.write_bytes(content)
+    run = scan_incremental([land], state)
+    assert (run.read, run.reused) == (1, 0)
+    assert run.note is not None and run.note.startswith("warning: state file ") and message in run.note
+    assert f"set aside as '{state}.damaged'" in run.note
+    assert Path(f"{state}.damaged").read_bytes() == content  # kept as it was, for a look
+    assert scan_incremental([land], state).reused == 1  # the new state is whole
 
 
 def test_a_report_is_not_a_state(tmp_path):
@@ -170,10 +192,15 @@ def test_an_interrupted_write_keeps_the_earlier_state(tmp_path, monkeypatch):
 def test_a_state_file_the_scan_would_read_is_refused(tmp_path):
     land = tmp_path / "landing"
     _day(land, 1, 4)
-    with pytest.raises(InputPathError, match="lies inside a scanned folder"):
+    with pytest.raises(OutputError, match="lies inside the scanned folder .*pass --write-inside"):
         scan_incremental([land], land / "state.json")
     run = scan_incremental([land], land / ".driftline-state")  # hidden: the scan skips it
     assert run.read == 1
+    run = scan_incremental([land], land / "state.json", write_inside=True)  # it carries the marker: skipped
+    assert (run.read, [(s.rel, s.reason) for s in run.profile.skipped]) == (1, [(".driftline-state", "hidden")])
+    again = scan_incremental([land], land / "state.json", write_inside=True)
+    assert (again.reused, [(s.rel, s.reason) for s in again.profile.skipped]) == \
+        (1, [(".driftline-state", "hidden"), ("state.json", "own-output")])
     with pytest.raises(InputPathError, match="--state needs a file name"):
         scan_incremental([land], "-")
 

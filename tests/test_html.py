@@ -348,11 +348,14 @@ def test_cli_scan_writes_the_html_report(tmp_path: Path) -> None:
     res = CliRunner().invoke(app, ["scan", str(d), "--html", str(out), "--jobs", "1"])
     assert res.exit_code == 0, res.output
     assert f"HTML report written to {out}" in " ".join(res.output.split())
-    assert out.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
+    # source: HTML Living Standard 13.1 — comments may precede the DOCTYPE; the first is driftline's mark
+    marked = "<!-- driftline-output: an HTML report written by driftline "
+    page = out.read_text(encoding="utf-8")
+    assert page.startswith(marked) and page.splitlines()[1] == "<!DOCTYPE html>"
     res = CliRunner().invoke(app, ["scan", str(d), "--html", "-", "--quiet", "--jobs", "1"])
-    assert res.exit_code == 0 and res.stdout.startswith("<!DOCTYPE html>") and res.stdout.rstrip().endswith("</html>")
+    assert res.exit_code == 0 and res.stdout.startswith(marked) and res.stdout.rstrip().endswith("</html>")
     res = CliRunner().invoke(app, ["scan", str(d), "--html", "-", "--json", "-", "--jobs", "1"])
-    assert res.exit_code == 2 and "only one of --json and --html" in res.output
+    assert res.exit_code == 2 and "--json and --html both write to standard output" in res.output
 
 
 # -- the recommender's column ----------------------------------------------------------------------

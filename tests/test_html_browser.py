@@ -87,6 +87,10 @@ def test_page_loads_offline_without_errors(demo_page: Page, demo: dict[str, Any]
     assert _problems(demo_page) == []
     assert _requests(demo_page) == [demo["url"]]  # the file itself and nothing else
     assert demo_page.evaluate("document.title").startswith("driftline report")
+    # source: HTML Living Standard, the "initial" insertion mode: a comment before the DOCTYPE is
+    # appended to the document and leaves no-quirks mode (from memory of the parsing rules)
+    assert demo_page.evaluate("document.compatMode") == "CSS1Compat"
+    assert demo_page.evaluate("document.firstChild.nodeType === Node.COMMENT_NODE")  # driftline's mark
     assert demo_page.evaluate("document.documentElement.classList.contains('js')")  # our script ran (CSP hash ok)
 
 

@@ -48,6 +48,6 @@ def test_nested_fields_keep_names_and_nullability(recs):
 
 def test_text_form_is_what_pyarrow_prints(recs):
     text = schema_text(recs[0])
-    assert text.splitlines()[0].startswith("# Arrow schema recommended by driftline for ")
+    assert text.splitlines()[0].startswith("# driftline-output: Arrow schema recommended by driftline for ")
     assert "pm25: double\n  -- field metadata --\n  driftline.rule: 'parse_float'" in text
     assert "ts: timestamp[us, tz=UTC] not null" in text

@@ -37,6 +37,7 @@ from typing import Any as _Any
 
 from driftline.drift import Event
 from driftline.errors import (
+    DamagedFileError,
     DriftlineError,
     InputPathError,
     OptionError,
@@ -201,6 +202,7 @@ def diff(a: Profile | str | _os.PathLike[str], b: Profile | str | _os.PathLike[s
 
 
 __all__ = [
+    "DamagedFileError",
     "Diff",
     "DriftlineError",
     "Event",

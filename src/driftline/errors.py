@@ -6,6 +6,8 @@
     ├── PolicyError                a policy or option file with an unknown key or bad value
     ├── OptionError                an option value of the wrong type or outside its range
     ├── ReportVersionError         a saved report / state / rules file of another format
+    ├── DamagedFileError           a report, baseline, rules, policy or state file of the right
+    │                              format but the wrong shape: names the file and a JSON pointer
     ├── OutputError                an output path that cannot be written
     └── EngineError                (driftline.engines) the distributed engine is missing,
                                    cannot be reached, or lost the scan
@@ -81,7 +83,22 @@ class ReportVersionError(DriftlineError):
     ...     from_dict({"format": "driftline-report", "version": 0})
     ... except ReportVersionError as exc:
     ...     print(exc)
-    report has report version 0; this driftline reads version 1. Rescan the data to make a new report.
+    report has report version 0 (at /version); this driftline reads version 1. Rescan the data to make a new report.
+    """
+
+
+class DamagedFileError(DriftlineError):
+    """A file of driftline's own format does not match its published JSON Schema.
+
+    The message names the file, the JSON pointer (RFC 6901) of the first problem and what
+    was expected there.
+
+    >>> from driftline.report import from_dict
+    >>> try:
+    ...     from_dict({"format": "driftline-report", "version": 1, "files": "none"}, source="'r.json'")
+    ... except DamagedFileError as exc:
+    ...     print(exc)
+    report 'r.json' is damaged at /tool: expected a required key, found none
     """
 
 

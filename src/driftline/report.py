@@ -8,7 +8,7 @@ from it without rescanning.
 from __future__ import annotations
 
 from collections import Counter
-from collections.abc import Mapping
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -27,8 +27,10 @@ from driftline.sources.base import DEFAULT_MAX_PATHS, FileIssue, FileResult
 from driftline.sources.dialect import Dialect
 from driftline.sources.discover import Skipped
 from driftline.sources.encoding import TextEncoding
+from driftline.validation import check_document, damaged, found, pointer
 
 REPORT_FORMAT = "driftline-report"
+SHALLOW_KINDS = frozenset({"list", "struct", "map"})  # lattice._SHALLOW: nested kinds without children
 REPORT_VERSION = 1
 
 
@@ -169,22 +171,78 @@ def dumps(profile: Profile) -> bytes:
     return jsonnum.dumps(to_dict(profile), option=orjson.OPT_INDENT_2 | orjson.OPT_NON_STR_KEYS) + b"\n"
 
 
+def _type_keys(entries: Sequence[Mapping[str, Any]]) -> Iterator[tuple[list[str | int], str]]:
+    """Every observed type key in file entries, with its path."""
+    for i, fd in enumerate(entries):
+        for j, batch in enumerate(fd.get("batches") or ()):
+            for path, st in batch["fields"].items():
+                for key in st.get("types", {}):
+                    yield ["files", i, "batches", j, "fields", path, "types", key], key
+
+
+def _bad_type_key(entries: Sequence[Mapping[str, Any]]) -> tuple[str, str] | None:
+    """(JSON pointer, key) of the first type key that does not parse; None when all do."""
+    bad = set()
+    for key in {k for _, k in _type_keys(entries)}:
+        if key in SHALLOW_KINDS:
+            continue  # observations keep only the kind of a nested value
+        try:
+            parse_key(key)
+        except (ValueError, TypeError, KeyError):
+            bad.add(key)
+    if not bad:
+        return None
+    return next((pointer(path), key) for path, key in _type_keys(entries) if key in bad)
+
+
+def files_from_json(entries: Sequence[Mapping[str, Any]], what: str, source: str,
+                    convert: Callable[[Mapping[str, Any]], FileResult] | None = None) -> tuple[FileResult, ...]:
+    """File entries (already valid against their JSON Schema) back as FileResults.
+
+    What a schema cannot say is checked here, each as a DamagedFileError with its JSON
+    pointer: type keys that parse, and each path once.
+    """
+    bad = _bad_type_key(entries)
+    if bad is not None:
+        raise damaged(what, source, bad[0], "a type key such as int64, string or list", found(bad[1]))
+    files: list[FileResult] = []
+    first: dict[str, int] = {}
+    for i, fd in enumerate(entries):
+        try:
+            f = (convert or file_from_json)(fd)
+        except (KeyError, TypeError, ValueError, AttributeError) as exc:
+            raise damaged(what, source, f"/files/{i}", "a file entry driftline can read",
+                          f"{type(exc).__name__}: {exc}") from None
+        if f.rel in first:
+            raise damaged(what, source, f"/files/{i}/path", "each file listed once",
+                          f"{found(f.rel)} again (first at /files/{first[f.rel]})")
+        first[f.rel] = i
+        files.append(f)
+    return tuple(files)
+
+
 def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
-    """Load report data back into a Profile. Raises ReportVersionError for another format."""
+    """Load report data back into a Profile.
+
+    Raises ReportVersionError for another format or version, DamagedFileError (with the
+    JSON pointer of the first problem) for a report that does not match
+    docs/report.schema.json or whose values do not fit together.
+    """
     if not isinstance(data, Mapping) or data.get("format") != REPORT_FORMAT:
         raise ReportVersionError(f'{source} is not a driftline scan report (no "format": "{REPORT_FORMAT}")')
     if data.get("version") != REPORT_VERSION:
         raise ReportVersionError(
-            f"{source} has report version {data.get('version')!r}; this driftline reads version {REPORT_VERSION}. "
-            "Rescan the data to make a new report."
+            f"{source} has report version {data.get('version')!r} (at /version); this driftline reads version "
+            f"{REPORT_VERSION}. Rescan the data to make a new report."
         )
-    files = []
-    for fd in data["files"]:
-        if fd.get("batches") is None:
-            raise ReportVersionError(f"{source} was written without batch observations; rescan to load it")
-        files.append(file_from_json(fd))
-    skipped = tuple(Skipped(s["path"], s["reason"]) for s in data.get("skipped", []))
-    return Profile(data["root"], tuple(files), skipped, dict(data.get("options", {})), data.get("duration_s", 0.0))
+    check_document(data, "report", "report", source)
+    for i, fd in enumerate(data["files"]):
+        if fd["batches"] is None:
+            raise ReportVersionError(f"{source} was written without batch observations (at /files/{i}/batches); "
+                                     "rescan to load it")
+    files = files_from_json(data["files"], "report", source)
+    skipped = tuple(Skipped(s["path"], s["reason"]) for s in data["skipped"])
+    return Profile(data["root"], files, skipped, dict(data["options"]), data.get("duration_s", 0.0))
 
 
 def load_report(path: str | Path) -> Profile:

@@ -13,8 +13,9 @@ from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles
 from driftline.cli.scan_cmd import CSV_DIALECT_HELP, _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
 from driftline.conceal import conceal
-from driftline.emit.atomic import write_output
+from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
+from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
 from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, diff_fields, diff_partitions, render
 from driftline.gate.inputs import profile_of
@@ -31,8 +32,9 @@ EXIT_CODES = """Exit codes:
 \b
   0  passed: no policy violation (warnings are allowed)
   1  a policy violation: at least one change the policy says "fail" to
-  2  usage or input error: a bad option, an unknown policy key or value, a missing or
-     unreadable path, baseline or state file, an unwritable output
+  2  usage or input error: a bad option, an unknown policy key or value, a missing,
+     unreadable or damaged path, baseline or policy (the message names the file and a
+     JSON pointer), an unwritable output, an output aimed at an input
 """
 
 
@@ -63,8 +65,8 @@ Examples:
 {_policy_table()}
 With --state FILE only new or changed files are read (same relative path, size and
 modification time; with --verify also the same content hash); removed files drop out.
-The result equals a full rescan. A damaged or foreign state file is an error; --rebuild
-starts over.
+The result equals a full rescan. A damaged state file is set aside (<name>.damaged) and
+every file is read again, with a warning; a foreign one is an error; --rebuild starts over.
 
 {EXIT_CODES}"""
 
@@ -93,11 +95,12 @@ Exit codes: 0 the diff was made (changes are information); 2 usage or input erro
 
 def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int, max_errors: int | None,
               max_record_bytes: int, delimiter: str | None, hidden: bool, csv_dialect: list[str],
-              encoding: str | None = None) -> ScanSettings:
+              encoding: str | None = None, write_inside: bool = False) -> ScanSettings:
     return ScanSettings(
         read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
                          csv_dialects=tuple(csv_dialect), encoding=encoding),
         include=tuple(include), exclude=tuple(exclude), include_hidden=hidden, jobs=jobs, max_errors=max_errors,
+        write_inside=write_inside,
     )
 
 
@@ -114,6 +117,8 @@ _RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, ma
 _DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data when not given.")
 _DIALECT = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP)
 _HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'.")
+_INSIDE = typer.Option(False, WRITE_INSIDE, help="Let outputs go inside a scanned folder (a new file or an earlier "
+                                                 "driftline output, never a data file); scans leave them out.")
 
 
 @app.command("check", help=CHECK_HELP, no_args_is_help=True)
@@ -144,14 +149,15 @@ def check_command(
     hidden: bool = _HIDDEN,
     example_values: str | None = EXAMPLE_VALUES,
     hash_key_file: str | None = HASH_KEY_FILE,
+    write_inside: bool = _INSIDE,
 ) -> None:
     values = values_of(example_values, hash_key_file, policy)
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
-    if json_out == "-" and junit == "-":
-        raise InputPathError("--json and --junit cannot both write to stdout ('-')")
+    check_targets([("--json", json_out), ("--junit", junit), ("--state", state)], scanned=paths,
+                  named=[baseline, policy], write_inside=write_inside, include_hidden=hidden)
     settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden,
-                         csv_dialect, encoding)
+                         csv_dialect, encoding, write_inside)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
@@ -159,13 +165,14 @@ def check_command(
     finally:
         bar.close()
     if note:
-        err_console.print(f"note: {note}", markup=False)
+        err_console.print(note if note.startswith("warning: ") else f"note: {note}", markup=False)
     if json_out is not None:
         write_output(json_out, orjson.dumps(verdict.to_json(), option=orjson.OPT_INDENT_2) + b"\n")
     if junit is not None:
         write_output(junit, junit_xml(verdict))
     if not quiet:
-        console = err_console if "-" in (json_out, junit) else Console(highlight=False)
+        to_stdout = any(t is not None and is_stdout(t) for t in (json_out, junit))
+        console = err_console if to_stdout else Console(highlight=False)
         render_verdict(verdict, console)
     raise typer.Exit(verdict.exit_code)
 
@@ -190,9 +197,11 @@ def diff_command(
     hidden: bool = _HIDDEN,
     example_values: str | None = EXAMPLE_VALUES,
     hash_key_file: str | None = HASH_KEY_FILE,
+    write_inside: bool = _INSIDE,
 ) -> None:
+    check_targets([("--json", json_out)], scanned=sides, write_inside=write_inside, include_hidden=hidden)
     s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden, csv_dialect,
-                  encoding)
+                  encoding, write_inside)
     values = values_of(example_values, hash_key_file)
 
     def load(side: str):  # noqa: ANN202 - a Profile
@@ -217,11 +226,11 @@ def diff_command(
         doc = {"format": "driftline-diff", "version": 1, "by": by, "diffs": [d.to_json() for d in diffs]}
         write_output(json_out, orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
-        console = err_console if json_out == "-" else Console(highlight=False)
+        console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
         if not diffs:
             console.print(f"only one value of partition {safe_text(by)}: nothing to compare", markup=False)
         render(diffs, console)
-        if json_out not in (None, "-"):
+        if json_out is not None and not is_stdout(json_out):
             console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)
 
 

@@ -14,9 +14,10 @@ import driftline
 from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
 from driftline.drift import DEFAULT_MAX_EVENTS
-from driftline.emit.atomic import write_output
+from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.html import write_html
 from driftline.emit.safe import safe_text
+from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.emit.terminal import render
 from driftline.errors import InputPathError
 from driftline.ranges import RANGES
@@ -50,8 +51,12 @@ Examples:
 
   driftline scan a.jsonl b.csv.gz exports/ --include '*.jsonl' --exclude '_*' --batch-rows 50000
 
+An output is never written over an input, nor inside a scanned folder unless
+--write-inside is given; a device, a FIFO or /dev/stdout is written into.
+
 Exit codes: 0 the data could be read (drift is information); 2 usage or input error
-(a path that does not exist, nothing readable, an unwritable output).
+(a path that does not exist, nothing readable, an unwritable output, an output aimed at
+an input or at another output's target).
 """
 
 
@@ -197,6 +202,12 @@ def scan_command(
         help="Follow symbolic links that lead out of the paths given (skipped and listed by default).",
     ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
+    write_inside: bool = typer.Option(
+        False,
+        WRITE_INSIDE,
+        help="Let --json/--html go inside a scanned folder (a new file or an earlier driftline output, never a "
+        "data file); scans leave driftline's own outputs out.",
+    ),
     engine: str = typer.Option(
         "local",
         "--engine",
@@ -222,8 +233,8 @@ def scan_command(
     example_values: str | None = EXAMPLE_VALUES,
     hash_key_file: str | None = HASH_KEY_FILE,
 ) -> None:
-    if html_out == "-" and json_out == "-":
-        raise typer.BadParameter("only one of --json and --html can write to stdout ('-')")
+    check_targets([("--json", json_out), ("--html", html_out)], scanned=paths, write_inside=write_inside,
+                  include_hidden=hidden)
     values = values_of(example_values, hash_key_file)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
@@ -272,11 +283,12 @@ def scan_command(
             err_console.print(f"warning: {note}", markup=False)
     if not quiet:
         # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
-        console = err_console if failed or "-" in (json_out, html_out) else Console(highlight=False)
+        to_stdout = any(t is not None and is_stdout(t) for t in (json_out, html_out))
+        console = err_console if failed or to_stdout else Console(highlight=False)
         render(profile, console)
-        if json_out not in (None, "-"):
+        if json_out is not None and not is_stdout(json_out):
             console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
-        if html_out not in (None, "-"):
+        if html_out is not None and not is_stdout(html_out):
             console.print(f"HTML report written to {safe_text(Path(html_out))}", markup=False)
     if failed:
         hint = ("see the problems above" if not quiet else "the problems are in the report" if json_out or html_out

@@ -12,9 +12,10 @@ from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.cli.scan_cmd import CSV_DIALECT_HELP
 from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
 from driftline.conceal import conceal
-from driftline.emit.atomic import write_output
+from driftline.emit.atomic import is_stdout, own_descriptor, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
+from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError, OutputError, PolicyError
 from driftline.gate.inputs import profile_of
 from driftline.ranges import RANGES
@@ -85,7 +86,7 @@ def _render(rec: Recommendation, fmt: str, table: str, json_mode: str) -> bytes:
 
 def _check_out(target: str | None, what: str) -> None:
     """Refuse an unwritable output before any scanning is done."""
-    if target in (None, "-"):
+    if target is None or target == "-" or own_descriptor(target) is not None:
         return
     folder = Path(target).resolve().parent
     if not folder.is_dir():
@@ -134,15 +135,18 @@ def schema_command(
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
     example_values: str | None = EXAMPLE_VALUES,
     hash_key_file: str | None = HASH_KEY_FILE,
+    write_inside: bool = typer.Option(False, WRITE_INSIDE,
+                                      help="Let --out/--rules go inside a scanned folder (a new file or an earlier "
+                                           "driftline output, never a data file)."),
 ) -> None:
     values = values_of(example_values, hash_key_file, config)
     if to is not None and to not in FORMATS:
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
         raise PolicyError(f"unknown --json-mode {json_mode!r}; choose permissive or strict")
-    if to is not None and out == "-" and rules == "-":
-        raise PolicyError("--out and --rules cannot both write to stdout ('-'); give one a file name")
-    if to == "arrow" and out == "-" and sys.stdout.isatty():
+    check_targets([("--out", out if to else None), ("--rules", rules)], scanned=paths, named=[config],
+                  write_inside=write_inside)
+    if to == "arrow" and is_stdout(out) and sys.stdout.isatty():
         raise OutputError("--to arrow writes a binary IPC message; give --out FILE (or use --to arrow-text)")
     _check_out(out if to else None, "--out")
     _check_out(rules, "--rules")
@@ -154,7 +158,7 @@ def schema_command(
         not f.rows and (f.errors or not f.observations) for f in profile.files):
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "
                              "(driftline scan shows the problems)")
-    to_stdout = (to is not None and out == "-") or rules == "-"
+    to_stdout = (to is not None and is_stdout(out)) or (rules is not None and is_stdout(rules))
     console = err_console if to_stdout else Console(highlight=False)
     try:
         rec = recommend(profile, options=opts)
@@ -173,5 +177,5 @@ def schema_command(
     if not quiet:
         summary.render(rec, console)
         for target, what in ((out if to else None, to), (rules, "cast rules")):
-            if target not in (None, "-"):
+            if target is not None and not is_stdout(target):
                 console.print(f"{what} written to {safe_text(target)}", markup=False)

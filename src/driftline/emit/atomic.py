@@ -1,14 +1,22 @@
-"""Atomic output: every file is written to a temporary sibling, flushed, then renamed.
+"""Outputs go where a person expects them.
 
-An interrupted run (SIGINT, SIGTERM, a full disk) leaves the earlier file intact and no
-half-written one; '-' means standard output.
+  * a regular file (or a new name) is written to a temporary sibling, flushed, then renamed
+    over it: an interrupted run (SIGINT, SIGTERM, a full disk) leaves the earlier file
+    intact and no half-written one;
+  * a symbolic link is followed: its target is replaced, the link stays;
+  * a character device (/dev/null) or a FIFO is written into, never replaced;
+  * '-', /dev/stdout, /dev/fd/N and /proc/self/fd/N are written into the open file
+    descriptor, as a shell redirection would;
+  * a folder, a block device or a socket is refused with a clear error.
 """
 
 from __future__ import annotations
 
 import errno
 import os
+import re
 import signal
+import stat
 import sys
 import tempfile
 from collections.abc import Iterator
@@ -44,28 +52,102 @@ def _mode_for(target: str) -> int:
         return 0o666 & ~umask
 
 
+_STD_NAMES = {"/dev/stdin": 0, "/dev/stdout": 1, "/dev/stderr": 2}
+_FD_PATH = re.compile(r"\A/(?:dev/fd|proc/self/fd|proc/(\d+)/fd)/(\d+)\Z")
+_MAX_LINKS = 40  # as the Linux kernel's limit on symlinks followed in one lookup
+
+
+def own_descriptor(target: str) -> int | None:
+    """The open file descriptor of this process that target names, through links; else None.
+
+    >>> own_descriptor("/dev/stdout"), own_descriptor("/dev/fd/2"), own_descriptor("report.json")
+    (1, 2, None)
+    """
+    path = os.path.abspath(target)
+    for _ in range(_MAX_LINKS):
+        if path in _STD_NAMES:
+            return _STD_NAMES[path]
+        m = _FD_PATH.match(path)
+        if m is not None and (m.group(1) is None or int(m.group(1)) == os.getpid()):
+            return int(m.group(2))
+        try:
+            link = os.readlink(path)
+        except OSError:
+            return None
+        path = os.path.normpath(os.path.join(os.path.dirname(path), link))
+    return None
+
+
+def is_stdout(target: str) -> bool:
+    """True for '-' and for names of standard output (/dev/stdout, /dev/fd/1, links to them)."""
+    return target == "-" or own_descriptor(target) == 1
+
+
+def _write_all(fd: int, payload: bytes) -> None:
+    view = memoryview(payload)
+    while view:
+        view = view[os.write(fd, view):]
+
+
+def _write_into(target: str, path: str, payload: bytes) -> None:
+    """Write into an existing device or FIFO: never created, never truncated, never replaced."""
+    try:
+        with _terminate_as_interrupt():
+            # Opening a FIFO waits for a reader, as a shell redirection does.
+            fd = os.open(path, os.O_WRONLY | os.O_NOCTTY | os.O_CLOEXEC)
+            try:
+                _write_all(fd, payload)
+            finally:
+                os.close(fd)
+    except OSError as exc:
+        raise OutputError(f"cannot write into {target!r}: {exc.strerror or exc}") from None
+
+
 def write_output(target: str, data: str | bytes) -> None:
-    """Write data to target atomically, or to stdout when target is '-'."""
+    """Write data to target where a person expects it (see the module); '-' is standard output."""
     payload = data.encode("utf-8") if isinstance(data, str) else data
-    if target == "-":
+    if not target:
+        raise OutputError("an output needs a file name, or '-' for standard output")
+    fd = 1 if target == "-" else own_descriptor(target)
+    if fd == 1:
         sys.stdout.buffer.write(payload)
         sys.stdout.buffer.flush()
         return
-    folder = os.path.dirname(os.path.abspath(target))
+    if fd is not None:
+        try:
+            _write_all(fd, payload)
+        except OSError as exc:
+            raise OutputError(f"cannot write into {target!r}: {exc.strerror or exc}") from None
+        return
+    final = os.path.realpath(target)  # through symlinks: the link stays, its target is replaced
+    try:
+        st: os.stat_result | None = os.stat(final)
+    except FileNotFoundError:
+        st = None
+    except OSError as exc:
+        raise OutputError(f"cannot write {target!r}: {exc.strerror or exc}") from None
+    if st is not None and stat.S_ISDIR(st.st_mode):
+        raise OutputError(f"cannot write {target!r}: it is a folder; give a file name")
+    if st is not None and (stat.S_ISCHR(st.st_mode) or stat.S_ISFIFO(st.st_mode)):
+        _write_into(target, final, payload)
+        return
+    if st is not None and not stat.S_ISREG(st.st_mode):
+        kind = "a block device" if stat.S_ISBLK(st.st_mode) else "a socket" if stat.S_ISSOCK(st.st_mode) else \
+            "not a regular file"
+        raise OutputError(f"cannot write {target!r}: it is {kind}; give a file name, a FIFO or a character device")
+    folder = os.path.dirname(final)
     if not os.path.isdir(folder):
         raise OutputError(f"cannot write {target!r}: folder {folder!r} does not exist")
-    if os.path.isdir(target):
-        raise OutputError(f"cannot write {target!r}: it is a folder; give a file name")
     tmp = None
     try:
         with _terminate_as_interrupt():
-            fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(target) + ".", suffix=".tmp", dir=folder)
-            os.fchmod(fd, _mode_for(target))
+            fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(final) + ".", suffix=".tmp", dir=folder)
+            os.fchmod(fd, _mode_for(final))
             with os.fdopen(fd, "wb") as fh:
                 fh.write(payload)
                 fh.flush()
                 os.fsync(fh.fileno())
-            os.replace(tmp, target)
+            os.replace(tmp, final)
             tmp = None
     except OSError as exc:
         reason = "the disk is full" if exc.errno == errno.ENOSPC else (exc.strerror or str(exc))

@@ -29,6 +29,7 @@ from driftline.emit import svg
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
+from driftline.marker import remark
 from driftline.profile import FieldSummary, Profile
 from driftline.report import limit_notes, partition_types
 
@@ -290,8 +291,9 @@ def render_html(profile: Profile, *, rules: Mapping[str, FieldRule] | bool = Tru
     """The whole report as one HTML document (a str).
 
     >>> page = render_html(Profile("r", ()))
-    >>> page.startswith("<!DOCTYPE html>"), "<script" in page.split("</head>")[0]
-    (True, False)
+    >>> head = page.split("</head>")[0]
+    >>> page.startswith("<!-- driftline-output: "), "\n<!DOCTYPE html>\n" in head, "<script" in head
+    (True, True, False)
     """
     # rules=True asks the recommender (when installed), False leaves the column out,
     # a mapping is shown as given.
@@ -316,6 +318,8 @@ def render_html(profile: Profile, *, rules: Mapping[str, FieldRule] | bool = Tru
         title=f"driftline report: {safe_text(profile.root, 80)}",
         root=profile.root,
         version=__version__,
+        # A comment may come before the doctype (HTML Living Standard 13.1, "Writing HTML documents").
+        marker=remark(f"an HTML report written by driftline {__version__}; driftline never reads it as data"),
         csp=f"default-src 'none'; style-src '{_sha256(css)}'; script-src '{_sha256(js)}'; img-src data:; "
             "base-uri 'none'; form-action 'none'",
         css=Markup(css),

@@ -31,6 +31,7 @@ from driftline.errors import ReportVersionError, UnreadableFileError
 from driftline.lattice import NULL, UNKNOWN, DType, join_all, parse_key, type_of_key
 from driftline.observe import paths
 from driftline.profile import Profile
+from driftline.validation import check_document, check_json_schema, damaged
 
 if TYPE_CHECKING:
     from driftline.recommend.plan import Recommendation
@@ -217,14 +218,15 @@ def _expand_arrow(path: str, t: DType, out: dict[str, Expected]) -> None:
 def baseline_from_json_schema(doc: Any, *, source: str = "schema") -> Baseline:
     """A Baseline from a parsed JSON Schema whose root describes one record (an object)."""
     if not isinstance(doc, Mapping):
-        raise UnreadableFileError(f"{source} is not a JSON Schema: the document is not an object")
+        raise UnreadableFileError(f'{source} is not a JSON Schema: the document (at "") is not an object')
     out: dict[str, Expected] = {}
     try:
         _walk_schema(doc, None, "", True, out)
     except _SchemaError as exc:
         raise UnreadableFileError(f"{source}: {exc}") from None
     if doc.get("properties") is None:
-        raise UnreadableFileError(f"{source}: the root schema has no 'properties'; a baseline describes record fields")
+        raise UnreadableFileError(f"{source} at /properties: the root schema has no 'properties'; a baseline "
+                                  "describes record fields")
     return Baseline("json-schema", source, out)
 
 
@@ -292,15 +294,21 @@ def baseline_from_rules(doc: Mapping[str, Any], *, source: str = "rules") -> Bas
         raise UnreadableFileError(f"{source}: 'fields' must be a list of field entries")
     out: dict[str, Expected] = {}
     for i, fd in enumerate(entries):
-        where = f"{source}: fields[{i}]"
+        where = f"{source} at /fields/{i}"
         try:
-            path, target, rule = fd["path"], parse_key(fd["target"]), fd["rule"]
+            path, rule = fd["path"], fd["rule"]
             nullable, required = bool(fd["nullable"]), bool(fd["required"])
             accept = (fd.get("params") or {}).get("accept")
         except KeyError as exc:
             raise UnreadableFileError(f"{where} lacks the key {exc}") from None
-        except (TypeError, ValueError) as exc:
+        except (TypeError, ValueError, AttributeError) as exc:
             raise UnreadableFileError(f"{where}: {exc}") from None
+        try:
+            target = parse_key(fd["target"])
+        except KeyError:
+            raise UnreadableFileError(f"{where} lacks the key 'target'") from None
+        except (TypeError, ValueError) as exc:
+            raise UnreadableFileError(f"{where}/target: {exc}") from None
         if not isinstance(path, str) or not isinstance(rule, str) or \
                 accept is not None and not (isinstance(accept, list) and all(isinstance(a, str) for a in accept)):
             raise UnreadableFileError(f"{where}: 'path' and 'rule' must be strings, 'params.accept' a list of classes")
@@ -326,12 +334,20 @@ def load_baseline(path: str | Path) -> Baseline:
         return baseline_from_profile(from_dict(doc, source=source), source=source)
     if isinstance(doc, Mapping) and doc.get("format") == RULES_FORMAT:
         if doc.get("version") != RULES_VERSION:
-            raise ReportVersionError(f"baseline {source} has rules version {doc.get('version')!r}; this "
-                                     f"driftline reads version {RULES_VERSION}; write the rules again with "
+            raise ReportVersionError(f"baseline {source} has rules version {doc.get('version')!r} (at /version); "
+                                     f"this driftline reads version {RULES_VERSION}; write the rules again with "
                                      "driftline schema --rules")
+        check_document(doc, "rules", "baseline", source)
         return baseline_from_rules(doc, source=source)
     if isinstance(doc, Mapping) and any(k in doc for k in ("$schema", "properties", "type")):
-        return baseline_from_json_schema(doc, source=source)
+        try:
+            base = baseline_from_json_schema(doc, source=source)
+        except (TypeError, ValueError, KeyError, AttributeError) as exc:
+            check_json_schema(doc, "baseline", source)  # the meta-schema names the place, when it can
+            raise damaged("baseline", source, "", "a JSON Schema driftline can read",
+                          f"{type(exc).__name__}: {exc}") from None
+        check_json_schema(doc, "baseline", source)
+        return base
     kind = doc.get("format") if isinstance(doc, Mapping) else None
     raise ReportVersionError(
         f"baseline {source} is neither a JSON Schema nor a driftline scan report"

@@ -22,6 +22,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from driftline.errors import InputPathError, PolicyError
+from driftline.validation import check_document, pointer
 
 Action = Literal["allow", "warn", "fail"]
 ACTIONS: tuple[str, ...] = ("allow", "warn", "fail")
@@ -142,11 +143,13 @@ def policy_from_mapping(data: Mapping[str, Any], *, source: str = "policy") -> P
         if key not in known:
             close = difflib.get_close_matches(str(key), known, n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
-            raise PolicyError(f"{source}: unknown policy key {key!r}{hint}; allowed keys: {', '.join(known)}")
+            raise PolicyError(f"{source} at {pointer([str(key)])}: unknown policy key {key!r}{hint}; "
+                              f"allowed keys: {', '.join(known)}")
     try:
         return Policy(**data)
     except PolicyError as exc:
-        raise PolicyError(f"{source}: {exc}") from None
+        bad = next((k for k in data if f"policy key {k!r} " in str(exc)), None)
+        raise PolicyError(f"{source}{f' at {pointer([bad])}' if bad else ''}: {exc}") from None
 
 
 def load_policy(path: str | Path) -> Policy:
@@ -171,7 +174,9 @@ def load_policy(path: str | Path) -> Policy:
     tables = [k for k, v in data.items() if isinstance(v, dict)]
     if tables:
         raise PolicyError(
-            f"policy file {str(path)!r}: unknown policy key {tables[0]!r} (a table); "
+            f"policy file {str(path)!r} at {pointer([tables[0]])}: unknown policy key {tables[0]!r} (a table); "
             f"policy keys are flat, one per line; allowed keys: {', '.join(keys())}"
         )
-    return policy_from_mapping(data, source=f"policy file {str(path)!r}")
+    policy = policy_from_mapping(data, source=f"policy file {str(path)!r}")
+    check_document(data, "policy", "policy file", repr(str(path)))  # docs/policy.schema.json
+    return policy

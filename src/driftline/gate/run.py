@@ -38,6 +38,7 @@ class ScanSettings:
     include_hidden: bool = False
     jobs: int = 1
     max_errors: int | None = None
+    write_inside: bool = False  # the state file may lie inside a scanned folder (emit/targets.py)
 
 
 def run_check(
@@ -69,7 +70,7 @@ def run_check(
         run = scan_incremental(
             items, Path(state), read=settings.read, include=settings.include, exclude=settings.exclude,
             include_hidden=settings.include_hidden, jobs=settings.jobs, max_errors=settings.max_errors,
-            verify=verify, rebuild=rebuild, progress=progress,
+            verify=verify, rebuild=rebuild, progress=progress, write_inside=settings.write_inside,
         )
         profile, note = run.profile, run.note
         counts = {"files_read": run.read, "files_reused": run.reused, "files_dropped": run.dropped}

@@ -13,7 +13,9 @@ The file is JSON, written atomically (a temporary sibling, then a rename):
      "read": {<read options>}, "digest": "blake2b-128" | null,
      "files": [<a report file entry with its batches>, "digest": "<hex>" | null ...]}
 
-A damaged or foreign state file is an error that says so; rebuild=True starts over.
+A damaged state file of ours (cut short, garbled, or not matching docs/state.schema.json)
+is set aside as <name>.damaged and every file is read again, with a warning that says why;
+a foreign file or another version is an error that says so; rebuild=True starts over.
 """
 
 from __future__ import annotations
@@ -22,6 +24,7 @@ import contextlib
 import dataclasses
 import hashlib
 import os
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -30,14 +33,17 @@ from typing import Any
 import orjson
 
 from driftline import __version__
+from driftline.documents import pointer_at
 from driftline.emit.atomic import write_output
-from driftline.errors import InputPathError, ReportVersionError
+from driftline.emit.targets import check_targets
+from driftline.errors import DamagedFileError, InputPathError, ReportVersionError
 from driftline.observe import jsonnum
 from driftline.profile import Profile
-from driftline.report import file_from_json, file_json
+from driftline.report import file_from_json, file_json, files_from_json
 from driftline.scan import Progress, scan_paths
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef
+from driftline.validation import check_document, damaged
 
 STATE_FORMAT = "driftline-state"
 STATE_VERSION = 1
@@ -78,24 +84,37 @@ def _read_options_json(opts: ReadOptions) -> dict[str, Any]:
     return orjson.loads(orjson.dumps(dataclasses.asdict(opts)))  # type: ignore[no-any-return]
 
 
-def _damaged(path: str | Path, why: str) -> ReportVersionError:
-    return ReportVersionError(
-        f"state file {str(path)!r} is damaged ({why}); run with --rebuild to start over from a full scan"
-    )
+_STATE_HEAD = re.compile(rb'\A\s*\{\s*"format"\s*:\s*"driftline-state"')
+_STATE_START = b'{"format":"driftline-state"'
+
+
+def _ours(raw: bytes) -> bool:
+    """A state file of ours, perhaps cut short: it begins as one, or is a beginning of one (even empty)."""
+    return _STATE_HEAD.match(raw) is not None or _STATE_START.startswith(re.sub(rb"\s+", b"", raw[:64]))
 
 
 def load_state(path: str | Path) -> State | None:
-    """Read a state file; None when there is none yet. Raises for a damaged or foreign file."""
+    """Read a state file; None when there is none yet.
+
+    A state file of ours that is damaged (cut short, not JSON, or not matching
+    docs/state.schema.json) raises DamagedFileError with the JSON pointer of the problem;
+    a file of another kind or version raises ReportVersionError.
+    """
+    source = repr(str(path))
     try:
         raw = Path(path).read_bytes()
     except FileNotFoundError:
         return None
     except OSError as exc:
-        raise InputPathError(f"cannot read state file {str(path)!r}: {exc.strerror}") from None
+        raise InputPathError(f"cannot read state file {source}: {exc.strerror}") from None
     try:
         data = jsonnum.loads(raw)
     except orjson.JSONDecodeError as exc:
-        raise _damaged(path, f"not JSON: {exc.msg} at line {exc.lineno}, column {exc.colno}") from None
+        if not _ours(raw):
+            raise ReportVersionError(f"{source} is not a driftline state file (it is not JSON); give --state "
+                                     "another file name, or --rebuild to replace it with a new state") from None
+        raise damaged("state file", source, pointer_at(raw, exc.pos), "JSON",
+                      f"{exc.msg} at line {exc.lineno}, column {exc.colno} (cut short or garbled)") from None
     if not isinstance(data, dict) or data.get("format") != STATE_FORMAT:
         what = data.get("format") if isinstance(data, dict) else None
         raise ReportVersionError(
@@ -108,21 +127,17 @@ def load_state(path: str | Path) -> State | None:
             f"state file {str(path)!r} has format version {data.get('version')!r}; this driftline "
             f"reads version {STATE_VERSION}; run with --rebuild to start over"
         )
-    try:
-        files = {}
-        for fd in data["files"]:
-            res = dataclasses.replace(file_from_json(fd), digest=fd.get("digest"))
-            if res.rel in files:
-                raise ValueError(f"{res.rel!r} is listed twice")
-            files[res.rel] = res
-        root, read = data["root"], data["read"]
-        if not isinstance(root, str) or not isinstance(read, dict):
-            raise TypeError("root or read options of the wrong type")
-    except KeyError as exc:
-        raise _damaged(path, f"an entry lacks the key {exc}") from None
-    except (TypeError, ValueError, AttributeError) as exc:
-        raise _damaged(path, f"{type(exc).__name__}: {exc}") from None
-    return State(root, read, files)
+    check_document(data, "state", "state file", source)
+    results = files_from_json(data["files"], "state file", source,
+                              lambda fd: dataclasses.replace(file_from_json(fd), digest=fd["digest"]))
+    return State(data["root"], data["read"], {f.rel: f for f in results})
+
+
+def set_aside(path: str) -> str:
+    """Move a damaged state file out of the way (kept for a look, never read again); its new name."""
+    aside = path + ".damaged"
+    os.replace(path, aside)
+    return aside
 
 
 def state_bytes(profile: Profile, opts: ReadOptions, *, verify: bool) -> bytes:
@@ -144,18 +159,6 @@ def state_bytes(profile: Profile, opts: ReadOptions, *, verify: bool) -> bytes:
     return jsonnum.dumps(doc, option=orjson.OPT_NON_STR_KEYS) + b"\n"
 
 
-def _inside_scan(state_path: str, paths: Sequence[str | os.PathLike[str]]) -> bool:
-    target = os.path.abspath(state_path)
-    name = os.path.basename(target)
-    if name.startswith((".", "_")):
-        return False  # discovery skips hidden files and markers
-    for p in paths:
-        top = os.path.abspath(os.fspath(p))
-        if os.path.isdir(top) and os.path.commonpath([top, target]) == top:
-            return True
-    return False
-
-
 def scan_incremental(
     paths: Sequence[str | os.PathLike[str]],
     state_path: str | Path,
@@ -169,6 +172,7 @@ def scan_incremental(
     verify: bool = False,
     rebuild: bool = False,
     progress: Progress | None = None,
+    write_inside: bool = False,
 ) -> StateRun:
     """Scan paths reading only files the state does not hold unchanged; then save the state.
 
@@ -183,13 +187,19 @@ def scan_incremental(
     state_path = os.fspath(state_path)
     if state_path == "-" or os.path.isdir(state_path):
         raise InputPathError(f"--state needs a file name, not {state_path!r}")
-    if _inside_scan(state_path, paths) and not include_hidden:
-        raise InputPathError(
-            f"the state file {state_path!r} lies inside a scanned folder and would be read as data; "
-            "put it elsewhere or give it a name starting with '.'"
-        )
-    state = None if rebuild else load_state(state_path)
+    # Not over an input, and not inside a scanned folder unless asked (or named as discovery skips).
+    check_targets([("--state", state_path)], scanned=paths, write_inside=write_inside, include_hidden=include_hidden)
     note = None
+    try:
+        state = None if rebuild else load_state(state_path)
+    except DamagedFileError as exc:
+        # A damaged state costs a full rescan, never a wrong result and never a stop.
+        try:
+            aside = set_aside(state_path)
+        except OSError as err:
+            raise InputPathError(f"{exc}; it cannot be set aside ({err.strerror}); remove it, or --rebuild") from None
+        note = f"warning: {exc}; it was set aside as {aside!r} and every file is read again"
+        state = None
     if state is not None and dict(state.read) != _read_options_json(opts):
         note = "the read options changed since the state was written; every file is read again"
         state = None

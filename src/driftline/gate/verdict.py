@@ -16,8 +16,10 @@ from typing import Any
 from rich.console import Console
 from rich.text import Text
 
+from driftline import __version__
 from driftline.emit.safe import safe_text
 from driftline.gate.policy import RULES
+from driftline.marker import remark
 
 VERDICT_FORMAT = "driftline-verdict"
 VERDICT_VERSION = 1
@@ -182,7 +184,10 @@ def junit_xml(verdict: Verdict, *, suite: str = "driftline check") -> bytes:
             out = ET.SubElement(case, "system-out")
             out.text = _xml_text("\n".join("warning: " + _line(v) for v in warns))
     ET.indent(root)
-    return ET.tostring(root, encoding="utf-8", xml_declaration=True) + b"\n"
+    body = ET.tostring(root, encoding="utf-8", xml_declaration=False)
+    # The declaration must come first (XML 1.0 section 2.8); the marker comment follows it.
+    mark = remark(f"a check verdict written by driftline {__version__}; driftline never reads it as data")
+    return b"<?xml version='1.0' encoding='utf-8'?>\n<!-- " + mark.encode() + b" -->\n" + body + b"\n"
 
 
 # -- terminal ----------------------------------------------------------------------------

@@ -13,6 +13,7 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 
 from driftline.errors import InputPathError
+from driftline.marker import OWN_OUTPUT, carries_marker
 from driftline.sources.formats import detect_compression, detect_format, skip_reason
 
 
@@ -36,6 +37,7 @@ class Skipped:
     rel: str
     reason: str  # 'hidden' | 'marker' | 'excluded' | 'not-included' | 'special' | 'symlink-loop' | 'unknown-format'
     #              | 'other-extension' | 'name-collision' | 'link-outside-root'
+    #              | 'own-output' (a report, schema or state driftline wrote)
 
 
 @dataclass(frozen=True, slots=True)
@@ -198,6 +200,9 @@ def discover(
             verdict = _filter(rel, st, include, exclude, include_hidden)
             if verdict is not None:
                 skipped.append(Skipped(rel, verdict))
+                continue
+            if carries_marker(path):  # driftline's own output is never data
+                skipped.append(Skipped(rel, OWN_OUTPUT))
                 continue
             sniff = sniff_unknown or path in named
             fmt = detect_format(path, sniff_unknown=sniff)

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import pyarrow as pa
 
+from driftline.marker import remark
 from driftline.recommend.arrow import target_schema
 from driftline.recommend.plan import Recommendation
 
@@ -32,5 +33,5 @@ def read_ipc(data: bytes) -> pa.Schema:
 def schema_text(rec: Recommendation) -> str:
     """The schema as pyarrow prints it, each top-level field with its rule."""
     schema = target_schema(rec)
-    head = f"# Arrow schema recommended by driftline for {rec.root} ({rec.rows:,} rows)\n"
+    head = f"# {remark(f'Arrow schema recommended by driftline for {rec.root} ({rec.rows:,} rows)')}\n"
     return head + schema.to_string(show_field_metadata=True, show_schema_metadata=False) + "\n"

@@ -26,6 +26,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from driftline.lattice import DType
+from driftline.marker import remark
 from driftline.recommend.plan import FieldPlan, Recommendation
 
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
@@ -158,10 +159,11 @@ def avro_schema(rec: Recommendation, *, name: str = "record", namespace: str | N
 def _schema(rec: Recommendation, name: str, namespace: str | None) -> tuple[dict[str, Any], _Names]:
     names = _Names()
     top = names.record(name)
-    out: dict[str, Any] = {"type": "record", "name": top}
+    # "doc" first, so that a scan knows its own output from the first bytes (driftline.marker).
+    out: dict[str, Any] = {"doc": remark(f"records of {rec.root}, as recommended by driftline"),
+                           "type": "record", "name": top}
     if namespace:
         out["namespace"] = namespace
-    out["doc"] = f"records of {rec.root}, as recommended by driftline"
     out["fields"] = _fields(rec.fields, names, top)
     return out, names
 

@@ -26,6 +26,7 @@ from typing import Any, Literal
 import orjson
 
 from driftline.lattice import DType, parse_key
+from driftline.marker import remark
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE
 from driftline.recommend.plan import FieldPlan, Recommendation
@@ -174,12 +175,13 @@ def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | 
     fields = [p for p in rec.fields if p is not bare]
     required = [p.name for p in fields if p.required]
     out: dict[str, Any] = {
+        # First, so that a scan knows its own output from the first bytes (driftline.marker).
+        "$comment": remark(f"driftline schema, {mode} mode: "
+                           + ("every record as it arrives validates" if mode == "permissive"
+                              else "records after the cast rules validate")
+                           + f"; {rec.rows:,} rows in {rec.files:,} files"),
         "$schema": META_SCHEMA,
         "title": title or f"records of {rec.root}",
-        "$comment": (f"driftline schema, {mode} mode: "
-                     + ("every record as it arrives validates" if mode == "permissive"
-                        else "records after the cast rules validate")
-                     + f"; {rec.rows:,} rows in {rec.files:,} files"),
         "type": "object",
         "properties": {p.name: node(p, mode) for p in fields},
     }

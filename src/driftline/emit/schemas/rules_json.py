@@ -16,6 +16,7 @@ from driftline.documents import read_json_document
 from driftline.errors import ReportVersionError
 from driftline.observe import paths
 from driftline.recommend.plan import FieldPlan, Recommendation
+from driftline.validation import check_document
 
 RULES_FORMAT = "driftline-rules"
 RULES_VERSION = 1
@@ -78,6 +79,7 @@ def load_rules(path: str | Path) -> dict[str, Any]:
     if not isinstance(doc, dict) or doc.get("format") != RULES_FORMAT:
         raise ReportVersionError(f"{source} is not a driftline rules file (no \"format\": \"{RULES_FORMAT}\")")
     if doc.get("version") != RULES_VERSION:
-        raise ReportVersionError(f"{source} has rules version {doc.get('version')!r}; this driftline reads "
-                                 f"version {RULES_VERSION}. Write the rules again with driftline schema --rules")
+        raise ReportVersionError(f"{source} has rules version {doc.get('version')!r} (at /version); this driftline "
+                                 f"reads version {RULES_VERSION}. Write the rules again with driftline schema --rules")
+    check_document(doc, "rules", "rules file", source)
     return doc

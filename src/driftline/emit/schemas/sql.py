@@ -28,6 +28,7 @@ import orjson
 import pyarrow as pa
 
 from driftline.lattice import DType
+from driftline.marker import remark
 from driftline.observe.textclass import INT64_MAX, INT64_MIN, NULL_TOKENS
 from driftline.recommend.options import zone_is_fixed
 from driftline.recommend.plan import FieldPlan, Recommendation
@@ -263,7 +264,7 @@ def insert_select(rec: Recommendation, table: str) -> str:
 
 def script(rec: Recommendation, table: str) -> str:
     """The whole SQL file: target table, staging table, and the cast rules."""
-    head = (f"-- driftline schema: {rec.root} ({rec.rows:,} rows in {rec.files:,} files)\n"
+    head = (f"-- {remark(f'driftline schema: {rec.root} ({rec.rows:,} rows in {rec.files:,} files)')}\n"
             "-- Portable SQL. Load the raw values as text into the staging table\n"
             "-- (blank CSV cells as NULL; lists and JSON-text columns as JSON text), then run the INSERT.\n")
     if not columns(rec):
