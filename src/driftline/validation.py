@@ -149,8 +149,8 @@ class _Compiler:
             return lambda v: ([], "nothing here", found(v))
         unknown = set(s) - _ANNOTATIONS - {
             "type", "const", "enum", "required", "properties", "additionalProperties", "unevaluatedProperties",
-            "propertyNames", "items", "maxItems", "minItems", "minimum", "maximum", "minLength", "pattern",
-            "$ref", "allOf",
+            "propertyNames", "items", "maxItems", "minItems", "minimum", "maximum", "minLength", "maxLength",
+            "pattern", "$ref", "allOf",
         }
         if unknown:
             raise ValueError(f"the schema keyword(s) {sorted(unknown)} are not compiled; add them to validation.py")
@@ -181,8 +181,8 @@ class _Compiler:
                 return None
 
             checks.append(number_check)
-        if "minLength" in s or "pattern" in s:
-            least = s.get("minLength", 0)
+        if "minLength" in s or "maxLength" in s or "pattern" in s:
+            least, most = s.get("minLength", 0), s.get("maxLength")
             regex = re.compile(s["pattern"]) if "pattern" in s else None
 
             def string_check(v: Any) -> Problem | None:
@@ -190,6 +190,8 @@ class _Compiler:
                     return None
                 if len(v) < least:
                     return [], f"a string of at least {least} characters", found(v)
+                if most is not None and len(v) > most:
+                    return [], f"a string of at most {most} characters", found(v)
                 if regex is not None and regex.search(v) is None:
                     return [], f"a string matching {regex.pattern}", found(v)
                 return None
