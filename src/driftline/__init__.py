@@ -75,6 +75,9 @@ def scan(
     endpoint_url: str | None = None,
     region: str | None = None,
     anonymous: bool = False,
+    connect_timeout: float | None = None,
+    request_timeout: float | None = None,
+    task_timeout: float | None = None,
     progress: _Callable[[int, int, str], None] | None = None,
 ) -> Profile:
     """Scan files, folders, globs or s3:// URLs (one, or a list of them) into a Profile.
@@ -87,7 +90,10 @@ def scan(
     fixes the CSV delimiter (sniffed otherwise); where keeps only key=value partitions
     that pass ('day>=2026-11-01'); engine 'dask' reads on a cluster (scheduler address,
     or local workers); endpoint_url, region and anonymous reach an S3-compatible store
-    (credentials come from the environment, never from here); progress(done, total,
+    (credentials come from the environment, never from here); connect_timeout (seconds,
+    default 10) bounds reaching a dask scheduler or the object store, request_timeout
+    (default 20) an object store request that receives nothing, task_timeout (default
+    3600) each worker task; a timeout is an error naming the address; progress(done, total,
     current_file) is called as files finish. The result depends on none of jobs and
     engine. Raises InputPathError when a path does not exist or holds no data file.
 
@@ -112,10 +118,13 @@ def scan(
         if value is not None
     }
     read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, **limits)
-    storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
+    timeouts = {name: float(value) for name, value in (("connect_timeout", connect_timeout),
+                                                       ("request_timeout", request_timeout)) if value is not None}
+    storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous, **timeouts)
+    more = {} if task_timeout is None else {"task_timeout": float(task_timeout)}
     return _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                        jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
-                       where=where, storage=storage)
+                       where=where, storage=storage, connect_timeout=connect_timeout, **more)
 
 
 def check(

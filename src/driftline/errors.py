@@ -6,6 +6,8 @@
     ├── PolicyError                a policy or option file with an unknown key or bad value
     ├── ReportVersionError         a saved report / state / rules file of another format
     ├── OutputError                an output path that cannot be written
+    ├── WorkerError                (driftline.workers) a worker process died twice on the
+                                   same files, or a task ran past its timeout
     └── EngineError                (driftline.engines) the distributed engine is missing,
                                    cannot be reached, or lost the scan
 
@@ -76,3 +78,4 @@ class OutputError(DriftlineError):
     >>> isinstance(OutputError("out/r.json: folder 'out' does not exist"), DriftlineError)
     True
     """
+

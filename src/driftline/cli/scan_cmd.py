@@ -26,6 +26,8 @@ from driftline.sources.base import (
     DEFAULT_MAX_DECOMPRESSION_RATIO,
     DEFAULT_MAX_RECORD_BYTES,
 )
+from driftline.sources.remote import DEFAULT_CONNECT_TIMEOUT, DEFAULT_REQUEST_TIMEOUT
+from driftline.workers import DEFAULT_TASK_TIMEOUT
 
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
@@ -107,7 +109,9 @@ def scan_command(
         help="Rows per batch: drift is tracked batch by batch and memory is bounded by it.",
     ),
     jobs: int = typer.Option(
-        default_jobs(), "--jobs", "-j", min=1, help="Files read in parallel (processes). Results do not depend on it."
+        default_jobs(), "--jobs", "-j", min=1,
+        help="Files read in parallel (processes), at most one per core and per 256 MB of free memory (a warning "
+        "says when lowered). Results do not depend on it.",
     ),
     max_errors: int | None = typer.Option(
         None, "--max-errors", min=1, help="Stop reading new files once this many errors were found."
@@ -161,6 +165,18 @@ def scan_command(
     ),
     region: str | None = typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
+    connect_timeout: float = typer.Option(
+        DEFAULT_CONNECT_TIMEOUT, "--connect-timeout", metavar="SECONDS", min=0.001, max=86_400,
+        help="Give up connecting to a dask scheduler or an object store after this long (per attempt).",
+    ),
+    request_timeout: float = typer.Option(
+        DEFAULT_REQUEST_TIMEOUT, "--request-timeout", metavar="SECONDS", min=0.001, max=86_400,
+        help="Give up an object store request that received nothing for this long (per attempt, 4 attempts).",
+    ),
+    task_timeout: float = typer.Option(
+        DEFAULT_TASK_TIMEOUT, "--task-timeout", metavar="SECONDS", min=0.001, max=10_000_000,
+        help="Stop the scan when a worker task (a file, or a run of small files) runs longer than this.",
+    ),
 ) -> None:
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
@@ -184,6 +200,9 @@ def scan_command(
             endpoint_url=endpoint_url,
             region=region,
             anonymous=anonymous,
+            connect_timeout=connect_timeout,
+            request_timeout=request_timeout,
+            task_timeout=task_timeout,
             progress=bar,
         )
     finally:
