@@ -34,6 +34,9 @@ class EngineError(DriftlineError):
 
 def _read_run(refs: Sequence[FileRef], opts: ReadOptions, root: str) -> Profile:
     """Runs on a worker: a contiguous run of files as one Profile (a tree leaf)."""
+    from driftline.workers import inject_test_fault
+
+    inject_test_fault([ref.rel for ref in refs])
     return Profile(root, tuple(read_file(ref, opts) for ref in refs))
 
 
@@ -243,7 +246,7 @@ def _reduce(distributed: Any, client: Any, files: Sequence[FileRef], opts: ReadO
         if len(level) % 2:
             nxt.append(level[-1])
         level = nxt
-    first = {leaf.key: files[run[0]].rel for leaf, run in zip(leaves, runs, strict=True) if len(run)}
+    spans = {leaf.key: (files[run[0]].rel, files[run[-1]].rel) for leaf, run in zip(leaves, runs, strict=True)}
     remaining = set(leaves) | set(level)
     done_files = 0
     while remaining:
@@ -251,10 +254,12 @@ def _reduce(distributed: Any, client: Any, files: Sequence[FileRef], opts: ReadO
             with client.as_current():  # wait() uses the current client; this one is never the default
                 done, remaining = distributed.wait(list(remaining), timeout=task_timeout,
                                                    return_when="FIRST_COMPLETED")
-        except TimeoutError:
-            waiting = sorted(first[f.key] for f in remaining if f.key in first)
-            what = f"reading {waiting[0]} and the files after it" if waiting else "merging the results"
-            client.cancel(list(remaining))
+        except TimeoutError:  # the futures are released with the client (cancelling them upsets the scheduler)
+            waiting = sorted(spans[f.key] for f in remaining if f.key in spans)
+            what = "merging the results"
+            if waiting:
+                lo, hi = waiting[0]
+                what = f"reading {lo}" if lo == hi else f"reading the files from {lo} to {hi} (one task)"
             raise EngineError(
                 f"no dask task finished within {task_timeout:g} s (--task-timeout) while {what}; check the "
                 f"workers of {where} (alive, not out of memory, able to reach the files), or raise --task-timeout"

@@ -14,6 +14,7 @@ import logging
 import multiprocessing
 import os
 import signal
+import time
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
@@ -25,9 +26,10 @@ log = logging.getLogger("driftline")
 
 WORKER_BYTES = 256 * 2**20  # one worker (about 70 MB measured at rest) and the working set of a batch
 DEFAULT_TASK_TIMEOUT = 3600.0  # seconds: --task-timeout
-# Tests only: a pool worker about to read the file named here kills itself with SIGKILL, as the
-# out-of-memory killer would ("name|flag-file": only while flag-file does not exist yet).
-TEST_KILL_ENV = "DRIFTLINE_TEST_KILL_WORKER"
+# Tests only: a worker about to read the file named here fails on purpose. "kill:NAME" kills
+# itself with SIGKILL as the out-of-memory killer would ("kill:NAME|FLAG": only while the file
+# FLAG does not exist yet, so once); "hang:NAME" sleeps, as on a hung mount.
+TEST_FAULT_ENV = "DRIFTLINE_TEST_WORKER_FAULT"
 
 Names = Callable[[Any], list[str]]  # the relative paths a task reads, for messages
 
@@ -150,26 +152,32 @@ def run_ordered(fn: Callable[[Any, Any], Any], items: Sequence[Any], opts: Any, 
 
 
 def _run_chunk(fn: Callable[[Any, Any], Any], names: Names, items: list[Any], opts: Any) -> list[Any]:
-    kill = os.environ.get(TEST_KILL_ENV)
     out = []
     for item in items:
-        if kill:
-            _test_kill(kill, names(item))
+        inject_test_fault(names(item))
         out.append(fn(item, opts))
     return out
 
 
-def _test_kill(spec: str, rels: list[str]) -> None:
-    """Tests only (TEST_KILL_ENV): die like a process the out-of-memory killer chose."""
-    name, _, flag = spec.partition("|")
+def inject_test_fault(rels: list[str]) -> None:
+    """Tests only (TEST_FAULT_ENV, unset in real use): fail like a killed or hung worker."""
+    spec = os.environ.get(TEST_FAULT_ENV)
+    if not spec:
+        return
+    how, _, target = spec.partition(":")
+    name, _, flag = target.partition("|")
     if name not in rels:
         return
     if flag:
         try:
             os.close(os.open(flag, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600))
         except FileExistsError:
-            return  # died once already
-    os.kill(os.getpid(), signal.SIGKILL)
+            return  # failed once already
+    if how == "kill":
+        os.kill(os.getpid(), signal.SIGKILL)
+    elif how == "hang":
+        while True:
+            time.sleep(60)
 
 
 def _alone_child(conn: Any, fn: Callable[[Any, Any], Any], names: Names, item: Any, opts: Any) -> None:
@@ -225,7 +233,7 @@ def _files(rels: list[str]) -> str:
 
 def _death_message(rels: list[str], exitcode: int | None) -> str:
     """
-    >>> _death_message(["day=1/a.jsonl"], -9)[:97]
+    >>> _death_message(["day=1/a.jsonl"], -9)[:98]
     'the worker process reading day=1/a.jsonl died twice, the second time alone (killed by SIGKILL: the'
     """
     if exitcode is not None and exitcode < 0:
