@@ -335,6 +335,35 @@ def test_object_replaced_mid_read_is_changed(s3: Server) -> None:
     assert set(profile.fields["v"].stats.types) == {"int64", "string"}  # the mix the problem warns of
 
 
+@pytest.mark.timeout(180)
+def test_cli_object_replaced_mid_read(s3: Server) -> None:
+    import hashlib
+    import json
+
+    from _measured import PEAK_LIMIT, run_cli
+
+    client, old, new = _swap_setup(s3, "swap3/a.jsonl")
+    swapped: list[str] = []
+
+    def replace_after_first_get(request: dict[str, Any]) -> None:
+        if request["method"] == "GET" and request["path"].endswith("swap3/a.jsonl") and not swapped:
+            swapped.append(client.put_object(Bucket=BUCKET, Key="swap3/a.jsonl", Body=new)["ETag"])
+
+    s3.after = replace_after_first_get
+    try:
+        run = run_cli("scan", f"s3://{BUCKET}/swap3/", "--endpoint-url", s3.url, "--json", "-", "-q")
+    finally:
+        s3.after = None
+    assert run.returncode == 0, run.stderr  # a file problem, as for a local file rewritten mid-scan
+    (file,) = json.loads(run.stdout)["files"]
+    assert file["complete"] is False
+    assert [(i["kind"], i["message"]) for i in file["issues"]] == [
+        ("changed", f'the object was replaced during the read (ETag "{hashlib.md5(old).hexdigest()}" when opened, '
+                    f"{swapped[0]} after); its rows may mix two versions; rescan it")]
+    assert client.get_object(Bucket=BUCKET, Key="swap3/a.jsonl")["Body"].read() == new  # only the test wrote
+    assert run.peak < PEAK_LIMIT
+
+
 @pytest.mark.timeout(120)
 def test_object_replaced_after_listing_is_changed(s3: Server) -> None:
     client, old, _ = _swap_setup(s3, "swap2/a.jsonl")
