@@ -265,3 +265,12 @@ def test_a_hung_dask_task_times_out(many_files: Path) -> None:
     assert "Traceback" not in run.stderr
     assert snapshot(many_files) == before
     assert run.peak < PEAK_LIMIT
+
+
+@pytest.mark.timeout(120)
+def test_a_worker_address_is_not_a_scheduler(cluster: Any, demo_dir: Path) -> None:
+    # source: distributed's identity() answers: {"type": "Scheduler" | "Worker" | "Nanny", ...}
+    worker = next(iter(cluster.scheduler_info["workers"]))
+    run = _scheduler_run(demo_dir, worker, "--connect-timeout", "5")
+    assert run.stderr == (f"EngineError: {worker} is a dask Worker, not a scheduler; give the scheduler's address "
+                          "(the one `dask scheduler` prints, port 8786 by default)\n")

@@ -456,3 +456,28 @@ def test_timeouts_out_of_range_are_usage_errors(value: str) -> None:
         run = run_cli("scan", "s3://lake/landing/", option, value, "--endpoint-url", "http://127.0.0.1:9")
         assert run.returncode == 2
         assert option in run.stderr and "Traceback" not in run.stderr
+
+
+@pytest.mark.timeout(120)
+def test_an_object_that_stalls_is_a_file_problem_naming_the_endpoint(s3: Server) -> None:
+    import time
+
+    client = boto3.client("s3", endpoint_url=s3.url, region_name="us-east-1")
+    client.put_object(Bucket=BUCKET, Key="stall/a.jsonl", Body=b'{"v": 1}\n' * 10)
+    client.put_object(Bucket=BUCKET, Key="stall/b.jsonl", Body=b'{"v": 2}\n' * 10)
+
+    def stall_a(request: dict[str, Any]) -> None:
+        if request["method"] == "GET" and request["path"].endswith("stall/a.jsonl"):
+            time.sleep(3)  # longer than --request-timeout: the client gives up, every attempt
+
+    s3.after = stall_a
+    try:
+        profile = scan_paths([f"s3://{BUCKET}/stall/"], storage=StorageOptions(endpoint_url=s3.url, request_timeout=1,
+                                                                              retries=2))
+    finally:
+        s3.after = None
+    assert [(i.file, i.kind, i.message) for i in profile.issues] == [
+        ("a.jsonl", "unreadable", f"read failed: no answer from {s3.url} within 1 s (2 attempts); check that the "
+                                  "endpoint is an S3 server and reachable (--endpoint-url, network, proxy), or raise "
+                                  "--request-timeout")]
+    assert profile.file("b.jsonl").rows == 10 and profile.file("a.jsonl").rows == 0

@@ -119,23 +119,33 @@ def _probe(distributed: Any, address: str, timeout: float) -> None:
     if scheme != "tcp":
         return  # TLS and websocket handshakes need the cluster's security settings: the Client does them
     try:
-        _run_async(lambda: _handshake(distributed, f"tcp://{host}:{port}" if ":" not in host
-                                      else f"tcp://[{host}]:{port}", timeout), timeout + 1)
+        peer = _run_async(lambda: _handshake(distributed, f"tcp://{host}:{port}" if ":" not in host
+                                             else f"tcp://[{host}]:{port}", timeout), 2 * timeout + 1)
     except TimeoutError:
         raise EngineError(
             f"{address} accepted the connection but did not answer as a dask scheduler within {timeout:g} s "
             "(--connect-timeout); check that the port is the scheduler's (8786 by default), not its dashboard "
             "or another service"
         ) from None
-    except OSError as exc:
-        raise EngineError(f"{address} does not speak the dask protocol ({exc}); {check}") from None
+    except Exception as exc:  # a peer that answers, but not as distributed expects
+        raise EngineError(f"{address} does not speak the dask protocol ({type(exc).__name__}: {exc}); "
+                          f"{check}") from None
+    if peer != "Scheduler":
+        raise EngineError(f"{address} is a dask {peer or 'peer'}, not a scheduler; give the scheduler's address "
+                          "(the one `dask scheduler` prints, port 8786 by default)")
 
 
-async def _handshake(distributed: Any, address: str, timeout: float) -> None:
+async def _handshake(distributed: Any, address: str, timeout: float) -> str | None:
+    """distributed's handshake, then the peer's identity: 'Scheduler', 'Worker', 'Nanny' (or None)."""
     import asyncio
 
     comm = await asyncio.wait_for(distributed.comm.connect(address, timeout=timeout), timeout)
-    await comm.close()
+    try:
+        await comm.write({"op": "identity", "reply": True})
+        answer = await asyncio.wait_for(comm.read(), timeout)
+    finally:
+        await comm.close()
+    return answer.get("type") if isinstance(answer, dict) else None
 
 
 def _run_async(make: Callable[[], Any], timeout: float) -> Any:
@@ -157,9 +167,9 @@ def _connect(distributed: Any, scheduler: str | None, workers: int,
         _probe(distributed, scheduler, timeout)
         try:
             return distributed.Client(scheduler, timeout=timeout, set_as_default=False), None
-        except (OSError, TimeoutError, ValueError) as exc:
-            raise EngineError(f"cannot reach the dask scheduler at {scheduler!r}: {exc}; check the address and "
-                              "that `dask scheduler` runs there") from exc
+        except Exception as exc:  # whatever distributed raises (versions that disagree, a lost connection)
+            raise EngineError(f"cannot reach the dask scheduler at {scheduler!r}: {type(exc).__name__}: {exc}; "
+                              "check the address and that `dask scheduler` runs there") from exc
     # Loopback only: a scan started on a laptop never listens on the network.
     cluster = distributed.LocalCluster(
         n_workers=max(1, workers), threads_per_worker=1, processes=True,

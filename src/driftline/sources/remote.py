@@ -394,6 +394,11 @@ def _odd(folder: str, path: str) -> str | None:
 
 def explain(exc: BaseException, storage: StorageOptions) -> str:
     """An object store error in a sentence that says what to check, never the SDK's dump."""
+    return _network(exc, storage) or _short(exc)
+
+
+def _network(exc: BaseException, storage: StorageOptions) -> str | None:
+    """The sentence for a timeout or a failed connection (curl's codes 28, and 6 and 7), else None."""
     text = str(exc)
     where = storage.shown()
     if "curlCode: 28" in text or "Timeout was reached" in text:
@@ -403,7 +408,27 @@ def explain(exc: BaseException, storage: StorageOptions) -> str:
     if "curlCode: 7" in text or "Could not connect" in text or "curlCode: 6" in text:
         return (f"cannot connect to {where} ({storage.retries} attempts within --connect-timeout "
                 f"{storage.connect_timeout:g} s); check --endpoint-url and that the server is running")
-    return _short(exc)
+    return None
+
+
+def _plain(exc: OSError, storage: StorageOptions) -> OSError:
+    """A timeout or connection failure as an OSError whose text says what to check; others as they are."""
+    said = _network(exc, storage)
+    return OSError(said) if said else exc
+
+
+class _ObjectRaw(CountingRaw):
+    """An object's byte stream whose network failures read as explain() sentences."""
+
+    def __init__(self, inner: Any, storage: StorageOptions) -> None:
+        super().__init__(inner)
+        self._storage = storage
+
+    def _read(self, n: int) -> bytes:
+        try:
+            return self._inner.read(n)  # type: ignore[no-any-return]
+        except OSError as exc:
+            raise _plain(exc, self._storage) from exc
 
 
 def _mtime(info: Any) -> int:
@@ -457,7 +482,10 @@ def _epoch_s(text: str | None) -> int | None:
 def open_random(path: str) -> Any:
     """A random-access pyarrow file for a locator: Parquet reads its footer with ranged GETs."""
     bucket, key, storage = parse_locator(path)
-    return filesystem(storage).open_input_file(f"{bucket}/{key}")
+    try:
+        return filesystem(storage).open_input_file(f"{bucket}/{key}")
+    except OSError as exc:
+        raise _plain(exc, storage) from exc
 
 
 def open_random_pinned(path: str) -> tuple[Any, ObjectVersion]:
@@ -473,9 +501,12 @@ def open_binary(path: str) -> BinaryIO:
 
 def _open_binary(path: str) -> tuple[BinaryIO, ObjectVersion]:
     bucket, key, storage = parse_locator(path)
-    stream = filesystem(storage).open_input_stream(f"{bucket}/{key}", compression=None)
+    try:
+        stream = filesystem(storage).open_input_stream(f"{bucket}/{key}", compression=None)
+    except OSError as exc:
+        raise _plain(exc, storage) from exc
     version = ObjectVersion.of(stream)
-    return io.BufferedReader(CountingRaw(stream), buffer_size=1 << 20), version  # type: ignore[return-value]
+    return io.BufferedReader(_ObjectRaw(stream, storage), buffer_size=1 << 20), version  # type: ignore[return-value]
 
 
 def open_stream_remote(path: str, compression: str | None, *, limit: int | None,
