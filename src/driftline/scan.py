@@ -17,13 +17,13 @@ from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_file, read_files
 from driftline.sources.remote import StorageOptions, discover_remote, is_url, parse_condition, partitions_pass
 from driftline.sources.split import assemble, can_split, plan, read_span
-from driftline.workers import DEFAULT_TASK_TIMEOUT, cap_jobs, run_ordered
+from driftline.workers import DEFAULT_TASK_TIMEOUT, cap_jobs, run_ordered, usable_cores
 
 Progress = Callable[[int, int, str], None]  # (files done, files total, current file)
 
 
 def default_jobs() -> int:
-    return max(1, os.cpu_count() or 1)
+    return usable_cores()  # the cores this process may run on, as the --jobs cap counts them
 
 
 def scan_paths(
