@@ -123,7 +123,7 @@ def test_killed_worker_is_never_wrong(many_files: Path) -> None:
 
 
 def test_unreachable_scheduler_is_a_clear_error(demo_dir: Path) -> None:
-    with pytest.raises(EngineError, match=r"cannot reach the dask scheduler at 'tcp://127.0.0.1:9'"):
+    with pytest.raises(EngineError, match=r"^nothing listens at tcp://127.0.0.1:9 \(connection refused\)"):
         scan_paths([demo_dir / "landing"], engine="dask", scheduler="tcp://127.0.0.1:9")
 
 
@@ -152,3 +152,125 @@ def test_cli_unknown_engine_exits_2(demo_dir: Path) -> None:
     proc = subprocess.run(args, capture_output=True, text=True, timeout=60)
     assert proc.returncode == 2
     assert "unknown engine 'spark'; choose local or dask" in proc.stderr
+
+
+# -- dead, wrong and silent schedulers; a hung task -------------------------------------------
+
+def test_docstring_examples_run() -> None:
+    import doctest
+
+    import driftline.engines as engines
+
+    result = doctest.testmod(engines, optionflags=doctest.ELLIPSIS)
+    assert result.failed == 0 and result.attempted >= 4
+
+
+@pytest.fixture
+def silent_port() -> Iterator[int]:
+    """A local socket that accepts connections and never answers."""
+    import socket
+    import threading
+
+    server = socket.socket()
+    server.bind(("127.0.0.1", 0))
+    server.listen(64)
+    held: list[socket.socket] = []
+    stop = threading.Event()
+
+    def accept() -> None:
+        server.settimeout(0.2)
+        while not stop.is_set():
+            try:
+                held.append(server.accept()[0])
+            except OSError:
+                continue
+
+    thread = threading.Thread(target=accept, daemon=True)
+    thread.start()
+    try:
+        yield server.getsockname()[1]
+    finally:
+        stop.set()
+        thread.join(5)
+        for conn in held:
+            conn.close()
+        server.close()
+
+
+def _dead_port() -> int:
+    import socket
+
+    with socket.socket() as sock:  # bound, never listening: connections are refused
+        sock.bind(("127.0.0.1", 0))
+        return int(sock.getsockname()[1])
+
+
+def _scheduler_run(demo_dir: Path, address: str, *extra: str) -> Any:
+    from _measured import PEAK_LIMIT, run_cli, snapshot
+
+    landing = demo_dir / "landing"
+    before = snapshot(landing)
+    run = run_cli("scan", str(landing), "--engine", "dask", "--scheduler", address, *extra, timeout=120)
+    assert run.returncode == 2
+    assert run.stdout == "" and "Traceback" not in run.stderr
+    assert snapshot(landing) == before
+    assert run.peak < PEAK_LIMIT
+    return run
+
+
+@pytest.mark.timeout(120)
+def test_silent_scheduler_times_out(demo_dir: Path, silent_port: int) -> None:
+    address = f"tcp://127.0.0.1:{silent_port}"
+    run = _scheduler_run(demo_dir, address, "--connect-timeout", "2")
+    assert run.stderr == (f"EngineError: {address} accepted the connection but did not answer as a dask scheduler "
+                          "within 2 s (--connect-timeout); check that the port is the scheduler's (8786 by default), "
+                          "not its dashboard or another service\n")
+
+
+@pytest.mark.timeout(120)
+def test_dead_scheduler_port(demo_dir: Path) -> None:
+    address = f"tcp://127.0.0.1:{_dead_port()}"
+    run = _scheduler_run(demo_dir, address)
+    assert run.stderr == (f"EngineError: nothing listens at {address} (connection refused); check the address and "
+                          "that `dask scheduler` runs there\n")
+
+
+@pytest.mark.parametrize(("address", "problem"), [
+    ("tcp://127.0.0.1:abc", "the port 'abc' is not a number from 1 to 65535"),
+    ("tcp://127.0.0.1:70000", "the port '70000' is not a number from 1 to 65535"),
+    ("127.0.0.1", "names no port (a scheduler listens on 8786 by default)"),
+    ("tcp://:8786", "names no host"),
+    ("udp://127.0.0.1:8786", "unknown scheme 'udp' (one of tcp, tls, ws, wss)"),
+])
+def test_malformed_scheduler_address(demo_dir: Path, address: str, problem: str) -> None:
+    run = _scheduler_run(demo_dir, address)
+    sep = " " if problem.startswith("names") else ": "
+    assert run.stderr == f"EngineError: --scheduler {address!r}{sep}{problem}; write tcp://HOST:PORT, " \
+                         "e.g. tcp://10.0.0.5:8786\n"
+
+
+@pytest.mark.timeout(180)
+def test_a_hung_dask_task_times_out(many_files: Path) -> None:
+    from _measured import PEAK_LIMIT, run_cli, snapshot
+    from driftline.workers import TEST_FAULT_ENV
+
+    before = snapshot(many_files)
+    run = run_cli("scan", str(many_files), "--engine", "dask", "--jobs", "1", "--task-timeout", "5", "-q",
+                  env={TEST_FAULT_ENV: "hang:day=2026-11-03/part-0045.jsonl"}, timeout=170)
+    assert run.returncode == 2, run.stderr
+    # 301 files on 1 worker thread: runs of 76 files (engines.runs_of); the hung file is in the first run.
+    assert ("EngineError: no dask task finished within 5 s (--task-timeout) while reading the files from "
+            "day=2026-11-01/part-0000.jsonl to day=2026-11-04/part-0074.jsonl (one task); check the workers of "
+            "the local cluster") in run.stderr
+    assert "Traceback" not in run.stderr
+    assert snapshot(many_files) == before
+    assert run.peak < PEAK_LIMIT
+
+
+@pytest.mark.timeout(120)
+def test_a_worker_address_is_not_a_scheduler(cluster: Any, demo_dir: Path) -> None:
+    # source: distributed's identity() answers: {"type": "Scheduler" | "Worker" | "Nanny", ...}
+    worker = next(iter(cluster.scheduler_info["workers"]))
+    run = _scheduler_run(demo_dir, worker, "--connect-timeout", "5")
+    assert run.stderr == (f"EngineError: {worker} is a dask Worker, not a scheduler; give the scheduler's address "
+                          "(the one `dask scheduler` prints, port 8786 by default)\n")

@@ -87,6 +87,9 @@ def scan(
     anonymous: bool = False,
     example_values: str = "show",
     hash_key: bytes | str | None = None,
+    connect_timeout: float | None = None,
+    request_timeout: float | None = None,
+    task_timeout: float | None = None,
     progress: _Callable[[int, int, str], None] | None = None,
 ) -> Profile:
     """Scan files, folders, globs or s3:// URLs (one, or a list of them) into a Profile.
@@ -112,7 +115,10 @@ def scan(
     (credentials come from the environment, never from here); example_values 'hide' keeps
     every example value out of the profile and so out of every output made from it, 'hash'
     replaces each by a keyed HMAC-SHA256 (hash_key, else the DRIFTLINE_HASH_KEY
-    environment variable), so a report can be shared; progress(done, total,
+    environment variable), so a report can be shared; connect_timeout (seconds,
+    default 10) bounds reaching a dask scheduler or the object store, request_timeout
+    (default 20) an object store request that receives nothing, task_timeout (default
+    3600) each worker task; a timeout is an error naming the address; progress(done, total,
     current_file) is called as files finish. The result depends on none of jobs and
     engine. Raises InputPathError when a path does not exist or holds no data file, and
     OptionError for an option value of the wrong type or outside its range.
@@ -143,11 +149,15 @@ def scan(
     }
     pins = (csv_dialect,) if isinstance(csv_dialect, str) else tuple(csv_dialect)
     read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, csv_dialects=pins, encoding=encoding, **limits)
-    storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous)
+    timeouts = {name: float(value) for name, value in (("connect_timeout", connect_timeout),
+                                                       ("request_timeout", request_timeout)) if value is not None}
+    storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous, **timeouts)
+    more = {} if task_timeout is None else {"task_timeout": float(task_timeout)}
     profile = _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                           sniff_unknown=sniff_unknown,
                           jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
-                          where=where, storage=storage, max_events=max_events, follow_links=follow_links)
+                          where=where, storage=storage, max_events=max_events, follow_links=follow_links,
+                          connect_timeout=connect_timeout, **more)
     return conceal(profile, values)
 
 

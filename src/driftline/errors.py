@@ -9,6 +9,8 @@
     ├── DamagedFileError           a report, baseline, rules, policy or state file of the right
     │                              format but the wrong shape: names the file and a JSON pointer
     ├── OutputError                an output path that cannot be written
+    ├── WorkerError                (driftline.workers) a worker process died twice on the
+                                   same files, or a task ran past its timeout
     └── EngineError                (driftline.engines) the distributed engine is missing,
                                    cannot be reached, or lost the scan
 
@@ -108,3 +110,4 @@ class OutputError(DriftlineError):
     >>> isinstance(OutputError("out/r.json: folder 'out' does not exist"), DriftlineError)
     True
     """
+

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
+import functools
+import logging
 import os
 import time
 from collections.abc import Callable, Sequence
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import replace
 from typing import Any
 
@@ -18,12 +19,13 @@ from driftline.sources.readers import read_file, read_files
 from driftline.sources.remote import StorageOptions, discover_remote, is_url, parse_condition, partitions_pass
 from driftline.sources.split import assemble, can_split, plan, read_span
 from driftline.thinning import ScanThinner, cap_paths, thin_result, thin_scan
+from driftline.workers import DEFAULT_TASK_TIMEOUT, cap_jobs, run_ordered, usable_cores
 
 Progress = Callable[[int, int, str], None]  # (files done, files total, current file)
 
 
 def default_jobs() -> int:
-    return max(1, os.cpu_count() or 1)
+    return usable_cores()  # the cores this process may run on, as the --jobs cap counts them
 
 
 def scan_paths(
@@ -44,6 +46,8 @@ def scan_paths(
     storage: StorageOptions | None = None,
     max_events: int | None = None,
     follow_links: bool = False,
+    connect_timeout: float | None = None,
+    task_timeout: float = DEFAULT_TASK_TIMEOUT,
 ) -> Profile:
     """Scan paths into a Profile. Raises InputPathError when nothing can be found at all.
 
@@ -53,6 +57,9 @@ def scan_paths(
     cluster of `jobs` workers); the Profile is the same as the local one.
     paths may be s3:// URLs (reached through storage); where holds partition conditions
     like 'day>=2026-11-01' that keep only matching key=value partitions (pruned while listing).
+    jobs is capped by the cores and memory (a warning on the "driftline" logger says so);
+    connect_timeout bounds reaching a dask scheduler (the object store's is in storage);
+    task_timeout bounds each worker task (a WorkerError or EngineError past it).
     """
     if engine not in ("local", "dask"):
         raise DriftlineError(f"unknown engine {engine!r}; choose local or dask")
@@ -61,6 +68,16 @@ def scan_paths(
         check("max_errors", max_errors)
     if max_events is not None:
         check("max_events", max_events)
+    if not 0 < task_timeout <= 10**7:
+        raise DriftlineError(f"--task-timeout must be between 0 and 10000000 seconds, got {task_timeout}")
+    if engine == "dask" and scheduler:
+        from driftline.engines import scheduler_endpoint
+
+        scheduler_endpoint(scheduler)  # a mistyped address fails before any listing
+    if engine == "local" or not scheduler:  # workers on this machine
+        jobs, why = cap_jobs(jobs)
+        if why:
+            logging.getLogger("driftline").warning(why)
     opts = read or ReadOptions()
     started = time.perf_counter()
     conditions = [parse_condition(w) for w in where]
@@ -77,11 +94,12 @@ def scan_paths(
             f"no readable data file under {', '.join(map(str, paths))} "
             f"({_skipped_summary(found.skipped)}); formats read: .jsonl .json .csv .tsv .parquet, optionally compressed"
         )
-    read_all = _read_all
+    read_all: Callable[..., list[FileResult]] = functools.partial(_read_all, task_timeout=task_timeout)
     if engine == "dask":
-        from driftline.engines import dask_reader
+        from driftline.engines import CONNECT_TIMEOUT_S, dask_reader
 
-        read_all = dask_reader(found.root, scheduler)
+        read_all = dask_reader(found.root, scheduler, connect_timeout=connect_timeout or CONNECT_TIMEOUT_S,
+                               task_timeout=task_timeout)
     if reuse is None:
         results = read_all(found.files, opts, jobs, max_errors, progress)
     else:
@@ -114,13 +132,13 @@ def _skipped_summary(skipped: Sequence[Any]) -> str:
 
 
 def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
-              progress: Progress | None) -> list[FileResult]:
+              progress: Progress | None, *, task_timeout: float = DEFAULT_TASK_TIMEOUT) -> list[FileResult]:
     if jobs > 1 and any(can_split(ref, opts) for ref in files):
-        return _read_split(files, opts, jobs, max_errors, progress)
+        return _read_split(files, opts, jobs, max_errors, progress, task_timeout)
     keep = ScanThinner()  # batch observations summarised as they come: memory stays bounded
     errors = 0
     total = len(files)
-    pool = ProcessPoolExecutor(max_workers=jobs) if jobs > 1 and total > 1 else None
+    pool = jobs > 1 and total > 1
     groups = _groups(files, max(1, total // (jobs * 8)) if pool else _GROUP_FILES)
     started = 0
 
@@ -130,10 +148,10 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
             progress(started, total, ref.rel)
         started += 1
 
+    # Results come in input order, so stopping at max_errors is the same as the serial run.
+    done = (run_ordered(read_files, groups, opts, jobs=jobs, names=_group_names, task_timeout=task_timeout)
+            if pool else (read_files(g, opts, before=before) for g in groups))
     try:
-        # map keeps input order, so stopping at max_errors is the same as the serial run.
-        done = (pool.map(read_files, groups, [opts] * len(groups)) if pool
-                else (read_files(g, opts, before=before) for g in groups))
         for res in (res for group in done for res in group):
             if progress and pool:
                 progress(len(keep.results), total, res.rel)
@@ -142,8 +160,9 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
             if max_errors is not None and errors >= max_errors:
                 break
     finally:
-        if pool:
-            pool.shutdown(wait=True, cancel_futures=True)
+        close = getattr(done, "close", None)
+        if close:
+            close()  # stops the worker pool of an early stop
     if progress:
         progress(len(keep.results), total, "")
     return keep.results
@@ -170,6 +189,15 @@ def _groups(files: Sequence[FileRef], most: int) -> list[list[FileRef]]:
     return groups
 
 
+def _group_names(group: list[FileRef]) -> list[str]:
+    return [ref.rel for ref in group]
+
+
+def _task_names(task: tuple[str, Any]) -> list[str]:
+    kind, what = task
+    return [what.rel if kind == "file" else what.ref.rel]
+
+
 def _task(task: tuple[str, Any], opts: ReadOptions) -> Any:
     kind, what = task
     if kind == "file":
@@ -181,14 +209,14 @@ def _task(task: tuple[str, Any], opts: ReadOptions) -> Any:
 
 
 def _read_split(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
-                progress: Progress | None) -> list[FileResult]:
+                progress: Progress | None, task_timeout: float = DEFAULT_TASK_TIMEOUT) -> list[FileResult]:
     """Files as tasks, big JSON Lines and CSV files as several byte spans; the same results as one by one."""
     tasks: list[tuple[str, Any]] = []
     for ref in files:
         spans = plan(ref, opts, 2 * jobs) if can_split(ref, opts) else []
         tasks.extend(("span", sp) for sp in spans) if len(spans) > 1 else tasks.append(("file", ref))
-    with ProcessPoolExecutor(max_workers=jobs) as pool:
-        done = list(pool.map(_task, tasks, [opts] * len(tasks), chunksize=max(1, len(tasks) // (jobs * 8))))
+    done = list(run_ordered(_task, tasks, opts, jobs=jobs, names=_task_names, task_timeout=task_timeout,
+                            chunk=max(1, len(tasks) // (jobs * 8))))
     keep = ScanThinner()
     errors, k, total = 0, 0, len(files)
     for i, ref in enumerate(files):

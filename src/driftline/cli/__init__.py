@@ -8,6 +8,7 @@ Exit codes (all verbs):
 
 from __future__ import annotations
 
+import logging
 import sys
 from collections.abc import Callable
 from functools import wraps
@@ -41,11 +42,23 @@ err_console = Console(stderr=True, highlight=False)
 F = TypeVar("F", bound=Callable[..., Any])
 
 
+def _warnings_to_stderr() -> None:
+    """Warnings of the library (the "driftline" logger) as 'warning: message' lines on stderr."""
+    logger = logging.getLogger("driftline")
+    if not any(getattr(h, "_driftline_cli", False) for h in logger.handlers):
+        handler = logging.StreamHandler(sys.stderr)
+        handler.setFormatter(logging.Formatter("warning: %(message)s"))
+        handler._driftline_cli = True  # type: ignore[attr-defined]
+        logger.addHandler(handler)
+        logger.propagate = False
+
+
 def handles_errors(fn: F) -> F:
     """Turn library errors into 'Type: message' on stderr and exit code 2, never a traceback."""
 
     @wraps(fn)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
+        _warnings_to_stderr()
         try:
             return fn(*args, **kwargs)
         except DriftlineError as exc:

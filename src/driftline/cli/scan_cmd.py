@@ -32,6 +32,8 @@ from driftline.sources.base import (
     DEFAULT_MAX_PATHS,
     DEFAULT_MAX_RECORD_BYTES,
 )
+from driftline.sources.remote import DEFAULT_CONNECT_TIMEOUT, DEFAULT_REQUEST_TIMEOUT
+from driftline.workers import DEFAULT_TASK_TIMEOUT
 
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
@@ -137,7 +139,8 @@ def scan_command(
     ),
     jobs: int = typer.Option(
         default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
-        help="Files read in parallel (processes). Results do not depend on it.",
+        help="Files read in parallel (processes), at most one per core and per 256 MB of free memory (a warning "
+        "says when lowered). Results do not depend on it.",
     ),
     max_errors: int | None = typer.Option(
         None, "--max-errors", min=1, max=RANGES["max_errors"][1],
@@ -232,6 +235,18 @@ def scan_command(
     anonymous: bool = typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
     example_values: str | None = EXAMPLE_VALUES,
     hash_key_file: str | None = HASH_KEY_FILE,
+    connect_timeout: float = typer.Option(
+        DEFAULT_CONNECT_TIMEOUT, "--connect-timeout", metavar="SECONDS", min=0.001, max=86_400,
+        help="Give up connecting to a dask scheduler or an object store after this long (per attempt).",
+    ),
+    request_timeout: float = typer.Option(
+        DEFAULT_REQUEST_TIMEOUT, "--request-timeout", metavar="SECONDS", min=0.001, max=86_400,
+        help="Give up an object store request that received nothing for this long (per attempt, 4 attempts).",
+    ),
+    task_timeout: float = typer.Option(
+        DEFAULT_TASK_TIMEOUT, "--task-timeout", metavar="SECONDS", min=0.001, max=10_000_000,
+        help="Stop the scan when a worker task (a file, or a run of small files) runs longer than this.",
+    ),
 ) -> None:
     check_targets([("--json", json_out), ("--html", html_out)], scanned=paths, write_inside=write_inside,
                   include_hidden=hidden)
@@ -267,6 +282,9 @@ def scan_command(
             anonymous=anonymous,
             example_values=values.mode,
             hash_key=values.key,
+            connect_timeout=connect_timeout,
+            request_timeout=request_timeout,
+            task_timeout=task_timeout,
             progress=bar,
         )
     finally:

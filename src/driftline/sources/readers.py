@@ -21,7 +21,7 @@ from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, L
 from driftline.sources.jsonfile import read_json, read_jsonl
 from driftline.sources.linecount import LineTally, jsonl_issue
 from driftline.sources.parquetfile import read_parquet
-from driftline.sources.remote import is_url, open_random, open_stream_remote
+from driftline.sources.remote import ObjectVersion, is_url, object_changed, open_random_pinned, open_stream_pinned
 from driftline.thinning import Thinner, thin
 
 
@@ -160,6 +160,7 @@ class _Read:
         self.complete = True
         self.opened = True  # False: the file could not even be opened; nothing more is checked
         self.thinner = Thinner()  # a stream's observations, summarised in blocks past FILE_BATCHES
+        self.version: ObjectVersion | None = None  # an object's version when opened (s3://)
 
     def fail(self, exc: BaseException) -> None:
         self.complete = False
@@ -200,11 +201,10 @@ class _Read:
             if unread is not None:
                 self.complete = False
                 issues.append(unread)
-        if not is_url(ref.path) and not any(i.kind == "vanished" for i in issues):
-            change = file_changed(ref)
-            if change is not None:
-                self.complete = False
-                issues.append(FileIssue(ref.rel, "changed", change))
+        change = self._changed()
+        if change is not None:
+            self.complete = False
+            issues.append(FileIssue(ref.rel, "changed", change))
         return _result(ref, observations, issues, self.declared, self.complete, self.dialect,
                        self.encoding, span)
 
@@ -240,6 +240,14 @@ def nothing_read(ref: FileRef, limit: int = 64 * 2**20) -> FileIssue | None:
     return FileIssue(ref.rel, "nothing-read", f"no row was read from {ref.size:,} bytes of more than one line: "
                      "a quote opened in the header and never closed takes every row into a column name", line=2)
 
+    def _changed(self) -> str | None:
+        ref = self.ref
+        if is_url(ref.path):  # against the version opened: one HEAD after the read
+            return object_changed(ref.path, ref.size, ref.mtime_ns, self.version) if self.version else None
+        if any(i.kind == "vanished" for i in self.issues):
+            return None
+        return file_changed(ref)
+
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
     read = _Read(ref)
@@ -262,7 +270,7 @@ def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Rea
     source: Any = ref.path
     if is_url(ref.path):  # random access: the footer and column chunks come as ranged GETs
         try:
-            source = open_random(ref.path)
+            source, read.version = open_random_pinned(ref.path)
         except OSError as exc:
             read.not_opened(FileIssue(ref.rel, "unreadable", f"cannot open: {exc}"))
             return
@@ -279,9 +287,11 @@ def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Rea
 def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
     notes: list[IgnoredTail] = []
     try:
-        opener = open_stream_remote if is_url(ref.path) else open_stream
-        raw = opener(ref.path, ref.compression, limit=opts.max_decompressed_bytes, ratio=opts.max_decompression_ratio,
-                     notes=notes)
+        limits = {"limit": opts.max_decompressed_bytes, "ratio": opts.max_decompression_ratio}
+        if is_url(ref.path):
+            raw, read.version = open_stream_pinned(ref.path, ref.compression, **limits)
+        else:
+            raw = open_stream(ref.path, ref.compression, notes=notes, **limits)
     except OSError as exc:
         kind, msg = _describe_failure(exc, None)
         read.not_opened(FileIssue(ref.rel, kind, f"cannot open: {msg}"))
