@@ -208,6 +208,14 @@ class _Read:
         return _result(ref, observations, issues, self.declared, self.complete, self.dialect,
                        self.encoding, span)
 
+    def _changed(self) -> str | None:
+        ref = self.ref
+        if is_url(ref.path):  # against the version opened: one HEAD after the read
+            return object_changed(ref.path, ref.size, ref.mtime_ns, self.version) if self.version else None
+        if any(i.kind == "vanished" for i in self.issues):
+            return None
+        return file_changed(ref)
+
 
 def _unobserved_issue(rel: str, column: str, why: str, row: int) -> FileIssue:
     """One warning per column a file's batches left out: the other columns were profiled."""
@@ -239,14 +247,6 @@ def nothing_read(ref: FileRef, limit: int = 64 * 2**20) -> FileIssue | None:
         return None
     return FileIssue(ref.rel, "nothing-read", f"no row was read from {ref.size:,} bytes of more than one line: "
                      "a quote opened in the header and never closed takes every row into a column name", line=2)
-
-    def _changed(self) -> str | None:
-        ref = self.ref
-        if is_url(ref.path):  # against the version opened: one HEAD after the read
-            return object_changed(ref.path, ref.size, ref.mtime_ns, self.version) if self.version else None
-        if any(i.kind == "vanished" for i in self.issues):
-            return None
-        return file_changed(ref)
 
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
