@@ -439,3 +439,15 @@ def test_check_passes_every_type_against_its_own_schema(every_type: Path, tmp_pa
     assert _cli("scan", every_type, "--json", report, "-q") == 0
     for baseline in (contract, rules, report):
         assert _cli("check", every_type, "--baseline", baseline, "-q") == 0, baseline.name
+
+
+def test_an_infinite_float_extreme_survives_the_report(tmp_path: Path) -> None:
+    # source: RFC 8259 section 6 (no Infinity in JSON); IEEE 754 binary64: 1e308 * 10 overflows to inf
+    import driftline
+    from driftline.report import dumps, load_report
+
+    pq.write_table(pa.table({"x": pa.array([1.5, float("inf"), float("-inf")], pa.float64())}), tmp_path / "a.parquet")
+    out = tmp_path / "r.json"
+    out.write_bytes(dumps(driftline.scan(tmp_path / "a.parquet")))
+    field = load_report(out).fields["x"].stats
+    assert (field.minimum, field.maximum) == (float("-inf"), float("inf"))

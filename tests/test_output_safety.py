@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import json
 import os
-import resource
 import stat
 import subprocess
 import sys
@@ -25,6 +24,7 @@ import pyarrow as pa
 import pytest
 from jsonschema import Draft202012Validator
 
+from _measured import _WRAPPER as WRAPPER
 from driftline.emit.atomic import write_output
 from driftline.errors import OutputError
 
@@ -36,10 +36,15 @@ def run(*args: str | Path, cwd: Path | None = None) -> subprocess.CompletedProce
     env = dict(os.environ)
     if "PYTHONPATH" in env:  # a relative src/ must still point at this checkout from another folder
         env["PYTHONPATH"] = os.pathsep.join(os.path.abspath(p) for p in env["PYTHONPATH"].split(os.pathsep))
-    res = subprocess.run([*EXE, *map(str, args)], capture_output=True, text=True, timeout=120, cwd=cwd, env=env)
-    # ru_maxrss of waited-for children is in KiB on Linux (getrusage(2)); the largest child so far
-    assert resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss * 1024 < MAX_RSS_BYTES
-    return res
+    # A small wrapper process runs the CLI and reports its peak (getrusage(2), RUSAGE_CHILDREN:
+    # the largest waited-for descendant), so the children of earlier tests do not count.
+    cmd = [*EXE, *map(str, args)]
+    proc = subprocess.run([sys.executable, "-c", WRAPPER, *cmd], capture_output=True, text=True, timeout=120,
+                          cwd=cwd, env=env)
+    assert proc.returncode == 0, proc.stderr
+    got = json.loads(proc.stdout)
+    assert got["peak"] < MAX_RSS_BYTES
+    return subprocess.CompletedProcess(cmd, got["rc"], got["out"], got["err"])
 
 
 def flat(text: str) -> str:

@@ -7,6 +7,7 @@ per-worker results combine in any order and give the same profile.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, fields, replace
 from operator import attrgetter
@@ -151,7 +152,7 @@ class FieldStats:
         out["samples"] = {k: [e.to_json() for e in v] for k, v in self.samples.items()}
         for name in ("minimum", "maximum"):
             if getattr(self, name) is not None:
-                out[name] = getattr(self, name)
+                out[name] = _extreme_to_json(getattr(self, name))
         for name in (
             "max_length",
             "int_digits",
@@ -174,8 +175,8 @@ class FieldStats:
             nulls=d.get("nulls", 0),
             classes=dict(d.get("classes", {})),
             samples={k: tuple(Example.from_json(e) for e in v) for k, v in d.get("samples", {}).items()},
-            minimum=d.get("minimum"),
-            maximum=d.get("maximum"),
+            minimum=_extreme_from_json(d.get("minimum")),
+            maximum=_extreme_from_json(d.get("maximum")),
             max_length=d.get("max_length", 0),
             int_digits=d.get("int_digits", 0),
             frac_digits=d.get("frac_digits", 0),
@@ -267,3 +268,18 @@ def _earliest(parts: list[tuple[Example, ...]]) -> tuple[Example, ...]:
 
 def with_samples(st: FieldStats, samples: dict[str, tuple[Example, ...]]) -> FieldStats:
     return replace(st, samples=dict(sorted(samples.items())))
+
+
+# JSON has no infinity (RFC 8259 section 6), and orjson writes one as null: a float extreme
+# past float64's range is written as a word instead, which no temporal or decimal text equals.
+_NON_FINITE = {"inf": math.inf, "-inf": -math.inf, "nan": math.nan}
+
+
+def _extreme_to_json(value: Any) -> Any:
+    if isinstance(value, float) and not math.isfinite(value):
+        return "nan" if math.isnan(value) else "inf" if value > 0 else "-inf"
+    return value
+
+
+def _extreme_from_json(value: Any) -> Any:
+    return _NON_FINITE.get(value, value) if isinstance(value, str) else value
