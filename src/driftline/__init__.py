@@ -149,10 +149,10 @@ def scan(
     }
     pins = (csv_dialect,) if isinstance(csv_dialect, str) else tuple(csv_dialect)
     read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, csv_dialects=pins, encoding=encoding, **limits)
-    timeouts = {name: float(value) for name, value in (("connect_timeout", connect_timeout),
-                                                       ("request_timeout", request_timeout)) if value is not None}
+    timeouts: dict[str, _Any] = {name: float(value) for name, value in (("connect_timeout", connect_timeout),
+                                ("request_timeout", request_timeout)) if value is not None}
     storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous, **timeouts)
-    more = {} if task_timeout is None else {"task_timeout": float(task_timeout)}
+    more: dict[str, _Any] = {} if task_timeout is None else {"task_timeout": float(task_timeout)}
     profile = _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
                           sniff_unknown=sniff_unknown,
                           jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import typer
 from rich.console import Console
-from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+from rich.progress import BarColumn, MofNCompleteColumn, Progress, TaskID, TextColumn, TimeElapsedColumn
 
 import driftline
 from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
@@ -77,7 +77,7 @@ class _Bar:
         self.enabled = enabled
         self.started = time.monotonic()
         self.progress: Progress | None = None
-        self.task = None
+        self.task: TaskID | None = None
 
     def __call__(self, done: int, total: int, current: str) -> None:
         if not self.enabled:

@@ -81,7 +81,7 @@ def file_digest(path: str) -> str:
 
 def _read_options_json(opts: ReadOptions) -> dict[str, Any]:
     # as the state file holds them (tuples become lists), so a loaded state compares equal
-    return orjson.loads(orjson.dumps(dataclasses.asdict(opts)))  # type: ignore[no-any-return]
+    return orjson.loads(orjson.dumps(dataclasses.asdict(opts)))
 
 
 _STATE_HEAD = re.compile(rb'\A\s*\{\s*"format"\s*:\s*"driftline-state"')

@@ -154,10 +154,10 @@ def _observe_group(path: str, t: pa.DataType, members: list[tuple[int, pa.Array]
     null_text = value_text(None)
     for k, (i, arr) in enumerate(members):
         b, s = batches[i], samples[k]
-        if first_null[k] is not None:
-            s["null"] = (Example(b.file, b.row_start + first_null[k], None, null_text),)
-        if first_valid[k] is not None:
-            s["type:" + key] = (Example(b.file, b.row_start + first_valid[k], None, value_text(next(firsts))),)
+        if (fn := first_null[k]) is not None:
+            s["null"] = (Example(b.file, b.row_start + fn, None, null_text),)
+        if (fv := first_valid[k]) is not None:
+            s["type:" + key] = (Example(b.file, b.row_start + fv, None, value_text(next(firsts))),)
         nonnull = len(arr) - arr.null_count
         out[i][path] = FieldStats(types={key: nonnull} if nonnull else {}, nulls=arr.null_count,
                                   samples=dict(sorted(s.items())), **extras[k])

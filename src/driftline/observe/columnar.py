@@ -235,7 +235,7 @@ def _observe_union(arr: pa.UnionArray, path: str, rows: pa.Array | None, ctx: _C
         if not pc.any(mask).as_py():
             continue
         child = arr.field(i)
-        values = child.take(offsets.filter(mask)) if dense else child.filter(mask)
+        values = child.take(offsets.filter(mask)) if offsets is not None else child.filter(mask)
         sub = _Ctx(ctx.file, ctx.row_start, ctx.lines, ctx.text_source, ctx.exact)
         _observe(values, path, _take_rows(rows, mask), sub)
         parts.append(sub.out)

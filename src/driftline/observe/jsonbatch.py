@@ -385,7 +385,7 @@ def _needed_rows(b: _Batch) -> list[int]:
     if not b.rows_needed:
         return []
     allrows = pa.chunked_array([r.cast(pa.int64()) for r in b.rows_needed], pa.int64())
-    return pc.unique(allrows).sort().to_pylist()  # type: ignore[attr-defined]
+    return pc.unique(allrows).sort().to_pylist()
 
 
 def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b: _Batch, listed: bool) -> None:

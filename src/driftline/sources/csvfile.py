@@ -533,9 +533,9 @@ class CsvState:
         if n == 0:
             return []
         if self.places is not None:
-            starts = self.places.starts(cells)
+            placed = self.places.starts(cells)
             self.line = self.places.line
-            return starts
+            return placed
         multiline = [col for col in cells.columns if holds_newline(col)]
         if not multiline and not self.comment_lines:  # the common case, found by one byte search per column
             starts: Sequence[int] = range(self.line, self.line + n)

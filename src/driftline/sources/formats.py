@@ -305,13 +305,13 @@ class _Streams(io.RawIOBase):
 
     def _step(self, data: bytes, want: int) -> bytes:
         if self._codec == "zstd":
-            return self._dec.decompress(data)  # type: ignore[no-any-return]
-        return self._dec.decompress(data, want)  # type: ignore[no-any-return]
+            return self._dec.decompress(data)
+        return self._dec.decompress(data, want)
 
     def _input(self) -> bytes | None:
         """The decoder's next input: held input first; None at the end of the file."""
         if self._codec == "gzip" and self._dec.unconsumed_tail:
-            return self._dec.unconsumed_tail  # type: ignore[no-any-return]
+            return self._dec.unconsumed_tail
         if self._codec in ("bz2", "xz") and not self._dec.needs_input:
             return b""  # output is still waiting inside the decoder
         return self._read() or None
@@ -365,7 +365,8 @@ class _Streams(io.RawIOBase):
                     rest = data.lstrip(b"\x00")
                 if not rest:
                     return None  # null padding to the end: gzip(1) ignores trailing zeros silently
-                return self._ignore(at)
+                self._ignore(at)
+                return None
             if len(rest) < 2:  # gzip(1) reads both bytes of the magic number before it judges them
                 raise EOFError(f"the file ends inside the header of a gzip member at byte {at:,}")
             magic: tuple[bytes, ...] = (b"\x1f", b"\x8b")
@@ -375,13 +376,13 @@ class _Streams(io.RawIOBase):
             if i == len(rest):  # as the tools: a cut-off header is an unexpected end, not garbage
                 raise EOFError(f"the file ends inside the header of a {self._codec} stream at byte {at:,}")
             if rest[i] not in allowed:
-                return self._ignore(at)
+                self._ignore(at)
+                return None
         return rest
 
     def _ignore(self, at: int) -> None:
         if self._notes is not None:
             self._notes.append(IgnoredTail(self._codec, at))
-        return None
 
     def _after_xz(self, rest: bytes, at: int) -> bytes | None:
         zeros = 0
@@ -437,4 +438,4 @@ def wrap_stream(raw: BinaryIO, compression: str | None, *, limit: int | None, ra
         raise
     if compression is None and limit is None:
         return stream
-    return io.BufferedReader(_Limited(stream, raw, limit, ratio, taken), buffer_size=1 << 20)  # type: ignore[return-value]
+    return io.BufferedReader(_Limited(stream, raw, limit, ratio, taken), buffer_size=1 << 20)

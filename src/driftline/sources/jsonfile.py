@@ -307,13 +307,13 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
                 yield FileIssue(rel, "malformed-json", f"{msg} (column {col}); line skipped", line=lineno,
                                 byte_offset=offset + pos)
                 continue
-            obs = out.add(value, lineno, size)
-            if obs is not None:
-                yield obs
+            added = out.add(value, lineno, size)
+            if added is not None:
+                yield added
         src.advance(len(got))
-    obs = out.flush()
-    if obs is not None:
-        yield obs
+    last = out.flush()
+    if last is not None:
+        yield last
     if lines_read is not None:
         lines_read.append(src.lineno - start[0])
     if blank_read is not None:

@@ -80,7 +80,7 @@ class LineTally(io.RawIOBase):
         assert self._inner is not None
         data = self._inner.read(n)
         self.see(data, self.lf, self.lf + data.count(b"\n"))
-        return data  # type: ignore[no-any-return]
+        return data
 
     def readinto(self, buf: Any) -> int:
         data = self.read(len(buf))

@@ -287,11 +287,11 @@ def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Rea
 def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
     notes: list[IgnoredTail] = []
     try:
-        limits = {"limit": opts.max_decompressed_bytes, "ratio": opts.max_decompression_ratio}
+        limit, ratio = opts.max_decompressed_bytes, opts.max_decompression_ratio
         if is_url(ref.path):
-            raw, read.version = open_stream_pinned(ref.path, ref.compression, **limits)
+            raw, read.version = open_stream_pinned(ref.path, ref.compression, limit=limit, ratio=ratio)
         else:
-            raw = open_stream(ref.path, ref.compression, notes=notes, **limits)
+            raw = open_stream(ref.path, ref.compression, limit=limit, ratio=ratio, notes=notes)
     except OSError as exc:
         kind, msg = _describe_failure(exc, None)
         read.not_opened(FileIssue(ref.rel, kind, f"cannot open: {msg}"))

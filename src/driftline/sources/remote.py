@@ -243,11 +243,11 @@ def discover_remote(
 ) -> Discovery:
     """List the objects below s3:// URLs (all in one bucket and prefix family) as FileRefs."""
     storage = storage or StorageOptions()
-    urls = [os.fspath(u) for u in urls]
-    if not all(is_url(u) for u in urls):
+    names = [str(os.fspath(u)) for u in urls]
+    if not all(is_url(u) for u in names):
         raise InputPathError("scan local paths and s3:// URLs separately (one root per scan)")
     fs = filesystem(storage)
-    roots = [split_url(u) for u in urls]
+    roots = [split_url(u) for u in names]
     buckets = {b for b, _ in roots}
     if len(buckets) != 1:
         raise InputPathError(f"scan one bucket at a time; got {', '.join(sorted(buckets))}")
@@ -434,7 +434,7 @@ class _ObjectRaw(CountingRaw):
 
     def _read(self, n: int) -> bytes:
         try:
-            return self._inner.read(n)  # type: ignore[no-any-return]
+            return self._inner.read(n)
         except OSError as exc:
             raise _plain(exc, self._storage) from exc
 
@@ -514,7 +514,7 @@ def _open_binary(path: str) -> tuple[BinaryIO, ObjectVersion]:
     except OSError as exc:
         raise _plain(exc, storage) from exc
     version = ObjectVersion.of(stream)
-    return io.BufferedReader(_ObjectRaw(stream, storage), buffer_size=1 << 20), version  # type: ignore[return-value]
+    return io.BufferedReader(_ObjectRaw(stream, storage), buffer_size=1 << 20), version
 
 
 def open_stream_remote(path: str, compression: str | None, *, limit: int | None,
