@@ -16,6 +16,7 @@ from typing import Any
 
 import pytest
 
+from _endpoints import dead_port, silent_endpoint
 from driftline.engines import EngineError, runs_of, tree_levels
 from driftline.scan import scan_paths
 
@@ -167,42 +168,8 @@ def test_docstring_examples_run() -> None:
 
 @pytest.fixture
 def silent_port() -> Iterator[int]:
-    """A local socket that accepts connections and never answers."""
-    import socket
-    import threading
-
-    server = socket.socket()
-    server.bind(("127.0.0.1", 0))
-    server.listen(64)
-    held: list[socket.socket] = []
-    stop = threading.Event()
-
-    def accept() -> None:
-        server.settimeout(0.2)
-        while not stop.is_set():
-            try:
-                held.append(server.accept()[0])
-            except OSError:
-                continue
-
-    thread = threading.Thread(target=accept, daemon=True)
-    thread.start()
-    try:
-        yield server.getsockname()[1]
-    finally:
-        stop.set()
-        thread.join(5)
-        for conn in held:
-            conn.close()
-        server.close()
-
-
-def _dead_port() -> int:
-    import socket
-
-    with socket.socket() as sock:  # bound, never listening: connections are refused
-        sock.bind(("127.0.0.1", 0))
-        return int(sock.getsockname()[1])
+    """A local socket that accepts connections and never answers (the hostile endpoint)."""
+    yield from silent_endpoint()
 
 
 def _scheduler_run(demo_dir: Path, address: str, *extra: str) -> Any:
@@ -229,7 +196,7 @@ def test_silent_scheduler_times_out(demo_dir: Path, silent_port: int) -> None:
 
 @pytest.mark.timeout(120)
 def test_dead_scheduler_port(demo_dir: Path) -> None:
-    address = f"tcp://127.0.0.1:{_dead_port()}"
+    address = f"tcp://127.0.0.1:{dead_port()}"
     run = _scheduler_run(demo_dir, address)
     assert run.stderr == (f"EngineError: nothing listens at {address} (connection refused); check the address and "
                           "that `dask scheduler` runs there\n")

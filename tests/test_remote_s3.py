@@ -16,6 +16,7 @@ from urllib.parse import parse_qs, unquote
 
 import pytest
 
+from _endpoints import dead_port, silent_endpoint
 from driftline.errors import DriftlineError, InputPathError
 from driftline.scan import scan_paths
 from driftline.sources.remote import StorageOptions, locator, parse_condition, parse_locator
@@ -383,40 +384,7 @@ def test_object_replaced_after_listing_is_changed(s3: Server) -> None:
 @pytest.fixture
 def silent_port() -> Iterator[int]:
     """A local socket that accepts connections and never answers (the hostile endpoint)."""
-    import socket
-
-    server = socket.socket()
-    server.bind(("127.0.0.1", 0))
-    server.listen(64)
-    held: list[socket.socket] = []
-    stop = threading.Event()
-
-    def accept() -> None:
-        server.settimeout(0.2)
-        while not stop.is_set():
-            try:
-                held.append(server.accept()[0])
-            except OSError:
-                continue
-
-    thread = threading.Thread(target=accept, daemon=True)
-    thread.start()
-    try:
-        yield server.getsockname()[1]
-    finally:
-        stop.set()
-        thread.join(5)
-        for conn in held:
-            conn.close()
-        server.close()
-
-
-def _dead_port() -> int:
-    import socket
-
-    with socket.socket() as sock:  # bound, never listening: connections are refused
-        sock.bind(("127.0.0.1", 0))
-        return int(sock.getsockname()[1])
+    yield from silent_endpoint()
 
 
 @pytest.mark.timeout(120)
@@ -439,7 +407,7 @@ def test_silent_endpoint_is_a_bounded_clear_error(silent_port: int, tmp_path: Pa
 def test_dead_endpoint_is_a_clear_error(tmp_path: Path) -> None:
     from _measured import PEAK_LIMIT, run_cli
 
-    url = f"http://127.0.0.1:{_dead_port()}"
+    url = f"http://127.0.0.1:{dead_port()}"
     run = run_cli("scan", "s3://lake/landing/", "--endpoint-url", url, "--connect-timeout", "1",
                   env={"AWS_ACCESS_KEY_ID": ACCESS_KEY, "AWS_SECRET_ACCESS_KEY": SECRET}, timeout=100)
     assert run.returncode == 2
