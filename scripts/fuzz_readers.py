@@ -105,19 +105,29 @@ def seeds(folder: Path) -> None:
     lines = b'{"id": 1, "pm25": 12.5, "tags": ["a"], "s": {"x": null}}\n{"id": "2", "ts": "1985-04-12T23:20:50.52Z"}\n'
     text = b'id,name,value\n1,"a, b",2.5\n2,"say ""hi""",\n3,"multi\nline",n/a\n'
     buf = io.BytesIO()
-    table = pa.table({
-        "i": pa.array([1, None, 3], pa.int64()),
-        "m": pa.array([[("k", 1)], None, []], pa.map_(pa.string(), pa.int64())),
-        "l": pa.array([[1, 2], [], None], pa.list_(pa.int32())),
-        "s": pa.array([{"a": 1, "b": "x"}, None, {"a": None, "b": "y"}]),
-        "t": pa.array([1, 2, 3], pa.timestamp("ns")),
-        "d": pa.array(["x", "y", "x"]).dictionary_encode(),
-    })
+    table = pa.table(
+        {
+            "i": pa.array([1, None, 3], pa.int64()),
+            "m": pa.array([[("k", 1)], None, []], pa.map_(pa.string(), pa.int64())),
+            "l": pa.array([[1, 2], [], None], pa.list_(pa.int32())),
+            "s": pa.array([{"a": 1, "b": "x"}, None, {"a": None, "b": "y"}]),
+            "t": pa.array([1, 2, 3], pa.timestamp("ns")),
+            "d": pa.array(["x", "y", "x"]).dictionary_encode(),
+        }
+    )
     pq.write_table(table, buf, row_group_size=2)
-    files = {0: lines, 1: b"[" + lines.replace(b"}\n{", b"},{").rstrip(b"\n") + b"]", 2: text,
-             3: text.replace(b",", b"\t"), 4: buf.getvalue(), 5: gzip.compress(lines, mtime=0),
-             6: zstandard.ZstdCompressor().compress(text), 7: bz2.compress(lines), 8: lzma.compress(lines[:60]),
-             9: lines}
+    files = {
+        0: lines,
+        1: b"[" + lines.replace(b"}\n{", b"},{").rstrip(b"\n") + b"]",
+        2: text,
+        3: text.replace(b",", b"\t"),
+        4: buf.getvalue(),
+        5: gzip.compress(lines, mtime=0),
+        6: zstandard.ZstdCompressor().compress(text),
+        7: bz2.compress(lines),
+        8: lzma.compress(lines[:60]),
+        9: lines,
+    }
     for k, body in files.items():
         (folder / f"seed-{k}").write_bytes(bytes([k]) + body)
 
@@ -137,8 +147,16 @@ def main() -> None:
     args.corpus.mkdir(parents=True, exist_ok=True)
     args.findings.mkdir(parents=True, exist_ok=True)
     seeds(args.corpus)
-    flags = [f"-max_total_time={args.seconds}", "-timeout=20", "-rss_limit_mb=3072", "-max_len=65536",
-             f"-artifact_prefix={args.findings}{os.sep}", "-print_final_stats=1", *rest, str(args.corpus)]
+    flags = [
+        f"-max_total_time={args.seconds}",
+        "-timeout=20",
+        "-rss_limit_mb=3072",
+        "-max_len=65536",
+        f"-artifact_prefix={args.findings}{os.sep}",
+        "-print_final_stats=1",
+        *rest,
+        str(args.corpus),
+    ]
     atheris.Setup([sys.argv[0], *flags], check)
     atheris.Fuzz()
 

@@ -440,8 +440,7 @@ _CHANGES: tuple[tuple[str, str, str, Callable[[dict[str, Any]], bool], str], ...
         "pm25",
         "region=east/day=2026-11-29",
         lambda rec: isinstance(rec.get("pm25"), str),
-        'stations upgraded to firmware 2.4.0 send pm25 as a string such as "12.5", '
-        'a few as "n/a"; number elsewhere',
+        'stations upgraded to firmware 2.4.0 send pm25 as a string such as "12.5", a few as "n/a"; number elsewhere',
     ),
     (
         "type-conflict",
@@ -499,8 +498,7 @@ _CHANGES: tuple[tuple[str, str, str, Callable[[dict[str, Any]], bool], str], ...
         "ingested_at",
         NIGHTLY_FILE,
         lambda rec: "ingested_at" in rec,
-        "only the nightly job writes ingested_at, a timestamp[us, UTC] of when each late "
-        "reading reached the landing",
+        "only the nightly job writes ingested_at, a timestamp[us, UTC] of when each late reading reached the landing",
     ),
 )
 
@@ -517,12 +515,7 @@ def _record_changes(scanned: Scanned) -> list[dict[str, Any]]:
     out = []
     for change, field, where, pred, note in _CHANGES:
         hit = next(
-            (
-                (rel, row)
-                for rel, records, _bad, _lines in scanned
-                for row, rec in enumerate(records)
-                if pred(rec)
-            ),
+            ((rel, row) for rel, records, _bad, _lines in scanned for row, rec in enumerate(records) if pred(rec)),
             None,
         )
         if hit is None or where not in hit[0]:
@@ -600,16 +593,12 @@ def _generate() -> tuple[dict[str, bytes], list[dict[str, Any]], list[dict[str, 
         )
     # drawn last, so adding the nightly file left every earlier file as it was
     region, day = NIGHTLY_PARTITION
-    late = _readings(
-        rng, region, day, stations[region], LATE_STATIONS, offset_minutes=LATE_OFFSET_MINUTES
-    )
+    late = _readings(rng, region, day, stations[region], LATE_STATIONS, offset_minutes=LATE_OFFSET_MINUTES)
     files[NIGHTLY_FILE] = _nightly_file(rng, late)
     # checked as a reader gets it back, native types and all
     nightly = pq.read_table(io.BytesIO(files[NIGHTLY_FILE])).to_pylist()
     scanned.append((NIGHTLY_FILE, nightly, None, False))
-    inventory.append(
-        {"path": NIGHTLY_FILE, "format": "parquet", "rows": len(nightly), "lines": None, "errors": 0}
-    )
+    inventory.append({"path": NIGHTLY_FILE, "format": "parquet", "rows": len(nightly), "lines": None, "errors": 0})
 
     changes = _record_changes(scanned)
     changes.sort(key=_sort_key)
@@ -625,9 +614,7 @@ def _prepare(root: Path) -> None:
     if root.exists() and not root.is_dir():
         raise TargetNotOursError(f"{root} exists and is not a directory")
     if root.is_dir() and any(root.iterdir()) and not (root / MARKER_NAME).is_file():
-        raise TargetNotOursError(
-            f"{root} is not empty and has no {MARKER_NAME} marker; refusing to touch it"
-        )
+        raise TargetNotOursError(f"{root} is not empty and has no {MARKER_NAME} marker; refusing to touch it")
     root.mkdir(parents=True, exist_ok=True)
     (root / MARKER_NAME).write_text(MARKER_TEXT, encoding="utf-8")
     landing = root / "landing"
@@ -686,9 +673,7 @@ def _summary(root: Path, changes: list[dict[str, Any]]) -> str:
 
 
 def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(
-        description="Write the driftline demo landing directory and its manifest."
-    )
+    parser = argparse.ArgumentParser(description="Write the driftline demo landing directory and its manifest.")
     parser.add_argument(
         "target",
         nargs="?",

@@ -83,8 +83,9 @@ class Page:
     def key(self, key: str, code: str, keycode: int, shift: bool = False) -> None:
         mods = 8 if shift else 0
         for kind in ("rawKeyDown", "keyUp"):
-            self.send("Input.dispatchKeyEvent", type=kind, key=key, code=code, windowsVirtualKeyCode=keycode,
-                      modifiers=mods)
+            self.send(
+                "Input.dispatchKeyEvent", type=kind, key=key, code=code, windowsVirtualKeyCode=keycode, modifiers=mods
+            )
 
     def screenshot(self, width: int, height: int) -> bytes:
         self.send("Emulation.setDeviceMetricsOverride", width=width, height=height, deviceScaleFactor=1, mobile=False)
@@ -102,7 +103,9 @@ class Browser:
         self.profile_dir = tempfile.mkdtemp(prefix="driftline-chromium-")
         self.proc = subprocess.Popen(
             [executable, *FLAGS, f"--user-data-dir={self.profile_dir}", "--remote-debugging-port=0", "about:blank"],
-            stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+            stdin=subprocess.DEVNULL,
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
         )
         port_file = Path(self.profile_dir) / "DevToolsActivePort"
         deadline = time.monotonic() + timeout
@@ -129,8 +132,9 @@ class Browser:
         elif msg.get("sessionId") in self.pages:
             self.pages[msg["sessionId"]].events.append(msg)
 
-    def call(self, method: str, params: dict[str, Any], session: str | None = None,
-             timeout: float = 30.0) -> dict[str, Any]:
+    def call(
+        self, method: str, params: dict[str, Any], session: str | None = None, timeout: float = 30.0
+    ) -> dict[str, Any]:
         self.next_id += 1
         mid = self.next_id
         msg: dict[str, Any] = {"id": mid, "method": method, "params": params}

@@ -39,8 +39,13 @@ def run_cli(*args: str, env: dict[str, str] | None = None, timeout: float = 300)
     src = str(Path(__file__).resolve().parents[1] / "src")
     full_env = {**os.environ, **(env or {})}
     full_env["PYTHONPATH"] = src + os.pathsep + full_env.get("PYTHONPATH", "")
-    proc = subprocess.run([sys.executable, "-c", _WRAPPER, sys.executable, "-m", "driftline.cli", *args],
-                          capture_output=True, text=True, env=full_env, timeout=timeout)
+    proc = subprocess.run(
+        [sys.executable, "-c", _WRAPPER, sys.executable, "-m", "driftline.cli", *args],
+        capture_output=True,
+        text=True,
+        env=full_env,
+        timeout=timeout,
+    )
     assert proc.returncode == 0, proc.stderr
     got = json.loads(proc.stdout)
     return Run(got["rc"], got["out"], got["err"], got["peak"])
@@ -48,5 +53,8 @@ def run_cli(*args: str, env: dict[str, str] | None = None, timeout: float = 300)
 
 def snapshot(root: Path) -> dict[str, str]:
     """Every file below root by relative path, with the BLAKE2 digest of its bytes."""
-    return {p.relative_to(root).as_posix(): hashlib.blake2b(p.read_bytes(), digest_size=16).hexdigest()
-            for p in sorted(root.rglob("*")) if p.is_file()}
+    return {
+        p.relative_to(root).as_posix(): hashlib.blake2b(p.read_bytes(), digest_size=16).hexdigest()
+        for p in sorted(root.rglob("*"))
+        if p.is_file()
+    }

@@ -84,6 +84,7 @@ def parquet_ratio_bomb(path: Path, *, values: int = 200, width: int = 100_000) -
 
 # -- compressed streams ----------------------------------------------------------------
 
+
 def jsonl_lines(n: int) -> bytes:
     return b"".join(b'{"id": %d, "v": "x%d"}\n' % (i, i) for i in range(n))
 

@@ -86,7 +86,8 @@ def test_every_public_name_comes_from_the_top_level_package():
     assert sorted(k for k in ns if k != "__builtins__") == SURFACE
     # Nothing else public sits in the package namespace except submodules (internal).
     leaked = {
-        n for n, v in vars(driftline).items()
+        n
+        for n, v in vars(driftline).items()
         if not n.startswith("_") and not inspect.ismodule(v) and not isinstance(v, __future__._Feature)
     }
     assert leaked == set(SURFACE) - {"__version__"}
@@ -95,8 +96,11 @@ def test_every_public_name_comes_from_the_top_level_package():
 
 def _check_hints(qual: str, fn: object) -> list[str]:
     sig = inspect.signature(fn)  # type: ignore[arg-type]
-    missing = [f"{qual}({p})" for p in sig.parameters.values()
-               if p.name not in ("self", "cls") and p.annotation is inspect.Parameter.empty]
+    missing = [
+        f"{qual}({p})"
+        for p in sig.parameters.values()
+        if p.name not in ("self", "cls") and p.annotation is inspect.Parameter.empty
+    ]
     if sig.return_annotation is inspect.Signature.empty and not qual.endswith("__init__"):
         missing.append(f"{qual} -> ?")
     return missing
@@ -242,8 +246,11 @@ def test_to_arrow_tables_hold_every_field_and_event(demo_profile, demo_manifest)
     assert events.num_rows == len(demo_profile.events)
     # source: the demo generator's manifest of planted changes (scripts/make_demo.py)
     rows = {(r["kind"], r["path"], r["file"], r["row"]) for r in events.to_pylist()}
-    planted = {(c["change"], c["field"], c["file"], c["row"]) for c in demo_manifest["changes"]
-               if c["change"] in driftline.drift.EVENT_KINDS}
+    planted = {
+        (c["change"], c["field"], c["file"], c["row"])
+        for c in demo_manifest["changes"]
+        if c["change"] in driftline.drift.EVENT_KINDS
+    }
     assert planted and planted <= rows
     first = events.slice(0, 1).to_pylist()[0]
     assert first["partitions"] == [{"key": k, "value": v} for k, v in demo_profile.events[0].partitions]
@@ -309,8 +316,10 @@ def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pyt
     monkeypatch.chdir(tmp_path)
     (tmp_path / "report.json").write_bytes(dumps(driftline.scan("landing/", batch_rows=50_000)))
     # Markdown fences would read as expected output: blank them, keep the line numbers.
-    text = "\n".join("" if line.startswith("```") else line
-                     for line in (ROOT / "docs" / "python.md").read_text(encoding="utf-8").splitlines())
+    text = "\n".join(
+        "" if line.startswith("```") else line
+        for line in (ROOT / "docs" / "python.md").read_text(encoding="utf-8").splitlines()
+    )
     parser = doctest.DocTestParser()
     test = parser.get_doctest(text, {}, "docs/python.md", "docs/python.md", 0)
     runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS)

@@ -46,8 +46,9 @@ def _union(mode: str) -> pa.Array:
     if mode == "dense":
         offsets = pa.array([0, 0, 1, 1, 2], pa.int32())
         return pa.UnionArray.from_dense(codes, offsets, [pa.array([1, None, 3]), pa.array(["a", "b"])], ["i", "s"])
-    return pa.UnionArray.from_sparse(codes, [pa.array([1, 9, None, 9, 5]), pa.array(["x", "a", "x", None, "x"])],
-                                     ["i", "s"])
+    return pa.UnionArray.from_sparse(
+        codes, [pa.array([1, 9, None, 9, 5]), pa.array(["x", "a", "x", None, "x"])], ["i", "s"]
+    )
 
 
 # (id, column, type key of the values, Arrow type pq.read_schema reports for it).
@@ -56,34 +57,51 @@ _TS = dt.datetime(2024, 2, 29, 12, 30)
 CASES: list[tuple[str, pa.Array, str, pa.DataType | None]] = [
     ("bool", pa.array([True, None, False, True, None]), "bool", None),
     ("null", pa.nulls(5), "null", None),
-    *[(n, pa.array([1, None, 0, 7, 100], getattr(pa, n)()), n, None)
-      for n in ("int8", "int16", "int32", "int64", "uint8", "uint16", "uint32", "uint64")],
+    *[
+        (n, pa.array([1, None, 0, 7, 100], getattr(pa, n)()), n, None)
+        for n in ("int8", "int16", "int32", "int64", "uint8", "uint16", "uint32", "uint64")
+    ],
     ("uint64-max", pa.array([2**64 - 1, None, 0, 1, 2], pa.uint64()), "uint64", None),  # source: uint64 range
     ("float16", pa.array([1.5, None, -0.0, 65504.0, 2.0], pa.float16()), "float16", None),  # source: IEEE 754 binary16
     ("float32", pa.array([1.5, None, float("nan"), 2.0, None], pa.float32()), "float32", None),
     ("float64", pa.array([1.5, None, float("inf"), 2.0, -1e308], pa.float64()), "float64", None),
-    ("decimal32", pa.array([D("1.23"), None, D("-4.00"), D("999.99"), None], pa.decimal32(5, 2)), "decimal(5,2)",
-     None),
+    ("decimal32", pa.array([D("1.23"), None, D("-4.00"), D("999.99"), None], pa.decimal32(5, 2)), "decimal(5,2)", None),
     ("decimal64", pa.array([D("1.23"), None, D("-4.00"), None, D("0")], pa.decimal64(12, 2)), "decimal(12,2)", None),
     ("decimal128", pa.array([D("1.2345"), None, D("0"), None, D("-7")], pa.decimal128(20, 4)), "decimal(20,4)", None),
-    ("decimal256", pa.array([D("1.23"), None, D("-4.00"), None, D("1" * 48)], pa.decimal256(50, 2)), "decimal(50,2)",
-     None),
+    (
+        "decimal256",
+        pa.array([D("1.23"), None, D("-4.00"), None, D("1" * 48)], pa.decimal256(50, 2)),
+        "decimal(50,2)",
+        None,
+    ),
     ("date32", pa.array([dt.date(2024, 2, 29), None, dt.date(1, 1, 1), dt.date(9999, 12, 31), None]), "date32", None),
     # source: Parquet LogicalTypes.md, DATE is days since the epoch (int32): pyarrow reads date64 back as date32
-    ("date64", pa.array([dt.date(2024, 2, 29), None, dt.date(1970, 1, 1), None, None], pa.date64()), "date32",
-     pa.date32()),
+    (
+        "date64",
+        pa.array([dt.date(2024, 2, 29), None, dt.date(1970, 1, 1), None, None], pa.date64()),
+        "date32",
+        pa.date32(),
+    ),
     # source: Parquet LogicalTypes.md, TIME units are MILLIS, MICROS, NANOS: seconds come back as ms
     ("time32-s", pa.array([1, None, 86399, 0, 5], pa.time32("s")), "time32[ms]", pa.time32("ms")),
     ("time32-ms", pa.array([1, None, 86399999, 0, 5], pa.time32("ms")), "time32[ms]", None),
     ("time64-us", pa.array([1, None, 2, 0, 5], pa.time64("us")), "time64[us]", None),
     ("time64-ns", pa.array([1, None, 2, 0, 5], pa.time64("ns")), "time64[ns]", None),
     # source: Parquet LogicalTypes.md, TIMESTAMP units are MILLIS, MICROS, NANOS: seconds come back as ms
-    *[(f"timestamp-{u}-{tz or 'local'}", pa.array([_TS, None, dt.datetime(1970, 1, 1), None, _TS], pa.timestamp(u, tz)),
-       f"timestamp[{'ms' if u == 's' else u}{', ' + tz if tz else ''}]",
-       pa.timestamp("ms", tz) if u == "s" else None)
-      for u in ("s", "ms", "us", "ns") for tz in (None, "UTC", "Europe/Paris", "+05:30")],
-    *[(f"duration-{u}", pa.array([1, None, -4, 0, 2**40], pa.duration(u)), f"duration[{u}]", None)
-      for u in ("s", "ms", "us", "ns")],
+    *[
+        (
+            f"timestamp-{u}-{tz or 'local'}",
+            pa.array([_TS, None, dt.datetime(1970, 1, 1), None, _TS], pa.timestamp(u, tz)),
+            f"timestamp[{'ms' if u == 's' else u}{', ' + tz if tz else ''}]",
+            pa.timestamp("ms", tz) if u == "s" else None,
+        )
+        for u in ("s", "ms", "us", "ns")
+        for tz in (None, "UTC", "Europe/Paris", "+05:30")
+    ],
+    *[
+        (f"duration-{u}", pa.array([1, None, -4, 0, 2**40], pa.duration(u)), f"duration[{u}]", None)
+        for u in ("s", "ms", "us", "ns")
+    ],
     ("binary", pa.array([b"ab", None, b"", b"\xff\x00", None]), "binary", None),
     ("large_binary", pa.array([b"ab", None, b"", b"\xff", None], pa.large_binary()), "binary", None),
     ("fixed_size_binary", pa.array([b"abc", None, b"\x00\x01\x02", None, b"xyz"], pa.binary(3)), "binary", None),
@@ -93,41 +111,82 @@ CASES: list[tuple[str, pa.Array, str, pa.DataType | None]] = [
     ("string_view", pa.array(["a", None, "x" * 40, "", "7"], pa.string_view()), "string", None),
     ("list", pa.array([[1, None], None, [], [3], [4, 5, 6]], pa.list_(pa.int32())), "list", None),
     ("large_list", pa.array([["a"], None, [], [None, "b"], None], pa.large_list(pa.string())), "list", None),
-    ("list_view", pa.array([[1], None, [2, 3], [], [None]], pa.list_view(pa.int64())), "list",
-     pa.list_view(pa.field("element", pa.int64()))),  # source: Parquet LogicalTypes.md, LIST's child is "element"
-    ("large_list_view", pa.array([[1], None, [2, 3], [], None], pa.large_list_view(pa.int64())), "list",
-     pa.large_list_view(pa.field("element", pa.int64()))),
+    (
+        "list_view",
+        pa.array([[1], None, [2, 3], [], [None]], pa.list_view(pa.int64())),
+        "list",
+        pa.list_view(pa.field("element", pa.int64())),
+    ),  # source: Parquet LogicalTypes.md, LIST's child is "element"
+    (
+        "large_list_view",
+        pa.array([[1], None, [2, 3], [], None], pa.large_list_view(pa.int64())),
+        "list",
+        pa.large_list_view(pa.field("element", pa.int64())),
+    ),
     ("fixed_size_list", pa.array([[1, 2], None, [3, None], [0, 0], None], pa.list_(pa.int16(), 2)), "list", None),
-    ("struct", pa.array([{"a": 1, "b": "x"}, None, {"a": None, "b": "y"}, {"a": 3, "b": None}, {"a": 4, "b": "z"}],
-                        pa.struct([("a", pa.int64()), ("b", pa.string())])), "struct", None),
-    ("map", pa.array([[("k", 1)], None, [], [("a", None), ("b", 2)], [("z", 3)]], pa.map_(pa.string(), pa.int64())),
-     "map", None),
+    (
+        "struct",
+        pa.array(
+            [{"a": 1, "b": "x"}, None, {"a": None, "b": "y"}, {"a": 3, "b": None}, {"a": 4, "b": "z"}],
+            pa.struct([("a", pa.int64()), ("b", pa.string())]),
+        ),
+        "struct",
+        None,
+    ),
+    (
+        "map",
+        pa.array([[("k", 1)], None, [], [("a", None), ("b", 2)], [("z", 3)]], pa.map_(pa.string(), pa.int64())),
+        "map",
+        None,
+    ),
     ("dictionary-string", pa.array(["a", None, "b", "a", None]).dictionary_encode(), "string", None),
     # source: pyarrow's Parquet writer keeps a dictionary of strings or binaries as one (ARROW:schema); other
     # value types come back plain
-    ("dictionary-large_string", pa.array(["a", None, "b", "a", None], pa.large_string()).dictionary_encode(),
-     "string", pa.dictionary(pa.int32(), pa.string())),
+    (
+        "dictionary-large_string",
+        pa.array(["a", None, "b", "a", None], pa.large_string()).dictionary_encode(),
+        "string",
+        pa.dictionary(pa.int32(), pa.string()),
+    ),
     ("dictionary-binary", pa.array([b"a", None, b"b", b"a", None]).dictionary_encode(), "binary", None),
-    *[(f"dictionary-{n}", arr.dictionary_encode(), key, arr.type) for n, arr, key in (
-        ("int64", pa.array([5, None, 5, 7, 7]), "int64"),
-        ("float64", pa.array([1.5, None, 1.5, 2.0, None]), "float64"),
-        ("bool", pa.array([True, None, True, False, None]), "bool"),
-        ("decimal128", pa.array([D("1.5"), None, D("1.5"), D("2.5"), None]), "decimal(2,1)"),
-        ("date32", pa.array([dt.date(2020, 1, 1), None, dt.date(2020, 1, 1), None, None]), "date32"),
-        ("timestamp-us", pa.array([_TS, None, _TS, None, _TS], pa.timestamp("us")), "timestamp[us]"),
-        ("fixed_size_binary", pa.array([b"ab", None, b"ab", b"cd", None], pa.binary(2)), "binary"),
-    )],
+    *[
+        (f"dictionary-{n}", arr.dictionary_encode(), key, arr.type)
+        for n, arr, key in (
+            ("int64", pa.array([5, None, 5, 7, 7]), "int64"),
+            ("float64", pa.array([1.5, None, 1.5, 2.0, None]), "float64"),
+            ("bool", pa.array([True, None, True, False, None]), "bool"),
+            ("decimal128", pa.array([D("1.5"), None, D("1.5"), D("2.5"), None]), "decimal(2,1)"),
+            ("date32", pa.array([dt.date(2020, 1, 1), None, dt.date(2020, 1, 1), None, None]), "date32"),
+            ("timestamp-us", pa.array([_TS, None, _TS, None, _TS], pa.timestamp("us")), "timestamp[us]"),
+            ("fixed_size_binary", pa.array([b"ab", None, b"ab", b"cd", None], pa.binary(2)), "binary"),
+        )
+    ],
     # source: pyarrow writes a dictionary of durations as its int64 storage, without the ARROW:schema hint
-    ("dictionary-duration", pa.array([1, None, 1, 3, None], pa.duration("ms")).dictionary_encode(), "int64",
-     pa.int64()),
+    (
+        "dictionary-duration",
+        pa.array([1, None, 1, 3, None], pa.duration("ms")).dictionary_encode(),
+        "int64",
+        pa.int64(),
+    ),
     # Canonical extension types (Arrow format, canonical extensions): their storage, bool8 as a boolean.
     ("json", _ext(pa.json_(), pa.array(['{"a": 1}', None, "[1, 2]", "2", "null"])), "string", None),
     ("uuid", _ext(pa.uuid(), pa.array([U1.bytes, None, U2.bytes, None, U1.bytes], pa.binary(16))), "binary", None),
     ("bool8", _ext(pa.bool8(), pa.array([1, None, 0, -3, None], pa.int8())), "bool", None),
-    ("fixed_shape_tensor", _ext(pa.fixed_shape_tensor(pa.int32(), [2]),
-                                pa.array([[1, 2], None, [3, 4], [5, 6], None], pa.list_(pa.int32(), 2))), "list", None),
-    ("opaque", _ext(pa.opaque(pa.binary(), "geometry", "postgis"), pa.array([b"\x01", None, b"", b"\x02", None])),
-     "binary", None),
+    (
+        "fixed_shape_tensor",
+        _ext(
+            pa.fixed_shape_tensor(pa.int32(), [2]),
+            pa.array([[1, 2], None, [3, 4], [5, 6], None], pa.list_(pa.int32(), 2)),
+        ),
+        "list",
+        None,
+    ),
+    (
+        "opaque",
+        _ext(pa.opaque(pa.binary(), "geometry", "postgis"), pa.array([b"\x01", None, b"", b"\x02", None])),
+        "binary",
+        None,
+    ),
 ]
 
 # Types Parquet cannot hold (pyarrow 26 refuses to write them): observed from Arrow data.
@@ -135,10 +194,18 @@ IN_MEMORY: list[tuple[str, pa.Array, dict[str, int], int]] = [  # id, column, ty
     ("run_end_encoded", pa.RunEndEncodedArray.from_arrays([2, 3, 5], pa.array([7, None, 8])), {"int64": 4}, 1),
     ("dense_union", _union("dense"), {"int64": 2, "string": 2}, 1),
     ("sparse_union", _union("sparse"), {"int64": 2, "string": 1}, 2),
-    ("dictionary-string_view", pa.array(["a", None, "a", "b", None], pa.string_view()).dictionary_encode(),
-     {"string": 3}, 2),
-    ("dictionary-binary_view", pa.array([b"a", None, b"a", b"b", None], pa.binary_view()).dictionary_encode(),
-     {"binary": 3}, 2),
+    (
+        "dictionary-string_view",
+        pa.array(["a", None, "a", "b", None], pa.string_view()).dictionary_encode(),
+        {"string": 3},
+        2,
+    ),
+    (
+        "dictionary-binary_view",
+        pa.array([b"a", None, b"a", b"b", None], pa.binary_view()).dictionary_encode(),
+        {"binary": 3},
+        2,
+    ),
 ]
 NEIGHBOUR = pa.array([10, 20, None, 40, 50], pa.int64())
 
@@ -182,8 +249,9 @@ def _write(tmp_path: Path, name: str, arr: pa.Array) -> Path:
 
 
 @pytest.mark.parametrize(("name", "arr", "key", "read_type"), CASES, ids=[c[0] for c in CASES])
-def test_each_parquet_type_is_observed_as_pyarrow_reads_it(tmp_path: Path, name: str, arr: pa.Array, key: str,
-                                                           read_type: pa.DataType | None) -> None:
+def test_each_parquet_type_is_observed_as_pyarrow_reads_it(
+    tmp_path: Path, name: str, arr: pa.Array, key: str, read_type: pa.DataType | None
+) -> None:
     folder = _write(tmp_path, name, arr)
     schema = pq.read_schema(folder / "part.parquet")
     assert schema.field("col").type == (read_type or arr.type)
@@ -208,8 +276,9 @@ def test_each_parquet_type_is_observed_as_pyarrow_reads_it(tmp_path: Path, name:
 
 
 @pytest.mark.parametrize(("name", "arr", "types", "nulls"), IN_MEMORY, ids=[c[0] for c in IN_MEMORY])
-def test_arrow_types_parquet_cannot_hold_are_observed(name: str, arr: pa.Array, types: dict[str, int],
-                                                      nulls: int) -> None:
+def test_arrow_types_parquet_cannot_hold_are_observed(
+    name: str, arr: pa.Array, types: dict[str, int], nulls: int
+) -> None:
     with pytest.raises(pa.ArrowNotImplementedError):  # source: pyarrow 26 Parquet writer
         pq.write_table(pa.table({"col": arr}), pa.BufferOutputStream())
     obs = observe_table(pa.table({"col": arr, "n": NEIGHBOUR}), file="mem", batch=0, row_start=0)
@@ -279,15 +348,21 @@ def _landing(tmp_path: Path) -> Path:
     root = tmp_path / "land"
     root.mkdir()
     for i in range(2):
-        table = pa.table({"d": pa.array([1, None, 3, 4, None], pa.duration("ns")), "n": NEIGHBOUR,
-                          "t": pa.array([1, 2, None, 4, 5], pa.time64("us"))})
+        table = pa.table(
+            {
+                "d": pa.array([1, None, 3, 4, None], pa.duration("ns")),
+                "n": NEIGHBOUR,
+                "t": pa.array([1, 2, None, 4, 5], pa.time64("us")),
+            }
+        )
         pq.write_table(table, root / f"part-{i}.parquet", row_group_size=2)
     return root
 
 
 @pytest.mark.parametrize("jobs", [1, 2])
-def test_the_reader_reports_each_unsupported_column_once_per_file(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
-                                                                  jobs: int) -> None:
+def test_the_reader_reports_each_unsupported_column_once_per_file(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, jobs: int
+) -> None:
     # No type a Parquet file holds is unsupported any more, so two are made so here: durations
     # as if they had no driftline type, and times as if pyarrow had no min_max kernel for them.
     real_reason, real_min_max = columnar.unsupported_reason, columnar._min_max
@@ -305,13 +380,19 @@ def test_the_reader_reports_each_unsupported_column_once_per_file(tmp_path: Path
     monkeypatch.setattr(columnar, "unsupported_reason", reason)
     monkeypatch.setattr(columnar, "_min_max", min_max)
     profile = driftline.scan(_landing(tmp_path), batch_rows=2, jobs=jobs)
-    assert [(f.rel, f.rows, f.complete) for f in profile.files] == [("part-0.parquet", 5, True),
-                                                                    ("part-1.parquet", 5, True)]
+    assert [(f.rel, f.rows, f.complete) for f in profile.files] == [
+        ("part-0.parquet", 5, True),
+        ("part-1.parquet", 5, True),
+    ]
     assert [(i.file, i.kind, i.severity, i.row, i.message) for i in profile.issues] == [
-        (f"part-{k}.parquet", "unsupported-type", "warning", 0, msg) for k in range(2) for msg in (
+        (f"part-{k}.parquet", "unsupported-type", "warning", 0, msg)
+        for k in range(2)
+        for msg in (
             "column 'd' not profiled: made unsupported by the test; the other columns are",
             "column 't' not profiled: pyarrow cannot compute its statistics (Function 'min_max' has no kernel "
-            "matching input types (time64[us])); the other columns are")]
+            "matching input types (time64[us])); the other columns are",
+        )
+    ]
     assert list(profile.fields) == ["n"]
     # the report carries them as it carries every file problem (source: docs/report.schema.json)
     schema = json.loads((Path(__file__).parent.parent / "docs" / "report.schema.json").read_text())
@@ -327,8 +408,16 @@ def _cli(*args: str | Path) -> int:
     return res.exit_code
 
 
-@pytest.mark.parametrize(("name", "arrow"), [("json", "string"), ("uuid", "binary"), ("duration-ns", "duration[ns]"),
-                                             ("duration-s", "duration[s]"), ("bool8", "bool")])
+@pytest.mark.parametrize(
+    ("name", "arrow"),
+    [
+        ("json", "string"),
+        ("uuid", "binary"),
+        ("duration-ns", "duration[ns]"),
+        ("duration-s", "duration[s]"),
+        ("bool8", "bool"),
+    ],
+)
 def test_check_passes_the_data_the_schema_was_written_for(tmp_path: Path, name: str, arrow: str) -> None:
     case = next(c for c in CASES if c[0] == name)
     folder = _write(tmp_path, name, case[1])
@@ -355,8 +444,11 @@ def _as_plain(arr: pa.Array) -> pa.Array:
     if pa.types.is_dictionary(arr.type):
         return _as_plain(arr.dictionary_decode())
     if isinstance(arr.type, pa.Bool8Type):
-        return pa.array(arr.to_numpy(zero_copy_only=False), pa.bool_()) if arr.null_count == 0 else \
-            pa.array([None if v is None else bool(v) for v in arr.storage.to_pylist()], pa.bool_())
+        return (
+            pa.array(arr.to_numpy(zero_copy_only=False), pa.bool_())
+            if arr.null_count == 0
+            else pa.array([None if v is None else bool(v) for v in arr.storage.to_pylist()], pa.bool_())
+        )
     return arr.storage if isinstance(arr.type, pa.BaseExtensionType) else arr
 
 
@@ -416,8 +508,10 @@ def test_every_schema_format_names_each_type_or_says_what_stands_in(every_type: 
         warnings.simplefilter("ignore", avro.errors.IgnoredLogicalType)
         avro.schema.parse(json.dumps(avro_schema(rec, name="every")))
     assert fields["duration-ms"]["type"] == ["null", "long"]
-    assert fields["duration-ms"]["doc"].endswith("duration[ms] as a long count of milliseconds (Avro's duration "
-                                                 "logical type counts months, days and milliseconds)")
+    assert fields["duration-ms"]["doc"].endswith(
+        "duration[ms] as a long count of milliseconds (Avro's duration "
+        "logical type counts months, days and milliseconds)"
+    )
     # Arrow: the IPC message reads back equal (source: pyarrow.ipc.read_schema)
     assert arrow_schema.read_ipc(arrow_schema.ipc_bytes(rec)).equals(rec.arrow_schema(), check_metadata=True)
     # SQL: DuckDB creates and loads it, with as many NULLs per column as pyarrow counts
@@ -426,8 +520,10 @@ def test_every_schema_format_names_each_type_or_says_what_stands_in(every_type: 
     assert '"decimal256" VARCHAR(53),  -- decimal(50,2) as text: wider than DECIMAL(38)' in ddl
     con = duckdb.connect()
     _load(con, rec, every_type, "t")
-    nulls = {c.name: con.execute(f'SELECT count(*) FROM "t" WHERE {sql.quote(c.name)} IS NULL').fetchone()[0]
-             for c in sql.columns(rec)}
+    nulls = {
+        c.name: con.execute(f'SELECT count(*) FROM "t" WHERE {sql.quote(c.name)} IS NULL').fetchone()[0]
+        for c in sql.columns(rec)
+    }
     # a struct's fields are columns of their own, null where the struct is (source: StructArray.flatten)
     flat = table.flatten()
     assert nulls == {n: flat.column(n).null_count for n in flat.column_names}  # source: pyarrow null_count

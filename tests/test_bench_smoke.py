@@ -81,14 +81,30 @@ def test_table_and_targets(results: dict) -> None:
 def test_dask_engine_line(tmp_path: Path) -> None:
     out = tmp_path / "engines.json"
     proc = subprocess.run(
-        [sys.executable, str(BENCH), "--dask", "--quick", "--scale", "0.01", "--jobs", "2",
-         "--data-dir", str(tmp_path / "data"), "--out", str(out)],
-        capture_output=True, text=True, timeout=240,
+        [
+            sys.executable,
+            str(BENCH),
+            "--dask",
+            "--quick",
+            "--scale",
+            "0.01",
+            "--jobs",
+            "2",
+            "--data-dir",
+            str(tmp_path / "data"),
+            "--out",
+            str(out),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=240,
     )
     assert proc.returncode == 0, proc.stderr
     rows = json.loads(out.read_text())["engines"]
     assert [(r["tool"], r["dataset"], r["jobs"], r["ok"]) for r in rows] == [
-        ("driftline", "parquet", 2, True), ("driftline-dask", "parquet", 2, True)]
+        ("driftline", "parquet", 2, True),
+        ("driftline-dask", "parquet", 2, True),
+    ]
     assert "--engine dask, 2 local workers" in proc.stdout
 
 
@@ -96,16 +112,33 @@ def test_against_a_revision_interleaves_both_versions(tmp_path: Path) -> None:
     # HEAD's src/ (extracted with git archive) against the working tree, pyarrow as the yardstick
     out = tmp_path / "against.json"
     proc = subprocess.run(
-        [sys.executable, str(BENCH), "--against", "HEAD", "--quick", "--scale", "0.01", "--jobs", "2",
-         "--data-dir", str(tmp_path / "data"), "--out", str(out)],
-        capture_output=True, text=True, timeout=300,
+        [
+            sys.executable,
+            str(BENCH),
+            "--against",
+            "HEAD",
+            "--quick",
+            "--scale",
+            "0.01",
+            "--jobs",
+            "2",
+            "--data-dir",
+            str(tmp_path / "data"),
+            "--out",
+            str(out),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=300,
     )
     assert proc.returncode == 0, proc.stderr
     got = json.loads(out.read_text())["against"]
     assert got["revision"] == "HEAD"
     rows = sorted((r["dataset"], r["tool"], r["jobs"], r["version"], r["ok"]) for r in got["rows"])
-    want = sorted([(d, "pyarrow", None, "pyarrow", True) for d in DATASETS]
-                  + [(d, "driftline", j, v, True) for d in DATASETS for j in (1, 2) for v in ("HEAD", "working tree")])
+    want = sorted(
+        [(d, "pyarrow", None, "pyarrow", True) for d in DATASETS]
+        + [(d, "driftline", j, v, True) for d in DATASETS for j in (1, 2) for v in ("HEAD", "working tree")]
+    )
     assert rows == want
     # the drifting file's yardstick is pyarrow's read of the clean one, which succeeds
     lines = proc.stdout.splitlines()

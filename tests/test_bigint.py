@@ -142,8 +142,13 @@ def test_cli_scan_shows_the_type_and_leaves_inputs_alone(tmp_path: Path):
     _write(data / "a.jsonl", [{"id": 10**29 + i} for i in range(3)])
     before = hashlib.sha256((data / "a.jsonl").read_bytes()).hexdigest()
     env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path), COLUMNS="200")
-    res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(data), "--json", str(tmp_path / "r.json")],
-                         capture_output=True, text=True, env=env, timeout=120)
+    res = subprocess.run(
+        [sys.executable, "-m", "driftline.cli", "scan", str(data), "--json", str(tmp_path / "r.json")],
+        capture_output=True,
+        text=True,
+        env=env,
+        timeout=120,
+    )
     assert res.returncode == 0, res.stderr
     assert "decimal(30,0)" in res.stdout and "float64" not in res.stdout and "e+29" not in res.stdout
     report = jsonnum.loads((tmp_path / "r.json").read_bytes())

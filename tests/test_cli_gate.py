@@ -54,8 +54,13 @@ def _day(land: Path, n: int) -> Path:
         seq: Any = 1000 * n + i
         if n == 3 and i == 17:
             seq = "17b"  # an int → string change in one file
-        rec = {"device": f"dev-{i % 3:02d}", "seq": seq, "temp": temp, "at": f"{day}T{i % 24:02d}:00:00Z",
-               "battery": {"level": 100 - i}}
+        rec = {
+            "device": f"dev-{i % 3:02d}",
+            "seq": seq,
+            "temp": temp,
+            "at": f"{day}T{i % 24:02d}:00:00Z",
+            "battery": {"level": 100 - i},
+        }
         lines.append(json.dumps(rec))
     return write_lines(land / f"day={day}" / "part-0.jsonl", lines)
 
@@ -66,8 +71,13 @@ def pipeline(tmp_path: Path) -> dict[str, Path]:
     _day(land, 1)
     gate = tmp_path / "gate.toml"
     gate.write_text('# this team wants to hear about widenings\nwidening = "warn"\n', encoding="utf-8")
-    return {"land": land, "contract": tmp_path / "contract.schema.json", "gate": gate,
-            "state": tmp_path / ".driftline-state", "dir": tmp_path}
+    return {
+        "land": land,
+        "contract": tmp_path / "contract.schema.json",
+        "gate": gate,
+        "state": tmp_path / ".driftline-state",
+        "dir": tmp_path,
+    }
 
 
 def _write_contract(p: dict[str, Path]) -> None:
@@ -152,6 +162,7 @@ def test_a_damaged_state_is_set_aside_with_a_note_and_everything_is_read(pipelin
     base = ("check", pipeline["land"], "--baseline", pipeline["contract"], "--state", pipeline["state"])
     res = invoke(*base, "--json", "-", "--quiet")
     assert res.returncode == 0, res.stderr
+
     def bare(text: str) -> str:  # the terminal wraps long lines anywhere
         return "".join(text.split())
 
@@ -172,8 +183,10 @@ def test_usage_errors_exit_2(pipeline: dict[str, Path]):
     cases = [
         (("check", land, "--baseline", pipeline["dir"] / "missing.json"), "cannot read baseline"),
         (("check", land, "--baseline", contract, "--verify"), "--verify and --rebuild work on a state file"),
-        (("check", land, "--baseline", contract, "--json", "-", "--junit", "-"),
-         "--json and --junit both write to standard output"),
+        (
+            ("check", land, "--baseline", contract, "--json", "-", "--junit", "-"),
+            "--json and --junit both write to standard output",
+        ),
         (("check", pipeline["dir"] / "nope", "--baseline", contract), "does not exist"),
         (("diff", land), "diff takes two sides"),
         (("diff", land, "--by", "region"), "no partition key 'region'"),
@@ -208,7 +221,7 @@ def test_diff_a_report_against_a_partition_and_by_day(pipeline: dict[str, Path],
     _day(land, 3)
     res = invoke("diff", tmp_path / "yesterday.json", land / "day=2026-11-30")
     assert res.returncode == 0, res.stderr
-    assert "type-changed   seq: int64 → union<int64 | string>  (at part-0.jsonl row 17, e.g. \"17b\")" in res.stdout
+    assert 'type-changed   seq: int64 → union<int64 | string>  (at part-0.jsonl row 17, e.g. "17b")' in res.stdout
 
     res = invoke("diff", land, "--by", "day", "--json", "-")
     assert res.returncode == 0, res.stderr
@@ -234,7 +247,8 @@ def test_check_a_saved_report(pipeline: dict[str, Path], tmp_path: Path):
     doc = json.loads(res.stdout)
     assert (doc["counts"]["files_read"], doc["counts"]["files_reused"]) == (0, 2)
     assert [(v["rule"], v["field"], v["row"], v["example"]) for v in doc["violations"]] == [
-        ("type_change", "seq", 17, '"17b"')]
+        ("type_change", "seq", 17, '"17b"')
+    ]
     res = invoke("check", tmp_path / "r.json", "--baseline", pipeline["contract"], "--state", tmp_path / ".s")
     assert res.returncode == 2 and "give data paths, not a saved report" in res.stderr
 

@@ -16,9 +16,11 @@ import pytest
 from jsonschema import Draft202012Validator
 
 EXE = [sys.executable, "-m", "driftline.cli"]
-PM25_LINE = ("pm25: parse_float → float64; 122 strings and 599 CSV cells, 6 would become null (null tokens) "
-             "('n/a' at readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 185, "
-             "'n/a' at readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 250, …)")
+PM25_LINE = (
+    "pm25: parse_float → float64; 122 strings and 599 CSV cells, 6 would become null (null tokens) "
+    "('n/a' at readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 185, "
+    "'n/a' at readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 250, …)"
+)
 
 
 def run(*args: str) -> subprocess.CompletedProcess[str]:
@@ -42,8 +44,9 @@ def test_terminal_shows_the_schema_and_each_rule_with_its_loss(report: Path):
     assert PM25_LINE in out
     assert "    does: parses decimal strings as float64; null tokens ('n/a', 'null', '-', ...) become null" in out
     assert "    why:  715 of 721 strings parse as float64" in out
-    assert ("ts: parse_timestamp → timestamp[us, UTC]; 3,960 strings and 599 CSV cells, "
-            "1,117 local times read as UTC") in out
+    assert (
+        "ts: parse_timestamp → timestamp[us, UTC]; 3,960 strings and 599 CSV cells, 1,117 local times read as UTC"
+    ) in out
 
 
 def test_each_format_passes_its_reference_reader(report: Path, tmp_path: Path):
@@ -79,8 +82,11 @@ def test_rules_to_stdout_and_options_from_a_config_file(report: Path, tmp_path: 
     assert res.returncode == 0, res.stderr
     doc = json.loads(res.stdout)
     assert doc["format"] == "driftline-rules"
-    assert (doc["options"]["prefer_decimal"], doc["options"]["timestamp_unit"], doc["options"]["timestamp_zone"]) == \
-        (True, "ms", "+01:00")
+    assert (doc["options"]["prefer_decimal"], doc["options"]["timestamp_unit"], doc["options"]["timestamp_zone"]) == (
+        True,
+        "ms",
+        "+01:00",
+    )
     voltage = next(f for f in doc["fields"] if f["path"] == "battery_voltage")
     assert (voltage["rule"], voltage["target"]) == ("parse_decimal", "decimal(3,2)")
 
@@ -89,18 +95,26 @@ def test_strict_mode_exits_1_and_lists_the_conflicts(report: Path, tmp_path: Pat
     out = tmp_path / "s.json"
     res = run("schema", str(report), "--strict", "--to", "json-schema", "--out", str(out), "-q")
     assert res.returncode == 1
-    assert "SchemaConflictError: strict mode: 2 fields need a lossy or conflicting cast rule: " \
-           "tags (wrap_scalar_in_list), ts (parse_timestamp)" in res.stderr
+    assert (
+        "SchemaConflictError: strict mode: 2 fields need a lossy or conflicting cast rule: "
+        "tags (wrap_scalar_in_list), ts (parse_timestamp)" in res.stderr
+    )
     assert "  tags: wrap_scalar_in_list → list<string>; 6 strings and 510 CSV cells, 516 would change" in res.stderr
     assert not out.exists()
 
 
-@pytest.mark.parametrize(("args", "message"), [
-    (["--to", "xml"], "PolicyError: unknown --to 'xml'; choose one of json-schema, arrow, arrow-text, sql, avro"),
-    (["--to", "sql", "--out", "/nonexistent-folder/x.sql"], "OutputError: cannot write '/nonexistent-folder/x.sql'"),
-    (["--timestamp-unit", "m"], "PolicyError: timestamp_unit must be one of s, ms, us, ns; got 'm'"),
-    (["--json-mode", "loose"], "PolicyError: unknown --json-mode 'loose'"),
-])
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["--to", "xml"], "PolicyError: unknown --to 'xml'; choose one of json-schema, arrow, arrow-text, sql, avro"),
+        (
+            ["--to", "sql", "--out", "/nonexistent-folder/x.sql"],
+            "OutputError: cannot write '/nonexistent-folder/x.sql'",
+        ),
+        (["--timestamp-unit", "m"], "PolicyError: timestamp_unit must be one of s, ms, us, ns; got 'm'"),
+        (["--json-mode", "loose"], "PolicyError: unknown --json-mode 'loose'"),
+    ],
+)
 def test_bad_options_exit_2_with_a_clear_message(report: Path, args: list[str], message: str):
     res = run("schema", str(report), *args)
     assert res.returncode == 2

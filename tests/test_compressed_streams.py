@@ -67,8 +67,13 @@ CASES = [
     # bzip2: concatenated streams; bzip2 -t exits 0 on trailing garbage, with a warning
     ("bz2-one", "bz2", bz2.compress(HEAD), "ok", 2),
     ("bz2-streams", "bz2", bz2.compress(HEAD) + bz2.compress(MORE), "ok", 4),
-    ("bz2-big-streams", "bz2", bz2.compress(b"a,b\n" + BIG[0]) + bz2.compress(BIG[1]) + bz2.compress(BIG[2]),
-     "ok", 120_000),
+    (
+        "bz2-big-streams",
+        "bz2",
+        bz2.compress(b"a,b\n" + BIG[0]) + bz2.compress(BIG[1]) + bz2.compress(BIG[2]),
+        "ok",
+        120_000,
+    ),
     ("bz2-garbage", "bz2", bz2.compress(HEAD) + b"garbage", "warn", 2),  # "trailing garbage after EOF ignored"
     ("bz2-zeros", "bz2", bz2.compress(HEAD) + bytes(8), "warn", 2),
     ("bz2-not-a-block-size", "bz2", bz2.compress(HEAD) + b"BZh0xxxx", "warn", 2),
@@ -81,8 +86,18 @@ CASES = [
     ("xz-streams", "xz", lzma.compress(HEAD) + lzma.compress(MORE), "ok", 4),
     ("xz-padding", "xz", lzma.compress(HEAD) + bytes(4), "ok", 2),
     ("xz-padding-between-and-after", "xz", lzma.compress(HEAD) + bytes(8) + lzma.compress(MORE) + bytes(12), "ok", 4),
-    ("xz-big-padded", "xz", lzma.compress(b"a,b\n" + BIG[0]) + bytes(65_536 - 4) + lzma.compress(BIG[1])
-     + bytes(4) + lzma.compress(BIG[2]) + bytes(512), "ok", 120_000),
+    (
+        "xz-big-padded",
+        "xz",
+        lzma.compress(b"a,b\n" + BIG[0])
+        + bytes(65_536 - 4)
+        + lzma.compress(BIG[1])
+        + bytes(4)
+        + lzma.compress(BIG[2])
+        + bytes(512),
+        "ok",
+        120_000,
+    ),
     ("xz-padding-3", "xz", lzma.compress(HEAD) + bytes(3), "error", 2),
     ("xz-padding-6", "xz", lzma.compress(HEAD) + bytes(6), "error", 2),
     ("xz-garbage", "xz", lzma.compress(HEAD) + b"garb", "error", 2),
@@ -93,8 +108,13 @@ CASES = [
     ("zst-one", "zst", zst(HEAD), "ok", 2),
     ("zst-frames", "zst", zst(HEAD) + zst(MORE), "ok", 4),
     ("zst-skippable", "zst", skippable(b"abcd") + zst(HEAD) + skippable(b"xy", 0xE) + zst(MORE), "ok", 4),
-    ("zst-big-frames", "zst", zst(b"a,b\n" + BIG[0]) + skippable(bytes(70_000)) + zst(BIG[1]) + zst(BIG[2]),
-     "ok", 120_000),
+    (
+        "zst-big-frames",
+        "zst",
+        zst(b"a,b\n" + BIG[0]) + skippable(bytes(70_000)) + zst(BIG[1]) + zst(BIG[2]),
+        "ok",
+        120_000,
+    ),
     ("zst-zeros", "zst", zst(HEAD) + bytes(4), "error", 2),  # "unsupported format"
     ("zst-garbage", "zst", zst(HEAD) + b"garbage", "error", 2),
     ("zst-cut-skippable", "zst", zst(HEAD) + skippable(b"abcd")[:-2], "error", 2),
@@ -155,9 +175,11 @@ def test_the_reference_tool_gives_the_same_verdict_and_rows(tmp_path, name, suff
     assert max(out.count(b"\n") - 1, 0) == (rows[1] if isinstance(rows, tuple) else rows), f"source: `{tool} -dc`"
 
 
-@pytest.mark.parametrize(("name", "suffix", "data", "verdict", "rows"),
-                         [c for c in CASES if c[3] == "ok" and c[1] != "zst"], ids=[c[0] for c in CASES
-                                                                                    if c[3] == "ok" and c[1] != "zst"])
+@pytest.mark.parametrize(
+    ("name", "suffix", "data", "verdict", "rows"),
+    [c for c in CASES if c[3] == "ok" and c[1] != "zst"],
+    ids=[c[0] for c in CASES if c[3] == "ok" and c[1] != "zst"],
+)
 def test_pythons_modules_decode_the_accepted_files_alike(tmp_path, name, suffix, data, verdict, rows):
     # source: CPython's gzip, bz2 and lzma modules, a second reference for the files all accept.
     # (They part from the tools elsewhere: lzma rejects Stream Padding, see below, and
@@ -188,8 +210,10 @@ def test_the_warning_names_the_ignored_bytes(tmp_path):
     res = read_file(discover([str(path)]).files[0], ReadOptions())
     (issue,) = res.issues
     assert (issue.kind, issue.severity) == ("trailing-data", "warning")
-    assert issue.message == (f"7 bytes from byte {len(member)} on are not a gzip member: ignored, as `gzip -t` "
-                             "ignores trailing garbage; the data before them is complete")
+    assert issue.message == (
+        f"7 bytes from byte {len(member)} on are not a gzip member: ignored, as `gzip -t` "
+        "ignores trailing garbage; the data before them is complete"
+    )
 
 
 def test_a_padding_error_names_its_length_and_offset(tmp_path):
@@ -199,5 +223,7 @@ def test_a_padding_error_names_its_length_and_offset(tmp_path):
     res = read_file(discover([str(path)]).files[0], ReadOptions())
     (issue,) = res.issues
     assert (issue.kind, issue.severity, res.rows) == ("corrupt", "error", 2)
-    assert issue.message == (f"xz stream padding of 6 null bytes at byte {len(stream)} is not a multiple of four "
-                             "(.xz file format, section 2.2); xz -t rejects it; rows before it were profiled")
+    assert issue.message == (
+        f"xz stream padding of 6 null bytes at byte {len(stream)} is not a multiple of four "
+        "(.xz file format, section 2.2); xz -t rejects it; rows before it were profiled"
+    )

@@ -21,8 +21,9 @@ from driftline.sources.csvsplit import Span, assemble, plan, read_span
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_file
 
-SETTINGS = settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow,
-                                                                           HealthCheck.function_scoped_fixture])
+SETTINGS = settings(
+    max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture]
+)
 
 
 def ref_of(path: Path) -> FileRef:
@@ -38,11 +39,12 @@ def spans_at(ref: FileRef, opts: ReadOptions, cuts: list[int]) -> list[Span] | N
     starts = [head.header.size, *sorted({c for c in cuts if head.header.size < c < ref.size})]
     out = []
     for k, start in enumerate(starts):
-        before = data[head.header.size:start]
+        before = data[head.header.size : start]
         rows = sum(1 for i, b in enumerate(before) if b == 10 and before[:i].count(b'"') % 2 == 0)
         line = head.header.lines + 1 if k == 0 else 1 + data[:start].count(b"\n")
-        out.append(Span(ref, head, start, starts[k + 1] if k + 1 < len(starts) else None, line, rows,
-                        rows // opts.batch_rows))
+        out.append(
+            Span(ref, head, start, starts[k + 1] if k + 1 < len(starts) else None, line, rows, rows // opts.batch_rows)
+        )
     return out
 
 
@@ -69,10 +71,15 @@ def _body(pieces: list[str]) -> bytes:
 
 
 @SETTINGS
-@given(st.lists(st.sampled_from(_PIECES), max_size=60), st.sets(st.integers(0, 200), max_size=6),
-       st.integers(1, 3), st.booleans())
-def test_arbitrary_cuts_join_only_when_one_reader_agrees(tmp_path_factory: pytest.TempPathFactory, pieces: list[str],
-                                                         cuts: set[int], batch_rows: int, crlf_header: bool) -> None:
+@given(
+    st.lists(st.sampled_from(_PIECES), max_size=60),
+    st.sets(st.integers(0, 200), max_size=6),
+    st.integers(1, 3),
+    st.booleans(),
+)
+def test_arbitrary_cuts_join_only_when_one_reader_agrees(
+    tmp_path_factory: pytest.TempPathFactory, pieces: list[str], cuts: set[int], batch_rows: int, crlf_header: bool
+) -> None:
     path = tmp_path_factory.mktemp("c") / "f.csv"
     header = b"a,b\r\n" if crlf_header else b"a,b\n"
     path.write_bytes(header + _body(pieces))
@@ -87,8 +94,22 @@ def test_arbitrary_cuts_join_only_when_one_reader_agrees(tmp_path_factory: pytes
 # Cells as a CSV writer makes them (RFC 4180 section 2: quoted fields with commas, doubled
 # quotes, line breaks), and what writers get wrong: a quote inside an unquoted field, a
 # quote never closed, a blank line, a CR alone, a ragged row, bytes that are not UTF-8.
-_CELLS = ["x", "7", "", "é", '"a,b"', '"say ""hi"""', '"line\nbreak"', '"crlf\r\nin"', '"two\n\nlines"', '""',
-          'x"y', '"open', "\udcff", "a\rb"]
+_CELLS = [
+    "x",
+    "7",
+    "",
+    "é",
+    '"a,b"',
+    '"say ""hi"""',
+    '"line\nbreak"',
+    '"crlf\r\nin"',
+    '"two\n\nlines"',
+    '""',
+    'x"y',
+    '"open',
+    "\udcff",
+    "a\rb",
+]
 _ENDS = ["\n", "\n", "\n", "\r\n", "\r", "\n\n", ""]
 
 
@@ -108,10 +129,21 @@ HEADERS = [(b"a,b\n", 2), (b"a,b\r\n", 2), (b'"a","b\nc"\n', 2), (b"a\n", 1), (b
 
 
 @SETTINGS
-@given(st.data(), st.sampled_from(HEADERS), st.sets(st.integers(0, 200), max_size=6), st.integers(1, 3),
-       st.sampled_from([12, 1000, 1000]))
-def test_cuts_between_written_rows(tmp_path_factory: pytest.TempPathFactory, data: st.DataObject,
-                                   header: tuple[bytes, int], cuts: set[int], batch_rows: int, limit: int) -> None:
+@given(
+    st.data(),
+    st.sampled_from(HEADERS),
+    st.sets(st.integers(0, 200), max_size=6),
+    st.integers(1, 3),
+    st.sampled_from([12, 1000, 1000]),
+)
+def test_cuts_between_written_rows(
+    tmp_path_factory: pytest.TempPathFactory,
+    data: st.DataObject,
+    header: tuple[bytes, int],
+    cuts: set[int],
+    batch_rows: int,
+    limit: int,
+) -> None:
     path = tmp_path_factory.mktemp("c") / "f.csv"
     path.write_bytes(header[0] + data.draw(csv_body(header[1])))
     ref = ref_of(path)
@@ -127,8 +159,11 @@ def _rows(rng: random.Random, n: int, odd: float) -> list[str]:
     probability `odd` a row that one of the checks has to catch."""
     out = []
     for i in range(n):
-        cells = [str(i), rng.choice(["1.5", "-3", "2026-02-28", "true", "n/a", ""]),
-                 rng.choice(["plain", '"a,b"', '"line\nbreak"', '"say ""hi"""', '"two\n\nlines"', "déjà"])]
+        cells = [
+            str(i),
+            rng.choice(["1.5", "-3", "2026-02-28", "true", "n/a", ""]),
+            rng.choice(["plain", '"a,b"', '"line\nbreak"', '"say ""hi"""', '"two\n\nlines"', "déjà"]),
+        ]
         if rng.random() < odd:
             cells[2] = rng.choice(['x"y', '"open', "a\rb", "", "\udcff", "1,2"]) + ("\n" if rng.random() < 0.3 else "")
         out.append(",".join(cells))
@@ -181,13 +216,16 @@ def test_a_cut_inside_quotes_is_caught(tmp_path: Path) -> None:
     assert not results[0].clean  # its last row ran into the end of the span: the marker row is missing
 
 
-@pytest.mark.parametrize(("body", "why"), [
-    (b"1,2\n\n3,4\n5,6\n", "a blank line"),
-    (b"1,2\r3,4\n5,6\n", "a CR alone ends a row"),
-    (b"1,\xff\n3,4\n5,6\n", "invalid UTF-8"),
-    (b"1,2,3\n3,4\n5,6\n", "a ragged row"),
-    (b"1," + b"x" * 50 + b"\n3,4\n5,6\n", "a line past max_record_bytes"),
-])
+@pytest.mark.parametrize(
+    ("body", "why"),
+    [
+        (b"1,2\n\n3,4\n5,6\n", "a blank line"),
+        (b"1,2\r3,4\n5,6\n", "a CR alone ends a row"),
+        (b"1,\xff\n3,4\n5,6\n", "invalid UTF-8"),
+        (b"1,2,3\n3,4\n5,6\n", "a ragged row"),
+        (b"1," + b"x" * 50 + b"\n3,4\n5,6\n", "a line past max_record_bytes"),
+    ],
+)
 def test_a_span_with_anything_one_reader_reports_does_not_join(tmp_path: Path, body: bytes, why: str) -> None:
     path = tmp_path / "p.csv"
     start = b"a,b\n" + b"0,0\n" * 20  # past what the header's reading looks at (its guard's first read)

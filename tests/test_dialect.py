@@ -49,10 +49,21 @@ def field_names(p: driftline.Profile) -> list[str]:
 
 # -- failure 1: CR-only line ends --------------------------------------------------------------
 
+
 def _survey_rows(n: int, rng: random.Random) -> list[list[str]]:
-    return [[str(i), rng.choice(["north", "south", "east, upper"]), f"{rng.uniform(0, 100):.2f}",
-             f"19{rng.randint(70, 99)}-0{rng.randint(1, 9)}-1{rng.randint(0, 9)}", rng.choice(["Y", "N", ""]),
-             str(rng.randint(0, 5000)), rng.choice(["ok", "late", 'said "no"']), f"note {i}"] for i in range(n)]
+    return [
+        [
+            str(i),
+            rng.choice(["north", "south", "east, upper"]),
+            f"{rng.uniform(0, 100):.2f}",
+            f"19{rng.randint(70, 99)}-0{rng.randint(1, 9)}-1{rng.randint(0, 9)}",
+            rng.choice(["Y", "N", ""]),
+            str(rng.randint(0, 5000)),
+            rng.choice(["ok", "late", 'said "no"']),
+            f"note {i}",
+        ]
+        for i in range(n)
+    ]
 
 
 def _write_csv(rows: list[list[str]], line_end: str, **kw: object) -> bytes:
@@ -92,19 +103,25 @@ def test_crlf_and_lf_twins_of_a_cr_file_read_the_same(tmp_path: Path):
         (tmp_path / name).write_bytes(_write_csv(rows, end))
     p = driftline.scan(tmp_path)
     assert [(f.rel, f.rows, f.dialect.line_end) for f in p.files] == [
-        ("cr.csv", 50, "CR"), ("crlf.csv", 50, "CRLF"), ("lf.csv", 50, "LF")]
+        ("cr.csv", 50, "CR"),
+        ("crlf.csv", 50, "CRLF"),
+        ("lf.csv", 50, "LF"),
+    ]
     assert p.events == ()
 
 
 # -- failure 2: a delimiter guessed from the first line -----------------------------------------
+
 
 def test_pipe_file_whose_json_column_holds_commas(tmp_path: Path):
     # failure 2: read with ',' as 1 column and 756 "ragged" lines; the header holds no comma
     rng = random.Random(3)
     lines = ["id|kind|payload|at"]
     for i in range(1095):
-        payload = json.dumps({"k": i, "tags": ["a", "b"][: rng.randint(0, 2)], "v": rng.random()},
-                             separators=(",", ":") if i % 2 else (", ", ": "))
+        payload = json.dumps(
+            {"k": i, "tags": ["a", "b"][: rng.randint(0, 2)], "v": rng.random()},
+            separators=(",", ":") if i % 2 else (", ", ": "),
+        )
         lines.append(f"{i}|{rng.choice(['open', 'close'])}|{payload}|2024-03-{1 + i % 28:02d}")
     data = ("\n".join(lines) + "\n").encode()
     f = tmp_path / "events.csv"
@@ -132,13 +149,14 @@ def test_semicolon_file_with_decimal_commas(tmp_path: Path):
 
 # -- failure 3: quoting assumed where there is none ----------------------------------------------
 
+
 def _titles(n: int, rng: random.Random) -> tuple[list[str], int]:
     """Titles, some starting with a quote (a nickname, a quoted word, an unbalanced one)."""
     out, quoted = [], 0
     for i in range(n):
         r = rng.random()
         if r < 0.004:
-            title, quoted = f'"Weird {i}\' and more', quoted + 1  # opens a quote it never closes
+            title, quoted = f"\"Weird {i}' and more", quoted + 1  # opens a quote it never closes
         elif r < 0.007:
             title, quoted = f'"Heroes" season {i % 9}', quoted + 1
         else:
@@ -208,8 +226,15 @@ def _numeric_export(first: tuple[int, int], rows: int, seed: int) -> bytes:
     rng = random.Random(seed)
     out = [",".join([str(first[0]), str(first[1]), *(f"{rng.uniform(0, 9):.3f}" for _ in range(9))])]
     for _ in range(rows - 1):
-        out.append(",".join([str(rng.randint(10_000, 200_000)), str(rng.randint(1_000, 20_000)),
-                             *(f"{rng.uniform(0, 9):.3f}" for _ in range(9))]))
+        out.append(
+            ",".join(
+                [
+                    str(rng.randint(10_000, 200_000)),
+                    str(rng.randint(1_000, 20_000)),
+                    *(f"{rng.uniform(0, 9):.3f}" for _ in range(9)),
+                ]
+            )
+        )
     return ("\n".join(out) + "\n").encode()
 
 
@@ -283,18 +308,22 @@ def _stray_file(path: Path, header: bytes, quoted_body: bool, target: int = 8 * 
 
 
 @pytest.mark.timeout(20)
-@pytest.mark.parametrize(("header", "quoted_body"), [
-    (b'id,"name,value\n', False),  # opens a quote at a field's start and never closes it
-    (b'id,"name,value\n', True),  # … above rows that do use quoting
-    (b'id,size (5"),value\n', False),  # a quote inside a field: an ordinary character (RFC 4180 §2 rule 5)
-])
+@pytest.mark.parametrize(
+    ("header", "quoted_body"),
+    [
+        (b'id,"name,value\n', False),  # opens a quote at a field's start and never closes it
+        (b'id,"name,value\n', True),  # … above rows that do use quoting
+        (b'id,size (5"),value\n', False),  # a quote inside a field: an ordinary character (RFC 4180 §2 rule 5)
+    ],
+)
 def test_stray_quote_in_the_header_neither_swallows_the_file_nor_takes_quadratic_time(
-        tmp_path: Path, header: bytes, quoted_body: bool):
+    tmp_path: Path, header: bytes, quoted_body: bool
+):
     # failure 4d: one stray quote made the whole 8 MB file the header, in 25 s, then a failure.
     # The per-call budget (pytest-timeout) bounds the time; the rows are checked exactly.
     f = tmp_path / "stray.csv"
     data = _stray_file(f, header, quoted_body)
-    body = data[len(header):]
+    body = data[len(header) :]
     ref = reference_rows(body) if quoted_body else reference_rows(body, quoting=csv.QUOTE_NONE)
     assert {len(r) for r in ref} == {3}
     p = read_one(f)
@@ -310,18 +339,21 @@ def test_stray_quote_in_the_header_neither_swallows_the_file_nor_takes_quadratic
 
 # -- preamble, pins, reports ---------------------------------------------------------------------
 
+
 def test_preamble_lines_are_skipped_and_line_numbers_stay_exact(tmp_path: Path):
-    data = (b"# exported by a logger, v2.1\n# site: north, unit 4\nDaily readings\n\n"
-            b"time;temp;rh\n" + b"".join(b"2024-01-%02d;%d.5;%d\n" % (d, d, 40 + d) for d in range(1, 29)))
+    data = b"# exported by a logger, v2.1\n# site: north, unit 4\nDaily readings\n\ntime;temp;rh\n" + b"".join(
+        b"2024-01-%02d;%d.5;%d\n" % (d, d, 40 + d) for d in range(1, 29)
+    )
     f = tmp_path / "logger.csv"
     f.write_bytes(data)
     # source: DuckDB read_csv with skip=4 (explicit) reads the table under the preamble
     import duckdb
 
     con = duckdb.connect()
-    n, cols = con.execute(f"select count(*), (select count(*) from (describe select * from read_csv('{f}', "
-                          f"skip=4, delim=';', header=true))) from read_csv('{f}', skip=4, delim=';', header=true)"
-                          ).fetchone()
+    n, cols = con.execute(
+        f"select count(*), (select count(*) from (describe select * from read_csv('{f}', "
+        f"skip=4, delim=';', header=true))) from read_csv('{f}', skip=4, delim=';', header=true)"
+    ).fetchone()
     p = read_one(f)
     fr = p.files[0]
     assert (fr.rows, len(p.fields)) == (n, cols) == (28, 3)
@@ -361,8 +393,9 @@ def test_old_delimiter_option_still_fixes_the_delimiter(tmp_path: Path):
 def test_dialect_round_trips_through_the_report_and_shows_in_the_terminal(tmp_path: Path):
     (tmp_path / "p.csv").write_bytes(b"a|b\r" + b"".join(b"%d|x%d\r" % (i, i) for i in range(30)))
     out = tmp_path / "r.json"
-    res = subprocess.run([*EXE, "scan", str(tmp_path / "p.csv"), "--json", str(out)], capture_output=True,
-                         text=True, timeout=120)
+    res = subprocess.run(
+        [*EXE, "scan", str(tmp_path / "p.csv"), "--json", str(out)], capture_output=True, text=True, timeout=120
+    )
     assert res.returncode == 0, res.stderr
     assert "dialect: '|' \"-quoted, header, CR (confidence" in res.stdout
     doc = json.loads(out.read_text())
@@ -385,18 +418,24 @@ def test_report_validates_against_the_schema(tmp_path: Path):
 
 def test_csv_dialect_option_on_the_cli(tmp_path: Path):
     (tmp_path / "a.csv").write_bytes(b"x|y\n1|2\n")
-    res = subprocess.run([*EXE, "scan", str(tmp_path), "--json", "-", "--quiet", "--csv-dialect",
-                          "*.csv:delimiter=pipe,header=no"], capture_output=True, text=True, timeout=120)
+    res = subprocess.run(
+        [*EXE, "scan", str(tmp_path), "--json", "-", "--quiet", "--csv-dialect", "*.csv:delimiter=pipe,header=no"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert res.returncode == 0, res.stderr
     f = json.loads(res.stdout)["files"][0]
     assert (f["rows"], f["dialect"]["header"], f["dialect"]["pinned"]) == (2, "no", ["delimiter", "header"])
-    bad = subprocess.run([*EXE, "scan", str(tmp_path), "--csv-dialect", "header=maybe"], capture_output=True,
-                         text=True, timeout=120)
+    bad = subprocess.run(
+        [*EXE, "scan", str(tmp_path), "--csv-dialect", "header=maybe"], capture_output=True, text=True, timeout=120
+    )
     assert bad.returncode == 2 and "PolicyError: --csv-dialect 'header=maybe'" in bad.stderr
     assert "Traceback" not in bad.stderr
 
 
 # -- the finder on its own, and the spans ----------------------------------------------------------
+
 
 def test_the_sample_is_bounded_and_the_first_line_read_whole(tmp_path: Path):
     from driftline.sources.csvfile import read_sample
@@ -410,13 +449,16 @@ def test_the_sample_is_bounded_and_the_first_line_read_whole(tmp_path: Path):
     assert (sample, at_end) == (b"a,b\n" * 10, True)
 
 
-@pytest.mark.parametrize(("data", "shape"), [
-    (b"a,b\n1,2\n", "',' \"-quoted, header, LF"),
-    (b"a\tb\n1\t2\n", "TAB \"-quoted, header, LF"),
-    (b"a;b;c\r\n1;2;3\r\n", "';' \"-quoted, header, CRLF"),
-    (b"x|y\r1|2\r3|4\r", "'|' \"-quoted, header, CR"),
-    (b"a,b\n'x, y',1\n'p, q',2\n", "',' '-quoted, header, LF"),
-])
+@pytest.mark.parametrize(
+    ("data", "shape"),
+    [
+        (b"a,b\n1,2\n", "',' \"-quoted, header, LF"),
+        (b"a\tb\n1\t2\n", 'TAB "-quoted, header, LF'),
+        (b"a;b;c\r\n1;2;3\r\n", "';' \"-quoted, header, CRLF"),
+        (b"x|y\r1|2\r3|4\r", "'|' \"-quoted, header, CR"),
+        (b"a,b\n'x, y',1\n'p, q',2\n", "',' '-quoted, header, LF"),
+    ],
+)
 def test_shapes(data: bytes, shape: str):
     assert find_dialect(data, at_end=True).dialect.shape() == shape
 
@@ -451,8 +493,11 @@ def test_unusual_dialects_are_left_to_one_reader(tmp_path: Path):
 def test_binary_cells_stay_bytes_with_no_quotes(tmp_path: Path):
     # pyarrow told quote_char=False keeps a lone quote as a character (pyarrow.csv.ParseOptions)
     data = b'a\tb\n"x\t1\n"y\t2\nz\t3\n'
-    t = pcsv.read_csv(io.BytesIO(data), parse_options=pcsv.ParseOptions(delimiter="\t", quote_char=False),
-                      convert_options=pcsv.ConvertOptions(column_types={"a": pa.string(), "b": pa.string()}))
+    t = pcsv.read_csv(
+        io.BytesIO(data),
+        parse_options=pcsv.ParseOptions(delimiter="\t", quote_char=False),
+        convert_options=pcsv.ConvertOptions(column_types={"a": pa.string(), "b": pa.string()}),
+    )
     (tmp_path / "q.tsv").write_bytes(data)
     p = read_one(tmp_path / "q.tsv")
     assert p.files[0].rows == t.num_rows == 3
@@ -468,8 +513,11 @@ def test_raw_batches_for_apply_read_the_dialect_as_the_scan_does(tmp_path: Path)
     ref = reference_rows(data, delimiter="|")
     (batch,) = [b.batch for b in raw_batches(f)]
     scanned = driftline.scan(f)
-    assert (batch.num_rows, batch.schema.names) == (len(ref), ["column_1", "column_2"]) == (
-        scanned.files[0].rows, sorted(scanned.fields))
+    assert (
+        (batch.num_rows, batch.schema.names)
+        == (len(ref), ["column_1", "column_2"])
+        == (scanned.files[0].rows, sorted(scanned.fields))
+    )
 
 
 def test_comment_lines_between_rows_are_skipped_with_exact_line_numbers(tmp_path: Path):
@@ -499,8 +547,9 @@ def test_comment_lines_between_rows_are_skipped_with_exact_line_numbers(tmp_path
 
 def test_header_with_a_trailing_delimiter_above_rows_without_one(tmp_path: Path):
     # statsmodels' unemp.csv: 'Series id,Year,Period,Value,' above rows of four fields
-    data = b"Series id,Year,Period,Value,\n" + b"".join(b"LNS1,%d,Q0%d,5.%d\n" % (1959 + i // 4, 1 + i % 4, i % 10)
-                                                        for i in range(40))
+    data = b"Series id,Year,Period,Value,\n" + b"".join(
+        b"LNS1,%d,Q0%d,5.%d\n" % (1959 + i // 4, 1 + i % 4, i % 10) for i in range(40)
+    )
     f = tmp_path / "u.csv"
     f.write_bytes(data)
     ref = reference_rows(data)
@@ -513,14 +562,15 @@ def test_a_count_line_above_the_header_is_a_preamble(tmp_path: Path):
     # scikit-learn's boston_house_prices.csv: '506,13,,,…' (as wide as the rows) above the names
     rng = random.Random(11)
     rows = [",".join(f"{rng.uniform(0, 50):.3f}" for _ in range(5)) for _ in range(60)]
-    data = ("60,5,,,\n" + ",".join(f'"{n}"' for n in ["CRIM", "ZN", "INDUS", "NOX", "MEDV"]) + "\n"
-            + "\n".join(rows) + "\n").encode()
+    data = (
+        "60,5,,,\n" + ",".join(f'"{n}"' for n in ["CRIM", "ZN", "INDUS", "NOX", "MEDV"]) + "\n" + "\n".join(rows) + "\n"
+    ).encode()
     f = tmp_path / "b.csv"
     f.write_bytes(data)
     # source: DuckDB read_csv with skip=1 and header=true given explicitly
     import duckdb
 
-    n, = duckdb.connect().execute(f"select count(*) from read_csv('{f}', skip=1, header=true)").fetchone()
+    (n,) = duckdb.connect().execute(f"select count(*) from read_csv('{f}', skip=1, header=true)").fetchone()
     p = read_one(f)
     assert (p.files[0].rows, field_names(p)) == (n, ["CRIM", "INDUS", "MEDV", "NOX", "ZN"]) == (60, field_names(p))
     assert p.files[0].dialect.skip == 1
@@ -542,7 +592,7 @@ def test_undecodable_bytes_in_a_preamble_keep_rows_and_lines_exact(tmp_path: Pat
     data = b"exported by caf\xe9 tool\n\nk,v\n" + b"".join(b"%d,x%d\n" % (i, i) for i in range(25))
     f = tmp_path / "p.csv"
     f.write_bytes(data)
-    ref = reference_rows(data[data.index(b"k,v"):])
+    ref = reference_rows(data[data.index(b"k,v") :])
     p = read_one(f, encoding="utf-8")  # pinned: found per file, one bad byte alone reads as windows-1252
     fr = p.files[0]
     assert (fr.rows, field_names(p)) == (len(ref) - 1, ["k", "v"]) == (25, field_names(p))

@@ -33,7 +33,7 @@ def test_sorted_partitions_and_skips(tmp_path: Path):
     assert sorted((s.rel, s.reason) for s in found.skipped) == [
         (".tmp/x.jsonl", "hidden"),
         ("_SUCCESS", "marker"),
-        ("notes.txt", "other-extension")  # an extension not read: never opened,
+        ("notes.txt", "other-extension"),  # an extension not read: never opened,
     ]
 
 
@@ -69,6 +69,7 @@ def test_formats_by_extension_and_by_sniffing(tmp_path: Path):
 
 # -- files that are not data ------------------------------------------------------------------------
 
+
 def _parquet(path: Path, n: int) -> Path:
     import pyarrow as pa
     import pyarrow.parquet as pq
@@ -102,13 +103,17 @@ def test_sniff_unknown_reads_files_of_other_extensions_that_look_like_data(tmp_p
     found = discover([tmp_path])
     assert found.files == ()
     assert [(s.rel, s.reason) for s in found.skipped] == [
-        ("events.dat", "other-extension"), ("export.txt", "other-extension"),
-        ("readme.md", "other-extension"), ("schema.sql", "other-extension"),
+        ("events.dat", "other-extension"),
+        ("export.txt", "other-extension"),
+        ("readme.md", "other-extension"),
+        ("schema.sql", "other-extension"),
     ]
     sniffed = discover([tmp_path], sniff_unknown=True)
     # asked for: the sniffer decides, the SQL's commas included (the user asked for it)
     assert [(f.rel, f.format) for f in sniffed.files] == [
-        ("events.dat", "jsonl"), ("export.txt", "csv"), ("schema.sql", "csv"),
+        ("events.dat", "jsonl"),
+        ("export.txt", "csv"),
+        ("schema.sql", "csv"),
     ]
     assert [(s.rel, s.reason) for s in sniffed.skipped] == [("readme.md", "unknown-format")]
 
@@ -130,7 +135,9 @@ def test_names_without_an_extension_are_still_sniffed(tmp_path: Path):
     _touch(tmp_path / "LICENSE", b"Permission is hereby granted\n")
     found = discover([tmp_path])
     assert [(f.rel, f.format, f.compression) for f in found.files] == [
-        ("dump.gz", "jsonl", "gzip"), ("events.2026-11-30", "jsonl", None), ("part-00000", "csv", None),
+        ("dump.gz", "jsonl", "gzip"),
+        ("events.2026-11-30", "jsonl", None),
+        ("part-00000", "csv", None),
     ]
     assert [(s.rel, s.reason) for s in found.skipped] == [("LICENSE", "unknown-format")]
 
@@ -150,20 +157,25 @@ def test_the_cli_names_the_files_it_did_not_read_for_their_extension(tmp_path: P
 
     _touch(tmp_path / "a.jsonl")
     _touch(tmp_path / "schema.sql", SQL)
-    res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(tmp_path)],
-                         capture_output=True, text=True, timeout=120)
+    res = subprocess.run(
+        [sys.executable, "-m", "driftline.cli", "scan", str(tmp_path)], capture_output=True, text=True, timeout=120
+    )
     assert res.returncode == 0, res.stderr
     assert "\nskipped for their extension: schema.sql (--sniff-unknown reads them)\n" in res.stdout
     only_sql = tmp_path / "sql"
     _touch(only_sql / "schema.sql", SQL)
-    res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(only_sql)],
-                         capture_output=True, text=True, timeout=120)
+    res = subprocess.run(
+        [sys.executable, "-m", "driftline.cli", "scan", str(only_sql)], capture_output=True, text=True, timeout=120
+    )
     assert res.returncode == 2
-    assert "(1 skipped: 1 other-extension (--sniff-unknown reads files of other extensions that look like data))" \
+    assert (
+        "(1 skipped: 1 other-extension (--sniff-unknown reads files of other extensions that look like data))"
         in res.stderr
+    )
 
 
 # -- paths taken as globs -------------------------------------------------------------------------
+
 
 def test_an_existing_path_with_glob_characters_is_taken_literally(tmp_path: Path):
     _touch(tmp_path / "report[1].jsonl")

@@ -77,8 +77,20 @@ WRITTEN = [
     (lambda t: t.encode("latin-1"), "windows-1252", "fallback"),
     (lambda t: t.encode("cp1252"), "windows-1252", "fallback"),
 ]
-IDS = ["utf-8", "utf-8-bom", "utf-16le-bom", "utf-16be-bom", "utf-32le-bom", "utf-32be-bom", "utf-16le",
-       "utf-16be", "utf-32le", "utf-32be", "latin-1", "cp1252"]
+IDS = [
+    "utf-8",
+    "utf-8-bom",
+    "utf-16le-bom",
+    "utf-16be-bom",
+    "utf-32le-bom",
+    "utf-32be-bom",
+    "utf-16le",
+    "utf-16be",
+    "utf-32le",
+    "utf-32be",
+    "latin-1",
+    "cp1252",
+]
 
 
 @pytest.mark.parametrize(("write", "name", "evidence"), WRITTEN, ids=IDS)
@@ -94,8 +106,15 @@ def test_csv_in_each_encoding_reads_as_pythons_codecs_decode_it(tmp_path: Path, 
     assert _first_text(res) == {"name": "René", "city": "Köln", "note": "café"}
     assert res.errors == 0
     warned = [i.kind for i in res.issues if i.severity == "warning"]
-    assert warned == {"sample": [], "bom": ["bom"] if name == "utf-8" else [], "nul-pattern": ["encoding"],
-                      "fallback": ["encoding"]}[evidence]
+    assert (
+        warned
+        == {
+            "sample": [],
+            "bom": ["bom"] if name == "utf-8" else [],
+            "nul-pattern": ["encoding"],
+            "fallback": ["encoding"],
+        }[evidence]
+    )
 
 
 @pytest.mark.parametrize(("write", "name", "evidence"), WRITTEN, ids=IDS)
@@ -125,14 +144,18 @@ def test_windows_1252_decodes_every_byte_as_the_whatwg_index_says():
 
 # -- the decision ----------------------------------------------------------------------------
 
-@pytest.mark.parametrize(("head", "name", "bom"), [
-    # source: Unicode Standard, section 23.8 (byte order marks); codecs.BOM_* hold the same bytes
-    (b"\xef\xbb\xbfa,b\n", "utf-8", 0),
-    (b"\xff\xfea\x00", "utf-16-le", 2),
-    (b"\xfe\xff\x00a", "utf-16-be", 2),
-    (b"\xff\xfe\x00\x00a\x00\x00\x00", "utf-32-le", 4),
-    (b"\x00\x00\xfe\xff\x00\x00\x00a", "utf-32-be", 4),
-])
+
+@pytest.mark.parametrize(
+    ("head", "name", "bom"),
+    [
+        # source: Unicode Standard, section 23.8 (byte order marks); codecs.BOM_* hold the same bytes
+        (b"\xef\xbb\xbfa,b\n", "utf-8", 0),
+        (b"\xff\xfea\x00", "utf-16-le", 2),
+        (b"\xfe\xff\x00a", "utf-16-be", 2),
+        (b"\xff\xfe\x00\x00a\x00\x00\x00", "utf-32-le", 4),
+        (b"\x00\x00\xfe\xff\x00\x00\x00a", "utf-32-be", 4),
+    ],
+)
 def test_a_byte_order_mark_decides(head: bytes, name: str, bom: int):
     assert decide(head, whole=True) == TextEncoding(name, "bom", bom)
 
@@ -142,11 +165,14 @@ def test_utf32_le_mark_wins_over_utf16_le_whose_mark_it_starts_with():
     assert decide(codecs.BOM_UTF32_LE + "x".encode("utf-32-le"), whole=True).name == "utf-32-le"
 
 
-@pytest.mark.parametrize("head", [
-    b"123\x00",  # JSON test suite n_multidigit_number_then_00: one NUL after UTF-8 digits
-    b"[\x00]",  # n_structure_null-byte-outside-string: an odd length is not UTF-16
-    b"a,b\n1,2\x00\x00\x00\x00\n",  # NUL padding in a UTF-8 file
-])
+@pytest.mark.parametrize(
+    "head",
+    [
+        b"123\x00",  # JSON test suite n_multidigit_number_then_00: one NUL after UTF-8 digits
+        b"[\x00]",  # n_structure_null-byte-outside-string: an odd length is not UTF-16
+        b"a,b\n1,2\x00\x00\x00\x00\n",  # NUL padding in a UTF-8 file
+    ],
+)
 def test_a_few_nul_bytes_are_not_the_pattern_of_utf16(head: bytes):
     assert decide(head, whole=True).name == "utf-8"
 
@@ -174,6 +200,7 @@ def test_a_character_cut_by_the_end_of_the_head_is_not_counted():
 
 
 # -- what a scan reports ---------------------------------------------------------------------
+
 
 def test_utf8_file_with_one_bad_byte_has_one_invalid_utf8_problem(tmp_path: Path):
     f = tmp_path / "a.csv"
@@ -213,8 +240,12 @@ def test_an_unknown_encoding_is_a_usage_error(tmp_path: Path):
     f = tmp_path / "a.csv"
     f.write_text("a\n1\n")
     for name in ("no-such-codec", "base64"):
-        res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(f), "--encoding", name],
-                             capture_output=True, text=True, timeout=120)
+        res = subprocess.run(
+            [sys.executable, "-m", "driftline.cli", "scan", str(f), "--encoding", name],
+            capture_output=True,
+            text=True,
+            timeout=120,
+        )
         assert res.returncode == 2
         assert f"'{name}' is not a text encoding" in res.stderr and "Traceback" not in res.stderr
         with pytest.raises(ValueError, match="is not a text encoding"):
@@ -246,7 +277,9 @@ def test_utf16_json_lines_are_read_with_a_warning(tmp_path: Path):
     res = _read(f)
     assert res.encoding == TextEncoding("utf-16-be", "bom", 2)
     assert [(i.kind, i.severity, i.line) for i in res.issues] == [
-        ("encoding", "warning", 1), ("malformed-json", "error", 2)]
+        ("encoding", "warning", 1),
+        ("malformed-json", "error", 2),
+    ]
     assert "RFC 8259 section 8.1" in res.issues[0].message
     assert res.rows == 2 and _first_text(res) == {"ville": "Besançon"}
 
@@ -277,17 +310,22 @@ def test_the_report_carries_the_encoding_and_loads_it_back(tmp_path: Path):
     (tmp_path / "r.json").write_bytes(dumps(profile))
     assert load_report(tmp_path / "r.json") == profile
     assert file_from_json(file_json(profile.files[0])).encoding == TextEncoding("utf-16-le", "bom", 2)
-    assert encodings_line(profile) == ("text encodings: 1 files utf-8; a.csv utf-16-le (byte order mark); "
-                                       "b.csv windows-1252 (not UTF-8)")
+    assert encodings_line(profile) == (
+        "text encodings: 1 files utf-8; a.csv utf-16-le (byte order mark); b.csv windows-1252 (not UTF-8)"
+    )
 
 
 # -- the corpus (fixtures/corpus/csvkit, MIT): exact values ----------------------------------
 
-@pytest.mark.parametrize(("path", "name"), [
-    ("csvkit/test_latin1.csv", "windows-1252"),
-    ("csvkit/test_utf16_little.csv", "utf-16-le"),
-    ("csvkit/test_utf16_big.csv", "utf-16-be"),
-])
+
+@pytest.mark.parametrize(
+    ("path", "name"),
+    [
+        ("csvkit/test_latin1.csv", "windows-1252"),
+        ("csvkit/test_utf16_little.csv", "utf-16-le"),
+        ("csvkit/test_utf16_big.csv", "utf-16-be"),
+    ],
+)
 def test_corpus_files_read_the_values_pythons_codecs_read(path: str, name: str):
     f = CORPUS / path
     res = _read(f)
@@ -319,8 +357,9 @@ _PROBE = (
 
 def _peak(path: Path) -> dict:
     """Read one file in a fresh process: rows, errors, encoding and Python's peak memory."""
-    done = subprocess.run([sys.executable, "-c", _PROBE, str(path)], check=True, capture_output=True, text=True,
-                          timeout=280)
+    done = subprocess.run(
+        [sys.executable, "-c", _PROBE, str(path)], check=True, capture_output=True, text=True, timeout=280
+    )
     return json.loads(done.stdout)
 
 

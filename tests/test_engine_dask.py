@@ -29,8 +29,9 @@ else:
 @pytest.fixture(scope="module")
 def cluster() -> Iterator[Any]:
     # source: distributed 2026.8.0 LocalCluster: worker processes behind nannies, loopback only
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                                  dashboard_address=":0") as c:
+    with distributed.LocalCluster(
+        n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=":0"
+    ) as c:
         yield c
 
 
@@ -103,8 +104,9 @@ def test_local_cluster_made_when_no_scheduler(demo_dir: Path) -> None:
 
 def test_killed_worker_is_never_wrong(many_files: Path) -> None:
     local = scan_paths([many_files])
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                                  dashboard_address=":0") as c:
+    with distributed.LocalCluster(
+        n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=":0"
+    ) as c:
         victim = next(iter(c.workers.values())).process.process.pid
         killed: list[int] = []
 
@@ -136,8 +138,12 @@ def test_cli_engine_dask_report_equals_local(cluster: Any, demo_dir: Path, tmp_p
     out = {}
     for name, extra in (("local", []), ("dask", ["--engine", "dask", "--scheduler", cluster.scheduler_address])):
         target = tmp_path / f"{name}.json"
-        proc = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", landing, "--json", str(target), "-q",
-                               *extra], capture_output=True, text=True, timeout=120)
+        proc = subprocess.run(
+            [sys.executable, "-m", "driftline.cli", "scan", landing, "--json", str(target), "-q", *extra],
+            capture_output=True,
+            text=True,
+            timeout=120,
+        )
         assert proc.returncode == 0, proc.stderr
         out[name] = json.loads(target.read_text())
     for report in out.values():
@@ -156,6 +162,7 @@ def test_cli_unknown_engine_exits_2(demo_dir: Path) -> None:
 
 
 # -- dead, wrong and silent schedulers; a hung task -------------------------------------------
+
 
 def test_docstring_examples_run() -> None:
     import doctest
@@ -189,31 +196,40 @@ def _scheduler_run(demo_dir: Path, address: str, *extra: str) -> Any:
 def test_silent_scheduler_times_out(demo_dir: Path, silent_port: int) -> None:
     address = f"tcp://127.0.0.1:{silent_port}"
     run = _scheduler_run(demo_dir, address, "--connect-timeout", "2")
-    assert run.stderr == (f"EngineError: {address} accepted the connection but did not answer as a dask scheduler "
-                          "within 2 s (--connect-timeout); check that the port is the scheduler's (8786 by default), "
-                          "not its dashboard or another service\n")
+    assert run.stderr == (
+        f"EngineError: {address} accepted the connection but did not answer as a dask scheduler "
+        "within 2 s (--connect-timeout); check that the port is the scheduler's (8786 by default), "
+        "not its dashboard or another service\n"
+    )
 
 
 @pytest.mark.timeout(120)
 def test_dead_scheduler_port(demo_dir: Path) -> None:
     address = f"tcp://127.0.0.1:{dead_port()}"
     run = _scheduler_run(demo_dir, address)
-    assert run.stderr == (f"EngineError: nothing listens at {address} (connection refused); check the address and "
-                          "that `dask scheduler` runs there\n")
+    assert run.stderr == (
+        f"EngineError: nothing listens at {address} (connection refused); check the address and "
+        "that `dask scheduler` runs there\n"
+    )
 
 
-@pytest.mark.parametrize(("address", "problem"), [
-    ("tcp://127.0.0.1:abc", "the port 'abc' is not a number from 1 to 65535"),
-    ("tcp://127.0.0.1:70000", "the port '70000' is not a number from 1 to 65535"),
-    ("127.0.0.1", "names no port (a scheduler listens on 8786 by default)"),
-    ("tcp://:8786", "names no host"),
-    ("udp://127.0.0.1:8786", "unknown scheme 'udp' (one of tcp, tls, ws, wss)"),
-])
+@pytest.mark.parametrize(
+    ("address", "problem"),
+    [
+        ("tcp://127.0.0.1:abc", "the port 'abc' is not a number from 1 to 65535"),
+        ("tcp://127.0.0.1:70000", "the port '70000' is not a number from 1 to 65535"),
+        ("127.0.0.1", "names no port (a scheduler listens on 8786 by default)"),
+        ("tcp://:8786", "names no host"),
+        ("udp://127.0.0.1:8786", "unknown scheme 'udp' (one of tcp, tls, ws, wss)"),
+    ],
+)
 def test_malformed_scheduler_address(demo_dir: Path, address: str, problem: str) -> None:
     run = _scheduler_run(demo_dir, address)
     sep = " " if problem.startswith("names") else ": "
-    assert run.stderr == f"EngineError: --scheduler {address!r}{sep}{problem}; write tcp://HOST:PORT, " \
-                         "e.g. tcp://10.0.0.5:8786\n"
+    assert (
+        run.stderr == f"EngineError: --scheduler {address!r}{sep}{problem}; write tcp://HOST:PORT, "
+        "e.g. tcp://10.0.0.5:8786\n"
+    )
 
 
 @pytest.mark.timeout(180)
@@ -222,13 +238,26 @@ def test_a_hung_dask_task_times_out(many_files: Path) -> None:
     from driftline.workers import TEST_FAULT_ENV
 
     before = snapshot(many_files)
-    run = run_cli("scan", str(many_files), "--engine", "dask", "--jobs", "1", "--task-timeout", "5", "-q",
-                  env={TEST_FAULT_ENV: "hang:day=2026-11-03/part-0045.jsonl"}, timeout=170)
+    run = run_cli(
+        "scan",
+        str(many_files),
+        "--engine",
+        "dask",
+        "--jobs",
+        "1",
+        "--task-timeout",
+        "5",
+        "-q",
+        env={TEST_FAULT_ENV: "hang:day=2026-11-03/part-0045.jsonl"},
+        timeout=170,
+    )
     assert run.returncode == 2, run.stderr
     # 301 files on 1 worker thread: runs of 76 files (engines.runs_of); the hung file is in the first run.
-    assert ("EngineError: no dask task finished within 5 s (--task-timeout) while reading the files from "
-            "day=2026-11-01/part-0000.jsonl to day=2026-11-04/part-0074.jsonl (one task); check the workers of "
-            "the local cluster") in run.stderr
+    assert (
+        "EngineError: no dask task finished within 5 s (--task-timeout) while reading the files from "
+        "day=2026-11-01/part-0000.jsonl to day=2026-11-04/part-0074.jsonl (one task); check the workers of "
+        "the local cluster"
+    ) in run.stderr
     assert "Traceback" not in run.stderr
     assert snapshot(many_files) == before
     assert run.peak < PEAK_LIMIT
@@ -239,5 +268,7 @@ def test_a_worker_address_is_not_a_scheduler(cluster: Any, demo_dir: Path) -> No
     # source: distributed's identity() answers: {"type": "Scheduler" | "Worker" | "Nanny", ...}
     worker = next(iter(cluster.scheduler_info["workers"]))
     run = _scheduler_run(demo_dir, worker, "--connect-timeout", "5")
-    assert run.stderr == (f"EngineError: {worker} is a dask Worker, not a scheduler; give the scheduler's address "
-                          "(the one `dask scheduler` prints, port 8786 by default)\n")
+    assert run.stderr == (
+        f"EngineError: {worker} is a dask Worker, not a scheduler; give the scheduler's address "
+        "(the one `dask scheduler` prints, port 8786 by default)\n"
+    )

@@ -78,12 +78,55 @@ def test_demo(demo_dir: Path, batch_rows: int) -> None:
 
 # -- generated drift cases -----------------------------------------------------------
 
-_STRINGS = ["", " ", "null", "N/A", "true", "FALSE", "42", "007", "-3.25", "1e5", "12345678901234567890",
-            "2026-02-29", "2024-02-29", "1990-12-31T23:59:60Z", "1985-04-12t23:20:50.52z",
-            "1996-12-19T16:39:57-08:00", "1985-04-12 23:20:50", "1985-04-12T23:20:50+0800",
-            "2026-01-01T00:00:00.123456789Z", "plain text", "déjà vu", "😀", "a\nb", "0x1F", "+1"]
-_NUMBERS = [0, -0.0, 1, 1.0, -1, 2.5, 1e300, -1e-300, 2**53, 2**53 + 1, 2**63 - 1, 2**63, 2**64 - 1, 2**64,
-            -(2**63), -(2**63) - 1, 12.0, 0.1, 1e16, 123456789.0]
+_STRINGS = [
+    "",
+    " ",
+    "null",
+    "N/A",
+    "true",
+    "FALSE",
+    "42",
+    "007",
+    "-3.25",
+    "1e5",
+    "12345678901234567890",
+    "2026-02-29",
+    "2024-02-29",
+    "1990-12-31T23:59:60Z",
+    "1985-04-12t23:20:50.52z",
+    "1996-12-19T16:39:57-08:00",
+    "1985-04-12 23:20:50",
+    "1985-04-12T23:20:50+0800",
+    "2026-01-01T00:00:00.123456789Z",
+    "plain text",
+    "déjà vu",
+    "😀",
+    "a\nb",
+    "0x1F",
+    "+1",
+]
+_NUMBERS = [
+    0,
+    -0.0,
+    1,
+    1.0,
+    -1,
+    2.5,
+    1e300,
+    -1e-300,
+    2**53,
+    2**53 + 1,
+    2**63 - 1,
+    2**63,
+    2**64 - 1,
+    2**64,
+    -(2**63),
+    -(2**63) - 1,
+    12.0,
+    0.1,
+    1e16,
+    123456789.0,
+]
 
 
 def _value(rng: random.Random, depth: int = 0) -> Any:
@@ -148,9 +191,22 @@ def test_lines_the_exact_reader_reports(tmp_path: Path, knobs: str) -> None:
     # two objects on one line (Arrow reads both), a scalar line, a line past the limit,
     # invalid UTF-8, deep nesting, and a last line without a newline.
     good = [orjson.dumps({"a": i, "b": str(i)}) for i in range(40)]
-    odd = [b"", b"   ", b"{\"a\": 1,}", b"{\"a\": 1}\r", b"{\"a\": NaN}", b"{\"a\": 1} {\"a\": 2}", b"[1, 2]", b"7",
-           b"{\"a\": \"" + b"x" * 300 + b"\"}", b"{\"a\": \"\xff\"}", b"{\"a\": " + b"[" * 600 + b"]" * 600 + b"}",
-           b"{\"a\": -Infinity}", b"{\"a\": \"\\ud800\"}", b"{\"a\": 1, \"a\": 2}"]
+    odd = [
+        b"",
+        b"   ",
+        b'{"a": 1,}',
+        b'{"a": 1}\r',
+        b'{"a": NaN}',
+        b'{"a": 1} {"a": 2}',
+        b"[1, 2]",
+        b"7",
+        b'{"a": "' + b"x" * 300 + b'"}',
+        b'{"a": "\xff"}',
+        b'{"a": ' + b"[" * 600 + b"]" * 600 + b"}",
+        b'{"a": -Infinity}',
+        b'{"a": "\\ud800"}',
+        b'{"a": 1, "a": 2}',
+    ]
     files = []
     for k, line in enumerate(odd):
         f = tmp_path / f"odd-{k}.jsonl"
@@ -161,8 +217,9 @@ def test_lines_the_exact_reader_reports(tmp_path: Path, knobs: str) -> None:
     files += [tmp_path / "bom.jsonl", tmp_path / "no-final-newline.jsonl"]
     for batch_rows in (8, 1000):
         profile = scan_paths([str(f) for f in files], read=ReadOptions(batch_rows=batch_rows, max_record_bytes=200))
-        exact = scan_paths([str(f) for f in files], read=ReadOptions(batch_rows=batch_rows, max_record_bytes=200,
-                                                                     exact=True))
+        exact = scan_paths(
+            [str(f) for f in files], read=ReadOptions(batch_rows=batch_rows, max_record_bytes=200, exact=True)
+        )
         a, b = to_dict(profile), to_dict(exact)
         a.pop("duration_s"), b.pop("duration_s")
         assert jsonnum.dumps(a) == jsonnum.dumps(b)
@@ -170,8 +227,26 @@ def test_lines_the_exact_reader_reports(tmp_path: Path, knobs: str) -> None:
     assert kinds == ["bom", "crlf", "malformed-json", "too-large"]
 
 
-_EDGE_NUMBERS = [0, -0.0, 1, 1.0, 2.5, 12.0, 2**53 - 1, 2**53, 2**53 + 1, 2**63 - 1, 2**63, 2**64, -(2**63),
-                 -(2**63) - 1, 1e308, -1.7976931348623157e308, 5e-324, 1e16]  # float64/int64 edges (IEEE 754)
+_EDGE_NUMBERS = [
+    0,
+    -0.0,
+    1,
+    1.0,
+    2.5,
+    12.0,
+    2**53 - 1,
+    2**53,
+    2**53 + 1,
+    2**63 - 1,
+    2**63,
+    2**64,
+    -(2**63),
+    -(2**63) - 1,
+    1e308,
+    -1.7976931348623157e308,
+    5e-324,
+    1e16,
+]  # float64/int64 edges (IEEE 754)
 
 
 def _changing_line(rng: random.Random, i: int, n: int, duplicates: bool = False) -> str:
@@ -302,8 +377,15 @@ def _csv_rows(rng: random.Random, n: int) -> list[list[str]]:
     """Rows mixing every content class and the edge strings (a quoted newline among them)."""
     rows = []
     for i in range(n):
-        rows.append([str(i), rng.choice(_STRINGS), f"{rng.uniform(-1e4, 1e4):.{rng.randrange(4)}f}",
-                     rng.choice(_STRINGS[11:19]), rng.choice(["a", "b", 'say "hi"', "x,y", "two\nlines", ""])])
+        rows.append(
+            [
+                str(i),
+                rng.choice(_STRINGS),
+                f"{rng.uniform(-1e4, 1e4):.{rng.randrange(4)}f}",
+                rng.choice(_STRINGS[11:19]),
+                rng.choice(["a", "b", 'say "hi"', "x,y", "two\nlines", ""]),
+            ]
+        )
     return rows
 
 
@@ -334,12 +416,16 @@ _CSV_VARIANTS = {
 }
 
 
-@pytest.mark.parametrize(("variant", "batch_rows"), [
-    *[("clean", n) for n in (1, 7, 64, 500)],
-    *[(v, n) for k, v in enumerate(sorted(_CSV_VARIANTS)) if v != "clean" for n in ((1, 7, 64, 500)[k % 4], 37)],
-])
-def test_csv_spans_in_parallel_equal_one_reader(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, variant: str,
-                                                batch_rows: int) -> None:
+@pytest.mark.parametrize(
+    ("variant", "batch_rows"),
+    [
+        *[("clean", n) for n in (1, 7, 64, 500)],
+        *[(v, n) for k, v in enumerate(sorted(_CSV_VARIANTS)) if v != "clean" for n in ((1, 7, 64, 500)[k % 4], 37)],
+    ],
+)
+def test_csv_spans_in_parallel_equal_one_reader(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, variant: str, batch_rows: int
+) -> None:
     # source: RFC 4180 section 2 (quoted fields hold commas, doubled quotes and line breaks;
     # CRLF ends records); the other variants are what writers get wrong.
     import driftline.sources.csvsplit as csvsplit
@@ -403,14 +489,26 @@ def test_generated_csv_and_parquet(tmp_path: Path) -> None:
     n = 6000
     cols = {
         "few": [rng.choice(_STRINGS) for _ in range(n)],  # distinct values classified once
-        "many": [f"{rng.randrange(10**6)}.{rng.randrange(100)}" if rng.random() < 0.7 else rng.choice(_STRINGS)
-                 for _ in range(n)],
+        "many": [
+            f"{rng.randrange(10**6)}.{rng.randrange(100)}" if rng.random() < 0.7 else rng.choice(_STRINGS)
+            for _ in range(n)
+        ],
         "stamps": [rng.choice(_STRINGS[11:19]) for _ in range(n)],
         "flag": [rng.choice(["true", "false", "", "n/a"]) for _ in range(n)],
         # distinct values of every class, dates among them: classified by their digit patterns
-        "ids": [rng.choice([str(rng.randrange(10**19)), f"-{rng.random():.9f}", f"{rng.random():e}", f"x{i}",
-                            f"{rng.randrange(9999):04d}-{rng.randint(1, 12):02d}-{rng.randint(1, 31):02d}",
-                            "1" * rng.randint(15, 80)]) for i in range(n)],
+        "ids": [
+            rng.choice(
+                [
+                    str(rng.randrange(10**19)),
+                    f"-{rng.random():.9f}",
+                    f"{rng.random():e}",
+                    f"x{i}",
+                    f"{rng.randrange(9999):04d}-{rng.randint(1, 12):02d}-{rng.randint(1, 31):02d}",
+                    "1" * rng.randint(15, 80),
+                ]
+            )
+            for i in range(n)
+        ],
     }
     with open(tmp_path / "t.csv", "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
@@ -439,8 +537,15 @@ def test_timestamp_columns(tmp_path: Path, knobs: str) -> None:
     # Columns of one timestamp shape are classified from their distinct days (strprofile).
     rng = random.Random(5)
     n = 5000
-    rows = [{"rfc": _stamp(rng, "rfc3339"), "off": _stamp(rng, "offset"), "loc": _stamp(rng, "local"),
-             "mixed": _stamp(rng, rng.choice(["rfc3339", "local"]))} for _ in range(n)]
+    rows = [
+        {
+            "rfc": _stamp(rng, "rfc3339"),
+            "off": _stamp(rng, "offset"),
+            "loc": _stamp(rng, "local"),
+            "mixed": _stamp(rng, rng.choice(["rfc3339", "local"])),
+        }
+        for _ in range(n)
+    ]
     for row in rows[::97]:
         row["rfc"] = None
     (tmp_path / "t.jsonl").write_text("".join(json.dumps(r) + "\n" for r in rows), encoding="utf-8")

@@ -52,6 +52,7 @@ def assert_good_profiled(profile: Profile) -> None:
 
 # -- files that vanish or change ---------------------------------------------------------
 
+
 def test_files_removed_between_discovery_and_reading_are_reported(tmp_path):
     d = folder_with_good(tmp_path)
     (d / "gone.jsonl").write_bytes(GOOD)
@@ -99,6 +100,7 @@ def test_a_file_appended_to_before_or_while_it_is_read_is_reported(tmp_path, mon
 
 # -- permission denied ---------------------------------------------------------------------
 
+
 def _scan_as_nobody(d: str) -> dict:
     """Scan d in a forked child that dropped root (setuid 65534): the kernel then really
     refuses files mode 0600 and folders mode 0700, which root itself could always read.
@@ -112,8 +114,10 @@ def _scan_as_nobody(d: str) -> dict:
             os.setgid(65534)
             os.setuid(65534)
             p = scan_paths([d], read=ReadOptions(), jobs=1)
-            out = {"files": {f.rel: [f.rows, [[i.kind, i.message] for i in f.issues]] for f in p.files},
-                   "skipped": [[s.rel, s.reason] for s in p.skipped]}
+            out = {
+                "files": {f.rel: [f.rows, [[i.kind, i.message] for i in f.issues]] for f in p.files},
+                "skipped": [[s.rel, s.reason] for s in p.skipped],
+            }
         except BaseException as exc:  # noqa: BLE001 - reported to the parent
             out = {"error": repr(exc)}
         os.write(w, json.dumps(out).encode())
@@ -145,8 +149,10 @@ def test_permission_denied_files_and_folders_are_reported(tmp_path):
         else:  # an ordinary user: the modes alone refuse
             os.chmod(Path(d, "secret.jsonl"), 0)
             p = scan_paths([d], read=ReadOptions(), jobs=1)
-            got = {"files": {f.rel: [f.rows, [[i.kind, i.message] for i in f.issues]] for f in p.files},
-                   "skipped": [[s.rel, s.reason] for s in p.skipped]}
+            got = {
+                "files": {f.rel: [f.rows, [[i.kind, i.message] for i in f.issues]] for f in p.files},
+                "skipped": [[s.rel, s.reason] for s in p.skipped],
+            }
     finally:
         os.chmod(Path(d, "locked"), 0o755)
         import shutil
@@ -192,15 +198,32 @@ def test_truncated_compressed_file_keeps_the_rows_before_the_cut(tmp_path, codec
 
 # -- decompression bombs ---------------------------------------------------------------------
 
+
 def test_decompression_bombs_stop_at_the_limits_through_the_cli(tmp_path):
     d = folder_with_good(tmp_path)
     (d / "lines.jsonl.gz").write_bytes(compress(jsonl_lines(200_000), "gzip"))  # 5.2 MB of lines
     (d / "zeros.jsonl.zst").write_bytes(bomb("zstd", 40 * 2**20))
     (d / "zeros.jsonl.bz2").write_bytes(bomb("bz2", 20 * 2**20))
     out = tmp_path / "report.json"
-    res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(d), "--json", str(out), "-q",
-                          "--jobs", "1", "--max-decompressed-bytes", str(2**20)],
-                         capture_output=True, text=True, timeout=120)
+    res = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "driftline.cli",
+            "scan",
+            str(d),
+            "--json",
+            str(out),
+            "-q",
+            "--jobs",
+            "1",
+            "--max-decompressed-bytes",
+            str(2**20),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert res.returncode == 0, res.stderr
     files = {f["path"]: f for f in json.loads(out.read_text())["files"]}
     # 1 MiB of decompressed lines: the whole lines before the limit, then a clear stop
@@ -235,6 +258,7 @@ def test_a_bomb_past_the_ratio_keeps_its_rows_and_the_other_files(tmp_path, code
 
 # -- limits: long lines, deep nesting, wide files ------------------------------------------------
 
+
 def _memory_probe(path: Path, **opts: object) -> dict:
     """Read one file in a fresh process; report rows, issues, and peak memory (pyarrow's pool
     and Python's tracemalloc), which a long-lived test process could not measure."""
@@ -248,8 +272,13 @@ def _memory_probe(path: Path, **opts: object) -> dict:
         "print(json.dumps({'rows': res.rows, 'issues': [[i.kind, i.line, i.byte_offset] for i in res.issues],\n"
         "  'py': tracemalloc.get_traced_memory()[1], 'arrow': pa.default_memory_pool().max_memory()}))\n"
     )
-    done = subprocess.run([sys.executable, "-c", probe, str(path), json.dumps(opts)], check=True,
-                          capture_output=True, text=True, timeout=120)
+    done = subprocess.run(
+        [sys.executable, "-c", probe, str(path), json.dumps(opts)],
+        check=True,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     return json.loads(done.stdout)
 
 
@@ -275,9 +304,11 @@ def test_a_single_huge_line_is_reported_and_memory_stays_bounded(tmp_path, fmt):
 @pytest.mark.parametrize("shape", ["jsonl-line", "json-document", "object-in-arrays"])
 def test_nesting_100000_levels_deep_is_reported_without_recursion_error(tmp_path, shape):
     depth = 100_000
-    deep = {"jsonl-line": b"[" * depth + b"]" * depth,
-            "json-document": b"[" * depth + b"]" * depth,
-            "object-in-arrays": b'{"a":' * depth + b"1" + b"}" * depth}[shape]
+    deep = {
+        "jsonl-line": b"[" * depth + b"]" * depth,
+        "json-document": b"[" * depth + b"]" * depth,
+        "object-in-arrays": b'{"a":' * depth + b"1" + b"}" * depth,
+    }[shape]
     d = folder_with_good(tmp_path)
     name = "deep.json" if shape == "json-document" else "deep.jsonl"
     (d / name).write_bytes(deep if shape == "json-document" else GOOD + deep + b"\n" + GOOD)
@@ -317,6 +348,7 @@ def test_parquet_footers_claiming_absurd_sizes_are_reported(tmp_path):
 
 
 # -- what a folder can hold besides files ---------------------------------------------------
+
 
 def test_symlink_loops_dangling_links_fifos_and_devices_are_skipped_and_counted(tmp_path):
     d = folder_with_good(tmp_path)

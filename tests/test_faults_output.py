@@ -75,8 +75,12 @@ def _outputs(folder: Path) -> dict[str, str]:
 
 def _start(tmp_path: Path, mode: str, *args: str) -> tuple[subprocess.Popen[str], Path]:
     marker = tmp_path / f"{mode}.ready"
-    proc = subprocess.Popen([sys.executable, "-c", PROBE, mode, str(marker), *args],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    proc = subprocess.Popen(
+        [sys.executable, "-c", PROBE, mode, str(marker), *args],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
     deadline = time.monotonic() + 60
     while not marker.exists():
         assert proc.poll() is None, proc.communicate()
@@ -115,9 +119,25 @@ def test_a_full_disk_gives_a_clear_error_and_keeps_the_earlier_file(tmp_path):
     out_dir.mkdir()
     (out_dir / "report.json").write_text(EARLIER)
     marker = tmp_path / "never"
-    res = subprocess.run([sys.executable, "-c", PROBE, "full", str(marker), "scan", str(d),
-                          "--json", str(out_dir / "report.json"), "--jobs", "1", "-q"],
-                         capture_output=True, text=True, timeout=60)
+    res = subprocess.run(
+        [
+            sys.executable,
+            "-c",
+            PROBE,
+            "full",
+            str(marker),
+            "scan",
+            str(d),
+            "--json",
+            str(out_dir / "report.json"),
+            "--jobs",
+            "1",
+            "-q",
+        ],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
     assert res.returncode == 2
     assert "OutputError: cannot write" in res.stderr and "the disk is full" in res.stderr
     assert "the earlier file, if any, is unchanged" in res.stderr and "Traceback" not in res.stderr
@@ -139,12 +159,19 @@ RAW_CONTROL = ["\x1b", "\x07", "\x9b", "\u202e", "\r"]
 def test_field_names_values_and_file_names_reach_the_terminal_neutralised(tmp_path):
     d = tmp_path / "landing"
     d.mkdir()
-    rows = [{HOSTILE["ansi"]: 1, "v": 1}, {HOSTILE["ansi"]: "x", "v": HOSTILE["title"]},
-            {HOSTILE["bidi"]: None, "v": HOSTILE["csi8"] + HOSTILE["cr"]}]
+    rows = [
+        {HOSTILE["ansi"]: 1, "v": 1},
+        {HOSTILE["ansi"]: "x", "v": HOSTILE["title"]},
+        {HOSTILE["bidi"]: None, "v": HOSTILE["csi8"] + HOSTILE["cr"]},
+    ]
     (d / "a.jsonl").write_text("".join(json.dumps(r) + "\n" for r in rows))
     (d / "evil\x1b[2Jname.jsonl").write_text('{"v": 1}\nnot json\n')
-    res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(d), "--jobs", "1"],
-                         capture_output=True, text=True, timeout=60)
+    res = subprocess.run(
+        [sys.executable, "-m", "driftline.cli", "scan", str(d), "--jobs", "1"],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
     assert res.returncode == 0, res.stderr
     shown = res.stdout + res.stderr
     for ch in RAW_CONTROL:
@@ -161,8 +188,12 @@ def test_a_field_named_script_renders_as_text_in_html(tmp_path):
     name, value = "<script>alert(1)</script>", "</script><img src=x onerror=alert(2)>"
     (d / "a.jsonl").write_text(json.dumps({name: 1}) + "\n" + json.dumps({name: value}) + "\n")
     out = tmp_path / "r.html"
-    res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(d), "--html", str(out), "-q",
-                          "--jobs", "1"], capture_output=True, text=True, timeout=60)
+    res = subprocess.run(
+        [sys.executable, "-m", "driftline.cli", "scan", str(d), "--html", str(out), "-q", "--jobs", "1"],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
     assert res.returncode == 0, res.stderr
     page = out.read_text()
     assert "alert(1)" in page  # the name is shown...
@@ -187,9 +218,25 @@ def test_partition_values_are_data_and_nothing_is_written_outside_the_named_outp
     (world / "work").mkdir()
     (world / "out").mkdir()
     before = _snapshot(world)
-    res = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", str(d),
-                          "--json", str(world / "out" / "r.json"), "--html", str(world / "out" / "r.html"),
-                          "--jobs", "1"], cwd=world / "work", capture_output=True, text=True, timeout=60)
+    res = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "driftline.cli",
+            "scan",
+            str(d),
+            "--json",
+            str(world / "out" / "r.json"),
+            "--html",
+            str(world / "out" / "r.html"),
+            "--jobs",
+            "1",
+        ],
+        cwd=world / "work",
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
     assert res.returncode == 0, res.stderr
     after = _snapshot(world)
     assert {k: v for k, v in after.items() if k in before} == before  # inputs unchanged

@@ -38,8 +38,11 @@ SCHEMA = {
         "a.b/c~d": {"type": "boolean"},
         "meta": {"type": "object"},
         "anything": {},
-        "when": {"type": "string", "format": "date-time",
-                 "x-driftline": {"arrow": "timestamp[us, UTC]", "rule": "parse_timestamp"}},
+        "when": {
+            "type": "string",
+            "format": "date-time",
+            "x-driftline": {"arrow": "timestamp[us, UTC]", "rule": "parse_timestamp"},
+        },
         "labels": {"type": "object", "x-driftline": {"arrow": "map<string, int64>", "rule": "identity"}},
     },
 }
@@ -53,8 +56,21 @@ def test_the_fixture_is_a_valid_2020_12_schema():
 def test_paths_are_spelled_as_the_scan_spells_them():
     b = baseline_from_json_schema(SCHEMA)
     assert list(b.fields) == [
-        "device", "seq", "reading", "reading.value", "reading.unit", "tags", "tags[]", "at",
-        "`a.b/c~d`", "meta", "anything", "when", "labels", "labels{key}", "labels{value}",
+        "device",
+        "seq",
+        "reading",
+        "reading.value",
+        "reading.unit",
+        "tags",
+        "tags[]",
+        "at",
+        "`a.b/c~d`",
+        "meta",
+        "anything",
+        "when",
+        "labels",
+        "labels{key}",
+        "labels{value}",
     ]
 
 
@@ -62,7 +78,11 @@ def test_required_and_nullable_follow_the_keywords():
     f = baseline_from_json_schema(SCHEMA).fields
     # source: JSON Schema 2020-12 Validation §6.5.3 "required": the named properties must be present.
     assert (f["device"].required, f["seq"].required, f["reading.value"].required, f["reading.unit"].required) == (
-        True, False, True, False)
+        True,
+        False,
+        True,
+        False,
+    )
     # source: JSON Schema 2020-12 Validation §6.1.1 — "null" in "type" admits null.
     assert (f["reading.value"].nullable, f["device"].nullable) == (True, False)
     assert f["anything"].type is None and f["anything"].nullable  # no "type": any value
@@ -72,7 +92,12 @@ def test_required_and_nullable_follow_the_keywords():
 def test_types_formats_and_ranges():
     f = baseline_from_json_schema(SCHEMA).fields
     assert [f[p].type.key() for p in ("device", "seq", "reading", "tags", "`a.b/c~d`")] == [
-        "string", "int64", "struct<>", "list<unknown>", "bool"]
+        "string",
+        "int64",
+        "struct<>",
+        "list<unknown>",
+        "bool",
+    ]
     assert f["reading.value"].type.key() == "float64"
     assert (f["seq"].minimum, f["seq"].maximum) == (0, 9223372036854775807)
     # source: RFC 3339 §5.6 — format "date-time" is the RFC 3339 date-time production.
@@ -97,15 +122,23 @@ def test_shallow_types_compare_nested_kinds_by_kind():
 @pytest.mark.parametrize(
     ("schema", "message"),
     [
-        ({"type": "object", "properties": {"a/b": {"type": "int64"}}},
-         # source: RFC 6901 §3 — '/' in a name is written '~1' in a JSON Pointer.
-         "at /properties/a~1b/type: unknown JSON Schema type 'int64'"),
-        ({"type": "object", "properties": {"x": {"type": "integer", "minimum": "3"}}},
-         "at /properties/x/minimum: 'minimum' must be a number"),
-        ({"type": "object", "properties": {"x": {"type": "integer"}}, "required": "x"},
-         "at /required: 'required' must be a list of property names"),
-        ({"type": "object", "properties": {"x": {"x-driftline": {"arrow": "int63"}}}},
-         "at /properties/x/x-driftline/arrow: cannot parse type key 'int63'"),
+        (
+            {"type": "object", "properties": {"a/b": {"type": "int64"}}},
+            # source: RFC 6901 §3 — '/' in a name is written '~1' in a JSON Pointer.
+            "at /properties/a~1b/type: unknown JSON Schema type 'int64'",
+        ),
+        (
+            {"type": "object", "properties": {"x": {"type": "integer", "minimum": "3"}}},
+            "at /properties/x/minimum: 'minimum' must be a number",
+        ),
+        (
+            {"type": "object", "properties": {"x": {"type": "integer"}}, "required": "x"},
+            "at /required: 'required' must be a list of property names",
+        ),
+        (
+            {"type": "object", "properties": {"x": {"x-driftline": {"arrow": "int63"}}}},
+            "at /properties/x/x-driftline/arrow: cannot parse type key 'int63'",
+        ),
         ({"type": "object"}, "the root schema has no 'properties'"),
     ],
 )
@@ -152,16 +185,22 @@ def test_load_errors_are_clear(tmp_path):
         load_baseline(bad)
     other = tmp_path / "other.json"
     other.write_text('{"format": "something-else", "rows": []}', encoding="utf-8")
-    with pytest.raises(ReportVersionError, match="neither a JSON Schema nor a driftline scan report "
-                                                 r"\(its format is 'something-else'\)"):
+    with pytest.raises(
+        ReportVersionError,
+        match="neither a JSON Schema nor a driftline scan report "
+        r"\(its format is 'something-else'\)",
+    ):
         load_baseline(other)
 
 
 def _recommended(tmp_path):
-    data = write_lines(tmp_path / "d" / "a.jsonl", [
-        '{"id": 1, "at": "2026-11-29T10:00:00Z", "n": "12", "tags": ["a"], "geo": {"lat": 1.5}}',
-        '{"id": 2, "at": "2026-11-29T11:00:00Z", "n": 7, "tags": "b", "geo": {"lat": 2}, "opt": null}',
-    ])
+    data = write_lines(
+        tmp_path / "d" / "a.jsonl",
+        [
+            '{"id": 1, "at": "2026-11-29T10:00:00Z", "n": "12", "tags": ["a"], "geo": {"lat": 1.5}}',
+            '{"id": 2, "at": "2026-11-29T11:00:00Z", "n": 7, "tags": "b", "geo": {"lat": 2}, "opt": null}',
+        ],
+    )
     return driftline.scan(data.parent).recommend()
 
 
@@ -185,8 +224,15 @@ def test_a_rules_file_and_the_json_schema_give_the_same_baseline(tmp_path):
         s = from_schema.fields[path]
         assert (r.type, r.nullable, r.required, r.rule) == (s.type, s.nullable, s.required, s.rule), path
     assert {p: e.rule for p, e in from_rules.fields.items()} == {
-        "at": "parse_timestamp", "geo": "identity", "geo.lat": "widen_numeric", "id": "identity",
-        "n": "parse_integer", "opt": "identity", "tags": "wrap_scalar_in_list", "tags[]": "identity"}
+        "at": "parse_timestamp",
+        "geo": "identity",
+        "geo.lat": "widen_numeric",
+        "id": "identity",
+        "n": "parse_integer",
+        "opt": "identity",
+        "tags": "wrap_scalar_in_list",
+        "tags[]": "identity",
+    }
     assert from_rules.fields["n"].accept == frozenset({"integer"})  # what the rule parses
 
 

@@ -29,11 +29,25 @@ CONTRACT = {
 }
 
 # source: REFERENCES.md §1 — RFC 3339 §5.8 examples (valid) and the "not valid" list.
-VALID_TS = ["1985-04-12T23:20:50.52Z", "1996-12-19T16:39:57-08:00", "1937-01-01T12:00:27.87+00:20",
-            "1985-04-12t23:20:50z"]
-INVALID_TS = ["1985-04-12 23:20:50Z", "1985-04-12T23:20:50", "85-04-12T23:20:50Z", "1985-04-12T24:00:00Z",
-              "1985-02-29T23:20:50Z", "1985-04-12T23:20:50.Z", "1985-04-12T23:20:50+0800", "1985-04-12T23:20:50+08",
-              "1985-04-12T23:20Z", "1985-04-12T23:20:50,52Z", "19850412T232050Z"]
+VALID_TS = [
+    "1985-04-12T23:20:50.52Z",
+    "1996-12-19T16:39:57-08:00",
+    "1937-01-01T12:00:27.87+00:20",
+    "1985-04-12t23:20:50z",
+]
+INVALID_TS = [
+    "1985-04-12 23:20:50Z",
+    "1985-04-12T23:20:50",
+    "85-04-12T23:20:50Z",
+    "1985-04-12T24:00:00Z",
+    "1985-02-29T23:20:50Z",
+    "1985-04-12T23:20:50.Z",
+    "1985-04-12T23:20:50+0800",
+    "1985-04-12T23:20:50+08",
+    "1985-04-12T23:20Z",
+    "1985-04-12T23:20:50,52Z",
+    "19850412T232050Z",
+]
 
 
 def _records(seed: int, n: int) -> list[dict]:
@@ -82,8 +96,13 @@ def _reference_errors(records: list[dict]) -> Counter:
 
 
 def _ours(verdict) -> Counter:
-    kinds = {"type_change": "type", "widening": "type", "unexpected_nulls": "null", "missing_required": "missing",
-             "content_class": "format"}
+    kinds = {
+        "type_change": "type",
+        "widening": "type",
+        "unexpected_nulls": "null",
+        "missing_required": "missing",
+        "content_class": "format",
+    }
     got: Counter = Counter()
     for v in (*verdict.violations, *verdict.warnings, *verdict.allowed):
         if v.rule in kinds:
@@ -105,13 +124,25 @@ def test_counts_agree_with_the_reference_validator(tmp_path, batch_rows):
 
 def test_where_it_first_shows(tmp_path):
     _write(tmp_path / "d" / "day=1", "a.jsonl", [{"id": 1, "ts": VALID_TS[0]}])
-    _write(tmp_path / "d" / "day=2", "a.jsonl", [{"id": 2, "ts": VALID_TS[0]}, {"id": "17b", "ts": VALID_TS[1]},
-                                                  {"id": "x", "ts": VALID_TS[1]}])
+    _write(
+        tmp_path / "d" / "day=2",
+        "a.jsonl",
+        [{"id": 2, "ts": VALID_TS[0]}, {"id": "17b", "ts": VALID_TS[1]}, {"id": "x", "ts": VALID_TS[1]}],
+    )
     v = compare(driftline.scan(tmp_path / "d"), baseline_from_json_schema(CONTRACT))
     assert not v.passed and v.exit_code == 1
     [tc] = [x for x in v.violations if x.rule == "type_change"]
     assert (tc.field, tc.change, tc.file, tc.partitions, tc.row, tc.line, tc.example, tc.count, tc.files) == (
-        "id", "int64 → string", "day=2/a.jsonl", (("day", "2"),), 1, 2, '"17b"', 2, 1)
+        "id",
+        "int64 → string",
+        "day=2/a.jsonl",
+        (("day", "2"),),
+        1,
+        2,
+        '"17b"',
+        2,
+        1,
+    )
     assert tc.where() == "day=2/a.jsonl, partition day=2, row 1 (line 2)"
 
 
@@ -144,8 +175,9 @@ def test_fits_matches_pyarrow_permissive_unification():
 
 
 def test_new_gone_and_narrowing(tmp_path):
-    _write(tmp_path / "a", "x.jsonl", [{"id": 1, "v": 1.5, "opt": "x", "s": {"k": 1}},
-                                       {"id": 2, "v": 2.5, "s": {"k": 2}}])
+    _write(
+        tmp_path / "a", "x.jsonl", [{"id": 1, "v": 1.5, "opt": "x", "s": {"k": 1}}, {"id": 2, "v": 2.5, "s": {"k": 2}}]
+    )
     _write(tmp_path / "b", "x.jsonl", [{"id": 1, "v": 1, "extra": True, "s": {"k": 1, "j": 2}}])
     base = baseline_from_profile(driftline.scan(tmp_path / "a"))
     v = compare(driftline.scan(tmp_path / "b"), base, Policy(narrowing="warn"))
@@ -189,30 +221,44 @@ def test_file_errors_against_the_rate(tmp_path):
     p = driftline.scan(d)
     v = compare(p, baseline_from_json_schema(CONTRACT))
     e, lost = v.violations
-    assert (e.rule, e.field, e.change, e.file, e.line) == ("file_errors", None, "file error: malformed-json",
-                                                            "bad.jsonl", 2)
+    assert (e.rule, e.field, e.change, e.file, e.line) == (
+        "file_errors",
+        None,
+        "file error: malformed-json",
+        "bad.jsonl",
+        2,
+    )
     assert "1 of 2 files (50.0%)" in e.message
     # The rate may allow the errors; the line set aside still counts (unread_rows, default fail).
-    assert (lost.rule, lost.change, lost.file, lost.line) == ("unread_rows", "rows not read: malformed-json",
-                                                              "bad.jsonl", 2)
+    assert (lost.rule, lost.change, lost.file, lost.line) == (
+        "unread_rows",
+        "rows not read: malformed-json",
+        "bad.jsonl",
+        2,
+    )
     lenient = compare(p, baseline_from_json_schema(CONTRACT), Policy(max_file_error_rate=50))
     assert [v.rule for v in lenient.violations] == ["unread_rows"]
     assert compare(p, baseline_from_json_schema(CONTRACT), Policy(max_file_error_rate=50, unread_rows="warn")).passed
 
 
 def test_cast_rules_turn_strings_into_cast_loss(tmp_path):
-    schema = {"type": "object", "properties": {
-        "n": {"type": "integer", "x-driftline": {"arrow": "int64", "rule": "parse_integer"}},
-        "m": {"type": "integer", "x-driftline": {"arrow": "int64", "rule": "identity"}},
-    }}
+    schema = {
+        "type": "object",
+        "properties": {
+            "n": {"type": "integer", "x-driftline": {"arrow": "int64", "rule": "parse_integer"}},
+            "m": {"type": "integer", "x-driftline": {"arrow": "int64", "rule": "identity"}},
+        },
+    }
     _write(tmp_path / "d", "x.jsonl", [{"n": "12", "m": "12"}, {"n": "n/a", "m": 3}, {"n": "4.5", "m": 4}, {"n": 7}])
     base = baseline_from_json_schema(schema)
     v = compare(driftline.scan(tmp_path / "d"), base)
     got = [(x.rule, x.field, x.change, x.count, x.row, x.example) for x in v.violations]
     # "12" parses as int64 (pyarrow 26.0.1 pc.cast accepts it, REFERENCES.md §5); "n/a" and
     # "4.5" do not: two values lost. The identity rule casts nothing: "12" is a type change.
-    assert got == [("type_change", "m", "int64 → string", 1, 0, '"12"'),
-                   ("cast_loss", "n", "cast rule parse_integer: string → int64", 2, 1, '"n/a"')]
+    assert got == [
+        ("type_change", "m", "int64 → string", 1, 0, '"12"'),
+        ("cast_loss", "n", "cast rule parse_integer: string → int64", 2, 1, '"n/a"'),
+    ]
     assert compare(driftline.scan(tmp_path / "d"), base, Policy(max_cast_loss=2, type_change="warn")).passed
 
 
@@ -224,7 +270,8 @@ def test_csv_cells_are_text_for_a_string_baseline(tmp_path):
     # code: every CSV cell is text, so a string column holds 007 and 12 as they are.
     # count: "x" is text where an integer belongs (row 2, line 4 of the file).
     assert [(x.field, x.change, x.row, x.line, x.example) for x in v.violations] == [
-        ("count", "int64 → string", 2, 4, '"x"')]
+        ("count", "int64 → string", 2, 4, '"x"')
+    ]
 
 
 def test_range_reports_the_extreme(tmp_path):
@@ -239,20 +286,37 @@ def test_range_reports_the_extreme(tmp_path):
 # source: REFERENCES.md §5 — pyarrow 26.0.1 pc.cast from string (safe), and the RFC 3339 list of §1.
 CAST_CASES = {
     "int64": ["42", "-42", "007", "+42", " 42", "4.0", "1e3", "9223372036854775808", "", "n/a"],
-    "timestamp[us, UTC]": ["1985-04-12T23:20:50.52Z", "1996-12-19T16:39:57-08:00", "1937-01-01T12:00:27.87+00:20",
-                           "1985-04-12T23:20:50+0800", "1985-04-12T23:20:50+08", "1985-04-12 23:20:50Z",
-                           "1985-04-12T23:20:50", "1985-04-12", "1985-04-12T24:00:00Z", "19850412T232050Z",
-                           "yesterday"],
+    "timestamp[us, UTC]": [
+        "1985-04-12T23:20:50.52Z",
+        "1996-12-19T16:39:57-08:00",
+        "1937-01-01T12:00:27.87+00:20",
+        "1985-04-12T23:20:50+0800",
+        "1985-04-12T23:20:50+08",
+        "1985-04-12 23:20:50Z",
+        "1985-04-12T23:20:50",
+        "1985-04-12",
+        "1985-04-12T24:00:00Z",
+        "19850412T232050Z",
+        "yesterday",
+    ],
 }
 # Where the gate and a bare pc.cast differ, and why (each value alone in its own row):
 CAST_DIFFERENCES = {
     "0x1F": ("int64", "pc.cast reads hex (31); the gate counts it lost: its content class is text"),
-    "9223372036854775807": ("int64", "pc.cast takes int64's maximum; the scan classes 19-digit numbers as "
-                                     "decimal, so the gate counts it lost (conservative)"),
-    "1990-12-31T23:59:60Z": ("timestamp[us, UTC]", "pc.cast rejects leap seconds; the parse rule turns :60 "
-                                                   "into :59 (a change, not a loss: recommend/plan.py CAUSES)"),
-    "1985-04-12t23:20:50z": ("timestamp[us, UTC]", "pc.cast rejects lower-case t/z; the parse rule upper-cases "
-                                                   "them first (RFC 3339 §5.6 allows them)"),
+    "9223372036854775807": (
+        "int64",
+        "pc.cast takes int64's maximum; the scan classes 19-digit numbers as "
+        "decimal, so the gate counts it lost (conservative)",
+    ),
+    "1990-12-31T23:59:60Z": (
+        "timestamp[us, UTC]",
+        "pc.cast rejects leap seconds; the parse rule turns :60 "
+        "into :59 (a change, not a loss: recommend/plan.py CAUSES)",
+    ),
+    "1985-04-12t23:20:50z": (
+        "timestamp[us, UTC]",
+        "pc.cast rejects lower-case t/z; the parse rule upper-cases them first (RFC 3339 §5.6 allows them)",
+    ),
 }
 
 
@@ -287,18 +351,31 @@ def test_rules_from_a_recommendation(tmp_path):
     # The recommender (recommend/rules.py) plans day 1; its rules are the baseline of day 2.
     from driftline.gate.baseline import baseline_from_recommendation
 
-    _write(tmp_path / "a", "x.jsonl", [
-        {"tags": ["a"], "odd": 1, "at": "2026-11-29T10:00:00Z", "n": "12"},
-        {"tags": "b", "odd": {"k": 1}, "at": "2026-11-29T11:00:00+01:00", "n": 7}])
+    _write(
+        tmp_path / "a",
+        "x.jsonl",
+        [
+            {"tags": ["a"], "odd": 1, "at": "2026-11-29T10:00:00Z", "n": "12"},
+            {"tags": "b", "odd": {"k": 1}, "at": "2026-11-29T11:00:00+01:00", "n": 7},
+        ],
+    )
     rec = driftline.scan(tmp_path / "a").recommend()
     base = baseline_from_recommendation(rec)
     assert {p: (e.rule, e.type.key()) for p, e in base.fields.items()} == {
-        "at": ("parse_timestamp", "timestamp[us, UTC]"), "n": ("parse_integer", "int64"),
-        "odd": ("keep_as_json_text", "string"), "tags": ("wrap_scalar_in_list", "list<string>"),
-        "tags[]": ("identity", "string")}
-    _write(tmp_path / "b", "x.jsonl", [
-        {"tags": "c", "odd": [1], "at": "yesterday", "n": "x"},
-        {"tags": 5, "odd": "s", "at": "2026-11-29 10:00:00Z", "n": "n/a"}])
+        "at": ("parse_timestamp", "timestamp[us, UTC]"),
+        "n": ("parse_integer", "int64"),
+        "odd": ("keep_as_json_text", "string"),
+        "tags": ("wrap_scalar_in_list", "list<string>"),
+        "tags[]": ("identity", "string"),
+    }
+    _write(
+        tmp_path / "b",
+        "x.jsonl",
+        [
+            {"tags": "c", "odd": [1], "at": "yesterday", "n": "x"},
+            {"tags": 5, "odd": "s", "at": "2026-11-29 10:00:00Z", "n": "n/a"},
+        ],
+    )
     v = compare(driftline.scan(tmp_path / "b"), base)
     # "c" is wrapped into a list of strings, 5 is not a string; odd is kept as JSON text whatever
     # it holds; "x" and "n/a" do not parse as integers. The timestamp rule parses the classes it

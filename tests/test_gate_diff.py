@@ -18,15 +18,25 @@ def _one(types: dict[str, int], rows: int = 0) -> dict:
 
 
 # source: REFERENCES.md §5 — pyarrow 26.0.1 unify_schemas(promote_options="permissive").
-UNIFIES = [("int8", "int64", pa.int64()), ("int64", "float64", pa.float64()), ("int32", "uint32", pa.int64()),
-           ("float32", "int64", pa.float64())]
+UNIFIES = [
+    ("int8", "int64", pa.int64()),
+    ("int64", "float64", pa.float64()),
+    ("int32", "uint32", pa.int64()),
+    ("float32", "int64", pa.float64()),
+]
 RAISES = [("int64", "string"), ("bool", "int8")]
 
 
 @pytest.mark.parametrize(("a", "b", "unified"), UNIFIES)
 def test_a_change_pyarrow_unifies_is_a_widening_or_narrowing(a, b, unified):
-    got = pa.unify_schemas([pa.schema([("x", to_arrow(parse_key(a)))]), pa.schema([("x", to_arrow(parse_key(b)))])],
-                           promote_options="permissive").field("x").type
+    got = (
+        pa.unify_schemas(
+            [pa.schema([("x", to_arrow(parse_key(a)))]), pa.schema([("x", to_arrow(parse_key(b)))])],
+            promote_options="permissive",
+        )
+        .field("x")
+        .type
+    )
     assert got == unified == to_arrow(join(parse_key(a), parse_key(b)))
     [fwd] = diff_fields(_one({a: 1}), _one({b: 1})).changes
     [back] = diff_fields(_one({b: 1}), _one({a: 1})).changes
@@ -37,8 +47,10 @@ def test_a_change_pyarrow_unifies_is_a_widening_or_narrowing(a, b, unified):
 @pytest.mark.parametrize(("a", "b"), RAISES)
 def test_a_change_pyarrow_cannot_unify_is_a_type_change(a, b):
     with pytest.raises(pa.ArrowTypeError):
-        pa.unify_schemas([pa.schema([("x", to_arrow(parse_key(a)))]), pa.schema([("x", to_arrow(parse_key(b)))])],
-                         promote_options="permissive")
+        pa.unify_schemas(
+            [pa.schema([("x", to_arrow(parse_key(a)))]), pa.schema([("x", to_arrow(parse_key(b)))])],
+            promote_options="permissive",
+        )
     [c] = diff_fields(_one({a: 2}), _one({a: 1, b: 1})).changes
     assert (c.kind, c.before, c.after) == ("type-changed", a, f"union<{' | '.join(sorted([a, b]))}>")
     [c] = diff_fields(_one({a: 1, b: 1}), _one({a: 2})).changes
@@ -46,15 +58,21 @@ def test_a_change_pyarrow_cannot_unify_is_a_type_change(a, b):
 
 
 def test_every_kind_between_two_folders(tmp_path):
-    write_lines(tmp_path / "a" / "x.jsonl", [
-        '{"id": 1, "v": 1, "gone": 1, "s": "2026-01-01T00:00:00Z", "n": 1, "g": {"k": 1}}',
-        '{"id": 2, "v": 2, "gone": 2, "s": "2026-01-02T00:00:00Z", "n": null, "g": {"k": 2}}',
-    ])
-    write_lines(tmp_path / "b" / "x.jsonl", [
-        '{"id": 1, "v": 1.5, "s": "2026-01-01T00:00:00Z", "n": null, "new": {"a": 1, "b": [1]}, "g": {"k": 1}}',
-        '{"id": "3", "v": 2, "s": "yesterday", "n": null, "g": {"k": 2}}',
-        '{"id": 4, "v": 3, "s": "2026-01-03T00:00:00Z", "n": null, "g": null}',
-    ])
+    write_lines(
+        tmp_path / "a" / "x.jsonl",
+        [
+            '{"id": 1, "v": 1, "gone": 1, "s": "2026-01-01T00:00:00Z", "n": 1, "g": {"k": 1}}',
+            '{"id": 2, "v": 2, "gone": 2, "s": "2026-01-02T00:00:00Z", "n": null, "g": {"k": 2}}',
+        ],
+    )
+    write_lines(
+        tmp_path / "b" / "x.jsonl",
+        [
+            '{"id": 1, "v": 1.5, "s": "2026-01-01T00:00:00Z", "n": null, "new": {"a": 1, "b": [1]}, "g": {"k": 1}}',
+            '{"id": "3", "v": 2, "s": "yesterday", "n": null, "g": {"k": 2}}',
+            '{"id": 4, "v": 3, "s": "2026-01-03T00:00:00Z", "n": null, "g": null}',
+        ],
+    )
     d = diff_profiles(driftline.scan(tmp_path / "a"), driftline.scan(tmp_path / "b"), before="a", after="b")
     got = [(c.kind, c.path, c.before, c.after) for c in d.changes]
     assert got == [
@@ -71,8 +89,15 @@ def test_every_kind_between_two_folders(tmp_path):
     ex = by_kind["type-changedid"].example
     assert (ex.file, ex.row, ex.line, ex.value) == ("x.jsonl", 1, 2, '"3"')
     assert by_kind["content-classs"].example.value == '"yesterday"'
-    assert d.counts() == {"added": 1, "removed": 1, "type-changed": 1, "widened": 1, "newly-nullable": 1,
-                          "null-share": 1, "content-class": 1}
+    assert d.counts() == {
+        "added": 1,
+        "removed": 1,
+        "type-changed": 1,
+        "widened": 1,
+        "newly-nullable": 1,
+        "null-share": 1,
+        "content-class": 1,
+    }
     assert list(d.counts()) == [k for k in DIFF_KINDS if k in d.counts()]
 
 
@@ -100,7 +125,19 @@ def test_partitions_each_against_the_one_before(tmp_path):
 def test_json_shape(tmp_path):
     d = diff_fields(_one({"int64": 1}), _one({"float64": 1}), before="r1", after="r2")
     assert d.to_json() == {
-        "before": "r1", "after": "r2", "counts": {"widened": 1},
-        "changes": [{"kind": "widened", "path": "x", "before": "int64", "after": "float64", "file": None,
-                     "row": None, "line": None, "example": None}],
+        "before": "r1",
+        "after": "r2",
+        "counts": {"widened": 1},
+        "changes": [
+            {
+                "kind": "widened",
+                "path": "x",
+                "before": "int64",
+                "after": "float64",
+                "file": None,
+                "row": None,
+                "line": None,
+                "example": None,
+            }
+        ],
     }

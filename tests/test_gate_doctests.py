@@ -7,8 +7,16 @@ import importlib
 
 import pytest
 
-MODULES = ["driftline.gate.baseline", "driftline.gate.compare", "driftline.gate.diff", "driftline.gate.inputs",
-           "driftline.gate.policy", "driftline.gate.run", "driftline.gate.state", "driftline.gate.verdict"]
+MODULES = [
+    "driftline.gate.baseline",
+    "driftline.gate.compare",
+    "driftline.gate.diff",
+    "driftline.gate.inputs",
+    "driftline.gate.policy",
+    "driftline.gate.run",
+    "driftline.gate.state",
+    "driftline.gate.verdict",
+]
 
 
 @pytest.mark.parametrize("name", MODULES)

@@ -18,7 +18,12 @@ def test_defaults_are_the_ones_the_issue_asks_for():
     # source: issue 4 "check" — widening allowed, int → string fails, a new optional field
     # warns, a vanished required field fails, nulls in a non-nullable field fail.
     assert (p.widening, p.type_change, p.new_field, p.missing_required, p.unexpected_nulls) == (
-        "allow", "fail", "warn", "fail", "fail")
+        "allow",
+        "fail",
+        "warn",
+        "fail",
+        "fail",
+    )
     assert (p.max_null_share_rise, p.max_file_error_rate, p.max_cast_loss) == (10.0, 0.0, 0)
 
 
@@ -38,11 +43,19 @@ def test_options_are_keyword_only_and_frozen():
 def test_a_toml_file_sets_each_key(tmp_path):
     f = tmp_path / "gate.toml"
     # source: TOML v1.0.0 (toml.io) — basic strings, integers and floats as values.
-    f.write_text('widening = "warn"\nnew_field = "fail"\nmax_null_share_rise = 2.5\nmax_cast_loss = 3\n'
-                 'max_file_error_rate = 5\n', encoding="utf-8")
+    f.write_text(
+        'widening = "warn"\nnew_field = "fail"\nmax_null_share_rise = 2.5\nmax_cast_loss = 3\n'
+        "max_file_error_rate = 5\n",
+        encoding="utf-8",
+    )
     p = load_policy(f)
     assert (p.widening, p.new_field, p.max_null_share_rise, p.max_cast_loss, p.max_file_error_rate) == (
-        "warn", "fail", 2.5, 3, 5.0)
+        "warn",
+        "fail",
+        2.5,
+        3,
+        5.0,
+    )
     assert isinstance(p.max_file_error_rate, float) and isinstance(p.max_cast_loss, int)
     assert p.type_change == "fail"  # untouched keys keep their defaults
 

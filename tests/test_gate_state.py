@@ -92,8 +92,10 @@ def test_verify_catches_a_rewrite_with_the_same_size_and_mtime(tmp_path):
     ("content", "message"),
     [
         (b"\x00\x01 not json", r"is not a driftline state file \(it is not JSON\); give --state another file name"),
-        (b'{"format": "driftline-state", "version": 7, "files": []}',
-         r"has format version 7; this driftline reads version 1; run with --rebuild"),
+        (
+            b'{"format": "driftline-state", "version": 7, "files": []}',
+            r"has format version 7; this driftline reads version 1; run with --rebuild",
+        ),
         (b'{"format": "something", "files": []}', r"is not a driftline state file \(its format is 'something'\)"),
         (b"[1, 2]", r"is not a driftline state file; give --state another file name, or --rebuild"),
     ],
@@ -113,11 +115,15 @@ def test_foreign_state_is_an_error_and_rebuild_starts_over(tmp_path, content, me
 @pytest.mark.parametrize(
     ("content", "message"),
     [
-        (b'{"format": "driftline-state", "version": 1, "root": "/x", "read": {}, "digest": null, '
-         b'"tool": {"name": "driftline", "version": "0"}, "files": [{"path": "a"}]}',
-         "is damaged at /files/0/format: expected a required key, found none"),
-        (b'{"format": "driftline-state", "version": 1, "files": [',
-         "is damaged at /files/0: expected JSON, found unexpected end of data at line 1, column"),
+        (
+            b'{"format": "driftline-state", "version": 1, "root": "/x", "read": {}, "digest": null, '
+            b'"tool": {"name": "driftline", "version": "0"}, "files": [{"path": "a"}]}',
+            "is damaged at /files/0/format: expected a required key, found none",
+        ),
+        (
+            b'{"format": "driftline-state", "version": 1, "files": [',
+            "is damaged at /files/0: expected JSON, found unexpected end of data at line 1, column",
+        ),
         (b'{"format": "drift', "is damaged at /format: expected JSON, found unexpected end of data"),
         (b"", 'is damaged at "" (the whole document): expected JSON, found'),
     ],
@@ -199,8 +205,10 @@ def test_a_state_file_the_scan_would_read_is_refused(tmp_path):
     run = scan_incremental([land], land / "state.json", write_inside=True)  # it carries the marker: skipped
     assert (run.read, [(s.rel, s.reason) for s in run.profile.skipped]) == (1, [(".driftline-state", "hidden")])
     again = scan_incremental([land], land / "state.json", write_inside=True)
-    assert (again.reused, [(s.rel, s.reason) for s in again.profile.skipped]) == \
-        (1, [(".driftline-state", "hidden"), ("state.json", "own-output")])
+    assert (again.reused, [(s.rel, s.reason) for s in again.profile.skipped]) == (
+        1,
+        [(".driftline-state", "hidden"), ("state.json", "own-output")],
+    )
     with pytest.raises(InputPathError, match="--state needs a file name"):
         scan_incremental([land], "-")
 

@@ -15,8 +15,11 @@ from driftline.gate.compare import compare
 from driftline.gate.policy import RULES, Policy
 from driftline.gate.verdict import junit_xml, render
 
-SCHEMA = {"type": "object", "required": ["id"], "properties": {
-    "id": {"type": "integer"}, "t": {"type": "number"}, "at": {"type": "string", "format": "date-time"}}}
+SCHEMA = {
+    "type": "object",
+    "required": ["id"],
+    "properties": {"id": {"type": "integer"}, "t": {"type": "number"}, "at": {"type": "string", "format": "date-time"}},
+}
 
 
 def _verdict(tmp_path, lines, policy=None):
@@ -25,8 +28,14 @@ def _verdict(tmp_path, lines, policy=None):
 
 
 def test_junit_has_one_case_per_rule_and_the_failures(tmp_path):
-    v = _verdict(tmp_path, ['{"id": 1.5, "t": 1.5, "at": "2026-11-30T00:00:00Z"}',
-                            '{"id": "17b", "t": 2, "at": "2026-11-30 00:00:00Z", "extra": 1}'], Policy(widening="warn"))
+    v = _verdict(
+        tmp_path,
+        [
+            '{"id": 1.5, "t": 1.5, "at": "2026-11-30T00:00:00Z"}',
+            '{"id": "17b", "t": 2, "at": "2026-11-30 00:00:00Z", "extra": 1}',
+        ],
+        Policy(widening="warn"),
+    )
     root = ET.fromstring(junit_xml(v))
     # common practice: the JUnit XML of Ant's junit task as the Jenkins junit-4.xsd describes it —
     # <testsuites> holding <testsuite name tests failures errors skipped>, <testcase name classname>,
@@ -41,16 +50,19 @@ def test_junit_has_one_case_per_rule_and_the_failures(tmp_path):
     failure = failed[0].find("failure")
     assert failure.get("type") == "type_change"
     assert failure.get("message") == (
-        '1 violation(s); first: id: int64 → string — 1 value(s) of type string in 1 file, which the baseline type '
-        'int64 cannot hold at day=3/part-0.jsonl, partition day=3, row 1 (line 2), e.g. "17b"')
+        "1 violation(s); first: id: int64 → string — 1 value(s) of type string in 1 file, which the baseline type "
+        'int64 cannot hold at day=3/part-0.jsonl, partition day=3, row 1 (line 2), e.g. "17b"'
+    )
     assert (suite.get("tests"), suite.get("failures"), suite.get("errors")) == (str(len(RULES)), "1", "0")
     skipped = {c.get("name"): c.find("skipped").get("message") for c in cases if c.find("skipped") is not None}
     assert skipped["narrowing"] == "allowed by the policy (0 change(s) seen)"
     assert skipped["cast_loss"] == "the baseline declares no cast rules"
     assert suite.get("skipped") == str(len(skipped))
     outs = {c.get("name"): c.find("system-out").text for c in cases if c.find("system-out") is not None}
-    assert outs["widening"] == ("warning: id: int64 → float64 — 1 value(s) of type float64 in 1 file widen the "
-                                "baseline type at day=3/part-0.jsonl, partition day=3, row 0 (line 1), e.g. 1.5")
+    assert outs["widening"] == (
+        "warning: id: int64 → float64 — 1 value(s) of type float64 in 1 file widen the "
+        "baseline type at day=3/part-0.jsonl, partition day=3, row 0 (line 1), e.g. 1.5"
+    )
     assert set(outs) == {"widening", "new_field", "content_class"}
     props = {p.get("name"): p.get("value") for p in suite.find("properties")}
     assert (props["baseline"], props["files"], props["violations"]) == ("contract", "1", "1")
@@ -82,7 +94,7 @@ def test_terminal_shows_the_verdict_first_then_each_violation(tmp_path):
     assert lines[0] == "FAIL  2 violation(s), 0 warning(s)"
     body = "\n".join(lines)
     assert "  FAIL  type_change       id: int64 → string\n" in body
-    assert "        at day=3/part-0.jsonl, partition day=3, row 1 (line 2)\n        value \"17b\"" in body
+    assert '        at day=3/part-0.jsonl, partition day=3, row 1 (line 2)\n        value "17b"' in body
     assert "  FAIL  missing_required  id: required field absent" in body
 
 
@@ -91,10 +103,22 @@ def test_json_lists_everything(tmp_path):
     doc = json.loads(json.dumps(v.to_json()))
     assert (doc["format"], doc["version"], doc["passed"], doc["exit_code"]) == ("driftline-verdict", 1, True, 0)
     assert [(a["rule"], a["field"], a["change"]) for a in doc["allowed"]] == [
-        ("widening", "id", "int64 → float64"), ("narrowing", "t", "float64 → int64")]
+        ("widening", "id", "int64 → float64"),
+        ("narrowing", "t", "float64 → int64"),
+    ]
     assert doc["allowed"][0] | {"message": None} == {
-        "rule": "widening", "severity": "allow", "field": "id", "change": "int64 → float64", "message": None,
-        "count": 1, "files": 1, "file": "day=3/part-0.jsonl", "partitions": {"day": "3"}, "row": 1, "line": 2,
-        "example": "2.5"}
+        "rule": "widening",
+        "severity": "allow",
+        "field": "id",
+        "change": "int64 → float64",
+        "message": None,
+        "count": 1,
+        "files": 1,
+        "file": "day=3/part-0.jsonl",
+        "partitions": {"day": "3"},
+        "row": 1,
+        "line": 2,
+        "example": "2.5",
+    }
     assert {r["rule"]: r["status"] for r in doc["rules"]}["type_change"] == "passed"
     assert doc["counts"]["rows"] == 2 and doc["counts"]["violations"] == 0

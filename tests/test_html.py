@@ -114,6 +114,7 @@ def _hostile(tmp: Path) -> Path:
 
 # -- escaping --------------------------------------------------------------------------------
 
+
 def test_field_names_and_values_are_text_not_markup(tmp_path: Path) -> None:
     profile = driftline.scan(_hostile(tmp_path))
     page = html_report.render_html(profile)
@@ -129,7 +130,9 @@ def test_field_names_and_values_are_text_not_markup(tmp_path: Path) -> None:
     assert 'b "q" <b>.jsonl' in text
     # The conflict's chart first, then the field that only starts later; flags name the file.
     assert [(m["chart"], m["data-kind"]) for m in parsed.markers] == [
-        (SCRIPT_NAME, "type-conflict"), ("rtl\\u202eevil", "field-new")]
+        (SCRIPT_NAME, "type-conflict"),
+        ("rtl\\u202eevil", "field-new"),
+    ]
     assert {m["data-file"] for m in parsed.markers} == {'b "q" <b>.jsonl'}
     # source: Unicode UAX #9 explicit directional overrides (U+202E RLO); never reaches the page raw
     assert "\u202e" not in page and "rtl\\u202eevil" in text
@@ -157,6 +160,7 @@ def test_nothing_is_loaded_from_elsewhere(demo: dict[str, Any]) -> None:
 
 
 # -- the demo -----------------------------------------------------------------------------------
+
 
 def test_demo_report_is_small_and_shows_every_injected_change(demo: dict[str, Any]) -> None:
     page, parsed, profile = demo["page"], demo["parsed"], demo["profile"]
@@ -201,6 +205,7 @@ def test_timeline_series_are_the_fields_types_nulls_and_absent(demo: dict[str, A
 
 # -- scale ---------------------------------------------------------------------------------------
 
+
 @pytest.fixture(scope="module")
 def big() -> dict[str, Any]:
     profile = big_profile(n_files=10_000, n_fields=500)
@@ -238,6 +243,7 @@ def test_big_profile_charts_the_type_conflicts_first(big: dict[str, Any]) -> Non
 
 # -- colour and contrast ---------------------------------------------------------------------------
 
+
 def _luminance(hex_colour: str) -> float:
     # source: WCAG 2.1, definition of "relative luminance" (sRGB, 0.03928 threshold as published)
     def chan(c: int) -> float:
@@ -268,8 +274,15 @@ def test_palette_contrast_meets_wcag() -> None:
     for name, colour, _ in svg.PALETTE:
         assert _contrast(colour, "#ffffff") >= 3.0, name
     flag = re.search(r"svg \.mk \.flag \{ fill: (#[0-9a-f]{6})", css).group(1)  # type: ignore[union-attr]
-    for fg, bg in [(svg.INK, svg.PAPER), (svg.MUTED, svg.PAPER), (svg.MUTED, "#ffffff"), ("#ffffff", flag),
-                   (var["accent"], "#ffffff"), (var["odd"], "#ffffff"), (svg.ABSENT_COLOUR, "#ffffff")]:
+    for fg, bg in [
+        (svg.INK, svg.PAPER),
+        (svg.MUTED, svg.PAPER),
+        (svg.MUTED, "#ffffff"),
+        ("#ffffff", flag),
+        (var["accent"], "#ffffff"),
+        (var["odd"], "#ffffff"),
+        (svg.ABSENT_COLOUR, "#ffffff"),
+    ]:
         assert _contrast(fg, bg) >= 4.5, (fg, bg)
     for i in range(len(svg.PALETTE)):  # matrix cells: ink text on each tint
         assert _contrast(svg.INK, var[f"t{i}"]) >= 4.5, i
@@ -287,6 +300,7 @@ def test_print_stylesheet_shows_every_page() -> None:
 
 
 # -- aggregation cross-checked against the profile's own views ----------------------------------------
+
 
 def test_group_counts_agree_with_profile_fields(demo: dict[str, Any]) -> None:
     profile = demo["profile"]
@@ -342,6 +356,7 @@ def test_file_group_and_columns() -> None:
 
 # -- the CLI -----------------------------------------------------------------------------------------
 
+
 def test_cli_scan_writes_the_html_report(tmp_path: Path) -> None:
     d = _hostile(tmp_path)
     out = tmp_path / "report.html"
@@ -359,6 +374,7 @@ def test_cli_scan_writes_the_html_report(tmp_path: Path) -> None:
 
 
 # -- the recommender's column ----------------------------------------------------------------------
+
 
 def test_recommended_rule_and_measured_loss_are_shown(demo: dict[str, Any]) -> None:
     import gzip

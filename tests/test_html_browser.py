@@ -143,7 +143,8 @@ def test_flag_shows_provenance_on_keyboard_focus_and_hover(demo_page: Page, demo
     assert demo_page.evaluate("document.getElementById('tip').hidden") is True
     box = demo_page.evaluate(
         "(() => { const r = document.querySelector('a.mk .flag').getBoundingClientRect();"
-        " return [r.x + r.width / 2, r.y + r.height / 2]; })()")
+        " return [r.x + r.width / 2, r.y + r.height / 2]; })()"
+    )
     demo_page.send("Input.dispatchMouseEvent", type="mouseMoved", x=box[0], y=box[1])
     tip = demo_page.evaluate(TIP)
     assert tip[0] is False and f"file {first['file']}" in tip[1]
@@ -153,30 +154,41 @@ def test_flag_shows_provenance_on_keyboard_focus_and_hover(demo_page: Page, demo
 def test_table_filters_sorts_and_pages(demo_page: Page, demo: dict[str, Any]) -> None:
     fields = demo["report"]["fields"]
     drifting = {e["path"] for e in demo["report"]["events"]}
-    shown = "Array.from(document.querySelectorAll('#field-table tbody tr')).filter(r => r.offsetParent !== null)" \
-            ".map(r => r.dataset.name)"
+    shown = (
+        "Array.from(document.querySelectorAll('#field-table tbody tr')).filter(r => r.offsetParent !== null)"
+        ".map(r => r.dataset.name)"
+    )
     assert sorted(demo_page.evaluate(shown)) == sorted(fields)[:50]
     demo_page.evaluate("document.getElementById('drift-only').click()")
     assert sorted(demo_page.evaluate(shown)) == sorted(drifting)
-    demo_page.evaluate("(() => { const f = document.getElementById('field-filter'); f.value = 'PM'; "
-                       "f.dispatchEvent(new Event('input')); })()")
+    demo_page.evaluate(
+        "(() => { const f = document.getElementById('field-filter'); f.value = 'PM'; "
+        "f.dispatchEvent(new Event('input')); })()"
+    )
     assert sorted(demo_page.evaluate(shown)) == sorted(p for p in drifting if "pm" in p.lower())
-    demo_page.evaluate("(() => { const f = document.getElementById('field-filter'); f.value = ''; "
-                       "f.dispatchEvent(new Event('input')); document.getElementById('drift-only').click(); })()")
+    demo_page.evaluate(
+        "(() => { const f = document.getElementById('field-filter'); f.value = ''; "
+        "f.dispatchEvent(new Event('input')); document.getElementById('drift-only').click(); })()"
+    )
     # Sort by drift events, most first: the first row is a field with the most events.
     counts = {p: sum(1 for e in demo["report"]["events"] if e["path"] == p) for p in fields}
-    demo_page.evaluate("(() => { const b = document.querySelectorAll('#field-table thead button')[3]; "
-                       "b.click(); b.click(); })()")
+    demo_page.evaluate(
+        "(() => { const b = document.querySelectorAll('#field-table thead button')[3]; b.click(); b.click(); })()"
+    )
     top = demo_page.evaluate(shown)[0]
     assert counts[top] == max(counts.values())
-    assert demo_page.evaluate("document.querySelectorAll('#field-table thead th')[4].getAttribute('aria-sort')") \
+    assert (
+        demo_page.evaluate("document.querySelectorAll('#field-table thead th')[4].getAttribute('aria-sort')")
         == "descending"
+    )
 
 
 def test_print_shows_every_chart(demo_page: Page) -> None:
     total = demo_page.evaluate("document.querySelectorAll('figure.chart').length")
-    visible = ("Array.from(document.querySelectorAll('figure.chart'))"
-               ".filter(f => getComputedStyle(f).display !== 'none').length")
+    visible = (
+        "Array.from(document.querySelectorAll('figure.chart'))"
+        ".filter(f => getComputedStyle(f).display !== 'none').length"
+    )
     demo_page.send("Emulation.setEmulatedMedia", media="print")
     try:
         assert demo_page.evaluate(visible) == total
@@ -243,6 +255,7 @@ def test_large_report_pages_and_flags_open_the_page_of_their_event(browser: Brow
     number = int(href.removeprefix("#ev-"))
     assert page.evaluate("location.hash") == href
     assert page.evaluate(f"document.getElementById('{href[1:]}').offsetParent !== null")
-    events_status = ("document.querySelector('table.events').parentNode.nextElementSibling"
-                     ".querySelector('span').textContent")
+    events_status = (
+        "document.querySelector('table.events').parentNode.nextElementSibling.querySelector('span').textContent"
+    )
     assert page.evaluate(events_status).startswith(f"page {(number - 1) // PAGE['events'] + 1} of ")

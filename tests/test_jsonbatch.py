@@ -40,8 +40,9 @@ def _observe(lines: list[bytes], hint: jsonbatch.Hint | None = None) -> tuple[An
 
 
 def _exact(lines: list[bytes]) -> Any:
-    return observe_records([json.loads(x) for x in lines], file="f.jsonl", batch=0, row_start=0,
-                           lines=list(range(1, len(lines) + 1))).fields
+    return observe_records(
+        [json.loads(x) for x in lines], file="f.jsonl", batch=0, row_start=0, lines=list(range(1, len(lines) + 1))
+    ).fields
 
 
 def test_a_kind_change_within_the_batch_is_typed_by_arrow(walked: list[int], monkeypatch: pytest.MonkeyPatch) -> None:
@@ -70,8 +71,7 @@ def test_few_rows_set_aside_are_walked(walked: list[int]) -> None:
     assert obs.fields == _exact(lines) and {0, 25, 50, 75} <= set(walked)
 
 
-def test_remembered_rows_of_the_rarer_kind_and_a_shared_row(walked: list[int], monkeypatch:
-                                                            pytest.MonkeyPatch) -> None:
+def test_remembered_rows_of_the_rarer_kind_and_a_shared_row(walked: list[int], monkeypatch: pytest.MonkeyPatch) -> None:
     # Rows found by two patterns are walked, and the large group is typed without them.
     monkeypatch.setattr(jsonbatch, "ARROW_ASIDE_MIN", 5)
     recs = [{"v": str(i) if i >= 20 else i, "t": "s" if i in (3, 30) else [i]} for i in range(40)]

@@ -59,8 +59,9 @@ def _stamped(n: int) -> list[dict[str, Any]]:
 # -- parse_lines ---------------------------------------------------------------------
 
 
-def test_timestamps_in_the_first_lines_one_full_parse(reads: list[tuple[int, bool]], monkeypatch:
-                                                      pytest.MonkeyPatch) -> None:
+def test_timestamps_in_the_first_lines_one_full_parse(
+    reads: list[tuple[int, bool]], monkeypatch: pytest.MonkeyPatch
+) -> None:
     # pyarrow's JSON reader types RFC 3339 strings as timestamps (pyarrow 26.0.1); the probe
     # of the first lines declares them strings, so the batch itself is parsed once.
     monkeypatch.setattr(jsonparse, "PROBE_BYTES", 200)
@@ -86,8 +87,10 @@ def test_the_probe_leaves_what_the_first_lines_cannot_settle_to_inference(monkey
     # struct that gains a key: the table is pyarrow's own reading all the same.
     monkeypatch.setattr(jsonparse, "PROBE_BYTES", 150)
     head = [{"ts": "2026-01-01T00:00:00Z", "n": None, "l": [], "i": 1, "s": {"a": 1}} for _ in range(5)]
-    tail = [{"ts": "2026-01-02T00:00:00Z", "n": "x", "l": ["y"], "i": 2.5, "s": {"a": 2, "b": "2026-01-03"}}
-            for _ in range(40)]
+    tail = [
+        {"ts": "2026-01-02T00:00:00Z", "n": "x", "l": ["y"], "i": 2.5, "s": {"a": 2, "b": "2026-01-03"}}
+        for _ in range(40)
+    ]
     data = _data(head + tail)
     table, why = jsonparse.parse_lines(data, None)
     assert why == "" and table is not None

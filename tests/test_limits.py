@@ -41,8 +41,9 @@ print(json.dumps({"rc": r.returncode, "stdout": r.stdout, "stderr": r.stderr,
 
 def run_cli(*args: str) -> dict[str, Any]:
     env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path), COLUMNS="200")
-    out = subprocess.run([sys.executable, "-c", _MEASURE, *args], capture_output=True, text=True, env=env,
-                         timeout=600, check=True)
+    out = subprocess.run(
+        [sys.executable, "-c", _MEASURE, *args], capture_output=True, text=True, env=env, timeout=600, check=True
+    )
     return json.loads(out.stdout)
 
 
@@ -54,8 +55,11 @@ def valid_report(report: dict[str, Any]) -> None:
 
 
 def digests(folder: Path) -> dict[str, str]:
-    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
-            for p in sorted(folder.rglob("*")) if p.is_file()}
+    return {
+        str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
+        for p in sorted(folder.rglob("*"))
+        if p.is_file()
+    }
 
 
 # -- option values ---------------------------------------------------------------------------
@@ -65,8 +69,10 @@ def digests(folder: Path) -> dict[str, str]:
     ("options", "message"),
     [
         ({"batch_rows": 0}, "batch_rows must be an integer from 1 to 1,099,511,627,776, got 0"),
-        ({"batch_rows": 10**20},
-         "batch_rows must be an integer from 1 to 1,099,511,627,776, got 100000000000000000000"),
+        (
+            {"batch_rows": 10**20},
+            "batch_rows must be an integer from 1 to 1,099,511,627,776, got 100000000000000000000",
+        ),
         ({"batch_rows": "10"}, "batch_rows must be an integer from 1 to 1,099,511,627,776, got '10'"),
         ({"batch_rows": True}, "batch_rows must be an integer from 1 to 1,099,511,627,776, got True"),
         ({"batch_bytes": 0}, "batch_bytes must be an integer from 1 to 1,073,741,824, got 0"),
@@ -74,8 +80,10 @@ def digests(folder: Path) -> dict[str, str]:
         ({"max_events": 0}, "max_events must be an integer from 1 to 1,000,000,000, got 0"),
         ({"jobs": 0}, "jobs must be an integer from 1 to 1,048,576, got 0"),
         ({"max_errors": 0}, "max_errors must be an integer from 1 to 4,611,686,018,427,387,904, got 0"),
-        ({"max_decompression_ratio": float("nan")},
-         "max_decompression_ratio must be a number from 1 to 1,000,000,000,000.0, got nan"),
+        (
+            {"max_decompression_ratio": float("nan")},
+            "max_decompression_ratio must be a number from 1 to 1,000,000,000,000.0, got nan",
+        ),
     ],
 )
 def test_an_option_out_of_range_is_an_option_error(tmp_path: Path, options: dict[str, Any], message: str):
@@ -128,8 +136,10 @@ def _jsonl(path: Path, count: int, seed: int = 7) -> list[int]:
     import random
 
     rnd = random.Random(seed)
-    lines = [orjson.dumps({"id": i, "s": "x" * rnd.randint(0, 400), "v": rnd.choice([1, 2.5, "t", None])})
-             for i in range(count)]
+    lines = [
+        orjson.dumps({"id": i, "s": "x" * rnd.randint(0, 400), "v": rnd.choice([1, 2.5, "t", None])})
+        for i in range(count)
+    ]
     path.write_bytes(b"".join(line + b"\n" for line in lines))
     return [len(line) + 1 for line in lines]
 
@@ -141,8 +151,11 @@ def test_jsonl_batches_end_at_rows_or_bytes(tmp_path: Path, exact: bool, rows: i
     ref = discover([tmp_path]).files[0]
     res = read_file(ref, ReadOptions(batch_rows=rows, batch_bytes=budget, exact=exact))
     assert [o.rows for o in res.observations] == reference_batches(sizes, rows, budget)
-    assert [o.row_start for o in res.observations][:3] == [0, *reference_batches(sizes, rows, budget)[:1],
-                                                             sum(reference_batches(sizes, rows, budget)[:2])][:3]
+    assert [o.row_start for o in res.observations][:3] == [
+        0,
+        *reference_batches(sizes, rows, budget)[:1],
+        sum(reference_batches(sizes, rows, budget)[:2]),
+    ][:3]
 
 
 def test_split_spans_give_one_readers_batches(tmp_path: Path):
@@ -204,14 +217,18 @@ def test_streamed_array_reports_a_bad_element_where_a_whole_parse_does(tmp_path:
     _array_doc(tmp_path / "a.json", 3000)
     text = (tmp_path / "a.json").read_text()
     at = text.index('"id": 2500,')
-    (tmp_path / "a.json").write_text(text[:at] + '"id": 2500 x,' + text[at + 11:])
+    (tmp_path / "a.json").write_text(text[:at] + '"id": 2500 x,' + text[at + 11 :])
     with pytest.raises(orjson.JSONDecodeError) as info:  # source: orjson's error for the whole document
         orjson.loads((tmp_path / "a.json").read_bytes())
     res = driftline.scan(tmp_path, batch_bytes=50_000).files[0]
     assert res.rows == 2500  # the elements before the bad one
     (issue,) = res.issues
-    assert (issue.kind, issue.line, issue.byte_offset, issue.row) == ("malformed-json", info.value.lineno,
-                                                                       info.value.pos, 2500)
+    assert (issue.kind, issue.line, issue.byte_offset, issue.row) == (
+        "malformed-json",
+        info.value.lineno,
+        info.value.pos,
+        2500,
+    )
 
 
 def test_a_large_document_that_is_not_an_array_is_reported(tmp_path: Path):
@@ -271,8 +288,9 @@ def test_key_explosion_across_records_degrades_and_never_dies(tmp_path: Path):
 def test_huge_batch_rows_stays_within_the_byte_budget(tmp_path: Path, kind: str):
     data = tmp_path / "data"
     data.mkdir()
-    recs = [{"id": i, "name": f"n{i}", "tags": ["a", "b"], "nested": {"x": i * 1.5, "y": "z" * 200}}
-            for i in range(120_000)]
+    recs = [
+        {"id": i, "name": f"n{i}", "tags": ["a", "b"], "nested": {"x": i * 1.5, "y": "z" * 200}} for i in range(120_000)
+    ]
     if kind == "jsonl":
         (data / "a.jsonl").write_bytes(b"".join(orjson.dumps(r) + b"\n" for r in recs))
     else:
@@ -285,8 +303,19 @@ def test_huge_batch_rows_stays_within_the_byte_budget(tmp_path: Path, kind: str)
     (tiny / "a.jsonl").write_text('{"id": 1}\n')
     before = digests(data)
     base = run_cli("scan", str(tiny), "-q", "-j", "1", "--json", str(tmp_path / "t.json"))
-    res = run_cli("scan", str(data), "--batch-rows", "1000000000", "--batch-bytes", str(MB), "-q", "-j", "1",
-                  "--json", str(tmp_path / "r.json"))
+    res = run_cli(
+        "scan",
+        str(data),
+        "--batch-rows",
+        "1000000000",
+        "--batch-bytes",
+        str(MB),
+        "-q",
+        "-j",
+        "1",
+        "--json",
+        str(tmp_path / "r.json"),
+    )
     assert res["rc"] == 0 and base["rc"] == 0, res["stderr"]
     report = json.loads((tmp_path / "r.json").read_text())
     assert report["summary"]["rows"] == 120_000
@@ -331,8 +360,10 @@ def test_events_past_max_events_are_counted_not_listed(tmp_path: Path):
 def test_batches_past_the_limit_merge_into_blocks_with_exact_counts(tmp_path: Path, monkeypatch: pytest.MonkeyPatch):
     for name in ("a", "b"):
         (tmp_path / f"{name}.jsonl").write_text(
-            "".join(json.dumps({"id": i, "v": None if i % 7 == 0 else (i if i % 3 else "s")}) + "\n"
-                    for i in range(500)))
+            "".join(
+                json.dumps({"id": i, "v": None if i % 7 == 0 else (i if i % 3 else "s")}) + "\n" for i in range(500)
+            )
+        )
     one = driftline.scan(tmp_path, batch_rows=10**6)
     monkeypatch.setattr(thinning, "FILE_BATCHES", 40)
     thinned = driftline.scan(tmp_path, batch_rows=1)
@@ -363,8 +394,9 @@ def _saved(tmp_path: Path, profile: driftline.Profile) -> Path:
 def test_batch_rows_1_is_summarised_not_flooded(tmp_path: Path):
     data = tmp_path / "data"
     data.mkdir()
-    (data / "a.jsonl").write_text("".join(json.dumps({"id": i, "v": str(i) if i % 2 else i}) + "\n"
-                                          for i in range(5000)))
+    (data / "a.jsonl").write_text(
+        "".join(json.dumps({"id": i, "v": str(i) if i % 2 else i}) + "\n" for i in range(5000))
+    )
     before = digests(data)
     res = run_cli("scan", str(data), "--batch-rows", "1", "-q", "-j", "1", "--json", str(tmp_path / "r.json"))
     assert res["rc"] == 0, res["stderr"]
@@ -390,8 +422,7 @@ def test_thinning_as_it_comes_equals_the_offline_rule_in_one_part_or_two():
         for n in (1, 2, 3, 10, 57, 333):
             span = block_size(n, limit)  # the rule: the smallest power of two with ceil(n / span) <= limit
             assert -(-n // span) <= limit and (span == 1 or -(-n // (span // 2)) > limit)
-            offline = [merge_block([obs(i) for i in range(j, min(n, j + span))], j // span)
-                       for j in range(0, n, span)]
+            offline = [merge_block([obs(i) for i in range(j, min(n, j + span))], j // span) for j in range(0, n, span)]
             for cut in (0, n // 3, n):  # one reader, or two byte spans of the file
                 parts = []
                 for lo, hi in ((0, cut), (cut, n)):

@@ -69,10 +69,16 @@ rows_st = st.lists(
 
 
 @settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(rows=rows_st, crlf=st.booleans(), batch_rows=st.sampled_from([1, 3, 1000]), mark=st.integers(0, 39),
-       last_newline=st.booleans())
-def test_rows_and_ragged_rows_are_on_pythons_lines_and_the_lines_add_up(tmp_path_factory, rows, crlf, batch_rows,
-                                                                        mark, last_newline):
+@given(
+    rows=rows_st,
+    crlf=st.booleans(),
+    batch_rows=st.sampled_from([1, 3, 1000]),
+    mark=st.integers(0, 39),
+    last_newline=st.booleans(),
+)
+def test_rows_and_ragged_rows_are_on_pythons_lines_and_the_lines_add_up(
+    tmp_path_factory, rows, crlf, batch_rows, mark, last_newline
+):
     end = "\r\n" if crlf else "\n"
     ncols = 3
     lines = ["a,b,c"]
@@ -153,23 +159,29 @@ def test_rows_lost_inside_the_reader_are_reported(tmp_path, monkeypatch):
     path = tmp_path / "f.csv"
     path.write_bytes(b"a,b\n" + b"".join(b"%d,%d\n" % (i, i) for i in range(10)))
     observe = csvfile.CsvState.observe
-    monkeypatch.setattr(csvfile.CsvState, "observe",
-                        lambda self, cells: observe(self, cells.slice(0, cells.num_rows - 1)))
+    monkeypatch.setattr(
+        csvfile.CsvState, "observe", lambda self, cells: observe(self, cells.slice(0, cells.num_rows - 1))
+    )
     res = read(path, batch_rows=4)
     assert res.rows == 7
     (issue,) = res.issues
     assert (issue.kind, issue.severity) == ("unaccounted-lines", "error")
-    assert issue.message == ("11 lines counted apart from the reader, 8 accounted for (header to line 1, 7 rows, "
-                             "0 lines of set-aside rows, 0 blank lines): 3 lines unaccounted for; rows may be missing")
+    assert issue.message == (
+        "11 lines counted apart from the reader, 8 accounted for (header to line 1, 7 rows, "
+        "0 lines of set-aside rows, 0 blank lines): 3 lines unaccounted for; rows may be missing"
+    )
 
 
 # -- JSON Lines ------------------------------------------------------------------------------------
 
-jsonl_lines = st.lists(st.one_of(
-    st.integers(0, 99).map(lambda i: json.dumps({"a": i})),
-    st.sampled_from(["", " ", "\t", "\r", " \r"]),  # blank: whitespace only
-    st.sampled_from(["{bad", '{"a": 1} 2', "[1,"]),  # malformed
-), max_size=60)
+jsonl_lines = st.lists(
+    st.one_of(
+        st.integers(0, 99).map(lambda i: json.dumps({"a": i})),
+        st.sampled_from(["", " ", "\t", "\r", " \r"]),  # blank: whitespace only
+        st.sampled_from(["{bad", '{"a": 1} 2', "[1,"]),  # malformed
+    ),
+    max_size=60,
+)
 
 
 @settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
@@ -207,8 +219,10 @@ def test_jsonl_rows_lost_inside_the_reader_are_reported(tmp_path, monkeypatch):
     res = read(path)
     assert res.rows == 299
     (issue,) = res.issues
-    assert issue.message == ("300 lines counted apart from the reader, 299 accounted for (299 rows, 0 lines "
-                             "reported, 0 blank lines): 1 lines unaccounted for; rows may be missing")
+    assert issue.message == (
+        "300 lines counted apart from the reader, 299 accounted for (299 rows, 0 lines "
+        "reported, 0 blank lines): 1 lines unaccounted for; rows may be missing"
+    )
 
 
 def test_a_blank_line_longer_than_the_limit_is_only_the_readers_too_large_line(tmp_path):
@@ -220,7 +234,7 @@ def test_a_blank_line_longer_than_the_limit_is_only_the_readers_too_large_line(t
 
 def test_the_tally_counts_across_any_read_size():
     # The same counts whatever the pieces: a blank line or a CR split between two reads.
-    data = b'a,b\r\n\r\n1,2\n\n\r\n3\r\r4\n\r5\n\r'
+    data = b"a,b\r\n\r\n1,2\n\n\r\n3\r\r4\n\r5\n\r"
     whole = LineTally(io.BytesIO(data), "csv")
     whole.read()
     whole.end()
@@ -229,8 +243,11 @@ def test_the_tally_counts_across_any_read_size():
         while t.read(size):
             pass
         t.end()
-        assert (t.lines(), list(t.blanks), t.splitting_cr, t.first_cr_line) == (
-            whole.lines(), list(whole.blanks), whole.splitting_cr, whole.first_cr_line) == (8, [2, 4, 5, 8], 1, 6)
+        assert (
+            (t.lines(), list(t.blanks), t.splitting_cr, t.first_cr_line)
+            == (whole.lines(), list(whole.blanks), whole.splitting_cr, whole.first_cr_line)
+            == (8, [2, 4, 5, 8], 1, 6)
+        )
 
 
 @pytest.mark.parametrize("codec", ["gzip", "bz2", "xz", "zstd"])
@@ -240,7 +257,7 @@ def test_compressed_text_is_reconciled_after_decoding(tmp_path, codec):
     from hostile_inputs import compress
 
     data = b"a,b\n1,2\n\n3,4,5\n6,7\n"
-    path = tmp_path / f"f.csv.{ {'gzip': 'gz', 'bz2': 'bz2', 'xz': 'xz', 'zstd': 'zst'}[codec]}"
+    path = tmp_path / f"f.csv.{ {'gzip': 'gz', 'bz2': 'bz2', 'xz': 'xz', 'zstd': 'zst'}[codec] }"
     path.write_bytes(lzma.compress(data) if codec == "xz" else compress(data, codec))
     res = read(path)
     assert res.rows == 2 and [(i.kind, i.line) for i in res.issues] == [("ragged-row", 4)]

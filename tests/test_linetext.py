@@ -32,11 +32,21 @@ def test_matching_finds_the_kind_after_the_key_with_any_json_whitespace() -> Non
 def test_matching_each_kind_by_its_first_character() -> None:
     # source: RFC 8259 sections 3-7: a value starts with '"' (string), '[' (array),
     # '{' (object), '-' or a digit (number), 't'/'f' (true/false) or 'n' (null).
-    lines = [b'{"k": "s"}', b'{"k": [1]}', b'{"k": {"a": 1}}', b'{"k": -1}', b'{"k": 7}', b'{"k": true}',
-             b'{"k": false}', b'{"k": null}']
+    lines = [
+        b'{"k": "s"}',
+        b'{"k": [1]}',
+        b'{"k": {"a": 1}}',
+        b'{"k": -1}',
+        b'{"k": 7}',
+        b'{"k": true}',
+        b'{"k": false}',
+        b'{"k": null}',
+    ]
     data = _joined(lines)
-    found = {kind: linetext.matching(data, ('"k"', kind), 10)
-             for kind in ("string", "array", "object", "number", "boolean", "null")}
+    found = {
+        kind: linetext.matching(data, ('"k"', kind), 10)
+        for kind in ("string", "array", "object", "number", "boolean", "null")
+    }
     assert found == {"string": {0}, "array": {1}, "object": {2}, "number": {3, 4}, "boolean": {5, 6}, "null": {7}}
 
 
@@ -100,7 +110,7 @@ def test_odd_rows_with_the_joined_lines() -> None:
     # A multi-byte character split across two lines is invalid in each of them.
     split = [b'{"a": "x\xc3', b'\xa9"}']
     assert linetext.odd_rows(split, pa.array(split, pa.binary()), _joined(split)) is None
-    for reported in (b'{"a": 1}\r', b"", b"  ", b"\xef\xbb\xbf{}", b'[1,]'):
+    for reported in (b'{"a": 1}\r', b"", b"  ", b"\xef\xbb\xbf{}", b"[1,]"):
         lines = [*good, reported]
         assert linetext.odd_rows(lines, pa.array(lines, pa.binary()), _joined(lines)) is None
 

@@ -22,8 +22,11 @@ PASSWORD = "hunter2-secret"
 
 
 def digests(folder: Path) -> dict[str, str]:
-    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
-            for p in sorted(folder.rglob("*")) if p.is_file() and not p.is_symlink()}
+    return {
+        str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
+        for p in sorted(folder.rglob("*"))
+        if p.is_file() and not p.is_symlink()
+    }
 
 
 @pytest.fixture
@@ -48,8 +51,11 @@ def test_links_out_of_the_root_are_skipped_and_listed(landing: Path):
     p = driftline.scan(landing)
     assert [f.rel for f in p.files] == ["day=1/a.jsonl", "same.jsonl"]
     assert {(s.rel, s.reason) for s in p.skipped} == {
-        ("passwd.csv", "link-outside-root"), ("team", "link-outside-root"), ("chain.csv", "link-outside-root"),
-        ("day=2", "symlink-loop")}
+        ("passwd.csv", "link-outside-root"),
+        ("team", "link-outside-root"),
+        ("chain.csv", "link-outside-root"),
+        ("day=2", "symlink-loop"),
+    }
     assert p.rows == 4
 
 
@@ -64,8 +70,13 @@ def test_cli_reports_carry_no_value_from_outside(landing: Path, tmp_path: Path):
     before = digests(tmp_path / "outside") | digests(landing)
     env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path), COLUMNS="200")
     cli = [sys.executable, "-m", "driftline.cli", "scan", str(landing)]
-    res = subprocess.run([*cli, "--json", str(tmp_path / "r.json"), "--html", str(tmp_path / "r.html")],
-                         capture_output=True, text=True, env=env, timeout=120)
+    res = subprocess.run(
+        [*cli, "--json", str(tmp_path / "r.json"), "--html", str(tmp_path / "r.html")],
+        capture_output=True,
+        text=True,
+        env=env,
+        timeout=120,
+    )
     assert res.returncode == 0, res.stderr
     for out in (tmp_path / "r.json", tmp_path / "r.html"):
         text = out.read_text()
@@ -73,10 +84,14 @@ def test_cli_reports_carry_no_value_from_outside(landing: Path, tmp_path: Path):
     assert SECRET not in res.stdout and PASSWORD not in res.stdout
     report = json.loads((tmp_path / "r.json").read_text())
     assert sorted(s["path"] for s in report["skipped"] if s["reason"] == "link-outside-root") == [
-        "chain.csv", "passwd.csv", "team"]
+        "chain.csv",
+        "passwd.csv",
+        "team",
+    ]
     assert digests(tmp_path / "outside") | digests(landing) == before
-    res = subprocess.run([*cli, "--follow-links", "--json", "-", "-q"], capture_output=True, text=True, env=env,
-                         timeout=120)
+    res = subprocess.run(
+        [*cli, "--follow-links", "--json", "-", "-q"], capture_output=True, text=True, env=env, timeout=120
+    )
     assert res.returncode == 0 and PASSWORD in res.stdout  # followed when asked
 
 

@@ -47,7 +47,8 @@ FUZZ = settings(max_examples=40, deadline=None, suppress_health_check=[HealthChe
 def reference(kind: str) -> Draft202012Validator:
     """jsonschema's validator for one of our schemas, the others registered for cross-file $refs."""
     registry = Registry().with_resources(
-        (schema_document(k)["$id"], DRAFT202012.create_resource(schema_document(k))) for k in SCHEMAS)
+        (schema_document(k)["$id"], DRAFT202012.create_resource(schema_document(k))) for k in SCHEMAS
+    )
     return Draft202012Validator(schema_document(kind), registry=registry)
 
 
@@ -56,7 +57,9 @@ def _data(d: Path) -> Path:
     (land / "day=1").mkdir(parents=True)
     (land / "day=1" / "a.jsonl").write_text(
         '{"id": 1, "tag": "x", "at": "2026-11-30T10:00:00Z", "m": {"k": [1, 2]}}\n'
-        '{"id": 2.5, "tag": null}\n{"id": "3", "tag": "y"}\n', encoding="utf-8")
+        '{"id": 2.5, "tag": null}\n{"id": "3", "tag": "y"}\n',
+        encoding="utf-8",
+    )
     (land / "day=1" / "b.csv").write_text("id,tag\n4,z\n5,\n", encoding="utf-8")
     return land
 
@@ -99,9 +102,21 @@ def _paths(doc: Any, at: Path_ = ()) -> Iterator[Path_]:
 def _other_types(v: Any) -> list[Any]:
     # One value of every JSON type (RFC 8259 section 3) but the one v has.
     kinds = {"string": "12", "integer": 12, "number": 1.5, "true": True, "null": None, "object": {}, "array": []}
-    mine = ("true" if isinstance(v, bool) else "null" if v is None else "string" if isinstance(v, str)
-            else "integer" if isinstance(v, int) else "number" if isinstance(v, float)
-            else "object" if isinstance(v, dict) else "array")
+    mine = (
+        "true"
+        if isinstance(v, bool)
+        else "null"
+        if v is None
+        else "string"
+        if isinstance(v, str)
+        else "integer"
+        if isinstance(v, int)
+        else "number"
+        if isinstance(v, float)
+        else "object"
+        if isinstance(v, dict)
+        else "array"
+    )
     return [x for k, x in kinds.items() if k != mine]
 
 
@@ -141,6 +156,7 @@ def _invoke(*args: str | Path) -> tuple[int, str, str]:
 
 
 # -- the schemas themselves ---------------------------------------------------------------------------
+
 
 @pytest.mark.parametrize("kind", sorted(SCHEMAS))
 def test_the_packaged_schemas_are_the_published_ones_and_are_valid(kind: str):
@@ -189,6 +205,7 @@ def test_the_compiled_checks_agree_with_jsonschema(valid: dict[str, Any], kind: 
 
 # -- the verbs on damaged files ------------------------------------------------------------------------
 
+
 @FUZZ
 @given(data=st.data())
 def test_check_diff_and_schema_on_a_damaged_report(valid: dict[str, Any], data: st.DataObject):
@@ -200,8 +217,12 @@ def test_check_diff_and_schema_on_a_damaged_report(valid: dict[str, Any], data: 
             expect_valid = reference("report").is_valid(json.loads(raw))
         except ValueError:
             expect_valid = False
-        runs = [("check", valid["land"], "--baseline", f, "--quiet"), ("diff", f, valid["land"], "--quiet"),
-                ("schema", f, "--to", "sql", "--quiet"), ("check", f, "--baseline", valid["contract"], "--quiet")]
+        runs = [
+            ("check", valid["land"], "--baseline", f, "--quiet"),
+            ("diff", f, valid["land"], "--quiet"),
+            ("schema", f, "--to", "sql", "--quiet"),
+            ("check", f, "--baseline", valid["contract"], "--quiet"),
+        ]
         for args in runs:
             code, _, err = _invoke(*args)
             # Exit 1 is a policy violation: only a valid (if altered) report can give one.
@@ -248,8 +269,7 @@ def test_check_on_a_damaged_json_schema_baseline(valid: dict[str, Any], data: st
         try:
             doc = json.loads(raw)
             # source: the JSON Schema 2020-12 meta-schema, checked by jsonschema
-            meta_valid = isinstance(doc, dict) and Draft202012Validator(
-                Draft202012Validator.META_SCHEMA).is_valid(doc)
+            meta_valid = isinstance(doc, dict) and Draft202012Validator(Draft202012Validator.META_SCHEMA).is_valid(doc)
         except ValueError:
             meta_valid = False
         if not meta_valid:
@@ -325,17 +345,24 @@ def test_a_damaged_policy_names_the_file_and_the_key(valid: dict[str, Any], data
 
 # -- fixed cases the issue names -----------------------------------------------------------------------
 
+
 @pytest.mark.parametrize(
     ("damage", "message"),
     [
-        (lambda r: r["files"][0].update(rows="12"),
-         'is damaged at /files/0/rows: expected an integer ≥ 0, found the string "12"'),
+        (
+            lambda r: r["files"][0].update(rows="12"),
+            'is damaged at /files/0/rows: expected an integer ≥ 0, found the string "12"',
+        ),
         (lambda r: r["files"][1].pop("path"), "is damaged at /files/1/path: expected a required key, found none"),
-        (lambda r: r["files"][0]["batches"][0]["fields"]["id"]["types"].update({"int63": 1}),
-         'is damaged at /files/0/batches/0/fields/id/types/int63: expected a type key such as int64, string or '
-         'list, found the string "int63"'),
-        (lambda r: r["files"].append(dict(r["files"][0])),
-         'is damaged at /files/2/path: expected each file listed once, found the string "day=1/a.jsonl" again'),
+        (
+            lambda r: r["files"][0]["batches"][0]["fields"]["id"]["types"].update({"int63": 1}),
+            "is damaged at /files/0/batches/0/fields/id/types/int63: expected a type key such as int64, string or "
+            'list, found the string "int63"',
+        ),
+        (
+            lambda r: r["files"].append(dict(r["files"][0])),
+            'is damaged at /files/2/path: expected each file listed once, found the string "day=1/a.jsonl" again',
+        ),
     ],
 )
 def test_the_issue_s_damaged_reports(valid: dict[str, Any], tmp_path: Path, damage: Any, message: str):
@@ -347,6 +374,7 @@ def test_the_issue_s_damaged_reports(valid: dict[str, Any], tmp_path: Path, dama
     for args in (("check", valid["land"], "--baseline", f), ("diff", f, valid["land"]), ("schema", f)):
         code, out, err = _invoke(*args)
         assert code == 2 and out == "", (args, err)
-        assert " ".join(err.split()) == f"DamagedFileError: report '{f}' {message}" or \
-            message in " ".join(err.split()), (args, err)
+        assert " ".join(err.split()) == f"DamagedFileError: report '{f}' {message}" or message in " ".join(
+            err.split()
+        ), (args, err)
     assert f.read_bytes() == before

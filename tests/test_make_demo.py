@@ -103,9 +103,7 @@ PREDICATES = {
     ("nested-new", "battery.charge_cycles"): lambda r: "charge_cycles" in r["battery"],
     ("nulls-begin", "humidity"): lambda r: "humidity" in r and r["humidity"] is None,
     ("field-gone", "temp_c"): lambda r: "temp_c" not in r,
-    ("textclass-changed", "ts"): lambda r: (
-        isinstance(r["ts"], str) and SPACE_TS.fullmatch(r["ts"]) is not None
-    ),
+    ("textclass-changed", "ts"): lambda r: isinstance(r["ts"], str) and SPACE_TS.fullmatch(r["ts"]) is not None,
     ("type-widened", "pm10"): lambda r: isinstance(r["pm10"], float),
     # pyarrow hands a timestamp column back as datetime, a JSON or CSV ts is a str
     ("type-conflict", "ts"): lambda r: isinstance(r["ts"], datetime),
@@ -259,10 +257,7 @@ def test_json_changes_have_the_promised_shape(demo: dict[str, Any]) -> None:
 
     # "from here on" changes hold in every later row of the region
     assert all("temp_c" not in r for r in after(("field-gone", "temp_c"), "north"))
-    assert all(
-        _is_int(r["battery"]["charge_cycles"])
-        for r in after(("nested-new", "battery.charge_cycles"), "north")
-    )
+    assert all(_is_int(r["battery"]["charge_cycles"]) for r in after(("nested-new", "battery.charge_cycles"), "north"))
     assert all(isinstance(r["pm10"], float) for r in after(("type-widened", "pm10"), "south"))
     assert all(_is_int(r["pm10"]) for r in before(("type-widened", "pm10")))
     assert all(SPACE_TS.fullmatch(r["ts"]) for r in after(("textclass-changed", "ts"), "south"))

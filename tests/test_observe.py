@@ -88,8 +88,24 @@ def test_samples_only_walk_keeps_the_examples_and_class_counts():
     # counts, types and nulls equal the full walk's (the reference), the leap-second and
     # digit statistics are left to the caller.  "1990-12-31T23:59:60Z" is RFC 3339's own
     # leap-second example (source: RFC 3339 section 5.8).
-    values = ["12", "007", "-3.25", "1e5", "2024-02-29", "1990-12-31T23:59:60Z", "1985-04-12t23:20:50.52z",
-              "N/A", "", "true", "plain", "12", "x", "12", None, 4]
+    values = [
+        "12",
+        "007",
+        "-3.25",
+        "1e5",
+        "2024-02-29",
+        "1990-12-31T23:59:60Z",
+        "1985-04-12t23:20:50.52z",
+        "N/A",
+        "",
+        "true",
+        "plain",
+        "12",
+        "x",
+        "12",
+        None,
+        4,
+    ]
     records = [{"s": v, "l": [v, v]} for v in values]
     full = observe_records(records, file="f", batch=0, row_start=0, lines=list(range(1, 17)))
     short = observe_records(records, file="f", batch=0, row_start=0, lines=list(range(1, 17)), samples_only=True)

@@ -39,8 +39,9 @@ def run(*args: str | Path, cwd: Path | None = None) -> subprocess.CompletedProce
     # A small wrapper process runs the CLI and reports its peak (getrusage(2), RUSAGE_CHILDREN:
     # the largest waited-for descendant), so the children of earlier tests do not count.
     cmd = [*EXE, *map(str, args)]
-    proc = subprocess.run([sys.executable, "-c", WRAPPER, *cmd], capture_output=True, text=True, timeout=120,
-                          cwd=cwd, env=env)
+    proc = subprocess.run(
+        [sys.executable, "-c", WRAPPER, *cmd], capture_output=True, text=True, timeout=120, cwd=cwd, env=env
+    )
     assert proc.returncode == 0, proc.stderr
     got = json.loads(proc.stdout)
     assert got["peak"] < MAX_RSS_BYTES
@@ -67,6 +68,7 @@ def land(tmp_path: Path) -> Path:
 
 
 # -- devices, FIFOs, standard output and links -------------------------------------------------------
+
 
 def test_a_character_device_is_written_into_never_replaced(tmp_path: Path, land: Path):
     before = snapshot(land)
@@ -150,6 +152,7 @@ def test_a_block_device_a_socket_and_a_folder_are_refused(tmp_path: Path):
 
 # -- inputs are sacred ---------------------------------------------------------------------------------
 
+
 def test_outputs_aimed_at_inputs_are_refused(tmp_path: Path, land: Path):
     (tmp_path / "hard.json").hardlink_to(land / "a.jsonl")
     os.symlink(land / "b.csv", tmp_path / "soft.json")
@@ -158,29 +161,48 @@ def test_outputs_aimed_at_inputs_are_refused(tmp_path: Path, land: Path):
     os.symlink(outside, land / "linked.jsonl")  # an input that is a link out of the folder
     before, kept = snapshot(land), outside.read_bytes()
     cases = [
-        (("scan", land, "--json", land / "a.jsonl"),
-         f"--json '{land / 'a.jsonl'}': it would replace the file 'a.jsonl' of the scanned folder '{land}'"),
-        (("scan", land, "--html", land / "b.csv"),
-         f"--html '{land / 'b.csv'}': it would replace the file 'b.csv' of the scanned folder '{land}'"),
-        (("scan", land, "--json", tmp_path / "hard.json"),  # a hard link: same device and inode
-         f"--json '{tmp_path / 'hard.json'}': it would replace the file 'a.jsonl' of the scanned folder"),
-        (("scan", land, "--json", tmp_path / "soft.json"),  # a symlink to an input
-         f"--json '{tmp_path / 'soft.json'}': it would replace the file 'b.csv' of the scanned folder"),
-        (("scan", land, "--json", outside),  # the target of a link the scan reads
-         f"--json '{outside}': it would replace the file 'linked.jsonl' of the scanned folder"),
-        (("scan", land / "a.jsonl", "--json", land / "a.jsonl", "--write-inside"),  # a named input, flag or not
-         f"--json '{land / 'a.jsonl'}': it is '{land / 'a.jsonl'}', an input of this run"),
-        (("schema", land, "--to", "sql", "--out", land / "c.sql"),
-         f"--out '{land / 'c.sql'}' lies inside the scanned folder '{land}', where a later scan would read it "
-         "as data; write it elsewhere, or pass --write-inside"),
-        (("schema", land, "--to", "sql", "--out", land / "b.csv", "--write-inside"),  # never over data
-         f"--out '{land / 'b.csv'}': it would replace the file 'b.csv' of the scanned folder"),
-        (("schema", land, "--rules", land / "sub" / ".." / "r.json"),
-         "lies inside the scanned folder"),
-        (("scan", str(land / "*.jsonl"), "--json", land / "a.jsonl"),  # matched by a scanned glob
-         f"--json '{land / 'a.jsonl'}': it would replace the file 'a.jsonl' of the scanned folder '{land}'"),
-        (("diff", land / "a.jsonl", land / "b.csv", "--json", land / "b.csv"),
-         f"--json '{land / 'b.csv'}': it is '{land / 'b.csv'}', an input of this run"),
+        (
+            ("scan", land, "--json", land / "a.jsonl"),
+            f"--json '{land / 'a.jsonl'}': it would replace the file 'a.jsonl' of the scanned folder '{land}'",
+        ),
+        (
+            ("scan", land, "--html", land / "b.csv"),
+            f"--html '{land / 'b.csv'}': it would replace the file 'b.csv' of the scanned folder '{land}'",
+        ),
+        (
+            ("scan", land, "--json", tmp_path / "hard.json"),  # a hard link: same device and inode
+            f"--json '{tmp_path / 'hard.json'}': it would replace the file 'a.jsonl' of the scanned folder",
+        ),
+        (
+            ("scan", land, "--json", tmp_path / "soft.json"),  # a symlink to an input
+            f"--json '{tmp_path / 'soft.json'}': it would replace the file 'b.csv' of the scanned folder",
+        ),
+        (
+            ("scan", land, "--json", outside),  # the target of a link the scan reads
+            f"--json '{outside}': it would replace the file 'linked.jsonl' of the scanned folder",
+        ),
+        (
+            ("scan", land / "a.jsonl", "--json", land / "a.jsonl", "--write-inside"),  # a named input, flag or not
+            f"--json '{land / 'a.jsonl'}': it is '{land / 'a.jsonl'}', an input of this run",
+        ),
+        (
+            ("schema", land, "--to", "sql", "--out", land / "c.sql"),
+            f"--out '{land / 'c.sql'}' lies inside the scanned folder '{land}', where a later scan would read it "
+            "as data; write it elsewhere, or pass --write-inside",
+        ),
+        (
+            ("schema", land, "--to", "sql", "--out", land / "b.csv", "--write-inside"),  # never over data
+            f"--out '{land / 'b.csv'}': it would replace the file 'b.csv' of the scanned folder",
+        ),
+        (("schema", land, "--rules", land / "sub" / ".." / "r.json"), "lies inside the scanned folder"),
+        (
+            ("scan", str(land / "*.jsonl"), "--json", land / "a.jsonl"),  # matched by a scanned glob
+            f"--json '{land / 'a.jsonl'}': it would replace the file 'a.jsonl' of the scanned folder '{land}'",
+        ),
+        (
+            ("diff", land / "a.jsonl", land / "b.csv", "--json", land / "b.csv"),
+            f"--json '{land / 'b.csv'}': it is '{land / 'b.csv'}', an input of this run",
+        ),
     ]
     (land / "sub").mkdir()
     for args, message in cases:
@@ -220,6 +242,7 @@ def test_a_report_inside_the_folder_with_write_inside_is_never_read_back(tmp_pat
 
 # -- every output carries the marker, and stays valid for its consumers ----------------------------------
 
+
 class _Tags(HTMLParser):
     def __init__(self) -> None:
         super().__init__()
@@ -235,9 +258,23 @@ class _Tags(HTMLParser):
 
 def test_every_output_inside_the_folder_is_skipped_as_own_output(tmp_path: Path, land: Path):
     before = snapshot(land)
-    out = {name: land / name for name in ("report.json", "report.html", "contract.json", "schema.avsc.json",
-                                           "create.sql", "schema.arrow", "schema.arrow.txt", "rules.json",
-                                           "verdict.json", "verdict.xml", "diff.json", "state.json")}
+    out = {
+        name: land / name
+        for name in (
+            "report.json",
+            "report.html",
+            "contract.json",
+            "schema.avsc.json",
+            "create.sql",
+            "schema.arrow",
+            "schema.arrow.txt",
+            "rules.json",
+            "verdict.json",
+            "verdict.xml",
+            "diff.json",
+            "state.json",
+        )
+    }
     w = "--write-inside"
     steps = [
         ("scan", land, "--json", out["report.json"], "--html", out["report.html"], w),
@@ -246,8 +283,19 @@ def test_every_output_inside_the_folder_is_skipped_as_own_output(tmp_path: Path,
         ("schema", land, "--to", "sql", "--table", "t", "--out", out["create.sql"], w),
         ("schema", land, "--to", "arrow", "--out", out["schema.arrow"], w),
         ("schema", land, "--to", "arrow-text", "--out", out["schema.arrow.txt"], w),
-        ("check", land, "--baseline", out["contract.json"], "--json", out["verdict.json"], "--junit",
-         out["verdict.xml"], "--state", out["state.json"], w),
+        (
+            "check",
+            land,
+            "--baseline",
+            out["contract.json"],
+            "--json",
+            out["verdict.json"],
+            "--junit",
+            out["verdict.xml"],
+            "--state",
+            out["state.json"],
+            w,
+        ),
         ("diff", land / "a.jsonl", land / "b.csv", "--json", out["diff.json"], w),
     ]
     for args in steps:
@@ -269,8 +317,12 @@ def test_every_output_inside_the_folder_is_skipped_as_own_output(tmp_path: Path,
     # source: SQL comments ('--' to the end of the line); duckdb runs the script
     con = duckdb.connect()
     con.execute(out["create.sql"].read_text(encoding="utf-8"))
-    assert [r[0] for r in con.execute("SELECT column_name FROM information_schema.columns WHERE table_name = 't' "
-                                      "ORDER BY ordinal_position").fetchall()] == ["id", "name"]
+    assert [
+        r[0]
+        for r in con.execute(
+            "SELECT column_name FROM information_schema.columns WHERE table_name = 't' ORDER BY ordinal_position"
+        ).fetchall()
+    ] == ["id", "name"]
     assert pa.ipc.read_schema(pa.py_buffer(out["schema.arrow"].read_bytes())).names == ["id", "name"]
     # source: XML 1.0 section 2.8 — the declaration first, then comments; ElementTree parses it
     assert ET.parse(out["verdict.xml"]).getroot().tag == "testsuites"
@@ -284,6 +336,7 @@ def test_every_output_inside_the_folder_is_skipped_as_own_output(tmp_path: Path,
 
 # -- two outputs, two targets ----------------------------------------------------------------------------
 
+
 def test_two_outputs_on_one_target_are_a_usage_error(tmp_path: Path, land: Path):
     before = snapshot(land)
     x = tmp_path / "x.out"
@@ -295,8 +348,10 @@ def test_two_outputs_on_one_target_are_a_usage_error(tmp_path: Path, land: Path)
         (("scan", land, "--json", "-", "--html", "/dev/stdout"), "--json and --html both write to standard output"),
         (("schema", land, "--to", "sql", "--out", x, "--rules", x), f"--out and --rules both write to '{x}'"),
         (("schema", land, "--to", "sql", "--rules", "-"), "--out and --rules both write to standard output"),
-        (("check", land, "--baseline", land / "a.jsonl", "--json", x, "--state", x),
-         f"--json and --state both write to '{x}'"),
+        (
+            ("check", land, "--baseline", land / "a.jsonl", "--json", x, "--state", x),
+            f"--json and --state both write to '{x}'",
+        ),
     ]
     for args, message in cases:
         res = run(*args)

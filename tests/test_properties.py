@@ -45,16 +45,33 @@ SLOW = settings(max_examples=8, deadline=None, suppress_health_check=[HealthChec
 
 TEXT = st.text(st.characters(blacklist_categories=("Cs",)), max_size=10)  # any unicode but lone surrogates
 KEYS = st.one_of(st.sampled_from(["id", "pm25", "a.b", "tags[]", "`q`", "", "ключ", "名字"]), TEXT)
-TOKENS = st.sampled_from(["", "NA", "n/a", "null", "1", "-0", "007", "2.50", "1e400", "true",
-                          "1985-04-12T23:20:50.52Z", "1990-12-31T23:59:60Z", "2026-11-30", "9007199254740993"])
+TOKENS = st.sampled_from(
+    [
+        "",
+        "NA",
+        "n/a",
+        "null",
+        "1",
+        "-0",
+        "007",
+        "2.50",
+        "1e400",
+        "true",
+        "1985-04-12T23:20:50.52Z",
+        "1990-12-31T23:59:60Z",
+        "2026-11-30",
+        "9007199254740993",
+    ]
+)
 NUMBERS = st.one_of(
     st.integers(-(2**70), 2**70),  # past int64 and past 2**53
     st.floats(allow_nan=False, allow_infinity=False),  # includes 5e-324 and 1.7976931348623157e308
     st.sampled_from([0, -0.0, 2**53 - 1, 2**53 + 1, 2**63 - 1, -(2**63), 2**64 - 1, 5e-324, 1e-300]),
 )
 SCALARS = st.one_of(st.none(), st.booleans(), NUMBERS, TEXT, TOKENS)
-VALUES = st.recursive(SCALARS, lambda kids: st.one_of(st.lists(kids, max_size=3),
-                                                      st.dictionaries(KEYS, kids, max_size=3)), max_leaves=10)
+VALUES = st.recursive(
+    SCALARS, lambda kids: st.one_of(st.lists(kids, max_size=3), st.dictionaries(KEYS, kids, max_size=3)), max_leaves=10
+)
 RECORDS = st.dictionaries(KEYS, VALUES, max_size=4)  # keys absent from some records
 BATCHES = st.lists(RECORDS, max_size=6)
 JSONL_FILES = st.lists(BATCHES, min_size=1, max_size=3)  # a file: its batches one after another
@@ -67,8 +84,12 @@ def write_jsonl(path: Path, batches: list[list[dict[str, Any]]]) -> list[dict[st
 
 
 CELLS = st.one_of(st.none(), TEXT, TOKENS)
-HEADERS = st.lists(st.text(st.characters(blacklist_categories=("Cs",), blacklist_characters="\r\n"), min_size=1,
-                           max_size=8), min_size=1, max_size=4, unique=True)
+HEADERS = st.lists(
+    st.text(st.characters(blacklist_categories=("Cs",), blacklist_characters="\r\n"), min_size=1, max_size=8),
+    min_size=1,
+    max_size=4,
+    unique=True,
+)
 
 
 @st.composite
@@ -88,10 +109,19 @@ def write_csv(path: Path, header: list[str], rows: list[list[str | None]]) -> No
     path.write_bytes(buf.getvalue().encode("utf-8"))
 
 
-ARROW_TYPES = st.sampled_from([
-    pa.int64(), pa.float64(), pa.string(), pa.bool_(), pa.timestamp("us", "UTC"), pa.date32(),
-    pa.list_(pa.int64()), pa.struct([("a", pa.int64()), ("b", pa.string())]), pa.map_(pa.string(), pa.int64()),
-])
+ARROW_TYPES = st.sampled_from(
+    [
+        pa.int64(),
+        pa.float64(),
+        pa.string(),
+        pa.bool_(),
+        pa.timestamp("us", "UTC"),
+        pa.date32(),
+        pa.list_(pa.int64()),
+        pa.struct([("a", pa.int64()), ("b", pa.string())]),
+        pa.map_(pa.string(), pa.int64()),
+    ]
+)
 
 
 def _arrow_value(t: pa.DataType) -> st.SearchStrategy[Any]:
@@ -138,6 +168,7 @@ def _no_internal(profile: Profile) -> None:
 
 
 # -- the scan never raises; rows reconcile ------------------------------------------------------
+
 
 @FAST
 @given(files=st.lists(JSONL_FILES, min_size=1, max_size=3), batch_rows=st.integers(1, 7))
@@ -209,8 +240,10 @@ def test_parquet_rows_schema_and_nulls_reconcile_with_pyarrow(table, batch_rows)
 
 
 @FAST
-@given(data=st.binary(max_size=300), suffix=st.sampled_from([".jsonl", ".json", ".csv", ".tsv", ".parquet",
-                                                                ".jsonl.gz", ".csv.zst", ""]))
+@given(
+    data=st.binary(max_size=300),
+    suffix=st.sampled_from([".jsonl", ".json", ".csv", ".tsv", ".parquet", ".jsonl.gz", ".csv.zst", ""]),
+)
 def test_arbitrary_bytes_under_any_name_never_raise(data, suffix):
     with tempfile.TemporaryDirectory() as tmp:
         (Path(tmp) / f"blob{suffix}").write_bytes(data)
@@ -221,6 +254,7 @@ def test_arbitrary_bytes_under_any_name_never_raise(data, suffix):
 
 
 # -- merge laws ----------------------------------------------------------------------------------
+
 
 @FAST
 @given(parts=st.lists(BATCHES, min_size=3, max_size=3))
@@ -235,8 +269,12 @@ def test_fieldstats_merge_is_commutative_and_associative(parts):
         # merging the three batches as one observation gives the same counts
         whole = observe_records([r for p in parts for r in p], file="w", batch=0, row_start=0).fields[path]
         merged = x.merge(y).merge(z)
-        assert (merged.types, merged.nulls, merged.classes, merged.items) == \
-            (whole.types, whole.nulls, whole.classes, whole.items)
+        assert (merged.types, merged.nulls, merged.classes, merged.items) == (
+            whole.types,
+            whole.nulls,
+            whole.classes,
+            whole.items,
+        )
 
 
 @FAST
@@ -244,8 +282,10 @@ def test_fieldstats_merge_is_commutative_and_associative(parts):
 def test_merge_all_is_the_fold_of_merge(parts, same_file):
     # merge_all merges many maps in one pass per path; it must equal merging them one by one,
     # batches of one file (rows that overlap: equal places) or of several
-    obs = [observe_records(b, file="f.jsonl" if same_file else f"f{i}.jsonl", batch=i, row_start=0)
-           for i, b in enumerate(parts)]
+    obs = [
+        observe_records(b, file="f.jsonl" if same_file else f"f{i}.jsonl", batch=i, row_start=0)
+        for i, b in enumerate(parts)
+    ]
     folded: dict = {}
     for o in obs:
         folded = merge_fields(folded, o.fields)
@@ -264,14 +304,16 @@ def test_profile_merge_is_commutative_and_associative(files, data):
         whole = _scan(root)
         results = list(whole.files)
         owner = data.draw(st.lists(st.integers(0, 2), min_size=len(results), max_size=len(results)))
-        p, q, r = (Profile(whole.root, tuple(f for f, o in zip(results, owner, strict=True) if o == k))
-                   for k in range(3))
+        p, q, r = (
+            Profile(whole.root, tuple(f for f, o in zip(results, owner, strict=True) if o == k)) for k in range(3)
+        )
         assert p.merge(q) == q.merge(p)
         assert p.merge(q).merge(r) == p.merge(q.merge(r)) == whole
         assert p.merge(q).merge(r).stats == whole.stats
 
 
 # -- parallel equals serial ----------------------------------------------------------------------
+
 
 @pytest.mark.slow
 @SLOW
@@ -288,6 +330,7 @@ def test_a_parallel_scan_equals_a_serial_one(files, table):
 
 
 # -- the recommendation: permissive JSON Schema and predicted cast loss ----------------------------
+
 
 def _known_recommender_bugs(profile: Profile) -> list[str]:
     """Shapes on which the recommender (src/driftline/recommend/) is known to fail, found by the
@@ -320,8 +363,10 @@ def shaped_files(draw: Any) -> list[list[list[dict[str, Any]]]]:
     """JSON Lines files whose fields keep one nested shape each (scalars of any kind mix freely),
     beside the free-form files where nested kinds mix: both are drawn for the recommender."""
     keys = draw(st.lists(KEYS, min_size=1, max_size=4, unique=True))
-    shapes = {k: draw(st.sampled_from([SCALARS, st.lists(SCALARS, max_size=3),
-                                       st.dictionaries(KEYS, SCALARS, max_size=3)])) for k in keys}
+    shapes = {
+        k: draw(st.sampled_from([SCALARS, st.lists(SCALARS, max_size=3), st.dictionaries(KEYS, SCALARS, max_size=3)]))
+        for k in keys
+    }
     record = st.fixed_dictionaries({}, optional={k: st.one_of(st.none(), v) for k, v in shapes.items()})
     return draw(st.lists(st.lists(st.lists(record, max_size=5), min_size=1, max_size=2), min_size=1, max_size=2))
 

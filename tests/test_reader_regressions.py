@@ -92,6 +92,7 @@ def test_dates_past_year_9999_inside_a_struct_are_profiled(tmp_path):
 
 # -- Parquet footers and limits ----------------------------------------------------------
 
+
 def test_plaintext_footer_with_encrypted_columns_is_reported_not_aborted():
     # found by: Parquet conformance suite, encrypt_columns_plaintext_footer.parquet.encrypted.
     # Reading its column metadata (RowGroupMetaData.column, to_dict) aborts pyarrow 26.0.1.
@@ -156,6 +157,7 @@ def test_footer_declaring_more_rows_than_the_pages_hold_is_an_error(tmp_path):
 
 # -- compressed streams and sniffing -----------------------------------------------------
 
+
 def test_extensionless_file_with_a_corrupt_compressed_header_is_skipped_not_a_crash(tmp_path):
     # found by: fault injection. Sniffing a file whose name says nothing decoded its first
     # bytes and let zlib.error / ZstdError / LZMAError escape, which stopped discovery itself.
@@ -197,8 +199,7 @@ def test_gzip_decoding_is_bounded_by_the_read_size_not_the_compressed_chunk(tmp_
     f.write_bytes(compress(jsonl_lines(10) + b" " * (96 * 2**20), "gzip"))
     tracemalloc.start()
     try:
-        res = read_file(discover([str(f)]).files[0],
-                        ReadOptions(max_record_bytes=2**20, max_decompression_ratio=10**9))
+        res = read_file(discover([str(f)]).files[0], ReadOptions(max_record_bytes=2**20, max_decompression_ratio=10**9))
         peak = tracemalloc.get_traced_memory()[1]
     finally:
         tracemalloc.stop()
@@ -282,6 +283,7 @@ def test_concatenated_zstd_frames_are_all_read(tmp_path):
 
 # -- CSV header and line limits ----------------------------------------------------------
 
+
 def test_csv_header_longer_than_the_sniffed_head_is_read_whole(tmp_path):
     # found by: fault injection (a CSV with 100,000 columns). The header was parsed from the
     # first 64 KiB only, so a longer header lost its last columns and every row was "ragged".
@@ -326,8 +328,11 @@ def test_csv_line_past_max_record_bytes_stops_the_read_there_with_memory_bounded
         "print(json.dumps({'rows': res.rows, 'issues': [[i.kind, i.line, i.byte_offset] for i in res.issues],\n"
         "  'py': tracemalloc.get_traced_memory()[1], 'arrow': pa.default_memory_pool().max_memory()}))\n"
     )
-    out = json.loads(subprocess.run([sys.executable, "-c", probe, str(f)], check=True,
-                                    capture_output=True, text=True, timeout=60).stdout)
+    out = json.loads(
+        subprocess.run(
+            [sys.executable, "-c", probe, str(f)], check=True, capture_output=True, text=True, timeout=60
+        ).stdout
+    )
     assert out["rows"] == 2  # the rows before the long line are kept
     assert out["issues"] == [["too-large", 4, len(b"a,b\n1,x\n2,y\n")]]
     assert out["py"] < 16 * 2**20 and out["arrow"] < 24 * 2**20, out
@@ -362,6 +367,7 @@ def test_remote_streams_use_the_local_decoders(monkeypatch):
         cut = packed[: len(packed) // 2]
         ref_dec = zlib.decompressobj(wbits=31) if codec == "gzip" else zstandard.ZstdDecompressor().decompressobj()
         decodable = ref_dec.decompress(cut)  # the reference decoders
+
         def object_stream(path: str, b: bytes = cut) -> io.BufferedReader:
             return io.BufferedReader(CountingRaw(pa.BufferReader(b)))
 

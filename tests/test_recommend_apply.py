@@ -53,8 +53,9 @@ def test_demo_predicted_loss_equals_casting(demo_dir: Path, scan_rows: int, appl
     assert _assert_counts_equal(rec, tally) == 3  # pm25 null tokens, tags wrapped, ts assumed zone
     pm25 = rec.plan("pm25")
     assert (pm25.rule, pm25.target.key(), pm25.inputs["string"], pm25.nulled) == ("parse_float", "float64", 122, 6)
-    assert [(e.file, e.row, e.value) for e in pm25.effect("null_token").examples][:1] == \
-        [("readings/region=east/day=2026-11-29/part-0000.jsonl.gz", 185, '"n/a"')]
+    assert [(e.file, e.row, e.value) for e in pm25.effect("null_token").examples][:1] == [
+        ("readings/region=east/day=2026-11-29/part-0000.jsonl.gz", 185, '"n/a"')
+    ]
     seen = profile.fields["pm25"]
     assert table.column("pm25").null_count == 6 + seen.stats.nulls + seen.absent
     assert batches >= (len(profile.files) if apply_rows > 1000 else 120)
@@ -62,8 +63,9 @@ def test_demo_predicted_loss_equals_casting(demo_dir: Path, scan_rows: int, appl
 
 def test_demo_counts_hold_under_other_options(demo_dir: Path):
     landing = demo_dir / "landing"
-    rec = driftline.scan(landing).recommend(prefer_decimal=True, timestamp_zone="+01:00", timestamp_unit="ms",
-                                            null_tokens="always")
+    rec = driftline.scan(landing).recommend(
+        prefer_decimal=True, timestamp_zone="+01:00", timestamp_unit="ms", null_tokens="always"
+    )
     assert rec.plan("battery_voltage").target.key() == "decimal(3,2)"
     # The Parquet file's typed timestamp[us, UTC] keeps its finer unit: none is truncated.
     assert rec.plan("ts").target.key() == "timestamp[us, +01:00]"

@@ -45,19 +45,29 @@ _POSITIONAL = re.compile(r"-?[0-9]+(?:\.[0-9]+)?")
 
 # -- one field, in memory: scan statistics, the plan, and apply() on the same values ----------
 
+
 def _field(values: list[str], source: str, **options: object) -> tuple[FieldPlan, list[object], Tally]:
     """Plan and cast one field holding values, as CSV cells (source 'text') or JSON strings."""
     if source == "text":
-        obs = observe_table(pa.table({"v": pa.array(values, pa.string())}), file="f.csv", batch=0, row_start=0,
-                            text_source=True)
+        obs = observe_table(
+            pa.table({"v": pa.array(values, pa.string())}), file="f.csv", batch=0, row_start=0, text_source=True
+        )
         raw = pa.RecordBatch.from_arrays([as_variant(pa.array(values, pa.string()), text=True)], names=["v"])
         fmt = "csv"
     else:
         obs = observe_records([{"v": v} for v in values], file="f.jsonl", batch=0, row_start=0)
         raw = records_to_batch([{"v": v} for v in values])
         fmt = "jsonl"
-    ref = FileResult(rel="f." + fmt, format=fmt, compression=None, partitions=(), size=0, mtime_ns=0,
-                     rows=len(values), observations=(obs,))
+    ref = FileResult(
+        rel="f." + fmt,
+        format=fmt,
+        compression=None,
+        partitions=(),
+        size=0,
+        mtime_ns=0,
+        rows=len(values),
+        observations=(obs,),
+    )
     rec = recommend(Profile(root="mem", files=(ref,)), **options)
     tally = Tally()
     out = apply(raw, rec, tally=tally).column("v").to_pylist()
@@ -72,13 +82,15 @@ def _predicted(plan: FieldPlan) -> tuple[int, int, bool]:
 
 def _assert_tally(plan: FieldPlan, tally: Tally) -> None:
     uncounted = {e.cause for e in plan.effects if not e.exact}  # said, not counted: apply measures them
-    measured = {k: v for k, v in tally.counts.get("v", {}).items()
-                if k != "nulled" and ":" not in k and k not in uncounted}
+    measured = {
+        k: v for k, v in tally.counts.get("v", {}).items() if k != "nulled" and ":" not in k and k not in uncounted
+    }
     assert measured == {e.cause: e.count for e in plan.effects if e.exact and e.count}
     assert tally.get("v", "nulled") == plan.nulled
 
 
 # -- numbers and booleans ----------------------------------------------------------------------
+
 
 def _number_fate(text: str, got: object, target: pa.DataType) -> str:
     """'nulled', 'changed', 'unchanged' or 'rounded' (float64 kept the nearest double of a numeral)."""
@@ -108,27 +120,51 @@ def _number_fate(text: str, got: object, target: pa.DataType) -> str:
 
 _digits = st.text(string.digits, min_size=1, max_size=22)
 _numbers = st.one_of(
-    st.builds(lambda sign, zeros, body: sign + "0" * zeros + body, st.sampled_from(["", "-"]),
-              st.integers(0, 3), _digits),
-    st.builds(lambda a, b: f"{a}.{b}", st.sampled_from(["0", "00", "-0", "1", "-12", "0012", "123456789"]),
-              _digits),
+    st.builds(
+        lambda sign, zeros, body: sign + "0" * zeros + body, st.sampled_from(["", "-"]), st.integers(0, 3), _digits
+    ),
+    st.builds(lambda a, b: f"{a}.{b}", st.sampled_from(["0", "00", "-0", "1", "-12", "0012", "123456789"]), _digits),
     st.integers(-(2**63) - 3, -(2**63) + 3).map(str),
     st.integers(2**63 - 3, 2**63 + 3).map(str),
     st.integers(-(10**25), 10**25).map(str),
-    st.builds(lambda m, e: f"{m}e{e}", st.sampled_from(["1", "3", "-2.5", ".5", "00", "0", "1.", "9.99"]),
-              st.integers(-420, 420)),
-    st.sampled_from(["3E4415", "1.7976931348623159e308", "1.7976931348623157e308", "2e-324", "3e-324",
-                     "inf", "-Infinity", "NaN", "0e999", "1" * 80, "1" * 400, "0" * 30 + "1", "-0", "0"]),
+    st.builds(
+        lambda m, e: f"{m}e{e}",
+        st.sampled_from(["1", "3", "-2.5", ".5", "00", "0", "1.", "9.99"]),
+        st.integers(-420, 420),
+    ),
+    st.sampled_from(
+        [
+            "3E4415",
+            "1.7976931348623159e308",
+            "1.7976931348623157e308",
+            "2e-324",
+            "3e-324",
+            "inf",
+            "-Infinity",
+            "NaN",
+            "0e999",
+            "1" * 80,
+            "1" * 400,
+            "0" * 30 + "1",
+            "-0",
+            "0",
+        ]
+    ),
     st.floats(allow_nan=False, allow_infinity=False).map(repr),
 )
 _booleans = st.sampled_from(["true", "false", "TRUE", "False", "tRuE"])
 
 
 @SETTINGS
-@given(st.lists(st.one_of(_numbers, _numbers, _numbers, _booleans), min_size=1, max_size=4),
-       st.sampled_from(["text", "string"]), st.sampled_from(["keep", "parse"]), st.sampled_from([0.0, 1.0]))
-def test_number_and_boolean_casts_lose_what_the_plan_says(values: list[str], source: str, zeros: str,
-                                                          share: float) -> None:
+@given(
+    st.lists(st.one_of(_numbers, _numbers, _numbers, _booleans), min_size=1, max_size=4),
+    st.sampled_from(["text", "string"]),
+    st.sampled_from(["keep", "parse"]),
+    st.sampled_from([0.0, 1.0]),
+)
+def test_number_and_boolean_casts_lose_what_the_plan_says(
+    values: list[str], source: str, zeros: str, share: float
+) -> None:
     values = [v for v in values if class_of(v) in (*NUMERIC, "boolean")]
     if not values:
         return
@@ -151,15 +187,20 @@ def test_number_and_boolean_casts_lose_what_the_plan_says(values: list[str], sou
 
 # -- dates and timestamps --------------------------------------------------------------------
 
+
 def _pad(lo: int, hi: int) -> st.SearchStrategy[str]:
     return st.integers(lo, hi).map("{:02d}".format)
 
 
 # Years 2 .. 9998: an offset moves an instant across a year, and Python's datetime holds 1 .. 9999.
 _day = st.builds(lambda y, m, d: f"{y:04d}-{m}-{d}", st.integers(2, 9998), _pad(1, 12), _pad(1, 31))
-_clock = st.builds(lambda h, m, s, f: f"{h}:{m}:{s}{f}", _pad(0, 23), _pad(0, 59),
-                   st.one_of(_pad(0, 59), st.just("60")),
-                   st.one_of(st.just(""), st.text(string.digits, min_size=1, max_size=9).map(".".__add__)))
+_clock = st.builds(
+    lambda h, m, s, f: f"{h}:{m}:{s}{f}",
+    _pad(0, 23),
+    _pad(0, 59),
+    st.one_of(_pad(0, 59), st.just("60")),
+    st.one_of(st.just(""), st.text(string.digits, min_size=1, max_size=9).map(".".__add__)),
+)
 _zone = st.sampled_from(["Z", "z", "+00:00", "-08:00", "+05:30", "+0800", "+08", ""])
 _temporal = st.one_of(
     _day,
@@ -218,6 +259,7 @@ def test_date_and_timestamp_casts_lose_what_the_plan_says(values: list[str], sou
 
 
 # -- regressions, each with its exact counts ------------------------------------------------------
+
 
 def test_leading_zero_codes_stay_text_or_count_every_one() -> None:
     # common practice: FIPS county codes and US ZIP codes are fixed-width with leading zeros

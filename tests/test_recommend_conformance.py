@@ -90,8 +90,11 @@ def _check_everything(root: Path, *, avro_round_trip: bool = True) -> Recommenda
         avro.schema.parse(json.dumps(avsc))
     # avro 1.12.2 (Python) implements neither local-timestamp-* nor *-nanos, which the 1.12
     # specification defines; it warns and reads them as long. Nothing else may warn.
-    assert all(isinstance(w.message, avro.errors.IgnoredLogicalType) and
-               ("local-timestamp" in str(w.message) or "nanos" in str(w.message)) for w in seen)
+    assert all(
+        isinstance(w.message, avro.errors.IgnoredLogicalType)
+        and ("local-timestamp" in str(w.message) or "nanos" in str(w.message))
+        for w in seen
+    )
     if avro_round_trip:
         data = avro_records(rec, table)
         buf = io.BytesIO()

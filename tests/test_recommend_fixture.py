@@ -47,13 +47,19 @@ BATCH_ROWS = 6  # Parquet rows
 
 def _web(i: int) -> dict:
     row: dict = {"id": i, "day": f"2026-12-{1 + i % 9:02d}", "code": f"0{1000 + i}"}
-    row["amount"] = (f"{10 + i}.{i % 10}5" if i % 4 else 10.5 + i) if i not in (3, 7, 11) else \
-        {3: "N/A", 7: "-", 11: ""}[i]
+    row["amount"] = (
+        (f"{10 + i}.{i % 10}5" if i % 4 else 10.5 + i) if i not in (3, 7, 11) else {3: "N/A", 7: "-", 11: ""}[i]
+    )
     row["balance"] = f"{12345678901234 + i}.{1234 + i}" if i != 5 else "null"
     row["big"] = {0: 2**53 + 1, 1: 2**53 + 2, 2: -(2**53 + 3)}.get(i, i * 1.5 if i % 2 else i)
     row["paid"] = (True if i % 3 else "FALSE") if i != 9 else "n/a"
-    stamps = {0: "2026-12-01t10:00:00z", 1: "2016-12-31T23:59:60Z", 2: "2026-12-01T10:00:00+02:00",
-              3: "2026-12-01 10:00:00+0100", 4: "2026-12-01T10:00:00.125Z"}
+    stamps = {
+        0: "2026-12-01t10:00:00z",
+        1: "2016-12-31T23:59:60Z",
+        2: "2026-12-01T10:00:00+02:00",
+        3: "2026-12-01 10:00:00+0100",
+        4: "2026-12-01T10:00:00.125Z",
+    }
     row["created"] = stamps.get(i, f"2026-12-01T{i:02d}:30:00Z" if i % 5 else f"2026-12-01 {i:02d}:30:00")
     row["items"] = [{"sku": f"A{i}", "qty": i % 3 + 1}] + ([{"sku": "B", "qty": str(i)}] if i % 4 == 1 else [])
     row["meta"] = {"ip": f"10.0.0.{i}"} | ({"agent": "cli"} if i % 2 else {})
@@ -65,9 +71,16 @@ def _web(i: int) -> dict:
 
 
 def _till(i: int) -> dict:
-    return {"id": str(100 + i), "amount": f"{5 + i}.25", "paid": "TRUE" if i % 2 else "false",
-            "created": f"2026-12-02 {8 + i:02d}:15:00", "labels": "vip" if i != 3 else "n/a",
-            "day": f"2026-12-1{i}", "balance": f"{98765432109876 + i}.5", "note": "N/A" if i == 2 else f"till {i}"}
+    return {
+        "id": str(100 + i),
+        "amount": f"{5 + i}.25",
+        "paid": "TRUE" if i % 2 else "false",
+        "created": f"2026-12-02 {8 + i:02d}:15:00",
+        "labels": "vip" if i != 3 else "n/a",
+        "day": f"2026-12-1{i}",
+        "balance": f"{98765432109876 + i}.5",
+        "note": "N/A" if i == 2 else f"till {i}",
+    }
 
 
 def make_orders(root: Path) -> Path:
@@ -88,20 +101,24 @@ def make_orders(root: Path) -> Path:
     batch = landing / "source=batch" / "date=2026-12-03" / "orders.parquet"
     batch.parent.mkdir(parents=True)
     utc = dt.UTC
-    table = pa.table({
-        "id": pa.array(range(200, 200 + BATCH_ROWS), pa.int32()),
-        "created": pa.array([dt.datetime(2026, 12, 3, h, tzinfo=utc) for h in range(BATCH_ROWS)],
-                            pa.timestamp("ms", "UTC")),
-        "day": pa.array([dt.date(2026, 12, 3)] * BATCH_ROWS, pa.date32()),
-        "labels": pa.array([["bulk"]] * BATCH_ROWS, pa.list_(pa.string())),
-        "attrs": pa.array([[("w", i)] for i in range(BATCH_ROWS)], pa.map_(pa.string(), pa.int64())),
-        "balance": pa.array([decimal.Decimal("1.5000")] * BATCH_ROWS, pa.decimal128(10, 4)),
-    })
+    table = pa.table(
+        {
+            "id": pa.array(range(200, 200 + BATCH_ROWS), pa.int32()),
+            "created": pa.array(
+                [dt.datetime(2026, 12, 3, h, tzinfo=utc) for h in range(BATCH_ROWS)], pa.timestamp("ms", "UTC")
+            ),
+            "day": pa.array([dt.date(2026, 12, 3)] * BATCH_ROWS, pa.date32()),
+            "labels": pa.array([["bulk"]] * BATCH_ROWS, pa.list_(pa.string())),
+            "attrs": pa.array([[("w", i)] for i in range(BATCH_ROWS)], pa.map_(pa.string(), pa.int64())),
+            "balance": pa.array([decimal.Decimal("1.5000")] * BATCH_ROWS, pa.decimal128(10, 4)),
+        }
+    )
     pq.write_table(table, batch)
     return landing
 
 
 # -- the fixture is what it says ---------------------------------------------------------------
+
 
 def test_the_fixture_holds_the_planted_values(tmp_path: Path):
     import driftline

@@ -25,8 +25,16 @@ def _jsonl(tmp_path: Path, rows: list[dict]) -> Path:
 
 def test_defaults_are_the_safe_ones():
     o = RecommendOptions()
-    assert (o.mode, o.prefer_decimal, o.timestamp_unit, o.timestamp_zone, o.parse_strings, o.null_tokens,
-            o.max_null_share, o.min_field_share) == ("permissive", False, "us", "UTC", "mixed", "parse", 0.0, 0.0)
+    assert (
+        o.mode,
+        o.prefer_decimal,
+        o.timestamp_unit,
+        o.timestamp_zone,
+        o.parse_strings,
+        o.null_tokens,
+        o.max_null_share,
+        o.min_field_share,
+    ) == ("permissive", False, "us", "UTC", "mixed", "parse", 0.0, 0.0)
     with pytest.raises(TypeError):
         RecommendOptions("strict")  # type: ignore[misc]  # keyword-only
 
@@ -42,14 +50,17 @@ def test_every_option_is_documented_value_by_value():
         assert f"`{f.name}`" in docs
 
 
-@pytest.mark.parametrize(("change", "message"), [
-    ({"mode": "lenient"}, "mode must be one of permissive, strict; got 'lenient'"),
-    ({"timestamp_unit": "m"}, "timestamp_unit must be one of s, ms, us, ns"),
-    ({"max_null_share": 1.5}, "max_null_share must be a number from 0 to 1; got 1.5"),
-    ({"min_field_share": True}, "min_field_share must be a number from 0 to 1; got True"),
-    ({"prefer_decimal": "yes"}, "prefer_decimal must be true or false"),
-    ({"timestamp_zone": "Mars/Olympus"}, "timestamp_zone 'Mars/Olympus' is neither an IANA zone name"),
-])
+@pytest.mark.parametrize(
+    ("change", "message"),
+    [
+        ({"mode": "lenient"}, "mode must be one of permissive, strict; got 'lenient'"),
+        ({"timestamp_unit": "m"}, "timestamp_unit must be one of s, ms, us, ns"),
+        ({"max_null_share": 1.5}, "max_null_share must be a number from 0 to 1; got 1.5"),
+        ({"min_field_share": True}, "min_field_share must be a number from 0 to 1; got True"),
+        ({"prefer_decimal": "yes"}, "prefer_decimal must be true or false"),
+        ({"timestamp_zone": "Mars/Olympus"}, "timestamp_zone 'Mars/Olympus' is neither an IANA zone name"),
+    ],
+)
 def test_bad_values_name_the_option_and_what_is_allowed(change: dict, message: str):
     with pytest.raises(PolicyError, match=message.replace("(", r"\(").replace(")", r"\)")):
         RecommendOptions.from_mapping(change)
@@ -59,7 +70,7 @@ def test_toml_loading_names_the_file_and_the_key(tmp_path: Path):
     good = _root(tmp_path, "r.toml", '[recommend]\nmode = "strict"\nprefer_decimal = true\n[other]\nx = 1\n') / "r.toml"
     o = RecommendOptions.from_toml(good)
     assert (o.mode, o.prefer_decimal, o.timestamp_unit) == ("strict", True, "us")
-    bad = _root(tmp_path, "b.toml", '[recommend]\nprefer_decimals = true\n') / "b.toml"
+    bad = _root(tmp_path, "b.toml", "[recommend]\nprefer_decimals = true\n") / "b.toml"
     with pytest.raises(PolicyError, match=r"b\.toml.*unknown option 'prefer_decimals'; known options: "):
         RecommendOptions.from_toml(bad)
     broken = _root(tmp_path, "c.toml", "[recommend\n") / "c.toml"
@@ -103,8 +114,12 @@ def test_parse_strings_keeps_quoted_numbers_by_default(tmp_path: Path):
     assert (keep.rule, keep.target.key()) == ("identity", "string")
     # "01234" has a leading zero (a ZIP code, common practice): only leading_zeros = "parse" makes it a number.
     assert [(a.rule, a.target, a.note) for a in keep.alternatives] == [
-        ("parse_integer", "int64",
-         'drops the leading zeros of 1 values; leading_zeros = "parse" and parse_strings = "always" chooses it')]
+        (
+            "parse_integer",
+            "int64",
+            'drops the leading zeros of 1 values; leading_zeros = "parse" and parse_strings = "always" chooses it',
+        )
+    ]
     assert recommend(p, parse_strings="always").plan("zip").rule == "identity"
     parsed = recommend(p, parse_strings="always", leading_zeros="parse").plan("zip")
     assert (parsed.rule, [(e.cause, e.count) for e in parsed.effects]) == ("parse_integer", [("leading_zeros", 1)])
@@ -131,5 +146,7 @@ def test_min_field_share_drops_rare_fields(tmp_path: Path):
 def test_timestamp_unit_sets_the_unit_of_parsed_strings(tmp_path: Path):
     p = driftline.scan(_jsonl(tmp_path, [{"t": "2026-11-29T10:00:00.125Z"}]))
     assert recommend(p, timestamp_unit="ms").plan("t").target.key() == "timestamp[ms, UTC]"
-    assert recommend(p, timestamp_unit="ns", timestamp_zone="Europe/Berlin").plan("t").target.key() == \
-        "timestamp[ns, Europe/Berlin]"
+    assert (
+        recommend(p, timestamp_unit="ns", timestamp_zone="Europe/Berlin").plan("t").target.key()
+        == "timestamp[ns, Europe/Berlin]"
+    )

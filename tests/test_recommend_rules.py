@@ -53,12 +53,24 @@ def _effects(plan: FieldPlan) -> dict[str, int]:
 
 # -- the registry ---------------------------------------------------------------------------
 
+
 def test_registry_is_ordered_small_named_functions():
     names = list(REGISTRY)
     assert names[0] == "identity" and names[-1] == "keep_as_json_text"
-    assert {"identity", "widen_numeric", "parse_integer", "parse_decimal", "parse_float", "parse_boolean",
-            "parse_date", "parse_timestamp", "map_null_tokens", "wrap_scalar_in_list", "merge_struct",
-            "keep_as_json_text"} <= set(names)
+    assert {
+        "identity",
+        "widen_numeric",
+        "parse_integer",
+        "parse_decimal",
+        "parse_float",
+        "parse_boolean",
+        "parse_date",
+        "parse_timestamp",
+        "map_null_tokens",
+        "wrap_scalar_in_list",
+        "merge_struct",
+        "keep_as_json_text",
+    } <= set(names)
     for name, rule in REGISTRY.items():
         assert rule.__name__ == name  # each named after the cast it proposes
         assert (inspect.getdoc(rule) or "").strip()
@@ -66,6 +78,7 @@ def test_registry_is_ordered_small_named_functions():
 
 
 # -- identity, widen_numeric ----------------------------------------------------------------
+
 
 def test_identity_keeps_a_field_of_one_type(tmp_path: Path):
     rec = _rec(_write(tmp_path, {"a.jsonl": [{"n": 1}, {"n": 2}, {"m": None}]}))
@@ -92,13 +105,13 @@ def test_widen_numeric_counts_integers_past_2_53(tmp_path: Path):
 
 
 def test_widen_numeric_across_files_of_different_widths(tmp_path: Path):
-    root = _write(tmp_path, {"a.parquet": pa.table({"n": pa.array([1, 2], pa.int32())}),
-                             "b.jsonl": [{"n": 2**40}]})
+    root = _write(tmp_path, {"a.parquet": pa.table({"n": pa.array([1, 2], pa.int32())}), "b.jsonl": [{"n": 2**40}]})
     plan = _rec(root).plan("n")
     assert (plan.rule, plan.target.key(), plan.effects) == ("widen_numeric", "int64", ())
 
 
 # -- parse_* --------------------------------------------------------------------------------
+
 
 def test_parse_integer_nulls_tokens_with_where_they_are(tmp_path: Path):
     root = _write(tmp_path, {"till.csv": "qty\n7\n8\nN/A\n12\n\n"})
@@ -151,8 +164,9 @@ def test_parse_decimal_when_float64_would_round(tmp_path: Path):
     assert table.column("x").to_pylist() == [decimal.Decimal("1234567890.123456"), decimal.Decimal("-0.500000")]
 
 
-@pytest.mark.parametrize(("precision", "physical"),
-                         [(9, "INT32"), (10, "INT64"), (18, "INT64"), (19, "FIXED_LEN_BYTE_ARRAY")])
+@pytest.mark.parametrize(
+    ("precision", "physical"), [(9, "INT32"), (10, "INT64"), (18, "INT64"), (19, "FIXED_LEN_BYTE_ARRAY")]
+)
 def test_parquet_decimal_storage_follows_the_format_limits(tmp_path: Path, precision: int, physical: str):
     # source: apache/parquet-format LogicalTypes.md, DECIMAL: int32 for precision <= 9,
     # int64 for precision <= 18; checked against pyarrow 26.0.1 store_decimal_as_integer
@@ -190,8 +204,14 @@ def test_parse_date_from_strings_alone(tmp_path: Path):
 
 def test_parse_timestamp_on_the_rfc3339_examples(tmp_path: Path):
     # source: RFC 3339 section 5.8 examples; the UTC instants are the RFC's own (and REFERENCES.md section 1)
-    examples = ["1985-04-12T23:20:50.52Z", "1996-12-19T16:39:57-08:00", "1990-12-31T23:59:60Z",
-                "1990-12-31T15:59:60-08:00", "1937-01-01T12:00:27.87+00:20", "1985-04-12t23:20:50.52z"]
+    examples = [
+        "1985-04-12T23:20:50.52Z",
+        "1996-12-19T16:39:57-08:00",
+        "1990-12-31T23:59:60Z",
+        "1990-12-31T15:59:60-08:00",
+        "1937-01-01T12:00:27.87+00:20",
+        "1985-04-12t23:20:50.52z",
+    ]
     root = _write(tmp_path, {"a.jsonl": [{"t": s} for s in examples]})
     rec = _rec(root)
     plan = rec.plan("t")
@@ -203,10 +223,14 @@ def test_parse_timestamp_on_the_rfc3339_examples(tmp_path: Path):
     assert plan.params["formats"] == {"RFC 3339 date-time": 6}
     table, tally = _applied(root, rec)
     got = [v.isoformat() for v in table.column("t").to_pylist()]
-    assert got == ["1985-04-12T23:20:50.520000+00:00", "1996-12-20T00:39:57+00:00",
-                   "1990-12-31T23:59:59+00:00",  # the leap second becomes :59 (pyarrow rejects :60)
-                   "1990-12-31T23:59:59+00:00", "1937-01-01T11:40:27.870000+00:00",
-                   "1985-04-12T23:20:50.520000+00:00"]  # lower-case t/z: the same instant
+    assert got == [
+        "1985-04-12T23:20:50.520000+00:00",
+        "1996-12-20T00:39:57+00:00",
+        "1990-12-31T23:59:59+00:00",  # the leap second becomes :59 (pyarrow rejects :60)
+        "1990-12-31T23:59:59+00:00",
+        "1937-01-01T11:40:27.870000+00:00",
+        "1985-04-12T23:20:50.520000+00:00",
+    ]  # lower-case t/z: the same instant
     assert (tally.get("t", "leap_second"), tally.get("t", "lowercase"), tally.get("t", "unparsed")) == (2, 1, 0)
 
 
@@ -245,6 +269,7 @@ def test_parse_timestamp_says_when_fractions_may_be_cut(tmp_path: Path):
 
 # -- strings, tokens, lists, structs, JSON text ---------------------------------------------
 
+
 def test_map_null_tokens_in_a_csv_text_column(tmp_path: Path):
     root = _write(tmp_path, {"a.csv": "who\nann\nN/A\nbo\n"})
     rec = _rec(root)
@@ -277,8 +302,10 @@ def test_merge_struct_with_the_union_of_fields(tmp_path: Path):
     plan = rec.plan("s")
     assert (plan.rule, plan.target.key()) == ("merge_struct", "struct<a: int64, b: string>")
     assert [(c.name, c.nullable, c.required) for c in plan.children] == [("a", True, False), ("b", True, False)]
-    expected = pa.unify_schemas([pa.schema([("s", pa.struct([("a", pa.int64())]))]),
-                                 pa.schema([("s", pa.struct([("b", pa.string())]))])], promote_options="permissive")
+    expected = pa.unify_schemas(
+        [pa.schema([("s", pa.struct([("a", pa.int64())]))]), pa.schema([("s", pa.struct([("b", pa.string())]))])],
+        promote_options="permissive",
+    )
     assert rec.arrow_schema().field("s").type == expected.field("s").type
     assert _applied(root, rec)[0].column("s").to_pylist() == [{"a": 1, "b": None}, {"a": None, "b": "x"}]
 
@@ -308,10 +335,13 @@ def test_format_as_string_when_kinds_do_not_meet(tmp_path: Path):
 
 
 def test_widen_temporal_dates_into_timestamps(tmp_path: Path):
-    root = _write(tmp_path, {
-        "a.parquet": pa.table({"t": pa.array([dt.date(2026, 1, 2)], pa.date32())}),
-        "b.parquet": pa.table({"t": pa.array([dt.datetime(2026, 1, 2, 3)], pa.timestamp("ms"))}),
-    })
+    root = _write(
+        tmp_path,
+        {
+            "a.parquet": pa.table({"t": pa.array([dt.date(2026, 1, 2)], pa.date32())}),
+            "b.parquet": pa.table({"t": pa.array([dt.datetime(2026, 1, 2, 3)], pa.timestamp("ms"))}),
+        },
+    )
     rec = _rec(root)
     assert (rec.plan("t").rule, rec.plan("t").target.key()) == ("widen_temporal", "timestamp[ms]")
     assert _applied(root, rec)[0].column("t").to_pylist() == [dt.datetime(2026, 1, 2), dt.datetime(2026, 1, 2, 3)]

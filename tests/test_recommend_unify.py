@@ -29,19 +29,25 @@ PAIRS: dict[str, tuple[pa.Array, pa.Array]] = {
     "int64 past 2**53+float64": (pa.array([2**53 + 1], pa.int64()), pa.array([0.5], pa.float64())),
     "float32+int64": (pa.array([0.5], pa.float32()), pa.array([2], pa.int64())),
     "null+int32": (pa.array([None], pa.null()), pa.array([2], pa.int32())),
-    "decimal(5,2)+decimal(10,4)": (pa.array([D("1.25")], pa.decimal128(5, 2)),
-                                   pa.array([D("1.2345")], pa.decimal128(10, 4))),
+    "decimal(5,2)+decimal(10,4)": (
+        pa.array([D("1.25")], pa.decimal128(5, 2)),
+        pa.array([D("1.2345")], pa.decimal128(10, 4)),
+    ),
     "decimal(38,10)+decimal(38,0)": (pa.array([D(1)], pa.decimal128(38, 10)), pa.array([D(1)], pa.decimal128(38, 0))),
     "decimal(5,2)+int64": (pa.array([D("1.25")], pa.decimal128(5, 2)), pa.array([10**17], pa.int64())),
     "decimal(5,2)+float64": (pa.array([D("1.25")], pa.decimal128(5, 2)), pa.array([0.5], pa.float64())),
     "string+large_string": (pa.array(["a"], pa.string()), pa.array(["b"], pa.large_string())),
     "list<int64>+list<double>": (pa.array([[1]], pa.list_(pa.int64())), pa.array([[0.5]], pa.list_(pa.float64()))),
-    "struct<a>+struct<b>": (pa.array([{"a": 1}], pa.struct([("a", pa.int64())])),
-                            pa.array([{"b": "x"}], pa.struct([("b", pa.string())]))),
+    "struct<a>+struct<b>": (
+        pa.array([{"a": 1}], pa.struct([("a", pa.int64())])),
+        pa.array([{"b": "x"}], pa.struct([("b", pa.string())])),
+    ),
     "timestamp[ms]+timestamp[us]": (pa.array([T0], pa.timestamp("ms")), pa.array([T0], pa.timestamp("us"))),
     "date32+date64": (pa.array([T0.date()], pa.date32()), pa.array([T0.date()], pa.date64())),
-    "timestamp[ms]+timestamp[us, UTC]": (pa.array([T0], pa.timestamp("ms")),
-                                        pa.array([T0.replace(tzinfo=dt.UTC)], pa.timestamp("us", "UTC"))),
+    "timestamp[ms]+timestamp[us, UTC]": (
+        pa.array([T0], pa.timestamp("ms")),
+        pa.array([T0.replace(tzinfo=dt.UTC)], pa.timestamp("us", "UTC")),
+    ),
     "date32+timestamp[us]": (pa.array([T0.date()], pa.date32()), pa.array([T0], pa.timestamp("us"))),
     "int64+string": (pa.array([1], pa.int64()), pa.array(["5"], pa.string())),
     "bool+int8": (pa.array([True], pa.bool_()), pa.array([1], pa.int8())),
@@ -49,8 +55,11 @@ PAIRS: dict[str, tuple[pa.Array, pa.Array]] = {
 # pyarrow answers, and driftline answers otherwise, on purpose.
 DIFFERENT = {
     "int64+uint64": ("decimal(20,0)", "pyarrow gives int64, which cannot hold uint64 values over 2**63-1"),
-    "decimal(5,2)+int64": ("decimal(21,2)", "pyarrow's decimal128(20,2) has 18 integer digits: pc.cast of an "
-                           "int64 into it fails (checked below); int64 needs 19"),
+    "decimal(5,2)+int64": (
+        "decimal(21,2)",
+        "pyarrow's decimal128(20,2) has 18 integer digits: pc.cast of an "
+        "int64 into it fails (checked below); int64 needs 19",
+    ),
 }
 # pyarrow raises ArrowTypeError (or, for a string, cannot merge with a number); what driftline does.
 RAISES = {
@@ -76,8 +85,11 @@ def test_recommended_type_agrees_with_unify_schemas_or_says_why(tmp_path: Path, 
     plan = rec.plan("x")
     ours = rec.arrow_schema().field("x").type
     try:
-        theirs = pa.unify_schemas([pa.schema([("x", ta)]), pa.schema([("x", tb)])],
-                                  promote_options="permissive").field("x").type
+        theirs = (
+            pa.unify_schemas([pa.schema([("x", ta)]), pa.schema([("x", tb)])], promote_options="permissive")
+            .field("x")
+            .type
+        )
     except (pa.ArrowTypeError, pa.ArrowInvalid):
         theirs = None
     if theirs is None:

@@ -131,8 +131,9 @@ def test_parquet_footer_is_read_with_ranged_gets(s3: Server) -> None:
 
 def test_where_prunes_before_listing_deeper(s3: Server, demo_dir: Path) -> None:
     s3.requests.clear()
-    remote = scan_paths([f"s3://{BUCKET}/landing/"], storage=StorageOptions(endpoint_url=s3.url),
-                        where=["day>=2026-11-30"])
+    remote = scan_paths(
+        [f"s3://{BUCKET}/landing/"], storage=StorageOptions(endpoint_url=s3.url), where=["day>=2026-11-30"]
+    )
     local = scan_paths([demo_dir / "landing"], where=["day>=2026-11-30"])
     assert [f.rel for f in remote.files] == [f.rel for f in local.files]
     assert {dict(f.partitions)["day"] for f in remote.files} == {"2026-11-30"}
@@ -180,8 +181,24 @@ def test_cli_s3_scan_matches_local_report(s3: Server, demo_dir: Path, tmp_path: 
 
     def run(*args: str) -> dict[str, Any]:
         out = tmp_path / "r.json"
-        proc = subprocess.run([sys.executable, "-m", "driftline.cli", "scan", *args, "--where", "day>=2026-11-29",
-                               "--json", str(out), "-j", "2"], capture_output=True, text=True, timeout=120)
+        proc = subprocess.run(
+            [
+                sys.executable,
+                "-m",
+                "driftline.cli",
+                "scan",
+                *args,
+                "--where",
+                "day>=2026-11-29",
+                "--json",
+                str(out),
+                "-j",
+                "2",
+            ],
+            capture_output=True,
+            text=True,
+            timeout=120,
+        )
         assert proc.returncode == 0, proc.stderr
         assert SECRET not in proc.stdout + proc.stderr
         report = json.loads(out.read_text())
@@ -216,8 +233,9 @@ def test_other_verbs_take_s3_urls(s3: Server, demo_dir: Path) -> None:
     env = {**os.environ, "AWS_ENDPOINT_URL": s3.url}
 
     def run(*args: str) -> subprocess.CompletedProcess[str]:
-        return subprocess.run([sys.executable, "-m", "driftline.cli", *args], capture_output=True, text=True,
-                              timeout=120, env=env)
+        return subprocess.run(
+            [sys.executable, "-m", "driftline.cli", *args], capture_output=True, text=True, timeout=120, env=env
+        )
 
     remote = run("schema", f"s3://{BUCKET}/landing/", "--to", "json-schema", "--out", "-")
     local = run("schema", str(demo_dir / "landing"), "--to", "json-schema", "--out", "-")
@@ -232,6 +250,7 @@ def test_other_verbs_take_s3_urls(s3: Server, demo_dir: Path) -> None:
 
 # -- hostile listings, replaced objects, silent endpoints -------------------------------------
 
+
 def test_docstring_examples_run() -> None:
     import doctest
 
@@ -244,8 +263,16 @@ def test_docstring_examples_run() -> None:
 # Keys S3 allows (source: Amazon S3 User Guide, "Naming Amazon S3 objects": any UTF-8 up to
 # 1,024 bytes; '//', '.' and '..' segments are legal but need care) that are not file paths.
 ODD_KEYS = ["odd//b.jsonl", "odd/y//z/f.jsonl", "odd/./d.jsonl", "odd/../e.jsonl"]
-PLAIN_KEYS = ["odd/a.jsonl", "odd/sp ace.jsonl", "odd/pct%41.jsonl", "odd/q?x.jsonl", "odd/h#x.jsonl",
-              "odd/plus+.jsonl", "odd/ünï.jsonl", "odd/y/ok.jsonl"]
+PLAIN_KEYS = [
+    "odd/a.jsonl",
+    "odd/sp ace.jsonl",
+    "odd/pct%41.jsonl",
+    "odd/q?x.jsonl",
+    "odd/h#x.jsonl",
+    "odd/plus+.jsonl",
+    "odd/ünï.jsonl",
+    "odd/y/ok.jsonl",
+]
 
 
 @pytest.fixture(scope="module")
@@ -268,13 +295,17 @@ def test_keys_with_double_slashes_list_each_prefix_once(s3: Server, odd_bucket: 
     profile = scan_paths([f"s3://{BUCKET}/odd/"], storage=StorageOptions(endpoint_url=s3.url))
     listed = [r["query"]["prefix"][0] for r in s3.requests if "list-type" in r["query"]]  # ListObjectsV2
     assert sorted(listed) == ["odd/", "odd/marker/", "odd/y/"]  # each folder once: bounded in requests
-    assert [f.rel for f in profile.files] == sorted(k[len("odd/"):] for k in PLAIN_KEYS)
-    assert [(s.rel, s.reason) for s in profile.skipped] == [("../", "odd-key"), ("./", "odd-key"), ("/", "odd-key"),
-                                                            ("y//", "odd-key")]
+    assert [f.rel for f in profile.files] == sorted(k[len("odd/") :] for k in PLAIN_KEYS)
+    assert [(s.rel, s.reason) for s in profile.skipped] == [
+        ("../", "odd-key"),
+        ("./", "odd-key"),
+        ("/", "odd-key"),
+        ("y//", "odd-key"),
+    ]
     # Rows against the bodies read back with boto3 (the reference client), line by line.
     for key in PLAIN_KEYS:
         body = odd_bucket.get_object(Bucket=BUCKET, Key=key)["Body"].read()
-        assert profile.file(key[len("odd/"):]).rows == body.count(b"\n"), key
+        assert profile.file(key[len("odd/") :]).rows == body.count(b"\n"), key
     assert profile.issues == ()
 
 
@@ -330,8 +361,10 @@ def test_object_replaced_mid_read_is_changed(s3: Server) -> None:
     assert swapped == [f'"{hashlib.md5(new).hexdigest()}"']
     (issue,) = profile.issues
     assert (issue.file, issue.kind, issue.severity) == ("a.jsonl", "changed", "error")
-    assert issue.message == (f'the object was replaced during the read (ETag "{hashlib.md5(old).hexdigest()}" when '
-                             f'opened, {swapped[0]} after); its rows may mix two versions; rescan it')
+    assert issue.message == (
+        f'the object was replaced during the read (ETag "{hashlib.md5(old).hexdigest()}" when '
+        f"opened, {swapped[0]} after); its rows may mix two versions; rescan it"
+    )
     assert not profile.file("a.jsonl").complete
     assert set(profile.fields["v"].stats.types) == {"int64", "string"}  # the mix the problem warns of
 
@@ -359,8 +392,12 @@ def test_cli_object_replaced_mid_read(s3: Server) -> None:
     (file,) = json.loads(run.stdout)["files"]
     assert file["complete"] is False
     assert [(i["kind"], i["message"]) for i in file["issues"]] == [
-        ("changed", f'the object was replaced during the read (ETag "{hashlib.md5(old).hexdigest()}" when opened, '
-                    f"{swapped[0]} after); its rows may mix two versions; rescan it")]
+        (
+            "changed",
+            f'the object was replaced during the read (ETag "{hashlib.md5(old).hexdigest()}" when opened, '
+            f"{swapped[0]} after); its rows may mix two versions; rescan it",
+        )
+    ]
     assert client.get_object(Bucket=BUCKET, Key="swap3/a.jsonl")["Body"].read() == new  # only the test wrote
     assert run.peak < PEAK_LIMIT
 
@@ -374,11 +411,15 @@ def test_object_replaced_after_listing_is_changed(s3: Server) -> None:
         if current == "a.jsonl":
             client.put_object(Bucket=BUCKET, Key="swap2/a.jsonl", Body=shorter)
 
-    profile = scan_paths([f"s3://{BUCKET}/swap2/"], storage=StorageOptions(endpoint_url=s3.url),
-                         progress=replace_before_reading)
+    profile = scan_paths(
+        [f"s3://{BUCKET}/swap2/"], storage=StorageOptions(endpoint_url=s3.url), progress=replace_before_reading
+    )
     assert [(i.kind, i.message) for i in profile.issues] == [
-        ("changed", f"the object changed after it was listed (size {len(old):,} then {len(shorter):,} bytes); "
-                    "rescan it")]
+        (
+            "changed",
+            f"the object changed after it was listed (size {len(old):,} then {len(shorter):,} bytes); rescan it",
+        )
+    ]
 
 
 @pytest.fixture
@@ -392,13 +433,26 @@ def test_silent_endpoint_is_a_bounded_clear_error(silent_port: int, tmp_path: Pa
     from _measured import PEAK_LIMIT, run_cli
 
     url = f"http://127.0.0.1:{silent_port}"
-    run = run_cli("scan", "s3://lake/landing/", "--endpoint-url", url, "--request-timeout", "1",
-                  "--connect-timeout", "1", "--json", str(tmp_path / "r.json"),
-                  env={"AWS_ACCESS_KEY_ID": ACCESS_KEY, "AWS_SECRET_ACCESS_KEY": SECRET}, timeout=100)
+    run = run_cli(
+        "scan",
+        "s3://lake/landing/",
+        "--endpoint-url",
+        url,
+        "--request-timeout",
+        "1",
+        "--connect-timeout",
+        "1",
+        "--json",
+        str(tmp_path / "r.json"),
+        env={"AWS_ACCESS_KEY_ID": ACCESS_KEY, "AWS_SECRET_ACCESS_KEY": SECRET},
+        timeout=100,
+    )
     assert run.returncode == 2
-    assert run.stderr == (f"InputPathError: cannot list s3://lake/landing: no answer from {url} within 1 s "
-                          "(4 attempts); check that the endpoint is an S3 server and reachable (--endpoint-url, "
-                          "network, proxy), or raise --request-timeout\n")
+    assert run.stderr == (
+        f"InputPathError: cannot list s3://lake/landing: no answer from {url} within 1 s "
+        "(4 attempts); check that the endpoint is an S3 server and reachable (--endpoint-url, "
+        "network, proxy), or raise --request-timeout\n"
+    )
     assert not (tmp_path / "r.json").exists()
     assert run.peak < PEAK_LIMIT
 
@@ -408,11 +462,21 @@ def test_dead_endpoint_is_a_clear_error(tmp_path: Path) -> None:
     from _measured import PEAK_LIMIT, run_cli
 
     url = f"http://127.0.0.1:{dead_port()}"
-    run = run_cli("scan", "s3://lake/landing/", "--endpoint-url", url, "--connect-timeout", "1",
-                  env={"AWS_ACCESS_KEY_ID": ACCESS_KEY, "AWS_SECRET_ACCESS_KEY": SECRET}, timeout=100)
+    run = run_cli(
+        "scan",
+        "s3://lake/landing/",
+        "--endpoint-url",
+        url,
+        "--connect-timeout",
+        "1",
+        env={"AWS_ACCESS_KEY_ID": ACCESS_KEY, "AWS_SECRET_ACCESS_KEY": SECRET},
+        timeout=100,
+    )
     assert run.returncode == 2
-    assert run.stderr == (f"InputPathError: cannot list s3://lake/landing: cannot connect to {url} (4 attempts "
-                          "within --connect-timeout 1 s); check --endpoint-url and that the server is running\n")
+    assert run.stderr == (
+        f"InputPathError: cannot list s3://lake/landing: cannot connect to {url} (4 attempts "
+        "within --connect-timeout 1 s); check --endpoint-url and that the server is running\n"
+    )
     assert run.peak < PEAK_LIMIT
 
 
@@ -440,12 +504,18 @@ def test_an_object_that_stalls_is_a_file_problem_naming_the_endpoint(s3: Server)
 
     s3.after = stall_a
     try:
-        profile = scan_paths([f"s3://{BUCKET}/stall/"], storage=StorageOptions(endpoint_url=s3.url, request_timeout=1,
-                                                                              retries=2))
+        profile = scan_paths(
+            [f"s3://{BUCKET}/stall/"], storage=StorageOptions(endpoint_url=s3.url, request_timeout=1, retries=2)
+        )
     finally:
         s3.after = None
     assert [(i.file, i.kind, i.message) for i in profile.issues] == [
-        ("a.jsonl", "unreadable", f"read failed: no answer from {s3.url} within 1 s (2 attempts); check that the "
-                                  "endpoint is an S3 server and reachable (--endpoint-url, network, proxy), or raise "
-                                  "--request-timeout")]
+        (
+            "a.jsonl",
+            "unreadable",
+            f"read failed: no answer from {s3.url} within 1 s (2 attempts); check that the "
+            "endpoint is an S3 server and reachable (--endpoint-url, network, proxy), or raise "
+            "--request-timeout",
+        )
+    ]
     assert profile.file("b.jsonl").rows == 10 and profile.file("a.jsonl").rows == 0

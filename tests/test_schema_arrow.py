@@ -37,9 +37,13 @@ def test_ipc_round_trip_is_equal_with_metadata(recs, tmp_path: Path):
 
 def test_nested_fields_keep_names_and_nullability(recs):
     demo = recs[0].arrow_schema()
-    assert demo.field("battery").type == pa.struct([
-        pa.field("charge_cycles", pa.int64()), pa.field("level", pa.int64(), nullable=False),
-        pa.field("voltage", pa.float64(), nullable=False)])
+    assert demo.field("battery").type == pa.struct(
+        [
+            pa.field("charge_cycles", pa.int64()),
+            pa.field("level", pa.int64(), nullable=False),
+            pa.field("voltage", pa.float64(), nullable=False),
+        ]
+    )
     assert demo.field("tags").type == pa.list_(pa.field("item", pa.string(), nullable=False))
     orders = recs[1].arrow_schema()
     assert orders.field("attrs").type == pa.map_(pa.string(), pa.field("value", pa.int64(), nullable=False))

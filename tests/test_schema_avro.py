@@ -93,8 +93,9 @@ def test_records_round_trip_through_fastavro_after_the_rules(sources):
 
 
 def test_logical_types_and_names(tmp_path: Path):
-    (tmp_path / "a.csv").write_text("pm2.5,2nd,when,day,price\n"
-                                    "1.5,x,2026-01-02T03:04:05Z,2026-01-02,12345678901234.5678\n")
+    (tmp_path / "a.csv").write_text(
+        "pm2.5,2nd,when,day,price\n1.5,x,2026-01-02T03:04:05Z,2026-01-02,12345678901234.5678\n"
+    )
     rec = driftline.scan(tmp_path).recommend()
     fields = {f["x-driftline"]["name"]: f for f in avro_schema(rec)["fields"]}
     assert (fields["pm2.5"]["name"], fields["2nd"]["name"]) == ("pm2_5", "_2nd")

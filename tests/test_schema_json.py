@@ -22,8 +22,19 @@ from driftline.recommend.apply import apply
 from driftline.recommend.raw import iter_records, json_value, raw_batches
 from test_recommend_fixture import make_orders
 
-ALLOWED = {"type", "properties", "required", "items", "additionalProperties", "format", "minimum", "maximum",
-           "maxLength", "description", "x-driftline"}
+ALLOWED = {
+    "type",
+    "properties",
+    "required",
+    "items",
+    "additionalProperties",
+    "format",
+    "minimum",
+    "maximum",
+    "maxLength",
+    "description",
+    "x-driftline",
+}
 CHECKER = Draft202012Validator.FORMAT_CHECKER
 
 

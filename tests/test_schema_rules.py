@@ -43,11 +43,20 @@ def test_rules_file_validates_and_lists_parents_first(demo_dir: Path, tmp_path: 
 def test_rules_carry_the_loss_with_examples(demo_dir: Path):
     doc = rules_document(driftline.scan(demo_dir / "landing").recommend())
     pm25 = next(f for f in doc["fields"] if f["path"] == "pm25")
-    assert (pm25["rule"], pm25["target"], pm25["nulled"], pm25["changed"], pm25["exact"]) == \
-        ("parse_float", "float64", 6, 0, True)
+    assert (pm25["rule"], pm25["target"], pm25["nulled"], pm25["changed"], pm25["exact"]) == (
+        "parse_float",
+        "float64",
+        6,
+        0,
+        True,
+    )
     [token] = pm25["effects"]
-    assert token["examples"][0] == {"file": "readings/region=east/day=2026-11-29/part-0000.jsonl.gz",
-                                    "row": 185, "line": 186, "value": '"n/a"'}
+    assert token["examples"][0] == {
+        "file": "readings/region=east/day=2026-11-29/part-0000.jsonl.gz",
+        "row": 185,
+        "line": 186,
+        "value": '"n/a"',
+    }
     assert pm25["params"]["tokens"] == {"string": "null", "text": "null"}
 
 

@@ -68,15 +68,25 @@ def test_demo_script_runs_on_a_loaded_sample(demo_dir: Path, engine: str):
     if engine == "sqlite":
         sqlite3.connect(":memory:").executescript(script)  # the whole file parses
         return
-    types = dict(con.execute("SELECT column_name, data_type FROM information_schema.columns "
-                             "WHERE table_name = 'raw_readings'").fetchall())
-    assert (types["pm25"], types["humidity"], types["ts"], types["battery.level"], types["tags"]) == \
-        ("DOUBLE", "BIGINT", "TIMESTAMP WITH TIME ZONE", "BIGINT", "VARCHAR")
+    types = dict(
+        con.execute(
+            "SELECT column_name, data_type FROM information_schema.columns WHERE table_name = 'raw_readings'"
+        ).fetchall()
+    )
+    assert (types["pm25"], types["humidity"], types["ts"], types["battery.level"], types["tags"]) == (
+        "DOUBLE",
+        "BIGINT",
+        "TIMESTAMP WITH TIME ZONE",
+        "BIGINT",
+        "VARCHAR",
+    )
 
 
 def test_duckdb_select_casts_like_apply(demo_dir: Path, orders: Path):
-    for root, columns in ((demo_dir / "landing", ["pm25", "pm10", "humidity", "battery_level", "ts", "station_id"]),
-                          (orders, ["amount", "paid", "day", "created", "balance", "labels"])):
+    for root, columns in (
+        (demo_dir / "landing", ["pm25", "pm10", "humidity", "battery_level", "ts", "station_id"]),
+        (orders, ["amount", "paid", "day", "created", "balance", "labels"]),
+    ):
         rec = driftline.scan(root).recommend()
         con = duckdb.connect()
         con.execute("SET TimeZone = 'UTC'")

@@ -44,8 +44,9 @@ def reference(values: list[str | None], keep_first: int = 3) -> StringProfile:
         leap += cls in _STAMPS and v[17:19] == "60"
         lower += cls == "timestamp_rfc3339" and ("t" in v or "z" in v)
     order = [c for c in CLASSES if c in counts]
-    return StringProfile({c: counts[c] for c in order}, {c: first[c] for c in order}, longest, int_digits,
-                         frac_digits, leap, lower)
+    return StringProfile(
+        {c: counts[c] for c in order}, {c: first[c] for c in order}, longest, int_digits, frac_digits, leap, lower
+    )
 
 
 def check(values: list[str | None], typ: pa.DataType = pa.string()) -> StringProfile:
@@ -59,11 +60,47 @@ def check(values: list[str | None], typ: pa.DataType = pa.string()) -> StringPro
 # textclass: zero_padded is a '0' before another digit, integer within int64 (19 digits up to the
 # bound), decimal a point form or an integer past int64 up to 76 digits in all, float beyond that;
 # a leading '+', a bare point side or an exponent is not this shape.
-_EDGES = ["0", "-0", "007", "9" * 18, "-" + "9" * 18, "1" * 19, "-" + "1" * 19, "1" * 76, "1" * 75 + ".5",
-          "0.5", "-0.5", "00.50", "12345678901234567.8", "9223372036854775807", "9223372036854775808",
-          "-9223372036854775808", "-9223372036854775809", "-00", "0" * 20]
-_NOT_PLAIN = ["1" * 77, "1" * 76 + ".5", ".5", "5.", "-.5", "+1", "1e5", "-", "", " 1", "1 ", "1.2.3", "--1",
-              "1-", "0x1F", "١٢", "nan", "１"]
+_EDGES = [
+    "0",
+    "-0",
+    "007",
+    "9" * 18,
+    "-" + "9" * 18,
+    "1" * 19,
+    "-" + "1" * 19,
+    "1" * 76,
+    "1" * 75 + ".5",
+    "0.5",
+    "-0.5",
+    "00.50",
+    "12345678901234567.8",
+    "9223372036854775807",
+    "9223372036854775808",
+    "-9223372036854775808",
+    "-9223372036854775809",
+    "-00",
+    "0" * 20,
+]
+_NOT_PLAIN = [
+    "1" * 77,
+    "1" * 76 + ".5",
+    ".5",
+    "5.",
+    "-.5",
+    "+1",
+    "1e5",
+    "-",
+    "",
+    " 1",
+    "1 ",
+    "1.2.3",
+    "--1",
+    "1-",
+    "0x1F",
+    "١٢",
+    "nan",
+    "１",
+]
 
 
 def test_plain_number_columns_take_one_pass(monkeypatch: pytest.MonkeyPatch) -> None:
@@ -74,8 +111,10 @@ def test_plain_number_columns_take_one_pass(monkeypatch: pytest.MonkeyPatch) -> 
     ints = [str(rng.randrange(-(10**12), 10**12)) for _ in range(5000)]
     p = check(ints)
     assert set(p.counts) == {"integer"} and p.first == {"integer": [0, 1, 2]}
-    mixed = [rng.choice(_EDGES) if rng.random() < 0.2 else f"{rng.uniform(-1e6, 1e6):.{rng.randrange(5)}f}"
-             for _ in range(5000)]
+    mixed = [
+        rng.choice(_EDGES) if rng.random() < 0.2 else f"{rng.uniform(-1e6, 1e6):.{rng.randrange(5)}f}"
+        for _ in range(5000)
+    ]
     p = check(mixed)
     assert set(p.counts) == {"zero_padded", "integer", "decimal"}
     assert (p.int_digits, p.frac_digits) == (76, 4)  # "1" * 76, and the 4-place amounts
@@ -95,19 +134,24 @@ def test_one_value_off_the_shape_gives_the_reference_answer(odd: str, where: int
 
 def test_nulls_slices_and_repeats() -> None:
     rng = random.Random(5)
-    values = [None if rng.random() < 0.1 else str(rng.randrange(-500, 500)) + rng.choice(["", ".25"])
-              for _ in range(6000)]
+    values = [
+        None if rng.random() < 0.1 else str(rng.randrange(-500, 500)) + rng.choice(["", ".25"]) for _ in range(6000)
+    ]
     check(values)
     arr = pa.array(values, pa.string())
     for start, n in ((1, 4000), (2500, 3500), (5999, 1)):  # an offset into shared buffers
-        assert string_profile(arr.slice(start, n)) == reference(values[start:start + n])
+        assert string_profile(arr.slice(start, n)) == reference(values[start : start + n])
     assert string_profile(pa.array([None] * 2000 + ["1"], pa.string())) == reference([None] * 2000 + ["1"])
 
 
 _number = st.one_of(
     st.integers(-(10**80), 10**80).map(str),
-    st.builds(lambda s, a, b: f"{s}{a}.{b}", st.sampled_from(["", "-"]), st.integers(0, 10**40),
-              st.text("0123456789", min_size=1, max_size=40)),
+    st.builds(
+        lambda s, a, b: f"{s}{a}.{b}",
+        st.sampled_from(["", "-"]),
+        st.integers(0, 10**40),
+        st.text("0123456789", min_size=1, max_size=40),
+    ),
     st.sampled_from(_EDGES + _NOT_PLAIN),
 )
 
@@ -136,16 +180,24 @@ def test_bytes_under_null_values_change_nothing(hidden: bytes) -> None:
     for c in cells:
         offsets.append(offsets[-1] + len(c))
     validity = pa.array([i % 3 != 1 for i in range(len(cells))]).buffers()[1]
-    arr = pa.Array.from_buffers(pa.string(), len(cells), [validity, pa.array(offsets, pa.int32()).buffers()[1],
-                                                          pa.py_buffer(b"".join(cells))])
+    arr = pa.Array.from_buffers(
+        pa.string(), len(cells), [validity, pa.array(offsets, pa.int32()).buffers()[1], pa.py_buffer(b"".join(cells))]
+    )
     assert arr.null_count == 700
     assert string_profile(arr) == reference(arr.to_pylist())
 
 
 def test_few_values_with_leap_seconds_and_lowercase() -> None:
     # source: RFC 3339 section 5.6 (date-time; 't' and 'z' may be lowercase) and 5.7 (second 60)
-    few = ["1990-12-31T23:59:60Z", "1985-04-12t23:20:50.52z", "1996-12-19T16:39:57-08:00", "2026-02-30T00:00:00Z",
-           "1990-12-31 23:59:60", "x", None]
+    few = [
+        "1990-12-31T23:59:60Z",
+        "1985-04-12t23:20:50.52z",
+        "1996-12-19T16:39:57-08:00",
+        "2026-02-30T00:00:00Z",
+        "1990-12-31 23:59:60",
+        "x",
+        None,
+    ]
     rng = random.Random(2)
     values = [rng.choice(few) for _ in range(3000)]
     p = check(values)

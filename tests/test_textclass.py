@@ -348,9 +348,7 @@ def test_string_types(typ: pa.DataType) -> None:
 
 
 def test_chunked_arrays_offset_indices() -> None:
-    chunked = pa.chunked_array(
-        [["a", "1"], [], [None, "1990-12-31T23:59:60Z", "2"], ["true"]], pa.large_string()
-    )
+    chunked = pa.chunked_array([["a", "1"], [], [None, "1990-12-31T23:59:60Z", "2"], ["true"]], pa.large_string())
     scan = classify(chunked)
     assert scan.counts == {"boolean": 1, "integer": 2, "timestamp_rfc3339": 1, "text": 1}
     assert scan.first_index == {"boolean": 5, "integer": 1, "timestamp_rfc3339": 3, "text": 0}
@@ -432,9 +430,7 @@ _numbers = st.one_of(
         st.sampled_from(["", "", "e3", "E+05", "e-400", "e", "E400"]),
     ),
     st.floats().map(repr),
-    st.builds(
-        lambda s, w: s + w, _sign, st.sampled_from(["inf", "infinity", "nan"]).flatmap(_random_case)
-    ),
+    st.builds(lambda s, w: s + w, _sign, st.sampled_from(["inf", "infinity", "nan"]).flatmap(_random_case)),
 )
 
 
@@ -507,9 +503,7 @@ _keywords = st.one_of(
     st.sampled_from(sorted(NULL_TOKENS)).flatmap(_random_case),
     st.sampled_from(["nİl", "falſe", "\u212a", "yes", "t", "0x1F", "1_000", "", " ", "\u3000"]),
 )
-_value = st.one_of(
-    _numbers, _date, _timestamp, _clean_timestamp, _clean_timestamp, _keywords, st.text(max_size=12)
-)
+_value = st.one_of(_numbers, _date, _timestamp, _clean_timestamp, _clean_timestamp, _keywords, st.text(max_size=12))
 _padded = _mostly(
     _value,
     st.builds(
@@ -554,8 +548,7 @@ def test_differential_against_class_of(values: list[str | None], n_chunks: int) 
     assert scan.leap_seconds == len(leaps)
     assert scan.first_leap_index == (leaps[0] if leaps else None)
     assert scan.lowercase_rfc3339 == sum(
-        c == "timestamp_rfc3339" and ("t" in v or "z" in v)
-        for v, c in zip(strs, classes, strict=True)
+        c == "timestamp_rfc3339" and ("t" in v or "z" in v) for v, c in zip(strs, classes, strict=True)
     )
 
     # Chunking must not change anything.
@@ -663,8 +656,9 @@ def test_zero_padded_cases(value: str, expected: str) -> None:
 def test_zero_padded_is_a_class_on_every_path() -> None:
     values = [v for v, _ in ZERO_PADDED_CASES]
     masks = class_masks(pa.array(values))
-    assert [next(c for c in CLASSES if masks[c][i].as_py()) for i in range(len(values))] == \
-        [c for _, c in ZERO_PADDED_CASES]
+    assert [next(c for c in CLASSES if masks[c][i].as_py()) for i in range(len(values))] == [
+        c for _, c in ZERO_PADDED_CASES
+    ]
     # A column of plain numbers takes observe.numbers' path; few distinct values the dictionary's.
     plain = ["000009113186", "09001", "06", "0900", "-007", "00.5", "0", "-0", "0.5", "12"] * 300
     scan = classify(pa.array(plain))

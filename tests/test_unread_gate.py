@@ -28,8 +28,9 @@ def digests(folder: Path) -> dict[str, str]:
 
 def check_cli(*args: str) -> subprocess.CompletedProcess[str]:
     env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path), COLUMNS="200")
-    return subprocess.run([sys.executable, "-m", "driftline.cli", "check", *args], capture_output=True, text=True,
-                          env=env, timeout=120)
+    return subprocess.run(
+        [sys.executable, "-m", "driftline.cli", "check", *args], capture_output=True, text=True, env=env, timeout=120
+    )
 
 
 def test_a_stray_quote_in_the_header_is_reported_not_silent(tmp_path: Path):
@@ -50,7 +51,10 @@ def test_header_only_files_are_not_flagged(tmp_path: Path):
     (tmp_path / "c.tsv").write_text("id\tname")
     p = driftline.scan(tmp_path)
     assert [(f.rel, f.rows, f.issues, f.complete) for f in p.files] == [
-        ("a.csv", 0, (), True), ("b.csv", 0, (), True), ("c.tsv", 0, (), True)]
+        ("a.csv", 0, (), True),
+        ("b.csv", 0, (), True),
+        ("c.tsv", 0, (), True),
+    ]
     assert compare(p, baseline_from_json_schema(SCHEMA)).passed
 
 
@@ -88,7 +92,8 @@ def test_rows_set_aside_fail_whatever_the_error_rate(tmp_path: Path):
     assert p.rows == 2 and [i.kind for i in p.issues] == ["ragged-row"]
     lenient = compare(p, baseline_from_json_schema(SCHEMA), Policy(max_file_error_rate=100))
     assert [(v.rule, v.change, v.file, v.line) for v in lenient.violations] == [
-        ("unread_rows", "rows not read: ragged-row", "a.csv", 3)]
+        ("unread_rows", "rows not read: ragged-row", "a.csv", 3)
+    ]
     assert compare(p, baseline_from_json_schema(SCHEMA), Policy(max_file_error_rate=100, unread_rows="allow")).passed
 
 

@@ -35,8 +35,11 @@ def data(tmp_path: Path) -> Path:
     (d / "day=1").mkdir(parents=True)
     (d / "day=2").mkdir()
     (d / "day=1" / "a.jsonl").write_text(
-        json.dumps({"email": SECRETS[0], "code": 1, "note": SECRETS[3]}) + "\n"
-        + json.dumps({"email": SECRETS[1], "code": 2}) + "\n")
+        json.dumps({"email": SECRETS[0], "code": 1, "note": SECRETS[3]})
+        + "\n"
+        + json.dumps({"email": SECRETS[1], "code": 2})
+        + "\n"
+    )
     (d / "day=2" / "a.jsonl").write_text(json.dumps({"email": SECRETS[0], "code": SECRETS[2]}) + "\n")
     (d / "day=2" / "b.csv").write_text(f"name,when\n{SECRETS[3]},2026-01-01\n")
     # Numbers and a string that does not parse: the rules file lists it as an unparsed example.
@@ -48,28 +51,54 @@ def run(*args: str, env_extra: dict[str, str] | None = None) -> subprocess.Compl
     env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path), COLUMNS="200")
     env.pop("DRIFTLINE_HASH_KEY", None)  # only the key a test gives
     env.update(env_extra or {})
-    return subprocess.run([sys.executable, "-m", "driftline.cli", *args], capture_output=True, text=True, env=env,
-                          timeout=120)
+    return subprocess.run(
+        [sys.executable, "-m", "driftline.cli", *args], capture_output=True, text=True, env=env, timeout=120
+    )
 
 
-def outputs_of_every_verb(data: Path, out: Path, *flags: str,
-                          env_extra: dict[str, str] | None = None) -> dict[str, str]:
+def outputs_of_every_verb(
+    data: Path, out: Path, *flags: str, env_extra: dict[str, str] | None = None
+) -> dict[str, str]:
     """Every output format, written with the flags: JSON report, HTML, terminal (scan, check,
     schema, diff), verdict JSON, JUnit, rules file, JSON Schema with annotations."""
     schema = out / "contract.json"
-    schema.write_text(json.dumps({"type": "object", "properties": {"email": {"type": "integer"},
-                                                                  "code": {"type": "integer"}}}))
+    schema.write_text(
+        json.dumps({"type": "object", "properties": {"email": {"type": "integer"}, "code": {"type": "integer"}}})
+    )
     texts: dict[str, str] = {}
-    r = run("scan", str(data), "--json", str(out / "r.json"), "--html", str(out / "r.html"), *flags,
-            env_extra=env_extra)
+    r = run(
+        "scan", str(data), "--json", str(out / "r.json"), "--html", str(out / "r.html"), *flags, env_extra=env_extra
+    )
     assert r.returncode == 0, r.stderr
     texts["scan terminal"] = r.stdout + r.stderr
-    r = run("check", str(data), "-b", str(schema), "--json", str(out / "v.json"), "--junit", str(out / "v.xml"),
-            *flags, env_extra=env_extra)
+    r = run(
+        "check",
+        str(data),
+        "-b",
+        str(schema),
+        "--json",
+        str(out / "v.json"),
+        "--junit",
+        str(out / "v.xml"),
+        *flags,
+        env_extra=env_extra,
+    )
     assert r.returncode == 1, r.stderr  # the email field is not an integer: a violation with an example
     texts["check terminal"] = r.stdout + r.stderr
-    r = run("schema", str(data), "--to", "json-schema", "--out", str(out / "s.json"),
-            "--rules", str(out / "rules.json"), "--max-null-share", "0.5", *flags, env_extra=env_extra)
+    r = run(
+        "schema",
+        str(data),
+        "--to",
+        "json-schema",
+        "--out",
+        str(out / "s.json"),
+        "--rules",
+        str(out / "rules.json"),
+        "--max-null-share",
+        "0.5",
+        *flags,
+        env_extra=env_extra,
+    )
     assert r.returncode == 0, r.stderr
     texts["schema terminal"] = r.stdout + r.stderr
     r = run("diff", str(data), "--by", "day", *flags, env_extra=env_extra)
@@ -137,8 +166,9 @@ def test_hash_without_a_key_is_a_usage_error(data: Path, tmp_path: Path):
 def test_set_in_the_config_files(data: Path, tmp_path: Path):
     (tmp_path / "key").write_bytes(KEY)
     (tmp_path / "gate.toml").write_text('widening = "warn"\n\n[output]\nexample_values = "hide"\n')
-    (tmp_path / "recommend.toml").write_text('[recommend]\nprefer_decimal = true\n\n[output]\n'
-                                             'example_values = "hash"\nhash_key_file = "key"\n')
+    (tmp_path / "recommend.toml").write_text(
+        '[recommend]\nprefer_decimal = true\n\n[output]\nexample_values = "hash"\nhash_key_file = "key"\n'
+    )
     schema = tmp_path / "contract.json"
     schema.write_text(json.dumps({"type": "object", "properties": {"email": {"type": "integer"}}}))
     r = run("check", str(data), "-b", str(schema), "-p", str(tmp_path / "gate.toml"), "--json", "-")
@@ -156,8 +186,9 @@ def test_parser_messages_lose_the_cells_they_quote():
     from driftline.sources.base import FileIssue, FileResult
 
     # source: pyarrow's CSV reader quotes the row in "Expected N columns, got M: <row>"
-    issue = FileIssue("a.csv", "malformed-csv", f"parsing stopped: CSV parse error: Expected 2 columns, got 3: "
-                      f"{SECRETS[0]},x,y")
+    issue = FileIssue(
+        "a.csv", "malformed-csv", f"parsing stopped: CSV parse error: Expected 2 columns, got 3: {SECRETS[0]},x,y"
+    )
     p = Profile("r", (FileResult("a.csv", "csv", None, (), 10, 0, issues=(issue,)),))
     hidden = conceal(p, ValuePolicy("hide")).files[0].issues[0].message
     assert hidden == "parsing stopped: (value hidden)"

@@ -79,8 +79,9 @@ def test_jobs_far_above_the_cores(landing: Path) -> None:
 def test_a_worker_killed_once_is_retried(landing: Path, tmp_path: Path) -> None:
     before = snapshot(landing)
     flag = tmp_path / "died-once"
-    run = run_cli("scan", str(landing), "--jobs", "2", "--json", "-", "-q",
-                  env={TEST_FAULT_ENV: f"kill:f07.jsonl|{flag}"})
+    run = run_cli(
+        "scan", str(landing), "--jobs", "2", "--json", "-", "-q", env={TEST_FAULT_ENV: f"kill:f07.jsonl|{flag}"}
+    )
     assert flag.exists()  # the worker really died
     assert run.returncode == 0, run.stderr
     assert "warning: a worker process died while reading " in run.stderr and "f07.jsonl" in run.stderr
@@ -95,8 +96,10 @@ def test_a_worker_killed_twice_is_an_error_naming_the_file(landing: Path) -> Non
     assert run.returncode == 2
     assert run.stdout == ""  # nothing reported
     # source: signal(7): SIGKILL, the signal the out-of-memory killer sends
-    assert ("WorkerError: the worker process reading f07.jsonl died twice, the second time alone "
-            "(killed by SIGKILL: the out-of-memory killer, or another process); nothing was reported.") in run.stderr
+    assert (
+        "WorkerError: the worker process reading f07.jsonl died twice, the second time alone "
+        "(killed by SIGKILL: the out-of-memory killer, or another process); nothing was reported."
+    ) in run.stderr
     assert "Traceback" not in run.stderr
     assert snapshot(landing) == before
     assert run.peak < PEAK_LIMIT
@@ -104,11 +107,22 @@ def test_a_worker_killed_twice_is_an_error_naming_the_file(landing: Path) -> Non
 
 def test_a_hung_worker_times_out(landing: Path) -> None:
     before = snapshot(landing)
-    run = run_cli("scan", str(landing), "--jobs", "2", "--task-timeout", "3", "-q",
-                  env={TEST_FAULT_ENV: "hang:f07.jsonl"}, timeout=120)
+    run = run_cli(
+        "scan",
+        str(landing),
+        "--jobs",
+        "2",
+        "--task-timeout",
+        "3",
+        "-q",
+        env={TEST_FAULT_ENV: "hang:f07.jsonl"},
+        timeout=120,
+    )
     assert run.returncode == 2
-    assert ("WorkerError: reading f07.jsonl did not finish within 3 s (--task-timeout); nothing was reported. "
-            "Check that the file's storage answers") in run.stderr
+    assert (
+        "WorkerError: reading f07.jsonl did not finish within 3 s (--task-timeout); nothing was reported. "
+        "Check that the file's storage answers"
+    ) in run.stderr
     assert "Traceback" not in run.stderr
     assert snapshot(landing) == before
     assert run.peak < PEAK_LIMIT

@@ -149,15 +149,32 @@ def scan(
     }
     pins = (csv_dialect,) if isinstance(csv_dialect, str) else tuple(csv_dialect)
     read = ReadOptions(batch_rows=batch_rows, delimiter=delimiter, csv_dialects=pins, encoding=encoding, **limits)
-    timeouts: dict[str, _Any] = {name: float(value) for name, value in (("connect_timeout", connect_timeout),
-                                ("request_timeout", request_timeout)) if value is not None}
+    timeouts: dict[str, _Any] = {
+        name: float(value)
+        for name, value in (("connect_timeout", connect_timeout), ("request_timeout", request_timeout))
+        if value is not None
+    }
     storage = StorageOptions(endpoint_url=endpoint_url, region=region, anonymous=anonymous, **timeouts)
     more: dict[str, _Any] = {} if task_timeout is None else {"task_timeout": float(task_timeout)}
-    profile = _scan_paths(list(paths), read=read, include=include, exclude=exclude, include_hidden=include_hidden,
-                          sniff_unknown=sniff_unknown,
-                          jobs=jobs, max_errors=max_errors, progress=progress, engine=engine, scheduler=scheduler,
-                          where=where, storage=storage, max_events=max_events, follow_links=follow_links,
-                          connect_timeout=connect_timeout, **more)
+    profile = _scan_paths(
+        list(paths),
+        read=read,
+        include=include,
+        exclude=exclude,
+        include_hidden=include_hidden,
+        sniff_unknown=sniff_unknown,
+        jobs=jobs,
+        max_errors=max_errors,
+        progress=progress,
+        engine=engine,
+        scheduler=scheduler,
+        where=where,
+        storage=storage,
+        max_events=max_events,
+        follow_links=follow_links,
+        connect_timeout=connect_timeout,
+        **more,
+    )
     return conceal(profile, values)
 
 
@@ -191,8 +208,15 @@ def check(
     from driftline.conceal import value_policy
     from driftline.gate.run import run_check
 
-    verdict, _ = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify, rebuild=rebuild,
-                           values=value_policy(example_values, hash_key))
+    verdict, _ = run_check(
+        paths,
+        baseline=baseline,
+        policy=policy,
+        state=state,
+        verify=verify,
+        rebuild=rebuild,
+        values=value_policy(example_values, hash_key),
+    )
     return verdict
 
 

@@ -43,8 +43,11 @@ from driftline.sources.base import FileIssue, FileResult
 MODES = ("show", "hide", "hash")
 KEY_ENV = "DRIFTLINE_HASH_KEY"  # the key for hash mode, when no key file is given
 HASH_HEX = 16  # 64 bits of the HMAC: collisions are negligible among the values of a report
-_QUOTED_MESSAGE = re.compile(r"^(cannot parse|parsing stopped|unexpected \w+|read failed): (.*?)"
-                             r"(; please report this file)?$", re.S)
+_QUOTED_MESSAGE = re.compile(
+    r"^(cannot parse|parsing stopped|unexpected \w+|read failed): (.*?)"
+    r"(; please report this file)?$",
+    re.S,
+)
 
 
 @dataclass(frozen=True, slots=True)
@@ -67,8 +70,9 @@ class ValuePolicy:
         if self.mode == "hide" or not value:
             return ""
         assert self.key is not None
-        return "hmac:" + hmac.new(self.key, value.encode("utf-8", "surrogatepass"), hashlib.sha256).hexdigest()[
-            :HASH_HEX]
+        return (
+            "hmac:" + hmac.new(self.key, value.encode("utf-8", "surrogatepass"), hashlib.sha256).hexdigest()[:HASH_HEX]
+        )
 
     def message(self, message: str) -> str:
         """A file problem's message without the data a parser quoted in it."""
@@ -79,8 +83,11 @@ class ValuePolicy:
         return f"{m.group(1)}: {quoted}{m.group(3) or ''}"
 
 
-def value_policy(mode: str | None, key: bytes | str | None = None, key_file: str | os.PathLike[str] | None = None,
-                 ) -> ValuePolicy:
+def value_policy(
+    mode: str | None,
+    key: bytes | str | None = None,
+    key_file: str | os.PathLike[str] | None = None,
+) -> ValuePolicy:
     """The policy for mode ('show' when None); the key comes from key, key_file or DRIFTLINE_HASH_KEY."""
     mode = mode or "show"
     if mode == "hash" and key is None:

@@ -62,9 +62,7 @@ def _import_distributed() -> Any:
     try:
         import distributed
     except ImportError as exc:
-        raise EngineError(
-            "--engine dask needs the dask extra: pip install 'driftline[dask]'"
-        ) from exc
+        raise EngineError("--engine dask needs the dask extra: pip install 'driftline[dask]'") from exc
     return distributed
 
 
@@ -83,8 +81,9 @@ def scheduler_endpoint(address: str) -> tuple[str, str, int]:
     scheme, sep, rest = address.strip().rpartition("://")
     scheme = scheme if sep else "tcp"
     if scheme not in SCHEMES:
-        raise EngineError(f"--scheduler {address!r}: unknown scheme {scheme!r} (one of {', '.join(SCHEMES)}); "
-                          f"{example}")
+        raise EngineError(
+            f"--scheduler {address!r}: unknown scheme {scheme!r} (one of {', '.join(SCHEMES)}); {example}"
+        )
     if rest.startswith("["):  # IPv6: [addr]:port
         host, _, tail = rest[1:].partition("]")
         port_text = tail[1:] if tail.startswith(":") else ""
@@ -112,15 +111,20 @@ def _probe(distributed: Any, address: str, timeout: float) -> None:
     except ConnectionRefusedError:
         raise EngineError(f"nothing listens at {address} (connection refused); {check}") from None
     except TimeoutError:
-        raise EngineError(f"no connection to {address} within {timeout:g} s (--connect-timeout); {check}, "
-                          "and the firewalls between") from None
+        raise EngineError(
+            f"no connection to {address} within {timeout:g} s (--connect-timeout); {check}, and the firewalls between"
+        ) from None
     except OSError as exc:
         raise EngineError(f"cannot connect to {address}: {exc.strerror or exc}; {check}") from None
     if scheme != "tcp":
         return  # TLS and websocket handshakes need the cluster's security settings: the Client does them
     try:
-        peer = _run_async(lambda: _handshake(distributed, f"tcp://{host}:{port}" if ":" not in host
-                                             else f"tcp://[{host}]:{port}", timeout), 2 * timeout + 1)
+        peer = _run_async(
+            lambda: _handshake(
+                distributed, f"tcp://{host}:{port}" if ":" not in host else f"tcp://[{host}]:{port}", timeout
+            ),
+            2 * timeout + 1,
+        )
     except TimeoutError:
         raise EngineError(
             f"{address} accepted the connection but did not answer as a dask scheduler within {timeout:g} s "
@@ -128,11 +132,14 @@ def _probe(distributed: Any, address: str, timeout: float) -> None:
             "or another service"
         ) from None
     except Exception as exc:  # a peer that answers, but not as distributed expects
-        raise EngineError(f"{address} does not speak the dask protocol ({type(exc).__name__}: {exc}); "
-                          f"{check}") from None
+        raise EngineError(
+            f"{address} does not speak the dask protocol ({type(exc).__name__}: {exc}); {check}"
+        ) from None
     if peer != "Scheduler":
-        raise EngineError(f"{address} is a dask {peer or 'peer'}, not a scheduler; give the scheduler's address "
-                          "(the one `dask scheduler` prints, port 8786 by default)")
+        raise EngineError(
+            f"{address} is a dask {peer or 'peer'}, not a scheduler; give the scheduler's address "
+            "(the one `dask scheduler` prints, port 8786 by default)"
+        )
 
 
 async def _handshake(distributed: Any, address: str, timeout: float) -> str | None:
@@ -160,20 +167,27 @@ def _run_async(make: Callable[[], Any], timeout: float) -> Any:
         pool.shutdown(wait=False)
 
 
-def _connect(distributed: Any, scheduler: str | None, workers: int,
-             timeout: float = CONNECT_TIMEOUT_S) -> tuple[Any, Any]:
+def _connect(
+    distributed: Any, scheduler: str | None, workers: int, timeout: float = CONNECT_TIMEOUT_S
+) -> tuple[Any, Any]:
     """A Client on the given scheduler, or on a fresh loopback LocalCluster (returned to close)."""
     if scheduler:
         _probe(distributed, scheduler, timeout)
         try:
             return distributed.Client(scheduler, timeout=timeout, set_as_default=False), None
         except Exception as exc:  # whatever distributed raises (versions that disagree, a lost connection)
-            raise EngineError(f"cannot reach the dask scheduler at {scheduler!r}: {type(exc).__name__}: {exc}; "
-                              "check the address and that `dask scheduler` runs there") from exc
+            raise EngineError(
+                f"cannot reach the dask scheduler at {scheduler!r}: {type(exc).__name__}: {exc}; "
+                "check the address and that `dask scheduler` runs there"
+            ) from exc
     # Loopback only: a scan started on a laptop never listens on the network.
     cluster = distributed.LocalCluster(
-        n_workers=max(1, workers), threads_per_worker=1, processes=True,
-        host="127.0.0.1", dashboard_address=":0", silence_logs=logging.CRITICAL,
+        n_workers=max(1, workers),
+        threads_per_worker=1,
+        processes=True,
+        host="127.0.0.1",
+        dashboard_address=":0",
+        silence_logs=logging.CRITICAL,
     )
     try:
         client = distributed.Client(cluster, set_as_default=False)
@@ -205,8 +219,9 @@ def read_dask(
     distributed = _import_distributed()
     client, cluster = _connect(distributed, scheduler, workers, connect_timeout)
     try:
-        merged = _reduce(distributed, client, files, opts, root, progress, task_timeout,
-                         scheduler or "the local cluster")
+        merged = _reduce(
+            distributed, client, files, opts, root, progress, task_timeout, scheduler or "the local cluster"
+        )
     except EngineError:
         raise
     except Exception as exc:
@@ -237,22 +252,30 @@ def runs_of(n: int, workers: int, per_worker: int = TASKS_PER_WORKER) -> list[ra
     return [range(i, min(i + size, n)) for i in range(0, n, size)]
 
 
-def _reduce(distributed: Any, client: Any, files: Sequence[FileRef], opts: ReadOptions, root: str,
-            progress: Progress | None, task_timeout: float = TASK_TIMEOUT_S,
-            where: str = "the cluster") -> Profile:
+def _reduce(
+    distributed: Any,
+    client: Any,
+    files: Sequence[FileRef],
+    opts: ReadOptions,
+    root: str,
+    progress: Progress | None,
+    task_timeout: float = TASK_TIMEOUT_S,
+    where: str = "the cluster",
+) -> Profile:
     total = len(files)
     workers = max(1, sum(client.nthreads().values()))
     runs = runs_of(total, workers)
     token = _token()
     # pure=False and fresh keys: a rescan must re-read files that changed under the same FileRef.
-    leaves = [client.submit(_read_run, [files[i] for i in run], opts, root, pure=False,
-                            key=f"driftline-read-{token}-{k}") for k, run in enumerate(runs)]
+    leaves = [
+        client.submit(_read_run, [files[i] for i in run], opts, root, pure=False, key=f"driftline-read-{token}-{k}")
+        for k, run in enumerate(runs)
+    ]
     sizes = {leaf.key: len(run) for leaf, run in zip(leaves, runs, strict=True)}
     level = list(leaves)
     while len(level) > 1:
         # Neighbours merge, so each inner node covers a contiguous run of the sorted paths.
-        nxt = [client.submit(_merge_pair, level[i], level[i + 1], pure=False)
-               for i in range(0, len(level) - 1, 2)]
+        nxt = [client.submit(_merge_pair, level[i], level[i + 1], pure=False) for i in range(0, len(level) - 1, 2)]
         if len(level) % 2:
             nxt.append(level[-1])
         level = nxt
@@ -262,8 +285,7 @@ def _reduce(distributed: Any, client: Any, files: Sequence[FileRef], opts: ReadO
     while remaining:
         try:
             with client.as_current():  # wait() uses the current client; this one is never the default
-                done, remaining = distributed.wait(list(remaining), timeout=task_timeout,
-                                                   return_when="FIRST_COMPLETED")
+                done, remaining = distributed.wait(list(remaining), timeout=task_timeout, return_when="FIRST_COMPLETED")
         except TimeoutError:  # the futures are released with the client (cancelling them upsets the scheduler)
             waiting = sorted(spans[f.key] for f in remaining if f.key in spans)
             what = "merging the results"
@@ -302,16 +324,31 @@ def _cut(results: list[FileResult], max_errors: int | None) -> list[FileResult]:
     return results
 
 
-def dask_reader(root: str, scheduler: str | None, *, connect_timeout: float = CONNECT_TIMEOUT_S,
-                task_timeout: float = TASK_TIMEOUT_S) -> Callable[..., list[FileResult]]:
+def dask_reader(
+    root: str,
+    scheduler: str | None,
+    *,
+    connect_timeout: float = CONNECT_TIMEOUT_S,
+    task_timeout: float = TASK_TIMEOUT_S,
+) -> Callable[..., list[FileResult]]:
     """A reader with scan.py's `_read_all` signature (files, opts, jobs, max_errors, progress).
 
     jobs is the worker count of the local cluster made when no scheduler is given.
     """
 
-    def read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
-                 progress: Progress | None) -> list[FileResult]:
-        return read_dask(files, opts, root, scheduler=scheduler, workers=jobs, max_errors=max_errors,
-                         progress=progress, connect_timeout=connect_timeout, task_timeout=task_timeout)
+    def read_all(
+        files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None, progress: Progress | None
+    ) -> list[FileResult]:
+        return read_dask(
+            files,
+            opts,
+            root,
+            scheduler=scheduler,
+            workers=jobs,
+            max_errors=max_errors,
+            progress=progress,
+            connect_timeout=connect_timeout,
+            task_timeout=task_timeout,
+        )
 
     return read_all

@@ -110,4 +110,3 @@ class OutputError(DriftlineError):
     >>> isinstance(OutputError("out/r.json: folder 'out' does not exist"), DriftlineError)
     True
     """
-

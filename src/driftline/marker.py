@@ -39,10 +39,13 @@ _MAX_IPC_MESSAGE = 64 << 20  # an Arrow schema message longer than this is not o
 _HEAD = re.compile(
     rb"\A(?:\xef\xbb\xbf)?\s*(?:"
     rb'\{\s*"format"\s*:\s*"driftline-(?:' + b"|".join(k.encode() for k in OWN_JSON_FORMATS) + rb')"'
-    rb'|\{\s*"(?:\$comment|doc)"\s*:\s*"' + MARKER.encode() +
-    rb"|(?:<\?xml[^>]{0,200}\?>\s*)?<!--\s*" + MARKER.encode() +
-    rb"|(?:--|\#)\s*" + MARKER.encode() +
-    rb")"
+    rb'|\{\s*"(?:\$comment|doc)"\s*:\s*"'
+    + MARKER.encode()
+    + rb"|(?:<\?xml[^>]{0,200}\?>\s*)?<!--\s*"
+    + MARKER.encode()
+    + rb"|(?:--|\#)\s*"
+    + MARKER.encode()
+    + rb")"
 )
 
 

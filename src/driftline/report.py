@@ -110,14 +110,20 @@ def limit_notes(profile: Profile) -> list[str]:
     notes = []
     if "other_paths" in got:
         cap = profile.options.get("max_paths", DEFAULT_MAX_PATHS)
-        notes.append(f"field paths capped at {cap:,} (--max-paths): {got['other_values']:,} values of "
-                     f"{got['other_paths']:,} more paths (counted per batch) are counted as other fields")
+        notes.append(
+            f"field paths capped at {cap:,} (--max-paths): {got['other_values']:,} values of "
+            f"{got['other_paths']:,} more paths (counted per batch) are counted as other fields"
+        )
     if "events_listed" in got:
-        notes.append(f"{profile.event_total:,} drift events found; the first {got['events_listed']:,} are listed "
-                     "(--max-events), all are counted by kind in the JSON report")
+        notes.append(
+            f"{profile.event_total:,} drift events found; the first {got['events_listed']:,} are listed "
+            "(--max-events), all are counted by kind in the JSON report"
+        )
     if "batch_span" in got:
-        notes.append(f"batches summarised: up to {got['batch_span']:,} consecutive batches per observation, so that "
-                     "memory stays bounded (counts stay exact; drift is located per block)")
+        notes.append(
+            f"batches summarised: up to {got['batch_span']:,} consecutive batches per observation, so that "
+            "memory stays bounded (counts stay exact; drift is located per block)"
+        )
     return notes
 
 
@@ -195,8 +201,12 @@ def _bad_type_key(entries: Sequence[Mapping[str, Any]]) -> tuple[str, str] | Non
     return next((pointer(path), key) for path, key in _type_keys(entries) if key in bad)
 
 
-def files_from_json(entries: Sequence[Mapping[str, Any]], what: str, source: str,
-                    convert: Callable[[Mapping[str, Any]], FileResult] | None = None) -> tuple[FileResult, ...]:
+def files_from_json(
+    entries: Sequence[Mapping[str, Any]],
+    what: str,
+    source: str,
+    convert: Callable[[Mapping[str, Any]], FileResult] | None = None,
+) -> tuple[FileResult, ...]:
     """File entries (already valid against their JSON Schema) back as FileResults.
 
     What a schema cannot say is checked here, each as a DamagedFileError with its JSON
@@ -211,11 +221,17 @@ def files_from_json(entries: Sequence[Mapping[str, Any]], what: str, source: str
         try:
             f = (convert or file_from_json)(fd)
         except (KeyError, TypeError, ValueError, AttributeError) as exc:
-            raise damaged(what, source, f"/files/{i}", "a file entry driftline can read",
-                          f"{type(exc).__name__}: {exc}") from None
+            raise damaged(
+                what, source, f"/files/{i}", "a file entry driftline can read", f"{type(exc).__name__}: {exc}"
+            ) from None
         if f.rel in first:
-            raise damaged(what, source, f"/files/{i}/path", "each file listed once",
-                          f"{found(f.rel)} again (first at /files/{first[f.rel]})")
+            raise damaged(
+                what,
+                source,
+                f"/files/{i}/path",
+                "each file listed once",
+                f"{found(f.rel)} again (first at /files/{first[f.rel]})",
+            )
         first[f.rel] = i
         files.append(f)
     return tuple(files)
@@ -238,8 +254,9 @@ def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
     check_document(data, "report", "report", source)
     for i, fd in enumerate(data["files"]):
         if fd["batches"] is None:
-            raise ReportVersionError(f"{source} was written without batch observations (at /files/{i}/batches); "
-                                     "rescan to load it")
+            raise ReportVersionError(
+                f"{source} was written without batch observations (at /files/{i}/batches); rescan to load it"
+            )
     files = files_from_json(data["files"], "report", source)
     skipped = tuple(Skipped(s["path"], s["reason"]) for s in data["skipped"])
     return Profile(data["root"], files, skipped, dict(data["options"]), data.get("duration_s", 0.0))

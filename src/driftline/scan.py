@@ -82,11 +82,18 @@ def scan_paths(
     started = time.perf_counter()
     conditions = [parse_condition(w) for w in where]
     if any(is_url(p) for p in paths):
-        found = discover_remote(paths, storage=storage, include=include, exclude=exclude,
-                                include_hidden=include_hidden, where=conditions)
+        found = discover_remote(
+            paths, storage=storage, include=include, exclude=exclude, include_hidden=include_hidden, where=conditions
+        )
     else:
-        found = discover(paths, include=include, exclude=exclude, include_hidden=include_hidden,
-                         sniff_unknown=sniff_unknown, follow_links=follow_links)
+        found = discover(
+            paths,
+            include=include,
+            exclude=exclude,
+            include_hidden=include_hidden,
+            sniff_unknown=sniff_unknown,
+            follow_links=follow_links,
+        )
         if conditions:
             found = replace(found, files=tuple(f for f in found.files if partitions_pass(f.partitions, conditions)))
     if not found.files:
@@ -98,8 +105,9 @@ def scan_paths(
     if engine == "dask":
         from driftline.engines import CONNECT_TIMEOUT_S, dask_reader
 
-        read_all = dask_reader(found.root, scheduler, connect_timeout=connect_timeout or CONNECT_TIMEOUT_S,
-                               task_timeout=task_timeout)
+        read_all = dask_reader(
+            found.root, scheduler, connect_timeout=connect_timeout or CONNECT_TIMEOUT_S, task_timeout=task_timeout
+        )
     if reuse is None:
         results = read_all(found.files, opts, jobs, max_errors, progress)
     else:
@@ -131,8 +139,15 @@ def _skipped_summary(skipped: Sequence[Any]) -> str:
     return text
 
 
-def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
-              progress: Progress | None, *, task_timeout: float = DEFAULT_TASK_TIMEOUT) -> list[FileResult]:
+def _read_all(
+    files: Sequence[FileRef],
+    opts: ReadOptions,
+    jobs: int,
+    max_errors: int | None,
+    progress: Progress | None,
+    *,
+    task_timeout: float = DEFAULT_TASK_TIMEOUT,
+) -> list[FileResult]:
     if jobs > 1 and any(can_split(ref, opts) for ref in files):
         return _read_split(files, opts, jobs, max_errors, progress, task_timeout)
     keep = ScanThinner()  # batch observations summarised as they come: memory stays bounded
@@ -149,8 +164,11 @@ def _read_all(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors
         started += 1
 
     # Results come in input order, so stopping at max_errors is the same as the serial run.
-    done = (run_ordered(read_files, groups, opts, jobs=jobs, names=_group_names, task_timeout=task_timeout)
-            if pool else (read_files(g, opts, before=before) for g in groups))
+    done = (
+        run_ordered(read_files, groups, opts, jobs=jobs, names=_group_names, task_timeout=task_timeout)
+        if pool
+        else (read_files(g, opts, before=before) for g in groups)
+    )
     try:
         for res in (res for group in done for res in group):
             if progress and pool:
@@ -178,8 +196,13 @@ def _groups(files: Sequence[FileRef], most: int) -> list[list[FileRef]]:
     groups: list[list[FileRef]] = []
     size = 0
     for ref in files:
-        grow = (ref.format == "parquet" and groups and groups[-1][-1].format == "parquet"
-                and len(groups[-1]) < min(most, _GROUP_FILES) and size + ref.size <= _GROUP_BYTES)
+        grow = (
+            ref.format == "parquet"
+            and groups
+            and groups[-1][-1].format == "parquet"
+            and len(groups[-1]) < min(most, _GROUP_FILES)
+            and size + ref.size <= _GROUP_BYTES
+        )
         if grow:
             groups[-1].append(ref)
             size += ref.size
@@ -208,15 +231,30 @@ def _task(task: tuple[str, Any], opts: ReadOptions) -> Any:
         return None
 
 
-def _read_split(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
-                progress: Progress | None, task_timeout: float = DEFAULT_TASK_TIMEOUT) -> list[FileResult]:
+def _read_split(
+    files: Sequence[FileRef],
+    opts: ReadOptions,
+    jobs: int,
+    max_errors: int | None,
+    progress: Progress | None,
+    task_timeout: float = DEFAULT_TASK_TIMEOUT,
+) -> list[FileResult]:
     """Files as tasks, big JSON Lines and CSV files as several byte spans; the same results as one by one."""
     tasks: list[tuple[str, Any]] = []
     for ref in files:
         spans = plan(ref, opts, 2 * jobs) if can_split(ref, opts) else []
         tasks.extend(("span", sp) for sp in spans) if len(spans) > 1 else tasks.append(("file", ref))
-    done = list(run_ordered(_task, tasks, opts, jobs=jobs, names=_task_names, task_timeout=task_timeout,
-                            chunk=max(1, len(tasks) // (jobs * 8))))
+    done = list(
+        run_ordered(
+            _task,
+            tasks,
+            opts,
+            jobs=jobs,
+            names=_task_names,
+            task_timeout=task_timeout,
+            chunk=max(1, len(tasks) // (jobs * 8)),
+        )
+    )
     keep = ScanThinner()
     errors, k, total = 0, 0, len(files)
     for i, ref in enumerate(files):
@@ -253,9 +291,15 @@ def _assemble(ref: FileRef, parts: list[Any], opts: ReadOptions) -> FileResult:
             return read_file(ref, opts)
 
 
-def _read_reusing(files: Sequence[FileRef], opts: ReadOptions, jobs: int, max_errors: int | None,
-                  progress: Progress | None, reuse: Callable[[FileRef], FileResult | None],
-                  read_all: Callable[..., list[FileResult]] = _read_all) -> list[FileResult]:
+def _read_reusing(
+    files: Sequence[FileRef],
+    opts: ReadOptions,
+    jobs: int,
+    max_errors: int | None,
+    progress: Progress | None,
+    reuse: Callable[[FileRef], FileResult | None],
+    read_all: Callable[..., list[FileResult]] = _read_all,
+) -> list[FileResult]:
     kept = {ref.rel: res for ref in files if (res := reuse(ref)) is not None}
     todo = [ref for ref in files if ref.rel not in kept]
     fresh = iter(read_all(todo, opts, jobs, max_errors, progress) if todo else ())

@@ -196,8 +196,12 @@ def cap_paths(results: Sequence[FileResult], limit: int) -> list[FileResult]:
                 touched = True
                 dropped = set(gone)
                 fields = {p: st for p, st in o.fields.items() if p not in dropped}
-                o = replace(o, fields=fields, other_paths=o.other_paths + len(gone),
-                            other_values=o.other_values + sum(o.fields[p].present for p in gone))
+                o = replace(
+                    o,
+                    fields=fields,
+                    other_paths=o.other_paths + len(gone),
+                    other_values=o.other_values + sum(o.fields[p].present for p in gone),
+                )
             observations.append(o)
         out.append(replace(res, observations=tuple(observations)) if touched else res)
     return out

@@ -23,21 +23,37 @@ from typing import Any
 
 from driftline.errors import DamagedFileError
 
-SCHEMAS = {"report": "report.schema.json", "rules": "rules.schema.json", "state": "state.schema.json",
-           "policy": "policy.schema.json"}
+SCHEMAS = {
+    "report": "report.schema.json",
+    "rules": "rules.schema.json",
+    "state": "state.schema.json",
+    "policy": "policy.schema.json",
+}
 
 # (path from the innermost key outwards, what was expected, what was found), or None.
 Problem = tuple[list[str | int], str, str]
 Check = Callable[[Any], "Problem | None"]
 
 _ANNOTATIONS = {"$schema", "$id", "$defs", "$comment", "title", "description", "default", "examples"}
-_TYPE_WORDS = {"integer": "an integer", "number": "a number", "string": "a string", "boolean": "true or false",
-               "null": "null", "object": "an object", "array": "an array"}
+_TYPE_WORDS = {
+    "integer": "an integer",
+    "number": "a number",
+    "string": "a string",
+    "boolean": "true or false",
+    "null": "null",
+    "object": "an object",
+    "array": "an array",
+}
 
 
 _PY_TYPES: dict[str, tuple[type, ...]] = {
-    "integer": (int,), "number": (int, float), "string": (str,), "boolean": (bool,), "null": (type(None),),
-    "object": (dict,), "array": (list,),
+    "integer": (int,),
+    "number": (int, float),
+    "string": (str,),
+    "boolean": (bool,),
+    "null": (type(None),),
+    "object": (dict,),
+    "array": (list,),
 }
 
 
@@ -147,11 +163,30 @@ class _Compiler:
             return lambda v: None
         if s is False:
             return lambda v: ([], "nothing here", found(v))
-        unknown = set(s) - _ANNOTATIONS - {
-            "type", "const", "enum", "required", "properties", "additionalProperties", "unevaluatedProperties",
-            "propertyNames", "items", "maxItems", "minItems", "minimum", "maximum", "minLength", "maxLength",
-            "pattern", "$ref", "allOf",
-        }
+        unknown = (
+            set(s)
+            - _ANNOTATIONS
+            - {
+                "type",
+                "const",
+                "enum",
+                "required",
+                "properties",
+                "additionalProperties",
+                "unevaluatedProperties",
+                "propertyNames",
+                "items",
+                "maxItems",
+                "minItems",
+                "minimum",
+                "maximum",
+                "minLength",
+                "maxLength",
+                "pattern",
+                "$ref",
+                "allOf",
+            }
+        )
         if unknown:
             raise ValueError(f"the schema keyword(s) {sorted(unknown)} are not compiled; add them to validation.py")
         checks: list[Check] = []
@@ -172,6 +207,7 @@ class _Compiler:
             checks.append(self.compile(sub, base))
         numeric = [(k, s[k]) for k in ("minimum", "maximum") if k in s]
         if numeric:
+
             def number_check(v: Any) -> Problem | None:
                 if isinstance(v, bool) or not isinstance(v, int | float):
                     return None

@@ -93,13 +93,23 @@ def cap_jobs(requested: int, *, cores: int | None = None, memory: int | None = -
         jobs, why = cores, f"--jobs {requested} lowered to {cores}: {cores} cores can run only {cores} workers at once"
     if memory is not None and jobs > max(1, memory // WORKER_BYTES):
         jobs = max(1, memory // WORKER_BYTES)
-        why = (f"--jobs {requested} lowered to {jobs}: each worker process needs about {WORKER_BYTES // 2**20} MB "
-               f"and {memory // 2**20:,} MB of memory is available")
+        why = (
+            f"--jobs {requested} lowered to {jobs}: each worker process needs about {WORKER_BYTES // 2**20} MB "
+            f"and {memory // 2**20:,} MB of memory is available"
+        )
     return jobs, why
 
 
-def run_ordered(fn: Callable[[Any, Any], Any], items: Sequence[Any], opts: Any, *, jobs: int, names: Names,
-                task_timeout: float = DEFAULT_TASK_TIMEOUT, chunk: int = 1) -> Iterator[Any]:
+def run_ordered(
+    fn: Callable[[Any, Any], Any],
+    items: Sequence[Any],
+    opts: Any,
+    *,
+    jobs: int,
+    names: Names,
+    task_timeout: float = DEFAULT_TASK_TIMEOUT,
+    chunk: int = 1,
+) -> Iterator[Any]:
     """fn(item, opts) for every item, computed in worker processes, yielded in item order.
 
     Items travel in chunks of `chunk` (fewer round trips for small tasks). task_timeout
@@ -111,7 +121,7 @@ def run_ordered(fn: Callable[[Any, Any], Any], items: Sequence[Any], opts: Any, 
     nxt = 0
     while nxt < len(items):
         todo = [i for i in range(nxt, len(items)) if i not in results]
-        chunks = [todo[k:k + chunk] for k in range(0, len(todo), max(1, chunk))]
+        chunks = [todo[k : k + chunk] for k in range(0, len(todo), max(1, chunk))]
         pool = ProcessPoolExecutor(max_workers=jobs)
         futures = [(c, pool.submit(_run_chunk, fn, names, [items[i] for i in c], opts)) for c in chunks]
         broken_at: int | None = None
@@ -142,8 +152,10 @@ def run_ordered(fn: Callable[[Any, Any], Any], items: Sequence[Any], opts: Any, 
                 failed.append(c)
         # The pool feeds tasks in order, at most jobs + 1 at a time: the cause is among these.
         suspects = [i for c in failed[: jobs + 1] for i in c]
-        log.warning("a worker process died while reading %s; each is read again in a process of its own",
-                    ", ".join(n for i in suspects for n in names(items[i])))
+        log.warning(
+            "a worker process died while reading %s; each is read again in a process of its own",
+            ", ".join(n for i in suspects for n in names(items[i])),
+        )
         for i in suspects:
             results[i] = _alone(fn, names, items[i], opts, task_timeout)
         while nxt in results:
@@ -245,12 +257,16 @@ def _death_message(rels: list[str], exitcode: int | None) -> str:
             how += ": the out-of-memory killer, or another process"
     else:
         how = f"exit status {exitcode}"
-    return (f"the worker process reading {_files(rels)} died twice, the second time alone ({how}); nothing was "
-            "reported. Check the memory available to the scan (fewer --jobs, a smaller --batch-rows), or leave "
-            "the file out with --exclude")
+    return (
+        f"the worker process reading {_files(rels)} died twice, the second time alone ({how}); nothing was "
+        "reported. Check the memory available to the scan (fewer --jobs, a smaller --batch-rows), or leave "
+        "the file out with --exclude"
+    )
 
 
 def _timeout_message(rels: list[str], task_timeout: float) -> str:
-    return (f"reading {_files(rels)} did not finish within {task_timeout:g} s (--task-timeout); nothing was "
-            "reported. Check that the file's storage answers (a hung network mount or object store), or raise "
-            "--task-timeout for a file that is simply very large")
+    return (
+        f"reading {_files(rels)} did not finish within {task_timeout:g} s (--task-timeout); nothing was "
+        "reported. Check that the file's storage answers (a hung network mount or object store), or raise "
+        "--task-timeout for a file that is simply very large"
+    )

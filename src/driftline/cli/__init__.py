@@ -84,7 +84,10 @@ def _known_encoding(value: str | None) -> str | None:
 
 
 ENCODING_OPTION: Any = typer.Option(
-    None, "--encoding", metavar="NAME", callback=_known_encoding,
+    None,
+    "--encoding",
+    metavar="NAME",
+    callback=_known_encoding,
     help="Text encoding of CSV/TSV/JSON files (a Python codec name: utf-8, utf-16, latin-1, cp1252...); "
     "found per file from its first 64 KiB when not given.",
 )

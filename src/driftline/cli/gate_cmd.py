@@ -42,8 +42,10 @@ def _policy_table() -> str:
     width = max(len(k) for k, _, _ in key_help())
     lines = [f"  {k:<{width}}  {d:<7} {m}" for k, d, m in key_help()]
     actions = "; ".join(f"{a} {m}" for a, m in ACTION_MEANING.items())
-    return ("Policy keys (a TOML file of flat `key = value` lines; defaults shown). Actions: "
-            f"{actions}.\n\n\b\n" + "\n".join(lines) + "\n")
+    return (
+        "Policy keys (a TOML file of flat `key = value` lines; defaults shown). Actions: "
+        f"{actions}.\n\n\b\n" + "\n".join(lines) + "\n"
+    )
 
 
 CHECK_HELP = f"""Check scanned data against a baseline under a policy; exit 1 on a violation.
@@ -93,47 +95,95 @@ Exit codes: 0 the diff was made (changes are information); 2 usage or input erro
 """
 
 
-def _settings(include: list[str], exclude: list[str], batch_rows: int, jobs: int, max_errors: int | None,
-              max_record_bytes: int, delimiter: str | None, hidden: bool, csv_dialect: list[str],
-              encoding: str | None = None, write_inside: bool = False) -> ScanSettings:
+def _settings(
+    include: list[str],
+    exclude: list[str],
+    batch_rows: int,
+    jobs: int,
+    max_errors: int | None,
+    max_record_bytes: int,
+    delimiter: str | None,
+    hidden: bool,
+    csv_dialect: list[str],
+    encoding: str | None = None,
+    write_inside: bool = False,
+) -> ScanSettings:
     return ScanSettings(
-        read=ReadOptions(batch_rows=batch_rows, max_record_bytes=max_record_bytes, delimiter=delimiter,
-                         csv_dialects=tuple(csv_dialect), encoding=encoding),
-        include=tuple(include), exclude=tuple(exclude), include_hidden=hidden, jobs=jobs, max_errors=max_errors,
+        read=ReadOptions(
+            batch_rows=batch_rows,
+            max_record_bytes=max_record_bytes,
+            delimiter=delimiter,
+            csv_dialects=tuple(csv_dialect),
+            encoding=encoding,
+        ),
+        include=tuple(include),
+        exclude=tuple(exclude),
+        include_hidden=hidden,
+        jobs=jobs,
+        max_errors=max_errors,
         write_inside=write_inside,
     )
 
 
 _INCLUDE = typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable).")
 _EXCLUDE = typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable).")
-_BATCH = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1],
-                      help="Rows per batch (as for scan).")
-_JOBS = typer.Option(default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
-                     help="Files read in parallel. Results do not depend on it.")
-_MAXERR = typer.Option(None, "--max-errors", min=1, max=RANGES["max_errors"][1],
-                       help="Stop reading new files once this many errors were found.")
-_RECORD = typer.Option(DEFAULT_MAX_RECORD_BYTES, "--max-record-bytes", min=1, max=RANGES["max_record_bytes"][1],
-                       help="Longer records are reported.")
+_BATCH = typer.Option(
+    DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1], help="Rows per batch (as for scan)."
+)
+_JOBS = typer.Option(
+    default_jobs(),
+    "--jobs",
+    "-j",
+    min=1,
+    max=RANGES["jobs"][1],
+    help="Files read in parallel. Results do not depend on it.",
+)
+_MAXERR = typer.Option(
+    None,
+    "--max-errors",
+    min=1,
+    max=RANGES["max_errors"][1],
+    help="Stop reading new files once this many errors were found.",
+)
+_RECORD = typer.Option(
+    DEFAULT_MAX_RECORD_BYTES,
+    "--max-record-bytes",
+    min=1,
+    max=RANGES["max_record_bytes"][1],
+    help="Longer records are reported.",
+)
 _DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data when not given.")
 _DIALECT = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP)
 _HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'.")
-_INSIDE = typer.Option(False, WRITE_INSIDE, help="Let outputs go inside a scanned folder (a new file or an earlier "
-                                                 "driftline output, never a data file); scans leave them out.")
+_INSIDE = typer.Option(
+    False,
+    WRITE_INSIDE,
+    help="Let outputs go inside a scanned folder (a new file or an earlier "
+    "driftline output, never a data file); scans leave them out.",
+)
 
 
 @app.command("check", help=CHECK_HELP, no_args_is_help=True)
 @handles_errors
 def check_command(
     paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
-    baseline: str = typer.Option(..., "--baseline", "-b", metavar="FILE",
-                                 help="JSON Schema, cast-rules file or saved scan report to check against."),
-    policy: str | None = typer.Option(None, "--policy", "-p", metavar="FILE",
-                                      help="TOML policy file (keys below); safe defaults when not given."),
+    baseline: str = typer.Option(
+        ...,
+        "--baseline",
+        "-b",
+        metavar="FILE",
+        help="JSON Schema, cast-rules file or saved scan report to check against.",
+    ),
+    policy: str | None = typer.Option(
+        None, "--policy", "-p", metavar="FILE", help="TOML policy file (keys below); safe defaults when not given."
+    ),
     json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the verdict as JSON."),
-    junit: str | None = typer.Option(None, "--junit", metavar="FILE|-",
-                                     help="Write JUnit XML: one test case per policy rule."),
-    state: str | None = typer.Option(None, "--state", metavar="FILE",
-                                     help="Incremental state: read only new or changed files."),
+    junit: str | None = typer.Option(
+        None, "--junit", metavar="FILE|-", help="Write JUnit XML: one test case per policy rule."
+    ),
+    state: str | None = typer.Option(
+        None, "--state", metavar="FILE", help="Incremental state: read only new or changed files."
+    ),
     verify: bool = typer.Option(False, "--verify", help="With --state: also compare content hashes."),
     rebuild: bool = typer.Option(False, "--rebuild", help="With --state: ignore the old state and start over."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary; only the exit code and files."),
@@ -154,14 +204,39 @@ def check_command(
     values = values_of(example_values, hash_key_file, policy)
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
-    check_targets([("--json", json_out), ("--junit", junit), ("--state", state)], scanned=paths,
-                  named=[baseline, policy], write_inside=write_inside, include_hidden=hidden)
-    settings = _settings(include, exclude, batch_rows, jobs, max_errors, max_record_bytes, delimiter, hidden,
-                         csv_dialect, encoding, write_inside)
+    check_targets(
+        [("--json", json_out), ("--junit", junit), ("--state", state)],
+        scanned=paths,
+        named=[baseline, policy],
+        write_inside=write_inside,
+        include_hidden=hidden,
+    )
+    settings = _settings(
+        include,
+        exclude,
+        batch_rows,
+        jobs,
+        max_errors,
+        max_record_bytes,
+        delimiter,
+        hidden,
+        csv_dialect,
+        encoding,
+        write_inside,
+    )
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
-        verdict, note = run_check(paths, baseline=baseline, policy=policy, state=state, verify=verify,
-                                  rebuild=rebuild, scan=settings, progress=bar, values=values)
+        verdict, note = run_check(
+            paths,
+            baseline=baseline,
+            policy=policy,
+            state=state,
+            verify=verify,
+            rebuild=rebuild,
+            scan=settings,
+            progress=bar,
+            values=values,
+        )
     finally:
         bar.close()
     if note:
@@ -183,8 +258,13 @@ def diff_command(
     sides: list[str] = typer.Argument(..., help="Two sides (reports or paths), or one side with --by."),
     by: str | None = typer.Option(None, "--by", metavar="KEY", help="Compare consecutive values of partition KEY."),
     json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the changes as JSON."),
-    null_points: float = typer.Option(DEFAULT_NULL_POINTS, "--null-points", min=0.0, max=100.0,
-                                      help="Smallest change of null share listed, in percentage points."),
+    null_points: float = typer.Option(
+        DEFAULT_NULL_POINTS,
+        "--null-points",
+        min=0.0,
+        max=100.0,
+        help="Smallest change of null share listed, in percentage points.",
+    ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal output (use with --json)."),
     include: list[str] = _INCLUDE,
     exclude: list[str] = _EXCLUDE,
@@ -200,13 +280,28 @@ def diff_command(
     write_inside: bool = _INSIDE,
 ) -> None:
     check_targets([("--json", json_out)], scanned=sides, write_inside=write_inside, include_hidden=hidden)
-    s = _settings(include, exclude, batch_rows, jobs, None, max_record_bytes, delimiter, hidden, csv_dialect,
-                  encoding, write_inside)
+    s = _settings(
+        include,
+        exclude,
+        batch_rows,
+        jobs,
+        None,
+        max_record_bytes,
+        delimiter,
+        hidden,
+        csv_dialect,
+        encoding,
+        write_inside,
+    )
     values = values_of(example_values, hash_key_file)
 
     def load(side: str):  # noqa: ANN202 - a Profile
-        return conceal(profile_of(side, read=s.read, include=s.include, exclude=s.exclude,
-                                  include_hidden=s.include_hidden, jobs=s.jobs), values)
+        return conceal(
+            profile_of(
+                side, read=s.read, include=s.include, exclude=s.exclude, include_hidden=s.include_hidden, jobs=s.jobs
+            ),
+            values,
+        )
 
     diffs: tuple[Diff, ...]
     if by is not None:

@@ -138,12 +138,19 @@ def scan_command(
         help="A batch also ends once its records reach this many bytes of input (bounds memory; default 64 MiB).",
     ),
     jobs: int = typer.Option(
-        default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
+        default_jobs(),
+        "--jobs",
+        "-j",
+        min=1,
+        max=RANGES["jobs"][1],
         help="Files read in parallel (processes), at most one per core and per 256 MB of free memory (a warning "
         "says when lowered). Results do not depend on it.",
     ),
     max_errors: int | None = typer.Option(
-        None, "--max-errors", min=1, max=RANGES["max_errors"][1],
+        None,
+        "--max-errors",
+        min=1,
+        max=RANGES["max_errors"][1],
         help="Stop reading new files once this many errors were found.",
     ),
     max_record_bytes: int = typer.Option(
@@ -236,20 +243,33 @@ def scan_command(
     example_values: str | None = EXAMPLE_VALUES,
     hash_key_file: str | None = HASH_KEY_FILE,
     connect_timeout: float = typer.Option(
-        DEFAULT_CONNECT_TIMEOUT, "--connect-timeout", metavar="SECONDS", min=0.001, max=86_400,
+        DEFAULT_CONNECT_TIMEOUT,
+        "--connect-timeout",
+        metavar="SECONDS",
+        min=0.001,
+        max=86_400,
         help="Give up connecting to a dask scheduler or an object store after this long (per attempt).",
     ),
     request_timeout: float = typer.Option(
-        DEFAULT_REQUEST_TIMEOUT, "--request-timeout", metavar="SECONDS", min=0.001, max=86_400,
+        DEFAULT_REQUEST_TIMEOUT,
+        "--request-timeout",
+        metavar="SECONDS",
+        min=0.001,
+        max=86_400,
         help="Give up an object store request that received nothing for this long (per attempt, 4 attempts).",
     ),
     task_timeout: float = typer.Option(
-        DEFAULT_TASK_TIMEOUT, "--task-timeout", metavar="SECONDS", min=0.001, max=10_000_000,
+        DEFAULT_TASK_TIMEOUT,
+        "--task-timeout",
+        metavar="SECONDS",
+        min=0.001,
+        max=10_000_000,
         help="Stop the scan when a worker task (a file, or a run of small files) runs longer than this.",
     ),
 ) -> None:
-    check_targets([("--json", json_out), ("--html", html_out)], scanned=paths, write_inside=write_inside,
-                  include_hidden=hidden)
+    check_targets(
+        [("--json", json_out), ("--html", html_out)], scanned=paths, write_inside=write_inside, include_hidden=hidden
+    )
     values = values_of(example_values, hash_key_file)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
@@ -290,8 +310,11 @@ def scan_command(
     finally:
         bar.close()
     # Every file failed: the report (with the problems) is still written, then exit 2.
-    failed = profile.rows == 0 and profile.error_count and all(
-        not f.rows and (f.errors or not f.observations) for f in profile.files)
+    failed = (
+        profile.rows == 0
+        and profile.error_count
+        and all(not f.rows and (f.errors or not f.observations) for f in profile.files)
+    )
     if json_out is not None:
         write_output(json_out, dumps(profile))
     if html_out is not None:
@@ -309,8 +332,13 @@ def scan_command(
         if html_out is not None and not is_stdout(html_out):
             console.print(f"HTML report written to {safe_text(Path(html_out))}", markup=False)
     if failed:
-        hint = ("see the problems above" if not quiet else "the problems are in the report" if json_out or html_out
-                else "run without -q to see the problems")
+        hint = (
+            "see the problems above"
+            if not quiet
+            else "the problems are in the report"
+            if json_out or html_out
+            else "run without -q to see the problems"
+        )
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed ({hint})")
     if profile.rows == 0 and not profile.files:
         raise typer.Exit(EXIT_USAGE)

@@ -53,16 +53,31 @@ exist, a report of another format version, an unwritable output).
 """
 
 
-def _options(config: str | None, strict: bool, prefer_decimal: bool, timestamp_unit: str | None,
-             timestamp_zone: str | None, parse_strings: str | None, null_tokens: str | None,
-             max_null_share: float | None, min_field_share: float | None,
-             leading_zeros: str | None = None) -> RecommendOptions:
+def _options(
+    config: str | None,
+    strict: bool,
+    prefer_decimal: bool,
+    timestamp_unit: str | None,
+    timestamp_zone: str | None,
+    parse_strings: str | None,
+    null_tokens: str | None,
+    max_null_share: float | None,
+    min_field_share: float | None,
+    leading_zeros: str | None = None,
+) -> RecommendOptions:
     # The config file first, then the flags that were given on the command line.
     base = RecommendOptions.from_toml(config) if config else RecommendOptions()
-    return base.replace(mode="strict" if strict else None, prefer_decimal=True if prefer_decimal else None,
-                        timestamp_unit=timestamp_unit, timestamp_zone=timestamp_zone,
-                        parse_strings=parse_strings, leading_zeros=leading_zeros, null_tokens=null_tokens,
-                        max_null_share=max_null_share, min_field_share=min_field_share)
+    return base.replace(
+        mode="strict" if strict else None,
+        prefer_decimal=True if prefer_decimal else None,
+        timestamp_unit=timestamp_unit,
+        timestamp_zone=timestamp_zone,
+        parse_strings=parse_strings,
+        leading_zeros=leading_zeros,
+        null_tokens=null_tokens,
+        max_null_share=max_null_share,
+        min_field_share=min_field_share,
+    )
 
 
 def _table_name(rec: Recommendation, table: str | None) -> str:
@@ -99,65 +114,108 @@ def _check_out(target: str | None, what: str) -> None:
 @handles_errors
 def schema_command(
     paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
-    to: str | None = typer.Option(None, "--to", metavar="FORMAT",
-                                  help=f"Write the schema as one of: {', '.join(FORMATS)}."),
+    to: str | None = typer.Option(
+        None, "--to", metavar="FORMAT", help=f"Write the schema as one of: {', '.join(FORMATS)}."
+    ),
     out: str = typer.Option("-", "--out", "-o", metavar="FILE|-", help="Where --to writes ('-' for stdout)."),
-    table: str | None = typer.Option(None, "--table", metavar="NAME",
-                                     help="Table name (SQL) or record name (Avro); default: the root folder's name."),
+    table: str | None = typer.Option(
+        None, "--table", metavar="NAME", help="Table name (SQL) or record name (Avro); default: the root folder's name."
+    ),
     rules: str | None = typer.Option(None, "--rules", metavar="FILE|-", help="Write the cast rules as JSON."),
-    config: str | None = typer.Option(None, "--config", metavar="FILE",
-                                      help="TOML file with a [recommend] table of options; flags override it."),
+    config: str | None = typer.Option(
+        None, "--config", metavar="FILE", help="TOML file with a [recommend] table of options; flags override it."
+    ),
     strict: bool = typer.Option(False, "--strict", help="A conflict is an error: exit 1 and list the fields."),
     prefer_decimal: bool = typer.Option(False, "--prefer-decimal", help="Decimal-looking strings become decimal(p,s)."),
-    timestamp_unit: str | None = typer.Option(None, "--timestamp-unit", metavar="s|ms|us|ns",
-                                              help="Unit of timestamps parsed from strings (default us)."),
-    timestamp_zone: str | None = typer.Option(None, "--timestamp-zone", metavar="ZONE",
-                                              help="Zone of zoned timestamps, assumed for local ones (default UTC)."),
-    parse_strings: str | None = typer.Option(None, "--parse-strings", metavar="mixed|always",
-                                             help="Parse number-looking strings only beside real numbers (mixed)."),
-    leading_zeros: str | None = typer.Option(None, "--leading-zeros", metavar="keep|parse",
-                                             help="Digits with leading zeros (09001) stay strings (keep), or "
-                                                  "become numbers, each counted as changed (parse)."),
-    null_tokens: str | None = typer.Option(None, "--null-tokens", metavar="parse|always|never",
-                                           help="Where null tokens such as 'n/a' become null (default parse)."),
-    max_null_share: float | None = typer.Option(None, "--max-null-share", metavar="SHARE",
-                                                help="Null up to this share of values that do not parse (default 0)."),
-    min_field_share: float | None = typer.Option(None, "--min-field-share", metavar="SHARE",
-                                                 help="Drop fields present in less than this share (0: keep all)."),
-    json_mode: str | None = typer.Option(None, "--json-mode", metavar="permissive|strict",
-                                         help="JSON Schema of the data as it arrives, or after the rules "
-                                              "(default: the --strict setting)."),
-    batch_rows: int = typer.Option(DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1],
-                                   help="Rows per batch (as for scan)."),
-    jobs: int = typer.Option(default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1],
-                             help="Files read in parallel."),
+    timestamp_unit: str | None = typer.Option(
+        None, "--timestamp-unit", metavar="s|ms|us|ns", help="Unit of timestamps parsed from strings (default us)."
+    ),
+    timestamp_zone: str | None = typer.Option(
+        None, "--timestamp-zone", metavar="ZONE", help="Zone of zoned timestamps, assumed for local ones (default UTC)."
+    ),
+    parse_strings: str | None = typer.Option(
+        None,
+        "--parse-strings",
+        metavar="mixed|always",
+        help="Parse number-looking strings only beside real numbers (mixed).",
+    ),
+    leading_zeros: str | None = typer.Option(
+        None,
+        "--leading-zeros",
+        metavar="keep|parse",
+        help="Digits with leading zeros (09001) stay strings (keep), or "
+        "become numbers, each counted as changed (parse).",
+    ),
+    null_tokens: str | None = typer.Option(
+        None,
+        "--null-tokens",
+        metavar="parse|always|never",
+        help="Where null tokens such as 'n/a' become null (default parse).",
+    ),
+    max_null_share: float | None = typer.Option(
+        None, "--max-null-share", metavar="SHARE", help="Null up to this share of values that do not parse (default 0)."
+    ),
+    min_field_share: float | None = typer.Option(
+        None, "--min-field-share", metavar="SHARE", help="Drop fields present in less than this share (0: keep all)."
+    ),
+    json_mode: str | None = typer.Option(
+        None,
+        "--json-mode",
+        metavar="permissive|strict",
+        help="JSON Schema of the data as it arrives, or after the rules (default: the --strict setting).",
+    ),
+    batch_rows: int = typer.Option(
+        DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1], help="Rows per batch (as for scan)."
+    ),
+    jobs: int = typer.Option(
+        default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1], help="Files read in parallel."
+    ),
     csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
     example_values: str | None = EXAMPLE_VALUES,
     hash_key_file: str | None = HASH_KEY_FILE,
-    write_inside: bool = typer.Option(False, WRITE_INSIDE,
-                                      help="Let --out/--rules go inside a scanned folder (a new file or an earlier "
-                                           "driftline output, never a data file)."),
+    write_inside: bool = typer.Option(
+        False,
+        WRITE_INSIDE,
+        help="Let --out/--rules go inside a scanned folder (a new file or an earlier "
+        "driftline output, never a data file).",
+    ),
 ) -> None:
     values = values_of(example_values, hash_key_file, config)
     if to is not None and to not in FORMATS:
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
         raise PolicyError(f"unknown --json-mode {json_mode!r}; choose permissive or strict")
-    check_targets([("--out", out if to else None), ("--rules", rules)], scanned=paths, named=[config],
-                  write_inside=write_inside)
+    check_targets(
+        [("--out", out if to else None), ("--rules", rules)], scanned=paths, named=[config], write_inside=write_inside
+    )
     if to == "arrow" and is_stdout(out) and sys.stdout.isatty():
         raise OutputError("--to arrow writes a binary IPC message; give --out FILE (or use --to arrow-text)")
     _check_out(out if to else None, "--out")
     _check_out(rules, "--rules")
-    opts = _options(config, strict, prefer_decimal, timestamp_unit, timestamp_zone, parse_strings,
-                    null_tokens, max_null_share, min_field_share, leading_zeros)
-    profile = conceal(profile_of(paths, read=ReadOptions(batch_rows=batch_rows, csv_dialects=tuple(csv_dialect)),
-                                 jobs=jobs), values)
-    if profile.rows == 0 and profile.error_count and all(
-        not f.rows and (f.errors or not f.observations) for f in profile.files):
-        raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed "
-                             "(driftline scan shows the problems)")
+    opts = _options(
+        config,
+        strict,
+        prefer_decimal,
+        timestamp_unit,
+        timestamp_zone,
+        parse_strings,
+        null_tokens,
+        max_null_share,
+        min_field_share,
+        leading_zeros,
+    )
+    profile = conceal(
+        profile_of(paths, read=ReadOptions(batch_rows=batch_rows, csv_dialects=tuple(csv_dialect)), jobs=jobs), values
+    )
+    if (
+        profile.rows == 0
+        and profile.error_count
+        and all(not f.rows and (f.errors or not f.observations) for f in profile.files)
+    ):
+        raise InputPathError(
+            f"nothing readable: every one of {len(profile.files)} files failed (driftline scan shows the problems)"
+        )
     to_stdout = (to is not None and is_stdout(out)) or (rules is not None and is_stdout(rules))
     console = err_console if to_stdout else Console(highlight=False)
     try:

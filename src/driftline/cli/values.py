@@ -7,12 +7,16 @@ import typer
 from driftline.conceal import MODES, ValuePolicy, output_values, value_policy
 
 EXAMPLE_VALUES = typer.Option(
-    None, "--example-values", metavar="|".join(MODES),
+    None,
+    "--example-values",
+    metavar="|".join(MODES),
     help="Example values in every output: show (default), hide, or hash (a keyed HMAC-SHA256, so a report can be "
-         "shared). Also settable as example_values in a config file's [output] table.",
+    "shared). Also settable as example_values in a config file's [output] table.",
 )
 HASH_KEY_FILE = typer.Option(
-    None, "--hash-key-file", metavar="FILE",
+    None,
+    "--hash-key-file",
+    metavar="FILE",
     help="The key for --example-values hash (else the DRIFTLINE_HASH_KEY environment variable).",
 )
 

@@ -1,13 +1,13 @@
 """Outputs go where a person expects them.
 
-  * a regular file (or a new name) is written to a temporary sibling, flushed, then renamed
-    over it: an interrupted run (SIGINT, SIGTERM, a full disk) leaves the earlier file
-    intact and no half-written one;
-  * a symbolic link is followed: its target is replaced, the link stays;
-  * a character device (/dev/null) or a FIFO is written into, never replaced;
-  * '-', /dev/stdout, /dev/fd/N and /proc/self/fd/N are written into the open file
-    descriptor, as a shell redirection would;
-  * a folder, a block device or a socket is refused with a clear error.
+* a regular file (or a new name) is written to a temporary sibling, flushed, then renamed
+  over it: an interrupted run (SIGINT, SIGTERM, a full disk) leaves the earlier file
+  intact and no half-written one;
+* a symbolic link is followed: its target is replaced, the link stays;
+* a character device (/dev/null) or a FIFO is written into, never replaced;
+* '-', /dev/stdout, /dev/fd/N and /proc/self/fd/N are written into the open file
+  descriptor, as a shell redirection would;
+* a folder, a block device or a socket is refused with a clear error.
 """
 
 from __future__ import annotations
@@ -86,7 +86,7 @@ def is_stdout(target: str) -> bool:
 def _write_all(fd: int, payload: bytes) -> None:
     view = memoryview(payload)
     while view:
-        view = view[os.write(fd, view):]
+        view = view[os.write(fd, view) :]
 
 
 def _write_into(target: str, path: str, payload: bytes) -> None:
@@ -132,8 +132,13 @@ def write_output(target: str, data: str | bytes) -> None:
         _write_into(target, final, payload)
         return
     if st is not None and not stat.S_ISREG(st.st_mode):
-        kind = "a block device" if stat.S_ISBLK(st.st_mode) else "a socket" if stat.S_ISSOCK(st.st_mode) else \
-            "not a regular file"
+        kind = (
+            "a block device"
+            if stat.S_ISBLK(st.st_mode)
+            else "a socket"
+            if stat.S_ISSOCK(st.st_mode)
+            else "not a regular file"
+        )
         raise OutputError(f"cannot write {target!r}: it is {kind}; give a file name, a FIFO or a character device")
     folder = os.path.dirname(final)
     if not os.path.isdir(folder):

@@ -40,8 +40,14 @@ MAX_EVENTS = 1_000
 MAX_ISSUES = 1_000
 MAX_SKIPPED = 200
 CHART_EVENTS_LISTED = 8  # events written out under each chart; the events list has all
-_KIND_RANK = {"type-conflict": 0, "type-widened": 0, "element-changed": 0, "textclass-changed": 0,
-              "field-new": 2, "nested-new": 2}  # the others (nulls, gone) rank 1
+_KIND_RANK = {
+    "type-conflict": 0,
+    "type-widened": 0,
+    "element-changed": 0,
+    "textclass-changed": 0,
+    "field-new": 2,
+    "nested-new": 2,
+}  # the others (nulls, gone) rank 1
 PAGE = {"fields": 50, "charts": 6, "events": 50, "issues": 50}
 
 
@@ -115,8 +121,13 @@ def field_rules(profile: Profile) -> dict[str, FieldRule] | None:
     rec = recommend(profile)
     out = {p.path: _rule(p) for p in rec.walk()}
     for d in rec.dropped:
-        out[d.path] = FieldRule("–", "left out", "too rare for the schema",
-                                f"present in {svg.pct(d.present, d.container)} of the places it could be", d.present)
+        out[d.path] = FieldRule(
+            "–",
+            "left out",
+            "too rare for the schema",
+            f"present in {svg.pct(d.present, d.container)} of the places it could be",
+            d.present,
+        )
     return out
 
 
@@ -163,11 +174,20 @@ def _overview(profile: Profile) -> list[tuple[str, str]]:
         ("rows", f"{profile.rows:,}"),
         ("bytes", human_bytes(profile.bytes)),
         ("formats", ", ".join(f"{n:,} {k}" for k, n in sorted(formats.items())) or "none"),
-        ("partitions", "; ".join(f"{k} ({v['type']}, {len(v['values']):,} values)" for k, v in parts.items())
-         or "none"),
+        (
+            "partitions",
+            "; ".join(f"{k} ({v['type']}, {len(v['values']):,} values)" for k, v in parts.items()) or "none",
+        ),
         ("fields", f"{len(profile.fields):,}"),
-        ("drift events", f"{profile.event_total:,}" + (f" (the first {len(profile.events):,} listed; --max-events)"
-                                                       if profile.event_total > len(profile.events) else "")),
+        (
+            "drift events",
+            f"{profile.event_total:,}"
+            + (
+                f" (the first {len(profile.events):,} listed; --max-events)"
+                if profile.event_total > len(profile.events)
+                else ""
+            ),
+        ),
         *(("limit reached", note) for note in limit_notes(profile)),
         ("file errors", f"{sum(1 for i in issues if i.severity == 'error'):,}"),
         ("warnings", f"{sum(1 for i in issues if i.severity == 'warning'):,}"),
@@ -177,26 +197,33 @@ def _overview(profile: Profile) -> list[tuple[str, str]]:
     ]
 
 
-def _field_rows(profile: Profile, styles: svg.Styles, drift: Counter[str], charted: Mapping[str, str],
-                recs: Mapping[str, FieldRule] | None) -> list[dict[str, Any]]:
+def _field_rows(
+    profile: Profile,
+    styles: svg.Styles,
+    drift: Counter[str],
+    charted: Mapping[str, str],
+    recs: Mapping[str, FieldRule] | None,
+) -> list[dict[str, Any]]:
     rows = []
     for path, s in list(profile.fields.items())[:MAX_TABLE_ROWS]:
         counts = _summary_counts(s)
         order = hd.series_order(counts.series())
         rec = recs.get(path) if recs is not None else None
-        rows.append({
-            "path": path,
-            "bar": Markup(svg.type_bar(counts, order, styles.assign(order))),
-            "types": _types_text(s),
-            "ntypes": len(s.stats.types),
-            "null": svg.pct(s.stats.nulls, s.container),
-            "null_v": s.share(s.stats.nulls),
-            "absent": svg.pct(s.absent, s.container),
-            "absent_v": s.share(s.absent),
-            "drift": drift[path],
-            "chart": charted.get(path),
-            "rec": rec,
-        })
+        rows.append(
+            {
+                "path": path,
+                "bar": Markup(svg.type_bar(counts, order, styles.assign(order))),
+                "types": _types_text(s),
+                "ntypes": len(s.stats.types),
+                "null": svg.pct(s.stats.nulls, s.container),
+                "null_v": s.share(s.stats.nulls),
+                "absent": svg.pct(s.absent, s.container),
+                "absent_v": s.share(s.absent),
+                "drift": drift[path],
+                "chart": charted.get(path),
+                "rec": rec,
+            }
+        )
     return rows
 
 
@@ -226,19 +253,19 @@ def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int]) ->
             obs = units[e.seq][2]
             in_batch = (e.row - obs.row_start) if e.row is not None else 0
             n = numbers[id(e)]
-            markers.append(
-                svg.Marker(n, e.kind, e.file, e.row, e.seq, in_batch, obs.rows, _tip(n, e), n <= MAX_EVENTS)
-            )
+            markers.append(svg.Marker(n, e.kind, e.file, e.row, e.seq, in_batch, obs.rows, _tip(n, e), n <= MAX_EVENTS))
         chart_id = f"chart-{i + 1}"
-        charts.append({
-            "id": chart_id,
-            "path": path,
-            "svg": Markup(svg.timeline(chart_id + "-svg", path, bks, counts, order, fills, markers)),
-            "events": [(numbers[id(e)], e) for e in by_path[path][:CHART_EVENTS_LISTED]],
-            "more_events": max(0, len(by_path[path]) - CHART_EVENTS_LISTED),
-            "hidden_markers": max(0, len(markers) - svg.MAX_MARKERS),
-            "steps": len(bks),
-        })
+        charts.append(
+            {
+                "id": chart_id,
+                "path": path,
+                "svg": Markup(svg.timeline(chart_id + "-svg", path, bks, counts, order, fills, markers)),
+                "events": [(numbers[id(e)], e) for e in by_path[path][:CHART_EVENTS_LISTED]],
+                "more_events": max(0, len(by_path[path]) - CHART_EVENTS_LISTED),
+                "hidden_markers": max(0, len(markers) - svg.MAX_MARKERS),
+                "steps": len(bks),
+            }
+        )
     return charts
 
 
@@ -282,8 +309,15 @@ def _matrices(profile: Profile, styles: svg.Styles) -> list[dict[str, Any]]:
             for c in shown:
                 c["odd"] = c["sig"] is not None and c["sig"] != usual
             rows.append({"path": path, "cells": shown, "odd": sum(c["odd"] for c in shown)})
-        out.append({"key": key, "type": info["type"], "columns": columns, "rows": rows,
-                    "left_out": max(0, len(profile.fields) - len(wanted))})
+        out.append(
+            {
+                "key": key,
+                "type": info["type"],
+                "columns": columns,
+                "rows": rows,
+                "left_out": max(0, len(profile.fields) - len(wanted)),
+            }
+        )
     return out
 
 
@@ -314,37 +348,41 @@ def render_html(profile: Profile, *, rules: Mapping[str, FieldRule] | bool = Tru
     charted = {c["path"]: c["id"] for c in charts}
     drift = Counter(e.path for e in profile.events)
     fields = _field_rows(profile, styles, drift, charted, recs)
-    page = _env().from_string(template).render(
-        title=f"driftline report: {safe_text(profile.root, 80)}",
-        root=profile.root,
-        version=__version__,
-        # A comment may come before the doctype (HTML Living Standard 13.1, "Writing HTML documents").
-        marker=remark(f"an HTML report written by driftline {__version__}; driftline never reads it as data"),
-        csp=f"default-src 'none'; style-src '{_sha256(css)}'; script-src '{_sha256(js)}'; img-src data:; "
+    page = (
+        _env()
+        .from_string(template)
+        .render(
+            title=f"driftline report: {safe_text(profile.root, 80)}",
+            root=profile.root,
+            version=__version__,
+            # A comment may come before the doctype (HTML Living Standard 13.1, "Writing HTML documents").
+            marker=remark(f"an HTML report written by driftline {__version__}; driftline never reads it as data"),
+            csp=f"default-src 'none'; style-src '{_sha256(css)}'; script-src '{_sha256(js)}'; img-src data:; "
             "base-uri 'none'; form-action 'none'",
-        css=Markup(css),
-        js=Markup(js),
-        defs=Markup(svg.defs()),
-        overview=_overview(profile),
-        fields=fields,
-        fields_left_out=max(0, len(profile.fields) - len(fields)),
-        with_recs=recs is not None,
-        charts=charts,
-        charts_left_out=max(0, len(drift) - len(charts)),
-        matrices=_matrices(profile, styles),
-        events=list(enumerate(profile.events[:MAX_EVENTS], 1)),
-        events_left_out=max(0, len(profile.events) - MAX_EVENTS),
-        max_events=MAX_EVENTS,
-        kinds=EVENT_KINDS,
-        issues=profile.issues[:MAX_ISSUES],
-        issues_left_out=max(0, len(profile.issues) - MAX_ISSUES),
-        skipped=profile.skipped[:MAX_SKIPPED],
-        skipped_left_out=max(0, len(profile.skipped) - MAX_SKIPPED),
-        page=PAGE,
-        where=_where,
-        parts=_parts,
-        count_text=_count_text,
-        palette=svg.PALETTE,
+            css=Markup(css),
+            js=Markup(js),
+            defs=Markup(svg.defs()),
+            overview=_overview(profile),
+            fields=fields,
+            fields_left_out=max(0, len(profile.fields) - len(fields)),
+            with_recs=recs is not None,
+            charts=charts,
+            charts_left_out=max(0, len(drift) - len(charts)),
+            matrices=_matrices(profile, styles),
+            events=list(enumerate(profile.events[:MAX_EVENTS], 1)),
+            events_left_out=max(0, len(profile.events) - MAX_EVENTS),
+            max_events=MAX_EVENTS,
+            kinds=EVENT_KINDS,
+            issues=profile.issues[:MAX_ISSUES],
+            issues_left_out=max(0, len(profile.issues) - MAX_ISSUES),
+            skipped=profile.skipped[:MAX_SKIPPED],
+            skipped_left_out=max(0, len(profile.skipped) - MAX_SKIPPED),
+            page=PAGE,
+            where=_where,
+            parts=_parts,
+            count_text=_count_text,
+            palette=svg.PALETTE,
+        )
     )
     return page
 

@@ -73,7 +73,8 @@ def defs() -> str:
     )
     return (
         '<svg class="defs" width="0" height="0" aria-hidden="true" focusable="false"><defs>'
-        + "".join(tiles) + "</defs></svg>"
+        + "".join(tiles)
+        + "</defs></svg>"
     )
 
 

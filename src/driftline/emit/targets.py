@@ -176,18 +176,23 @@ def check_targets(
             continue  # devices and FIFOs are written into; discovery never reads them
         inputs = inputs or _inputs(scanned, named)
         if st is not None and _ident(st) in inputs.named:
-            raise OutputError(f"{option} {target!r}: it is {inputs.named[_ident(st)]!r}, an input of this run; "
-                              "driftline never writes over its inputs; give the output another name")
+            raise OutputError(
+                f"{option} {target!r}: it is {inputs.named[_ident(st)]!r}, an input of this run; "
+                "driftline never writes over its inputs; give the output another name"
+            )
         place = _where(final, st, inputs)
         if place is None:
             continue
         folder, rel = place
         if st is not None and not carries_marker(final):
-            raise OutputError(f"{option} {target!r}: it would replace the file {rel!r} of the scanned folder "
-                              f"{folder!r}; driftline never writes over its inputs; give the output another name")
+            raise OutputError(
+                f"{option} {target!r}: it would replace the file {rel!r} of the scanned folder "
+                f"{folder!r}; driftline never writes over its inputs; give the output another name"
+            )
         if write_inside or (_skipped_name(rel) and not include_hidden):
             continue
-        raise OutputError(f"{option} {target!r} lies inside the scanned folder {folder!r}, where a later scan "
-                          f"would read it as data; write it elsewhere, or pass {WRITE_INSIDE} (the scan leaves "
-                          "driftline's own outputs out)")
-
+        raise OutputError(
+            f"{option} {target!r} lies inside the scanned folder {folder!r}, where a later scan "
+            f"would read it as data; write it elsewhere, or pass {WRITE_INSIDE} (the scan leaves "
+            "driftline's own outputs out)"
+        )

@@ -191,8 +191,9 @@ def render(profile: Profile, console: Console) -> None:
     if profile.events:
         console.print(events_block(profile.events), end="")
         if profile.event_total > len(profile.events):
-            console.print(f"… {profile.event_total - len(profile.events):,} more events counted, not listed "
-                          "(--max-events)")
+            console.print(
+                f"… {profile.event_total - len(profile.events):,} more events counted, not listed (--max-events)"
+            )
         if len(profile.events) > MAX_EVENTS_SHOWN:
             console.print(f"… {len(profile.events) - MAX_EVENTS_SHOWN} more events in the JSON report (--json)")
     else:

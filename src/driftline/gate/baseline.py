@@ -104,6 +104,7 @@ class Baseline:
 
 # -- JSON Schema ------------------------------------------------------------------------
 
+
 class _SchemaError(Exception):
     def __init__(self, pointer: str, message: str) -> None:
         super().__init__(f"at {pointer or '/'}: {message}")
@@ -123,8 +124,9 @@ def _types_of(node: Mapping[str, Any], ptr: str) -> tuple[list[str], bool]:
         raise _SchemaError(ptr + "/type", f"'type' must be a string or a list of strings, not {raw!r}")
     unknown = [n for n in names if n != "null" and n not in _JSON_TYPES]
     if unknown:
-        raise _SchemaError(ptr + "/type", f"unknown JSON Schema type {unknown[0]!r}; "
-                                          f"allowed: {', '.join([*_JSON_TYPES, 'null'])}")
+        raise _SchemaError(
+            ptr + "/type", f"unknown JSON Schema type {unknown[0]!r}; allowed: {', '.join([*_JSON_TYPES, 'null'])}"
+        )
     return [n for n in names if n != "null"], "null" in names
 
 
@@ -225,13 +227,13 @@ def baseline_from_json_schema(doc: Any, *, source: str = "schema") -> Baseline:
     except _SchemaError as exc:
         raise UnreadableFileError(f"{source}: {exc}") from None
     if doc.get("properties") is None:
-        raise UnreadableFileError(f"{source} at /properties: the root schema has no 'properties'; a baseline "
-                                  "describes record fields")
+        raise UnreadableFileError(
+            f"{source} at /properties: the root schema has no 'properties'; a baseline describes record fields"
+        )
     return Baseline("json-schema", source, out)
 
 
 # -- saved scan report -------------------------------------------------------------------
-
 
 
 def _shallow_type(types: Mapping[str, int]) -> DType:
@@ -261,6 +263,7 @@ def baseline_from_profile(profile: Profile, *, source: str = "report") -> Baseli
 
 # -- a recommendation (what a cast-rules file records) -------------------------------------
 
+
 def baseline_from_recommendation(rec: Recommendation, *, source: str = "recommendation") -> Baseline:
     """Each planned field path with its target type, nullability, presence and cast rule.
 
@@ -274,9 +277,15 @@ def baseline_from_recommendation(rec: Recommendation, *, source: str = "recommen
     for plan in rec.walk():
         t = plan.target
         accept = plan.params.get("accept")
-        out[plan.path] = Expected(plan.path, t.with_nullable(False) if t.name != "null" else t, t.nullable,
-                                  plan.required, open=False, rule=plan.rule,
-                                  accept=frozenset(accept) if accept is not None else None)
+        out[plan.path] = Expected(
+            plan.path,
+            t.with_nullable(False) if t.name != "null" else t,
+            t.nullable,
+            plan.required,
+            open=False,
+            rule=plan.rule,
+            accept=frozenset(accept) if accept is not None else None,
+        )
     return Baseline("rules", source, out)
 
 
@@ -309,16 +318,27 @@ def baseline_from_rules(doc: Mapping[str, Any], *, source: str = "rules") -> Bas
             raise UnreadableFileError(f"{where} lacks the key 'target'") from None
         except (TypeError, ValueError) as exc:
             raise UnreadableFileError(f"{where}/target: {exc}") from None
-        if not isinstance(path, str) or not isinstance(rule, str) or \
-                accept is not None and not (isinstance(accept, list) and all(isinstance(a, str) for a in accept)):
+        if (
+            not isinstance(path, str)
+            or not isinstance(rule, str)
+            or accept is not None
+            and not (isinstance(accept, list) and all(isinstance(a, str) for a in accept))
+        ):
             raise UnreadableFileError(f"{where}: 'path' and 'rule' must be strings, 'params.accept' a list of classes")
-        out[path] = Expected(path, target.with_nullable(False) if target.name != "null" else target,
-                             nullable or target.name == "null", required, open=False, rule=rule,
-                             accept=frozenset(accept) if accept is not None else None)
+        out[path] = Expected(
+            path,
+            target.with_nullable(False) if target.name != "null" else target,
+            nullable or target.name == "null",
+            required,
+            open=False,
+            rule=rule,
+            accept=frozenset(accept) if accept is not None else None,
+        )
     return Baseline("rules", source, out)
 
 
 # -- loading -----------------------------------------------------------------------------
+
 
 def load_baseline(path: str | Path) -> Baseline:
     """Read a baseline file; its kind is told from its content.
@@ -334,9 +354,11 @@ def load_baseline(path: str | Path) -> Baseline:
         return baseline_from_profile(from_dict(doc, source=source), source=source)
     if isinstance(doc, Mapping) and doc.get("format") == RULES_FORMAT:
         if doc.get("version") != RULES_VERSION:
-            raise ReportVersionError(f"baseline {source} has rules version {doc.get('version')!r} (at /version); "
-                                     f"this driftline reads version {RULES_VERSION}; write the rules again with "
-                                     "driftline schema --rules")
+            raise ReportVersionError(
+                f"baseline {source} has rules version {doc.get('version')!r} (at /version); "
+                f"this driftline reads version {RULES_VERSION}; write the rules again with "
+                "driftline schema --rules"
+            )
         check_document(doc, "rules", "baseline", source)
         return baseline_from_rules(doc, source=source)
     if isinstance(doc, Mapping) and any(k in doc for k in ("$schema", "properties", "type")):
@@ -344,8 +366,9 @@ def load_baseline(path: str | Path) -> Baseline:
             base = baseline_from_json_schema(doc, source=source)
         except (TypeError, ValueError, KeyError, AttributeError) as exc:
             check_json_schema(doc, "baseline", source)  # the meta-schema names the place, when it can
-            raise damaged("baseline", source, "", "a JSON Schema driftline can read",
-                          f"{type(exc).__name__}: {exc}") from None
+            raise damaged(
+                "baseline", source, "", "a JSON Schema driftline can read", f"{type(exc).__name__}: {exc}"
+            ) from None
         check_json_schema(doc, "baseline", source)
         return base
     kind = doc.get("format") if isinstance(doc, Mapping) else None

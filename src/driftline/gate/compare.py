@@ -42,11 +42,18 @@ def parses_strings(rule: str | None) -> bool:
 def _wrapped(key: str, exp: Expected) -> bool:
     """A scalar the wrap rule turns into a one-element list of the agreed item type."""
     t = exp.type
-    return (exp.rule == WRAP_RULE and t is not None and t.name == "list" and t.item is not None
-            and key not in ("list", "struct", "map") and fits(type_of_key(key), shallow(t.item)))
+    return (
+        exp.rule == WRAP_RULE
+        and t is not None
+        and t.name == "list"
+        and t.item is not None
+        and key not in ("list", "struct", "map")
+        and fits(type_of_key(key), shallow(t.item))
+    )
 
 
 # -- type relations --------------------------------------------------------------------
+
 
 def fits(t: DType, b: DType) -> bool:
     """True when every value of type t is held by type b as it is (b is t or wider)."""
@@ -77,6 +84,7 @@ def _casts(cls: str, b: DType, st: FieldStats, accept: frozenset[str] | None = N
 
 
 # -- findings ----------------------------------------------------------------------------
+
 
 @dataclass(slots=True)
 class _Tally:
@@ -109,8 +117,19 @@ class _Findings:
     def __init__(self) -> None:
         self.tallies: dict[tuple[str, str | None, str], _Tally] = {}
 
-    def add(self, rule: str, path: str | None, change: str, message: str, n: int, file: str,
-            ex: Example | None = None, row: int | None = None, *, within: bool = False) -> None:
+    def add(
+        self,
+        rule: str,
+        path: str | None,
+        change: str,
+        message: str,
+        n: int,
+        file: str,
+        ex: Example | None = None,
+        row: int | None = None,
+        *,
+        within: bool = False,
+    ) -> None:
         key = (rule, path, change)
         tally = self.tallies.get(key)
         if tally is None:
@@ -141,6 +160,7 @@ def _earliest(st: FieldStats) -> Example | None:
 
 # -- the rules ---------------------------------------------------------------------------
 
+
 def _string_values(st: FieldStats) -> dict[str, int]:
     """Content class → count of the string-typed values (JSON strings, or CSV 'text' cells)."""
     if st.text:
@@ -167,19 +187,38 @@ def check_types(w: _Walk, out: _Findings) -> None:
                     continue  # the rule parses strings: judged by content class below
                 joined = join(b, t).with_nullable(False)
                 if joined.name != "union" and family(joined) == family(b):
-                    out.add("widening", path, f"{type_text(b)} → {type_text(joined)}",
-                            f"{{n}} value(s) of type {key} in {{files}} widen the baseline type", n, obs.file,
-                            st.first("type:" + key))
+                    out.add(
+                        "widening",
+                        path,
+                        f"{type_text(b)} → {type_text(joined)}",
+                        f"{{n}} value(s) of type {key} in {{files}} widen the baseline type",
+                        n,
+                        obs.file,
+                        st.first("type:" + key),
+                    )
                 else:
-                    out.add("type_change", path, f"{type_text(b)} → {key}",
-                            f"{{n}} value(s) of type {key} in {{files}}, which the baseline type "
-                            f"{type_text(b)} cannot hold", n, obs.file, st.first("type:" + key))
+                    out.add(
+                        "type_change",
+                        path,
+                        f"{type_text(b)} → {key}",
+                        f"{{n}} value(s) of type {key} in {{files}}, which the baseline type "
+                        f"{type_text(b)} cannot hold",
+                        n,
+                        obs.file,
+                        st.first("type:" + key),
+                    )
             if casting and not _has_string(b):
                 for cls, n in _string_values(st).items():
                     if not _casts(cls, b, st, exp.accept):
-                        out.add("cast_loss", path, f"cast rule {exp.rule}: string → {type_text(b)}",
-                                "{n} string(s) in {files} that the cast rule would turn into null", n, obs.file,
-                                st.first("class:" + cls) if not st.text else st.first("type:string"))
+                        out.add(
+                            "cast_loss",
+                            path,
+                            f"cast rule {exp.rule}: string → {type_text(b)}",
+                            "{n} string(s) in {files} that the cast rule would turn into null",
+                            n,
+                            obs.file,
+                            st.first("class:" + cls) if not st.text else st.first("type:string"),
+                        )
 
 
 def check_narrowing(w: _Walk, out: _Findings) -> None:
@@ -191,8 +230,15 @@ def check_narrowing(w: _Walk, out: _Findings) -> None:
         seen = join_all(type_of_key(k) for k in s.stats.types).with_nullable(False)
         if seen != b and fits(seen, b) and not (s.stats.text and _has_string(b)):
             ex = _earliest(s.stats)
-            out.add("narrowing", path, f"{type_text(b)} → {type_text(seen)}",
-                    f"all {s.stats.nonnull:,} values fit {type_text(seen)}", s.stats.nonnull, ex.file if ex else "", ex)
+            out.add(
+                "narrowing",
+                path,
+                f"{type_text(b)} → {type_text(seen)}",
+                f"all {s.stats.nonnull:,} values fit {type_text(seen)}",
+                s.stats.nonnull,
+                ex.file if ex else "",
+                ex,
+            )
 
 
 def _parent_known(w: _Walk, path: str) -> bool:
@@ -213,28 +259,51 @@ def check_fields(w: _Walk, out: _Findings) -> None:
             if exp is None:
                 if st.present and _parent_known(w, path):
                     types = ", ".join(sorted(st.types)) or "null"
-                    out.add("new_field", path, f"new field ({types})",
-                            "a field the baseline does not name: {n} value(s) in {files}",
-                            st.present, obs.file, _earliest(st))
+                    out.add(
+                        "new_field",
+                        path,
+                        f"new field ({types})",
+                        "a field the baseline does not name: {n} value(s) in {files}",
+                        st.present,
+                        obs.file,
+                        _earliest(st),
+                    )
                 continue
             if st.nulls and not exp.nullable:
-                out.add("unexpected_nulls", path, "null in a non-nullable field",
-                        "{n} null(s) in {files} where the baseline allows none", st.nulls, obs.file, st.first("null"))
+                out.add(
+                    "unexpected_nulls",
+                    path,
+                    "null in a non-nullable field",
+                    "{n} null(s) in {files} where the baseline allows none",
+                    st.nulls,
+                    obs.file,
+                    st.first("null"),
+                )
         for path, exp in w.baseline.fields.items():
             if not exp.required:
                 continue
             parent, _ = paths.parent(path)
             seen = obs.fields.get(path)
-            container = containers.get(path) if seen is not None else (
-                obs.rows if parent is None else container_count(path, obs.fields, obs.rows))
+            container = (
+                containers.get(path)
+                if seen is not None
+                else (obs.rows if parent is None else container_count(path, obs.fields, obs.rows))
+            )
             absent = (container or 0) - (seen.present if seen is not None else 0)
             if absent > 0:
                 # The first absent row is known only when the whole batch lacks a top-level field.
                 row = obs.row_start if seen is None and parent is None else None
                 places = "row(s)" if parent is None else "of its containers"
-                out.add("missing_required", path, "required field absent",
-                        f"absent from {{n}} {places} in {{files}}, where the baseline requires it",
-                        absent, obs.file, None, row)
+                out.add(
+                    "missing_required",
+                    path,
+                    "required field absent",
+                    f"absent from {{n}} {places} in {{files}}, where the baseline requires it",
+                    absent,
+                    obs.file,
+                    None,
+                    row,
+                )
 
 
 def check_gone(w: _Walk, out: _Findings) -> None:
@@ -247,8 +316,14 @@ def check_gone(w: _Walk, out: _Findings) -> None:
         if parent is not None and not (parent in seen and container_count(path, w.profile.stats, w.profile.rows)):
             continue  # its container is gone too: that one is reported
         if w.profile.rows:
-            out.add("optional_gone", path, "optional field no longer seen",
-                    f"absent from all {w.profile.rows:,} rows", w.profile.rows, "")
+            out.add(
+                "optional_gone",
+                path,
+                "optional field no longer seen",
+                f"absent from all {w.profile.rows:,} rows",
+                w.profile.rows,
+                "",
+            )
 
 
 def check_content(w: _Walk, out: _Findings) -> None:
@@ -266,9 +341,15 @@ def check_content(w: _Walk, out: _Findings) -> None:
                 if b is not None and not _class_kept(cls, b, st, casting, exp.accept):
                     continue  # the value's type changed: check_types reports it
                 allowed = ", ".join(sorted(exp.classes)) or "none"
-                out.add("content_class", path, f"new content class {cls}",
-                        f"{{n}} string(s) in {{files}}; the baseline allows: {allowed}", n, obs.file,
-                        st.first("class:" + cls))
+                out.add(
+                    "content_class",
+                    path,
+                    f"new content class {cls}",
+                    f"{{n}} string(s) in {{files}}; the baseline allows: {allowed}",
+                    n,
+                    obs.file,
+                    st.first("class:" + cls),
+                )
 
 
 def _class_kept(cls: str, b: DType, st: FieldStats, casting: bool, accept: frozenset[str] | None) -> bool:
@@ -300,9 +381,15 @@ def check_range(w: _Walk, out: _Findings) -> None:
         limit = exp.minimum if side == "minimum" else exp.maximum
         value, file = min(found) if side == "minimum" else max(found)
         word = "below" if side == "minimum" else "above"
-        out.add("out_of_range", path, f"{word} the {side} {limit:g}",
-                f"{len(found)} batch(es) hold values {word} it; the most extreme is {value!r}", len(found), file,
-                Example(file, -1, None, repr(value)))
+        out.add(
+            "out_of_range",
+            path,
+            f"{word} the {side} {limit:g}",
+            f"{len(found)} batch(es) hold values {word} it; the most extreme is {value!r}",
+            len(found),
+            file,
+            Example(file, -1, None, repr(value)),
+        )
         out.tallies[("out_of_range", path, f"{word} the {side} {limit:g}")].files.update(f for _, f in found)
 
 
@@ -319,9 +406,16 @@ def check_null_share(w: _Walk, out: _Findings) -> None:
             continue
         ex = s.stats.first("null")
         within = rise <= limit
-        out.add("null_share_rise", path, f"null share {100 * exp.null_share:.1f}% → {100 * share:.1f}%",
-                f"rose {rise:.1f} points; the limit is {limit:g}", s.stats.nulls + s.absent,
-                ex.file if ex else "", ex, within=within)
+        out.add(
+            "null_share_rise",
+            path,
+            f"null share {100 * exp.null_share:.1f}% → {100 * share:.1f}%",
+            f"rose {rise:.1f} points; the limit is {limit:g}",
+            s.stats.nulls + s.absent,
+            ex.file if ex else "",
+            ex,
+            within=within,
+        )
 
 
 def check_file_errors(w: _Walk, out: _Findings) -> None:
@@ -334,10 +428,16 @@ def check_file_errors(w: _Walk, out: _Findings) -> None:
     limit = w.policy.max_file_error_rate
     for f in bad:
         issue = next(i for i in f.issues if i.severity == "error")
-        out.add("file_errors", None, f"file error: {issue.kind}",
-                f"{len(bad)} of {len(files)} files ({rate:.1f}%) have read errors; the limit is {limit:g}%",
-                f.errors, f.rel, Example(f.rel, issue.row if issue.row is not None else -1, issue.line, issue.message),
-                within=rate <= limit)
+        out.add(
+            "file_errors",
+            None,
+            f"file error: {issue.kind}",
+            f"{len(bad)} of {len(files)} files ({rate:.1f}%) have read errors; the limit is {limit:g}%",
+            f.errors,
+            f.rel,
+            Example(f.rel, issue.row if issue.row is not None else -1, issue.line, issue.message),
+            within=rate <= limit,
+        )
 
 
 def check_unread_rows(w: _Walk, out: _Findings) -> None:
@@ -354,20 +454,38 @@ def check_unread_rows(w: _Walk, out: _Findings) -> None:
             continue
         first = lost[0] if lost else None
         what = first.kind if first else "incomplete"
-        where = Example(f.rel, first.row if first and first.row is not None else -1, first.line if first else None,
-                        first.message if first else "the read stopped early")
-        out.add("unread_rows", None, f"rows not read: {what}",
-                "{files} not read whole: rows set aside or never read; a gate passes only data it read",
-                max(len(lost), 1), f.rel, where)
+        where = Example(
+            f.rel,
+            first.row if first and first.row is not None else -1,
+            first.line if first else None,
+            first.message if first else "the read stopped early",
+        )
+        out.add(
+            "unread_rows",
+            None,
+            f"rows not read: {what}",
+            "{files} not read whole: rows set aside or never read; a gate passes only data it read",
+            max(len(lost), 1),
+            f.rel,
+            where,
+        )
 
 
 RULE_CHECKS: tuple[Callable[[_Walk, _Findings], None], ...] = (
-    check_types, check_narrowing, check_fields, check_gone, check_content, check_range, check_null_share,
-    check_file_errors, check_unread_rows,
+    check_types,
+    check_narrowing,
+    check_fields,
+    check_gone,
+    check_content,
+    check_range,
+    check_null_share,
+    check_file_errors,
+    check_unread_rows,
 )
 
 
 # -- judging -----------------------------------------------------------------------------
+
 
 def _applies(rule: str, baseline: Baseline) -> str:
     """'' when the baseline can check the rule, else why not."""
@@ -391,19 +509,30 @@ def _violations(profile: Profile, tallies: Iterable[_Tally], policy: Policy) -> 
         ex = t.first
         nfiles = f"{len(t.files)} file" + ("s" if len(t.files) != 1 else "")
         message = t.message.replace("{n}", f"{t.count:,}").replace("{files}", nfiles)
-        out.append(Violation(
-            rule=t.rule, severity=severity, field=t.path, change=t.change, message=message, count=t.count,
-            files=len(t.files), file=t.file or None, partitions=parts.get(t.file or "", ()),
-            row=t.row if t.row is not None and t.row >= 0 else None, line=ex.line if ex else None,
-            example=ex.value if ex and ex.value else None,
-        ))
+        out.append(
+            Violation(
+                rule=t.rule,
+                severity=severity,
+                field=t.path,
+                change=t.change,
+                message=message,
+                count=t.count,
+                files=len(t.files),
+                file=t.file or None,
+                partitions=parts.get(t.file or "", ()),
+                row=t.row if t.row is not None and t.row >= 0 else None,
+                line=ex.line if ex else None,
+                example=ex.value if ex and ex.value else None,
+            )
+        )
     order = {r: i for i, r in enumerate(RULES)}
     out.sort(key=lambda v: (order[v.rule], v.field or "", v.file or "", v.row if v.row is not None else -1, v.change))
     return out
 
 
-def compare(profile: Profile, baseline: Baseline, policy: Policy | None = None,
-            *, counts: dict[str, int] | None = None) -> Verdict:
+def compare(
+    profile: Profile, baseline: Baseline, policy: Policy | None = None, *, counts: dict[str, int] | None = None
+) -> Verdict:
     """Judge a profile against a baseline. counts adds to the verdict's counts (files read ...)."""
     policy = policy or Policy()
     walk = _Walk(profile, baseline, policy)
@@ -428,8 +557,14 @@ def compare(profile: Profile, baseline: Baseline, policy: Policy | None = None,
             status, reason = "passed", ""
         rules.append(RuleResult(rule, action, status, reason))
     fails = tuple(v for v in judged if v.severity == "fail")
-    all_counts = {"files": len(profile.files), "rows": profile.rows, "fields": len(profile.fields),
-                  "files_read": len(profile.files), "files_reused": 0, "files_dropped": 0}
+    all_counts = {
+        "files": len(profile.files),
+        "rows": profile.rows,
+        "fields": len(profile.fields),
+        "files_read": len(profile.files),
+        "files_reused": 0,
+        "files_dropped": 0,
+    }
     all_counts.update(counts or {})
     all_counts.update({"violations": len(fails), "warnings": sum(1 for v in judged if v.severity == "warn")})
     return Verdict(

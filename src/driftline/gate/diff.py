@@ -87,8 +87,12 @@ class Diff:
 
     def to_json(self) -> dict[str, Any]:
         """The diff as plain JSON data: both sides, the counts and every change."""
-        return {"before": self.before, "after": self.after, "counts": self.counts(),
-                "changes": [c.to_json() for c in self.changes]}
+        return {
+            "before": self.before,
+            "after": self.after,
+            "counts": self.counts(),
+            "changes": [c.to_json() for c in self.changes],
+        }
 
 
 def _type(st: FieldStats) -> DType | None:
@@ -144,8 +148,14 @@ def _class_change(path: str, sa: FieldStats, sb: FieldStats) -> FieldChange | No
     return FieldChange("content-class", path, ", ".join(sorted(ca)), ", ".join(sorted(cb)), ex)
 
 
-def diff_fields(a: Mapping[str, FieldSummary], b: Mapping[str, FieldSummary], *, before: str = "before",
-                after: str = "after", min_null_points: float = DEFAULT_NULL_POINTS) -> Diff:
+def diff_fields(
+    a: Mapping[str, FieldSummary],
+    b: Mapping[str, FieldSummary],
+    *,
+    before: str = "before",
+    after: str = "after",
+    min_null_points: float = DEFAULT_NULL_POINTS,
+) -> Diff:
     """Changes from fields a to fields b. A field under an added or removed one is not listed again."""
     out: list[FieldChange] = []
     for path in sorted(a.keys() | b.keys()):
@@ -158,9 +168,11 @@ def diff_fields(a: Mapping[str, FieldSummary], b: Mapping[str, FieldSummary], *,
             if parent is None or parent in b:
                 out.append(FieldChange("removed", path, _types_text(a[path].stats), None))
             continue
-        for change in (_type_change(path, a[path].stats, b[path].stats),
-                       _null_change(path, a[path], b[path], min_null_points),
-                       _class_change(path, a[path].stats, b[path].stats)):
+        for change in (
+            _type_change(path, a[path].stats, b[path].stats),
+            _null_change(path, a[path], b[path], min_null_points),
+            _class_change(path, a[path].stats, b[path].stats),
+        ):
             if change is not None:
                 out.append(change)
     out.sort(key=lambda c: (_ORDER[c.kind], c.path))
@@ -172,11 +184,18 @@ def _types_text(st: FieldStats) -> str:
     return type_text(t) if t is not None else "null"
 
 
-def diff_profiles(a: Profile, b: Profile, *, before: str | None = None, after: str | None = None,
-                  min_null_points: float = DEFAULT_NULL_POINTS) -> Diff:
+def diff_profiles(
+    a: Profile,
+    b: Profile,
+    *,
+    before: str | None = None,
+    after: str | None = None,
+    min_null_points: float = DEFAULT_NULL_POINTS,
+) -> Diff:
     """Changes from profile a to profile b, over all their fields."""
-    return diff_fields(a.fields, b.fields, before=before or a.root, after=after or b.root,
-                       min_null_points=min_null_points)
+    return diff_fields(
+        a.fields, b.fields, before=before or a.root, after=after or b.root, min_null_points=min_null_points
+    )
 
 
 def diff_partitions(profile: Profile, key: str, *, min_null_points: float = DEFAULT_NULL_POINTS) -> tuple[Diff, ...]:

@@ -57,5 +57,13 @@ def profile_of(
     items = [side] if isinstance(side, str | os.PathLike) else list(side)
     if len(items) == 1 and is_report(items[0]):
         return load_report(os.fspath(items[0]))
-    return scan_paths(items, read=read, include=include, exclude=exclude, include_hidden=include_hidden,
-                      jobs=jobs, max_errors=max_errors, progress=progress)
+    return scan_paths(
+        items,
+        read=read,
+        include=include,
+        exclude=exclude,
+        include_hidden=include_hidden,
+        jobs=jobs,
+        max_errors=max_errors,
+        progress=progress,
+    )

@@ -56,8 +56,11 @@ _THRESHOLDS: dict[str, tuple[type, float, float, str]] = {
     "max_file_error_rate": (float, 0.0, 100.0, "percent of scanned files"),
     "max_cast_loss": (int, 0, math.inf, "values per field"),
 }
-THRESHOLD_RULE = {"max_null_share_rise": "null_share_rise", "max_file_error_rate": "file_errors",
-                  "max_cast_loss": "cast_loss"}
+THRESHOLD_RULE = {
+    "max_null_share_rise": "null_share_rise",
+    "max_file_error_rate": "file_errors",
+    "max_cast_loss": "cast_loss",
+}
 
 
 @dataclass(frozen=True, kw_only=True, slots=True)
@@ -143,8 +146,9 @@ def policy_from_mapping(data: Mapping[str, Any], *, source: str = "policy") -> P
         if key not in known:
             close = difflib.get_close_matches(str(key), known, n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
-            raise PolicyError(f"{source} at {pointer([str(key)])}: unknown policy key {key!r}{hint}; "
-                              f"allowed keys: {', '.join(known)}")
+            raise PolicyError(
+                f"{source} at {pointer([str(key)])}: unknown policy key {key!r}{hint}; allowed keys: {', '.join(known)}"
+            )
     try:
         return Policy(**data)
     except PolicyError as exc:

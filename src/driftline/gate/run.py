@@ -68,17 +68,32 @@ def run_check(
         if loaded:
             raise InputPathError("--state keeps per-file results of a scan; give data paths, not a saved report")
         run = scan_incremental(
-            items, Path(state), read=settings.read, include=settings.include, exclude=settings.exclude,
-            include_hidden=settings.include_hidden, jobs=settings.jobs, max_errors=settings.max_errors,
-            verify=verify, rebuild=rebuild, progress=progress, write_inside=settings.write_inside,
+            items,
+            Path(state),
+            read=settings.read,
+            include=settings.include,
+            exclude=settings.exclude,
+            include_hidden=settings.include_hidden,
+            jobs=settings.jobs,
+            max_errors=settings.max_errors,
+            verify=verify,
+            rebuild=rebuild,
+            progress=progress,
+            write_inside=settings.write_inside,
         )
         profile, note = run.profile, run.note
         counts = {"files_read": run.read, "files_reused": run.reused, "files_dropped": run.dropped}
     else:
-        profile = profile_of(paths if isinstance(paths, Profile) else items, read=settings.read,
-                             include=settings.include, exclude=settings.exclude,
-                             include_hidden=settings.include_hidden, jobs=settings.jobs,
-                             max_errors=settings.max_errors, progress=progress)
+        profile = profile_of(
+            paths if isinstance(paths, Profile) else items,
+            read=settings.read,
+            include=settings.include,
+            exclude=settings.exclude,
+            include_hidden=settings.include_hidden,
+            jobs=settings.jobs,
+            max_errors=settings.max_errors,
+            progress=progress,
+        )
         # files_reused counts files taken as they were: from a state file or a saved report.
         counts = {"files_read": 0, "files_reused": len(profile.files)} if loaded else {"files_read": len(profile.files)}
     values = values if values is not None and values.mode != "show" else output_values(policy) or values

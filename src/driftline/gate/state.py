@@ -111,10 +111,17 @@ def load_state(path: str | Path) -> State | None:
         data = jsonnum.loads(raw)
     except orjson.JSONDecodeError as exc:
         if not _ours(raw):
-            raise ReportVersionError(f"{source} is not a driftline state file (it is not JSON); give --state "
-                                     "another file name, or --rebuild to replace it with a new state") from None
-        raise damaged("state file", source, pointer_at(raw, exc.pos), "JSON",
-                      f"{exc.msg} at line {exc.lineno}, column {exc.colno} (cut short or garbled)") from None
+            raise ReportVersionError(
+                f"{source} is not a driftline state file (it is not JSON); give --state "
+                "another file name, or --rebuild to replace it with a new state"
+            ) from None
+        raise damaged(
+            "state file",
+            source,
+            pointer_at(raw, exc.pos),
+            "JSON",
+            f"{exc.msg} at line {exc.lineno}, column {exc.colno} (cut short or garbled)",
+        ) from None
     if not isinstance(data, dict) or data.get("format") != STATE_FORMAT:
         what = data.get("format") if isinstance(data, dict) else None
         raise ReportVersionError(
@@ -128,8 +135,9 @@ def load_state(path: str | Path) -> State | None:
             f"reads version {STATE_VERSION}; run with --rebuild to start over"
         )
     check_document(data, "state", "state file", source)
-    results = files_from_json(data["files"], "state file", source,
-                              lambda fd: dataclasses.replace(file_from_json(fd), digest=fd["digest"]))
+    results = files_from_json(
+        data["files"], "state file", source, lambda fd: dataclasses.replace(file_from_json(fd), digest=fd["digest"])
+    )
     return State(data["root"], data["read"], {f.rel: f for f in results})
 
 
@@ -222,8 +230,13 @@ def scan_incremental(
             return None
         if not prev.complete:
             return None  # a read cut short (permissions, a failing disk) may go through now
-        if (prev.size, prev.mtime_ns, prev.format, prev.compression, prev.partitions) != \
-                (ref.size, ref.mtime_ns, ref.format, ref.compression, ref.partitions):
+        if (prev.size, prev.mtime_ns, prev.format, prev.compression, prev.partitions) != (
+            ref.size,
+            ref.mtime_ns,
+            ref.format,
+            ref.compression,
+            ref.partitions,
+        ):
             return None
         if verify:
             try:
@@ -235,8 +248,17 @@ def scan_incremental(
         reused[ref.rel] = prev
         return prev
 
-    profile = scan_paths(paths, read=opts, include=include, exclude=exclude, include_hidden=include_hidden,
-                         jobs=jobs, max_errors=max_errors, progress=progress, reuse=reuse)
+    profile = scan_paths(
+        paths,
+        read=opts,
+        include=include,
+        exclude=exclude,
+        include_hidden=include_hidden,
+        jobs=jobs,
+        max_errors=max_errors,
+        progress=progress,
+        reuse=reuse,
+    )
     if verify:
         files = []
         for f in profile.files:

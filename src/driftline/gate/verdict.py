@@ -159,10 +159,23 @@ def junit_xml(verdict: Verdict, *, suite: str = "driftline check") -> bytes:
         by_rule.setdefault(v.rule, []).append(v)
     failures = sum(1 for r in verdict.rules if r.status == "failed")
     skipped = sum(1 for r in verdict.rules if r.status == "skipped")
-    root = ET.Element("testsuites", name=suite, tests=str(len(verdict.rules)), failures=str(failures),
-                      errors="0", skipped=str(skipped))
-    ts = ET.SubElement(root, "testsuite", name=suite, tests=str(len(verdict.rules)), failures=str(failures),
-                       errors="0", skipped=str(skipped))
+    root = ET.Element(
+        "testsuites",
+        name=suite,
+        tests=str(len(verdict.rules)),
+        failures=str(failures),
+        errors="0",
+        skipped=str(skipped),
+    )
+    ts = ET.SubElement(
+        root,
+        "testsuite",
+        name=suite,
+        tests=str(len(verdict.rules)),
+        failures=str(failures),
+        errors="0",
+        skipped=str(skipped),
+    )
     props = ET.SubElement(ts, "properties")
     ET.SubElement(props, "property", name="root", value=_xml_text(verdict.root))
     ET.SubElement(props, "property", name="baseline", value=_xml_text(verdict.baseline))
@@ -192,6 +205,7 @@ def junit_xml(verdict: Verdict, *, suite: str = "driftline check") -> bytes:
 
 # -- terminal ----------------------------------------------------------------------------
 
+
 def _block(text: Text, v: Violation, style: str) -> None:
     text.append(f"  {v.severity.upper():<5} ", style=style)
     text.append(f"{v.rule:<17} ", style="bold")
@@ -218,9 +232,11 @@ def render(verdict: Verdict, console: Console) -> None:
     else:
         head.append("FAIL", style="bold red")
         head.append(f"  {len(verdict.violations)} violation(s), {len(verdict.warnings)} warning(s)")
-    head.append(f"\nchecked {safe_text(verdict.root, None)} against {safe_text(verdict.baseline, None)}: "
-                f"{c.get('files', 0)} files ({c.get('files_read', 0)} read, {c.get('files_reused', 0)} "
-                f"from state), {c.get('rows', 0):,} rows, {c.get('fields', 0)} fields")
+    head.append(
+        f"\nchecked {safe_text(verdict.root, None)} against {safe_text(verdict.baseline, None)}: "
+        f"{c.get('files', 0)} files ({c.get('files_read', 0)} read, {c.get('files_reused', 0)} "
+        f"from state), {c.get('rows', 0):,} rows, {c.get('fields', 0)} fields"
+    )
     console.print(head, soft_wrap=True)
     for title, items, style in (("Violations", verdict.violations, "red"), ("Warnings", verdict.warnings, "yellow")):
         if not items:
@@ -236,8 +252,9 @@ def render(verdict: Verdict, console: Console) -> None:
         console.print(f"\n{len(verdict.allowed)} change(s) allowed by the policy (listed in --json)")
     skipped = [r for r in verdict.rules if r.status == "skipped" and r.action != "allow"]
     if skipped:
-        console.print("not checked: " + "; ".join(f"{r.rule} ({r.reason})" for r in skipped), markup=False,
-                      soft_wrap=True)
+        console.print(
+            "not checked: " + "; ".join(f"{r.rule} ({r.reason})" for r in skipped), markup=False, soft_wrap=True
+        )
 
 
 def rule_names() -> tuple[str, ...]:

@@ -59,8 +59,10 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
     [('f.parquet', {'int64': 1}, 1), ('g.parquet', {'int64': 1}, 0)]
     """
     if exact or exact_requested() or len(batches) == 1:
-        return [observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start, exact=exact or None)
-                for b in batches]
+        return [
+            observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start, exact=exact or None)
+            for b in batches
+        ]
     out: list[dict[str, FieldStats]] = [{} for _ in batches]
     unobserved: list[dict[str, str]] = [{} for _ in batches]  # column -> why it cannot be observed
     groups: dict[tuple[str, pa.DataType], list[tuple[int, pa.Array]]] = {}
@@ -85,8 +87,14 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
         else:
             _observe_group(paths.child(None, name), t, members, batches, out)
     return [
-        Observation(file=b.file, batch=b.batch, row_start=b.row_start, rows=b.data.num_rows,
-                    fields=dict(sorted(out[i].items())), unobserved=tuple(sorted(unobserved[i].items())))
+        Observation(
+            file=b.file,
+            batch=b.batch,
+            row_start=b.row_start,
+            rows=b.data.num_rows,
+            fields=dict(sorted(out[i].items())),
+            unobserved=tuple(sorted(unobserved[i].items())),
+        )
         for i, b in enumerate(batches)
     ]
 
@@ -134,8 +142,13 @@ class _Group:
         return table.group_by("g", use_threads=False).aggregate(aggs).sort_by([("g", "ascending")])
 
 
-def _observe_group(path: str, t: pa.DataType, members: list[tuple[int, pa.Array]], batches: Sequence[Batch],
-                   out: list[dict[str, FieldStats]]) -> None:
+def _observe_group(
+    path: str,
+    t: pa.DataType,
+    members: list[tuple[int, pa.Array]],
+    batches: Sequence[Batch],
+    out: list[dict[str, FieldStats]],
+) -> None:
     g = _Group([a for _, a in members])
     key = from_arrow(t).shallow_key()
     first_valid, first_null = _firsts(g)
@@ -159,8 +172,9 @@ def _observe_group(path: str, t: pa.DataType, members: list[tuple[int, pa.Array]
         if (fv := first_valid[k]) is not None:
             s["type:" + key] = (Example(b.file, b.row_start + fv, None, value_text(next(firsts))),)
         nonnull = len(arr) - arr.null_count
-        out[i][path] = FieldStats(types={key: nonnull} if nonnull else {}, nulls=arr.null_count,
-                                  samples=dict(sorted(s.items())), **extras[k])
+        out[i][path] = FieldStats(
+            types={key: nonnull} if nonnull else {}, nulls=arr.null_count, samples=dict(sorted(s.items())), **extras[k]
+        )
 
 
 def _values(g: _Group, at: list[int], kind: str | None) -> Iterator[Any]:
@@ -176,8 +190,9 @@ def _firsts(g: _Group) -> tuple[list[int | None], list[int | None]]:
     fn: list[int | None] = [0 if a.null_count == len(a) else None for a in g.arrays]
     if any(0 < a.null_count < len(a) for a in g.arrays):
         valid = pc.is_valid(g.col)
-        agg = g.per_batch({"v": pc.if_else(valid, g.row, None), "n": pc.if_else(valid, None, g.row)},
-                          [("v", "min"), ("n", "min")])
+        agg = g.per_batch(
+            {"v": pc.if_else(valid, g.row, None), "n": pc.if_else(valid, None, g.row)}, [("v", "min"), ("n", "min")]
+        )
         for k, (v, n) in enumerate(zip(agg["v_min"].to_pylist(), agg["n_min"].to_pylist(), strict=True)):
             fv[k] = None if v is None else v - g.starts[k]
             fn[k] = None if n is None else n - g.starts[k]
@@ -235,8 +250,13 @@ def _strings(g: _Group, batches: list[Batch], samples: list[dict[str, tuple[Exam
     enc = pc.dictionary_encode(g.col)
     v = verdicts(enc.dictionary)
     idx = enc.indices
-    per_row = {"len": pc.utf8_length(g.col), "int": pc.take(v.int_digits, idx), "frac": pc.take(v.frac_digits, idx),
-               "leap": pc.cast(pc.take(v.leap, idx), pa.int64()), "lower": pc.cast(pc.take(v.lower, idx), pa.int64())}
+    per_row = {
+        "len": pc.utf8_length(g.col),
+        "int": pc.take(v.int_digits, idx),
+        "frac": pc.take(v.frac_digits, idx),
+        "leap": pc.cast(pc.take(v.leap, idx), pa.int64()),
+        "lower": pc.cast(pc.take(v.lower, idx), pa.int64()),
+    }
     totals = g.per_batch(per_row, [("len", "max"), ("int", "max"), ("frac", "max"), ("leap", "sum"), ("lower", "sum")])
     kinds = pc.take(v.kind, idx)
     valid = pc.is_valid(kinds)
@@ -244,8 +264,9 @@ def _strings(g: _Group, batches: list[Batch], samples: list[dict[str, tuple[Exam
     by_class = classes.group_by(["g", "k"], use_threads=False).aggregate([("row", "count"), ("row", "list")])
     found: list[dict[int, tuple[int, list[int]]]] = [{} for _ in g.arrays]  # batch -> class -> (count, first rows)
     firsts = pc.list_slice(by_class["row_list"].combine_chunks(), 0, SAMPLES_PER_KEY).to_pylist()
-    for gk, kk, n, rows in zip(by_class["g"].to_pylist(), by_class["k"].to_pylist(), by_class["row_count"].to_pylist(),
-                               firsts, strict=True):
+    for gk, kk, n, rows in zip(
+        by_class["g"].to_pylist(), by_class["k"].to_pylist(), by_class["row_count"].to_pylist(), firsts, strict=True
+    ):
         found[gk][kk] = (n, rows)
     columns = {name: totals[name].to_pylist() for name in ("len_max", "int_max", "frac_max", "leap_sum", "lower_sum")}
     picked: list[tuple[int, str, list[int]]] = []  # (batch, sample key, positions)
@@ -254,8 +275,9 @@ def _strings(g: _Group, batches: list[Batch], samples: list[dict[str, tuple[Exam
             continue
         per_class = dict(sorted(found[k].items()))
         many = any(per_class.get(c, (0,))[0] > 1 for c in _LOSSY)
-        picked.extend((k, "class:" + CLASSES[c], rows if many and n > 1 else rows[:1])
-                      for c, (n, rows) in per_class.items())
+        picked.extend(
+            (k, "class:" + CLASSES[c], rows if many and n > 1 else rows[:1]) for c, (n, rows) in per_class.items()
+        )
         extras[k] = {
             "classes": {CLASSES[c]: n for c, (n, _) in per_class.items()},
             "max_length": int(columns["len_max"][k] or 0),

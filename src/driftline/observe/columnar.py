@@ -26,8 +26,9 @@ _LOSSY_CLASSES = ("text", "null_token", "empty", "zero_padded", "float_out_of_ra
 class _Ctx:
     __slots__ = ("file", "row_start", "lines", "text_source", "out", "exact")
 
-    def __init__(self, file: str, row_start: int, lines: Sequence[int] | None, text_source: bool,
-                 exact: bool = False) -> None:
+    def __init__(
+        self, file: str, row_start: int, lines: Sequence[int] | None, text_source: bool, exact: bool = False
+    ) -> None:
         self.exact = exact
         self.file = file
         self.row_start = row_start
@@ -66,8 +67,14 @@ def observe_table(
         reason = _observe_or_why(arr, name, ctx)
         if reason is not None:
             unobserved[name] = reason
-    return Observation(file=file, batch=batch, row_start=row_start, rows=table.num_rows,
-                       fields=dict(sorted(ctx.out.items())), unobserved=tuple(sorted(unobserved.items())))
+    return Observation(
+        file=file,
+        batch=batch,
+        row_start=row_start,
+        rows=table.num_rows,
+        fields=dict(sorted(ctx.out.items())),
+        unobserved=tuple(sorted(unobserved.items())),
+    )
 
 
 def observe_column(arr: pa.Array, name: str, *, file: str, row_start: int) -> dict[str, FieldStats] | str:
@@ -210,8 +217,9 @@ def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None
         # mix units with the field's other types when observations merge.
         lo, hi = _min_max(arr)
         extra["minimum"], extra["maximum"] = _temporal_text(lo), _temporal_text(hi)
-    ctx.out[path] = FieldStats(types={key: nonnull} if nonnull else {}, nulls=nulls,
-                               samples=dict(sorted(samples.items())), **extra)
+    ctx.out[path] = FieldStats(
+        types={key: nonnull} if nonnull else {}, nulls=nulls, samples=dict(sorted(samples.items())), **extra
+    )
 
 
 def _sample(shown: pa.Array, plain: pa.Array, i: int) -> Any:
@@ -272,8 +280,9 @@ def _display_type(t: pa.DataType) -> pa.DataType:
         fields = [t.field(i) for i in range(t.num_fields)]
         return pa.struct([f.with_type(_display_type(f.type)) for f in fields])
     if pa.types.is_map(t):
-        return pa.map_(t.key_field.with_type(_display_type(t.key_type)),
-                       t.item_field.with_type(_display_type(t.item_type)))
+        return pa.map_(
+            t.key_field.with_type(_display_type(t.key_type)), t.item_field.with_type(_display_type(t.item_type))
+        )
     if pa.types.is_list(t) or pa.types.is_large_list(t) or pa.types.is_fixed_size_list(t):
         item = t.value_field.with_type(_display_type(t.value_type))
         if pa.types.is_fixed_size_list(t):
@@ -344,8 +353,10 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
             lv, hv = float(lv), float(hv)
         out["minimum"], out["maximum"] = lv, hv
     if pa.types.is_integer(t) and t.bit_width == 64:
-        big = pc.greater(arr, pa.scalar(SAFE_INT, t)) if pa.types.is_unsigned_integer(t) else pc.or_(
-            pc.greater(arr, pa.scalar(SAFE_INT, t)), pc.less(arr, pa.scalar(-SAFE_INT, t))
+        big = (
+            pc.greater(arr, pa.scalar(SAFE_INT, t))
+            if pa.types.is_unsigned_integer(t)
+            else pc.or_(pc.greater(arr, pa.scalar(SAFE_INT, t)), pc.less(arr, pa.scalar(-SAFE_INT, t)))
         )
         out["unsafe_ints"] = int(pc.sum(big).as_py() or 0)
     elif pa.types.is_decimal(t) and t.scale == 0:  # integers too: float64 holds them only up to 2**53
@@ -353,8 +364,9 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
     return out
 
 
-def _string_stats(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx,
-                  samples: dict[str, tuple[Example, ...]]) -> dict[str, Any]:
+def _string_stats(
+    arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: dict[str, tuple[Example, ...]]
+) -> dict[str, Any]:
     if arr.null_count == len(arr):
         return {}
     if ctx.exact:
@@ -375,8 +387,9 @@ def _string_stats(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx,
     }
 
 
-def _string_stats_reference(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx,
-                            samples: dict[str, tuple[Example, ...]]) -> dict[str, Any]:
+def _string_stats_reference(
+    arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: dict[str, tuple[Example, ...]]
+) -> dict[str, Any]:
     """textclass.classify over every value: what string_profile must equal (the exact switch)."""
     scan = classify(arr)
     masks = class_masks(arr) if any(scan.counts.get(c, 0) > 1 for c in _LOSSY_CLASSES) else {}
@@ -406,8 +419,9 @@ def _firsts(arr: pa.Array, rows: pa.Array | None, mask: pa.Array) -> list[tuple[
     return [(_rows(rows, i), arr[i].as_py()) for i in pa_indices(mask, 1)]
 
 
-def _big_integers(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, types: dict[str, int],
-                  samples: dict[str, tuple[Example, ...]]) -> int:
+def _big_integers(
+    arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, types: dict[str, int], samples: dict[str, tuple[Example, ...]]
+) -> int:
     """Integer literals of the decimal class (19 digits or more: past int64 or near it) as a type
     of their own, decimal(N,0) with N the literal's digits, as a JSON literal is (observe.records),
     never float64, which rounds them (RFC 8259 section 6 leaves integer length open; IEEE 754
@@ -446,8 +460,10 @@ def _observe_text(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) ->
             n -= _big_integers(arr, rows, ctx, types, samples)
             if n:
                 types[inferred] = types.get(inferred, 0) + n
-                samples["type:" + inferred] = tuple(ctx.example(r, v) for r, v in _firsts(
-                    arr, rows, pc.and_(class_masks(arr)["decimal"], pc.invert(_integer_text(arr)))))
+                samples["type:" + inferred] = tuple(
+                    ctx.example(r, v)
+                    for r, v in _firsts(arr, rows, pc.and_(class_masks(arr)["decimal"], pc.invert(_integer_text(arr))))
+                )
         else:
             types[inferred] = types.get(inferred, 0) + n
             first = samples.get("class:" + cls, ())[:1]

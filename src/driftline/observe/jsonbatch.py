@@ -227,8 +227,12 @@ class _Text:
 
 
 def _observe_part(
-    text: _Text, rows: list[int] | None, walk_only: set[int], aside: dict[tuple[str, str], set[int]],
-    schema: pa.Schema | None, depth: int = 0,
+    text: _Text,
+    rows: list[int] | None,
+    walk_only: set[int],
+    aside: dict[tuple[str, str], set[int]],
+    schema: pa.Schema | None,
+    depth: int = 0,
 ) -> tuple[list[dict[str, FieldStats]], pa.Schema | None] | None:
     """Observe some rows of a batch (all when rows is None): (groups of disjoint rows, Arrow's schema).
 
@@ -328,8 +332,9 @@ def _kept(text: _Text, rows: list[int] | None, out: set[int]) -> tuple[list[int]
 def _walk(records: list[Any], rows: list[int], where: Where, samples_only: bool = False) -> dict[str, FieldStats]:
     file, batch, row_start, first_line = where
     lines_of = [first_line + r for r in rows]
-    return observe_records(records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows,
-                           samples_only=samples_only).fields
+    return observe_records(
+        records, file=file, batch=batch, row_start=row_start, lines=lines_of, rows=rows, samples_only=samples_only
+    ).fields
 
 
 def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[str, FieldStats] | None:
@@ -444,8 +449,14 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
             sub_rows = (pa.array(range(length), pa.int64()) if rows is None else rows).filter(valid)
         for i in range(t.num_fields):
             child = arr.field(i)
-            _visit(child.filter(valid) if nulls_arrow else child, paths.child(path, t.field(i).name), sub_rows,
-                   t.field(i).name, b, listed)
+            _visit(
+                child.filter(valid) if nulls_arrow else child,
+                paths.child(path, t.field(i).name),
+                sub_rows,
+                t.field(i).name,
+                b,
+                listed,
+            )
     elif pa.types.is_list(t):
         part.types = {"list": part.nonnull}
         flat = pc.list_flatten(arr)
@@ -459,8 +470,7 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
         raise NotExact(f"{path}: Arrow type {t}")
 
 
-def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, name: str | None,
-             listed: bool) -> None:
+def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, name: str | None, listed: bool) -> None:
     if not pc.all(pc.is_finite(arr)).as_py():  # over the values (there is one at least)
         raise NotExact("NaN or Infinity: not JSON, orjson refuses the line")
     integral = pc.equal(pc.floor(arr), arr)

@@ -56,8 +56,11 @@ _CONFLICT = re.compile(r"Column\((/[^)]*)\) changed from (\w+) to (\w+)")
 _KIND_START = {"string": '"', "array": r"\[", "object": r"\{", "number": "[-0-9]", "boolean": "[tf]", "null": "n"}
 
 
-def conflict_rows(arr: pa.BinaryArray, why: str, rows: pa.Array | None = None,
-                  ) -> tuple[set[int], tuple[str, str]] | None:
+def conflict_rows(
+    arr: pa.BinaryArray,
+    why: str,
+    rows: pa.Array | None = None,
+) -> tuple[set[int], tuple[str, str]] | None:
     """Rows (of rows, or of all lines) that may hold the rarer of the two kinds Arrow's error
     names for one field, and the pattern that finds them.
 
@@ -131,8 +134,15 @@ def absent_for_sure(lines: pa.BinaryArray, rows: pa.Array, name: str) -> pa.Arra
     return pc.invert(seen)
 
 
-def settle(lines: pa.BinaryArray, unique: set[str], at_rows: pa.Array, name: str | None, listed: bool,
-           value_re: str, usable: pa.Array | None = None) -> tuple[pa.Array, pa.Array] | None:
+def settle(
+    lines: pa.BinaryArray,
+    unique: set[str],
+    at_rows: pa.Array,
+    name: str | None,
+    listed: bool,
+    value_re: str,
+    usable: pa.Array | None = None,
+) -> tuple[pa.Array, pa.Array] | None:
     """Read a field's value off its line where that is certain: (rows where it matches, the rest).
 
     Certain where the key's text '"name"' occurs once in the line and no backslash does:

@@ -219,8 +219,15 @@ def observe_records(
             _walk(rec, paths.ROOT, i, accs, 0, other)
     where = _Where(file, row_start, lines, rows)
     fields = {p: _finish(acc, where, samples_only) for p, acc in sorted(accs.items())}
-    return Observation(file=file, batch=batch, row_start=row_start, rows=len(records), fields=fields,
-                       other_paths=len(other.paths), other_values=other.values)
+    return Observation(
+        file=file,
+        batch=batch,
+        row_start=row_start,
+        rows=len(records),
+        fields=fields,
+        other_paths=len(other.paths),
+        other_values=other.values,
+    )
 
 
 class _Where:

@@ -188,9 +188,7 @@ class FieldStats:
         )
 
 
-def merge_fields(
-    a: Mapping[str, FieldStats], b: Mapping[str, FieldStats]
-) -> dict[str, FieldStats]:
+def merge_fields(a: Mapping[str, FieldStats], b: Mapping[str, FieldStats]) -> dict[str, FieldStats]:
     """Merge two path → FieldStats maps (paths present in one side are kept as they are)."""
     out = dict(a)
     for path, st in b.items():
@@ -233,8 +231,11 @@ def _merge_many(stats: list[FieldStats]) -> FieldStats:
             samples.setdefault(k, []).append(exs)
         lo, hi = _lo(lo, st.minimum), _hi(hi, st.maximum)
         nulls += st.nulls
-        max_length, int_digits, frac_digits = (max(max_length, st.max_length), max(int_digits, st.int_digits),
-                                               max(frac_digits, st.frac_digits))
+        max_length, int_digits, frac_digits = (
+            max(max_length, st.max_length),
+            max(int_digits, st.int_digits),
+            max(frac_digits, st.frac_digits),
+        )
         leap += st.leap_seconds
         lower += st.lowercase_rfc3339
         unsafe += st.unsafe_ints

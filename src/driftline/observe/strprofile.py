@@ -72,8 +72,11 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
         masks = numbers.masks
     # Hashing costs about as much as classifying when nearly every value is distinct
     # (ids, amounts), and little otherwise: the head of the column decides.
-    head_repeats = masks is None and len(arr) > DICTIONARY_MIN and (
-        len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
+    head_repeats = (
+        masks is None
+        and len(arr) > DICTIONARY_MIN
+        and (len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
+    )
     if masks is None and (head_repeats or len(arr) <= DICTIONARY_MIN):
         enc = pc.dictionary_encode(arr)
         if 0 < len(enc.dictionary) <= FEW:
@@ -183,8 +186,13 @@ def _learn(values: list[str]) -> None:
             body = v[1:] if v.startswith("-") else v
             head, dot, tail = body.partition(".")
             d_int, d_frac = len(head), (len(tail) if dot else 0)
-        _SEEN[v] = (k, stamp and v[_SECONDS_AT:_SECONDS_AT + 2] == "60",
-                    cls == "timestamp_rfc3339" and ("t" in v or "z" in v), d_int, d_frac)
+        _SEEN[v] = (
+            k,
+            stamp and v[_SECONDS_AT : _SECONDS_AT + 2] == "60",
+            cls == "timestamp_rfc3339" and ("t" in v or "z" in v),
+            d_int,
+            d_frac,
+        )
 
 
 def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
@@ -261,16 +269,19 @@ def verdicts(values: pa.Array) -> Verdicts:
         got = [_SEEN[v] for v in py]
         return Verdicts(*(pa.array([g[i] for g in got], t) for i, t in enumerate(_VERDICT_TYPES)))
     masks = class_masks(values)
-    kind = pc.case_when(pc.make_struct(*(masks[c] for c in CLASSES), field_names=list(CLASSES)),
-                        *(pa.scalar(k, pa.int8()) for k in range(len(CLASSES))))
+    kind = pc.case_when(
+        pc.make_struct(*(masks[c] for c in CLASSES), field_names=list(CLASSES)),
+        *(pa.scalar(k, pa.int8()) for k in range(len(CLASSES))),
+    )
     stamp = pc.or_(pc.or_(masks["timestamp_rfc3339"], masks["timestamp_offset"]), masks["timestamp_local"])
     sixty = pc.fill_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"), False)
     lower = pc.and_(masks["timestamp_rfc3339"], pc.fill_null(pc.match_substring_regex(values, "[tz]"), False))
     number = pc.or_(pc.or_(masks["integer"], masks["decimal"]), masks["zero_padded"])
     before, after = digit_counts(values)
     zero = pa.scalar(0, pa.int64())
-    return Verdicts(kind, pc.and_(stamp, sixty), lower, pc.if_else(number, before, zero),
-                    pc.if_else(number, after, zero))
+    return Verdicts(
+        kind, pc.and_(stamp, sixty), lower, pc.if_else(number, before, zero), pc.if_else(number, after, zero)
+    )
 
 
 _DIGIT_CLASSES = ("zero_padded", "integer", "decimal")  # the classes whose digits classify counts

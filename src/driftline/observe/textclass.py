@@ -130,9 +130,7 @@ CLASSES: tuple[str, ...] = (
 )
 
 #: Compared with ``value.strip().lower()``.
-NULL_TOKENS: frozenset[str] = frozenset(
-    {"null", "none", "nil", "na", "n/a", "#n/a", "-", "--", "?"}
-)
+NULL_TOKENS: frozenset[str] = frozenset({"null", "none", "nil", "na", "n/a", "#n/a", "-", "--", "?"})
 
 # The patterns below are written *unanchored* and only with constructs that
 # mean the same in RE2 (pyarrow) and in Python's ``re``: ASCII classes such as
@@ -198,9 +196,7 @@ DATE_RE = _FULL_DATE
 
 #: RFC 3339 section 5.6 ``date-time``: T or t, seconds required, optional
 #: ``.1*DIGIT`` fraction, then Z / z or ``+hh:mm`` / ``-hh:mm``.
-TIMESTAMP_RFC3339_RE = (
-    _FULL_DATE + "[Tt]" + _PARTIAL_TIME + "(?:[Zz]|[+-]" + _HOUR + ":" + _MINUTE + ")"
-)
+TIMESTAMP_RFC3339_RE = _FULL_DATE + "[Tt]" + _PARTIAL_TIME + "(?:[Zz]|[+-]" + _HOUR + ":" + _MINUTE + ")"
 
 #: Zoned date-times that ``cast(timestamp("us", "UTC"))`` parses but that
 #: are not RFC 3339: a space separator with Z or any pyarrow offset, or a T
@@ -347,12 +343,7 @@ def _digit_count(value: str) -> int:
 
 
 def _check_type(t: pa.DataType) -> None:
-    if not (
-        pa.types.is_string(t)
-        or pa.types.is_large_string(t)
-        or pa.types.is_string_view(t)
-        or pa.types.is_null(t)
-    ):
+    if not (pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t) or pa.types.is_null(t)):
         raise TypeError(f"textclass needs a string array, got {t}")
 
 
@@ -403,9 +394,7 @@ def _cast_ok(values: pa.Array, target: pa.DataType) -> pa.BooleanArray:
 
 
 def _seconds_are_60(values: pa.Array) -> pa.BooleanArray:
-    return _false_if_null(
-        pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60")
-    )
+    return _false_if_null(pc.equal(pc.utf8_slice_codeunits(values, _SECONDS_AT, _SECONDS_AT + 2), "60"))
 
 
 def _normalise_for_cast(values: pa.Array, name: str) -> pa.Array:
@@ -508,8 +497,10 @@ def _beyond_float64_mask(arr: pa.Array, floats: pa.BooleanArray) -> pa.BooleanAr
     at = pc.replace_with_mask(floats, floats, edge)
     values, got = arr.filter(at), got.filter(edge)
     letters = pc.match_substring_regex(values, "^-?[IiNn]")  # inf, infinity, nan: the value itself
-    lost = pc.or_(pc.and_not(pc.is_inf(got), letters),
-                  pc.and_(pc.equal(got, 0.0), pc.match_substring_regex(values, _NONZERO_MANTISSA)))
+    lost = pc.or_(
+        pc.and_not(pc.is_inf(got), letters),
+        pc.and_(pc.equal(got, 0.0), pc.match_substring_regex(values, _NONZERO_MANTISSA)),
+    )
     return pc.replace_with_mask(at, at, lost)
 
 

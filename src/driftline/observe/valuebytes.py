@@ -15,7 +15,7 @@ def value_view(arr: pa.Array) -> memoryview:
     width = 8 if pa.types.is_large_string(arr.type) or pa.types.is_large_binary(arr.type) else 4
     end = arr.offset + len(arr)
     bounds = memoryview(offsets)[: (end + 1) * width].cast("q" if width == 8 else "i")
-    return memoryview(data)[bounds[arr.offset]:bounds[end]]
+    return memoryview(data)[bounds[arr.offset] : bounds[end]]
 
 
 def value_bytes(arr: pa.Array) -> bytes:

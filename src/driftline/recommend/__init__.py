@@ -51,8 +51,9 @@ class SchemaConflictError(PolicyError):
         self.conflicts = recommendation.conflicts()
         names = ", ".join(f"{p.path} ({p.rule})" for p in self.conflicts[:8])
         more = f" and {len(self.conflicts) - 8} more" if len(self.conflicts) > 8 else ""
-        super().__init__(f"strict mode: {len(self.conflicts)} fields need a lossy or conflicting cast "
-                         f"rule: {names}{more}")
+        super().__init__(
+            f"strict mode: {len(self.conflicts)} fields need a lossy or conflicting cast rule: {names}{more}"
+        )
 
 
 def recommend(profile: Profile, *, options: RecommendOptions | None = None, **overrides: Any) -> Recommendation:
@@ -72,8 +73,14 @@ def recommend(profile: Profile, *, options: RecommendOptions | None = None, **ov
     ctx = Context(tree, opts)
     plans = [ctx.plan(tree[path]) for path in tree.top]
     fields = tuple(sorted((p for p in plans if p is not None), key=lambda p: p.name))
-    rec = Recommendation(root=profile.root, rows=profile.rows, files=len(profile.files), fields=fields,
-                         options=opts, dropped=tuple(sorted(ctx.dropped, key=lambda d: d.path)))
+    rec = Recommendation(
+        root=profile.root,
+        rows=profile.rows,
+        files=len(profile.files),
+        fields=fields,
+        options=opts,
+        dropped=tuple(sorted(ctx.dropped, key=lambda d: d.path)),
+    )
     if opts.strict and rec.conflicts():
         raise SchemaConflictError(rec)
     return rec

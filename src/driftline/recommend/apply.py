@@ -33,8 +33,10 @@ from driftline.recommend.raw import TEXT, json_text, jsonable, plain_value
 SAFE_INT = 2**53 - 1  # RFC 7493 §2.2
 _UNIT_DIGITS = {"s": 0, "ms": 3, "us": 6, "ns": 9}
 _CLASS_RE = {
-    "date": tc.DATE_RE, "timestamp_rfc3339": tc.TIMESTAMP_RFC3339_RE,
-    "timestamp_offset": tc.TIMESTAMP_OFFSET_RE, "timestamp_local": tc.TIMESTAMP_LOCAL_RE,
+    "date": tc.DATE_RE,
+    "timestamp_rfc3339": tc.TIMESTAMP_RFC3339_RE,
+    "timestamp_offset": tc.TIMESTAMP_OFFSET_RE,
+    "timestamp_local": tc.TIMESTAMP_LOCAL_RE,
 }
 # Measured on the cast's input and output, not taken from the classes: a positional numeral
 # with a zero before another digit, which no number's text has (a float form such as 00e5 is
@@ -71,6 +73,7 @@ class SchemaMismatch(ValueError):
 
 
 # -- small helpers ----------------------------------------------------------------------------
+
 
 def _true(mask: pa.Array) -> int:
     return int(pc.sum(pc.cast(mask, pa.int64())).as_py() or 0) if len(mask) else 0
@@ -153,6 +156,7 @@ def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
 
 # -- strings ----------------------------------------------------------------------------------
 
+
 def _timestamps(arr: pa.Array, ok: pa.Array, plan: FieldPlan, t: DType, tally: Tally) -> pa.Array:
     """Cast timestamp-shaped strings; leap seconds, lower case and long fractions first."""
     assert t.unit is not None
@@ -216,6 +220,7 @@ def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Ar
 
 # -- typed values -----------------------------------------------------------------------------
 
+
 def _typed(arr: pa.Array, key: str, plan: FieldPlan, tally: Tally) -> pa.Array:
     t, path = plan.target, plan.path
     out_type = to_arrow(t)
@@ -250,6 +255,7 @@ def _typed(arr: pa.Array, key: str, plan: FieldPlan, tally: Tally) -> pa.Array:
 
 
 # -- one plan ---------------------------------------------------------------------------------
+
 
 def _scalar(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
     if plan.target.name == "null":  # only nulls were seen; a typed column of nulls stays null
@@ -325,8 +331,12 @@ def _list(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> 
             a = flat.get(k)
             b = scalars.get(k)
             typ = (a if a is not None else b).type  # type: ignore[union-attr]
-            merged[k] = pa.concat_arrays([a if a is not None else pa.nulls(m, typ),
-                                          b.filter(wrapped) if b is not None else pa.nulls(len(rows), typ)])
+            merged[k] = pa.concat_arrays(
+                [
+                    a if a is not None else pa.nulls(m, typ),
+                    b.filter(wrapped) if b is not None else pa.nulls(len(rows), typ),
+                ]
+            )
         order = pc.sort_indices(pa.concat_arrays([pc.cast(parents, pa.int64()), pc.cast(rows, pa.int64())]))
         flat = {k: a.take(order) for k, a in merged.items()}
         lengths = pc.if_else(wrapped, pa.scalar(1, lengths.type), lengths)
@@ -359,8 +369,7 @@ def _struct(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -
         child = _cast(c, kids[c.name], tally) if c.name in kids else _cast_forms(c, {}, n, tally)
         _check_nulls(c, child, present)
         children.append(child)
-    return pa.StructArray.from_arrays(children, fields=[arrow_field(c) for c in plan.children],
-                                      mask=pc.invert(present))
+    return pa.StructArray.from_arrays(children, fields=[arrow_field(c) for c in plan.children], mask=pc.invert(present))
 
 
 def _check_nulls(plan: FieldPlan, arr: pa.Array, where: pa.Array | None = None) -> None:
@@ -369,8 +378,9 @@ def _check_nulls(plan: FieldPlan, arr: pa.Array, where: pa.Array | None = None) 
         return
     nulls = pc.is_null(arr) if where is None else pc.and_(pc.is_null(arr), where)
     if _true(nulls):
-        raise SchemaMismatch(f"{plan.path}: {_true(nulls):,} nulls where the schema says not null; "
-                             "the data is not what the profile saw")
+        raise SchemaMismatch(
+            f"{plan.path}: {_true(nulls):,} nulls where the schema says not null; the data is not what the profile saw"
+        )
 
 
 def _cast_forms(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
@@ -378,8 +388,11 @@ def _cast_forms(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tall
     name = plan.target.name
     if plan.rule == "keep_as_json_text":
         kids = {k: v for k, v in forms.items()}
-        variant = pa.StructArray.from_arrays(list(kids.values()), names=list(kids), mask=pc.invert(before)) \
-            if kids else pa.nulls(n, pa.struct([]))
+        variant = (
+            pa.StructArray.from_arrays(list(kids.values()), names=list(kids), mask=pc.invert(before))
+            if kids
+            else pa.nulls(n, pa.struct([]))
+        )
         out = _json_text(plan, variant, tally)
     elif name == "struct":
         out = _struct(plan, forms, n, tally)
@@ -404,8 +417,11 @@ def apply(batch: pa.RecordBatch, rec: Recommendation, *, tally: Tally | None = N
     n = batch.num_rows
     columns = []
     for plan in rec.fields:
-        col = _cast(plan, batch.column(plan.name), tally) if plan.name in batch.schema.names \
+        col = (
+            _cast(plan, batch.column(plan.name), tally)
+            if plan.name in batch.schema.names
             else _cast_forms(plan, {}, n, tally)
+        )
         _check_nulls(plan, col)
         columns.append(col)
     return pa.RecordBatch.from_arrays(columns, schema=schema)

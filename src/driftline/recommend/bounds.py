@@ -15,9 +15,24 @@ _ESCAPE = 6  # the longest JSON escape of one character: \\u00XX
 
 # Longest text of a value of each kind, as pyarrow casts it to string or orjson writes it.
 _KIND_CHARS: dict[str, int] = {
-    "bool": 5, "int8": 4, "int16": 6, "int32": 11, "int64": 20, "uint8": 3, "uint16": 5,
-    "uint32": 10, "uint64": 20, "float16": 24, "float32": 24, "float64": 24, "null": 4,
-    "date32": 10, "date64": 10, "time32": 12, "time64": 18, "duration": 20,
+    "bool": 5,
+    "int8": 4,
+    "int16": 6,
+    "int32": 11,
+    "int64": 20,
+    "uint8": 3,
+    "uint16": 5,
+    "uint32": 10,
+    "uint64": 20,
+    "float16": 24,
+    "float32": 24,
+    "float64": 24,
+    "null": 4,
+    "date32": 10,
+    "date64": 10,
+    "time32": 12,
+    "time64": 18,
+    "duration": 20,
     "timestamp": 35,  # 'YYYY-MM-DD HH:MM:SS.fffffffff' plus a zone
 }
 

@@ -95,8 +95,8 @@ def _check_zone(zone: object, where: str) -> None:
         zoneinfo.ZoneInfo(zone)
     except (zoneinfo.ZoneInfoNotFoundError, ValueError):
         raise PolicyError(
-            f"{where}timestamp_zone {zone!r} is neither an IANA zone name (Europe/Berlin) "
-            "nor an offset (+02:00)") from None
+            f"{where}timestamp_zone {zone!r} is neither an IANA zone name (Europe/Berlin) nor an offset (+02:00)"
+        ) from None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -148,8 +148,9 @@ class RecommendOptions:
         known = {f.name for f in fields(RecommendOptions)}
         unknown = sorted(set(data) - known)
         if unknown:
-            raise PolicyError(f"{where}unknown option {', '.join(map(repr, unknown))}; "
-                              f"known options: {', '.join(sorted(known))}")
+            raise PolicyError(
+                f"{where}unknown option {', '.join(map(repr, unknown))}; known options: {', '.join(sorted(known))}"
+            )
         try:
             return RecommendOptions(**dict(data))
         except PolicyError as exc:

@@ -52,9 +52,13 @@ class Effect:
     note: str = ""
 
     def to_json(self) -> dict[str, Any]:
-        out: dict[str, Any] = {"kind": self.kind, "cause": self.cause, "count": self.count,
-                               "exact": self.exact,
-                               "examples": [e.to_json() for e in self.examples]}
+        out: dict[str, Any] = {
+            "kind": self.kind,
+            "cause": self.cause,
+            "count": self.count,
+            "exact": self.exact,
+            "examples": [e.to_json() for e in self.examples],
+        }
         if self.note:
             out["note"] = self.note
         return out

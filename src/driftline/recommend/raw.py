@@ -43,8 +43,12 @@ from driftline.sources.native import hand, hand_bytes
 
 TEXT = "text"  # the variant child of CSV cells
 _SCALAR_TYPES: dict[str, pa.DataType] = {
-    "bool": pa.bool_(), "int64": pa.int64(), "uint64": pa.uint64(), "float64": pa.float64(),
-    "string": pa.string(), TEXT: pa.string(),
+    "bool": pa.bool_(),
+    "int64": pa.int64(),
+    "uint64": pa.uint64(),
+    "float64": pa.float64(),
+    "string": pa.string(),
+    TEXT: pa.string(),
 }
 
 
@@ -58,6 +62,7 @@ class RawBatch:
 
 
 # -- JSON values to variants ----------------------------------------------------------------
+
 
 def _kind(v: Any) -> str:
     t = type(v)
@@ -144,8 +149,10 @@ def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
             names[name] = None
     columns, fields = [], []
     for name in names:
-        values = [variant_value(rec.get(name) if type(rec) is dict else
-                                (rec if name == paths.ROOT else None)) for rec in records]
+        values = [
+            variant_value(rec.get(name) if type(rec) is dict else (rec if name == paths.ROOT else None))
+            for rec in records
+        ]
         shape = _Shape()
         for v in values:
             shape.add(v)
@@ -158,6 +165,7 @@ def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
 
 
 # -- Arrow arrays to variants ---------------------------------------------------------------
+
 
 def _plain(arr: pa.Array) -> pa.Array:
     """Encodings unwrapped and wide layouts narrowed, so that compute kernels take them."""
@@ -186,8 +194,7 @@ def _list_of_view(arr: pa.Array) -> pa.Array:
     gives an offsets buffer one entry short, which fails validation (and ListArray.from_arrays)."""
     lengths = pc.fill_null(pc.list_value_length(arr), 0).cast(pa.int32())
     offsets = pa.concat_arrays([pa.array([0], pa.int32()), pc.cumulative_sum(lengths)])
-    return pa.ListArray.from_arrays(offsets, pc.list_flatten(arr), type=pa.list_(arr.type.value_field),
-                                    mask=_mask(arr))
+    return pa.ListArray.from_arrays(offsets, pc.list_flatten(arr), type=pa.list_(arr.type.value_field), mask=_mask(arr))
 
 
 def _mask(arr: pa.Array) -> pa.Array | None:
@@ -213,8 +220,11 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
     if pa.types.is_struct(t):
         kids = [as_variant(arr.field(i)) for i in range(t.num_fields)]
         # A struct of no fields keeps its own length; from_arrays would give it none.
-        inner: pa.Array = arr if not kids else pa.StructArray.from_arrays(
-            kids, names=[t.field(i).name for i in range(t.num_fields)], mask=_mask(arr))
+        inner: pa.Array = (
+            arr
+            if not kids
+            else pa.StructArray.from_arrays(kids, names=[t.field(i).name for i in range(t.num_fields)], mask=_mask(arr))
+        )
         key = "struct"
     elif pa.types.is_map(t):
         inner = pa.MapArray.from_arrays(arr.offsets, as_variant(arr.keys), as_variant(arr.items), mask=_mask(arr))
@@ -228,6 +238,7 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
 
 
 # -- files ----------------------------------------------------------------------------------
+
 
 def _utf8_text(ref: FileRef) -> bytes:
     """The file's text as UTF-8, in the encoding the scan finds for it (sources/encoding.py)."""
@@ -264,18 +275,25 @@ def _csv_tables(ref: FileRef, batch_rows: int) -> Iterator[pa.Table]:
     _, header = head_of(io.BytesIO(data), ref.rel, ReadOptions(), tsv=ref.format == "tsv")
     if header is None:
         return
-    body = data[header.size:]
+    body = data[header.size :]
     if header.dialect is not None and header.dialect.line_end == "CR":
         body = body.replace(b"\r", b"\n")
     names = list(header.names)
     options = arrow_options(header, 1 << 20, hand(lambda row: "skip"))
-    table = pcsv.read_csv(
-        pa.BufferReader(hand_bytes(body)),
-        read_options=pcsv.ReadOptions(use_threads=False, column_names=names, skip_rows=0),
-        parse_options=options["parse_options"],
-        convert_options=pcsv.ConvertOptions(column_types=dict.fromkeys(names, pa.string()),
-                                            strings_can_be_null=False, quoted_strings_can_be_null=False),
-    ) if body.strip() else pa.table({n: pa.array([], pa.string()) for n in names})
+    table = (
+        pcsv.read_csv(
+            pa.BufferReader(hand_bytes(body)),
+            read_options=pcsv.ReadOptions(use_threads=False, column_names=names, skip_rows=0),
+            parse_options=options["parse_options"],
+            convert_options=pcsv.ConvertOptions(
+                column_types=dict.fromkeys(names, pa.string()),
+                strings_can_be_null=False,
+                quoted_strings_can_be_null=False,
+            ),
+        )
+        if body.strip()
+        else pa.table({n: pa.array([], pa.string()) for n in names})
+    )
     for start in range(0, table.num_rows, batch_rows):
         yield table.slice(start, batch_rows)
 
@@ -284,7 +302,7 @@ def _batches(ref: FileRef, batch_rows: int) -> Iterator[pa.RecordBatch]:
     if ref.format in ("json", "jsonl"):
         records = list(_json_records(ref))
         for start in range(0, len(records), batch_rows):
-            yield records_to_batch(records[start:start + batch_rows])
+            yield records_to_batch(records[start : start + batch_rows])
     elif ref.format in ("csv", "tsv"):
         for t in _csv_tables(ref, batch_rows):
             cols = [as_variant(c, text=True) for c in t.columns]
@@ -294,8 +312,9 @@ def _batches(ref: FileRef, batch_rows: int) -> Iterator[pa.RecordBatch]:
             yield pa.RecordBatch.from_arrays([as_variant(c) for c in rb.columns], names=rb.schema.names)
 
 
-def raw_batches(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str]], *,
-                batch_rows: int = 65_536) -> Iterator[RawBatch]:
+def raw_batches(
+    paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str]], *, batch_rows: int = 65_536
+) -> Iterator[RawBatch]:
     """Every file under paths (as the scan discovers them), batch by batch, as variants."""
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
     for ref in found.files:
@@ -306,6 +325,7 @@ def raw_batches(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str]
 
 
 # -- JSON values ----------------------------------------------------------------------------
+
 
 def cell_value(cell: str) -> Any:
     """A CSV cell as the scan reads it: by its content class (observe.TEXT_CLASS_TYPE).
@@ -416,8 +436,9 @@ def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str
                     row += 1
         else:
             table = pq.read_table(ref.path)
-            table = pa.table({n: jsonable(c.combine_chunks()) for n, c in zip(table.column_names, table.columns,
-                                                                              strict=True)})
+            table = pa.table(
+                {n: jsonable(c.combine_chunks()) for n, c in zip(table.column_names, table.columns, strict=True)}
+            )
             # Maps as JSON objects (their keys), as a JSON producer would write them.
             for row, rec in enumerate(table.to_pylist(maps_as_pydicts="lossy")):
                 yield ref.rel, row, json_value(rec)

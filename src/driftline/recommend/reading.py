@@ -110,8 +110,9 @@ def _number_type(f: Facts, opts: RecommendOptions, floats: bool) -> tuple[DType,
         return INT64, ""
     if not has_decimal and not floats and p <= 76:
         # zero_padded strings of 19 digits and more: their zeros count, so int64 may not hold them.
-        return DType("decimal", precision=p, scale=0), \
-            f"decimal({p},0): zero_padded strings of {i} digits may not fit int64"
+        return DType(
+            "decimal", precision=p, scale=0
+        ), f"decimal({p},0): zero_padded strings of {i} digits may not fit int64"
     dec = DType("decimal", precision=p, scale=s)
     if floats:
         why = "float64: the field also holds floats, whose decimal digits the scan does not count"
@@ -129,17 +130,27 @@ def _forms(f: Facts, opts: RecommendOptions) -> tuple[list[Form], list[str]]:
     notes: list[str] = []
     typed = [Form("typed", k, n, parse_key(k)) for k, n in f.kinds.items() if k != "string" and n]
     floats = any(t.dtype is not None and t.dtype.name.startswith("float") for t in typed) or any(
-        f.strings.get(c) or f.cells.get(c) for c in FLOAT_CLASSES)
+        f.strings.get(c) or f.cells.get(c) for c in FLOAT_CLASSES
+    )
     number, why = _number_type(f, opts, floats)
     if why:
         notes.append(why)
     zoned = DType("timestamp", unit=opts.timestamp_unit, tz=opts.timestamp_zone)
     local = DType("timestamp", unit=opts.timestamp_unit)
     by_class: dict[str, DType | None] = {
-        "boolean": BOOL, "integer": number, "decimal": number, "float": FLOAT64, "float_out_of_range": FLOAT64,
-        PADDED: number if opts.leading_zeros == "parse" else STRING, "date": DATE32,
-        "timestamp_rfc3339": zoned, "timestamp_offset": zoned, "timestamp_local": local,
-        "text": STRING, "empty": None, "null_token": None if opts.null_tokens != "never" else STRING,
+        "boolean": BOOL,
+        "integer": number,
+        "decimal": number,
+        "float": FLOAT64,
+        "float_out_of_range": FLOAT64,
+        PADDED: number if opts.leading_zeros == "parse" else STRING,
+        "date": DATE32,
+        "timestamp_rfc3339": zoned,
+        "timestamp_offset": zoned,
+        "timestamp_local": local,
+        "text": STRING,
+        "empty": None,
+        "null_token": None if opts.null_tokens != "never" else STRING,
     }
     quoted_numbers = opts.parse_strings == "always" or _has_real(f, "numeric", opts)
     quoted_bools = opts.parse_strings == "always" or _has_real(f, "bool", opts)
@@ -149,22 +160,31 @@ def _forms(f: Facts, opts: RecommendOptions) -> tuple[list[Form], list[str]]:
             if not n or source == "text" and cls == "empty":
                 continue
             t = by_class[cls]
-            if source == "string" and ((cls in NUMBER_CLASSES or cls == PADDED) and not quoted_numbers
-                                       or cls == "boolean" and not quoted_bools):
+            if source == "string" and (
+                (cls in NUMBER_CLASSES or cls == PADDED) and not quoted_numbers or cls == "boolean" and not quoted_bools
+            ):
                 t = STRING
             out.append(Form(source, cls, n, t))  # type: ignore[arg-type]
-    kept = any(f.strings.get(c) for c in NUMBER_CLASSES) and not quoted_numbers or \
-        bool(f.strings.get("boolean")) and not quoted_bools
+    kept = (
+        any(f.strings.get(c) for c in NUMBER_CLASSES)
+        and not quoted_numbers
+        or bool(f.strings.get("boolean"))
+        and not quoted_bools
+    )
     if kept:
-        notes.append("strings that read as numbers or booleans are kept: the field holds no real ones "
-                     "(parse_strings = \"always\" parses them)")
+        notes.append(
+            "strings that read as numbers or booleans are kept: the field holds no real ones "
+            '(parse_strings = "always" parses them)'
+        )
     return out, notes
 
 
 def _zeros_note(n: int) -> str:
     values = "1 value has" if n == 1 else f"{n:,} values have"
-    return (f"{values} leading zeros (zero_padded, like ZIP or FIPS codes) that a number would drop, so "
-            "the field stays text (leading_zeros = \"parse\" reads them as numbers)")
+    return (
+        f"{values} leading zeros (zero_padded, like ZIP or FIPS codes) that a number would drop, so "
+        'the field stays text (leading_zeros = "parse" reads them as numbers)'
+    )
 
 
 def _join_time(types: list[DType], opts: RecommendOptions) -> DType:
@@ -195,14 +215,19 @@ def _target(forms: list[Form], f: Facts, opts: RecommendOptions) -> tuple[DType,
         lost = sum(x.count for x in rest)
         share = lost / f.values if f.values else 1.0
         if all(x.source != "typed" for x in rest) and share <= opts.max_null_share:
-            notes.append(f"{lost:,} strings that are not {core} become null: {share:.1%} of the values, "
-                         f"within max_null_share = {opts.max_null_share:g}")
+            notes.append(
+                f"{lost:,} strings that are not {core} become null: {share:.1%} of the values, "
+                f"within max_null_share = {opts.max_null_share:g}"
+            )
         elif all(x.key == PADDED for x in rest):
             notes.append(_zeros_note(lost))
             return STRING, [], notes
         else:
-            why = "typed values of other kinds" if any(x.source == "typed" for x in rest) else \
-                f"{lost:,} strings ({share:.1%}) that do not parse, above max_null_share = {opts.max_null_share:g}"
+            why = (
+                "typed values of other kinds"
+                if any(x.source == "typed" for x in rest)
+                else f"{lost:,} strings ({share:.1%}) that do not parse, above max_null_share = {opts.max_null_share:g}"
+            )
             notes.append(f"kept as text: {' and '.join(sorted(groups))} values meet in this field, with {why}")
             return STRING, [], notes
     elif rest:
@@ -216,8 +241,7 @@ def _accept(target: DType, forms: list[Form]) -> frozenset[str]:
     if target == STRING or target.name == "null":
         return frozenset()
     g = _group(target)
-    return frozenset(x.key for x in forms if x.source != "typed" and x.dtype is not None
-                     and _group(x.dtype) == g)
+    return frozenset(x.key for x in forms if x.source != "typed" and x.dtype is not None and _group(x.dtype) == g)
 
 
 def read_scalar(f: Facts, opts: RecommendOptions) -> Reading:
@@ -242,8 +266,14 @@ def read_scalar(f: Facts, opts: RecommendOptions) -> Reading:
         "text": "keep" if opts.null_tokens == "never" else "null",
     }
     return Reading(
-        facts=f, target=target, forms=tuple(forms), accept=_accept(target, forms), tokens=tokens,
-        empty="keep" if is_string else "null", unparsed=tuple(unparsed), notes=tuple(notes),
+        facts=f,
+        target=target,
+        forms=tuple(forms),
+        accept=_accept(target, forms),
+        tokens=tokens,
+        empty="keep" if is_string else "null",
+        unparsed=tuple(unparsed),
+        notes=tuple(notes),
     )
 
 
@@ -257,4 +287,3 @@ def timestamp_formats(r: Reading) -> dict[str, int]:
         if x.source == "typed" and x.dtype is not None and _group(x.dtype) == "time":
             out[f"typed {x.key}"] = x.count
     return out
-

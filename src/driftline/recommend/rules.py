@@ -73,6 +73,7 @@ Rule = Callable[[Facts, Context], FieldPlan | None]
 
 # -- shared helpers -------------------------------------------------------------------------
 
+
 def _nested(f: Facts) -> set[str]:
     return set(f.kinds) & NESTED
 
@@ -82,8 +83,9 @@ def _observed(f: Facts) -> dict[str, object]:
     classes = {side: dict(c) for side, c in (("string", f.strings), ("text", f.cells)) if c}
     if classes:
         out["classes"] = classes
-        out["max_length"] = {side: st.max_length for side, st in (("string", f.typed), ("text", f.text))
-                             if side in classes}
+        out["max_length"] = {
+            side: st.max_length for side, st in (("string", f.typed), ("text", f.text)) if side in classes
+        }
     leap = f.typed.leap_seconds + f.text.leap_seconds
     if leap:
         out["leap_seconds"] = leap
@@ -115,8 +117,13 @@ def parse_rule_name(t: DType) -> str:
         return "parse_integer"
     if n.startswith("float"):
         return "parse_float"
-    return {"decimal": "parse_decimal", "bool": "parse_boolean", "date32": "parse_date",
-            "date64": "parse_date", "timestamp": "parse_timestamp"}.get(n, "parse_" + n)
+    return {
+        "decimal": "parse_decimal",
+        "bool": "parse_boolean",
+        "date32": "parse_date",
+        "date64": "parse_date",
+        "timestamp": "parse_timestamp",
+    }.get(n, "parse_" + n)
 
 
 def parquet_decimal_storage(precision: int) -> str:
@@ -138,17 +145,27 @@ def _params(r: Reading, t: DType) -> dict[str, object]:
     return out
 
 
-def _scalar_plan(f: Facts, ctx: Context, rule: str, does: str, why: str,
-                 alternatives: tuple[Alternative, ...] = ()) -> FieldPlan:
+def _scalar_plan(
+    f: Facts, ctx: Context, rule: str, does: str, why: str, alternatives: tuple[Alternative, ...] = ()
+) -> FieldPlan:
     r, effects = ctx.reading(f)
     target = target_nullable(r.target, f.summary.nullable, effects)
     notes = "; ".join(r.notes)
     return FieldPlan(
-        path=f.path, name=f.name, target=target, rule=rule, does=does,
+        path=f.path,
+        name=f.name,
+        target=target,
+        rule=rule,
+        does=does,
         why=why + (f"; {notes}" if notes and notes not in why else ""),
-        inputs=_inputs(f), effects=effects, params=_params(r, target), alternatives=alternatives,
-        required=f.summary.absent == 0, max_chars=value_chars(f) if target.name == "string" else None,
-        input_chars=value_chars(f), observed=_observed(f),
+        inputs=_inputs(f),
+        effects=effects,
+        params=_params(r, target),
+        alternatives=alternatives,
+        required=f.summary.absent == 0,
+        max_chars=value_chars(f) if target.name == "string" else None,
+        input_chars=value_chars(f),
+        observed=_observed(f),
     )
 
 
@@ -160,8 +177,10 @@ def _lossy_alternatives(f: Facts, ctx: Context) -> tuple[Alternative, ...]:
     """Typed targets a string field would get at the price of nulls, with parse_strings, or by
     dropping leading zeros."""
     out = []
-    changes: list[tuple[dict[str, object], str]] = [(dict(max_null_share=1.0), "max_null_share"),
-                                                    (dict(parse_strings="always"), "")]
+    changes: list[tuple[dict[str, object], str]] = [
+        (dict(max_null_share=1.0), "max_null_share"),
+        (dict(parse_strings="always"), ""),
+    ]
     padded = f.strings.get(PADDED, 0) + f.cells.get(PADDED, 0)
     if padded and ctx.opts.leading_zeros == "keep":
         zeros: dict[str, object] = dict(leading_zeros="parse")
@@ -175,11 +194,14 @@ def _lossy_alternatives(f: Facts, ctx: Context) -> tuple[Alternative, ...]:
         lost = sum(x.count for x in alt.unparsed)
         share = lost / f.values if f.values else 0.0
         if note == "leading_zeros":
-            both = " and parse_strings = \"always\"" if "parse_strings" in change else ""
-            text = f"drops the leading zeros of {padded:,} values; leading_zeros = \"parse\"{both} chooses it"
+            both = ' and parse_strings = "always"' if "parse_strings" in change else ""
+            text = f'drops the leading zeros of {padded:,} values; leading_zeros = "parse"{both} chooses it'
         else:
-            text = (f"would null {lost:,} strings ({share:.1%}) that do not parse; max_null_share >= {share:.4g} "
-                    "chooses it" if note else "parse_strings = \"always\" parses these strings")
+            text = (
+                f"would null {lost:,} strings ({share:.1%}) that do not parse; max_null_share >= {share:.4g} chooses it"
+                if note
+                else 'parse_strings = "always" parses these strings'
+            )
         if lost and note != "max_null_share":
             continue
         out.append(Alternative(parse_rule_name(alt.target), alt.target.key(), text))
@@ -187,6 +209,7 @@ def _lossy_alternatives(f: Facts, ctx: Context) -> tuple[Alternative, ...]:
 
 
 # -- scalar rules ---------------------------------------------------------------------------
+
 
 def identity(f: Facts, ctx: Context) -> FieldPlan | None:
     """Nothing to cast: every value already has the target type (or nested parts plan themselves)."""
@@ -198,8 +221,9 @@ def identity(f: Facts, ctx: Context) -> FieldPlan | None:
             children = _children(f, ctx)
             if any(not c.required for c in children) and f.summary.stats.types.get("struct"):
                 return None  # fields come and go: merge_struct
-            return _struct(f, ctx, "identity", children, "keeps each object as a struct",
-                           "every object holds the same fields")
+            return _struct(
+                f, ctx, "identity", children, "keeps each object as a struct", "every object holds the same fields"
+            )
         if nested == {"list"}:
             return _list(f, ctx, "identity", "keeps each list", "every value is a list")
         return _map(f, ctx)
@@ -212,8 +236,9 @@ def identity(f: Facts, ctx: Context) -> FieldPlan | None:
         return None
     kind = "text" if r.target == STRING else r.target.key()
     why = f"every value is already {kind}" if f.values else "only nulls were seen, so the type is null"
-    return _scalar_plan(f, ctx, "identity", "keeps every value as it is", why,
-                        _lossy_alternatives(f, ctx) if r.target == STRING else ())
+    return _scalar_plan(
+        f, ctx, "identity", "keeps every value as it is", why, _lossy_alternatives(f, ctx) if r.target == STRING else ()
+    )
 
 
 def format_as_string(f: Facts, ctx: Context) -> FieldPlan | None:
@@ -224,9 +249,14 @@ def format_as_string(f: Facts, ctx: Context) -> FieldPlan | None:
     typed = [x.key for x in r.forms if x.source == "typed"]
     if r.target != STRING or not typed:
         return None
-    return _scalar_plan(f, ctx, "format_as_string",
-                        f"keeps strings and writes {', '.join(typed)} values as their text",
-                        f"the field holds {describe_inputs(_inputs(f))}", _lossy_alternatives(f, ctx))
+    return _scalar_plan(
+        f,
+        ctx,
+        "format_as_string",
+        f"keeps strings and writes {', '.join(typed)} values as their text",
+        f"the field holds {describe_inputs(_inputs(f))}",
+        _lossy_alternatives(f, ctx),
+    )
 
 
 def _parse(name: str) -> Rule:
@@ -252,8 +282,9 @@ def _parse(name: str) -> Rule:
         if name == "parse_float" and not ctx.opts.prefer_decimal:
             dec = read_scalar(f, ctx.opts.replace(prefer_decimal=True))
             if dec.target.name == "decimal":
-                alts = (Alternative("parse_decimal", dec.target.key(),
-                                    "exact decimals; prefer_decimal = true chooses it"),)
+                alts = (
+                    Alternative("parse_decimal", dec.target.key(), "exact decimals; prefer_decimal = true chooses it"),
+                )
         return _scalar_plan(f, ctx, name, does, why, alts)
 
     rule.__name__ = rule.__qualname__ = name
@@ -276,9 +307,14 @@ def map_null_tokens(f: Facts, ctx: Context) -> FieldPlan | None:
     r, effects = ctx.reading(f)
     if not any(e.cause in ("null_token", "empty") and e.count for e in effects) or r.parsed or r.unparsed:
         return None
-    return _scalar_plan(f, ctx, "map_null_tokens",
-                        f"turns null tokens ({TOKENS_SHOWN}) into null and keeps every other value",
-                        f"the field holds {describe_inputs(_inputs(f))}", _lossy_alternatives(f, ctx))
+    return _scalar_plan(
+        f,
+        ctx,
+        "map_null_tokens",
+        f"turns null tokens ({TOKENS_SHOWN}) into null and keeps every other value",
+        f"the field holds {describe_inputs(_inputs(f))}",
+        _lossy_alternatives(f, ctx),
+    )
 
 
 def _widen(name: str, families: tuple[str, ...]) -> Rule:
@@ -293,9 +329,14 @@ def _widen(name: str, families: tuple[str, ...]) -> Rule:
         unsafe = next((e for e in effects if e.cause == "unsafe_int"), None)
         if unsafe is not None:
             alts = _exact_integer_alternatives(kinds, unsafe.count)
-        return _scalar_plan(f, ctx, name, f"widens {', '.join(kinds)} to {r.target.key()}",
-                            f"the field holds {describe_inputs(_inputs(f))}; {r.target.key()} holds them all",
-                            alts)
+        return _scalar_plan(
+            f,
+            ctx,
+            name,
+            f"widens {', '.join(kinds)} to {r.target.key()}",
+            f"the field holds {describe_inputs(_inputs(f))}; {r.target.key()} holds them all",
+            alts,
+        )
 
     rule.__name__ = rule.__qualname__ = name
     rule.__doc__ = f"Typed values of several {families[0]} types, widened to the narrowest type holding all."
@@ -306,16 +347,29 @@ def _exact_integer_alternatives(kinds: list[str], unsafe: int) -> tuple[Alternat
     """What keeps large integers exact instead of float64: int64 while they all fit it; else a
     decimal with room for the longest integer literal (and 18 places), or their digits as text."""
     wide = [k for k in kinds if k == "uint64" or k.startswith("decimal(") and is_int_key(k)]
-    digits = max([20, *(int(k[len("decimal("):k.index(",")]) for k in wide if k != "uint64")])
+    digits = max([20, *(int(k[len("decimal(") : k.index(",")]) for k in wide if k != "uint64")])
     places = min(18, 76 - digits)
-    decimal = Alternative("widen_numeric", f"decimal({digits + places},{places})", f"holds every integer up to "
-                          f"{digits} digits and floats to {places} places; floats are binary fractions, so most "
-                          "are rounded")
+    decimal = Alternative(
+        "widen_numeric",
+        f"decimal({digits + places},{places})",
+        f"holds every integer up to "
+        f"{digits} digits and floats to {places} places; floats are binary fractions, so most "
+        "are rounded",
+    )
     if not wide:
-        return (Alternative("widen_numeric", "int64", f"keeps the {unsafe:,} large integers exact; float values "
-                            "lose their fraction (the scan does not count how many have one)"), decimal)
-    return (decimal, Alternative("keep_as_json_text", "string", f"keeps the {unsafe:,} large integers exactly, "
-                                 "as their digits"))
+        return (
+            Alternative(
+                "widen_numeric",
+                "int64",
+                f"keeps the {unsafe:,} large integers exact; float values "
+                "lose their fraction (the scan does not count how many have one)",
+            ),
+            decimal,
+        )
+    return (
+        decimal,
+        Alternative("keep_as_json_text", "string", f"keeps the {unsafe:,} large integers exactly, as their digits"),
+    )
 
 
 widen_numeric = _widen("widen_numeric", ("numeric",))
@@ -324,17 +378,27 @@ widen_temporal = _widen("widen_temporal", ("local-time", "instant"))
 
 # -- nested rules ---------------------------------------------------------------------------
 
+
 def _children(f: Facts, ctx: Context) -> tuple[FieldPlan, ...]:
     planned = (ctx.plan(ctx.tree[p]) for p in f.children if paths.parent(p)[1] == "field")
     return tuple(sorted((p for p in planned if p is not None), key=lambda p: p.name))
 
 
-def _struct(f: Facts, ctx: Context, rule: str, children: tuple[FieldPlan, ...], does: str,
-            why: str) -> FieldPlan:
+def _struct(f: Facts, ctx: Context, rule: str, children: tuple[FieldPlan, ...], does: str, why: str) -> FieldPlan:
     target = DType("struct", fields=tuple((c.name, c.target) for c in children))
-    return FieldPlan(path=f.path, name=f.name, target=target.with_nullable(f.summary.nullable),
-                     rule=rule, does=does, why=why, inputs=_inputs(f), children=children,
-                     required=f.summary.absent == 0, input_chars=json_chars(ctx.tree, f), observed=_observed(f))
+    return FieldPlan(
+        path=f.path,
+        name=f.name,
+        target=target.with_nullable(f.summary.nullable),
+        rule=rule,
+        does=does,
+        why=why,
+        inputs=_inputs(f),
+        children=children,
+        required=f.summary.absent == 0,
+        input_chars=json_chars(ctx.tree, f),
+        observed=_observed(f),
+    )
 
 
 def merge_struct(f: Facts, ctx: Context) -> FieldPlan | None:
@@ -345,29 +409,58 @@ def merge_struct(f: Facts, ctx: Context) -> FieldPlan | None:
     sometimes = [c.name for c in children if not c.required]
     if not sometimes:
         return None
-    return _struct(f, ctx, "merge_struct", children,
-                   "merges the objects into one struct with the union of their fields; a field an "
-                   "object lacks is null there",
-                   f"{len(sometimes)} of {len(children)} fields appear in only some objects "
-                   f"({', '.join(sometimes[:5])}{', …' if len(sometimes) > 5 else ''})")
+    return _struct(
+        f,
+        ctx,
+        "merge_struct",
+        children,
+        "merges the objects into one struct with the union of their fields; a field an object lacks is null there",
+        f"{len(sometimes)} of {len(children)} fields appear in only some objects "
+        f"({', '.join(sometimes[:5])}{', …' if len(sometimes) > 5 else ''})",
+    )
 
 
-def _list(f: Facts, ctx: Context, rule: str, does: str, why: str, item: FieldPlan | None = None,
-          effects: tuple[Effect, ...] = (), params: dict[str, object] | None = None) -> FieldPlan:
+def _list(
+    f: Facts,
+    ctx: Context,
+    rule: str,
+    does: str,
+    why: str,
+    item: FieldPlan | None = None,
+    effects: tuple[Effect, ...] = (),
+    params: dict[str, object] | None = None,
+) -> FieldPlan:
     if item is None:
         item = ctx.plan(ctx.tree[paths.element(f.path)]) if paths.element(f.path) in ctx.tree.facts else None
     if item is None:
         item = _null_item(f)
     target = DType("list", item=item.target)
-    return FieldPlan(path=f.path, name=f.name, target=target_nullable(target, f.summary.nullable, effects),
-                     rule=rule, does=does, why=why, inputs=_inputs(f), effects=effects,
-                     params=params or {}, children=(item,), required=f.summary.absent == 0,
-                     input_chars=json_chars(ctx.tree, f), observed=_observed(f))
+    return FieldPlan(
+        path=f.path,
+        name=f.name,
+        target=target_nullable(target, f.summary.nullable, effects),
+        rule=rule,
+        does=does,
+        why=why,
+        inputs=_inputs(f),
+        effects=effects,
+        params=params or {},
+        children=(item,),
+        required=f.summary.absent == 0,
+        input_chars=json_chars(ctx.tree, f),
+        observed=_observed(f),
+    )
 
 
 def _null_item(f: Facts) -> FieldPlan:
-    return FieldPlan(path=paths.element(f.path), name="item", target=DType("null"), rule="identity",
-                     does="keeps every value as it is", why="no element was ever seen")
+    return FieldPlan(
+        path=paths.element(f.path),
+        name="item",
+        target=DType("null"),
+        rule="identity",
+        does="keeps every value as it is",
+        why="no element was ever seen",
+    )
 
 
 def _map(f: Facts, ctx: Context) -> FieldPlan:
@@ -377,10 +470,18 @@ def _map(f: Facts, ctx: Context) -> FieldPlan:
     if key.target.name == "null":  # maps that were always empty: Arrow keys cannot be null-typed
         key = dataclasses.replace(key, target=STRING, why="no key was ever seen; string holds any")
     target = DType("map", fields=(("key", key.target.with_nullable(False)), ("value", value.target)))
-    return FieldPlan(path=f.path, name=f.name, target=target.with_nullable(f.summary.nullable),
-                     rule="identity", does="keeps each map", why="every value is a map",
-                     inputs=_inputs(f), children=(key, value), required=f.summary.absent == 0,
-                     input_chars=json_chars(ctx.tree, f))
+    return FieldPlan(
+        path=f.path,
+        name=f.name,
+        target=target.with_nullable(f.summary.nullable),
+        rule="identity",
+        does="keeps each map",
+        why="every value is a map",
+        inputs=_inputs(f),
+        children=(key, value),
+        required=f.summary.absent == 0,
+        input_chars=json_chars(ctx.tree, f),
+    )
 
 
 def _without(st: FieldStats, drop: set[str]) -> FieldStats:
@@ -391,8 +492,11 @@ def _without(st: FieldStats, drop: set[str]) -> FieldStats:
         types["string"] -= sum(n for c, n in st.classes.items() if c in drop)
         if types["string"] <= 0:
             del types["string"]
-    samples = {k: v for k, v in st.samples.items()
-               if k[len("type:"):] not in NESTED and k[len("class:"):] not in drop and k != "null"}
+    samples = {
+        k: v
+        for k, v in st.samples.items()
+        if k[len("type:") :] not in NESTED and k[len("class:") :] not in drop and k != "null"
+    }
     return dataclasses.replace(st, types=types, classes=classes, samples=samples, nulls=0, items=0)
 
 
@@ -406,18 +510,21 @@ def wrap_scalar_in_list(f: Facts, ctx: Context) -> FieldPlan | None:
     item_facts = ctx.tree.facts.get(item_path) or Facts(item_path, "item", f.summary)
     if _nested(item_facts):
         return None  # elements are lists, structs or maps: a scalar is not one of them
-    merged = dataclasses.replace(item_facts, typed=item_facts.typed.merge(_without(f.typed, set())),
-                                 text=f.text)
+    merged = dataclasses.replace(item_facts, typed=item_facts.typed.merge(_without(f.typed, set())), text=f.text)
     r, _ = ctx.reading(merged)  # the item type decides which scalars are nulls
     typed_drop = {c for c, on in (("null_token", r.tokens["string"] == "null"), ("empty", r.empty == "null")) if on}
     text_drop = {"null_token"} if r.tokens["text"] == "null" else set()
-    merged = dataclasses.replace(item_facts, typed=item_facts.typed.merge(_without(f.typed, typed_drop)),
-                                 text=_without(f.text, text_drop | {"empty"}))
+    merged = dataclasses.replace(
+        item_facts,
+        typed=item_facts.typed.merge(_without(f.typed, typed_drop)),
+        text=_without(f.text, text_drop | {"empty"}),
+    )
     item = ctx.plan(merged)
     assert item is not None
     effects: list[Effect] = []
-    tokens = (f.strings.get("null_token", 0) if "null_token" in typed_drop else 0) + \
-        (f.cells.get("null_token", 0) if text_drop else 0)
+    tokens = (f.strings.get("null_token", 0) if "null_token" in typed_drop else 0) + (
+        f.cells.get("null_token", 0) if text_drop else 0
+    )
     if tokens:
         effects.append(Effect("null", "null_token", tokens, f.samples("class:null_token")))
     if "empty" in typed_drop and f.strings.get("empty"):
@@ -426,10 +533,16 @@ def wrap_scalar_in_list(f: Facts, ctx: Context) -> FieldPlan | None:
     wrapped = sum(f.kinds[k] for k in scalars) + f.text_values - nulled
     keys = [*("type:" + k for k in scalars), *("class:" + c for c in f.cells if c not in ("empty", *text_drop))]
     effects.append(Effect("change", "wrapped", wrapped, f.samples(*keys)))
-    return _list(f, ctx, "wrap_scalar_in_list",
-                 "turns each scalar into a one-element list and keeps the lists",
-                 f"the field holds {describe_inputs(_inputs(f))}; the scalars fit the list's elements",
-                 item, tuple(effects), {"tokens": dict(r.tokens), "empty": r.empty})
+    return _list(
+        f,
+        ctx,
+        "wrap_scalar_in_list",
+        "turns each scalar into a one-element list and keeps the lists",
+        f"the field holds {describe_inputs(_inputs(f))}; the scalars fit the list's elements",
+        item,
+        tuple(effects),
+        {"tokens": dict(r.tokens), "empty": r.empty},
+    )
 
 
 def keep_as_json_text(f: Facts, ctx: Context) -> FieldPlan:
@@ -441,17 +554,32 @@ def keep_as_json_text(f: Facts, ctx: Context) -> FieldPlan:
         effects.append(Effect("null", "null_token", tokens, f.samples("class:null_token", text=True)))
     n = f.typed.nonnull + f.text_values - tokens
     keys = [*("type:" + k for k in f.kinds), *("class:" + c for c in f.cells)]
-    effects.append(Effect("change", "as_json_text", n, f.samples(*keys), True,
-                          "the last resort: these kinds cannot be reconciled in one type"))
+    effects.append(
+        Effect(
+            "change",
+            "as_json_text",
+            n,
+            f.samples(*keys),
+            True,
+            "the last resort: these kinds cannot be reconciled in one type",
+        )
+    )
     target = target_nullable(STRING, f.summary.nullable, tuple(effects))
-    return FieldPlan(path=f.path, name=f.name, target=target, rule="keep_as_json_text",
-                     does="last resort: writes every value as its JSON text (strings quoted)",
-                     why=f"the field holds {describe_inputs(inputs)}, which no single type holds",
-                     inputs=inputs, effects=tuple(effects),
-                     params={"tokens": {"string": "keep",
-                                        "text": "keep" if ctx.opts.null_tokens == "never" else "null"}},
-                     required=f.summary.absent == 0, max_chars=json_chars(ctx.tree, f),
-                     input_chars=json_chars(ctx.tree, f), observed=_observed(f))
+    return FieldPlan(
+        path=f.path,
+        name=f.name,
+        target=target,
+        rule="keep_as_json_text",
+        does="last resort: writes every value as its JSON text (strings quoted)",
+        why=f"the field holds {describe_inputs(inputs)}, which no single type holds",
+        inputs=inputs,
+        effects=tuple(effects),
+        params={"tokens": {"string": "keep", "text": "keep" if ctx.opts.null_tokens == "never" else "null"}},
+        required=f.summary.absent == 0,
+        max_chars=json_chars(ctx.tree, f),
+        input_chars=json_chars(ctx.tree, f),
+        observed=_observed(f),
+    )
 
 
 REGISTRY: dict[str, Rule] = {

@@ -74,8 +74,15 @@ class ReadOptions:
     encoding: str | None = None
 
     def __post_init__(self) -> None:
-        for name in ("batch_rows", "batch_bytes", "max_record_bytes", "max_decompressed_bytes",
-                     "max_decompression_ratio", "max_columns", "max_paths"):
+        for name in (
+            "batch_rows",
+            "batch_bytes",
+            "max_record_bytes",
+            "max_decompressed_bytes",
+            "max_decompression_ratio",
+            "max_columns",
+            "max_paths",
+        ):
             check(name, getattr(self, name))
         if self.encoding is not None:
             from driftline.sources.encoding import codec_name
@@ -88,8 +95,10 @@ class ReadOptions:
             try:
                 delimiter = parse_pin(f"delimiter={_typed(self.delimiter)}").delimiter
             except PolicyError:
-                raise PolicyError(f"--delimiter {self.delimiter!r}: give one punctuation character or a name "
-                                  "(comma, tab, semicolon, pipe, colon, caret, tilde, space)") from None
+                raise PolicyError(
+                    f"--delimiter {self.delimiter!r}: give one punctuation character or a name "
+                    "(comma, tab, semicolon, pipe, colon, caret, tilde, space)"
+                ) from None
             object.__setattr__(self, "delimiter", delimiter)
 
 

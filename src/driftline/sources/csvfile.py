@@ -64,15 +64,17 @@ class LineGuard(io.RawIOBase):
     text strictly first), and then gives up on the whole file.
     """
 
-    def __init__(self, inner: BinaryIO, limit: int, prefix: bytes = b"", cr: bool = False,
-                 comment: str | None = None) -> None:
+    def __init__(
+        self, inner: BinaryIO, limit: int, prefix: bytes = b"", cr: bool = False, comment: str | None = None
+    ) -> None:
         self._inner, self._limit = inner, limit
         self._prefix = prefix  # bytes already taken from inner (the dialect finder's sample)
         self._cr = cr  # CR-only line ends: each CR becomes LF, byte for byte, so offsets and lines stay exact
         # comment lines lose their content (not their newline): Arrow skips them as blank lines,
         # and their numbers let CsvState keep row lines exact
-        self._comment = None if comment is None else re.compile(
-            rb"(?m)^[ \t]*" + re.escape(comment.encode()) + rb"[^\n]*")
+        self._comment = (
+            None if comment is None else re.compile(rb"(?m)^[ \t]*" + re.escape(comment.encode()) + rb"[^\n]*")
+        )
         self.comment_lines: deque[int] = deque()  # line numbers of comment lines not yet passed by the rows
         self.comments = 0
         self.first_comment: int | None = None
@@ -169,8 +171,10 @@ class LineGuard(io.RawIOBase):
         return chunk.replace(b"\r", b"\n") if self._cr else chunk
 
     def take_issues(self, rel: str) -> list[FileIssue]:
-        out = [FileIssue(rel, "invalid-utf8", "invalid UTF-8 on this line; read with U+FFFD", line=line, byte_offset=at)
-               for line, at in self.bad_utf8]
+        out = [
+            FileIssue(rel, "invalid-utf8", "invalid UTF-8 on this line; read with U+FFFD", line=line, byte_offset=at)
+            for line, at in self.bad_utf8
+        ]
         self.bad_utf8.clear()
         return out
 
@@ -236,12 +240,19 @@ def read_header(stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool) -> Ite
         return
     bom = sample.startswith(_BOM)
     if bom:
-        yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning",
-                        line=1, byte_offset=0)
-    text = sample[len(_BOM):] if bom else sample
+        yield FileIssue(
+            rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0
+        )
+    text = sample[len(_BOM) :] if bom else sample
     if not at_end and b"\n" not in text and b"\r" not in text:  # the first line alone passes the limit
-        yield FileIssue(rel, "too-large", f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
-                        "it and the rest of the file were not profiled", line=1, byte_offset=0)
+        yield FileIssue(
+            rel,
+            "too-large",
+            f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
+            "it and the rest of the file were not profiled",
+            line=1,
+            byte_offset=0,
+        )
         return
     finding = find_dialect(text, at_end=at_end, tsv=tsv, pin=pin_for(rel, opts.csv_dialects, opts.delimiter))
     d = finding.dialect
@@ -266,8 +277,13 @@ def read_header(stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool) -> Ite
         yield FileIssue(rel, "malformed-csv", "no header row could be read", line=1, byte_offset=0)
         return
     if len(names) > opts.max_columns:
-        yield FileIssue(rel, "too-wide", f"{len(names):,} columns, more than {opts.max_columns:,} (--max-columns); "
-                        "file not profiled", line=d.skip + 1, byte_offset=0)
+        yield FileIssue(
+            rel,
+            "too-wide",
+            f"{len(names):,} columns, more than {opts.max_columns:,} (--max-columns); file not profiled",
+            line=d.skip + 1,
+            byte_offset=0,
+        )
         return
     yield Opened(guard, buffered, Header(d.delimiter, names, finding.start_lines, size, d.quote, d.escape, d))
 
@@ -289,41 +305,75 @@ def _dialect_notes(rel: str, sample: bytes, finding: Finding) -> Iterator[FileIs
     if d.line_end == "CRLF":
         yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=1, byte_offset=sample.find(b"\r\n"))
     elif d.line_end == "CR":
-        yield FileIssue(rel, "cr", "CR-only line ends (as old spreadsheet exports write them); read as LF", "warning",
-                        line=1, byte_offset=sample.find(b"\r"))
+        yield FileIssue(
+            rel,
+            "cr",
+            "CR-only line ends (as old spreadsheet exports write them); read as LF",
+            "warning",
+            line=1,
+            byte_offset=sample.find(b"\r"),
+        )
     if d.skip:
-        yield FileIssue(rel, "preamble", f"{d.skip:,} line{'s' if d.skip != 1 else ''} before the header skipped "
-                        "(comments, a title or notes)", "warning", line=1, byte_offset=0)
+        yield FileIssue(
+            rel,
+            "preamble",
+            f"{d.skip:,} line{'s' if d.skip != 1 else ''} before the header skipped (comments, a title or notes)",
+            "warning",
+            line=1,
+            byte_offset=0,
+        )
     if d.header == "no":
         why = "as pinned" if "header" in d.pinned else "the first row reads like the rows after it"
-        yield FileIssue(rel, "no-header", f"no header row ({why}); columns named {positional_name(0)} … "
-                        f"{positional_name(finding.width - 1)} by position", "warning", line=d.skip + 1)
+        yield FileIssue(
+            rel,
+            "no-header",
+            f"no header row ({why}); columns named {positional_name(0)} … "
+            f"{positional_name(finding.width - 1)} by position",
+            "warning",
+            line=d.skip + 1,
+        )
     elif d.header == "row-names":
-        yield FileIssue(rel, "row-names", f"the header has one name fewer than the rows: the first column holds row "
-                        f"names, read as {ROW_NAME_COLUMN!r}", "warning", line=d.skip + 1)
+        yield FileIssue(
+            rel,
+            "row-names",
+            f"the header has one name fewer than the rows: the first column holds row "
+            f"names, read as {ROW_NAME_COLUMN!r}",
+            "warning",
+            line=d.skip + 1,
+        )
     if finding.stray_quote:
-        yield FileIssue(rel, "stray-quote", "the header line opens a quote it never closes; the header was read as "
-                        "that one line", "warning", line=d.skip + 1)
+        yield FileIssue(
+            rel,
+            "stray-quote",
+            "the header line opens a quote it never closes; the header was read as that one line",
+            "warning",
+            line=d.skip + 1,
+        )
 
 
-def arrow_options(header: Header, block: int,
-                  on_invalid: Callable[[pcsv.InvalidRow], str]) -> dict[str, Any]:
+def arrow_options(header: Header, block: int, on_invalid: Callable[[pcsv.InvalidRow], str]) -> dict[str, Any]:
     """Arrow's CSV options for the rows after a header: binary cells, the dialect's quoting
     (newlines in quoted values), ragged rows handed to on_invalid."""
     names = list(header.names)
     quote = header.quote or False
     return {
         "read_options": pcsv.ReadOptions(use_threads=False, block_size=block, column_names=names, skip_rows=0),
-        "parse_options": pcsv.ParseOptions(delimiter=header.delimiter, quote_char=quote,
-                                           escape_char=header.escape or False,
-                                           newlines_in_values=quote is not False, invalid_row_handler=on_invalid),
-        "convert_options": pcsv.ConvertOptions(column_types=dict.fromkeys(names, pa.binary()),
-                                               strings_can_be_null=False, quoted_strings_can_be_null=False),
+        "parse_options": pcsv.ParseOptions(
+            delimiter=header.delimiter,
+            quote_char=quote,
+            escape_char=header.escape or False,
+            newlines_in_values=quote is not False,
+            invalid_row_handler=on_invalid,
+        ),
+        "convert_options": pcsv.ConvertOptions(
+            column_types=dict.fromkeys(names, pa.binary()), strings_can_be_null=False, quoted_strings_can_be_null=False
+        ),
     }
 
 
-def head_of(stream: BinaryIO, rel: str, opts: ReadOptions, *,
-            tsv: bool = False) -> tuple[list[FileIssue], Header | None]:
+def head_of(
+    stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
+) -> tuple[list[FileIssue], Header | None]:
     """What read_csv reports before the first row of stream, and the header (None when no
     rows can follow)."""
     issues: list[FileIssue] = []
@@ -353,8 +403,9 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     places = RowLines(rel, guard.tally, header_lines + 1, header.names)
 
     def on_invalid(row: pcsv.InvalidRow) -> str:
-        places.set_aside(row.number, row.text,
-                         f"expected {row.expected_columns} fields, found {row.actual_columns}; row skipped")
+        places.set_aside(
+            row.number, row.text, f"expected {row.expected_columns} fields, found {row.actual_columns}; row skipped"
+        )
         return "skip"
 
     state = CsvState(rel, opts, line=header_lines + 1, places=places)
@@ -403,8 +454,9 @@ def _ending(rel: str, opts: ReadOptions, guard: LineGuard) -> Iterator[FileIssue
     yield from guard.take_issues(rel)
     if guard.comments:
         n = guard.comments
-        yield FileIssue(rel, "comments", f"{n:,} comment line{'s' if n != 1 else ''} skipped", "warning",
-                        line=guard.first_comment)
+        yield FileIssue(
+            rel, "comments", f"{n:,} comment line{'s' if n != 1 else ''} skipped", "warning", line=guard.first_comment
+        )
     yield from guard.rest_issue(rel)
     if guard.cut is not None:
         yield _too_long(rel, opts, guard)
@@ -412,8 +464,14 @@ def _ending(rel: str, opts: ReadOptions, guard: LineGuard) -> Iterator[FileIssue
 
 def _too_long(rel: str, opts: ReadOptions, guard: LineGuard) -> FileIssue:
     line, offset = guard.cut or (1, 0)
-    return FileIssue(rel, "too-large", f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
-                     "it and the rest of the file were not profiled", line=line, byte_offset=offset)
+    return FileIssue(
+        rel,
+        "too-large",
+        f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
+        "it and the rest of the file were not profiled",
+        line=line,
+        byte_offset=offset,
+    )
 
 
 class Rebatch:
@@ -502,8 +560,16 @@ class CsvState:
     """Rows, batches and the line of the next row, from a given start (a file's first row, or
     a span's, see csvsplit)."""
 
-    def __init__(self, rel: str, opts: ReadOptions, line: int, rows: int = 0, batch: int = 0,
-                 comment_lines: deque[int] | None = None, places: RowLines | None = None) -> None:
+    def __init__(
+        self,
+        rel: str,
+        opts: ReadOptions,
+        line: int,
+        rows: int = 0,
+        batch: int = 0,
+        comment_lines: deque[int] | None = None,
+        places: RowLines | None = None,
+    ) -> None:
         self.rel, self.opts = rel, opts
         self.comment_lines = comment_lines  # lines skipped between rows (LineGuard fills it ahead of the rows)
         self.places = places  # when given, places each row on its line, blank and set-aside lines included
@@ -521,8 +587,15 @@ class CsvState:
         """
         text = pa.RecordBatch.from_arrays([c.view(pa.string()) for c in cells.columns], names=cells.schema.names)
         lines = self._lines(cells)
-        obs = observe_table(text, file=self.rel, batch=self.batch, row_start=self.rows, lines=lines,
-                            text_source=True, exact=self.opts.exact or None)
+        obs = observe_table(
+            text,
+            file=self.rel,
+            batch=self.batch,
+            row_start=self.rows,
+            lines=lines,
+            text_source=True,
+            exact=self.opts.exact or None,
+        )
         self.rows += cells.num_rows
         self.batch += 1
         return obs
@@ -552,7 +625,6 @@ class CsvState:
         starts = [self.line] + [self.line + e for e in ends[:-1]]
         self.line += ends[-1]
         return starts
-
 
     def _past_comments(self, steps: list[int]) -> list[int]:
         """Row lines when comment lines (emptied by LineGuard, skipped by Arrow) lie between rows."""

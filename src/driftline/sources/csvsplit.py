@@ -87,8 +87,14 @@ class SpanResult:
 
 
 def can_split(ref: FileRef, opts: ReadOptions) -> bool:
-    return (ref.format in FORMATS and ref.compression is None and not opts.exact and not exact_requested()
-            and SPLIT_MIN_BYTES <= ref.size <= opts.max_decompressed_bytes and os.path.isfile(ref.path))
+    return (
+        ref.format in FORMATS
+        and ref.compression is None
+        and not opts.exact
+        and not exact_requested()
+        and SPLIT_MIN_BYTES <= ref.size <= opts.max_decompressed_bytes
+        and os.path.isfile(ref.path)
+    )
 
 
 def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
@@ -114,9 +120,10 @@ def _plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
     if not cuts:  # None: too many quoted line breaks to plan cheaply
         return []
     starts = [(begin, head.header.lines + 1, 0), *cuts]
-    return [Span(ref, head, offset, starts[k + 1][0] if k + 1 < len(starts) else None, line, rows,
-                 rows // opts.batch_rows)
-            for k, (offset, line, rows) in enumerate(starts)]
+    return [
+        Span(ref, head, offset, starts[k + 1][0] if k + 1 < len(starts) else None, line, rows, rows // opts.batch_rows)
+        for k, (offset, line, rows) in enumerate(starts)
+    ]
 
 
 def _head(ref: FileRef, opts: ReadOptions) -> Head | None:
@@ -200,7 +207,7 @@ def _count(buf: bytearray, lo: int, hi: int, inside: bool, cap: int | None = Non
     if cap is not None and len(paired) - paired.count(b"\n") > cap:
         raise _TooDense
     parts = paired.split(b'"')
-    outside = b"".join(parts[1 if inside else 0::2]).count(b"\n")
+    outside = b"".join(parts[1 if inside else 0 :: 2]).count(b"\n")
     return rows + outside, rows + quoted + kept.count(b"\n"), inside ^ (len(parts) % 2 == 0)
 
 
@@ -318,7 +325,7 @@ def _utf8(data: bytearray, size: int) -> bool:
     view = memoryview(data)[:size]
     try:
         for at in range(0, size, _UTF8_STEP):
-            decoder.decode(view[at:at + _UTF8_STEP])
+            decoder.decode(view[at : at + _UTF8_STEP])
         decoder.decode(b"", final=True)
     except UnicodeDecodeError:
         return False
@@ -340,11 +347,21 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
     if not _joined(results) or file_changed(ref) is not None:
         return read_file(ref, opts)
     observations = tuple(o for res in results for o in res.observations)
-    return FileResult(rel=ref.rel, format=ref.format, compression=ref.compression, partitions=ref.partitions,
-                      size=ref.size, mtime_ns=ref.mtime_ns, rows=sum(o.rows for o in observations),
-                      observations=observations, issues=results[0].span.head.warnings, declared=None, complete=True,
-                      dialect=results[0].span.head.header.dialect,
-                      encoding=file_encoding(ref.path, ref.format, opts.encoding))
+    return FileResult(
+        rel=ref.rel,
+        format=ref.format,
+        compression=ref.compression,
+        partitions=ref.partitions,
+        size=ref.size,
+        mtime_ns=ref.mtime_ns,
+        rows=sum(o.rows for o in observations),
+        observations=observations,
+        issues=results[0].span.head.warnings,
+        declared=None,
+        complete=True,
+        dialect=results[0].span.head.header.dialect,
+        encoding=file_encoding(ref.path, ref.format, opts.encoding),
+    )
 
 
 def _joined(results: Sequence[SpanResult]) -> bool:
@@ -354,7 +371,11 @@ def _joined(results: Sequence[SpanResult]) -> bool:
         if k + 1 < len(results):
             after = results[k + 1].span
             if (res.span.end, res.span.rows + res.rows, res.next_line, res.span.batches + len(res.observations)) != (
-                    after.start, after.rows, after.lines, after.batches):
+                after.start,
+                after.rows,
+                after.lines,
+                after.batches,
+            ):
                 return False
     # no row at all: one reader gives the header's columns with no values
     return bool(results) and results[-1].span.end is None and any(r.observations for r in results)

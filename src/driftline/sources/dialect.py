@@ -96,14 +96,33 @@ class Dialect:
         return f"confidence {self.confidence:.2f}{pinned}"
 
     def to_json(self) -> dict[str, Any]:
-        return {"delimiter": self.delimiter, "quote": self.quote, "escape": self.escape, "line_end": self.line_end,
-                "header": self.header, "skip": self.skip, "confidence": self.confidence,
-                "rows_sampled": self.rows_sampled, "pinned": list(self.pinned), "comment": self.comment}
+        return {
+            "delimiter": self.delimiter,
+            "quote": self.quote,
+            "escape": self.escape,
+            "line_end": self.line_end,
+            "header": self.header,
+            "skip": self.skip,
+            "confidence": self.confidence,
+            "rows_sampled": self.rows_sampled,
+            "pinned": list(self.pinned),
+            "comment": self.comment,
+        }
 
     @staticmethod
     def from_json(d: Mapping[str, Any]) -> Dialect:
-        return Dialect(d["delimiter"], d.get("quote"), d.get("escape"), d["line_end"], d["header"], d.get("skip", 0),
-                       d.get("confidence", 1.0), d.get("rows_sampled", 0), tuple(d.get("pinned", ())), d.get("comment"))
+        return Dialect(
+            d["delimiter"],
+            d.get("quote"),
+            d.get("escape"),
+            d["line_end"],
+            d["header"],
+            d.get("skip", 0),
+            d.get("confidence", 1.0),
+            d.get("rows_sampled", 0),
+            tuple(d.get("pinned", ())),
+            d.get("comment"),
+        )
 
 
 def _show(delimiter: str) -> str:
@@ -111,6 +130,7 @@ def _show(delimiter: str) -> str:
 
 
 # -- the sample --------------------------------------------------------------------------------
+
 
 @dataclass(frozen=True, slots=True)
 class Finding:
@@ -162,7 +182,7 @@ def _counts(lines: Sequence[str], delimiter: str, quote: str | None, escape: str
 def _first_record(lines: Sequence[str], at: int, dialect: tuple[str, str | None, str | None]) -> tuple[list[str], int]:
     """The record starting at line `at` and the lines it spans (at least one).  A record is
     looked for in _HEAD_LINES lines at most: the cost stays bounded whatever quotes do."""
-    reader = _reader(iter(lines[at:at + _HEAD_LINES]), *dialect)
+    reader = _reader(iter(lines[at : at + _HEAD_LINES]), *dialect)
     try:
         rec: list[str] = next(reader, [])
     except csv.Error:
@@ -218,7 +238,7 @@ def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | 
             # an opening quote never closed (or closed far below): the header line alone, its
             # quotes taken as characters
             rec, span, stray = _alone(lines[start], (c.delimiter, None, c.escape)), 1, True
-        body = _without_comments(lines[start + span:])
+        body = _without_comments(lines[start + span :])
         counts = _counts(body, *c.key)
         width = Counter(counts).most_common(1)[0][0] if counts else len(rec)
         if width == guess or counts == []:
@@ -228,7 +248,7 @@ def _judge(c: _Candidate, lines: Sequence[str], skip: int | None, header: str | 
         rec = rec[:-1]  # a header line ending with the delimiter above rows that do not
     c.width, c.rows = width, len(counts)
     if len(body) < len(lines) - start - span:  # '#' lines: comments, unless as wide as the rows
-        hashed = [len(_alone(x, c.key)) for x in lines[start + span:] if _is_comment(x)]
+        hashed = [len(_alone(x, c.key)) for x in lines[start + span :] if _is_comment(x)]
         c.hash_rows = sum(1 for n in hashed if n == width)
         c.comments = len(hashed) - c.hash_rows
     # rows as wide as a longer header are explained too: rows short of trailing empty fields
@@ -255,8 +275,13 @@ def _alone(line: str, key: tuple[str, str | None, str | None]) -> list[str]:
         return []
 
 
-def _table_start(lines: Sequence[str], head: list[tuple[int, int]], width: int, header: str | None,
-                 key: tuple[str, str | None, str | None]) -> int:
+def _table_start(
+    lines: Sequence[str],
+    head: list[tuple[int, int]],
+    width: int,
+    header: str | None,
+    key: tuple[str, str | None, str | None],
+) -> int:
     """The first line of the table: past comment lines and title lines of another width, the
     first record of `width` fields (or one fewer: row names) followed by one of `width`.
     Records, not lines: a quoted field may hold a line break.  A record that opens a quote it
@@ -296,8 +321,10 @@ def _next_line(lines: Sequence[str], at: int) -> int:
 
 _INT = re.compile(r"[+-]?\d+")
 _NUM = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?|[+-]?(?:inf|nan)", re.I)
-_DATE = re.compile(r"\d{4}-\d{1,2}-\d{1,2}(?:[T ][\d:.]+(?:Z|[+-]\d\d:?\d\d)?)?|\d{1,2}/\d{1,2}/\d{2,4}|"
-                   r"\d{1,2}:\d\d(?::\d\d(?:\.\d+)?)?")
+_DATE = re.compile(
+    r"\d{4}-\d{1,2}-\d{1,2}(?:[T ][\d:.]+(?:Z|[+-]\d\d:?\d\d)?)?|\d{1,2}/\d{1,2}/\d{2,4}|"
+    r"\d{1,2}:\d\d(?::\d\d(?:\.\d+)?)?"
+)
 _BOOL = {"true", "false", "t", "f", "yes", "no"}
 
 
@@ -362,6 +389,7 @@ def header_votes(first: Sequence[str], rows: Sequence[Sequence[str]]) -> tuple[i
 
 # -- the finder ------------------------------------------------------------------------------
 
+
 def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | None = None) -> Finding:
     """The dialect of a delimited text sample (the file's first bytes, without a byte order mark).
 
@@ -406,10 +434,12 @@ def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | N
         # only where no '#' line is as wide as the rows, and a row has more than one field
         seen = best.comments or any(_is_comment(x) for x in lines[:skip])
         comment = "#" if seen and not best.hash_rows and best.width > 1 else None
-    dialect = Dialect(best.delimiter, best.quote, best.escape, line_end, header, skip, confidence, best.rows,
-                      pin.keys(), comment)
-    return Finding(dialect, names, width, start_lines, _line_offset(sample, line_end, start_lines),
-                   best.stray and header != "no")
+    dialect = Dialect(
+        best.delimiter, best.quote, best.escape, line_end, header, skip, confidence, best.rows, pin.keys(), comment
+    )
+    return Finding(
+        dialect, names, width, start_lines, _line_offset(sample, line_end, start_lines), best.stray and header != "no"
+    )
 
 
 def _choose(lines: Sequence[str], tsv: bool, pin: Pin) -> tuple[_Candidate, list[_Candidate]]:
@@ -424,11 +454,17 @@ def _choose(lines: Sequence[str], tsv: bool, pin: Pin) -> tuple[_Candidate, list
         valid = [space] if space is not None and space.width >= 2 and space.fit and space.cover >= 0.9 else []
     if not valid:  # one column, or nothing fits: the most consistent reading, commas by default
         pool = judged or [_judge(_Candidate(",", _default_quote(tsv, pin), None), lines, pin.skip, pin.header)]
-        best = max(pool, key=lambda c: (c.cover, c.width > 1, -DELIMITERS.index(c.delimiter)
-                                        if c.delimiter in DELIMITERS else 0))
+        best = max(
+            pool,
+            key=lambda c: (c.cover, c.width > 1, -DELIMITERS.index(c.delimiter) if c.delimiter in DELIMITERS else 0),
+        )
         if best.width < 2:
-            best = _judge(_Candidate(pin.delimiter or ("\t" if tsv else ","), _default_quote(tsv, pin), None),
-                          lines, pin.skip, pin.header)
+            best = _judge(
+                _Candidate(pin.delimiter or ("\t" if tsv else ","), _default_quote(tsv, pin), None),
+                lines,
+                pin.skip,
+                pin.header,
+            )
         return best, []
     top = max(c.cover for c in valid)
     close = [c for c in valid if c.cover >= top - 0.05]
@@ -469,8 +505,9 @@ def _best_quoting(d: str, lines: Sequence[str], tsv: bool, pin: Pin) -> _Candida
     if not fixed_escape and '\\"' in "".join(lines):
         escaped = _judge(_Candidate(d, '"', "\\"), lines, pin.skip, pin.header)
         text = "".join(lines)
-        if _score(escaped) > _score(quoted) or (_score(escaped) == _score(quoted)
-                                                and text.count('\\"') > text.count('""')):
+        if _score(escaped) > _score(quoted) or (
+            _score(escaped) == _score(quoted) and text.count('\\"') > text.count('""')
+        ):
             quoted = escaped
     if _score(quoted) > _score(bare):
         return quoted
@@ -538,7 +575,7 @@ def _names_below(lines: Sequence[str], c: _Candidate) -> _Candidate:
 
 
 def _body_rows(lines: Sequence[str], c: _Candidate) -> list[list[str]]:
-    body = lines[c.skip + c.header_lines:]
+    body = lines[c.skip + c.header_lines :]
     rows: list[list[str]] = []
     try:
         for r in _reader(body, *c.key):

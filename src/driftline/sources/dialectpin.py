@@ -14,8 +14,16 @@ from typing import Any
 
 from driftline.errors import PolicyError
 
-DELIMITER_NAMES = {"comma": ",", "tab": "\t", "semicolon": ";", "pipe": "|", "colon": ":", "caret": "^",
-                   "tilde": "~", "space": " "}
+DELIMITER_NAMES = {
+    "comma": ",",
+    "tab": "\t",
+    "semicolon": ";",
+    "pipe": "|",
+    "colon": ":",
+    "caret": "^",
+    "tilde": "~",
+    "space": " ",
+}
 QUOTE_NAMES = {"double": '"', "single": "'", "none": None}
 ESCAPE_NAMES = {"backslash": "\\", "none": None}
 HEADER_VALUES = ("yes", "no", "row-names")
@@ -46,8 +54,12 @@ class Pin:
 
     def keys(self) -> tuple[str, ...]:
         # identity, not equality: skip=0 is a pin (0 == False)
-        return tuple(k for k in PIN_KEYS if (getattr(self, k) is not None and getattr(self, k) is not False) or
-                     (k in ("quote", "escape", "comment") and getattr(self, k) is None))
+        return tuple(
+            k
+            for k in PIN_KEYS
+            if (getattr(self, k) is not None and getattr(self, k) is not False)
+            or (k in ("quote", "escape", "comment") and getattr(self, k) is None)
+        )
 
     def over(self, other: Pin) -> Pin:
         """This pin's keys, the other's where this one leaves a key open."""
@@ -68,8 +80,10 @@ def parse_pin(spec: str) -> Pin:
     """
     m = _SPEC.match(spec.strip())
     if m is None:
-        raise PolicyError(f"--csv-dialect {spec!r}: expected [GLOB:]KEY=VALUE[,KEY=VALUE…] with keys "
-                          f"{', '.join(PIN_KEYS)}, e.g. 'exports/*.txt:delimiter=pipe,quote=none,header=no'")
+        raise PolicyError(
+            f"--csv-dialect {spec!r}: expected [GLOB:]KEY=VALUE[,KEY=VALUE…] with keys "
+            f"{', '.join(PIN_KEYS)}, e.g. 'exports/*.txt:delimiter=pipe,quote=none,header=no'"
+        )
     fields: dict[str, Any] = {"glob": m.group("glob") or None}
     for item in m.group("items").split(","):
         key, _, value = item.partition("=")

@@ -266,5 +266,3 @@ def _common_root(paths: Sequence[str]) -> str:
         return only if os.path.isdir(only) else os.path.dirname(only)
     common = os.path.commonpath(paths)
     return common if os.path.isdir(common) else os.path.dirname(common)
-
-

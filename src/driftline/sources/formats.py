@@ -181,8 +181,14 @@ class _Limited(io.RawIOBase):
     RATIO_FLOOR_BYTES came out, so small files that compress well are never stopped.
     """
 
-    def __init__(self, inner: BinaryIO, raw: BinaryIO, limit: int | None, ratio: float | None,
-                 taken: Callable[[], int] | None = None) -> None:
+    def __init__(
+        self,
+        inner: BinaryIO,
+        raw: BinaryIO,
+        limit: int | None,
+        ratio: float | None,
+        taken: Callable[[], int] | None = None,
+    ) -> None:
         self._inner, self._raw = inner, raw
         self._limit, self._ratio = limit, ratio
         self._taken = taken or raw.tell  # bytes read from the file so far
@@ -248,8 +254,10 @@ class IgnoredTail:
     def message(self, size: int | None) -> str:
         count = f"{size - self.offset:,} bytes" if size is not None and size > self.offset else "the bytes"
         name = "gzip member" if self.codec == "gzip" else "bzip2 stream"
-        return (f"{count} from byte {self.offset:,} on are not a {name}: ignored, as `{_TOOL[self.codec]}` "
-                "ignores trailing garbage; the data before them is complete")
+        return (
+            f"{count} from byte {self.offset:,} on are not a {name}: ignored, as `{_TOOL[self.codec]}` "
+            "ignores trailing garbage; the data before them is complete"
+        )
 
 
 class _Streams(io.RawIOBase):
@@ -350,8 +358,9 @@ class _Streams(io.RawIOBase):
             if len(rest) < 4:
                 raise EOFError(f"the file ends inside the magic number of a zstd frame at byte {at:,}")
             if rest[:4] != _ZSTD_MAGIC and (rest[0] & 0xF0 != 0x50 or rest[1:4] != b"\x2a\x4d\x18"):
-                raise CorruptStream(f"the bytes at byte {at:,} are not a zstd frame (RFC 8878 section 3.1); "
-                                    "zstd -t rejects them")
+                raise CorruptStream(
+                    f"the bytes at byte {at:,} are not a zstd frame (RFC 8878 section 3.1); zstd -t rejects them"
+                )
             return rest
         if self._codec == "xz":
             return self._after_xz(rest, at)
@@ -396,14 +405,17 @@ class _Streams(io.RawIOBase):
             if not rest:
                 break
         if zeros % 4:
-            raise CorruptStream(f"xz stream padding of {zeros:,} null bytes at byte {at:,} is not a multiple of "
-                                "four (.xz file format, section 2.2); xz -t rejects it")
+            raise CorruptStream(
+                f"xz stream padding of {zeros:,} null bytes at byte {at:,} is not a multiple of "
+                "four (.xz file format, section 2.2); xz -t rejects it"
+            )
         if not rest:
             return None
         rest = self._more(rest, len(_XZ_MAGIC))
         if not rest.startswith(_XZ_MAGIC):
-            raise CorruptStream(f"the bytes at byte {at + zeros:,} are neither stream padding nor an xz stream; "
-                                "xz -t rejects them")
+            raise CorruptStream(
+                f"the bytes at byte {at + zeros:,} are neither stream padding nor an xz stream; xz -t rejects them"
+            )
         return rest
 
 
@@ -415,8 +427,14 @@ def _decoder(raw: BinaryIO, compression: str | None, notes: list[IgnoredTail] | 
     raise ValueError(f"unknown compression {compression!r}")  # pragma: no cover - guarded by detect_compression
 
 
-def open_stream(path: str, compression: str | None, *, limit: int | None, ratio: float | None = None,
-                notes: list[IgnoredTail] | None = None) -> BinaryIO:
+def open_stream(
+    path: str,
+    compression: str | None,
+    *,
+    limit: int | None,
+    ratio: float | None = None,
+    notes: list[IgnoredTail] | None = None,
+) -> BinaryIO:
     """Open path for reading as decompressed bytes, never for writing; the caller closes it.
 
     limit caps the bytes that come out; ratio caps bytes out per byte read from the file;
@@ -425,8 +443,15 @@ def open_stream(path: str, compression: str | None, *, limit: int | None, ratio:
     return wrap_stream(open(path, "rb"), compression, limit=limit, ratio=ratio, notes=notes)  # noqa: SIM115
 
 
-def wrap_stream(raw: BinaryIO, compression: str | None, *, limit: int | None, ratio: float | None = None,
-                taken: Callable[[], int] | None = None, notes: list[IgnoredTail] | None = None) -> BinaryIO:
+def wrap_stream(
+    raw: BinaryIO,
+    compression: str | None,
+    *,
+    limit: int | None,
+    ratio: float | None = None,
+    taken: Callable[[], int] | None = None,
+    notes: list[IgnoredTail] | None = None,
+) -> BinaryIO:
     """Decompressed bytes of an open binary file (local or remote); closing the result closes raw.
 
     taken counts the bytes read from raw so far, for the ratio; raw.tell() when not given.

@@ -95,8 +95,14 @@ class _Batcher:
     def flush(self) -> Observation | None:
         if not self.records:
             return None
-        obs = observe_records(self.records, file=self.rel, batch=self.batch, row_start=self.rows, lines=self.lines,
-                              max_paths=self.opts.max_paths)
+        obs = observe_records(
+            self.records,
+            file=self.rel,
+            batch=self.batch,
+            row_start=self.rows,
+            lines=self.lines,
+            max_paths=self.opts.max_paths,
+        )
         self.rows += len(self.records)
         self.batch += 1
         self.records, self.lines = [], ([] if self.lines is not None else None)
@@ -194,8 +200,13 @@ class _Lines:
                     at = self.offset
                     self.advance(1)
                     return _TooLong(self.lineno, at)
-                if (avail >= k or self.eof or self.held > _WINDOW_BYTES or self.held >= room
-                        or len(self.tail) > self.max):
+                if (
+                    avail >= k
+                    or self.eof
+                    or self.held > _WINDOW_BYTES
+                    or self.held >= room
+                    or len(self.tail) > self.max
+                ):
                     break  # (an over-long line is coming: hand out what is before it first)
             elif self.eof:
                 return None
@@ -244,9 +255,16 @@ class _Lines:
         self.eof = True
 
 
-def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offset: int = 0,
-               start: tuple[int, int, int] = (0, 0, 0), lines_read: list[int] | None = None,
-               blank_read: list[int] | None = None) -> Iterator[Item]:
+def read_jsonl(
+    stream: BinaryIO,
+    rel: str,
+    opts: ReadOptions,
+    *,
+    first_line_offset: int = 0,
+    start: tuple[int, int, int] = (0, 0, 0),
+    lines_read: list[int] | None = None,
+    blank_read: list[int] | None = None,
+) -> Iterator[Item]:
     """One JSON value per line. Blank lines are skipped; a bad line is reported and skipped.
 
     A batch of lines that are all objects goes to the columnar path (observe.jsonbatch),
@@ -275,8 +293,15 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
         whole = len(got) == want or got.full or src.ends(got)
         if fast and not out.records and len(got) >= FAST_MIN_ROWS and whole:
             try:
-                done = observe_json_lines(got.items, file=rel, batch=out.batch, row_start=out.rows,
-                                          first_line=got.first_line, hint=hint, max_paths=opts.max_paths)
+                done = observe_json_lines(
+                    got.items,
+                    file=rel,
+                    batch=out.batch,
+                    row_start=out.rows,
+                    first_line=got.first_line,
+                    hint=hint,
+                    max_paths=opts.max_paths,
+                )
             except Exception:  # the fast path may only decline, never lose rows: the walk decides
                 done = None
             if done is not None:
@@ -288,15 +313,27 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
         for lineno, offset, content in got.lines():
             size = len(content) + 1  # the line as read, with its newline: as the window counts it
             if lineno == 1 and content.startswith(_BOM):
-                yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning",
-                                line=1, byte_offset=0)
+                yield FileIssue(
+                    rel,
+                    "bom",
+                    "UTF-8 byte order mark at the start of the file; ignored",
+                    "warning",
+                    line=1,
+                    byte_offset=0,
+                )
                 content, offset = content[3:], offset + 3
             if content.endswith(b"\r"):
                 content = content[:-1]
                 if not crlf_noted:
                     crlf_noted = True
-                    yield FileIssue(rel, "crlf", "CRLF line ends; read as LF", "warning", line=lineno,
-                                    byte_offset=offset + len(content))
+                    yield FileIssue(
+                        rel,
+                        "crlf",
+                        "CRLF line ends; read as LF",
+                        "warning",
+                        line=lineno,
+                        byte_offset=offset + len(content),
+                    )
             if not content.strip():
                 blanks += 1
                 continue
@@ -304,8 +341,9 @@ def read_jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, *, first_line_offs
                 value = jsonnum.loads(content)
             except orjson.JSONDecodeError as exc:
                 msg, _, col, pos = _decode_error(exc, content)
-                yield FileIssue(rel, "malformed-json", f"{msg} (column {col}); line skipped", line=lineno,
-                                byte_offset=offset + pos)
+                yield FileIssue(
+                    rel, "malformed-json", f"{msg} (column {col}); line skipped", line=lineno, byte_offset=offset + pos
+                )
                 continue
             added = out.add(value, lineno, size)
             if added is not None:
@@ -343,8 +381,9 @@ def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
     data = stream.read(whole + 1)
     start = 0
     if data.startswith(_BOM):
-        yield FileIssue(rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning",
-                        line=1, byte_offset=0)
+        yield FileIssue(
+            rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0
+        )
         start = 3
     first = _first_byte(data, start)
     if len(data) > opts.batch_bytes and first == ord("["):
@@ -355,9 +394,14 @@ def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
             chained = io.BufferedReader(_Chain(data[start:], stream), buffer_size=1 << 20)
             yield from read_jsonl(chained, rel, opts, first_line_offset=start)
             return
-        yield FileIssue(rel, "too-large", f"JSON document larger than {whole:,} bytes that is not an array: it is "
-                        "one record (--max-record-bytes); write it as JSON Lines or as an array to scan it",
-                        line=1, byte_offset=start)
+        yield FileIssue(
+            rel,
+            "too-large",
+            f"JSON document larger than {whole:,} bytes that is not an array: it is "
+            "one record (--max-record-bytes); write it as JSON Lines or as an array to scan it",
+            line=1,
+            byte_offset=start,
+        )
         return
     body = data[start:]
     if not body.strip():
@@ -370,8 +414,13 @@ def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
             yield from read_jsonl(io.BytesIO(body), rel, opts, first_line_offset=start)
             return
         msg, line, col, pos = _decode_error(exc, body)
-        yield FileIssue(rel, "malformed-json", f"{msg} (line {line}, column {col}); file not profiled", line=line,
-                        byte_offset=start + pos)
+        yield FileIssue(
+            rel,
+            "malformed-json",
+            f"{msg} (line {line}, column {col}); file not profiled",
+            line=line,
+            byte_offset=start + pos,
+        )
         return
     out = _Batcher(rel, opts)
     for record in doc if isinstance(doc, list) else [doc]:
@@ -535,6 +584,11 @@ def _parse_elements(pieces: list[bytes], where: list[tuple[int, int]], rel: str)
             values.append(jsonnum.loads(piece))
         except orjson.JSONDecodeError as exc:
             msg, eline, col, pos = _decode_error(exc, piece)
-            return values, FileIssue(rel, "malformed-json", f"{msg} (line {line + eline - 1}); rest of the file not "
-                                     "profiled", line=line + eline - 1, byte_offset=offset + pos)
+            return values, FileIssue(
+                rel,
+                "malformed-json",
+                f"{msg} (line {line + eline - 1}); rest of the file not profiled",
+                line=line + eline - 1,
+                byte_offset=offset + pos,
+            )
     return values, None

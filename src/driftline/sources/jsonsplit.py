@@ -50,8 +50,13 @@ class SpanResult:
 
 
 def can_split(ref: FileRef, opts: ReadOptions) -> bool:
-    return (ref.format == "jsonl" and ref.compression is None and not opts.exact and ref.size >= SPLIT_MIN_BYTES
-            and os.path.isfile(ref.path))
+    return (
+        ref.format == "jsonl"
+        and ref.compression is None
+        and not opts.exact
+        and ref.size >= SPLIT_MIN_BYTES
+        and os.path.isfile(ref.path)
+    )
 
 
 def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
@@ -152,8 +157,14 @@ def read_span(span: Span, opts: ReadOptions) -> SpanResult:
     issues: list[FileIssue] = []
     counter: list[int] = []
     with io.BufferedReader(_Slice(span.ref.path, span.start, span.end), buffer_size=1 << 20) as stream:
-        items = read_jsonl(stream, span.ref.rel, opts, first_line_offset=span.start,
-                           start=(span.lines, span.rows, span.batches), lines_read=counter)
+        items = read_jsonl(
+            stream,
+            span.ref.rel,
+            opts,
+            first_line_offset=span.start,
+            start=(span.lines, span.rows, span.batches),
+            lines_read=counter,
+        )
         for item in items:
             if isinstance(item, FileIssue):
                 issues.append(item)
@@ -173,7 +184,18 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
             return replace(res.span, end=None)
     observations, block = concat_blocks([(res.observations, res.block) for res in results])
     issues = results[-1].issues if results else ()
-    return FileResult(rel=ref.rel, format=ref.format, compression=ref.compression, partitions=ref.partitions,
-                      size=ref.size, mtime_ns=ref.mtime_ns, rows=sum(o.rows for o in observations),
-                      observations=observations, issues=issues, declared=None, complete=True, batch_span=block,
-                      encoding=file_encoding(ref.path, ref.format, opts.encoding))
+    return FileResult(
+        rel=ref.rel,
+        format=ref.format,
+        compression=ref.compression,
+        partitions=ref.partitions,
+        size=ref.size,
+        mtime_ns=ref.mtime_ns,
+        rows=sum(o.rows for o in observations),
+        observations=observations,
+        issues=issues,
+        declared=None,
+        complete=True,
+        batch_span=block,
+        encoding=file_encoding(ref.path, ref.format, opts.encoding),
+    )

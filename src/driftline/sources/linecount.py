@@ -102,7 +102,7 @@ class LineTally(io.RawIOBase):
         if self._last == b"\r" or b"\r" in data:
             self._count_cr(self._cr_carry + data, lf_before - self._cr_carry.count(b"\n"))
         kept = data.rstrip(b"\r")  # the CRs at the end, and the byte before them, judge the next CR
-        self._cr_carry = data[len(kept) - 1:] if kept else self._cr_carry + data
+        self._cr_carry = data[len(kept) - 1 :] if kept else self._cr_carry + data
         self.lf = lf_after
         self._last = data[-1:]
         cut = data.rfind(b"\n")
@@ -110,7 +110,7 @@ class LineTally(io.RawIOBase):
             if self._plen is not None:
                 self._plen = self._plen + len(data) if not data.strip(b"\r") else None
         else:
-            tail = data[cut + 1:]
+            tail = data[cut + 1 :]
             self._plen = len(tail) if not tail.strip(b"\r") else None
 
     def _blank_line(self, line: int) -> None:
@@ -282,17 +282,26 @@ class RowLines:
         split = self.tally.splitting_cr - self.cell_crs
         if split > 0:
             where = f"the first on line {self.tally.first_cr_line:,}" if self.tally.first_cr_line else ""
-            out.append(FileIssue(
-                self.rel, "cr-line-ends",
-                f"{split:,} carriage returns without a line feed end lines outside quoted values ({where}); "
-                "Arrow ends a row at each, so those lines were cut into rows or read into the header: "
-                "rows may be wrong or missing", line=self.tally.first_cr_line))
+            out.append(
+                FileIssue(
+                    self.rel,
+                    "cr-line-ends",
+                    f"{split:,} carriage returns without a line feed end lines outside quoted values ({where}); "
+                    "Arrow ends a row at each, so those lines were cut into rows or read into the header: "
+                    "rows may be wrong or missing",
+                    line=self.tally.first_cr_line,
+                )
+            )
         elif placed != counted or lost_aside:
-            out.append(FileIssue(
-                self.rel, "unaccounted-lines",
-                f"{counted:,} lines counted apart from the reader, {placed:,} accounted for (header to line "
-                f"{self.first_line - 1:,}, {rows:,} rows, {self.aside_lines:,} lines of set-aside rows, {blank:,} "
-                f"blank lines): {counted - placed:,} lines unaccounted for; rows may be missing"))
+            out.append(
+                FileIssue(
+                    self.rel,
+                    "unaccounted-lines",
+                    f"{counted:,} lines counted apart from the reader, {placed:,} accounted for (header to line "
+                    f"{self.first_line - 1:,}, {rows:,} rows, {self.aside_lines:,} lines of set-aside rows, {blank:,} "
+                    f"blank lines): {counted - placed:,} lines unaccounted for; rows may be missing",
+                )
+            )
         return out
 
 
@@ -304,7 +313,10 @@ def jsonl_issue(rel: str, tally: LineTally, rows: int, blanks: int, issues: Sequ
     accounted = rows + aside + blanks
     if counted == accounted:
         return None
-    return FileIssue(rel, "unaccounted-lines",
-                     f"{counted:,} lines counted apart from the reader, {accounted:,} accounted for ({rows:,} rows, "
-                     f"{aside:,} lines reported, {blanks:,} blank lines): {counted - accounted:,} lines "
-                     "unaccounted for; rows may be missing")
+    return FileIssue(
+        rel,
+        "unaccounted-lines",
+        f"{counted:,} lines counted apart from the reader, {accounted:,} accounted for ({rows:,} rows, "
+        f"{aside:,} lines reported, {blanks:,} blank lines): {counted - accounted:,} lines "
+        "unaccounted for; rows may be missing",
+    )

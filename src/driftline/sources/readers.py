@@ -91,8 +91,9 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
     return read_files([ref], opts, digest=digest)[0]
 
 
-def read_files(refs: Sequence[FileRef], opts: ReadOptions, *, digest: bool = False,
-               before: Callable[[FileRef], None] | None = None) -> list[FileResult]:
+def read_files(
+    refs: Sequence[FileRef], opts: ReadOptions, *, digest: bool = False, before: Callable[[FileRef], None] | None = None
+) -> list[FileResult]:
     """Read files in order, each as read_file would; the batches of Parquet files are observed
     together, a group of at most about batch_rows rows at a time (observe.bulk).
 
@@ -195,8 +196,12 @@ class _Read:
         issues.extend(_unobserved_issue(ref.rel, name, why, row) for name, (why, row) in unobserved.items())
         if not observations and not issues and ref.size == 0:
             issues.append(FileIssue(ref.rel, "empty", "empty file: no rows", "warning", line=1, byte_offset=0))
-        if not observations and ref.size and ref.format in ("csv", "tsv") and not any(
-                i.severity == "error" for i in issues):
+        if (
+            not observations
+            and ref.size
+            and ref.format in ("csv", "tsv")
+            and not any(i.severity == "error" for i in issues)
+        ):
             unread = nothing_read(ref)
             if unread is not None:
                 self.complete = False
@@ -205,8 +210,7 @@ class _Read:
         if change is not None:
             self.complete = False
             issues.append(FileIssue(ref.rel, "changed", change))
-        return _result(ref, observations, issues, self.declared, self.complete, self.dialect,
-                       self.encoding, span)
+        return _result(ref, observations, issues, self.declared, self.complete, self.dialect, self.encoding, span)
 
     def _changed(self) -> str | None:
         ref = self.ref
@@ -219,8 +223,9 @@ class _Read:
 
 def _unobserved_issue(rel: str, column: str, why: str, row: int) -> FileIssue:
     """One warning per column a file's batches left out: the other columns were profiled."""
-    return FileIssue(rel, "unsupported-type", f"column {column!r} not profiled: {why}; the other columns are",
-                     "warning", row=row)
+    return FileIssue(
+        rel, "unsupported-type", f"column {column!r} not profiled: {why}; the other columns are", "warning", row=row
+    )
 
 
 def nothing_read(ref: FileRef, limit: int = 64 * 2**20) -> FileIssue | None:
@@ -245,8 +250,13 @@ def nothing_read(ref: FileRef, limit: int = 64 * 2**20) -> FileIssue | None:
                 return None
     except Exception:  # noqa: BLE001 - unreadable now: the read itself reported what it met
         return None
-    return FileIssue(ref.rel, "nothing-read", f"no row was read from {ref.size:,} bytes of more than one line: "
-                     "a quote opened in the header and never closed takes every row into a column name", line=2)
+    return FileIssue(
+        ref.rel,
+        "nothing-read",
+        f"no row was read from {ref.size:,} bytes of more than one line: "
+        "a quote opened in the header and never closed takes every row into a column name",
+        line=2,
+    )
 
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
@@ -264,8 +274,13 @@ def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
 def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Read) -> None:
     if ref.compression is not None:
         read.complete = False
-        read.issues.append(FileIssue(ref.rel, "unsupported", f"{ref.compression}-compressed Parquet files are not "
-                                     "read; Parquet compresses its pages itself"))
+        read.issues.append(
+            FileIssue(
+                ref.rel,
+                "unsupported",
+                f"{ref.compression}-compressed Parquet files are not read; Parquet compresses its pages itself",
+            )
+        )
         return
     source: Any = ref.path
     if is_url(ref.path):  # random access: the footer and column chunks come as ranged GETs

@@ -146,7 +146,9 @@ def parse_locator(path: str) -> tuple[str, str, StorageOptions]:
     bucket, _, key = rest.partition("/")
     q = dict(parse_qsl(query))
     storage = StorageOptions(
-        endpoint_url=q.get("endpoint"), region=q.get("region"), anonymous=q.get("anonymous") == "1",
+        endpoint_url=q.get("endpoint"),
+        region=q.get("region"),
+        anonymous=q.get("anonymous") == "1",
         retries=int(q.get("retries", DEFAULT_RETRIES)),
         connect_timeout=float(q.get("connect_timeout", DEFAULT_CONNECT_TIMEOUT)),
         request_timeout=float(q.get("request_timeout", DEFAULT_REQUEST_TIMEOUT)),
@@ -204,15 +206,22 @@ class Condition:
         if re.fullmatch(r"-?\d+", actual) and re.fullmatch(r"-?\d+", self.value):
             a, b = int(actual), int(self.value)
         return {
-            ">=": a >= b, "<=": a <= b, ">": a > b, "<": a < b, "=": a == b, "==": a == b, "!=": a != b,
+            ">=": a >= b,
+            "<=": a <= b,
+            ">": a > b,
+            "<": a < b,
+            "=": a == b,
+            "==": a == b,
+            "!=": a != b,
         }[self.op]
 
 
 def parse_condition(text: str) -> Condition:
     m = _CONDITION.match(text)
     if not m or not m.group(3):
-        raise DriftlineError(f"cannot read --where {text!r}; write key OP value, e.g. 'day>=2026-11-01' "
-                             "(OP one of = != < <= > >=)")
+        raise DriftlineError(
+            f"cannot read --where {text!r}; write key OP value, e.g. 'day>=2026-11-01' (OP one of = != < <= > >=)"
+        )
     return Condition(m.group(1), m.group(2), m.group(3))
 
 
@@ -231,6 +240,7 @@ def folder_passes(name: str, conditions: Sequence[Condition]) -> bool:
 
 
 # -- discovery --------------------------------------------------------------------------------
+
 
 def discover_remote(
     urls: Sequence[str | os.PathLike[str]],
@@ -262,7 +272,7 @@ def discover_remote(
                 skipped.append(Skipped(_below(item, root), "odd-key"))
                 continue
             key, size, mtime_ns = item
-            rel = key[len(root):].lstrip("/") if root else key
+            rel = key[len(root) :].lstrip("/") if root else key
             if not rel:  # the URL names one object: it is named by its file name, as locally
                 rel, root = key.rsplit("/", 1)[-1], key.rpartition("/")[0]
             verdict = _filter_name(rel, include, exclude, include_hidden)
@@ -276,8 +286,15 @@ def discover_remote(
             if fmt is None:
                 skipped.append(Skipped(rel, skip_reason(rel)))
                 continue
-            files[rel] = FileRef(path=path, rel=rel, partitions=partition_values(rel), format=fmt,
-                                 compression=_compression(rel, path), size=size, mtime_ns=mtime_ns)
+            files[rel] = FileRef(
+                path=path,
+                rel=rel,
+                partitions=partition_values(rel),
+                format=fmt,
+                compression=_compression(rel, path),
+                size=size,
+                mtime_ns=mtime_ns,
+            )
     shown = f"s3://{bucket}/{root}".rstrip("/")
     ordered = tuple(files[k] for k in sorted(files))
     return Discovery(root=shown, files=ordered, skipped=tuple(sorted(set(skipped), key=lambda s: s.rel)))
@@ -286,7 +303,7 @@ def discover_remote(
 def _below(key: str, root: str) -> str:
     """A key prefix relative to the root, its odd slashes kept (`landing//` below `landing` is `/`)."""
     if root and key.startswith(root + "/"):
-        return key[len(root) + 1:] or "/"
+        return key[len(root) + 1 :] or "/"
     return key
 
 
@@ -336,8 +353,9 @@ def _common_prefix(prefixes: Sequence[str]) -> str:
     return "/".join(common)
 
 
-def _walk(fs: Any, bucket: str, prefix: str, where: Sequence[Condition], *, url: str,
-          storage: StorageOptions) -> Iterator[tuple[str, int, int] | str]:
+def _walk(
+    fs: Any, bucket: str, prefix: str, where: Sequence[Condition], *, url: str, storage: StorageOptions
+) -> Iterator[tuple[str, int, int] | str]:
     """Yield (key, size, mtime_ns) below prefix in sorted order, one folder level at a time,
     and, as a plain string, each key prefix that is not a path (see _odd).
 
@@ -372,9 +390,9 @@ def _walk(fs: Any, bucket: str, prefix: str, where: Sequence[Condition], *, url:
         for info in sorted(infos, key=lambda i: i.path):
             odd = _odd(folder, info.path)
             if odd is not None:
-                yield odd[len(bucket) + 1:]
+                yield odd[len(bucket) + 1 :]
                 continue
-            key = info.path[len(bucket) + 1:]
+            key = info.path[len(bucket) + 1 :]
             if info.type == pafs.FileType.Directory:
                 if info.path not in listed and folder_passes(info.base_name, where):
                     subfolders.append(info.path)
@@ -392,7 +410,7 @@ def _odd(folder: str, path: str) -> str | None:
     >>> _odd("lake/a", "lake/a"), _odd("lake/a", "lake/a/.."), _odd("lake/a", "lake/a/b.jsonl")
     ('lake/a//', 'lake/a/../', None)
     """
-    name = path[len(folder) + 1:] if path.startswith(folder + "/") else ""
+    name = path[len(folder) + 1 :] if path.startswith(folder + "/") else ""
     if not name:
         return folder + "//"
     if name in (".", "..") or "/" in name:
@@ -410,12 +428,16 @@ def _network(exc: BaseException, storage: StorageOptions) -> str | None:
     text = str(exc)
     where = storage.shown()
     if "curlCode: 28" in text or "Timeout was reached" in text:
-        return (f"no answer from {where} within {storage.request_timeout:g} s ({storage.retries} attempts); "
-                "check that the endpoint is an S3 server and reachable (--endpoint-url, network, proxy), "
-                "or raise --request-timeout")
+        return (
+            f"no answer from {where} within {storage.request_timeout:g} s ({storage.retries} attempts); "
+            "check that the endpoint is an S3 server and reachable (--endpoint-url, network, proxy), "
+            "or raise --request-timeout"
+        )
     if "curlCode: 7" in text or "Could not connect" in text or "curlCode: 6" in text:
-        return (f"cannot connect to {where} ({storage.retries} attempts within --connect-timeout "
-                f"{storage.connect_timeout:g} s); check --endpoint-url and that the server is running")
+        return (
+            f"cannot connect to {where} ({storage.retries} attempts within --connect-timeout "
+            f"{storage.connect_timeout:g} s); check --endpoint-url and that the server is running"
+        )
     return None
 
 
@@ -450,6 +472,7 @@ def _short(exc: BaseException) -> str:
 
 # -- opening, at one version --------------------------------------------------------------
 
+
 @dataclass(frozen=True, slots=True)
 class ObjectVersion:
     """What the HEAD request made when an object is opened says about it."""
@@ -467,13 +490,16 @@ class ObjectVersion:
         ObjectVersion(etag='"9b2c"', size=12, modified_s=1796025600)
         """
         try:
-            meta = {(k.decode() if isinstance(k, bytes) else k).lower(): (v.decode() if isinstance(v, bytes) else v)
-                    for k, v in opened.metadata().items()}
+            meta = {
+                (k.decode() if isinstance(k, bytes) else k).lower(): (v.decode() if isinstance(v, bytes) else v)
+                for k, v in opened.metadata().items()
+            }
         except Exception:  # a stream without metadata: nothing to pin
             return ObjectVersion(None, None, None)
         size = meta.get("content-length")
-        return ObjectVersion(meta.get("etag"), int(size) if size and size.isdigit() else None,
-                             _epoch_s(meta.get("last-modified")))
+        return ObjectVersion(
+            meta.get("etag"), int(size) if size and size.isdigit() else None, _epoch_s(meta.get("last-modified"))
+        )
 
 
 def _epoch_s(text: str | None) -> int | None:
@@ -517,20 +543,26 @@ def _open_binary(path: str) -> tuple[BinaryIO, ObjectVersion]:
     return io.BufferedReader(_ObjectRaw(stream, storage), buffer_size=1 << 20), version
 
 
-def open_stream_remote(path: str, compression: str | None, *, limit: int | None,
-                       ratio: float | None = None, notes: list[IgnoredTail] | None = None) -> BinaryIO:
+def open_stream_remote(
+    path: str,
+    compression: str | None,
+    *,
+    limit: int | None,
+    ratio: float | None = None,
+    notes: list[IgnoredTail] | None = None,
+) -> BinaryIO:
     """formats.open_stream for a locator: decompressed bytes, bounded by limit and ratio.
 
     The decoders are the local ones (formats.wrap_stream): every byte decoded before a cut
     is handed out, a truncated gzip/zstd/xz is reported, a bomb stops at the limits.
     """
     raw = open_binary(path)
-    return wrap_stream(raw, compression, limit=limit, ratio=ratio, notes=notes,
-                       taken=lambda: raw.raw.count)  # type: ignore[attr-defined]
+    return wrap_stream(raw, compression, limit=limit, ratio=ratio, notes=notes, taken=lambda: raw.raw.count)  # type: ignore[attr-defined]
 
 
-def open_stream_pinned(path: str, compression: str | None, *, limit: int | None,
-                       ratio: float | None = None) -> tuple[BinaryIO, ObjectVersion]:
+def open_stream_pinned(
+    path: str, compression: str | None, *, limit: int | None, ratio: float | None = None
+) -> tuple[BinaryIO, ObjectVersion]:
     """open_stream_remote, and the version it opened (for object_changed after the read)."""
     raw, version = _open_binary(path)
     stream = wrap_stream(raw, compression, limit=limit, ratio=ratio, taken=lambda: raw.raw.count)  # type: ignore[attr-defined]
@@ -546,8 +578,7 @@ def object_changed(path: str, listed_size: int, listed_mtime_ns: int, opened: Ob
     where that is found.
     """
     if opened.size is not None and opened.size != listed_size:
-        return (f"the object changed after it was listed (size {listed_size:,} then {opened.size:,} bytes); "
-                "rescan it")
+        return f"the object changed after it was listed (size {listed_size:,} then {opened.size:,} bytes); rescan it"
     if opened.modified_s is not None and listed_mtime_ns and opened.modified_s != listed_mtime_ns // 10**9:
         return "the object was replaced after it was listed (a new Last-Modified); rescan it"
     if opened.etag is None:
@@ -560,6 +591,8 @@ def object_changed(path: str, listed_size: int, listed_mtime_ns: int, opened: Ob
     except OSError as exc:
         return f"the object's version could not be confirmed after the read ({explain(exc, storage)}); rescan it"
     if now.etag != opened.etag:
-        return (f"the object was replaced during the read (ETag {opened.etag} when opened, {now.etag} after); "
-                "its rows may mix two versions; rescan it")
+        return (
+            f"the object was replaced during the read (ETag {opened.etag} when opened, {now.etag} after); "
+            "its rows may mix two versions; rescan it"
+        )
     return None

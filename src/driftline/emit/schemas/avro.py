@@ -87,10 +87,23 @@ def _logical(t: DType) -> Any:
         return {"type": "int", "logicalType": "time-millis"}
     if n == "time64":  # Avro has no nanosecond time: time64[ns] is a plain long of nanoseconds
         return {"type": "long", "logicalType": "time-micros"} if t.unit == "us" else "long"
-    return {"null": "null", "bool": "boolean", "int8": "int", "int16": "int", "int32": "int",
-            "uint8": "int", "uint16": "int", "int64": "long", "uint32": "long", "float16": "float",
-            "float32": "float", "float64": "double", "string": "string", "binary": "bytes",
-            "duration": "long"}[n]
+    return {
+        "null": "null",
+        "bool": "boolean",
+        "int8": "int",
+        "int16": "int",
+        "int32": "int",
+        "uint8": "int",
+        "uint16": "int",
+        "int64": "long",
+        "uint32": "long",
+        "float16": "float",
+        "float32": "float",
+        "float64": "double",
+        "string": "string",
+        "binary": "bytes",
+        "duration": "long",
+    }[n]
 
 
 _UNIT_NAMES = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns": "nanoseconds"}
@@ -105,8 +118,10 @@ def stand_in(t: DType) -> str | None:
     """
     if t.name == "duration":
         assert t.unit is not None
-        return (f"{t.key()} as a long count of {_UNIT_NAMES[t.unit]} "
-                "(Avro's duration logical type counts months, days and milliseconds)")
+        return (
+            f"{t.key()} as a long count of {_UNIT_NAMES[t.unit]} "
+            "(Avro's duration logical type counts months, days and milliseconds)"
+        )
     if t.name == "time64" and t.unit == "ns":
         return "time64[ns] as a long count of nanoseconds since midnight (Avro times stop at microseconds)"
     return None
@@ -127,8 +142,10 @@ def _type(plan: FieldPlan, names: _Names, record: str) -> Any:
             base = {"type": "map", "values": _type(value, names, f"{record}_{plan.name}")}
         else:  # Avro map keys are strings: other keys make an array of key/value records
             entry = names.record(f"{record}_{plan.name}_entry")
-            base = {"type": "array", "items": {"type": "record", "name": entry,
-                                               "fields": _fields((key, value), names, entry)}}
+            base = {
+                "type": "array",
+                "items": {"type": "record", "name": entry, "fields": _fields((key, value), names, entry)},
+            }
     return ["null", base] if plan.nullable and t.name != "null" else base
 
 
@@ -160,8 +177,11 @@ def _schema(rec: Recommendation, name: str, namespace: str | None) -> tuple[dict
     names = _Names()
     top = names.record(name)
     # "doc" first, so that a scan knows its own output from the first bytes (driftline.marker).
-    out: dict[str, Any] = {"doc": remark(f"records of {rec.root}, as recommended by driftline"),
-                           "type": "record", "name": top}
+    out: dict[str, Any] = {
+        "doc": remark(f"records of {rec.root}, as recommended by driftline"),
+        "type": "record",
+        "name": top,
+    }
     if namespace:
         out["namespace"] = namespace
     out["fields"] = _fields(rec.fields, names, top)
@@ -183,8 +203,10 @@ def _datum(plan: FieldPlan, value: Any, names: _Names) -> Any:
         pairs = value.items() if isinstance(value, Mapping) else value
         if key.target.name == "string":
             return {k: _datum(val, v, names) for k, v in pairs}
-        return [{names.fields[key.path]: _datum(key, k, names), names.fields[val.path]: _datum(val, v, names)}
-                for k, v in pairs]
+        return [
+            {names.fields[key.path]: _datum(key, k, names), names.fields[val.path]: _datum(val, v, names)}
+            for k, v in pairs
+        ]
     if t.name == "uint64":
         return decimal.Decimal(value)
     return value
@@ -199,17 +221,29 @@ def avro_datum(rec: Recommendation, row: Mapping[str, Any]) -> dict[str, Any]:
 def _longs(arr: pa.Array) -> pa.Array:
     """Values Avro writes as a plain long (nanosecond times, durations) as int64, at any depth."""
     t = arr.type
-    if pa.types.is_timestamp(t) and t.unit == "ns" or pa.types.is_time64(t) and t.unit == "ns" \
-            or pa.types.is_duration(t):
+    if (
+        pa.types.is_timestamp(t)
+        and t.unit == "ns"
+        or pa.types.is_time64(t)
+        and t.unit == "ns"
+        or pa.types.is_duration(t)
+    ):
         return arr.cast(pa.int64())
     if pa.types.is_struct(t) and t.num_fields:
         kids = [_longs(arr.field(i)) for i in range(t.num_fields)]
-        return pa.StructArray.from_arrays(kids, fields=[t.field(i).with_type(k.type) for i, k in enumerate(kids)],
-                                          mask=pc.is_null(arr) if arr.null_count else None)
+        return pa.StructArray.from_arrays(
+            kids,
+            fields=[t.field(i).with_type(k.type) for i, k in enumerate(kids)],
+            mask=pc.is_null(arr) if arr.null_count else None,
+        )
     if pa.types.is_list(t):
         items = _longs(arr.values)
-        return pa.ListArray.from_arrays(arr.offsets, items, type=pa.list_(t.value_field.with_type(items.type)),
-                                        mask=pc.is_null(arr) if arr.null_count else None)
+        return pa.ListArray.from_arrays(
+            arr.offsets,
+            items,
+            type=pa.list_(t.value_field.with_type(items.type)),
+            mask=pc.is_null(arr) if arr.null_count else None,
+        )
     return arr
 
 

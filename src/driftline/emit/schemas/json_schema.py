@@ -35,9 +35,14 @@ META_SCHEMA = "https://json-schema.org/draft/2020-12/schema"
 Mode = Literal["permissive", "strict"]
 
 _INT_RANGES = {
-    "int8": (-(2**7), 2**7 - 1), "int16": (-(2**15), 2**15 - 1), "int32": (-(2**31), 2**31 - 1),
-    "int64": (-(2**63), 2**63 - 1), "uint8": (0, 2**8 - 1), "uint16": (0, 2**16 - 1),
-    "uint32": (0, 2**32 - 1), "uint64": (0, 2**64 - 1),
+    "int8": (-(2**7), 2**7 - 1),
+    "int16": (-(2**15), 2**15 - 1),
+    "int32": (-(2**31), 2**31 - 1),
+    "int64": (-(2**63), 2**63 - 1),
+    "uint8": (0, 2**8 - 1),
+    "uint16": (0, 2**16 - 1),
+    "uint32": (0, 2**32 - 1),
+    "uint64": (0, 2**64 - 1),
 }
 _UNIT_NAMES = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns": "nanoseconds"}
 _ORDER = ("object", "array", "string", "number", "integer", "boolean", "null")
@@ -51,13 +56,13 @@ def json_type(t: DType) -> str:
         return "integer"
     if n.startswith("float") or n == "decimal":
         return "number"
-    return {"bool": "boolean", "null": "null", "list": "array", "struct": "object",
-            "map": "object"}.get(n, "string")
+    return {"bool": "boolean", "null": "null", "list": "array", "struct": "object", "map": "object"}.get(n, "string")
 
 
 def _kind_type(key: str) -> str:
-    return {"struct": "object", "list": "array", "map": "object", "string": "string"}.get(key) \
-        or json_type(parse_key(key))
+    return {"struct": "object", "list": "array", "map": "object", "string": "string"}.get(key) or json_type(
+        parse_key(key)
+    )
 
 
 def _cell_types(classes: dict[str, int]) -> set[str]:
@@ -176,10 +181,15 @@ def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | 
     required = [p.name for p in fields if p.required]
     out: dict[str, Any] = {
         # First, so that a scan knows its own output from the first bytes (driftline.marker).
-        "$comment": remark(f"driftline schema, {mode} mode: "
-                           + ("every record as it arrives validates" if mode == "permissive"
-                              else "records after the cast rules validate")
-                           + f"; {rec.rows:,} rows in {rec.files:,} files"),
+        "$comment": remark(
+            f"driftline schema, {mode} mode: "
+            + (
+                "every record as it arrives validates"
+                if mode == "permissive"
+                else "records after the cast rules validate"
+            )
+            + f"; {rec.rows:,} rows in {rec.files:,} files"
+        ),
         "$schema": META_SCHEMA,
         "title": title or f"records of {rec.root}",
         "type": "object",

@@ -77,9 +77,11 @@ def load_rules(path: str | Path) -> dict[str, Any]:
     source = repr(str(path))
     doc = read_json_document(path, "rules file", ReportVersionError)
     if not isinstance(doc, dict) or doc.get("format") != RULES_FORMAT:
-        raise ReportVersionError(f"{source} is not a driftline rules file (no \"format\": \"{RULES_FORMAT}\")")
+        raise ReportVersionError(f'{source} is not a driftline rules file (no "format": "{RULES_FORMAT}")')
     if doc.get("version") != RULES_VERSION:
-        raise ReportVersionError(f"{source} has rules version {doc.get('version')!r} (at /version); this driftline "
-                                 f"reads version {RULES_VERSION}. Write the rules again with driftline schema --rules")
+        raise ReportVersionError(
+            f"{source} has rules version {doc.get('version')!r} (at /version); this driftline "
+            f"reads version {RULES_VERSION}. Write the rules again with driftline schema --rules"
+        )
     check_document(doc, "rules", "rules file", source)
     return doc

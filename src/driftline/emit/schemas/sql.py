@@ -102,11 +102,26 @@ def sql_type(plan: FieldPlan) -> str:
         return f"DECIMAL({t.precision},{t.scale})"
     if n == "timestamp":
         return "TIMESTAMP WITH TIME ZONE" if t.tz else "TIMESTAMP"
-    return {"bool": "BOOLEAN", "int8": "SMALLINT", "int16": "SMALLINT", "uint8": "SMALLINT",
-            "int32": "INTEGER", "uint16": "INTEGER", "int64": "BIGINT", "uint32": "BIGINT",
-            "uint64": "DECIMAL(20,0)", "float16": "REAL", "float32": "REAL",
-            "float64": "DOUBLE PRECISION", "binary": "BLOB", "date32": "DATE", "date64": "DATE",
-            "time32": "TIME", "time64": "TIME", "duration": "BIGINT"}[n]
+    return {
+        "bool": "BOOLEAN",
+        "int8": "SMALLINT",
+        "int16": "SMALLINT",
+        "uint8": "SMALLINT",
+        "int32": "INTEGER",
+        "uint16": "INTEGER",
+        "int64": "BIGINT",
+        "uint32": "BIGINT",
+        "uint64": "DECIMAL(20,0)",
+        "float16": "REAL",
+        "float32": "REAL",
+        "float64": "DOUBLE PRECISION",
+        "binary": "BLOB",
+        "date32": "DATE",
+        "date64": "DATE",
+        "time32": "TIME",
+        "time64": "TIME",
+        "duration": "BIGINT",
+    }[n]
 
 
 UNIT_NAMES = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns": "nanoseconds"}
@@ -185,16 +200,22 @@ def _number_guard(x: str, decimal: bool, zeros: bool = False) -> str:
         fits = f"(LENGTH({body}) <= 18 OR LENGTH({body}) = 19 AND ({body}) <= {bound})"
         return f"({body}) <> '' AND {_digits_only(f'({body})')} AND {fits}{padded}"
     no_point = f"REPLACE({body}, '.', '')"
-    return (f"({no_point}) <> '' AND {_digits_only(f'({no_point})')} "
-            f"AND LENGTH({body}) - LENGTH({no_point}) <= 1 "
-            f"AND SUBSTR({body}, 1, 1) <> '.' AND SUBSTR({body}, LENGTH({body}), 1) <> '.'{padded}")
+    return (
+        f"({no_point}) <> '' AND {_digits_only(f'({no_point})')} "
+        f"AND LENGTH({body}) - LENGTH({no_point}) <= 1 "
+        f"AND SUBSTR({body}, 1, 1) <> '.' AND SUBSTR({body}, LENGTH({body}), 1) <> '.'{padded}"
+    )
 
 
 def _tokens(plan: FieldPlan, col: Column) -> bool:
     """Whether the column maps null tokens: only where strings or CSV cells arrive."""
     tokens = plan.params.get("tokens", {})
-    return (tokens.get("string") == "null" and "string" in plan.inputs
-            or tokens.get("text") == "null" and "text" in plan.inputs)
+    return (
+        tokens.get("string") == "null"
+        and "string" in plan.inputs
+        or tokens.get("text") == "null"
+        and "text" in plan.inputs
+    )
 
 
 def _timestamp(x: str, plan: FieldPlan, t: DType) -> str:
@@ -212,8 +233,10 @@ def _timestamp(x: str, plan: FieldPlan, t: DType) -> str:
     assert zone is not None
     if not zone_is_fixed(zone):
         # Not portable: a zone name needs AT TIME ZONE (PostgreSQL, DuckDB with ICU).
-        return (f"CASE WHEN {zoned} THEN CAST({s} AS TIMESTAMP WITH TIME ZONE) "
-                f"ELSE CAST({s} AS TIMESTAMP) AT TIME ZONE {_lit(zone)} END")
+        return (
+            f"CASE WHEN {zoned} THEN CAST({s} AS TIMESTAMP WITH TIME ZONE) "
+            f"ELSE CAST({s} AS TIMESTAMP) AT TIME ZONE {_lit(zone)} END"
+        )
     offset = "+00:00" if zone in ("UTC", "Etc/UTC", "Z") else zone
     local = f"CASE WHEN LENGTH({s}) = 10 THEN {s} || ' 00:00:00' ELSE {s} END || {_lit(offset)}"
     return f"CAST(CASE WHEN {zoned} THEN {s} ELSE {local} END AS TIMESTAMP WITH TIME ZONE)"
@@ -245,8 +268,9 @@ def expression(col: Column) -> str:
     else:
         value = f"CAST({x} AS {typ})"
     if plan.effect("unparsed") and (t.name.startswith(("int", "uint")) or t.name in ("decimal", "float64")):
-        guard = _number_guard(x, decimal=not t.name.startswith(("int", "uint")),
-                              zeros="zero_padded" in plan.params.get("accept", []))
+        guard = _number_guard(
+            x, decimal=not t.name.startswith(("int", "uint")), zeros="zero_padded" in plan.params.get("accept", [])
+        )
         value = f"CASE WHEN {guard} THEN {value} ELSE NULL END"
     if nulls:
         return f"CASE WHEN {' OR '.join(nulls)} THEN NULL ELSE {value} END"
@@ -259,23 +283,35 @@ def insert_select(rec: Recommendation, table: str) -> str:
         return _NO_COLUMNS
     names = ", ".join(quote(c.name) for c in cols)
     exprs = ",\n".join(f"  {expression(c)} AS {quote(c.name)}" for c in cols)
-    return (f"INSERT INTO {quote(table)} ({names})\nSELECT\n{exprs}\nFROM {quote(table + '_staging')};\n")
+    return f"INSERT INTO {quote(table)} ({names})\nSELECT\n{exprs}\nFROM {quote(table + '_staging')};\n"
 
 
 def script(rec: Recommendation, table: str) -> str:
     """The whole SQL file: target table, staging table, and the cast rules."""
-    head = (f"-- {remark(f'driftline schema: {rec.root} ({rec.rows:,} rows in {rec.files:,} files)')}\n"
-            "-- Portable SQL. Load the raw values as text into the staging table\n"
-            "-- (blank CSV cells as NULL; lists and JSON-text columns as JSON text), then run the INSERT.\n")
+    head = (
+        f"-- {remark(f'driftline schema: {rec.root} ({rec.rows:,} rows in {rec.files:,} files)')}\n"
+        "-- Portable SQL. Load the raw values as text into the staging table\n"
+        "-- (blank CSV cells as NULL; lists and JSON-text columns as JSON text), then run the INSERT.\n"
+    )
     if not columns(rec):
         return head + "\n" + _NO_COLUMNS
-    rules = "".join(f"--   {c.name}: {c.plan.rule} → {c.plan.target.key()}\n" for c in columns(rec)
-                    if c.plan.rule != "identity")
-    return (head + "\n" + create_table(rec, table) + "\n" + create_staging(rec, table) + "\n"
-            + ("-- Cast rules:\n" + rules if rules else "") + insert_select(rec, table))
+    rules = "".join(
+        f"--   {c.name}: {c.plan.rule} → {c.plan.target.key()}\n" for c in columns(rec) if c.plan.rule != "identity"
+    )
+    return (
+        head
+        + "\n"
+        + create_table(rec, table)
+        + "\n"
+        + create_staging(rec, table)
+        + "\n"
+        + ("-- Cast rules:\n" + rules if rules else "")
+        + insert_select(rec, table)
+    )
 
 
 # -- loading staging rows -----------------------------------------------------------------------
+
 
 def _text(v: Any, as_json: bool) -> str | None:
     if v is None:
@@ -316,5 +352,7 @@ def placeholders(n: int, style: str = "?") -> str:
 def staging_insert(rec: Recommendation, table: str) -> str:
     """A parameterised INSERT for the staging table ('?' placeholders)."""
     cols: Sequence[Column] = columns(rec)
-    return (f"INSERT INTO {quote(table + '_staging')} ({', '.join(quote(c.name) for c in cols)}) "
-            f"VALUES ({placeholders(len(cols))})")
+    return (
+        f"INSERT INTO {quote(table + '_staging')} ({', '.join(quote(c.name) for c in cols)}) "
+        f"VALUES ({placeholders(len(cols))})"
+    )

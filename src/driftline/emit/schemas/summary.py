@@ -23,10 +23,17 @@ MAX_RULES_SHOWN = 200
 
 _VERB = {"null": "would become null", "change": "would change"}
 _LABEL = {
-    "null_token": "null tokens", "empty": "blank strings", "unparsed": "do not parse",
-    "unsafe_int": "integers beyond 2**53", "leap_second": "leap seconds", "truncated": "fractions cut",
-    "rounded": "more than 15 digits", "wrapped": "scalars wrapped in a list", "as_text": "written as text",
-    "as_json_text": "written as JSON text", "leading_zeros": "leading zeros dropped",
+    "null_token": "null tokens",
+    "empty": "blank strings",
+    "unparsed": "do not parse",
+    "unsafe_int": "integers beyond 2**53",
+    "leap_second": "leap seconds",
+    "truncated": "fractions cut",
+    "rounded": "more than 15 digits",
+    "wrapped": "scalars wrapped in a list",
+    "as_text": "written as text",
+    "as_json_text": "written as JSON text",
+    "leading_zeros": "leading zeros dropped",
     "out_of_range": "beyond float64's range",
 }
 
@@ -82,9 +89,12 @@ def schema_table(rec: Recommendation) -> Table:
         table.add_column(col)
     for plan in rec.walk():
         depth = plan.path.count(".") + plan.path.count("[]")
-        table.add_row(Text("  " * depth + safe_text(plan.path)), Text(safe_text(plan.target.key(), 60)),
-                      "yes" if plan.nullable else "no",
-                      Text(plan.rule, style="bold" if plan.rule != "identity" else "dim"))
+        table.add_row(
+            Text("  " * depth + safe_text(plan.path)),
+            Text(safe_text(plan.target.key(), 60)),
+            "yes" if plan.nullable else "no",
+            Text(plan.rule, style="bold" if plan.rule != "identity" else "dim"),
+        )
     return table
 
 
@@ -108,8 +118,10 @@ def render(rec: Recommendation, console: Console) -> None:
     head = Text()
     head.append("driftline schema ", style="bold")
     head.append(safe_text(rec.root, None))
-    head.append(f"\n{rec.rows:,} rows in {rec.files:,} files → {len(rec.fields)} top-level fields "
-                f"({rec.options.mode}; {len(rec.conflicts())} fields strict mode would refuse)")
+    head.append(
+        f"\n{rec.rows:,} rows in {rec.files:,} files → {len(rec.fields)} top-level fields "
+        f"({rec.options.mode}; {len(rec.conflicts())} fields strict mode would refuse)"
+    )
     console.print(head)
     console.print()
     console.print(schema_table(rec))
@@ -118,5 +130,9 @@ def render(rec: Recommendation, console: Console) -> None:
     if rec.dropped:
         console.print()
         for d in rec.dropped:
-            console.print(Text(f"dropped {safe_text(d.path)}: present in {d.present:,} of {d.container:,} "
-                               f"(min_field_share = {rec.options.min_field_share:g})"))
+            console.print(
+                Text(
+                    f"dropped {safe_text(d.path)}: present in {d.present:,} of {d.container:,} "
+                    f"(min_field_share = {rec.options.min_field_share:g})"
+                )
+            )
