@@ -13,7 +13,7 @@ import logging
 from collections.abc import Callable, Sequence
 from typing import Any
 
-from driftline.errors import DriftlineError
+from driftline.errors import EngineError
 from driftline.profile import Profile
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef
@@ -26,10 +26,6 @@ TASK_TIMEOUT_S = 3600.0  # --task-timeout: the longest the scan waits with no ta
 SCHEMES = ("tcp", "tls", "ws", "wss")
 TASKS_PER_WORKER = 4  # leaves per worker thread: enough to balance, few enough to keep overhead low
 _LOST = ("KilledWorker", "CommClosedError", "CancelledError", "FutureCancelledError", "FutureLostError")
-
-
-class EngineError(DriftlineError):
-    """The distributed engine is missing, cannot be reached, or lost the scan."""
 
 
 def _read_run(refs: Sequence[FileRef], opts: ReadOptions, root: str) -> Profile:

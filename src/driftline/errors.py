@@ -4,15 +4,18 @@
     ├── InputPathError             a path or URL that does not exist or cannot be listed
     ├── UnreadableFileError        a file that cannot be opened or decoded at all
     ├── PolicyError                a policy or option file with an unknown key or bad value
+    │   └── SchemaConflictError    strict mode: some fields need a lossy or conflicting cast rule
     ├── OptionError                an option value of the wrong type or outside its range
     ├── ReportVersionError         a saved report / state / rules file of another format
     ├── DamagedFileError           a report, baseline, rules, policy or state file of the right
     │                              format but the wrong shape: names the file and a JSON pointer
     ├── OutputError                an output path that cannot be written
-    ├── WorkerError                (driftline.workers) a worker process died twice on the
-                                   same files, or a task ran past its timeout
-    └── EngineError                (driftline.engines) the distributed engine is missing,
-                                   cannot be reached, or lost the scan
+    ├── ProfileError               two profiles that hold one file with different content
+    │                              (merge), or a Profile built with one file twice
+    ├── WorkerError                a worker process died twice on the same files, or a
+    │                              task ran past its timeout
+    └── EngineError                the distributed engine is missing, cannot be reached,
+                                   or lost the scan
 
 Per-file problems found during a scan are *not* raised: they become FileIssue
 entries in the profile (``profile.issues``) so that the scan goes on with the other
@@ -25,6 +28,11 @@ True
 """
 
 from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # for annotations only: errors.py imports nothing of driftline at run time
+    from driftline.recommend.plan import FieldPlan, Recommendation
 
 
 class DriftlineError(Exception):
@@ -110,3 +118,64 @@ class OutputError(DriftlineError):
     >>> isinstance(OutputError("out/r.json: folder 'out' does not exist"), DriftlineError)
     True
     """
+
+
+class ProfileError(DriftlineError, ValueError):
+    """Profiles that cannot combine: two that hold one file with different content, or one
+    built with the same relative path twice. Also a ValueError, which it was before.
+
+    >>> import driftline
+    >>> from driftline.sources.base import FileResult
+    >>> a = driftline.Profile("r", (FileResult("a.jsonl", "jsonl", None, (), 10, 0, rows=1),))
+    >>> b = driftline.Profile("r", (FileResult("a.jsonl", "jsonl", None, (), 10, 0, rows=2),))
+    >>> try:
+    ...     a.merge(b)
+    ... except ProfileError as exc:
+    ...     print(exc)
+    both profiles hold 'a.jsonl' with different content; rescan it
+    """
+
+
+class WorkerError(DriftlineError):
+    """A worker process died twice reading the same files, or a task ran past --task-timeout.
+
+    >>> isinstance(WorkerError("the worker process reading a.jsonl died twice"), DriftlineError)
+    True
+    """
+
+
+class EngineError(DriftlineError):
+    """The distributed engine is missing, cannot be reached, or lost the scan.
+
+    >>> import driftline
+    >>> try:
+    ...     driftline.scan(".", engine="dask", scheduler="nowhere")
+    ... except EngineError as exc:
+    ...     print(type(exc).__name__)
+    EngineError
+    """
+
+
+class SchemaConflictError(PolicyError):
+    """Strict mode: some fields need a rule that nulls, changes or reinterprets values.
+
+    The strict policy cannot be met by the data (so a PolicyError). recommendation holds
+    the permissive plans, conflicts the plans strict mode refused.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "x"}\\n')
+    >>> try:
+    ...     driftline.recommend(driftline.scan(d), mode="strict")
+    ... except SchemaConflictError as exc:
+    ...     print(exc.conflicts[0].path, exc.conflicts[0].rule)
+    n format_as_string
+    """
+
+    def __init__(self, recommendation: Recommendation) -> None:
+        self.recommendation: Recommendation = recommendation
+        self.conflicts: tuple[FieldPlan, ...] = recommendation.conflicts()
+        names = ", ".join(f"{p.path} ({p.rule})" for p in self.conflicts[:8])
+        more = f" and {len(self.conflicts) - 8} more" if len(self.conflicts) > 8 else ""
+        super().__init__(
+            f"strict mode: {len(self.conflicts)} fields need a lossy or conflicting cast rule: {names}{more}"
+        )

@@ -7,18 +7,22 @@ the sorted files, so the result is the same whatever order the files were read i
 
 from __future__ import annotations
 
+import os
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
 from typing import TYPE_CHECKING, Any
 
+from driftline.errors import ProfileError
 from driftline.observe import paths
 from driftline.observe.observation import Observation
 from driftline.observe.stats import FieldStats, merge_all
 from driftline.sources.base import FileIssue, FileResult
 from driftline.sources.discover import Skipped
 
-if TYPE_CHECKING:
+if TYPE_CHECKING:  # annotations only: these modules build on this one
+    from driftline.drift import Event
+    from driftline.recommend.plan import Recommendation
     from driftline.tables import Tables
 
 
@@ -93,11 +97,11 @@ class Profile:
         if rels != sorted(rels):
             object.__setattr__(self, "files", tuple(sorted(self.files, key=lambda f: f.rel)))
         if len(set(rels)) != len(rels):
-            raise ValueError("a profile holds each relative path once")
+            raise ProfileError("a profile holds each relative path once")
 
     # -- combining -------------------------------------------------------------------
     def merge(self, other: Profile) -> Profile:
-        """Union of two profiles' files; a file both hold must be the same result.
+        """Union of two profiles' files; a file both hold must be the same result (else ProfileError).
 
         >>> Profile("r", ()).merge(Profile("r", ())).rows
         0
@@ -105,7 +109,7 @@ class Profile:
         mine = {f.rel: f for f in self.files}
         for f in other.files:
             if f.rel in mine and mine[f.rel] != f:
-                raise ValueError(f"both profiles hold {f.rel!r} with different content; rescan it")
+                raise ProfileError(f"both profiles hold {f.rel!r} with different content; rescan it")
             mine[f.rel] = f
         # A file one side skipped (say, excluded) and the other read is read in the union.
         skipped = tuple(
@@ -156,13 +160,13 @@ class Profile:
         return summarise(self.stats, self.rows)
 
     @cached_property
-    def _drift(self) -> tuple[tuple[Any, ...], dict[str, int]]:
+    def _drift(self) -> tuple[tuple[Event, ...], dict[str, int]]:
         from driftline.drift import drift_summary
 
         return drift_summary(self)
 
     @property
-    def events(self) -> tuple[Any, ...]:
+    def events(self) -> tuple[Event, ...]:
         """Drift events in scan order (file path, then batch), each with its provenance: the
         first max_events of them (a scan option, 10,000 by default); see event_counts."""
         return self._drift[0]
@@ -267,15 +271,49 @@ class Profile:
 
         return to_polars(self)
 
-    def recommend(self, **options: Any) -> Any:
+    def recommend(self, **options: object) -> Recommendation:
         """The unified schema with cast rules (driftline.recommend; options as RecommendOptions).
 
         >>> Profile("r", ()).recommend(prefer_decimal=True).fields
         ()
         """
-        from driftline.recommend import recommend
+        from driftline.recommend import RecommendOptions, recommend
 
-        return recommend(self, **options)
+        return recommend(self, options=RecommendOptions().replace(**options))
+
+    # -- outputs: the bytes `driftline scan --json/--html` writes --------------------------
+    def write_json(self, path: str | os.PathLike[str]) -> None:
+        """Write the JSON report (docs/report.schema.json) to path, as `driftline scan --json` does.
+
+        The file is replaced atomically ('-' is standard output; see README, "Where outputs
+        go"); OutputError when it cannot be written. load_report reads it back equal.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> p = driftline.scan(d); p.write_json(d.parent / (d.name + ".json"))
+        >>> driftline.load_report(d.parent / (d.name + ".json")) == p
+        True
+        """
+        from driftline.emit.atomic import write_output
+        from driftline.report import dumps
+
+        write_output(os.fspath(path), dumps(self))
+
+    def write_html(self, path: str | os.PathLike[str]) -> None:
+        """Write the HTML report (one self-contained page) to path, as `driftline scan --html` does.
+
+        The file is replaced atomically ('-' is standard output); OutputError when it cannot
+        be written.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> page = d.parent / (d.name + ".html"); driftline.scan(d).write_html(page)
+        >>> page.read_text().startswith("<!-- driftline-output: ")
+        True
+        """
+        from driftline.emit.html import write_html
+
+        write_html(self, os.fspath(path))
 
     def _repr_html_(self) -> str:
         from driftline.notebook import profile_html

@@ -20,7 +20,7 @@ from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
-from driftline.errors import DriftlineError
+from driftline.errors import WorkerError
 
 log = logging.getLogger("driftline")
 
@@ -32,14 +32,6 @@ DEFAULT_TASK_TIMEOUT = 3600.0  # seconds: --task-timeout
 TEST_FAULT_ENV = "DRIFTLINE_TEST_WORKER_FAULT"
 
 Names = Callable[[Any], list[str]]  # the relative paths a task reads, for messages
-
-
-class WorkerError(DriftlineError):
-    """A worker process died twice reading the same files, or a task ran past --task-timeout.
-
-    >>> isinstance(WorkerError("the worker process reading a.jsonl died twice"), DriftlineError)
-    True
-    """
 
 
 def usable_cores() -> int:

@@ -14,17 +14,15 @@ from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
 from driftline.conceal import conceal
 from driftline.emit.atomic import is_stdout, own_descriptor, write_output
 from driftline.emit.safe import safe_text
-from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json, sql, summary
+from driftline.emit.schemas import rules_json, summary
+from driftline.emit.schemas.files import FORMATS, schema_file
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError, OutputError, PolicyError
 from driftline.gate.inputs import profile_of
 from driftline.ranges import RANGES
 from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
-from driftline.recommend.plan import Recommendation
 from driftline.scan import default_jobs
 from driftline.sources.base import DEFAULT_BATCH_ROWS, ReadOptions
-
-FORMATS = ("json-schema", "arrow", "arrow-text", "sql", "avro")
 
 SCHEMA_HELP = """Recommend one schema for files and folders (or a saved scan report), with a cast
 rule per field and what each rule would null or change, counted by the scan.
@@ -78,25 +76,6 @@ def _options(
         max_null_share=max_null_share,
         min_field_share=min_field_share,
     )
-
-
-def _table_name(rec: Recommendation, table: str | None) -> str:
-    if table:
-        return table
-    name = Path(rec.root).name or "records"
-    return name
-
-
-def _render(rec: Recommendation, fmt: str, table: str, json_mode: str) -> bytes:
-    if fmt == "json-schema":
-        return json_schema.dumps(json_schema.json_schema(rec, mode=json_mode, title=table))  # type: ignore[arg-type]
-    if fmt == "arrow":
-        return arrow_schema.ipc_bytes(rec)
-    if fmt == "arrow-text":
-        return arrow_schema.schema_text(rec).encode()
-    if fmt == "sql":
-        return sql.script(rec, table).encode()
-    return avro.dumps(avro.avro_schema(rec, name=avro.avro_name(table)))
 
 
 def _check_out(target: str | None, what: str) -> None:
@@ -227,9 +206,8 @@ def schema_command(
         for plan in exc.conflicts:
             err_console.print("  " + summary.rule_line(plan), markup=False)
         raise typer.Exit(EXIT_VIOLATION) from None
-    name = _table_name(rec, table)
     if to is not None:
-        write_output(out, _render(rec, to, name, json_mode or opts.mode))
+        write_output(out, schema_file(rec, to, table=table, json_mode=json_mode))  # type: ignore[arg-type]
     if rules is not None:
         write_output(rules, rules_json.dumps(rec))
     if not quiet:

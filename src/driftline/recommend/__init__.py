@@ -15,9 +15,7 @@ apply.py) casts real Arrow data by the same rules, which is how the counts are c
 
 from __future__ import annotations
 
-from typing import Any
-
-from driftline.errors import PolicyError
+from driftline.errors import OptionError, SchemaConflictError
 from driftline.profile import Profile
 from driftline.recommend.facts import gather
 from driftline.recommend.options import RecommendOptions
@@ -39,28 +37,12 @@ __all__ = [
 ]
 
 
-class SchemaConflictError(PolicyError):
-    """Strict mode: some fields need a rule that nulls, changes or reinterprets values.
-
-    The strict policy cannot be met by the data (so a PolicyError). recommendation holds
-    the permissive plans, conflicts the plans strict mode refused.
-    """
-
-    def __init__(self, recommendation: Recommendation) -> None:
-        self.recommendation = recommendation
-        self.conflicts = recommendation.conflicts()
-        names = ", ".join(f"{p.path} ({p.rule})" for p in self.conflicts[:8])
-        more = f" and {len(self.conflicts) - 8} more" if len(self.conflicts) > 8 else ""
-        super().__init__(
-            f"strict mode: {len(self.conflicts)} fields need a lossy or conflicting cast rule: {names}{more}"
-        )
-
-
-def recommend(profile: Profile, *, options: RecommendOptions | None = None, **overrides: Any) -> Recommendation:
+def recommend(profile: Profile, *, options: RecommendOptions | None = None, **overrides: object) -> Recommendation:
     """The unified schema for a profile: one FieldPlan per field path.
 
-    options or keyword overrides (the fields of RecommendOptions) set the policy; strict
-    mode raises SchemaConflictError when any plan is a conflict.
+    options or keyword overrides (the fields of RecommendOptions) set the policy; an
+    unknown option or a bad value raises PolicyError, a profile that is not a Profile
+    OptionError; strict mode raises SchemaConflictError when any plan is a conflict.
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.csv").write_text("n\\n7\\nn/a\\n")
@@ -68,6 +50,10 @@ def recommend(profile: Profile, *, options: RecommendOptions | None = None, **ov
     >>> p.rule, p.target.key(), [(e.cause, e.count) for e in p.effects]
     ('parse_integer', 'int64', [('null_token', 1)])
     """
+    if not isinstance(profile, Profile):
+        raise OptionError(f"recommend takes a Profile (driftline.scan or load_report), got {type(profile).__name__}")
+    if options is not None and not isinstance(options, RecommendOptions):
+        raise OptionError(f"options must be a RecommendOptions, got {type(options).__name__}")
     opts = (options or RecommendOptions()).replace(**overrides) if overrides else (options or RecommendOptions())
     tree = gather(profile)
     ctx = Context(tree, opts)

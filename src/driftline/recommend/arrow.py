@@ -6,11 +6,15 @@ carries its rule as metadata, and the schema carries every path's rule as JSON.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import orjson
 import pyarrow as pa
 
 from driftline.lattice import to_arrow
-from driftline.recommend.plan import FieldPlan, Recommendation
+
+if TYPE_CHECKING:  # annotations only: plan.py imports this module (Recommendation.schema)
+    from driftline.recommend.plan import FieldPlan, Recommendation
 
 RULE_KEY = b"driftline.rule"
 RULES_KEY = b"driftline.rules"

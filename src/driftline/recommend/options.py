@@ -136,7 +136,7 @@ class RecommendOptions:
     def to_json(self) -> dict[str, Any]:
         return asdict(self)
 
-    def replace(self, **changes: Any) -> RecommendOptions:
+    def replace(self, **changes: object) -> RecommendOptions:
         """A copy with some options changed (None values are ignored: 'not given')."""
         given = {k: v for k, v in changes.items() if v is not None}
         return RecommendOptions.from_mapping({**self.to_json(), **given})

@@ -6,13 +6,25 @@ lines) is derived from these by the emitters.
 
 from __future__ import annotations
 
+import os
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
+import pyarrow as pa
+
+from driftline.jsontypes import JSONObject
 from driftline.lattice import DType
 from driftline.observe.stats import Example
+from driftline.recommend.arrow import target_schema
 from driftline.recommend.options import RecommendOptions
+
+#: The schema files of `driftline schema --to`.
+SchemaFormat = Literal["json-schema", "arrow", "arrow-text", "sql", "avro"]
+#: What Recommendation.write writes: a schema file, or the cast rules (`--rules`).
+OutputFormat = SchemaFormat | Literal["rules"]
+#: JSON Schema of the records as they arrive (permissive), or after the cast rules (strict).
+JsonMode = Literal["permissive", "strict"]
 
 EffectKind = Literal["null", "change", "note"]
 
@@ -196,11 +208,122 @@ class Recommendation:
         """Plans that strict mode refuses (see is_conflict)."""
         return tuple(p for p in self.walk() if is_conflict(p))
 
-    def arrow_schema(self) -> Any:
-        """The target as a pyarrow.Schema (with the rules as field metadata)."""
-        from driftline.recommend.arrow import target_schema
+    # -- the schema and its files: exactly what `driftline schema` writes ----------------
+    # The files are rendered by driftline.emit.schemas (one function, schema_file), which
+    # builds on this module: hence the imports inside the methods.
+    @property
+    def schema(self) -> pa.Schema:
+        """The unified schema as a pyarrow.Schema: each field's rule as field metadata, every
+        path's rule as schema metadata (the schema apply() casts to, and `--to arrow` writes).
 
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+        >>> driftline.scan(d).recommend().schema.field("x")
+        pyarrow.Field<x: double not null>
+        """
         return target_schema(self)
+
+    def arrow_schema(self) -> pa.Schema:
+        """The target as a pyarrow.Schema (with the rules as field metadata); the same as schema."""
+        return target_schema(self)
+
+    @property
+    def rules(self) -> JSONObject:
+        """The cast rules file as JSON data (docs/rules.schema.json): what `--rules` writes, as a dict.
+
+        A new dict on every access (changing it changes nothing here).
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+        >>> rules = driftline.scan(d).recommend().rules
+        >>> rules["format"], [(f["path"], f["rule"], f["target"]) for f in rules["fields"]]
+        ('driftline-rules', [('x', 'widen_numeric', 'float64')])
+        """
+        from driftline.emit.schemas.rules_json import rules_document
+
+        return rules_document(self)
+
+    def to_json_schema(self, *, mode: JsonMode | None = None, title: str | None = None) -> str:
+        """The JSON Schema 2020-12 document as text: `--to json-schema` (`--json-mode`, `--table`).
+
+        mode 'permissive' describes the records as they arrive, 'strict' the records after
+        the cast rules (default: the recommendation's own mode); title defaults to the root
+        folder's name. json.loads gives the document as a dict.
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
+        >>> doc = json.loads(driftline.scan(d).recommend(parse_strings="always").to_json_schema())
+        >>> doc["$schema"], doc["properties"]["n"]["type"]
+        ('https://json-schema.org/draft/2020-12/schema', ['integer', 'string'])
+        """
+        from driftline.emit.schemas.files import schema_file
+
+        return schema_file(self, "json-schema", table=title, json_mode=mode).decode()
+
+    def to_sql(self, *, table: str | None = None) -> str:
+        """The SQL script `--to sql --table TABLE` writes: CREATE TABLE, a staging table, and the
+        cast rules as INSERT … SELECT (table defaults to the root folder's name).
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> print(driftline.scan(d).recommend().to_sql(table="raw").split("\\n\\n")[1])
+        CREATE TABLE "raw" (
+          "x" BIGINT NOT NULL
+        );
+        """
+        from driftline.emit.schemas.files import schema_file
+
+        return schema_file(self, "sql", table=table).decode()
+
+    def to_avro(self, *, name: str | None = None) -> str:
+        """The Avro schema `--to avro --table NAME` writes, as JSON text (name: the record's,
+        made a valid Avro name; default the root folder's name).
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{}\\n')
+        >>> avsc = json.loads(driftline.scan(d).recommend().to_avro(name="pm2.5"))
+        >>> avsc["name"], avsc["fields"][0]["type"]
+        ('pm2_5', ['null', 'long'])
+        """
+        from driftline.emit.schemas.files import schema_file
+
+        return schema_file(self, "avro", table=name).decode()
+
+    def to_arrow_ipc(self) -> bytes:
+        """The Arrow IPC schema message `--to arrow` writes (pyarrow.ipc.read_schema reads it).
+
+        >>> import driftline, tempfile, pathlib, pyarrow as pa
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> rec = driftline.scan(d).recommend()
+        >>> pa.ipc.read_schema(pa.py_buffer(rec.to_arrow_ipc())).equals(rec.schema, check_metadata=True)
+        True
+        """
+        from driftline.emit.schemas.files import schema_file
+
+        return schema_file(self, "arrow")
+
+    def write(
+        self,
+        path: str | os.PathLike[str],
+        to: OutputFormat,
+        *,
+        table: str | None = None,
+        json_mode: JsonMode | None = None,
+    ) -> None:
+        """Write one file as `driftline schema --to TO --out PATH` (or `--rules PATH` for to="rules") does.
+
+        The file is replaced atomically ('-' is standard output; see README, "Where outputs
+        go"); OutputError when it cannot be written, OptionError for an unknown format.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> rec = driftline.scan(d).recommend(); out = d.parent / (d.name + ".sql")
+        >>> rec.write(out, "sql", table="raw"); out.read_text() == rec.to_sql(table="raw")
+        True
+        """
+        from driftline.emit.schemas.files import write_file
+
+        write_file(self, path, to, table=table, json_mode=json_mode)
 
 
 #: Rules whose very use means the kinds of a field disagree.

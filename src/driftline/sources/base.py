@@ -6,7 +6,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-from driftline.errors import PolicyError
+from driftline.errors import OptionError, PolicyError
 from driftline.observe.observation import Observation
 from driftline.observe.stats import pickled_by_fields
 from driftline.sources.dialect import Dialect
@@ -87,7 +87,10 @@ class ReadOptions:
         if self.encoding is not None:
             from driftline.sources.encoding import codec_name
 
-            codec_name(self.encoding)  # ValueError for a name Python's codecs do not know
+            try:
+                codec_name(self.encoding)
+            except ValueError as exc:  # a name Python's codecs do not know
+                raise OptionError(str(exc)) from None
         for spec in self.csv_dialects:
             parse_pin(spec)  # a bad pin is an error before any file is read
         if self.delimiter is not None:

@@ -1,0 +1,76 @@
+"""Each file `driftline schema` writes, by format: the one function the CLI and Recommendation share.
+
+``schema_file(rec, "sql", table="raw")`` is the exact bytes of ``driftline schema --to sql
+--table raw``; ``write_file`` writes them (or the cast rules) where a person expects
+(emit.atomic).
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+from typing import get_args
+
+from driftline.emit.atomic import write_output
+from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json
+from driftline.emit.schemas import sql as sql_file
+from driftline.errors import OptionError
+from driftline.recommend.plan import JsonMode, OutputFormat, Recommendation, SchemaFormat
+
+#: The formats of --to, in the order --help lists them.
+FORMATS: tuple[SchemaFormat, ...] = get_args(SchemaFormat)
+
+
+def default_name(rec: Recommendation) -> str:
+    """The table (SQL), record (Avro) and title (JSON Schema) name when none is given: the root folder's.
+
+    >>> from driftline.recommend.options import RecommendOptions
+    >>> default_name(Recommendation("/data/landing", 0, 0, (), RecommendOptions()))
+    'landing'
+    """
+    return Path(rec.root).name or "records"
+
+
+def schema_file(
+    rec: Recommendation, to: SchemaFormat, *, table: str | None = None, json_mode: JsonMode | None = None
+) -> bytes:
+    """The file `driftline schema --to TO [--table TABLE] [--json-mode MODE]` writes.
+
+    table names the SQL table, the Avro record and the JSON Schema's title (default: the
+    root folder's name); json_mode defaults to the recommendation's mode.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+    >>> print(schema_file(driftline.scan(d).recommend(), "sql", table="t").decode().split("\\n\\n")[1])
+    CREATE TABLE "t" (
+      "x" BIGINT NOT NULL
+    );
+    """
+    name = table or default_name(rec)
+    if to == "json-schema":
+        mode = json_mode or rec.options.mode
+        if mode not in get_args(JsonMode):
+            raise OptionError(f"json_mode must be permissive or strict, got {mode!r}")
+        return json_schema.dumps(json_schema.json_schema(rec, mode=mode, title=name))
+    if to == "arrow":
+        return arrow_schema.ipc_bytes(rec)
+    if to == "arrow-text":
+        return arrow_schema.schema_text(rec).encode()
+    if to == "sql":
+        return sql_file.script(rec, name).encode()
+    if to == "avro":
+        return avro.dumps(avro.avro_schema(rec, name=avro.avro_name(name)))
+    raise OptionError(f"unknown schema format {to!r}; choose one of {', '.join(FORMATS)}")
+
+
+def write_file(
+    rec: Recommendation,
+    path: str | os.PathLike[str],
+    to: OutputFormat,
+    *,
+    table: str | None = None,
+    json_mode: JsonMode | None = None,
+) -> None:
+    """Write a schema file (as schema_file) or, for to="rules", the cast rules file (--rules)."""
+    data = rules_json.dumps(rec) if to == "rules" else schema_file(rec, to, table=table, json_mode=json_mode)
+    write_output(os.fspath(path), data)
