@@ -12,6 +12,7 @@ from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
+from driftline.jsontypes import JSONObject, JSONValue
 from driftline.lattice import UNKNOWN, DType, is_widening, join, type_of_key, type_text
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
@@ -59,7 +60,7 @@ class Event:
     count: int  # how many values in that batch show it
     seq: int = field(default=0, compare=False)  # position of the batch in scan order
 
-    def to_json(self) -> dict[str, Any]:
+    def to_json(self) -> JSONObject:
         """The event as it appears in the JSON report's "events" list."""
         return {
             "kind": self.kind,
@@ -76,8 +77,14 @@ class Event:
         }
 
     @staticmethod
-    def from_json(d: Mapping[str, Any]) -> Event:
-        """The event back from its report form (to_json's inverse; seq is not kept)."""
+    def from_json(data: Mapping[str, JSONValue]) -> Event:
+        """The event back from its report form (to_json's inverse; seq is not kept).
+
+        >>> e = Event("field-new", "x", None, "int64", "a.jsonl", (), 0, 0, 1, "1", 1)
+        >>> Event.from_json(e.to_json()) == e
+        True
+        """
+        d: Mapping[str, Any] = data  # checked against docs/report.schema.json when a report is loaded
         return Event(
             d["kind"],
             d["path"],
@@ -127,7 +134,8 @@ def drift_summary(profile: Profile, limit: int | None = None) -> tuple[tuple[Eve
     and partitions finds events by the million.
     """
     if limit is None:
-        limit = int(profile.options.get("max_events", DEFAULT_MAX_EVENTS))
+        given = profile.options.get("max_events")
+        limit = given if isinstance(given, int) else DEFAULT_MAX_EVENTS
     counts: Counter[str] = Counter()
 
     def counted() -> Iterator[Event]:

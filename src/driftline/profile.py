@@ -14,6 +14,7 @@ from functools import cached_property
 from typing import TYPE_CHECKING, Any
 
 from driftline.errors import ProfileError
+from driftline.jsontypes import JSONValue
 from driftline.observe import paths
 from driftline.observe.observation import Observation
 from driftline.observe.stats import FieldStats, merge_all
@@ -89,7 +90,7 @@ class Profile:
     root: str
     files: tuple[FileResult, ...]
     skipped: tuple[Skipped, ...] = ()
-    options: Mapping[str, Any] = field(default_factory=dict, compare=False)
+    options: Mapping[str, JSONValue] = field(default_factory=dict, compare=False)
     duration_s: float = field(default=0.0, compare=False)
 
     def __post_init__(self) -> None:

@@ -23,6 +23,7 @@ from rich.text import Text
 
 from driftline.emit.safe import safe_text
 from driftline.gate.baseline import NULL_CLASSES
+from driftline.jsontypes import JSONObject
 from driftline.lattice import DType, join, join_all, type_of_key, type_text
 from driftline.observe import paths
 from driftline.observe.stats import Example, FieldStats
@@ -85,12 +86,12 @@ class Diff:
         n = Counter(c.kind for c in self.changes)
         return {k: n[k] for k in DIFF_KINDS if n[k]}
 
-    def to_json(self) -> dict[str, Any]:
+    def to_json(self) -> JSONObject:
         """The diff as plain JSON data: both sides, the counts and every change."""
         return {
             "before": self.before,
             "after": self.after,
-            "counts": self.counts(),
+            "counts": dict(self.counts()),
             "changes": [c.to_json() for c in self.changes],
         }
 

@@ -22,6 +22,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from driftline.errors import InputPathError, PolicyError
+from driftline.jsontypes import JSONObject
 from driftline.validation import check_document, pointer
 
 Action = Literal["allow", "warn", "fail"]
@@ -115,7 +116,7 @@ class Policy:
         action: Action = getattr(self, rule)
         return action
 
-    def to_dict(self) -> dict[str, Any]:
+    def to_dict(self) -> JSONObject:
         """Every key with its value, as a policy file would spell it."""
         return dataclasses.asdict(self)
 

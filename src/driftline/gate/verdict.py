@@ -19,6 +19,7 @@ from rich.text import Text
 from driftline import __version__
 from driftline.emit.safe import safe_text
 from driftline.gate.policy import RULES
+from driftline.jsontypes import JSONObject
 from driftline.marker import remark
 
 VERDICT_FORMAT = "driftline-verdict"
@@ -114,7 +115,7 @@ class Verdict:
         """0 passed (warnings allowed), 1 a policy violation."""
         return 0 if self.passed else 1
 
-    def to_json(self) -> dict[str, Any]:
+    def to_json(self) -> JSONObject:
         """The verdict as plain JSON data: passed, exit code, violations, warnings and rules."""
         return {
             "format": VERDICT_FORMAT,
