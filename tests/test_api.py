@@ -10,6 +10,7 @@ import importlib
 import importlib.metadata
 import inspect
 import pickle
+import typing
 from pathlib import Path
 
 import polars as pl
@@ -25,6 +26,7 @@ SURFACE = [
     "DamagedFileError",
     "Diff",
     "DriftlineError",
+    "EngineError",
     "Event",
     "FieldSummary",
     "InputPathError",
@@ -33,11 +35,14 @@ SURFACE = [
     "Policy",
     "PolicyError",
     "Profile",
+    "ProfileError",
     "ReadOptions",
     "Recommendation",
     "ReportVersionError",
+    "SchemaConflictError",
     "UnreadableFileError",
     "Verdict",
+    "WorkerError",
     "__version__",
     "check",
     "diff",
@@ -56,11 +61,14 @@ DOCTEST_MODULES = [
     "driftline.documents",
     "driftline.drift",
     "driftline.emit.units",
+    "driftline.emit.schemas.files",
     "driftline.errors",
+    "driftline.jsontypes",
     "driftline.lattice",
     "driftline.notebook",
     "driftline.profile",
     "driftline.observe.paths",
+    "driftline.recommend.plan",
     "driftline.report",
     "driftline.sources.base",
     "driftline.sources.dialect",
@@ -144,15 +152,166 @@ def test_docstring_examples_run(module: str):
     assert result.attempted > 0
 
 
+def _all_subclasses(cls: type) -> list[type]:
+    return [c for sub in cls.__subclasses__() for c in (sub, *_all_subclasses(sub))]
+
+
 def test_error_tree_matches_its_documentation():
-    import driftline.engines  # noqa: F401  (defines EngineError; imported so the tree is complete)
     import driftline.errors as errors
 
-    documented = [line.split()[1] for line in errors.__doc__.splitlines() if line.strip().startswith(("├──", "└──"))]
-    subclasses = [c.__name__ for c in driftline.DriftlineError.__subclasses__()]
-    assert sorted(documented) == sorted(subclasses)
-    in_errors = {n for n, v in vars(errors).items() if isinstance(v, type) and issubclass(v, driftline.DriftlineError)}
+    # The whole tree, nested entries too (a line holds "├── Name" or "└── Name").
+    documented = [
+        line.split("── ")[1].split()[0]
+        for line in (errors.__doc__ or "").splitlines()
+        if "├── " in line or "└── " in line
+    ]
+    driftline_errors = [c for c in _all_subclasses(driftline.DriftlineError) if c.__module__.startswith("driftline")]
+    assert sorted(documented) == sorted(c.__name__ for c in driftline_errors)
+    # Every error class lives in errors.py and is exported from the package.
+    assert {c.__module__ for c in driftline_errors} == {"driftline.errors"}
+    in_errors = {n for n, v in vars(errors).items() if isinstance(v, type) and issubclass(v, Exception)}
+    assert in_errors == {c.__name__ for c in driftline_errors} | {"DriftlineError"}
     assert in_errors <= set(driftline.__all__)
+    assert all(getattr(driftline, n) is getattr(errors, n) for n in in_errors)
+
+
+def test_no_exception_class_outside_errors_py_escapes_to_a_user():
+    # Exception classes elsewhere are internal signals, caught where they are raised:
+    # none derives from DriftlineError, and none is public.
+    import ast
+
+    src = Path(driftline.__file__).parent
+    found = {}
+    for path in sorted(src.rglob("*.py")):
+        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
+            if isinstance(node, ast.ClassDef) and any(
+                isinstance(b, ast.Name)
+                and b.id.endswith(("Error", "Exception"))
+                or getattr(b, "id", "") == "ValueError"
+                for b in node.bases
+            ):
+                found.setdefault(str(path.relative_to(src)), []).append(node.name)
+    outside = {k: v for k, v in found.items() if k != "errors.py"}
+    assert outside == {
+        "gate/baseline.py": ["_SchemaError"],
+        "observe/jsonbatch.py": ["NotExact"],
+        "observe/records.py": ["DepthExceeded"],
+        "recommend/apply.py": ["SchemaMismatch"],
+        "sources/csvsplit.py": ["_TooDense"],
+        "sources/formats.py": ["LimitExceeded", "CorruptStream"],
+    }
+    assert not set().union(*outside.values()) & set(driftline.__all__)
+
+
+# -- every bad argument is a DriftlineError --------------------------------------------------
+
+
+def _bad_calls(d: Path, profile: driftline.Profile) -> dict[str, tuple[type, object]]:
+    rec = profile.recommend()
+    return {
+        "scan batch_rows=0": (driftline.OptionError, lambda: driftline.scan(d, batch_rows=0)),
+        "scan jobs=0": (driftline.OptionError, lambda: driftline.scan(d, jobs=0)),
+        "scan encoding": (driftline.OptionError, lambda: driftline.scan(d, encoding="no-such-codec")),
+        "scan delimiter": (driftline.PolicyError, lambda: driftline.scan(d, delimiter="ab")),
+        "scan csv_dialect": (driftline.PolicyError, lambda: driftline.scan(d, csv_dialect="x=y")),
+        "scan example_values": (driftline.OptionError, lambda: driftline.scan(d, example_values="all")),
+        "scan engine": (driftline.DriftlineError, lambda: driftline.scan(d, engine="spark")),
+        "scan where": (driftline.DriftlineError, lambda: driftline.scan(d, where=["day"])),
+        "scan missing path": (driftline.InputPathError, lambda: driftline.scan(d / "nope")),
+        "ReadOptions": (driftline.OptionError, lambda: driftline.ReadOptions(max_columns=0)),
+        "recommend unknown option": (driftline.PolicyError, lambda: driftline.recommend(profile, colour="red")),
+        "recommend bad mode": (driftline.PolicyError, lambda: driftline.recommend(profile, mode="lenient")),
+        "recommend bad share": (driftline.PolicyError, lambda: profile.recommend(max_null_share=2)),
+        "recommend not a profile": (driftline.OptionError, lambda: driftline.recommend("landing/")),
+        "recommend strict": (driftline.SchemaConflictError, lambda: driftline.recommend(profile, mode="strict")),
+        "write unknown format": (driftline.OptionError, lambda: rec.write(d.parent / "x", "yaml")),  # type: ignore[arg-type]
+        "to_json_schema mode": (driftline.OptionError, lambda: rec.to_json_schema(mode="lenient")),  # type: ignore[arg-type]
+        "write into a missing folder": (driftline.OutputError, lambda: rec.write(d / "no" / "x.sql", "sql")),
+        "write_json onto a folder": (driftline.OutputError, lambda: profile.write_json(d)),
+        "write_html into a missing folder": (driftline.OutputError, lambda: profile.write_html(d / "no" / "r.html")),
+        "check missing baseline": (driftline.InputPathError, lambda: driftline.check(d, baseline=d / "none.json")),
+        "check missing policy": (
+            driftline.InputPathError,
+            lambda: driftline.check(d, baseline=d / "a.jsonl", policy=d / "none.toml"),
+        ),
+        "diff missing side": (driftline.InputPathError, lambda: driftline.diff(d / "nope", d)),
+        "load_report of data": (driftline.ReportVersionError, lambda: driftline.load_report(d / "a.jsonl")),
+        "load_report missing": (driftline.InputPathError, lambda: driftline.load_report(d / "none.json")),
+        "merge different content": (
+            driftline.ProfileError,
+            lambda: profile.merge(driftline.scan(d, batch_rows=1)),
+        ),
+    }
+
+
+def test_every_bad_argument_raises_a_driftline_error(tmp_path: Path):
+    d = tmp_path / "in"
+    write_lines(d / "a.jsonl", ['{"n": 1}', '{"n": "x"}'])
+    profile = driftline.scan(d)
+    for name, (expected, call) in _bad_calls(d, profile).items():
+        with pytest.raises(driftline.DriftlineError) as info:
+            call()  # type: ignore[operator]
+        assert isinstance(info.value, expected), (name, info.value)
+        assert "Traceback" not in str(info.value) and str(info.value), name
+    # OptionError and ProfileError stay ValueErrors, as these checks raised before.
+    assert issubclass(driftline.OptionError, ValueError) and issubclass(driftline.ProfileError, ValueError)
+
+
+# -- no Any in the public signatures ----------------------------------------------------------
+
+
+def _type_names() -> dict[str, object]:
+    """Names the public modules import for annotations only (under TYPE_CHECKING)."""
+    import sys
+
+    names: dict[str, object] = {}
+    for mod_name, mod in sorted(sys.modules.items()):
+        if mod_name.startswith("driftline"):
+            for k, v in vars(mod).items():
+                if isinstance(v, type) and v.__module__.startswith("driftline"):
+                    names.setdefault(k, v)
+    return names
+
+
+def _mentions_any(hint: object) -> bool:
+    return hint is typing.Any or any(_mentions_any(a) for a in typing.get_args(hint))
+
+
+def _public_callables() -> list[tuple[str, object]]:
+    out: list[tuple[str, object]] = []
+    for name, obj in _public_objects():
+        if inspect.isfunction(obj):
+            out.append((name, obj))
+        if not inspect.isclass(obj):
+            continue
+        out.append((f"{name} (fields)", obj))
+        for attr, member in vars(obj).items():
+            if attr.startswith("_") and attr != "__init__":
+                continue
+            target = member.fget if isinstance(member, property) else getattr(member, "func", member)
+            if isinstance(member, staticmethod | classmethod):
+                target = member.__func__
+            if callable(target):
+                out.append((f"{name}.{attr}", target))
+    return out
+
+
+def test_public_signatures_hold_no_any():
+    import driftline.recommend.plan  # noqa: F401  (annotation-only names of profile.py)
+    import driftline.tables  # noqa: F401
+
+    extra = _type_names()
+    with_any = []
+    for qual, fn in _public_callables():
+        module_globals = getattr(fn, "__globals__", None) or vars(importlib.import_module(fn.__module__))  # type: ignore[attr-defined]
+        hints = typing.get_type_hints(fn, globalns={**extra, **module_globals})
+        with_any += [f"{qual}: {k}" for k, v in hints.items() if _mentions_any(v)]
+    assert with_any == []
+    # The check sees through aliases: it would catch an Any (checked on a stand-in).
+
+    def leaky(x: dict[str, list[typing.Any]]) -> None: ...
+
+    assert _mentions_any(typing.get_type_hints(leaky)["x"])
 
 
 # -- Profile as a value ----------------------------------------------------------------------
@@ -324,4 +483,4 @@ def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pyt
     test = parser.get_doctest(text, {}, "docs/python.md", "docs/python.md", 0)
     runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS)
     runner.run(test)
-    assert runner.summarize(verbose=False) == (0, 24)
+    assert runner.summarize(verbose=False) == (0, 32)
