@@ -117,7 +117,7 @@ def test_rules_and_arrow_text_are_what_schema_writes(scanned: Path, tmp_path: Pa
     assert rec.rules == json.loads((tmp_path / "cli.rules.json").read_bytes())
 
 
-def test_strict_options_give_the_same_files_as_the_flags(scanned: Path, tmp_path: Path):
+def test_recommend_options_give_the_same_files_as_the_flags(scanned: Path, tmp_path: Path):
     flags = ["--prefer-decimal", "--timestamp-unit", "ms", "--null-tokens", "never"]
     run("schema", str(scanned / "r.json"), "--to", "json-schema", "--out", str(tmp_path / "s.json"), *flags, "-q")
     rec = driftline.load_report(scanned / "r.json").recommend(
