@@ -261,10 +261,11 @@ def test_every_bad_argument_raises_a_driftline_error(tmp_path: Path):
 
 
 def _type_names() -> dict[str, object]:
-    """Names the public modules import for annotations only (under TYPE_CHECKING)."""
+    """Names the public modules import for annotations only (under TYPE_CHECKING): driftline's
+    classes, and pyarrow and polars by their usual short names."""
     import sys
 
-    names: dict[str, object] = {}
+    names: dict[str, object] = {"pa": pa, "pl": pl}
     for mod_name, mod in sorted(sys.modules.items()):
         if mod_name.startswith("driftline"):
             for k, v in vars(mod).items():

@@ -11,7 +11,7 @@ import os
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 from driftline.errors import ProfileError
 from driftline.jsontypes import JSONValue
@@ -22,6 +22,9 @@ from driftline.sources.base import FileIssue, FileResult
 from driftline.sources.discover import Skipped
 
 if TYPE_CHECKING:  # annotations only: these modules build on this one
+    import polars as pl
+    import pyarrow as pa
+
     from driftline.drift import Event
     from driftline.recommend.plan import Recommendation
     from driftline.tables import Tables
@@ -241,17 +244,17 @@ class Profile:
         raise KeyError(rel)
 
     # -- pickling: only the content, never the cached views -------------------------------
-    def __getstate__(self) -> dict[str, Any]:
+    def __getstate__(self) -> dict[str, object]:
         # cached_property stores fields/events/stats in __dict__; a pickle (a process pool
         # result, a saved notebook value) carries only the content and rebuilds the views.
         return {f: getattr(self, f) for f in ("root", "files", "skipped", "options", "duration_s")}
 
-    def __setstate__(self, state: dict[str, Any]) -> None:
+    def __setstate__(self, state: dict[str, object]) -> None:
         for k, v in state.items():
             object.__setattr__(self, k, v)
 
     # -- tables and notebook views --------------------------------------------------------
-    def to_arrow(self) -> Tables:
+    def to_arrow(self) -> Tables[pa.Table]:
         """Fields and drift events as pyarrow Tables: `fields, events = profile.to_arrow()`.
 
         >>> fields, events = Profile("r", ()).to_arrow()
@@ -262,7 +265,7 @@ class Profile:
 
         return to_arrow(self)
 
-    def to_polars(self) -> Tables:
+    def to_polars(self) -> Tables[pl.DataFrame]:
         """Fields and drift events as polars DataFrames, with the same columns as to_arrow().
 
         >>> Profile("r", ()).to_polars().fields.shape

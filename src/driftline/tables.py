@@ -10,7 +10,7 @@ without the map type, which it does not support.
 from __future__ import annotations
 
 from collections.abc import Mapping
-from typing import TYPE_CHECKING, Any, NamedTuple
+from typing import TYPE_CHECKING, Any, Generic, NamedTuple, TypeVar
 
 import pyarrow as pa
 
@@ -53,11 +53,17 @@ EVENTS_SCHEMA = pa.schema(
 )
 
 
-class Tables(NamedTuple):
-    """The two tables of a profile: one row per field path, one row per drift event."""
+T = TypeVar("T")
 
-    fields: Any  # pyarrow.Table, or polars.DataFrame from to_polars
-    events: Any
+
+class Tables(NamedTuple, Generic[T]):
+    """The two tables of a profile: one row per field path, one row per drift event.
+
+    Tables[pyarrow.Table] from to_arrow, Tables[polars.DataFrame] from to_polars.
+    """
+
+    fields: T
+    events: T
 
 
 def _counts(m: Mapping[str, int]) -> list[dict[str, Any]]:
@@ -106,12 +112,12 @@ def events_table(profile: Profile) -> pa.Table:
     return pa.Table.from_pylist(rows, schema=EVENTS_SCHEMA)
 
 
-def to_arrow(profile: Profile) -> Tables:
+def to_arrow(profile: Profile) -> Tables[pa.Table]:
     """Fields and events as pyarrow Tables."""
     return Tables(fields_table(profile), events_table(profile))
 
 
-def to_polars(profile: Profile) -> Tables:
+def to_polars(profile: Profile) -> Tables[pl.DataFrame]:
     """Fields and events as polars DataFrames (converted from the Arrow tables)."""
     import polars as pl
 

@@ -16,7 +16,6 @@ from __future__ import annotations
 from collections import Counter
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
 
 from rich.console import Console
 from rich.text import Text
@@ -54,7 +53,7 @@ class FieldChange:
     after: str | None
     example: Example | None = None
 
-    def to_json(self) -> dict[str, Any]:
+    def to_json(self) -> JSONObject:
         ex = self.example
         return {
             "kind": self.kind,

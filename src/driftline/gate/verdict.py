@@ -11,7 +11,6 @@ import re
 import xml.etree.ElementTree as ET
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any
 
 from rich.console import Console
 from rich.text import Text
@@ -63,7 +62,7 @@ class Violation:
             parts.append(f"row {self.row}" + (f" (line {self.line})" if self.line is not None else ""))
         return ", ".join(parts)
 
-    def to_json(self) -> dict[str, Any]:
+    def to_json(self) -> JSONObject:
         """The violation as plain JSON data, with its provenance."""
         return {
             "rule": self.rule,
