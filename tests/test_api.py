@@ -68,6 +68,7 @@ DOCTEST_MODULES = [
     "driftline.notebook",
     "driftline.profile",
     "driftline.observe.paths",
+    "driftline.recommend",
     "driftline.recommend.plan",
     "driftline.report",
     "driftline.sources.base",
