@@ -10,6 +10,10 @@ pyarrow.compute; loading them is the only per-value Python, and it does no casti
 iter_records() gives the same data as JSON values (what a JSON Schema validates):
 JSON records as parsed, CSV cells as the scan reads them (by content class), Parquet
 rows with temporal values as RFC 3339 / ISO 8601 text.
+
+This module reads no file itself: the rows come from the scan's readers through the
+format registry (sources/readers.read_values), so they are the rows the scan profiled,
+with its encoding, dialect and header.  apply.py casts them; the two are one pair.
 """
 
 from __future__ import annotations
