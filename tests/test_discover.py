@@ -9,7 +9,8 @@ import pytest
 
 from driftline.errors import InputPathError
 from driftline.sources.discover import discover, partition_values
-from driftline.sources.formats import detect_compression, detect_format
+from driftline.sources.formats import detect_compression
+from driftline.sources.registry import detect_format
 
 
 def _touch(path: Path, data: bytes = b'{"a": 1}\n') -> Path:

@@ -55,8 +55,8 @@ def _first_text(res: FileResult) -> dict[str, str]:
     return out
 
 
-def _utf8_of(data: bytes, fmt: str = "csv", pin: str | None = None) -> tuple[bytes, TextEncoding]:
-    text = TextStream(io.BufferedReader(io.BytesIO(data)), fmt, pin)  # type: ignore[arg-type]
+def _utf8_of(data: bytes, pin: str | None = None) -> tuple[bytes, TextEncoding]:
+    text = TextStream(io.BufferedReader(io.BytesIO(data)), False, pin)  # type: ignore[arg-type]  # CSV text
     return text.stream.read(), text.encoding
 
 

@@ -429,11 +429,12 @@ def test_csv_spans_in_parallel_equal_one_reader(
     # source: RFC 4180 section 2 (quoted fields hold commas, doubled quotes and line breaks;
     # CRLF ends records); the other variants are what writers get wrong.
     import driftline.sources.csvsplit as csvsplit
+    import driftline.sources.split as split  # where spans that do not join fall back to one reader
 
     monkeypatch.setattr(csvsplit, "SPLIT_MIN_BYTES", 1)
     fallbacks: list[str] = []
-    real_read_file = csvsplit.read_file
-    monkeypatch.setattr(csvsplit, "read_file", lambda ref, opts: fallbacks.append(ref.rel) or real_read_file(ref, opts))
+    real_read_file = split.read_file
+    monkeypatch.setattr(split, "read_file", lambda ref, opts: fallbacks.append(ref.rel) or real_read_file(ref, opts))
     change, joins = _CSV_VARIANTS[variant]
     rows = _csv_rows(random.Random(batch_rows), 200 if batch_rows == 1 else 1500)
     data = _csv_text(rows, "\r\n").encode() if variant == "crlf" else change(_csv_text(rows, "\n").encode())

@@ -19,7 +19,8 @@ import pytest
 from _endpoints import dead_port, silent_endpoint
 from driftline.errors import DriftlineError, InputPathError
 from driftline.scan import scan_paths
-from driftline.sources.remote import StorageOptions, locator, parse_condition, parse_locator
+from driftline.sources.discover import discover
+from driftline.sources.remote import StorageOptions, discover_remote, locator, parse_condition, parse_locator
 
 if os.environ.get("CI"):
     import boto3  # CI installs the test extra: a missing package is a failure, never a skip
@@ -118,6 +119,16 @@ def test_s3_scan_equals_local(s3: Server, demo_dir: Path) -> None:
     assert remote.fields == local.fields
     assert remote.events == local.events
     assert remote.skipped == local.skipped
+
+
+def test_an_objects_location_is_a_url_and_says_so(s3: Server, demo_dir: Path) -> None:
+    remote = discover_remote([f"s3://{BUCKET}/landing/"], storage=StorageOptions(endpoint_url=s3.url)).files
+    local = discover([demo_dir / "landing"]).files
+    assert [r.rel for r in remote] == [f.rel for f in local]
+    assert all(r.is_remote and r.path.startswith(f"s3://{BUCKET}/landing/") for r in remote)
+    assert not any(f.is_remote for f in local) and all(os.path.isabs(f.path) for f in local)
+    # the location names the object: parsed back, its key is the bucket prefix plus rel
+    assert [parse_locator(r.path)[1] for r in remote] == [f"landing/{r.rel}" for r in remote]
 
 
 def test_parquet_footer_is_read_with_ranged_gets(s3: Server) -> None:

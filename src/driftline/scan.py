@@ -16,6 +16,7 @@ from driftline.ranges import check
 from driftline.sources.base import DEFAULT_BATCH_BYTES, DEFAULT_MAX_PATHS, FileResult, ReadOptions
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_file, read_files
+from driftline.sources.registry import OBSERVED_TOGETHER, suffix_list
 from driftline.sources.remote import StorageOptions, discover_remote, is_url, parse_condition, partitions_pass
 from driftline.sources.split import assemble, can_split, plan, read_span
 from driftline.thinning import ScanThinner, cap_paths, thin_result, thin_scan
@@ -99,7 +100,7 @@ def scan_paths(
     if not found.files:
         raise InputPathError(
             f"no readable data file under {', '.join(map(str, paths))} "
-            f"({_skipped_summary(found.skipped)}); formats read: .jsonl .json .csv .tsv .parquet, optionally compressed"
+            f"({_skipped_summary(found.skipped)}); formats read: {suffix_list()}, optionally compressed"
         )
     read_all: Callable[..., list[FileResult]] = functools.partial(_read_all, task_timeout=task_timeout)
     if engine == "dask":
@@ -191,15 +192,16 @@ _GROUP_BYTES = 64 * 2**20
 
 
 def _groups(files: Sequence[FileRef], most: int) -> list[list[FileRef]]:
-    """Files in order, runs of Parquet files in groups of at most `most` files and _GROUP_BYTES;
-    any other file is a group of its own, so stopping at max_errors reads little more than it must."""
+    """Files in order, runs of Parquet files (the registry's observed_together) in groups of at most
+    `most` files and _GROUP_BYTES; any other file is a group of its own, so stopping at max_errors
+    reads little more than it must."""
     groups: list[list[FileRef]] = []
     size = 0
     for ref in files:
         grow = (
-            ref.format == "parquet"
+            ref.format in OBSERVED_TOGETHER
             and groups
-            and groups[-1][-1].format == "parquet"
+            and groups[-1][-1].format in OBSERVED_TOGETHER
             and len(groups[-1]) < min(most, _GROUP_FILES)
             and size + ref.size <= _GROUP_BYTES
         )

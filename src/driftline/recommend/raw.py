@@ -10,6 +10,10 @@ pyarrow.compute; loading them is the only per-value Python, and it does no casti
 iter_records() gives the same data as JSON values (what a JSON Schema validates):
 JSON records as parsed, CSV cells as the scan reads them (by content class), Parquet
 rows with temporal values as RFC 3339 / ISO 8601 text.
+
+This module reads no file itself: the rows come from the scan's readers through the
+format registry (sources/readers.read_values), so they are the rows the scan profiled,
+with its encoding, dialect and header.  apply.py casts them; the two are one pair.
 """
 
 from __future__ import annotations
@@ -17,7 +21,6 @@ from __future__ import annotations
 import base64
 import datetime as dt
 import decimal
-import io
 import os
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
@@ -26,20 +29,15 @@ from typing import Any
 import orjson
 import pyarrow as pa
 import pyarrow.compute as pc
-import pyarrow.csv as pcsv
-import pyarrow.parquet as pq
 
 from driftline.lattice import from_arrow
-from driftline.observe import jsonnum, paths
+from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE
 from driftline.observe.records import int_key
 from driftline.observe.textclass import class_of
-from driftline.sources.base import ReadOptions
-from driftline.sources.csvfile import arrow_options, head_of
 from driftline.sources.discover import FileRef, discover
-from driftline.sources.encoding import TextStream
-from driftline.sources.formats import open_stream
-from driftline.sources.native import hand, hand_bytes
+from driftline.sources.readers import read_values
+from driftline.sources.registry import SPECS
 
 TEXT = "text"  # the variant child of CSV cells
 _SCALAR_TYPES: dict[str, pa.DataType] = {
@@ -237,79 +235,16 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
     return pa.StructArray.from_arrays([inner], names=[key], mask=_mask(arr))
 
 
-# -- files ----------------------------------------------------------------------------------
-
-
-def _utf8_text(ref: FileRef) -> bytes:
-    """The file's text as UTF-8, in the encoding the scan finds for it (sources/encoding.py)."""
-    with open_stream(ref.path, ref.compression, limit=None) as stream:
-        return TextStream(stream, ref.format).stream.read()
-
-
-def _json_records(ref: FileRef) -> Iterator[Any]:
-    """Valid records in scan order (a line that does not parse is skipped, as the scan does)."""
-    data = _utf8_text(ref)
-    if data.startswith(b"\xef\xbb\xbf"):
-        data = data[3:]
-    if ref.format == "json":
-        try:
-            doc = jsonnum.loads(data)
-        except orjson.JSONDecodeError:
-            doc = None
-        if doc is not None or not data.strip():
-            yield from doc if isinstance(doc, list) else ([] if doc is None else [doc])
-            return
-    for line in data.split(b"\n"):
-        line = line.removesuffix(b"\r")
-        if line.strip():
-            try:
-                yield jsonnum.loads(line)
-            except orjson.JSONDecodeError:
-                continue
-
-
-def _csv_tables(ref: FileRef, batch_rows: int) -> Iterator[pa.Table]:
-    # The scan's dialect and header rules (sources/dialect.py, csvfile.head_of): the same
-    # columns, names and rows as the scan reads.
-    data = _utf8_text(ref)
-    _, header = head_of(io.BytesIO(data), ref.rel, ReadOptions(), tsv=ref.format == "tsv")
-    if header is None:
-        return
-    body = data[header.size :]
-    if header.dialect is not None and header.dialect.line_end == "CR":
-        body = body.replace(b"\r", b"\n")
-    names = list(header.names)
-    options = arrow_options(header, 1 << 20, hand(lambda row: "skip"))
-    table = (
-        pcsv.read_csv(
-            pa.BufferReader(hand_bytes(body)),
-            read_options=pcsv.ReadOptions(use_threads=False, column_names=names, skip_rows=0),
-            parse_options=options["parse_options"],
-            convert_options=pcsv.ConvertOptions(
-                column_types=dict.fromkeys(names, pa.string()),
-                strings_can_be_null=False,
-                quoted_strings_can_be_null=False,
-            ),
-        )
-        if body.strip()
-        else pa.table({n: pa.array([], pa.string()) for n in names})
-    )
-    for start in range(0, table.num_rows, batch_rows):
-        yield table.slice(start, batch_rows)
+# -- files: read by the scan's own readers (sources/readers.read_values), as variants -------
 
 
 def _batches(ref: FileRef, batch_rows: int) -> Iterator[pa.RecordBatch]:
-    if ref.format in ("json", "jsonl"):
-        records = list(_json_records(ref))
-        for start in range(0, len(records), batch_rows):
-            yield records_to_batch(records[start : start + batch_rows])
-    elif ref.format in ("csv", "tsv"):
-        for t in _csv_tables(ref, batch_rows):
-            cols = [as_variant(c, text=True) for c in t.columns]
-            yield pa.RecordBatch.from_arrays(cols, names=t.column_names)
-    else:
-        for rb in pq.ParquetFile(ref.path).iter_batches(batch_size=batch_rows, use_threads=False):
-            yield pa.RecordBatch.from_arrays([as_variant(c) for c in rb.columns], names=rb.schema.names)
+    text = SPECS[ref.format].text_cells
+    for part in read_values(ref, batch_rows):
+        if isinstance(part, list):
+            yield records_to_batch(part)
+        else:
+            yield pa.RecordBatch.from_arrays([as_variant(c, text=text) for c in part.columns], names=part.schema.names)
 
 
 def raw_batches(
@@ -425,20 +360,16 @@ def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str
     """(file, row, record) for every record, as JSON data (see the module docstring)."""
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
     for ref in found.files:
-        if ref.format in ("json", "jsonl"):
-            for row, rec in enumerate(_json_records(ref)):
+        text, row = SPECS[ref.format].text_cells, 0
+        for part in read_values(ref, 65_536):
+            if isinstance(part, list):
+                records: list[Any] = part
+            elif text:
+                records = [{k: cell_value(v) for k, v in rec.items()} for rec in part.to_pylist()]
+            else:
+                plain = pa.RecordBatch.from_arrays([jsonable(c) for c in part.columns], names=part.schema.names)
+                # Maps as JSON objects (their keys), as a JSON producer would write them.
+                records = [json_value(rec) for rec in plain.to_pylist(maps_as_pydicts="lossy")]
+            for rec in records:
                 yield ref.rel, row, rec
-        elif ref.format in ("csv", "tsv"):
-            row = 0
-            for t in _csv_tables(ref, 65_536):
-                for rec in t.to_pylist():
-                    yield ref.rel, row, {k: cell_value(v) for k, v in rec.items()}
-                    row += 1
-        else:
-            table = pq.read_table(ref.path)
-            table = pa.table(
-                {n: jsonable(c.combine_chunks()) for n, c in zip(table.column_names, table.columns, strict=True)}
-            )
-            # Maps as JSON objects (their keys), as a JSON producer would write them.
-            for row, rec in enumerate(table.to_pylist(maps_as_pydicts="lossy")):
-                yield ref.rel, row, json_value(rec)
+                row += 1

@@ -6,6 +6,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
+from driftline.dataformat import Compression, Format
 from driftline.errors import OptionError, PolicyError
 from driftline.observe.observation import Observation
 from driftline.observe.stats import pickled_by_fields
@@ -162,8 +163,8 @@ class FileResult:
     """Everything one file contributed to a scan."""
 
     rel: str
-    format: str
-    compression: str | None
+    format: Format
+    compression: Compression | None
     partitions: tuple[tuple[str, str], ...]
     size: int
     mtime_ns: int

@@ -389,6 +389,21 @@ def head_of(
 def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[Item | Dialect]:
     """Stream a delimited text file in batches of at most opts.batch_rows rows; its Dialect
     comes first (unless the file is empty)."""
+    return _read_rows(stream, rel, opts, tsv, CsvState.observe)
+
+
+def read_csv_cells(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[pa.RecordBatch]:
+    """The rows read_csv observes, as batches of text cells (recommend/raw casts them): the same
+    dialect, header, rows and batches; the problems are read_csv's to report."""
+    for item in _read_rows(stream, rel, opts, tsv, CsvState.cells):
+        if isinstance(item, pa.RecordBatch) and item.num_rows:
+            yield item
+
+
+def _read_rows(
+    stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool, take: Callable[[CsvState, pa.RecordBatch], Any]
+) -> Iterator[Any]:
+    """read_csv's reading, each batch of binary cells handed to take (observed, or kept as text)."""
     opened: Opened | None = None
     for item in read_header(stream, rel, opts, tsv):
         if isinstance(item, Opened):
@@ -418,7 +433,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
             yield from places.unplaced()
         elif guard.cut is None:
             yield from places.finish(0)
-        yield state.observe(_no_rows(header))  # the header's columns, with no values
+        yield take(state, _no_rows(header))  # the header's columns, with no values
         yield from _ending(rel, opts, guard)
         return
     stopped = False
@@ -436,11 +451,11 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
         yield from places.ready()
         yield from guard.take_issues(rel)
         for batch in batches.add(rb):
-            yield state.observe(batch)
+            yield take(state, batch)
     for batch in batches.rest():
-        yield state.observe(batch)
+        yield take(state, batch)
     if state.batch == 0:
-        yield state.observe(_no_rows(header))
+        yield take(state, _no_rows(header))
     # Every line is a row, a set-aside row or a blank line, unless the reading stopped early.
     yield from places.unplaced() if stopped or guard.cut is not None else places.finish(state.rows)
     yield from _ending(rel, opts, guard)
@@ -585,7 +600,7 @@ class CsvState:
         ASCII bytes only (Arrow takes an ASCII delimiter, quotes and line ends), so it cannot
         split a character.  A view as string is then exact and costs nothing.
         """
-        text = pa.RecordBatch.from_arrays([c.view(pa.string()) for c in cells.columns], names=cells.schema.names)
+        text = as_text(cells)
         lines = self._lines(cells)
         obs = observe_table(
             text,
@@ -599,6 +614,13 @@ class CsvState:
         self.rows += cells.num_rows
         self.batch += 1
         return obs
+
+    def cells(self, cells: pa.RecordBatch) -> pa.RecordBatch:
+        """One batch of binary cells as text, counted and placed as observe does."""
+        self._lines(cells)
+        self.rows += cells.num_rows
+        self.batch += 1
+        return as_text(cells)
 
     def _lines(self, cells: pa.RecordBatch) -> Sequence[int]:
         # Each row starts one line after the previous one, plus the newlines inside its cells.
@@ -640,6 +662,12 @@ class CsvState:
             line += step
         self.line = line
         return starts
+
+
+def as_text(cells: pa.RecordBatch) -> pa.RecordBatch:
+    """Binary cells viewed as strings: exact and free, for they passed LineGuard's UTF-8 check
+    (CsvState.observe tells why)."""
+    return pa.RecordBatch.from_arrays([c.view(pa.string()) for c in cells.columns], names=cells.schema.names)
 
 
 _NEWLINE = re.compile(b"\n")

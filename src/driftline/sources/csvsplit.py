@@ -36,13 +36,11 @@ from driftline.observe.observation import Observation
 from driftline.observe.strprofile import exact_requested
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import CsvState, Header, Rebatch, arrow_options, head_of
-from driftline.sources.discover import FileRef
 from driftline.sources.encoding import file_encoding
+from driftline.sources.fileref import FileRef, file_changed
 from driftline.sources.linecount import has_lone_cr
 from driftline.sources.native import hand, hand_bytes
-from driftline.sources.readers import file_changed, read_file
 
-FORMATS = ("csv", "tsv")
 SPLIT_MIN_BYTES = 32 * 2**20  # smaller files are one task: a span must outweigh its set-up
 SPAN_MAX_BYTES = 32 * 2**20  # a span is read whole, so this bounds a worker's memory
 _BLOCK = 4 * 2**20  # Arrow parses cache-sized blocks faster; a longer row makes the span fail
@@ -88,8 +86,7 @@ class SpanResult:
 
 def can_split(ref: FileRef, opts: ReadOptions) -> bool:
     return (
-        ref.format in FORMATS
-        and ref.compression is None
+        ref.compression is None
         and not opts.exact
         and not exact_requested()
         and SPLIT_MIN_BYTES <= ref.size <= opts.max_decompressed_bytes
@@ -97,18 +94,18 @@ def can_split(ref: FileRef, opts: ReadOptions) -> bool:
     )
 
 
-def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
+def plan(ref: FileRef, opts: ReadOptions, parts: int, *, tsv: bool = False) -> list[Span]:
     """Spans at assumed batch starts; [] when the file is better read by one reader (a header
     with problems, a quoted line break on most rows, no row to cut at, or the file cannot be
     read here: one reader then reports why)."""
     try:
-        return _plan(ref, opts, parts)
+        return _plan(ref, opts, parts, tsv)
     except Exception:  # planning runs in the scan's own process: one reader reports the problem instead
         return []
 
 
-def _plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
-    head = _head(ref, opts)
+def _plan(ref: FileRef, opts: ReadOptions, parts: int, tsv: bool) -> list[Span]:
+    head = _head(ref, opts, tsv)
     if head is None:
         return []
     begin = head.header.size
@@ -126,9 +123,9 @@ def _plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
     ]
 
 
-def _head(ref: FileRef, opts: ReadOptions) -> Head | None:
+def _head(ref: FileRef, opts: ReadOptions, tsv: bool = False) -> Head | None:
     with open(ref.path, "rb") as fh:
-        issues, header = head_of(fh, ref.rel, opts, tsv=ref.format == "tsv")
+        issues, header = head_of(fh, ref.rel, opts, tsv=tsv)
     if header is None or any(i.kind not in _HEAD_WARNINGS or i.severity != "warning" for i in issues):
         return None
     d = header.dialect
@@ -342,10 +339,10 @@ def _lines_within(data: bytearray, size: int, limit: int) -> bool:
     return all(data.find(b"\n", at, at + width) >= 0 for at in range(0, size - width + 1, width))
 
 
-def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> FileResult:
-    """The file's result from its spans when they join, else one reader's."""
+def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> FileResult | None:
+    """The file's result from its spans when they join, else None: one reader reads it (split.assemble)."""
     if not _joined(results) or file_changed(ref) is not None:
-        return read_file(ref, opts)
+        return None
     observations = tuple(o for res in results for o in res.observations)
     return FileResult(
         rel=ref.rel,
@@ -360,7 +357,7 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
         declared=None,
         complete=True,
         dialect=results[0].span.head.header.dialect,
-        encoding=file_encoding(ref.path, ref.format, opts.encoding),
+        encoding=file_encoding(ref.path, False, opts.encoding),
     )
 
 

@@ -1,6 +1,7 @@
 """Discovery: user paths and globs → a sorted, deduplicated list of FileRef.
 
-Normalises user input once at the edge; the rest of the scan only sees FileRef.
+Normalises user input once at the edge; the rest of the scan only sees FileRef (sources/fileref.py,
+re-exported here).
 """
 
 from __future__ import annotations
@@ -14,20 +15,9 @@ from dataclasses import dataclass, field
 
 from driftline.errors import InputPathError
 from driftline.marker import OWN_OUTPUT, carries_marker
-from driftline.sources.formats import detect_compression, detect_format, skip_reason
-
-
-@dataclass(frozen=True, slots=True)
-class FileRef:
-    """One input file: where it is, how the report names it, and how to read it."""
-
-    path: str  # absolute local path
-    rel: str  # posix path relative to the scan root: the name used in every report
-    partitions: tuple[tuple[str, str], ...]  # from key=value folders, outermost first
-    format: str  # 'jsonl' | 'json' | 'csv' | 'tsv' | 'parquet'
-    compression: str | None  # 'gzip' | 'bz2' | 'zstd' | 'xz' | None
-    size: int
-    mtime_ns: int
+from driftline.sources.fileref import FileRef
+from driftline.sources.formats import detect_compression
+from driftline.sources.registry import detect_format, skip_reason
 
 
 @dataclass(frozen=True, slots=True)

@@ -221,12 +221,11 @@ def utf8_evidence(head: bytes, *, whole: bool) -> tuple[int, int]:
     return bad, len(text) - len(text.encode("ascii", "ignore")) - bad
 
 
-def _may_fall_back(fmt: str) -> bool:
-    return fmt not in ("json", "jsonl")
+def file_encoding(path: str, json: bool, pin: str | None = None) -> TextEncoding:
+    """The encoding TextStream finds for an uncompressed local file (the split readers').
 
-
-def file_encoding(path: str, fmt: str, pin: str | None = None) -> TextEncoding:
-    """The encoding TextStream finds for an uncompressed local file (the split readers')."""
+    json: the text is JSON (FormatSpec.json_text), which must be Unicode: never read as a
+    single-byte fallback (RFC 8259 section 8.1)."""
     if pin:
         return pinned(pin)
     try:
@@ -234,7 +233,7 @@ def file_encoding(path: str, fmt: str, pin: str | None = None) -> TextEncoding:
             head = fh.read(SAMPLE_BYTES)
     except OSError:  # gone since: file_changed reports it; the spans read it as UTF-8
         return TextEncoding(UTF8, BY_SAMPLE)
-    return decide(head, whole=len(head) < SAMPLE_BYTES, fallback=_may_fall_back(fmt))
+    return decide(head, whole=len(head) < SAMPLE_BYTES, fallback=not json)
 
 
 class Transcoded(io.RawIOBase):
@@ -333,15 +332,14 @@ class _Prefixed(io.BufferedIOBase):
 class TextStream:
     """A file's bytes as UTF-8 for the readers (`stream`), with the encoding they were in.
 
+    json: the text is JSON (FormatSpec.json_text): Unicode only, as file_encoding says.
     pin, when given, is the encoding to use whatever the bytes say (ReadOptions.encoding).
     """
 
-    def __init__(self, inner: BinaryIO, fmt: str, pin: str | None = None) -> None:
+    def __init__(self, inner: BinaryIO, json: bool, pin: str | None = None) -> None:
         head = inner.read(SAMPLE_BYTES)
-        self.fmt = fmt
-        self.encoding = (
-            pinned(pin) if pin else decide(head, whole=len(head) < SAMPLE_BYTES, fallback=_may_fall_back(fmt))
-        )
+        self.json = json
+        self.encoding = pinned(pin) if pin else decide(head, whole=len(head) < SAMPLE_BYTES, fallback=not json)
         self._transcoded: Transcoded | None = None
         self.stream: BinaryIO
         if self.encoding.is_utf8:
@@ -356,7 +354,7 @@ class TextStream:
 
     def issues(self, rel: str) -> Iterator[FileIssue]:
         """A warning when the encoding was a guess, or is one JSON does not allow."""
-        enc, fmt = self.encoding, self.fmt
+        enc, json = self.encoding, self.json
         note = None
         if enc.evidence == BY_FALLBACK:
             note = (
@@ -365,10 +363,10 @@ class TextStream:
             )
         elif enc.evidence == BY_NULS:
             note = f"no byte order mark; read as {enc.name} from the NUL bytes of its ASCII text"
-        elif fmt in ("json", "jsonl") and not enc.is_utf8 and enc.evidence != BY_PIN:
+        elif json and not enc.is_utf8 and enc.evidence != BY_PIN:
             note = f"JSON text in {enc.name}; read as such"
         if note is not None:
-            if fmt in ("json", "jsonl"):
+            if json:
                 note += " (JSON between systems must be UTF-8: RFC 8259 section 8.1)"
             yield FileIssue(
                 rel, "encoding", note + ". Pin the encoding with --encoding if this is wrong", "warning", line=1

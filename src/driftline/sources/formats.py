@@ -1,4 +1,7 @@
-"""Format and compression detection, and opening a file as a decompressed byte stream."""
+"""Compression detection, and opening a file as a decompressed byte stream.
+
+Which data format a file holds is told by sources/registry.py (suffixes, sniffing).
+"""
 
 from __future__ import annotations
 
@@ -11,24 +14,24 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any, BinaryIO
 
+from driftline.dataformat import Compression
 from driftline.sources.base import RATIO_FLOOR_BYTES
-from driftline.sources.encoding import decide
 
-COMPRESSION_BY_SUFFIX = {".gz": "gzip", ".gzip": "gzip", ".bz2": "bz2", ".zst": "zstd", ".zstd": "zstd", ".xz": "xz"}
-FORMAT_BY_SUFFIX = {
-    ".jsonl": "jsonl",
-    ".ndjson": "jsonl",
-    ".jsonlines": "jsonl",
-    ".json": "json",
-    ".csv": "csv",
-    ".tsv": "tsv",
-    ".tab": "tsv",
-    ".parquet": "parquet",
-    ".pq": "parquet",
-    ".parq": "parquet",
+COMPRESSION_BY_SUFFIX: dict[str, Compression] = {
+    ".gz": "gzip",
+    ".gzip": "gzip",
+    ".bz2": "bz2",
+    ".zst": "zstd",
+    ".zstd": "zstd",
+    ".xz": "xz",
 }
 # Magic numbers of the compressed containers, for files whose name says nothing.
-_MAGIC = ((b"\x1f\x8b", "gzip"), (b"BZh", "bz2"), (b"\x28\xb5\x2f\xfd", "zstd"), (b"\xfd7zXZ\x00", "xz"))
+_MAGIC: tuple[tuple[bytes, Compression], ...] = (
+    (b"\x1f\x8b", "gzip"),
+    (b"BZh", "bz2"),
+    (b"\x28\xb5\x2f\xfd", "zstd"),
+    (b"\xfd7zXZ\x00", "xz"),
+)
 
 
 def _suffixes(path: str) -> list[str]:
@@ -36,12 +39,12 @@ def _suffixes(path: str) -> list[str]:
     return ["." + s for s in name.split(".")[1:]]
 
 
-def detect_compression(path: str) -> str | None:
+def detect_compression(path: str) -> Compression | None:
     """Compression from the last suffix, else from the file's magic number."""
     sfx = _suffixes(path)
     if sfx and sfx[-1] in COMPRESSION_BY_SUFFIX:
         return COMPRESSION_BY_SUFFIX[sfx[-1]]
-    head = _head(path, 8)
+    head = head_bytes(path, 8)
     for magic, name in _MAGIC:
         if head.startswith(magic):
             return name
@@ -64,68 +67,8 @@ def data_extension(path: str) -> str | None:
     return sfx[-1] if sfx and _EXTENSION.fullmatch(sfx[-1]) else None
 
 
-def detect_format(path: str, *, sniff_unknown: bool = False) -> str | None:
-    """Format from the extension (data_extension); a name without one is sniffed from its first
-    bytes, and so is a name with an extension driftline does not read when sniff_unknown is set.
-    Otherwise such a file is only checked for Parquet's magic number at both ends ('x.parquet.
-    encrypted'), which no text file carries by chance: the text in it (.sql, .txt, .md) is not
-    taken for CSV.  None: not a data file driftline reads (discovery skips it, with skip_reason)."""
-    ext = data_extension(path)
-    if ext in FORMAT_BY_SUFFIX:
-        return FORMAT_BY_SUFFIX[ext]
-    if ext is None or sniff_unknown:
-        return sniff_format(path)
-    return "parquet" if _parquet_magic(path) else None
-
-
-def _parquet_magic(path: str) -> bool:
-    # source: Apache Parquet file format: "PAR1" (or "PARE", encrypted footer) at the start and the end
-    try:
-        with open(path, "rb") as fh:
-            head = fh.read(4)
-            if head not in (b"PAR1", b"PARE") or fh.seek(0, io.SEEK_END) < 12:
-                return False
-            fh.seek(-4, io.SEEK_END)
-            return fh.read(4) == head
-    except OSError:
-        return False
-
-
-def skip_reason(path: str, sniff_unknown: bool = False) -> str:
-    """Why detect_format found no format: 'other-extension' (an extension driftline does not read,
-    such as .sql or .txt, never opened) or 'unknown-format' (sniffed, and not JSON, CSV or Parquet)."""
-    return "other-extension" if data_extension(path) is not None and not sniff_unknown else "unknown-format"
-
-
-def sniff_format(path: str) -> str | None:
-    """Guess the format of a file whose name says nothing, from its first 4 KiB."""
-    raw = _head(path, 4)
-    if raw in (b"PAR1", b"PARE"):  # PARE: a Parquet file with an encrypted footer
-        return "parquet"
-    try:
-        with open_stream(path, detect_compression(path), limit=None) as stream:
-            head = stream.read(4096)
-    except decode_errors():
-        return None
-    enc = decide(head, whole=len(head) < 4096, fallback=False)
-    if not enc.is_utf8:  # UTF-16/32 (sources/encoding.py): sniff the text, not its NUL bytes
-        head = head[enc.bom :].decode(enc.name, "ignore").encode()
-    text = head.lstrip(b"\xef\xbb\xbf").lstrip()
-    if text.startswith(b"{"):
-        return "jsonl"
-    if text.startswith(b"["):
-        return "json"
-    if b"\x00" in head or not text:
-        return None
-    first = text.split(b"\n", 1)[0]
-    if b"\t" in first:
-        return "tsv"
-    if b"," in first or b";" in first or b"|" in first:
-        return "csv"
-    return None
-
-
-def _head(path: str, n: int) -> bytes:
+def head_bytes(path: str, n: int) -> bytes:
+    """The first n bytes of a local file; b'' when it cannot be read."""
     try:
         with open(path, "rb") as fh:
             return fh.read(n)

@@ -592,3 +592,33 @@ def _parse_elements(pieces: list[bytes], where: list[tuple[int, int]], rel: str)
                 byte_offset=offset + pos,
             )
     return values, None
+
+
+def read_json_values(stream: BinaryIO, rel: str, opts: ReadOptions, *, document: bool) -> Iterator[list[Any]]:
+    """The records of a JSON Lines file (document False) or a JSON document, parsed as the scan
+    parses values (observe.jsonnum: exact integers and decimals), in lists of at most
+    opts.batch_rows (recommend/raw casts them).  A line that does not parse is left out, as the
+    scan leaves it out (and reports it); a document that does not parse is read as lines.
+    """
+    records = list(_values(stream.read(), document))
+    for start in range(0, len(records), opts.batch_rows):
+        yield records[start : start + opts.batch_rows]
+
+
+def _values(data: bytes, document: bool) -> Iterator[Any]:
+    data = data.removeprefix(_BOM)
+    if document:
+        try:
+            doc = jsonnum.loads(data)
+        except orjson.JSONDecodeError:
+            doc = None
+        if doc is not None or not data.strip():
+            yield from doc if isinstance(doc, list) else ([] if doc is None else [doc])
+            return
+    for line in data.split(b"\n"):
+        line = line.removesuffix(b"\r")
+        if line.strip():
+            try:
+                yield jsonnum.loads(line)
+            except orjson.JSONDecodeError:
+                continue

@@ -18,8 +18,8 @@ from typing import Any
 
 from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
-from driftline.sources.discover import FileRef
 from driftline.sources.encoding import file_encoding
+from driftline.sources.fileref import FileRef
 from driftline.sources.jsonfile import read_jsonl
 from driftline.thinning import Thinner, concat_blocks
 
@@ -50,13 +50,7 @@ class SpanResult:
 
 
 def can_split(ref: FileRef, opts: ReadOptions) -> bool:
-    return (
-        ref.format == "jsonl"
-        and ref.compression is None
-        and not opts.exact
-        and ref.size >= SPLIT_MIN_BYTES
-        and os.path.isfile(ref.path)
-    )
+    return ref.compression is None and not opts.exact and ref.size >= SPLIT_MIN_BYTES and os.path.isfile(ref.path)
 
 
 def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
@@ -197,5 +191,5 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
         declared=None,
         complete=True,
         batch_span=block,
-        encoding=file_encoding(ref.path, ref.format, opts.encoding),
+        encoding=file_encoding(ref.path, True, opts.encoding),
     )

@@ -6,6 +6,7 @@ batches at once (observe.bulk, through readers.read_files).
 
 from __future__ import annotations
 
+import io
 import os
 from collections.abc import Iterator
 
@@ -168,3 +169,25 @@ def _short(exc: BaseException, path: object = None) -> str:
     if isinstance(path, str) and path:
         text = text.replace(path, os.path.basename(path))  # reports name files by relative path only
     return text[:300]
+
+
+def read_parquet_values(path: object, rel: str, opts: ReadOptions) -> Iterator[pa.RecordBatch]:
+    """The file's rows as Arrow batches of at most opts.batch_rows rows (recommend/raw casts
+    them); a damaged file raises, for a cast must not pass over rows."""
+    yield from pq.ParquetFile(path).iter_batches(batch_size=opts.batch_rows, use_threads=False)
+
+
+def has_parquet_magic(path: str) -> bool:
+    """Whether a local file starts and ends with Parquet's magic number, whatever its name.
+
+    source: Apache Parquet file format: "PAR1" (or "PARE", encrypted footer) at the start and the end
+    """
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(4)
+            if head not in (b"PAR1", b"PARE") or fh.seek(0, io.SEEK_END) < 12:
+                return False
+            fh.seek(-4, io.SEEK_END)
+            return fh.read(4) == head
+    except OSError:
+        return False

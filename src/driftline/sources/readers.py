@@ -1,27 +1,26 @@
-"""Read one FileRef completely: dispatch on its format, never raise for bad content."""
+"""Read one FileRef completely with the reader the registry gives its format; never raise for bad content."""
 
 from __future__ import annotations
 
 import hashlib
 import io
-import os
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import replace
 from typing import Any
+
+import pyarrow as pa
 
 from driftline import thinning
 from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.observation import Observation
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
-from driftline.sources.csvfile import read_csv
 from driftline.sources.dialect import Dialect
-from driftline.sources.discover import FileRef
 from driftline.sources.encoding import TextEncoding, TextStream
+from driftline.sources.fileref import FileRef, file_changed
 from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
-from driftline.sources.jsonfile import read_json, read_jsonl
 from driftline.sources.linecount import LineTally, jsonl_issue
-from driftline.sources.parquetfile import read_parquet
-from driftline.sources.remote import ObjectVersion, is_url, object_changed, open_random_pinned, open_stream_pinned
+from driftline.sources.registry import SPECS, FormatSpec
+from driftline.sources.remote import ObjectVersion, object_changed, open_random_pinned, open_stream_pinned
 from driftline.thinning import Thinner, thin
 
 
@@ -62,28 +61,22 @@ def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str,
     return "unreadable", f"read failed: {exc}"
 
 
-def file_changed(ref: FileRef) -> str | None:
-    """How the file differs from what discovery saw, or None: a file rewritten, appended to or
-    removed during the scan gives rows that belong to no single version of it."""
-    try:
-        st = os.stat(ref.path)
-    except FileNotFoundError:
-        return "the file was removed while the scan read it"
-    except OSError:
-        return None
-    if st.st_size != ref.size:
-        return f"the file changed during the scan (size {ref.size:,} then {st.st_size:,} bytes); rescan it"
-    if st.st_mtime_ns != ref.mtime_ns:
-        return "the file was modified during the scan (same size, new modification time); rescan it"
-    return None
+def read_values(ref: FileRef, batch_rows: int) -> Iterator[list[Any] | pa.RecordBatch]:
+    """The values of the rows read_file reads from a local file, at most batch_rows at a time, for
+    casting them (recommend/raw): lists of parsed JSON records, or Arrow batches (the format's
+    text_cells, or its typed columns).  The same reader, encoding and dialect as read_file with
+    default options; the problems are read_file's to report, and a file that cannot be read at
+    all raises."""
+    spec = SPECS[ref.format]
+    opts = ReadOptions(batch_rows=batch_rows, batch_bytes=_LARGEST_BATCH)
+    if spec.read is None:
+        yield from spec.values(ref.path, ref.rel, opts)
+        return
+    with open_stream(ref.path, ref.compression, limit=None) as stream:
+        yield from spec.values(TextStream(stream, spec.json_text).stream, ref.rel, opts)
 
 
-def _items(ref: FileRef, opts: ReadOptions, stream: Any, blanks: list[int] | None = None) -> Iterator[Any]:
-    if ref.format == "jsonl":
-        return read_jsonl(stream, ref.rel, opts, blank_read=blanks)
-    if ref.format == "json":
-        return read_json(stream, ref.rel, opts)
-    return read_csv(stream, ref.rel, opts, tsv=ref.format == "tsv")
+_LARGEST_BATCH = 2**30  # batch_bytes never ends a batch of values before batch_rows does (ranges.py's highest)
 
 
 def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileResult:
@@ -199,7 +192,7 @@ class _Read:
         if (
             not observations
             and ref.size
-            and ref.format in ("csv", "tsv")
+            and SPECS[ref.format].header_row
             and not any(i.severity == "error" for i in issues)
         ):
             unread = nothing_read(ref)
@@ -214,7 +207,7 @@ class _Read:
 
     def _changed(self) -> str | None:
         ref = self.ref
-        if is_url(ref.path):  # against the version opened: one HEAD after the read
+        if ref.is_remote:  # against the version opened: one HEAD after the read
             return object_changed(ref.path, ref.size, ref.mtime_ns, self.version) if self.version else None
         if any(i.kind == "vanished" for i in self.issues):
             return None
@@ -233,7 +226,7 @@ def nothing_read(ref: FileRef, limit: int = 64 * 2**20) -> FileIssue | None:
     a quote opened in the header and never closed takes every row into one column name
     (RFC 4180 section 2, rule 6), which no reader reports.  None when the file is a header only
     (or cannot be read again: the read already reported why)."""
-    if is_url(ref.path):
+    if ref.is_remote:
         return None
     try:
         with open_stream(ref.path, ref.compression, limit=limit) as fh:
@@ -261,17 +254,21 @@ def nothing_read(ref: FileRef, limit: int = 64 * 2**20) -> FileIssue | None:
 
 def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
     read = _Read(ref)
+    spec = SPECS[ref.format]
     try:
-        if ref.format == "parquet":
-            _read_parquet(ref, opts, pending, read)
+        if spec.read is None:
+            _read_random(ref, spec, opts, pending, read)
         else:
-            _read_stream(ref, opts, read)
+            _read_stream(ref, spec, opts, read)
     except Exception as exc:  # a reader bug must not stop the scan of the other files
         read.fail(exc)
     return read
 
 
-def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Read) -> None:
+def _read_random(ref: FileRef, spec: FormatSpec, opts: ReadOptions, pending: _Pending, read: _Read) -> None:
+    """A format read from its path with random access (Parquet's footer and column chunks):
+    the declared schema (a dict), FileIssues and observe.bulk Batches, observed in groups."""
+    assert spec.read_path is not None
     if ref.compression is not None:
         read.complete = False
         read.issues.append(
@@ -283,13 +280,13 @@ def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Rea
         )
         return
     source: Any = ref.path
-    if is_url(ref.path):  # random access: the footer and column chunks come as ranged GETs
+    if ref.is_remote:  # random access: the footer and column chunks come as ranged GETs
         try:
             source, read.version = open_random_pinned(ref.path)
         except OSError as exc:
             read.not_opened(FileIssue(ref.rel, "unreadable", f"cannot open: {exc}"))
             return
-    for item in read_parquet(source, ref.rel, opts):
+    for item in spec.read_path(source, ref.rel, opts):
         if isinstance(item, dict):
             read.declared = item
         elif isinstance(item, FileIssue):
@@ -299,11 +296,12 @@ def _read_parquet(ref: FileRef, opts: ReadOptions, pending: _Pending, read: _Rea
             read.parts.append(pending.add(item))
 
 
-def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
+def _read_stream(ref: FileRef, spec: FormatSpec, opts: ReadOptions, read: _Read) -> None:
+    assert spec.read is not None
     notes: list[IgnoredTail] = []
     try:
         limit, ratio = opts.max_decompressed_bytes, opts.max_decompression_ratio
-        if is_url(ref.path):
+        if ref.is_remote:
             raw, read.version = open_stream_pinned(ref.path, ref.compression, limit=limit, ratio=ratio)
         else:
             raw = open_stream(ref.path, ref.compression, limit=limit, ratio=ratio, notes=notes)
@@ -313,14 +311,14 @@ def _read_stream(ref: FileRef, opts: ReadOptions, read: _Read) -> None:
         return
     safe = _SafeStream(raw)
     with io.BufferedReader(safe, buffer_size=1 << 20) as stream:
-        text = TextStream(stream, ref.format, opts.encoding)
+        text = TextStream(stream, spec.json_text, opts.encoding)
         read.encoding = text.encoding
         read.issues.extend(text.issues(ref.rel))
         # JSON Lines: line feeds counted apart, reconciled with rows, reported lines and blank lines
-        tally = LineTally(text.stream, "lines") if ref.format == "jsonl" else None
+        tally = LineTally(text.stream, "lines") if spec.count_lines else None
         blanks: list[int] = []
         rows = 0
-        for item in _items(ref, opts, tally or text.stream, blanks):
+        for item in spec.read(tally or text.stream, ref.rel, opts, blanks):
             if isinstance(item, Dialect):
                 read.dialect = item
             elif isinstance(item, FileIssue):

@@ -32,19 +32,14 @@ from dataclasses import dataclass
 from typing import Any, BinaryIO
 from urllib.parse import parse_qsl, quote, unquote, urlencode
 
+from driftline.dataformat import Compression, Format
 from driftline.errors import DriftlineError, InputPathError
 from driftline.sources.discover import Discovery, FileRef, Skipped, partition_values
-from driftline.sources.formats import (
-    FORMAT_BY_SUFFIX,
-    CountingRaw,
-    IgnoredTail,
-    detect_compression,
-    detect_format,
-    skip_reason,
-    wrap_stream,
-)
+from driftline.sources.fileref import REMOTE_SCHEMES
+from driftline.sources.formats import CountingRaw, IgnoredTail, detect_compression, wrap_stream
+from driftline.sources.registry import FORMAT_BY_SUFFIX, detect_format, skip_reason
 
-SCHEMES = ("s3://",)
+SCHEMES = REMOTE_SCHEMES
 DEFAULT_RETRIES = 4
 DEFAULT_CONNECT_TIMEOUT = 10.0  # seconds to open a connection
 DEFAULT_REQUEST_TIMEOUT = 20.0  # seconds a request may go without receiving a byte
@@ -327,7 +322,7 @@ def _filter_name(rel: str, include: Sequence[str], exclude: Sequence[str], inclu
     return None
 
 
-def _format(rel: str, path: str) -> str | None:
+def _format(rel: str, path: str) -> Format | None:
     name = rel.rsplit("/", 1)[-1].lower()
     # The suffix usually decides; only a name that says nothing costs a request to sniff.
     for sfx in name.split(".")[1:]:
@@ -336,7 +331,7 @@ def _format(rel: str, path: str) -> str | None:
     return detect_format(path)
 
 
-def _compression(rel: str, path: str) -> str | None:
+def _compression(rel: str, path: str) -> Compression | None:
     found = detect_compression(rel)
     return found
 
