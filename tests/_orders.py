@@ -2,9 +2,9 @@
 
 ``make_orders(root)`` writes orders from three sources: JSON Lines (gzip) from a web shop,
 a CSV export from a till, and a Parquet file from a nightly batch. Every value that a
-cast rule would null or change is placed on purpose; EXPECTED lists them, and the tests
-in this module check that the scan saw exactly those (other test modules import
-make_orders and EXPECTED).
+cast rule would null or change is placed on purpose; EXPECTED lists them, and
+tests/recommendation/test_orders_fixture.py checks that the scan saw exactly those (other
+test modules import make_orders and EXPECTED).
 """
 
 from __future__ import annotations
@@ -115,21 +115,3 @@ def make_orders(root: Path) -> Path:
     )
     pq.write_table(table, batch)
     return landing
-
-
-# -- the fixture is what it says ---------------------------------------------------------------
-
-
-def test_the_fixture_holds_the_planted_values(tmp_path: Path):
-    import driftline
-
-    p = driftline.scan(make_orders(tmp_path))
-    assert p.rows == WEB_ROWS + TILL_ROWS + BATCH_ROWS
-    assert p.error_count == 0
-    f = p.fields
-    assert f["big"].stats.unsafe_ints == 3  # 2**53+1, 2**53+2, -(2**53+3)
-    assert f["created"].stats.leap_seconds == 1 and f["created"].stats.lowercase_rfc3339 == 1
-    assert f["amount"].stats.classes["null_token"] == 2 and f["amount"].stats.classes["empty"] == 1
-    # 4 bare JSON strings and 7 CSV cells (the eighth is 'n/a', a null to the scan)
-    assert f["labels"].stats.types == {"list": 22, "string": 11}
-    assert set(f["payload"].stats.types) == {"struct", "string"}

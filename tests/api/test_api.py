@@ -191,7 +191,7 @@ def test_pickle_carries_content_only_and_rebuilds_views(demo_dir: Path):
 def test_repr_is_one_short_line(demo_profile):
     text = repr(demo_profile)
     root = repr(demo_profile.root)
-    # source: the demo manifest (tests/test_make_demo.py): 15 files, 4,694 rows, one malformed line
+    # source: the demo manifest (tests/scripts/test_make_demo.py): 15 files, 4,694 rows, one malformed line
     assert text == f"<Profile {root}: 15 files, 4,694 rows, 17 fields, 16 drift events, 1 errors>"
     assert "\n" not in text
 
@@ -281,7 +281,7 @@ def test_issue_example_runs_on_the_demo(demo_dir: Path, monkeypatch: pytest.Monk
 
     monkeypatch.chdir(demo_dir)
     profile = driftline.scan("landing/", batch_rows=50_000)
-    # source: scripts/make_demo.py manifest (tests/test_make_demo.py): 4,694 rows over 15 files
+    # source: scripts/make_demo.py manifest (tests/scripts/test_make_demo.py): 4,694 rows over 15 files
     assert profile.rows == 4694 and len(profile.files) == 15
     assert profile.fields["pm25"].stats.types == {"float64": 4572, "string": 122}
     assert profile.events[0].kind == "type-conflict" and profile.events[0].path == "tags"

@@ -8,7 +8,7 @@ normalised: the scan's duration, file modification times and the temporary folde
 
 A change that is meant to alter an output re-pins on purpose, in its own commit:
 
-    DRIFTLINE_REPIN=1 .venv/bin/python -m pytest tests/test_pinned_outputs.py
+    DRIFTLINE_REPIN=1 .venv/bin/python -m pytest tests/api/test_pinned_outputs.py
 
 and a failing run leaves the outputs it made under the pytest temporary folder it names.
 """
@@ -27,9 +27,9 @@ from typing import Any
 
 import pytest
 
-from conftest import ROOT, SHARED_TESTDATA
+from conftest import ROOT, SHARED_TESTDATA, fixture_path
 
-PINS = ROOT / "tests" / "fixtures" / "pinned" / "outputs.json"
+PINS = fixture_path("pinned/outputs.json")
 EXE = [sys.executable, "-m", "driftline.cli"]
 TEMP: list[Path] = [Path("/nonexistent")]  # pytest's base temporary folder, set by the test
 SCHEMA_FORMATS = ("json-schema", "arrow", "arrow-text", "sql", "avro")

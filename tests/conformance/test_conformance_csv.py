@@ -13,9 +13,10 @@ from pathlib import Path
 import pytest
 
 import driftline
+from conftest import SHARED_TESTDATA
 from driftline.observe import paths
 
-SUITE = Path(__file__).resolve().parents[1].parent / "shared" / "testdata" / "csv-edge-cases"
+SUITE = SHARED_TESTDATA / "csv-edge-cases"
 CSVS = sorted((SUITE / "csvs").glob("*.csv"))
 
 

@@ -16,9 +16,10 @@ from typing import Any
 import pytest
 
 import driftline
+from conftest import SHARED_TESTDATA
 from driftline.observe import paths
 
-SUITE = Path(__file__).resolve().parents[1].parent / "shared" / "testdata" / "json-parsing" / "test_parsing"
+SUITE = SHARED_TESTDATA / "json-parsing" / "test_parsing"
 FILES = sorted(SUITE.glob("*.json"))
 Y = [f for f in FILES if f.name.startswith("y_")]
 N = [f for f in FILES if f.name.startswith("n_")]

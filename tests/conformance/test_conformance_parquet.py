@@ -13,6 +13,7 @@ import pyarrow.parquet as pq
 import pytest
 
 import driftline
+from conftest import SHARED_TESTDATA
 from driftline.lattice import from_arrow
 from driftline.observe import paths
 from driftline.scan import scan_paths
@@ -21,7 +22,7 @@ from driftline.sources.discover import discover
 from driftline.sources.parquetfile import declared_paths
 from driftline.sources.readers import read_file
 
-SUITE = Path(__file__).resolve().parents[1].parent / "shared" / "testdata" / "parquet-conformance"
+SUITE = SHARED_TESTDATA / "parquet-conformance"
 ALL = sorted(p for d in ("data", "bad_data") for p in (SUITE / d).rglob("*") if p.is_file())
 PARQUET = [p for p in ALL if p.name.endswith((".parquet", ".parquet.encrypted"))]
 COMPANIONS = [p for p in ALL if p not in PARQUET]  # READMEs, expected CSVs, bloom filter dumps, key material

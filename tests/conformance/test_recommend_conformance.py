@@ -28,6 +28,7 @@ import pytest
 from jsonschema import Draft202012Validator
 
 import driftline
+from conftest import SHARED_TESTDATA
 from driftline.emit.schemas import sql
 from driftline.emit.schemas.avro import avro_records, avro_schema
 from driftline.emit.schemas.json_schema import json_schema
@@ -35,7 +36,7 @@ from driftline.recommend import Recommendation
 from driftline.recommend.apply import Tally, apply
 from driftline.recommend.raw import iter_records, raw_batches
 
-TESTDATA = Path(__file__).resolve().parents[1].parent / "shared" / "testdata"
+TESTDATA = SHARED_TESTDATA
 
 
 @pytest.fixture(scope="module", params=["json-parsing y_", "csv-spectrum"])

@@ -28,6 +28,7 @@ from referencing.jsonschema import DRAFT202012
 from typer.testing import CliRunner
 
 import driftline
+from conftest import ROOT
 from driftline.cli import app
 from driftline.emit.schemas import json_schema
 from driftline.emit.schemas.rules_json import dumps as rules_dumps
@@ -38,7 +39,6 @@ from driftline.report import dumps, load_report
 from driftline.sources.base import ReadOptions
 from driftline.validation import SCHEMAS, problem_in, schema_document
 
-ROOT = Path(__file__).resolve().parents[1]
 # source: RFC 6901 section 3 — a JSON pointer is "" or a sequence of "/"-prefixed tokens
 POINTER = re.compile(r'\bat (?:"" \(the whole document\)|(?:/[^\s:/]*)+)')
 FUZZ = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])

@@ -38,7 +38,7 @@ def test_demo_scan_is_the_same_from_cli_and_api(demo_dir: Path, jobs: str):
     cli = cli_report(str(landing), "--jobs", jobs)
     api = api_report(driftline.scan(landing))
     assert cli == api
-    # source: the demo manifest (tests/test_make_demo.py): 4,694 rows, 2 skipped entries
+    # source: the demo manifest (tests/scripts/test_make_demo.py): 4,694 rows, 2 skipped entries
     assert cli["summary"]["rows"] == 4694 and cli["summary"]["skipped"] == 2
 
 

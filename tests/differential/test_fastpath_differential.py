@@ -18,12 +18,13 @@ import orjson
 import pytest
 
 import driftline.sources.jsonfile as jsonfile
+from conftest import SHARED_TESTDATA
 from driftline.observe import jsonbatch, jsonnum, jsonparse
 from driftline.report import to_dict
 from driftline.scan import scan_paths
 from driftline.sources.base import ReadOptions
 
-TESTDATA = Path(__file__).resolve().parents[1].parent / "shared" / "testdata"
+TESTDATA = SHARED_TESTDATA
 JSON_SUITE = TESTDATA / "json-parsing" / "test_parsing"
 CSV_SUITE = TESTDATA / "csv-edge-cases" / "csvs"
 PARQUET_SUITE = TESTDATA / "parquet-conformance" / "data"

@@ -20,15 +20,13 @@ import pytest
 from typer.testing import CliRunner
 
 import driftline
+from _synthetic import big_profile
+from conftest import ROOT
 from driftline.cli import app
 from driftline.emit import html as html_report
 from driftline.emit import html_data as hd
 from driftline.emit import svg
 
-sys.path.insert(0, str(Path(__file__).parent))
-from _synthetic import big_profile  # noqa: E402
-
-ROOT = Path(__file__).resolve().parents[1]
 SCRIPT_NAME = "<script>alert(1)</script>"
 IMG_VALUE = "<img src=x onerror=alert(2)>"
 

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import importlib.util
 import json
-import sys
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
@@ -16,12 +15,10 @@ from typing import Any
 import pytest
 from typer.testing import CliRunner
 
+from _cdp import Browser, Page, chromium_path, decode_png, env_requires_browser
+from conftest import ROOT
 from driftline.cli import app
 
-sys.path.insert(0, str(Path(__file__).parent))
-from _cdp import Browser, Page, chromium_path, decode_png, env_requires_browser  # noqa: E402
-
-ROOT = Path(__file__).resolve().parents[1]
 SCRIPT_NAME = "<script>alert(1)</script>"
 TIP = "(() => { const t = document.getElementById('tip'); return [t.hidden, t.textContent]; })()"
 

@@ -19,6 +19,7 @@ import orjson
 import pytest
 
 import driftline
+from conftest import ROOT
 from driftline import thinning
 from driftline.report import to_dict
 from driftline.sources.base import ReadOptions
@@ -50,7 +51,7 @@ def run_cli(*args: str) -> dict[str, Any]:
 def valid_report(report: dict[str, Any]) -> None:
     import jsonschema
 
-    schema = json.loads((Path(__file__).resolve().parents[1] / "docs" / "report.schema.json").read_text())
+    schema = json.loads((ROOT / "docs" / "report.schema.json").read_text())
     jsonschema.Draft202012Validator(schema).validate(json.loads(json.dumps(report)))
 
 

@@ -341,7 +341,7 @@ def test_csv_line_past_max_record_bytes_stops_the_read_there_with_memory_bounded
 
 
 def test_csv_with_a_header_and_no_rows_is_an_empty_table_not_an_error(tmp_path):
-    # found by: tests/test_properties.py (hypothesis, a header-only CSV): once the header was
+    # found by: tests/properties/test_properties.py (hypothesis, a header-only CSV): once the header was
     # read whole, pyarrow saw no bytes at all and said "Empty CSV file".
     for name, data in (("h.csv", b"a,b\n"), ("h2.csv", b"a,b"), ("h3.csv", b"a,b\r\n\r\n")):
         (tmp_path / name).write_bytes(data)

@@ -3,13 +3,12 @@
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import pytest
 from jsonschema import Draft202012Validator
 
 import driftline
-from conftest import write_lines
+from conftest import ROOT, write_lines
 from driftline.errors import DamagedFileError, InputPathError, ReportVersionError, UnreadableFileError
 from driftline.gate.baseline import (
     FORMAT_CLASSES,
@@ -18,8 +17,6 @@ from driftline.gate.baseline import (
 )
 from driftline.lattice import parse_key, shallow
 from driftline.report import dumps
-
-ROOT = Path(__file__).resolve().parents[1]
 
 SCHEMA = {
     "$schema": "https://json-schema.org/draft/2020-12/schema",

@@ -3,14 +3,12 @@
 from __future__ import annotations
 
 import dataclasses
-from pathlib import Path
 
 import pytest
 
+from conftest import ROOT
 from driftline.errors import InputPathError, PolicyError
 from driftline.gate.policy import ACTIONS, RULES, Policy, key_help, keys, load_policy, policy_from_mapping
-
-ROOT = Path(__file__).resolve().parents[1]
 
 
 def test_defaults_are_the_ones_the_issue_asks_for():

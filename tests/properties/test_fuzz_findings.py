@@ -31,7 +31,7 @@ def test_ragged_csv_row_with_invalid_utf8_does_not_lose_the_file(tmp_path):
 
 def test_latin1_csv_reports_each_line_once_and_counts_the_rest(tmp_path):
     # The same fix on a whole file in Latin-1 read as UTF-8 (pinned: found alone, it is read
-    # as windows-1252, tests/test_encoding.py): one problem per line for the first 20 lines,
+    # as windows-1252, tests/sources/test_encoding.py): one problem per line for the first 20 lines,
     # then one count, and every row is profiled.
     f = tmp_path / "latin1.csv"
     f.write_bytes(b"name,city\n" + "".join(f"Ren\u00e9{i},K\u00f6ln\n" for i in range(50)).encode("latin-1"))

@@ -11,10 +11,10 @@ import pyarrow as pa
 import pytest
 
 import driftline
+from _orders import EXPECTED, make_orders
 from driftline.recommend import Recommendation
 from driftline.recommend.apply import SchemaMismatch, Tally, apply
 from driftline.recommend.raw import raw_batches
-from test_recommend_fixture import EXPECTED, make_orders
 
 
 @pytest.fixture(scope="module")

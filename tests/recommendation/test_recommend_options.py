@@ -10,6 +10,7 @@ from pathlib import Path
 import pytest
 
 import driftline
+from conftest import ROOT
 from driftline.errors import PolicyError
 from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
 
@@ -45,7 +46,7 @@ def test_every_option_is_documented_value_by_value():
         assert f"\n{f.name}\n" in doc
     for value in ("permissive", "strict", "mixed", "always", "parse", "never", '"s"', '"ns"'):
         assert value in doc
-    docs = (Path(__file__).resolve().parents[1] / "docs" / "recommend.md").read_text()
+    docs = (ROOT / "docs" / "recommend.md").read_text()
     for f in fields(RecommendOptions):
         assert f"`{f.name}`" in docs
 

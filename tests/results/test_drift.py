@@ -1,7 +1,7 @@
 """Drift events on data with changes injected at known rows.
 
 The demo generator records each injected change (field, first file, row, line) in its
-manifest, checked independently by tests/test_make_demo.py; the scan must name every one.
+manifest, checked independently by tests/scripts/test_make_demo.py; the scan must name every one.
 """
 
 from __future__ import annotations

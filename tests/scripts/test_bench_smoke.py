@@ -12,7 +12,9 @@ from pathlib import Path
 
 import pytest
 
-BENCH = Path(__file__).resolve().parents[1] / "scripts" / "bench"
+from conftest import ROOT
+
+BENCH = ROOT / "scripts" / "bench"
 DATASETS = ["clean-json", "drift-json", "csv", "parquet"]
 PEERS = ["pyarrow", "polars", "duckdb"]
 

@@ -20,7 +20,9 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-SCRIPT = Path(__file__).parents[1] / "scripts" / "make_demo.py"
+from conftest import ROOT
+
+SCRIPT = ROOT / "scripts" / "make_demo.py"
 ENTRY_KEYS = ["change", "field", "file", "row", "line", "byte_offset", "note"]
 RFC3339_Z = re.compile(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ")
 SPACE_TS = re.compile(r"\d{4}-\d\d-\d\d \d\d:\d\d:\d\d")

@@ -20,6 +20,7 @@ import pyarrow.csv as pcsv
 import pytest
 
 import driftline
+from conftest import ROOT
 from driftline.observe import paths
 from driftline.report import dumps, load_report
 from driftline.sources import csvsplit
@@ -410,7 +411,7 @@ def test_report_validates_against_the_schema(tmp_path: Path):
 
     (tmp_path / "h.csv").write_bytes(b"1,2\n3,4\n")
     (tmp_path / "j.jsonl").write_bytes(b'{"a": 1}\n')
-    schema = json.loads((Path(__file__).resolve().parents[1] / "docs" / "report.schema.json").read_text())
+    schema = json.loads((ROOT / "docs" / "report.schema.json").read_text())
     doc = json.loads(dumps(driftline.scan(tmp_path)))
     jsonschema.validate(doc, schema)
     assert [f["dialect"] and f["dialect"]["header"] for f in doc["files"]] == ["no", None]

@@ -18,6 +18,7 @@ from pathlib import Path
 import pytest
 
 import driftline
+from conftest import ROOT
 from driftline.emit.terminal import encodings_line
 from driftline.report import dumps, file_from_json, file_json, load_report
 from driftline.sources.base import FileResult, ReadOptions
@@ -33,7 +34,6 @@ from driftline.sources.encoding import (
 from driftline.sources.readers import read_file
 from driftline.sources.split import can_split
 
-ROOT = Path(__file__).resolve().parents[1]
 CORPUS = ROOT / "fixtures" / "corpus"
 
 # Text with characters outside ASCII that every encoding below can write.

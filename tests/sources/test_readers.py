@@ -72,7 +72,7 @@ def test_problems_have_positions_and_the_scan_goes_on(tmp_path: Path):
     packed = gzip.compress(many)
     (tmp_path / "d.jsonl.gz").write_bytes(packed[: len(packed) // 2])
     # encoding pinned: b.csv is UTF-8 with a stray byte (found alone, one high byte and no
-    # valid multi-byte character would be read as windows-1252: tests/test_encoding.py)
+    # valid multi-byte character would be read as windows-1252: tests/sources/test_encoding.py)
     p = driftline.scan(tmp_path, encoding="utf-8")
     (cut,) = [i for i in p.issues if i.file == "d.jsonl.gz" and i.kind == "malformed-json"]
     got = sorted((i.file, i.kind, i.severity, i.line, i.row) for i in p.issues)

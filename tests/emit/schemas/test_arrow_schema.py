@@ -10,8 +10,8 @@ import pyarrow as pa
 import pytest
 
 import driftline
+from _orders import make_orders
 from driftline.emit.schemas.arrow_schema import ipc_bytes, read_ipc, schema_text
-from test_recommend_fixture import make_orders
 
 
 @pytest.fixture(scope="module")

@@ -21,10 +21,10 @@ import pyarrow as pa
 import pytest
 
 import driftline
+from _orders import make_orders
 from driftline.emit.schemas.avro import avro_datum, avro_name, avro_schema
 from driftline.recommend.apply import apply
 from driftline.recommend.raw import raw_batches
-from test_recommend_fixture import make_orders
 
 NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 

@@ -14,13 +14,13 @@ import pytest
 from jsonschema import Draft202012Validator, SchemaError
 
 import driftline
+from _orders import make_orders
 from driftline.emit.schemas.json_schema import META_SCHEMA, json_schema
 from driftline.gate.baseline import baseline_from_json_schema
 from driftline.lattice import parse_key
 from driftline.recommend import Recommendation
 from driftline.recommend.apply import apply
 from driftline.recommend.raw import iter_records, json_value, raw_batches
-from test_recommend_fixture import make_orders
 
 ALLOWED = {
     "type",

@@ -10,13 +10,14 @@ import pytest
 from jsonschema import Draft202012Validator
 
 import driftline
+from _orders import make_orders
+from conftest import ROOT
 from driftline.emit.schemas.rules_json import dumps, load_rules, rules_document
 from driftline.errors import ReportVersionError
 from driftline.observe import paths
 from driftline.recommend import CAUSES, REGISTRY
-from test_recommend_fixture import make_orders
 
-DOC_SCHEMA = json.loads((Path(__file__).resolve().parents[1] / "docs" / "rules.schema.json").read_text())
+DOC_SCHEMA = json.loads((ROOT / "docs" / "rules.schema.json").read_text())
 
 
 def test_the_documented_schema_is_valid_and_names_every_rule_and_cause():

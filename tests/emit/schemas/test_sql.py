@@ -17,11 +17,11 @@ import pyarrow as pa
 import pytest
 
 import driftline
+from _orders import make_orders
 from driftline.emit.schemas import sql
 from driftline.recommend import Recommendation
 from driftline.recommend.apply import apply
 from driftline.recommend.raw import raw_batches
-from test_recommend_fixture import make_orders
 
 
 @pytest.fixture(scope="module")

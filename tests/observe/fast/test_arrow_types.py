@@ -25,6 +25,7 @@ from jsonschema import Draft202012Validator
 from typer.testing import CliRunner
 
 import driftline
+from conftest import ROOT, import_test_module
 from driftline.cli import app
 from driftline.lattice import from_arrow
 from driftline.observe import columnar
@@ -395,7 +396,7 @@ def test_the_reader_reports_each_unsupported_column_once_per_file(
     ]
     assert list(profile.fields) == ["n"]
     # the report carries them as it carries every file problem (source: docs/report.schema.json)
-    schema = json.loads((Path(__file__).parent.parent / "docs" / "report.schema.json").read_text())
+    schema = json.loads((ROOT / "docs" / "report.schema.json").read_text())
     Draft202012Validator(schema).validate(json.loads(json.dumps(to_dict(profile))))
     n = profile.fields["n"].stats
     assert (n.types, n.nulls, n.minimum, n.maximum) == ({"int64": 8}, 2, 10, 50)  # source: pyarrow null_count
@@ -487,8 +488,8 @@ def test_every_schema_format_names_each_type_or_says_what_stands_in(every_type: 
 
     from driftline.emit.schemas import arrow_schema, json_schema, sql
     from driftline.emit.schemas.avro import avro_schema
-    from test_schema_sql import _load
 
+    _load = import_test_module("test_sql")._load
     rec = driftline.scan(every_type).recommend()
     table = pq.read_table(every_type / "all.parquet")
     valued = {n for n in table.column_names if table.column(n).null_count < len(table)}
