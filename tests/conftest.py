@@ -1,16 +1,48 @@
-"""Shared fixtures: the demo landing directory (built once per session) and small helpers."""
+"""Shared fixtures: the demo landing directory (built once per session) and small helpers.
+
+The tests live in folders that mirror the package (tests/<area>/test_<module>.py). This file's
+folder, tests/, is on sys.path, so the support modules beside it (_synthetic, _orders, ...)
+import by name from every folder; without __init__.py files every test module's name must
+be unique across the folders.
+"""
 
 from __future__ import annotations
 
+import importlib
 import importlib.util
 import json
+import sys
 from pathlib import Path
+from types import ModuleType
 from typing import Any
 
 import pytest
 
-ROOT = Path(__file__).resolve().parents[1]
+TESTS = Path(__file__).resolve().parent
+ROOT = TESTS.parent
 SHARED_TESTDATA = ROOT.parent / "shared" / "testdata"
+# Golden inputs: the tests' own under tests/fixtures/, the real-file corpus (which scripts read
+# too) under the repository's fixtures/.
+FIXTURE_DIRS = (TESTS / "fixtures", ROOT / "fixtures")
+
+
+def fixture_path(name: str) -> Path:
+    """The golden input `name` (a path relative to a fixtures folder), tests/fixtures/ first;
+    a name in neither is the path it would have in tests/fixtures/ (where a re-pin writes)."""
+    for folder in FIXTURE_DIRS:
+        if (folder / name).exists():
+            return folder / name
+    return FIXTURE_DIRS[0] / name
+
+
+def import_test_module(name: str) -> ModuleType:
+    """The test module `name` (e.g. "test_sql") from whichever folder holds it, imported as
+    pytest's prepend mode imports it (its folder first on sys.path), so that a helper one test
+    module keeps can serve another."""
+    (path,) = TESTS.rglob(f"{name}.py")
+    if str(path.parent) not in sys.path:
+        sys.path.insert(0, str(path.parent))
+    return importlib.import_module(name)
 
 
 def _load_make_demo() -> Any:

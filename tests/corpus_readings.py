@@ -1,6 +1,6 @@
 """Readings of the real-file corpus (fixtures/corpus/) by driftline, DuckDB and pyarrow.
 
-Shared by tests/test_corpus.py and scripts/corpus_table. Each reading is rows × columns
+Shared by tests/conformance/test_corpus.py and scripts/corpus_table. Each reading is rows × columns
 (top-level fields for JSON), or the text of the error the reader raised.
 """
 
