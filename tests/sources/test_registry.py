@@ -21,13 +21,13 @@ import pyarrow.parquet as pq
 import pytest
 
 import driftline
+from conftest import ROOT, SHARED_TESTDATA
 from driftline.dataformat import FORMATS, Format
 from driftline.recommend.raw import TEXT, iter_records, raw_batches
 from driftline.sources.discover import discover
 from driftline.sources.registry import FORMAT_BY_SUFFIX, SPECS, detect_format, sniff_format, suffix_list
 
-ROOT = Path(__file__).resolve().parents[1]
-CSV_SUITE = ROOT.parent / "shared" / "testdata" / "csv-edge-cases"
+CSV_SUITE = SHARED_TESTDATA / "csv-edge-cases"
 
 # Every file name suffix discovery reads, with the format it must give: the README's list of
 # formats read (JSON Lines .jsonl/.ndjson, JSON, CSV, TSV, Parquet), and the spellings the
