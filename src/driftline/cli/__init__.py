@@ -42,22 +42,22 @@ err_console = Console(stderr=True, highlight=False)
 F = TypeVar("F", bound=Callable[..., Any])
 
 
-class _Lines(logging.Formatter):
-    """'warning: message' for a warning, 'note: message' for information."""
+class _Lines(logging.Handler):
+    """'warning: message' for a warning, 'note: message' for information, on the stderr of the
+    moment (a test runner swaps sys.stderr between runs in one process)."""
 
-    def format(self, record: logging.LogRecord) -> str:
+    _driftline_cli = True
+
+    def emit(self, record: logging.LogRecord) -> None:
         word = "note" if record.levelno < logging.WARNING else "warning"
-        return f"{word}: {record.getMessage()}"
+        sys.stderr.write(f"{word}: {record.getMessage()}\n")
 
 
 def _warnings_to_stderr() -> None:
     """Warnings and notes of the library (the "driftline" logger) as lines on stderr."""
     logger = logging.getLogger("driftline")
     if not any(getattr(h, "_driftline_cli", False) for h in logger.handlers):
-        handler = logging.StreamHandler(sys.stderr)
-        handler.setFormatter(_Lines())
-        handler._driftline_cli = True  # type: ignore[attr-defined]
-        logger.addHandler(handler)
+        logger.addHandler(_Lines())
         logger.propagate = False
         logger.setLevel(logging.INFO)
 
