@@ -178,10 +178,12 @@ def scan_incremental(
     rebuild: bool = False,
     progress: Progress | None = None,
     write_inside: bool = False,
+    **keywords: Any,
 ) -> StateRun:
     """Scan paths reading only files the state does not hold unchanged; then save the state.
 
-    options says how (read, when given, replaces its read options).
+    options says how (read, when given, replaces its read options; the flat keywords of
+    driftline.options.ScanKeywords apply over both).
 
     >>> import tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
@@ -193,6 +195,7 @@ def scan_incremental(
     scan = options or ScanOptions()
     if read is not None:
         scan = dataclasses.replace(scan, read=read)
+    scan = scan.merged(**keywords)
     opts = scan.read
     state_path = os.fspath(state_path)
     if state_path == "-" or os.path.isdir(state_path):
