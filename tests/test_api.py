@@ -62,6 +62,8 @@ DOCTEST_MODULES = [
     "driftline.notebook",
     "driftline.profile",
     "driftline.observe.paths",
+    "driftline.options",
+    "driftline.partitions",
     "driftline.report",
     "driftline.sources.base",
     "driftline.sources.dialect",

@@ -322,7 +322,7 @@ TABLES = ("scan", "output", "recommend", "check")
 class Config:
     """The tables of one config file (empty when there is none); source names it in messages."""
 
-    source: str | None = None
+    source: str | None = None  # "config file 'driftline.toml'", as messages name it
     folder: str = "."
     file: str | None = None  # the file itself (source may add the table of a pyproject.toml)
     scan: Mapping[str, Any] = field(default_factory=dict)
@@ -331,7 +331,7 @@ class Config:
     check: Mapping[str, Any] = field(default_factory=dict)
 
     def where(self, table: str) -> str:
-        return f"config file {self.source!r} [{table}]"
+        return f"{self.source} [{table}]"
 
     def values(self) -> ValuePolicy | None:
         """The [output] table's example-values policy, or None when it sets none."""
@@ -384,21 +384,22 @@ def load_config(path: str | os.PathLike[str] | None) -> Config:
         raise OptionError(f"config file {source!r} is not UTF-8 text (byte {exc.start})") from None
     except tomllib.TOMLDecodeError as exc:
         raise OptionError(f"config file {source!r} is not valid TOML: {exc}") from None
+    label = f"config file {source!r}"
     if Path(source).name == PYPROJECT:
         doc = doc.get("tool", {}).get("driftline", {}) if isinstance(doc.get("tool"), dict) else {}
-        source = f"{source} [tool.driftline]"
+        label = f"{label} [tool.driftline]"
     for key, value in doc.items():
         if key not in TABLES:
             close = difflib.get_close_matches(key, TABLES, n=1)
             hint = f" (did you mean [{close[0]}]?)" if close else ""
             raise OptionError(
-                f"config file {source!r}: unknown key {key!r}{hint}; a config file has the tables "
+                f"{label}: unknown key {key!r}{hint}; a config file has the tables "
                 + ", ".join(f"[{t}]" for t in TABLES)
             )
         if not isinstance(value, dict):
-            raise OptionError(f"config file {source!r}: {key!r} must be a table ([{key}])")
+            raise OptionError(f"{label}: {key!r} must be a table ([{key}])")
     config = Config(
-        source=source,
+        source=label,
         folder=os.path.dirname(os.fspath(path)),
         file=os.fspath(path),
         scan=doc.get("scan", {}),
