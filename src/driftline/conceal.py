@@ -126,7 +126,11 @@ def output_values(config: object) -> ValuePolicy | None:
     table = doc.get("output")
     if table is None:
         return None
-    where = f"{os.fspath(config)!r} [output]"
+    return values_from_table(table, os.path.dirname(os.fspath(config)), f"{os.fspath(config)!r} [output]")
+
+
+def values_from_table(table: object, folder: str, where: str) -> ValuePolicy:
+    """The policy an [output] table sets (hash_key_file relative to folder); where names it in errors."""
     if not isinstance(table, dict) or set(table) - set(OUTPUT_KEYS):
         unknown = sorted(set(table) - set(OUTPUT_KEYS)) if isinstance(table, dict) else ["(not a table)"]
         raise OptionError(f"{where}: unknown key {unknown[0]!r}; allowed keys: {', '.join(OUTPUT_KEYS)}")
@@ -134,7 +138,7 @@ def output_values(config: object) -> ValuePolicy | None:
     if mode is not None and not isinstance(mode, str) or key_file is not None and not isinstance(key_file, str):
         raise OptionError(f"{where}: example_values and hash_key_file are strings")
     if key_file is not None:
-        key_file = os.path.join(os.path.dirname(os.fspath(config)), key_file)
+        key_file = os.path.join(folder, key_file)
     try:
         return value_policy(mode, key_file=key_file)
     except OptionError as exc:

@@ -10,90 +10,92 @@ from collections.abc import Callable, Sequence
 from dataclasses import replace
 from typing import Any
 
-from driftline.errors import DriftlineError, InputPathError
+from driftline.errors import InputPathError
+from driftline.options import ScanOptions
+from driftline.partitions import partitions_pass
 from driftline.profile import Profile
-from driftline.ranges import check
-from driftline.sources.base import DEFAULT_BATCH_BYTES, DEFAULT_MAX_PATHS, FileResult, ReadOptions
+from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_file, read_files
 from driftline.sources.registry import OBSERVED_TOGETHER, suffix_list
-from driftline.sources.remote import StorageOptions, discover_remote, is_url, parse_condition, partitions_pass
+from driftline.sources.remote import StorageOptions, discover_remote, is_url
 from driftline.sources.split import assemble, can_split, plan, read_span
 from driftline.thinning import ScanThinner, cap_paths, thin_result, thin_scan
-from driftline.workers import DEFAULT_TASK_TIMEOUT, cap_jobs, run_ordered, usable_cores
+from driftline.workers import DEFAULT_TASK_TIMEOUT, cap_jobs, run_ordered
 
 Progress = Callable[[int, int, str], None]  # (files done, files total, current file)
 
 
-def default_jobs() -> int:
-    return usable_cores()  # the cores this process may run on, as the --jobs cap counts them
-
-
 def scan_paths(
-    paths: Sequence[str | os.PathLike[str]],
+    paths: str | os.PathLike[str] | Sequence[str | os.PathLike[str]],
     *,
+    options: ScanOptions | None = None,
     read: ReadOptions | None = None,
-    include: Sequence[str] = (),
-    exclude: Sequence[str] = (),
-    include_hidden: bool = False,
-    sniff_unknown: bool = False,
-    jobs: int = 1,
-    max_errors: int | None = None,
+    storage: StorageOptions | None = None,
     progress: Progress | None = None,
     reuse: Callable[[FileRef], FileResult | None] | None = None,
-    engine: str = "local",
-    scheduler: str | None = None,
-    where: Sequence[str] = (),
-    storage: StorageOptions | None = None,
-    max_events: int | None = None,
-    follow_links: bool = False,
-    connect_timeout: float | None = None,
-    task_timeout: float = DEFAULT_TASK_TIMEOUT,
+    **keywords: Any,
 ) -> Profile:
-    """Scan paths into a Profile. Raises InputPathError when nothing can be found at all.
+    """Scan paths into a Profile: options (the defaults when None) with read, storage and the
+    flat keywords of ScanKeywords applied, then scan_with. For code that holds parts at hand."""
+    base = options or ScanOptions()
+    if read is not None:
+        base = replace(base, read=read)
+    if storage is not None:
+        base = replace(base, storage=storage)
+    return scan_with(base.merged(paths=paths, **keywords), progress=progress, reuse=reuse)
+
+
+def scan_with(
+    options: ScanOptions,
+    *,
+    progress: Progress | None = None,
+    reuse: Callable[[FileRef], FileResult | None] | None = None,
+) -> Profile:
+    """Scan options.paths into a Profile. Raises InputPathError when nothing can be found at all.
 
     reuse, when given, is asked first for each discovered file: a FileResult it returns
     stands for that file unread (an incremental state), None means read the file.
     engine 'dask' reads the files on a dask cluster (scheduler address, or a loopback local
     cluster of `jobs` workers); the Profile is the same as the local one.
-    paths may be s3:// URLs (reached through storage); where holds partition conditions
-    like 'day>=2026-11-01' that keep only matching key=value partitions (pruned while listing).
+    paths may be s3:// URLs (reached through options.storage); options.where keeps only
+    matching key=value partitions (pruned while listing).
     jobs is capped by the cores and memory (a warning on the "driftline" logger says so);
-    connect_timeout bounds reaching a dask scheduler (the object store's is in storage);
+    the storage's connect_timeout also bounds reaching a dask scheduler;
     task_timeout bounds each worker task (a WorkerError or EngineError past it).
+    The example values are not concealed here: driftline.scan does that (options.values).
     """
-    if engine not in ("local", "dask"):
-        raise DriftlineError(f"unknown engine {engine!r}; choose local or dask")
-    check("jobs", jobs)
-    if max_errors is not None:
-        check("max_errors", max_errors)
-    if max_events is not None:
-        check("max_events", max_events)
-    if not 0 < task_timeout <= 10**7:
-        raise DriftlineError(f"--task-timeout must be between 0 and 10000000 seconds, got {task_timeout}")
-    if engine == "dask" and scheduler:
+    o = options
+    paths = o.paths
+    jobs = o.jobs
+    if o.engine == "dask" and o.scheduler:
         from driftline.engines import scheduler_endpoint
 
-        scheduler_endpoint(scheduler)  # a mistyped address fails before any listing
-    if engine == "local" or not scheduler:  # workers on this machine
+        scheduler_endpoint(o.scheduler)  # a mistyped address fails before any listing
+    if o.engine == "local" or not o.scheduler:  # workers on this machine
         jobs, why = cap_jobs(jobs)
         if why:
             logging.getLogger("driftline").warning(why)
-    opts = read or ReadOptions()
+    opts = o.read
     started = time.perf_counter()
-    conditions = [parse_condition(w) for w in where]
+    conditions = list(o.where)
     if any(is_url(p) for p in paths):
         found = discover_remote(
-            paths, storage=storage, include=include, exclude=exclude, include_hidden=include_hidden, where=conditions
+            paths,
+            storage=o.storage,
+            include=o.include,
+            exclude=o.exclude,
+            include_hidden=o.include_hidden,
+            where=conditions,
         )
     else:
         found = discover(
             paths,
-            include=include,
-            exclude=exclude,
-            include_hidden=include_hidden,
-            sniff_unknown=sniff_unknown,
-            follow_links=follow_links,
+            include=o.include,
+            exclude=o.exclude,
+            include_hidden=o.include_hidden,
+            sniff_unknown=o.sniff_unknown,
+            follow_links=o.follow_links,
         )
         if conditions:
             found = replace(found, files=tuple(f for f in found.files if partitions_pass(f.partitions, conditions)))
@@ -102,29 +104,19 @@ def scan_paths(
             f"no readable data file under {', '.join(map(str, paths))} "
             f"({_skipped_summary(found.skipped)}); formats read: {suffix_list()}, optionally compressed"
         )
-    read_all: Callable[..., list[FileResult]] = functools.partial(_read_all, task_timeout=task_timeout)
-    if engine == "dask":
-        from driftline.engines import CONNECT_TIMEOUT_S, dask_reader
+    read_all: Callable[..., list[FileResult]] = functools.partial(_read_all, task_timeout=o.task_timeout)
+    if o.engine == "dask":
+        from driftline.engines import dask_reader
 
         read_all = dask_reader(
-            found.root, scheduler, connect_timeout=connect_timeout or CONNECT_TIMEOUT_S, task_timeout=task_timeout
+            found.root, o.scheduler, connect_timeout=o.storage.connect_timeout, task_timeout=o.task_timeout
         )
     if reuse is None:
-        results = read_all(found.files, opts, jobs, max_errors, progress)
+        results = read_all(found.files, opts, jobs, o.max_errors, progress)
     else:
-        results = _read_reusing(found.files, opts, jobs, max_errors, progress, reuse, read_all)
+        results = _read_reusing(found.files, opts, jobs, o.max_errors, progress, reuse, read_all)
     results = cap_paths(thin_scan(results), opts.max_paths)
-    options: dict[str, Any] = {"batch_rows": opts.batch_rows, "include": list(include), "exclude": list(exclude)}
-    # Only the limits that differ from their defaults: a report of a default scan stays as it was.
-    if opts.batch_bytes != DEFAULT_BATCH_BYTES:
-        options["batch_bytes"] = opts.batch_bytes
-    if opts.max_paths != DEFAULT_MAX_PATHS:
-        options["max_paths"] = opts.max_paths
-    if max_events is not None:
-        options["max_events"] = max_events
-    if follow_links:
-        options["follow_links"] = True
-    return Profile(found.root, tuple(results), found.skipped, options, time.perf_counter() - started)
+    return Profile(found.root, tuple(results), found.skipped, o.to_report(), time.perf_counter() - started)
 
 
 def _skipped_summary(skipped: Sequence[Any]) -> str:

@@ -39,6 +39,7 @@ SURFACE = [
     "ReadOptions",
     "Recommendation",
     "ReportVersionError",
+    "ScanOptions",
     "SchemaConflictError",
     "UnreadableFileError",
     "Verdict",
@@ -70,6 +71,8 @@ DOCTEST_MODULES = [
     "driftline.observe.paths",
     "driftline.recommend",
     "driftline.recommend.plan",
+    "driftline.options",
+    "driftline.partitions",
     "driftline.report",
     "driftline.sources.base",
     "driftline.sources.dialect",
@@ -485,4 +488,4 @@ def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pyt
     test = parser.get_doctest(text, {}, "docs/python.md", "docs/python.md", 0)
     runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS)
     runner.run(test)
-    assert runner.summarize(verbose=False) == (0, 32)
+    assert runner.summarize(verbose=False) == (0, 35)

@@ -17,10 +17,11 @@ from urllib.parse import parse_qs, unquote
 import pytest
 
 from _endpoints import dead_port, silent_endpoint
-from driftline.errors import DriftlineError, InputPathError
+from driftline.errors import InputPathError, OptionError
+from driftline.partitions import parse_condition
 from driftline.scan import scan_paths
 from driftline.sources.discover import discover
-from driftline.sources.remote import StorageOptions, discover_remote, locator, parse_condition, parse_locator
+from driftline.sources.remote import StorageOptions, discover_remote, locator, parse_locator
 
 if os.environ.get("CI"):
     import boto3  # CI installs the test extra: a missing package is a failure, never a skip
@@ -104,7 +105,7 @@ def test_condition_parsing() -> None:
     assert not parse_condition("day>=2026-11-29").holds("2026-11-28")
     assert parse_condition("n<10").holds("9")  # integers compare as numbers: "9" < "10"
     assert not parse_condition("region!=east").holds("east")
-    with pytest.raises(DriftlineError, match=r"cannot read --where 'day~1'"):
+    with pytest.raises(OptionError, match=r"cannot read --where 'day~1'"):
         parse_condition("day~1")
 
 

@@ -42,15 +42,24 @@ err_console = Console(stderr=True, highlight=False)
 F = TypeVar("F", bound=Callable[..., Any])
 
 
+class _Lines(logging.Handler):
+    """'warning: message' for a warning, 'note: message' for information, on the stderr of the
+    moment (a test runner swaps sys.stderr between runs in one process)."""
+
+    _driftline_cli = True
+
+    def emit(self, record: logging.LogRecord) -> None:
+        word = "note" if record.levelno < logging.WARNING else "warning"
+        sys.stderr.write(f"{word}: {record.getMessage()}\n")
+
+
 def _warnings_to_stderr() -> None:
-    """Warnings of the library (the "driftline" logger) as 'warning: message' lines on stderr."""
+    """Warnings and notes of the library (the "driftline" logger) as lines on stderr."""
     logger = logging.getLogger("driftline")
     if not any(getattr(h, "_driftline_cli", False) for h in logger.handlers):
-        handler = logging.StreamHandler(sys.stderr)
-        handler.setFormatter(logging.Formatter("warning: %(message)s"))
-        handler._driftline_cli = True  # type: ignore[attr-defined]
-        logger.addHandler(handler)
+        logger.addHandler(_Lines())
         logger.propagate = False
+        logger.setLevel(logging.INFO)
 
 
 def handles_errors(fn: F) -> F:

@@ -9,23 +9,19 @@ import orjson
 import typer
 from rich.console import Console
 
-from driftline.cli import ENCODING_OPTION, EXIT_USAGE, app, err_console, handles_errors
-from driftline.cli.scan_cmd import CSV_DIALECT_HELP, _Bar  # the scan's progress bar: stderr, terminals only
-from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
-from driftline.conceal import conceal
+import driftline
+from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli.read_flags import takes_read_options
+from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
-from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, diff_fields, diff_partitions, render
-from driftline.gate.inputs import profile_of
+from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, render
 from driftline.gate.policy import ACTION_MEANING, key_help
-from driftline.gate.run import ScanSettings, run_check
 from driftline.gate.verdict import junit_xml
 from driftline.gate.verdict import render as render_verdict
-from driftline.ranges import RANGES
-from driftline.scan import default_jobs
-from driftline.sources.base import DEFAULT_BATCH_ROWS, DEFAULT_MAX_RECORD_BYTES, ReadOptions
+from driftline.options import Config, ScanOptions
 
 EXIT_CODES = """Exit codes:
 
@@ -95,66 +91,6 @@ Exit codes: 0 the diff was made (changes are information); 2 usage or input erro
 """
 
 
-def _settings(
-    include: list[str],
-    exclude: list[str],
-    batch_rows: int,
-    jobs: int,
-    max_errors: int | None,
-    max_record_bytes: int,
-    delimiter: str | None,
-    hidden: bool,
-    csv_dialect: list[str],
-    encoding: str | None = None,
-    write_inside: bool = False,
-) -> ScanSettings:
-    return ScanSettings(
-        read=ReadOptions(
-            batch_rows=batch_rows,
-            max_record_bytes=max_record_bytes,
-            delimiter=delimiter,
-            csv_dialects=tuple(csv_dialect),
-            encoding=encoding,
-        ),
-        include=tuple(include),
-        exclude=tuple(exclude),
-        include_hidden=hidden,
-        jobs=jobs,
-        max_errors=max_errors,
-        write_inside=write_inside,
-    )
-
-
-_INCLUDE = typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable).")
-_EXCLUDE = typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable).")
-_BATCH = typer.Option(
-    DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1], help="Rows per batch (as for scan)."
-)
-_JOBS = typer.Option(
-    default_jobs(),
-    "--jobs",
-    "-j",
-    min=1,
-    max=RANGES["jobs"][1],
-    help="Files read in parallel. Results do not depend on it.",
-)
-_MAXERR = typer.Option(
-    None,
-    "--max-errors",
-    min=1,
-    max=RANGES["max_errors"][1],
-    help="Stop reading new files once this many errors were found.",
-)
-_RECORD = typer.Option(
-    DEFAULT_MAX_RECORD_BYTES,
-    "--max-record-bytes",
-    min=1,
-    max=RANGES["max_record_bytes"][1],
-    help="Longer records are reported.",
-)
-_DELIM = typer.Option(None, "--delimiter", help="CSV delimiter; found from the data when not given.")
-_DIALECT = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP)
-_HIDDEN = typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'.")
 _INSIDE = typer.Option(
     False,
     WRITE_INSIDE,
@@ -165,6 +101,7 @@ _INSIDE = typer.Option(
 
 @app.command("check", help=CHECK_HELP, no_args_is_help=True)
 @handles_errors
+@takes_read_options
 def check_command(
     paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
     baseline: str = typer.Option(
@@ -175,7 +112,11 @@ def check_command(
         help="JSON Schema, cast-rules file or saved scan report to check against.",
     ),
     policy: str | None = typer.Option(
-        None, "--policy", "-p", metavar="FILE", help="TOML policy file (keys below); safe defaults when not given."
+        None,
+        "--policy",
+        "-p",
+        metavar="FILE",
+        help="TOML policy file (keys below); else the config file's [check] table; safe defaults when neither.",
     ),
     json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the verdict as JSON."),
     junit: str | None = typer.Option(
@@ -187,60 +128,36 @@ def check_command(
     verify: bool = typer.Option(False, "--verify", help="With --state: also compare content hashes."),
     rebuild: bool = typer.Option(False, "--rebuild", help="With --state: ignore the old state and start over."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary; only the exit code and files."),
-    include: list[str] = _INCLUDE,
-    exclude: list[str] = _EXCLUDE,
-    batch_rows: int = _BATCH,
-    jobs: int = _JOBS,
-    max_errors: int | None = _MAXERR,
-    max_record_bytes: int = _RECORD,
-    delimiter: str | None = _DELIM,
-    csv_dialect: list[str] = _DIALECT,
-    encoding: str | None = ENCODING_OPTION,
-    hidden: bool = _HIDDEN,
-    example_values: str | None = EXAMPLE_VALUES,
-    hash_key_file: str | None = HASH_KEY_FILE,
     write_inside: bool = _INSIDE,
+    *,
+    options: ScanOptions,
+    config: Config,
 ) -> None:
-    values = values_of(example_values, hash_key_file, policy)
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
     check_targets(
         [("--json", json_out), ("--junit", junit), ("--state", state)],
         scanned=paths,
-        named=[baseline, policy],
+        named=[baseline, policy, config.file],
         write_inside=write_inside,
-        include_hidden=hidden,
+        include_hidden=options.include_hidden,
     )
-    settings = _settings(
-        include,
-        exclude,
-        batch_rows,
-        jobs,
-        max_errors,
-        max_record_bytes,
-        delimiter,
-        hidden,
-        csv_dialect,
-        encoding,
-        write_inside,
-    )
+    rules = policy if policy is not None else config.policy()
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
-        verdict, note = run_check(
+        verdict = driftline.check(
             paths,
             baseline=baseline,
-            policy=policy,
+            policy=rules,
             state=state,
             verify=verify,
             rebuild=rebuild,
-            scan=settings,
+            write_inside=write_inside,
+            options=options,
             progress=bar,
-            values=values,
         )
     finally:
         bar.close()
-    if note:
-        err_console.print(note if note.startswith("warning: ") else f"note: {note}", markup=False)
     if json_out is not None:
         write_output(json_out, orjson.dumps(verdict.to_json(), option=orjson.OPT_INDENT_2) + b"\n")
     if junit is not None:
@@ -254,6 +171,7 @@ def check_command(
 
 @app.command("diff", help=DIFF_HELP, no_args_is_help=True)
 @handles_errors
+@takes_read_options
 def diff_command(
     sides: list[str] = typer.Argument(..., help="Two sides (reports or paths), or one side with --by."),
     by: str | None = typer.Option(None, "--by", metavar="KEY", help="Compare consecutive values of partition KEY."),
@@ -266,57 +184,27 @@ def diff_command(
         help="Smallest change of null share listed, in percentage points.",
     ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal output (use with --json)."),
-    include: list[str] = _INCLUDE,
-    exclude: list[str] = _EXCLUDE,
-    batch_rows: int = _BATCH,
-    jobs: int = _JOBS,
-    max_record_bytes: int = _RECORD,
-    delimiter: str | None = _DELIM,
-    csv_dialect: list[str] = _DIALECT,
-    encoding: str | None = ENCODING_OPTION,
-    hidden: bool = _HIDDEN,
-    example_values: str | None = EXAMPLE_VALUES,
-    hash_key_file: str | None = HASH_KEY_FILE,
     write_inside: bool = _INSIDE,
+    *,
+    options: ScanOptions,
+    config: Config,
 ) -> None:
-    check_targets([("--json", json_out)], scanned=sides, write_inside=write_inside, include_hidden=hidden)
-    s = _settings(
-        include,
-        exclude,
-        batch_rows,
-        jobs,
-        None,
-        max_record_bytes,
-        delimiter,
-        hidden,
-        csv_dialect,
-        encoding,
-        write_inside,
+    check_targets(
+        [("--json", json_out)],
+        scanned=sides,
+        named=[config.file],
+        write_inside=write_inside,
+        include_hidden=options.include_hidden,
     )
-    values = values_of(example_values, hash_key_file)
-
-    def load(side: str):  # noqa: ANN202 - a Profile
-        return conceal(
-            profile_of(
-                side, read=s.read, include=s.include, exclude=s.exclude, include_hidden=s.include_hidden, jobs=s.jobs
-            ),
-            values,
-        )
-
     diffs: tuple[Diff, ...]
     if by is not None:
         if len(sides) != 1:
             raise InputPathError(f"--by compares partitions of one side; got {len(sides)} sides")
-        profile = load(sides[0])
-        if by not in profile.partition_keys():
-            known = ", ".join(profile.partition_keys()) or "none (no key=value folders)"
-            raise InputPathError(f"no partition key {by!r} under {sides[0]!r}; partition keys: {known}")
-        diffs = diff_partitions(profile, by, min_null_points=null_points)
+        diffs = driftline.diff(sides[0], by=by, min_null_points=null_points, options=options)
     else:
         if len(sides) != 2:
             raise InputPathError(f"diff takes two sides (reports or paths), or one with --by KEY; got {len(sides)}")
-        a, b = load(sides[0]), load(sides[1])
-        diffs = (diff_fields(a.fields, b.fields, before=sides[0], after=sides[1], min_null_points=null_points),)
+        diffs = (driftline.diff(sides[0], sides[1], min_null_points=null_points, options=options),)
     if json_out is not None:
         doc = {"format": "driftline-diff", "version": 1, "by": by, "diffs": [d.to_json() for d in diffs]}
         write_output(json_out, orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")

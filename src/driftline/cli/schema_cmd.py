@@ -8,21 +8,17 @@ from pathlib import Path
 import typer
 from rich.console import Console
 
+import driftline
 from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
-from driftline.cli.scan_cmd import CSV_DIALECT_HELP
-from driftline.cli.values import EXAMPLE_VALUES, HASH_KEY_FILE, values_of
-from driftline.conceal import conceal
+from driftline.cli.read_flags import takes_read_options
 from driftline.emit.atomic import is_stdout, own_descriptor, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import rules_json, summary
 from driftline.emit.schemas.files import FORMATS, schema_file
 from driftline.emit.targets import WRITE_INSIDE, check_targets
-from driftline.errors import InputPathError, OutputError, PolicyError
-from driftline.gate.inputs import profile_of
-from driftline.ranges import RANGES
-from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
-from driftline.scan import default_jobs
-from driftline.sources.base import DEFAULT_BATCH_ROWS, ReadOptions
+from driftline.errors import OutputError, PolicyError
+from driftline.options import Config, ScanOptions
+from driftline.recommend import RecommendOptions, SchemaConflictError
 
 SCHEMA_HELP = """Recommend one schema for files and folders (or a saved scan report), with a cast
 rule per field and what each rule would null or change, counted by the scan.
@@ -52,7 +48,7 @@ exist, a report of another format version, an unwritable output).
 
 
 def _options(
-    config: str | None,
+    config: Config,
     strict: bool,
     prefer_decimal: bool,
     timestamp_unit: str | None,
@@ -63,8 +59,9 @@ def _options(
     min_field_share: float | None,
     leading_zeros: str | None = None,
 ) -> RecommendOptions:
-    # The config file first, then the flags that were given on the command line.
-    base = RecommendOptions.from_toml(config) if config else RecommendOptions()
+    # The config file's [recommend] table first, then the flags that were given on the command line.
+    source = config.where("recommend")
+    base = RecommendOptions.from_mapping(config.recommend, source=source) if config.recommend else RecommendOptions()
     return base.replace(
         mode="strict" if strict else None,
         prefer_decimal=True if prefer_decimal else None,
@@ -91,6 +88,7 @@ def _check_out(target: str | None, what: str) -> None:
 
 @app.command("schema", help=SCHEMA_HELP, no_args_is_help=True)
 @handles_errors
+@takes_read_options
 def schema_command(
     paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
     to: str | None = typer.Option(
@@ -101,9 +99,6 @@ def schema_command(
         None, "--table", metavar="NAME", help="Table name (SQL) or record name (Avro); default: the root folder's name."
     ),
     rules: str | None = typer.Option(None, "--rules", metavar="FILE|-", help="Write the cast rules as JSON."),
-    config: str | None = typer.Option(
-        None, "--config", metavar="FILE", help="TOML file with a [recommend] table of options; flags override it."
-    ),
     strict: bool = typer.Option(False, "--strict", help="A conflict is an error: exit 1 and list the fields."),
     prefer_decimal: bool = typer.Option(False, "--prefer-decimal", help="Decimal-looking strings become decimal(p,s)."),
     timestamp_unit: str | None = typer.Option(
@@ -143,30 +138,27 @@ def schema_command(
         metavar="permissive|strict",
         help="JSON Schema of the data as it arrives, or after the rules (default: the --strict setting).",
     ),
-    batch_rows: int = typer.Option(
-        DEFAULT_BATCH_ROWS, "--batch-rows", min=1, max=RANGES["batch_rows"][1], help="Rows per batch (as for scan)."
-    ),
-    jobs: int = typer.Option(
-        default_jobs(), "--jobs", "-j", min=1, max=RANGES["jobs"][1], help="Files read in parallel."
-    ),
-    csv_dialect: list[str] = typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
-    example_values: str | None = EXAMPLE_VALUES,
-    hash_key_file: str | None = HASH_KEY_FILE,
     write_inside: bool = typer.Option(
         False,
         WRITE_INSIDE,
         help="Let --out/--rules go inside a scanned folder (a new file or an earlier "
         "driftline output, never a data file).",
     ),
+    *,
+    options: ScanOptions,
+    config: Config,
 ) -> None:
-    values = values_of(example_values, hash_key_file, config)
     if to is not None and to not in FORMATS:
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
         raise PolicyError(f"unknown --json-mode {json_mode!r}; choose permissive or strict")
     check_targets(
-        [("--out", out if to else None), ("--rules", rules)], scanned=paths, named=[config], write_inside=write_inside
+        [("--out", out if to else None), ("--rules", rules)],
+        scanned=paths,
+        named=[config.file],
+        write_inside=write_inside,
+        include_hidden=options.include_hidden,
     )
     if to == "arrow" and is_stdout(out) and sys.stdout.isatty():
         raise OutputError("--to arrow writes a binary IPC message; give --out FILE (or use --to arrow-text)")
@@ -184,21 +176,10 @@ def schema_command(
         min_field_share,
         leading_zeros,
     )
-    profile = conceal(
-        profile_of(paths, read=ReadOptions(batch_rows=batch_rows, csv_dialects=tuple(csv_dialect)), jobs=jobs), values
-    )
-    if (
-        profile.rows == 0
-        and profile.error_count
-        and all(not f.rows and (f.errors or not f.observations) for f in profile.files)
-    ):
-        raise InputPathError(
-            f"nothing readable: every one of {len(profile.files)} files failed (driftline scan shows the problems)"
-        )
     to_stdout = (to is not None and is_stdout(out)) or (rules is not None and is_stdout(rules))
     console = err_console if to_stdout else Console(highlight=False)
     try:
-        rec = recommend(profile, options=opts)
+        rec = driftline.recommend(paths, options=opts, scan_options=options)
     except SchemaConflictError as exc:
         if not quiet:
             summary.render(exc.recommendation, console)

@@ -10,12 +10,12 @@
 
 from __future__ import annotations
 
+import logging
 import os
 from collections.abc import Sequence
-from dataclasses import dataclass
 from pathlib import Path
 
-from driftline.conceal import ValuePolicy, conceal, output_values
+from driftline.conceal import conceal, output_values
 from driftline.errors import InputPathError
 from driftline.gate.baseline import Baseline, baseline_from_json_schema, load_baseline  # noqa: F401
 from driftline.gate.compare import compare
@@ -23,22 +23,9 @@ from driftline.gate.inputs import Side, is_report, profile_of
 from driftline.gate.policy import Policy, load_policy
 from driftline.gate.state import scan_incremental
 from driftline.gate.verdict import Verdict
+from driftline.options import ScanOptions
 from driftline.profile import Profile
 from driftline.scan import Progress
-from driftline.sources.base import ReadOptions
-
-
-@dataclass(frozen=True, kw_only=True)
-class ScanSettings:
-    """How the check scans its paths (the same options as `driftline scan`)."""
-
-    read: ReadOptions = ReadOptions()
-    include: Sequence[str] = ()
-    exclude: Sequence[str] = ()
-    include_hidden: bool = False
-    jobs: int = 1
-    max_errors: int | None = None
-    write_inside: bool = False  # the state file may lie inside a scanned folder (emit/targets.py)
 
 
 def run_check(
@@ -49,16 +36,19 @@ def run_check(
     state: str | os.PathLike[str] | None = None,
     verify: bool = False,
     rebuild: bool = False,
-    scan: ScanSettings | None = None,
+    options: ScanOptions | None = None,
     progress: Progress | None = None,
-    values: ValuePolicy | None = None,
+    write_inside: bool = False,
 ) -> tuple[Verdict, str | None]:
     """Judge paths (or a Profile, or a saved report) against a baseline; also a note for stderr.
 
-    values, when it hides or hashes example values, applies to the verdict's examples (and
-    to those of the scanned profile it judges); the policy file's [output] table may set it.
+    options says how the paths are scanned; its values policy, when it hides or hashes
+    example values, applies to the verdict's examples (and to those of the scanned profile
+    it judges), else the policy file's [output] table may set it. write_inside lets the
+    state file lie inside a scanned folder (emit/targets.py). The note (a damaged state set
+    aside, read options changed) also goes to the "driftline" logger.
     """
-    settings = scan or ScanSettings()
+    opts = options or ScanOptions()
     pol = policy if isinstance(policy, Policy) else load_policy(os.fspath(policy)) if policy is not None else Policy()
     base = baseline if isinstance(baseline, Baseline) else load_baseline(os.fspath(baseline))
     note = None
@@ -70,33 +60,21 @@ def run_check(
         run = scan_incremental(
             items,
             Path(state),
-            read=settings.read,
-            include=settings.include,
-            exclude=settings.exclude,
-            include_hidden=settings.include_hidden,
-            jobs=settings.jobs,
-            max_errors=settings.max_errors,
+            options=opts,
             verify=verify,
             rebuild=rebuild,
             progress=progress,
-            write_inside=settings.write_inside,
+            write_inside=write_inside,
         )
         profile, note = run.profile, run.note
         counts = {"files_read": run.read, "files_reused": run.reused, "files_dropped": run.dropped}
     else:
-        profile = profile_of(
-            paths if isinstance(paths, Profile) else items,
-            read=settings.read,
-            include=settings.include,
-            exclude=settings.exclude,
-            include_hidden=settings.include_hidden,
-            jobs=settings.jobs,
-            max_errors=settings.max_errors,
-            progress=progress,
-        )
+        profile = profile_of(paths if isinstance(paths, Profile) else items, options=opts, progress=progress)
         # files_reused counts files taken as they were: from a state file or a saved report.
         counts = {"files_read": 0, "files_reused": len(profile.files)} if loaded else {"files_read": len(profile.files)}
-    values = values if values is not None and values.mode != "show" else output_values(policy) or values
-    if values is not None:
-        profile = conceal(profile, values)
+    if note:
+        log = logging.getLogger("driftline")
+        log.warning(note.removeprefix("warning: ")) if note.startswith("warning: ") else log.info(note)
+    values = opts.values if opts.values.mode != "show" else output_values(policy) or opts.values
+    profile = conceal(profile, values)
     return compare(profile, base, pol, counts=counts), note

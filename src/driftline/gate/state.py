@@ -38,6 +38,7 @@ from driftline.emit.atomic import write_output
 from driftline.emit.targets import check_targets
 from driftline.errors import DamagedFileError, InputPathError, ReportVersionError
 from driftline.observe import jsonnum
+from driftline.options import ScanOptions
 from driftline.profile import Profile
 from driftline.report import file_from_json, file_json, files_from_json
 from driftline.scan import Progress, scan_paths
@@ -171,18 +172,18 @@ def scan_incremental(
     paths: Sequence[str | os.PathLike[str]],
     state_path: str | Path,
     *,
+    options: ScanOptions | None = None,
     read: ReadOptions | None = None,
-    include: Sequence[str] = (),
-    exclude: Sequence[str] = (),
-    include_hidden: bool = False,
-    jobs: int = 1,
-    max_errors: int | None = None,
     verify: bool = False,
     rebuild: bool = False,
     progress: Progress | None = None,
     write_inside: bool = False,
+    **keywords: Any,
 ) -> StateRun:
     """Scan paths reading only files the state does not hold unchanged; then save the state.
+
+    options says how (read, when given, replaces its read options; the flat keywords of
+    driftline.options.ScanKeywords apply over both).
 
     >>> import tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
@@ -191,12 +192,18 @@ def scan_incremental(
     >>> (first.read, again.read, again.reused, again.profile == scan_paths([d]))
     (1, 0, 1, True)
     """
-    opts = read or ReadOptions()
+    scan = options or ScanOptions()
+    if read is not None:
+        scan = dataclasses.replace(scan, read=read)
+    scan = scan.merged(**keywords)
+    opts = scan.read
     state_path = os.fspath(state_path)
     if state_path == "-" or os.path.isdir(state_path):
         raise InputPathError(f"--state needs a file name, not {state_path!r}")
     # Not over an input, and not inside a scanned folder unless asked (or named as discovery skips).
-    check_targets([("--state", state_path)], scanned=paths, write_inside=write_inside, include_hidden=include_hidden)
+    check_targets(
+        [("--state", state_path)], scanned=paths, write_inside=write_inside, include_hidden=scan.include_hidden
+    )
     note = None
     try:
         state = None if rebuild else load_state(state_path)
@@ -248,17 +255,7 @@ def scan_incremental(
         reused[ref.rel] = prev
         return prev
 
-    profile = scan_paths(
-        paths,
-        read=opts,
-        include=include,
-        exclude=exclude,
-        include_hidden=include_hidden,
-        jobs=jobs,
-        max_errors=max_errors,
-        progress=progress,
-        reuse=reuse,
-    )
+    profile = scan_paths(paths, options=scan, progress=progress, reuse=reuse)
     if verify:
         files = []
         for f in profile.files:

@@ -26,7 +26,6 @@ import fnmatch
 import functools
 import io
 import os
-import re
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from typing import Any, BinaryIO
@@ -34,6 +33,7 @@ from urllib.parse import parse_qsl, quote, unquote, urlencode
 
 from driftline.dataformat import Compression, Format
 from driftline.errors import DriftlineError, InputPathError
+from driftline.partitions import Condition, folder_passes, partitions_pass
 from driftline.sources.discover import Discovery, FileRef, Skipped, partition_values
 from driftline.sources.fileref import REMOTE_SCHEMES
 from driftline.sources.formats import CountingRaw, IgnoredTail, detect_compression, wrap_stream
@@ -172,66 +172,6 @@ def filesystem(storage: StorageOptions) -> Any:
         kwargs["endpoint_override"] = host
         kwargs["scheme"] = scheme
     return fs.S3FileSystem(**kwargs)
-
-
-# -- partition conditions ------------------------------------------------------------------
-
-_CONDITION = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_.-]*)\s*(>=|<=|!=|==|=|>|<)\s*(.*?)\s*$")
-
-
-@dataclass(frozen=True, slots=True)
-class Condition:
-    """One `key OP value` test on a key=value partition, e.g. `day>=2026-11-01`.
-
-    Values compare as integers when both sides are integers, else as strings (ISO dates
-    order correctly as strings).
-
-    >>> c = parse_condition("day>=2026-11-29")
-    >>> c.holds("2026-11-30"), c.holds("2026-11-28")
-    (True, False)
-    """
-
-    key: str
-    op: str
-    value: str
-
-    def holds(self, actual: str) -> bool:
-        a: Any = actual
-        b: Any = self.value
-        if re.fullmatch(r"-?\d+", actual) and re.fullmatch(r"-?\d+", self.value):
-            a, b = int(actual), int(self.value)
-        return {
-            ">=": a >= b,
-            "<=": a <= b,
-            ">": a > b,
-            "<": a < b,
-            "=": a == b,
-            "==": a == b,
-            "!=": a != b,
-        }[self.op]
-
-
-def parse_condition(text: str) -> Condition:
-    m = _CONDITION.match(text)
-    if not m or not m.group(3):
-        raise DriftlineError(
-            f"cannot read --where {text!r}; write key OP value, e.g. 'day>=2026-11-01' (OP one of = != < <= > >=)"
-        )
-    return Condition(m.group(1), m.group(2), m.group(3))
-
-
-def partitions_pass(parts: Sequence[tuple[str, str]], conditions: Sequence[Condition]) -> bool:
-    """Whether a file with these partition values is kept (a missing key fails, as in SQL)."""
-    values = dict(parts)
-    return all(c.key in values and c.holds(values[c.key]) for c in conditions)
-
-
-def folder_passes(name: str, conditions: Sequence[Condition]) -> bool:
-    """Whether listing may descend into a folder: only a key=value folder can be ruled out."""
-    key, sep, value = name.partition("=")
-    if not sep:
-        return True
-    return all(c.holds(value) for c in conditions if c.key == key)
 
 
 # -- discovery --------------------------------------------------------------------------------

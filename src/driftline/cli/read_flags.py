@@ -1,0 +1,315 @@
+"""The read options every verb that reads data takes (scan, schema, check, diff), declared once.
+
+Each flag is named after the library's keyword (driftline.options.ScanKeywords) and shows
+the library's default. `takes_read_options` adds them all, and --config, to a verb: the
+verb receives one ScanOptions built as flag over config file over default (a flag counts
+only when it was given on the command line), and the Config it came from.
+"""
+
+from __future__ import annotations
+
+import functools
+import inspect
+import typing
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+import typer
+
+from driftline.cli import ENCODING_OPTION
+from driftline.conceal import MODES
+from driftline.drift import DEFAULT_MAX_EVENTS
+from driftline.options import DEFAULT_JOBS, Config, ScanOptions, find_config, load_config
+from driftline.ranges import RANGES
+from driftline.sources.base import (
+    DEFAULT_BATCH_BYTES,
+    DEFAULT_BATCH_ROWS,
+    DEFAULT_MAX_COLUMNS,
+    DEFAULT_MAX_DECOMPRESSED_BYTES,
+    DEFAULT_MAX_DECOMPRESSION_RATIO,
+    DEFAULT_MAX_PATHS,
+    DEFAULT_MAX_RECORD_BYTES,
+)
+from driftline.sources.remote import DEFAULT_CONNECT_TIMEOUT, DEFAULT_REQUEST_TIMEOUT
+from driftline.workers import DEFAULT_TASK_TIMEOUT
+
+CSV_DIALECT_HELP = (
+    "Pin the CSV dialect of the files matching GLOB (all CSV/TSV files without it); repeatable, later pins win. "
+    "Keys: delimiter (comma, tab, semicolon, pipe, colon, space or a character), quote (double, single, none), "
+    "escape (backslash, none), header (yes, no, row-names), skip (lines before the header), lines (lf, crlf, cr). "
+    "Keys left out are found from the data. E.g. 'legacy/*.txt:delimiter=pipe,quote=none,header=no'."
+)
+
+
+@dataclass(frozen=True)
+class Flag:
+    """One shared flag: the keyword it sets, its Python type and its typer declaration."""
+
+    name: str
+    annotation: Any
+    option: Any
+
+
+def _int(name: str, default: int | None, flag: str, help: str, *more: str) -> Flag:
+    kind: Any = int if default is not None else int | None
+    return Flag(name, kind, typer.Option(default, flag, *more, min=1, max=RANGES[name][1], help=help))
+
+
+def _seconds(name: str, default: float, top: int, help: str) -> Flag:
+    flag = "--" + name.replace("_", "-")
+    return Flag(name, float, typer.Option(default, flag, metavar="SECONDS", min=0.001, max=top, help=help))
+
+
+READ_FLAGS: tuple[Flag, ...] = (
+    Flag(
+        "include",
+        list[str],
+        typer.Option([], "--include", metavar="GLOB", help="Only files whose path or name matches (repeatable)."),
+    ),
+    Flag(
+        "exclude",
+        list[str],
+        typer.Option([], "--exclude", metavar="GLOB", help="Skip files whose path or name matches (repeatable)."),
+    ),
+    Flag(
+        "where",
+        list[str],
+        typer.Option(
+            [],
+            "--where",
+            metavar="KEY OP VALUE",
+            help="Only key=value partitions that pass, e.g. 'day>=2026-11-01' (repeatable; s3:// listing is "
+            "pruned by it).",
+        ),
+    ),
+    Flag(
+        "include_hidden",
+        bool,
+        typer.Option(False, "--hidden", help="Also read files and folders starting with '.' or '_'."),
+    ),
+    Flag(
+        "sniff_unknown",
+        bool,
+        typer.Option(
+            False,
+            "--sniff-unknown",
+            help="Also read files of other extensions (.txt, .dat...) found in folders whose first bytes look like "
+            "JSON, CSV or Parquet; without it they are skipped unread. Files without an extension, and files named "
+            "on their own, are always sniffed.",
+        ),
+    ),
+    Flag(
+        "follow_links",
+        bool,
+        typer.Option(
+            False,
+            "--follow-links",
+            help="Follow symbolic links that lead out of the paths given (skipped and listed by default).",
+        ),
+    ),
+    _int("batch_rows", DEFAULT_BATCH_ROWS, "--batch-rows", "Rows per batch: drift is tracked batch by batch."),
+    _int(
+        "batch_bytes",
+        DEFAULT_BATCH_BYTES,
+        "--batch-bytes",
+        "A batch also ends once its records reach this many bytes of input (bounds memory; default 64 MiB).",
+    ),
+    _int(
+        "jobs",
+        DEFAULT_JOBS,
+        "--jobs",
+        "Files read in parallel (processes); 1 reads in this process. At most one per core and per 256 MB of free "
+        "memory (a warning says when lowered). Results do not depend on it.",
+        "-j",
+    ),
+    _int("max_errors", None, "--max-errors", "Stop reading new files once this many errors were found."),
+    _int(
+        "max_record_bytes",
+        DEFAULT_MAX_RECORD_BYTES,
+        "--max-record-bytes",
+        "Longer JSON lines / CSV rows are reported, not read.",
+    ),
+    _int(
+        "max_decompressed_bytes",
+        DEFAULT_MAX_DECOMPRESSED_BYTES,
+        "--max-decompressed-bytes",
+        "Stop reading a file past this many bytes of content (decompression bombs); rows before are kept.",
+    ),
+    Flag(
+        "max_decompression_ratio",
+        float,
+        typer.Option(
+            DEFAULT_MAX_DECOMPRESSION_RATIO,
+            "--max-decompression-ratio",
+            min=1,
+            max=RANGES["max_decompression_ratio"][1],
+            help="Stop a compressed file once it expands more than this many times (judged past 16 MiB).",
+        ),
+    ),
+    _int(
+        "max_columns",
+        DEFAULT_MAX_COLUMNS,
+        "--max-columns",
+        "A CSV/TSV file with more columns is reported, not read (each column costs a pass per batch).",
+    ),
+    _int(
+        "max_paths",
+        DEFAULT_MAX_PATHS,
+        "--max-paths",
+        "Distinct field paths kept; past it, a warning and the rest counted as other fields.",
+    ),
+    _int(
+        "max_events",
+        DEFAULT_MAX_EVENTS,
+        "--max-events",
+        "Drift events listed; past it they are counted by kind only (the report says so).",
+    ),
+    Flag(
+        "delimiter",
+        str | None,
+        typer.Option(None, "--delimiter", help="CSV delimiter; found from the data if not given."),
+    ),
+    Flag(
+        "csv_dialect",
+        list[str],
+        typer.Option([], "--csv-dialect", metavar="[GLOB:]KEY=VALUE,…", help=CSV_DIALECT_HELP),
+    ),
+    Flag("encoding", str | None, ENCODING_OPTION),
+    Flag(
+        "engine",
+        str,
+        typer.Option(
+            "local",
+            "--engine",
+            help="Where files are read: local (processes) or dask (a cluster; install driftline[dask]).",
+        ),
+    ),
+    Flag(
+        "scheduler",
+        str | None,
+        typer.Option(
+            None,
+            "--scheduler",
+            metavar="ADDRESS",
+            help="dask scheduler, e.g. tcp://10.0.0.5:8786; without it --engine dask starts --jobs workers on "
+            "127.0.0.1.",
+        ),
+    ),
+    Flag(
+        "endpoint_url",
+        str | None,
+        typer.Option(
+            None,
+            "--endpoint-url",
+            metavar="URL",
+            help="S3-compatible endpoint for s3:// inputs (else AWS_ENDPOINT_URL).",
+        ),
+    ),
+    Flag(
+        "region",
+        str | None,
+        typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
+    ),
+    Flag(
+        "anonymous",
+        bool,
+        typer.Option(False, "--anonymous", help="Read a public s3:// bucket without credentials."),
+    ),
+    _seconds(
+        "connect_timeout",
+        DEFAULT_CONNECT_TIMEOUT,
+        86_400,
+        "Give up connecting to a dask scheduler or an object store after this long (per attempt).",
+    ),
+    _seconds(
+        "request_timeout",
+        DEFAULT_REQUEST_TIMEOUT,
+        86_400,
+        "Give up an object store request that received nothing for this long (per attempt, 4 attempts).",
+    ),
+    _seconds(
+        "task_timeout",
+        DEFAULT_TASK_TIMEOUT,
+        10_000_000,
+        "Stop the scan when a worker task (a file, or a run of small files) runs longer than this.",
+    ),
+    Flag(
+        "example_values",
+        str | None,
+        typer.Option(
+            None,
+            "--example-values",
+            metavar="|".join(MODES),
+            help="Example values in every output: show (default), hide, or hash (a keyed HMAC-SHA256, so a report "
+            "can be shared). Also settable as example_values in a config file's [output] table.",
+        ),
+    ),
+    Flag(
+        "hash_key_file",
+        str | None,
+        typer.Option(
+            None,
+            "--hash-key-file",
+            metavar="FILE",
+            help="The key for --example-values hash (else the DRIFTLINE_HASH_KEY environment variable).",
+        ),
+    ),
+    Flag(
+        "config",
+        str | None,
+        typer.Option(
+            None,
+            "--config",
+            metavar="FILE",
+            help="Config file with [scan], [output], [recommend] and [check] tables (else driftline.toml, or "
+            "pyproject.toml's [tool.driftline], in the current folder); flags override it.",
+        ),
+    ),
+)
+FLAG_NAMES = tuple(f.name for f in READ_FLAGS)
+
+
+def options_of(flags: dict[str, Any], given: set[str]) -> tuple[ScanOptions, Config]:
+    """The options of a run: the config file's (named, or found here), then the flags given."""
+    config_path = flags.get("config")
+    config = load_config(config_path if config_path is not None else find_config())
+    chosen = {k: v for k, v in flags.items() if k in given and k != "config"}
+    return config.scan_options().merged(**chosen), config
+
+
+_CONTEXT = "_read_flags_context"  # typer hands the command's context to a parameter of this type
+
+
+def _given(ctx: typer.Context, name: str) -> bool:
+    """Whether a flag was given (on the command line or by environment), not left at its default."""
+    source = ctx.get_parameter_source(name)
+    return source is not None and source.name not in ("DEFAULT", "DEFAULT_MAP")
+
+
+def takes_read_options(fn: Callable[..., Any]) -> Callable[..., Any]:
+    """Give a verb every read flag; it is called with options=ScanOptions and config=Config instead."""
+    hints = typing.get_type_hints(fn)
+    own = [p for p in inspect.signature(fn).parameters.values() if p.name not in ("options", "config")]
+    extra = [
+        inspect.Parameter(f.name, inspect.Parameter.KEYWORD_ONLY, default=f.option, annotation=f.annotation)
+        for f in READ_FLAGS
+    ]
+
+    @functools.wraps(fn)
+    def verb(**kwargs: Any) -> Any:
+        flags = {name: kwargs.pop(name) for name in FLAG_NAMES}
+        ctx: typer.Context = kwargs.pop(_CONTEXT)
+        given = {n for n in FLAG_NAMES if _given(ctx, n)}
+        options, config = options_of(flags, given)
+        return fn(options=options, config=config, **kwargs)
+
+    context = inspect.Parameter(_CONTEXT, inspect.Parameter.KEYWORD_ONLY, annotation=typer.Context)
+    verb.__signature__ = inspect.Signature([*own, *extra, context])  # type: ignore[attr-defined]
+    verb.__annotations__ = {
+        _CONTEXT: typer.Context,
+        **{p.name: hints[p.name] for p in own},
+        **{f.name: f.annotation for f in READ_FLAGS},
+        "return": hints.get("return"),
+    }
+    return verb
