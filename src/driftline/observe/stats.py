@@ -3,7 +3,8 @@
 FieldStats are values. Each statistic is declared once, as a field of FieldStats with its
 rule (``stat(RULE)``): how two values merge, how the value is written to JSON and read
 back. merge, merge_all, to_json and from_json are derived from those declarations
-(``StatsTable``), so adding a statistic is one line here. Every rule is commutative and
+(``StatsTable``), so adding a statistic is one line in FieldStats (and its name in
+``Measured``, the typed keyword arguments the observers pass). Every rule is commutative and
 associative (counts add, extremes take min/max, samples keep the K earliest positions), so
 per-batch, per-file and per-worker results combine in any order and give the same profile.
 """
