@@ -15,7 +15,7 @@ import math
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, fields
 from functools import reduce
-from operator import add, attrgetter
+from operator import add, attrgetter, call
 from typing import Any, Generic, Literal, NamedTuple, TypedDict, TypeVar
 
 SAMPLES_PER_KEY = 3  # earliest examples kept per type / class / null key
@@ -370,13 +370,11 @@ class StatsTable(Generic[_S]):
 
     def merge(self, stats: Sequence[_S]) -> _S:
         """What merging stats one after another gives: each rule over the column of its values."""
-        return self.cls(
-            *[m(col) for m, col in zip(self._merges, zip(*map(self._get, stats), strict=True), strict=True)]
-        )
+        return self.cls(*map(call, self._merges, zip(*map(self._get, stats), strict=True)))
 
     def merge_two(self, a: _S, b: _S) -> _S:
         """merge((a, b)), by each rule's merge of two values."""
-        return self.cls(*[m(x, y) for m, x, y in zip(self._pairs, self._get(a), self._get(b), strict=True)])
+        return self.cls(*map(call, self._pairs, self._get(a), self._get(b)))
 
     def to_json(self, st: _S) -> dict[str, Any]:
         return {
