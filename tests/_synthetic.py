@@ -11,7 +11,7 @@ from __future__ import annotations
 from datetime import date, timedelta
 
 from driftline.observe.observation import Observation
-from driftline.observe.stats import Example, FieldStats
+from driftline.observe.stats import Example, FieldStats, type_sample
 from driftline.profile import Profile
 from driftline.sources.base import FileResult
 
@@ -22,8 +22,8 @@ def big_profile(n_files: int = 10_000, n_fields: int = 500, per_file: int = 10, 
     names = [f"f{i:03d}" for i in range(n_fields)]
     start = date(2026, 1, 1)
     # FieldStats are values: two shared ones keep 10,000 files cheap to build.
-    as_int = FieldStats(types={"int64": rows}, samples={"type:int64": (Example("", 0, 1, "7"),)})
-    as_text = FieldStats(types={"string": rows}, samples={"type:string": (Example("", 0, 1, '"7"'),)})
+    as_int = FieldStats(types={"int64": rows}, samples={type_sample("int64"): (Example("", 0, 1, "7"),)})
+    as_text = FieldStats(types={"string": rows}, samples={type_sample("string"): (Example("", 0, 1, '"7"'),)})
     files = []
     for i in range(n_files):
         day = (start + timedelta(days=i // REGIONS)).isoformat()

@@ -16,7 +16,7 @@ from driftline.jsontypes import JSONObject, JSONValue
 from driftline.lattice import UNKNOWN, DType, is_widening, join, type_of_key, type_text
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
-from driftline.observe.stats import Example, FieldStats
+from driftline.observe.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
 
 if TYPE_CHECKING:
     from driftline.profile import Profile
@@ -175,7 +175,7 @@ def _all_events(profile: Profile) -> Iterator[Event]:
             prior_types = set(state.types)
             events.extend(_type_events(path, st, state, obs, parts, seq))
             if st.nulls and not state.had_null and state.had_values:
-                ex = st.first("null")
+                ex = st.first(NULL_SAMPLE)
                 events.append(_event("nulls-begin", path, None, "null", obs, parts, ex, st.nulls, seq))
             events.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
             state.had_null = state.had_null or st.nulls > 0
@@ -220,7 +220,9 @@ def _type_events(
 ) -> list[Event]:
     out = []
     # New types in the order they first show within the batch.
-    fresh = sorted((k for k in st.types if k not in state.types), key=lambda k: st.first("type:" + k) or Example("", 0))
+    fresh = sorted(
+        (k for k in st.types if k not in state.types), key=lambda k: st.first(type_sample(k)) or Example("", 0)
+    )
     for key in fresh:
         old = state.joined
         new = join(old, type_of_key(key)).with_nullable(False)
@@ -234,7 +236,7 @@ def _type_events(
             else:
                 kind = ""
             if kind:
-                ex = st.first("type:" + key)
+                ex = st.first(type_sample(key))
                 out.append(
                     _event(
                         kind,
@@ -264,11 +266,11 @@ def _class_events(
 ) -> list[Event]:
     out = []
     fresh = sorted(
-        (c for c in st.classes if c not in state.classes), key=lambda c: st.first("class:" + c) or Example("", 0)
+        (c for c in st.classes if c not in state.classes), key=lambda c: st.first(class_sample(c)) or Example("", 0)
     )
     for cls in fresh:
         if state.classes and not _covered_by_type(st, cls, prior_types):
-            ex = st.first("class:" + cls)
+            ex = st.first(class_sample(cls))
             before = ", ".join(sorted(state.classes))
             out.append(_event("textclass-changed", path, before, cls, obs, parts, ex, st.classes[cls], seq))
         state.classes.add(cls)

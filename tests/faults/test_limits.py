@@ -21,6 +21,7 @@ import pytest
 import driftline
 from conftest import ROOT
 from driftline import thinning
+from driftline.observe.stats import type_sample
 from driftline.report import to_dict
 from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
@@ -416,7 +417,7 @@ def test_thinning_as_it_comes_equals_the_offline_rule_in_one_part_or_two():
     from driftline.thinning import Thinner, block_size, concat_blocks, merge_block
 
     def obs(i: int) -> Observation:
-        st = FieldStats(types={"int64": 2}, samples={"type:int64": (Example("f", 2 * i, None, str(i)),)})
+        st = FieldStats(types={"int64": 2}, samples={type_sample("int64"): (Example("f", 2 * i, None, str(i)),)})
         return Observation("f", i, 2 * i, 2, {"x": st})
 
     for limit in (1, 2, 3, 5, 41):  # odd limits make a block stay open across a doubling

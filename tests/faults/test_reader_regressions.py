@@ -7,6 +7,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from driftline.observe.columnar import observe_table
+from driftline.observe.stats import NULL_SAMPLE, type_sample
 from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.formats import CountingRaw
@@ -36,7 +37,7 @@ def test_map_column_is_observed_without_aborting_the_process(tmp_path):
     assert (fields["m{key}"].minimum, fields["m{key}"].maximum) == (1, 7)
     assert fields["m{value}"].types == {"int32": 3}
     assert fields["m{value}"].nulls == 1
-    assert fields["m{value}"].first("null").row == 3
+    assert fields["m{value}"].first(NULL_SAMPLE).row == 3
 
 
 def test_sliced_map_counts_only_the_entries_of_the_slice():
@@ -46,8 +47,8 @@ def test_sliced_map_counts_only_the_entries_of_the_slice():
     assert obs.fields["m"].items == 3
     assert obs.fields["m{key}"].types == {"int32": 3}
     assert (obs.fields["m{key}"].minimum, obs.fields["m{key}"].maximum) == (3, 7)
-    assert obs.fields["m{key}"].first("type:int32").row == 1
-    assert obs.fields["m{value}"].first("null").row == 2
+    assert obs.fields["m{key}"].first(type_sample("int32")).row == 1
+    assert obs.fields["m{value}"].first(NULL_SAMPLE).row == 2
 
 
 def _scan_one(path) -> tuple:
@@ -70,7 +71,7 @@ def test_nanosecond_timestamps_python_cannot_hold_are_profiled(tmp_path):
     later = (datetime(1970, 1, 1) + timedelta(seconds=2 * 10**9)).isoformat()
     assert fields["t"].minimum == "1970-01-01T00:00:00.000000001"
     assert fields["t"].maximum == later + ".000000001" == "2033-05-18T03:33:20.000000001"
-    assert "1970-01-01" in fields["t"].first("type:timestamp[ns]").value
+    assert "1970-01-01" in fields["t"].first(type_sample("timestamp[ns]")).value
 
 
 def test_dates_past_year_9999_inside_a_struct_are_profiled(tmp_path):
@@ -86,7 +87,7 @@ def test_dates_past_year_9999_inside_a_struct_are_profiled(tmp_path):
     assert res.issues == () and res.rows == 1
     # proleptic Gregorian: the day after 9999-12-31 is 10000-01-01
     assert fields["s.d"].minimum == fields["s.d"].maximum == "10000-01-01"
-    assert fields["s"].first("type:struct").value == '{"d":"10000-01-01","n":1}'
+    assert fields["s"].first(type_sample("struct")).value == '{"d":"10000-01-01","n":1}'
     assert fields["s.n"].types == {"int64": 1}
 
 

@@ -21,6 +21,7 @@ import pytest
 import driftline
 from driftline.lattice import from_arrow, join, parse_key
 from driftline.observe import jsonnum
+from driftline.observe.stats import type_sample
 from driftline.recommend.apply import Tally, apply
 from driftline.recommend.raw import raw_batches
 from driftline.report import dumps
@@ -48,7 +49,7 @@ def test_json_number_literals_keep_every_digit(tmp_path: Path):
     assert "float64" not in st.types
     # Every integer past 2**53 is counted as one float64 would not keep (RFC 7493 section 2.2).
     assert st.unsafe_ints == sum(abs(v) > 2**53 - 1 for v in reference)
-    assert st.samples["type:decimal(30,0)"][0].value == str(10**29 + 30)
+    assert st.samples[type_sample("decimal(30,0)")][0].value == str(10**29 + 30)
 
 
 def test_fast_path_and_exact_walk_agree_on_big_integers(tmp_path: Path, monkeypatch: pytest.MonkeyPatch):

@@ -6,6 +6,7 @@ import pyarrow as pa
 
 from driftline.observe.columnar import observe_table
 from driftline.observe.records import observe_records
+from driftline.observe.stats import NULL_SAMPLE, class_sample, type_sample
 from driftline.profile import summarise
 
 
@@ -13,7 +14,7 @@ def test_null_and_absent_are_kept_apart():
     obs = observe_records([{"a": 1}, {"a": None}, {}], file="f", batch=0, row_start=0)
     s = summarise(obs.fields, obs.rows)["a"]
     assert (s.stats.types, s.stats.nulls, s.absent, s.container) == ({"int64": 1}, 1, 1, 3)
-    assert s.stats.first("null").row == 1
+    assert s.stats.first(NULL_SAMPLE).row == 1
 
 
 def test_nested_paths_and_list_elements():
@@ -25,8 +26,8 @@ def test_nested_paths_and_list_elements():
     assert f["s.l"].stats.items == 2 and f["s.l[]"].stats.types == {"int64": 2}
     # An element of lists that are always empty: the path exists, nothing tells its type.
     assert f["e"].stats.types == {"list": 1} and f["e[]"].stats.types == {} and f["e[]"].container == 0
-    assert f["s.l[]"].stats.first("type:int64").row == 10  # rows are file rows
-    assert f["e"].stats.first("type:list").line == 5
+    assert f["s.l[]"].stats.first(type_sample("int64")).row == 10  # rows are file rows
+    assert f["e"].stats.first(type_sample("list")).line == 5
 
 
 def test_integers_beyond_2_pow_53_are_counted():
@@ -44,7 +45,7 @@ def test_strings_get_content_classes_with_samples():
     assert st.types == {"string": 4}
     assert st.classes == {"decimal": 2, "null_token": 2}
     assert (st.int_digits, st.frac_digits) == (2, 2)
-    assert [(e.row, e.value) for e in st.samples["class:null_token"]] == [(1, '"n/a"'), (3, '"-"')]
+    assert [(e.row, e.value) for e in st.samples[class_sample("null_token")]] == [(1, '"n/a"'), (3, '"-"')]
 
 
 def test_columnar_and_record_paths_agree_on_typed_data():
@@ -71,7 +72,7 @@ def test_text_columns_infer_types_from_classes():
     # "007" is zero_padded: a code whose zeros an int64 would drop (common practice: ZIP codes), so text
     assert st.types == {"int64": 1, "string": 2}
     assert st.nulls == 1 and st.text == 4
-    assert st.first("null").line == 3
+    assert st.first(NULL_SAMPLE).line == 3
 
 
 def test_always_empty_lists_agree_between_paths():
@@ -114,4 +115,4 @@ def test_samples_only_walk_keeps_the_examples_and_class_counts():
         assert b.samples == a.samples and b.classes == a.classes and b.types == a.types and b.nulls == a.nulls
     assert short.fields["s"].classes["integer"] == 3 and short.fields["s"].classes["zero_padded"] == 1
     assert full.fields["s"].leap_seconds == 1 and short.fields["s"].leap_seconds == 0
-    assert [e.row for e in short.fields["s"].samples["class:integer"]] == [0, 11, 13]
+    assert [e.row for e in short.fields["s"].samples[class_sample("integer")]] == [0, 11, 13]

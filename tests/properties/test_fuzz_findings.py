@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from driftline.observe.stats import class_sample
 from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.readers import read_file
@@ -41,4 +42,4 @@ def test_latin1_csv_reports_each_line_once_and_counts_the_rest(tmp_path):
     assert [i.line for i in bad[:20]] == list(range(2, 22))
     assert bad[20].message == "30 more lines hold invalid UTF-8; read with U+FFFD" and len(bad) == 21
     fields = {p: st for o in res.observations for p, st in o.fields.items()}
-    assert fields["city"].first("class:text").value == '"K\ufffdln"'
+    assert fields["city"].first(class_sample("text")).value == '"K\ufffdln"'

@@ -19,6 +19,7 @@ import pytest
 import driftline
 from driftline.conceal import ValuePolicy, conceal, output_values
 from driftline.errors import OptionError
+from driftline.observe.stats import type_sample
 
 SECRETS = ["alice@example.com", "bob.secret@example.org", "ABC-SECRET-77", "Zx9-private-note"]
 KEY = b"team key 2026"
@@ -145,10 +146,10 @@ def test_hash_is_stable_and_keyed(data: Path):
     a = driftline.scan(data, example_values="hash", hash_key=KEY)
     b = driftline.scan(data, example_values="hash", hash_key=KEY)
     c = driftline.scan(data, example_values="hash", hash_key=b"another key")
-    first = a.fields["email"].stats.first("type:string")
+    first = a.fields["email"].stats.first(type_sample("string"))
     assert first is not None and first.value == hashed(SECRETS[0])
-    assert b.fields["email"].stats.first("type:string").value == first.value  # type: ignore[union-attr]
-    assert c.fields["email"].stats.first("type:string").value != first.value  # type: ignore[union-attr]
+    assert b.fields["email"].stats.first(type_sample("string")).value == first.value  # type: ignore[union-attr]
+    assert c.fields["email"].stats.first(type_sample("string")).value != first.value  # type: ignore[union-attr]
     assert a == driftline.scan(data)  # values are not content: counts, types and places are the same
 
 

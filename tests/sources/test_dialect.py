@@ -22,6 +22,7 @@ import pytest
 import driftline
 from conftest import ROOT
 from driftline.observe import paths
+from driftline.observe.stats import class_sample
 from driftline.report import dumps, load_report
 from driftline.sources import csvsplit
 from driftline.sources.base import ReadOptions
@@ -93,7 +94,7 @@ def test_cr_only_file_reads_all_its_rows(tmp_path: Path):
     assert p.fields["status"].stats.max_length == max(len(r[6]) for r in ref[1:])
     assert p.fields["region"].stats.max_length == max(len(r[1]) for r in ref[1:])
     # line numbers stay exact: CR became LF byte for byte, so row k is on line k + 2
-    sample = p.fields["note"].stats.samples["class:text"][0]
+    sample = p.fields["note"].stats.samples[class_sample("text")][0]
     assert (sample.row, sample.line) == (0, 2)
 
 
@@ -256,7 +257,7 @@ def test_headerless_numeric_exports_get_positional_names_and_a_warning(tmp_path:
     assert p.events == ()
     assert p.fields["column_1"].stats.types == {"int64": 700}
     # the first row is data: its value is the first sample, on line 1
-    first = p.fields["column_1"].stats.samples["class:integer"][0]
+    first = p.fields["column_1"].stats.samples[class_sample("integer")][0]
     assert (first.file, first.row, first.line, first.value) == ("part-1.csv", 0, 1, '"155190"')
 
 
@@ -360,7 +361,7 @@ def test_preamble_lines_are_skipped_and_line_numbers_stay_exact(tmp_path: Path):
     assert (fr.rows, len(p.fields)) == (n, cols) == (28, 3)
     assert field_names(p) == ["rh", "temp", "time"]
     assert fr.dialect.skip == 4 and [i.kind for i in fr.issues] == ["preamble"]
-    first = p.fields["temp"].stats.samples["class:decimal"][0]
+    first = p.fields["temp"].stats.samples[class_sample("decimal")][0]
     assert (first.row, first.line) == (0, 6)  # 4 preamble lines, the header on line 5
 
 
@@ -542,7 +543,7 @@ def test_comment_lines_between_rows_are_skipped_with_exact_line_numbers(tmp_path
     # every row's line is its line in the file: the first row of each section follows its comment
     want = {v: k + 1 for k, v in enumerate(lines)}
     for o in fr.observations:
-        for ex in o.fields["input"].samples.get("class:text", ()):
+        for ex in o.fields["input"].samples.get(class_sample("text"), ()):
             assert ex.line == next(k for v, k in want.items() if v.split(",")[1:2] == [json.loads(ex.value)])
 
 
@@ -598,7 +599,7 @@ def test_undecodable_bytes_in_a_preamble_keep_rows_and_lines_exact(tmp_path: Pat
     fr = p.files[0]
     assert (fr.rows, field_names(p)) == (len(ref) - 1, ["k", "v"]) == (25, field_names(p))
     assert [(i.kind, i.line) for i in fr.issues] == [("preamble", 1), ("invalid-utf8", 1)]
-    assert p.fields["k"].stats.samples["class:integer"][0].line == 4
+    assert p.fields["k"].stats.samples[class_sample("integer")][0].line == 4
 
 
 def test_rows_starting_with_a_hash_as_wide_as_the_others_are_data(tmp_path: Path):

@@ -20,6 +20,7 @@ import pytest
 import driftline
 from conftest import ROOT
 from driftline.emit.terminal import encodings_line
+from driftline.observe.stats import class_sample
 from driftline.report import dumps, file_from_json, file_json, load_report
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import discover
@@ -48,7 +49,7 @@ def _first_text(res: FileResult) -> dict[str, str]:
     """The earliest text value of each field that holds text, as the scan saw it (row 0 here)."""
     out = {}
     for name, st in res.observations[0].fields.items():
-        ex = st.first("class:text")
+        ex = st.first(class_sample("text"))
         if ex is not None:
             assert ex.row == 0, name
             out[name] = json.loads(ex.value)
@@ -336,7 +337,7 @@ def test_corpus_files_read_the_values_pythons_codecs_read(path: str, name: str):
     rows = list(csv.reader(io.StringIO(f.read_bytes().decode(codec), newline="")))
     assert res.encoding.name == name and res.errors == 0  # type: ignore[union-attr]
     assert sorted(res.observations[0].fields) == sorted(rows[0])
-    last = {k: st.first("class:text") for k, st in res.observations[0].fields.items()}
+    last = {k: st.first(class_sample("text")) for k, st in res.observations[0].fields.items()}
     assert {k: json.loads(ex.value) for k, ex in last.items() if ex} == {"c": rows[2][2]}
     assert rows[2][2] == ("©" if codec == "latin-1" else "ʤ")
 

@@ -13,6 +13,7 @@ import pytest
 import zstandard
 
 import driftline
+from driftline.observe.stats import class_sample
 
 LINES = b'{"a": 1, "b": "x"}\n{"a": 2, "b": "y"}\n{"a": 3}\n'
 COMPRESSORS = {
@@ -58,9 +59,9 @@ def test_csv_rfc4180_quoting_and_delimiter_sniffing(tmp_path: Path):
     p = driftline.scan(tmp_path)
     q = p.file("q.csv")
     assert q.rows == 3
-    assert q.observations[0].fields["y"].samples["class:text"][0].value == '"b\\r\\nbb"'
+    assert q.observations[0].fields["y"].samples[class_sample("text")][0].value == '"b\\r\\nbb"'
     # the row after the quoted CRLF starts on line 4 (header 1, row 0 spans lines 2-3)
-    assert q.observations[0].fields["x"].samples["class:text"][1].line == 4
+    assert q.observations[0].fields["x"].samples[class_sample("text")][1].line == 4
     assert sorted(p.file("semi.csv").observations[0].fields) == ["k", "v"]
 
 

@@ -23,7 +23,7 @@ from driftline.gate.verdict import RuleResult, Verdict, Violation
 from driftline.lattice import DType, family, join, join_all, parse_key, shallow, type_of_key, type_text
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
-from driftline.observe.stats import Example, FieldStats
+from driftline.observe.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
 from driftline.profile import Profile, container_count
 
 # What a cast rule (recommend/rules.py names them) lets into its target besides values that
@@ -194,7 +194,7 @@ def check_types(w: _Walk, out: _Findings) -> None:
                         f"{{n}} value(s) of type {key} in {{files}} widen the baseline type",
                         n,
                         obs.file,
-                        st.first("type:" + key),
+                        st.first(type_sample(key)),
                     )
                 else:
                     out.add(
@@ -205,7 +205,7 @@ def check_types(w: _Walk, out: _Findings) -> None:
                         f"{type_text(b)} cannot hold",
                         n,
                         obs.file,
-                        st.first("type:" + key),
+                        st.first(type_sample(key)),
                     )
             if casting and not _has_string(b):
                 for cls, n in _string_values(st).items():
@@ -217,7 +217,7 @@ def check_types(w: _Walk, out: _Findings) -> None:
                             "{n} string(s) in {files} that the cast rule would turn into null",
                             n,
                             obs.file,
-                            st.first("class:" + cls) if not st.text else st.first("type:string"),
+                            st.first(class_sample(cls)) if not st.text else st.first(type_sample("string")),
                         )
 
 
@@ -277,7 +277,7 @@ def check_fields(w: _Walk, out: _Findings) -> None:
                     "{n} null(s) in {files} where the baseline allows none",
                     st.nulls,
                     obs.file,
-                    st.first("null"),
+                    st.first(NULL_SAMPLE),
                 )
         for path, exp in w.baseline.fields.items():
             if not exp.required:
@@ -348,7 +348,7 @@ def check_content(w: _Walk, out: _Findings) -> None:
                     f"{{n}} string(s) in {{files}}; the baseline allows: {allowed}",
                     n,
                     obs.file,
-                    st.first("class:" + cls),
+                    st.first(class_sample(cls)),
                 )
 
 
@@ -404,7 +404,7 @@ def check_null_share(w: _Walk, out: _Findings) -> None:
         rise = 100 * (share - exp.null_share)
         if rise <= 0:
             continue
-        ex = s.stats.first("null")
+        ex = s.stats.first(NULL_SAMPLE)
         within = rise <= limit
         out.add(
             "null_share_rise",

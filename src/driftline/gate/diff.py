@@ -25,7 +25,7 @@ from driftline.gate.baseline import NULL_CLASSES
 from driftline.jsontypes import JSONObject
 from driftline.lattice import DType, join, join_all, type_of_key, type_text
 from driftline.observe import paths
-from driftline.observe.stats import Example, FieldStats
+from driftline.observe.stats import NULL_SAMPLE, Example, FieldStats, SampleKey, class_sample, type_sample
 from driftline.profile import FieldSummary, Profile
 
 # Kinds of change, in the order they are listed.
@@ -103,7 +103,7 @@ def _share(s: FieldSummary) -> float:
     return (s.stats.nulls + s.absent) / s.container if s.container else 0.0
 
 
-def _first_of(st: FieldStats, keys: list[str]) -> Example | None:
+def _first_of(st: FieldStats, keys: list[SampleKey]) -> Example | None:
     found = [st.first(k) for k in keys]
     hits = [e for e in found if e is not None]
     return min(hits) if hits else None
@@ -125,7 +125,7 @@ def _type_change(path: str, sa: FieldStats, sb: FieldStats) -> FieldChange | Non
         kind = "widened"
     else:
         kind = "type-changed"
-    ex = _first_of(sb, ["type:" + k for k in sb.types if k not in sa.types])
+    ex = _first_of(sb, [type_sample(k) for k in sb.types if k not in sa.types])
     return FieldChange(kind, path, type_text(ta), type_text(tb), ex)
 
 
@@ -133,10 +133,10 @@ def _null_change(path: str, a: FieldSummary, b: FieldSummary, points: float) -> 
     sa, sb = _share(a), _share(b)
     shares = f"{100 * sa:.1f}% → {100 * sb:.1f}%"
     if not a.nullable and b.nullable:
-        return FieldChange("newly-nullable", path, "not nullable", f"nullable ({shares})", b.stats.first("null"))
+        return FieldChange("newly-nullable", path, "not nullable", f"nullable ({shares})", b.stats.first(NULL_SAMPLE))
     # The small tolerance keeps 3 % − 2 % a one-point move despite binary fractions.
     if a.nullable and b.nullable and sa != sb and abs(100 * (sb - sa)) + 1e-9 >= points:
-        return FieldChange("null-share", path, f"{100 * sa:.1f}%", f"{100 * sb:.1f}%", b.stats.first("null"))
+        return FieldChange("null-share", path, f"{100 * sa:.1f}%", f"{100 * sb:.1f}%", b.stats.first(NULL_SAMPLE))
     return None
 
 
@@ -144,7 +144,7 @@ def _class_change(path: str, sa: FieldStats, sb: FieldStats) -> FieldChange | No
     ca, cb = set(sa.classes) - NULL_CLASSES, set(sb.classes) - NULL_CLASSES
     if not ca or not cb or ca == cb:
         return None
-    ex = _first_of(sb, ["class:" + c for c in sorted(cb - ca)])
+    ex = _first_of(sb, [class_sample(c) for c in sorted(cb - ca)])
     return FieldChange("content-class", path, ", ".join(sorted(ca)), ", ".join(sorted(cb)), ex)
 
 

@@ -32,7 +32,17 @@ from driftline.observe.columnar import (
 )
 from driftline.observe.observation import Observation
 from driftline.observe.records import SAFE_INT, value_text
-from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
+from driftline.observe.stats import (
+    NULL_SAMPLE,
+    SAMPLES_PER_KEY,
+    Example,
+    FieldStats,
+    Measured,
+    SampleKey,
+    Samples,
+    class_sample,
+    type_sample,
+)
 from driftline.observe.strprofile import exact_requested, verdicts
 from driftline.observe.textclass import CLASSES
 
@@ -153,8 +163,8 @@ def _observe_group(
     key = from_arrow(t).shallow_key()
     first_valid, first_null = _firsts(g)
     kind = _kind(t)
-    extras: list[dict[str, Any]]
-    samples: list[dict[str, tuple[Example, ...]]] = [{} for _ in members]
+    extras: list[Measured]
+    samples: list[Samples] = [{} for _ in members]
     if kind == "number":
         extras = _numbers(g, t)
     elif kind == "temporal":
@@ -164,13 +174,13 @@ def _observe_group(
     else:
         extras = [{} for _ in members]
     firsts = _values(g, [g.starts[k] + v for k, v in enumerate(first_valid) if v is not None], kind)
-    null_text = value_text(None)
+    null_text, type_key = value_text(None), type_sample(key)
     for k, (i, arr) in enumerate(members):
         b, s = batches[i], samples[k]
         if (fn := first_null[k]) is not None:
-            s["null"] = (Example(b.file, b.row_start + fn, None, null_text),)
+            s[NULL_SAMPLE] = (Example(b.file, b.row_start + fn, None, null_text),)
         if (fv := first_valid[k]) is not None:
-            s["type:" + key] = (Example(b.file, b.row_start + fv, None, value_text(next(firsts))),)
+            s[type_key] = (Example(b.file, b.row_start + fv, None, value_text(next(firsts))),)
         nonnull = len(arr) - arr.null_count
         out[i][path] = FieldStats(
             types={key: nonnull} if nonnull else {}, nulls=arr.null_count, samples=dict(sorted(s.items())), **extras[k]
@@ -199,8 +209,8 @@ def _firsts(g: _Group) -> tuple[list[int | None], list[int | None]]:
     return fv, fn
 
 
-def _numbers(g: _Group, t: pa.DataType) -> list[dict[str, Any]]:
-    extras: list[dict[str, Any]] = [{} for _ in g.arrays]
+def _numbers(g: _Group, t: pa.DataType) -> list[Measured]:
+    extras: list[Measured] = [{} for _ in g.arrays]
     work = g.col
     if pa.types.is_floating(t):
         work = pc.if_else(pc.is_nan(work), pa.scalar(None, t), work)
@@ -234,8 +244,8 @@ def _numbers(g: _Group, t: pa.DataType) -> list[dict[str, Any]]:
     return extras
 
 
-def _temporal(g: _Group) -> list[dict[str, Any]]:
-    extras: list[dict[str, Any]] = [{} for _ in g.arrays]
+def _temporal(g: _Group) -> list[Measured]:
+    extras: list[Measured] = [{} for _ in g.arrays]
     mm = g.per_batch({"c": g.col}, [("c", "min_max")])["c_min_max"].combine_chunks()
     lows, highs = mm.field("min"), mm.field("max")
     for k, arr in enumerate(g.arrays):
@@ -244,9 +254,9 @@ def _temporal(g: _Group) -> list[dict[str, Any]]:
     return extras
 
 
-def _strings(g: _Group, batches: list[Batch], samples: list[dict[str, tuple[Example, ...]]]) -> list[dict[str, Any]]:
+def _strings(g: _Group, batches: list[Batch], samples: list[Samples]) -> list[Measured]:
     """Content classes per batch, as columnar._string_stats finds them for each batch alone."""
-    extras: list[dict[str, Any]] = [{} for _ in g.arrays]
+    extras: list[Measured] = [{} for _ in g.arrays]
     enc = pc.dictionary_encode(g.col)
     v = verdicts(enc.dictionary)
     idx = enc.indices
@@ -269,14 +279,14 @@ def _strings(g: _Group, batches: list[Batch], samples: list[dict[str, tuple[Exam
     ):
         found[gk][kk] = (n, rows)
     columns = {name: totals[name].to_pylist() for name in ("len_max", "int_max", "frac_max", "leap_sum", "lower_sum")}
-    picked: list[tuple[int, str, list[int]]] = []  # (batch, sample key, positions)
+    picked: list[tuple[int, SampleKey, list[int]]] = []  # (batch, sample key, positions)
     for k, arr in enumerate(g.arrays):
         if arr.null_count == len(arr):
             continue
         per_class = dict(sorted(found[k].items()))
         many = any(per_class.get(c, (0,))[0] > 1 for c in _LOSSY)
         picked.extend(
-            (k, "class:" + CLASSES[c], rows if many and n > 1 else rows[:1]) for c, (n, rows) in per_class.items()
+            (k, class_sample(CLASSES[c]), rows if many and n > 1 else rows[:1]) for c, (n, rows) in per_class.items()
         )
         extras[k] = {
             "classes": {CLASSES[c]: n for c, (n, _) in per_class.items()},

@@ -15,7 +15,17 @@ from driftline.lattice import from_arrow, unsupported_reason
 from driftline.observe import paths
 from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
 from driftline.observe.records import SAFE_INT, pa_indices, value_text
-from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats, merge_all
+from driftline.observe.stats import (
+    NULL_SAMPLE,
+    SAMPLES_PER_KEY,
+    Example,
+    FieldStats,
+    Measured,
+    Samples,
+    class_sample,
+    merge_all,
+    type_sample,
+)
 from driftline.observe.strprofile import exact_requested, string_profile
 from driftline.observe.textclass import class_masks, classify
 
@@ -163,18 +173,18 @@ def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None
         return
     nulls = arr.null_count if not pa.types.is_null(t) else len(arr)
     nonnull = len(arr) - nulls
-    samples: dict[str, tuple[Example, ...]] = {}
+    samples: Samples = {}
     fn = _first_null(arr) if not pa.types.is_null(t) else (0 if len(arr) else None)
     if fn is not None:
-        samples["null"] = (ctx.example(_rows(rows, fn), None),)
+        samples[NULL_SAMPLE] = (ctx.example(_rows(rows, fn), None),)
     if pa.types.is_null(t):
         ctx.out[path] = FieldStats(nulls=nulls, samples=samples)
         return
     key = from_arrow(t).shallow_key()
     fv = _first_valid(arr)
     if fv is not None:
-        samples["type:" + key] = (ctx.example(_rows(rows, fv), _sample(shown, arr, fv)),)
-    extra: dict[str, Any] = {}
+        samples[type_sample(key)] = (ctx.example(_rows(rows, fv), _sample(shown, arr, fv)),)
+    extra: Measured = {}
     if pa.types.is_struct(t):
         valid = pc.is_valid(arr)
         sub_rows = _take_rows(rows, valid) if arr.null_count else rows
@@ -335,8 +345,8 @@ def _temporal_text(s: pa.Scalar) -> str | None:
             return f"<{s.type} value>"
 
 
-def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
-    out: dict[str, Any] = {}
+def _number_stats(arr: pa.Array, t: pa.DataType) -> Measured:
+    out: Measured = {}
     if arr.null_count == len(arr):
         return out
     work = arr
@@ -364,9 +374,7 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> dict[str, Any]:
     return out
 
 
-def _string_stats(
-    arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: dict[str, tuple[Example, ...]]
-) -> dict[str, Any]:
+def _string_stats(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: Samples) -> Measured:
     if arr.null_count == len(arr):
         return {}
     if ctx.exact:
@@ -376,7 +384,7 @@ def _string_stats(
     many = any(prof.counts.get(c, 0) > 1 for c in _LOSSY_CLASSES)
     for cls, firsts in prof.first.items():
         picks = firsts if many and prof.counts[cls] > 1 else firsts[:1]
-        samples["class:" + cls] = tuple(ctx.example(_rows(rows, j), arr[j].as_py()) for j in picks)
+        samples[class_sample(cls)] = tuple(ctx.example(_rows(rows, j), arr[j].as_py()) for j in picks)
     return {
         "classes": dict(prof.counts),
         "max_length": prof.max_length,
@@ -387,15 +395,13 @@ def _string_stats(
     }
 
 
-def _string_stats_reference(
-    arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: dict[str, tuple[Example, ...]]
-) -> dict[str, Any]:
+def _string_stats_reference(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: Samples) -> Measured:
     """textclass.classify over every value: what string_profile must equal (the exact switch)."""
     scan = classify(arr)
     masks = class_masks(arr) if any(scan.counts.get(c, 0) > 1 for c in _LOSSY_CLASSES) else {}
     for cls, first in scan.first_index.items():
         picks = pa_indices(masks[cls], SAMPLES_PER_KEY) if cls in masks and scan.counts[cls] > 1 else [first]
-        samples["class:" + cls] = tuple(ctx.example(_rows(rows, j), arr[j].as_py()) for j in picks)
+        samples[class_sample(cls)] = tuple(ctx.example(_rows(rows, j), arr[j].as_py()) for j in picks)
     return {
         "classes": dict(scan.counts),
         "max_length": _max_or_zero(pc.utf8_length(arr)),
@@ -419,9 +425,7 @@ def _firsts(arr: pa.Array, rows: pa.Array | None, mask: pa.Array) -> list[tuple[
     return [(_rows(rows, i), arr[i].as_py()) for i in pa_indices(mask, 1)]
 
 
-def _big_integers(
-    arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, types: dict[str, int], samples: dict[str, tuple[Example, ...]]
-) -> int:
+def _big_integers(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, types: dict[str, int], samples: Samples) -> int:
     """Integer literals of the decimal class (19 digits or more: past int64 or near it) as a type
     of their own, decimal(N,0) with N the literal's digits, as a JSON literal is (observe.records),
     never float64, which rounds them (RFC 8259 section 6 leaves integer length open; IEEE 754
@@ -435,13 +439,13 @@ def _big_integers(
             at = pc.fill_null(pc.equal(digits, d), False)
             key = f"decimal({d},0)"
             types[key] = types.get(key, 0) + at.true_count
-            samples["type:" + key] = tuple(ctx.example(r, v) for r, v in _firsts(arr, rows, at))
+            samples[type_sample(key)] = tuple(ctx.example(r, v) for r, v in _firsts(arr, rows, at))
     return n
 
 
 def _observe_text(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None:
     """A text column: types are inferred from content classes; empty and null tokens are null."""
-    samples: dict[str, tuple[Example, ...]] = {}
+    samples: Samples = {}
     stats = _string_stats(arr, rows, ctx, samples)
     classes: dict[str, int] = stats.get("classes", {})
     types: dict[str, int] = {}
@@ -455,26 +459,23 @@ def _observe_text(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) ->
         inferred = TEXT_CLASS_TYPE[cls]
         if inferred is None:
             nulls += n
-            null_examples.extend(samples.get("class:" + cls, ()))
+            null_examples.extend(samples.get(class_sample(cls), ()))
         elif cls == "decimal" and stats.get("int_digits", 0) >= _INT64_DIGITS:
             n -= _big_integers(arr, rows, ctx, types, samples)
             if n:
                 types[inferred] = types.get(inferred, 0) + n
-                samples["type:" + inferred] = tuple(
+                samples[type_sample(inferred)] = tuple(
                     ctx.example(r, v)
                     for r, v in _firsts(arr, rows, pc.and_(class_masks(arr)["decimal"], pc.invert(_integer_text(arr))))
                 )
         else:
             types[inferred] = types.get(inferred, 0) + n
-            first = samples.get("class:" + cls, ())[:1]
-            key = "type:" + inferred
+            first = samples.get(class_sample(cls), ())[:1]
+            key = type_sample(inferred)
             samples[key] = tuple(sorted(set(samples.get(key, ())) | set(first)))[:SAMPLES_PER_KEY]
     if null_examples:
-        samples["null"] = tuple(sorted(set(null_examples)))[:SAMPLES_PER_KEY]
+        samples[NULL_SAMPLE] = tuple(sorted(set(null_examples)))[:SAMPLES_PER_KEY]
+    stats["text"] = len(arr) - arr.null_count
     ctx.out[path] = FieldStats(
-        types=dict(sorted(types.items())),
-        nulls=nulls,
-        samples=dict(sorted(samples.items())),
-        text=len(arr) - arr.null_count,
-        **stats,
+        types=dict(sorted(types.items())), nulls=nulls, samples=dict(sorted(samples.items())), **stats
     )

@@ -39,7 +39,7 @@ from driftline.observe.jsonnum import loads as json_loads
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.observation import Observation
 from driftline.observe.records import SAFE_INT, is_int_key, observe_records
-from driftline.observe.stats import SAMPLES_PER_KEY, FieldStats
+from driftline.observe.stats import SAMPLES_PER_KEY, FieldStats, Measured
 from driftline.observe.strprofile import string_profile
 from driftline.observe.textclass import CLASSES
 
@@ -54,7 +54,7 @@ class _Partial:
 
     types: dict[str, int]
     nulls: int | None  # None: count them in the exact walk (absent and null look alike)
-    extra: dict[str, Any] = field(default_factory=dict)
+    extra: Measured = field(default_factory=Measured)
     numbers_from_walk: bool = False  # integral doubles: the walk tells int from float literals
     nonnull: int = 0
     always: bool = False  # kept even with no value (the element path of empty lists)
@@ -506,7 +506,7 @@ def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, na
         part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py()}
 
 
-def _strings(arr: pa.Array, rows: pa.Array | None, b: _Batch) -> dict[str, Any]:
+def _strings(arr: pa.Array, rows: pa.Array | None, b: _Batch) -> Measured:
     """Class counts and string statistics, as textclass.classify gives them over arr."""
     prof = string_profile(arr, SAMPLES_PER_KEY)
     for positions in prof.first.values():
@@ -533,7 +533,7 @@ def _combine(
             nulls += _outside(part.text_nulls, seen).true_count
         if part.nonnull == 0 and nulls == 0 and not part.always:
             continue  # never present in this batch (absent wherever Arrow wrote null)
-        types, extra = part.types, dict(part.extra)
+        types, extra = part.types, part.extra.copy()
         if part.numbers_from_walk:
             ints = {k: v for k, v in w.types.items() if is_int_key(k)}
             groups = [(extra.get("minimum"), extra.get("maximum")), (w.minimum, w.maximum)]
@@ -553,7 +553,7 @@ def _combine(
             hi = _extreme([g[1] for g in groups], max)
             if lo is _TIE or hi is _TIE:
                 return None  # 1 and 1.0 both at the extreme: which came first is not known here
-            extra.update(minimum=lo, maximum=hi, unsafe_ints=w.unsafe_ints)
+            extra.update({"minimum": lo, "maximum": hi, "unsafe_ints": w.unsafe_ints})
         if part.nonnull and sum(w.types.values()) == 0 and not w.samples:
             return None  # the walk missed rows it should have seen: do not guess
         out[path] = FieldStats(types=dict(sorted(types.items())), nulls=nulls, samples=w.samples, **extra)

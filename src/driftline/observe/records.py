@@ -15,7 +15,17 @@ import pyarrow as pa
 
 from driftline.observe import paths
 from driftline.observe.observation import Observation
-from driftline.observe.stats import SAMPLES_PER_KEY, Example, FieldStats
+from driftline.observe.stats import (
+    NULL_SAMPLE,
+    SAMPLES_PER_KEY,
+    Example,
+    FieldStats,
+    Measured,
+    SampleKey,
+    Samples,
+    class_sample,
+    type_sample,
+)
 from driftline.observe.textclass import class_masks, classify
 
 MAX_DEPTH = 2_000  # orjson stops at 1,024 levels; this guards values built elsewhere
@@ -49,7 +59,7 @@ class _Acc:
     def __init__(self) -> None:
         self.types: dict[str, int] = {}
         self.nulls = 0
-        self.samples: dict[str, list[tuple[int, Any]]] = {}
+        self.samples: dict[SampleKey, list[tuple[int, Any]]] = {}
         self.strings: list[str] = []
         self.string_rows: list[int] = []
         self.lo: Any = None
@@ -57,7 +67,7 @@ class _Acc:
         self.unsafe = 0
         self.items = 0
 
-    def sample(self, key: str, row: int, value: Any) -> None:
+    def sample(self, key: SampleKey, row: int, value: Any) -> None:
         got = self.samples.get(key)
         if got is None:
             self.samples[key] = [(row, value)]
@@ -68,7 +78,7 @@ class _Acc:
         n = self.types.get(key)
         self.types[key] = 1 if n is None else n + 1
         if n is None or n < SAMPLES_PER_KEY:
-            self.sample("type:" + key, row, value)
+            self.sample(type_sample(key), row, value)
 
     def number(self, v: int | float) -> None:
         if v != v:  # NaN orders nowhere
@@ -146,7 +156,7 @@ def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int, other:
     if v is None:
         acc.nulls += 1
         if acc.nulls <= SAMPLES_PER_KEY:
-            acc.sample("null", row, None)
+            acc.sample(NULL_SAMPLE, row, None)
         return
     t = type(v)
     if t is str:
@@ -242,26 +252,32 @@ class _Where:
 
 
 def _finish(acc: _Acc, where: _Where, samples_only: bool = False) -> FieldStats:
-    samples = {k: tuple(where.example(i, v) for i, v in got) for k, got in acc.samples.items()}
-    classes: dict[str, int] = {}
-    extra: dict[str, Any] = {}
+    samples: Samples = {k: tuple(where.example(i, v) for i, v in got) for k, got in acc.samples.items()}
+    measured: Measured = {
+        "classes": {},
+        "minimum": acc.lo,
+        "maximum": acc.hi,
+        "unsafe_ints": acc.unsafe,
+        "items": acc.items,
+    }
     if acc.strings and samples_only:
         # The same masks classify() counts (one pass of class_masks), without its other statistics.
         rows = acc.string_rows
-        samples["type:string"] = tuple(
+        samples[type_sample("string")] = tuple(
             where.example(rows[j], acc.strings[j]) for j in range(min(SAMPLES_PER_KEY, len(rows)))
         )
+        classes: dict[str, int] = {}
         for cls, mask in class_masks(pa.array(acc.strings, pa.string())).items():
             if mask.true_count:
                 classes[cls] = mask.true_count
                 picks = pa_indices(mask, SAMPLES_PER_KEY)
-                samples["class:" + cls] = tuple(where.example(rows[j], acc.strings[j]) for j in picks)
+                samples[class_sample(cls)] = tuple(where.example(rows[j], acc.strings[j]) for j in picks)
+        measured["classes"] = classes
     elif acc.strings:
         arr = pa.array(acc.strings, pa.string())
         scan = classify(arr)
-        classes = dict(scan.counts)
         rows = acc.string_rows
-        samples["type:string"] = tuple(
+        samples[type_sample("string")] = tuple(
             where.example(rows[j], acc.strings[j]) for j in range(min(SAMPLES_PER_KEY, len(rows)))
         )
         masks = class_masks(arr) if any(n > 1 for n in scan.counts.values()) else {}
@@ -269,24 +285,19 @@ def _finish(acc: _Acc, where: _Where, samples_only: bool = False) -> FieldStats:
             picks = [first]
             if scan.counts[cls] > 1 and cls in masks:
                 picks = pa_indices(masks[cls], SAMPLES_PER_KEY)
-            samples["class:" + cls] = tuple(where.example(rows[j], acc.strings[j]) for j in picks)
-        extra = {
-            "max_length": max(len(s) for s in acc.strings),
-            "int_digits": scan.int_digits,
-            "frac_digits": scan.frac_digits,
-            "leap_seconds": scan.leap_seconds,
-            "lowercase_rfc3339": scan.lowercase_rfc3339,
-        }
+            samples[class_sample(cls)] = tuple(where.example(rows[j], acc.strings[j]) for j in picks)
+        measured.update(
+            {
+                "classes": dict(scan.counts),
+                "max_length": max(len(s) for s in acc.strings),
+                "int_digits": scan.int_digits,
+                "frac_digits": scan.frac_digits,
+                "leap_seconds": scan.leap_seconds,
+                "lowercase_rfc3339": scan.lowercase_rfc3339,
+            }
+        )
     return FieldStats(
-        types=dict(sorted(acc.types.items())),
-        nulls=acc.nulls,
-        classes=classes,
-        samples=dict(sorted(samples.items())),
-        minimum=acc.lo,
-        maximum=acc.hi,
-        unsafe_ints=acc.unsafe,
-        items=acc.items,
-        **extra,
+        types=dict(sorted(acc.types.items())), nulls=acc.nulls, samples=dict(sorted(samples.items())), **measured
     )
 
 

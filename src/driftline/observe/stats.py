@@ -1,17 +1,22 @@
 """Per field path statistics, and the one way two of them combine: merge.
 
-FieldStats are values. merge() is commutative and associative (counts add, extremes
-take min/max, samples keep the K earliest positions), so per-batch, per-file and
-per-worker results combine in any order and give the same profile.
+FieldStats are values. Each statistic is declared once, as a field of FieldStats with its
+rule (``stat(RULE)``): how two values merge, how the value is written to JSON and read
+back. merge, merge_all, to_json and from_json are derived from those declarations
+(``StatsTable``), so adding a statistic is one line in FieldStats (and its name in
+``Measured``, the typed keyword arguments the observers pass). Every rule is commutative and
+associative (counts add, extremes take min/max, samples keep the K earliest positions), so
+per-batch, per-file and per-worker results combine in any order and give the same profile.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Mapping
-from dataclasses import dataclass, field, fields, replace
-from operator import attrgetter
-from typing import Any, TypeVar
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass, field, fields
+from functools import reduce
+from operator import add, attrgetter, call
+from typing import Any, Generic, Literal, NamedTuple, TypedDict, TypeVar
 
 SAMPLES_PER_KEY = 3  # earliest examples kept per type / class / null key
 
@@ -44,23 +49,117 @@ class Example:
         return Example(d["file"], d["row"], d.get("line"), d.get("value", ""))
 
 
+SampleKind = Literal["class", "null", "type"]
+
+
+class SampleKey(NamedTuple):
+    """What a sample's examples are examples of: values of a type key, strings of a content
+    class, or nulls. Keys order as their text does ('class:…' < 'null' < 'type:…'), so a
+    samples map sorted by key is written in the order it always was.
+
+    >>> str(type_sample("int64")), str(class_sample("date")), str(NULL_SAMPLE)
+    ('type:int64', 'class:date', 'null')
+    >>> SampleKey.parse("type:decimal(30,0)") == type_sample("decimal(30,0)")
+    True
+    """
+
+    kind: SampleKind
+    name: str = ""
+
+    def __str__(self) -> str:
+        return "null" if self.kind == "null" else self.kind + ":" + self.name
+
+    @staticmethod
+    def parse(text: str) -> SampleKey:
+        """The key a report writes as text ('type:<key>', 'class:<name>' or 'null')."""
+        if text == "null":
+            return NULL_SAMPLE
+        kind, sep, name = text.partition(":")
+        if sep and name and kind == "type":
+            return type_sample(name)
+        if sep and name and kind == "class":
+            return class_sample(name)
+        raise ValueError(f"not a sample key: {text!r} (expected 'type:<key>', 'class:<name>' or 'null')")
+
+
+# One key object per name, and its text, kept: equal keys are then the same object (a
+# dictionary lookup is an identity check, a pickle of many statistics writes each key once)
+# and the report's text of a key is a lookup.
+_TYPE_SAMPLES: dict[str, SampleKey] = {}
+_CLASS_SAMPLES: dict[str, SampleKey] = {}
+_KEY_TEXT: dict[SampleKey, str] = {}
+_KEY_OF_TEXT: dict[str, SampleKey] = {}
+_KEPT_KEYS = 4096  # names past it (a file may hold any number of decimal widths) are not kept
+
+
+def _kept(kept: dict[str, SampleKey], key: SampleKey) -> SampleKey:
+    if len(kept) < _KEPT_KEYS:
+        kept[key.name] = key
+        text = str(key)
+        _KEY_TEXT[key], _KEY_OF_TEXT[text] = text, key
+    return key
+
+
+def type_sample(key: str) -> SampleKey:
+    """The sample key of values of a shallow type key ('int64', 'string', 'list', ...)."""
+    got = _TYPE_SAMPLES.get(key)
+    return got if got is not None else _kept(_TYPE_SAMPLES, SampleKey("type", key))
+
+
+def class_sample(name: str) -> SampleKey:
+    """The sample key of strings of a content class ('integer', 'date', 'text', ...)."""
+    got = _CLASS_SAMPLES.get(name)
+    return got if got is not None else _kept(_CLASS_SAMPLES, SampleKey("class", name))
+
+
+NULL_SAMPLE = _kept({}, SampleKey("null"))
+
+
+Samples = dict[SampleKey, tuple[Example, ...]]
+
+
+# --- Rules: how one statistic merges and travels ------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class Rule:
+    """How one statistic combines and travels.
+
+    merge      its values, in merge order → the merged value (commutative and associative)
+    pair       the same for two values (a, b): what merge((a, b)) gives, without the tuple
+    empty      a new value of a FieldStats that saw nothing; to_json leaves out a value
+               equal to it unless the field is always written
+    to_json / from_json   the value's JSON form, and back (None: the value itself)
+    """
+
+    merge: Callable[[Sequence[Any]], Any]
+    pair: Callable[[Any, Any], Any]
+    empty: Callable[[], Any]
+    to_json: Callable[[Any], Any] | None = None
+    from_json: Callable[[Any], Any] | None = None
+
+
+def _sum_counts(maps: Sequence[Mapping[str, int]]) -> dict[str, int]:
+    out: dict[str, int] = {}
+    for m in maps:
+        for k, n in m.items():
+            out[k] = out.get(k, 0) + n
+    return dict(sorted(out.items()))
+
+
 def _add_counts(a: Mapping[str, int], b: Mapping[str, int]) -> dict[str, int]:
     out = dict(a)
-    for k, v in b.items():
-        out[k] = out.get(k, 0) + v
+    for k, n in b.items():
+        out[k] = out.get(k, 0) + n
     return dict(sorted(out.items()))
 
 
-def _merge_samples(
-    a: Mapping[str, tuple[Example, ...]], b: Mapping[str, tuple[Example, ...]]
-) -> dict[str, tuple[Example, ...]]:
-    out = dict(a)
-    for k, exs in b.items():
-        if k in out:
-            out[k] = tuple(sorted(set(out[k]) | set(exs)))[:SAMPLES_PER_KEY]
-        else:
-            out[k] = exs
-    return dict(sorted(out.items()))
+def _lowest(values: Sequence[Any]) -> Any:
+    return reduce(_lo, values)
+
+
+def _highest(values: Sequence[Any]) -> Any:
+    return reduce(_hi, values)
 
 
 def _lo(a: Any, b: Any) -> Any:
@@ -84,35 +183,122 @@ def _key(v: Any) -> tuple[int, Any]:
     return (0, v) if isinstance(v, int | float) and not isinstance(v, bool) else (1, str(v))
 
 
+def _none() -> None:
+    return None
+
+
+# JSON has no infinity (RFC 8259 section 6), and orjson writes one as null: a float extreme
+# past float64's range is written as a word instead, which no temporal or decimal text equals.
+_NON_FINITE = {"inf": math.inf, "-inf": -math.inf, "nan": math.nan}
+
+
+def _extreme_to_json(value: Any) -> Any:
+    if isinstance(value, float) and not math.isfinite(value):
+        return "nan" if math.isnan(value) else "inf" if value > 0 else "-inf"
+    return value
+
+
+def _extreme_from_json(value: Any) -> Any:
+    return _NON_FINITE.get(value, value) if isinstance(value, str) else value
+
+
+def _earliest_samples(maps: Sequence[Samples]) -> Samples:
+    parts: dict[SampleKey, list[tuple[Example, ...]]] = {}
+    for m in maps:
+        for k, exs in m.items():
+            got = parts.get(k)
+            if got is None:
+                parts[k] = [exs]
+            else:
+                got.append(exs)
+    return {k: _earliest(got) for k, got in sorted(parts.items())}
+
+
+def _earliest(parts: list[tuple[Example, ...]]) -> tuple[Example, ...]:
+    # One side alone is kept as it is; else the K earliest of the union, an example of the
+    # same place (file, row) keeping its first occurrence.
+    if len(parts) == 1:
+        return parts[0]
+    return tuple(sorted(dict.fromkeys(e for exs in parts for e in exs)))[:SAMPLES_PER_KEY]
+
+
+def _earliest_of_two(a: Samples, b: Samples) -> Samples:
+    out = dict(a)
+    for k, exs in b.items():
+        got = out.get(k)
+        out[k] = exs if got is None else tuple(sorted(dict.fromkeys((*got, *exs))))[:SAMPLES_PER_KEY]
+    return dict(sorted(out.items()))
+
+
+def _samples_to_json(samples: Samples) -> dict[str, list[dict[str, Any]]]:
+    texts = _KEY_TEXT
+    return {texts.get(k) or str(k): [e.to_json() for e in exs] for k, exs in samples.items()}
+
+
+def _samples_from_json(d: Mapping[str, Any]) -> Samples:
+    keys = _KEY_OF_TEXT
+    return {keys.get(k) or SampleKey.parse(k): tuple(Example.from_json(e) for e in exs) for k, exs in d.items()}
+
+
+# Rules: (merge, pair, empty[, to_json, from_json])
+COUNTS = Rule(_sum_counts, _add_counts, dict, from_json=dict)  # key → count; counts add, keys in order
+TOTAL = Rule(sum, add, int)  # a count; counts add
+LARGEST = Rule(max, max, int)  # the largest seen
+LOWEST = Rule(_lowest, _lo, _none, _extreme_to_json, _extreme_from_json)  # numbers as numbers, else text
+HIGHEST = Rule(_highest, _hi, _none, _extreme_to_json, _extreme_from_json)
+EARLIEST = Rule(_earliest_samples, _earliest_of_two, dict, _samples_to_json, _samples_from_json)  # K earliest per key
+
+
+@dataclass(frozen=True, slots=True)
+class Stat:
+    """A statistic's rule, and whether to_json writes it even when empty."""
+
+    rule: Rule
+    always: bool = False
+
+
+_STAT = "driftline.stat"
+
+
+def stat(rule: Rule, *, always: bool = False) -> Any:
+    """Declare a statistic: a dataclass field whose default is the rule's empty value."""
+    meta = {_STAT: Stat(rule, always)}
+    empty = rule.empty()
+    if type(empty).__hash__ is None:  # mutable (a dict): a new one per instance
+        return field(default_factory=rule.empty, metadata=meta)
+    return field(default=empty, metadata=meta)
+
+
 @pickled_by_fields
 @dataclass(frozen=True, slots=True)
 class FieldStats:
-    """What a set of rows shows for one field path.
+    """What a set of rows shows for one field path: one line per statistic, with its rule.
 
     types      non-null values per shallow type key ('int64', 'string', 'struct', 'list', ...)
     nulls      values present but null (JSON null, Arrow/Parquet null, empty CSV cell)
     classes    content classes of string values (for CSV: of every cell's text)
-    samples    'type:<key>' / 'class:<name>' / 'null' → earliest examples with position
+    samples    SampleKey (type / class / null) → earliest examples with position
     items      list paths: number of elements; map paths: number of entries
     text       values that came from untyped text (CSV/TSV), whose types were inferred
     Absent counts are not stored: they derive from the container (rows, or the parent
-    struct's count), which keeps merge a plain sum.
+    struct's count), which keeps merge a plain sum. The order of the fields is the order
+    of the keys in the JSON report.
     """
 
-    types: dict[str, int] = field(default_factory=dict)
-    nulls: int = 0
-    classes: dict[str, int] = field(default_factory=dict)
-    samples: dict[str, tuple[Example, ...]] = field(default_factory=dict)
-    minimum: Any = None
-    maximum: Any = None
-    max_length: int = 0
-    int_digits: int = 0
-    frac_digits: int = 0
-    leap_seconds: int = 0
-    lowercase_rfc3339: int = 0
-    unsafe_ints: int = 0  # integers beyond ±(2**53-1): not exact as float64 (RFC 7493 §2.2)
-    items: int = 0
-    text: int = 0
+    types: dict[str, int] = stat(COUNTS, always=True)
+    nulls: int = stat(TOTAL, always=True)
+    classes: dict[str, int] = stat(COUNTS)
+    samples: Samples = stat(EARLIEST, always=True)
+    minimum: Any = stat(LOWEST)
+    maximum: Any = stat(HIGHEST)
+    max_length: int = stat(LARGEST)
+    int_digits: int = stat(LARGEST)
+    frac_digits: int = stat(LARGEST)
+    leap_seconds: int = stat(TOTAL)
+    lowercase_rfc3339: int = stat(TOTAL)
+    unsafe_ints: int = stat(TOTAL)  # integers beyond ±(2**53-1): not exact as float64 (RFC 7493 §2.2)
+    items: int = stat(TOTAL)
+    text: int = stat(TOTAL)
 
     @property
     def present(self) -> int:
@@ -122,70 +308,100 @@ class FieldStats:
     def nonnull(self) -> int:
         return sum(self.types.values())
 
-    def first(self, key: str) -> Example | None:
+    def first(self, key: SampleKey) -> Example | None:
         exs = self.samples.get(key)
         return exs[0] if exs else None
 
     def merge(self, other: FieldStats) -> FieldStats:
-        return FieldStats(
-            types=_add_counts(self.types, other.types),
-            nulls=self.nulls + other.nulls,
-            classes=_add_counts(self.classes, other.classes),
-            samples=_merge_samples(self.samples, other.samples),
-            minimum=_lo(self.minimum, other.minimum),
-            maximum=_hi(self.maximum, other.maximum),
-            max_length=max(self.max_length, other.max_length),
-            int_digits=max(self.int_digits, other.int_digits),
-            frac_digits=max(self.frac_digits, other.frac_digits),
-            leap_seconds=self.leap_seconds + other.leap_seconds,
-            lowercase_rfc3339=self.lowercase_rfc3339 + other.lowercase_rfc3339,
-            unsafe_ints=self.unsafe_ints + other.unsafe_ints,
-            items=self.items + other.items,
-            text=self.text + other.text,
-        )
+        return _TABLE.merge_two(self, other)
 
     def to_json(self) -> dict[str, Any]:
-        out: dict[str, Any] = {"types": self.types, "nulls": self.nulls}
-        for name in ("classes",):
-            if self.classes:
-                out[name] = self.classes
-        out["samples"] = {k: [e.to_json() for e in v] for k, v in self.samples.items()}
-        for name in ("minimum", "maximum"):
-            if getattr(self, name) is not None:
-                out[name] = _extreme_to_json(getattr(self, name))
-        for name in (
-            "max_length",
-            "int_digits",
-            "frac_digits",
-            "leap_seconds",
-            "lowercase_rfc3339",
-            "unsafe_ints",
-            "items",
-            "text",
-        ):
-            value = getattr(self, name)
-            if value:
-                out[name] = value
-        return out
+        return _TABLE.to_json(self)
 
     @staticmethod
     def from_json(d: Mapping[str, Any]) -> FieldStats:
-        return FieldStats(
-            types=dict(d.get("types", {})),
-            nulls=d.get("nulls", 0),
-            classes=dict(d.get("classes", {})),
-            samples={k: tuple(Example.from_json(e) for e in v) for k, v in d.get("samples", {}).items()},
-            minimum=_extreme_from_json(d.get("minimum")),
-            maximum=_extreme_from_json(d.get("maximum")),
-            max_length=d.get("max_length", 0),
-            int_digits=d.get("int_digits", 0),
-            frac_digits=d.get("frac_digits", 0),
-            leap_seconds=d.get("leap_seconds", 0),
-            lowercase_rfc3339=d.get("lowercase_rfc3339", 0),
-            unsafe_ints=d.get("unsafe_ints", 0),
-            items=d.get("items", 0),
-            text=d.get("text", 0),
+        return _TABLE.from_json(d)
+
+
+class Measured(TypedDict, total=False):
+    """FieldStats' statistics besides types, nulls and samples, as keyword arguments: what an
+    observer measures apart and passes on as ``FieldStats(types=…, nulls=…, samples=…, **m)``,
+    so mypy checks each name and type. A test holds it equal to FieldStats' fields."""
+
+    classes: dict[str, int]
+    minimum: Any
+    maximum: Any
+    max_length: int
+    int_digits: int
+    frac_digits: int
+    leap_seconds: int
+    lowercase_rfc3339: int
+    unsafe_ints: int
+    items: int
+    text: int
+
+
+_S = TypeVar("_S")
+
+
+class StatsTable(Generic[_S]):
+    """The statistics of a dataclass declared with stat(): merge, to_json and from_json,
+    each the same loop over the declared rules."""
+
+    def __init__(self, cls: type[_S]) -> None:
+        declared: list[tuple[str, Stat]] = []
+        for f in fields(cls):  # type: ignore[arg-type]
+            spec = f.metadata.get(_STAT)
+            if not isinstance(spec, Stat):
+                raise TypeError(f"{cls.__name__}.{f.name} has no merge rule: declare it with stat(RULE)")
+            declared.append((f.name, spec))
+        self.cls = cls
+        self.declared = tuple(declared)
+        self._get = _getter([name for name, _ in declared])
+        self._merges = tuple(spec.rule.merge for _, spec in declared)
+        self._pairs = tuple(spec.rule.pair for _, spec in declared)
+        # Per field, in field order (the order of JSON keys): its name, whether always written,
+        # the empty value it is left out as, and its to_json.
+        self._names = tuple(name for name, _ in declared)
+        self._always = tuple(spec.always for _, spec in declared)
+        self._empties = tuple(spec.rule.empty() for _, spec in declared)
+        self._to_json = tuple(spec.rule.to_json for _, spec in declared)
+        self._read = tuple((name, spec.rule.from_json, spec.rule.empty) for name, spec in declared)
+
+    def merge(self, stats: Sequence[_S]) -> _S:
+        """What merging stats one after another gives: each rule over the column of its values."""
+        return self.cls(*map(call, self._merges, zip(*map(self._get, stats), strict=True)))
+
+    def merge_two(self, a: _S, b: _S) -> _S:
+        """merge((a, b)), by each rule's merge of two values."""
+        return self.cls(*map(call, self._pairs, self._get(a), self._get(b)))
+
+    def to_json(self, st: _S) -> dict[str, Any]:
+        return {
+            name: value if to_json is None else to_json(value)
+            for name, always, empty, to_json, value in zip(
+                self._names, self._always, self._empties, self._to_json, self._get(st), strict=True
+            )
+            if always or value != empty
+        }
+
+    def from_json(self, d: Mapping[str, Any]) -> _S:
+        return self.cls(
+            *[
+                (d[name] if from_json is None else from_json(d[name])) if name in d else empty()
+                for name, from_json, empty in self._read
+            ]
         )
+
+
+def _getter(names: list[str]) -> Callable[[Any], tuple[Any, ...]]:
+    if len(names) == 1:  # attrgetter of one name gives the value, not a tuple
+        one = attrgetter(names[0])
+        return lambda obj: (one(obj),)
+    return attrgetter(*names)
+
+
+_TABLE: StatsTable[FieldStats] = StatsTable(FieldStats)
 
 
 def merge_fields(a: Mapping[str, FieldStats], b: Mapping[str, FieldStats]) -> dict[str, FieldStats]:
@@ -212,75 +428,5 @@ def merge_all(maps: Iterable[Mapping[str, FieldStats]]) -> dict[str, FieldStats]
                 groups[path] = [st]
             else:
                 got.append(st)
-    return {path: got[0] if len(got) == 1 else _merge_many(got) for path, got in sorted(groups.items())}
-
-
-def _merge_many(stats: list[FieldStats]) -> FieldStats:
-    """What a left fold of FieldStats.merge over stats gives."""
-    types: dict[str, int] = {}
-    classes: dict[str, int] = {}
-    samples: dict[str, list[tuple[Example, ...]]] = {}
-    lo = hi = None
-    nulls = max_length = int_digits = frac_digits = leap = lower = unsafe = items = text = 0
-    for st in stats:
-        for k, n in st.types.items():
-            types[k] = types.get(k, 0) + n
-        for k, n in st.classes.items():
-            classes[k] = classes.get(k, 0) + n
-        for k, exs in st.samples.items():
-            samples.setdefault(k, []).append(exs)
-        lo, hi = _lo(lo, st.minimum), _hi(hi, st.maximum)
-        nulls += st.nulls
-        max_length, int_digits, frac_digits = (
-            max(max_length, st.max_length),
-            max(int_digits, st.int_digits),
-            max(frac_digits, st.frac_digits),
-        )
-        leap += st.leap_seconds
-        lower += st.lowercase_rfc3339
-        unsafe += st.unsafe_ints
-        items += st.items
-        text += st.text
-    return FieldStats(
-        types=dict(sorted(types.items())),
-        nulls=nulls,
-        classes=dict(sorted(classes.items())),
-        samples={k: _earliest(parts) for k, parts in sorted(samples.items())},
-        minimum=lo,
-        maximum=hi,
-        max_length=max_length,
-        int_digits=int_digits,
-        frac_digits=frac_digits,
-        leap_seconds=leap,
-        lowercase_rfc3339=lower,
-        unsafe_ints=unsafe,
-        items=items,
-        text=text,
-    )
-
-
-def _earliest(parts: list[tuple[Example, ...]]) -> tuple[Example, ...]:
-    # One side alone is kept as it is, as _merge_samples does; else the K earliest, an
-    # example of the same place keeping its first occurrence (a set union's).
-    if len(parts) == 1:
-        return parts[0]
-    return tuple(sorted(dict.fromkeys(e for exs in parts for e in exs)))[:SAMPLES_PER_KEY]
-
-
-def with_samples(st: FieldStats, samples: dict[str, tuple[Example, ...]]) -> FieldStats:
-    return replace(st, samples=dict(sorted(samples.items())))
-
-
-# JSON has no infinity (RFC 8259 section 6), and orjson writes one as null: a float extreme
-# past float64's range is written as a word instead, which no temporal or decimal text equals.
-_NON_FINITE = {"inf": math.inf, "-inf": -math.inf, "nan": math.nan}
-
-
-def _extreme_to_json(value: Any) -> Any:
-    if isinstance(value, float) and not math.isfinite(value):
-        return "nan" if math.isnan(value) else "inf" if value > 0 else "-inf"
-    return value
-
-
-def _extreme_from_json(value: Any) -> Any:
-    return _NON_FINITE.get(value, value) if isinstance(value, str) else value
+    merge = _TABLE.merge
+    return {path: got[0] if len(got) == 1 else merge(got) for path, got in sorted(groups.items())}

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from driftline.lattice import STRING, DType
 from driftline.observe.records import is_int_key
+from driftline.observe.stats import class_sample, type_sample
 from driftline.observe.textclass import MAX_DECIMAL_DIGITS
 from driftline.recommend.options import RecommendOptions, zone_is_fixed
 from driftline.recommend.plan import Effect
@@ -35,13 +36,15 @@ def _nulls(r: Reading) -> list[Effect]:
     ]
     n = sum(c for c, _ in counts)
     if n:
-        examples = tuple(sorted({e for c, text in counts if c for e in f.samples("class:null_token", text=text)}))[:3]
+        examples = tuple(
+            sorted({e for c, text in counts if c for e in f.samples(class_sample("null_token"), text=text)})
+        )[:3]
         out.append(Effect("null", "null_token", n, examples))
     if r.empty == "null" and f.strings.get("empty"):
-        out.append(Effect("null", "empty", f.strings["empty"], f.samples("class:empty", text=False)))
+        out.append(Effect("null", "empty", f.strings["empty"], f.samples(class_sample("empty"), text=False)))
     if r.unparsed:
         n = sum(x.count for x in r.unparsed)
-        found = {e for x in r.unparsed for e in f.samples("class:" + x.key, text=x.source == "text")}
+        found = {e for x in r.unparsed for e in f.samples(class_sample(x.key), text=x.source == "text")}
         out.append(Effect("null", "unparsed", n, tuple(sorted(found))[:3]))
     return out
 
@@ -51,7 +54,7 @@ def _as_text(r: Reading) -> list[Effect]:
     if r.target != STRING or not typed:
         return []
     n = sum(x.count for x in typed)
-    return [Effect("change", "as_text", n, r.facts.samples(*("type:" + x.key for x in typed), text=False))]
+    return [Effect("change", "as_text", n, r.facts.samples(*(type_sample(x.key) for x in typed), text=False))]
 
 
 def _parsed(r: Reading, cls: str) -> list[Form]:
@@ -73,7 +76,7 @@ def _class_changes(r: Reading) -> list[Effect]:
         n = sum(x.count for x in forms)
         if n:
             examples = tuple(
-                sorted({e for x in forms for e in r.facts.samples("class:" + cls, text=x.source == "text")})
+                sorted({e for x in forms for e in r.facts.samples(class_sample(cls), text=x.source == "text")})
             )[:3]
             out.append(Effect("change", cause, n, examples))
     return out
@@ -166,7 +169,7 @@ def _temporal(r: Reading, opts: RecommendOptions) -> tuple[list[Effect], int]:
         )
     lower = sum(st.lowercase_rfc3339 for st in sides)
     if lower:
-        out.append(Effect("note", "lowercase", lower, f.samples("class:timestamp_rfc3339")))
+        out.append(Effect("note", "lowercase", lower, f.samples(class_sample("timestamp_rfc3339"))))
     assert t.unit is not None
     if any(st.max_length >= _FRACTION_AT + UNIT_DIGITS[t.unit] for st in sides):
         out.append(
@@ -192,7 +195,7 @@ def _temporal(r: Reading, opts: RecommendOptions) -> tuple[list[Effect], int]:
         ]
         assumed = sum(x.count for x in local)
         if assumed:
-            keys = [("type:" if x.source == "typed" else "class:") + x.key for x in local]
+            keys = [(type_sample if x.source == "typed" else class_sample)(x.key) for x in local]
             fixed = zone_is_fixed(opts.timestamp_zone)
             out.append(
                 Effect(

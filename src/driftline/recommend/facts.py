@@ -12,7 +12,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 
 from driftline.observe import paths
-from driftline.observe.stats import Example, FieldStats
+from driftline.observe.stats import Example, FieldStats, SampleKey
 from driftline.profile import FieldSummary, Profile
 
 EMPTY = FieldStats()
@@ -58,7 +58,7 @@ class Facts:
     def text_values(self) -> int:
         return sum(n for c, n in self.cells.items() if c != "empty")
 
-    def samples(self, *keys: str, text: bool | None = None) -> tuple[Example, ...]:
+    def samples(self, *keys: SampleKey, text: bool | None = None) -> tuple[Example, ...]:
         """The earliest examples under any of keys, from the typed side, the text side or both."""
         sides = (self.typed, self.text) if text is None else ((self.text,) if text else (self.typed,))
         found = {e for st in sides for k in keys for e in st.samples.get(k, ())}

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from driftline.lattice import STRING, DType, family
 from driftline.observe import paths
 from driftline.observe.records import is_int_key
-from driftline.observe.stats import FieldStats
+from driftline.observe.stats import FieldStats, class_sample, type_sample
 from driftline.recommend.bounds import json_chars, value_chars
 from driftline.recommend.effects import scalar_effects, target_nullable
 from driftline.recommend.facts import Facts, FactsTree
@@ -495,7 +495,7 @@ def _without(st: FieldStats, drop: set[str]) -> FieldStats:
     samples = {
         k: v
         for k, v in st.samples.items()
-        if k[len("type:") :] not in NESTED and k[len("class:") :] not in drop and k != "null"
+        if k.kind == "type" and k.name not in NESTED or k.kind == "class" and k.name not in drop
     }
     return dataclasses.replace(st, types=types, classes=classes, samples=samples, nulls=0, items=0)
 
@@ -526,12 +526,12 @@ def wrap_scalar_in_list(f: Facts, ctx: Context) -> FieldPlan | None:
         f.cells.get("null_token", 0) if text_drop else 0
     )
     if tokens:
-        effects.append(Effect("null", "null_token", tokens, f.samples("class:null_token")))
+        effects.append(Effect("null", "null_token", tokens, f.samples(class_sample("null_token"))))
     if "empty" in typed_drop and f.strings.get("empty"):
-        effects.append(Effect("null", "empty", f.strings["empty"], f.samples("class:empty", text=False)))
+        effects.append(Effect("null", "empty", f.strings["empty"], f.samples(class_sample("empty"), text=False)))
     nulled = sum(e.count for e in effects)
     wrapped = sum(f.kinds[k] for k in scalars) + f.text_values - nulled
-    keys = [*("type:" + k for k in scalars), *("class:" + c for c in f.cells if c not in ("empty", *text_drop))]
+    keys = [*(type_sample(k) for k in scalars), *(class_sample(c) for c in f.cells if c not in ("empty", *text_drop))]
     effects.append(Effect("change", "wrapped", wrapped, f.samples(*keys)))
     return _list(
         f,
@@ -551,9 +551,9 @@ def keep_as_json_text(f: Facts, ctx: Context) -> FieldPlan:
     effects: list[Effect] = []
     tokens = f.cells.get("null_token", 0) if ctx.opts.null_tokens != "never" else 0
     if tokens:
-        effects.append(Effect("null", "null_token", tokens, f.samples("class:null_token", text=True)))
+        effects.append(Effect("null", "null_token", tokens, f.samples(class_sample("null_token"), text=True)))
     n = f.typed.nonnull + f.text_values - tokens
-    keys = [*("type:" + k for k in f.kinds), *("class:" + c for c in f.cells)]
+    keys = [*(type_sample(k) for k in f.kinds), *(class_sample(c) for c in f.cells)]
     effects.append(
         Effect(
             "change",

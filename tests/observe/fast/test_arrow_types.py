@@ -31,6 +31,7 @@ from driftline.lattice import from_arrow
 from driftline.observe import columnar
 from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.columnar import observe_table
+from driftline.observe.stats import NULL_SAMPLE, type_sample
 from driftline.report import to_dict
 
 D = decimal.Decimal
@@ -307,17 +308,23 @@ def test_union_members_keep_their_rows_and_children() -> None:
     obs = observe_table(pa.table({"u": arr}), file="f", batch=0, row_start=100)
     u, a = obs.fields["u"], obs.fields["u.a"]
     assert (u.types, u.nulls, a.types, a.nulls) == ({"int64": 1, "struct": 2}, 1, {"int64": 1}, 1)
-    assert (u.first("type:int64").row, u.first("type:struct").row, u.first("null").row) == (101, 100, 103)
-    assert a.first("null").row == 102
+    assert (u.first(type_sample("int64")).row, u.first(type_sample("struct")).row, u.first(NULL_SAMPLE).row) == (
+        101,
+        100,
+        103,
+    )
+    assert a.first(NULL_SAMPLE).row == 102
 
 
 def test_samples_show_extension_values_as_their_type_does() -> None:
     table = pa.table({c[0]: c[1] for c in CASES if c[0] in ("uuid", "bool8", "duration-ns", "json")})
     obs = observe_table(table, file="f", batch=0, row_start=0)
-    assert obs.fields["uuid"].first("type:binary").value == json.dumps(str(U1))  # source: RFC 9562 section 4
-    assert obs.fields["bool8"].first("type:bool").value == "true"  # source: Arrow canonical bool8, nonzero is true
+    assert obs.fields["uuid"].first(type_sample("binary")).value == json.dumps(str(U1))  # source: RFC 9562 section 4
+    assert (
+        obs.fields["bool8"].first(type_sample("bool")).value == "true"
+    )  # source: Arrow canonical bool8, nonzero is true
     assert obs.fields["bool8"].classes == {} and obs.fields["bool8"].types == {"bool": 3}
-    assert obs.fields["duration-ns"].first("type:duration[ns]").value == '"1 ns"'
+    assert obs.fields["duration-ns"].first(type_sample("duration[ns]")).value == '"1 ns"'
     # the JSON texts as strings: "2" reads as an integer, "null" as a null token
     assert obs.fields["json"].classes == {"integer": 1, "null_token": 1, "text": 2}
 

@@ -12,6 +12,7 @@ import pytest
 
 from driftline.observe.bulk import Batch, observe_batches
 from driftline.observe.columnar import observe_table
+from driftline.observe.stats import class_sample
 from driftline.profile import Profile
 from driftline.report import to_dict
 
@@ -152,8 +153,10 @@ def test_strings_of_every_class_and_their_examples() -> None:
     assert got == _one_by_one(batches)
     first = got[0].fields["s"]
     assert first.classes == {"integer": 3, "text": 2}
-    assert [e.row for e in first.samples["class:integer"]] == [1, 2, 3]
-    assert [e.row for e in got[1].fields["s"].samples["class:integer"]] == [10]  # no lossy class: the first only
+    assert [e.row for e in first.samples[class_sample("integer")]] == [1, 2, 3]
+    assert [e.row for e in got[1].fields["s"].samples[class_sample("integer")]] == [
+        10
+    ]  # no lossy class: the first only
     assert got[2].fields["s"].classes == {"empty": 2, "date": 1, "text": 1}  # source: 2026 is not a leap year
     assert got[4].fields["s"].leap_seconds == 1 and got[4].fields["s"].lowercase_rfc3339 == 1  # source: RFC 3339 5.8
 
