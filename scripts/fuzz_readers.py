@@ -29,8 +29,8 @@ import atheris
 
 with atheris.instrument_imports(include=["driftline"]):
     from driftline.emit.terminal import render
-    from driftline.profile import Profile
-    from driftline.report import dumps
+    from driftline.results.profile import Profile
+    from driftline.results.report import dumps
     from driftline.sources.base import FileResult, ReadOptions
     from driftline.sources.discover import discover
     from driftline.sources.readers import read_file

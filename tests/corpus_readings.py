@@ -42,7 +42,7 @@ def is_json(entry: dict[str, Any]) -> bool:
 def read_driftline(entry: dict[str, Any]) -> tuple[Reading, Any]:
     """The scan of one corpus file: its reading and the Profile."""
     import driftline
-    from driftline.observe import paths
+    from driftline.core import paths
 
     profile = driftline.scan(CORPUS / entry["path"])
     top = [p for p in profile.fields if paths.parent(p)[0] is None]

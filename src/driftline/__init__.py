@@ -37,7 +37,8 @@ from typing import Any as _Any
 from typing import Unpack as _Unpack
 from typing import overload as _overload
 
-from driftline.drift import Event
+from driftline.core.options import ScanKeywords as _ScanKeywords
+from driftline.core.options import ScanOptions
 from driftline.errors import (
     DamagedFileError,
     DriftlineError,
@@ -55,15 +56,14 @@ from driftline.errors import (
 from driftline.gate.diff import Diff
 from driftline.gate.policy import Policy
 from driftline.gate.verdict import Verdict
-from driftline.options import ScanKeywords as _ScanKeywords
-from driftline.options import ScanOptions
-from driftline.profile import FieldSummary, Profile
-from driftline.recommend import Recommendation
-from driftline.recommend.options import RecommendOptions as _RecommendOptions
-from driftline.report import load_report
+from driftline.recommendation import Recommendation
+from driftline.recommendation.options import RecommendOptions as _RecommendOptions
+from driftline.results.drift import Event
+from driftline.results.profile import FieldSummary, Profile
+from driftline.results.report import load_report
 
 # Imported here, before `def scan`, so the function (not the submodule) is driftline.scan.
-from driftline.scan import scan_with as _scan_with
+from driftline.scanning.run import scan_with as _scan_with
 from driftline.sources.base import ReadOptions
 
 
@@ -117,7 +117,7 @@ def scan(
     >>> p.fields["x"].stats.types, [e.kind for e in p.events]
     ({'float64': 1, 'int64': 1}, ['type-widened'])
     """
-    from driftline.conceal import conceal
+    from driftline.results.conceal import conceal
 
     opts = (options or ScanOptions()).merged(paths=paths, **keywords)
     return conceal(_scan_with(opts, progress=progress), opts.values)
@@ -243,10 +243,10 @@ def recommend(
     >>> p.rule, p.target.key(), [(e.cause, e.count) for e in p.effects]
     ('parse_integer', 'int64', [('null_token', 1)])
     """
-    from driftline.conceal import conceal
+    from driftline.core.options import KEYWORDS
     from driftline.gate.inputs import profile_of
-    from driftline.options import KEYWORDS
-    from driftline.recommend import recommend as recommend_profile
+    from driftline.recommendation import recommend as recommend_profile
+    from driftline.results.conceal import conceal
 
     read = {k: v for k, v in keywords.items() if k in KEYWORDS}
     opts = (scan_options or ScanOptions()).merged(**read)

@@ -32,7 +32,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:  # for annotations only: errors.py imports nothing of driftline at run time
-    from driftline.recommend.plan import FieldPlan, Recommendation
+    from driftline.recommendation.plan import FieldPlan, Recommendation
 
 
 class DriftlineError(Exception):
@@ -88,7 +88,7 @@ class OptionError(DriftlineError, ValueError):
 class ReportVersionError(DriftlineError):
     """A saved report, rules or state file has another format or version.
 
-    >>> from driftline.report import from_dict
+    >>> from driftline.results.report import from_dict
     >>> try:
     ...     from_dict({"format": "driftline-report", "version": 0})
     ... except ReportVersionError as exc:
@@ -103,7 +103,7 @@ class DamagedFileError(DriftlineError):
     The message names the file, the JSON pointer (RFC 6901) of the first problem and what
     was expected there.
 
-    >>> from driftline.report import from_dict
+    >>> from driftline.results.report import from_dict
     >>> try:
     ...     from_dict({"format": "driftline-report", "version": 1, "files": "none"}, source="'r.json'")
     ... except DamagedFileError as exc:

@@ -19,7 +19,7 @@ import pytest
 
 import driftline
 from conftest import write_lines
-from driftline.tables import EVENTS_SCHEMA, FIELDS_SCHEMA
+from driftline.results.tables import EVENTS_SCHEMA, FIELDS_SCHEMA
 
 # The public surface. A change here is an API change: update docs/python.md with it.
 SURFACE = [
@@ -59,26 +59,26 @@ NO_DOCSTRING_YET: set[str] = set()
 # Modules whose docstring examples run as tests (not the whole tree: see docs/python.md).
 DOCTEST_MODULES = [
     "driftline",
-    "driftline.documents",
-    "driftline.drift",
+    "driftline.core.documents",
+    "driftline.results.drift",
     "driftline.emit.units",
     "driftline.emit.schemas.files",
     "driftline.errors",
-    "driftline.jsontypes",
-    "driftline.lattice",
-    "driftline.notebook",
-    "driftline.profile",
-    "driftline.observe.paths",
-    "driftline.recommend",
-    "driftline.recommend.plan",
-    "driftline.options",
-    "driftline.partitions",
-    "driftline.report",
+    "driftline.core.jsontypes",
+    "driftline.core.lattice",
+    "driftline.emit.notebook",
+    "driftline.results.profile",
+    "driftline.core.paths",
+    "driftline.recommendation",
+    "driftline.recommendation.plan",
+    "driftline.core.options",
+    "driftline.core.partitions",
+    "driftline.results.report",
     "driftline.sources.base",
     "driftline.sources.dialect",
-    "driftline.sources.dialectpin",
+    "driftline.core.dialectpin",
     "driftline.sources.encoding",
-    "driftline.tables",
+    "driftline.results.tables",
 ]
 
 
@@ -198,7 +198,7 @@ def test_no_exception_class_outside_errors_py_escapes_to_a_user():
     outside = {k: v for k, v in found.items() if k != "errors.py"}
     assert outside == {
         "gate/baseline.py": ["_SchemaError"],
-        "observe/jsonbatch.py": ["NotExact"],
+        "observe/fast/jsonbatch.py": ["NotExact"],
         "observe/records.py": ["DepthExceeded"],
         "recommend/apply.py": ["SchemaMismatch"],
         "sources/csvsplit.py": ["_TooDense"],
@@ -302,8 +302,8 @@ def _public_callables() -> list[tuple[str, object]]:
 
 
 def test_public_signatures_hold_no_any():
-    import driftline.recommend.plan  # noqa: F401  (annotation-only names of profile.py)
-    import driftline.tables  # noqa: F401
+    import driftline.recommendation.plan  # noqa: F401  (annotation-only names of results/profile.py)
+    import driftline.results.tables  # noqa: F401
 
     extra = _type_names()
     with_any = []
@@ -387,7 +387,7 @@ def test_repr_html_escapes_names_from_the_data(tmp_path: Path):
 
 
 def test_repr_html_caps_the_field_list(tmp_path: Path):
-    import driftline.notebook as nb
+    import driftline.emit.notebook as nb
 
     write_lines(tmp_path / "w.jsonl", ["{" + ", ".join(f'"f{i:02}": {i}' for i in range(nb.MAX_FIELDS + 5)) + "}"])
     out = driftline.scan(tmp_path)._repr_html_()
@@ -413,7 +413,7 @@ def test_to_arrow_tables_hold_every_field_and_event(demo_profile, demo_manifest)
     planted = {
         (c["change"], c["field"], c["file"], c["row"])
         for c in demo_manifest["changes"]
-        if c["change"] in driftline.drift.EVENT_KINDS
+        if c["change"] in driftline.results.drift.EVENT_KINDS
     }
     assert planted and planted <= rows
     first = events.slice(0, 1).to_pylist()[0]
@@ -441,7 +441,7 @@ def test_empty_profile_gives_empty_tables_of_the_same_shape():
 
 
 def test_issue_example_runs_on_the_demo(demo_dir: Path, monkeypatch: pytest.MonkeyPatch, tmp_path: Path):
-    from driftline.report import dumps
+    from driftline.results.report import dumps
 
     monkeypatch.chdir(demo_dir)
     profile = driftline.scan("landing/", batch_rows=50_000)
@@ -474,7 +474,7 @@ def test_issue_example_runs_on_the_demo(demo_dir: Path, monkeypatch: pytest.Monk
 
 def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pytest.MonkeyPatch):
     from conftest import ROOT, _load_make_demo
-    from driftline.report import dumps
+    from driftline.results.report import dumps
 
     _load_make_demo().build(tmp_path)
     monkeypatch.chdir(tmp_path)

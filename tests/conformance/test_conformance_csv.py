@@ -14,7 +14,7 @@ import pytest
 
 import driftline
 from conftest import SHARED_TESTDATA
-from driftline.observe import paths
+from driftline.core import paths
 
 SUITE = SHARED_TESTDATA / "csv-edge-cases"
 CSVS = sorted((SUITE / "csvs").glob("*.csv"))

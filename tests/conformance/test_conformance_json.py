@@ -17,7 +17,7 @@ import pytest
 
 import driftline
 from conftest import SHARED_TESTDATA
-from driftline.observe import paths
+from driftline.core import paths
 
 SUITE = SHARED_TESTDATA / "json-parsing" / "test_parsing"
 FILES = sorted(SUITE.glob("*.json"))

@@ -14,9 +14,9 @@ import pytest
 
 import driftline
 from conftest import SHARED_TESTDATA
-from driftline.lattice import from_arrow
-from driftline.observe import paths
-from driftline.scan import scan_paths
+from driftline.core import paths
+from driftline.core.lattice import from_arrow
+from driftline.scanning.run import scan_paths
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.parquetfile import declared_paths

@@ -32,9 +32,9 @@ from conftest import SHARED_TESTDATA
 from driftline.emit.schemas import sql
 from driftline.emit.schemas.avro import avro_records, avro_schema
 from driftline.emit.schemas.json_schema import json_schema
-from driftline.recommend import Recommendation
-from driftline.recommend.apply import Tally, apply
-from driftline.recommend.raw import iter_records, raw_batches
+from driftline.recommendation import Recommendation
+from driftline.recommendation.apply import Tally, apply
+from driftline.recommendation.raw import iter_records, raw_batches
 
 TESTDATA = SHARED_TESTDATA
 

@@ -1,4 +1,4 @@
-"""driftline.lattice: join laws, the pyarrow oracle, Arrow conversion and parse_key."""
+"""driftline.core.lattice: join laws, the pyarrow oracle, Arrow conversion and parse_key."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from driftline.lattice import (
+from driftline.core.lattice import (
     BINARY,
     BOOL,
     DATE32,

@@ -1,4 +1,4 @@
-"""The options value (driftline.options): one normaliser, one config file, one precedence.
+"""The options value (driftline.core.options): one normaliser, one config file, one precedence.
 
 Precedence is a flag (or keyword) over the config file over the default, for the library
 and the command line alike; an unknown key names itself and its file.
@@ -17,7 +17,7 @@ import pytest
 
 import driftline
 from conftest import write_lines
-from driftline.options import ScanOptions, find_config, load_config
+from driftline.core.options import ScanOptions, find_config, load_config
 
 EXE = [sys.executable, "-m", "driftline.cli"]
 

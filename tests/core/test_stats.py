@@ -13,8 +13,8 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from driftline.observe import stats
-from driftline.observe.stats import (
+from driftline.core import stats
+from driftline.core.stats import (
     COUNTS,
     EARLIEST,
     HIGHEST,

@@ -5,7 +5,7 @@ Valid reports, rules, state files and policies are damaged the ways files get da
 the damage, check, diff and schema exit 2 with a message naming the file and a JSON
 pointer (never a traceback, never 1, which means a policy violation), a damaged state
 file is set aside with a note, and the damaged file is left byte for byte as it was. The
-compiled checks in driftline.validation are held to the `jsonschema` package's verdict on
+compiled checks in driftline.core.validation are held to the `jsonschema` package's verdict on
 every mutated document.
 """
 
@@ -30,14 +30,14 @@ from typer.testing import CliRunner
 import driftline
 from conftest import ROOT
 from driftline.cli import app
+from driftline.core.validation import SCHEMAS, problem_in, schema_document
 from driftline.emit.schemas import json_schema
 from driftline.emit.schemas.rules_json import dumps as rules_dumps
 from driftline.errors import DamagedFileError, DriftlineError, PolicyError, ReportVersionError
 from driftline.gate.policy import Policy, keys, load_policy
 from driftline.gate.state import load_state, scan_incremental, state_bytes
-from driftline.report import dumps, load_report
+from driftline.results.report import dumps, load_report
 from driftline.sources.base import ReadOptions
-from driftline.validation import SCHEMAS, problem_in, schema_document
 
 # source: RFC 6901 section 3 — a JSON pointer is "" or a sequence of "/"-prefixed tokens
 POINTER = re.compile(r'\bat (?:"" \(the whole document\)|(?:/[^\s:/]*)+)')

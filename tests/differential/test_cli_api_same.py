@@ -16,7 +16,7 @@ import pytest
 import driftline
 from conftest import write_lines
 from driftline.emit.schemas import rules_json
-from driftline.report import to_dict
+from driftline.results.report import to_dict
 
 EXE = [sys.executable, "-m", "driftline.cli"]
 
@@ -154,7 +154,7 @@ def test_every_verb_that_reads_data_lists_the_same_read_options_in_help():
 def test_jobs_default_is_the_same_in_cli_and_library():
     import inspect
 
-    from driftline.options import DEFAULT_JOBS, ScanOptions
+    from driftline.core.options import DEFAULT_JOBS, ScanOptions
 
     assert ScanOptions().jobs == DEFAULT_JOBS == 1
     res = subprocess.run([*EXE, "scan", "--help"], capture_output=True, text=True, timeout=120, env=HELP_ENV)

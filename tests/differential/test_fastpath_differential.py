@@ -19,9 +19,10 @@ import pytest
 
 import driftline.sources.jsonfile as jsonfile
 from conftest import SHARED_TESTDATA
-from driftline.observe import jsonbatch, jsonnum, jsonparse
-from driftline.report import to_dict
-from driftline.scan import scan_paths
+from driftline.observe import jsonnum, jsonparse
+from driftline.observe.fast import jsonbatch
+from driftline.results.report import to_dict
+from driftline.scanning.run import scan_paths
 from driftline.sources.base import ReadOptions
 
 TESTDATA = SHARED_TESTDATA

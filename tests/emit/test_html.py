@@ -310,7 +310,7 @@ def test_group_counts_agree_with_profile_fields(demo: dict[str, Any]) -> None:
 
 def test_partition_counts_agree_with_by_partition(demo: dict[str, Any]) -> None:
     profile = demo["profile"]
-    for key, info in driftline.report.partition_types(profile).items():
+    for key, info in driftline.results.report.partition_types(profile).items():
         columns = hd.partition_columns(info["values"], key=key)
         per_col = hd.partition_counts(profile, key, columns, profile.fields)
         ref = profile.by_partition(key)
@@ -396,7 +396,7 @@ def test_recommended_rule_and_measured_loss_are_shown(demo: dict[str, Any]) -> N
 
 
 def test_report_works_without_the_recommender(demo: dict[str, Any], monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setitem(sys.modules, "driftline.recommend", None)  # import now raises ImportError
+    monkeypatch.setitem(sys.modules, "driftline.recommendation", None)  # import now raises ImportError
     page = html_report.render_html(demo["profile"])
     assert "recommended type, cast rule, loss" not in page
     assert "appear here once driftline's recommender is installed" in page

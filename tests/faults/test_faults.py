@@ -22,8 +22,8 @@ import pyarrow.parquet as pq
 import pytest
 import zstandard
 
-from driftline.profile import Profile
-from driftline.scan import scan_paths
+from driftline.results.profile import Profile
+from driftline.scanning.run import scan_paths
 from driftline.sources.base import ReadOptions
 from hostile_inputs import SUFFIX, bomb, compress, jsonl_lines, parquet_absurd_footers
 
@@ -395,6 +395,6 @@ def test_file_names_that_are_not_utf8_are_profiled_and_never_collide_silently(tm
     assert rels.count("caf\\xe9.jsonl") == 1
     assert [(s.rel, s.reason) for s in profile.skipped] == [("caf\\xe9.jsonl", "name-collision")]
     assert profile.rows == 9
-    from driftline.report import dumps
+    from driftline.results.report import dumps
 
     json.loads(dumps(profile))  # the report is valid JSON: no lone surrogates

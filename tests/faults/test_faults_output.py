@@ -29,7 +29,7 @@ PROBE = r"""
 import errno, importlib, os, sys, time
 mode, marker, *args = sys.argv[1:]
 atomic = importlib.import_module("driftline.emit.atomic")
-scanning = importlib.import_module("driftline.scan")  # the module: driftline.scan is also a function
+scanning = importlib.import_module("driftline.scanning.run")  # the module: driftline.scan is also a function
 
 def ready():
     open(marker, "w").close()

@@ -20,9 +20,9 @@ import pytest
 
 import driftline
 from conftest import ROOT
-from driftline import thinning
-from driftline.observe.stats import type_sample
-from driftline.report import to_dict
+from driftline.core.stats import type_sample
+from driftline.observe import thinning
+from driftline.results.report import to_dict
 from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.jsonsplit import assemble, plan, read_span
@@ -385,7 +385,7 @@ def test_batches_past_the_limit_merge_into_blocks_with_exact_counts(tmp_path: Pa
 
 
 def _saved(tmp_path: Path, profile: driftline.Profile) -> Path:
-    from driftline.report import dumps
+    from driftline.results.report import dumps
 
     out = tmp_path.parent / (tmp_path.name + "-report.json")
     out.write_bytes(dumps(profile))
@@ -412,9 +412,9 @@ def test_batch_rows_1_is_summarised_not_flooded(tmp_path: Path):
 
 
 def test_thinning_as_it_comes_equals_the_offline_rule_in_one_part_or_two():
-    from driftline.observe.observation import Observation
-    from driftline.observe.stats import Example, FieldStats
-    from driftline.thinning import Thinner, block_size, concat_blocks, merge_block
+    from driftline.core.observation import Observation
+    from driftline.core.stats import Example, FieldStats
+    from driftline.observe.thinning import Thinner, block_size, concat_blocks, merge_block
 
     def obs(i: int) -> Observation:
         st = FieldStats(types={"int64": 2}, samples={type_sample("int64"): (Example("f", 2 * i, None, str(i)),)})

@@ -6,8 +6,8 @@ from __future__ import annotations
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from driftline.observe.columnar import observe_table
-from driftline.observe.stats import NULL_SAMPLE, type_sample
+from driftline.core.stats import NULL_SAMPLE, type_sample
+from driftline.observe.fast.columnar import observe_table
 from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.formats import CountingRaw

@@ -9,14 +9,14 @@ from jsonschema import Draft202012Validator
 
 import driftline
 from conftest import ROOT, write_lines
+from driftline.core.lattice import parse_key, shallow
 from driftline.errors import DamagedFileError, InputPathError, ReportVersionError, UnreadableFileError
 from driftline.gate.baseline import (
     FORMAT_CLASSES,
     baseline_from_json_schema,
     load_baseline,
 )
-from driftline.lattice import parse_key, shallow
-from driftline.report import dumps
+from driftline.results.report import dumps
 
 SCHEMA = {
     "$schema": "https://json-schema.org/draft/2020-12/schema",

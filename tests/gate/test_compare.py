@@ -12,10 +12,10 @@ from jsonschema import Draft202012Validator, FormatChecker
 
 import driftline
 from conftest import write_lines
+from driftline.core.lattice import parse_key
 from driftline.gate.baseline import baseline_from_json_schema, baseline_from_profile
 from driftline.gate.compare import compare, fits
 from driftline.gate.policy import Policy
-from driftline.lattice import parse_key
 
 CONTRACT = {
     "$schema": "https://json-schema.org/draft/2020-12/schema",
@@ -325,7 +325,7 @@ def test_cast_loss_agrees_with_pyarrow_casts(tmp_path, target):
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    from driftline.lattice import to_arrow
+    from driftline.core.lattice import to_arrow
 
     values = CAST_CASES[target] + [v for v, (t, _) in CAST_DIFFERENCES.items() if t == target]
     rule = "parse_integer" if target == "int64" else "parse_timestamp"

@@ -7,10 +7,10 @@ import pytest
 
 import driftline
 from conftest import write_lines
+from driftline.core.lattice import join, parse_key, to_arrow
+from driftline.core.stats import FieldStats
 from driftline.gate.diff import DIFF_KINDS, diff_fields, diff_partitions, diff_profiles
-from driftline.lattice import join, parse_key, to_arrow
-from driftline.observe.stats import FieldStats
-from driftline.profile import summarise
+from driftline.results.profile import summarise
 
 
 def _one(types: dict[str, int], rows: int = 0) -> dict:

@@ -11,8 +11,8 @@ import pytest
 from conftest import write_lines
 from driftline.errors import InputPathError, OutputError, ReportVersionError
 from driftline.gate.state import STATE_FORMAT, STATE_VERSION, load_state, scan_incremental
-from driftline.report import dumps, to_dict
-from driftline.scan import scan_paths
+from driftline.results.report import dumps, to_dict
+from driftline.scanning.run import scan_paths
 from driftline.sources.base import ReadOptions
 
 

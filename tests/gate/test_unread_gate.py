@@ -80,7 +80,7 @@ def test_against_a_saved_report_too(tmp_path: Path):
     (good / "a.csv").write_text("id,name\n1,a\n2,b\n")
     (bad / "a.csv").write_bytes(RAGGED)
     report = tmp_path / "base.json"
-    report.write_bytes(__import__("driftline.report", fromlist=["dumps"]).dumps(driftline.scan(good)))
+    report.write_bytes(__import__("driftline.results.report", fromlist=["dumps"]).dumps(driftline.scan(good)))
     v = driftline.check(bad, baseline=report)
     assert not v.passed and "unread_rows" in {x.rule for x in v.violations}
     assert driftline.check(good, baseline=report).passed

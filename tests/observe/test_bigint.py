@@ -19,12 +19,12 @@ import pyarrow.compute as pc
 import pytest
 
 import driftline
-from driftline.lattice import from_arrow, join, parse_key
+from driftline.core.lattice import from_arrow, join, parse_key
+from driftline.core.stats import type_sample
 from driftline.observe import jsonnum
-from driftline.observe.stats import type_sample
-from driftline.recommend.apply import Tally, apply
-from driftline.recommend.raw import raw_batches
-from driftline.report import dumps
+from driftline.recommendation.apply import Tally, apply
+from driftline.recommendation.raw import raw_batches
+from driftline.results.report import dumps
 
 # 20- to 40-digit identifiers, negative ones, the edges of int64 and uint64.
 IDS = [10 ** (d - 1) + d for d in range(20, 41)] + [-(10**24) - 7, 2**63, 2**64 - 1, 2**64, -(2**63) - 1]

@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import pyarrow as pa
 
-from driftline.observe.columnar import observe_table
+from driftline.core.stats import NULL_SAMPLE, class_sample, type_sample
+from driftline.observe.fast.columnar import observe_table
 from driftline.observe.records import observe_records
-from driftline.observe.stats import NULL_SAMPLE, class_sample, type_sample
-from driftline.profile import summarise
+from driftline.results.profile import summarise
 
 
 def test_null_and_absent_are_kept_apart():

@@ -774,7 +774,7 @@ def test_classifiers_are_linear_on_adversarial_strings() -> None:
     arr = pa.array(ADVERSARIAL)
     masks = class_masks(arr)
     assert [next(c for c in CLASSES if masks[c][i].as_py()) for i in range(len(arr))] == expected
-    from driftline.observe.strprofile import string_profile
+    from driftline.observe.fast.strprofile import string_profile
 
     assert string_profile(pa.array(ADVERSARIAL * 3)).counts == {"float_out_of_range": 9, "text": 39}
 
@@ -794,7 +794,7 @@ _run = st.builds(
 def test_classifiers_are_linear_on_long_runs(values: list[str]) -> None:
     # Whatever a pattern does with a long run, every path agrees with class_of, in bounded time:
     # the masks, string_profile (dictionary and plain-number shortcuts) and the bulk verdicts.
-    from driftline.observe.strprofile import string_profile, verdicts
+    from driftline.observe.fast.strprofile import string_profile, verdicts
 
     want = [class_of(v) for v in values]
     masks = class_masks(pa.array(values))

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from driftline.observe.stats import class_sample
+from driftline.core.stats import class_sample
 from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.readers import read_file

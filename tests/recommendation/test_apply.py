@@ -12,9 +12,9 @@ import pytest
 
 import driftline
 from _orders import EXPECTED, make_orders
-from driftline.recommend import Recommendation
-from driftline.recommend.apply import SchemaMismatch, Tally, apply
-from driftline.recommend.raw import raw_batches
+from driftline.recommendation import Recommendation
+from driftline.recommendation.apply import SchemaMismatch, Tally, apply
+from driftline.recommendation.raw import raw_batches
 
 
 @pytest.fixture(scope="module")

@@ -27,14 +27,14 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import driftline
-from driftline.lattice import to_arrow
-from driftline.observe.columnar import observe_table
+from driftline.core.lattice import to_arrow
+from driftline.observe.fast.columnar import observe_table
 from driftline.observe.records import observe_records
 from driftline.observe.textclass import class_of
-from driftline.profile import Profile
-from driftline.recommend import FieldPlan, recommend
-from driftline.recommend.apply import Tally, apply
-from driftline.recommend.raw import as_variant, records_to_batch
+from driftline.recommendation import FieldPlan, recommend
+from driftline.recommendation.apply import Tally, apply
+from driftline.recommendation.raw import as_variant, records_to_batch
+from driftline.results.profile import Profile
 from driftline.sources.base import FileResult
 
 SETTINGS = settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])

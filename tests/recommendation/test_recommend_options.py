@@ -12,7 +12,7 @@ import pytest
 import driftline
 from conftest import ROOT
 from driftline.errors import PolicyError
-from driftline.recommend import RecommendOptions, SchemaConflictError, recommend
+from driftline.recommendation import RecommendOptions, SchemaConflictError, recommend
 
 
 def _root(tmp_path: Path, name: str, text: str) -> Path:
@@ -41,7 +41,7 @@ def test_defaults_are_the_safe_ones():
 
 
 def test_every_option_is_documented_value_by_value():
-    doc = RecommendOptions.__module__ and __import__("driftline.recommend.options", fromlist=["x"]).__doc__
+    doc = RecommendOptions.__module__ and __import__("driftline.recommendation.options", fromlist=["x"]).__doc__
     for f in fields(RecommendOptions):
         assert f"\n{f.name}\n" in doc
     for value in ("permissive", "strict", "mixed", "always", "parse", "never", '"s"', '"ns"'):

@@ -16,10 +16,10 @@ import pyarrow.parquet as pq
 import pytest
 
 import driftline
-from driftline.recommend import REGISTRY, FieldPlan, Recommendation
-from driftline.recommend.apply import Tally, apply
-from driftline.recommend.raw import raw_batches
-from driftline.recommend.rules import parquet_decimal_storage
+from driftline.recommendation import REGISTRY, FieldPlan, Recommendation
+from driftline.recommendation.apply import Tally, apply
+from driftline.recommendation.raw import raw_batches
+from driftline.recommendation.rules import parquet_decimal_storage
 
 UTC = dt.UTC
 

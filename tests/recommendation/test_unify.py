@@ -17,7 +17,7 @@ import pyarrow.parquet as pq
 import pytest
 
 import driftline
-from driftline.lattice import from_arrow
+from driftline.core.lattice import from_arrow
 
 D = decimal.Decimal
 T0 = dt.datetime(2026, 1, 2, 3, 4, 5)

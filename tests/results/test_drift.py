@@ -10,7 +10,7 @@ from pathlib import Path
 
 import driftline
 from conftest import write_lines
-from driftline.drift import EVENT_KINDS
+from driftline.results.drift import EVENT_KINDS
 
 
 def test_every_injected_change_is_named_with_field_file_and_row(demo_profile, demo_manifest):

@@ -11,8 +11,8 @@ from jsonschema import Draft202012Validator
 
 import driftline
 from conftest import ROOT
-from driftline.profile import Profile
-from driftline.report import dumps, from_dict, to_dict
+from driftline.results.profile import Profile
+from driftline.results.report import dumps, from_dict, to_dict
 
 
 def _single(profile: Profile, i: int) -> Profile:

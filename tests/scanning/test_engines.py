@@ -17,8 +17,8 @@ from typing import Any
 import pytest
 
 from _endpoints import dead_port, silent_endpoint
-from driftline.engines import EngineError, runs_of, tree_levels
-from driftline.scan import scan_paths
+from driftline.scanning.engines import EngineError, runs_of, tree_levels
+from driftline.scanning.run import scan_paths
 
 if os.environ.get("CI"):
     import distributed  # CI installs the test extra: a missing package is a failure, never a skip
@@ -167,7 +167,7 @@ def test_cli_unknown_engine_exits_2(demo_dir: Path) -> None:
 def test_docstring_examples_run() -> None:
     import doctest
 
-    import driftline.engines as engines
+    import driftline.scanning.engines as engines
 
     result = doctest.testmod(engines, optionflags=doctest.ELLIPSIS)
     assert result.failed == 0 and result.attempted >= 4
@@ -235,7 +235,7 @@ def test_malformed_scheduler_address(demo_dir: Path, address: str, problem: str)
 @pytest.mark.timeout(180)
 def test_a_hung_dask_task_times_out(many_files: Path) -> None:
     from _measured import PEAK_LIMIT, run_cli, snapshot
-    from driftline.workers import TEST_FAULT_ENV
+    from driftline.scanning.workers import TEST_FAULT_ENV
 
     before = snapshot(many_files)
     run = run_cli(

@@ -1,7 +1,7 @@
 """Local worker processes: bounded in number, a death retried once and then an error, tasks timed.
 
 Workers are killed for real (SIGKILL, as the out-of-memory killer does) through the
-test-only fault hook of driftline.workers. The reference for every report is the serial
+test-only fault hook of driftline.scanning.workers. The reference for every report is the serial
 scan (--jobs 1), which the rest of the suite checks against published suites.
 """
 
@@ -15,10 +15,10 @@ from typing import Any
 
 import pytest
 
-import driftline.workers as workers
+import driftline.scanning.workers as workers
 from _measured import PEAK_LIMIT, run_cli, snapshot
-from driftline.scan import scan_paths
-from driftline.workers import TEST_FAULT_ENV, WorkerError, cap_jobs, usable_cores
+from driftline.scanning.run import scan_paths
+from driftline.scanning.workers import TEST_FAULT_ENV, WorkerError, cap_jobs, usable_cores
 
 
 @pytest.fixture

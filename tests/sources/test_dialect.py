@@ -21,9 +21,9 @@ import pytest
 
 import driftline
 from conftest import ROOT
-from driftline.observe import paths
-from driftline.observe.stats import class_sample
-from driftline.report import dumps, load_report
+from driftline.core import paths
+from driftline.core.stats import class_sample
+from driftline.results.report import dumps, load_report
 from driftline.sources import csvsplit
 from driftline.sources.base import ReadOptions
 from driftline.sources.dialect import Dialect, find_dialect, parse_pin, pin_for
@@ -507,7 +507,7 @@ def test_binary_cells_stay_bytes_with_no_quotes(tmp_path: Path):
 
 
 def test_raw_batches_for_apply_read_the_dialect_as_the_scan_does(tmp_path: Path):
-    from driftline.recommend.raw import raw_batches
+    from driftline.recommendation.raw import raw_batches
 
     data = b"".join(b"%d|x%d\r" % (155190 + i, i) for i in range(40))
     f = tmp_path / "h.csv"

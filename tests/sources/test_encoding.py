@@ -19,9 +19,9 @@ import pytest
 
 import driftline
 from conftest import ROOT
+from driftline.core.stats import class_sample
 from driftline.emit.terminal import encodings_line
-from driftline.observe.stats import class_sample
-from driftline.report import dumps, file_from_json, file_json, load_report
+from driftline.results.report import dumps, file_from_json, file_json, load_report
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.encoding import (
@@ -399,7 +399,7 @@ def test_a_utf16_file_without_a_known_extension_is_sniffed_as_csv(tmp_path: Path
 
 
 def test_apply_reads_raw_values_in_the_files_encoding(tmp_path: Path):
-    from driftline.recommend.raw import iter_records, raw_batches
+    from driftline.recommendation.raw import iter_records, raw_batches
 
     f = tmp_path / "people.csv"
     f.write_bytes(CSV_TEXT.encode("utf-16-be"))

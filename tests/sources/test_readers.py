@@ -13,7 +13,7 @@ import pytest
 import zstandard
 
 import driftline
-from driftline.observe.stats import class_sample
+from driftline.core.stats import class_sample
 
 LINES = b'{"a": 1, "b": "x"}\n{"a": 2, "b": "y"}\n{"a": 3}\n'
 COMPRESSORS = {

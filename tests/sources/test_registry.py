@@ -22,8 +22,8 @@ import pytest
 
 import driftline
 from conftest import ROOT, SHARED_TESTDATA
-from driftline.dataformat import FORMATS, Format
-from driftline.recommend.raw import TEXT, iter_records, raw_batches
+from driftline.core.dataformat import FORMATS, Format
+from driftline.recommendation.raw import TEXT, iter_records, raw_batches
 from driftline.sources.discover import discover
 from driftline.sources.registry import FORMAT_BY_SUFFIX, SPECS, detect_format, sniff_format, suffix_list
 
@@ -152,7 +152,7 @@ def _enums(node: object) -> list[list[str]]:
 @pytest.mark.slow
 def test_a_misspelt_format_name_is_a_type_error(tmp_path: Path):
     code = (
-        "from driftline.dataformat import Format\n"
+        "from driftline.core.dataformat import Format\n"
         "from driftline.sources.registry import spec\n"
         'good: Format = "tsv"\n'
         'bad: Format = "jsonlines"\n'
@@ -245,7 +245,7 @@ def test_no_module_but_the_registry_branches_on_a_format_name():
     found = {
         str(f.relative_to(src)): hits
         for f in sorted(src.rglob("*.py"))
-        if f.name not in ("registry.py", "dataformat.py") and (hits := _format_dispatch(ast.parse(f.read_text())))
+        if f.name not in ("registry.py", "core/dataformat.py") and (hits := _format_dispatch(ast.parse(f.read_text())))
     }
     assert found == {}
 

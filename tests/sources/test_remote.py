@@ -17,9 +17,9 @@ from urllib.parse import parse_qs, unquote
 import pytest
 
 from _endpoints import dead_port, silent_endpoint
+from driftline.core.partitions import parse_condition
 from driftline.errors import InputPathError, OptionError
-from driftline.partitions import parse_condition
-from driftline.scan import scan_paths
+from driftline.scanning.run import scan_paths
 from driftline.sources.discover import discover
 from driftline.sources.remote import StorageOptions, discover_remote, locator, parse_locator
 
@@ -160,7 +160,7 @@ def test_where_prunes_before_listing_deeper(s3: Server, demo_dir: Path) -> None:
 
 
 def test_secret_never_in_report(s3: Server) -> None:
-    from driftline.report import dumps
+    from driftline.results.report import dumps
 
     profile = scan_paths([f"s3://{BUCKET}/landing/"], storage=StorageOptions(endpoint_url=s3.url))
     text = dumps(profile).decode()

@@ -13,6 +13,7 @@ import driftline
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
+from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
@@ -21,7 +22,6 @@ from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, render
 from driftline.gate.policy import ACTION_MEANING, key_help
 from driftline.gate.verdict import junit_xml
 from driftline.gate.verdict import render as render_verdict
-from driftline.options import Config, ScanOptions
 
 EXIT_CODES = """Exit codes:
 

@@ -1,6 +1,6 @@
 """The read options every verb that reads data takes (scan, schema, check, diff), declared once.
 
-Each flag is named after the library's keyword (driftline.options.ScanKeywords) and shows
+Each flag is named after the library's keyword (driftline.core.options.ScanKeywords) and shows
 the library's default. `takes_read_options` adds them all, and --config, to a verb: the
 verb receives one ScanOptions built as flag over config file over default (a flag counts
 only when it was given on the command line), and the Config it came from.
@@ -18,10 +18,11 @@ from typing import Any
 import typer
 
 from driftline.cli import ENCODING_OPTION
-from driftline.conceal import MODES
-from driftline.drift import DEFAULT_MAX_EVENTS
-from driftline.options import DEFAULT_JOBS, Config, ScanOptions, find_config, load_config
-from driftline.ranges import RANGES
+from driftline.core.options import DEFAULT_JOBS, Config, ScanOptions, find_config, load_config
+from driftline.core.ranges import RANGES
+from driftline.results.conceal import MODES
+from driftline.results.drift import DEFAULT_MAX_EVENTS
+from driftline.scanning.workers import DEFAULT_TASK_TIMEOUT
 from driftline.sources.base import (
     DEFAULT_BATCH_BYTES,
     DEFAULT_BATCH_ROWS,
@@ -32,7 +33,6 @@ from driftline.sources.base import (
     DEFAULT_MAX_RECORD_BYTES,
 )
 from driftline.sources.remote import DEFAULT_CONNECT_TIMEOUT, DEFAULT_REQUEST_TIMEOUT
-from driftline.workers import DEFAULT_TASK_TIMEOUT
 
 CSV_DIALECT_HELP = (
     "Pin the CSV dialect of the files matching GLOB (all CSV/TSV files without it); repeatable, later pins win. "

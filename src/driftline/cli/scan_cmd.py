@@ -13,14 +13,14 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TaskID, TextC
 import driftline
 from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
+from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.html import write_html
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.emit.terminal import render
 from driftline.errors import InputPathError
-from driftline.options import Config, ScanOptions
-from driftline.report import dumps, limit_notes
+from driftline.results.report import dumps, limit_notes
 
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 

@@ -11,14 +11,14 @@ from rich.console import Console
 import driftline
 from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
+from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, own_descriptor, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import rules_json, summary
 from driftline.emit.schemas.files import FORMATS, schema_file
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import OutputError, PolicyError
-from driftline.options import Config, ScanOptions
-from driftline.recommend import RecommendOptions, SchemaConflictError
+from driftline.recommendation import RecommendOptions, SchemaConflictError
 
 SCHEMA_HELP = """Recommend one schema for files and folders (or a saved scan report), with a cast
 rule per field and what each rule would null or change, counted by the scan.

@@ -23,15 +23,15 @@ import jinja2
 from markupsafe import Markup
 
 from driftline import __version__
-from driftline.drift import EVENT_KINDS, Event
+from driftline.core.marker import remark
 from driftline.emit import html_data as hd
 from driftline.emit import svg
 from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
-from driftline.marker import remark
-from driftline.profile import FieldSummary, Profile
-from driftline.report import limit_notes, partition_types
+from driftline.results.drift import EVENT_KINDS, Event
+from driftline.results.profile import FieldSummary, Profile
+from driftline.results.report import limit_notes, partition_types
 
 MAX_TABLE_ROWS = 2_000
 MAX_CHARTS = 60
@@ -115,7 +115,7 @@ def _tip(number: int, e: Event) -> str:
 def field_rules(profile: Profile) -> dict[str, FieldRule] | None:
     """The recommender's type, rule and measured loss per field path; None without the recommender."""
     try:
-        from driftline.recommend import recommend
+        from driftline.recommendation import recommend
     except ImportError:  # the report works without it, just without that column
         return None
     rec = recommend(profile)

@@ -13,9 +13,9 @@ import posixpath
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 
-from driftline.observe import paths
-from driftline.observe.observation import Observation
-from driftline.profile import Profile
+from driftline.core import paths
+from driftline.core.observation import Observation
+from driftline.results.profile import Profile
 
 MAX_BUCKETS = 96  # points on a timeline: about 10 px each on a 960 px chart
 MAX_COLUMNS = 40  # columns of a partition matrix

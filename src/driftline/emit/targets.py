@@ -29,9 +29,9 @@ import stat
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+from driftline.core.marker import carries_marker
 from driftline.emit.atomic import is_stdout, own_descriptor
 from driftline.errors import OutputError
-from driftline.marker import carries_marker
 
 Output = tuple[str, "str | os.PathLike[str] | None"]  # (option that names it, target)
 WRITE_INSIDE = "--write-inside"

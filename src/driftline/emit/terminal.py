@@ -11,11 +11,11 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from driftline.drift import Event
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
-from driftline.profile import FieldSummary, Profile
-from driftline.report import limit_notes, partition_types
+from driftline.results.drift import Event
+from driftline.results.profile import FieldSummary, Profile
+from driftline.results.report import limit_notes, partition_types
 
 MAX_EVENTS_SHOWN = 200
 MAX_ISSUES_SHOWN = 50

@@ -25,16 +25,16 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from driftline.documents import read_json_document
+from driftline.core import paths
+from driftline.core.documents import read_json_document
+from driftline.core.lattice import NULL, UNKNOWN, DType, join_all, parse_key, type_of_key
+from driftline.core.validation import check_document, check_json_schema, damaged
 from driftline.emit.schemas.rules_json import RULES_FORMAT, RULES_VERSION
 from driftline.errors import ReportVersionError, UnreadableFileError
-from driftline.lattice import NULL, UNKNOWN, DType, join_all, parse_key, type_of_key
-from driftline.observe import paths
-from driftline.profile import Profile
-from driftline.validation import check_document, check_json_schema, damaged
+from driftline.results.profile import Profile
 
 if TYPE_CHECKING:
-    from driftline.recommend.plan import Recommendation
+    from driftline.recommendation.plan import Recommendation
 
 # String content classes a JSON Schema format allows (observe/textclass.py names them).
 FORMAT_CLASSES: dict[str, frozenset[str]] = {
@@ -349,7 +349,7 @@ def load_baseline(path: str | Path) -> Baseline:
     source = repr(str(path))
     doc = read_json_document(path, "baseline", UnreadableFileError)
     if isinstance(doc, Mapping) and doc.get("format") == "driftline-report":
-        from driftline.report import from_dict
+        from driftline.results.report import from_dict
 
         return baseline_from_profile(from_dict(doc, source=source), source=source)
     if isinstance(doc, Mapping) and doc.get("format") == RULES_FORMAT:

@@ -5,7 +5,7 @@ is reported with the first file, partition, row and value that shows it, and cou
 over the whole scan. Each rule is a small function of the walk; RULE_CHECKS runs them in
 the order of policy.RULES.
 
->>> from driftline.profile import Profile
+>>> from driftline.results.profile import Profile
 >>> from driftline.gate.baseline import Baseline
 >>> compare(Profile("r", ()), Baseline("report", "b")).passed
 True
@@ -17,14 +17,14 @@ from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from types import MappingProxyType
 
+from driftline.core import paths
+from driftline.core.lattice import DType, family, join, join_all, parse_key, shallow, type_of_key, type_text
+from driftline.core.observation import TEXT_CLASS_TYPE, Observation
+from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
 from driftline.gate.baseline import NULL_CLASSES, Baseline, Expected
 from driftline.gate.policy import RULES, Policy
 from driftline.gate.verdict import RuleResult, Verdict, Violation
-from driftline.lattice import DType, family, join, join_all, parse_key, shallow, type_of_key, type_text
-from driftline.observe import paths
-from driftline.observe.observation import TEXT_CLASS_TYPE, Observation
-from driftline.observe.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
-from driftline.profile import Profile, container_count
+from driftline.results.profile import Profile, container_count
 
 # What a cast rule (recommend/rules.py names them) lets into its target besides values that
 # already fit: parse_* rules parse strings (judged by content class, as cast_loss); these

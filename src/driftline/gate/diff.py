@@ -3,8 +3,8 @@
 Both sides are views of fields (path → FieldSummary), so the same comparison serves two
 reports, two scanned paths, and partition after partition (Profile.by_partition).
 
->>> from driftline.observe.stats import FieldStats
->>> from driftline.profile import summarise
+>>> from driftline.core.stats import FieldStats
+>>> from driftline.results.profile import summarise
 >>> a = summarise({"x": FieldStats(types={"int64": 2})}, 2)
 >>> b = summarise({"x": FieldStats(types={"int64": 1, "float64": 1})}, 2)
 >>> [(c.kind, c.path, c.before, c.after) for c in diff_fields(a, b).changes]
@@ -20,13 +20,13 @@ from dataclasses import dataclass
 from rich.console import Console
 from rich.text import Text
 
+from driftline.core import paths
+from driftline.core.jsontypes import JSONObject
+from driftline.core.lattice import DType, join, join_all, type_of_key, type_text
+from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, SampleKey, class_sample, type_sample
 from driftline.emit.safe import safe_text
 from driftline.gate.baseline import NULL_CLASSES
-from driftline.jsontypes import JSONObject
-from driftline.lattice import DType, join, join_all, type_of_key, type_text
-from driftline.observe import paths
-from driftline.observe.stats import NULL_SAMPLE, Example, FieldStats, SampleKey, class_sample, type_sample
-from driftline.profile import FieldSummary, Profile
+from driftline.results.profile import FieldSummary, Profile
 
 # Kinds of change, in the order they are listed.
 DIFF_KINDS: dict[str, str] = {

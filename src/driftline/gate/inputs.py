@@ -17,13 +17,13 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-from driftline.conceal import conceal
+from driftline.core.options import ScanOptions
 from driftline.errors import InputPathError, OptionError
 from driftline.gate.diff import DEFAULT_NULL_POINTS, Diff, diff_fields, diff_partitions
-from driftline.options import ScanOptions
-from driftline.profile import Profile
-from driftline.report import load_report
-from driftline.scan import Progress, scan_paths
+from driftline.results.conceal import conceal
+from driftline.results.profile import Profile
+from driftline.results.report import load_report
+from driftline.scanning.run import Progress, scan_paths
 
 # report.to_dict writes "format" first; allow any whitespace a pretty-printer adds.
 _REPORT_HEAD = re.compile(rb'\A\s*\{\s*"format"\s*:\s*"driftline-report"')

@@ -21,9 +21,9 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Literal
 
+from driftline.core.jsontypes import JSONObject
+from driftline.core.validation import check_document, pointer
 from driftline.errors import InputPathError, PolicyError
-from driftline.jsontypes import JSONObject
-from driftline.validation import check_document, pointer
 
 Action = Literal["allow", "warn", "fail"]
 ACTIONS: tuple[str, ...] = ("allow", "warn", "fail")
@@ -175,7 +175,7 @@ def load_policy(path: str | Path) -> Policy:
         raise PolicyError(f"policy file {str(path)!r} is not UTF-8 text (byte {exc.start})") from None
     except tomllib.TOMLDecodeError as exc:
         raise PolicyError(f"policy file {str(path)!r} is not valid TOML: {exc}") from None
-    data.pop("output", None)  # the [output] table: how examples are shown (driftline.conceal.output_values)
+    data.pop("output", None)  # the [output] table: how examples are shown (driftline.results.conceal.output_values)
     tables = [k for k, v in data.items() if isinstance(v, dict)]
     if tables:
         raise PolicyError(

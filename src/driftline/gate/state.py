@@ -33,18 +33,18 @@ from typing import Any
 import orjson
 
 from driftline import __version__
-from driftline.documents import pointer_at
+from driftline.core.documents import pointer_at
+from driftline.core.options import ScanOptions
+from driftline.core.validation import check_document, damaged
 from driftline.emit.atomic import write_output
 from driftline.emit.targets import check_targets
 from driftline.errors import DamagedFileError, InputPathError, ReportVersionError
 from driftline.observe import jsonnum
-from driftline.options import ScanOptions
-from driftline.profile import Profile
-from driftline.report import file_from_json, file_json, files_from_json
-from driftline.scan import Progress, scan_paths
+from driftline.results.profile import Profile
+from driftline.results.report import file_from_json, file_json, files_from_json
+from driftline.scanning.run import Progress, scan_paths
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef
-from driftline.validation import check_document, damaged
 
 STATE_FORMAT = "driftline-state"
 STATE_VERSION = 1
@@ -183,7 +183,7 @@ def scan_incremental(
     """Scan paths reading only files the state does not hold unchanged; then save the state.
 
     options says how (read, when given, replaces its read options; the flat keywords of
-    driftline.options.ScanKeywords apply over both).
+    driftline.core.options.ScanKeywords apply over both).
 
     >>> import tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')

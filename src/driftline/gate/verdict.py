@@ -16,10 +16,10 @@ from rich.console import Console
 from rich.text import Text
 
 from driftline import __version__
+from driftline.core.jsontypes import JSONObject
+from driftline.core.marker import remark
 from driftline.emit.safe import safe_text
 from driftline.gate.policy import RULES
-from driftline.jsontypes import JSONObject
-from driftline.marker import remark
 
 VERDICT_FORMAT = "driftline-verdict"
 VERDICT_VERSION = 1

@@ -13,9 +13,9 @@ from typing import Any
 import orjson
 import pyarrow as pa
 
-from driftline.observe import paths
-from driftline.observe.observation import Observation
-from driftline.observe.stats import (
+from driftline.core import paths
+from driftline.core.observation import Observation
+from driftline.core.stats import (
     NULL_SAMPLE,
     SAMPLES_PER_KEY,
     Example,

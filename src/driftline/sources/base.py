@@ -6,16 +6,16 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-from driftline.dataformat import Compression, Format
+from driftline.core.dataformat import Compression, Format
+from driftline.core.dialectpin import parse_pin
+from driftline.core.observation import Observation
+from driftline.core.stats import pickled_by_fields
 from driftline.errors import OptionError, PolicyError
-from driftline.observe.observation import Observation
-from driftline.observe.stats import pickled_by_fields
 from driftline.sources.dialect import Dialect
-from driftline.sources.dialectpin import parse_pin
 
 if TYPE_CHECKING:
     from driftline.sources.encoding import TextEncoding
-from driftline.ranges import check
+from driftline.core.ranges import check
 
 DEFAULT_BATCH_ROWS = 65_536
 DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024

@@ -17,9 +17,9 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pcsv
 
-from driftline.observe.columnar import observe_table
-from driftline.observe.observation import Observation
-from driftline.observe.valuebytes import value_view
+from driftline.core.observation import Observation
+from driftline.observe.fast.columnar import observe_table
+from driftline.observe.fast.valuebytes import value_view
 from driftline.sources.base import FileIssue, ReadOptions
 from driftline.sources.dialect import (
     ROW_NAME_COLUMN,

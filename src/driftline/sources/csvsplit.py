@@ -32,12 +32,12 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.csv as pcsv
 
-from driftline.observe.observation import Observation
-from driftline.observe.strprofile import exact_requested
+from driftline.core.fileref import FileRef, file_changed
+from driftline.core.observation import Observation
+from driftline.observe.fast.strprofile import exact_requested
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import CsvState, Header, Rebatch, arrow_options, head_of
 from driftline.sources.encoding import file_encoding
-from driftline.sources.fileref import FileRef, file_changed
 from driftline.sources.linecount import has_lone_cr
 from driftline.sources.native import hand, hand_bytes
 

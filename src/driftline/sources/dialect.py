@@ -32,7 +32,7 @@ from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
-from driftline.sources.dialectpin import PIN_KEYS, Pin, parse_pin, pin_for
+from driftline.core.dialectpin import PIN_KEYS, Pin, parse_pin, pin_for
 
 __all__ = ["Dialect", "Finding", "Pin", "find_dialect", "header_votes", "parse_pin", "pin_for", "positional_name"]
 

@@ -1,6 +1,6 @@
 """Discovery: user paths and globs → a sorted, deduplicated list of FileRef.
 
-Normalises user input once at the edge; the rest of the scan only sees FileRef (sources/fileref.py,
+Normalises user input once at the edge; the rest of the scan only sees FileRef (core/fileref.py,
 re-exported here).
 """
 
@@ -13,9 +13,9 @@ import stat
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 
+from driftline.core.fileref import FileRef
+from driftline.core.marker import OWN_OUTPUT, carries_marker
 from driftline.errors import InputPathError
-from driftline.marker import OWN_OUTPUT, carries_marker
-from driftline.sources.fileref import FileRef
 from driftline.sources.formats import detect_compression
 from driftline.sources.registry import detect_format, skip_reason
 

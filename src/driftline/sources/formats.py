@@ -14,7 +14,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any, BinaryIO
 
-from driftline.dataformat import Compression
+from driftline.core.dataformat import Compression
 from driftline.sources.base import RATIO_FLOOR_BYTES
 
 COMPRESSION_BY_SUFFIX: dict[str, Compression] = {

@@ -12,11 +12,11 @@ from typing import Any, BinaryIO
 
 import orjson
 
+from driftline.core.observation import Observation
 from driftline.observe import jsonnum
-from driftline.observe.jsonbatch import observe_json_lines
-from driftline.observe.observation import Observation
+from driftline.observe.fast.jsonbatch import observe_json_lines
+from driftline.observe.fast.strprofile import EXACT_ENV, exact_requested  # noqa: F401 - EXACT_ENV re-exported
 from driftline.observe.records import observe_records
-from driftline.observe.strprofile import EXACT_ENV, exact_requested  # noqa: F401 - EXACT_ENV re-exported
 from driftline.sources.base import FileIssue, ReadOptions
 
 _CHUNK = 4 * 1024 * 1024

@@ -16,12 +16,12 @@ from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
-from driftline.observe.observation import Observation
+from driftline.core.fileref import FileRef
+from driftline.core.observation import Observation
+from driftline.observe.thinning import Thinner, concat_blocks
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.encoding import file_encoding
-from driftline.sources.fileref import FileRef
 from driftline.sources.jsonfile import read_jsonl
-from driftline.thinning import Thinner, concat_blocks
 
 SPLIT_MIN_BYTES = 48 * 2**20  # smaller files are one task: a range must outweigh its set-up
 _SCAN_CHUNK = 16 * 2**20

@@ -25,7 +25,7 @@ from typing import Any, BinaryIO
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from driftline.observe.valuebytes import value_view
+from driftline.observe.fast.valuebytes import value_view
 from driftline.sources.base import FileIssue
 
 # A blank line for Arrow's CSV reader, found by the line feed before it: an empty line (or one

@@ -13,9 +13,9 @@ from collections.abc import Iterator
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from driftline.lattice import from_arrow, unsupported_reason
-from driftline.observe import paths
-from driftline.observe.bulk import Batch
+from driftline.core import paths
+from driftline.core.lattice import from_arrow, unsupported_reason
+from driftline.observe.fast.bulk import Batch
 from driftline.sources.base import RATIO_FLOOR_BYTES, FileIssue, ReadOptions
 
 Item = Batch | FileIssue | dict

@@ -10,18 +10,18 @@ from typing import Any
 
 import pyarrow as pa
 
-from driftline import thinning
-from driftline.observe.bulk import Batch, observe_batches
-from driftline.observe.observation import Observation
+from driftline.core.fileref import FileRef, file_changed
+from driftline.core.observation import Observation
+from driftline.observe import thinning
+from driftline.observe.fast.bulk import Batch, observe_batches
+from driftline.observe.thinning import Thinner, thin
 from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.dialect import Dialect
 from driftline.sources.encoding import TextEncoding, TextStream
-from driftline.sources.fileref import FileRef, file_changed
 from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
 from driftline.sources.linecount import LineTally, jsonl_issue
 from driftline.sources.registry import SPECS, FormatSpec
 from driftline.sources.remote import ObjectVersion, object_changed, open_random_pinned, open_stream_pinned
-from driftline.thinning import Thinner, thin
 
 
 class _SafeStream(CountingRaw):
@@ -76,7 +76,7 @@ def read_values(ref: FileRef, batch_rows: int) -> Iterator[list[Any] | pa.Record
         yield from spec.values(TextStream(stream, spec.json_text).stream, ref.rel, opts)
 
 
-_LARGEST_BATCH = 2**30  # batch_bytes never ends a batch of values before batch_rows does (ranges.py's highest)
+_LARGEST_BATCH = 2**30  # batch_bytes never ends a batch of values before batch_rows does (core/ranges.py's highest)
 
 
 def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileResult:

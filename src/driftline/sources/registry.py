@@ -16,12 +16,12 @@ from typing import Any, BinaryIO
 
 import pyarrow as pa
 
-from driftline.dataformat import Format
+from driftline.core.dataformat import Format
+from driftline.core.fileref import FileRef
 from driftline.sources import csvsplit, jsonsplit
 from driftline.sources.base import ReadOptions
 from driftline.sources.csvfile import read_csv, read_csv_cells
 from driftline.sources.encoding import decide
-from driftline.sources.fileref import FileRef
 from driftline.sources.formats import data_extension, decode_errors, detect_compression, head_bytes, open_stream
 from driftline.sources.jsonfile import read_json, read_json_values, read_jsonl
 from driftline.sources.parquetfile import has_parquet_magic, read_parquet, read_parquet_values

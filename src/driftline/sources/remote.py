@@ -31,11 +31,11 @@ from dataclasses import dataclass
 from typing import Any, BinaryIO
 from urllib.parse import parse_qsl, quote, unquote, urlencode
 
-from driftline.dataformat import Compression, Format
+from driftline.core.dataformat import Compression, Format
+from driftline.core.fileref import REMOTE_SCHEMES
+from driftline.core.partitions import Condition, folder_passes, partitions_pass
 from driftline.errors import DriftlineError, InputPathError
-from driftline.partitions import Condition, folder_passes, partitions_pass
 from driftline.sources.discover import Discovery, FileRef, Skipped, partition_values
-from driftline.sources.fileref import REMOTE_SCHEMES
 from driftline.sources.formats import CountingRaw, IgnoredTail, detect_compression, wrap_stream
 from driftline.sources.registry import FORMAT_BY_SUFFIX, detect_format, skip_reason
 

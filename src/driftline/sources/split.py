@@ -10,9 +10,9 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
+from driftline.core.fileref import FileRef
 from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.encoding import file_encoding
-from driftline.sources.fileref import FileRef
 from driftline.sources.readers import read_file
 from driftline.sources.registry import SPECS, Splitter
 

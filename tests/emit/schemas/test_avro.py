@@ -23,8 +23,8 @@ import pytest
 import driftline
 from _orders import make_orders
 from driftline.emit.schemas.avro import avro_datum, avro_name, avro_schema
-from driftline.recommend.apply import apply
-from driftline.recommend.raw import raw_batches
+from driftline.recommendation.apply import apply
+from driftline.recommendation.raw import raw_batches
 
 NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 

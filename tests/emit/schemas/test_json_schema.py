@@ -15,12 +15,12 @@ from jsonschema import Draft202012Validator, SchemaError
 
 import driftline
 from _orders import make_orders
+from driftline.core.lattice import parse_key
 from driftline.emit.schemas.json_schema import META_SCHEMA, json_schema
 from driftline.gate.baseline import baseline_from_json_schema
-from driftline.lattice import parse_key
-from driftline.recommend import Recommendation
-from driftline.recommend.apply import apply
-from driftline.recommend.raw import iter_records, json_value, raw_batches
+from driftline.recommendation import Recommendation
+from driftline.recommendation.apply import apply
+from driftline.recommendation.raw import iter_records, json_value, raw_batches
 
 ALLOWED = {
     "type",

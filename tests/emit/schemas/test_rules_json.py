@@ -12,10 +12,10 @@ from jsonschema import Draft202012Validator
 import driftline
 from _orders import make_orders
 from conftest import ROOT
+from driftline.core import paths
 from driftline.emit.schemas.rules_json import dumps, load_rules, rules_document
 from driftline.errors import ReportVersionError
-from driftline.observe import paths
-from driftline.recommend import CAUSES, REGISTRY
+from driftline.recommendation import CAUSES, REGISTRY
 
 DOC_SCHEMA = json.loads((ROOT / "docs" / "rules.schema.json").read_text())
 

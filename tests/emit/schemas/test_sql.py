@@ -19,9 +19,9 @@ import pytest
 import driftline
 from _orders import make_orders
 from driftline.emit.schemas import sql
-from driftline.recommend import Recommendation
-from driftline.recommend.apply import apply
-from driftline.recommend.raw import raw_batches
+from driftline.recommendation import Recommendation
+from driftline.recommendation.apply import apply
+from driftline.recommendation.raw import raw_batches
 
 
 @pytest.fixture(scope="module")

@@ -27,12 +27,12 @@ from typer.testing import CliRunner
 import driftline
 from conftest import ROOT, import_test_module
 from driftline.cli import app
-from driftline.lattice import from_arrow
-from driftline.observe import columnar
-from driftline.observe.bulk import Batch, observe_batches
-from driftline.observe.columnar import observe_table
-from driftline.observe.stats import NULL_SAMPLE, type_sample
-from driftline.report import to_dict
+from driftline.core.lattice import from_arrow
+from driftline.core.stats import NULL_SAMPLE, type_sample
+from driftline.observe.fast import columnar
+from driftline.observe.fast.bulk import Batch, observe_batches
+from driftline.observe.fast.columnar import observe_table
+from driftline.results.report import to_dict
 
 D = decimal.Decimal
 U1, U2 = uuid.UUID("f81d4fae-7dec-11d0-a765-00a0c91e6bf6"), uuid.UUID("00000000-0000-0000-0000-000000000001")
@@ -462,8 +462,8 @@ def _as_plain(arr: pa.Array) -> pa.Array:
 
 @pytest.mark.parametrize(("name", "arr"), [c[:2] for c in CASES], ids=[c[0] for c in CASES])
 def test_apply_casts_each_type_into_the_schema_it_recommends(tmp_path: Path, name: str, arr: pa.Array) -> None:
-    from driftline.recommend.apply import apply
-    from driftline.recommend.raw import raw_batches
+    from driftline.recommendation.apply import apply
+    from driftline.recommendation.raw import raw_batches
 
     folder = _write(tmp_path, name, arr)
     rec = driftline.scan(folder).recommend()
@@ -548,7 +548,7 @@ def test_check_passes_every_type_against_its_own_schema(every_type: Path, tmp_pa
 def test_an_infinite_float_extreme_survives_the_report(tmp_path: Path) -> None:
     # source: RFC 8259 section 6 (no Infinity in JSON); IEEE 754 binary64: 1e308 * 10 overflows to inf
     import driftline
-    from driftline.report import dumps, load_report
+    from driftline.results.report import dumps, load_report
 
     pq.write_table(pa.table({"x": pa.array([1.5, float("inf"), float("-inf")], pa.float64())}), tmp_path / "a.parquet")
     out = tmp_path / "r.json"

@@ -10,11 +10,11 @@ from pathlib import Path
 import pyarrow as pa
 import pytest
 
-from driftline.observe.bulk import Batch, observe_batches
-from driftline.observe.columnar import observe_table
-from driftline.observe.stats import class_sample
-from driftline.profile import Profile
-from driftline.report import to_dict
+from driftline.core.stats import class_sample
+from driftline.observe.fast.bulk import Batch, observe_batches
+from driftline.observe.fast.columnar import observe_table
+from driftline.results.profile import Profile
+from driftline.results.report import to_dict
 
 # Values at the edges the statistics care about, each with its source.
 _FLOATS = [
@@ -205,7 +205,7 @@ def _landing(root: Path) -> Path:
 
 
 def test_grouped_reading_equals_file_by_file(tmp_path: Path) -> None:
-    from driftline.scan import scan_paths
+    from driftline.scanning.run import scan_paths
     from driftline.sources.base import ReadOptions
     from driftline.sources.discover import discover
     from driftline.sources.readers import read_file
@@ -236,7 +236,7 @@ def _report(profile: Profile) -> dict:
 
 
 def test_max_errors_stops_at_the_same_file_with_and_without_a_pool(tmp_path: Path) -> None:
-    from driftline.scan import scan_paths
+    from driftline.scanning.run import scan_paths
 
     root = _landing(tmp_path)
     serial, pooled = (scan_paths([root], jobs=jobs, max_errors=1) for jobs in (1, 2))

@@ -12,7 +12,7 @@ from typing import Any
 
 import pytest
 
-from driftline.observe import jsonbatch
+from driftline.observe.fast import jsonbatch
 from driftline.observe.records import observe_records
 
 

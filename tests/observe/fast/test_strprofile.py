@@ -17,8 +17,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from driftline.observe import strprofile
-from driftline.observe.strprofile import StringProfile, string_profile
+from driftline.observe.fast import strprofile
+from driftline.observe.fast.strprofile import StringProfile, string_profile
 from driftline.observe.textclass import CLASSES, class_of
 
 SETTINGS = settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -219,7 +219,7 @@ def test_digit_strings_that_repeat(extra: str | None) -> None:
 def test_value_bytes_of_slices(typ: pa.DataType) -> None:
     # source: Arrow columnar format, variable-size binary layout (offsets into one data buffer;
     # a slice keeps the buffers and moves its offset)
-    from driftline.observe.valuebytes import value_bytes
+    from driftline.observe.fast.valuebytes import value_bytes
 
     arr = pa.array(["ab", "", None, "cde", "f"], typ)
     assert value_bytes(arr) == b"abcdef"

@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import pyarrow as pa
 
-from driftline.marker import remark
-from driftline.recommend.arrow import target_schema
-from driftline.recommend.plan import Recommendation
+from driftline.core.marker import remark
+from driftline.recommendation.arrow import target_schema
+from driftline.recommendation.plan import Recommendation
 
 
 def ipc_bytes(rec: Recommendation) -> bytes:

@@ -25,9 +25,9 @@ import orjson
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from driftline.lattice import DType
-from driftline.marker import remark
-from driftline.recommend.plan import FieldPlan, Recommendation
+from driftline.core.lattice import DType
+from driftline.core.marker import remark
+from driftline.recommendation.plan import FieldPlan, Recommendation
 
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 _TIMESTAMP = {"s": "millis", "ms": "millis", "us": "micros", "ns": "nanos"}
@@ -112,7 +112,7 @@ _UNIT_NAMES = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns":
 def stand_in(t: DType) -> str | None:
     """What a plain Avro type stands in for, when Avro has no logical type of t's meaning.
 
-    >>> from driftline.lattice import parse_key
+    >>> from driftline.core.lattice import parse_key
     >>> print(stand_in(parse_key("duration[s]")))
     duration[s] as a long count of seconds (Avro's duration logical type counts months, days and milliseconds)
     """
@@ -176,7 +176,7 @@ def avro_schema(rec: Recommendation, *, name: str = "record", namespace: str | N
 def _schema(rec: Recommendation, name: str, namespace: str | None) -> tuple[dict[str, Any], _Names]:
     names = _Names()
     top = names.record(name)
-    # "doc" first, so that a scan knows its own output from the first bytes (driftline.marker).
+    # "doc" first, so that a scan knows its own output from the first bytes (driftline.core.marker).
     out: dict[str, Any] = {
         "doc": remark(f"records of {rec.root}, as recommended by driftline"),
         "type": "record",

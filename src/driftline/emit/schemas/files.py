@@ -15,7 +15,7 @@ from driftline.emit.atomic import write_output
 from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json
 from driftline.emit.schemas import sql as sql_file
 from driftline.errors import OptionError
-from driftline.recommend.plan import JsonMode, OutputFormat, Recommendation, SchemaFormat
+from driftline.recommendation.plan import JsonMode, OutputFormat, Recommendation, SchemaFormat
 
 #: The formats of --to, in the order --help lists them.
 FORMATS: tuple[SchemaFormat, ...] = get_args(SchemaFormat)
@@ -24,7 +24,7 @@ FORMATS: tuple[SchemaFormat, ...] = get_args(SchemaFormat)
 def default_name(rec: Recommendation) -> str:
     """The table (SQL), record (Avro) and title (JSON Schema) name when none is given: the root folder's.
 
-    >>> from driftline.recommend.options import RecommendOptions
+    >>> from driftline.recommendation.options import RecommendOptions
     >>> default_name(Recommendation("/data/landing", 0, 0, (), RecommendOptions()))
     'landing'
     """

@@ -25,11 +25,11 @@ from typing import Any, Literal
 
 import orjson
 
-from driftline.lattice import DType, parse_key
-from driftline.marker import remark
-from driftline.observe import paths
-from driftline.observe.observation import TEXT_CLASS_TYPE
-from driftline.recommend.plan import FieldPlan, Recommendation
+from driftline.core import paths
+from driftline.core.lattice import DType, parse_key
+from driftline.core.marker import remark
+from driftline.core.observation import TEXT_CLASS_TYPE
+from driftline.recommendation.plan import FieldPlan, Recommendation
 
 META_SCHEMA = "https://json-schema.org/draft/2020-12/schema"
 Mode = Literal["permissive", "strict"]
@@ -180,7 +180,7 @@ def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | 
     fields = [p for p in rec.fields if p is not bare]
     required = [p.name for p in fields if p.required]
     out: dict[str, Any] = {
-        # First, so that a scan knows its own output from the first bytes (driftline.marker).
+        # First, so that a scan knows its own output from the first bytes (driftline.core.marker).
         "$comment": remark(
             f"driftline schema, {mode} mode: "
             + (

@@ -12,11 +12,11 @@ from typing import Any
 import orjson
 
 from driftline import __version__
-from driftline.documents import read_json_document
+from driftline.core import paths
+from driftline.core.documents import read_json_document
+from driftline.core.validation import check_document
 from driftline.errors import ReportVersionError
-from driftline.observe import paths
-from driftline.recommend.plan import FieldPlan, Recommendation
-from driftline.validation import check_document
+from driftline.recommendation.plan import FieldPlan, Recommendation
 
 RULES_FORMAT = "driftline-rules"
 RULES_VERSION = 1

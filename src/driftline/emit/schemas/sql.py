@@ -27,12 +27,12 @@ from typing import Any
 import orjson
 import pyarrow as pa
 
-from driftline.lattice import DType
-from driftline.marker import remark
+from driftline.core.lattice import DType
+from driftline.core.marker import remark
 from driftline.observe.textclass import INT64_MAX, INT64_MIN, NULL_TOKENS
-from driftline.recommend.options import zone_is_fixed
-from driftline.recommend.plan import FieldPlan, Recommendation
-from driftline.recommend.raw import json_text, jsonable, plain_value
+from driftline.recommendation.options import zone_is_fixed
+from driftline.recommendation.plan import FieldPlan, Recommendation
+from driftline.recommendation.raw import json_text, jsonable, plain_value
 
 MAX_DECIMAL = 38
 JSON_TEXT_RULES = frozenset({"keep_as_json_text", "wrap_scalar_in_list"})
@@ -130,7 +130,7 @@ UNIT_NAMES = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns": 
 def stand_in(t: DType) -> str | None:
     """What the SQL type of a target stands in for, when portable SQL cannot name the type itself.
 
-    >>> from driftline.lattice import parse_key
+    >>> from driftline.core.lattice import parse_key
     >>> print(stand_in(parse_key("duration[ns]")))
     duration[ns] as BIGINT, a count of nanoseconds: portable SQL has no interval of one fixed unit
     """

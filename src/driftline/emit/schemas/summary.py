@@ -14,10 +14,10 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
+from driftline.core.stats import Example
 from driftline.emit.safe import safe_text
-from driftline.observe.stats import Example
-from driftline.recommend.plan import CAUSES, Effect, FieldPlan, Recommendation
-from driftline.recommend.rules import describe_inputs
+from driftline.recommendation.plan import CAUSES, Effect, FieldPlan, Recommendation
+from driftline.recommendation.rules import describe_inputs
 
 MAX_RULES_SHOWN = 200
 

@@ -1,0 +1,427 @@
+"""Apply the cast rules to raw Arrow batches with pyarrow.compute, counting what each rule does.
+
+apply() takes one batch of variant columns (raw.py) and returns a batch of exactly the
+recommended Arrow schema. Each rule's step is a real cast: a string is judged by the
+grammar of the classes the rule accepts and then cast by pyarrow; a value the cast
+rejects becomes null and is counted 'unparsed'. The Tally it fills holds, per field path
+and cause, the counts the recommendation predicted from the profile alone.
+
+>>> import driftline, tempfile, pathlib
+>>> from driftline.recommendation.raw import raw_batches
+>>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"v": 1.5}\\n{"v": "n/a"}\\n')
+>>> rec = driftline.scan(d).recommend()
+>>> tally = Tally()
+>>> out = [apply(b.batch, rec, tally=tally) for b in raw_batches(d)]
+>>> out[0].column("v").to_pylist(), tally.counts["v"]
+([1.5, None], {'null_token': 1, 'nulled': 1})
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from driftline.core.lattice import DType, to_arrow
+from driftline.observe import textclass as tc
+from driftline.recommendation.arrow import arrow_field, arrow_type, target_schema
+from driftline.recommendation.plan import FieldPlan, Recommendation
+from driftline.recommendation.raw import TEXT, json_text, jsonable, plain_value
+
+SAFE_INT = 2**53 - 1  # RFC 7493 §2.2
+_UNIT_DIGITS = {"s": 0, "ms": 3, "us": 6, "ns": 9}
+_CLASS_RE = {
+    "date": tc.DATE_RE,
+    "timestamp_rfc3339": tc.TIMESTAMP_RFC3339_RE,
+    "timestamp_offset": tc.TIMESTAMP_OFFSET_RE,
+    "timestamp_local": tc.TIMESTAMP_LOCAL_RE,
+}
+# Measured on the cast's input and output, not taken from the classes: a positional numeral
+# with a zero before another digit, which no number's text has (a float form such as 00e5 is
+# read for its value alone); and an input that is not infinity (or zero) itself.
+_LEADING_ZERO = r"^-?0[0-9]+(?:\.[0-9]+)?$"
+_SPECIAL = r"^-?[IiNn]"
+_NONZERO_MANTISSA = r"^-?[0-9]*\.?[0-9]*[1-9]"
+_ZONED = ("timestamp_rfc3339", "timestamp_offset")
+_TOKENS = pa.array(sorted(tc.NULL_TOKENS), pa.string())
+_NESTED = ("struct", "list", "map")
+
+
+@dataclass
+class Tally:
+    """Counts measured while casting: path → cause → count.
+
+    'nulled' is measured apart from the causes: values that were not null before the
+    cast and are null after it.
+    """
+
+    counts: dict[str, dict[str, int]] = field(default_factory=dict)
+
+    def add(self, path: str, cause: str, n: int) -> None:
+        if n:
+            per = self.counts.setdefault(path, {})
+            per[cause] = per.get(cause, 0) + int(n)
+
+    def get(self, path: str, cause: str) -> int:
+        return self.counts.get(path, {}).get(cause, 0)
+
+
+class SchemaMismatch(ValueError):
+    """The data holds a kind the recommendation never saw (the profile is of other data)."""
+
+
+# -- small helpers ----------------------------------------------------------------------------
+
+
+def _true(mask: pa.Array) -> int:
+    return int(pc.sum(pc.cast(mask, pa.int64())).as_py() or 0) if len(mask) else 0
+
+
+def _forms(variant: pa.Array) -> dict[str, pa.Array]:
+    """The children of a variant, with the variant's own nulls applied."""
+    if not isinstance(variant, pa.StructArray) or not variant.type.num_fields:
+        return {}
+    return {variant.type.field(i).name: child for i, child in enumerate(variant.flatten())}
+
+
+def _valid_any(forms: dict[str, pa.Array], n: int) -> pa.Array:
+    out = pa.repeat(False, n)
+    for arr in forms.values():
+        out = pc.or_(out, pc.is_valid(arr))
+    return out
+
+
+def _null_where(arr: pa.Array, mask: pa.Array) -> pa.Array:
+    return pc.if_else(mask, pa.nulls(len(arr), arr.type), arr)
+
+
+def _try_cast(values: pa.Array, target: pa.DataType) -> pa.Array:
+    """pc.cast, with the values it rejects as null (found by bisecting the failing range)."""
+    try:
+        return pc.cast(values, target)
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        pass
+    bad: list[int] = []
+    stack = [(0, len(values))]
+    while stack:
+        lo, hi = stack.pop()
+        try:
+            pc.cast(values.slice(lo, hi - lo), target)
+            continue
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            pass
+        if hi - lo == 1:
+            bad.append(lo)
+        else:
+            mid = (lo + hi) // 2
+            stack += [(lo, mid), (mid, hi)]
+    mask = pc.is_in(pa.array(range(len(values)), pa.int64()), value_set=pa.array(bad, pa.int64()))
+    return pc.cast(_null_where(values, mask), target)
+
+
+def _accepted(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
+    """Values of the classes a rule parses, exactly as the scan classed them (textclass.class_masks)."""
+    wanted = set(classes)
+    out = pa.repeat(False, len(arr))
+    if not wanted:
+        return out
+    for name, mask in tc.class_masks(arr).items():
+        if name in wanted:
+            out = pc.or_(out, mask)
+    return out
+
+
+def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally) -> None:
+    """Count what a number cast did beyond parsing: leading zeros dropped, values beyond float64."""
+    parsed = pc.is_valid(out)
+    zeros = pc.fill_null(pc.match_substring_regex(arr, _LEADING_ZERO), False)
+    tally.add(path, "leading_zeros", _true(pc.and_(parsed, zeros)))
+    if not pa.types.is_floating(out.type):
+        return
+    finite_text = pc.invert(pc.fill_null(pc.match_substring_regex(arr, _SPECIAL), False))
+    inf = pc.and_(pc.fill_null(pc.is_inf(out), False), finite_text)
+    nonzero = pc.fill_null(pc.match_substring_regex(arr, _NONZERO_MANTISSA), False)
+    zero = pc.and_(pc.fill_null(pc.equal(out, 0.0), False), nonzero)
+    tally.add(path, "out_of_range", _true(pc.or_(inf, zero)))
+
+
+def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
+    body = "|".join(f"(?:{_CLASS_RE[c]})" for c in sorted(classes) if c in _CLASS_RE)
+    if not body:
+        return pa.repeat(False, len(arr))
+    return pc.fill_null(pc.match_substring_regex(arr, f"^(?:{body})$"), False)
+
+
+# -- strings ----------------------------------------------------------------------------------
+
+
+def _timestamps(arr: pa.Array, ok: pa.Array, plan: FieldPlan, t: DType, tally: Tally) -> pa.Array:
+    """Cast timestamp-shaped strings; leap seconds, lower case and long fractions first."""
+    assert t.unit is not None
+    path = plan.path
+    rfc = _matches(arr, ["timestamp_rfc3339"])
+    lower = pc.and_(rfc, pc.fill_null(pc.match_substring_regex(arr, "[tz]"), False))
+    arr = pc.if_else(lower, pc.ascii_upper(arr), arr)
+    stamp = _matches(arr, ["timestamp_rfc3339", "timestamp_offset", "timestamp_local"])
+    leap = pc.and_(stamp, pc.fill_null(pc.equal(pc.utf8_slice_codeunits(arr, 17, 19), "60"), False))
+    arr = pc.if_else(leap, pc.utf8_replace_slice(arr, 17, 19, "59"), arr)
+    u = _UNIT_DIGITS[t.unit]
+    # Digits past the unit are cut; a value changes only when one of them is not 0.
+    cut = pc.and_(stamp, pc.fill_null(pc.match_substring_regex(arr, rf"\.[0-9]{{{u}}}[0-9]*[1-9]"), False))
+    arr = pc.replace_substring_regex(arr, rf"(\.[0-9]{{{u}}})[0-9]+" if u else r"\.[0-9]+", r"\1" if u else "")
+    zoned = _matches(arr, _ZONED)
+    local = pc.and_(ok, pc.invert(zoned))
+    out_type = to_arrow(t)
+    naive = _try_cast(_null_where(arr, pc.invert(local)), pa.timestamp(t.unit))
+    if t.tz:
+        instants = _try_cast(_null_where(arr, pc.invert(pc.and_(ok, zoned))), pa.timestamp(t.unit, "UTC"))
+        naive_valid = pc.is_valid(naive)
+        naive = pc.assume_timezone(naive, t.tz, ambiguous="earliest", nonexistent="earliest")
+        tally.add(path, "assumed_zone", _true(naive_valid))
+        out = pc.coalesce(pc.cast(instants, out_type), pc.cast(naive, out_type))
+    else:
+        out = pc.cast(naive, out_type)
+    parsed = pc.is_valid(out)
+    tally.add(path, "lowercase", _true(pc.and_(lower, parsed)))
+    tally.add(path, "leap_second", _true(pc.and_(leap, parsed)))
+    tally.add(path, "truncated", _true(pc.and_(cut, parsed)))
+    return out
+
+
+def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Array:
+    """Strings (source 'string') or CSV cells ('text') by the rule's grammar, then cast."""
+    t = plan.target
+    path, params = plan.path, plan.params
+    out_type = to_arrow(t)
+    trimmed = pc.utf8_trim_whitespace(arr)
+    if params.get("tokens", {}).get(source) == "null":
+        token = pc.fill_null(pc.is_in(pc.ascii_lower(trimmed), value_set=_TOKENS), False)
+        tally.add(path, "null_token", _true(token))
+        arr = _null_where(arr, token)
+    if t.name == "string":
+        return arr if arr.type == out_type else pc.cast(arr, out_type)
+    if source == "string" and params.get("empty") == "null":
+        blank = pc.fill_null(pc.equal(pc.utf8_length(trimmed), 0), False)
+        tally.add(path, "empty", _true(pc.and_(blank, pc.is_valid(arr))))
+        arr = _null_where(arr, blank)
+    accept = params.get("accept", [])
+    ok = pc.and_(pc.is_valid(arr), _accepted(arr, accept))
+    if t.name == "timestamp":
+        out = _timestamps(arr, ok, plan, t, tally)
+    else:
+        out = _try_cast(_null_where(arr, pc.invert(ok)), out_type)
+        if t.name.startswith(("int", "uint", "float")) or t.name == "decimal":
+            _number_changes(arr, out, path, tally)
+    tally.add(path, "unparsed", _true(pc.and_(pc.is_valid(arr), pc.is_null(out))))
+    return out
+
+
+# -- typed values -----------------------------------------------------------------------------
+
+
+def _typed(arr: pa.Array, key: str, plan: FieldPlan, tally: Tally) -> pa.Array:
+    t, path = plan.target, plan.path
+    out_type = to_arrow(t)
+    valid = _true(pc.is_valid(arr))
+    if t.name == "string":
+        tally.add(path, "as_text", valid)
+        return pc.cast(arr, out_type)
+    src = arr.type
+    if t.name.startswith("float") and pa.types.is_integer(src):
+        beyond = pc.greater(pc.abs(pc.cast(arr, pa.decimal128(20, 0))), SAFE_INT)
+        tally.add(path, "unsafe_int", _true(pc.fill_null(beyond, False)))
+        out = pc.cast(arr, out_type, safe=False)
+        # Measured apart: how many really changed (2**53 + 2 survives, 2**53 + 1 does not).
+        back = pc.cast(out, pa.decimal128(38, 0), safe=False)
+        changed = pc.not_equal(back, pc.cast(arr, pa.decimal128(38, 0)))
+        tally.add(path, "unsafe_int:changed", _true(pc.fill_null(changed, False)))
+        return out
+    if t.name.startswith("float") and pa.types.is_decimal(src) and src.scale == 0:
+        # Integers as decimal(N,0) (JSON literals past uint64, or a Parquet column): as for int64.
+        beyond = pc.greater(pc.abs(arr), pa.scalar(SAFE_INT, pa.int64()))
+        tally.add(path, "unsafe_int", _true(pc.fill_null(beyond, False)))
+        out = pc.cast(arr, out_type, safe=False)
+        back = pc.cast(out, src, safe=False)
+        tally.add(path, "unsafe_int:changed", _true(pc.fill_null(pc.not_equal(back, arr), False)))
+        return out
+    if t.name == "timestamp" and t.tz and (pa.types.is_date(src) or pa.types.is_timestamp(src) and not src.tz):
+        naive = pc.cast(arr, pa.timestamp(t.unit))
+        tally.add(path, "assumed_zone", valid)
+        return pc.cast(pc.assume_timezone(naive, t.tz, ambiguous="earliest", nonexistent="earliest"), out_type)
+    # decimal → float64 rounds by design (the 'rounded' effect); every other cast is safe.
+    return pc.cast(arr, out_type, safe=not (t.name.startswith("float") and pa.types.is_decimal(src)))
+
+
+# -- one plan ---------------------------------------------------------------------------------
+
+
+def _scalar(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
+    if plan.target.name == "null":  # only nulls were seen; a typed column of nulls stays null
+        for key in ("string", TEXT):  # ... or tokens: a CSV column of 'n/a' maps them
+            if key in forms and plan.params.get("tokens", {}).get("text" if key == TEXT else key) == "null":
+                token = pc.is_in(pc.ascii_lower(pc.utf8_trim_whitespace(forms[key])), value_set=_TOKENS)
+                tally.add(plan.path, "null_token", _true(pc.fill_null(token, False)))
+        return pa.nulls(n)
+    parts = []
+    for key, arr in forms.items():
+        if key in _NESTED:
+            raise SchemaMismatch(f"{plan.path}: a {key} value where the schema has {plan.target.key()}")
+        if key in ("string", TEXT):
+            parts.append(_strings(arr, "string" if key == "string" else "text", plan, tally))
+        else:
+            parts.append(_typed(arr, key, plan, tally))
+    return pc.coalesce(*parts) if parts else pa.nulls(n, to_arrow(plan.target))
+
+
+def _json_text(plan: FieldPlan, variant: pa.Array, tally: Tally) -> pa.Array:
+    """The last resort: each value as its JSON text (the one step done in Python per value)."""
+    tokens = plan.params.get("tokens", {}).get("text") == "null"
+    out: list[str | None] = []
+    for v in jsonable(variant).to_pylist():
+        cell = v.get(TEXT) if v else None
+        if cell is not None and tokens and cell.strip().lower() in tc.NULL_TOKENS:
+            tally.add(plan.path, "null_token", 1)
+            out.append(None)
+        elif v is None or all(x is None for x in v.values()):
+            out.append(None)
+        else:
+            out.append(json_text(cell if cell is not None else plain_value(v)))
+    arr = pa.array(out, pa.string())
+    tally.add(plan.path, "as_json_text", len(arr) - arr.null_count)
+    return arr
+
+
+def _offsets(lengths: pa.Array) -> pa.Array:
+    counts = pc.fill_null(pc.cast(lengths, pa.int32()), 0)
+    return pa.concat_arrays([pa.array([0], pa.int32()), pc.cumulative_sum(counts)])
+
+
+def _list(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
+    item_plan = plan.children[0]
+    lst = forms.get("list", pa.nulls(n, pa.list_(pa.struct([]))))
+    flat = _forms(pc.list_flatten(lst))
+    parents = pc.list_parent_indices(lst)
+    lengths = pc.list_value_length(lst)
+    scalars = {k: a for k, a in forms.items() if k != "list"}
+    if scalars:  # wrap_scalar_in_list
+        for key in list(scalars):
+            source = "string" if key == "string" else "text" if key == TEXT else None
+            if source is None:
+                continue
+            arr, trimmed = scalars[key], pc.utf8_trim_whitespace(scalars[key])
+            drop = pa.repeat(False, n)
+            if plan.params.get("tokens", {}).get(source) == "null":
+                token = pc.fill_null(pc.is_in(pc.ascii_lower(trimmed), value_set=_TOKENS), False)
+                tally.add(plan.path, "null_token", _true(token))
+                drop = pc.or_(drop, token)
+            if source == "string" and plan.params.get("empty") == "null":
+                blank = pc.fill_null(pc.equal(pc.utf8_length(trimmed), 0), False)
+                tally.add(plan.path, "empty", _true(blank))
+                drop = pc.or_(drop, blank)
+            scalars[key] = _null_where(arr, drop)
+        wrapped = _valid_any(scalars, n)
+        tally.add(plan.path, "wrapped", _true(wrapped))
+        rows = pc.indices_nonzero(wrapped)
+        keys = sorted(set(flat) | set(scalars))
+        m = len(parents)
+        merged = {}
+        for k in keys:
+            a = flat.get(k)
+            b = scalars.get(k)
+            typ = (a if a is not None else b).type  # type: ignore[union-attr]
+            merged[k] = pa.concat_arrays(
+                [
+                    a if a is not None else pa.nulls(m, typ),
+                    b.filter(wrapped) if b is not None else pa.nulls(len(rows), typ),
+                ]
+            )
+        order = pc.sort_indices(pa.concat_arrays([pc.cast(parents, pa.int64()), pc.cast(rows, pa.int64())]))
+        flat = {k: a.take(order) for k, a in merged.items()}
+        lengths = pc.if_else(wrapped, pa.scalar(1, lengths.type), lengths)
+    n_items = int(pc.sum(pc.fill_null(pc.cast(lengths, pa.int64()), 0)).as_py() or 0)
+    items = _cast_forms(item_plan, flat, n_items, tally)
+    _check_nulls(item_plan, items)
+    valid = pc.is_valid(lengths)
+    return pa.ListArray.from_arrays(_offsets(lengths), items, type=arrow_type(plan), mask=pc.invert(valid))
+
+
+def _map(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
+    key_plan, value_plan = plan.children
+    m = forms.get("map")
+    if m is None:
+        return pa.nulls(n, arrow_type(plan))
+    start, end = m.offsets[0].as_py(), m.offsets[-1].as_py()
+    keys = _cast(key_plan, m.keys.slice(start, end - start), tally)
+    values = _cast(value_plan, m.items.slice(start, end - start), tally)
+    _check_nulls(value_plan, values)
+    offsets = pc.subtract(m.offsets, start)
+    return pa.MapArray.from_arrays(offsets, keys, values, type=arrow_type(plan), mask=pc.is_null(m))
+
+
+def _struct(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
+    st = forms.get("struct")
+    kids = _forms(st) if st is not None else {}
+    present = pc.is_valid(st) if st is not None else pa.repeat(False, n)
+    children = []
+    for c in plan.children:
+        child = _cast(c, kids[c.name], tally) if c.name in kids else _cast_forms(c, {}, n, tally)
+        _check_nulls(c, child, present)
+        children.append(child)
+    return pa.StructArray.from_arrays(children, fields=[arrow_field(c) for c in plan.children], mask=pc.invert(present))
+
+
+def _check_nulls(plan: FieldPlan, arr: pa.Array, where: pa.Array | None = None) -> None:
+    """A not-null field must hold no null where its container holds a value."""
+    if plan.nullable or not arr.null_count:
+        return
+    nulls = pc.is_null(arr) if where is None else pc.and_(pc.is_null(arr), where)
+    if _true(nulls):
+        raise SchemaMismatch(
+            f"{plan.path}: {_true(nulls):,} nulls where the schema says not null; the data is not what the profile saw"
+        )
+
+
+def _cast_forms(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> pa.Array:
+    before = _valid_any(forms, n)
+    name = plan.target.name
+    if plan.rule == "keep_as_json_text":
+        kids = {k: v for k, v in forms.items()}
+        variant = (
+            pa.StructArray.from_arrays(list(kids.values()), names=list(kids), mask=pc.invert(before))
+            if kids
+            else pa.nulls(n, pa.struct([]))
+        )
+        out = _json_text(plan, variant, tally)
+    elif name == "struct":
+        out = _struct(plan, forms, n, tally)
+    elif name == "list":
+        out = _list(plan, forms, n, tally)
+    elif name == "map":
+        out = _map(plan, forms, n, tally)
+    else:
+        out = _scalar(plan, forms, n, tally)
+    tally.add(plan.path, "nulled", _true(pc.and_(before, pc.is_null(out))))
+    return out
+
+
+def _cast(plan: FieldPlan, variant: pa.Array, tally: Tally) -> pa.Array:
+    return _cast_forms(plan, _forms(variant), len(variant), tally)
+
+
+def apply(batch: pa.RecordBatch, rec: Recommendation, *, tally: Tally | None = None) -> pa.RecordBatch:
+    """One raw batch (variant columns, raw.py) cast into exactly rec's Arrow schema."""
+    tally = tally if tally is not None else Tally()
+    schema = target_schema(rec)
+    n = batch.num_rows
+    columns = []
+    for plan in rec.fields:
+        col = (
+            _cast(plan, batch.column(plan.name), tally)
+            if plan.name in batch.schema.names
+            else _cast_forms(plan, {}, n, tally)
+        )
+        _check_nulls(plan, col)
+        columns.append(col)
+    return pa.RecordBatch.from_arrays(columns, schema=schema)

@@ -1,0 +1,339 @@
+"""What the recommender hands out: a plan per field path, its effects, the whole recommendation.
+
+Values only; every view (the Arrow schema, the schema files, the rules file, the terminal
+lines) is derived from these by the emitters.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+import pyarrow as pa
+
+from driftline.core.jsontypes import JSONObject
+from driftline.core.lattice import DType
+from driftline.core.stats import Example
+from driftline.recommendation.arrow import target_schema
+from driftline.recommendation.options import RecommendOptions
+
+#: The schema files of `driftline schema --to`.
+SchemaFormat = Literal["json-schema", "arrow", "arrow-text", "sql", "avro"]
+#: What Recommendation.write writes: a schema file, or the cast rules (`--rules`).
+OutputFormat = SchemaFormat | Literal["rules"]
+#: JSON Schema of the records as they arrive (permissive), or after the cast rules (strict).
+JsonMode = Literal["permissive", "strict"]
+
+EffectKind = Literal["null", "change", "note"]
+
+#: Every cause an effect can name, with what it means. Apply measures the same causes.
+CAUSES: dict[str, str] = {
+    "null_token": "a null token such as 'n/a' becomes null",
+    "empty": "an empty or blank string becomes null",
+    "unparsed": "a string that does not parse as the target type becomes null",
+    "unsafe_int": "an integer beyond ±(2**53-1) becomes float64, which need not hold it exactly (RFC 7493 §2.2)",
+    "leap_second": "a leap second (:60) becomes :59 of the same minute (pyarrow rejects :60)",
+    "truncated": "fraction digits finer than the target unit are cut off",
+    "rounded": "a decimal or integer with more than 15 significant digits becomes float64 and may round",
+    "leading_zeros": "a string with leading zeros (zero_padded: 09001) becomes a number, which keeps none of them",
+    "out_of_range": "a float string beyond float64's range becomes ±inf (1e400), or 0 when too small (1e-400)",
+    "wrapped": "a scalar becomes a one-element list",
+    "as_text": "a non-string value becomes its text",
+    "as_json_text": "a value becomes its JSON text",
+    "assumed_zone": "a local time (no offset) is read in the target zone",
+    "lowercase": "a lower-case RFC 3339 't' or 'z' is upper-cased before the cast (same instant)",
+    "dropped": "the field is left out of the schema",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Effect:
+    """What a rule does to some of the values: null them, change them, or a note.
+
+    exact is False when the scan could not count the values (count is then what it
+    could count, usually 0, and note says why).
+    """
+
+    kind: EffectKind
+    cause: str
+    count: int
+    examples: tuple[Example, ...] = ()
+    exact: bool = True
+    note: str = ""
+
+    def to_json(self) -> dict[str, Any]:
+        out: dict[str, Any] = {
+            "kind": self.kind,
+            "cause": self.cause,
+            "count": self.count,
+            "exact": self.exact,
+            "examples": [e.to_json() for e in self.examples],
+        }
+        if self.note:
+            out["note"] = self.note
+        return out
+
+
+@dataclass(frozen=True, slots=True)
+class Alternative:
+    """Another target the rule considered, and what it would have cost."""
+
+    rule: str
+    target: str  # type key
+    note: str
+
+    def to_json(self) -> dict[str, Any]:
+        return {"rule": self.rule, "target": self.target, "note": self.note}
+
+
+@dataclass(frozen=True, slots=True)
+class FieldPlan:
+    """One field path: its target type, the cast rule and what that rule would cost.
+
+    inputs counts the values by the form they arrive in: a type key for typed values
+    (JSON, Parquet), 'text' for CSV/TSV cells (blank cells are nulls, not counted).
+    children are the struct fields, the list item ('[]') or the map key and value.
+    """
+
+    path: str
+    name: str
+    target: DType  # its nullable flag is the field's nullability
+    rule: str
+    does: str
+    why: str
+    inputs: dict[str, int] = field(default_factory=dict)
+    effects: tuple[Effect, ...] = ()
+    params: dict[str, Any] = field(default_factory=dict)
+    alternatives: tuple[Alternative, ...] = ()
+    children: tuple[FieldPlan, ...] = ()
+    required: bool = False  # present in every row / parent value (JSON Schema "required")
+    max_chars: int | None = None  # upper bound of the target's text length, when a string
+    input_chars: int | None = None  # upper bound of an input value's text (CSV cell, JSON text)
+    # What the scan saw that the schema files need: content classes and longest strings
+    # per source ('string' typed, 'text' CSV), and leap seconds.
+    observed: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def nullable(self) -> bool:
+        return self.target.nullable
+
+    @property
+    def nulled(self) -> int:
+        return sum(e.count for e in self.effects if e.kind == "null")
+
+    @property
+    def changed(self) -> int:
+        return sum(e.count for e in self.effects if e.kind == "change")
+
+    @property
+    def exact(self) -> bool:
+        return all(e.exact for e in self.effects)
+
+    def effect(self, cause: str) -> Effect | None:
+        """The effect with that cause, if the rule has one."""
+        return next((e for e in self.effects if e.cause == cause), None)
+
+    def child(self, name: str) -> FieldPlan:
+        """The plan of a direct child, by name ('item' for a list's elements)."""
+        for c in self.children:
+            if c.name == name:
+                return c
+        raise KeyError(name)
+
+    def walk(self) -> Iterator[FieldPlan]:
+        """This plan and every plan below it, depth first."""
+        yield self
+        for c in self.children:
+            yield from c.walk()
+
+
+@dataclass(frozen=True, slots=True)
+class Dropped:
+    """A field left out by min_field_share, with how often it was present."""
+
+    path: str
+    present: int
+    container: int
+
+    def to_json(self) -> dict[str, Any]:
+        return {"path": self.path, "present": self.present, "container": self.container}
+
+
+@dataclass(frozen=True)
+class Recommendation:
+    """The unified schema: one plan per top-level field (sorted by name), plus what was dropped.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"t": "2026-11-29T10:00:00Z"}\\n')
+    >>> rec = driftline.scan(d).recommend()
+    >>> [(p.name, p.rule, p.target.key()) for p in rec.fields]
+    [('t', 'parse_timestamp', 'timestamp[us, UTC]')]
+    """
+
+    root: str
+    rows: int
+    files: int
+    fields: tuple[FieldPlan, ...]
+    options: RecommendOptions
+    dropped: tuple[Dropped, ...] = ()
+
+    def walk(self) -> Iterator[FieldPlan]:
+        """Every plan, top-level fields first, each followed by the plans below it."""
+        for f in self.fields:
+            yield from f.walk()
+
+    def plan(self, path: str) -> FieldPlan:
+        """The plan of one field path.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+        >>> driftline.scan(d).recommend().plan("x").rule
+        'widen_numeric'
+        """
+        for p in self.walk():
+            if p.path == path:
+                return p
+        raise KeyError(path)
+
+    def field(self, name: str) -> FieldPlan:
+        """The plan of a top-level field, by name (KeyError if the schema has none)."""
+        for f in self.fields:
+            if f.name == name:
+                return f
+        raise KeyError(name)
+
+    def conflicts(self) -> tuple[FieldPlan, ...]:
+        """Plans that strict mode refuses (see is_conflict)."""
+        return tuple(p for p in self.walk() if is_conflict(p))
+
+    # -- the schema and its files: exactly what `driftline schema` writes ----------------
+    # The files are rendered by driftline.emit.schemas (one function, schema_file), which
+    # builds on this module: hence the imports inside the methods.
+    @property
+    def schema(self) -> pa.Schema:
+        """The unified schema as a pyarrow.Schema: each field's rule as field metadata, every
+        path's rule as schema metadata (the schema apply() casts to, and `--to arrow` writes).
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+        >>> driftline.scan(d).recommend().schema.field("x")
+        pyarrow.Field<x: double not null>
+        """
+        return target_schema(self)
+
+    def arrow_schema(self) -> pa.Schema:
+        """The target as a pyarrow.Schema (with the rules as field metadata); the same as schema."""
+        return target_schema(self)
+
+    @property
+    def rules(self) -> JSONObject:
+        """The cast rules file as JSON data (docs/rules.schema.json): what `--rules` writes, as a dict.
+
+        A new dict on every access (changing it changes nothing here).
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+        >>> rules = driftline.scan(d).recommend().rules
+        >>> rules["format"], [(f["path"], f["rule"], f["target"]) for f in rules["fields"]]
+        ('driftline-rules', [('x', 'widen_numeric', 'float64')])
+        """
+        from driftline.emit.schemas.rules_json import rules_document
+
+        return rules_document(self)
+
+    def to_json_schema(self, *, mode: JsonMode | None = None, title: str | None = None) -> str:
+        """The JSON Schema 2020-12 document as text: `--to json-schema` (`--json-mode`, `--table`).
+
+        mode 'permissive' describes the records as they arrive, 'strict' the records after
+        the cast rules (default: the recommendation's own mode); title defaults to the root
+        folder's name. json.loads gives the document as a dict.
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
+        >>> doc = json.loads(driftline.scan(d).recommend(parse_strings="always").to_json_schema())
+        >>> doc["$schema"], doc["properties"]["n"]["type"]
+        ('https://json-schema.org/draft/2020-12/schema', ['integer', 'string'])
+        """
+        from driftline.emit.schemas.files import schema_file
+
+        return schema_file(self, "json-schema", table=title, json_mode=mode).decode()
+
+    def to_sql(self, *, table: str | None = None) -> str:
+        """The SQL script `--to sql --table TABLE` writes: CREATE TABLE, a staging table, and the
+        cast rules as INSERT … SELECT (table defaults to the root folder's name).
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> print(driftline.scan(d).recommend().to_sql(table="raw").split("\\n\\n")[1])
+        CREATE TABLE "raw" (
+          "x" BIGINT NOT NULL
+        );
+        """
+        from driftline.emit.schemas.files import schema_file
+
+        return schema_file(self, "sql", table=table).decode()
+
+    def to_avro(self, *, name: str | None = None) -> str:
+        """The Avro schema `--to avro --table NAME` writes, as JSON text (name: the record's,
+        made a valid Avro name; default the root folder's name).
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{}\\n')
+        >>> avsc = json.loads(driftline.scan(d).recommend().to_avro(name="pm2.5"))
+        >>> avsc["name"], avsc["fields"][0]["type"]
+        ('pm2_5', ['null', 'long'])
+        """
+        from driftline.emit.schemas.files import schema_file
+
+        return schema_file(self, "avro", table=name).decode()
+
+    def to_arrow_ipc(self) -> bytes:
+        """The Arrow IPC schema message `--to arrow` writes (pyarrow.ipc.read_schema reads it).
+
+        >>> import driftline, tempfile, pathlib, pyarrow as pa
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> rec = driftline.scan(d).recommend()
+        >>> pa.ipc.read_schema(pa.py_buffer(rec.to_arrow_ipc())).equals(rec.schema, check_metadata=True)
+        True
+        """
+        from driftline.emit.schemas.files import schema_file
+
+        return schema_file(self, "arrow")
+
+    def write(
+        self,
+        path: str | os.PathLike[str],
+        to: OutputFormat,
+        *,
+        table: str | None = None,
+        json_mode: JsonMode | None = None,
+    ) -> None:
+        """Write one file as `driftline schema --to TO --out PATH` (or `--rules PATH` for to="rules") does.
+
+        The file is replaced atomically ('-' is standard output; see README, "Where outputs
+        go"); OutputError when it cannot be written, OptionError for an unknown format.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> rec = driftline.scan(d).recommend(); out = d.parent / (d.name + ".sql")
+        >>> rec.write(out, "sql", table="raw"); out.read_text() == rec.to_sql(table="raw")
+        True
+        """
+        from driftline.emit.schemas.files import write_file
+
+        write_file(self, path, to, table=table, json_mode=json_mode)
+
+
+#: Rules whose very use means the kinds of a field disagree.
+CONFLICT_RULES = frozenset({"wrap_scalar_in_list", "format_as_string", "keep_as_json_text"})
+#: Effects strict mode accepts: the values were nulls in all but spelling.
+BENIGN_CAUSES = frozenset({"null_token", "empty", "lowercase"})
+
+
+def is_conflict(plan: FieldPlan) -> bool:
+    """True when strict mode refuses the plan: a conflicting rule, or a lossy or inexact effect."""
+    if plan.rule in CONFLICT_RULES:
+        return True
+    return any((e.count or not e.exact) and e.cause not in BENIGN_CAUSES for e in plan.effects)

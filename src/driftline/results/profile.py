@@ -1,0 +1,331 @@
+"""Profile: the per-file results of a scan, and every view derived from them.
+
+A Profile is a value. Two profiles combine only through merge(), which unions their
+files by relative path; every derived view (fields, events, partitions) is computed from
+the sorted files, so the result is the same whatever order the files were read in.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import TYPE_CHECKING
+
+from driftline.core import paths
+from driftline.core.jsontypes import JSONValue
+from driftline.core.observation import Observation
+from driftline.core.stats import FieldStats, merge_all
+from driftline.errors import ProfileError
+from driftline.sources.base import FileIssue, FileResult
+from driftline.sources.discover import Skipped
+
+if TYPE_CHECKING:  # annotations only: these modules build on this one
+    import polars as pl
+    import pyarrow as pa
+
+    from driftline.recommendation.plan import Recommendation
+    from driftline.results.drift import Event
+    from driftline.results.tables import Tables
+
+
+@dataclass(frozen=True, slots=True)
+class FieldSummary:
+    """One field path over a set of rows: its statistics plus the derived counts.
+
+    >>> from driftline.core.stats import FieldStats
+    >>> s = FieldSummary("x", FieldStats(types={"int64": 2}, nulls=1), container=4)
+    >>> s.absent, s.nullable, s.share(s.absent)
+    (1, True, 0.25)
+    """
+
+    path: str
+    stats: FieldStats
+    container: int  # rows (top level), parent struct values, or parent list elements
+
+    @property
+    def absent(self) -> int:
+        """Places that held no value at all (the key was missing), not even a null."""
+        return max(self.container - self.stats.present, 0)
+
+    @property
+    def nullable(self) -> bool:
+        """Whether a reader must allow a missing value: some nulls or some absences."""
+        return self.stats.nulls > 0 or self.absent > 0
+
+    def share(self, n: int) -> float:
+        """n as a share of the container (0.0 for an empty container)."""
+        return n / self.container if self.container else 0.0
+
+
+def container_count(path: str, fields: Mapping[str, FieldStats], rows: int) -> int:
+    """How many places path could have held a value: the denominator of its shares."""
+    parent, how = paths.parent(path)
+    if parent is None:
+        return rows
+    pst = fields.get(parent)
+    if pst is None:
+        return 0
+    if how == "field":
+        return pst.types.get("struct", 0)
+    return pst.items
+
+
+def summarise(fields: Mapping[str, FieldStats], rows: int) -> dict[str, FieldSummary]:
+    return {p: FieldSummary(p, st, container_count(p, fields, rows)) for p, st in fields.items()}
+
+
+@dataclass(frozen=True)
+class Profile:
+    """What a scan found: files (sorted by relative path), what was skipped, and the options.
+
+    A Profile is an immutable value: equal content compares equal (the options and the
+    duration are not content), it pickles, and it merges with another profile.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"y": null}\\n')
+    >>> p = driftline.scan(d)
+    >>> p.rows, sorted(p.fields), p.fields["y"].nullable
+    (2, ['x', 'y'], True)
+    """
+
+    root: str
+    files: tuple[FileResult, ...]
+    skipped: tuple[Skipped, ...] = ()
+    options: Mapping[str, JSONValue] = field(default_factory=dict, compare=False)
+    duration_s: float = field(default=0.0, compare=False)
+
+    def __post_init__(self) -> None:
+        rels = [f.rel for f in self.files]
+        if rels != sorted(rels):
+            object.__setattr__(self, "files", tuple(sorted(self.files, key=lambda f: f.rel)))
+        if len(set(rels)) != len(rels):
+            raise ProfileError("a profile holds each relative path once")
+
+    # -- combining -------------------------------------------------------------------
+    def merge(self, other: Profile) -> Profile:
+        """Union of two profiles' files; a file both hold must be the same result (else ProfileError).
+
+        >>> Profile("r", ()).merge(Profile("r", ())).rows
+        0
+        """
+        mine = {f.rel: f for f in self.files}
+        for f in other.files:
+            if f.rel in mine and mine[f.rel] != f:
+                raise ProfileError(f"both profiles hold {f.rel!r} with different content; rescan it")
+            mine[f.rel] = f
+        # A file one side skipped (say, excluded) and the other read is read in the union.
+        skipped = tuple(
+            sorted({s for s in (*self.skipped, *other.skipped) if s.rel not in mine}, key=lambda s: (s.rel, s.reason))
+        )
+        return Profile(
+            self.root,
+            tuple(mine[k] for k in sorted(mine)),
+            skipped,
+            dict(self.options),
+            self.duration_s + other.duration_s,
+        )
+
+    # -- derived views ----------------------------------------------------------------
+    @property
+    def rows(self) -> int:
+        """Rows read, over every file."""
+        return sum(f.rows for f in self.files)
+
+    @property
+    def bytes(self) -> int:
+        """Size on disk of the files read."""
+        return sum(f.size for f in self.files)
+
+    @property
+    def issues(self) -> tuple[FileIssue, ...]:
+        """Every file problem (errors and warnings) in file order."""
+        return tuple(i for f in self.files for i in f.issues)
+
+    @property
+    def error_count(self) -> int:
+        """How many file problems were errors (data may be lost), not warnings."""
+        return sum(f.errors for f in self.files)
+
+    def observations(self) -> Iterable[Observation]:
+        """Every batch observation in scan order: path order, then batch order."""
+        for f in self.files:
+            yield from f.observations
+
+    @cached_property
+    def stats(self) -> dict[str, FieldStats]:
+        """Per field path: the merged statistics of every batch."""
+        return merge_all(o.fields for o in self.observations())
+
+    @cached_property
+    def fields(self) -> dict[str, FieldSummary]:
+        """Per field path over the whole scan."""
+        return summarise(self.stats, self.rows)
+
+    @cached_property
+    def _drift(self) -> tuple[tuple[Event, ...], dict[str, int]]:
+        from driftline.results.drift import drift_summary
+
+        return drift_summary(self)
+
+    @property
+    def events(self) -> tuple[Event, ...]:
+        """Drift events in scan order (file path, then batch), each with its provenance: the
+        first max_events of them (a scan option, 10,000 by default); see event_counts."""
+        return self._drift[0]
+
+    @property
+    def event_counts(self) -> dict[str, int]:
+        """How many drift events of each kind the scan found, listed in events or not.
+
+        >>> Profile("r", ()).event_counts
+        {}
+        """
+        return self._drift[1]
+
+    @property
+    def event_total(self) -> int:
+        """How many drift events the scan found (events lists at most max_events of them).
+
+        >>> Profile("r", ()).event_total
+        0
+        """
+        return sum(self._drift[1].values())
+
+    @property
+    def other_fields(self) -> tuple[int, int]:
+        """(paths, values) past the cap on distinct paths (max_paths): paths are counted per
+        batch, so a path past the cap in several batches counts in each.
+
+        >>> Profile("r", ()).other_fields
+        (0, 0)
+        """
+        obs = list(self.observations())
+        return sum(o.other_paths for o in obs), sum(o.other_values for o in obs)
+
+    @property
+    def batch_span(self) -> int:
+        """The most batches one observation stands for: 1 unless batches were summarised in blocks.
+
+        >>> Profile("r", ()).batch_span
+        1
+        """
+        return max((f.batch_span for f in self.files), default=1)
+
+    def partition_keys(self) -> list[str]:
+        """Partition keys (key=value folder names) in the order they first appear."""
+        keys: list[str] = []
+        for f in self.files:
+            for k, _ in f.partitions:
+                if k not in keys:
+                    keys.append(k)
+        return keys
+
+    def by_partition(self, key: str) -> dict[str, dict[str, FieldSummary]]:
+        """Per value of partition key: the fields as they look in the files of that partition."""
+        groups: dict[str, list[FileResult]] = {}
+        for f in self.files:
+            value = dict(f.partitions).get(key)
+            if value is not None:
+                groups.setdefault(value, []).append(f)
+        out = {}
+        for value in sorted(groups):
+            files = groups[value]
+            merged = merge_all(o.fields for fr in files for o in fr.observations)
+            out[value] = summarise(merged, sum(fr.rows for fr in files))
+        return out
+
+    def file(self, rel: str) -> FileResult:
+        """The result of one file, by its path relative to the root; KeyError if absent."""
+        for f in self.files:
+            if f.rel == rel:
+                return f
+        raise KeyError(rel)
+
+    # -- pickling: only the content, never the cached views -------------------------------
+    def __getstate__(self) -> dict[str, object]:
+        # cached_property stores fields/events/stats in __dict__; a pickle (a process pool
+        # result, a saved notebook value) carries only the content and rebuilds the views.
+        return {f: getattr(self, f) for f in ("root", "files", "skipped", "options", "duration_s")}
+
+    def __setstate__(self, state: dict[str, object]) -> None:
+        for k, v in state.items():
+            object.__setattr__(self, k, v)
+
+    # -- tables and notebook views --------------------------------------------------------
+    def to_arrow(self) -> Tables[pa.Table]:
+        """Fields and drift events as pyarrow Tables: `fields, events = profile.to_arrow()`.
+
+        >>> fields, events = Profile("r", ()).to_arrow()
+        >>> fields.column_names[:4], events.num_rows
+        (['path', 'types', 'container', 'present'], 0)
+        """
+        from driftline.results.tables import to_arrow
+
+        return to_arrow(self)
+
+    def to_polars(self) -> Tables[pl.DataFrame]:
+        """Fields and drift events as polars DataFrames, with the same columns as to_arrow().
+
+        >>> Profile("r", ()).to_polars().fields.shape
+        (0, 10)
+        """
+        from driftline.results.tables import to_polars
+
+        return to_polars(self)
+
+    def recommend(self, **options: object) -> Recommendation:
+        """The unified schema with cast rules (driftline.recommend; options as RecommendOptions).
+
+        >>> Profile("r", ()).recommend(prefer_decimal=True).fields
+        ()
+        """
+        from driftline.recommendation import RecommendOptions, recommend
+
+        return recommend(self, options=RecommendOptions().replace(**options))
+
+    # -- outputs: the bytes `driftline scan --json/--html` writes --------------------------
+    def write_json(self, path: str | os.PathLike[str]) -> None:
+        """Write the JSON report (docs/report.schema.json) to path, as `driftline scan --json` does.
+
+        The file is replaced atomically ('-' is standard output; see README, "Where outputs
+        go"); OutputError when it cannot be written. load_report reads it back equal.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> p = driftline.scan(d); p.write_json(d.parent / (d.name + ".json"))
+        >>> driftline.load_report(d.parent / (d.name + ".json")) == p
+        True
+        """
+        from driftline.emit.atomic import write_output
+        from driftline.results.report import dumps
+
+        write_output(os.fspath(path), dumps(self))
+
+    def write_html(self, path: str | os.PathLike[str]) -> None:
+        """Write the HTML report (one self-contained page) to path, as `driftline scan --html` does.
+
+        The file is replaced atomically ('-' is standard output); OutputError when it cannot
+        be written.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> page = d.parent / (d.name + ".html"); driftline.scan(d).write_html(page)
+        >>> page.read_text().startswith("<!-- driftline-output: ")
+        True
+        """
+        from driftline.emit.html import write_html
+
+        write_html(self, os.fspath(path))
+
+    def _repr_html_(self) -> str:
+        from driftline.emit.notebook import profile_html
+
+        return profile_html(self)
+
+    def __repr__(self) -> str:
+        return (
+            f"<Profile {self.root!r}: {len(self.files)} files, {self.rows:,} rows, "
+            f"{len(self.fields)} fields, {len(self.events)} drift events, {self.error_count} errors>"
+        )
