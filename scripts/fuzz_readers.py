@@ -28,10 +28,11 @@ from pathlib import Path
 import atheris
 
 with atheris.instrument_imports(include=["driftline"]):
+    from driftline.core.files import FileResult
+    from driftline.core.options import ReadOptions
     from driftline.emit.terminal import render
     from driftline.results.profile import Profile
     from driftline.results.report import dumps
-    from driftline.sources.base import FileResult, ReadOptions
     from driftline.sources.discover import discover
     from driftline.sources.readers import read_file
 

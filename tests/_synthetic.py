@@ -10,10 +10,10 @@ from __future__ import annotations
 
 from datetime import date, timedelta
 
+from driftline.core.files import FileResult
 from driftline.core.observation import Observation
 from driftline.core.stats import Example, FieldStats, type_sample
 from driftline.results.profile import Profile
-from driftline.sources.base import FileResult
 
 REGIONS = 20
 

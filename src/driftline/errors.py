@@ -125,7 +125,7 @@ class ProfileError(DriftlineError, ValueError):
     built with the same relative path twice. Also a ValueError, which it was before.
 
     >>> import driftline
-    >>> from driftline.sources.base import FileResult
+    >>> from driftline.core.files import FileResult
     >>> a = driftline.Profile("r", (FileResult("a.jsonl", "jsonl", None, (), 10, 0, rows=1),))
     >>> b = driftline.Profile("r", (FileResult("a.jsonl", "jsonl", None, (), 10, 0, rows=2),))
     >>> try:

@@ -12,8 +12,9 @@ from pathlib import Path
 
 import pytest
 
+from driftline.core.files import FileIssue
+from driftline.core.options import ReadOptions
 from driftline.sources import native
-from driftline.sources.base import FileIssue, ReadOptions
 from driftline.sources.csvfile import read_csv
 
 EXE = [sys.executable, "-m", "driftline.cli"]

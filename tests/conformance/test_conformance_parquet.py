@@ -15,9 +15,10 @@ import pytest
 import driftline
 from conftest import SHARED_TESTDATA
 from driftline.core import paths
+from driftline.core.files import FileResult
 from driftline.core.lattice import from_arrow
+from driftline.core.options import ReadOptions
 from driftline.scanning.run import scan_paths
-from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.parquetfile import declared_paths
 from driftline.sources.readers import read_file

@@ -87,7 +87,7 @@ def test_options_are_normalised_once_and_immutable():
 def test_config_precedence_flag_over_file_over_default(land: Path, tmp_path: Path):
     work = tmp_path / "work"
     work.mkdir()
-    # source: the defaults of driftline.sources.base (DEFAULT_BATCH_ROWS = 65,536)
+    # source: the defaults of driftline.core.options (DEFAULT_BATCH_ROWS = 65,536)
     assert scan_options(str(land), cwd=work)["batch_rows"] == 65_536
     (work / "driftline.toml").write_text('[scan]\nbatch_rows = 7\nwhere = ["day>=2"]\ndelimiter = ";"\n')
     assert scan_options(str(land), cwd=work) == {"batch_rows": 7, "files": ["day=2/a.csv"]}

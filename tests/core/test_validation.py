@@ -30,6 +30,7 @@ from typer.testing import CliRunner
 import driftline
 from conftest import ROOT
 from driftline.cli import app
+from driftline.core.options import ReadOptions
 from driftline.core.validation import SCHEMAS, problem_in, schema_document
 from driftline.emit.schemas import json_schema
 from driftline.emit.schemas.rules_json import dumps as rules_dumps
@@ -37,7 +38,6 @@ from driftline.errors import DamagedFileError, DriftlineError, PolicyError, Repo
 from driftline.gate.policy import Policy, keys, load_policy
 from driftline.gate.state import load_state, scan_incremental, state_bytes
 from driftline.results.report import dumps, load_report
-from driftline.sources.base import ReadOptions
 
 # source: RFC 6901 section 3 — a JSON pointer is "" or a sequence of "/"-prefixed tokens
 POINTER = re.compile(r'\bat (?:"" \(the whole document\)|(?:/[^\s:/]*)+)')

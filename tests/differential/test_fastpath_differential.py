@@ -19,11 +19,11 @@ import pytest
 
 import driftline.sources.jsonfile as jsonfile
 from conftest import SHARED_TESTDATA
-from driftline.observe import jsonnum, jsonparse
+from driftline.core import jsonnum, jsonparse
+from driftline.core.options import ReadOptions
 from driftline.observe.fast import jsonbatch
 from driftline.results.report import to_dict
 from driftline.scanning.run import scan_paths
-from driftline.sources.base import ReadOptions
 
 TESTDATA = SHARED_TESTDATA
 JSON_SUITE = TESTDATA / "json-parsing" / "test_parsing"

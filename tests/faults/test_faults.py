@@ -22,9 +22,9 @@ import pyarrow.parquet as pq
 import pytest
 import zstandard
 
+from driftline.core.options import ReadOptions
 from driftline.results.profile import Profile
 from driftline.scanning.run import scan_paths
-from driftline.sources.base import ReadOptions
 from hostile_inputs import SUFFIX, bomb, compress, jsonl_lines, parquet_absurd_footers
 
 GOOD = b'{"id": 1}\n{"id": 2}\n{"id": 3}\n'
@@ -266,7 +266,7 @@ def _memory_probe(path: Path, **opts: object) -> dict:
         "import json, sys, tracemalloc, pyarrow as pa\n"
         "from driftline.sources.discover import discover\n"
         "from driftline.sources.readers import read_file\n"
-        "from driftline.sources.base import ReadOptions\n"
+        "from driftline.core.options import ReadOptions\n"
         "tracemalloc.start()\n"
         "res = read_file(discover([sys.argv[1]]).files[0], ReadOptions(**json.loads(sys.argv[2])))\n"
         "print(json.dumps({'rows': res.rows, 'issues': [[i.kind, i.line, i.byte_offset] for i in res.issues],\n"

@@ -20,10 +20,10 @@ import pytest
 
 import driftline
 from conftest import ROOT
+from driftline.core.options import ReadOptions
 from driftline.core.stats import type_sample
 from driftline.observe import thinning
 from driftline.results.report import to_dict
-from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.jsonsplit import assemble, plan, read_span
 from driftline.sources.readers import read_file

@@ -6,9 +6,9 @@ from __future__ import annotations
 import pyarrow as pa
 import pyarrow.parquet as pq
 
+from driftline.core.options import ReadOptions
 from driftline.core.stats import NULL_SAMPLE, type_sample
 from driftline.observe.fast.columnar import observe_table
-from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.formats import CountingRaw
 from driftline.sources.readers import read_file
@@ -323,7 +323,7 @@ def test_csv_line_past_max_record_bytes_stops_the_read_there_with_memory_bounded
         "import json, sys, tracemalloc, pyarrow as pa\n"
         "from driftline.sources.discover import discover\n"
         "from driftline.sources.readers import read_file\n"
-        "from driftline.sources.base import ReadOptions\n"
+        "from driftline.core.options import ReadOptions\n"
         "tracemalloc.start()\n"
         "res = read_file(discover([sys.argv[1]]).files[0], ReadOptions(max_record_bytes=2**20))\n"
         "print(json.dumps({'rows': res.rows, 'issues': [[i.kind, i.line, i.byte_offset] for i in res.issues],\n"

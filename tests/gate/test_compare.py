@@ -311,7 +311,7 @@ CAST_DIFFERENCES = {
     "1990-12-31T23:59:60Z": (
         "timestamp[us, UTC]",
         "pc.cast rejects leap seconds; the parse rule turns :60 "
-        "into :59 (a change, not a loss: recommend/plan.py CAUSES)",
+        "into :59 (a change, not a loss: recommendation/plan.py CAUSES)",
     ),
     "1985-04-12t23:20:50z": (
         "timestamp[us, UTC]",
@@ -348,7 +348,7 @@ def test_cast_loss_agrees_with_pyarrow_casts(tmp_path, target):
 
 
 def test_rules_from_a_recommendation(tmp_path):
-    # The recommender (recommend/rules.py) plans day 1; its rules are the baseline of day 2.
+    # The recommender (recommendation/rules.py) plans day 1; its rules are the baseline of day 2.
     from driftline.gate.baseline import baseline_from_recommendation
 
     _write(

@@ -9,11 +9,11 @@ from pathlib import Path
 import pytest
 
 from conftest import write_lines
+from driftline.core.options import ReadOptions
 from driftline.errors import InputPathError, OutputError, ReportVersionError
 from driftline.gate.state import STATE_FORMAT, STATE_VERSION, load_state, scan_incremental
 from driftline.results.report import dumps, to_dict
 from driftline.scanning.run import scan_paths
-from driftline.sources.base import ReadOptions
 
 
 def _day(folder: Path, day: int, rows: int, *, bad: bool = False) -> Path:

@@ -19,9 +19,9 @@ import pyarrow.compute as pc
 import pytest
 
 import driftline
+from driftline.core import jsonnum
 from driftline.core.lattice import from_arrow, join, parse_key
 from driftline.core.stats import type_sample
-from driftline.observe import jsonnum
 from driftline.recommendation.apply import Tally, apply
 from driftline.recommendation.raw import raw_batches
 from driftline.results.report import dumps

@@ -5,8 +5,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from driftline.core.options import ReadOptions
 from driftline.core.stats import class_sample
-from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.readers import read_file
 

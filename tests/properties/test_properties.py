@@ -30,12 +30,12 @@ from hypothesis import strategies as st
 from jsonschema import Draft202012Validator
 
 from driftline.core import paths
+from driftline.core.options import ReadOptions
 from driftline.core.stats import merge_all, merge_fields
 from driftline.emit.schemas.json_schema import json_schema
 from driftline.observe.records import observe_records
 from driftline.results.profile import Profile
 from driftline.scanning.run import scan_paths
-from driftline.sources.base import ReadOptions
 from driftline.sources.parquetfile import declared_paths
 
 FAST = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])

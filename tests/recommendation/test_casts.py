@@ -27,6 +27,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import driftline
+from driftline.core.files import FileResult
 from driftline.core.lattice import to_arrow
 from driftline.observe.fast.columnar import observe_table
 from driftline.observe.records import observe_records
@@ -35,7 +36,6 @@ from driftline.recommendation import FieldPlan, recommend
 from driftline.recommendation.apply import Tally, apply
 from driftline.recommendation.raw import as_variant, records_to_batch
 from driftline.results.profile import Profile
-from driftline.sources.base import FileResult
 
 SETTINGS = settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 NUMERIC = ("zero_padded", "integer", "decimal", "float", "float_out_of_range")

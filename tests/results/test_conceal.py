@@ -18,8 +18,9 @@ import pytest
 
 import driftline
 from driftline.core.stats import type_sample
+from driftline.core.valuepolicy import ValuePolicy, output_values
 from driftline.errors import OptionError
-from driftline.results.conceal import ValuePolicy, conceal, output_values
+from driftline.results.conceal import conceal
 
 SECRETS = ["alice@example.com", "bob.secret@example.org", "ABC-SECRET-77", "Zx9-private-note"]
 KEY = b"team key 2026"
@@ -183,8 +184,8 @@ def test_set_in_the_config_files(data: Path, tmp_path: Path):
 
 
 def test_parser_messages_lose_the_cells_they_quote():
+    from driftline.core.files import FileIssue, FileResult
     from driftline.results.profile import Profile
-    from driftline.sources.base import FileIssue, FileResult
 
     # source: pyarrow's CSV reader quotes the row in "Expected N columns, got M: <row>"
     issue = FileIssue(

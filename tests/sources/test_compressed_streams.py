@@ -20,7 +20,7 @@ from pathlib import Path
 import pytest
 import zstandard
 
-from driftline.sources.base import ReadOptions
+from driftline.core.options import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.readers import read_file
 

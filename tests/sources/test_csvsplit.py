@@ -15,8 +15,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from driftline.core.options import ReadOptions
 from driftline.sources import csvsplit
-from driftline.sources.base import ReadOptions
 from driftline.sources.csvsplit import Span, plan, read_span
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_file

@@ -22,10 +22,10 @@ import pytest
 import driftline
 from conftest import ROOT
 from driftline.core import paths
+from driftline.core.options import ReadOptions
 from driftline.core.stats import class_sample
 from driftline.results.report import dumps, load_report
 from driftline.sources import csvsplit
-from driftline.sources.base import ReadOptions
 from driftline.sources.dialect import Dialect, find_dialect, parse_pin, pin_for
 from driftline.sources.discover import discover
 from driftline.sources.readers import read_file

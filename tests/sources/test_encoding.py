@@ -19,10 +19,11 @@ import pytest
 
 import driftline
 from conftest import ROOT
+from driftline.core.files import FileResult
+from driftline.core.options import ReadOptions
 from driftline.core.stats import class_sample
 from driftline.emit.terminal import encodings_line
 from driftline.results.report import dumps, file_from_json, file_json, load_report
-from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.encoding import (
     SAMPLE_BYTES,
@@ -348,7 +349,7 @@ _PROBE = (
     "import json, sys, tracemalloc\n"
     "from driftline.sources.discover import discover\n"
     "from driftline.sources.readers import read_file\n"
-    "from driftline.sources.base import ReadOptions\n"
+    "from driftline.core.options import ReadOptions\n"
     "tracemalloc.start()\n"
     "res = read_file(discover([sys.argv[1]]).files[0], ReadOptions(max_record_bytes=2**20))\n"
     "print(json.dumps({'rows': res.rows, 'errors': res.errors, 'enc': res.encoding.name,\n"

@@ -18,8 +18,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import driftline
+from driftline.core.options import ReadOptions
 from driftline.sources import csvfile, jsonfile
-from driftline.sources.base import ReadOptions
 from driftline.sources.discover import discover
 from driftline.sources.linecount import LineTally
 from driftline.sources.readers import read_file

@@ -1,6 +1,6 @@
 """sources/registry.py: one record per format; every suffix, sniff and reader goes through it.
 
-Also the Format literal (a misspelt name is a type error) and recommend/raw reading the same
+Also the Format literal (a misspelt name is a type error) and recommendation/raw reading the same
 rows as the scan's readers, since it now reads through them (readers.read_values).
 """
 
@@ -174,7 +174,7 @@ def test_a_misspelt_format_name_is_a_type_error(tmp_path: Path):
     assert "'jsonlines'" in errors[0] and "'parqet'" in errors[1]
 
 
-# -- recommend/raw reads the scan's rows --------------------------------------------------------
+# -- recommendation/raw reads the scan's rows --------------------------------------------------------
 
 
 def _raw_rows(root: Path) -> Counter[str]:

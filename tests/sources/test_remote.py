@@ -17,11 +17,12 @@ from urllib.parse import parse_qs, unquote
 import pytest
 
 from _endpoints import dead_port, silent_endpoint
+from driftline.core.options import StorageOptions
 from driftline.core.partitions import parse_condition
 from driftline.errors import InputPathError, OptionError
 from driftline.scanning.run import scan_paths
 from driftline.sources.discover import discover
-from driftline.sources.remote import StorageOptions, discover_remote, locator, parse_locator
+from driftline.sources.remote import discover_remote, locator, parse_locator
 
 if os.environ.get("CI"):
     import boto3  # CI installs the test extra: a missing package is a failure, never a skip

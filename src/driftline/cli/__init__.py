@@ -8,117 +8,11 @@ Exit codes (all verbs):
 
 from __future__ import annotations
 
-import logging
 import sys
-from collections.abc import Callable
-from functools import wraps
-from typing import Any, TypeVar
-
-import typer
-from rich.console import Console
-
-from driftline import __version__
-from driftline.emit.safe import safe_text
-from driftline.errors import DriftlineError
-
-EXIT_OK, EXIT_VIOLATION, EXIT_USAGE = 0, 1, 2
-
-app = typer.Typer(
-    name="driftline",
-    help=(
-        "Profile raw landing directories (JSON Lines, JSON, CSV/TSV, Parquet; gz/bz2/zst/xz) in record "
-        "batches: observed schemas, drift with file/partition/row provenance, unified schema and cast "
-        "rules, pipeline gates.\n\n"
-        "Exit codes: 0 done, 1 policy violation (check), 2 usage or input error."
-    ),
-    no_args_is_help=True,
-    add_completion=False,
-    rich_markup_mode=None,
-    context_settings={"help_option_names": ["-h", "--help"]},
-)
-
-err_console = Console(stderr=True, highlight=False)
-
-F = TypeVar("F", bound=Callable[..., Any])
-
-
-class _Lines(logging.Handler):
-    """'warning: message' for a warning, 'note: message' for information, on the stderr of the
-    moment (a test runner swaps sys.stderr between runs in one process)."""
-
-    _driftline_cli = True
-
-    def emit(self, record: logging.LogRecord) -> None:
-        word = "note" if record.levelno < logging.WARNING else "warning"
-        sys.stderr.write(f"{word}: {record.getMessage()}\n")
-
-
-def _warnings_to_stderr() -> None:
-    """Warnings and notes of the library (the "driftline" logger) as lines on stderr."""
-    logger = logging.getLogger("driftline")
-    if not any(getattr(h, "_driftline_cli", False) for h in logger.handlers):
-        logger.addHandler(_Lines())
-        logger.propagate = False
-        logger.setLevel(logging.INFO)
-
-
-def handles_errors(fn: F) -> F:
-    """Turn library errors into 'Type: message' on stderr and exit code 2, never a traceback."""
-
-    @wraps(fn)
-    def wrapper(*args: Any, **kwargs: Any) -> Any:
-        _warnings_to_stderr()
-        try:
-            return fn(*args, **kwargs)
-        except DriftlineError as exc:
-            # Plain write: an error message is never re-wrapped or styled.
-            sys.stderr.write(f"{type(exc).__name__}: {safe_text(exc, None)}\n")
-            raise typer.Exit(EXIT_USAGE) from None
-        except KeyboardInterrupt:
-            sys.stderr.write("interrupted; no output file was left half-written\n")
-            raise typer.Exit(130) from None
-
-    return wrapper  # type: ignore[return-value]
-
-
-def _known_encoding(value: str | None) -> str | None:
-    from driftline.sources.encoding import codec_name
-
-    if value is not None:
-        try:
-            codec_name(value)
-        except ValueError as exc:
-            raise typer.BadParameter(str(exc)) from None  # usage error: exit 2, never a traceback
-    return value
-
-
-ENCODING_OPTION: Any = typer.Option(
-    None,
-    "--encoding",
-    metavar="NAME",
-    callback=_known_encoding,
-    help="Text encoding of CSV/TSV/JSON files (a Python codec name: utf-8, utf-16, latin-1, cp1252...); "
-    "found per file from its first 64 KiB when not given.",
-)
-
-
-def _version(value: bool) -> None:
-    if value:
-        print(f"driftline {__version__}")
-        raise typer.Exit(0)
-
-
-@app.callback()
-def _root(
-    version: bool = typer.Option(
-        False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
-    ),
-) -> None:
-    """driftline: what is really in a landing directory."""
-
 
 # Verbs register themselves on `app` when imported.
-from driftline.cli import gate_cmd, scan_cmd, schema_cmd  # noqa: E402,F401
+from driftline.cli import gate_cmd, scan_cmd, schema_cmd  # noqa: F401
+from driftline.cli.app import app
 
 
 def main() -> None:
@@ -128,3 +22,6 @@ def main() -> None:
     except BrokenPipeError:  # `driftline scan … | head` is fine
         sys.stderr.close()
         sys.exit(0)
+
+
+__all__ = ["app", "main"]

@@ -10,8 +10,8 @@ import typer
 from rich.console import Console
 
 import driftline
-from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
-from driftline.cli.read_flags import takes_read_options
+from driftline.cli.app import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli.read_flags import policy_of, takes_read_options
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
@@ -142,7 +142,7 @@ def check_command(
         write_inside=write_inside,
         include_hidden=options.include_hidden,
     )
-    rules = policy if policy is not None else config.policy()
+    rules = policy if policy is not None else policy_of(config)
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         verdict = driftline.check(

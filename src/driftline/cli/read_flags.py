@@ -17,22 +17,29 @@ from typing import Any
 
 import typer
 
-from driftline.cli import ENCODING_OPTION
-from driftline.core.options import DEFAULT_JOBS, Config, ScanOptions, find_config, load_config
-from driftline.core.ranges import RANGES
-from driftline.results.conceal import MODES
-from driftline.results.drift import DEFAULT_MAX_EVENTS
-from driftline.scanning.workers import DEFAULT_TASK_TIMEOUT
-from driftline.sources.base import (
+from driftline.cli.app import ENCODING_OPTION
+from driftline.core.options import (
     DEFAULT_BATCH_BYTES,
     DEFAULT_BATCH_ROWS,
+    DEFAULT_CONNECT_TIMEOUT,
+    DEFAULT_JOBS,
     DEFAULT_MAX_COLUMNS,
     DEFAULT_MAX_DECOMPRESSED_BYTES,
     DEFAULT_MAX_DECOMPRESSION_RATIO,
+    DEFAULT_MAX_EVENTS,
     DEFAULT_MAX_PATHS,
     DEFAULT_MAX_RECORD_BYTES,
+    DEFAULT_REQUEST_TIMEOUT,
+    DEFAULT_TASK_TIMEOUT,
+    Config,
+    ScanOptions,
+    find_config,
+    load_config,
 )
-from driftline.sources.remote import DEFAULT_CONNECT_TIMEOUT, DEFAULT_REQUEST_TIMEOUT
+from driftline.core.ranges import RANGES
+from driftline.core.valuepolicy import MODES
+from driftline.gate.policy import Policy, policy_from_mapping
+from driftline.recommendation.options import RecommendOptions
 
 CSV_DIALECT_HELP = (
     "Pin the CSV dialect of the files matching GLOB (all CSV/TSV files without it); repeatable, later pins win. "
@@ -270,10 +277,18 @@ READ_FLAGS: tuple[Flag, ...] = (
 FLAG_NAMES = tuple(f.name for f in READ_FLAGS)
 
 
+def policy_of(config: Config) -> Policy | None:
+    """The config file's [check] table as the policy of driftline check, or None when it has none."""
+    return policy_from_mapping(config.check, source=config.where("check")) if config.check else None
+
+
 def options_of(flags: dict[str, Any], given: set[str]) -> tuple[ScanOptions, Config]:
     """The options of a run: the config file's (named, or found here), then the flags given."""
     config_path = flags.get("config")
     config = load_config(config_path if config_path is not None else find_config())
+    policy_of(config)  # every table is checked before anything is read, whichever verb runs
+    if config.recommend:
+        RecommendOptions.from_mapping(config.recommend, source=config.where("recommend"))
     chosen = {k: v for k, v in flags.items() if k in given and k != "config"}
     return config.scan_options().merged(**chosen), config
 

@@ -11,7 +11,7 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TaskID, TextColumn, TimeElapsedColumn
 
 import driftline
-from driftline.cli import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli.app import EXIT_USAGE, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output

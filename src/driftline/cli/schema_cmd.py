@@ -9,7 +9,7 @@ import typer
 from rich.console import Console
 
 import driftline
-from driftline.cli import EXIT_VIOLATION, app, err_console, handles_errors
+from driftline.cli.app import EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, own_descriptor, write_output

@@ -14,9 +14,9 @@ from typing import Any
 
 import orjson
 
+from driftline.core import jsonnum
 from driftline.core.validation import pointer, shown
 from driftline.errors import DriftlineError, InputPathError
-from driftline.observe import jsonnum
 
 _TOKEN = re.compile(rb'"(?:[^"\\]|\\.)*"|[{}\[\],:]')
 

@@ -36,24 +36,178 @@ import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Literal, TypedDict
+from typing import Any, Literal, TypedDict
 
+from driftline.core.codecnames import codec_name
+from driftline.core.dialectpin import parse_pin
+from driftline.core.jsontypes import JSONValue
 from driftline.core.partitions import Condition, parse_condition
 from driftline.core.ranges import check
-from driftline.errors import DriftlineError, OptionError
-from driftline.results.conceal import OUTPUT_KEYS, ValuePolicy, value_policy, values_from_table
-from driftline.results.drift import DEFAULT_MAX_EVENTS
-from driftline.scanning.workers import DEFAULT_TASK_TIMEOUT
-from driftline.sources.base import ReadOptions
-from driftline.sources.remote import StorageOptions
-
-if TYPE_CHECKING:
-    from driftline.gate.policy import Policy
+from driftline.core.valuepolicy import OUTPUT_KEYS, ValuePolicy, value_policy, values_from_table
+from driftline.errors import DriftlineError, OptionError, PolicyError
 
 Engine = Literal["local", "dask"]
 ENGINES: tuple[Engine, ...] = ("local", "dask")
 # One process unless asked: no worker pool is started behind a library call (a pool needs a
 # `__main__` guard where processes are spawned), and results never depend on it.
+DEFAULT_BATCH_ROWS = 65_536
+
+
+DEFAULT_MAX_RECORD_BYTES = 64 * 1024 * 1024
+
+
+DEFAULT_MAX_DECOMPRESSED_BYTES = 64 * 1024**3
+
+
+# Deflate cannot pass about 1,032:1, so real data stays far below this; bombs (zeros in
+# bz2/zstd/xz, or a Parquet footer promising gigabytes from a few kilobytes) go above it.
+DEFAULT_MAX_DECOMPRESSION_RATIO = 1000
+
+
+RATIO_FLOOR_BYTES = 16 * 1024 * 1024  # the ratio is only judged past this many bytes out
+
+
+# Each column costs its own pass per batch (about 1.5 ms, measured with 2 rows), so 100,000
+# columns would take minutes per batch and memory grows with rows times columns.
+DEFAULT_MAX_COLUMNS = 10_000
+
+
+# A batch also ends once its records' bytes reach this: parsed JSON takes about ten times its
+# text in memory, so batch_rows alone let a batch of long records grow to gigabytes.
+DEFAULT_BATCH_BYTES = 64 * 1024 * 1024
+
+
+# Distinct field paths one batch keeps (in the order they first show); the paths past it are
+# counted as "other fields".  Records with a key per id would otherwise grow without bound.
+DEFAULT_MAX_PATHS = 10_000
+
+
+@dataclass(frozen=True, slots=True)
+class ReadOptions:
+    """Options every reader honours. Keyword-only, with safe defaults.
+
+    batch_rows              at most this many rows per batch
+    batch_bytes             a batch also ends once its records' input bytes reach this (bounds memory)
+    max_paths               distinct field paths kept per batch and per scan; the rest are "other fields"
+    max_record_bytes        a longer JSON line / document / CSV line is reported, not read
+    max_decompressed_bytes  stop a compressed file past this many bytes (decompression bombs)
+    max_decompression_ratio stop once bytes out / bytes in exceeds this, past RATIO_FLOOR_BYTES
+                            out (streams as they decompress; Parquet row groups by their footer)
+    delimiter               CSV delimiter; None finds it (sources/dialect.py)
+    csv_dialects            pins of the CSV dialect, '[GLOB:]KEY=VALUE[,KEY=VALUE…]' each (parse_pin);
+                            what a pin leaves open is still found from the data
+    encoding                text encoding of CSV/TSV/JSON files (a name Python's codecs know);
+                            None finds it per file from its first bytes (sources/encoding.py)
+    exact                   take the exact per-record path everywhere (no columnar fast path);
+                            the results are the same, only slower: for checking the fast path
+
+    >>> ReadOptions(batch_rows=50_000).batch_rows
+    50000
+    >>> ReadOptions(batch_rows=0)
+    Traceback (most recent call last):
+    driftline.errors.OptionError: batch_rows must be an integer from 1 to 1,099,511,627,776, got 0
+    """
+
+    batch_rows: int = DEFAULT_BATCH_ROWS
+    max_record_bytes: int = DEFAULT_MAX_RECORD_BYTES
+    max_decompressed_bytes: int = DEFAULT_MAX_DECOMPRESSED_BYTES
+    delimiter: str | None = None
+    max_decompression_ratio: float = DEFAULT_MAX_DECOMPRESSION_RATIO
+    max_columns: int = DEFAULT_MAX_COLUMNS
+    exact: bool = False
+    batch_bytes: int = DEFAULT_BATCH_BYTES
+    max_paths: int = DEFAULT_MAX_PATHS
+
+    csv_dialects: tuple[str, ...] = ()
+    encoding: str | None = None
+
+    def __post_init__(self) -> None:
+        for name in (
+            "batch_rows",
+            "batch_bytes",
+            "max_record_bytes",
+            "max_decompressed_bytes",
+            "max_decompression_ratio",
+            "max_columns",
+            "max_paths",
+        ):
+            check(name, getattr(self, name))
+        if self.encoding is not None:
+            try:
+                codec_name(self.encoding)
+            except ValueError as exc:  # a name Python's codecs do not know
+                raise OptionError(str(exc)) from None
+        for spec in self.csv_dialects:
+            parse_pin(spec)  # a bad pin is an error before any file is read
+        if self.delimiter is not None:
+            # a name ('tab', 'pipe') or a typed escape ('\\t') as --csv-dialect takes it
+            try:
+                delimiter = parse_pin(f"delimiter={_typed(self.delimiter)}").delimiter
+            except PolicyError:
+                raise PolicyError(
+                    f"--delimiter {self.delimiter!r}: give one punctuation character or a name "
+                    "(comma, tab, semicolon, pipe, colon, caret, tilde, space)"
+                ) from None
+            object.__setattr__(self, "delimiter", delimiter)
+
+
+def _typed(delimiter: str) -> str:
+    return {"\\t": "tab", "\t": "tab", " ": "space", ",": "comma"}.get(delimiter, delimiter)
+
+
+DEFAULT_TASK_TIMEOUT = 3600.0  # seconds: --task-timeout
+
+
+DEFAULT_MAX_EVENTS = 10_000  # events listed; past it they are only counted, by kind
+
+
+DEFAULT_RETRIES = 4
+
+
+DEFAULT_CONNECT_TIMEOUT = 10.0  # seconds to open a connection
+
+
+DEFAULT_REQUEST_TIMEOUT = 20.0  # seconds a request may go without receiving a byte
+
+
+@dataclass(frozen=True, slots=True)
+class StorageOptions:
+    """How to reach the object store; nothing here is a secret.
+
+    >>> StorageOptions(endpoint_url="http://127.0.0.1:9000").endpoint()
+    ('http', '127.0.0.1:9000')
+    """
+
+    endpoint_url: str | None = None  # e.g. http://127.0.0.1:9000; else AWS_ENDPOINT_URL_S3 / AWS_ENDPOINT_URL
+    region: str | None = None  # else AWS_REGION / AWS_DEFAULT_REGION
+    anonymous: bool = False  # public buckets: sign no request
+    retries: int = DEFAULT_RETRIES  # attempts per request, with the SDK's exponential back-off
+    connect_timeout: float = DEFAULT_CONNECT_TIMEOUT  # per attempt
+    request_timeout: float = DEFAULT_REQUEST_TIMEOUT  # per attempt: no byte for this long ends it
+
+    def __post_init__(self) -> None:
+        if self.retries < 1:
+            raise DriftlineError(f"retries must be at least 1, got {self.retries}")
+        for name in ("connect_timeout", "request_timeout"):
+            value = getattr(self, name)
+            if not 0 < value <= 86_400:
+                raise DriftlineError(f"--{name.replace('_', '-')} must be between 0 and 86400 seconds, got {value}")
+
+    def shown(self) -> str:
+        """The endpoint for messages: the URL given, or the AWS default."""
+        scheme, host = self.endpoint()
+        return f"{scheme}://{host}" if host else "the AWS endpoint of the region"
+
+    def endpoint(self) -> tuple[str | None, str | None]:
+        url = self.endpoint_url or os.environ.get("AWS_ENDPOINT_URL_S3") or os.environ.get("AWS_ENDPOINT_URL")
+        if not url:
+            return None, None
+        scheme, sep, rest = url.partition("://")
+        if not sep:
+            return "https", url.rstrip("/")
+        return scheme, rest.rstrip("/")
+
+
 DEFAULT_JOBS = 1
 CONFIG_NAME = "driftline.toml"
 PYPROJECT = "pyproject.toml"
@@ -228,7 +382,7 @@ class ScanOptions:
             if not isinstance(getattr(self, name), kind):
                 raise OptionError(f"{name} must be a {kind.__name__}, got {getattr(self, name)!r}")
 
-    def merged(self, *, source: str | None = None, **keywords: Any) -> ScanOptions:
+    def merged(self, *, source: str | None = None, **keywords: object) -> ScanOptions:
         """A copy with the given flat options (ScanKeywords, and paths) changed; None leaves one as it is.
 
         source names where the values came from (a config file) in an error message.
@@ -276,11 +430,10 @@ class ScanOptions:
         """
         return load_config(path).scan_options()
 
-    def to_report(self) -> dict[str, Any]:
+    def to_report(self) -> dict[str, JSONValue]:
         """The options a report records: batch_rows, the globs, and each limit that differs from its default."""
-        from driftline.sources.base import DEFAULT_BATCH_BYTES, DEFAULT_MAX_PATHS
 
-        out: dict[str, Any] = {"batch_rows": self.read.batch_rows, "include": list(self.include)}
+        out: dict[str, JSONValue] = {"batch_rows": self.read.batch_rows, "include": list(self.include)}
         out["exclude"] = list(self.exclude)
         # Only the limits that differ from their defaults: a report of a default scan stays as it was.
         if self.read.batch_bytes != DEFAULT_BATCH_BYTES:
@@ -338,12 +491,6 @@ class Config:
         if not self.output:
             return None
         return values_from_table(self.output, self.folder, self.where("output"))
-
-    def policy(self) -> Policy | None:
-        """The [check] table as the policy of driftline check, or None when it has none."""
-        from driftline.gate.policy import policy_from_mapping
-
-        return policy_from_mapping(self.check, source=self.where("check")) if self.check else None
 
     def scan_options(self, base: ScanOptions | None = None) -> ScanOptions:
         """base (the defaults when None) with this file's [scan] and [output] tables applied."""
@@ -423,8 +570,5 @@ def _check_tables(config: Config) -> None:
     for key in config.output:
         if key not in OUTPUT_KEYS:
             raise OptionError(f"{config.where('output')}: unknown key {key!r}; allowed keys: {', '.join(OUTPUT_KEYS)}")
-    if config.recommend:
-        from driftline.recommendation.options import RecommendOptions
-
-        RecommendOptions.from_mapping(config.recommend, source=config.where("recommend"))
-    config.policy()
+    # [recommend] and [check] are checked by their own modules where a verb loads the file
+    # (cli/read_flags.options_of): this floor knows only the scan's own tables.

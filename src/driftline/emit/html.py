@@ -22,8 +22,8 @@ from typing import Any
 import jinja2
 from markupsafe import Markup
 
-from driftline import __version__
 from driftline.core.marker import remark
+from driftline.core.version import __version__
 from driftline.emit import html_data as hd
 from driftline.emit import svg
 from driftline.emit.atomic import write_output

@@ -26,7 +26,7 @@ from driftline.gate.policy import RULES, Policy
 from driftline.gate.verdict import RuleResult, Verdict, Violation
 from driftline.results.profile import Profile, container_count
 
-# What a cast rule (recommend/rules.py names them) lets into its target besides values that
+# What a cast rule (recommendation/rules.py names them) lets into its target besides values that
 # already fit: parse_* rules parse strings (judged by content class, as cast_loss); these
 # write any value as text; wrap_scalar_in_list wraps scalars that fit the list's item type.
 # Every other rule (identity, merge_struct, widen_*, map_null_tokens) casts no kind into another.

@@ -55,7 +55,12 @@ def profile_of(
     (and the flat keywords of ScanKeywords, or read=ReadOptions(...), applied over them)."""
     if isinstance(side, Profile):
         return side
-    items = [side] if isinstance(side, str | os.PathLike) else list(side)
+    if isinstance(side, str | os.PathLike):
+        items = [side]
+    elif isinstance(side, Sequence) and all(isinstance(s, str | os.PathLike) for s in side):
+        items = list(side)
+    else:
+        raise OptionError(f"a side is a Profile, a saved report or data paths, got {side!r}")
     if len(items) == 1 and is_report(items[0]):
         return load_report(os.fspath(items[0]))
     return scan_paths(items, options=options, progress=progress, **keywords)

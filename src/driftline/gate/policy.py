@@ -175,7 +175,7 @@ def load_policy(path: str | Path) -> Policy:
         raise PolicyError(f"policy file {str(path)!r} is not UTF-8 text (byte {exc.start})") from None
     except tomllib.TOMLDecodeError as exc:
         raise PolicyError(f"policy file {str(path)!r} is not valid TOML: {exc}") from None
-    data.pop("output", None)  # the [output] table: how examples are shown (driftline.results.conceal.output_values)
+    data.pop("output", None)  # the [output] table: how examples are shown (driftline.core.valuepolicy.output_values)
     tables = [k for k, v in data.items() if isinstance(v, dict)]
     if tables:
         raise PolicyError(

@@ -16,6 +16,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from driftline.core.options import ScanOptions
+from driftline.core.valuepolicy import output_values
 from driftline.errors import InputPathError
 from driftline.gate.baseline import Baseline, baseline_from_json_schema, load_baseline  # noqa: F401
 from driftline.gate.compare import compare
@@ -23,7 +24,7 @@ from driftline.gate.inputs import Side, is_report, profile_of
 from driftline.gate.policy import Policy, load_policy
 from driftline.gate.state import scan_incremental
 from driftline.gate.verdict import Verdict
-from driftline.results.conceal import conceal, output_values
+from driftline.results.conceal import conceal
 from driftline.results.profile import Profile
 from driftline.scanning.run import Progress
 

@@ -32,18 +32,18 @@ from typing import Any
 
 import orjson
 
-from driftline import __version__
+from driftline.core import jsonnum
 from driftline.core.documents import pointer_at
-from driftline.core.options import ScanOptions
+from driftline.core.files import FileResult
+from driftline.core.options import ReadOptions, ScanOptions
 from driftline.core.validation import check_document, damaged
+from driftline.core.version import __version__
 from driftline.emit.atomic import write_output
 from driftline.emit.targets import check_targets
 from driftline.errors import DamagedFileError, InputPathError, ReportVersionError
-from driftline.observe import jsonnum
 from driftline.results.profile import Profile
 from driftline.results.report import file_from_json, file_json, files_from_json
 from driftline.scanning.run import Progress, scan_paths
-from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef
 
 STATE_FORMAT = "driftline-state"

@@ -15,9 +15,9 @@ from dataclasses import dataclass, field
 from rich.console import Console
 from rich.text import Text
 
-from driftline import __version__
 from driftline.core.jsontypes import JSONObject
 from driftline.core.marker import remark
+from driftline.core.version import __version__
 from driftline.emit.safe import safe_text
 from driftline.gate.policy import RULES
 

@@ -17,9 +17,9 @@ from __future__ import annotations
 from collections.abc import Iterable, Sequence
 from dataclasses import replace
 
+from driftline.core.files import FileResult
 from driftline.core.observation import Observation
 from driftline.core.stats import merge_all
-from driftline.sources.base import FileResult
 
 FILE_BATCHES = 4096  # observations kept per file before batches are merged into blocks
 SCAN_BATCHES = 65_536  # observations kept per scan before every file's blocks grow

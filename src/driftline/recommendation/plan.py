@@ -6,14 +6,12 @@ lines) is derived from these by the emitters.
 
 from __future__ import annotations
 
-import os
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
 import pyarrow as pa
 
-from driftline.core.jsontypes import JSONObject
 from driftline.core.lattice import DType
 from driftline.core.stats import Example
 from driftline.recommendation.arrow import target_schema
@@ -208,9 +206,8 @@ class Recommendation:
         """Plans that strict mode refuses (see is_conflict)."""
         return tuple(p for p in self.walk() if is_conflict(p))
 
-    # -- the schema and its files: exactly what `driftline schema` writes ----------------
-    # The files are rendered by driftline.emit.schemas (one function, schema_file), which
-    # builds on this module: hence the imports inside the methods.
+    # -- the schema; its files are the public Recommendation's (driftline._api), since
+    # they are rendered by driftline.emit.schemas, a floor above this one.
     @property
     def schema(self) -> pa.Schema:
         """The unified schema as a pyarrow.Schema: each field's rule as field metadata, every
@@ -226,104 +223,6 @@ class Recommendation:
     def arrow_schema(self) -> pa.Schema:
         """The target as a pyarrow.Schema (with the rules as field metadata); the same as schema."""
         return target_schema(self)
-
-    @property
-    def rules(self) -> JSONObject:
-        """The cast rules file as JSON data (docs/rules.schema.json): what `--rules` writes, as a dict.
-
-        A new dict on every access (changing it changes nothing here).
-
-        >>> import driftline, tempfile, pathlib
-        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
-        >>> rules = driftline.scan(d).recommend().rules
-        >>> rules["format"], [(f["path"], f["rule"], f["target"]) for f in rules["fields"]]
-        ('driftline-rules', [('x', 'widen_numeric', 'float64')])
-        """
-        from driftline.emit.schemas.rules_json import rules_document
-
-        return rules_document(self)
-
-    def to_json_schema(self, *, mode: JsonMode | None = None, title: str | None = None) -> str:
-        """The JSON Schema 2020-12 document as text: `--to json-schema` (`--json-mode`, `--table`).
-
-        mode 'permissive' describes the records as they arrive, 'strict' the records after
-        the cast rules (default: the recommendation's own mode); title defaults to the root
-        folder's name. json.loads gives the document as a dict.
-
-        >>> import driftline, tempfile, pathlib, json
-        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
-        >>> doc = json.loads(driftline.scan(d).recommend(parse_strings="always").to_json_schema())
-        >>> doc["$schema"], doc["properties"]["n"]["type"]
-        ('https://json-schema.org/draft/2020-12/schema', ['integer', 'string'])
-        """
-        from driftline.emit.schemas.files import schema_file
-
-        return schema_file(self, "json-schema", table=title, json_mode=mode).decode()
-
-    def to_sql(self, *, table: str | None = None) -> str:
-        """The SQL script `--to sql --table TABLE` writes: CREATE TABLE, a staging table, and the
-        cast rules as INSERT … SELECT (table defaults to the root folder's name).
-
-        >>> import driftline, tempfile, pathlib
-        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
-        >>> print(driftline.scan(d).recommend().to_sql(table="raw").split("\\n\\n")[1])
-        CREATE TABLE "raw" (
-          "x" BIGINT NOT NULL
-        );
-        """
-        from driftline.emit.schemas.files import schema_file
-
-        return schema_file(self, "sql", table=table).decode()
-
-    def to_avro(self, *, name: str | None = None) -> str:
-        """The Avro schema `--to avro --table NAME` writes, as JSON text (name: the record's,
-        made a valid Avro name; default the root folder's name).
-
-        >>> import driftline, tempfile, pathlib, json
-        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{}\\n')
-        >>> avsc = json.loads(driftline.scan(d).recommend().to_avro(name="pm2.5"))
-        >>> avsc["name"], avsc["fields"][0]["type"]
-        ('pm2_5', ['null', 'long'])
-        """
-        from driftline.emit.schemas.files import schema_file
-
-        return schema_file(self, "avro", table=name).decode()
-
-    def to_arrow_ipc(self) -> bytes:
-        """The Arrow IPC schema message `--to arrow` writes (pyarrow.ipc.read_schema reads it).
-
-        >>> import driftline, tempfile, pathlib, pyarrow as pa
-        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
-        >>> rec = driftline.scan(d).recommend()
-        >>> pa.ipc.read_schema(pa.py_buffer(rec.to_arrow_ipc())).equals(rec.schema, check_metadata=True)
-        True
-        """
-        from driftline.emit.schemas.files import schema_file
-
-        return schema_file(self, "arrow")
-
-    def write(
-        self,
-        path: str | os.PathLike[str],
-        to: OutputFormat,
-        *,
-        table: str | None = None,
-        json_mode: JsonMode | None = None,
-    ) -> None:
-        """Write one file as `driftline schema --to TO --out PATH` (or `--rules PATH` for to="rules") does.
-
-        The file is replaced atomically ('-' is standard output; see README, "Where outputs
-        go"); OutputError when it cannot be written, OptionError for an unknown format.
-
-        >>> import driftline, tempfile, pathlib
-        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
-        >>> rec = driftline.scan(d).recommend(); out = d.parent / (d.name + ".sql")
-        >>> rec.write(out, "sql", table="raw"); out.read_text() == rec.to_sql(table="raw")
-        True
-        """
-        from driftline.emit.schemas.files import write_file
-
-        write_file(self, path, to, table=table, json_mode=json_mode)
 
 
 #: Rules whose very use means the kinds of a field disagree.

@@ -8,18 +8,17 @@ from __future__ import annotations
 
 import heapq
 from collections import Counter
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from driftline.core import paths
+from driftline.core.files import FileResult
 from driftline.core.jsontypes import JSONObject, JSONValue
 from driftline.core.lattice import UNKNOWN, DType, is_widening, join, type_of_key, type_text
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
+from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
-
-if TYPE_CHECKING:
-    from driftline.results.profile import Profile
 
 # Event kinds, in the order they are listed for one batch.
 EVENT_KINDS: dict[str, str] = {
@@ -118,28 +117,25 @@ def _present(st: FieldStats | None) -> bool:
     return st is not None and st.present > 0
 
 
-DEFAULT_MAX_EVENTS = 10_000  # events listed; past it they are only counted, by kind
+def drift_events(files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS) -> tuple[Event, ...]:
+    """The drift events of the file results (sorted by relative path) in scan order: the
+    first `limit` of them; drift_summary also gives the exact totals."""
+    return drift_summary(files, limit)[0]
 
 
-def drift_events(profile: Profile) -> tuple[Event, ...]:
-    """The drift events of a profile in scan order: the first max_events of them (the scan
-    option, else DEFAULT_MAX_EVENTS); drift_summary also gives the exact totals."""
-    return drift_summary(profile)[0]
-
-
-def drift_summary(profile: Profile, limit: int | None = None) -> tuple[tuple[Event, ...], dict[str, int]]:
+def drift_summary(
+    files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS
+) -> tuple[tuple[Event, ...], dict[str, int]]:
     """(the first `limit` events in scan order, the number of events of each kind, all counted).
 
+    Drift takes the ordered file results, never a Profile: it is the one walk in scan order.
     Only `limit` events are held at any time: a scan with a tiny batch_rows over many paths
     and partitions finds events by the million.
     """
-    if limit is None:
-        given = profile.options.get("max_events")
-        limit = given if isinstance(given, int) else DEFAULT_MAX_EVENTS
     counts: Counter[str] = Counter()
 
     def counted() -> Iterator[Event]:
-        for e in _all_events(profile):
+        for e in _all_events(files):
             counts[e.kind] += 1
             yield e
 
@@ -152,10 +148,10 @@ def _order(e: Event) -> tuple[int, int, int, str]:
     return (e.seq, e.row if e.row is not None else -1, _KIND_ORDER[e.kind], e.path)
 
 
-def _all_events(profile: Profile) -> Iterator[Event]:
+def _all_events(files: Sequence[FileResult]) -> Iterator[Event]:
     """Every drift event, batch by batch (the events of one batch in no set order), then the gone ones."""
     sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]] = [
-        (o, f.partitions) for f in profile.files for o in f.observations
+        (o, f.partitions) for f in files for o in f.observations
     ]
     states: dict[str, _PathState] = {}
     for seq, (obs, parts) in enumerate(sequence):

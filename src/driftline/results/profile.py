@@ -7,27 +7,18 @@ the sorted files, so the result is the same whatever order the files were read i
 
 from __future__ import annotations
 
-import os
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import TYPE_CHECKING
 
 from driftline.core import paths
+from driftline.core.files import FileIssue, FileResult, Skipped
 from driftline.core.jsontypes import JSONValue
 from driftline.core.observation import Observation
+from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import FieldStats, merge_all
 from driftline.errors import ProfileError
-from driftline.sources.base import FileIssue, FileResult
-from driftline.sources.discover import Skipped
-
-if TYPE_CHECKING:  # annotations only: these modules build on this one
-    import polars as pl
-    import pyarrow as pa
-
-    from driftline.recommendation.plan import Recommendation
-    from driftline.results.drift import Event
-    from driftline.results.tables import Tables
+from driftline.results.drift import Event, drift_summary
 
 
 @dataclass(frozen=True, slots=True)
@@ -103,6 +94,13 @@ class Profile:
         if len(set(rels)) != len(rels):
             raise ProfileError("a profile holds each relative path once")
 
+    def __eq__(self, other: object) -> bool:
+        # Content only, whichever class holds it: the public Profile (driftline._api) extends
+        # this value with its outputs, and equal content is equal whichever side made it.
+        if not isinstance(other, Profile):
+            return NotImplemented
+        return (self.root, self.files, self.skipped) == (other.root, other.files, other.skipped)
+
     # -- combining -------------------------------------------------------------------
     def merge(self, other: Profile) -> Profile:
         """Union of two profiles' files; a file both hold must be the same result (else ProfileError).
@@ -119,7 +117,7 @@ class Profile:
         skipped = tuple(
             sorted({s for s in (*self.skipped, *other.skipped) if s.rel not in mine}, key=lambda s: (s.rel, s.reason))
         )
-        return Profile(
+        return type(self)(  # a public Profile merges into a public Profile
             self.root,
             tuple(mine[k] for k in sorted(mine)),
             skipped,
@@ -165,9 +163,8 @@ class Profile:
 
     @cached_property
     def _drift(self) -> tuple[tuple[Event, ...], dict[str, int]]:
-        from driftline.results.drift import drift_summary
-
-        return drift_summary(self)
+        given = self.options.get("max_events")
+        return drift_summary(self.files, given if isinstance(given, int) else DEFAULT_MAX_EVENTS)
 
     @property
     def events(self) -> tuple[Event, ...]:
@@ -252,77 +249,6 @@ class Profile:
     def __setstate__(self, state: dict[str, object]) -> None:
         for k, v in state.items():
             object.__setattr__(self, k, v)
-
-    # -- tables and notebook views --------------------------------------------------------
-    def to_arrow(self) -> Tables[pa.Table]:
-        """Fields and drift events as pyarrow Tables: `fields, events = profile.to_arrow()`.
-
-        >>> fields, events = Profile("r", ()).to_arrow()
-        >>> fields.column_names[:4], events.num_rows
-        (['path', 'types', 'container', 'present'], 0)
-        """
-        from driftline.results.tables import to_arrow
-
-        return to_arrow(self)
-
-    def to_polars(self) -> Tables[pl.DataFrame]:
-        """Fields and drift events as polars DataFrames, with the same columns as to_arrow().
-
-        >>> Profile("r", ()).to_polars().fields.shape
-        (0, 10)
-        """
-        from driftline.results.tables import to_polars
-
-        return to_polars(self)
-
-    def recommend(self, **options: object) -> Recommendation:
-        """The unified schema with cast rules (driftline.recommend; options as RecommendOptions).
-
-        >>> Profile("r", ()).recommend(prefer_decimal=True).fields
-        ()
-        """
-        from driftline.recommendation import RecommendOptions, recommend
-
-        return recommend(self, options=RecommendOptions().replace(**options))
-
-    # -- outputs: the bytes `driftline scan --json/--html` writes --------------------------
-    def write_json(self, path: str | os.PathLike[str]) -> None:
-        """Write the JSON report (docs/report.schema.json) to path, as `driftline scan --json` does.
-
-        The file is replaced atomically ('-' is standard output; see README, "Where outputs
-        go"); OutputError when it cannot be written. load_report reads it back equal.
-
-        >>> import driftline, tempfile, pathlib
-        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
-        >>> p = driftline.scan(d); p.write_json(d.parent / (d.name + ".json"))
-        >>> driftline.load_report(d.parent / (d.name + ".json")) == p
-        True
-        """
-        from driftline.emit.atomic import write_output
-        from driftline.results.report import dumps
-
-        write_output(os.fspath(path), dumps(self))
-
-    def write_html(self, path: str | os.PathLike[str]) -> None:
-        """Write the HTML report (one self-contained page) to path, as `driftline scan --html` does.
-
-        The file is replaced atomically ('-' is standard output); OutputError when it cannot
-        be written.
-
-        >>> import driftline, tempfile, pathlib
-        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
-        >>> page = d.parent / (d.name + ".html"); driftline.scan(d).write_html(page)
-        >>> page.read_text().startswith("<!-- driftline-output: ")
-        True
-        """
-        from driftline.emit.html import write_html
-
-        write_html(self, os.fspath(path))
-
-    def _repr_html_(self) -> str:
-        from driftline.emit.notebook import profile_html
-
-        return profile_html(self)
 
     def __repr__(self) -> str:
         return (

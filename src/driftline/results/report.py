@@ -15,18 +15,18 @@ from typing import Any
 import orjson
 import pyarrow as pa
 
-from driftline import __version__
+from driftline.core import jsonnum
 from driftline.core.documents import read_json_document
+from driftline.core.files import FileIssue, FileResult, Skipped
 from driftline.core.lattice import join_all, parse_key
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
+from driftline.core.options import DEFAULT_MAX_PATHS
 from driftline.core.validation import check_document, damaged, found, pointer
+from driftline.core.version import __version__
 from driftline.errors import ReportVersionError
-from driftline.observe import jsonnum
 from driftline.observe.textclass import classify
 from driftline.results.profile import Profile
-from driftline.sources.base import DEFAULT_MAX_PATHS, FileIssue, FileResult
 from driftline.sources.dialect import Dialect
-from driftline.sources.discover import Skipped
 from driftline.sources.encoding import TextEncoding
 
 REPORT_FORMAT = "driftline-report"

@@ -13,9 +13,10 @@ import logging
 from collections.abc import Callable, Sequence
 from typing import Any
 
+from driftline.core.files import FileResult
+from driftline.core.options import ReadOptions
 from driftline.errors import EngineError
 from driftline.results.profile import Profile
-from driftline.sources.base import FileResult, ReadOptions
 from driftline.sources.discover import FileRef
 from driftline.sources.readers import read_file
 

@@ -10,17 +10,17 @@ from collections.abc import Callable, Sequence
 from dataclasses import replace
 from typing import Any
 
-from driftline.core.options import ScanOptions
+from driftline.core.files import FileResult
+from driftline.core.options import DEFAULT_TASK_TIMEOUT, ReadOptions, ScanOptions, StorageOptions
 from driftline.core.partitions import partitions_pass
 from driftline.errors import InputPathError
 from driftline.observe.thinning import ScanThinner, cap_paths, thin_result, thin_scan
 from driftline.results.profile import Profile
-from driftline.scanning.workers import DEFAULT_TASK_TIMEOUT, cap_jobs, run_ordered
-from driftline.sources.base import FileResult, ReadOptions
+from driftline.scanning.workers import cap_jobs, run_ordered
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_file, read_files
 from driftline.sources.registry import OBSERVED_TOGETHER, suffix_list
-from driftline.sources.remote import StorageOptions, discover_remote, is_url
+from driftline.sources.remote import discover_remote, is_url
 from driftline.sources.split import assemble, can_split, plan, read_span
 
 Progress = Callable[[int, int, str], None]  # (files done, files total, current file)

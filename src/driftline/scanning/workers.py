@@ -20,12 +20,12 @@ from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
+from driftline.core.options import DEFAULT_TASK_TIMEOUT
 from driftline.errors import WorkerError
 
 log = logging.getLogger("driftline")
 
 WORKER_BYTES = 256 * 2**20  # one worker (about 70 MB measured at rest) and the working set of a batch
-DEFAULT_TASK_TIMEOUT = 3600.0  # seconds: --task-timeout
 # Tests only: a worker about to read the file named here fails on purpose. "kill:NAME" kills
 # itself with SIGKILL as the out-of-memory killer would ("kill:NAME|FLAG": only while the file
 # FLAG does not exist yet, so once); "hang:NAME" sleeps, as on a hung mount.

@@ -17,10 +17,11 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pcsv
 
+from driftline.core.files import FileIssue
 from driftline.core.observation import Observation
+from driftline.core.options import ReadOptions
 from driftline.observe.fast.columnar import observe_table
 from driftline.observe.fast.valuebytes import value_view
-from driftline.sources.base import FileIssue, ReadOptions
 from driftline.sources.dialect import (
     ROW_NAME_COLUMN,
     SAMPLE_BYTES,
@@ -393,7 +394,7 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
 
 
 def read_csv_cells(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[pa.RecordBatch]:
-    """The rows read_csv observes, as batches of text cells (recommend/raw casts them): the same
+    """The rows read_csv observes, as batches of text cells (recommendation/raw casts them): the same
     dialect, header, rows and batches; the problems are read_csv's to report."""
     for item in _read_rows(stream, rel, opts, tsv, CsvState.cells):
         if isinstance(item, pa.RecordBatch) and item.num_rows:

@@ -33,9 +33,10 @@ import pyarrow as pa
 import pyarrow.csv as pcsv
 
 from driftline.core.fileref import FileRef, file_changed
+from driftline.core.files import FileIssue, FileResult
 from driftline.core.observation import Observation
+from driftline.core.options import ReadOptions
 from driftline.observe.fast.strprofile import exact_requested
-from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.csvfile import CsvState, Header, Rebatch, arrow_options, head_of
 from driftline.sources.encoding import file_encoding
 from driftline.sources.linecount import has_lone_cr

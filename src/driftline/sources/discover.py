@@ -14,20 +14,14 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 
 from driftline.core.fileref import FileRef
+from driftline.core.files import Skipped
 from driftline.core.marker import OWN_OUTPUT, carries_marker
 from driftline.errors import InputPathError
 from driftline.sources.formats import detect_compression
 from driftline.sources.registry import detect_format, skip_reason
 
-
-@dataclass(frozen=True, slots=True)
-class Skipped:
-    """A path discovery passed over, and why (counted in the report)."""
-
-    rel: str
-    reason: str  # 'hidden' | 'marker' | 'excluded' | 'not-included' | 'special' | 'symlink-loop' | 'unknown-format'
-    #              | 'other-extension' | 'name-collision' | 'link-outside-root'
-    #              | 'own-output' (a report, schema or state driftline wrote)
+#              | 'other-extension' | 'name-collision' | 'link-outside-root'
+#              | 'own-output' (a report, schema or state driftline wrote)
 
 
 @dataclass(frozen=True, slots=True)

@@ -46,14 +46,14 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any, BinaryIO
 
-from driftline.sources.base import FileIssue
+from driftline.core.codecnames import UTF8, codec_name
+from driftline.core.files import FileIssue
 
 SAMPLE_BYTES = 64 * 1024  # the head the decision is made from (as much as the CSV sniffer reads)
 _STEP = 1 << 20  # bytes of the file transcoded at a time
 _MAX_LINE_ISSUES = 20  # undecodable lines reported one by one per file; the rest as a count
 _CARRY = "driftline-carry"  # error handler: an undecodable sequence becomes one lone surrogate
 
-UTF8 = "utf-8"
 FALLBACK = "windows-1252"
 # How the encoding was found (the report's "evidence").
 BY_BOM, BY_NULS, BY_SAMPLE, BY_FALLBACK, BY_PIN = "bom", "nul-pattern", "sample", "fallback", "pinned"
@@ -138,27 +138,6 @@ class TextEncoding:
         if self.name == FALLBACK and self.evidence != BY_PIN:
             return _Windows1252Decoder()
         return codecs.getincrementaldecoder(self.name)(_CARRY)
-
-
-def codec_name(name: str) -> str:
-    """The canonical name of a text encoding Python's codecs know; ValueError otherwise.
-
-    >>> codec_name("Latin-1"), codec_name("UTF8"), codec_name("utf_16")
-    ('iso8859-1', 'utf-8', 'utf-16')
-    >>> codec_name("base64")
-    Traceback (most recent call last):
-    ValueError: 'base64' is not a text encoding Python's codecs know (e.g. utf-8, utf-16, latin-1, cp1252)
-    """
-    try:
-        found = codecs.lookup(name).name
-        b"a".decode(name)  # LookupError for bytes-to-bytes codecs (base64, rot13...)
-    except UnicodeDecodeError:  # a text encoding that cannot decode this byte alone (utf-16)
-        pass
-    except (LookupError, TypeError, ValueError):
-        raise ValueError(
-            f"{name!r} is not a text encoding Python's codecs know (e.g. utf-8, utf-16, latin-1, cp1252)"
-        ) from None
-    return UTF8 if found == "utf-8-sig" else found  # a UTF-8 mark is the readers' to report
 
 
 def pinned(name: str) -> TextEncoding:

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from typing import Any, BinaryIO
 
 from driftline.core.dataformat import Compression
-from driftline.sources.base import RATIO_FLOOR_BYTES
+from driftline.core.options import RATIO_FLOOR_BYTES
 
 COMPRESSION_BY_SUFFIX: dict[str, Compression] = {
     ".gz": "gzip",

@@ -12,12 +12,13 @@ from typing import Any, BinaryIO
 
 import orjson
 
+from driftline.core import jsonnum
+from driftline.core.files import FileIssue
 from driftline.core.observation import Observation
-from driftline.observe import jsonnum
+from driftline.core.options import ReadOptions
 from driftline.observe.fast.jsonbatch import observe_json_lines
 from driftline.observe.fast.strprofile import EXACT_ENV, exact_requested  # noqa: F401 - EXACT_ENV re-exported
 from driftline.observe.records import observe_records
-from driftline.sources.base import FileIssue, ReadOptions
 
 _CHUNK = 4 * 1024 * 1024
 _WINDOW_BYTES = 256 * 1024 * 1024  # a window stops growing here, whatever batch_rows asks
@@ -597,7 +598,7 @@ def _parse_elements(pieces: list[bytes], where: list[tuple[int, int]], rel: str)
 def read_json_values(stream: BinaryIO, rel: str, opts: ReadOptions, *, document: bool) -> Iterator[list[Any]]:
     """The records of a JSON Lines file (document False) or a JSON document, parsed as the scan
     parses values (observe.jsonnum: exact integers and decimals), in lists of at most
-    opts.batch_rows (recommend/raw casts them).  A line that does not parse is left out, as the
+    opts.batch_rows (recommendation/raw casts them).  A line that does not parse is left out, as the
     scan leaves it out (and reports it); a document that does not parse is read as lines.
     """
     records = list(_values(stream.read(), document))

@@ -17,9 +17,10 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from driftline.core.fileref import FileRef
+from driftline.core.files import FileIssue, FileResult
 from driftline.core.observation import Observation
+from driftline.core.options import ReadOptions
 from driftline.observe.thinning import Thinner, concat_blocks
-from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.encoding import file_encoding
 from driftline.sources.jsonfile import read_jsonl
 

@@ -25,8 +25,8 @@ from typing import Any, BinaryIO
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from driftline.core.files import FileIssue
 from driftline.observe.fast.valuebytes import value_view
-from driftline.sources.base import FileIssue
 
 # A blank line for Arrow's CSV reader, found by the line feed before it: an empty line (or one
 # holding only carriage returns, each an empty line of its own).

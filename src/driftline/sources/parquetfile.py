@@ -14,9 +14,10 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from driftline.core import paths
+from driftline.core.files import FileIssue
 from driftline.core.lattice import from_arrow, unsupported_reason
+from driftline.core.options import RATIO_FLOOR_BYTES, ReadOptions
 from driftline.observe.fast.bulk import Batch
-from driftline.sources.base import RATIO_FLOOR_BYTES, FileIssue, ReadOptions
 
 Item = Batch | FileIssue | dict
 # A local file this small is read into memory first: pyarrow then decodes it without its
@@ -172,7 +173,7 @@ def _short(exc: BaseException, path: object = None) -> str:
 
 
 def read_parquet_values(path: object, rel: str, opts: ReadOptions) -> Iterator[pa.RecordBatch]:
-    """The file's rows as Arrow batches of at most opts.batch_rows rows (recommend/raw casts
+    """The file's rows as Arrow batches of at most opts.batch_rows rows (recommendation/raw casts
     them); a damaged file raises, for a cast must not pass over rows."""
     yield from pq.ParquetFile(path).iter_batches(batch_size=opts.batch_rows, use_threads=False)
 

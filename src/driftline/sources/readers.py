@@ -11,11 +11,12 @@ from typing import Any
 import pyarrow as pa
 
 from driftline.core.fileref import FileRef, file_changed
+from driftline.core.files import FileIssue, FileResult
 from driftline.core.observation import Observation
+from driftline.core.options import ReadOptions
 from driftline.observe import thinning
 from driftline.observe.fast.bulk import Batch, observe_batches
 from driftline.observe.thinning import Thinner, thin
-from driftline.sources.base import FileIssue, FileResult, ReadOptions
 from driftline.sources.dialect import Dialect
 from driftline.sources.encoding import TextEncoding, TextStream
 from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
@@ -63,7 +64,7 @@ def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str,
 
 def read_values(ref: FileRef, batch_rows: int) -> Iterator[list[Any] | pa.RecordBatch]:
     """The values of the rows read_file reads from a local file, at most batch_rows at a time, for
-    casting them (recommend/raw): lists of parsed JSON records, or Arrow batches (the format's
+    casting them (recommendation/raw): lists of parsed JSON records, or Arrow batches (the format's
     text_cells, or its typed columns).  The same reader, encoding and dialect as read_file with
     default options; the problems are read_file's to report, and a file that cannot be read at
     all raises."""

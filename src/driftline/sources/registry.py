@@ -4,7 +4,7 @@ module); nothing else in driftline branches on a format's name.
 
 The table is plain data.  Readers dispatch on it once per file (never per batch or row):
 readers.read_files (text stream or random access), split (spans), scan (Parquet-like files
-observed together), encoding (JSON must be Unicode) and recommend/raw (values for casting).
+observed together), encoding (JSON must be Unicode) and recommendation/raw (values for casting).
 """
 
 from __future__ import annotations
@@ -18,8 +18,8 @@ import pyarrow as pa
 
 from driftline.core.dataformat import Format
 from driftline.core.fileref import FileRef
+from driftline.core.options import ReadOptions
 from driftline.sources import csvsplit, jsonsplit
-from driftline.sources.base import ReadOptions
 from driftline.sources.csvfile import read_csv, read_csv_cells
 from driftline.sources.encoding import decide
 from driftline.sources.formats import data_extension, decode_errors, detect_compression, head_bytes, open_stream
@@ -30,7 +30,7 @@ from driftline.sources.parquetfile import has_parquet_magic, read_parquet, read_
 StreamReader = Callable[[Any, str, ReadOptions, "list[int] | None"], Iterator[Any]]
 # A random-access reader: (path or object-store file, relative path, options) → items
 PathReader = Callable[[Any, str, ReadOptions], Iterator[Any]]
-# The values of the rows a reader reads, for recommend/raw: lists of parsed JSON records or Arrow
+# The values of the rows a reader reads, for recommendation/raw: lists of parsed JSON records or Arrow
 # batches; from a stream when the format has `read`, from its path when it has `read_path`
 ValuesReader = Callable[[Any, str, ReadOptions], Iterator["list[Any] | pa.RecordBatch"]]
 
@@ -52,7 +52,7 @@ class FormatSpec:
 
     name: Format
     suffixes: tuple[str, ...]  # lower case, with the dot; the first one is the one messages name
-    values: ValuesReader  # the values of the rows the reader reads, in its order (recommend/raw)
+    values: ValuesReader  # the values of the rows the reader reads, in its order (recommendation/raw)
     read: StreamReader | None = None  # read as a decompressed text stream (UTF-8 after TextStream)
     read_path: PathReader | None = None  # or from its path, with random access (footers, column chunks)
     magic: tuple[bytes, ...] = ()  # first bytes that tell the format before any decompression

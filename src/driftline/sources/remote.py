@@ -33,54 +33,15 @@ from urllib.parse import parse_qsl, quote, unquote, urlencode
 
 from driftline.core.dataformat import Compression, Format
 from driftline.core.fileref import REMOTE_SCHEMES
+from driftline.core.files import Skipped
+from driftline.core.options import DEFAULT_CONNECT_TIMEOUT, DEFAULT_REQUEST_TIMEOUT, DEFAULT_RETRIES, StorageOptions
 from driftline.core.partitions import Condition, folder_passes, partitions_pass
-from driftline.errors import DriftlineError, InputPathError
-from driftline.sources.discover import Discovery, FileRef, Skipped, partition_values
+from driftline.errors import InputPathError
+from driftline.sources.discover import Discovery, FileRef, partition_values
 from driftline.sources.formats import CountingRaw, IgnoredTail, detect_compression, wrap_stream
 from driftline.sources.registry import FORMAT_BY_SUFFIX, detect_format, skip_reason
 
 SCHEMES = REMOTE_SCHEMES
-DEFAULT_RETRIES = 4
-DEFAULT_CONNECT_TIMEOUT = 10.0  # seconds to open a connection
-DEFAULT_REQUEST_TIMEOUT = 20.0  # seconds a request may go without receiving a byte
-
-
-@dataclass(frozen=True, slots=True)
-class StorageOptions:
-    """How to reach the object store; nothing here is a secret.
-
-    >>> StorageOptions(endpoint_url="http://127.0.0.1:9000").endpoint()
-    ('http', '127.0.0.1:9000')
-    """
-
-    endpoint_url: str | None = None  # e.g. http://127.0.0.1:9000; else AWS_ENDPOINT_URL_S3 / AWS_ENDPOINT_URL
-    region: str | None = None  # else AWS_REGION / AWS_DEFAULT_REGION
-    anonymous: bool = False  # public buckets: sign no request
-    retries: int = DEFAULT_RETRIES  # attempts per request, with the SDK's exponential back-off
-    connect_timeout: float = DEFAULT_CONNECT_TIMEOUT  # per attempt
-    request_timeout: float = DEFAULT_REQUEST_TIMEOUT  # per attempt: no byte for this long ends it
-
-    def __post_init__(self) -> None:
-        if self.retries < 1:
-            raise DriftlineError(f"retries must be at least 1, got {self.retries}")
-        for name in ("connect_timeout", "request_timeout"):
-            value = getattr(self, name)
-            if not 0 < value <= 86_400:
-                raise DriftlineError(f"--{name.replace('_', '-')} must be between 0 and 86400 seconds, got {value}")
-
-    def shown(self) -> str:
-        """The endpoint for messages: the URL given, or the AWS default."""
-        scheme, host = self.endpoint()
-        return f"{scheme}://{host}" if host else "the AWS endpoint of the region"
-
-    def endpoint(self) -> tuple[str | None, str | None]:
-        url = self.endpoint_url or os.environ.get("AWS_ENDPOINT_URL_S3") or os.environ.get("AWS_ENDPOINT_URL")
-        if not url:
-            return None, None
-        scheme, sep, rest = url.partition("://")
-        if not sep:
-            return "https", url.rstrip("/")
-        return scheme, rest.rstrip("/")
 
 
 def is_url(path: str | os.PathLike[str]) -> bool:

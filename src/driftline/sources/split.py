@@ -11,7 +11,8 @@ from collections.abc import Sequence
 from typing import Any
 
 from driftline.core.fileref import FileRef
-from driftline.sources.base import FileResult, ReadOptions
+from driftline.core.files import FileResult
+from driftline.core.options import ReadOptions
 from driftline.sources.encoding import file_encoding
 from driftline.sources.readers import read_file
 from driftline.sources.registry import SPECS, Splitter

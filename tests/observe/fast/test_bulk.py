@@ -205,8 +205,8 @@ def _landing(root: Path) -> Path:
 
 
 def test_grouped_reading_equals_file_by_file(tmp_path: Path) -> None:
+    from driftline.core.options import ReadOptions
     from driftline.scanning.run import scan_paths
-    from driftline.sources.base import ReadOptions
     from driftline.sources.discover import discover
     from driftline.sources.readers import read_file
 

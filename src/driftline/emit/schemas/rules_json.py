@@ -11,10 +11,10 @@ from typing import Any
 
 import orjson
 
-from driftline import __version__
 from driftline.core import paths
 from driftline.core.documents import read_json_document
 from driftline.core.validation import check_document
+from driftline.core.version import __version__
 from driftline.errors import ReportVersionError
 from driftline.recommendation.plan import FieldPlan, Recommendation
 

@@ -35,11 +35,11 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from driftline.core import paths
+from driftline.core.jsonnum import loads as json_loads
 from driftline.core.observation import Observation
 from driftline.core.stats import SAMPLES_PER_KEY, FieldStats, Measured
 from driftline.observe import linetext
 from driftline.observe.fast.strprofile import string_profile
-from driftline.observe.jsonnum import loads as json_loads
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.records import SAFE_INT, is_int_key, observe_records
 from driftline.observe.textclass import CLASSES

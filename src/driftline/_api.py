@@ -1,0 +1,490 @@
+"""The public surface of driftline: the functions and the public values, re-exported by
+driftline/__init__.py. Each CLI verb is one call of a function here plus printing.
+
+This is the floor above every other (only cli/ sits higher): Profile and Recommendation
+extend the values of results/ and recommendation/ with the outputs emit/ renders.
+"""
+
+from __future__ import annotations
+
+import dataclasses as _dataclasses
+import os as _os
+from collections.abc import Callable as _Callable
+from collections.abc import Sequence as _Sequence
+from pathlib import Path as _Path
+from typing import TYPE_CHECKING as _TYPE_CHECKING
+from typing import Any as _Any
+from typing import Unpack as _Unpack
+from typing import overload as _overload
+
+from driftline.core.jsontypes import JSONObject as _JSONObject
+from driftline.core.options import ReadOptions, ScanOptions
+from driftline.core.options import ScanKeywords as _ScanKeywords
+from driftline.core.version import __version__
+from driftline.emit.atomic import write_output as _write_output
+from driftline.emit.html import write_html as _write_html
+from driftline.emit.notebook import profile_html as _profile_html
+from driftline.emit.schemas.files import schema_file as _schema_file
+from driftline.emit.schemas.files import write_file as _write_file
+from driftline.emit.schemas.rules_json import rules_document as _rules_document
+from driftline.errors import (
+    DamagedFileError,
+    DriftlineError,
+    EngineError,
+    InputPathError,
+    OptionError,
+    OutputError,
+    PolicyError,
+    ProfileError,
+    ReportVersionError,
+    SchemaConflictError,
+    UnreadableFileError,
+    WorkerError,
+)
+from driftline.gate.diff import Diff
+from driftline.gate.policy import Policy
+from driftline.gate.verdict import Verdict
+from driftline.recommendation import Recommendation as _RecommendationValue
+from driftline.recommendation import recommend as _recommend
+from driftline.recommendation.options import RecommendOptions as _RecommendOptions
+from driftline.recommendation.plan import JsonMode as _JsonMode
+from driftline.recommendation.plan import OutputFormat as _OutputFormat
+from driftline.results.drift import Event
+from driftline.results.profile import FieldSummary
+from driftline.results.profile import Profile as _ProfileValue
+from driftline.results.report import dumps as _dumps
+from driftline.results.report import load_report as _load_report
+from driftline.results.tables import Tables as _Tables
+from driftline.results.tables import to_arrow as _to_arrow
+from driftline.results.tables import to_polars as _to_polars
+from driftline.scanning.run import scan_with as _scan_with
+
+if _TYPE_CHECKING:
+    import polars as _pl
+    import pyarrow as _pa
+
+
+# -- the public values: the values below, with what needs the floors above them ---------------
+
+
+class Profile(_ProfileValue):
+    """What a scan found (driftline.results.profile.Profile: files sorted by relative path,
+    what was skipped, the options), with its outputs: recommend(), write_json(), write_html(),
+    to_arrow(), to_polars() and the notebook view. Those need the floors above the value,
+    so they live here, on the public class; equal content compares equal with either class.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"y": null}\\n')
+    >>> p = driftline.scan(d)
+    >>> p.rows, sorted(p.fields), p.fields["y"].nullable
+    (2, ['x', 'y'], True)
+    """
+
+    __slots__ = ()
+
+    @classmethod
+    def _of(cls, value: _ProfileValue) -> Profile:
+        if isinstance(value, cls):
+            return value
+        return cls(value.root, value.files, value.skipped, value.options, value.duration_s)
+
+    def to_arrow(self) -> _Tables[_pa.Table]:
+        """Fields and drift events as pyarrow Tables: `fields, events = profile.to_arrow()`.
+
+        >>> fields, events = Profile("r", ()).to_arrow()
+        >>> fields.column_names[:4], events.num_rows
+        (['path', 'types', 'container', 'present'], 0)
+        """
+        return _to_arrow(self)
+
+    def to_polars(self) -> _Tables[_pl.DataFrame]:
+        """Fields and drift events as polars DataFrames, with the same columns as to_arrow().
+
+        >>> Profile("r", ()).to_polars().fields.shape
+        (0, 10)
+        """
+        return _to_polars(self)
+
+    def recommend(self, **options: object) -> Recommendation:
+        """The unified schema with cast rules (driftline.recommend; options as RecommendOptions).
+
+        >>> Profile("r", ()).recommend(prefer_decimal=True).fields
+        ()
+        """
+        return Recommendation._of(_recommend(self, options=_RecommendOptions().replace(**options)))
+
+    # -- outputs: the bytes `driftline scan --json/--html` writes --------------------------
+    def write_json(self, path: str | _os.PathLike[str]) -> None:
+        """Write the JSON report (docs/report.schema.json) to path, as `driftline scan --json` does.
+
+        The file is replaced atomically ('-' is standard output; see README, "Where outputs
+        go"); OutputError when it cannot be written. load_report reads it back equal.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> p = driftline.scan(d); p.write_json(d.parent / (d.name + ".json"))
+        >>> driftline.load_report(d.parent / (d.name + ".json")) == p
+        True
+        """
+        _write_output(_os.fspath(path), _dumps(self))
+
+    def write_html(self, path: str | _os.PathLike[str]) -> None:
+        """Write the HTML report (one self-contained page) to path, as `driftline scan --html` does.
+
+        The file is replaced atomically ('-' is standard output); OutputError when it cannot
+        be written.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> page = d.parent / (d.name + ".html"); driftline.scan(d).write_html(page)
+        >>> page.read_text().startswith("<!-- driftline-output: ")
+        True
+        """
+        _write_html(self, _os.fspath(path))
+
+    def _repr_html_(self) -> str:
+        return _profile_html(self)
+
+
+class Recommendation(_RecommendationValue):
+    """The unified schema: one plan per top-level field (sorted by name), plus what was dropped
+    (driftline.recommendation.plan.Recommendation), with its files: rules, to_json_schema(),
+    to_sql(), to_avro(), to_arrow_ipc() and write(), each exactly what `driftline schema` writes.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"t": "2026-11-29T10:00:00Z"}\\n')
+    >>> rec = driftline.scan(d).recommend()
+    >>> [(p.name, p.rule, p.target.key()) for p in rec.fields]
+    [('t', 'parse_timestamp', 'timestamp[us, UTC]')]
+    """
+
+    @classmethod
+    def _of(cls, value: _RecommendationValue) -> Recommendation:
+        if isinstance(value, cls):
+            return value
+        return cls(**{f.name: getattr(value, f.name) for f in _dataclasses.fields(value)})
+
+    @property
+    def rules(self) -> _JSONObject:
+        """The cast rules file as JSON data (docs/rules.schema.json): what `--rules` writes, as a dict.
+
+        A new dict on every access (changing it changes nothing here).
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+        >>> rules = driftline.scan(d).recommend().rules
+        >>> rules["format"], [(f["path"], f["rule"], f["target"]) for f in rules["fields"]]
+        ('driftline-rules', [('x', 'widen_numeric', 'float64')])
+        """
+        return _rules_document(self)
+
+    def to_json_schema(self, *, mode: _JsonMode | None = None, title: str | None = None) -> str:
+        """The JSON Schema 2020-12 document as text: `--to json-schema` (`--json-mode`, `--table`).
+
+        mode 'permissive' describes the records as they arrive, 'strict' the records after
+        the cast rules (default: the recommendation's own mode); title defaults to the root
+        folder's name. json.loads gives the document as a dict.
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
+        >>> doc = json.loads(driftline.scan(d).recommend(parse_strings="always").to_json_schema())
+        >>> doc["$schema"], doc["properties"]["n"]["type"]
+        ('https://json-schema.org/draft/2020-12/schema', ['integer', 'string'])
+        """
+        return _schema_file(self, "json-schema", table=title, json_mode=mode).decode()
+
+    def to_sql(self, *, table: str | None = None) -> str:
+        """The SQL script `--to sql --table TABLE` writes: CREATE TABLE, a staging table, and the
+        cast rules as INSERT … SELECT (table defaults to the root folder's name).
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> print(driftline.scan(d).recommend().to_sql(table="raw").split("\\n\\n")[1])
+        CREATE TABLE "raw" (
+          "x" BIGINT NOT NULL
+        );
+        """
+        return _schema_file(self, "sql", table=table).decode()
+
+    def to_avro(self, *, name: str | None = None) -> str:
+        """The Avro schema `--to avro --table NAME` writes, as JSON text (name: the record's,
+        made a valid Avro name; default the root folder's name).
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{}\\n')
+        >>> avsc = json.loads(driftline.scan(d).recommend().to_avro(name="pm2.5"))
+        >>> avsc["name"], avsc["fields"][0]["type"]
+        ('pm2_5', ['null', 'long'])
+        """
+        return _schema_file(self, "avro", table=name).decode()
+
+    def to_arrow_ipc(self) -> bytes:
+        """The Arrow IPC schema message `--to arrow` writes (pyarrow.ipc.read_schema reads it).
+
+        >>> import driftline, tempfile, pathlib, pyarrow as pa
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> rec = driftline.scan(d).recommend()
+        >>> pa.ipc.read_schema(pa.py_buffer(rec.to_arrow_ipc())).equals(rec.schema, check_metadata=True)
+        True
+        """
+        return _schema_file(self, "arrow")
+
+    def write(
+        self,
+        path: str | _os.PathLike[str],
+        to: _OutputFormat,
+        *,
+        table: str | None = None,
+        json_mode: _JsonMode | None = None,
+    ) -> None:
+        """Write one file as `driftline schema --to TO --out PATH` (or `--rules PATH` for to="rules") does.
+
+        The file is replaced atomically ('-' is standard output; see README, "Where outputs
+        go"); OutputError when it cannot be written, OptionError for an unknown format.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> rec = driftline.scan(d).recommend(); out = d.parent / (d.name + ".sql")
+        >>> rec.write(out, "sql", table="raw"); out.read_text() == rec.to_sql(table="raw")
+        True
+        """
+        _write_file(self, path, to, table=table, json_mode=json_mode)
+
+
+def load_report(path: str | _Path) -> Profile:
+    """A Profile read back from a saved JSON report (`driftline scan --json`); see results.report.load_report.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+    >>> p = driftline.scan(d); p.write_json(d.parent / (d.name + ".json"))
+    >>> driftline.load_report(d.parent / (d.name + ".json")) == p
+    True
+    """
+    return Profile._of(_load_report(path))
+
+
+def scan(
+    paths: str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]],
+    *,
+    options: ScanOptions | None = None,
+    progress: _Callable[[int, int, str], None] | None = None,
+    **keywords: _Unpack[_ScanKeywords],
+) -> Profile:
+    """Scan files, folders, globs or s3:// URLs (one, or a list of them) into a Profile.
+
+    The read options come as keywords, or as a ScanOptions value (options=; for example
+    ScanOptions.from_file("driftline.toml")) with keywords over it; what neither sets keeps
+    its default. They are the same for scan, check, diff and recommend, and the same as
+    the command line's flags (docs/python.md lists them):
+
+    batch_rows bounds the rows per batch (drift is tracked batch by batch) and batch_bytes
+    the input bytes of its records (64 MiB), whichever ends a batch first; include and
+    exclude are globs on the path or name; symbolic links that lead out of the paths given
+    are skipped (link-outside-root) unless follow_links; jobs reads files in parallel processes
+    (default 1: no process pool); max_errors stops reading new files after that many errors;
+    the max_* limits report a too-long record, too many decompressed bytes, too high a
+    compression ratio or too many CSV columns instead of reading on; max_paths
+    caps the distinct field paths kept (the rest are counted as "other fields") and
+    max_events the drift events listed (their totals stay exact); delimiter
+    fixes the CSV delimiter (found from the data otherwise); csv_dialect pins more of the
+    CSV dialect, per glob ('legacy/*.csv:delimiter=pipe,quote=none,header=no', one
+    string or several; what a pin leaves open is still found); encoding fixes the text
+    encoding of CSV/TSV and JSON files, a name Python's codecs know (found per file
+    otherwise); include_hidden also reads files starting with '.' or '_'; sniff_unknown
+    also reads files of an extension driftline does not read (.txt, .dat; else skipped
+    unopened) when their first bytes look like data; where keeps only key=value partitions
+    that pass ('day>=2026-11-01'); engine 'dask' reads on a cluster (scheduler address,
+    or local workers); endpoint_url, region and anonymous reach an S3-compatible store
+    (credentials come from the environment, never from here); example_values 'hide' keeps
+    every example value out of the profile and so out of every output made from it, 'hash'
+    replaces each by a keyed HMAC-SHA256 (hash_key or hash_key_file, else the
+    DRIFTLINE_HASH_KEY environment variable), so a report can be shared; connect_timeout
+    (seconds, default 10) bounds reaching a dask scheduler or the object store,
+    request_timeout (default 20) an object store request that receives nothing,
+    task_timeout (default 3600) each worker task; a timeout is an error naming the
+    address; progress(done, total, current_file) is called as files finish. The result
+    depends on none of jobs and engine. Raises InputPathError when a path does not exist
+    or holds no data file, and OptionError for an unknown option or a value of the wrong
+    type or outside its range.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
+    >>> p = driftline.scan(d)
+    >>> p.fields["x"].stats.types, [e.kind for e in p.events]
+    ({'float64': 1, 'int64': 1}, ['type-widened'])
+    """
+    from driftline.results.conceal import conceal
+
+    opts = (options or ScanOptions()).merged(paths=paths, **keywords)
+    return Profile._of(conceal(_scan_with(opts, progress=progress), opts.values))
+
+
+def check(
+    paths: str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]] | Profile,
+    *,
+    baseline: str | _os.PathLike[str],
+    policy: Policy | str | _os.PathLike[str] | None = None,
+    state: str | _os.PathLike[str] | None = None,
+    verify: bool = False,
+    rebuild: bool = False,
+    write_inside: bool = False,
+    options: ScanOptions | None = None,
+    progress: _Callable[[int, int, str], None] | None = None,
+    **keywords: _Unpack[_ScanKeywords],
+) -> Verdict:
+    """Check data (paths, a saved report or a Profile) against a baseline under a policy.
+
+    baseline is a JSON Schema file, a cast-rules file or a saved scan report; policy a
+    Policy, a TOML file or None for the defaults; state an incremental state file (only
+    new or changed files are read; verify also compares content hashes, rebuild starts
+    the state over; write_inside lets it lie inside a scanned folder). The paths are read
+    with the read options of scan (options and keywords, example_values included: the
+    verdict's examples). Verdict.passed / Verdict.exit_code say whether the gate passes
+    (docs/gate.md). A note (a damaged state set aside) goes to the "driftline" logger.
+
+    >>> import driftline, tempfile, pathlib, json
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": "1"}\\n')
+    >>> schema = d.parent / (d.name + ".schema.json")
+    >>> _ = schema.write_text(json.dumps({"type": "object", "properties": {"x": {"type": "integer"}}}))
+    >>> v = driftline.check(d, baseline=schema, batch_rows=100)
+    >>> v.exit_code, [(x.field, x.change, x.file, x.row, x.example) for x in v.violations]
+    (1, [('x', 'int64 → string', 'a.jsonl', 0, '"1"')])
+    """
+    from driftline.gate.run import run_check
+
+    verdict, _ = run_check(
+        paths,
+        baseline=baseline,
+        policy=policy,
+        state=state,
+        verify=verify,
+        rebuild=rebuild,
+        options=(options or ScanOptions()).merged(**keywords),
+        progress=progress,
+        write_inside=write_inside,
+    )
+    return verdict
+
+
+_Side = Profile | str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]]
+
+
+@_overload
+def diff(
+    a: _Side,
+    b: _Side,
+    *,
+    by: None = None,
+    min_null_points: float | None = None,
+    options: ScanOptions | None = None,
+    **keywords: _Unpack[_ScanKeywords],
+) -> Diff: ...
+@_overload
+def diff(
+    a: _Side,
+    b: None = None,
+    *,
+    by: str,
+    min_null_points: float | None = None,
+    options: ScanOptions | None = None,
+    **keywords: _Unpack[_ScanKeywords],
+) -> tuple[Diff, ...]: ...
+def diff(
+    a: _Side,
+    b: _Side | None = None,
+    *,
+    by: str | None = None,
+    min_null_points: float | None = None,
+    options: ScanOptions | None = None,
+    **keywords: _Unpack[_ScanKeywords],
+) -> Diff | tuple[Diff, ...]:
+    """The fields that changed from a to b; each side a Profile, a saved report or data paths.
+
+    With by (a partition key) and no b, each value of that partition of a is compared with
+    the one before it: the result is then a tuple of Diffs, one per step. Sides given as
+    paths are read with the read options of scan (options and keywords) and named as
+    given; min_null_points is the smallest change of null share listed, in percentage
+    points (default 1).
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "a.jsonl").write_text('{"x": 1}\\n'), (d / "b.jsonl").write_text('{"x": 1.5, "y": true}\\n')
+    >>> [(c.kind, c.path, c.before, c.after) for c in driftline.diff(d / "a.jsonl", d / "b.jsonl").changes]
+    [('added', 'y', None, 'bool'), ('widened', 'x', 'int64', 'float64')]
+    """
+    from driftline.gate.inputs import diff_sides
+
+    opts = (options or ScanOptions()).merged(**keywords)
+    return diff_sides(a, b, by=by, min_null_points=min_null_points, options=opts)
+
+
+def recommend(
+    source: _Side,
+    *,
+    options: _RecommendOptions | None = None,
+    scan_options: ScanOptions | None = None,
+    **keywords: object,
+) -> Recommendation:
+    """The unified schema, with a cast rule per field, for a Profile, a saved report or data paths.
+
+    Paths are read with the read options of scan (scan_options, and the keywords that are
+    read options); the other keywords are recommendation options (the fields of
+    RecommendOptions) over options. Strict mode raises SchemaConflictError when a field
+    needs a lossy or conflicting rule; a scan in which every file failed is an
+    InputPathError.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.csv").write_text("n;m\\n7;1\\nn/a;2\\n")
+    >>> p = driftline.recommend(d, delimiter=";").plan("n")
+    >>> p.rule, p.target.key(), [(e.cause, e.count) for e in p.effects]
+    ('parse_integer', 'int64', [('null_token', 1)])
+    """
+    from driftline.core.options import KEYWORDS
+    from driftline.gate.inputs import profile_of
+    from driftline.results.conceal import conceal
+
+    read: dict[str, _Any] = {k: v for k, v in keywords.items() if k in KEYWORDS}
+    opts = (scan_options or ScanOptions()).merged(**read)
+    profile = conceal(profile_of(source, options=opts), opts.values)
+    if (
+        not isinstance(source, Profile)
+        and profile.rows == 0
+        and profile.error_count
+        and all(not f.rows and (f.errors or not f.observations) for f in profile.files)
+    ):
+        raise InputPathError(
+            f"nothing readable: every one of {len(profile.files)} files failed (driftline scan shows the problems)"
+        )
+    rest = {k: v for k, v in keywords.items() if k not in KEYWORDS}
+    return Recommendation._of(_recommend(profile, options=options, **rest))
+
+
+__all__ = [
+    "DamagedFileError",
+    "Diff",
+    "DriftlineError",
+    "EngineError",
+    "Event",
+    "FieldSummary",
+    "InputPathError",
+    "OptionError",
+    "OutputError",
+    "Policy",
+    "PolicyError",
+    "Profile",
+    "ProfileError",
+    "ReadOptions",
+    "Recommendation",
+    "ReportVersionError",
+    "ScanOptions",
+    "SchemaConflictError",
+    "UnreadableFileError",
+    "Verdict",
+    "WorkerError",
+    "__version__",
+    "check",
+    "diff",
+    "load_report",
+    "recommend",
+    "scan",
+]
