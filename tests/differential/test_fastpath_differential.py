@@ -19,8 +19,9 @@ import pytest
 
 import driftline.sources.jsonfile as jsonfile
 from conftest import SHARED_TESTDATA
-from driftline.core import jsonnum, jsonparse
+from driftline.core import jsonnum
 from driftline.core.options import ReadOptions
+from driftline.observe import jsonparse
 from driftline.observe.fast import jsonbatch
 from driftline.results.report import to_dict
 from driftline.scanning.run import scan_paths
