@@ -34,6 +34,7 @@ from driftline.core.options import ReadOptions
 from driftline.core.stats import merge_all, merge_fields
 from driftline.emit.schemas.json_schema import json_schema
 from driftline.observe.records import observe_records
+from driftline.recommendation import recommend
 from driftline.results.profile import Profile
 from driftline.scanning.run import scan_paths
 from driftline.sources.parquetfile import declared_paths
@@ -343,7 +344,7 @@ def _validate_and_cast(root: Path, profile: Profile) -> None:
     from driftline.recommendation.apply import Tally, apply
     from driftline.recommendation.raw import iter_records, raw_batches
 
-    rec = profile.recommend()
+    rec = recommend(profile)
     # source: jsonschema 4.26.0 Draft202012Validator with its format checker (REFERENCES.md §4)
     validator = Draft202012Validator(json_schema(rec), format_checker=Draft202012Validator.FORMAT_CHECKER)
     bad = [(f, r, e.message) for f, r, x in iter_records(root) for e in validator.iter_errors(x)]

@@ -134,7 +134,7 @@ def field_rules(profile: Profile) -> dict[str, FieldRule] | None:
 def _rule(plan: Any) -> FieldRule:
     """One FieldPlan as text: what its effects null or change, out of how many values; notes after.
 
-    plan is a driftline.recommend.FieldPlan (typed Any so this module imports without it).
+    plan is a driftline.recommendation.plan.FieldPlan (typed Any: the page renders without one).
     """
     values = sum(plan.inputs.values())
     bits, notes, lost = [], [], 0
