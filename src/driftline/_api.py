@@ -111,7 +111,7 @@ class Profile(_ProfileValue):
         >>> Profile("r", ()).recommend(prefer_decimal=True).fields
         ()
         """
-        return Recommendation._of(_recommend(self, options=_RecommendOptions().replace(**options)))
+        return recommend(self, options=_RecommendOptions().replace(**options))
 
     # -- outputs: the bytes `driftline scan --json/--html` writes --------------------------
     def write_json(self, path: str | _os.PathLike[str]) -> None:
@@ -456,7 +456,10 @@ def recommend(
             f"nothing readable: every one of {len(profile.files)} files failed (driftline scan shows the problems)"
         )
     rest = {k: v for k, v in keywords.items() if k not in KEYWORDS}
-    return Recommendation._of(_recommend(profile, options=options, **rest))
+    try:
+        return Recommendation._of(_recommend(profile, options=options, **rest))
+    except SchemaConflictError as exc:  # the refused plans, with their files (to_json_schema, ...)
+        raise SchemaConflictError(Recommendation._of(exc.recommendation)) from None
 
 
 __all__ = [

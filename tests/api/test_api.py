@@ -76,6 +76,7 @@ DOCTEST_MODULES = [
     "driftline.results.report",
     "driftline._api",
     "driftline.core.codecnames",
+    "driftline.core.textfile",
     "driftline.sources.dialect",
     "driftline.core.dialectpin",
     "driftline.sources.encoding",

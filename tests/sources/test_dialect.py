@@ -24,9 +24,10 @@ from conftest import ROOT
 from driftline.core import paths
 from driftline.core.options import ReadOptions
 from driftline.core.stats import class_sample
+from driftline.core.textfile import Dialect
 from driftline.results.report import dumps, load_report
 from driftline.sources import csvsplit
-from driftline.sources.dialect import Dialect, find_dialect, parse_pin, pin_for
+from driftline.sources.dialect import find_dialect, parse_pin, pin_for
 from driftline.sources.discover import discover
 from driftline.sources.readers import read_file
 

@@ -22,17 +22,11 @@ from conftest import ROOT
 from driftline.core.files import FileResult
 from driftline.core.options import ReadOptions
 from driftline.core.stats import class_sample
+from driftline.core.textfile import TextEncoding
 from driftline.emit.terminal import encodings_line
 from driftline.results.report import dumps, file_from_json, file_json, load_report
 from driftline.sources.discover import discover
-from driftline.sources.encoding import (
-    SAMPLE_BYTES,
-    TextEncoding,
-    TextStream,
-    codec_name,
-    decide,
-    utf8_evidence,
-)
+from driftline.sources.encoding import SAMPLE_BYTES, TextStream, codec_name, decide, utf8_evidence
 from driftline.sources.readers import read_file
 from driftline.sources.split import can_split
 

@@ -5,15 +5,12 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from driftline.core.dataformat import Compression, Format
 from driftline.core.observation import Observation
 from driftline.core.stats import pickled_by_fields
-
-if TYPE_CHECKING:  # annotations only: the readers below this floor's users make these values
-    from driftline.sources.dialect import Dialect
-    from driftline.sources.encoding import TextEncoding
+from driftline.core.textfile import Dialect, TextEncoding
 
 
 @dataclass(frozen=True, slots=True)

@@ -26,8 +26,7 @@ import pyarrow.compute as pc
 
 from driftline.core.lattice import DType, to_arrow
 from driftline.observe import textclass as tc
-from driftline.recommendation.arrow import arrow_field, arrow_type, target_schema
-from driftline.recommendation.plan import FieldPlan, Recommendation
+from driftline.recommendation.plan import FieldPlan, Recommendation, arrow_field, arrow_type, target_schema
 from driftline.recommendation.raw import TEXT, json_text, jsonable, plain_value
 
 SAFE_INT = 2**53 - 1  # RFC 7493 §2.2

@@ -21,13 +21,12 @@ from driftline.core.files import FileIssue, FileResult, Skipped
 from driftline.core.lattice import join_all, parse_key
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
 from driftline.core.options import DEFAULT_MAX_PATHS
+from driftline.core.textfile import Dialect, TextEncoding
 from driftline.core.validation import check_document, damaged, found, pointer
 from driftline.core.version import __version__
 from driftline.errors import ReportVersionError
 from driftline.observe.textclass import classify
 from driftline.results.profile import Profile
-from driftline.sources.dialect import Dialect
-from driftline.sources.encoding import TextEncoding
 
 REPORT_FORMAT = "driftline-report"
 SHALLOW_KINDS = frozenset({"list", "struct", "map"})  # lattice._SHALLOW: nested kinds without children

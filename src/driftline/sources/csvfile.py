@@ -20,17 +20,10 @@ import pyarrow.csv as pcsv
 from driftline.core.files import FileIssue
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
+from driftline.core.textfile import Dialect
 from driftline.observe.fast.columnar import observe_table
 from driftline.observe.fast.valuebytes import value_view
-from driftline.sources.dialect import (
-    ROW_NAME_COLUMN,
-    SAMPLE_BYTES,
-    Dialect,
-    Finding,
-    find_dialect,
-    pin_for,
-    positional_name,
-)
+from driftline.sources.dialect import ROW_NAME_COLUMN, SAMPLE_BYTES, Finding, find_dialect, pin_for, positional_name
 from driftline.sources.linecount import LineTally, RowLines
 from driftline.sources.native import hand
 

@@ -28,11 +28,12 @@ from __future__ import annotations
 import csv
 import re
 from collections import Counter
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
-from driftline.core.dialectpin import PIN_KEYS, Pin, parse_pin, pin_for
+from driftline.core.dialectpin import Pin, parse_pin, pin_for
+from driftline.core.textfile import Dialect
 
 __all__ = ["Dialect", "Finding", "Pin", "find_dialect", "header_votes", "parse_pin", "pin_for", "positional_name"]
 
@@ -49,84 +50,6 @@ ROW_NAME_COLUMN = "row_name"
 def positional_name(i: int) -> str:
     """The name of column i (0-based) of a file without a header: column_1, column_2, …"""
     return f"column_{i + 1}"
-
-
-@dataclass(frozen=True, slots=True)
-class Dialect:
-    """How a delimited text file is written, as found (or pinned) for one file.
-
-    header is 'yes', 'no' (columns get positional names) or 'row-names' (the header has one
-    name fewer than the rows: the first column holds row names); skip counts the preamble
-    lines before the header; comment starts lines that are skipped wherever they are;
-    confidence is in [0, 1]; pinned lists the keys the user fixed.
-    """
-
-    delimiter: str
-    quote: str | None
-    escape: str | None
-    line_end: str
-    header: str
-    skip: int = 0
-    confidence: float = 1.0
-    rows_sampled: int = 0
-    pinned: tuple[str, ...] = ()
-    comment: str | None = None  # a line starting with it (after blanks) is a comment, skipped
-
-    def describe(self) -> str:
-        """One line for a person, e.g. `'|' no quotes, header, CR (confidence 0.97)`."""
-        return f"{self.shape()} ({self.certainty()})"
-
-    def shape(self) -> str:
-        """The dialect without its confidence: `'|' no quotes, header, CR`."""
-        quote = "no quotes" if self.quote is None else f"{self.quote}-quoted"
-        if self.escape is not None:
-            quote += f", {self.escape!r}-escaped"
-        header = {"yes": "header", "no": "no header", "row-names": "header + row names"}[self.header]
-        parts = [f"{_show(self.delimiter)} {quote}", header, self.line_end]
-        if self.comment is not None:
-            parts.append(f"{self.comment!r} comments")
-        if self.skip:
-            parts.append(f"{self.skip} preamble line{'s' if self.skip != 1 else ''} skipped")
-        return ", ".join(parts)
-
-    def certainty(self) -> str:
-        if len(self.pinned) == len(PIN_KEYS):
-            return "pinned"
-        pinned = f", {'/'.join(self.pinned)} pinned" if self.pinned else ""
-        return f"confidence {self.confidence:.2f}{pinned}"
-
-    def to_json(self) -> dict[str, Any]:
-        return {
-            "delimiter": self.delimiter,
-            "quote": self.quote,
-            "escape": self.escape,
-            "line_end": self.line_end,
-            "header": self.header,
-            "skip": self.skip,
-            "confidence": self.confidence,
-            "rows_sampled": self.rows_sampled,
-            "pinned": list(self.pinned),
-            "comment": self.comment,
-        }
-
-    @staticmethod
-    def from_json(d: Mapping[str, Any]) -> Dialect:
-        return Dialect(
-            d["delimiter"],
-            d.get("quote"),
-            d.get("escape"),
-            d["line_end"],
-            d["header"],
-            d.get("skip", 0),
-            d.get("confidence", 1.0),
-            d.get("rows_sampled", 0),
-            tuple(d.get("pinned", ())),
-            d.get("comment"),
-        )
-
-
-def _show(delimiter: str) -> str:
-    return {"\t": "TAB", " ": "SPACE"}.get(delimiter, repr(delimiter))
 
 
 # -- the sample --------------------------------------------------------------------------------

@@ -43,11 +43,11 @@ import codecs
 import io
 import re
 from collections.abc import Iterator
-from dataclasses import dataclass
 from typing import Any, BinaryIO
 
 from driftline.core.codecnames import UTF8, codec_name
 from driftline.core.files import FileIssue
+from driftline.core.textfile import BY_BOM, BY_FALLBACK, BY_NULS, BY_PIN, BY_SAMPLE, TextEncoding
 
 SAMPLE_BYTES = 64 * 1024  # the head the decision is made from (as much as the CSV sniffer reads)
 _STEP = 1 << 20  # bytes of the file transcoded at a time
@@ -55,8 +55,6 @@ _MAX_LINE_ISSUES = 20  # undecodable lines reported one by one per file; the res
 _CARRY = "driftline-carry"  # error handler: an undecodable sequence becomes one lone surrogate
 
 FALLBACK = "windows-1252"
-# How the encoding was found (the report's "evidence").
-BY_BOM, BY_NULS, BY_SAMPLE, BY_FALLBACK, BY_PIN = "bom", "nul-pattern", "sample", "fallback", "pinned"
 
 _BOMS = (
     (codecs.BOM_UTF32_LE, "utf-32-le"),
@@ -96,48 +94,12 @@ class _Windows1252Decoder(codecs.IncrementalDecoder):
         return codecs.charmap_decode(bytes(input), "strict", _WINDOWS_1252)[0]
 
 
-@dataclass(frozen=True, slots=True)
-class TextEncoding:
-    """How a text file's bytes are decoded: the encoding's name, how it was found, and the
-    length of the byte order mark skipped before decoding (UTF-16/32; a UTF-8 mark is left
-    to the readers, which report it)."""
-
-    name: str
-    evidence: str  # BY_BOM | BY_NULS | BY_SAMPLE | BY_FALLBACK | BY_PIN
-    bom: int = 0
-
-    @property
-    def is_utf8(self) -> bool:
-        return self.name == UTF8
-
-    def describe(self) -> str:
-        """The encoding and its evidence in a few words, for the terminal.
-
-        >>> TextEncoding("utf-16-le", BY_BOM, 2).describe()
-        'utf-16-le (byte order mark)'
-        """
-        how = {
-            BY_BOM: "byte order mark",
-            BY_NULS: "NUL bytes of ASCII text, no byte order mark",
-            BY_SAMPLE: "valid in the first bytes",
-            BY_FALLBACK: "not UTF-8",
-            BY_PIN: "pinned",
-        }
-        return f"{self.name} ({how.get(self.evidence, self.evidence)})"
-
-    def to_json(self) -> dict[str, Any]:
-        return {"name": self.name, "evidence": self.evidence, "bom": self.bom}
-
-    @staticmethod
-    def from_json(d: Any) -> TextEncoding | None:
-        if not d:
-            return None
-        return TextEncoding(d["name"], d["evidence"], d.get("bom", 0))
-
-    def decoder(self) -> codecs.IncrementalDecoder:
-        if self.name == FALLBACK and self.evidence != BY_PIN:
-            return _Windows1252Decoder()
-        return codecs.getincrementaldecoder(self.name)(_CARRY)
+def decoder(encoding: TextEncoding) -> codecs.IncrementalDecoder:
+    """The incremental decoder of an encoding: every byte decodes (undecodable ones carried as
+    lone surrogates, reported per line; Windows-1252 found by fallback takes all 256 bytes)."""
+    if encoding.name == FALLBACK and encoding.evidence != BY_PIN:
+        return _Windows1252Decoder()
+    return codecs.getincrementaldecoder(encoding.name)(_CARRY)
 
 
 def pinned(name: str) -> TextEncoding:
@@ -225,7 +187,7 @@ class Transcoded(io.RawIOBase):
     def __init__(self, inner: BinaryIO, head: bytes, encoding: TextEncoding) -> None:
         self._inner = inner
         self._head: bytes | None = head[encoding.bom :]
-        self._dec = encoding.decoder()
+        self._dec = decoder(encoding)
         self._out = memoryview(b"")
         self._eof = False
         self.lines = 0  # newlines handed out so far

@@ -14,11 +14,11 @@ from driftline.core.fileref import FileRef, file_changed
 from driftline.core.files import FileIssue, FileResult
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
+from driftline.core.textfile import Dialect, TextEncoding
 from driftline.observe import thinning
 from driftline.observe.fast.bulk import Batch, observe_batches
 from driftline.observe.thinning import Thinner, thin
-from driftline.sources.dialect import Dialect
-from driftline.sources.encoding import TextEncoding, TextStream
+from driftline.sources.encoding import TextStream
 from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
 from driftline.sources.linecount import LineTally, jsonl_issue
 from driftline.sources.registry import SPECS, FormatSpec

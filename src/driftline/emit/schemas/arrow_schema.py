@@ -10,8 +10,7 @@ from __future__ import annotations
 import pyarrow as pa
 
 from driftline.core.marker import remark
-from driftline.recommendation.arrow import target_schema
-from driftline.recommendation.plan import Recommendation
+from driftline.recommendation.plan import Recommendation, target_schema
 
 
 def ipc_bytes(rec: Recommendation) -> bytes:
