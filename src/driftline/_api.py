@@ -22,11 +22,6 @@ from driftline.core.options import ReadOptions, ScanOptions
 from driftline.core.options import ScanKeywords as _ScanKeywords
 from driftline.core.version import __version__
 from driftline.emit.atomic import write_output as _write_output
-from driftline.emit.html import write_html as _write_html
-from driftline.emit.notebook import profile_html as _profile_html
-from driftline.emit.schemas.files import schema_file as _schema_file
-from driftline.emit.schemas.files import write_file as _write_file
-from driftline.emit.schemas.rules_json import rules_document as _rules_document
 from driftline.errors import (
     DamagedFileError,
     DriftlineError,
@@ -54,14 +49,13 @@ from driftline.results.profile import FieldSummary
 from driftline.results.profile import Profile as _ProfileValue
 from driftline.results.report import dumps as _dumps
 from driftline.results.report import load_report as _load_report
-from driftline.results.tables import Tables as _Tables
-from driftline.results.tables import to_arrow as _to_arrow
-from driftline.results.tables import to_polars as _to_polars
 from driftline.scanning.run import scan_with as _scan_with
 
 if _TYPE_CHECKING:
     import polars as _pl
     import pyarrow as _pa
+
+    from driftline.results.tables import Tables as _Tables
 
 
 # -- the public values: the values below, with what needs the floors above them ---------------
@@ -95,6 +89,8 @@ class Profile(_ProfileValue):
         >>> fields.column_names[:4], events.num_rows
         (['path', 'types', 'container', 'present'], 0)
         """
+        from driftline.results.tables import to_arrow as _to_arrow
+
         return _to_arrow(self)
 
     def to_polars(self) -> _Tables[_pl.DataFrame]:
@@ -103,6 +99,8 @@ class Profile(_ProfileValue):
         >>> Profile("r", ()).to_polars().fields.shape
         (0, 10)
         """
+        from driftline.results.tables import to_polars as _to_polars
+
         return _to_polars(self)
 
     def recommend(self, **options: object) -> Recommendation:
@@ -140,9 +138,13 @@ class Profile(_ProfileValue):
         >>> page.read_text().startswith("<!-- driftline-output: ")
         True
         """
+        from driftline.emit.html import write_html as _write_html
+
         _write_html(self, _os.fspath(path))
 
     def _repr_html_(self) -> str:
+        from driftline.emit.notebook import profile_html as _profile_html
+
         return _profile_html(self)
 
 
@@ -176,6 +178,8 @@ class Recommendation(_RecommendationValue):
         >>> rules["format"], [(f["path"], f["rule"], f["target"]) for f in rules["fields"]]
         ('driftline-rules', [('x', 'widen_numeric', 'float64')])
         """
+        from driftline.emit.schemas.rules_json import rules_document as _rules_document
+
         return _rules_document(self)
 
     def to_json_schema(self, *, mode: _JsonMode | None = None, title: str | None = None) -> str:
@@ -191,6 +195,8 @@ class Recommendation(_RecommendationValue):
         >>> doc["$schema"], doc["properties"]["n"]["type"]
         ('https://json-schema.org/draft/2020-12/schema', ['integer', 'string'])
         """
+        from driftline.emit.schemas.files import schema_file as _schema_file
+
         return _schema_file(self, "json-schema", table=title, json_mode=mode).decode()
 
     def to_sql(self, *, table: str | None = None) -> str:
@@ -204,6 +210,8 @@ class Recommendation(_RecommendationValue):
           "x" BIGINT NOT NULL
         );
         """
+        from driftline.emit.schemas.files import schema_file as _schema_file
+
         return _schema_file(self, "sql", table=table).decode()
 
     def to_avro(self, *, name: str | None = None) -> str:
@@ -216,6 +224,8 @@ class Recommendation(_RecommendationValue):
         >>> avsc["name"], avsc["fields"][0]["type"]
         ('pm2_5', ['null', 'long'])
         """
+        from driftline.emit.schemas.files import schema_file as _schema_file
+
         return _schema_file(self, "avro", table=name).decode()
 
     def to_arrow_ipc(self) -> bytes:
@@ -227,6 +237,8 @@ class Recommendation(_RecommendationValue):
         >>> pa.ipc.read_schema(pa.py_buffer(rec.to_arrow_ipc())).equals(rec.schema, check_metadata=True)
         True
         """
+        from driftline.emit.schemas.files import schema_file as _schema_file
+
         return _schema_file(self, "arrow")
 
     def write(
@@ -248,6 +260,8 @@ class Recommendation(_RecommendationValue):
         >>> rec.write(out, "sql", table="raw"); out.read_text() == rec.to_sql(table="raw")
         True
         """
+        from driftline.emit.schemas.files import write_file as _write_file
+
         _write_file(self, path, to, table=table, json_mode=json_mode)
 
 

@@ -272,7 +272,9 @@ def _type_names() -> dict[str, object]:
     classes, and pyarrow and polars by their usual short names."""
     import sys
 
-    names: dict[str, object] = {"pa": pa, "pl": pl, "_pa": pa, "_pl": pl}
+    from driftline.results.tables import Tables
+
+    names: dict[str, object] = {"pa": pa, "pl": pl, "_pa": pa, "_pl": pl, "_Tables": Tables}
     for mod_name, mod in sorted(sys.modules.items()):
         if mod_name.startswith("driftline"):
             for k, v in vars(mod).items():
