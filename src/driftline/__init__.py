@@ -28,35 +28,28 @@ InputPathError
 
 from __future__ import annotations
 
-from driftline._api import (
+from driftline._api import Profile, Recommendation, check, diff, load_report, recommend, scan
+from driftline.core.options import ReadOptions, ScanOptions
+from driftline.core.version import __version__
+from driftline.errors import (
     DamagedFileError,
-    Diff,
     DriftlineError,
     EngineError,
-    Event,
-    FieldSummary,
     InputPathError,
     OptionError,
     OutputError,
-    Policy,
     PolicyError,
-    Profile,
     ProfileError,
-    ReadOptions,
-    Recommendation,
     ReportVersionError,
-    ScanOptions,
     SchemaConflictError,
     UnreadableFileError,
-    Verdict,
     WorkerError,
-    __version__,
-    check,
-    diff,
-    load_report,
-    recommend,
-    scan,
 )
+from driftline.gate.diff import Diff
+from driftline.gate.policy import Policy
+from driftline.gate.verdict import Verdict
+from driftline.results.drift import Event
+from driftline.results.profile import FieldSummary
 
 __all__ = [
     "DamagedFileError",

@@ -1,5 +1,6 @@
-"""The public surface of driftline: the functions and the public values, re-exported by
-driftline/__init__.py. Each CLI verb is one call of a function here plus printing.
+"""The public functions and the public Profile and Recommendation, re-exported (with the errors
+and the other public values, from their homes) by driftline/__init__.py. Each CLI verb is one
+call of a function here plus printing.
 
 This is the floor above every other (only cli/ sits higher): Profile and Recommendation
 extend the values of results/ and recommendation/ with the outputs emit/ renders.
@@ -18,23 +19,12 @@ from typing import Unpack as _Unpack
 from typing import overload as _overload
 
 from driftline.core.jsontypes import JSONObject as _JSONObject
-from driftline.core.options import ReadOptions, ScanOptions
 from driftline.core.options import ScanKeywords as _ScanKeywords
-from driftline.core.version import __version__
+from driftline.core.options import ScanOptions
 from driftline.emit.atomic import write_output as _write_output
 from driftline.errors import (
-    DamagedFileError,
-    DriftlineError,
-    EngineError,
     InputPathError,
-    OptionError,
-    OutputError,
-    PolicyError,
-    ProfileError,
-    ReportVersionError,
     SchemaConflictError,
-    UnreadableFileError,
-    WorkerError,
 )
 from driftline.gate.diff import Diff
 from driftline.gate.policy import Policy
@@ -44,8 +34,6 @@ from driftline.recommendation import recommend as _recommend
 from driftline.recommendation.options import RecommendOptions as _RecommendOptions
 from driftline.recommendation.plan import JsonMode as _JsonMode
 from driftline.recommendation.plan import OutputFormat as _OutputFormat
-from driftline.results.drift import Event
-from driftline.results.profile import FieldSummary
 from driftline.results.profile import Profile as _ProfileValue
 from driftline.results.report import dumps as _dumps
 from driftline.results.report import load_report as _load_report
@@ -474,34 +462,3 @@ def recommend(
         return Recommendation._of(_recommend(profile, options=options, **rest))
     except SchemaConflictError as exc:  # the refused plans, with their files (to_json_schema, ...)
         raise SchemaConflictError(Recommendation._of(exc.recommendation)) from None
-
-
-__all__ = [
-    "DamagedFileError",
-    "Diff",
-    "DriftlineError",
-    "EngineError",
-    "Event",
-    "FieldSummary",
-    "InputPathError",
-    "OptionError",
-    "OutputError",
-    "Policy",
-    "PolicyError",
-    "Profile",
-    "ProfileError",
-    "ReadOptions",
-    "Recommendation",
-    "ReportVersionError",
-    "ScanOptions",
-    "SchemaConflictError",
-    "UnreadableFileError",
-    "Verdict",
-    "WorkerError",
-    "__version__",
-    "check",
-    "diff",
-    "load_report",
-    "recommend",
-    "scan",
-]
