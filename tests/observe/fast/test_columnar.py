@@ -1,4 +1,6 @@
-"""Every Arrow and Parquet type is observed, or left out for that column alone with one warning.
+"""observe/fast/columnar.py: Arrow columns observed with pyarrow.compute, equal to the reference
+record walk on the same values, and every Arrow and Parquet type observed, or left out for
+that column alone with one warning.
 
 pyarrow is the reference: a Parquet file per type is written with it, `pq.read_schema` says
 which Arrow type the file holds, `null_count` how many nulls, and `to_pylist` how many
@@ -32,6 +34,7 @@ from driftline.core.stats import NULL_SAMPLE, type_sample
 from driftline.observe.fast import columnar
 from driftline.observe.fast.bulk import Batch, observe_batches
 from driftline.observe.fast.columnar import observe_table
+from driftline.observe.records import observe_records
 from driftline.results.report import to_dict
 
 D = decimal.Decimal
@@ -555,3 +558,42 @@ def test_an_infinite_float_extreme_survives_the_report(tmp_path: Path) -> None:
     out.write_bytes(dumps(driftline.scan(tmp_path / "a.parquet")))
     field = load_report(out).fields["x"].stats
     assert (field.minimum, field.maximum) == (float("-inf"), float("inf"))
+
+
+# -- the columnar path against the reference record walk ----------------------------------------
+
+
+def test_columnar_and_record_paths_agree_on_typed_data():
+    recs = [{"a": 1, "b": "x", "c": 2.5}, {"a": 3, "b": "2026-11-30", "c": None}]
+    table = pa.Table.from_pylist(recs)
+    by_records = observe_records(recs, file="f", batch=0, row_start=0)
+    by_columns = observe_table(table, file="f", batch=0, row_start=0)
+    for path in ("a", "b", "c"):
+        r, c = by_records.fields[path], by_columns.fields[path]
+        assert (r.types, r.nulls, r.classes, r.minimum, r.maximum) == (
+            c.types,
+            c.nulls,
+            c.classes,
+            c.minimum,
+            c.maximum,
+        )
+
+
+def test_text_columns_infer_types_from_classes():
+    # source: RFC 4180 gives CSV no types; an empty cell reads as null (common practice,
+    # pyarrow.csv does the same, REFERENCES §3)
+    table = pa.table({"n": ["1", "", "007", "x"]})
+    st = observe_table(table, file="t.csv", batch=0, row_start=0, lines=[2, 3, 4, 5], text_source=True).fields["n"]
+    # "007" is zero_padded: a code whose zeros an int64 would drop (common practice: ZIP codes), so text
+    assert st.types == {"int64": 1, "string": 2}
+    assert st.nulls == 1 and st.text == 4
+    assert st.first(NULL_SAMPLE).line == 3
+
+
+def test_always_empty_lists_agree_between_paths():
+    recs = [{"e": []}, {"e": []}]
+    by_records = observe_records(recs, file="f", batch=0, row_start=0).fields
+    by_columns = observe_table(
+        pa.table({"e": pa.array([[], []], pa.list_(pa.int64()))}), file="f", batch=0, row_start=0
+    ).fields
+    assert by_records["e[]"] == by_columns["e[]"]
