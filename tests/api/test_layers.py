@@ -11,6 +11,8 @@ from __future__ import annotations
 import grimp
 import pytest
 
+from conftest import ROOT
+
 # Top to bottom. A floor may import any floor below it, never one above.
 FLOORS: tuple[tuple[str, ...], ...] = (
     ("cli",),
@@ -127,3 +129,16 @@ def test_the_cycle_finder_finds_a_cycle() -> None:
     for a, b in (("p.a", "p.b"), ("p.b", "p.c"), ("p.c", "p.a"), ("p.d", "p.a"), ("p.e", "p.f"), ("p.f", "p.e")):
         g.add_import(importer=a, imported=b)
     assert _cycles(g) == [["p.a", "p.b", "p.c"], ["p.e", "p.f"]]
+
+
+def test_developers_md_draws_these_floors() -> None:
+    # The picture in DEVELOPERS.md is the contract a contributor reads: it names the same floors,
+    # in the same order, as FLOORS above (a floor's first column: `cli/`, `_api.py`, `core/ + errors.py`).
+    text = (ROOT / "DEVELOPERS.md").read_text(encoding="utf-8")
+    block = text.split("## Architecture", 1)[1].split("```", 2)[1]
+    drawn = [
+        tuple(part.strip().removesuffix("/").removesuffix(".py") for part in line.split("  ", 1)[0].split("+"))
+        for line in block.splitlines()
+        if line and not line.startswith(" ")
+    ]
+    assert drawn == list(FLOORS)
