@@ -14,6 +14,7 @@ from rich.text import Text
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
 from driftline.results.drift import Event
+from driftline.results.levels import LEVELS
 from driftline.results.profile import FieldSummary, Profile
 from driftline.results.report import limit_notes, partition_types
 
@@ -65,6 +66,8 @@ def overview(profile: Profile) -> Text:
         f"{profile.rows:,} rows, {human_bytes(profile.bytes)}, {len(profile.fields)} fields, "
         f"{len(profile.skipped)} skipped, {errors} file errors, {profile.duration_s:.2f} s"
     )
+    if profile.event_total:  # on the first screen, before the field table
+        text.append(f"\ndrift: {levels_line(profile.level_counts)}")
     other = [s.rel for s in profile.skipped if s.reason == "other-extension"]
     if other:  # skipped unopened for their extension alone: say so, they may be data
         names = ", ".join(safe_text(r, 60) for r in other[:3])
@@ -147,22 +150,45 @@ def _where(e: Event) -> str:
     return where
 
 
-def events_block(events: tuple[Event, ...]) -> Text:
-    """Drift events as a numbered list: what changed on one line, where and an example on the next."""
+def levels_line(counts: dict[str, int]) -> str:
+    """How many drift events of each level, most urgent first: '2 breaking, 1 widening, 0 info'."""
+    return ", ".join(f"{n:,} {level}" for level, n in counts.items())
+
+
+def by_level(events: tuple[Event, ...]) -> list[tuple[str, list[Event]]]:
+    """The events grouped by level, breaking first (LEVELS order), scan order kept within a level."""
+    groups: dict[str, list[Event]] = {level: [] for level in LEVELS}
+    for e in events:
+        groups[e.level].append(e)
+    return [(level, group) for level, group in groups.items() if group]
+
+
+def events_block(events: tuple[Event, ...], counts: dict[str, int] | None = None) -> Text:
+    """Drift events grouped by level, breaking first, as numbered lists: what changed on one
+    line, where and an example on the next. counts (every event of each level, listed or not)
+    make the heading; without them the listed events are counted."""
+    shown = by_level(events)
+    total = counts or {level: sum(1 for e in events if e.level == level) for level in LEVELS}
     text = Text()
-    text.append(f"Drift events, in scan order ({len(events)})\n", style="bold")
+    text.append(f"Drift events ({sum(total.values()):,}): {levels_line(total)}\n", style="bold")
     width = len(str(min(len(events), MAX_EVENTS_SHOWN)))
-    for i, e in enumerate(events[:MAX_EVENTS_SHOWN], 1):
-        text.append(f"{i:>{width}}  ")
-        text.append(f"{e.kind:<18}", style="bold")
-        text.append(safe_text(e.path))
-        if e.before or e.after:
-            text.append(f": {safe_text(e.before or '–')} → {safe_text(e.after or '–')}")
-        text.append("\n" + " " * (width + 2) + "at " + safe_text(_where(e), 200))
-        if e.example:
-            text.append(f", e.g. {safe_text(e.example, 40)}")
-        unit = "rows from here on" if e.kind in ("field-gone", "nested-gone") else "values in that batch"
-        text.append(f" ({e.count:,} {unit})\n")
+    i = 0
+    for level, group in shown:
+        if i >= MAX_EVENTS_SHOWN:
+            break
+        text.append(f"{level} ({total.get(level, len(group)):,}), in scan order\n", style="bold")
+        for e in group[: MAX_EVENTS_SHOWN - i]:
+            i += 1
+            text.append(f"{i:>{width}}  ")
+            text.append(f"{e.kind:<18}", style="bold")
+            text.append(safe_text(e.path))
+            if e.before or e.after:
+                text.append(f": {safe_text(e.before or '–')} → {safe_text(e.after or '–')}")
+            text.append("\n" + " " * (width + 2) + "at " + safe_text(_where(e), 200))
+            if e.example:
+                text.append(f", e.g. {safe_text(e.example, 40)}")
+            unit = "rows from here on" if e.kind in ("field-gone", "nested-gone") else "values in that batch"
+            text.append(f" ({e.count:,} {unit})\n")
     return text
 
 
@@ -189,7 +215,7 @@ def render(profile: Profile, console: Console) -> None:
     console.print(fields_table(profile))
     console.print()
     if profile.events:
-        console.print(events_block(profile.events), end="")
+        console.print(events_block(profile.events, profile.level_counts), end="")
         if profile.event_total > len(profile.events):
             console.print(
                 f"… {profile.event_total - len(profile.events):,} more events counted, not listed (--max-events)"

@@ -19,6 +19,7 @@ from driftline.core.lattice import UNKNOWN, DType, is_widening, join, type_of_ke
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
 from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
+from driftline.results.levels import level_of
 
 # Event kinds, in the order they are listed for one batch.
 EVENT_KINDS: dict[str, str] = {
@@ -59,10 +60,21 @@ class Event:
     count: int  # how many values in that batch show it
     seq: int = field(default=0, compare=False)  # position of the batch in scan order
 
+    @property
+    def level(self) -> str:
+        """breaking, widening or info: what the change does to a reader of the schema before it
+        (results/levels.py, the one mapping).
+
+        >>> Event("nulls-begin", "x", None, "null", "a.jsonl", (), 0, 1, 2, None, 1).level
+        'breaking'
+        """
+        return level_of(self.kind, self.before, self.after)
+
     def to_json(self) -> JSONObject:
         """The event as it appears in the JSON report's "events" list."""
         return {
             "kind": self.kind,
+            "level": self.level,
             "path": self.path,
             "before": self.before,
             "after": self.after,
@@ -125,23 +137,26 @@ def drift_events(files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS) -
 
 def drift_summary(
     files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS
-) -> tuple[tuple[Event, ...], dict[str, int]]:
-    """(the first `limit` events in scan order, the number of events of each kind, all counted).
+) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
+    """(the first `limit` events in scan order, the number of events of each kind, and of each
+    level, all counted).
 
     Drift takes the ordered file results, never a Profile: it is the one walk in scan order.
     Only `limit` events are held at any time: a scan with a tiny batch_rows over many paths
     and partitions finds events by the million.
     """
     counts: Counter[str] = Counter()
+    levels: Counter[str] = Counter()
 
     def counted() -> Iterator[Event]:
         for e in _all_events(files):
             counts[e.kind] += 1
+            levels[e.level] += 1
             yield e
 
     # nsmallest is sorted(...)[:limit] (ties keep their order) with a heap of limit events.
     kept = heapq.nsmallest(limit, counted(), key=_order)
-    return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}
+    return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}, dict(levels)
 
 
 def _order(e: Event) -> tuple[int, int, int, str]:

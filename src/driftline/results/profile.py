@@ -19,6 +19,7 @@ from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import FieldStats, merge_all
 from driftline.errors import ProfileError
 from driftline.results.drift import Event, drift_summary
+from driftline.results.levels import LEVELS
 
 
 @dataclass(frozen=True, slots=True)
@@ -162,7 +163,7 @@ class Profile:
         return summarise(self.stats, self.rows)
 
     @cached_property
-    def _drift(self) -> tuple[tuple[Event, ...], dict[str, int]]:
+    def _drift(self) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
         given = self.options.get("max_events")
         return drift_summary(self.files, given if isinstance(given, int) else DEFAULT_MAX_EVENTS)
 
@@ -180,6 +181,16 @@ class Profile:
         {}
         """
         return self._drift[1]
+
+    @property
+    def level_counts(self) -> dict[str, int]:
+        """How many drift events of each level the scan found (listed or not), every level named,
+        most urgent first (results/levels.py).
+
+        >>> Profile("r", ()).level_counts
+        {'breaking': 0, 'widening': 0, 'info': 0}
+        """
+        return {level: self._drift[2].get(level, 0) for level in LEVELS}
 
     @property
     def event_total(self) -> int:
