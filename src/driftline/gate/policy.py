@@ -51,6 +51,39 @@ RULES: dict[str, str] = {
     "cast_loss": "a cast rule would null more than max_cast_loss values of a field",
 }
 
+# The policy key that judges against a baseline the change each drift event kind reports
+# against the scan's own past (docs/drift.md, "The gate's policy keys"); element-changed
+# and textclass-changed go by the event's level, field-gone by whether the field is required.
+_EVENT_RULES: dict[str, str] = {
+    "field-new": "new_field",
+    "nested-new": "new_field",
+    "field-gone": "missing_required",
+    "nested-gone": "missing_required",
+    "type-widened": "widening",
+    "type-conflict": "type_change",
+    "element-changed": "type_change",
+    "nulls-begin": "unexpected_nulls",
+    "textclass-changed": "content_class",
+}
+
+
+def rule_of_event(kind: str, level: str, *, required: bool = True) -> str:
+    """The policy key that decides, in `check`, the change a drift event of this kind and level
+    reports; a field-gone of a field the baseline holds optional is optional_gone.
+
+    >>> rule_of_event("type-conflict", "breaking"), rule_of_event("element-changed", "widening")
+    ('type_change', 'widening')
+    >>> rule_of_event("field-gone", "breaking", required=False)
+    'optional_gone'
+    """
+    rule = _EVENT_RULES[kind]
+    if kind == "element-changed" and level == "widening":
+        return "widening"
+    if rule == "missing_required" and not required:
+        return "optional_gone"
+    return rule
+
+
 _THRESHOLDS: dict[str, tuple[type, float, float, str]] = {
     # key: (type, lowest, highest, unit); the rule it limits is the key without "max_"
     "max_null_share_rise": (float, 0.0, 100.0, "percentage points"),
