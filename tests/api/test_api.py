@@ -81,6 +81,7 @@ DOCTEST_MODULES = [
     "driftline.core.dialectpin",
     "driftline.sources.encoding",
     "driftline.results.tables",
+    "driftline.results.levels",
 ]
 
 

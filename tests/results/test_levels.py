@@ -71,6 +71,8 @@ def test_each_level_on_a_worked_example(tmp_path: Path):
         ("textclass-changed", "breaking", "c", "decimal, integer", "text", 4),
     ]
     assert profile.level_counts == {"breaking": 4, "widening": 5, "info": 1}
+    # The notebook table of events has the same column.
+    assert profile.to_arrow().events.column("level").to_pylist() == [e.level for e in profile.events]
 
 
 def test_gone_fields_break_a_reader(tmp_path: Path):

@@ -39,6 +39,7 @@ FIELDS_SCHEMA = pa.schema(
 EVENTS_SCHEMA = pa.schema(
     [
         ("kind", pa.string()),
+        ("level", pa.string()),  # breaking, widening or info (results/levels.py)
         ("path", pa.string()),
         ("before", pa.string()),
         ("after", pa.string()),
@@ -102,7 +103,7 @@ def events_table(profile: Profile) -> pa.Table:
 
     >>> import driftline
     >>> events_table(driftline.Profile("r", ())).column_names[:3]
-    ['kind', 'path', 'before']
+    ['kind', 'level', 'path']
     """
     rows = []
     for e in profile.events:
