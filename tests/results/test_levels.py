@@ -110,6 +110,12 @@ def test_element_levels_agree_with_arrows_permissive_unify(before: str, after: s
     assert level_of("element-changed", before, joined) == level == arrow
 
 
+def test_a_member_of_a_union_widening_in_list_elements_is_widening():
+    # The same rule as type-widened at the top level (test_drift.test_a_member_of_a_union_widens).
+    assert level_of("element-changed", "union<int64 | string>", "union<float64 | string>") == "widening"
+    assert level_of("element-changed", "union<int64 | string>", "union<bool | int64 | string>") == "breaking"
+
+
 def test_the_report_writes_each_events_level_and_loads_back(tmp_path: Path):
     data = tmp_path / "data"
     write_lines(data / "a.jsonl", WORKED)

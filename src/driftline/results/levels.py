@@ -56,12 +56,15 @@ def level_of(kind: str, before: str | None, after: str | None) -> str:
 
 
 def _type_level(before: str | None, after: str | None) -> str:
-    """widening when after is a widening of before in the lattice, else breaking (a union, or a
-    type the lattice cannot read back)."""
+    """As the walk tells type-widened from type-conflict at the top level: widening when after
+    holds before and adds no family (a wider type, or a member of a union widened), else
+    breaking (a new family, or a type the lattice cannot read back)."""
     old, new = _dtype(before), _dtype(after)
-    if old is UNKNOWN or new is UNKNOWN:
+    if old is UNKNOWN or new is UNKNOWN or join_all((old, new)) != new or new == old:
         return "breaking"
-    return "widening" if is_widening(old, new) and join_all((old, new)) == new else "breaking"
+    if new.name == "union" and (old.name != "union" or len(new.members) > len(old.members)):
+        return "breaking"
+    return "widening"
 
 
 def _class_level(before: str | None, after: str | None) -> str:
