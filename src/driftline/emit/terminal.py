@@ -138,17 +138,32 @@ def fields_table(profile: Profile) -> Table:
     return table
 
 
-def _where(e: Event) -> str:
-    where = e.file
-    if e.row is not None:
-        where += f" row {e.row}"
-    if e.line is not None:
-        where += f" (line {e.line})"
-    return where
+def _where(file: str | None, row: int | None) -> str:
+    return safe_text(file or "", 200) + (f" row {row:,}" if row is not None else "")
+
+
+def reach_text(e: Event) -> str:
+    """How far an episode reaches, on one line: files, rows (or values), from where to where,
+    still going or ended (and where), recurrences.
+
+    >>> reach_text(Event("type-conflict", "t", "float64", "string", "a.jsonl", (), 0, 1500, 1501, None, 3,
+    ...     1512, 1512, 3, 3, "c.jsonl", 11))
+    '3 files, 1,512 rows, from a.jsonl row 1,500 to c.jsonl row 11; still going'
+    """
+    files = f"{e.files:,} file" + ("s" if e.files != 1 else "")
+    amount = f"{e.rows:,} rows" if e.rows is not None else f"{e.values:,} values"
+    text = f"{files}, {amount}, from {_where(e.file, e.row)}"
+    if (e.last_file, e.last_row) != (e.file, e.row):
+        text += f" to {_where(e.last_file, e.last_row)}"
+    if e.recurrences:
+        text += f", came back {e.recurrences:,} time" + ("s" if e.recurrences != 1 else "")
+    if e.ended_file is None:
+        return text + "; still going"
+    return text + f"; ended at {_where(e.ended_file, e.ended_row)}"
 
 
 def events_block(events: tuple[Event, ...]) -> Text:
-    """Drift events as a numbered list: what changed on one line, where and an example on the next."""
+    """Drift events as a numbered list, one line per episode: what changed, then its reach."""
     text = Text()
     text.append(f"Drift events, in scan order ({len(events)})\n", style="bold")
     width = len(str(min(len(events), MAX_EVENTS_SHOWN)))
@@ -158,11 +173,7 @@ def events_block(events: tuple[Event, ...]) -> Text:
         text.append(safe_text(e.path))
         if e.before or e.after:
             text.append(f": {safe_text(e.before or '–')} → {safe_text(e.after or '–')}")
-        text.append("\n" + " " * (width + 2) + "at " + safe_text(_where(e), 200))
-        if e.example:
-            text.append(f", e.g. {safe_text(e.example, 40)}")
-        unit = "rows from here on" if e.kind in ("field-gone", "nested-gone") else "values in that batch"
-        text.append(f" ({e.count:,} {unit})\n")
+        text.append(", " + reach_text(e) + "\n")
     return text
 
 
