@@ -16,11 +16,11 @@ def reach_text(e: Event) -> str:
 
     >>> reach_text(Event("type-conflict", "t", "float64", "string", "a.jsonl", (), 0, 1500, 1501, None, 3,
     ...     1512, 1512, 3, 3, "c.jsonl", 11))
-    '3 files, 1,512 rows, from a.jsonl row 1,500 to c.jsonl row 11; still going'
+    '3 files, 1,512 rows, from a.jsonl row 1,500 (line 1,501) to c.jsonl row 11; still going'
     """
     files = f"{e.files:,} file" + ("s" if e.files != 1 else "")
     amount = f"{e.rows:,} rows" if e.rows is not None else f"{e.values:,} values"
-    text = f"{files}, {amount}, from {_where(e.file, e.row)}"
+    text = f"{files}, {amount}, from {_where(e.file, e.row)}" + (f" (line {e.line:,})" if e.line is not None else "")
     if (e.last_file, e.last_row) != (e.file, e.row):
         text += f" to {_where(e.last_file, e.last_row)}"
     if e.recurrences:

@@ -140,8 +140,9 @@ def fields_table(profile: Profile) -> Table:
 
 
 def events_block(events: tuple[Event, ...]) -> Text:
-    """Drift events as a numbered list, one line per episode: what changed, then its reach."""
-    text = Text()
+    """Drift events as a numbered list, one line per episode: what changed, then its reach
+    (never wrapped, so that each episode stays one line to search and copy)."""
+    text = Text(no_wrap=True, overflow="ignore")
     text.append(f"Drift events, in scan order ({len(events)})\n", style="bold")
     width = len(str(min(len(events), MAX_EVENTS_SHOWN)))
     for i, e in enumerate(events[:MAX_EVENTS_SHOWN], 1):
@@ -177,7 +178,7 @@ def render(profile: Profile, console: Console) -> None:
     console.print(fields_table(profile))
     console.print()
     if profile.events:
-        console.print(events_block(profile.events), end="")
+        console.print(events_block(profile.events), end="", no_wrap=True, overflow="ignore", crop=False)
         if profile.event_total > len(profile.events):
             console.print(
                 f"… {profile.event_total - len(profile.events):,} more events counted, not listed (--max-events)"
