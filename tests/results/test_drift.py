@@ -242,3 +242,13 @@ def test_episodes_go_to_json_and_back(demo_profile):
         data = e.to_json()
         assert Event.from_json(data) == e
         assert data["still_going"] == (e.ended_file is None)
+
+
+def test_max_events_bounds_the_list_and_keeps_the_totals_exact(tmp_path: Path):
+    folder = _flip_folder(tmp_path, with_tail=True)
+    write_lines(folder / "f.jsonl", ['{"id": 1, "temp_c": 1.5, "extra": true}'])
+    full = driftline.scan(folder)
+    one = driftline.scan(folder, max_events=1)
+    assert [(e.kind, e.path) for e in full.events] == [("type-conflict", "temp_c"), ("field-new", "extra")]
+    assert one.events == full.events[:1] and one.event_total == 2
+    assert one.events[0].rows == 22  # the listed episode is still counted in full

@@ -151,7 +151,10 @@ def events_block(events: tuple[Event, ...]) -> Text:
         text.append(safe_text(e.path))
         if e.before or e.after:
             text.append(f": {safe_text(e.before or '–')} → {safe_text(e.after or '–')}")
-        text.append(", " + reach_text(e) + "\n")
+        text.append(", " + reach_text(e))
+        if e.example:
+            text.append(f"; e.g. {safe_text(e.example, 40)}")
+        text.append("\n")
     return text
 
 

@@ -186,8 +186,8 @@ def drift_summary(
             yield e
 
     states: dict[str, _PathState] = {}
-    walked = list(counted(_walk(sequence, limit, states)))
     # nsmallest is sorted(...)[:limit] (ties keep their order) with a heap of limit events.
+    walked = heapq.nsmallest(limit, counted(_walk(sequence, limit, states)), key=_order)
     gone = heapq.nsmallest(limit, counted(_gone_events(sequence, states)), key=_order)
     kept = heapq.nsmallest(limit, [*walked, *gone], key=_order)
     return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}
