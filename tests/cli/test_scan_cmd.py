@@ -22,7 +22,8 @@ def test_scan_demo_prints_summary_and_events(demo_dir: Path):
     out = res.stdout
     assert "15 files (2 csv, 12 jsonl, 1 parquet), 4,694 rows" in out
     assert "type-conflict     pm25: float64 → string" in out
-    assert "at readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 90 (line 91)" in out
+    # One line per episode: where it starts and how far it reaches (docs/drift.md)
+    assert "2 files, 122 rows, from readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 90 (line 91) to " in out
     assert "unexpected end of data" in out and "line 218" in out
 
 

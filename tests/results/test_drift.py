@@ -6,11 +6,12 @@ manifest, checked independently by tests/scripts/test_make_demo.py; the scan mus
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import driftline
 from conftest import write_lines
-from driftline.results.drift import EVENT_KINDS
+from driftline.results.drift import EVENT_KINDS, Event
 
 
 def test_every_injected_change_is_named_with_field_file_and_row(demo_profile, demo_manifest):
@@ -116,3 +117,138 @@ def test_a_type_the_field_already_holds_is_no_drift(tmp_path: Path):
     # float64 holds int64 (the widening join): an integer after floats changes nothing
     write_lines(tmp_path / "a.jsonl", ['{"x": 1.5, "l": [1.5]}', '{"x": 2, "l": [2]}'])
     assert driftline.scan(tmp_path).events == ()
+
+
+# -- episodes: the reach of each change, counted again by DuckDB over the same files ------------
+
+
+def _json_types(folder: Path, field: str) -> list[tuple[str, int, str | None]]:
+    """(file, 0-based row, JSON type of field or None when the key is missing) for every row, read by DuckDB."""
+    import duckdb
+
+    con = duckdb.connect()
+    con.execute("SET threads = 1")  # one reader thread: rows come back in file order
+    out = []
+    for path in sorted(folder.glob("*.jsonl")):
+        # source: DuckDB JSON extension docs, read_ndjson_objects (one JSON value per line) and json_type
+        got = con.execute(f"SELECT json_type(json, '$.{field}') FROM read_ndjson_objects(?)", [str(path)]).fetchall()
+        out.extend((path.name, i, t) for i, (t,) in enumerate(got))
+    return out
+
+
+def _flip_folder(tmp_path: Path, with_tail: bool) -> Path:
+    """temp_c is a float; strings arrive in b (rows 25-39) and c (rows 0-4), none in d, and again in e."""
+
+    def rows(n: int, strings: set[int]) -> list[str]:
+        return [json.dumps({"id": i, "temp_c": str(i + 0.5) if i in strings else i + 0.5}) for i in range(n)]
+
+    write_lines(tmp_path / "a.jsonl", rows(30, set()))
+    write_lines(tmp_path / "b.jsonl", rows(40, set(range(25, 40))))
+    write_lines(tmp_path / "c.jsonl", rows(20, set(range(5))))
+    write_lines(tmp_path / "d.jsonl", rows(10, set()))
+    if with_tail:
+        write_lines(tmp_path / "e.jsonl", rows(12, {3, 7}))
+    return tmp_path
+
+
+def _one(profile, kind: str, path: str):
+    (event,) = [e for e in profile.events if (e.kind, e.path) == (kind, path)]
+    return event
+
+
+def test_type_flip_episode_reach_matches_duckdb_and_recurs(tmp_path: Path):
+    folder = _flip_folder(tmp_path, with_tail=True)
+    strings = [(f, r) for f, r, t in _json_types(folder, "temp_c") if t == "VARCHAR"]
+    e = _one(driftline.scan(folder), "type-conflict", "temp_c")
+    assert (e.before, e.after) == ("float64", "string")
+    assert (e.file, e.row) == strings[0] == ("b.jsonl", 25)
+    assert e.rows == e.values == len(strings) == 15 + 5 + 2
+    assert e.files == len({f for f, _ in strings}) == 3
+    last_file = strings[-1][0]
+    # One batch a file (the default batch is far larger): the last batch is the whole last file.
+    assert (e.last_file, e.last_row) == (last_file, min(r for f, r in strings if f == last_file)) == ("e.jsonl", 3)
+    # Gone in d.jsonl (floats only), back in e.jsonl: the same episode, reopened once, still going.
+    assert (e.recurrences, e.still_going, e.ended_file) == (1, True, None)
+    assert e.batches == 3
+    assert [x for x in driftline.scan(folder).events if x.kind == "type-conflict"] == [e]
+
+
+def test_type_flip_that_stops_ends_where_it_no_longer_shows(tmp_path: Path):
+    folder = _flip_folder(tmp_path, with_tail=False)
+    types = _json_types(folder, "temp_c")
+    strings = [(f, r) for f, r, t in types if t == "VARCHAR"]
+    e = _one(driftline.scan(folder), "type-conflict", "temp_c")
+    assert e.rows == len(strings) == 20 and e.files == 2
+    # It ends in the first file after the last string that holds temp_c values, at that batch's first row.
+    after = [f for f, _, t in types if f > strings[-1][0] and t == "DOUBLE"]
+    assert (e.still_going, e.ended_file, e.ended_batch, e.ended_row, e.recurrences) == (False, after[0], 0, 0, 0)
+    assert e.ended_file == "d.jsonl"
+    assert e.to_json()["ended"] == {"file": "d.jsonl", "batch": 0, "row": 0}
+
+
+def test_episode_totals_do_not_depend_on_batch_size(tmp_path: Path):
+    folder = _flip_folder(tmp_path, with_tail=True)
+    whole = _one(driftline.scan(folder), "type-conflict", "temp_c")
+    small = _one(driftline.scan(folder, batch_rows=7), "type-conflict", "temp_c")
+    same = ("file", "row", "line", "values", "rows", "files", "last_file")
+    assert {k: getattr(small, k) for k in same} == {k: getattr(whole, k) for k in same}
+    # Batches are the unit of showing, so batches touched (and where it pauses) follow the batch size:
+    # b rows 21-27, 28-34, 35-39 and c rows 0-6 and e rows 0-6, 7-11 hold strings.
+    assert (whole.batches, small.batches) == (3, 6)
+
+
+def test_a_field_that_leaves_and_returns_ends_its_gone_episode_where_it_returns(tmp_path: Path):
+    write_lines(tmp_path / "a.jsonl", ['{"x": 1, "y": 1}'] * 4)
+    write_lines(tmp_path / "b.jsonl", ['{"x": 1}'] * 5)
+    write_lines(tmp_path / "c.jsonl", ['{"x": 1}'] * 6)
+    write_lines(tmp_path / "d.jsonl", ['{"x": 1, "y": 2}'] * 3)
+    missing = [(f, r) for f, r, t in _json_types(tmp_path, "y") if t is None]
+    e = _one(driftline.scan(tmp_path), "field-gone", "y")
+    assert (e.file, e.row) == missing[0] == ("b.jsonl", 0)
+    assert e.rows == e.values == len(missing) == 11
+    assert (e.files, e.last_file, e.last_row) == (2, "c.jsonl", max(r for f, r in missing if f == "c.jsonl"))
+    # The return is reported: the episode ends at the first row of d.jsonl, where y is back.
+    assert (e.still_going, e.ended_file, e.ended_row) == (False, "d.jsonl", 0)
+
+
+def test_nulls_that_begin_and_go_on_are_counted_in_full(tmp_path: Path):
+    write_lines(tmp_path / "a.jsonl", ['{"h": 1}'] * 3)
+    write_lines(tmp_path / "b.jsonl", ['{"h": 1}', '{"h": null}', '{"h": 2}', '{"h": null}'])
+    write_lines(tmp_path / "c.jsonl", ['{"h": null}', '{"h": 3}'])
+    nulls = [(f, r) for f, r, t in _json_types(tmp_path, "h") if t == "NULL"]
+    e = _one(driftline.scan(tmp_path), "nulls-begin", "h")
+    assert (e.file, e.row, e.line) == (*nulls[0], 2)
+    assert (e.rows, e.files, e.last_file, e.still_going) == (len(nulls), 2, "c.jsonl", True) == (3, 2, "c.jsonl", True)
+
+
+def test_the_first_file_is_the_baseline(tmp_path: Path):
+    # The first rows of each field set its baseline: nulls from the first row on, a key missing
+    # from some rows, a nested struct: facts of the data, not changes, so no event.
+    lines = ['{"x": 1, "y": null, "s": {"a": 1}}', '{"x": 2, "s": {"a": 2}}', '{"x": 3, "y": null, "s": {"a": 3}}']
+    write_lines(tmp_path / "a.jsonl", lines)
+    assert driftline.scan(tmp_path).events == ()
+    # The same rows again in a second file change nothing either.
+    write_lines(tmp_path / "b.jsonl", lines)
+    assert driftline.scan(tmp_path).events == ()
+    # A change in the second file is one: its start is where it first shows.
+    write_lines(tmp_path / "c.jsonl", ['{"x": "four", "y": null, "s": {"a": 4}}'])
+    assert [(e.kind, e.path, e.file, e.row) for e in driftline.scan(tmp_path).events] == [
+        ("type-conflict", "x", "c.jsonl", 0)
+    ]
+
+
+def test_episodes_go_to_json_and_back(demo_profile):
+    for e in demo_profile.events:
+        data = e.to_json()
+        assert Event.from_json(data) == e
+        assert data["still_going"] == (e.ended_file is None)
+
+
+def test_max_events_bounds_the_list_and_keeps_the_totals_exact(tmp_path: Path):
+    folder = _flip_folder(tmp_path, with_tail=True)
+    write_lines(folder / "f.jsonl", ['{"id": 1, "temp_c": 1.5, "extra": true}'])
+    full = driftline.scan(folder)
+    one = driftline.scan(folder, max_events=1)
+    assert [(e.kind, e.path) for e in full.events] == [("type-conflict", "temp_c"), ("field-new", "extra")]
+    assert one.events == full.events[:1] and one.event_total == 2
+    assert one.events[0].rows == 22  # the listed episode is still counted in full

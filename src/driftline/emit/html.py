@@ -27,6 +27,7 @@ from driftline.core.version import __version__
 from driftline.emit import html_data as hd
 from driftline.emit import svg
 from driftline.emit.atomic import write_output
+from driftline.emit.reach import reach_text
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
 from driftline.results.drift import EVENT_KINDS, Event
@@ -94,8 +95,8 @@ def _parts(parts: Sequence[tuple[str, str]]) -> str:
 
 
 def _count_text(e: Event) -> str:
-    unit = "rows from here on" if e.kind in ("field-gone", "nested-gone") else "values in that batch"
-    return f"{e.count:,} {unit}"
+    """The episode's reach: the terminal's line, and how many batches."""
+    return f"{reach_text(e)} ({e.batches:,} batches)"
 
 
 def _tip(number: int, e: Event) -> str:

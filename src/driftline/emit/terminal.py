@@ -11,6 +11,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
+from driftline.emit.reach import reach_text
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
 from driftline.results.drift import Event
@@ -141,15 +142,6 @@ def fields_table(profile: Profile) -> Table:
     return table
 
 
-def _where(e: Event) -> str:
-    where = e.file
-    if e.row is not None:
-        where += f" row {e.row}"
-    if e.line is not None:
-        where += f" (line {e.line})"
-    return where
-
-
 def levels_line(counts: dict[str, int]) -> str:
     """How many drift events of each level, most urgent first: '2 breaking, 1 widening, 0 info'."""
     return ", ".join(f"{n:,} {level}" for level, n in counts.items())
@@ -164,16 +156,16 @@ def by_level(events: tuple[Event, ...]) -> list[tuple[str, list[Event]]]:
 
 
 def events_block(events: tuple[Event, ...], counts: dict[str, int] | None = None) -> Text:
-    """Drift events grouped by level, breaking first, as numbered lists: what changed on one
-    line, where and an example on the next. counts (every event of each level, listed or not)
-    make the heading; without them the listed events are counted."""
-    shown = by_level(events)
+    """Drift events grouped by level, breaking first, numbered, one line per episode: what
+    changed, then its reach (never wrapped, so that each episode stays one line to search and
+    copy). counts (every event of each level, listed or not) make the heading; without them
+    the listed events are counted."""
     total = counts or {level: sum(1 for e in events if e.level == level) for level in LEVELS}
-    text = Text()
+    text = Text(no_wrap=True, overflow="ignore")
     text.append(f"Drift events ({sum(total.values()):,}): {levels_line(total)}\n", style="bold")
     width = len(str(min(len(events), MAX_EVENTS_SHOWN)))
     i = 0
-    for level, group in shown:
+    for level, group in by_level(events):
         if i >= MAX_EVENTS_SHOWN:
             break
         text.append(f"{level} ({total.get(level, len(group)):,}), in scan order\n", style="bold")
@@ -184,11 +176,10 @@ def events_block(events: tuple[Event, ...], counts: dict[str, int] | None = None
             text.append(safe_text(e.path))
             if e.before or e.after:
                 text.append(f": {safe_text(e.before or '–')} → {safe_text(e.after or '–')}")
-            text.append("\n" + " " * (width + 2) + "at " + safe_text(_where(e), 200))
+            text.append(", " + reach_text(e))
             if e.example:
-                text.append(f", e.g. {safe_text(e.example, 40)}")
-            unit = "rows from here on" if e.kind in ("field-gone", "nested-gone") else "values in that batch"
-            text.append(f" ({e.count:,} {unit})\n")
+                text.append(f"; e.g. {safe_text(e.example, 40)}")
+            text.append("\n")
     return text
 
 
@@ -215,7 +206,9 @@ def render(profile: Profile, console: Console) -> None:
     console.print(fields_table(profile))
     console.print()
     if profile.events:
-        console.print(events_block(profile.events, profile.level_counts), end="")
+        console.print(
+            events_block(profile.events, profile.level_counts), end="", no_wrap=True, overflow="ignore", crop=False
+        )
         if profile.event_total > len(profile.events):
             console.print(
                 f"… {profile.event_total - len(profile.events):,} more events counted, not listed (--max-events)"

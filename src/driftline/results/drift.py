@@ -9,7 +9,7 @@ from __future__ import annotations
 import heapq
 from collections import Counter
 from collections.abc import Iterator, Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 from driftline.core import paths
@@ -38,13 +38,18 @@ _KIND_ORDER = {k: i for i, k in enumerate(EVENT_KINDS)}
 
 @dataclass(frozen=True, slots=True)
 class Event:
-    """One drift event with its provenance.
+    """One drift event: an episode, with where it starts and how far it reaches.
+
+    The start (file, partitions, batch, row, line, example, count) is where the change
+    first shows; the reach (values, rows, batches, files, last_file, last_row, ended_*,
+    recurrences) counts every batch of the scan that shows it (docs/drift.md says, per
+    kind, what "shows" and "ended" mean).
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": null}\\n')
     >>> e = driftline.scan(d, batch_rows=1).events[0]
-    >>> e.kind, e.path, e.file, e.batch, e.row, e.line
-    ('nulls-begin', 'x', 'a.jsonl', 1, 1, 2)
+    >>> e.kind, e.path, e.file, e.batch, e.row, e.line, e.values, e.still_going
+    ('nulls-begin', 'x', 'a.jsonl', 1, 1, 2, 1, True)
     """
 
     kind: str
@@ -57,7 +62,17 @@ class Event:
     row: int | None  # 0-based row within the file where it shows first
     line: int | None
     example: str | None
-    count: int  # how many values in that batch show it
+    count: int  # how many values (rows, for a gone field) show it in that first batch
+    values: int = 0  # values showing it over the whole scan (places without it, for a gone field)
+    rows: int | None = None  # rows holding them; None inside a list or map, where a row holds many
+    batches: int = 0  # batches showing it
+    files: int = 0  # files showing it
+    last_file: str | None = None  # the last file showing it
+    last_row: int | None = None  # the first row showing it in the last batch that does
+    ended_file: str | None = None  # None: still going at the end of the scan
+    ended_batch: int | None = None  # where it last stopped showing (the first batch without it)
+    ended_row: int | None = None
+    recurrences: int = 0  # how many times it came back after it had ended
     seq: int = field(default=0, compare=False)  # position of the batch in scan order
 
     @property
@@ -69,6 +84,11 @@ class Event:
         'breaking'
         """
         return level_of(self.kind, self.before, self.after)
+
+    @property
+    def still_going(self) -> bool:
+        """Whether the change still shows in the last batch that could show it."""
+        return self.ended_file is None
 
     def to_json(self) -> JSONObject:
         """The event as it appears in the JSON report's "events" list."""
@@ -85,17 +105,29 @@ class Event:
             "line": self.line,
             "example": self.example,
             "count": self.count,
+            "values": self.values,
+            "rows": self.rows,
+            "batches": self.batches,
+            "files": self.files,
+            "last_file": self.last_file,
+            "last_row": self.last_row,
+            "still_going": self.still_going,
+            "ended": None
+            if self.ended_file is None
+            else {"file": self.ended_file, "batch": self.ended_batch, "row": self.ended_row},
+            "recurrences": self.recurrences,
         }
 
     @staticmethod
     def from_json(data: Mapping[str, JSONValue]) -> Event:
         """The event back from its report form (to_json's inverse; seq is not kept).
 
-        >>> e = Event("field-new", "x", None, "int64", "a.jsonl", (), 0, 0, 1, "1", 1)
+        >>> e = Event("field-new", "x", None, "int64", "a.jsonl", (), 0, 0, 1, "1", 1, 1, 1, 1, 1, "a.jsonl", 0)
         >>> Event.from_json(e.to_json()) == e
         True
         """
         d: Mapping[str, Any] = data  # checked against docs/report.schema.json when a report is loaded
+        ended = d.get("ended") or {}
         return Event(
             d["kind"],
             d["path"],
@@ -108,6 +140,16 @@ class Event:
             d.get("line"),
             d.get("example"),
             d.get("count", 0),
+            d.get("values", 0),
+            d.get("rows"),
+            d.get("batches", 0),
+            d.get("files", 0),
+            d.get("last_file"),
+            d.get("last_row"),
+            ended.get("file"),
+            ended.get("batch"),
+            ended.get("row"),
+            d.get("recurrences", 0),
         )
 
 
@@ -142,20 +184,27 @@ def drift_summary(
     level, all counted).
 
     Drift takes the ordered file results, never a Profile: it is the one walk in scan order.
-    Only `limit` events are held at any time: a scan with a tiny batch_rows over many paths
-    and partitions finds events by the million.
+    About `limit` episodes are followed at any time (the walk finds episodes in scan order,
+    so one that starts after `limit` others can never be listed: it is only counted); a
+    scan with a tiny batch_rows over many paths and partitions finds them by the million.
     """
     counts: Counter[str] = Counter()
     levels: Counter[str] = Counter()
+    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]] = [
+        (o, f.partitions) for f in files for o in f.observations
+    ]
 
-    def counted() -> Iterator[Event]:
-        for e in _all_events(files):
+    def counted(events: Iterator[Event]) -> Iterator[Event]:
+        for e in events:
             counts[e.kind] += 1
             levels[e.level] += 1
             yield e
 
+    states: dict[str, _PathState] = {}
     # nsmallest is sorted(...)[:limit] (ties keep their order) with a heap of limit events.
-    kept = heapq.nsmallest(limit, counted(), key=_order)
+    walked = heapq.nsmallest(limit, counted(_walk(sequence, limit, states)), key=_order)
+    gone = heapq.nsmallest(limit, counted(_gone_events(sequence, states)), key=_order)
+    kept = heapq.nsmallest(limit, [*walked, *gone], key=_order)
     return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}, dict(levels)
 
 
@@ -163,18 +212,102 @@ def _order(e: Event) -> tuple[int, int, int, str]:
     return (e.seq, e.row if e.row is not None else -1, _KIND_ORDER[e.kind], e.path)
 
 
-def _all_events(files: Sequence[FileResult]) -> Iterator[Event]:
-    """Every drift event, batch by batch (the events of one batch in no set order), then the gone ones."""
-    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]] = [
-        (o, f.partitions) for f in files for o in f.observations
-    ]
-    states: dict[str, _PathState] = {}
+def _rows_per_value(path: str) -> bool:
+    """Whether each row holds at most one value of path (no list or map step on the way)."""
+    return all(kind == "field" for kind, _ in paths.split(path))
+
+
+@dataclass(slots=True)
+class _Episode:
+    """One change followed through the scan: its start (an Event) and its reach so far."""
+
+    start: Event
+    key: str | None  # the type key, class or None (the field itself, its nulls) that shows it
+    values: int = 0
+    batches: int = 0
+    files: int = 0
+    last_file: str | None = None
+    last_batch: int = -1
+    last_row: int | None = None
+    last_seq: int = -1
+    ended: tuple[str, int, int] | None = None
+    recurrences: int = 0
+
+    def shows(self, obs: Observation, seq: int, values: int, row: int | None) -> None:
+        if self.ended is not None:
+            self.ended = None
+            self.recurrences += 1
+        self.values += values
+        self.batches += 1
+        if obs.file != self.last_file:
+            self.files += 1
+        self.last_file, self.last_batch, self.last_row, self.last_seq = obs.file, obs.batch, row, seq
+
+    def stops(self, obs: Observation) -> None:
+        if self.ended is None:
+            self.ended = (obs.file, obs.batch, obs.row_start)
+
+    def event(self) -> Event:
+        s = self.start
+        ended = self.ended or (None, None, None)
+        return replace(
+            s,
+            values=self.values,
+            rows=self.values if _rows_per_value(s.path) else None,
+            batches=self.batches,
+            files=self.files,
+            last_file=self.last_file,
+            last_row=self.last_row,
+            ended_file=ended[0],
+            ended_batch=ended[1],
+            ended_row=ended[2],
+            recurrences=self.recurrences,
+        )
+
+
+def _shown(ep: _Episode, st: FieldStats) -> tuple[bool, int, Example | None] | None:
+    """Whether a batch where the path is present shows the episode: None when the batch
+    cannot tell (a type change in a batch of nulls only), else (shows, values, first example)."""
+    kind = ep.start.kind
+    if kind in ("nulls-begin",):
+        return (st.nulls > 0, st.nulls, st.first(NULL_SAMPLE))
+    if kind == "textclass-changed":
+        if not st.classes:
+            return None
+        n = st.classes.get(ep.key or "", 0)
+        return (n > 0, n, st.first(class_sample(ep.key or "")))
+    if kind in ("field-new", "nested-new"):
+        return (True, st.present, _earliest(st))
+    if not st.types:
+        return None
+    n = st.types.get(ep.key or "", 0)
+    return (n > 0, n, st.first(type_sample(ep.key or "")))
+
+
+def _walk(
+    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]], limit: int, states: dict[str, _PathState]
+) -> Iterator[Event]:
+    """Every episode but the gone ones: found batch by batch, followed to the end of the scan.
+
+    Episodes that start once `limit` others are followed are yielded as their start only:
+    they are counted, never listed.
+    """
+    followed: dict[str, list[_Episode]] = {}
+    episodes: list[_Episode] = []
     for seq, (obs, parts) in enumerate(sequence):
-        events: list[Event] = []
+        found: list[tuple[Event, str | None]] = []
         new_paths = {p for p, st in obs.fields.items() if p not in states and _present(st)}
         for path, st in obs.fields.items():
             if not _present(st):
                 continue
+            for ep in followed.get(path, ()):
+                shown = _shown(ep, st)
+                if shown is None:
+                    continue
+                if shown[0]:
+                    ep.shows(obs, seq, shown[1], shown[2].row if shown[2] else obs.row_start)
+                else:
+                    ep.stops(obs)
             state = states.get(path)
             if state is None:
                 state = states[path] = _PathState()
@@ -182,17 +315,45 @@ def _all_events(files: Sequence[FileResult]) -> Iterator[Event]:
                 if seq > 0 and not (parent is not None and parent in new_paths):
                     kind = "field-new" if parent is None else "nested-new"
                     ex = _earliest(st)
-                    events.append(_event(kind, path, None, _types_text(st), obs, parts, ex, st.present, seq))
+                    found.append((_event(kind, path, None, _types_text(st), obs, parts, ex, st.present, seq), None))
             prior_types = set(state.types)
-            events.extend(_type_events(path, st, state, obs, parts, seq))
+            found.extend(_type_events(path, st, state, obs, parts, seq))
             if st.nulls and not state.had_null and state.had_values:
                 ex = st.first(NULL_SAMPLE)
-                events.append(_event("nulls-begin", path, None, "null", obs, parts, ex, st.nulls, seq))
-            events.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
+                found.append((_event("nulls-begin", path, None, "null", obs, parts, ex, st.nulls, seq), None))
+            found.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
             state.had_null = state.had_null or st.nulls > 0
             state.had_values = state.had_values or st.nonnull > 0
-        yield from events
-    yield from _gone_events(sequence, states)
+        if len(episodes) >= limit:
+            yield from (e for e, _ in found)
+            continue
+        for e, key in found:
+            ep = _Episode(e, key)
+            ep.shows(obs, seq, e.count, e.row)
+            episodes.append(ep)
+            followed.setdefault(e.path, []).append(ep)
+    _end_new_fields(sequence, [ep for ep in episodes if ep.start.kind in ("field-new", "nested-new")])
+    yield from (ep.event() for ep in episodes)
+
+
+def _end_new_fields(sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]], news: list[_Episode]) -> None:
+    """A new field has ended when a batch after the last one holding it could hold it (any
+    batch for a top-level field, one with its parent struct for a nested one) and does not.
+
+    A field that leaves and comes back is told by its field-gone episode, which ends where
+    it returns; the new field's episode counts everywhere it shows.
+    """
+    for ep in news:
+        parent, _ = paths.parent(ep.start.path)
+        for obs, _ in sequence[ep.last_seq + 1 :]:
+            if parent is None or _holds_struct(obs, parent):
+                ep.stops(obs)
+                break
+
+
+def _holds_struct(obs: Observation, parent: str) -> bool:
+    pst = obs.fields.get(parent)
+    return pst is not None and bool(pst.types.get("struct"))
 
 
 def _types_text(st: FieldStats) -> str:
@@ -228,8 +389,8 @@ def _event(
 
 def _type_events(
     path: str, st: FieldStats, state: _PathState, obs: Observation, parts: tuple[tuple[str, str], ...], seq: int
-) -> list[Event]:
-    out = []
+) -> list[tuple[Event, str | None]]:
+    out: list[tuple[Event, str | None]] = []
     # New types in the order they first show within the batch.
     fresh = sorted(
         (k for k in st.types if k not in state.types), key=lambda k: st.first(type_sample(k)) or Example("", 0)
@@ -248,19 +409,8 @@ def _type_events(
                 kind = ""
             if kind:
                 ex = st.first(type_sample(key))
-                out.append(
-                    _event(
-                        kind,
-                        path,
-                        type_text(old),
-                        type_text(new) if kind != "type-conflict" else key,
-                        obs,
-                        parts,
-                        ex,
-                        st.types[key],
-                        seq,
-                    )
-                )
+                after = type_text(new) if kind != "type-conflict" else key
+                out.append((_event(kind, path, type_text(old), after, obs, parts, ex, st.types[key], seq), key))
         state.types.add(key)
         state.joined = new
     return out
@@ -274,8 +424,8 @@ def _class_events(
     obs: Observation,
     parts: tuple[tuple[str, str], ...],
     seq: int,
-) -> list[Event]:
-    out = []
+) -> list[tuple[Event, str | None]]:
+    out: list[tuple[Event, str | None]] = []
     fresh = sorted(
         (c for c in st.classes if c not in state.classes), key=lambda c: st.first(class_sample(c)) or Example("", 0)
     )
@@ -283,7 +433,8 @@ def _class_events(
         if state.classes and not _covered_by_type(st, cls, prior_types):
             ex = st.first(class_sample(cls))
             before = ", ".join(sorted(state.classes))
-            out.append(_event("textclass-changed", path, before, cls, obs, parts, ex, st.classes[cls], seq))
+            e = _event("textclass-changed", path, before, cls, obs, parts, ex, st.classes[cls], seq)
+            out.append((e, cls))
         state.classes.add(cls)
     return out
 
@@ -308,46 +459,46 @@ def _series(parts: tuple[tuple[str, str], ...]) -> tuple[tuple[str, str], ...]:
 
 def _gone_events(
     sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]], states: dict[str, _PathState]
-) -> list[Event]:
+) -> Iterator[Event]:
+    """Fields that stop arriving, series by series: an episode per field and series.
+
+    It starts at the first batch of the series without the field after one with it (a
+    nested field: a batch whose parent struct arrives without it), shows in every such
+    batch, ends where the field returns and reopens when it leaves again.
+    """
     by_series: dict[tuple[tuple[str, str], ...], list[int]] = {}
     for seq, (_, parts) in enumerate(sequence):
         by_series.setdefault(_series(parts), []).append(seq)
-    out = []
     for series in sorted(by_series):
-        seqs = by_series[series]
-        last_seen: dict[str, int] = {}
-        for i, seq in enumerate(seqs):
-            for path, st in sequence[seq][0].fields.items():
-                if _present(st):
-                    last_seen[path] = i
-        for path, last in sorted(last_seen.items()):
-            if last == len(seqs) - 1:
-                continue
-            parent, _ = paths.parent(path)
-            for i in range(last + 1, len(seqs)):
-                obs, parts = sequence[seqs[i]]
-                pst = obs.fields.get(parent) if parent is not None else None
-                if parent is None or pst is not None and pst.types.get("struct"):
+        seen: set[str] = set()
+        open_: dict[str, _Episode] = {}
+        for seq in by_series[series]:
+            obs, parts = sequence[seq]
+            present = {p for p, st in obs.fields.items() if _present(st)}
+            for path in seen:
+                if path in present:
+                    if path in open_:
+                        open_[path].stops(obs)
+                    continue
+                parent, _ = paths.parent(path)
+                if parent is None:
+                    missing = obs.rows
+                elif _holds_struct(obs, parent):
+                    missing = obs.fields[parent].types["struct"]
+                else:
+                    continue
+                ep = open_.get(path)
+                if ep is None:
                     kind = "field-gone" if parent is None else "nested-gone"
-                    later = sum(sequence[s][0].rows for s in seqs[i:])
-                    out.append(
-                        Event(
-                            kind,
-                            path,
-                            _joined_key(states[path]),
-                            None,
-                            obs.file,
-                            parts,
-                            obs.batch,
-                            obs.row_start,
-                            _first_line(obs),
-                            None,
-                            later,
-                            seqs[i],
-                        )
-                    )
-                    break
-    return out
+                    start = Event(
+                        kind, path, _joined_key(states[path]), None, obs.file, parts, obs.batch, obs.row_start,
+                        _first_line(obs), None, missing, seq=seq,
+                    )  # fmt: skip
+                    ep = open_[path] = _Episode(start, None)
+                ep.shows(obs, seq, missing, obs.row_start + obs.rows - 1)
+            seen |= present
+        for path in sorted(open_):
+            yield open_[path].event()
 
 
 def _first_line(obs: Observation) -> int | None:

@@ -50,6 +50,18 @@ EVENTS_SCHEMA = pa.schema(
         ("line", pa.int64()),
         ("example", pa.string()),
         ("count", pa.int64()),
+        # the episode's reach (docs/drift.md); ended_* are null while it is still going
+        ("values", pa.int64()),
+        ("rows", pa.int64()),
+        ("batches", pa.int64()),
+        ("files", pa.int64()),
+        ("last_file", pa.string()),
+        ("last_row", pa.int64()),
+        ("still_going", pa.bool_()),
+        ("ended_file", pa.string()),
+        ("ended_batch", pa.int64()),
+        ("ended_row", pa.int64()),
+        ("recurrences", pa.int64()),
     ]
 )
 
@@ -109,6 +121,8 @@ def events_table(profile: Profile) -> pa.Table:
     for e in profile.events:
         d = e.to_json()
         d["partitions"] = [{"key": k, "value": v} for k, v in e.partitions]
+        d.pop("ended")
+        d.update(ended_file=e.ended_file, ended_batch=e.ended_batch, ended_row=e.ended_row)
         rows.append(d)
     return pa.Table.from_pylist(rows, schema=EVENTS_SCHEMA)
 

@@ -1,0 +1,30 @@
+"""An episode's reach in words, on one line: the terminal's events list and the HTML report's."""
+
+from __future__ import annotations
+
+from driftline.emit.safe import safe_text
+from driftline.results.drift import Event
+
+
+def _where(file: str | None, row: int | None) -> str:
+    return safe_text(file or "", 200) + (f" row {row:,}" if row is not None else "")
+
+
+def reach_text(e: Event) -> str:
+    """How far an episode reaches, on one line: files, rows (or values), from where to where,
+    still going or ended (and where), recurrences.
+
+    >>> reach_text(Event("type-conflict", "t", "float64", "string", "a.jsonl", (), 0, 1500, 1501, None, 3,
+    ...     1512, 1512, 3, 3, "c.jsonl", 11))
+    '3 files, 1,512 rows, from a.jsonl row 1,500 (line 1,501) to c.jsonl row 11; still going'
+    """
+    files = f"{e.files:,} file" + ("s" if e.files != 1 else "")
+    amount = f"{e.rows:,} rows" if e.rows is not None else f"{e.values:,} values"
+    text = f"{files}, {amount}, from {_where(e.file, e.row)}" + (f" (line {e.line:,})" if e.line is not None else "")
+    if (e.last_file, e.last_row) != (e.file, e.row):
+        text += f" to {_where(e.last_file, e.last_row)}"
+    if e.recurrences:
+        text += f", came back {e.recurrences:,} time" + ("s" if e.recurrences != 1 else "")
+    if e.ended_file is None:
+        return text + "; still going"
+    return text + f"; ended at {_where(e.ended_file, e.ended_row)}"
