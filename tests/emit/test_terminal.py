@@ -73,4 +73,5 @@ def test_level_counts_are_of_every_event_not_only_the_listed(tmp_path: Path):
         *(["field-gone", f"f{i:02d}:"] for i in range(5)),
         *(["field-new", f"f{i:02d}:"] for i in range(1, 6)),
     ]
-    assert lines[12] == "widening (39), in scan order"
+    # one line per episode: the heading, the breaking header, its five episodes, then widening
+    assert lines[7] == "widening (39), in scan order"
