@@ -61,6 +61,7 @@ DOCTEST_MODULES = [
     "driftline",
     "driftline.core.documents",
     "driftline.results.drift",
+    "driftline.emit.reach",
     "driftline.emit.units",
     "driftline.emit.schemas.files",
     "driftline.errors",

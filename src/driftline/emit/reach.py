@@ -17,9 +17,12 @@ def reach_text(e: Event) -> str:
     >>> reach_text(Event("type-conflict", "t", "float64", "string", "a.jsonl", (), 0, 1500, 1501, None, 3,
     ...     1512, 1512, 3, 3, "c.jsonl", 11))
     '3 files, 1,512 rows, from a.jsonl row 1,500 (line 1,501) to c.jsonl row 11; still going'
+    >>> reach_text(Event("nulls-begin", "t", None, "null", "a.jsonl", (), 0, 4, 5, None, 1, 1, 1, 1, 1, "a.jsonl", 4))
+    '1 file, 1 row, from a.jsonl row 4 (line 5); still going'
     """
     files = f"{e.files:,} file" + ("s" if e.files != 1 else "")
-    amount = f"{e.rows:,} rows" if e.rows is not None else f"{e.values:,} values"
+    count, unit = (e.rows, "row") if e.rows is not None else (e.values, "value")
+    amount = f"{count:,} {unit}" + ("s" if count != 1 else "")
     text = f"{files}, {amount}, from {_where(e.file, e.row)}" + (f" (line {e.line:,})" if e.line is not None else "")
     if (e.last_file, e.last_row) != (e.file, e.row):
         text += f" to {_where(e.last_file, e.last_row)}"
