@@ -3,11 +3,12 @@ way, how it was written) and the paths discovery passed over. Values only: reade
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
 from driftline.core.dataformat import Compression, Format
+from driftline.core.fileref import FileRef
 from driftline.core.observation import Observation
 from driftline.core.stats import pickled_by_fields
 from driftline.core.textfile import Dialect, TextEncoding
@@ -92,3 +93,34 @@ class FileResult:
     @property
     def errors(self) -> int:
         return sum(1 for i in self.issues if i.severity == "error")
+
+
+def file_result(
+    ref: FileRef,
+    observations: Sequence[Observation],
+    issues: Sequence[FileIssue],
+    *,
+    declared: dict[str, str] | None = None,
+    complete: bool = True,
+    dialect: Dialect | None = None,
+    encoding: TextEncoding | None = None,
+    span: int = 1,
+) -> FileResult:
+    """What one file contributed, with its identity taken from its FileRef and its rows counted
+    from the observations: the one way readers and span assembly make a FileResult."""
+    return FileResult(
+        rel=ref.rel,
+        format=ref.format,
+        compression=ref.compression,
+        partitions=ref.partitions,
+        size=ref.size,
+        mtime_ns=ref.mtime_ns,
+        rows=sum(o.rows for o in observations),
+        observations=tuple(observations),
+        issues=tuple(issues),
+        declared=declared,
+        complete=complete,
+        dialect=dialect,
+        encoding=encoding,
+        batch_span=span,
+    )

@@ -33,7 +33,7 @@ import pyarrow as pa
 import pyarrow.csv as pcsv
 
 from driftline.core.fileref import FileRef, file_changed
-from driftline.core.files import FileIssue, FileResult
+from driftline.core.files import FileIssue, FileResult, file_result
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
 from driftline.observe.fast.strprofile import exact_requested
@@ -345,18 +345,10 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
     if not _joined(results) or file_changed(ref) is not None:
         return None
     observations = tuple(o for res in results for o in res.observations)
-    return FileResult(
-        rel=ref.rel,
-        format=ref.format,
-        compression=ref.compression,
-        partitions=ref.partitions,
-        size=ref.size,
-        mtime_ns=ref.mtime_ns,
-        rows=sum(o.rows for o in observations),
-        observations=observations,
-        issues=results[0].span.head.warnings,
-        declared=None,
-        complete=True,
+    return file_result(
+        ref,
+        observations,
+        results[0].span.head.warnings,
         dialect=results[0].span.head.header.dialect,
         encoding=file_encoding(ref.path, False, opts.encoding),
     )

@@ -17,7 +17,7 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from driftline.core.fileref import FileRef
-from driftline.core.files import FileIssue, FileResult
+from driftline.core.files import FileIssue, FileResult, file_result
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
 from driftline.observe.thinning import Thinner, concat_blocks
@@ -179,18 +179,4 @@ def assemble(ref: FileRef, results: Sequence[SpanResult], opts: ReadOptions) -> 
             return replace(res.span, end=None)
     observations, block = concat_blocks([(res.observations, res.block) for res in results])
     issues = results[-1].issues if results else ()
-    return FileResult(
-        rel=ref.rel,
-        format=ref.format,
-        compression=ref.compression,
-        partitions=ref.partitions,
-        size=ref.size,
-        mtime_ns=ref.mtime_ns,
-        rows=sum(o.rows for o in observations),
-        observations=observations,
-        issues=issues,
-        declared=None,
-        complete=True,
-        batch_span=block,
-        encoding=file_encoding(ref.path, True, opts.encoding),
-    )
+    return file_result(ref, observations, issues, span=block, encoding=file_encoding(ref.path, True, opts.encoding))

@@ -11,7 +11,7 @@ from typing import Any
 import pyarrow as pa
 
 from driftline.core.fileref import FileRef, file_changed
-from driftline.core.files import FileIssue, FileResult
+from driftline.core.files import FileIssue, FileResult, file_result
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
 from driftline.core.textfile import Dialect, TextEncoding
@@ -169,7 +169,7 @@ class _Read:
 
     def finish(self, pending: _Pending) -> FileResult:
         if not self.opened:
-            return _result(self.ref, [], self.issues, None, False, self.dialect)
+            return file_result(self.ref, [], self.issues, complete=False, dialect=self.dialect)
         observations: list[Observation] = []
         unobserved: dict[str, tuple[str, int]] = {}  # column -> (why, first row of its first batch)
         for part in self.parts:
@@ -204,7 +204,16 @@ class _Read:
         if change is not None:
             self.complete = False
             issues.append(FileIssue(ref.rel, "changed", change))
-        return _result(ref, observations, issues, self.declared, self.complete, self.dialect, self.encoding, span)
+        return file_result(
+            ref,
+            observations,
+            issues,
+            declared=self.declared,
+            complete=self.complete,
+            dialect=self.dialect,
+            encoding=self.encoding,
+            span=span,
+        )
 
     def _changed(self) -> str | None:
         ref = self.ref
@@ -340,34 +349,6 @@ def _read_stream(ref: FileRef, spec: FormatSpec, opts: ReadOptions, read: _Read)
         read.issues.append(FileIssue(ref.rel, kind, msg, byte_offset=safe.count if ref.compression is None else None))
     for note in notes:
         read.issues.append(FileIssue(ref.rel, "trailing-data", note.message(ref.size), "warning"))
-
-
-def _result(
-    ref: FileRef,
-    observations: list[Observation],
-    issues: list[FileIssue],
-    declared: dict[str, str] | None,
-    complete: bool,
-    dialect: Dialect | None = None,
-    encoding: TextEncoding | None = None,
-    span: int = 1,
-) -> FileResult:
-    return FileResult(
-        rel=ref.rel,
-        format=ref.format,
-        compression=ref.compression,
-        partitions=ref.partitions,
-        size=ref.size,
-        mtime_ns=ref.mtime_ns,
-        rows=sum(o.rows for o in observations),
-        observations=tuple(observations),
-        issues=tuple(issues),
-        declared=declared,
-        complete=complete,
-        dialect=dialect,
-        encoding=encoding,
-        batch_span=span,
-    )
 
 
 def _with_digest(result: FileResult, path: str) -> FileResult:
