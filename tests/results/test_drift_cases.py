@@ -11,9 +11,9 @@ from collections import Counter
 from pathlib import Path
 
 import pytest
-from _drift_cases import DriftCase, drift_cases, mismatches, same_tree, write_input
 
 import driftline
+from _drift_cases import DriftCase, drift_cases, mismatches, same_tree, write_input
 
 CASES = drift_cases()
 
