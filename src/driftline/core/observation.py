@@ -6,6 +6,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from driftline.core.shapetally import ShapeTally
 from driftline.core.stats import FieldStats, pickled_by_fields
 
 # Inferred type of a text cell (CSV/TSV) by its content class; None means null.
@@ -36,7 +37,9 @@ class Observation:
     with why; the reader turns them into one file problem per column. It is not part of the
     saved report: the problems are.  other_paths
     counts the distinct paths past the cap on paths (ReadOptions.max_paths) that the batch
-    held, other_values their values; neither is in fields.
+    held, other_values their values; neither is in fields. shapes is the batch's shape tally
+    (core/shapetally.py; None for a batch that has none, CSV or Parquet): it is not part of
+    the saved report either (results/shapes.py writes what it finds from it), nor of equality.
     """
 
     file: str
@@ -47,6 +50,7 @@ class Observation:
     unobserved: tuple[tuple[str, str], ...] = ()
     other_paths: int = 0
     other_values: int = 0
+    shapes: ShapeTally | None = field(default=None, compare=False)
 
     def to_json(self) -> dict[str, Any]:
         out: dict[str, Any] = {

@@ -26,6 +26,7 @@ from driftline.core.stats import (
     class_sample,
     type_sample,
 )
+from driftline.observe.shapes import tally_records
 from driftline.observe.textclass import class_masks, classify
 
 MAX_DEPTH = 2_000  # orjson stops at 1,024 levels; this guards values built elsewhere
@@ -203,6 +204,7 @@ def observe_records(
     rows: Sequence[int] | None = None,
     samples_only: bool = False,
     max_paths: int | None = None,
+    shapes: bool = False,
 ) -> Observation:
     """Observe parsed JSON values, one per row. Objects give their fields; anything else is '$'.
 
@@ -214,6 +216,7 @@ def observe_records(
     counts left at 0.
     max_paths: the batch keeps at most this many paths, in the order they first show; the
     values of the others are counted in Observation.other_values (other_paths of them).
+    shapes: the records are a whole batch: tally their shapes (observe/shapes.py).
 
     >>> obs = observe_records([{"a": 1}, {"a": "x"}, {}], file="f.jsonl", batch=0, row_start=0)
     >>> obs.fields["a"].types, obs.rows
@@ -237,6 +240,7 @@ def observe_records(
         fields=fields,
         other_paths=len(other.paths),
         other_values=other.values,
+        shapes=tally_records(records, fields) if shapes else None,
     )
 
 

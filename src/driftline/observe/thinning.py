@@ -19,6 +19,7 @@ from dataclasses import replace
 
 from driftline.core.files import FileResult
 from driftline.core.observation import Observation
+from driftline.core.shapetally import merge_all_tallies
 from driftline.core.stats import merge_all
 
 FILE_BATCHES = 4096  # observations kept per file before batches are merged into blocks
@@ -50,6 +51,7 @@ def merge_block(parts: Sequence[Observation], index: int) -> Observation:
         fields=merge_all(p.fields for p in parts),
         other_paths=sum(p.other_paths for p in parts),
         other_values=sum(p.other_values for p in parts),
+        shapes=merge_all_tallies(p.shapes for p in parts),
     )
 
 

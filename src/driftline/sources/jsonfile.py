@@ -103,6 +103,7 @@ class _Batcher:
             row_start=self.rows,
             lines=self.lines,
             max_paths=self.opts.max_paths,
+            shapes=True,
         )
         self.rows += len(self.records)
         self.batch += 1

@@ -37,11 +37,13 @@ import pyarrow.compute as pc
 from driftline.core import paths
 from driftline.core.jsonnum import loads as json_loads
 from driftline.core.observation import Observation
+from driftline.core.shapetally import ShapeTally
 from driftline.core.stats import SAMPLES_PER_KEY, FieldStats, Measured
 from driftline.observe import linetext
 from driftline.observe.fast.strprofile import string_profile
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.records import SAFE_INT, is_int_key, observe_records
+from driftline.observe.shapes import has_candidates, tally_records
 from driftline.observe.textclass import CLASSES
 
 
@@ -140,8 +142,24 @@ def observe_json_lines(
     fields = _merge_groups(got[0])
     if fields is None or max_paths is not None and len(fields) > max_paths:
         return None
-    obs = Observation(file=file, batch=batch, row_start=row_start, rows=n, fields=fields)
+    shapes = _shapes(lines, fields)
+    if shapes is None:
+        return None
+    obs = Observation(file=file, batch=batch, row_start=row_start, rows=n, fields=fields, shapes=shapes)
     return obs, Hint(got[1], tuple(aside))
+
+
+def _shapes(lines: Sequence[bytes], fields: dict[str, FieldStats]) -> ShapeTally | None:
+    """The batch's shape tally, as the exact walk makes it. It needs each record's fields, so the
+    lines are parsed again, only when some field could be a discriminator (None: a line orjson
+    refuses, left to the walk)."""
+    if not has_candidates(fields, len(lines)):
+        return {}
+    try:
+        records = [json_loads(line) for line in lines]
+    except orjson.JSONDecodeError:
+        return None
+    return tally_records(records, fields)
 
 
 _CENSUS_LINES = 64
