@@ -29,11 +29,14 @@ from __future__ import annotations
 
 from dataclasses import replace
 
+import orjson
+
 from driftline.core.files import FileIssue, FileResult
 from driftline.core.observation import Observation
 from driftline.core.stats import Example, FieldStats
 from driftline.core.valuepolicy import ValuePolicy
 from driftline.results.profile import Profile
+from driftline.results.shapes import Discriminator
 
 
 def conceal(profile: Profile, policy: ValuePolicy) -> Profile:
@@ -42,7 +45,16 @@ def conceal(profile: Profile, policy: ValuePolicy) -> Profile:
         return profile
     files = tuple(_file(f, policy) for f in profile.files)
     options = {**profile.options, "example_values": policy.mode}
-    return Profile(profile.root, files, profile.skipped, options, profile.duration_s)
+    return Profile(profile.root, files, profile.skipped, options, profile.duration_s, _shapes(profile.shapes, policy))
+
+
+def _shapes(found: Discriminator | None, policy: ValuePolicy) -> Discriminator | None:
+    """A record field's values are data (a partition's are folder names, in every file path):
+    concealed as examples are. Found before, so concealed values cannot merge."""
+    if found is None or found.source != "field":
+        return found
+    shapes = tuple(replace(s, value=policy.text(orjson.dumps(s.value).decode())) for s in found.shapes)
+    return replace(found, shapes=shapes)
 
 
 def _file(f: FileResult, policy: ValuePolicy) -> FileResult:

@@ -20,6 +20,7 @@ from driftline.core.observation import TEXT_CLASS_TYPE, Observation
 from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
 from driftline.results.levels import level_of
+from driftline.results.shapes import Discriminator, find_discriminator
 
 # Event kinds, in the order they are listed for one batch.
 EVENT_KINDS: dict[str, str] = {
@@ -171,6 +172,11 @@ def _present(st: FieldStats | None) -> bool:
     return st is not None and st.present > 0
 
 
+# The kinds that say a field arrives or leaves: a discriminator's shapes explain them.
+PRESENCE_KINDS = frozenset({"field-new", "nested-new", "field-gone", "nested-gone"})
+_FIND = "find"  # drift_summary's default: find the discriminator from the file results
+
+
 def drift_events(files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS) -> tuple[Event, ...]:
     """The drift events of the file results (sorted by relative path) in scan order: the
     first `limit` of them; drift_summary also gives the exact totals."""
@@ -178,10 +184,18 @@ def drift_events(files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS) -
 
 
 def drift_summary(
-    files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS
+    files: Sequence[FileResult],
+    limit: int = DEFAULT_MAX_EVENTS,
+    shapes: Discriminator | None | str = _FIND,
 ) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
     """(the first `limit` events in scan order, the number of events of each kind, and of each
     level, all counted).
+
+    shapes: the discriminator of the scan (results/shapes.py; found from the files unless
+    given, None for none). The fields whose presence it explains raise no presence episode
+    (PRESENCE_KINDS): their coming and going is the shapes, said once in the report. Their
+    types, nulls and classes are walked as any field's, so a field the values share is
+    compared across them.
 
     Drift takes the ordered file results, never a Profile: it is the one walk in scan order.
     About `limit` episodes are followed at any time (the walk finds episodes in scan order,
@@ -200,10 +214,12 @@ def drift_summary(
             levels[e.level] += 1
             yield e
 
+    found = find_discriminator(files) if isinstance(shapes, str) else shapes
+    quiet = frozenset(found.explained) if found is not None else frozenset()
     states: dict[str, _PathState] = {}
     # nsmallest is sorted(...)[:limit] (ties keep their order) with a heap of limit events.
-    walked = heapq.nsmallest(limit, counted(_walk(sequence, limit, states)), key=_order)
-    gone = heapq.nsmallest(limit, counted(_gone_events(sequence, states)), key=_order)
+    walked = heapq.nsmallest(limit, counted(_walk(sequence, limit, states, quiet)), key=_order)
+    gone = heapq.nsmallest(limit, counted(_gone_events(sequence, states, quiet)), key=_order)
     kept = heapq.nsmallest(limit, [*walked, *gone], key=_order)
     return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}, dict(levels)
 
@@ -285,9 +301,13 @@ def _shown(ep: _Episode, st: FieldStats) -> tuple[bool, int, Example | None] | N
 
 
 def _walk(
-    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]], limit: int, states: dict[str, _PathState]
+    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]],
+    limit: int,
+    states: dict[str, _PathState],
+    quiet: frozenset[str] = frozenset(),
 ) -> Iterator[Event]:
     """Every episode but the gone ones: found batch by batch, followed to the end of the scan.
+    The paths in quiet raise no new-field episode (a discriminator's shapes explain them).
 
     Episodes that start once `limit` others are followed are yielded as their start only:
     they are counted, never listed.
@@ -312,7 +332,7 @@ def _walk(
             if state is None:
                 state = states[path] = _PathState()
                 parent, _ = paths.parent(path)
-                if seq > 0 and not (parent is not None and parent in new_paths):
+                if seq > 0 and not (parent is not None and parent in new_paths) and path not in quiet:
                     kind = "field-new" if parent is None else "nested-new"
                     ex = _earliest(st)
                     found.append((_event(kind, path, None, _types_text(st), obs, parts, ex, st.present, seq), None))
@@ -458,9 +478,12 @@ def _series(parts: tuple[tuple[str, str], ...]) -> tuple[tuple[str, str], ...]:
 
 
 def _gone_events(
-    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]], states: dict[str, _PathState]
+    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]],
+    states: dict[str, _PathState],
+    quiet: frozenset[str] = frozenset(),
 ) -> Iterator[Event]:
-    """Fields that stop arriving, series by series: an episode per field and series.
+    """Fields that stop arriving, series by series: an episode per field and series (none for
+    the paths in quiet, whose presence a discriminator explains).
 
     It starts at the first batch of the series without the field after one with it (a
     nested field: a batch whose parent struct arrives without it), shows in every such
@@ -474,7 +497,7 @@ def _gone_events(
         open_: dict[str, _Episode] = {}
         for seq in by_series[series]:
             obs, parts = sequence[seq]
-            present = {p for p, st in obs.fields.items() if _present(st)}
+            present = {p for p, st in obs.fields.items() if _present(st) and p not in quiet}
             for path in seen:
                 if path in present:
                     if path in open_:

@@ -20,6 +20,7 @@ from driftline.core.stats import FieldStats, merge_all
 from driftline.errors import ProfileError
 from driftline.results.drift import Event, drift_summary
 from driftline.results.levels import LEVELS
+from driftline.results.shapes import Discriminator, find_discriminator
 
 
 @dataclass(frozen=True, slots=True)
@@ -87,6 +88,9 @@ class Profile:
     skipped: tuple[Skipped, ...] = ()
     options: Mapping[str, JSONValue] = field(default_factory=dict, compare=False)
     duration_s: float = field(default=0.0, compare=False)
+    # The discriminator a saved report names (results/report.py): a report keeps no shape
+    # tallies, so a loaded profile takes it from there; None: found from the files.
+    saved_shapes: Discriminator | None = field(default=None, compare=False)
 
     def __post_init__(self) -> None:
         rels = [f.rel for f in self.files]
@@ -163,9 +167,15 @@ class Profile:
         return summarise(self.stats, self.rows)
 
     @cached_property
+    def shapes(self) -> Discriminator | None:
+        """The partition key or record field that explains which fields the records hold, with
+        the shape of each of its values (results/shapes.py), or None when none does."""
+        return self.saved_shapes if self.saved_shapes is not None else find_discriminator(self.files)
+
+    @cached_property
     def _drift(self) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
         given = self.options.get("max_events")
-        return drift_summary(self.files, given if isinstance(given, int) else DEFAULT_MAX_EVENTS)
+        return drift_summary(self.files, given if isinstance(given, int) else DEFAULT_MAX_EVENTS, self.shapes)
 
     @property
     def events(self) -> tuple[Event, ...]:
@@ -255,7 +265,7 @@ class Profile:
     def __getstate__(self) -> dict[str, object]:
         # cached_property stores fields/events/stats in __dict__; a pickle (a process pool
         # result, a saved notebook value) carries only the content and rebuilds the views.
-        return {f: getattr(self, f) for f in ("root", "files", "skipped", "options", "duration_s")}
+        return {f: getattr(self, f) for f in ("root", "files", "skipped", "options", "duration_s", "saved_shapes")}
 
     def __setstate__(self, state: dict[str, object]) -> None:
         for k, v in state.items():

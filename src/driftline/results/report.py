@@ -27,6 +27,7 @@ from driftline.core.version import __version__
 from driftline.errors import ReportVersionError
 from driftline.observe.textclass import classify
 from driftline.results.profile import Profile
+from driftline.results.shapes import Discriminator
 
 REPORT_FORMAT = "driftline-report"
 SHALLOW_KINDS = frozenset({"list", "struct", "map"})  # lattice._SHALLOW: nested kinds without children
@@ -82,6 +83,7 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
             }
             for path, s in profile.fields.items()
         },
+        **({"shapes": profile.shapes.to_json()} if profile.shapes is not None else {}),
         "events": [e.to_json() for e in profile.events],
         "files": [_file_json(f, batches) for f in profile.files],
         "skipped": [{"path": s.rel, "reason": s.reason} for s in profile.skipped],
@@ -258,7 +260,8 @@ def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
             )
     files = files_from_json(data["files"], "report", source)
     skipped = tuple(Skipped(s["path"], s["reason"]) for s in data["skipped"])
-    return Profile(data["root"], files, skipped, dict(data["options"]), data.get("duration_s", 0.0))
+    shapes = Discriminator.from_json(data["shapes"]) if "shapes" in data else None
+    return Profile(data["root"], files, skipped, dict(data["options"]), data.get("duration_s", 0.0), shapes)
 
 
 def load_report(path: str | Path) -> Profile:
