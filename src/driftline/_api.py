@@ -68,7 +68,7 @@ class Profile(_ProfileValue):
     def _of(cls, value: _ProfileValue) -> Profile:
         if isinstance(value, cls):
             return value
-        return cls(value.root, value.files, value.skipped, value.options, value.duration_s)
+        return cls(value.root, value.files, value.skipped, value.options, value.duration_s, value.saved_shapes)
 
     def to_arrow(self) -> _Tables[_pa.Table]:
         """Fields and drift events as pyarrow Tables: `fields, events = profile.to_arrow()`.
