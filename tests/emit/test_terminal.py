@@ -75,3 +75,37 @@ def test_level_counts_are_of_every_event_not_only_the_listed(tmp_path: Path):
     ]
     # one line per episode: the heading, the breaking header, its five episodes, then widening
     assert lines[7] == "widening (39), in scan order"
+
+
+def test_shapes_are_said_once_before_the_fields(tmp_path: Path):
+    # tests/fixtures/drift/shapes-partition/make.py: three event folders, ten payloads each,
+    # sharing action and installation {id, created_at}.
+    from _drift_cases import CASES
+
+    text = _text(driftline.scan(CASES / "shapes-partition" / "input"))
+    lines = text.splitlines()
+    at = lines.index(
+        "shapes: partition key event explains which fields the records hold (3 values, 4 fields shared, 9 explained)"
+    )
+    assert lines[at + 1 : at + 4] == [
+        "  event=issue    10 rows: issue, issue.number, issue.title, labels",
+        "  event=push     10 rows: commits, ref",
+        "  event=release  10 rows: release, release.draft, release.tag",
+    ]
+    assert text.index("shapes: ") < text.index("Fields")
+    assert "field-new" not in text and "field-gone" not in text
+
+
+def test_shapes_block_is_bounded(tmp_path: Path):
+    # 20 kinds of record, each with a field of its own: one line for the discriminator, 12 for
+    # values, one saying how many more.
+    names = [f"k{chr(97 + i)}" for i in range(20)]  # ka .. kt: labels, not numbers
+    write_lines(tmp_path / "a.jsonl", [f'{{"kind": "{n}", "{n}_only": 1}}' for n in names])
+    text = _text(driftline.scan(tmp_path))
+    lines = text.splitlines()
+    at = next(i for i, line in enumerate(lines) if line.startswith("shapes: field kind"))
+    assert lines[at] == "shapes: field kind explains which fields the records hold (20 values, 1 field shared, 20 explained)"
+    assert lines[at + 1] == "  kind=ka  1 rows: ka_only"
+    assert lines[at + 12] == "  kind=kl  1 rows: kl_only"
+    assert lines[at + 13] == "  … 8 more values in the JSON report (--json)"
+    assert lines[at + 14] == ""

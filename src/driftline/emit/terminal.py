@@ -18,10 +18,13 @@ from driftline.results.drift import Event
 from driftline.results.levels import LEVELS
 from driftline.results.profile import FieldSummary, Profile
 from driftline.results.report import limit_notes, partition_types
+from driftline.results.shapes import Discriminator
 
 MAX_EVENTS_SHOWN = 200
 MAX_ISSUES_SHOWN = 50
 MAX_ENCODINGS_SHOWN = 10
+MAX_SHAPES_SHOWN = 12  # values of a discriminator, one line each
+MAX_SHAPE_FIELDS_SHOWN = 6  # fields named on a value's line
 
 
 def _pct(part: int, whole: int) -> str:
@@ -121,6 +124,39 @@ def encodings_line(profile: Profile) -> str:
     return "text encodings: " + (f"{utf8} files utf-8; " if utf8 else "") + "; ".join(parts)
 
 
+def shapes_block(found: Discriminator) -> Text:
+    """The discriminator in one line, then one line per value (at most MAX_SHAPES_SHOWN) with
+    its rows and the fields of its own (those not every value holds).
+
+    >>> from driftline.results.shapes import Shape
+    >>> d = Discriminator("partition", "event", (Shape("push", 5, ("id", "ref")), Shape("pull", 2, ("id", "pr"))),
+    ...                   ("pr", "ref"), ("id",))
+    >>> print(shapes_block(d).plain, end="")
+    shapes: partition key event explains which fields the records hold (2 values, 1 field shared, 2 explained)
+      event=push  5 rows: ref
+      event=pull  2 rows: pr
+    """
+    what = "partition key" if found.source == "partition" else "field"
+    text = Text()
+    text.append("shapes: ", style="bold")
+    text.append(f"{what} {safe_text(found.name)} explains which fields the records hold (")
+    shared = len(found.shared)
+    text.append(f"{len(found.shapes):,} values, {shared:,} field{'' if shared == 1 else 's'} shared, ")
+    text.append(f"{len(found.explained):,} explained)\n")
+    labels = [f"{safe_text(found.name)}={safe_text(s.value, 40)}" for s in found.shapes[:MAX_SHAPES_SHOWN]]
+    width = max(map(len, labels), default=0)
+    rows_width = max((len(f"{s.rows:,}") for s in found.shapes[:MAX_SHAPES_SHOWN]), default=0)
+    for label, shape in zip(labels, found.shapes, strict=False):
+        own = found.own(shape)
+        names = ", ".join(safe_text(p, 60) for p in own[:MAX_SHAPE_FIELDS_SHOWN]) or "no fields of its own"
+        more = f" and {len(own) - MAX_SHAPE_FIELDS_SHOWN:,} more" if len(own) > MAX_SHAPE_FIELDS_SHOWN else ""
+        optional = f"; {len(shape.optional):,} optional" if shape.optional else ""
+        text.append(f"  {label:<{width}}  {shape.rows:>{rows_width},} rows: {names}{more}{optional}\n")
+    if len(found.shapes) > MAX_SHAPES_SHOWN:
+        text.append(f"  … {len(found.shapes) - MAX_SHAPES_SHOWN:,} more values in the JSON report (--json)\n")
+    return text
+
+
 def fields_table(profile: Profile) -> Table:
     drifting = Counter(e.path for e in profile.events)
     table = Table(title="Fields", title_justify="left", show_lines=False, pad_edge=False)
@@ -202,6 +238,8 @@ def render(profile: Profile, console: Console) -> None:
     console.print(overview(profile))
     if any(f.dialect is not None for f in profile.files):
         console.print(dialects_block(profile), end="")
+    if profile.shapes is not None:
+        console.print(shapes_block(profile.shapes), end="", no_wrap=True, overflow="ignore", crop=False)
     console.print()
     console.print(fields_table(profile))
     console.print()
