@@ -586,3 +586,56 @@ def test_values_read_off_the_line(tmp_path: Path, knobs: str) -> None:
     (tmp_path / "v.jsonl").write_text("".join(out), encoding="utf-8")
     report = _same([tmp_path / "v.jsonl"], 1500)
     assert report["fields"]["v"]["nulls"] > 400 and report["fields"]["s.w"]["types"]
+
+
+# -- shape tallies (core/shapetally.py): the fast path parses again, the walk tallies its records --
+
+
+def _payloads(n: int) -> list[bytes]:
+    rnd = random.Random(16)
+    out = []
+    for i in range(n):
+        kind = ["push", "issue", "release"][rnd.randrange(3)]
+        rec: dict[str, Any] = {"kind": kind, "id": i, "actor": rnd.choice(["ann", "bo"])}
+        if kind == "push":
+            rec["ref"] = "main"
+            if rnd.random() < 0.3:
+                rec["forced"] = None  # present as null: still present
+        elif kind == "issue":
+            rec["issue"] = {"number": i, "labels": ["x"] * rnd.randrange(3), "a.b": True}  # a name quoted in its path
+        else:
+            rec["release"] = {"tag": f"v{i}", "big": 2**70}
+        out.append(json.dumps(rec).encode())
+    return out
+
+
+@pytest.mark.parametrize("rows", [1, 7, 200])
+def test_shape_tallies_of_the_fast_path_equal_the_walk(rows: int) -> None:
+    from driftline.observe.records import observe_records
+
+    lines = _payloads(rows)
+    got = jsonbatch.observe_json_lines(lines, file="f.jsonl", batch=0, row_start=0, first_line=1)
+    assert got is not None  # the fast path answered
+    walk = observe_records([jsonnum.loads(line) for line in lines], file="f.jsonl", batch=0, row_start=0, shapes=True)
+    assert got[0].fields == walk.fields
+    assert got[0].shapes == walk.shapes
+    assert walk.shapes is not None and "kind" in walk.shapes  # a candidate in every batch
+
+
+@pytest.mark.parametrize("batch_rows", [1, 5, 1000])
+def test_shape_tallies_in_a_scan(tmp_path: Path, batch_rows: int, knobs: str) -> None:
+    lines = _payloads(120)
+    for n in range(3):
+        (tmp_path / f"p{n}.jsonl").write_bytes(b"\n".join(lines[40 * n : 40 * n + 40]) + b"\n")
+    tallies = []
+    for exact in (False, True):
+        with pytest.MonkeyPatch.context() as mp:
+            if exact:
+                mp.setenv(jsonfile.EXACT_ENV, "1")
+            profile = scan_paths([str(tmp_path)], read=ReadOptions(batch_rows=batch_rows, exact=exact))
+        tallies.append(([o.shapes for f in profile.files for o in f.observations], profile.shapes))
+    assert tallies[0] == tallies[1]
+    found = tallies[0][1]
+    # forced is optional within push (1 of the 9 fields whose presence varies): kind still explains
+    assert found is not None and (found.source, found.name) == ("field", "kind")
+    assert [(s.value, s.optional) for s in found.shapes] == [("issue", ()), ("push", ("forced",)), ("release", ())]
