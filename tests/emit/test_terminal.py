@@ -104,7 +104,10 @@ def test_shapes_block_is_bounded(tmp_path: Path):
     text = _text(driftline.scan(tmp_path))
     lines = text.splitlines()
     at = next(i for i, line in enumerate(lines) if line.startswith("shapes: field kind"))
-    assert lines[at] == "shapes: field kind explains which fields the records hold (20 values, 1 field shared, 20 explained)"
+    assert (
+        lines[at]
+        == "shapes: field kind explains which fields the records hold (20 values, 1 field shared, 20 explained)"
+    )
     assert lines[at + 1] == "  kind=ka  1 rows: ka_only"
     assert lines[at + 12] == "  kind=kl  1 rows: kl_only"
     assert lines[at + 13] == "  … 8 more values in the JSON report (--json)"

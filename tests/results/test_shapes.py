@@ -72,7 +72,10 @@ def test_a_field_that_really_appears_later_is_no_discriminator(tmp_path: Path) -
     for n in range(3):
         _write(
             tmp_path / f"f{n}.jsonl",
-            [{"status": ["ok", "late"][i % 2], "temp": 20 + i, **({"humidity": 40 + i} if n else {})} for i in range(4)],
+            [
+                {"status": ["ok", "late"][i % 2], "temp": 20 + i, **({"humidity": 40 + i} if n else {})}
+                for i in range(4)
+            ],
         )
     profile = driftline.scan(tmp_path)
     assert profile.shapes is None
@@ -84,7 +87,10 @@ def test_a_field_that_really_appears_later_is_no_discriminator(tmp_path: Path) -
 def test_dated_partitions_are_no_discriminator(tmp_path: Path) -> None:
     # day=… values read as dates: a field set that changes with them is change over time.
     for day in (1, 2):
-        _write(tmp_path / f"day=2026-03-0{day}" / "a.jsonl", [{"id": i, **({"v": 1} if day == 2 else {})} for i in range(3)])
+        _write(
+            tmp_path / f"day=2026-03-0{day}" / "a.jsonl",
+            [{"id": i, **({"v": 1} if day == 2 else {})} for i in range(3)],
+        )
     profile = driftline.scan(tmp_path)
     assert profile.shapes is None
     assert [(e.kind, e.path) for e in profile.events] == [("field-new", "v")]

@@ -120,7 +120,8 @@ def find_discriminator(files: Sequence[FileResult]) -> Discriminator | None:
     >>> def f(rel, event, *names):
     ...     obs = Observation(rel, 0, 0, 2, {n: FieldStats(types={"int64": 2}) for n in names})
     ...     return FileResult(rel, "jsonl", None, (("event", event),), 1, 0, 2, (obs,))
-    >>> d = find_discriminator([f("event=pull/a.jsonl", "pull", "id", "pr"), f("event=push/a.jsonl", "push", "id", "ref")])
+    >>> pull, push = f("event=pull/a.jsonl", "pull", "id", "pr"), f("event=push/a.jsonl", "push", "id", "ref")
+    >>> d = find_discriminator([pull, push])
     >>> d.source, d.name, d.explained, d.shared, [(s.value, s.fields) for s in d.shapes]
     ('partition', 'event', ('pr', 'ref'), ('id',), [('pull', ('id', 'pr')), ('push', ('id', 'ref'))])
     """
