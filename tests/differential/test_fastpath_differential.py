@@ -622,6 +622,34 @@ def test_shape_tallies_of_the_fast_path_equal_the_walk(rows: int) -> None:
     assert walk.shapes is not None and "kind" in walk.shapes  # a candidate in every batch
 
 
+def test_shape_tallies_of_uniform_batches_equal_the_walk(monkeypatch: pytest.MonkeyPatch) -> None:
+    # Every row holds the same fields: the fast path takes the values from Arrow's table, and
+    # never parses the lines again.
+    from driftline.observe.records import observe_records
+
+    rnd = random.Random(7)
+    lines = [
+        json.dumps(
+            {
+                "kind": rnd.choice(["a", "b", "c"]),
+                "a.b": "x",
+                "ts": f"2026-01-01T00:00:{i % 60:02d}Z",
+                "id": f"id-{i}",
+                "s": {"y": None, "z": [1]},
+            }
+        ).encode()
+        for i in range(300)
+    ]
+    monkeypatch.setattr(jsonbatch, "tally_records", None)  # the table answers, or this fails
+    got = jsonbatch.observe_json_lines(lines, file="f.jsonl", batch=0, row_start=0, first_line=1)
+    assert got is not None
+    walk = observe_records([json.loads(line) for line in lines], file="f.jsonl", batch=0, row_start=0, shapes=True)
+    assert got[0].fields == walk.fields
+    assert got[0].shapes == walk.shapes
+    assert walk.shapes is not None and sorted(walk.shapes) == ["`a.b`", "kind"]  # id and ts: past 32 values
+    assert sorted(walk.shapes["kind"]["a"].always) == ["`a.b`", "id", "kind", "s", "s.y", "s.z", "ts"]
+
+
 @pytest.mark.parametrize("batch_rows", [1, 5, 1000])
 def test_shape_tallies_in_a_scan(tmp_path: Path, batch_rows: int, knobs: str) -> None:
     lines = _payloads(120)

@@ -11,6 +11,9 @@ from __future__ import annotations
 from collections.abc import Collection, Mapping, Sequence
 from typing import Any
 
+import pyarrow as pa
+import pyarrow.compute as pc
+
 from driftline.core import paths
 from driftline.core.shapetally import MAX_CANDIDATES, MAX_VALUES, ShapeTally, ValueShape
 from driftline.core.stats import FieldStats
@@ -71,10 +74,62 @@ def _struct_paths(v: Mapping[str, Any], parent: str | None, out: set[str], depth
             _struct_paths(sub, path, out, depth + 1)
 
 
+def _candidates(fields: Mapping[str, FieldStats], rows: int) -> list[str]:
+    """The top-level paths holding a string in every row, in path order, at most MAX_CANDIDATES."""
+    return sorted(
+        p
+        for p, st in fields.items()
+        if st.nulls == 0 and st.types.get("string") == rows and len(st.types) == 1 and paths.parent(p)[0] is None
+    )[:MAX_CANDIDATES]
+
+
+def uniform_tally(fields: Mapping[str, FieldStats], rows: int, table: pa.Table) -> ShapeTally | None:
+    """The tally of a batch whose every row holds the same fields, from its statistics and the
+    candidates' columns of Arrow's table of all its rows; None when the batch's rows differ (or
+    a column is not a plain string column): tally_records then walks the records.
+
+    A field is in every row when it is a top-level field present in every row, or a field
+    of a struct that is in every row (never null) and present in every such struct.
+
+    >>> from driftline.core.stats import FieldStats
+    >>> f = {"k": FieldStats(types={"string": 3}), "s": FieldStats(types={"struct": 3}), "s.x": FieldStats(nulls=3)}
+    >>> t = uniform_tally(f, 3, pa.table({"k": ["a", "b", "a"]}))
+    >>> {v: (s.rows, sorted(s.always)) for v, s in t["k"].items()}
+    {'a': (2, ['k', 's', 's.x']), 'b': (1, ['k', 's', 's.x'])}
+    """
+    shape: set[str] = set()
+    for p in sorted((p for p in fields if _field_path(p)), key=lambda q: len(paths.split(q))):  # structs first
+        st = fields[p]
+        parent, _ = paths.parent(p)
+        if parent is None:
+            every = st.present == rows
+        else:
+            pst = fields[parent]
+            structs = pst.types.get("struct", 0)
+            every = parent in shape and pst.present == structs and st.present == structs
+        if not every:
+            return None
+        shape.add(p)
+    frozen = frozenset(shape)
+    out: dict[str, dict[str, ValueShape]] = {}
+    for path in _candidates(fields, rows):
+        name = paths.split(path)[0][1]
+        if name not in table.column_names or not pa.types.is_string(table.schema.field(name).type):
+            return None
+        counts = pc.value_counts(table.column(name))
+        if len(counts) > MAX_VALUES:
+            continue
+        values = counts.field("values").to_pylist()
+        ns = counts.field("counts").to_pylist()
+        out[path] = {v: ValueShape(n, frozen, frozen) for v, n in sorted(zip(values, ns, strict=True))}
+    return out
+
+
+def _field_path(path: str) -> bool:
+    return all(kind == "field" for kind, _ in paths.split(path))
+
+
 def has_candidates(fields: Mapping[str, FieldStats], rows: int) -> bool:
     """Whether a batch's statistics show a top-level field holding a string in every row: the
     only batches whose tally is not empty."""
-    return any(
-        st.nulls == 0 and st.types.get("string") == rows and len(st.types) == 1 and paths.parent(p)[0] is None
-        for p, st in fields.items()
-    )
+    return bool(_candidates(fields, rows))

@@ -43,7 +43,7 @@ from driftline.observe import linetext
 from driftline.observe.fast.strprofile import string_profile
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.records import SAFE_INT, is_int_key, observe_records
-from driftline.observe.shapes import has_candidates, tally_records
+from driftline.observe.shapes import has_candidates, tally_records, uniform_tally
 from driftline.observe.textclass import CLASSES
 
 
@@ -142,19 +142,24 @@ def observe_json_lines(
     fields = _merge_groups(got[0])
     if fields is None or max_paths is not None and len(fields) > max_paths:
         return None
-    shapes = _shapes(lines, fields)
+    shapes = _shapes(lines, fields, got[2])
     if shapes is None:
         return None
     obs = Observation(file=file, batch=batch, row_start=row_start, rows=n, fields=fields, shapes=shapes)
     return obs, Hint(got[1], tuple(aside))
 
 
-def _shapes(lines: Sequence[bytes], fields: dict[str, FieldStats]) -> ShapeTally | None:
-    """The batch's shape tally, as the exact walk makes it. It needs each record's fields, so the
-    lines are parsed again, only when some field could be a discriminator (None: a line orjson
-    refuses, left to the walk)."""
+def _shapes(lines: Sequence[bytes], fields: dict[str, FieldStats], whole: pa.Table | None) -> ShapeTally | None:
+    """The batch's shape tally, as the exact walk makes it (None: a line orjson refuses, left to
+    the walk). A batch whose every row holds the same fields takes its candidates' values from
+    Arrow's table; any other needs each record's fields, so its lines are parsed again, only
+    when some field could be a discriminator."""
     if not has_candidates(fields, len(lines)):
         return {}
+    if whole is not None:
+        got = uniform_tally(fields, len(lines), whole)
+        if got is not None:
+            return got
     try:
         records = [json_loads(line) for line in lines]
     except orjson.JSONDecodeError:
@@ -252,8 +257,9 @@ def _observe_part(
     aside: dict[tuple[str, str], set[int]],
     schema: pa.Schema | None,
     depth: int = 0,
-) -> tuple[list[dict[str, FieldStats]], pa.Schema | None] | None:
-    """Observe some rows of a batch (all when rows is None): (groups of disjoint rows, Arrow's schema).
+) -> tuple[list[dict[str, FieldStats]], pa.Schema | None, pa.Table | None] | None:
+    """Observe some rows of a batch (all when rows is None): (groups of disjoint rows, Arrow's
+    schema, and Arrow's table when it holds every row, none set aside).
 
     Arrow parses the rows neither walk_only nor aside; when it names a field of two kinds,
     the rows of the rarer kind are set aside under the pattern that finds them, and the
@@ -310,7 +316,8 @@ def _observe_part(
         except orjson.JSONDecodeError:
             return None
         groups.append(_walk(records, at, text.where))
-    return groups, table.schema if table is not None else schema
+    whole = table if table is not None and keep is None and not walked else None
+    return groups, table.schema if table is not None else schema, whole
 
 
 def _without_fields(schema: pa.Schema | None, names: set[str]) -> pa.Schema | None:
