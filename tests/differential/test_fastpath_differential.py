@@ -622,9 +622,10 @@ def test_shape_tallies_of_the_fast_path_equal_the_walk(rows: int) -> None:
     assert walk.shapes is not None and "kind" in walk.shapes  # a candidate in every batch
 
 
-def test_shape_tallies_of_uniform_batches_equal_the_walk(monkeypatch: pytest.MonkeyPatch) -> None:
+@pytest.mark.parametrize("odd", [False, True])
+def test_shape_tallies_of_uniform_batches_equal_the_walk(monkeypatch: pytest.MonkeyPatch, odd: bool) -> None:
     # Every row holds the same fields: the fast path takes the values from Arrow's table, and
-    # never parses the lines again.
+    # parses again only the lines it set aside (odd: v is a scalar in every tenth row, a list elsewhere).
     from driftline.observe.records import observe_records
 
     rnd = random.Random(7)
@@ -636,6 +637,7 @@ def test_shape_tallies_of_uniform_batches_equal_the_walk(monkeypatch: pytest.Mon
                 "ts": f"2026-01-01T00:00:{i % 60:02d}Z",
                 "id": f"id-{i}",
                 "s": {"y": None, "z": [1]},
+                "v": 1 if odd and i % 10 == 0 else [1],
             }
         ).encode()
         for i in range(300)
@@ -647,7 +649,7 @@ def test_shape_tallies_of_uniform_batches_equal_the_walk(monkeypatch: pytest.Mon
     assert got[0].fields == walk.fields
     assert got[0].shapes == walk.shapes
     assert walk.shapes is not None and sorted(walk.shapes) == ["`a.b`", "kind"]  # id and ts: past 32 values
-    assert sorted(walk.shapes["kind"]["a"].always) == ["`a.b`", "id", "kind", "s", "s.y", "s.z", "ts"]
+    assert sorted(walk.shapes["kind"]["a"].always) == ["`a.b`", "id", "kind", "s", "s.y", "s.z", "ts", "v"]
 
 
 @pytest.mark.parametrize("batch_rows", [1, 5, 1000])

@@ -149,18 +149,23 @@ def observe_json_lines(
     return obs, Hint(got[1], tuple(aside))
 
 
-def _shapes(lines: Sequence[bytes], fields: dict[str, FieldStats], whole: pa.Table | None) -> ShapeTally | None:
+def _shapes(
+    lines: Sequence[bytes], fields: dict[str, FieldStats], main: tuple[pa.Table, list[int] | None] | None
+) -> ShapeTally | None:
     """The batch's shape tally, as the exact walk makes it (None: a line orjson refuses, left to
     the walk). A batch whose every row holds the same fields takes its candidates' values from
-    Arrow's table; any other needs each record's fields, so its lines are parsed again, only
-    when some field could be a discriminator."""
+    Arrow's table, and parses only the lines set aside from it; any other needs each record's
+    fields, so its lines are parsed again, only when some field could be a discriminator."""
     if not has_candidates(fields, len(lines)):
         return {}
-    if whole is not None:
-        got = uniform_tally(fields, len(lines), whole)
-        if got is not None:
-            return got
     try:
+        if main is not None:
+            table, keep = main
+            held = set(keep) if keep is not None else None
+            rest = [] if held is None else [json_loads(lines[r]) for r in range(len(lines)) if r not in held]
+            got = uniform_tally(fields, len(lines), table, rest)
+            if got is not None:
+                return got
         records = [json_loads(line) for line in lines]
     except orjson.JSONDecodeError:
         return None
@@ -257,9 +262,9 @@ def _observe_part(
     aside: dict[tuple[str, str], set[int]],
     schema: pa.Schema | None,
     depth: int = 0,
-) -> tuple[list[dict[str, FieldStats]], pa.Schema | None, pa.Table | None] | None:
+) -> tuple[list[dict[str, FieldStats]], pa.Schema | None, tuple[pa.Table, list[int] | None] | None] | None:
     """Observe some rows of a batch (all when rows is None): (groups of disjoint rows, Arrow's
-    schema, and Arrow's table when it holds every row, none set aside).
+    schema, and Arrow's table with the rows it holds: None for all of them).
 
     Arrow parses the rows neither walk_only nor aside; when it names a field of two kinds,
     the rows of the rarer kind are set aside under the pattern that finds them, and the
@@ -316,8 +321,7 @@ def _observe_part(
         except orjson.JSONDecodeError:
             return None
         groups.append(_walk(records, at, text.where))
-    whole = table if table is not None and keep is None and not walked else None
-    return groups, table.schema if table is not None else schema, whole
+    return groups, table.schema if table is not None else schema, None if table is None else (table, keep)
 
 
 def _without_fields(schema: pa.Schema | None, names: set[str]) -> pa.Schema | None:
