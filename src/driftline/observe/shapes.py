@@ -118,36 +118,94 @@ def _uniform(every: frozenset[str], counts: Mapping[str, Mapping[str, int]]) -> 
     }
 
 
-def uniform_tally(
-    fields: Mapping[str, FieldStats], rows: int, table: pa.Table, rest: Sequence[Any] = ()
+Piece = tuple[pa.Table, Sequence[int] | None]  # Arrow's table of some rows of a batch (None: rows 0, 1, 2, ...)
+
+
+def table_tally(
+    fields: Mapping[str, FieldStats], rows: int, pieces: Sequence[Piece], rest: Mapping[int, Any]
 ) -> ShapeTally | None:
-    """The tally of a batch whose every row holds the same fields, from its statistics and the
-    candidates' values: the columns of Arrow's table of some of its rows, and the parsed
-    records of the others (rest). None when the batch's rows differ (or a column is not a
-    plain string column): tally_records then takes the records.
+    """The tally of a batch from its statistics and Arrow's tables of its rows (pieces), with the
+    parsed records of the rows no table holds (rest, by row). None when the tables cannot tell
+    (a field that varies holds JSON nulls, which Arrow writes as it writes an absent field; a
+    column of another type than expected): tally_records then takes the records.
 
     >>> from driftline.core.stats import FieldStats
-    >>> f = {"k": FieldStats(types={"string": 3}), "s": FieldStats(types={"struct": 3}), "s.x": FieldStats(nulls=3)}
-    >>> t = uniform_tally(f, 3, pa.table({"k": ["a", "b", "a"]}))
-    >>> {v: (s.rows, sorted(s.always)) for v, s in t["k"].items()}
-    {'a': (2, ['k', 's', 's.x']), 'b': (1, ['k', 's', 's.x'])}
+    >>> f = {"k": FieldStats(types={"string": 3}), "s": FieldStats(types={"struct": 2})}
+    >>> f["s.x"] = FieldStats(types={"int64": 1})  # rows: {"k": "a", "s": {"x": 1}}, {"k": "a"}, {"k": "b", "s": {}}
+    >>> t = table_tally(f, 3, [(pa.table({"k": ["a", "b"], "s": [{"x": 1}, {"x": None}]}), [0, 2])], {1: {"k": "a"}})
+    >>> {v: (s.rows, sorted(s.always), sorted(s.ever)) for v, s in t["k"].items()}
+    {'a': (2, ['k'], ['k', 's', 's.x']), 'b': (1, ['k', 's'], ['k', 's'])}
     """
+    names = candidates(fields, rows)
     every, others = split_fields(fields, rows)
-    if others:
+    if any(fields[p].nulls for p in others):
         return None
-    counts: dict[str, Counter[str]] = {}
-    for path in candidates(fields, rows):
-        name = _name(path)
-        if name not in table.column_names or not pa.types.is_string(table.schema.field(name).type):
+    counts: dict[str, Counter[str]] = {p: Counter() for p in names}
+    for table, _ in pieces:
+        for path in list(counts):
+            column = _column(table, [_name(path)])
+            if column is None or not pa.types.is_string(column.type):
+                return None
+            if len(pc.value_counts(column.slice(0, _PROBE_ROWS))) > MAX_VALUES:
+                del counts[path]  # many values early on (ids, times): no full count
+                continue
+            got = pc.value_counts(column)
+            counts[path].update(
+                dict(zip(got.field("values").to_pylist(), got.field("counts").to_pylist(), strict=True))
+            )
+    for r in rest.values():
+        for path, tally in counts.items():
+            tally[r[_name(path)]] += 1
+    counts = {p: c for p, c in counts.items() if len(c) <= MAX_VALUES}
+    if not others or not counts:
+        return _uniform(every, counts)
+    # Each row's shape: every, and those of the others it holds (Arrow's validity: no JSON null among them).
+    shapes: dict[str, dict[str, list[frozenset[str]]]] = {p: {} for p in counts}
+    interned: dict[tuple[bool, ...], frozenset[str]] = {}
+    for table, _ in pieces:
+        held = [_present(table, p) for p in others]
+        if any(h is None for h in held):
             return None
-        column = table.column(name)
-        if len(pc.value_counts(column.slice(0, _PROBE_ROWS))) > MAX_VALUES:
-            continue  # many values early on (ids, times): no full count
-        got = pc.value_counts(column)
-        tally = Counter(dict(zip(got.field("values").to_pylist(), got.field("counts").to_pylist(), strict=True)))
-        tally.update(r[name] for r in rest)
-        counts[path] = tally
-    return _uniform(every, counts)
+        flags = list(zip(*held, strict=True)) if held else []
+        values = {p: _column(table, [_name(p)]).to_pylist() for p in counts}  # type: ignore[union-attr]
+        for i in range(table.num_rows):
+            key = flags[i]
+            shape = interned.get(key)
+            if shape is None:
+                shape = interned[key] = every.union(p for p, h in zip(others, key, strict=True) if h)
+            for path, vals in values.items():
+                shapes[path].setdefault(vals[i], []).append(shape)
+    steps = [(p, [name for _, name in paths.split(p)]) for p in others]
+    for r in rest.values():
+        shape = every.union(p for p, keys in steps if _holds(r, keys))
+        for path in counts:
+            shapes[path].setdefault(r[_name(path)], []).append(shape)
+    return {p: {v: _shape_of(got) for v, got in sorted(by.items())} for p, by in shapes.items()}
+
+
+def _column(table: pa.Table, names: list[str]) -> pa.Array | None:
+    if names[0] not in table.column_names:
+        return None
+    col = table.column(names[0])
+    arr = col.chunk(0) if col.num_chunks == 1 else col.combine_chunks()
+    return arr
+
+
+def _present(table: pa.Table, path: str) -> list[bool] | None:
+    """Per row of the table, whether it holds a value of path (None: a step is not a struct)."""
+    names = [name for _, name in paths.split(path)]
+    arr = _column(table, names)
+    if arr is None:
+        return [False] * table.num_rows
+    valid = arr.is_valid()
+    for name in names[1:]:
+        if not pa.types.is_struct(arr.type):
+            return None
+        if arr.type.get_field_index(name) < 0:
+            return [False] * table.num_rows
+        arr = pc.struct_field(arr, [name])
+        valid = pc.and_(valid, arr.is_valid())
+    return valid.to_pylist()
 
 
 def has_candidates(fields: Mapping[str, FieldStats], rows: int) -> bool:

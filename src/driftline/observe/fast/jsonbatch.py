@@ -43,7 +43,7 @@ from driftline.observe import linetext
 from driftline.observe.fast.strprofile import string_profile
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.records import SAFE_INT, is_int_key, observe_records
-from driftline.observe.shapes import has_candidates, tally_records, uniform_tally
+from driftline.observe.shapes import Piece, has_candidates, table_tally, tally_records
 from driftline.observe.textclass import CLASSES
 
 
@@ -149,23 +149,21 @@ def observe_json_lines(
     return obs, Hint(got[1], tuple(aside))
 
 
-def _shapes(
-    lines: Sequence[bytes], fields: dict[str, FieldStats], main: tuple[pa.Table, list[int] | None] | None
-) -> ShapeTally | None:
+def _shapes(lines: Sequence[bytes], fields: dict[str, FieldStats], pieces: list[Piece]) -> ShapeTally | None:
     """The batch's shape tally, as the exact walk makes it (None: a line orjson refuses, left to
-    the walk). A batch whose every row holds the same fields takes its candidates' values from
-    Arrow's table, and parses only the lines set aside from it; any other needs each record's
-    fields, so its lines are parsed again, only when some field could be a discriminator."""
+    the walk): from Arrow's tables and the lines no table holds, parsed again; when the
+    tables cannot tell, from every line parsed again. Only when some field could be a
+    discriminator."""
     if not has_candidates(fields, len(lines)):
         return {}
+    covered: set[int] = set()
+    for table, at in pieces:
+        covered.update(range(table.num_rows) if at is None else at)
     try:
-        if main is not None:
-            table, keep = main
-            held = set(keep) if keep is not None else None
-            rest = [] if held is None else [json_loads(lines[r]) for r in range(len(lines)) if r not in held]
-            got = uniform_tally(fields, len(lines), table, rest)
-            if got is not None:
-                return got
+        rest = {r: json_loads(lines[r]) for r in range(len(lines)) if r not in covered}
+        got = table_tally(fields, len(lines), pieces, rest)
+        if got is not None:
+            return got
         records = [json_loads(line) for line in lines]
     except orjson.JSONDecodeError:
         return None
@@ -262,9 +260,9 @@ def _observe_part(
     aside: dict[tuple[str, str], set[int]],
     schema: pa.Schema | None,
     depth: int = 0,
-) -> tuple[list[dict[str, FieldStats]], pa.Schema | None, tuple[pa.Table, list[int] | None] | None] | None:
+) -> tuple[list[dict[str, FieldStats]], pa.Schema | None, list[Piece]] | None:
     """Observe some rows of a batch (all when rows is None): (groups of disjoint rows, Arrow's
-    schema, and Arrow's table with the rows it holds: None for all of them).
+    schema, and Arrow's tables with the rows each holds: None for all of them).
 
     Arrow parses the rows neither walk_only nor aside; when it names a field of two kinds,
     the rows of the rarer kind are set aside under the pattern that finds them, and the
@@ -298,11 +296,13 @@ def _observe_part(
     if table is None and keep:
         return None
     groups: list[dict[str, FieldStats]] = []
+    pieces: list[Piece] = []
     if table is not None:
         got = _observe_table(table, text, None if keep is None else pa.array(keep, pa.int64()))
         if got is None:
             return None
         groups.append(got)
+        pieces.append((table, keep))
     walked = walk_only.union(*aside.values())
     large = set().union(*(g for g in aside.values() if len(g) >= ARROW_ASIDE_MIN))
     own = large.difference(*(g for g in aside.values() if len(g) < ARROW_ASIDE_MIN))
@@ -313,6 +313,7 @@ def _observe_part(
         sub = _observe_part(text, sorted(own), set(), {}, hint, depth + 1)
         if sub is not None:
             groups += sub[0]
+            pieces += sub[2]
             walked -= own
     if walked:
         at = sorted(walked)
@@ -321,7 +322,7 @@ def _observe_part(
         except orjson.JSONDecodeError:
             return None
         groups.append(_walk(records, at, text.where))
-    return groups, table.schema if table is not None else schema, None if table is None else (table, keep)
+    return groups, table.schema if table is not None else schema, pieces
 
 
 def _without_fields(schema: pa.Schema | None, names: set[str]) -> pa.Schema | None:
