@@ -147,3 +147,24 @@ def test_field_values_are_concealed_as_examples_are() -> None:
 
 def test_no_files_no_discriminator() -> None:
     assert find_discriminator([]) is None
+
+
+def test_a_series_that_never_had_a_field_is_no_discriminator(tmp_path: Path) -> None:
+    # region=west never sends battery: its shape is part of the others', a gap to report,
+    # not a shape of its own (east and north hold nothing west lacks but battery).
+    for region in ("east", "north", "west"):
+        rows = [{"id": i, **({"battery": {"level": 90}} if region != "west" else {})} for i in range(3)]
+        _write(tmp_path / f"region={region}" / "a.jsonl", rows)
+    assert driftline.scan(tmp_path).shapes is None
+
+
+def test_values_with_fields_of_their_own_are_shapes(tmp_path: Path) -> None:
+    # The same folders, but west sends solar where the others send battery: shapes apart.
+    for region in ("east", "north", "west"):
+        own = {"solar": {"watts": 5}} if region == "west" else {"battery": {"level": 90}}
+        _write(tmp_path / f"region={region}" / "a.jsonl", [{"id": i, **own} for i in range(3)])
+    found = driftline.scan(tmp_path).shapes
+    assert found is not None and (found.name, found.explained) == (
+        "region",
+        ("battery", "battery.level", "solar", "solar.watts"),
+    )

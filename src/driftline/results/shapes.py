@@ -17,9 +17,11 @@ The measure ("explains"), documented in docs/drift.md:
 * the fields whose presence varies are those present somewhere but not in every row of
   every value; a varying field is **explained** when each value has it in all its rows or
   in none;
-* the candidate explains the field set when at least two values have different shapes,
-  and at least EXPLAINED_SHARE of the varying fields are explained (the rest are optional
-  within a value, a tolerance for real optional fields).
+* the candidate explains the field set when at least two values have shapes apart (each
+  holds a field the other lacks: a value whose shape is part of another's is a series
+  that never had a field, which is drift), and at least EXPLAINED_SHARE of the varying
+  fields are explained (the rest are optional within a value, a tolerance for real
+  optional fields).
 
 Among the candidates that explain, the one explaining the most fields wins (then a
 partition key before a field, then by name). A pure function of the ordered file results.
@@ -27,6 +29,7 @@ partition key before a field, then by name). A pure function of the ordered file
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, Literal
@@ -149,8 +152,8 @@ def _partition_groups(files: Sequence[FileResult]) -> dict[str, dict[str, _Seen]
         groups: dict[str, list[FileResult]] = {}
         for f in files:
             groups.setdefault(dict(f.partitions)[key], []).append(f)
-        if len(groups) > MAX_VALUES:
-            continue
+        if not 2 <= len(groups) <= MAX_VALUES or not _labels(sorted(groups)):
+            continue  # before merging statistics: dated and numbered keys are the common ones
         seen: dict[str, _Seen] = {}
         for value, members in sorted(groups.items()):
             rows = sum(f.rows for f in members)
@@ -193,9 +196,16 @@ def _labels(values: Sequence[str]) -> bool:
     return scan.counts.get("text", 0) == len(values)
 
 
+def _apart(seen: list[_Seen]) -> bool:
+    """Whether two values have shapes apart: each holds a field the other lacks. A value whose
+    shape is a part of the others' (a series that never had a field) is drift to report."""
+    shapes = sorted({s.always for s in seen}, key=sorted)
+    return any(not a <= b and not b <= a for a, b in itertools.combinations(shapes, 2))
+
+
 def _judge(source: Source, name: str, seen: Mapping[str, _Seen]) -> Discriminator | None:
     """The discriminator a candidate makes, when it explains the field set (the module's measure)."""
-    if len(seen) < 2 or len({s.always for s in seen.values()}) < 2 or not _labels(list(seen)):
+    if len(seen) < 2 or not _apart(list(seen.values())) or not _labels(list(seen)):
         return None
     shared = frozenset.intersection(*(s.always for s in seen.values()))
     varying = frozenset.union(*(s.ever for s in seen.values())) - shared
