@@ -77,3 +77,12 @@ def test_samples_only_walk_keeps_the_examples_and_class_counts():
     assert short.fields["s"].classes["integer"] == 3 and short.fields["s"].classes["zero_padded"] == 1
     assert full.fields["s"].leap_seconds == 1 and short.fields["s"].leap_seconds == 0
     assert [e.row for e in short.fields["s"].samples[class_sample("integer")]] == [0, 11, 13]
+
+
+def test_bare_strings_have_no_shape_tally():
+    # Records that are not objects (RFC 8259 section 2: any value is a JSON text) hold no fields.
+    from driftline.observe.records import observe_records
+
+    obs = observe_records(["a", "b"], file="f.json", batch=0, row_start=0, shapes=True)
+    assert obs.fields["$"].types == {"string": 2}
+    assert obs.shapes == {}

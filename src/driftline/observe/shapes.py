@@ -32,7 +32,11 @@ def candidates(fields: Mapping[str, FieldStats], rows: int) -> list[str]:
     return sorted(
         p
         for p, st in fields.items()
-        if st.nulls == 0 and st.types.get("string") == rows and len(st.types) == 1 and paths.parent(p)[0] is None
+        if st.nulls == 0
+        and st.types.get("string") == rows
+        and len(st.types) == 1
+        and paths.parent(p)[0] is None
+        and p != paths.ROOT  # bare strings, not records
     )[:MAX_CANDIDATES]
 
 
