@@ -168,3 +168,13 @@ def test_values_with_fields_of_their_own_are_shapes(tmp_path: Path) -> None:
         "region",
         ("battery", "battery.level", "solar", "solar.watts"),
     )
+
+
+def test_two_partition_values_are_too_few(tmp_path: Path) -> None:
+    # Two folders read one after the other, each with a field of its own: as likely a change
+    # between two producers as two kinds of record (MIN_PARTITION_VALUES); the events stay.
+    for region, own in (("east", "battery"), ("west", "solar")):
+        _write(tmp_path / f"region={region}" / "a.jsonl", [{"id": i, own: 1} for i in range(3)])
+    profile = driftline.scan(tmp_path)
+    assert profile.shapes is None
+    assert [(e.kind, e.path) for e in profile.events] == [("field-new", "solar"), ("field-gone", "battery")]

@@ -8,7 +8,8 @@ walk (results/drift.py) leaves out the presence episodes that only restate the s
 
 The measure ("explains"), documented in docs/drift.md:
 
-* the candidates are the partition keys every file has, and the top-level fields of JSON
+* the candidates are the partition keys every file has (with at least MIN_PARTITION_VALUES
+  values), and the top-level fields of JSON
   records that hold a string in every record, with at most MAX_VALUES values
   (core/shapetally.py); every value reads as a label (content class ``text``), not as a
   date, a time or a number, since a field set that changes with those is change over time;
@@ -44,6 +45,10 @@ from driftline.core.stats import FieldStats, merge_all
 from driftline.observe.textclass import classify
 
 EXPLAINED_SHARE = 0.8  # of the fields whose presence varies, the share the values must explain
+# A partition's files are read one value after another: with two values, fields of their own
+# are as likely a change between two producers as two kinds of record. A record field's values
+# mix within files, so two are enough.
+MIN_PARTITION_VALUES = 3
 
 Source = Literal["partition", "field"]
 
@@ -124,9 +129,9 @@ def find_discriminator(files: Sequence[FileResult]) -> Discriminator | None:
     ...     obs = Observation(rel, 0, 0, 2, {n: FieldStats(types={"int64": 2}) for n in names})
     ...     return FileResult(rel, "jsonl", None, (("event", event),), 1, 0, 2, (obs,))
     >>> pull, push = f("event=pull/a.jsonl", "pull", "id", "pr"), f("event=push/a.jsonl", "push", "id", "ref")
-    >>> d = find_discriminator([pull, push])
+    >>> d = find_discriminator([pull, push, f("event=star/a.jsonl", "star", "id")])
     >>> d.source, d.name, d.explained, d.shared, [(s.value, s.fields) for s in d.shapes]
-    ('partition', 'event', ('pr', 'ref'), ('id',), [('pull', ('id', 'pr')), ('push', ('id', 'ref'))])
+    ('partition', 'event', ('pr', 'ref'), ('id',), [('pull', ('id', 'pr')), ('push', ('id', 'ref')), ('star', ('id',))])
     """
     found: list[tuple[tuple[int, int, str], Discriminator]] = []
     for key, groups in _partition_groups(files).items():
@@ -152,7 +157,7 @@ def _partition_groups(files: Sequence[FileResult]) -> dict[str, dict[str, _Seen]
         groups: dict[str, list[FileResult]] = {}
         for f in files:
             groups.setdefault(dict(f.partitions)[key], []).append(f)
-        if not 2 <= len(groups) <= MAX_VALUES or not _labels(sorted(groups)):
+        if not MIN_PARTITION_VALUES <= len(groups) <= MAX_VALUES or not _labels(sorted(groups)):
             continue  # before merging statistics: dated and numbered keys are the common ones
         seen: dict[str, _Seen] = {}
         for value, members in sorted(groups.items()):
