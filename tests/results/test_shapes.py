@@ -178,3 +178,24 @@ def test_two_partition_values_are_too_few(tmp_path: Path) -> None:
     profile = driftline.scan(tmp_path)
     assert profile.shapes is None
     assert [(e.kind, e.path) for e in profile.events] == [("field-new", "solar"), ("field-gone", "battery")]
+
+
+def test_drift_within_a_shape_is_still_found(tmp_path: Path) -> None:
+    # Three kinds with fields of their own, mixed in every file; in f2.jsonl the order's total
+    # arrives as a string: a change within the order shape, reported as any type change is.
+    for n in range(3):
+        rows: list[dict[str, object]] = []
+        for i in range(6):
+            kind = ("order", "refund", "signup")[i % 3]
+            own = {
+                "order": {"total": f"{i}.5" if n == 2 else i + 0.5},
+                "refund": {"reason": "x"},
+                "signup": {"plan": "free"},
+            }
+            rows.append({"kind": kind, "seq": 6 * n + i, **own[kind]})
+        _write(tmp_path / f"f{n}.jsonl", rows)
+    profile = driftline.scan(tmp_path)
+    assert profile.shapes is not None and profile.shapes.name == "kind"
+    assert [(e.kind, e.path, e.before, e.after, e.file, e.row, e.values) for e in profile.events] == [
+        ("type-conflict", "total", "float64", "string", "f2.jsonl", 0, 2)
+    ]
