@@ -6,16 +6,17 @@ The split is decided from evidence that costs no full read (docs/datasets.md tel
 1. Place each file: its *anchor* is the folder above its first key=value folder (its own
    folder when it has none), its *keys* the partition keys below the anchor, outermost first.
    A plain folder below a partition folder ('day=1/raw/') places no file: it is loose.
-2. At each anchor, split the files by format family (registry `family`: JSON, CSV/TSV,
-   Parquet; compressed or not is the same family), then by their field names (sources/peek:
-   the head or footer): a file joins a group when the Jaccard index of its top-level field
-   names and the group's union so far is at least FIELD_OVERLAP; a file that joins several
-   groups joins them together.  Files are taken in sorted path order, so the result is
-   deterministic; a file whose head shows no field (an empty file) joins its folder's
-   largest group of its family.  Schema drift (a column added, one dropped) keeps a file far
-   above the threshold; a table sharing a few names with another stays apart.
+2. At each anchor, split the files by their field names (sources/peek: the head or footer):
+   a file joins a group when the Jaccard index of its top-level field names and the group's
+   union so far is at least FIELD_OVERLAP; a file that joins several groups joins them
+   together.  Files are taken in sorted path order, so the result is deterministic; a file
+   whose head shows no field (an empty file) joins its folder's largest group of its format
+   family (registry `family`: JSON, CSV/TSV, Parquet; compressed or not is the same family).
+   Schema drift (a column added, one dropped) keeps a file far above the threshold; a table
+   sharing a few names with another stays apart.  A file of another format whose fields fit
+   (one table exported as CSV for one region) stays in the table, with a notice.
 3. Folders are merged bottom-up: at each folder, its own groups and the lone group of each
-   child folder that are one table (same family, same partition keys, Jaccard of their
+   child folder that are one table (same format families, same partition keys, Jaccard of their
    unions at least FIELD_OVERLAP) become one group at the folder: the files of one table
    spread over sibling plain folders ('2026-01/', '2026-02/') are one dataset, named after
    their parent, with a notice.
@@ -113,10 +114,13 @@ class _File:
 @dataclass(slots=True)
 class _Group:
     anchor: str
-    family: str
     files: list[_File]
     union: set[str]
     folders: list[str] = field(default_factory=list)  # the anchors merged into it (spread over folders)
+
+    @property
+    def families(self) -> frozenset[str]:
+        return frozenset(f.family for f in self.files)
 
     @property
     def keys(self) -> tuple[str, ...]:
@@ -161,10 +165,6 @@ def _jaccard(a: Iterable[str], b: Iterable[str]) -> float:
     sa, sb = set(a), set(b)
     union = sa | sb
     return len(sa & sb) / len(union) if union else 1.0
-
-
-def _family_name(family: str) -> str:
-    return f"{family} file"
 
 
 # -- the split ---------------------------------------------------------------------------------
@@ -229,39 +229,33 @@ def _by_anchor(files: Sequence[_File]) -> list[tuple[str, list[_File]]]:
 
 
 def _groups(anchor: str, files: Sequence[_File]) -> list[_Group]:
-    """The groups at one anchor: by family, then by the overlap of field names."""
-    out: list[_Group] = []
-    families: dict[str, list[_File]] = {}
+    """The groups at one anchor, by the overlap of field names (files in sorted path order)."""
+    clusters: list[_Group] = []
+    blank: list[_File] = []
     for f in files:
-        families.setdefault(f.family, []).append(f)
-    for fam, members in families.items():
-        clusters: list[_Group] = []
-        blank: list[_File] = []
-        for f in members:
-            if not f.fields:
-                blank.append(f)
-                continue
-            hits = [c for c in clusters if _jaccard(f.fields, c.union) >= FIELD_OVERLAP]
-            if not hits:
-                clusters.append(_Group(anchor, fam, [f], set(f.fields), [anchor]))
-                continue
-            into = hits[0]
-            for other in hits[1:]:
-                into.files.extend(other.files)
-                into.union |= other.union
-                clusters.remove(other)
-            into.files.append(f)
-            into.union |= f.fields
-        if blank:
-            if clusters:
-                largest = max(clusters, key=lambda c: (len(c.files), -members.index(c.files[0])))
-                largest.files.extend(blank)
-            else:
-                clusters.append(_Group(anchor, fam, blank, set(), [anchor]))
-        for c in clusters:
-            c.files.sort(key=lambda f: f.ref.rel)
-        out.extend(clusters)
-    return out
+        if not f.fields:
+            blank.append(f)
+            continue
+        hits = [c for c in clusters if _jaccard(f.fields, c.union) >= FIELD_OVERLAP]
+        if not hits:
+            clusters.append(_Group(anchor, [f], set(f.fields), [anchor]))
+            continue
+        into = hits[0]
+        for other in hits[1:]:
+            into.files.extend(other.files)
+            into.union |= other.union
+            clusters.remove(other)
+        into.files.append(f)
+        into.union |= f.fields
+    for f in blank:  # no field to judge by: the largest group of its format family, else the largest
+        same = [c for c in clusters if f.family in c.families] or clusters
+        if same:
+            max(same, key=lambda c: (len(c.files), -files.index(c.files[0]))).files.append(f)
+        else:
+            clusters.append(_Group(anchor, [f], set(), [anchor]))
+    for c in clusters:
+        c.files.sort(key=lambda f: f.ref.rel)
+    return clusters
 
 
 def _parent(anchor: str) -> str | None:
@@ -276,7 +270,7 @@ def _depth(anchor: str) -> int:
 
 def _one_table(a: _Group, b: _Group) -> bool:
     ka, kb = a.keys, b.keys
-    return a.family == b.family and ka == kb and _jaccard(a.union, b.union) >= FIELD_OVERLAP
+    return a.families == b.families and ka == kb and _jaccard(a.union, b.union) >= FIELD_OVERLAP
 
 
 def _merge_folders(groups: list[_Group], notices: list[Notice]) -> list[_Group]:
@@ -294,7 +288,7 @@ def _merge_folders(groups: list[_Group], notices: list[Notice]) -> list[_Group]:
             if len(members) < 2 or all(m.anchor == folder for m in members):
                 continue
             files = sorted((f for m in members for f in m.files), key=lambda f: f.ref.rel)
-            whole = _Group(folder, members[0].family, files, set().union(*(m.union for m in members)))
+            whole = _Group(folder, files, set().union(*(m.union for m in members)))
             whole.folders = sorted({a for m in members for a in m.folders})
             groups = [g for g in groups if all(g is not m for m in members)] + [whole]
             shown = ", ".join(f"'{_shown(a)}'" for a in whole.folders)
@@ -408,15 +402,14 @@ def _name(groups: list[_Group], loose: list[LooseFile]) -> list[Dataset]:
 
 
 def _other_table(f: _File, g: _Group, main: _Group, name: str) -> str:
-    if g.family != main.family:
-        return (
-            f"a {_family_name(g.family)} among the {main.family} files of dataset '{name}': "
-            "a table's files are of one format family"
-        )
-    shared = len(g.union & main.union)
+    shared = len(f.fields & main.union)
+    fields = f"its fields share {shared} of {len(f.fields | main.union)} names with dataset '{name}'"
+    if not f.fields:
+        fields = "it shows no field"
+    if f.keys:  # inside the dataset's partition folders
+        return f"a {f.family} file in the partition folders of dataset '{name}' that is not of its table: {fields}"
     return (
-        f"one of {len(g.files):,} files of another table in folder '{name}' "
-        f"(its fields share {shared} of {len(g.union | main.union)} names with dataset '{name}'): "
+        f"one of {len(g.files):,} files of another table in folder '{name}' ({fields}): "
         "give that table a folder of its own"
     )
 
@@ -444,7 +437,7 @@ def _mixed_formats(files: Sequence[_File]) -> list[Notice]:
             Notice(
                 "mixed-formats",
                 f"folder '{_shown(folder)}' holds files of several formats ({said}): "
-                "a table's files are of one format family",
+                "those whose fields fit their dataset are read with it, the others are loose",
                 tuple(f.ref.rel for f in members),
             )
         )
