@@ -46,6 +46,7 @@ SURFACE = [
     "WorkerError",
     "__version__",
     "check",
+    "datasets",
     "diff",
     "load_report",
     "recommend",
@@ -83,6 +84,8 @@ DOCTEST_MODULES = [
     "driftline.sources.encoding",
     "driftline.results.tables",
     "driftline.results.levels",
+    "driftline.sources.datasets",
+    "driftline.sources.peek",
 ]
 
 
@@ -495,4 +498,4 @@ def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pyt
     test = parser.get_doctest(text, {}, "docs/python.md", "docs/python.md", 0)
     runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS)
     runner.run(test)
-    assert runner.summarize(verbose=False) == (0, 37)
+    assert runner.summarize(verbose=False) == (0, 40)
