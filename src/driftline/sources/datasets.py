@@ -449,6 +449,7 @@ def _folder_notices(
 ) -> list[Notice]:
     """Folders that hold nothing, and the topmost folders that hold no dataset's file."""
     used = {f.rel for d in datasets for f in d.files}
+    tables = {d.folder for d in datasets if d.name == d.folder}
     everything = [f.rel for f in discovery.files] + [s.rel for s in discovery.skipped]
     known = set(folders)
     for rel in everything:
@@ -459,7 +460,7 @@ def _folder_notices(
     for folder in sorted(known):
         if any(part.startswith((".", "_")) for part in folder.split("/")):
             continue  # hidden and marker folders: discovery skips them on purpose
-        if any(folder.startswith(r + "/") for r in reported):
+        if any(folder.startswith(r + "/") for r in reported) or _partition_of(folder, tables):
             continue
         inside = [rel for rel in everything if rel.startswith(folder + "/")]
         if not inside:
@@ -481,6 +482,15 @@ def _folder_notices(
         )
         reported.append(folder)
     return out
+
+
+def _partition_of(folder: str, tables: set[str]) -> bool:
+    """Whether folder is a partition folder of a dataset (its first folder below the dataset's is key=value)."""
+    parts = folder.split("/")
+    for i in range(len(parts)):
+        if _shown("/".join(parts[:i])) in tables and _is_partition(parts[i]):
+            return True
+    return False
 
 
 def _count(n: int, what: str) -> str:

@@ -158,7 +158,7 @@ def _json(head: bytes, whole: bool, document: bool) -> Peek:
         records, failed = _lines_head(head, whole)
     objects = [r for r in records if isinstance(r, dict)]
     if not objects:
-        return Peek(problem=failed or "its first records are not JSON objects")
+        return Peek(problem=failed or "the first records of its head are not JSON objects")
     return Peek(tuple(dict.fromkeys(k for r in objects for k in r)))
 
 
@@ -175,7 +175,7 @@ def _lines_head(head: bytes, whole: bool) -> tuple[list[object], str | None]:
         try:
             records.append(orjson.loads(line))
         except orjson.JSONDecodeError as exc:
-            failed = failed or f"line {n} is not JSON ({str(exc).split(':')[0]})"
+            failed = failed or f"line {n} of its head is not JSON ({str(exc).split(':')[0]})"
             continue
         if len(records) >= HEAD_RECORDS:
             break
