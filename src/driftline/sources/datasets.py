@@ -487,10 +487,7 @@ def _folder_notices(
 def _partition_of(folder: str, tables: set[str]) -> bool:
     """Whether folder is a partition folder of a dataset (its first folder below the dataset's is key=value)."""
     parts = folder.split("/")
-    for i in range(len(parts)):
-        if _shown("/".join(parts[:i])) in tables and _is_partition(parts[i]):
-            return True
-    return False
+    return any(_shown("/".join(parts[:i])) in tables and _is_partition(parts[i]) for i in range(len(parts)))
 
 
 def _count(n: int, what: str) -> str:
