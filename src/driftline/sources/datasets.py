@@ -8,13 +8,14 @@ The split is decided from evidence that costs no full read (docs/datasets.md tel
    A plain folder below a partition folder ('day=1/raw/') places no file: it is loose.
 2. At each anchor, split the files by their field names (sources/peek: the head or footer):
    a file joins a group when the Jaccard index of its top-level field names and the group's
-   union so far is at least FIELD_OVERLAP; a file that joins several groups joins them
-   together.  Files are taken in sorted path order, so the result is deterministic; a file
-   whose head shows no field (an empty file) joins its folder's largest group of its format
-   family (registry `family`: JSON, CSV/TSV, Parquet; compressed or not is the same family).
-   Schema drift (a column added, one dropped) keeps a file far above the threshold; a table
-   sharing a few names with another stays apart.  A file of another format whose fields fit
-   (one table exported as CSV for one region) stays in the table, with a notice.
+   union so far, or the names of one of the group's last files (RECENT_SETS distinct sets),
+   is at least FIELD_OVERLAP; a file that joins several groups joins them together.  Files
+   are taken in sorted path order, so the result is deterministic; a file whose head shows
+   no field (an empty file) joins its folder's largest group of its format family (registry
+   `family`: JSON, CSV/TSV, Parquet; compressed or not is the same family).  Schema drift (a
+   column added, one dropped, one renamed at a time) keeps a file above the threshold; a
+   table sharing a few names with another stays apart.  A file of another format whose
+   fields fit (one table exported as CSV for one region) stays in the table, with a notice.
 3. Folders are merged bottom-up: at each folder, its own groups and the lone group of each
    child folder that are one table (same format families, same partition keys, Jaccard of their
    unions at least FIELD_OVERLAP) become one group at the folder: the files of one table
@@ -48,6 +49,7 @@ from driftline.sources.peek import Peek
 from driftline.sources.registry import spec
 
 FIELD_OVERLAP = 0.5  # the Jaccard index of field names from which two files are one table
+RECENT_SETS = 8  # distinct field sets of a group's last files a new file is also compared with
 ROOT_NAME = "."  # the name of a dataset whose folder is the root itself
 
 
@@ -236,7 +238,7 @@ def _groups(anchor: str, files: Sequence[_File]) -> list[_Group]:
         if not f.fields:
             blank.append(f)
             continue
-        hits = [c for c in clusters if _jaccard(f.fields, c.union) >= FIELD_OVERLAP]
+        hits = [c for c in clusters if _fits(f.fields, c)]
         if not hits:
             clusters.append(_Group(anchor, [f], set(f.fields), [anchor]))
             continue
@@ -256,6 +258,16 @@ def _groups(anchor: str, files: Sequence[_File]) -> list[_Group]:
     for c in clusters:
         c.files.sort(key=lambda f: f.ref.rel)
     return clusters
+
+
+def _fits(fields: frozenset[str], group: _Group) -> bool:
+    """Whether a file's field names are those of the group's table: against the union of the
+    group's names, or against one of the last RECENT_SETS distinct sets of its files (a table
+    whose columns are renamed one at a time drifts away from its union, never from its last files)."""
+    if _jaccard(fields, group.union) >= FIELD_OVERLAP:
+        return True
+    recent = list(dict.fromkeys(f.fields for f in reversed(group.files) if f.fields))[:RECENT_SETS]
+    return any(_jaccard(fields, seen) >= FIELD_OVERLAP for seen in recent)
 
 
 def _parent(anchor: str) -> str | None:
