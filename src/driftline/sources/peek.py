@@ -9,7 +9,7 @@ field names; reading every file whole to learn them would cost as much as the sc
 - a JSON document: the keys of the first elements of its array (or of the object itself);
 - CSV/TSV: the header row, as the project's dialect finder reads it from the head
   (names of a file without a header are column_1, column_2, …, as the reader names them);
-- Parquet: the top-level column names of the footer's schema.
+- Parquet: the top-level column names of the footer's schema (sources/footer.py).
 
 Compressed files are read through the same decompression as the readers (formats.open_stream),
 and text in UTF-16/32 (or a single-byte encoding, for CSV) is decoded as encoding.decide says.
@@ -29,6 +29,7 @@ import pyarrow.parquet as pq
 from driftline.core.fileref import FileRef
 from driftline.sources.dialect import ROW_NAME_COLUMN, find_dialect, positional_name
 from driftline.sources.encoding import decide, decoder
+from driftline.sources.footer import top_level_names
 from driftline.sources.formats import decode_errors, open_stream
 
 HEAD_BYTES = 64 * 1024  # the head looked at (as much as the encoding decision reads)
@@ -88,8 +89,9 @@ def _guarded(ref: FileRef, judge: Callable[[bytes, bool], Peek] | None, *, fallb
     if ref.is_remote:
         return Peek(problem="an object in a store: its head is not looked at")
     try:
-        if judge is None:
-            return Peek(tuple(pq.read_schema(ref.path).names))
+        if judge is None:  # the footer's schema: decoded alone when it can be, else by pyarrow
+            names = top_level_names(ref.path)
+            return Peek(names if names is not None else tuple(pq.read_schema(ref.path).names))
         head, whole = _head(ref, fallback)
     except decode_errors() as exc:
         return Peek(problem=f"its head cannot be read: {_short(exc)}")
