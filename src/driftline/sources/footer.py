@@ -22,10 +22,6 @@ _MAGIC = b"PAR1"  # an encrypted footer ends in "PARE": left to pyarrow
 _STOP, _TRUE, _FALSE, _BYTE, _I16, _I32, _I64, _DOUBLE, _BINARY, _LIST, _SET, _MAP, _STRUCT = range(13)
 
 
-class _Malformed(Exception):
-    """Bytes this decoder does not expect (caught in top_level_names: pyarrow decides then)."""
-
-
 def top_level_names(path: str) -> tuple[str, ...] | None:
     """The names of a local Parquet file's top-level columns, or None when its footer is not a
     plain (unencrypted) compact-protocol FileMetaData this decoder reads."""
@@ -46,7 +42,7 @@ def top_level_names(path: str) -> tuple[str, ...] | None:
                 tail = fh.read()
         footer = tail[len(tail) - 8 - length : len(tail) - 8]
         return _Reader(footer).names()
-    except (OSError, _Malformed, IndexError, UnicodeDecodeError):
+    except (OSError, ValueError, IndexError):  # bytes this decoder does not expect: pyarrow decides
         return None
 
 
@@ -69,7 +65,7 @@ class _Reader:
                 return out
             shift += 7
             if shift > 70:
-                raise _Malformed("varint too long")
+                raise ValueError("varint too long")
 
     def zigzag(self) -> int:
         n = self.varint()
@@ -78,7 +74,7 @@ class _Reader:
     def binary(self) -> bytes:
         n = self.varint()
         if self.at + n > len(self.data):
-            raise _Malformed("binary past the end")
+            raise ValueError("binary past the end")
         out = self.data[self.at : self.at + n]
         self.at += n
         return out
@@ -99,7 +95,7 @@ class _Reader:
 
     def skip(self, kind: int, depth: int = 0) -> None:
         if depth > 64:
-            raise _Malformed("nested too deep")
+            raise ValueError("nested too deep")
         if kind in (_TRUE, _FALSE):
             return
         if kind == _BYTE:
@@ -131,28 +127,28 @@ class _Reader:
                     return
                 self.skip(inner, depth + 1)
         else:
-            raise _Malformed(f"unknown compact type {kind}")
+            raise ValueError(f"unknown compact type {kind}")
         if self.at > len(self.data):
-            raise _Malformed("field past the end")
+            raise ValueError("field past the end")
 
     def names(self) -> tuple[str, ...]:
         last = 0
         while True:
             last, kind = self.field(last)
             if kind == _STOP:
-                raise _Malformed("no schema")
+                raise ValueError("no schema")
             if last == 2 and kind == _LIST:
                 break
             self.skip(kind)
         size, elem = self.list_head()
         if elem != _STRUCT or size < 1:
-            raise _Malformed("schema is not a list of structs")
+            raise ValueError("schema is not a list of structs")
         elements = [self.element() for _ in range(size)]
         out = []
         at = 1
         for _ in range(elements[0][1]):
             if at >= len(elements):
-                raise _Malformed("fewer schema elements than the root's children")
+                raise ValueError("fewer schema elements than the root's children")
             out.append(elements[at][0])
             at = _after(elements, at)
         return tuple(out)
@@ -171,7 +167,7 @@ class _Reader:
             else:
                 self.skip(kind)
         if name is None or children < 0:
-            raise _Malformed("schema element without a name")
+            raise ValueError("schema element without a name")
         return name, children
 
 
@@ -180,7 +176,7 @@ def _after(elements: list[tuple[str, int]], at: int) -> int:
     pending = 1
     while pending:
         if at >= len(elements):
-            raise _Malformed("schema ends inside a subtree")
+            raise ValueError("schema ends inside a subtree")
         pending += elements[at][1] - 1
         at += 1
     return at
