@@ -69,3 +69,16 @@ def test_a_footer_bigger_than_the_tail_read(tmp_path: Path) -> None:
 def test_not_a_footer_is_none(tmp_path: Path, data: bytes) -> None:
     (tmp_path / "x.parquet").write_bytes(data)
     assert top_level_names(str(tmp_path / "x.parquet")) is None
+
+
+def test_footers_of_one_writer_decode_alike(tmp_path: Path) -> None:
+    # the same schema with other row groups (the start of the footer seen before), then schemas
+    # that differ from it only in their last column's name or type
+    for k, extra in enumerate(["zz", "zz", "zy"]):
+        cols = {"id": pa.array(range(k + 1)), "name": pa.array(["a"] * (k + 1)), extra: pa.array([1.5] * (k + 1))}
+        pq.write_table(pa.table(cols), tmp_path / f"p{k}.parquet")
+    pq.write_table(pa.table({"id": [1], "name": ["a"], "zz": ["text"]}), tmp_path / "p3.parquet")
+    for k in range(4):
+        path = tmp_path / f"p{k}.parquet"
+        assert top_level_names(str(path)) == tuple(pq.read_schema(path).names)  # source: pyarrow
+    assert top_level_names(str(tmp_path / "p2.parquet")) == ("id", "name", "zy")

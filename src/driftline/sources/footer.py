@@ -41,9 +41,28 @@ def top_level_names(path: str) -> tuple[str, ...] | None:
                 fh.seek(size - 8 - length)
                 tail = fh.read()
         footer = tail[len(tail) - 8 - length : len(tail) - 8]
-        return _Reader(footer).names()
+        return _decoded(footer)
     except (OSError, ValueError, IndexError):  # bytes this decoder does not expect: pyarrow decides
         return None
+
+
+# The footers of one writer's files start with the same bytes (the version, then the schema
+# list) and differ after them (row groups, statistics): a start seen before is not decoded
+# again.  Bytes equal, names equal: the result is the same as decoding.
+_SEEN: dict[int, dict[bytes, tuple[str, ...]]] = {}  # length of the start → start → names
+_SEEN_MAX = 256
+
+
+def _decoded(footer: bytes) -> tuple[str, ...]:
+    for n, starts in _SEEN.items():
+        names = starts.get(footer[:n])
+        if names is not None:
+            return names
+    reader = _Reader(footer)
+    names = reader.names()
+    if sum(len(v) for v in _SEEN.values()) < _SEEN_MAX:
+        _SEEN.setdefault(reader.at, {})[footer[: reader.at]] = names
+    return names
 
 
 class _Reader:
