@@ -119,6 +119,16 @@ class _Group:
     files: list[_File]
     union: set[str]
     folders: list[str] = field(default_factory=list)  # the anchors merged into it (spread over folders)
+    recent: list[frozenset[str]] = field(default_factory=list)  # the last RECENT_SETS distinct field sets
+
+    def add(self, f: _File) -> None:
+        self.files.append(f)
+        self.union |= f.fields
+        self.remember([f.fields] if f.fields else [])
+
+    def remember(self, sets: Iterable[frozenset[str]]) -> None:
+        kept = [x for x in self.recent if x not in sets] + list(dict.fromkeys(sets))
+        self.recent = kept[-RECENT_SETS:]
 
     @property
     def families(self) -> frozenset[str]:
@@ -240,17 +250,17 @@ def _groups(anchor: str, files: Sequence[_File]) -> list[_Group]:
             continue
         hits = [c for c in clusters if _fits(f.fields, c)]
         if not hits:
-            clusters.append(_Group(anchor, [f], set(f.fields), [anchor]))
-            continue
+            hits = [_Group(anchor, [], set(), [anchor])]
+            clusters.append(hits[0])
         into = hits[0]
         for other in hits[1:]:
             into.files.extend(other.files)
             into.union |= other.union
-            clusters.remove(other)
-        into.files.append(f)
-        into.union |= f.fields
+            into.remember(other.recent)
+            clusters = [c for c in clusters if c is not other]
+        into.add(f)
     for f in blank:  # no field to judge by: the largest group of its format family, else the largest
-        same = [c for c in clusters if f.family in c.families] or clusters
+        same = [c for c in clusters if any(x.family == f.family for x in c.files)] or clusters
         if same:
             max(same, key=lambda c: (len(c.files), -files.index(c.files[0]))).files.append(f)
         else:
@@ -266,8 +276,7 @@ def _fits(fields: frozenset[str], group: _Group) -> bool:
     whose columns are renamed one at a time drifts away from its union, never from its last files)."""
     if _jaccard(fields, group.union) >= FIELD_OVERLAP:
         return True
-    recent = list(dict.fromkeys(f.fields for f in reversed(group.files) if f.fields))[:RECENT_SETS]
-    return any(_jaccard(fields, seen) >= FIELD_OVERLAP for seen in recent)
+    return any(_jaccard(fields, seen) >= FIELD_OVERLAP for seen in group.recent)
 
 
 def _parent(anchor: str) -> str | None:
@@ -280,39 +289,53 @@ def _depth(anchor: str) -> int:
     return anchor.count("/") + 1 if anchor else 0
 
 
-def _one_table(a: _Group, b: _Group) -> bool:
-    ka, kb = a.keys, b.keys
-    return a.families == b.families and ka == kb and _jaccard(a.union, b.union) >= FIELD_OVERLAP
+_Signature = tuple[frozenset[str], tuple[str, ...]]  # a group's format families and partition keys
+
+
+def _signature(g: _Group) -> _Signature:
+    return g.families, g.keys
 
 
 def _merge_folders(groups: list[_Group], notices: list[Notice]) -> list[_Group]:
     """Bottom-up: a folder's own groups and its children's lone groups that are one table
     become one group at the folder (a table spread over plain sibling folders)."""
+    at: dict[str, list[_Group]] = {}
+    for g in groups:
+        at.setdefault(g.anchor, []).append(g)
+    signs = {id(g): _signature(g) for g in groups}
     folders = {a for g in groups for a in _ancestors(g.anchor)}
+    children: dict[str, list[str]] = {}
+    for a in folders | set(at):
+        parent = _parent(a)
+        if parent is not None:
+            children.setdefault(parent, []).append(a)
     for folder in sorted(folders, key=lambda a: (-_depth(a), a)):
-        at: dict[str, list[_Group]] = {}
-        for g in groups:
-            at.setdefault(g.anchor, []).append(g)
         candidates = list(at.get(folder, []))
-        candidates += [gs[0] for anchor, gs in sorted(at.items()) if _parent(anchor) == folder and len(gs) == 1]
-        merged = _union_find(candidates)
-        for members in merged:
+        candidates += [at[c][0] for c in sorted(children.get(folder, ())) if len(at.get(c, ())) == 1]
+        for members in _union_find(candidates, signs):
             if len(members) < 2 or all(m.anchor == folder for m in members):
                 continue
             files = sorted((f for m in members for f in m.files), key=lambda f: f.ref.rel)
             whole = _Group(folder, files, set().union(*(m.union for m in members)))
             whole.folders = sorted({a for m in members for a in m.folders})
-            groups = [g for g in groups if all(g is not m for m in members)] + [whole]
-            shown = ", ".join(f"'{_shown(a)}'" for a in whole.folders)
+            whole.remember([x for m in members for x in m.recent])
+            signs[id(whole)] = _signature(whole)
+            for m in members:
+                at[m.anchor] = [g for g in at[m.anchor] if g is not m]
+            at.setdefault(folder, []).append(whole)
+    merged = [g for _, gs in sorted(at.items()) for g in gs]
+    for g in merged:
+        if len(g.folders) > 1:
+            shown = ", ".join(f"'{_shown(a)}'" for a in g.folders[:4]) + (", …" if len(g.folders) > 4 else "")
             notices.append(
                 Notice(
                     "spread",
-                    f"files of one table are spread over the folders {shown}: read as one dataset "
-                    f"'{_shown(folder)}'; key=value folder names (month=2026-01) would make them partitions",
-                    tuple(f.ref.rel for f in files),
+                    f"files of one table are spread over {len(g.folders):,} folders ({shown}): read as one "
+                    f"dataset '{_shown(g.anchor)}'; key=value folder names (month=2026-01) would make them partitions",
+                    tuple(f.ref.rel for f in g.files),
                 )
             )
-    return groups
+    return merged
 
 
 def _ancestors(anchor: str) -> list[str]:
@@ -324,13 +347,36 @@ def _ancestors(anchor: str) -> list[str]:
     return out
 
 
-def _union_find(candidates: list[_Group]) -> list[list[_Group]]:
-    clusters: list[list[_Group]] = []
+def _union_find(candidates: list[_Group], signs: dict[int, _Signature]) -> list[list[_Group]]:
+    """Candidates grouped into tables: the same signature, and field names that fit (as _fits:
+    the union of the cluster's names, or one of its last members')."""
+    clusters: list[_Group] = []  # one view per cluster: its union and last field sets
+    members: dict[int, list[_Group]] = {}
     for g in candidates:
-        hits = [c for c in clusters if any(_one_table(g, m) for m in c)]
-        joined = [g] + [m for c in hits for m in c]
-        clusters = [c for c in clusters if all(c is not h for h in hits)] + [joined]
-    return clusters
+        hits = [
+            c
+            for c in clusters
+            if signs[id(members[id(c)][0])] == signs[id(g)]
+            and (
+                _jaccard(g.union, c.union) >= FIELD_OVERLAP
+                or any(_jaccard(g.union, r) >= FIELD_OVERLAP for r in c.recent)
+            )
+        ]
+        if not hits:
+            view = _Group(g.anchor, [], set())
+            clusters.append(view)
+            members[id(view)] = []
+            hits = [view]
+        view = hits[0]
+        for other in hits[1:]:
+            members[id(view)].extend(members.pop(id(other)))
+            view.union |= other.union
+            view.remember(other.recent)
+            clusters = [c for c in clusters if c is not other]
+        members[id(view)].append(g)
+        view.union |= g.union
+        view.remember([frozenset(g.union)])
+    return [members[id(c)] for c in clusters]
 
 
 def _compatible(a: tuple[str, ...], b: tuple[str, ...]) -> bool:
@@ -392,7 +438,7 @@ def _key_reason(keys: tuple[str, ...], want: tuple[str, ...], name: str) -> str:
 
 
 def _name(groups: list[_Group], loose: list[LooseFile]) -> list[Dataset]:
-    anchors = {g.anchor for g in groups if g.files}
+    above = {a for g in groups if g.files for a in _ancestors(g.anchor)}  # anchors with a dataset below them
     out: list[Dataset] = []
     by_anchor: dict[str, list[_Group]] = {}
     for g in groups:
@@ -400,7 +446,7 @@ def _name(groups: list[_Group], loose: list[LooseFile]) -> list[Dataset]:
             by_anchor.setdefault(g.anchor, []).append(g)
     for anchor, gs in sorted(by_anchor.items()):
         gs.sort(key=lambda g: (-len(g.files), g.files[0].ref.rel))
-        below = any(a != anchor and (not anchor or a.startswith(anchor + "/")) for a in anchors)
+        below = anchor in above
         for i, g in enumerate(gs):
             lone = len(g.files) == 1 and not g.files[0].keys and g.files[0].anchor == anchor
             if lone and (len(gs) > 1 or below):
@@ -462,28 +508,32 @@ def _folder_notices(
     """Folders that hold nothing, and the topmost folders that hold no dataset's file."""
     used = {f.rel for d in datasets for f in d.files}
     tables = {d.folder for d in datasets if d.name == d.folder}
-    everything = [f.rel for f in discovery.files] + [s.rel for s in discovery.skipped]
-    known = set(folders)
-    for rel in everything:
+    loose_rels = {x.file.rel for x in loose}
+    skipped_rels = {x.rel for x in discovery.skipped}
+    under: dict[str, list[str]] = {}  # folder → the files (data or skipped) below it
+    for rel in [f.rel for f in discovery.files] + sorted(skipped_rels):
         parts = rel.split("/")[:-1]
-        known.update("/".join(parts[: i + 1]) for i in range(len(parts)))
+        for i in range(1, len(parts) + 1):
+            under.setdefault("/".join(parts[:i]), []).append(rel)
+    known = set(folders) | set(under)
+    with_subfolders = {p for k in known for p in _ancestors(k)}
     out: list[Notice] = []
-    reported: list[str] = []
+    reported: set[str] = set()
     for folder in sorted(known):
         if any(part.startswith((".", "_")) for part in folder.split("/")):
             continue  # hidden and marker folders: discovery skips them on purpose
-        if any(folder.startswith(r + "/") for r in reported) or _partition_of(folder, tables):
+        if any(a in reported for a in _ancestors(folder)) or _partition_of(folder, tables):
             continue
-        inside = [rel for rel in everything if rel.startswith(folder + "/")]
+        inside = under.get(folder, [])
         if not inside:
-            if not any(k.startswith(folder + "/") for k in known):
+            if folder not in with_subfolders:
                 out.append(Notice("empty-folder", f"folder '{folder}' is empty: no file in it", (folder,)))
-                reported.append(folder)
+                reported.add(folder)
             continue
         if any(rel in used for rel in inside):
             continue
-        loose_here = sum(1 for x in loose if x.file.rel.startswith(folder + "/"))
-        skipped_here = sum(1 for s in discovery.skipped if s.rel.startswith(folder + "/"))
+        loose_here = sum(1 for rel in inside if rel in loose_rels)
+        skipped_here = sum(1 for rel in inside if rel in skipped_rels)
         out.append(
             Notice(
                 "no-dataset",
@@ -492,7 +542,7 @@ def _folder_notices(
                 tuple(inside),
             )
         )
-        reported.append(folder)
+        reported.add(folder)
     return out
 
 
