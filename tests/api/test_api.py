@@ -247,6 +247,7 @@ def _bad_calls(d: Path, profile: driftline.Profile) -> dict[str, tuple[type, obj
             lambda: driftline.check(d, baseline=d / "a.jsonl", policy=d / "none.toml"),
         ),
         "diff missing side": (driftline.InputPathError, lambda: driftline.diff(d / "nope", d)),
+        "datasets missing root": (driftline.InputPathError, lambda: driftline.datasets(d / "nope")),
         "load_report of data": (driftline.ReportVersionError, lambda: driftline.load_report(d / "a.jsonl")),
         "load_report missing": (driftline.InputPathError, lambda: driftline.load_report(d / "none.json")),
         "merge different content": (

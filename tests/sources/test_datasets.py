@@ -303,3 +303,23 @@ def test_a_bad_head_is_a_loose_file_with_its_reason(tmp_path: Path, name: str, d
     assert [d.name for d in layout.datasets] == ["t"]
     (loose,) = layout.loose
     assert loose.file.rel == f"t/{name}" and words in loose.reason
+
+
+@pytest.mark.timeout(60)
+def test_many_files_and_folders_split_in_bounded_time() -> None:
+    # 12,000 files: a hive table of 2,000 days whose columns are renamed one every 50 days, and
+    # 4,000 exports in plain year/month/day folders (one table spread over folders); quadratic
+    # work in the files or folders would take minutes here
+    peeks: dict[str, tuple[str, ...]] = {}
+    for d in range(2000):
+        for k in range(4):
+            peeks[f"events/day={d:05d}/part-{k}.jsonl"] = tuple(f"c{j}" for j in range(d // 50, d // 50 + 6))
+    for d in range(4000):
+        peeks[f"exports/{2000 + d // 336}/{d // 28 % 12 + 1:02d}/{d:05d}/ledger.jsonl"] = ("entry", "amount", "booked")
+    refs = tuple(_ref(rel) for rel in sorted(peeks))
+    layout = split_datasets(Discovery("/r", refs, ()), {rel: Peek(f) for rel, f in peeks.items()})
+    assert [(d.name, len(d.files), d.partition_keys) for d in layout.datasets] == [
+        ("events", 8000, ("day",)),
+        ("exports", 4000, ()),
+    ]
+    assert [n.kind for n in layout.notices] == ["spread"] and layout.loose == ()
