@@ -323,3 +323,9 @@ def test_many_files_and_folders_split_in_bounded_time() -> None:
         ("exports", 4000, ()),
     ]
     assert [n.kind for n in layout.notices] == ["spread"] and layout.loose == ()
+
+
+def test_a_json_document_bigger_than_the_head_that_is_no_array(tmp_path: Path) -> None:
+    (tmp_path / "big.json").write_text(json.dumps({"a": 1, "blob": "x" * (2 * HEAD_BYTES)}, indent=1))
+    got = peek_fields(_one(tmp_path))
+    assert got == Peek(problem=f"a JSON document larger than its first {HEAD_BYTES:,} bytes that is not an array")

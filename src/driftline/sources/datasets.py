@@ -262,7 +262,7 @@ def _groups(anchor: str, files: Sequence[_File]) -> list[_Group]:
     for f in blank:  # no field to judge by: the largest group of its format family, else the largest
         same = [c for c in clusters if any(x.family == f.family for x in c.files)] or clusters
         if same:
-            max(same, key=lambda c: (len(c.files), -files.index(c.files[0]))).files.append(f)
+            min(same, key=lambda c: (-len(c.files), c.files[0].ref.rel)).files.append(f)
         else:
             clusters.append(_Group(anchor, [f], set(), [anchor]))
     for c in clusters:

@@ -158,6 +158,8 @@ def _json(head: bytes, whole: bool, document: bool) -> Peek:
         failed = None if records else "its first element is not a whole JSON value within the head"
     else:
         records, failed = _lines_head(head, whole)
+        if document and not records and not whole:
+            failed = f"a JSON document larger than its first {len(head):,} bytes that is not an array"
     objects = [r for r in records if isinstance(r, dict)]
     if not objects:
         return Peek(problem=failed or "the first records of its head are not JSON objects")
