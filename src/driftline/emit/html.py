@@ -184,7 +184,7 @@ def _overview(profile: Profile) -> list[tuple[str, str]]:
             "drift events",
             f"{profile.event_total:,}"
             + (
-                f" (the first {len(profile.events):,} listed; --max-events)"
+                f" (the first {len(profile.events):,} followed and listed: the most a scan holds)"
                 if profile.event_total > len(profile.events)
                 else ""
             ),
