@@ -289,7 +289,9 @@ def scan(
     the max_* limits report a too-long record, too many decompressed bytes, too high a
     compression ratio or too many CSV columns instead of reading on; max_paths
     caps the distinct field paths kept (the rest are counted as "other fields") and
-    max_events the drift events listed (their totals stay exact); delimiter
+    max_events the drift events the command line's terminal lists (accepted here so that
+    flags, config file and keywords share one vocabulary; it changes nothing in the Profile,
+    whose events hold every episode); delimiter
     fixes the CSV delimiter (found from the data otherwise); csv_dialect pins more of the
     CSV dialect, per glob ('legacy/*.csv:delimiter=pipe,quote=none,header=no', one
     string or several; what a pin leaves open is still found); encoding fixes the text

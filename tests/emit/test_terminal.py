@@ -56,22 +56,29 @@ def test_demo_events_grouped_by_level_with_counts(demo_profile):
 def test_level_counts_are_of_every_event_not_only_the_listed(tmp_path: Path):
     # 40 partitions of one series, each with a field of its own: f01..f39 arrive after the
     # first file (field-new, widening) and f00..f38 are gone after their one file (field-gone,
-    # breaking): 78 events, 10 listed; the counts are of all 78.
+    # breaking): 78 events, all in the Profile; the terminal lists 10 of them (--max-events)
+    # and its counts are of all 78.
     for i in range(40):
         write_lines(tmp_path / f"p={i:02d}" / "a.jsonl", [f'{{"id": 1, "f{i:02d}": 1}}'])
-    cut = driftline.scan(tmp_path, max_events=10)
-    assert cut.event_total == 78 and len(cut.events) == 10
-    assert cut.event_counts == {"field-new": 39, "field-gone": 39}
-    assert cut.level_counts == {"breaking": 39, "widening": 39, "info": 0}
-    lines = events_block(cut.events, cut.level_counts).plain.splitlines()
+    full = driftline.scan(tmp_path)
+    assert driftline.scan(tmp_path, max_events=10).events == full.events  # the keyword leaves the Profile whole
+    assert full.event_total == len(full.events) == 78
+    assert full.event_counts == {"field-new": 39, "field-gone": 39}
+    assert full.level_counts == {"breaking": 39, "widening": 39, "info": 0}
+    lines = events_block(full.events, full.level_counts, 10).plain.splitlines()
     assert lines[0] == "Drift events (78): 39 breaking, 39 widening, 0 info"
-    # The 10 listed are the first in scan order: in each of files 1..5 one field arrives and
-    # the one before it is gone; breaking ones first, each group in scan order.
-    assert [e.kind for e in cut.events] == ["field-new", "field-gone"] * 5
+    # The 10 listed are the first in the terminal's order, breaking first: f00..f09 gone,
+    # each after its one file, in scan order; no widening one makes the cut.
     assert lines[1] == "breaking (39), in scan order"
     assert [ln.split()[1:3] for ln in lines if ln[:3].strip().isdigit()] == [
-        *(["field-gone", f"f{i:02d}:"] for i in range(5)),
-        *(["field-new", f"f{i:02d}:"] for i in range(1, 6)),
+        ["field-gone", f"f{i:02d}:"] for i in range(10)
     ]
-    # one line per episode: the heading, the breaking header, its five episodes, then widening
-    assert lines[7] == "widening (39), in scan order"
+    assert len(lines) == 12 and "widening (39), in scan order" not in lines
+    # 45 listed: every breaking one (39), then the first 6 widening ones
+    assert (
+        sum(1 for ln in events_block(full.events, full.level_counts, 45).plain.splitlines() if "field-new" in ln) == 6
+    )
+    console = Console(record=True, width=200)
+    render(full, console, max_events=10)
+    text = console.export_text()
+    assert "… 68 more events not listed here (--max-events 10); the JSON report (--json) lists them all" in text

@@ -17,9 +17,15 @@ from driftline.core.files import FileResult
 from driftline.core.jsontypes import JSONObject, JSONValue
 from driftline.core.lattice import UNKNOWN, DType, is_widening, join, type_of_key, type_text
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
-from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
 from driftline.results.levels import level_of
+
+# The walk's memory bound: episodes followed (each with its start and reach) and listed at
+# most.  One that starts after this many others is counted by kind and level, never followed
+# or listed; the totals of every followed episode stay exact.  Not an option: a scan that finds
+# this many changes has a folder to fix, and a user's limit on the list is the terminal's
+# (--max-events), which leaves the report and Profile.events whole.
+EPISODES_HELD = 100_000
 
 # Event kinds, in the order they are listed for one batch.
 EVENT_KINDS: dict[str, str] = {
@@ -171,23 +177,24 @@ def _present(st: FieldStats | None) -> bool:
     return st is not None and st.present > 0
 
 
-def drift_events(files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS) -> tuple[Event, ...]:
+def drift_events(files: Sequence[FileResult], limit: int | None = None) -> tuple[Event, ...]:
     """The drift events of the file results (sorted by relative path) in scan order: the
-    first `limit` of them; drift_summary also gives the exact totals."""
+    first `limit` of them (EPISODES_HELD when None); drift_summary also gives the exact totals."""
     return drift_summary(files, limit)[0]
 
 
 def drift_summary(
-    files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS
+    files: Sequence[FileResult], limit: int | None = None
 ) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
     """(the first `limit` events in scan order, the number of events of each kind, and of each
-    level, all counted).
+    level, all counted).  `limit` is EPISODES_HELD when None (read at the call, not bound here).
 
     Drift takes the ordered file results, never a Profile: it is the one walk in scan order.
     About `limit` episodes are followed at any time (the walk finds episodes in scan order,
     so one that starts after `limit` others can never be listed: it is only counted); a
     scan with a tiny batch_rows over many paths and partitions finds them by the million.
     """
+    limit = EPISODES_HELD if limit is None else limit
     counts: Counter[str] = Counter()
     levels: Counter[str] = Counter()
     sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]] = [

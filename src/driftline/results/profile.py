@@ -15,7 +15,6 @@ from driftline.core import paths
 from driftline.core.files import FileIssue, FileResult, Skipped
 from driftline.core.jsontypes import JSONValue
 from driftline.core.observation import Observation
-from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import FieldStats, merge_all
 from driftline.errors import ProfileError
 from driftline.results.drift import Event, drift_summary
@@ -164,13 +163,14 @@ class Profile:
 
     @cached_property
     def _drift(self) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
-        given = self.options.get("max_events")
-        return drift_summary(self.files, given if isinstance(given, int) else DEFAULT_MAX_EVENTS)
+        return drift_summary(self.files)
 
     @property
     def events(self) -> tuple[Event, ...]:
-        """Drift events in scan order (file path, then batch), each with its provenance: the
-        first max_events of them (a scan option, 10,000 by default); see event_counts."""
+        """Drift events in scan order (file path, then batch), each with its provenance and reach:
+        every one of them, up to the walk's memory bound (results/drift.EPISODES_HELD, far past
+        what a folder worth reading finds); see event_counts.  --max-events limits only the
+        terminal's list."""
         return self._drift[0]
 
     @property
@@ -194,7 +194,7 @@ class Profile:
 
     @property
     def event_total(self) -> int:
-        """How many drift events the scan found (events lists at most max_events of them).
+        """How many drift events the scan found (events lists at most EPISODES_HELD of them).
 
         >>> Profile("r", ()).event_total
         0
