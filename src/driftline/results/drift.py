@@ -223,8 +223,14 @@ def drift_summary(
 
     # The partition comparison's episodes (few: at most one per key, path and kind); a walk
     # episode that counts the very same places is the same change, told once by them.
-    across = list(_partition_events(sequence, compare_partitions(files, skip_keys)))
-    told = {_same_change(e) for e in across}
+    # Two keys naming the very same places (region=south and day=2026-11-30, where the nulls lie
+    # in region=south/day=2026-11-30 only) are one change: the first key (the outer one) tells it.
+    across: list[Event] = []
+    told: set[tuple[str | None, str, str, int, int, str | None]] = set()
+    for e in _partition_events(sequence, compare_partitions(files, skip_keys)):
+        if _same_change(e) not in told:
+            told.add(_same_change(e))
+            across.append(e)
 
     def untold(events: Iterator[Event]) -> Iterator[Event]:
         return (e for e in events if _same_change(e) not in told)
@@ -233,8 +239,8 @@ def drift_summary(
     # nsmallest is sorted(...)[:limit] (ties keep their order) with a heap of limit events.
     walked = heapq.nsmallest(limit, counted(untold(_walk(sequence, limit, states))), key=_order)
     gone = heapq.nsmallest(limit, counted(untold(_gone_events(sequence, states))), key=_order)
-    across = heapq.nsmallest(limit, counted(iter(across)), key=_order)
-    kept = heapq.nsmallest(limit, [*walked, *gone, *across], key=_order)
+    listed = heapq.nsmallest(limit, counted(iter(across)), key=_order)
+    kept = heapq.nsmallest(limit, [*walked, *gone, *listed], key=_order)
     return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}, dict(levels)
 
 
