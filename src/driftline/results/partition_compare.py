@@ -17,8 +17,9 @@ finding names the values that differ and how many were compared:
 - ``partition-nulls``: the values where a field holds nulls, while the values where it is
   present without any null are a strict majority.
 
-A value that held the field (its type, no nulls) and then changed is a change in time: the
-walk tells it (field-gone per series, type-conflict, nulls-begin), not this comparison.
+A value that held the field (or its type) and then lost it is a change in time: the walk tells
+it (field-gone per series, type-conflict), not this comparison. Nulls are where they are: a
+value with nulls where most others have none is named whenever they began.
 Types are compared by what the values read as (``logical_counts``), so that the same values
 in a CSV file and a JSON Lines file are no partition difference.
 """
@@ -139,13 +140,11 @@ def compare_partitions(files: Sequence[FileResult], skip_keys: frozenset[str] = 
     The verdicts depend only on the files' totals, never on batches, --jobs or the engine.
     """
     out: list[PartitionFinding] = []
-    arrival = arrivals(files)
-    for key in partition_keys(files):
-        if key in skip_keys:
-            continue
-        groups = partition_groups(files, key)
-        if len(groups) < 3:  # with two values neither is "the others"' exception
-            continue
+    compared = {key: partition_groups(files, key) for key in partition_keys(files) if key not in skip_keys}
+    # With two values, neither is the exception of "the others".
+    compared = {key: groups for key, groups in compared.items() if len(groups) >= 3}
+    arrival = arrivals(files) if compared else {}
+    for key, groups in compared.items():
         merged = {value: group_fields(fs) for value, fs in groups.items()}
         logical = {value: _logical_of(fs) for value, fs in groups.items()}
         every_path = sorted({p for fields, _ in merged.values() for p in fields})
