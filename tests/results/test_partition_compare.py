@@ -18,7 +18,7 @@ import driftline
 from _drift_cases import CASES, load_case
 from conftest import write_lines
 from driftline.results.drift import drift_summary
-from driftline.results.partition_compare import CHANCE, compare_partitions, logical_counts
+from driftline.results.partition_compare import CHANCE, compare_partitions, logical_counts, ordered_keys
 
 PARTITION_KINDS = ("partition-lacks", "partition-type", "partition-nulls")
 
@@ -171,32 +171,30 @@ def test_two_values_lacking_it_are_one_event_naming_both(tmp_path: Path) -> None
     )
 
 
-def test_a_flip_in_every_seventh_partition_is_one_event_naming_those_values(tmp_path: Path) -> None:
-    # temp_c is a number, a string in every file of every seventh day; the walk's type-conflict
-    # (reopened three times) counts the very same strings, so the partition event tells it.
+def test_a_flip_in_every_seventh_day_is_told_by_the_walk_with_its_recurrences(tmp_path: Path) -> None:
+    # temp_c is a number, a string in every file of every seventh day. The partition
+    # comparison finds those four days, and the walk's type-conflict (reopened three times)
+    # counts the very same strings. Along a key of dates the walk tells it: it says where the
+    # change starts, ends and comes back, which the partition event cannot.
     for day in range(1, 29):
         recs = [json.dumps({"id": i, "temp_c": str(i + 0.5) if day % 7 == 0 else i + 0.5}) for i in range(5)]
         write_lines(tmp_path / f"day=2026-02-{day:02d}" / "a.jsonl", recs)
     strings = [(f, r) for f, r, t in _duckdb_rows(tmp_path, "$.temp_c") if t == "VARCHAR"]
     profile = driftline.scan(tmp_path)
     (e,) = profile.events
-    assert (e.kind, e.before, e.after, e.partition_key, e.partition_compared) == (
-        "partition-type",
+    assert (e.kind, e.before, e.after, e.partition_key, e.recurrences) == (
+        "type-conflict",
         "float64",
         "string",
-        "day",
-        28,
+        None,
+        3,
     )
-    assert e.partition_values == tuple(sorted({f.split("/")[0].removeprefix("day=") for f, _ in strings}))
-    assert e.partition_values == ("2026-02-07", "2026-02-14", "2026-02-21", "2026-02-28")
-    assert (e.file, e.row, e.values, e.files, e.last_file) == (
-        *strings[0],
-        len(strings),
-        4,
-        strings[-1][0],
-    )
-    (walk,) = drift_summary(profile.files, skip_keys=frozenset({"day"}))[0]
-    assert (walk.kind, walk.values, walk.recurrences) == ("type-conflict", 20, 3)
+    assert (e.file, e.row, e.values, e.files, e.last_file) == (*strings[0], len(strings), 4, strings[-1][0])
+    (found,) = [f for f in compare_partitions(profile.files) if f.path == "temp_c"]
+    assert (found.kind, found.key, found.compared) == ("partition-type", "day", 28)
+    assert found.values == tuple(sorted({f.split("/")[0].removeprefix("day=") for f, _ in strings}))
+    assert found.values == ("2026-02-07", "2026-02-14", "2026-02-21", "2026-02-28")
+    assert ordered_keys(profile.files) == frozenset({"day"})
 
 
 def test_a_field_of_half_the_values_or_fewer_is_no_difference(tmp_path: Path) -> None:

@@ -25,6 +25,7 @@ from driftline.results.partition_compare import (
     compare_partitions,
     container_count,
     logical_counts,
+    ordered_keys,
 )
 
 # The walk's memory bound: episodes followed (each with its start and reach) and listed at
@@ -229,25 +230,31 @@ def drift_summary(
             levels[e.level] += 1
             yield e
 
-    # The partition comparison's episodes (few: at most one per key, path and kind); a walk
-    # episode that counts the very same places is the same change, told once by them.
-    # Two keys naming the very same places (region=south and day=2026-11-30, where the nulls lie
-    # in region=south/day=2026-11-30 only) are one change: the first key (the outer one) tells it.
-    across: list[Event] = []
-    told: set[tuple[str | None, str, str, int, int, str | None]] = set()
+    # The partition comparison's episodes (few: at most one per key, path and kind). A walk
+    # episode that counts the very same places is the same change, told once: by the walk
+    # along a key of dates, times or integers (its episode says when it started, ended and came
+    # back), else by the partition episode (it names the values). Two keys naming the very same
+    # places (region=south and day=2026-11-30, where the nulls lie in region=south/day=2026-11-30
+    # only) are one change: the first key (the outer one) tells it.
+    ordered = ordered_keys(files)
+    across: dict[tuple[str | None, str, str, int, int, str | None], Event] = {}
     for e in _partition_events(sequence, compare_partitions(files, skip_keys)):
-        if _same_change(e) not in told:
-            told.add(_same_change(e))
-            across.append(e)
+        across.setdefault(_same_change(e), e)
 
     def untold(events: Iterator[Event]) -> Iterator[Event]:
-        return (e for e in events if _same_change(e) not in told)
+        for e in events:
+            same = across.get(_same_change(e))
+            if same is None:
+                yield e
+            elif same.partition_key in ordered:
+                del across[_same_change(e)]
+                yield e
 
     states: dict[str, _PathState] = {}
     # nsmallest is sorted(...)[:limit] (ties keep their order) with a heap of limit events.
     walked = heapq.nsmallest(limit, counted(untold(_walk(sequence, limit, states))), key=_order)
     gone = heapq.nsmallest(limit, counted(untold(_gone_events(sequence, states))), key=_order)
-    listed = heapq.nsmallest(limit, counted(iter(across)), key=_order)
+    listed = heapq.nsmallest(limit, counted(iter(across.values())), key=_order)
     kept = heapq.nsmallest(limit, [*walked, *gone, *listed], key=_order)
     return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}, dict(levels)
 

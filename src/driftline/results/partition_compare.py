@@ -30,10 +30,13 @@ from collections import Counter
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 
+import pyarrow as pa
+
 from driftline.core import paths
 from driftline.core.files import FileResult
 from driftline.core.observation import TEXT_CLASS_TYPE
 from driftline.core.stats import FieldStats, merge_all
+from driftline.observe.textclass import classify
 
 # The kinds this comparison finds, in the order they are listed for one batch.
 PARTITION_KINDS: dict[str, str] = {
@@ -130,6 +133,34 @@ def logical_counts(st: FieldStats) -> dict[str, int]:
         out["string"] -= n
         out[TEXT_CLASS_TYPE[cls] or "string"] += n
     return dict(sorted((k, n) for k, n in out.items() if n > 0))
+
+
+def ordered_keys(files: Sequence[FileResult]) -> frozenset[str]:
+    """The partition keys whose values all read as dates, times or integers (day=2026-03-07,
+    hour=13): keys along which the data arrives in order.
+
+    Along such a key the walk in scan order tells a change with its time: where it starts,
+    ends and comes back. A partition finding that counts the very same places as a walk
+    episode on such a key adds nothing and is left out (results/drift.py); on any other key
+    (region, store) the finding tells it, naming the values.
+
+    >>> from driftline.core.files import FileResult
+    >>> fs = [FileResult(f"r={r}/d={d}/a.jsonl", "jsonl", None, (("r", r), ("d", d)), 1, 0)
+    ...       for r in "ab" for d in ("2026-01-01", "2026-01-02")]
+    >>> sorted(ordered_keys(fs))
+    ['d']
+    """
+    values: dict[str, set[str]] = {}
+    for f in files:
+        for k, v in f.partitions:
+            values.setdefault(k, set()).add(v)
+    out = set()
+    for key, vals in values.items():
+        counts = classify(pa.array(sorted(vals), pa.string())).counts
+        kinds = {TEXT_CLASS_TYPE[c] for c, n in counts.items() if n}
+        if kinds and all(t is not None and t.startswith(("date", "timestamp", "int")) for t in kinds):
+            out.add(key)
+    return frozenset(out)
 
 
 def compare_partitions(files: Sequence[FileResult], skip_keys: frozenset[str] = frozenset()) -> list[PartitionFinding]:
