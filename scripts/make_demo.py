@@ -39,6 +39,7 @@ import io
 import json
 import math
 import random
+import re
 import shutil
 import sys
 from collections.abc import Callable
@@ -88,6 +89,9 @@ CHANGE_KINDS = (
     "type-widened",
     "field-new",
     "malformed-line",
+    "partition-lacks",
+    "partition-type",
+    "partition-nulls",
 )
 
 # The injections, as rules of (region, station index, UTC time).  Station
@@ -419,6 +423,7 @@ def _change(
     line: int | None,
     byte_offset: int | None,
     note: str,
+    partition: dict[str, str] | None = None,
 ) -> dict[str, Any]:
     return {
         "change": change,
@@ -428,7 +433,63 @@ def _change(
         "line": line,
         "byte_offset": byte_offset,
         "note": note,
+        "partition": partition,
     }
+
+
+# Partition-level changes: what one partition value (region=west, the legacy CSV export) does
+# from its first row on, which the other regions never do. (change, field, predicate on a CSV
+# row as a dict of cells, note); each is found at its first row in west's files in sorted order.
+WEST = {"region": "west"}
+SPACE_TS = re.compile(r"\d{4}-\d\d-\d\d \d\d:\d\d:\d\d")
+_WEST_CHANGES: tuple[tuple[str, str, Callable[[dict[str, str]], bool], str], ...] = (
+    (
+        "partition-lacks",
+        "battery",
+        lambda row: "battery" not in row,
+        "the west export flattens battery into battery_voltage / battery_level: no row of region=west "
+        "holds the battery struct every other region sends",
+    ),
+    (
+        "partition-type",
+        "tags",
+        lambda row: row["tags"] != "",
+        "the west export joins tags into one string (';'-separated); every other region sends a list",
+    ),
+    (
+        "partition-type",
+        "ts",
+        lambda row: SPACE_TS.fullmatch(row["ts"]) is not None,
+        "the west export writes ts as 'YYYY-MM-DD HH:MM:SS' without a zone in every row; the other regions "
+        "send RFC 3339 with Z for most of their rows",
+    ),
+    (
+        "partition-nulls",
+        "temp_c",
+        lambda row: row["temp_c"] == "",
+        "empty temp_c cells (a null) in the west export only; no other region sends a null temp_c",
+    ),
+    (
+        "partition-nulls",
+        "tags",
+        lambda row: row["tags"] == "",
+        "a station without tags gets an empty cell (a null) in the west export; the others send []",
+    ),
+)
+
+
+def _partition_changes(files: dict[str, bytes]) -> list[dict[str, Any]]:
+    """Each west change at its first row in west's CSV files in sorted order (line: the header is
+    line 1 and no cell spans lines)."""
+    rows = []
+    for rel in sorted(r for r in files if r.startswith("readings/region=west/") and r.endswith(".csv")):
+        reader = csv.DictReader(io.StringIO(files[rel].decode("utf-8"), newline=""))
+        rows.extend((rel, i, row) for i, row in enumerate(reader))
+    out = []
+    for change, field, pred, note in _WEST_CHANGES:
+        rel, i, _ = next(item for item in rows if pred(item[2]))
+        out.append(_change(change, field, rel, i, i + 2, None, note, WEST))
+    return out
 
 
 # (change, field, where the first occurrence must fall (a piece of its path), predicate
@@ -600,7 +661,7 @@ def _generate() -> tuple[dict[str, bytes], list[dict[str, Any]], list[dict[str, 
     scanned.append((NIGHTLY_FILE, nightly, None, False))
     inventory.append({"path": NIGHTLY_FILE, "format": "parquet", "rows": len(nightly), "lines": None, "errors": 0})
 
-    changes = _record_changes(scanned)
+    changes = _record_changes(scanned) + _partition_changes(files)
     changes.sort(key=_sort_key)
     for item in inventory:
         data = files[item["path"]]

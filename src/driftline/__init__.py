@@ -17,6 +17,11 @@ is internal and may change without notice. A session in brief:
 >>> profile.to_polars().fields.select("path", "nullable").rows()
 [('x', False)]
 
+A landing root holding several tables splits into datasets (and loose files) first:
+
+>>> [(s.name, s.partition_keys, len(s.files)) for s in driftline.datasets(d).datasets]
+[('.', ('day',), 2)]
+
 Every error driftline raises for bad input derives from DriftlineError:
 
 >>> try:
@@ -28,7 +33,7 @@ InputPathError
 
 from __future__ import annotations
 
-from driftline._api import Profile, Recommendation, check, diff, load_report, recommend, scan
+from driftline._api import Profile, Recommendation, check, datasets, diff, load_report, recommend, scan
 from driftline.core.options import ReadOptions, ScanOptions
 from driftline.core.version import __version__
 from driftline.errors import (
@@ -75,6 +80,7 @@ __all__ = [
     "WorkerError",
     "__version__",
     "check",
+    "datasets",
     "diff",
     "load_report",
     "recommend",

@@ -38,6 +38,8 @@ from driftline.results.profile import Profile as _ProfileValue
 from driftline.results.report import dumps as _dumps
 from driftline.results.report import load_report as _load_report
 from driftline.scanning.run import scan_with as _scan_with
+from driftline.sources.datasets import Layout as _Layout
+from driftline.sources.datasets import find_datasets as _find_datasets
 
 if _TYPE_CHECKING:
     import polars as _pl
@@ -287,7 +289,9 @@ def scan(
     the max_* limits report a too-long record, too many decompressed bytes, too high a
     compression ratio or too many CSV columns instead of reading on; max_paths
     caps the distinct field paths kept (the rest are counted as "other fields") and
-    max_events the drift events listed (their totals stay exact); delimiter
+    max_events the drift events the command line's terminal lists (accepted here so that
+    flags, config file and keywords share one vocabulary; it changes nothing in the Profile,
+    whose events hold every episode); delimiter
     fixes the CSV delimiter (found from the data otherwise); csv_dialect pins more of the
     CSV dialect, per glob ('legacy/*.csv:delimiter=pipe,quote=none,header=no', one
     string or several; what a pin leaves open is still found); encoding fixes the text
@@ -366,6 +370,32 @@ def check(
         write_inside=write_inside,
     )
     return verdict
+
+
+def datasets(root: str | _os.PathLike[str], *, include_hidden: bool = False, follow_links: bool = False) -> _Layout:
+    """The tables in a landing root: its datasets, the loose files that fit none (each with
+    why), the files discovery skipped (markers, hidden files) and notices about the layout.
+
+    A dataset is a folder whose files, below its key=value partition folders, belong to one
+    table, judged from the layout and the field names of each file's head or Parquet footer
+    (never a full read); its name is its folder relative to the root ("." for the root
+    itself), or the file's path for a lone reference file beside other datasets. Each
+    dataset gives its name, folder, files, formats, partition_keys and fields
+    (docs/datasets.md tells the rule). Raises InputPathError when root does not exist.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> (d / "readings" / "day=1").mkdir(parents=True); (d / "exports").mkdir()
+    >>> _ = (d / "readings" / "day=1" / "a.jsonl").write_text('{"ts": 1, "temp": 2.5}\\n')
+    >>> _ = (d / "exports" / "depots.csv").write_text("depot,qty\\nx,1\\n"), (d / "_SUCCESS").write_text("")
+    >>> found = driftline.datasets(d)
+    >>> [(s.name, [f.rel for f in s.files], s.partition_keys, s.fields) for s in found.datasets]
+    [('exports', ['exports/depots.csv'], (), ('depot', 'qty')),
+     ('readings', ['readings/day=1/a.jsonl'], ('day',), ('ts', 'temp'))]
+    >>> found.loose, [(s.rel, s.reason) for s in found.skipped]
+    ((), [('_SUCCESS', 'marker')])
+    """
+    return _find_datasets(root, include_hidden=include_hidden, follow_links=follow_links)
 
 
 _Side = Profile | str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]]

@@ -46,6 +46,7 @@ SURFACE = [
     "WorkerError",
     "__version__",
     "check",
+    "datasets",
     "diff",
     "load_report",
     "recommend",
@@ -83,6 +84,8 @@ DOCTEST_MODULES = [
     "driftline.sources.encoding",
     "driftline.results.tables",
     "driftline.results.levels",
+    "driftline.sources.datasets",
+    "driftline.sources.peek",
 ]
 
 
@@ -244,6 +247,7 @@ def _bad_calls(d: Path, profile: driftline.Profile) -> dict[str, tuple[type, obj
             lambda: driftline.check(d, baseline=d / "a.jsonl", policy=d / "none.toml"),
         ),
         "diff missing side": (driftline.InputPathError, lambda: driftline.diff(d / "nope", d)),
+        "datasets missing root": (driftline.InputPathError, lambda: driftline.datasets(d / "nope")),
         "load_report of data": (driftline.ReportVersionError, lambda: driftline.load_report(d / "a.jsonl")),
         "load_report missing": (driftline.InputPathError, lambda: driftline.load_report(d / "none.json")),
         "merge different content": (
@@ -363,7 +367,8 @@ def test_repr_is_one_short_line(demo_profile):
     text = repr(demo_profile)
     root = repr(demo_profile.root)
     # source: the demo manifest (tests/scripts/test_make_demo.py): 15 files, 4,694 rows, one malformed line
-    assert text == f"<Profile {root}: 15 files, 4,694 rows, 17 fields, 16 drift events, 1 errors>"
+    # (18 events: tests/emit/test_terminal.py lists them)
+    assert text == f"<Profile {root}: 15 files, 4,694 rows, 17 fields, 18 drift events, 1 errors>"
     assert "\n" not in text
 
 
@@ -495,4 +500,4 @@ def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pyt
     test = parser.get_doctest(text, {}, "docs/python.md", "docs/python.md", 0)
     runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS)
     runner.run(test)
-    assert runner.summarize(verbose=False) == (0, 37)
+    assert runner.summarize(verbose=False) == (0, 42)  # docs/python.md holds 42 examples

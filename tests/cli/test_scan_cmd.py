@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -35,6 +36,27 @@ def test_json_to_stdout_is_data_only(tmp_path: Path):
     assert report["format"] == "driftline-report" and report["summary"]["rows"] == 2
     assert [e["kind"] for e in report["events"]] == ["type-conflict"]
     assert "Fields" in res.stderr  # the human summary moved to stderr
+
+
+def test_max_events_limits_the_terminal_list_only(tmp_path: Path):
+    # file i holds field f<i>: f1..f4 arrive (widening), f0..f3 are gone after their file (breaking)
+    data = tmp_path / "data"
+    for i in range(5):
+        write_lines(data / f"{i}.jsonl", [f'{{"id": {i}, "f{i}": 1}}'])
+    out = tmp_path / "report.json"
+    res = run("scan", str(data), "--max-events", "3", "--json", str(out))
+    assert res.returncode == 0, res.stderr
+    listed = [ln.split()[1:3] for ln in res.stdout.splitlines() if re.match(r"\d+  ", ln)]
+    assert listed == [["field-gone", "f0:"], ["field-gone", "f1:"], ["field-gone", "f2:"]]  # breaking first
+    assert "drift: 4 breaking, 4 widening, 0 info" in res.stdout
+    said = " ".join(res.stdout.split())  # the console wraps at 80 columns
+    assert "… 5 more events not listed here (--max-events 3); the JSON report (--json) lists them all" in said
+    report = json.loads(out.read_text())
+    assert report["summary"]["events"] == len(report["events"]) == 8 and "summarised" not in report["summary"]
+    assert sorted((e["kind"], e["path"]) for e in report["events"]) == [
+        *(("field-gone", f"f{i}") for i in range(4)),
+        *(("field-new", f"f{i}") for i in range(1, 5)),
+    ]
 
 
 def test_missing_path_exits_2_without_traceback(tmp_path: Path):

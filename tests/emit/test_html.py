@@ -201,6 +201,61 @@ def test_timeline_series_are_the_fields_types_nulls_and_absent(demo: dict[str, A
         assert set(series) == expected and len(series) == len(expected), path
 
 
+class EventRows(HTMLParser):
+    """The events list read back: each row's id and the text of each of its cells, by class."""
+
+    def __init__(self, text: str) -> None:
+        super().__init__(convert_charrefs=True)
+        self.rows: list[tuple[str, dict[str, str]]] = []
+        self._in_row = False
+        self._cell: str | None = None
+        self.feed(text)
+        self.close()
+
+    def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        a = {k: v or "" for k, v in attrs}
+        if tag == "tr":
+            self._in_row = a.get("id", "").startswith("ev-")
+            if self._in_row:
+                self.rows.append((a["id"], {"data-level": a.get("data-level", "")}))
+        elif tag == "td" and self._in_row:
+            self._cell = a.get("class", "") or f"col{len(self.rows[-1][1])}"
+            self.rows[-1][1][self._cell] = ""
+
+    def handle_endtag(self, tag: str) -> None:
+        if tag == "td":
+            self._cell = None
+        elif tag == "tr":
+            self._in_row = False
+
+    def handle_data(self, data: str) -> None:
+        if self._cell is not None:
+            self.rows[-1][1][self._cell] += data
+
+
+def test_event_levels_are_the_json_reports_breaking_first(demo: dict[str, Any]) -> None:
+    from driftline.results.report import to_dict
+
+    report = json.loads(json.dumps(to_dict(demo["profile"])))  # the JSON report as a reader gets it
+    levels = [e["level"] for e in report["events"]]
+    rows = EventRows(demo["page"]).rows
+    # every event once, its level cell (and data-level) the JSON report's level of the same number
+    assert sorted(int(i.removeprefix("ev-")) for i, _ in rows) == list(range(1, len(levels) + 1))
+    for row_id, cells in rows:
+        n = int(row_id.removeprefix("ev-"))
+        assert cells["level"].strip() == cells["data-level"] == levels[n - 1], row_id
+        assert cells["n"].strip() == str(n) and cells["kind"].strip() == report["events"][n - 1]["kind"]
+    # breaking first, then widening, then info; scan order (the report's order) within a level
+    order = ["breaking", "widening", "info"]  # source: docs/drift.md, "Levels"
+    expected = sorted(range(1, len(levels) + 1), key=lambda n: (order.index(levels[n - 1]), n))
+    assert [int(i.removeprefix("ev-")) for i, _ in rows] == expected
+    assert levels[expected[0] - 1] == "breaking" and set(levels) == {"breaking", "widening"}  # the demo has both
+    # the counts per level near the top: in the overview, as the JSON report's levels count them
+    facts = dict(re.findall(r"<dt>([^<]+)</dt><dd>([^<]*)</dd>", demo["page"]))
+    assert facts["drift by level"] == ", ".join(f"{levels.count(lv):,} {lv}" for lv in order)
+    assert facts["drift events"] == f"{report['summary']['events']:,}"
+
+
 # -- scale ---------------------------------------------------------------------------------------
 
 
@@ -226,6 +281,13 @@ def test_500_fields_by_10000_files_stays_bounded(big: dict[str, Any]) -> None:
     assert sum(1 for t, a in parsed.tags if t == "tr" and "data-name" in a) == 500
     assert sum(1 for t, a in parsed.tags if t == "tr" and a.get("id", "").startswith("ev-")) == html_report.MAX_EVENTS
     assert f"{len(profile.events) - html_report.MAX_EVENTS:,} more events" in page
+    # the listed ones are the first MAX_EVENTS breaking first (scan order within a level)
+    listed = [int(i.removeprefix("ev-")) for i, _ in EventRows(page).rows]
+    assert listed == [n for n, _ in html_report.by_level(profile.events)][: html_report.MAX_EVENTS]
+    rank = {"breaking": 0, "widening": 1, "info": 2}  # source: docs/drift.md, "Levels"
+    assert [rank[profile.events[n - 1].level] for n in listed] == sorted(
+        rank[profile.events[n - 1].level] for n in listed
+    )
     assert 'data-page-size="50"' in page
     # Partition matrices: 20 regions as they are, 500 days folded into MAX_COLUMNS runs.
     assert "(string, 20 columns)" in page and f"(date32, {hd.MAX_COLUMNS} columns)" in page

@@ -22,59 +22,73 @@ def test_demo_events_grouped_by_level_with_counts(demo_profile):
     text = _text(demo_profile)
     lines = text.splitlines()
     # The overview (the first screen, before the field table) counts each level.
-    assert lines[2] == "drift: 10 breaking, 6 widening, 0 info"
-    assert text.index("drift: 10 breaking") < text.index("Fields")
-    assert "Drift events (16): 10 breaking, 6 widening, 0 info" in lines
-    assert lines.index("breaking (10), in scan order") < lines.index("widening (6), in scan order")
+    assert lines[2] == "drift: 12 breaking, 6 widening, 0 info"
+    assert text.index("drift: 12 breaking") < text.index("Fields")
+    assert "Drift events (18): 12 breaking, 6 widening, 0 info" in lines
+    assert lines.index("breaking (12), in scan order") < lines.index("widening (6), in scan order")
     assert "info (" not in text  # no heading for a level without events
     listed = [m.groups() for m in re.finditer(r"^\s*(\d+)  (\S+)\s+(\S+):", text, re.M)]
-    assert [(int(n), kind) for n, kind, _ in listed] == [
-        (1, "type-conflict"),
-        (2, "type-conflict"),
-        (3, "textclass-changed"),
-        (4, "field-gone"),
-        (5, "textclass-changed"),
-        (6, "nulls-begin"),
-        (7, "type-conflict"),
-        (8, "type-conflict"),
-        (9, "nulls-begin"),
-        (10, "nulls-begin"),
-        (11, "nested-new"),
-        (12, "type-widened"),
-        (13, "field-new"),
-        (14, "field-new"),
-        (15, "field-new"),
-        (16, "field-new"),
+    assert [(int(n), kind, path) for n, kind, path in listed] == [
+        (1, "type-conflict", "tags"),
+        (2, "type-conflict", "pm25"),
+        (3, "textclass-changed", "pm25"),
+        (4, "field-gone", "temp_c"),
+        (5, "textclass-changed", "ts"),
+        (6, "nulls-begin", "humidity"),
+        (7, "type-conflict", "ts"),
+        # region=west compared with the other three regions (demo/make_demo.py: the CSV export
+        # has no battery struct, tags as one string, local timestamps, blank cells); the walk's
+        # type-conflict of ts and nulls-begin of temp_c and tags counted the same places: told once.
+        (8, "partition-lacks", "battery"),
+        (9, "partition-type", "tags"),
+        (10, "partition-type", "ts"),
+        (11, "partition-nulls", "temp_c"),
+        (12, "partition-nulls", "tags"),
+        (13, "nested-new", "battery.charge_cycles"),
+        (14, "type-widened", "pm10"),
+        (15, "field-new", "ingested_at"),
+        (16, "field-new", "battery_level"),
+        (17, "field-new", "battery_voltage"),
+        (18, "field-new", "site_note"),
     ]
     # The manifest's injected changes that widen (demo/make_demo.py notes: pm10 "arrives as a
     # float ... (int before)", charge_cycles and ingested_at newly written) are listed after every
     # breaking one.
     paths = [p for _, _, p in listed]
-    assert paths.index("pm10") > 9 and paths.index("battery.charge_cycles") > 9 and paths.index("ingested_at") > 9
+    assert paths.index("pm10") > 11 and paths.index("battery.charge_cycles") > 11 and paths.index("ingested_at") > 11
+    # A partition kind's line names the values and how many of the key's values were compared.
+    assert " 8  partition-lacks   battery: struct → –, at region=west, 1 of 4 region values; 2 files, 599 rows" in text
 
 
 def test_level_counts_are_of_every_event_not_only_the_listed(tmp_path: Path):
     # 40 partitions of one series, each with a field of its own: f01..f39 arrive after the
     # first file (field-new, widening) and f00..f38 are gone after their one file (field-gone,
-    # breaking): 78 events, 10 listed; the counts are of all 78.
+    # breaking): 78 events, all in the Profile; the terminal lists 10 of them (--max-events)
+    # and its counts are of all 78.
     for i in range(40):
         write_lines(tmp_path / f"p={i:02d}" / "a.jsonl", [f'{{"id": 1, "f{i:02d}": 1}}'])
-    cut = driftline.scan(tmp_path, max_events=10)
-    assert cut.event_total == 78 and len(cut.events) == 10
-    assert cut.event_counts == {"field-new": 39, "field-gone": 39}
-    assert cut.level_counts == {"breaking": 39, "widening": 39, "info": 0}
-    lines = events_block(cut.events, cut.level_counts).plain.splitlines()
+    full = driftline.scan(tmp_path)
+    assert driftline.scan(tmp_path, max_events=10).events == full.events  # the keyword leaves the Profile whole
+    assert full.event_total == len(full.events) == 78
+    assert full.event_counts == {"field-new": 39, "field-gone": 39}
+    assert full.level_counts == {"breaking": 39, "widening": 39, "info": 0}
+    lines = events_block(full.events, full.level_counts, 10).plain.splitlines()
     assert lines[0] == "Drift events (78): 39 breaking, 39 widening, 0 info"
-    # The 10 listed are the first in scan order: in each of files 1..5 one field arrives and
-    # the one before it is gone; breaking ones first, each group in scan order.
-    assert [e.kind for e in cut.events] == ["field-new", "field-gone"] * 5
+    # The 10 listed are the first in the terminal's order, breaking first: f00..f09 gone,
+    # each after its one file, in scan order; no widening one makes the cut.
     assert lines[1] == "breaking (39), in scan order"
     assert [ln.split()[1:3] for ln in lines if ln[:3].strip().isdigit()] == [
-        *(["field-gone", f"f{i:02d}:"] for i in range(5)),
-        *(["field-new", f"f{i:02d}:"] for i in range(1, 6)),
+        ["field-gone", f"f{i:02d}:"] for i in range(10)
     ]
-    # one line per episode: the heading, the breaking header, its five episodes, then widening
-    assert lines[7] == "widening (39), in scan order"
+    assert len(lines) == 12 and "widening (39), in scan order" not in lines
+    # 45 listed: every breaking one (39), then the first 6 widening ones
+    assert (
+        sum(1 for ln in events_block(full.events, full.level_counts, 45).plain.splitlines() if "field-new" in ln) == 6
+    )
+    console = Console(record=True, width=200)
+    render(full, console, max_events=10)
+    text = console.export_text()
+    assert "… 68 more events not listed here (--max-events 10); the JSON report (--json) lists them all" in text
 
 
 def test_shapes_are_said_once_before_the_fields(tmp_path: Path):

@@ -23,6 +23,7 @@ from conftest import ROOT
 from driftline.core.options import ReadOptions
 from driftline.core.stats import type_sample
 from driftline.observe import thinning
+from driftline.results import drift
 from driftline.results.report import to_dict
 from driftline.sources.discover import discover
 from driftline.sources.jsonsplit import assemble, plan, read_span
@@ -332,11 +333,13 @@ def test_huge_batch_rows_stays_within_the_byte_budget(tmp_path: Path, kind: str)
 # -- events and batches kept in memory are bounded ------------------------------------------------------
 
 
-def test_events_past_max_events_are_counted_not_listed(tmp_path: Path):
+def test_events_past_the_walk_bound_are_counted_not_listed(tmp_path: Path, monkeypatch: pytest.MonkeyPatch):
     # Field f<i> shows in batch i only: f01..f40 are new after the first batch, f00..f39 go.
     (tmp_path / "a.jsonl").write_text("".join(json.dumps({"id": i, f"f{i:02d}": i}) + "\n" for i in range(41)))
     full = driftline.scan(tmp_path, batch_rows=1)
-    cut = driftline.scan(tmp_path, batch_rows=1, max_events=10)
+    assert len(full.events) == 80  # walked now, before the bound is lowered (the walk runs on first use)
+    monkeypatch.setattr(drift, "EPISODES_HELD", 10)  # the walk's memory bound, 100,000 episodes otherwise
+    cut = driftline.scan(tmp_path, batch_rows=1)
     assert full.event_total == cut.event_total == len(full.events) == 80
     assert cut.events == full.events[:10]  # the first ten in scan order
     assert cut.event_counts == full.event_counts == {"field-new": 40, "field-gone": 40}
@@ -351,12 +354,15 @@ def test_events_past_max_events_are_counted_not_listed(tmp_path: Path):
     from driftline.emit.html import render_html
     from driftline.emit.terminal import render
 
-    assert "80 (the first 10 listed; --max-events)" in render_html(cut)
+    assert "80 (the first 10 followed and listed: the most a scan holds)" in render_html(cut)
     console = Console(record=True, width=200)
     render(cut, console)
     text = console.export_text()
-    assert "… 70 more events counted, not listed (--max-events)" in text
-    assert "warning  80 drift events found; the first 10 are listed (--max-events)" in text
+    assert "more events not listed here" not in text  # the terminal lists the 10 the walk held
+    assert (
+        "warning  80 drift events found; the first 10 are followed and listed (the most a scan holds), "
+        "all are counted by kind and level in the JSON report"
+    ) in text
 
 
 def test_batches_past_the_limit_merge_into_blocks_with_exact_counts(tmp_path: Path, monkeypatch: pytest.MonkeyPatch):

@@ -2,9 +2,13 @@
 
 from __future__ import annotations
 
+import shutil
 from pathlib import Path
 
+import pytest
+
 import driftline
+from _drift_cases import CASES
 from conftest import write_lines
 from driftline.gate.policy import RULES, rule_of_event
 from driftline.results.drift import EVENT_KINDS
@@ -53,3 +57,24 @@ def test_check_against_the_first_file_reports_the_changes_the_scan_reports(tmp_p
     assert from_events - from_check == {("s.y", "new_field")}
     # check also measures what no event kind reports: the rise of v's null share.
     assert from_check - from_events == {("v", "null_share_rise")}
+
+
+@pytest.mark.parametrize("case", ["partition_lacks_field", "series_never_had", "partition_nulls", "partition_type"])
+def test_check_reports_the_partition_kinds_under_their_policy_keys(case: str, tmp_path: Path):
+    # The golden case's first file is check's baseline, as the scan's first file is the walk's;
+    # every partition episode of the scan has a verdict line of its policy key on its field.
+    folder = CASES / case / "input"
+    first = sorted(folder.rglob("*.jsonl"))[0]
+    base = tmp_path / "base" / first.relative_to(folder)
+    base.parent.mkdir(parents=True)
+    shutil.copyfile(first, base)
+    report = tmp_path / "base.json"
+    driftline.scan(tmp_path / "base").write_json(report)
+    scanned = driftline.scan(folder)
+    from_events = {(e.path, rule_of_event(e.kind, e.level)) for e in scanned.events}
+    assert {e.kind for e in scanned.events} <= {"partition-lacks", "partition-type", "partition-nulls"}
+    verdict = driftline.check(folder, baseline=report)
+    from_check = {(x.field, x.rule) for x in (*verdict.violations, *verdict.warnings, *verdict.allowed)}
+    assert from_events and from_events <= from_check
+    # check also measures what no event kind reports: the null share rising where a field lacks or is null.
+    assert {rule for _, rule in from_check - from_events} <= {"null_share_rise"}

@@ -11,7 +11,8 @@ from pathlib import Path
 
 import driftline
 from conftest import write_lines
-from driftline.results.drift import EVENT_KINDS, Event
+from driftline.results.drift import EVENT_KINDS, Event, drift_summary
+from driftline.results.report import to_dict
 
 
 def test_every_injected_change_is_named_with_field_file_and_row(demo_profile, demo_manifest):
@@ -244,11 +245,17 @@ def test_episodes_go_to_json_and_back(demo_profile):
         assert data["still_going"] == (e.ended_file is None)
 
 
-def test_max_events_bounds_the_list_and_keeps_the_totals_exact(tmp_path: Path):
+def test_the_walk_bound_cuts_the_list_and_keeps_the_totals_exact(tmp_path: Path):
     folder = _flip_folder(tmp_path, with_tail=True)
     write_lines(folder / "f.jsonl", ['{"id": 1, "temp_c": 1.5, "extra": true}'])
     full = driftline.scan(folder)
-    one = driftline.scan(folder, max_events=1)
     assert [(e.kind, e.path) for e in full.events] == [("type-conflict", "temp_c"), ("field-new", "extra")]
-    assert one.events == full.events[:1] and one.event_total == 2
-    assert one.events[0].rows == 22  # the listed episode is still counted in full
+    # max_events is the terminal's: the Profile and its report keep every episode
+    one = driftline.scan(folder, max_events=1)
+    assert one.events == full.events and to_dict(one)["events"] == to_dict(full)["events"]
+    assert "max_events" not in to_dict(one)["options"]
+    # the walk's own bound (EPISODES_HELD) follows one episode: the other is counted only
+    events, kinds, levels = drift_summary(full.files, 1)
+    assert events == full.events[:1] and kinds == {"type-conflict": 1, "field-new": 1}
+    assert levels == {"breaking": 1, "widening": 1}
+    assert events[0].rows == 22  # the listed episode is still counted in full

@@ -146,3 +146,34 @@ def test_against_a_revision_interleaves_both_versions(tmp_path: Path) -> None:
     lines = proc.stdout.splitlines()
     assert lines[0] == "| data set | jobs | HEAD | working tree | faster | HEAD / pyarrow | working tree / pyarrow |"
     assert [ln.split("|")[1].strip() for ln in lines[2:10]] == [d for d in DATASETS for _ in (1, 2)]
+
+
+def test_discovery_line(tmp_path: Path) -> None:
+    out = tmp_path / "discovery.json"
+    proc = subprocess.run(
+        [
+            sys.executable,
+            str(BENCH),
+            "--discovery",
+            "--quick",
+            "--scale",
+            "0.01",
+            "--data-dir",
+            str(tmp_path / "data"),
+            "--out",
+            str(out),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=240,
+    )
+    assert proc.returncode == 0, proc.stderr
+    rows = json.loads(out.read_text())["discovery"]
+    assert [(r["tool"], r["dataset"], r["jobs"], r["ok"]) for r in rows] == [
+        ("driftline-datasets", "parquet", 1, True),
+        ("driftline-peeks", "parquet", 1, True),
+        ("driftline", "parquet", 1, True),
+    ]
+    lines = proc.stdout.splitlines()
+    assert lines[0].startswith("| 20 Parquet files | seconds | CPU seconds | of the scan (wall) |")
+    assert lines[-1].startswith("- discovery / scan <= 0.1: measured ")

@@ -23,7 +23,7 @@ import pytest
 from conftest import ROOT
 
 SCRIPT = ROOT / "scripts" / "make_demo.py"
-ENTRY_KEYS = ["change", "field", "file", "row", "line", "byte_offset", "note"]
+ENTRY_KEYS = ["change", "field", "file", "row", "line", "byte_offset", "note", "partition"]
 RFC3339_Z = re.compile(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ")
 SPACE_TS = re.compile(r"\d{4}-\d\d-\d\d \d\d:\d\d:\d\d")
 
@@ -118,6 +118,7 @@ def _part(region: str, day: int) -> str:
 
 
 NIGHTLY = "readings/region=south/day=2026-11-30/part-0001.parquet"
+WEST_28 = "readings/region=west/day=2026-11-28/export.csv"
 
 
 EXPECTED = {
@@ -131,6 +132,11 @@ EXPECTED = {
     ("nulls-begin", "humidity", _part("south", 30)),
     ("type-conflict", "ts", NIGHTLY),
     ("field-new", "ingested_at", NIGHTLY),
+    ("partition-lacks", "battery", WEST_28),
+    ("partition-type", "tags", WEST_28),
+    ("partition-type", "ts", WEST_28),
+    ("partition-nulls", "temp_c", WEST_28),
+    ("partition-nulls", "tags", WEST_28),
 }
 
 
@@ -242,6 +248,40 @@ def test_changes_start_exactly_at_the_recorded_row(demo: dict[str, Any]) -> None
             assert json.loads(lines[entry["line"] - 1]) == rows[i][2]
         checked += 1
     assert checked == len(PREDICATES)
+
+
+# (change, field) -> "this CSV row of region=west shows it"; partition-level changes hold for west
+# as a whole, so each is checked at its first row and against every row of the other regions.
+WEST_PREDICATES = {
+    ("partition-lacks", "battery"): lambda r: "battery" not in r,
+    ("partition-type", "tags"): lambda r: r["tags"] != "",
+    ("partition-type", "ts"): lambda r: SPACE_TS.fullmatch(r["ts"]) is not None,
+    ("partition-nulls", "temp_c"): lambda r: r["temp_c"] == "",
+    ("partition-nulls", "tags"): lambda r: r["tags"] == "",
+}
+
+
+def test_partition_changes_start_at_their_first_west_row_and_no_other_region_shows_them(
+    demo: dict[str, Any],
+) -> None:
+    landing: Path = demo["landing"]
+    west = []
+    for path in sorted(landing.glob("readings/region=west/*/export.csv")):
+        # source: Python's csv module (RFC 4180 quoting), read apart from the script's writer
+        with path.open(newline="", encoding="utf-8") as fh:
+            west.extend((path.relative_to(landing).as_posix(), i, row) for i, row in enumerate(csv.DictReader(fh)))
+    entries = [e for e in demo["changes"] if e["partition"] is not None]
+    assert {(e["change"], e["field"]) for e in entries} == set(WEST_PREDICATES)
+    for entry in entries:
+        assert entry["partition"] == {"region": "west"}, entry
+        pred = WEST_PREDICATES[(entry["change"], entry["field"])]
+        first = next((rel, i) for rel, i, row in west if pred(row))
+        assert (entry["file"], entry["row"], entry["line"]) == (*first, first[1] + 2), entry
+    rows, _ = _jsonl(landing)
+    others = [rec for _, _, rec in rows] + pq.read_table(landing / NIGHTLY).to_pylist()
+    assert len(others) > 4000 and all(isinstance(rec["battery"], dict) for rec in others)
+    assert {rel for rel, _, rec in rows if not isinstance(rec["tags"], list)} == {_part("east", 28)}
+    assert all(rec.get("temp_c", 0.0) is not None and rec["tags"] is not None for rec in others)
 
 
 def test_json_changes_have_the_promised_shape(demo: dict[str, Any]) -> None:

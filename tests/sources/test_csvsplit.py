@@ -12,7 +12,7 @@ import random
 from pathlib import Path
 
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from driftline.core.options import ReadOptions
@@ -78,6 +78,8 @@ def _body(pieces: list[str]) -> bytes:
     st.integers(1, 3),
     st.booleans(),
 )
+# a lone CR in what the dialect takes for a preamble (test_lone_cr_before_the_first_row_...)
+@example(pieces=["x", "\r", '"a\nb"', ",", "\n", ","], cuts=set(), batch_rows=1, crlf_header=False)
 def test_arbitrary_cuts_join_only_when_one_reader_agrees(
     tmp_path_factory: pytest.TempPathFactory, pieces: list[str], cuts: set[int], batch_rows: int, crlf_header: bool
 ) -> None:
@@ -90,6 +92,22 @@ def test_arbitrary_cuts_join_only_when_one_reader_agrees(
     spans = spans_at(ref, opts, [newlines[c % len(newlines)] for c in cuts] if newlines else [])
     if spans is not None:
         joined_result(ref, opts, spans)
+
+
+def test_lone_cr_before_the_first_row_leaves_the_file_to_one_reader(tmp_path: Path) -> None:
+    """The dialect takes the first two lines for a preamble and the third (`b",`) for the header,
+    so the lone CR lies before the first row, where no span reads it.  One reader's line count
+    covers the whole file and reports it; the spans must not join without it."""
+    path = tmp_path / "f.csv"
+    path.write_bytes(b'a,b\nx\r"a\nb",\n,')
+    ref = ref_of(path)
+    opts = ReadOptions(batch_rows=1, max_record_bytes=40)
+    whole = read_file(ref, opts)
+    # source: RFC 4180 section 2 (rule 2): a line ends with CRLF; a CR alone ends none there,
+    # while Arrow's CSV lexer ends a row at it (pyarrow.csv ParseOptions: newlines are CR, LF or CRLF)
+    assert [(i.kind, i.line) for i in whole.issues] == [("preamble", 1), ("cr-line-ends", 2)]
+    assert csvsplit._head(ref, opts) is None  # no spans: the planner leaves it to one reader
+    assert plan(ref, opts, 2) == []
 
 
 # Cells as a CSV writer makes them (RFC 4180 section 2: quoted fields with commas, doubled

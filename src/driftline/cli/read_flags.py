@@ -170,7 +170,7 @@ READ_FLAGS: tuple[Flag, ...] = (
         "max_events",
         DEFAULT_MAX_EVENTS,
         "--max-events",
-        "Drift events listed; past it they are counted by kind only (the report says so).",
+        "Drift events the terminal lists (breaking first); the JSON report (--json) holds them all.",
     ),
     Flag(
         "delimiter",

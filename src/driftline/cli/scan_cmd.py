@@ -138,7 +138,7 @@ def scan_command(
         # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, html_out))
         console = err_console if failed or to_stdout else Console(highlight=False)
-        render(profile, console)
+        render(profile, console, options.max_events)
         if json_out is not None and not is_stdout(json_out):
             console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
         if html_out is not None and not is_stdout(html_out):

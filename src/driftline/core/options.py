@@ -158,7 +158,7 @@ def _typed(delimiter: str) -> str:
 DEFAULT_TASK_TIMEOUT = 3600.0  # seconds: --task-timeout
 
 
-DEFAULT_MAX_EVENTS = 10_000  # events listed; past it they are only counted, by kind
+DEFAULT_MAX_EVENTS = 200  # drift events the terminal lists; the JSON report and Profile.events hold them all
 
 
 DEFAULT_RETRIES = 4
@@ -440,8 +440,6 @@ class ScanOptions:
             out["batch_bytes"] = self.read.batch_bytes
         if self.read.max_paths != DEFAULT_MAX_PATHS:
             out["max_paths"] = self.read.max_paths
-        if self.max_events != DEFAULT_MAX_EVENTS:
-            out["max_events"] = self.max_events
         if self.follow_links:
             out["follow_links"] = True
         return out

@@ -31,6 +31,7 @@ from driftline.emit.reach import reach_text
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
 from driftline.results.drift import EVENT_KINDS, Event
+from driftline.results.levels import LEVELS
 from driftline.results.profile import FieldSummary, Profile
 from driftline.results.report import limit_notes, partition_types
 
@@ -101,7 +102,7 @@ def _count_text(e: Event) -> str:
 
 def _tip(number: int, e: Event) -> str:
     lines = [
-        f"#{number} {e.kind}: {safe_text(e.path, 80)}",
+        f"#{number} {e.kind} ({e.level}): {safe_text(e.path, 80)}",
         f"{safe_text(e.before or '–', 60)} → {safe_text(e.after or '–', 60)}",
         f"file {safe_text(e.file, 160)}",
         f"partition {safe_text(_parts(e.partitions), 120)}",
@@ -180,11 +181,12 @@ def _overview(profile: Profile) -> list[tuple[str, str]]:
             "; ".join(f"{k} ({v['type']}, {len(v['values']):,} values)" for k, v in parts.items()) or "none",
         ),
         ("fields", f"{len(profile.fields):,}"),
+        ("drift by level", ", ".join(f"{n:,} {level}" for level, n in profile.level_counts.items())),
         (
             "drift events",
             f"{profile.event_total:,}"
             + (
-                f" (the first {len(profile.events):,} listed; --max-events)"
+                f" (the first {len(profile.events):,} followed and listed: the most a scan holds)"
                 if profile.event_total > len(profile.events)
                 else ""
             ),
@@ -228,7 +230,14 @@ def _field_rows(
     return rows
 
 
-def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int]) -> list[dict[str, Any]]:
+def by_level(events: Sequence[Event]) -> list[tuple[int, Event]]:
+    """The events numbered as the JSON report lists them (from 1, scan order), breaking ones
+    first (LEVELS order), scan order kept within a level: the events list's order."""
+    rank = {level: i for i, level in enumerate(LEVELS)}
+    return sorted(enumerate(events, 1), key=lambda ne: rank[ne[1].level])  # stable: scan order within a level
+
+
+def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int], listed: set[int]) -> list[dict[str, Any]]:
     by_path: dict[str, list[Event]] = {}
     for e in profile.events:
         by_path.setdefault(e.path, []).append(e)
@@ -254,7 +263,7 @@ def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int]) ->
             obs = units[e.seq][2]
             in_batch = (e.row - obs.row_start) if e.row is not None else 0
             n = numbers[id(e)]
-            markers.append(svg.Marker(n, e.kind, e.file, e.row, e.seq, in_batch, obs.rows, _tip(n, e), n <= MAX_EVENTS))
+            markers.append(svg.Marker(n, e.kind, e.file, e.row, e.seq, in_batch, obs.rows, _tip(n, e), n in listed))
         chart_id = f"chart-{i + 1}"
         charts.append(
             {
@@ -345,7 +354,9 @@ def render_html(profile: Profile, *, rules: Mapping[str, FieldRule] | bool = Tru
         totals.update(s.stats.types)
     styles = svg.Styles.for_totals(dict(totals))
     numbers = {id(e): i for i, e in enumerate(profile.events, 1)}
-    charts = _charts(profile, styles, numbers)
+    events = by_level(profile.events)[:MAX_EVENTS]
+    listed = {n for n, _ in events}
+    charts = _charts(profile, styles, numbers, listed)
     charted = {c["path"]: c["id"] for c in charts}
     drift = Counter(e.path for e in profile.events)
     fields = _field_rows(profile, styles, drift, charted, recs)
@@ -370,9 +381,10 @@ def render_html(profile: Profile, *, rules: Mapping[str, FieldRule] | bool = Tru
             charts=charts,
             charts_left_out=max(0, len(drift) - len(charts)),
             matrices=_matrices(profile, styles),
-            events=list(enumerate(profile.events[:MAX_EVENTS], 1)),
+            events=events,
             events_left_out=max(0, len(profile.events) - MAX_EVENTS),
-            max_events=MAX_EVENTS,
+            listed=listed,
+            level_counts=profile.level_counts,
             kinds=EVENT_KINDS,
             issues=profile.issues[:MAX_ISSUES],
             issues_left_out=max(0, len(profile.issues) - MAX_ISSUES),

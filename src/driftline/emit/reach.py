@@ -10,9 +10,31 @@ def _where(file: str | None, row: int | None) -> str:
     return safe_text(file or "", 200) + (f" row {row:,}" if row is not None else "")
 
 
+# The partition values an event names on its line, at most; the JSON report lists them all.
+VALUES_SHOWN = 5
+
+
+def partition_text(e: Event) -> str:
+    """The partition values a partition kind's event concerns, and how many of the key's values
+    were compared ('' for the walk's kinds).
+
+    >>> partition_text(Event("partition-lacks", "b", "struct", None, "w.csv", (("region", "west"),), 0, 0, 2,
+    ...     None, 5, partition_key="region", partition_values=("west",), partition_compared=4))
+    'at region=west, 1 of 4 region values'
+    """
+    if e.partition_key is None:
+        return ""
+    key = safe_text(e.partition_key, 60)
+    shown = ", ".join(f"{key}={safe_text(v, 60)}" for v in e.partition_values[:VALUES_SHOWN])
+    more = len(e.partition_values) - VALUES_SHOWN
+    if more > 0:
+        shown += f" and {more:,} more"
+    return f"at {shown}, {len(e.partition_values):,} of {e.partition_compared:,} {key} values"
+
+
 def reach_text(e: Event) -> str:
     """How far an episode reaches, on one line: files, rows (or values), from where to where,
-    still going or ended (and where), recurrences.
+    still going or ended (and where), recurrences; a partition kind's first names the values.
 
     >>> reach_text(Event("type-conflict", "t", "float64", "string", "a.jsonl", (), 0, 1500, 1501, None, 3,
     ...     1512, 1512, 3, 3, "c.jsonl", 11))
@@ -24,6 +46,8 @@ def reach_text(e: Event) -> str:
     count, unit = (e.rows, "row") if e.rows is not None else (e.values, "value")
     amount = f"{count:,} {unit}" + ("s" if count != 1 else "")
     text = f"{files}, {amount}, from {_where(e.file, e.row)}" + (f" (line {e.line:,})" if e.line is not None else "")
+    if e.partition_key is not None:
+        text = partition_text(e) + "; " + text
     if (e.last_file, e.last_row) != (e.file, e.row):
         text += f" to {_where(e.last_file, e.last_row)}"
     if e.recurrences:

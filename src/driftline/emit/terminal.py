@@ -11,6 +11,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
+from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.emit.reach import reach_text
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
@@ -20,7 +21,6 @@ from driftline.results.profile import FieldSummary, Profile
 from driftline.results.report import limit_notes, partition_types
 from driftline.results.shapes import Discriminator
 
-MAX_EVENTS_SHOWN = 200
 MAX_ISSUES_SHOWN = 50
 MAX_ENCODINGS_SHOWN = 10
 MAX_SHAPES_SHOWN = 12  # values of a discriminator, one line each
@@ -191,21 +191,23 @@ def by_level(events: tuple[Event, ...]) -> list[tuple[str, list[Event]]]:
     return [(level, group) for level, group in groups.items() if group]
 
 
-def events_block(events: tuple[Event, ...], counts: dict[str, int] | None = None) -> Text:
+def events_block(
+    events: tuple[Event, ...], counts: dict[str, int] | None = None, limit: int = DEFAULT_MAX_EVENTS
+) -> Text:
     """Drift events grouped by level, breaking first, numbered, one line per episode: what
     changed, then its reach (never wrapped, so that each episode stays one line to search and
-    copy). counts (every event of each level, listed or not) make the heading; without them
-    the listed events are counted."""
+    copy); the first `limit` of them in that order (--max-events). counts (every event of each
+    level, listed or not) make the heading; without them the listed events are counted."""
     total = counts or {level: sum(1 for e in events if e.level == level) for level in LEVELS}
     text = Text(no_wrap=True, overflow="ignore")
     text.append(f"Drift events ({sum(total.values()):,}): {levels_line(total)}\n", style="bold")
-    width = len(str(min(len(events), MAX_EVENTS_SHOWN)))
+    width = len(str(min(len(events), limit)))
     i = 0
     for level, group in by_level(events):
-        if i >= MAX_EVENTS_SHOWN:
+        if i >= limit:
             break
         text.append(f"{level} ({total.get(level, len(group)):,}), in scan order\n", style="bold")
-        for e in group[: MAX_EVENTS_SHOWN - i]:
+        for e in group[: limit - i]:
             i += 1
             text.append(f"{i:>{width}}  ")
             text.append(f"{e.kind:<18}", style="bold")
@@ -234,7 +236,9 @@ def issues_block(profile: Profile) -> Text:
     return text
 
 
-def render(profile: Profile, console: Console) -> None:
+def render(profile: Profile, console: Console, max_events: int = DEFAULT_MAX_EVENTS) -> None:
+    """The terminal summary; max_events bounds the events listed (the others are counted, and
+    the JSON report holds them all)."""
     console.print(overview(profile))
     if any(f.dialect is not None for f in profile.files):
         console.print(dialects_block(profile), end="")
@@ -245,14 +249,18 @@ def render(profile: Profile, console: Console) -> None:
     console.print()
     if profile.events:
         console.print(
-            events_block(profile.events, profile.level_counts), end="", no_wrap=True, overflow="ignore", crop=False
+            events_block(profile.events, profile.level_counts, max_events),
+            end="",
+            no_wrap=True,
+            overflow="ignore",
+            crop=False,
         )
-        if profile.event_total > len(profile.events):
+        left_out = len(profile.events) - max_events
+        if left_out > 0:
             console.print(
-                f"… {profile.event_total - len(profile.events):,} more events counted, not listed (--max-events)"
+                f"… {left_out:,} more events not listed here (--max-events {max_events:,}); "
+                "the JSON report (--json) lists them all"
             )
-        if len(profile.events) > MAX_EVENTS_SHOWN:
-            console.print(f"… {len(profile.events) - MAX_EVENTS_SHOWN} more events in the JSON report (--json)")
     else:
         console.print("No drift: every batch shows the same fields and types.")
     notes = limit_notes(profile)

@@ -52,8 +52,9 @@ RULES: dict[str, str] = {
 }
 
 # The policy key that judges against a baseline the change each drift event kind reports
-# against the scan's own past (docs/drift.md, "The gate's policy keys"); element-changed
-# and textclass-changed go by the event's level, field-gone by whether the field is required.
+# against the scan's own past (docs/drift.md, "The gate's policy keys"); element-changed,
+# partition-type and textclass-changed go by the event's level, field-gone and
+# partition-lacks by whether the field is required.
 _EVENT_RULES: dict[str, str] = {
     "field-new": "new_field",
     "nested-new": "new_field",
@@ -64,6 +65,9 @@ _EVENT_RULES: dict[str, str] = {
     "element-changed": "type_change",
     "nulls-begin": "unexpected_nulls",
     "textclass-changed": "content_class",
+    "partition-lacks": "missing_required",  # absent from the rows of some partition values
+    "partition-type": "type_change",  # by level: widening, or narrowing where the others' type holds it
+    "partition-nulls": "unexpected_nulls",
 }
 
 
@@ -77,8 +81,10 @@ def rule_of_event(kind: str, level: str, *, required: bool = True) -> str:
     'optional_gone'
     """
     rule = _EVENT_RULES[kind]
-    if kind == "element-changed" and level == "widening":
+    if kind in ("element-changed", "partition-type") and level == "widening":
         return "widening"
+    if kind == "partition-type" and level == "info":
+        return "narrowing"
     if rule == "missing_required" and not required:
         return "optional_gone"
     return rule

@@ -17,10 +17,24 @@ from driftline.core.files import FileResult
 from driftline.core.jsontypes import JSONObject, JSONValue
 from driftline.core.lattice import UNKNOWN, DType, is_widening, join, type_of_key, type_text
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
-from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
 from driftline.results.levels import level_of
+from driftline.results.partition_compare import (
+    PARTITION_KINDS,
+    PartitionFinding,
+    compare_partitions,
+    container_count,
+    logical_counts,
+    ordered_keys,
+)
 from driftline.results.shapes import Discriminator, find_discriminator
+
+# The walk's memory bound: episodes followed (each with its start and reach) and listed at
+# most.  One that starts after this many others is counted by kind and level, never followed
+# or listed; the totals of every followed episode stay exact.  Not an option: a scan that finds
+# this many changes has a folder to fix, and a user's limit on the list is the terminal's
+# (--max-events), which leaves the report and Profile.events whole.
+EPISODES_HELD = 100_000
 
 # Event kinds, in the order they are listed for one batch.
 EVENT_KINDS: dict[str, str] = {
@@ -33,6 +47,7 @@ EVENT_KINDS: dict[str, str] = {
     "element-changed": "the element type of a list changes",
     "nulls-begin": "nulls appear in a field that had none",
     "textclass-changed": "strings of a new content class appear (for example another timestamp format)",
+    **PARTITION_KINDS,  # partitions compared with each other (results/partition_compare.py)
 }
 _KIND_ORDER = {k: i for i, k in enumerate(EVENT_KINDS)}
 
@@ -74,6 +89,9 @@ class Event:
     ended_batch: int | None = None  # where it last stopped showing (the first batch without it)
     ended_row: int | None = None
     recurrences: int = 0  # how many times it came back after it had ended
+    partition_key: str | None = None  # partition kinds: the key whose values were compared
+    partition_values: tuple[str, ...] = ()  # ... the values that differ from the others
+    partition_compared: int = 0  # ... and how many values of the key were compared
     seq: int = field(default=0, compare=False)  # position of the batch in scan order
 
     @property
@@ -92,8 +110,9 @@ class Event:
         return self.ended_file is None
 
     def to_json(self) -> JSONObject:
-        """The event as it appears in the JSON report's "events" list."""
-        return {
+        """The event as it appears in the JSON report's "events" list (the partition_* keys only
+        for the partition kinds)."""
+        out: JSONObject = {
             "kind": self.kind,
             "level": self.level,
             "path": self.path,
@@ -118,6 +137,11 @@ class Event:
             else {"file": self.ended_file, "batch": self.ended_batch, "row": self.ended_row},
             "recurrences": self.recurrences,
         }
+        if self.partition_key is not None:
+            out["partition_key"] = self.partition_key
+            out["partition_values"] = list(self.partition_values)
+            out["partition_compared"] = self.partition_compared
+        return out
 
     @staticmethod
     def from_json(data: Mapping[str, JSONValue]) -> Event:
@@ -151,6 +175,9 @@ class Event:
             ended.get("batch"),
             ended.get("row"),
             d.get("recurrences", 0),
+            d.get("partition_key"),
+            tuple(d.get("partition_values", ())),
+            d.get("partition_compared", 0),
         )
 
 
@@ -172,36 +199,41 @@ def _present(st: FieldStats | None) -> bool:
     return st is not None and st.present > 0
 
 
-# The kinds that say a field arrives or leaves: a discriminator's shapes explain them.
-PRESENCE_KINDS = frozenset({"field-new", "nested-new", "field-gone", "nested-gone"})
+# The kinds that say a field arrives, leaves or lacks: a discriminator's shapes explain them.
+PRESENCE_KINDS = frozenset({"field-new", "nested-new", "field-gone", "nested-gone", "partition-lacks"})
 _FIND = "find"  # drift_summary's default: find the discriminator from the file results
 
 
-def drift_events(files: Sequence[FileResult], limit: int = DEFAULT_MAX_EVENTS) -> tuple[Event, ...]:
+def drift_events(files: Sequence[FileResult], limit: int | None = None) -> tuple[Event, ...]:
     """The drift events of the file results (sorted by relative path) in scan order: the
-    first `limit` of them; drift_summary also gives the exact totals."""
+    first `limit` of them (EPISODES_HELD when None); drift_summary also gives the exact totals."""
     return drift_summary(files, limit)[0]
 
 
 def drift_summary(
     files: Sequence[FileResult],
-    limit: int = DEFAULT_MAX_EVENTS,
+    limit: int | None = None,
+    skip_keys: frozenset[str] = frozenset(),
     shapes: Discriminator | None | str = _FIND,
 ) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
     """(the first `limit` events in scan order, the number of events of each kind, and of each
-    level, all counted).
+    level, all counted): the walk's episodes and the partition comparison's (skip_keys: the
+    partition keys it leaves out).  `limit` is EPISODES_HELD when None (read at the call, not
+    bound here).
 
     shapes: the discriminator of the scan (results/shapes.py; found from the files unless
     given, None for none). The fields whose presence it explains raise no presence episode
-    (PRESENCE_KINDS): their coming and going is the shapes, said once in the report. Their
-    types, nulls and classes are walked as any field's, so a field the values share is
-    compared across them.
+    (PRESENCE_KINDS): their coming and going is the shapes, said once in the report; its
+    partition key, if it is one, is not compared (its values are the shapes). Their types,
+    nulls and classes are walked as any field's, so a field the values share is compared
+    across them.
 
     Drift takes the ordered file results, never a Profile: it is the one walk in scan order.
     About `limit` episodes are followed at any time (the walk finds episodes in scan order,
     so one that starts after `limit` others can never be listed: it is only counted); a
     scan with a tiny batch_rows over many paths and partitions finds them by the million.
     """
+    limit = EPISODES_HELD if limit is None else limit
     counts: Counter[str] = Counter()
     levels: Counter[str] = Counter()
     sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]] = [
@@ -214,14 +246,57 @@ def drift_summary(
             levels[e.level] += 1
             yield e
 
+    # The partition comparison's episodes (few: at most one per key, path and kind). A walk
+    # episode that counts the very same places is the same change, told once: by the walk
+    # along a key of dates, times or integers (its episode says when it started, ended and came
+    # back), else by the partition episode (it names the values). Two keys naming the very same
+    # places (region=south and day=2026-11-30, where the nulls lie in region=south/day=2026-11-30
+    # only) are one change: the first key (the outer one) tells it.
     found = find_discriminator(files) if isinstance(shapes, str) else shapes
     quiet = frozenset(found.explained) if found is not None else frozenset()
+    skip = skip_keys | frozenset(found.partition_keys if found is not None else ())
+    ordered = ordered_keys(files)
+    across: dict[tuple[str | None, str, str, int, int, str | None], Event] = {}
+    for e in _partition_events(sequence, compare_partitions(files, skip)):
+        if e.path not in quiet or e.kind not in PRESENCE_KINDS:  # a value's records absent from a partition
+            across.setdefault(_same_change(e), e)
+
+    def untold(events: Iterator[Event]) -> Iterator[Event]:
+        for e in events:
+            same = across.get(_same_change(e))
+            if same is None:
+                yield e
+            elif same.partition_key in ordered:
+                del across[_same_change(e)]
+                yield e
+
     states: dict[str, _PathState] = {}
     # nsmallest is sorted(...)[:limit] (ties keep their order) with a heap of limit events.
-    walked = heapq.nsmallest(limit, counted(_walk(sequence, limit, states, quiet)), key=_order)
-    gone = heapq.nsmallest(limit, counted(_gone_events(sequence, states, quiet)), key=_order)
-    kept = heapq.nsmallest(limit, [*walked, *gone], key=_order)
+    walked = heapq.nsmallest(limit, counted(untold(_walk(sequence, limit, states, quiet))), key=_order)
+    gone = heapq.nsmallest(limit, counted(untold(_gone_events(sequence, states, quiet))), key=_order)
+    listed = heapq.nsmallest(limit, counted(iter(across.values())), key=_order)
+    kept = heapq.nsmallest(limit, [*walked, *gone, *listed], key=_order)
     return tuple(kept), {k: counts[k] for k in EVENT_KINDS if counts[k]}, dict(levels)
+
+
+# Kinds that tell the same sort of change, the walk's and the partition comparison's.
+_CHANGE_OF_KIND = {
+    "field-gone": "lacks",
+    "nested-gone": "lacks",
+    "partition-lacks": "lacks",
+    "type-widened": "type",
+    "type-conflict": "type",
+    "element-changed": "type",
+    "partition-type": "type",
+    "nulls-begin": "nulls",
+    "partition-nulls": "nulls",
+}
+
+
+def _same_change(e: Event) -> tuple[str | None, str, str, int, int, str | None]:
+    """What makes two episodes one change: its sort, path, and the places it counts (first and
+    last file, files, values); none of these depend on the batch size."""
+    return (_CHANGE_OF_KIND.get(e.kind), e.path, e.file, e.values, e.files, e.last_file)
 
 
 def _order(e: Event) -> tuple[int, int, int, str]:
@@ -535,3 +610,56 @@ def _first_line(obs: Observation) -> int | None:
 
 def _joined_key(state: _PathState) -> str:
     return type_text(state.joined) if state.joined is not UNKNOWN else "null"
+
+
+def _partition_events(
+    sequence: list[tuple[Observation, tuple[tuple[str, str], ...]]], findings: list[PartitionFinding]
+) -> Iterator[Event]:
+    """Each partition finding as an episode over the batches of the values it names, in scan
+    order: its start is the first batch of those values that shows it, its reach every batch
+    of them that shows it (docs/drift.md says what could show and shows each kind)."""
+    for f in findings:
+        concerned = set(f.values)
+        ep: _Episode | None = None
+        for seq, (obs, parts) in enumerate(sequence):
+            if dict(parts).get(f.key) not in concerned:
+                continue
+            shown = _partition_shown(f, obs)
+            if shown is None:
+                continue
+            shows, count, ex, last_row = shown
+            if not shows:
+                if ep is not None:
+                    ep.stops(obs)
+                continue
+            if ep is None:
+                start = Event(
+                    f.kind, f.path, f.before, f.after, obs.file, parts, obs.batch,
+                    ex.row if ex else obs.row_start,
+                    ex.line if ex else _first_line(obs),
+                    ex.value if ex and ex.value else None,
+                    count, partition_key=f.key, partition_values=f.values, partition_compared=f.compared, seq=seq,
+                )  # fmt: skip
+                ep = _Episode(start, None)
+            ep.shows(obs, seq, count, last_row)
+        if ep is not None:
+            yield ep.event()
+
+
+def _partition_shown(f: PartitionFinding, obs: Observation) -> tuple[bool, int, Example | None, int | None] | None:
+    """Whether a batch of a value the finding names shows it: None when the batch could not
+    show it, else (shows, values, the first example, the row its last_row would be)."""
+    st = obs.fields.get(f.path)
+    if f.kind == "partition-lacks":  # could hold it: rows, or the parent struct, arrive
+        places = container_count(f.path, obs.fields, obs.rows)
+        return None if places == 0 else (True, places, None, obs.row_start + obs.rows - 1)
+    if st is None or not st.present:
+        return None
+    if f.kind == "partition-nulls":
+        ex = st.first(NULL_SAMPLE)
+        return (st.nulls > 0, st.nulls, ex, ex.row if ex else obs.row_start)
+    n = sum(logical_counts(st).values())  # partition-type: none of its values is of the others' type
+    if not n:
+        return None
+    ex = min((e for k in st.types if (e := st.first(type_sample(k))) is not None), default=None)
+    return (True, n, ex, ex.row if ex else obs.row_start)

@@ -38,6 +38,8 @@ _FIXED: dict[str, str] = {
     "type-widened": "widening",  # the lattice joins old and new within one family
     "type-conflict": "breaking",  # a value of another family: no type of the old kind holds it
     "nulls-begin": "breaking",  # a non-nullable column cannot take the nulls
+    "partition-lacks": "breaking",  # a reader that needs the field finds none in those values
+    "partition-nulls": "breaking",  # as nulls-begin: the others' non-nullable column cannot take them
 }
 
 
@@ -52,6 +54,8 @@ def level_of(kind: str, before: str | None, after: str | None) -> str:
         return _type_level(before, after)
     if kind == "textclass-changed":
         return _class_level(before, after)
+    if kind == "partition-type":
+        return _partition_type_level(before, after)
     raise KeyError(f"drift event kind {kind!r} has no level (driftline.results.levels)")
 
 
@@ -65,6 +69,22 @@ def _type_level(before: str | None, after: str | None) -> str:
     if new.name == "union" and (old.name != "union" or len(new.members) > len(old.members)):
         return "breaking"
     return "widening"
+
+
+def _partition_type_level(before: str | None, after: str | None) -> str:
+    """Some values hold another type than the others (before, after: shallow type keys): info
+    when the others' type holds it (int64 values where the others hold float64), widening when
+    it widens the others' type within its family, else breaking (another family).
+
+    >>> _partition_type_level("float64", "int64"), _partition_type_level("list", "string")
+    ('info', 'breaking')
+    """
+    old, new = _dtype(before), _dtype(after)
+    if old is UNKNOWN or new is UNKNOWN:
+        return "breaking"
+    if join_all((old, new)) == old:
+        return "info"
+    return "widening" if is_widening(old, new) else "breaking"
 
 
 def _class_level(before: str | None, after: str | None) -> str:

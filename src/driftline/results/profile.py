@@ -11,15 +11,14 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
 
-from driftline.core import paths
 from driftline.core.files import FileIssue, FileResult, Skipped
 from driftline.core.jsontypes import JSONValue
 from driftline.core.observation import Observation
-from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import FieldStats, merge_all
 from driftline.errors import ProfileError
 from driftline.results.drift import Event, drift_summary
 from driftline.results.levels import LEVELS
+from driftline.results.partition_compare import container_count, group_fields, partition_groups, partition_keys
 from driftline.results.shapes import Discriminator, find_discriminator
 
 
@@ -50,19 +49,6 @@ class FieldSummary:
     def share(self, n: int) -> float:
         """n as a share of the container (0.0 for an empty container)."""
         return n / self.container if self.container else 0.0
-
-
-def container_count(path: str, fields: Mapping[str, FieldStats], rows: int) -> int:
-    """How many places path could have held a value: the denominator of its shares."""
-    parent, how = paths.parent(path)
-    if parent is None:
-        return rows
-    pst = fields.get(parent)
-    if pst is None:
-        return 0
-    if how == "field":
-        return pst.types.get("struct", 0)
-    return pst.items
 
 
 def summarise(fields: Mapping[str, FieldStats], rows: int) -> dict[str, FieldSummary]:
@@ -174,13 +160,14 @@ class Profile:
 
     @cached_property
     def _drift(self) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
-        given = self.options.get("max_events")
-        return drift_summary(self.files, given if isinstance(given, int) else DEFAULT_MAX_EVENTS, self.shapes)
+        return drift_summary(self.files, shapes=self.shapes)
 
     @property
     def events(self) -> tuple[Event, ...]:
-        """Drift events in scan order (file path, then batch), each with its provenance: the
-        first max_events of them (a scan option, 10,000 by default); see event_counts."""
+        """Drift events in scan order (file path, then batch), each with its provenance and reach:
+        every one of them, up to the walk's memory bound (results/drift.EPISODES_HELD, far past
+        what a folder worth reading finds); see event_counts.  --max-events limits only the
+        terminal's list."""
         return self._drift[0]
 
     @property
@@ -204,7 +191,7 @@ class Profile:
 
     @property
     def event_total(self) -> int:
-        """How many drift events the scan found (events lists at most max_events of them).
+        """How many drift events the scan found (events lists at most EPISODES_HELD of them).
 
         >>> Profile("r", ()).event_total
         0
@@ -233,26 +220,12 @@ class Profile:
 
     def partition_keys(self) -> list[str]:
         """Partition keys (key=value folder names) in the order they first appear."""
-        keys: list[str] = []
-        for f in self.files:
-            for k, _ in f.partitions:
-                if k not in keys:
-                    keys.append(k)
-        return keys
+        return partition_keys(self.files)
 
     def by_partition(self, key: str) -> dict[str, dict[str, FieldSummary]]:
-        """Per value of partition key: the fields as they look in the files of that partition."""
-        groups: dict[str, list[FileResult]] = {}
-        for f in self.files:
-            value = dict(f.partitions).get(key)
-            if value is not None:
-                groups.setdefault(value, []).append(f)
-        out = {}
-        for value in sorted(groups):
-            files = groups[value]
-            merged = merge_all(o.fields for fr in files for o in fr.observations)
-            out[value] = summarise(merged, sum(fr.rows for fr in files))
-        return out
+        """Per value of partition key: the fields as they look in the files of that partition
+        (the grouping the partition comparison of drift uses, results/partition_compare.py)."""
+        return {value: summarise(*group_fields(files)) for value, files in partition_groups(self.files, key).items()}
 
     def file(self, rel: str) -> FileResult:
         """The result of one file, by its path relative to the root; KeyError if absent."""

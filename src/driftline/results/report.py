@@ -92,7 +92,8 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
 
 def summarised(profile: Profile) -> dict[str, Any]:
     """{"summarised": what the scan kept in summary only}, or {} when it kept everything:
-    events past max_events (counted by kind), batches merged into blocks, paths past max_paths."""
+    events past the walk's bound (drift.EPISODES_HELD, counted by kind), batches merged into
+    blocks, paths past max_paths."""
     out: dict[str, Any] = {}
     if len(profile.events) < profile.event_total:
         out["events_listed"] = len(profile.events)
@@ -117,8 +118,8 @@ def limit_notes(profile: Profile) -> list[str]:
         )
     if "events_listed" in got:
         notes.append(
-            f"{profile.event_total:,} drift events found; the first {got['events_listed']:,} are listed "
-            "(--max-events), all are counted by kind in the JSON report"
+            f"{profile.event_total:,} drift events found; the first {got['events_listed']:,} are followed and "
+            "listed (the most a scan holds), all are counted by kind and level in the JSON report"
         )
     if "batch_span" in got:
         notes.append(

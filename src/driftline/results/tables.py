@@ -62,6 +62,10 @@ EVENTS_SCHEMA = pa.schema(
         ("ended_batch", pa.int64()),
         ("ended_row", pa.int64()),
         ("recurrences", pa.int64()),
+        # the partition kinds only (null for the others): the key, the values that differ, of how many
+        ("partition_key", pa.string()),
+        ("partition_values", pa.list_(pa.string())),
+        ("partition_compared", pa.int64()),
     ]
 )
 

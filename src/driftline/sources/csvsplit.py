@@ -16,7 +16,8 @@ max_record_bytes.
 
 The spans make the file's result only when none reported anything and each one's rows,
 batches and next line are what the next one assumed (a blank line or a lone CR outside
-quotes, which the planner counts as a row, breaks that chain); then each span started where
+quotes, which the planner counts as a row, breaks that chain; one before the first row,
+in a preamble or the header, leaves the file to one reader at once); then each span started where
 one reader's row starts, in the state one reader would be in, by induction from the header.
 Otherwise, or if the file changed, the whole file is read again by one reader, so the result
 is always that reader's.
@@ -127,8 +128,13 @@ def _plan(ref: FileRef, opts: ReadOptions, parts: int, tsv: bool) -> list[Span]:
 def _head(ref: FileRef, opts: ReadOptions, tsv: bool = False) -> Head | None:
     with open(ref.path, "rb") as fh:
         issues, header = head_of(fh, ref.rel, opts, tsv=tsv)
-    if header is None or any(i.kind not in _HEAD_WARNINGS or i.severity != "warning" for i in issues):
-        return None
+        if header is None or any(i.kind not in _HEAD_WARNINGS or i.severity != "warning" for i in issues):
+            return None
+        fh.seek(0)
+        if has_lone_cr(fh.read(header.size)):
+            # one reader's line count (linecount.LineTally) covers the preamble and header too,
+            # and reports a lone CR there as cr-line-ends: no span sees those bytes again
+            return None
     d = header.dialect
     if d is None or d.line_end == "CR" or d.quote != '"' or d.escape is not None or d.comment is not None:
         return None  # the planner knows RFC 4180 quoting and LF ends only: one reader takes the others

@@ -25,6 +25,7 @@ from driftline.sources.encoding import decide
 from driftline.sources.formats import data_extension, decode_errors, detect_compression, head_bytes, open_stream
 from driftline.sources.jsonfile import read_json, read_json_values, read_jsonl
 from driftline.sources.parquetfile import has_parquet_magic, read_parquet, read_parquet_values
+from driftline.sources.peek import Peek, peek_delimited, peek_document, peek_footer, peek_lines
 
 # A stream reader: (decompressed UTF-8 binary stream, relative path, options, blank lines seen) → items
 StreamReader = Callable[[Any, str, ReadOptions, "list[int] | None"], Iterator[Any]]
@@ -53,6 +54,9 @@ class FormatSpec:
     name: Format
     suffixes: tuple[str, ...]  # lower case, with the dot; the first one is the one messages name
     values: ValuesReader  # the values of the rows the reader reads, in its order (recommendation/raw)
+    # the field names of a file from its head or footer, never a full read (dataset discovery)
+    peek: Callable[[FileRef], Peek]
+    family: str  # formats whose files can hold one table's rows side by side (dataset discovery)
     read: StreamReader | None = None  # read as a decompressed text stream (UTF-8 after TextStream)
     read_path: PathReader | None = None  # or from its path, with random access (footers, column chunks)
     magic: tuple[bytes, ...] = ()  # first bytes that tell the format before any decompression
@@ -109,6 +113,8 @@ _TABLE = (
         "jsonl",
         (".jsonl", ".ndjson", ".jsonlines"),
         values=partial(read_json_values, document=False),
+        peek=peek_lines,
+        family="JSON",
         read=_jsonl,
         sniff=lambda text, head: text.startswith(b"{"),
         json_text=True,
@@ -119,6 +125,8 @@ _TABLE = (
         "json",
         (".json",),
         values=partial(read_json_values, document=True),
+        peek=peek_document,
+        family="JSON",
         read=_json,
         sniff=lambda text, head: text.startswith(b"["),
         json_text=True,
@@ -127,6 +135,8 @@ _TABLE = (
         "csv",
         (".csv",),
         values=partial(read_csv_cells, tsv=False),
+        peek=partial(peek_delimited, tsv=False),
+        family="CSV/TSV",
         text_cells=True,
         read=_delimited(tsv=False),
         sniff=_comma_separated,
@@ -137,6 +147,8 @@ _TABLE = (
         "tsv",
         (".tsv", ".tab"),
         values=partial(read_csv_cells, tsv=True),
+        peek=partial(peek_delimited, tsv=True),
+        family="CSV/TSV",
         text_cells=True,
         read=_delimited(tsv=True),
         sniff=_tab_separated,
@@ -147,6 +159,8 @@ _TABLE = (
         "parquet",
         (".parquet", ".pq", ".parq"),
         values=read_parquet_values,
+        peek=peek_footer,
+        family="Parquet",
         read_path=read_parquet,
         # source: Apache Parquet file format: "PAR1" (or "PARE", encrypted footer) at the start and the end
         magic=(b"PAR1", b"PARE"),
