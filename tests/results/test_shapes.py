@@ -199,3 +199,19 @@ def test_drift_within_a_shape_is_still_found(tmp_path: Path) -> None:
     assert [(e.kind, e.path, e.before, e.after, e.file, e.row, e.values) for e in profile.events] == [
         ("type-conflict", "total", "float64", "string", "f2.jsonl", 0, 2)
     ]
+
+
+def test_a_partition_without_one_kind_restates_the_shapes(tmp_path: Path) -> None:
+    # store=d holds refunds only: its lack of the order's fields is the shapes, not a change
+    # (kind explains them), in the walk and in the partition comparison alike.
+    from driftline.results.drift import drift_summary
+
+    for store in "abcd":
+        kinds = ["order"] * 3 + ["refund"] * 2 if store != "d" else ["refund"] * 5
+        own = {"order": {"order_id": 1, "total": 1.5}, "refund": {"reason": "x"}}
+        _write(tmp_path / f"store={store}" / "a.jsonl", [{"kind": k, "n": i, **own[k]} for i, k in enumerate(kinds)])
+    profile = driftline.scan(tmp_path)
+    assert profile.shapes is not None and profile.shapes.explained == ("order_id", "reason", "total")
+    assert profile.events == ()
+    flooded = [(e.kind, e.path, dict(e.partitions)) for e in drift_summary(profile.files, shapes=None)[0]]
+    assert flooded == [("field-gone", "order_id", {"store": "d"}), ("field-gone", "total", {"store": "d"})]
