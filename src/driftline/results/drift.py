@@ -20,6 +20,7 @@ from driftline.core.observation import TEXT_CLASS_TYPE, Observation
 from driftline.core.options import DEFAULT_MAX_EVENTS
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
 from driftline.results.levels import level_of
+from driftline.results.reading import read_as
 
 # Event kinds, in the order they are listed for one batch.
 EVENT_KINDS: dict[str, str] = {
@@ -160,6 +161,7 @@ class _PathState:
     classes: set[str] = field(default_factory=set)
     had_values: bool = False
     had_null: bool = False
+    cell_only: set[str] = field(default_factory=set)  # type keys only text without a type of its own put here
 
 
 def _earliest(st: FieldStats) -> Example | None:
@@ -297,9 +299,10 @@ def _walk(
     for seq, (obs, parts) in enumerate(sequence):
         found: list[tuple[Event, str | None]] = []
         new_paths = {p for p, st in obs.fields.items() if p not in states and _present(st)}
-        for path, st in obs.fields.items():
-            if not _present(st):
+        for path, raw in obs.fields.items():
+            if not _present(raw):
                 continue
+            st = read_as(raw, states.get(path))  # one logical type across formats (results/reading.py)
             for ep in followed.get(path, ()):
                 shown = _shown(ep, st)
                 if shown is None:
@@ -322,6 +325,7 @@ def _walk(
                 ex = st.first(NULL_SAMPLE)
                 found.append((_event("nulls-begin", path, None, "null", obs, parts, ex, st.nulls, seq), None))
             found.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
+            state.cell_only = (state.cell_only | (set(st.types) - prior_types)) if raw.text else state.cell_only - set(raw.types)
             state.had_null = state.had_null or st.nulls > 0
             state.had_values = state.had_values or st.nonnull > 0
         if len(episodes) >= limit:
