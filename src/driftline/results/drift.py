@@ -325,7 +325,9 @@ def _walk(
                 ex = st.first(NULL_SAMPLE)
                 found.append((_event("nulls-begin", path, None, "null", obs, parts, ex, st.nulls, seq), None))
             found.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
-            state.cell_only = (state.cell_only | (set(st.types) - prior_types)) if raw.text else state.cell_only - set(raw.types)
+            state.cell_only = (
+                (state.cell_only | (set(st.types) - prior_types)) if raw.text else state.cell_only - set(raw.types)
+            )
             state.had_null = state.had_null or st.nulls > 0
             state.had_values = state.had_values or st.nonnull > 0
         if len(episodes) >= limit:

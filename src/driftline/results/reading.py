@@ -98,7 +98,9 @@ def read_as(st: FieldStats, state: State | None) -> FieldStats:
         moves = _cell_moves(st, state) if st.text else _typed_moves(st, state)
     # A cell read as a null (empty, or a null token) is no string: its class is not one the
     # field's strings had, so a later cell of that text is not taken for a string.
-    nulls = [c for c in st.classes if TEXT_CLASS_TYPE[c] is None and not any(m[0] == c for m in moves)] if st.text else []
+    nulls = (
+        [c for c in st.classes if TEXT_CLASS_TYPE[c] is None and not any(m[0] == c for m in moves)] if st.text else []
+    )
     if not moves and not nulls:
         return st
     out = _moved(st, moves) if moves else st
@@ -128,9 +130,9 @@ def _typed_moves(st: FieldStats, state: State) -> list[_Move]:
     if st.classes and not strings:
         for cls, n in st.classes.items():
             own = TEXT_CLASS_TYPE[cls]
-            if own is not None and own != "string" and _holds(state, own):
-                if cls in TEMPORAL_CLASSES or own in state.cell_only:
-                    out.append((cls, "string", own, n, None))
+            typed = own is not None and own != "string" and _holds(state, own)
+            if typed and own is not None and (cls in TEMPORAL_CLASSES or own in state.cell_only):
+                out.append((cls, "string", own, n, None))
     if strings:
         for key, n in st.types.items():
             if key in state.types or _holds(state, key):
