@@ -73,3 +73,21 @@ def test_level_counts_are_of_every_event_not_only_the_listed(tmp_path: Path):
     ]
     # one line per episode: the heading, the breaking header, its five episodes, then widening
     assert lines[7] == "widening (39), in scan order"
+
+
+def test_types_by_format_lists_the_fields_whose_formats_differ(demo_profile, tmp_path: Path):
+    text = _text(demo_profile)
+    block = text[text.index("types by format") : text.index("Drift events")].splitlines()
+    # demo/make_demo.py: the west CSV writes ts as local "YYYY-MM-DD HH:MM:SS", the feed as
+    # RFC 3339 strings, the nightly Parquet as timestamp[us, UTC]; pm10 is a float in later
+    # south rows of the feed only; pm25 a string from firmware 2.4.0 only; tags a bare string
+    # in the feed for a few hours and a ';'-joined cell in the CSV.
+    assert block[1:] == [
+        "  pm10: csv int64 · jsonl float64, int64 · parquet int64",
+        "  pm25: csv float64 · jsonl float64, string · parquet float64",
+        "  tags: csv string · jsonl list, string · parquet list",
+        "  ts: csv timestamp[us] · jsonl string · parquet timestamp[us, UTC]",
+        "",
+    ]
+    write_lines(tmp_path / "a.jsonl", ['{"x": 1}'])
+    assert "types by format" not in _text(driftline.scan(tmp_path))
