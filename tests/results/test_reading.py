@@ -125,6 +125,13 @@ CHANGED = [
         [("nulls-begin", "x", None, "null", "b.csv")],
     ),
     (
+        # The cell 13 reads as the string the field held; the empty cell is a null, not a
+        # string of a new class (no textclass-changed integer → empty).
+        "JSON string '12', then cells 13 and empty",
+        [("a.jsonl", [{"id": 1, "x": "12"}]), ("b.csv", "id,x\n1,13\n2,\n")],
+        [("nulls-begin", "x", None, "null", "b.csv")],
+    ),
+    (
         # A JSON number turned string is a change within JSON; the CSV between them reads as
         # the number the field held, and does not hide it.
         "JSON 5, the cell 5, then JSON string '5'",

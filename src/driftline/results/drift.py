@@ -324,10 +324,11 @@ def _walk(
             if st.nulls and not state.had_null and state.had_values:
                 ex = st.first(NULL_SAMPLE)
                 found.append((_event("nulls-begin", path, None, "null", obs, parts, ex, st.nulls, seq), None))
-            found.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
-            state.cell_only = (
-                (state.cell_only | (set(st.types) - prior_types)) if raw.text else state.cell_only - set(raw.types)
-            )
+            found.extend(_class_events(path, st, state, prior_types, obs, parts, seq, cells=raw.text > 0))
+            if raw.text:  # type keys only text put in stay open (results/reading.py)
+                state.cell_only |= st.types.keys() - prior_types
+            elif state.cell_only:
+                state.cell_only -= raw.types.keys()
             state.had_null = state.had_null or st.nulls > 0
             state.had_values = state.had_values or st.nonnull > 0
         if len(episodes) >= limit:
@@ -430,12 +431,15 @@ def _class_events(
     obs: Observation,
     parts: tuple[tuple[str, str], ...],
     seq: int,
+    cells: bool = False,
 ) -> list[tuple[Event, str | None]]:
     out: list[tuple[Event, str | None]] = []
     fresh = sorted(
         (c for c in st.classes if c not in state.classes), key=lambda c: st.first(class_sample(c)) or Example("", 0)
     )
     for cls in fresh:
+        if cells and TEXT_CLASS_TYPE[cls] is None:
+            continue  # a CSV cell read as a null is no string: the field learns no string class from it
         if state.classes and not _covered_by_type(st, cls, prior_types):
             ex = st.first(class_sample(cls))
             before = ", ".join(sorted(state.classes))

@@ -36,6 +36,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 from dataclasses import dataclass, field, replace
+from functools import lru_cache
 from typing import Protocol
 
 from driftline.core.lattice import UNKNOWN, DType, join, type_of_key
@@ -85,7 +86,14 @@ def spelling_classes(key: str) -> tuple[str, ...]:
 
 def _holds(state: State, key: str) -> bool:
     """Whether the field's joined type already holds a value of this type (int64 in float64)."""
-    return state.joined is not UNKNOWN and join(state.joined, type_of_key(key)) == state.joined
+    return state.joined is not UNKNOWN and _joins_into(state.joined, key)
+
+
+@lru_cache(maxsize=4096)
+def _joins_into(joined: DType, key: str) -> bool:
+    # A field's joined type changes seldom and its keys are few: the walk asks the same
+    # question for every batch of every CSV column.
+    return join(joined, type_of_key(key)) == joined
 
 
 def read_as(st: FieldStats, state: State | None) -> FieldStats:
@@ -94,17 +102,11 @@ def read_as(st: FieldStats, state: State | None) -> FieldStats:
     moved between type keys (and nulls) as the module docstring says."""
     if state is None or not state.types:
         moves: list[_Move] = []
+    elif st.text:
+        moves = _cell_moves(st, state) if "string" in state.types else []
     else:
-        moves = _cell_moves(st, state) if st.text else _typed_moves(st, state)
-    # A cell read as a null (empty, or a null token) is no string: its class is not one the
-    # field's strings had, so a later cell of that text is not taken for a string.
-    nulls = (
-        [c for c in st.classes if TEXT_CLASS_TYPE[c] is None and not any(m[0] == c for m in moves)] if st.text else []
-    )
-    if not moves and not nulls:
-        return st
-    out = _moved(st, moves) if moves else st
-    return replace(out, classes={c: n for c, n in out.classes.items() if c not in nulls}) if nulls else out
+        moves = _typed_moves(st, state) if st.classes or "string" in state.types else []
+    return _moved(st, moves) if moves else st
 
 
 # A move: (class or None, from key or None for nulls, to key, count, class it reads as).
@@ -112,14 +114,14 @@ _Move = tuple[str | None, str | None, str, int, str | None]
 
 
 def _cell_moves(st: FieldStats, state: State) -> list[_Move]:
-    strings = "string" in state.types
+    """Where the field held strings: the cells read as strings."""
     out: list[_Move] = []
     for cls, n in st.classes.items():
         own = TEXT_CLASS_TYPE[cls]
         if own is None:
-            if strings and cls in state.classes:  # "" or "n/a" that arrived as strings before
+            if cls in state.classes:  # "" or "n/a" that arrived as strings before
                 out.append((cls, None, "string", n, cls))
-        elif own != "string" and strings and not _holds(state, own):
+        elif own != "string" and not _holds(state, own):
             out.append((cls, own, "string", n, cls))
     return out
 
