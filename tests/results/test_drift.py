@@ -252,3 +252,23 @@ def test_max_events_bounds_the_list_and_keeps_the_totals_exact(tmp_path: Path):
     assert [(e.kind, e.path) for e in full.events] == [("type-conflict", "temp_c"), ("field-new", "extra")]
     assert one.events == full.events[:1] and one.event_total == 2
     assert one.events[0].rows == 22  # the listed episode is still counted in full
+
+
+def test_the_demo_ts_in_three_formats_is_one_change(demo_profile):
+    # demo/make_demo.py: ts is RFC 3339 in the feed until the south stations move to local
+    # "YYYY-MM-DD HH:MM:SS" (the one listed change of ts); the nightly Parquet holds the same
+    # instants as timestamp[us, UTC] and the west CSV writes local cells like the south feed.
+    # One logical type across formats (docs/drift.md): only the feed's change is an event.
+    ts = [(e.kind, e.before, e.after, e.file, e.row) for e in demo_profile.events if e.path == "ts"]
+    assert ts == [
+        (
+            "textclass-changed",
+            "timestamp_rfc3339",
+            "timestamp_local",
+            "readings/region=south/day=2026-11-29/part-0000.jsonl.gz",
+            120,
+        )
+    ]
+    (e,) = [e for e in demo_profile.events if e.path == "ts"]
+    # The Parquet's zoned instants stop it (ended there), the west CSV's local cells reopen it.
+    assert (e.recurrences, e.last_file, e.still_going) == (1, "readings/region=west/day=2026-11-29/export.csv", True)
