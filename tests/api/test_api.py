@@ -86,6 +86,7 @@ DOCTEST_MODULES = [
     "driftline.results.levels",
     "driftline.sources.datasets",
     "driftline.sources.peek",
+    "driftline.results.reading",
 ]
 
 
@@ -367,8 +368,8 @@ def test_repr_is_one_short_line(demo_profile):
     text = repr(demo_profile)
     root = repr(demo_profile.root)
     # source: the demo manifest (tests/scripts/test_make_demo.py): 15 files, 4,694 rows, one malformed line
-    # (18 events: tests/emit/test_terminal.py lists them)
-    assert text == f"<Profile {root}: 15 files, 4,694 rows, 17 fields, 18 drift events, 1 errors>"
+    # (17 events: tests/emit/test_terminal.py lists them)
+    assert text == f"<Profile {root}: 15 files, 4,694 rows, 17 fields, 17 drift events, 1 errors>"
     assert "\n" not in text
 
 
@@ -500,4 +501,4 @@ def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pyt
     test = parser.get_doctest(text, {}, "docs/python.md", "docs/python.md", 0)
     runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS)
     runner.run(test)
-    assert runner.summarize(verbose=False) == (0, 42)  # docs/python.md holds 42 examples
+    assert runner.summarize(verbose=False) == (0, 43)  # docs/python.md holds 43 examples

@@ -463,3 +463,13 @@ def test_report_works_without_the_recommender(demo: dict[str, Any], monkeypatch:
     assert "recommended type, cast rule, loss" not in page
     assert "appear here once driftline's recommender is installed" in page
     assert html_report.field_rules(demo["profile"]) is None
+
+
+def test_types_cell_says_which_format_gave_which_type(demo_profile) -> None:
+    # demo/make_demo.py: ts is an RFC 3339 string in the feed (JSON Lines), a local date-time
+    # cell in the west CSV (read as timestamp[us]) and a native timestamp[us, UTC] in the
+    # nightly Parquet; station_id is a string in every format, so its cell has no such title.
+    page = html_report.render_html(demo_profile)
+    titles = re.findall(r'title="by format: ([^"]*)"', page)
+    assert "csv timestamp[us] · jsonl string · parquet timestamp[us, UTC]" in titles
+    assert len(titles) == 4  # pm10, pm25, tags, ts: the fields whose formats differ

@@ -2,11 +2,16 @@
 
 from __future__ import annotations
 
+import csv
+import gzip
 import json
 import pickle
 import random
 from pathlib import Path
 
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.parquet as pq
 from jsonschema import Draft202012Validator
 
 import driftline
@@ -70,3 +75,34 @@ def test_by_partition_view(demo_profile):
     # temp_c stops in north on the last day: part of north's rows lack it.
     north = view["north"]["temp_c"]
     assert north.absent == demo_profile.file("readings/region=north/day=2026-11-30/part-0000.jsonl.gz").rows
+
+
+def test_types_by_format_counts_what_each_format_gave(demo_profile, demo_dir):
+    # Counted apart: Python's json and gzip for the feed, pyarrow for the nightly Parquet,
+    # Python's csv for the export, whose ts cells pyarrow's cast reads as timestamp[us].
+    landing = demo_dir / "landing"
+    strings = 0
+    for path in sorted(landing.rglob("*.jsonl.gz")):
+        for line in gzip.decompress(path.read_bytes()).decode("utf-8").splitlines():
+            try:
+                rec = json.loads(line)
+            except json.JSONDecodeError:
+                continue  # the demo's one cut-off line (a file problem, no record)
+            strings += isinstance(rec.get("ts"), str)
+    (nightly,) = landing.rglob("*.parquet")
+    table = pq.read_table(nightly)
+    cells = []
+    for path in sorted(landing.rglob("*.csv")):
+        with open(path, newline="", encoding="utf-8") as fh:
+            cells += [row["ts"] for row in csv.DictReader(fh)]  # source: RFC 4180, Python's csv module
+    assert pc.cast(pa.array(cells), pa.timestamp("us")).null_count == 0
+    assert table.schema.field("ts").type == pa.timestamp("us", "UTC")
+    assert demo_profile.types_by_format["ts"] == {
+        "csv": {"timestamp[us]": len(cells)},
+        "jsonl": {"string": strings},
+        "parquet": {"timestamp[us, UTC]": table.num_rows},
+    }
+    report = to_dict(demo_profile)["fields"]
+    assert report["ts"]["formats"] == demo_profile.types_by_format["ts"]
+    # A field read from one format only has no "formats" entry: its types say it all.
+    assert "formats" not in report["ingested_at"]

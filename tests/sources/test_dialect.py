@@ -632,3 +632,23 @@ def test_no_line_is_skipped_as_a_preamble_above_a_table_without_rows(tmp_path: P
     f.write_bytes(b"a,b,c\n,")
     fr = read_one(f).files[0]
     assert (fr.dialect.skip, fr.dialect.header) == (0, "yes")
+
+
+def test_no_header_is_noted_only_when_guessed(tmp_path: Path):
+    # source: RFC 4180 section 2 item 3 (the header line is optional) and section 3 (the
+    # sender says header=present or absent): a pinned header=no is that word, a guess is noted.
+    (tmp_path / "a.csv").write_bytes(b"1,2\r\n3,4\r\n5,6\r\n")
+    guessed = driftline.scan(tmp_path).files[0]
+    assert [(i.kind, i.severity, i.line) for i in guessed.issues] == [("no-header", "warning", 1)]
+    pinned = driftline.scan(tmp_path, csv_dialect="header=no").files[0]
+    assert (pinned.dialect.header, pinned.rows, pinned.issues) == ("no", 3, ())
+
+
+def test_a_utf8_bom_in_csv_is_recorded_not_warned_of(tmp_path: Path):
+    # source: RFC 4180 says nothing of a byte order mark; the Unicode Standard (section 23.8)
+    # allows U+FEFF as a UTF-8 signature. Python's utf-8-sig codec writes it, as spreadsheets do.
+    (tmp_path / "a.csv").write_bytes("id,name\r\n1,René\r\n".encode("utf-8-sig"))
+    f = driftline.scan(tmp_path).files[0]
+    assert f.issues == ()
+    assert (f.encoding.name, f.encoding.evidence) == ("utf-8", "bom")  # the report keeps the mark's evidence
+    assert sorted(f.observations[0].fields) == ["id", "name"]  # the mark is not part of the first name

@@ -96,7 +96,7 @@ def _show(delimiter: str) -> str:
 class TextEncoding:
     """How a text file's bytes are decoded: the encoding's name, how it was found, and the
     length of the byte order mark skipped before decoding (UTF-16/32; a UTF-8 mark is left
-    to the readers, which report it)."""
+    to the readers, which skip it; the JSON readers report it, RFC 8259 section 8.1)."""
 
     name: str
     evidence: str  # BY_BOM | BY_NULS | BY_SAMPLE | BY_FALLBACK | BY_PIN

@@ -167,6 +167,14 @@ def _types_text(s: FieldSummary) -> str:
     return " · ".join(f"{k} {svg.pct(n, total)}" for k, n in parts[:3]) + (" …" if len(parts) > 3 else "")
 
 
+def _by_format_text(by_format: Mapping[str, Mapping[str, int]]) -> str:
+    """Which format gave which physical types, for a field whose formats differ ('' otherwise):
+    the title of its types cell (terminal.formats_block says the same)."""
+    if len(by_format) < 2 or len({tuple(types) for types in by_format.values()}) < 2:
+        return ""
+    return " · ".join(f"{fmt} {', '.join(types)}" for fmt, types in by_format.items())
+
+
 def _overview(profile: Profile) -> list[tuple[str, str]]:
     formats = Counter(f.format for f in profile.files)
     issues = profile.issues
@@ -217,6 +225,7 @@ def _field_rows(
                 "path": path,
                 "bar": Markup(svg.type_bar(counts, order, styles.assign(order))),
                 "types": _types_text(s),
+                "by_format": _by_format_text(profile.types_by_format.get(path, {})),
                 "ntypes": len(s.stats.types),
                 "null": svg.pct(s.stats.nulls, s.container),
                 "null_v": s.share(s.stats.nulls),

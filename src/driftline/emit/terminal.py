@@ -178,6 +178,31 @@ def fields_table(profile: Profile) -> Table:
     return table
 
 
+MAX_FORMAT_FIELDS_SHOWN = 8
+
+
+def formats_block(profile: Profile) -> Text:
+    """The fields whose file formats gave them different physical types, each with the types per
+    format (a CSV cell's is the type its text reads as); empty when no field differs. Drift
+    compares one logical type across formats (docs/drift.md): this is what each format held."""
+    differ = {
+        path: by
+        for path, by in profile.types_by_format.items()
+        if len(by) > 1 and len({tuple(types) for types in by.values()}) > 1
+    }
+    text = Text()
+    if not differ:
+        return text
+    text.append("types by format", style="bold")
+    text.append(" (fields whose formats gave other physical types; drift compares one logical type):\n")
+    for path, by in list(differ.items())[:MAX_FORMAT_FIELDS_SHOWN]:
+        text.append("  " + safe_text(path, 60) + ": ")
+        text.append(" · ".join(f"{fmt} {', '.join(types)}" for fmt, types in by.items()) + "\n")
+    if len(differ) > MAX_FORMAT_FIELDS_SHOWN:
+        text.append(f"  … {len(differ) - MAX_FORMAT_FIELDS_SHOWN} more in the JSON report (fields.*.formats)\n")
+    return text
+
+
 def levels_line(counts: dict[str, int]) -> str:
     """How many drift events of each level, most urgent first: '2 breaking, 1 widening, 0 info'."""
     return ", ".join(f"{n:,} {level}" for level, n in counts.items())
@@ -247,6 +272,8 @@ def render(profile: Profile, console: Console, max_events: int = DEFAULT_MAX_EVE
     console.print()
     console.print(fields_table(profile))
     console.print()
+    if formats := formats_block(profile):
+        console.print(formats)
     if profile.events:
         console.print(
             events_block(profile.events, profile.level_counts, max_events),

@@ -27,6 +27,7 @@ from driftline.results.partition_compare import (
     logical_counts,
     ordered_keys,
 )
+from driftline.results.reading import read_as
 from driftline.results.shapes import Discriminator, find_discriminator
 
 # The walk's memory bound: episodes followed (each with its start and reach) and listed at
@@ -188,6 +189,7 @@ class _PathState:
     classes: set[str] = field(default_factory=set)
     had_values: bool = False
     had_null: bool = False
+    cell_only: set[str] = field(default_factory=set)  # type keys only text without a type of its own put here
 
 
 def _earliest(st: FieldStats) -> Example | None:
@@ -392,9 +394,10 @@ def _walk(
     for seq, (obs, parts) in enumerate(sequence):
         found: list[tuple[Event, str | None]] = []
         new_paths = {p for p, st in obs.fields.items() if p not in states and _present(st)}
-        for path, st in obs.fields.items():
-            if not _present(st):
+        for path, raw in obs.fields.items():
+            if not _present(raw):
                 continue
+            st = read_as(raw, states.get(path))  # one logical type across formats (results/reading.py)
             for ep in followed.get(path, ()):
                 shown = _shown(ep, st)
                 if shown is None:
@@ -416,7 +419,11 @@ def _walk(
             if st.nulls and not state.had_null and state.had_values:
                 ex = st.first(NULL_SAMPLE)
                 found.append((_event("nulls-begin", path, None, "null", obs, parts, ex, st.nulls, seq), None))
-            found.extend(_class_events(path, st, state, prior_types, obs, parts, seq))
+            found.extend(_class_events(path, st, state, prior_types, obs, parts, seq, cells=raw.text > 0))
+            if raw.text:  # type keys only text put in stay open (results/reading.py)
+                state.cell_only |= st.types.keys() - prior_types
+            elif state.cell_only:
+                state.cell_only -= raw.types.keys()
             state.had_null = state.had_null or st.nulls > 0
             state.had_values = state.had_values or st.nonnull > 0
         if len(episodes) >= limit:
@@ -519,12 +526,15 @@ def _class_events(
     obs: Observation,
     parts: tuple[tuple[str, str], ...],
     seq: int,
+    cells: bool = False,
 ) -> list[tuple[Event, str | None]]:
     out: list[tuple[Event, str | None]] = []
     fresh = sorted(
         (c for c in st.classes if c not in state.classes), key=lambda c: st.first(class_sample(c)) or Example("", 0)
     )
     for cls in fresh:
+        if cells and TEXT_CLASS_TYPE[cls] is None:
+            continue  # a CSV cell read as a null is no string: the field learns no string class from it
         if state.classes and not _covered_by_type(st, cls, prior_types):
             ex = st.first(class_sample(cls))
             before = ", ".join(sorted(state.classes))

@@ -178,10 +178,11 @@ def compare_partitions(files: Sequence[FileResult], skip_keys: frozenset[str] = 
     for key, groups in compared.items():
         merged = {value: group_fields(fs) for value, fs in groups.items()}
         logical = {value: _logical_of(fs) for value, fs in groups.items()}
+        text = {value: _text_paths(fs) for value, fs in groups.items()}
         every_path = sorted({p for fields, _ in merged.values() for p in fields})
         for path in every_path:
             out.extend(_lacks(key, path, groups, merged, arrival))
-            out.extend(_types(key, path, logical))
+            out.extend(_types(key, path, logical, text))
             out.extend(_nulls(key, path, merged))
     return out
 
@@ -196,6 +197,11 @@ def _logical_of(files: Sequence[FileResult]) -> dict[str, Counter[str]]:
                 if st.types:
                     out.setdefault(path, Counter()).update(logical_counts(st))
     return out
+
+
+def _text_paths(files: Sequence[FileResult]) -> set[str]:
+    """The paths a group holds as CSV cells (text typed by inference)."""
+    return {path for f in files for o in f.observations for path, st in o.fields.items() if st.text}
 
 
 def _lacks(
@@ -240,7 +246,9 @@ def arrivals(files: Sequence[FileResult]) -> dict[str, str]:
     return out
 
 
-def _types(key: str, path: str, logical: Mapping[str, Mapping[str, Counter[str]]]) -> list[PartitionFinding]:
+def _types(
+    key: str, path: str, logical: Mapping[str, Mapping[str, Counter[str]]], text: Mapping[str, set[str]]
+) -> list[PartitionFinding]:
     counts = {v: per[path] for v, per in logical.items() if per.get(path)}
     main = {v: min(c, key=lambda t: (-c[t], t)) for v, c in counts.items()}
     norm, n = Counter(main.values()).most_common(1)[0] if main else ("", 0)
@@ -248,7 +256,9 @@ def _types(key: str, path: str, logical: Mapping[str, Mapping[str, Counter[str]]
         return []
     odd: dict[str, list[str]] = {}
     for v, c in counts.items():
-        if c.get(norm, 0) == 0:
+        # A CSV cell is text (RFC 4180): where the others hold strings it is one of them,
+        # whatever its text reads as (results/reading.py reads it so in the walk too).
+        if c.get(norm, 0) == 0 and not (norm == "string" and path in text[v]):
             odd.setdefault(main[v], []).append(v)
     return [
         PartitionFinding("partition-type", path, key, tuple(vs), len(main), norm, t) for t, vs in sorted(odd.items())

@@ -159,6 +159,31 @@ class Profile:
         return self.saved_shapes if self.saved_shapes is not None else find_discriminator(self.files)
 
     @cached_property
+    def types_by_format(self) -> dict[str, dict[str, dict[str, int]]]:
+        """Per field path, per file format: the physical types its values came in (non-null
+        values per type key). A CSV or TSV cell has no type of its own: its type is the one
+        its text reads as, the type the readers and the recommender use. Drift compares one
+        logical type across formats (docs/drift.md); this says which format gave which type.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": "5"}\\n')
+        >>> _ = (d / "b.csv").write_text("n,m\\n5,1\\n")
+        >>> driftline.scan(d).types_by_format["n"]
+        {'csv': {'int64': 1}, 'jsonl': {'string': 1}}
+        """
+        out: dict[str, dict[str, dict[str, int]]] = {}
+        for f in self.files:
+            for o in f.observations:
+                for path, st in o.fields.items():
+                    counts = out.setdefault(path, {}).setdefault(f.format, {})
+                    for key, n in st.types.items():
+                        counts[key] = counts.get(key, 0) + n
+        return {
+            path: {fmt: dict(sorted(types.items())) for fmt, types in sorted(by.items()) if types}
+            for path, by in out.items()
+        }
+
+    @cached_property
     def _drift(self) -> tuple[tuple[Event, ...], dict[str, int], dict[str, int]]:
         return drift_summary(self.files, shapes=self.shapes)
 

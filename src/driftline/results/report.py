@@ -80,6 +80,7 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
                 "absent": s.absent,
                 "nullable": s.nullable,
                 **s.stats.to_json(),
+                **_formats(profile.types_by_format.get(path, {})),
             }
             for path, s in profile.fields.items()
         },
@@ -88,6 +89,11 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
         "files": [_file_json(f, batches) for f in profile.files],
         "skipped": [{"path": s.rel, "reason": s.reason} for s in profile.skipped],
     }
+
+
+def _formats(by_format: dict[str, dict[str, int]]) -> dict[str, Any]:
+    """{"formats": format → type → values} for a field whose values came in more than one format."""
+    return {"formats": by_format} if len(by_format) > 1 else {}
 
 
 def summarised(profile: Profile) -> dict[str, Any]:

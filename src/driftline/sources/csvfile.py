@@ -232,11 +232,10 @@ def read_header(stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool) -> Ite
     if not sample.strip():
         yield FileIssue(rel, "empty", "empty file: no header and no rows", "warning", line=1, byte_offset=0)
         return
+    # A UTF-8 byte order mark is skipped without a word: RFC 4180 says nothing of it, the
+    # Unicode Standard allows it as a signature, and the report's encoding records it
+    # (evidence "bom"), as for UTF-16 and UTF-32 files (reliability.md, "Warnings").
     bom = sample.startswith(_BOM)
-    if bom:
-        yield FileIssue(
-            rel, "bom", "UTF-8 byte order mark at the start of the file; ignored", "warning", line=1, byte_offset=0
-        )
     text = sample[len(_BOM) :] if bom else sample
     if not at_end and b"\n" not in text and b"\r" not in text:  # the first line alone passes the limit
         yield FileIssue(
@@ -316,13 +315,15 @@ def _dialect_notes(rel: str, sample: bytes, finding: Finding) -> Iterator[FileIs
             line=1,
             byte_offset=0,
         )
-    if d.header == "no":
-        why = "as pinned" if "header" in d.pinned else "the first row reads like the rows after it"
+    # RFC 4180 makes the header optional (section 2, item 3) and lets the sender say whether
+    # it is there (section 3, header=present/absent): a pinned header=no is that word, and
+    # needs no note; a guessed one is noted, since a wrong guess reads the names as a row.
+    if d.header == "no" and "header" not in d.pinned:
         yield FileIssue(
             rel,
             "no-header",
-            f"no header row ({why}); columns named {positional_name(0)} … "
-            f"{positional_name(finding.width - 1)} by position",
+            f"no header row (the first row reads like the rows after it); columns named "
+            f"{positional_name(0)} … {positional_name(finding.width - 1)} by position",
             "warning",
             line=d.skip + 1,
         )

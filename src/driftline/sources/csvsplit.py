@@ -53,7 +53,7 @@ _SPLIT_QUOTES = 2**14  # quotes left between newlines in a block (of 2**20 bytes
 _LOCATE_WINDOW = 4096  # a cut is found by halving down to this many bytes, then byte by byte
 # What a header may carry in a file read as spans: the preamble and header are read once, the
 # way read_csv reads them, so only the dialect of the rows matters to the spans.
-_HEAD_WARNINGS = ("bom", "preamble", "no-header", "row-names", "stray-quote")
+_HEAD_WARNINGS = ("preamble", "no-header", "row-names", "stray-quote")
 _UTF8_STEP = 2**20
 
 
