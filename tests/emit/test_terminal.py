@@ -24,6 +24,8 @@ def test_demo_events_grouped_by_level_with_counts(demo_profile):
     # The overview (the first screen, before the field table) counts each level.
     assert lines[2] == "drift: 11 breaking, 6 widening, 0 info"
     assert text.index("drift: 11 breaking") < text.index("Fields")
+    # The breaking list is on the first screen: after the overview, before the field table.
+    assert text.index("breaking (11), in scan order") < text.index("widening (6)") < text.index("Fields")
     assert "Drift events (17): 11 breaking, 6 widening, 0 info" in lines
     assert lines.index("breaking (11), in scan order") < lines.index("widening (6), in scan order")
     assert "info (" not in text  # no heading for a level without events

@@ -262,18 +262,15 @@ def issues_block(profile: Profile) -> Text:
 
 
 def render(profile: Profile, console: Console, max_events: int = DEFAULT_MAX_EVENTS) -> None:
-    """The terminal summary; max_events bounds the events listed (the others are counted, and
-    the JSON report holds them all)."""
+    """The terminal summary: the overview and the drift first (the breaking changes on the
+    first screen), then the fields. max_events bounds the events listed (the others are
+    counted, and the JSON report holds them all)."""
     console.print(overview(profile))
     if any(f.dialect is not None for f in profile.files):
         console.print(dialects_block(profile), end="")
     if profile.shapes is not None:
         console.print(shapes_block(profile.shapes), end="", no_wrap=True, overflow="ignore", crop=False)
     console.print()
-    console.print(fields_table(profile))
-    console.print()
-    if formats := formats_block(profile):
-        console.print(formats)
     if profile.events:
         console.print(
             events_block(profile.events, profile.level_counts, max_events),
@@ -290,6 +287,11 @@ def render(profile: Profile, console: Console, max_events: int = DEFAULT_MAX_EVE
             )
     else:
         console.print("No drift: every batch shows the same fields and types.")
+    console.print()
+    console.print(fields_table(profile))
+    if formats := formats_block(profile):
+        console.print()
+        console.print(formats)
     notes = limit_notes(profile)
     if notes:
         console.print()
