@@ -59,7 +59,7 @@ def test_check_against_the_first_file_reports_the_changes_the_scan_reports(tmp_p
     assert from_check - from_events == {("v", "null_share_rise")}
 
 
-@pytest.mark.parametrize("case", ["partition_lacks_field", "series_never_had", "partition_nulls", "partition_type"])
+@pytest.mark.parametrize("case", ["partition-lacks-field", "series-never-had", "partition-nulls", "partition-type"])
 def test_check_reports_the_partition_kinds_under_their_policy_keys(case: str, tmp_path: Path):
     # The golden case's first file is check's baseline, as the scan's first file is the walk's;
     # every partition episode of the scan has a verdict line of its policy key on its field.

@@ -49,7 +49,7 @@ def _in(value: str) -> Callable[[str], bool]:
 
 
 def test_lacking_field_episode_matches_duckdb() -> None:
-    case = load_case(CASES / "partition_lacks_field")
+    case = load_case(CASES / "partition-lacks-field")
     rows = _duckdb_rows(case.input, "$.loyalty_id")
     uptown = _in("store=uptown")
     lacking = [(f, r) for f, r, t in rows if t is None]
@@ -72,7 +72,7 @@ def test_lacking_field_episode_matches_duckdb() -> None:
 
 
 def test_never_had_nested_field_counts_the_struct_values_duckdb_sees() -> None:
-    case = load_case(CASES / "series_never_had")
+    case = load_case(CASES / "series-never-had")
     devices = _duckdb_rows(case.input, "$.device")
     fw = _duckdb_rows(case.input, "$.device.fw")
     west = _in("region=west")
@@ -93,7 +93,7 @@ def test_never_had_nested_field_counts_the_struct_values_duckdb_sees() -> None:
 
 
 def test_nulls_in_one_partition_match_duckdb() -> None:
-    case = load_case(CASES / "partition_nulls")
+    case = load_case(CASES / "partition-nulls")
     rows = _duckdb_rows(case.input, "$.coupon")
     nulls = [(f, r) for f, r, t in rows if t == "NULL"]
     assert {f.split("/")[0] for f, _ in nulls} == {"shop=cedar"}
@@ -108,7 +108,7 @@ def test_nulls_in_one_partition_match_duckdb() -> None:
 
 
 def test_type_in_one_partition_matches_duckdb() -> None:
-    case = load_case(CASES / "partition_type")
+    case = load_case(CASES / "partition-type")
     rows = _duckdb_rows(case.input, "$.total")
     strings = [(f, r) for f, r, t in rows if t == "VARCHAR"]
     assert {f.split("/")[0] for f, _ in strings} == {"shop=cedar"}
