@@ -11,6 +11,7 @@ from __future__ import annotations
 import dataclasses as _dataclasses
 import os as _os
 from collections.abc import Callable as _Callable
+from collections.abc import Mapping as _Mapping
 from collections.abc import Sequence as _Sequence
 from pathlib import Path as _Path
 from typing import TYPE_CHECKING as _TYPE_CHECKING
@@ -260,6 +261,7 @@ class Recommendation(_RecommendationValue):
         _write_file(self, path, to, table=table, json_mode=json_mode)
 
 
+@_dataclasses.dataclass(frozen=True)
 class Landing(_LandingValue):
     """A landing root scanned dataset by dataset (driftline.scan_datasets): datasets maps each
     dataset's name to its Profile (in name order), loose lists the data files that fit no
@@ -274,6 +276,9 @@ class Landing(_LandingValue):
     >>> [(name, p.rows, sorted(p.fields)) for name, p in landing.datasets.items()], landing.rows
     ([('exports', 1, ['id', 'qty']), ('logs', 1, ['ts'])], 2)
     """
+
+    datasets: _Mapping[str, Profile]
+    whole: Profile | None = _dataclasses.field(default=None, compare=False)
 
     def write_json(self, path: str | _os.PathLike[str]) -> None:
         """Write the report set (docs/report-set.schema.json) to path, as `driftline scan ROOT
