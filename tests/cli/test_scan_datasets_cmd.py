@@ -122,9 +122,20 @@ def test_a_root_whose_own_files_are_a_table_prints_as_before_and_notes_the_rest(
     strip = re.compile(r"\d+\.\d\d s\b")
     assert strip.sub("", plain.stdout) == strip.sub("", whole.stdout)
     assert " ".join(plain.stderr.split()) == (
-        "note: read as one table, since the root's own files are one; it holds 2 datasets (., exports): "
+        "note: read as one table, as the root's own files are one; discovery sees 2 datasets in it (., exports): "
         "--dataset NAME scans one on its own"
     )
+
+
+def test_a_flat_folder_of_drifting_files_is_one_table(tmp_path: Path) -> None:
+    # Each file shares 1 of 3 names with the next (Jaccard 1/3): five lone files to discovery.
+    for i in range(5):
+        (tmp_path / f"{i}.jsonl").write_text(f'{{"id": {i}, "f{i}": 1}}\n', encoding="utf-8")
+    assert len(driftline.datasets(tmp_path).datasets) == 5
+    plain, whole = run("scan", str(tmp_path)), run("scan", str(tmp_path), "--one-table")
+    strip = re.compile(r"\d+\.\d\d s\b")
+    assert strip.sub("", plain.stdout) == strip.sub("", whole.stdout) and plain.stderr == ""
+    assert "5 files (5 jsonl), 5 rows" in plain.stdout
 
 
 def test_json_writes_the_report_set_and_html_one_page_per_dataset(work: Path, tmp_path: Path) -> None:

@@ -7,6 +7,7 @@ Every piece of data goes through safe_text and into rich Text objects (never mar
 
 from __future__ import annotations
 
+import os
 from collections import Counter
 
 from rich.console import Console
@@ -20,6 +21,7 @@ from driftline.emit.terminal import render
 from driftline.emit.units import human_bytes
 from driftline.results.landing import Landing
 from driftline.results.profile import Profile
+from driftline.sources.datasets import ROOT_NAME
 
 MAX_LOOSE_SHOWN = 50
 MAX_NOTICE_PATHS_SHOWN = 3
@@ -113,12 +115,14 @@ def render_landing(landing: Landing, console: Console, max_events: int = DEFAULT
 
 
 def one_table_note(landing: Landing) -> str:
-    """What a root read as one table also holds, when discovery found several datasets in it; ''
-    otherwise (said on stderr, so a one-table root's summary stays as it was)."""
-    if len(landing.found) < 2:
+    """What a root read as one table also holds, when discovery found datasets in folders of their
+    own in it; '' otherwise, and for a flat folder, whose lone files are its own oddities (said on
+    stderr, so a one-table root's summary stays as it was)."""
+    folders = [n for n in landing.found if n != ROOT_NAME and os.path.isdir(os.path.join(landing.root, n))]
+    if len(landing.found) < 2 or not folders:
         return ""
     names = ", ".join(safe_text(n, 60) for n in landing.found[:6]) + (" …" if len(landing.found) > 6 else "")
     return (
-        f"note: read as one table, since the root's own files are one; it holds {len(landing.found):,} "
-        f"datasets ({names}): --dataset NAME scans one on its own"
+        f"note: read as one table, as the root's own files are one; discovery sees {len(landing.found):,} "
+        f"datasets in it ({names}): --dataset NAME scans one on its own"
     )

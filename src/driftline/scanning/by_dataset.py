@@ -35,8 +35,19 @@ from driftline.sources.remote import is_url
 
 def is_one_table(layout: Layout) -> bool:
     """Whether a root reads as one table, as a scan of it always did: it holds a single dataset,
-    or its own folder is a dataset's (the dataset "."; the files beside that table are its oddities)."""
-    return len(layout.datasets) <= 1 or any(d.name == ROOT_NAME for d in layout.datasets)
+    or its own folder is a dataset's (the dataset "."; the files beside that table are its
+    oddities), or every dataset is a file directly in it (a flat folder of files, split by their
+    field names alone, is a table whose columns drift as often as it is several tables).
+
+    >>> from driftline.sources.datasets import Dataset
+    >>> def ds(name, folder): return Dataset(name, folder, (), ("jsonl",), (), ())
+    >>> is_one_table(Layout("/r", (ds("a", "a"), ds("b.parquet", ".")), (), ()))
+    False
+    >>> is_one_table(Layout("/r", (ds("a.jsonl", "."), ds("b.jsonl", ".")), (), ()))
+    True
+    """
+    names = [d.name for d in layout.datasets]
+    return len(names) <= 1 or ROOT_NAME in names or all(d.folder == ROOT_NAME for d in layout.datasets)
 
 
 def survey(options: ScanOptions) -> tuple[Discovery, Layout]:
