@@ -44,6 +44,15 @@ Examples:
 
   driftline scan a.jsonl b.csv.gz exports/ --include '*.jsonl' --exclude '_*' --batch-rows 50000
 
+A folder holding several tables (datasets: docs/datasets.md) is profiled dataset by
+dataset: an overview of the datasets and the files that fit none, then each dataset's
+summary; --json writes a report set, --html one page per dataset beside the name given.
+A folder that is one table prints as it always did.
+
+  driftline scan landing/ --dataset readings       (only that dataset; repeatable)
+
+  driftline scan landing/ --one-table              (the whole folder as one table)
+
 An output is never written over an input, nor inside a scanned folder unless
 --write-inside is given; a device, a FIFO or /dev/stdout is written into.
 
