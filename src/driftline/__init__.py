@@ -33,7 +33,19 @@ InputPathError
 
 from __future__ import annotations
 
-from driftline._api import Profile, Recommendation, check, datasets, diff, load_report, recommend, scan
+from driftline._api import (
+    Landing,
+    Profile,
+    Recommendation,
+    check,
+    datasets,
+    diff,
+    load_report,
+    load_report_set,
+    recommend,
+    scan,
+    scan_datasets,
+)
 from driftline.core.options import ReadOptions, ScanOptions
 from driftline.core.version import __version__
 from driftline.errors import (
@@ -64,6 +76,7 @@ __all__ = [
     "Event",
     "FieldSummary",
     "InputPathError",
+    "Landing",
     "OptionError",
     "OutputError",
     "Policy",
@@ -83,6 +96,8 @@ __all__ = [
     "datasets",
     "diff",
     "load_report",
+    "load_report_set",
     "recommend",
     "scan",
+    "scan_datasets",
 ]

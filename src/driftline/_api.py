@@ -11,6 +11,7 @@ from __future__ import annotations
 import dataclasses as _dataclasses
 import os as _os
 from collections.abc import Callable as _Callable
+from collections.abc import Mapping as _Mapping
 from collections.abc import Sequence as _Sequence
 from pathlib import Path as _Path
 from typing import TYPE_CHECKING as _TYPE_CHECKING
@@ -26,6 +27,7 @@ from driftline.errors import (
     InputPathError,
     SchemaConflictError,
 )
+from driftline.errors import OptionError as _OptionError
 from driftline.gate.diff import Diff
 from driftline.gate.policy import Policy
 from driftline.gate.verdict import Verdict
@@ -34,9 +36,13 @@ from driftline.recommendation import recommend as _recommend
 from driftline.recommendation.options import RecommendOptions as _RecommendOptions
 from driftline.recommendation.plan import JsonMode as _JsonMode
 from driftline.recommendation.plan import OutputFormat as _OutputFormat
+from driftline.results.landing import Landing as _LandingValue
+from driftline.results.landing import dumps_set as _dumps_set
+from driftline.results.landing import load_report_set as _load_report_set
 from driftline.results.profile import Profile as _ProfileValue
 from driftline.results.report import dumps as _dumps
 from driftline.results.report import load_report as _load_report
+from driftline.scanning.by_dataset import scan_landing as _scan_landing
 from driftline.scanning.run import scan_with as _scan_with
 from driftline.sources.datasets import Layout as _Layout
 from driftline.sources.datasets import find_datasets as _find_datasets
@@ -255,6 +261,65 @@ class Recommendation(_RecommendationValue):
         _write_file(self, path, to, table=table, json_mode=json_mode)
 
 
+@_dataclasses.dataclass(frozen=True)
+class Landing(_LandingValue):
+    """A landing root scanned dataset by dataset (driftline.scan_datasets): datasets maps each
+    dataset's name to its Profile (in name order), loose lists the data files that fit no
+    dataset (each with why), skipped what discovery passed over, notices what in the layout a
+    person should look at; found names every dataset found, read or not; rows, bytes, files
+    and event_total add up the datasets read.  write_json() writes the report set.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); (d / "exports").mkdir(); (d / "logs").mkdir()
+    >>> _ = (d / "exports" / "a.csv").write_text("id,qty\\n1,2\\n"), (d / "logs" / "a.jsonl").write_text('{"ts": 1}\\n')
+    >>> landing = driftline.scan_datasets(d)
+    >>> [(name, p.rows, sorted(p.fields)) for name, p in landing.datasets.items()], landing.rows
+    ([('exports', 1, ['id', 'qty']), ('logs', 1, ['ts'])], 2)
+    """
+
+    datasets: _Mapping[str, Profile]
+    whole: Profile | None = _dataclasses.field(default=None, compare=False)
+
+    def write_json(self, path: str | _os.PathLike[str]) -> None:
+        """Write the report set (docs/report-set.schema.json) to path, as `driftline scan ROOT
+        --json FILE` does on a root of several datasets; load_report_set reads it back equal.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); (d / "a").mkdir(); (d / "b").mkdir()
+        >>> _ = (d / "a" / "x.jsonl").write_text('{"x": 1}\\n'), (d / "b" / "y.csv").write_text("y\\n2\\n")
+        >>> landing = driftline.scan_datasets(d); out = d.parent / (d.name + ".json")
+        >>> landing.write_json(out); driftline.load_report_set(out) == landing
+        True
+        """
+        _write_output(_os.fspath(path), _dumps_set(self))
+
+
+def load_report_set(path: str | _Path) -> Landing:
+    """A Landing read back from a saved report set (`driftline scan ROOT --json FILE` on a root of
+    several datasets; docs/report-set.schema.json); load_report reads a report of one table.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); (d / "a").mkdir(); (d / "b").mkdir()
+    >>> _ = (d / "a" / "x.jsonl").write_text('{"x": 1}\\n'), (d / "b" / "y.csv").write_text("y\\n2\\n")
+    >>> out = d.parent / (d.name + ".json"); driftline.scan_datasets(d).write_json(out)
+    >>> sorted(driftline.load_report_set(out).datasets)
+    ['a', 'b']
+    """
+    return _public_landing(_load_report_set(path))
+
+
+def _public_landing(value: _LandingValue) -> Landing:
+    return Landing(
+        value.root,
+        {name: Profile._of(p) for name, p in value.datasets.items()},
+        value.loose,
+        value.skipped,
+        value.notices,
+        value.found,
+        None if value.whole is None else Profile._of(value.whole),
+    )
+
+
 def load_report(path: str | _Path) -> Profile:
     """A Profile read back from a saved JSON report (`driftline scan --json`); see results.report.load_report.
 
@@ -323,6 +388,52 @@ def scan(
 
     opts = (options or ScanOptions()).merged(paths=paths, **keywords)
     return Profile._of(conceal(_scan_with(opts, progress=progress), opts.values))
+
+
+def scan_datasets(
+    root: str | _os.PathLike[str],
+    *,
+    dataset: str | _Sequence[str] | None = None,
+    whole_if_one: bool = False,
+    options: ScanOptions | None = None,
+    progress: _Callable[[int, int, str], None] | None = None,
+    **keywords: _Unpack[_ScanKeywords],
+) -> Landing:
+    """Scan a landing root dataset by dataset: split it as driftline.datasets does, then read
+    each dataset's files into a Profile of its own, rooted at the dataset's folder (a lone
+    reference file: at the root), so that it equals driftline.scan of that folder alone.
+
+    dataset names one dataset or several to read (the others are not read; found still names
+    them); an unknown name is an OptionError listing the names the root holds. whole_if_one,
+    what `driftline scan ROOT` does: when no dataset is named and the root reads as one table
+    (a single dataset, or its own folder is a dataset's: the dataset "."), it is read whole
+    as driftline.scan(root) reads it, into Landing.whole, and datasets is empty. The read
+    options, jobs and the engine are those of scan (options and keywords); the files are
+    listed once. Raises InputPathError when root does not exist or holds no data file.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); (d / "t" / "day=1").mkdir(parents=True)
+    >>> _ = (d / "t" / "day=1" / "a.jsonl").write_text('{"x": 1}\\n'), (d / "ref.parquet").write_bytes(b"")
+    >>> _ = (d / "e").mkdir(), (d / "e" / "a.csv").write_text("id\\n7\\n")
+    >>> landing = driftline.scan_datasets(d, dataset="t")
+    >>> landing.found, [(f.rel, f.partitions) for f in landing.datasets["t"].files]
+    (('e', 't'), [('day=1/a.jsonl', (('day', '1'),))])
+    >>> [(x.file.rel, x.reason.split(":")[0]) for x in landing.loose]
+    [('ref.parquet', 'its head cannot be read')]
+    """
+    from driftline.results.conceal import conceal
+
+    if not isinstance(root, str | _os.PathLike):
+        raise _OptionError(f"scan_datasets takes one root folder, not {type(root).__name__}")
+    opts = (options or ScanOptions()).merged(paths=[root], **keywords)
+    value = _scan_landing(opts, names=dataset, whole_if_one=whole_if_one, progress=progress)
+    return _public_landing(
+        _dataclasses.replace(
+            value,
+            datasets={name: conceal(p, opts.values) for name, p in value.datasets.items()},
+            whole=None if value.whole is None else conceal(value.whole, opts.values),
+        )
+    )
 
 
 def check(

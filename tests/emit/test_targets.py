@@ -359,3 +359,29 @@ def test_two_outputs_on_one_target_are_a_usage_error(tmp_path: Path, land: Path)
         assert message in flat(res.stderr) and "Traceback" not in res.stderr, (args, res.stderr)
         assert res.stdout == ""
     assert not x.exists() and snapshot(land) == before
+
+
+def test_a_report_set_and_its_pages_inside_a_root_of_datasets_are_skipped_as_own_output(tmp_path: Path):
+    root = tmp_path / "landing"
+    (root / "a").mkdir(parents=True)
+    (root / "b").mkdir()
+    (root / "a" / "x.jsonl").write_text('{"x": 1}\n', encoding="utf-8")
+    (root / "b" / "y.csv").write_text("y,z\n2,3\n", encoding="utf-8")
+    res = run("scan", root, "--json", root / "set.json", "--html", root / "page.html", "--write-inside", "--quiet")
+    assert res.returncode == 0, res.stderr
+    assert sorted(p.name for p in root.iterdir() if p.is_file()) == ["page.a.html", "page.b.html", "set.json"]
+    again = json.loads(run("scan", root, "--json", "-", "--quiet").stdout)
+    assert again["format"] == "driftline-report-set" and list(again["datasets"]) == ["a", "b"]
+    assert sorted((s["path"], s["reason"]) for s in again["skipped"]) == [
+        ("page.a.html", "own-output"),
+        ("page.b.html", "own-output"),
+        ("set.json", "own-output"),
+    ]
+    # A dataset's page that would land on a data file (through a link) is refused before any is written.
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "page.b.html").symlink_to(root / "b" / "y.csv")
+    before = snapshot(root)
+    clash = run("scan", root, "--html", out / "page.html")
+    assert clash.returncode == 2 and "it would replace the file 'b/y.csv' of the scanned folder" in clash.stderr
+    assert not (out / "page.a.html").exists() and snapshot(root) == before

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import sys
 import time
 from pathlib import Path
@@ -16,11 +17,14 @@ from driftline.cli.read_flags import takes_read_options
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.html import write_html
+from driftline.emit.landing_text import one_table_note, render_landing
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.emit.terminal import render
-from driftline.errors import InputPathError
+from driftline.errors import InputPathError, OptionError
+from driftline.results.landing import dumps_set
 from driftline.results.report import dumps, limit_notes
+from driftline.sources.remote import is_url
 
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
@@ -39,6 +43,15 @@ Examples:
   driftline scan landing/ --json report.json
 
   driftline scan a.jsonl b.csv.gz exports/ --include '*.jsonl' --exclude '_*' --batch-rows 50000
+
+A folder holding several tables (datasets: docs/datasets.md) is profiled dataset by
+dataset: an overview of the datasets and the files that fit none, then each dataset's
+summary; --json writes a report set, --html one page per dataset beside the name given.
+A folder that is one table prints as it always did.
+
+  driftline scan landing/ --dataset readings       (only that dataset; repeatable)
+
+  driftline scan landing/ --one-table              (the whole folder as one table)
 
 An output is never written over an input, nor inside a scanned folder unless
 --write-inside is given; a device, a FIFO or /dev/stdout is written into.
@@ -98,6 +111,15 @@ def scan_command(
         help="Write a self-contained HTML report with drift charts (one file, works offline).",
     ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary (use with --json)."),
+    dataset: list[str] | None = typer.Option(
+        None,
+        "--dataset",
+        metavar="NAME",
+        help="Scan only this dataset of the root (repeatable); `driftline scan ROOT` names them.",
+    ),
+    one_table: bool = typer.Option(
+        False, "--one-table", help="Scan the whole root as one table, even when it holds several datasets."
+    ),
     write_inside: bool = typer.Option(
         False,
         WRITE_INSIDE,
@@ -115,12 +137,25 @@ def scan_command(
         write_inside=write_inside,
         include_hidden=options.include_hidden,
     )
+    if dataset and (one_table or not _one_folder(paths)):
+        raise OptionError("--dataset picks datasets of one root folder: give one folder, without --one-table")
     bar = _Bar(sys.stderr.isatty() and not quiet)
     try:
         # The verb is the library call (tests/test_cli_api_same.py).
-        profile = driftline.scan(paths, options=options, progress=bar)
+        if one_table or not _one_folder(paths):
+            profile = driftline.scan(paths, options=options, progress=bar)
+            note = ""
+        else:
+            landing = driftline.scan_datasets(
+                paths[0], dataset=dataset or None, whole_if_one=True, options=options, progress=bar
+            )
+            if landing.whole is None:
+                return _several(landing, options, json_out, html_out, quiet, write_inside)
+            profile, note = landing.whole, one_table_note(landing)
     finally:
         bar.close()
+    if note and not quiet:
+        err_console.print(note, markup=False)
     # Every file failed: the report (with the problems) is still written, then exit 2.
     failed = (
         profile.rows == 0
@@ -154,3 +189,68 @@ def scan_command(
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed ({hint})")
     if profile.rows == 0 and not profile.files:
         raise typer.Exit(EXIT_USAGE)
+
+
+def _one_folder(paths: list[str]) -> bool:
+    """Whether the scan names one local folder: the only case split into datasets."""
+    return len(paths) == 1 and not is_url(paths[0]) and os.path.isdir(paths[0])
+
+
+def _several(
+    landing: driftline.Landing,
+    options: ScanOptions,
+    json_out: str | None,
+    html_out: str | None,
+    quiet: bool,
+    write_inside: bool,
+) -> None:
+    """A root of several datasets: the report set, one HTML page per dataset, the overview then
+    each dataset's summary; exit 2 when every file of a dataset failed."""
+    pages = _pages(html_out, list(landing.datasets))
+    if pages:  # the names are known now, before anything is written
+        check_targets(
+            [("--html", page) for page in pages.values()],
+            scanned=[landing.root],
+            write_inside=write_inside,
+            include_hidden=options.include_hidden,
+        )
+    failed = [name for name, p in landing.datasets.items() if _all_failed(p)]
+    if json_out is not None:
+        write_output(json_out, dumps_set(landing))
+    for name, page in pages.items():
+        write_html(landing.datasets[name], page)
+    if quiet:
+        for name, p in landing.datasets.items():
+            for note in limit_notes(p):
+                err_console.print(f"warning: dataset {safe_text(name)}: {note}", markup=False)
+    else:
+        to_stdout = json_out is not None and is_stdout(json_out)
+        console = err_console if to_stdout or len(failed) == len(landing.datasets) else Console(highlight=False)
+        render_landing(landing, console, options.max_events)
+        if json_out is not None and not is_stdout(json_out):
+            console.print(f"report set written to {safe_text(Path(json_out))}", markup=False)
+        for page in pages.values():
+            console.print(f"HTML report written to {safe_text(Path(page))}", markup=False)
+    if failed:
+        names = ", ".join(safe_text(n) for n in failed)
+        raise InputPathError(f"nothing readable in dataset {names}: every one of its files failed")
+
+
+def _all_failed(p: driftline.Profile) -> bool:
+    return bool(p.rows == 0 and p.error_count and all(not f.rows and (f.errors or not f.observations) for f in p.files))
+
+
+def _pages(html_out: str | None, names: list[str]) -> dict[str, str]:
+    """One HTML page per dataset next to the name given: report.html → report.readings.html
+    (a dataset's '/' becomes '.'); several pages cannot share standard output."""
+    if html_out is None:
+        return {}
+    if is_stdout(html_out):
+        raise OptionError(
+            f"--html -: the root holds {len(names):,} datasets, one page each, and they cannot share standard "
+            "output; give a file name (one page per dataset is written beside it) or --dataset NAME"
+        )
+    stem, dot, suffix = html_out.rpartition(".")
+    if not dot or "/" in suffix or os.sep in suffix:
+        stem, suffix = html_out, "html"
+    return {name: f"{stem}.{name.replace('/', '.')}.{suffix}" for name in names}

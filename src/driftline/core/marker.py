@@ -31,7 +31,7 @@ import re
 MARKER = "driftline-output"
 OWN_OUTPUT = "own-output"  # the reason discovery gives for a skipped output of driftline's
 HEAD_BYTES = 4096
-OWN_JSON_FORMATS = ("report", "rules", "verdict", "diff", "state")
+OWN_JSON_FORMATS = ("report-set", "report", "rules", "verdict", "diff", "state")
 ARROW_KEY = b"driftline.rules"  # recommendation/plan.RULES_KEY: every IPC schema driftline writes has it
 _IPC_CONTINUATION = b"\xff\xff\xff\xff"
 _MAX_IPC_MESSAGE = 64 << 20  # an Arrow schema message longer than this is not one of ours

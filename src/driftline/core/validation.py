@@ -25,6 +25,7 @@ from driftline.errors import DamagedFileError
 
 SCHEMAS = {
     "report": "report.schema.json",
+    "report-set": "report-set.schema.json",
     "rules": "rules.schema.json",
     "state": "state.schema.json",
     "policy": "policy.schema.json",

@@ -253,7 +253,12 @@ def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
     docs/report.schema.json or whose values do not fit together.
     """
     if not isinstance(data, Mapping) or data.get("format") != REPORT_FORMAT:
-        raise ReportVersionError(f'{source} is not a driftline scan report (no "format": "{REPORT_FORMAT}")')
+        hint = (
+            " (it is a report set of several datasets: load_report_set reads it)"
+            if isinstance(data, Mapping) and data.get("format") == "driftline-report-set"
+            else ""
+        )
+        raise ReportVersionError(f'{source} is not a driftline scan report (no "format": "{REPORT_FORMAT}"){hint}')
     if data.get("version") != REPORT_VERSION:
         raise ReportVersionError(
             f"{source} has report version {data.get('version')!r} (at /version); this driftline reads version "

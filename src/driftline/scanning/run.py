@@ -17,7 +17,7 @@ from driftline.errors import InputPathError
 from driftline.observe.thinning import ScanThinner, cap_paths, thin_result, thin_scan
 from driftline.results.profile import Profile
 from driftline.scanning.workers import cap_jobs, run_ordered
-from driftline.sources.discover import FileRef, discover
+from driftline.sources.discover import Discovery, FileRef, discover
 from driftline.sources.readers import read_file, read_files
 from driftline.sources.registry import OBSERVED_TOGETHER, suffix_list
 from driftline.sources.remote import discover_remote, is_url
@@ -65,19 +65,31 @@ def scan_with(
     task_timeout bounds each worker task (a WorkerError or EngineError past it).
     The example values are not concealed here: driftline.scan does that (options.values).
     """
-    o = options
-    paths = o.paths
+    jobs = capped_jobs(options)
+    started = time.perf_counter()
+    found = discover_for(options)
+    return read_found(found, options, jobs, started=started, progress=progress, reuse=reuse)
+
+
+def capped_jobs(o: ScanOptions) -> int:
+    """The jobs a scan runs with: a mistyped dask address fails here, before any listing; local
+    workers are capped by the cores and memory (a warning on the "driftline" logger says so)."""
     jobs = o.jobs
     if o.engine == "dask" and o.scheduler:
         from driftline.scanning.engines import scheduler_endpoint
 
-        scheduler_endpoint(o.scheduler)  # a mistyped address fails before any listing
+        scheduler_endpoint(o.scheduler)
     if o.engine == "local" or not o.scheduler:  # workers on this machine
         jobs, why = cap_jobs(jobs)
         if why:
             logging.getLogger("driftline").warning(why)
-    opts = o.read
-    started = time.perf_counter()
+    return jobs
+
+
+def discover_for(o: ScanOptions) -> Discovery:
+    """The files options.paths name, listed as a scan lists them (local or s3://, include and
+    exclude, where); InputPathError when nothing readable is found at all."""
+    paths = o.paths
     conditions = list(o.where)
     if any(is_url(p) for p in paths):
         found = discover_remote(
@@ -104,6 +116,20 @@ def scan_with(
             f"no readable data file under {', '.join(map(str, paths))} "
             f"({_skipped_summary(found.skipped)}); formats read: {suffix_list()}, optionally compressed"
         )
+    return found
+
+
+def read_found(
+    found: Discovery,
+    o: ScanOptions,
+    jobs: int,
+    *,
+    started: float,
+    progress: Progress | None = None,
+    reuse: Callable[[FileRef], FileResult | None] | None = None,
+) -> Profile:
+    """Read the files of a discovery (jobs from capped_jobs) into a Profile rooted at found.root."""
+    opts = o.read
     read_all: Callable[..., list[FileResult]] = functools.partial(_read_all, task_timeout=o.task_timeout)
     if o.engine == "dask":
         from driftline.scanning.engines import dask_reader
