@@ -45,14 +45,15 @@ def work(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 
 def _table_rows(out: str) -> dict[str, list[str]]:
-    """The Datasets table's rows: name → the other cells."""
+    """The Datasets table's rows (under its heading rule, up to the blank line): name → the other cells."""
+    lines = out.splitlines()
+    start = next(i for i, ln in enumerate(lines) if ln.split() and ln.split()[0] == "dataset" and "files" in ln)
     rows = {}
-    for line in out.splitlines():
-        if line.startswith("│"):
-            cells = [c.strip() for c in line.strip("│").split("│")]
-            rows[cells[0]] = cells[1:]
-        if line.startswith("└"):
+    for line in lines[start + 2 :]:
+        if not line.strip():
             break
+        cells = re.split(r"\s{2,}", line.strip())
+        rows[cells[0]] = cells[1:]
     return rows
 
 
@@ -68,7 +69,7 @@ def test_the_overview_names_three_datasets_then_each_summary(work: Path) -> None
         "stations.parquet": ["1", "2", "1.0 KiB", "parquet", "–", "3", "0"],
     }
     assert "Skipped: 2 marker, 1 other-extension (_SUCCESS, depot_exports/README.txt, readings/_SUCCESS)" in out
-    headings = [ln.split(" ─")[0] for ln in out.splitlines() if ln.startswith("dataset ")]
+    headings = [ln.split(" ─")[0] for ln in out.splitlines() if ln.startswith("dataset ") and " ─" in ln]
     assert headings == ["dataset depot_exports", "dataset readings", "dataset stations.parquet"]
     # Each dataset's summary is the one a scan of its folder alone prints (its duration aside).
     alone = run("scan", "landing/readings", cwd=work).stdout

@@ -10,6 +10,7 @@ from __future__ import annotations
 import os
 from collections import Counter
 
+from rich import box
 from rich.console import Console
 from rich.rule import Rule
 from rich.table import Table
@@ -49,14 +50,25 @@ def headline(landing: Landing) -> Text:
 
 def datasets_table(landing: Landing) -> Table:
     """One line per dataset read: name, files, rows, size, formats, partition keys, fields, breaking changes."""
-    table = Table(title="Datasets", title_justify="left", show_lines=False, pad_edge=False)
-    table.add_column("dataset")
+    table = Table(
+        title="Datasets",
+        title_justify="left",
+        show_lines=False,
+        pad_edge=False,
+        show_edge=False,
+        box=box.SIMPLE_HEAD,
+        collapse_padding=True,
+    )
+    # The name is the dataset's identity (a folder path): never cut or wrapped; headings are
+    # never cut either, and the cells below them wrap on a narrow terminal.
+    width = max((len(safe_text(n)) for n in landing.datasets), default=7)
+    table.add_column("dataset", no_wrap=True, min_width=max(width, 7))
     for name in ("files", "rows", "size"):
-        table.add_column(name, justify="right")
-    table.add_column("formats")
-    table.add_column("partitions")
-    table.add_column("fields", justify="right")
-    table.add_column("breaking", justify="right")
+        table.add_column(name, justify="right", min_width=len(name))
+    table.add_column("formats", min_width=7)
+    table.add_column("partitions", min_width=10)
+    table.add_column("fields", justify="right", min_width=6)
+    table.add_column("breaking", justify="right", min_width=8)
     for name, p in landing.datasets.items():
         table.add_row(
             Text(safe_text(name)),
