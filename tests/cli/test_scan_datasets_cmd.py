@@ -139,6 +139,44 @@ def test_a_flat_folder_of_drifting_files_is_one_table(tmp_path: Path) -> None:
     assert "5 files (5 jsonl), 5 rows" in plain.stdout
 
 
+def _picker(page: str) -> tuple[list[tuple[str, str]], list[str]]:
+    """The dataset picker of a page: (href, text) of its links, and the text marked as the current page."""
+    from html.parser import HTMLParser
+
+    class Picker(HTMLParser):
+        def __init__(self) -> None:
+            super().__init__()
+            self.inside = False
+            self.tag: str | None = None
+            self.href: str | None = None
+            self.links: list[tuple[str, str]] = []
+            self.current: list[str] = []
+
+        def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+            a = dict(attrs)
+            if tag == "nav" and a.get("aria-label") == "Datasets":
+                self.inside = True
+            elif self.inside and tag == "a":
+                self.tag, self.href = "a", a.get("href")
+            elif self.inside and tag == "strong" and a.get("aria-current") == "page":
+                self.tag = "strong"
+
+        def handle_endtag(self, tag: str) -> None:
+            if tag == "nav":
+                self.inside = False
+            self.tag = None if tag in ("a", "strong") else self.tag
+
+        def handle_data(self, data: str) -> None:
+            if self.tag == "a" and self.href is not None:
+                self.links.append((self.href, data))
+            elif self.tag == "strong":
+                self.current.append(data)
+
+    parser = Picker()
+    parser.feed(page)
+    return parser.links, parser.current
+
+
 def test_json_writes_the_report_set_and_html_one_page_per_dataset(work: Path, tmp_path: Path) -> None:
     out, page = tmp_path / "set.json", tmp_path / "page.html"
     res = run("scan", "landing/", "--json", str(out), "--html", str(page), cwd=work)
@@ -150,6 +188,13 @@ def test_json_writes_the_report_set_and_html_one_page_per_dataset(work: Path, tm
     pages = sorted(p.name for p in tmp_path.glob("page.*.html"))
     assert pages == ["page.depot_exports.html", "page.readings.html", "page.stations.parquet.html"]
     assert (tmp_path / "page.readings.html").read_text(encoding="utf-8").startswith("<!-- driftline-output: ")
+    # Each page's dataset picker links the other pages by the names they were written under
+    # (they sit side by side) and marks its own; links read with Python's html.parser.
+    for name in ("depot_exports", "readings", "stations.parquet"):
+        links, current = _picker((tmp_path / f"page.{name}.html").read_text(encoding="utf-8"))
+        assert current == [name]
+        assert links == [(f"page.{o}.html", o) for o in ("depot_exports", "readings", "stations.parquet") if o != name]
+        assert all((tmp_path / href).is_file() for href, _ in links)
     assert not page.exists()
     to_stdout = run("scan", "landing/", "--html", "-", cwd=work)
     assert to_stdout.returncode == 2 and "cannot share standard output" in to_stdout.stderr

@@ -6,6 +6,7 @@ import os
 import sys
 import time
 from pathlib import Path
+from urllib.parse import quote
 
 import typer
 from rich.console import Console
@@ -218,7 +219,9 @@ def _several(
     if json_out is not None:
         write_output(json_out, dumps_set(landing))
     for name, page in pages.items():
-        write_html(landing.datasets[name], page)
+        # Each page picks among the others by their file names: they are written side by side.
+        picker = [(other, None if other == name else quote(os.path.basename(there))) for other, there in pages.items()]
+        write_html(landing.datasets[name], page, picker)
     if quiet:
         for name, p in landing.datasets.items():
             for note in limit_notes(p):

@@ -340,8 +340,12 @@ def _matrices(profile: Profile, styles: svg.Styles) -> list[dict[str, Any]]:
     return out
 
 
-def render_html(profile: Profile, *, rules: Mapping[str, FieldRule] | bool = True) -> str:
-    """The whole report as one HTML document (a str).
+def render_html(
+    profile: Profile, *, rules: Mapping[str, FieldRule] | bool = True, datasets: Sequence[tuple[str, str | None]] = ()
+) -> str:
+    """The whole report as one HTML document (a str). datasets: for a page of one dataset of a
+    root of several, every dataset's name with the address of its page (None for this page's
+    own), shown as the page's dataset picker.
 
     >>> page = render_html(Profile("r", ()))
     >>> head = page.split("</head>")[0]
@@ -404,11 +408,13 @@ def render_html(profile: Profile, *, rules: Mapping[str, FieldRule] | bool = Tru
             parts=_parts,
             count_text=_count_text,
             palette=svg.PALETTE,
+            datasets=datasets,
         )
     )
     return page
 
 
-def write_html(profile: Profile, target: str) -> None:
-    """Render the report and write it atomically to target ('-' for stdout)."""
-    write_output(target, render_html(profile))
+def write_html(profile: Profile, target: str, datasets: Sequence[tuple[str, str | None]] = ()) -> None:
+    """Render the report and write it atomically to target ('-' for stdout); datasets as for
+    render_html."""
+    write_output(target, render_html(profile, datasets=datasets))
