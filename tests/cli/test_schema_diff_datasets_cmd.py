@@ -12,6 +12,7 @@ import gzip
 import importlib.util
 import json
 import os
+import re
 import shutil
 import subprocess
 import sys
@@ -26,7 +27,7 @@ import pytest
 import driftline
 import driftline.emit.dataset_files
 import driftline.gate.dataset_diff
-from conftest import fixture_path
+from conftest import ROOT, fixture_path
 from driftline.emit.dataset_files import dataset_files
 
 EXE = [sys.executable, "-m", "driftline.cli"]
@@ -253,3 +254,29 @@ def test_diff_of_report_sets_and_the_one_table_cases(work: Path) -> None:
     blended = driftline.diff(work / "landing", work / "landing-copy" / "readings")
     assert rest["diffs"] == [{**blended.to_json(), "before": "landing/", "after": "landing-copy/readings"}]
     assert ("removed", "lat") in [(c.kind, c.path) for c in blended.changes]
+
+
+def _blocks(doc: str) -> list[list[str]]:
+    text = (ROOT / doc).read_text(encoding="utf-8")
+    return [b.split("\n")[:-1] for b in re.findall(r"^```[a-z]*\n(.*?)^```$", text, re.M | re.S)]
+
+
+def test_the_documented_commands_run_as_written(work: Path) -> None:
+    readme = next(b for b in _blocks("README.md") if b[0].startswith("driftline schema landing/ --to json-schema"))
+    datasets_doc = next(b for b in _blocks("docs/datasets.md") if b[0].startswith("driftline schema landing/"))
+    commands = [line.split("  #")[0].split() for line in readme + datasets_doc]
+    for argv in commands:
+        assert argv[0] == "driftline"
+        res = run(*argv[1:], cwd=work)
+        assert res.returncode == 0, (argv, res.stderr)
+    assert sorted(os.listdir(work / "schemas")) == [f"{n}.schema.json" for n in DATASETS]
+    assert (work / "readings.sql").read_bytes() == run("schema", "landing/readings", "--to", "sql", cwd=work).stdout
+    # docs/datasets.md shows diff's output: each line as printed (a heading's rule as long as the terminal).
+    shown = next(b for b in _blocks("docs/datasets.md") if b[0] == "driftline diff landing/ landing-copy/")
+    printed = run(*shown[0].split()[1:], cwd=work).stdout.decode().splitlines()
+    assert len(printed) == len(shown) - 1
+    for doc_line, line in zip(shown[1:], printed, strict=True):
+        if doc_line.startswith("dataset "):
+            assert line.split(" ─")[0] == doc_line.split(" ─")[0] and set(line.split(" ", 2)[2]) == {"─"}
+        else:
+            assert line == doc_line

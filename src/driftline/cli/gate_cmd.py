@@ -83,6 +83,14 @@ Examples:
   driftline diff landing/ --by day
   driftline diff a.json b.json --json -
 
+Two folders that each hold several tables (datasets: docs/datasets.md), or two report sets
+(`driftline scan ROOT --json FILE`), are compared dataset by dataset: an overall line, the
+datasets found on one side only, then each dataset's changes under a heading `dataset NAME`.
+When either side is one table, both are read as one table, as --one-table reads them.
+
+\b
+  driftline diff landing/ landing-copy/
+
 Changes listed:
 
 \b

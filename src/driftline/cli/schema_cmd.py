@@ -48,9 +48,23 @@ Examples:
 
   driftline schema report.json --to sql          (a saved `driftline scan --json` report)
 
+A folder holding several tables (datasets: docs/datasets.md) gets one schema per dataset:
+--out DIR/ (and --rules DIR/) writes one file per dataset into DIR, named after the dataset
+with '/' as '.' (readings.schema.json, crm.orders.schema.json), each equal to the file
+`driftline schema` writes for that dataset's folder alone. A file name or standard output
+takes one dataset: pick it with --dataset NAME. A folder that is one table reads as it always did.
+
+  driftline schema landing/ --to json-schema --out schemas/
+
+  driftline schema landing/ --dataset readings --to sql --out readings.sql
+
+  driftline schema landing/ --one-table --to avro       (the whole folder as one table)
+
 Exit codes: 0 done; 1 --strict and some field needs a lossy or conflicting rule (they are
-listed); 2 usage or input error (unknown --to, bad option or config, a path that does not
-exist, a report of another format version, an unwritable output).
+listed; with several datasets, the worst over them, and a conflicting dataset's files are not
+written); 2 usage or input error (unknown --to, bad option or config, a path that does not
+exist, a report of another format version, an unwritable output, several datasets and one
+output file, every file of a dataset unreadable).
 """
 
 
@@ -107,11 +121,19 @@ def schema_command(
     to: str | None = typer.Option(
         None, "--to", metavar="FORMAT", help=f"Write the schema as one of: {', '.join(FORMATS)}."
     ),
-    out: str = typer.Option("-", "--out", "-o", metavar="FILE|-", help="Where --to writes ('-' for stdout)."),
+    out: str = typer.Option(
+        "-",
+        "--out",
+        "-o",
+        metavar="FILE|DIR/|-",
+        help="Where --to writes ('-' for stdout; DIR/: one file per dataset).",
+    ),
     table: str | None = typer.Option(
         None, "--table", metavar="NAME", help="Table name (SQL) or record name (Avro); default: the root folder's name."
     ),
-    rules: str | None = typer.Option(None, "--rules", metavar="FILE|-", help="Write the cast rules as JSON."),
+    rules: str | None = typer.Option(
+        None, "--rules", metavar="FILE|DIR/|-", help="Write the cast rules as JSON (DIR/: one file per dataset)."
+    ),
     strict: bool = typer.Option(False, "--strict", help="A conflict is an error: exit 1 and list the fields."),
     prefer_decimal: bool = typer.Option(False, "--prefer-decimal", help="Decimal-looking strings become decimal(p,s)."),
     timestamp_unit: str | None = typer.Option(
