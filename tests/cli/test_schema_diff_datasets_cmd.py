@@ -280,3 +280,20 @@ def test_the_documented_commands_run_as_written(work: Path) -> None:
             assert line.split(" ─")[0] == doc_line.split(" ─")[0] and set(line.split(" ", 2)[2]) == {"─"}
         else:
             assert line == doc_line
+
+
+def test_strict_writes_the_datasets_without_conflict_and_exits_1(tmp_path: Path) -> None:
+    (tmp_path / "root" / "a").mkdir(parents=True)
+    (tmp_path / "root" / "b").mkdir()
+    # v holds a number then a word: a type conflict that strict mode refuses (docs/recommend.md).
+    (tmp_path / "root" / "a" / "x.jsonl").write_text('{"id": 1, "v": 1}\n{"id": 2, "v": "abc"}\n')
+    (tmp_path / "root" / "b" / "y.jsonl").write_text('{"k": 1}\n')
+    res = run("schema", "root", "--strict", "--to", "sql", "--out", "out/", "-q", cwd=tmp_path)
+    alone = run("schema", "root/a", "--strict", "--to", "sql", "-q", cwd=tmp_path)
+    assert (res.returncode, alone.returncode) == (1, 1)
+    assert os.listdir(tmp_path / "out") == ["b.sql"]
+    assert (tmp_path / "out" / "b.sql").read_bytes() == run("schema", "root/b", "--to", "sql", cwd=tmp_path).stdout
+    message = " ".join(alone.stderr.decode().split())
+    assert " ".join(res.stderr.decode().split()) == message.replace(
+        "SchemaConflictError: ", "SchemaConflictError: dataset a: ", 1
+    )
