@@ -297,3 +297,22 @@ def test_strict_writes_the_datasets_without_conflict_and_exits_1(tmp_path: Path)
     assert " ".join(res.stderr.decode().split()) == message.replace(
         "SchemaConflictError: ", "SchemaConflictError: dataset a: ", 1
     )
+
+
+def test_a_report_set_gives_the_same_files_as_its_root(work: Path) -> None:
+    assert run("scan", "landing/", "--json", "set-for-schema.json", "-q", cwd=work).returncode == 0
+    res = run("schema", "set-for-schema.json", "--to", "sql", "--out", "from-set/", cwd=work)
+    assert res.returncode == 0, res.stderr
+    assert run("schema", "landing/", "--to", "sql", "--out", "from-root/", "-q", cwd=work).returncode == 0
+    names = sorted(os.listdir(work / "from-set"))
+    assert names == ["depot_exports.sql", "readings.sql", "stations.parquet.sql"]
+    assert [(work / "from-set" / n).read_bytes() for n in names] == [
+        (work / "from-root" / n).read_bytes() for n in names
+    ]
+    picked = run("schema", "set-for-schema.json", "--dataset", "readings", "--to", "sql", cwd=work)
+    assert picked.stdout == (work / "from-root" / "readings.sql").read_bytes()
+    bad = run("schema", "set-for-schema.json", "--dataset", "nope", cwd=work)
+    assert bad.returncode == 2 and bad.stderr.decode().strip() == (
+        "OptionError: no dataset named 'nope' in the report set; its datasets: 'depot_exports', 'readings', "
+        "'stations.parquet'"
+    )

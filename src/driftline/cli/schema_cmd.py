@@ -14,7 +14,7 @@ import driftline
 from driftline.cli.app import EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.cli.scan_cmd import _all_failed as all_failed
-from driftline.cli.schema_datasets import Targets, by_dataset
+from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, own_descriptor, write_output
 from driftline.emit.dataset_files import is_folder_target
@@ -24,6 +24,7 @@ from driftline.emit.schemas import rules_json, summary
 from driftline.emit.schemas.files import FORMATS, schema_file
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError, OptionError, OutputError, PolicyError
+from driftline.gate.dataset_diff import is_report_set
 from driftline.recommendation import RecommendOptions, SchemaConflictError
 from driftline.sources.remote import is_url
 
@@ -117,7 +118,9 @@ def _check_out(target: str | None, what: str, *, folder_ok: bool = False) -> Non
 @handles_errors
 @takes_read_options
 def schema_command(
-    paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
+    paths: list[str] = typer.Argument(
+        ..., help="Data files, folders or globs; or one saved scan report (or report set)."
+    ),
     to: str | None = typer.Option(
         None, "--to", metavar="FORMAT", help=f"Write the schema as one of: {', '.join(FORMATS)}."
     ),
@@ -197,7 +200,8 @@ def schema_command(
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
         raise PolicyError(f"unknown --json-mode {json_mode!r}; choose permissive or strict")
-    several = not one_table and _one_folder(paths)
+    from_set = not one_table and len(paths) == 1 and is_report_set(paths[0])
+    several = not one_table and (_one_folder(paths) or from_set)
     if dataset and not several:
         raise OptionError("--dataset picks datasets of one root folder: give one folder, without --one-table")
     targets = Targets(out if to else None, rules)
@@ -229,6 +233,9 @@ def schema_command(
     if not several:
         rec = _recommended(lambda: driftline.recommend(paths, options=opts, scan_options=options), console, quiet)
         return _write_one(rec, to, targets, table, json_mode, console, quiet)
+    if from_set:  # a saved report set (`driftline scan ROOT --json FILE`): its datasets as they were read
+        landing = picked_from_set(driftline.load_report_set(paths[0]), dataset or None, options)
+        return by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths)
     # One root folder: split into datasets as `driftline scan` does (the verb is that library call).
     landing = driftline.scan_datasets(paths[0], dataset=dataset or None, whole_if_one=True, options=options)
     if landing.whole is not None:
@@ -248,7 +255,7 @@ def schema_command(
             )
         rec = _recommended(lambda: driftline.recommend(whole, options=opts), console, quiet)
         return _write_one(rec, to, targets, table, json_mode, console, quiet)
-    by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options.include_hidden)
+    by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths)
 
 
 def _one_folder(paths: list[str]) -> bool:

@@ -4,7 +4,7 @@ per dataset in the folder --out (or --rules) names, each dataset's summary under
 from __future__ import annotations
 
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import typer
@@ -15,6 +15,7 @@ from rich.text import Text
 import driftline
 from driftline.cli.app import EXIT_VIOLATION, err_console
 from driftline.cli.scan_cmd import _all_failed as all_failed
+from driftline.core.options import ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.dataset_files import dataset_files, is_folder_target
 from driftline.emit.safe import safe_text
@@ -23,6 +24,7 @@ from driftline.emit.schemas.files import schema_file
 from driftline.emit.targets import check_targets
 from driftline.errors import InputPathError, OptionError, OutputError
 from driftline.recommendation import RecommendOptions, SchemaConflictError
+from driftline.results.conceal import conceal
 
 
 @dataclass(frozen=True)
@@ -61,6 +63,22 @@ def _files(landing: driftline.Landing, to: str | None, targets: Targets) -> dict
     return files
 
 
+def picked_from_set(landing: driftline.Landing, names: list[str] | None, options: ScanOptions) -> driftline.Landing:
+    """A report set's datasets, or those named (OptionError for a name it does not hold, listing those
+    it does), their example values concealed as --example-values asks, as a saved report's are."""
+    known = list(landing.datasets)
+    unknown = [n for n in dict.fromkeys(names or ()) if n not in known]
+    if unknown:
+        listed = ", ".join(repr(n) for n in known) or "none"
+        raise OptionError(f"no dataset named {', '.join(map(repr, unknown))} in the report set; its datasets: {listed}")
+    chosen = {
+        n: driftline.Profile._of(conceal(p, options.values))
+        for n, p in landing.datasets.items()
+        if names is None or n in names
+    }
+    return replace(landing, datasets=chosen)
+
+
 def by_dataset(
     landing: driftline.Landing,
     opts: RecommendOptions,
@@ -71,7 +89,8 @@ def by_dataset(
     console: Console,
     quiet: bool,
     write_inside: bool,
-    include_hidden: bool,
+    options: ScanOptions,
+    inputs: list[str],
 ) -> None:
     """One recommendation per dataset, its files written, its summary under a heading `dataset NAME`
     (no heading for a lone dataset); exit 1 when a dataset conflicts under --strict (its files are not
@@ -85,9 +104,9 @@ def by_dataset(
         )
     check_targets(
         [(option, path) for outs in files.values() for option, _, path in outs],
-        scanned=[landing.root],
+        scanned=[landing.root, *inputs],
         write_inside=write_inside,
-        include_hidden=include_hidden,
+        include_hidden=options.include_hidden,
     )
     recs: dict[str, driftline.Recommendation] = {}
     conflicts: dict[str, SchemaConflictError] = {}
