@@ -53,7 +53,9 @@ A folder holding several tables (datasets: docs/datasets.md) gets one schema per
 --out DIR/ (and --rules DIR/) writes one file per dataset into DIR, named after the dataset
 with '/' as '.' (readings.schema.json, crm.orders.schema.json), each equal to the file
 `driftline schema` writes for that dataset's folder alone. A file name or standard output
-takes one dataset: pick it with --dataset NAME. A folder that is one table reads as it always did.
+takes one dataset: pick it with --dataset NAME. A saved report set (`driftline scan ROOT
+--json FILE` on such a folder) works as the folder does. A folder that is one table reads as
+it always did.
 
   driftline schema landing/ --to json-schema --out schemas/
 
