@@ -316,3 +316,12 @@ def test_a_report_set_gives_the_same_files_as_its_root(work: Path) -> None:
         "OptionError: no dataset named 'nope' in the report set; its datasets: 'depot_exports', 'readings', "
         "'stations.parquet'"
     )
+
+
+@pytest.mark.parametrize("extra", [[], ["--to", "json-schema"], ["--to", "sql"], ["--rules", "-"]])
+def test_the_demo_a_root_of_one_table_writes_as_before(demo_dir: Path, extra: list[str]) -> None:
+    # --one-table takes the path every schema of a folder took before datasets.
+    plain = run("schema", "landing", *extra, cwd=demo_dir)
+    whole = run("schema", "landing", "--one-table", *extra, cwd=demo_dir)
+    assert plain.returncode == whole.returncode == 0
+    assert (plain.stdout, plain.stderr) == (whole.stdout, whole.stderr)
