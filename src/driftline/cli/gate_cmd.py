@@ -18,6 +18,7 @@ from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
+from driftline.gate.dataset_diff import DatasetDiff, diff_by_dataset, render_datasets
 from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, render
 from driftline.gate.policy import ACTION_MEANING, key_help
 from driftline.gate.verdict import junit_xml
@@ -81,6 +82,14 @@ Examples:
   driftline diff yesterday-report.json landing/day=2026-11-30/
   driftline diff landing/ --by day
   driftline diff a.json b.json --json -
+
+Two folders that each hold several tables (datasets: docs/datasets.md), or two report sets
+(`driftline scan ROOT --json FILE`), are compared dataset by dataset: an overall line, the
+datasets found on one side only, then each dataset's changes under a heading `dataset NAME`.
+When either side is one table, both are read as one table, as --one-table reads them.
+
+\b
+  driftline diff landing/ landing-copy/
 
 Changes listed:
 
@@ -184,6 +193,9 @@ def diff_command(
         help="Smallest change of null share listed, in percentage points.",
     ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal output (use with --json)."),
+    one_table: bool = typer.Option(
+        False, "--one-table", help="Read each side as one table, even when both hold several datasets."
+    ),
     write_inside: bool = _INSIDE,
     *,
     options: ScanOptions,
@@ -204,7 +216,13 @@ def diff_command(
     else:
         if len(sides) != 2:
             raise InputPathError(f"diff takes two sides (reports or paths), or one with --by KEY; got {len(sides)}")
-        diffs = (driftline.diff(sides[0], sides[1], min_null_points=null_points, options=options),)
+        if one_table:
+            diffs = (driftline.diff(sides[0], sides[1], min_null_points=null_points, options=options),)
+        else:  # dataset by dataset when both sides hold several (docs/datasets.md); else as one table each
+            found = diff_by_dataset(sides[0], sides[1], min_null_points=null_points, options=options)
+            if isinstance(found, DatasetDiff):
+                return _datasets_diff(found, json_out, quiet)
+            diffs = (found,)
     if json_out is not None:
         doc = {"format": "driftline-diff", "version": 1, "by": by, "diffs": [d.to_json() for d in diffs]}
         write_output(json_out, orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
@@ -213,6 +231,19 @@ def diff_command(
         if not diffs:
             console.print(f"only one value of partition {safe_text(by)}: nothing to compare", markup=False)
         render(diffs, console)
+        if json_out is not None and not is_stdout(json_out):
+            console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)
+
+
+def _datasets_diff(found: DatasetDiff, json_out: str | None, quiet: bool) -> None:
+    """Two roots (or report sets) compared dataset by dataset: the diff document with each diff's
+    dataset and the names on one side only; the overall line, then each dataset under a heading."""
+    if json_out is not None:
+        doc = {"format": "driftline-diff", "version": 1, "by": None, **found.to_json()}
+        write_output(json_out, orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
+    if not quiet:
+        console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
+        render_datasets(found, console)
         if json_out is not None and not is_stdout(json_out):
             console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)
 

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import os
 import sys
+from collections.abc import Callable
 from pathlib import Path
 
 import typer
@@ -11,14 +13,20 @@ from rich.console import Console
 import driftline
 from driftline.cli.app import EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
+from driftline.cli.scan_cmd import _all_failed as all_failed
+from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, own_descriptor, write_output
+from driftline.emit.dataset_files import is_folder_target
+from driftline.emit.landing_text import one_table_note
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import rules_json, summary
 from driftline.emit.schemas.files import FORMATS, schema_file
 from driftline.emit.targets import WRITE_INSIDE, check_targets
-from driftline.errors import OutputError, PolicyError
+from driftline.errors import InputPathError, OptionError, OutputError, PolicyError
+from driftline.gate.dataset_diff import is_report_set
 from driftline.recommendation import RecommendOptions, SchemaConflictError
+from driftline.sources.remote import is_url
 
 SCHEMA_HELP = """Recommend one schema for files and folders (or a saved scan report), with a cast
 rule per field and what each rule would null or change, counted by the scan.
@@ -41,9 +49,25 @@ Examples:
 
   driftline schema report.json --to sql          (a saved `driftline scan --json` report)
 
+A folder holding several tables (datasets: docs/datasets.md) gets one schema per dataset:
+--out DIR/ (and --rules DIR/) writes one file per dataset into DIR, named after the dataset
+with '/' as '.' (readings.schema.json, crm.orders.schema.json), each equal to the file
+`driftline schema` writes for that dataset's folder alone. A file name or standard output
+takes one dataset: pick it with --dataset NAME. A saved report set (`driftline scan ROOT
+--json FILE` on such a folder) works as the folder does. A folder that is one table reads as
+it always did.
+
+  driftline schema landing/ --to json-schema --out schemas/
+
+  driftline schema landing/ --dataset readings --to sql --out readings.sql
+
+  driftline schema landing/ --one-table --to avro       (the whole folder as one table)
+
 Exit codes: 0 done; 1 --strict and some field needs a lossy or conflicting rule (they are
-listed); 2 usage or input error (unknown --to, bad option or config, a path that does not
-exist, a report of another format version, an unwritable output).
+listed; with several datasets, the worst over them, and a conflicting dataset's files are not
+written); 2 usage or input error (unknown --to, bad option or config, a path that does not
+exist, a report of another format version, an unwritable output, several datasets and one
+output file, every file of a dataset unreadable).
 """
 
 
@@ -75,9 +99,15 @@ def _options(
     )
 
 
-def _check_out(target: str | None, what: str) -> None:
-    """Refuse an unwritable output before any scanning is done."""
+def _check_out(target: str | None, what: str, *, folder_ok: bool = False) -> None:
+    """Refuse an unwritable output before any scanning is done (folder_ok: a folder, for one file per
+    dataset, must exist or have a parent folder that does)."""
     if target is None or target == "-" or own_descriptor(target) is not None:
+        return
+    if folder_ok and is_folder_target(target):
+        parent = Path(target).resolve().parent
+        if not Path(target).is_dir() and not parent.is_dir():
+            raise OutputError(f"cannot write into {target!r} ({what}): folder {str(parent)!r} does not exist")
         return
     folder = Path(target).resolve().parent
     if not folder.is_dir():
@@ -90,15 +120,25 @@ def _check_out(target: str | None, what: str) -> None:
 @handles_errors
 @takes_read_options
 def schema_command(
-    paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
+    paths: list[str] = typer.Argument(
+        ..., help="Data files, folders or globs; or one saved scan report (or report set)."
+    ),
     to: str | None = typer.Option(
         None, "--to", metavar="FORMAT", help=f"Write the schema as one of: {', '.join(FORMATS)}."
     ),
-    out: str = typer.Option("-", "--out", "-o", metavar="FILE|-", help="Where --to writes ('-' for stdout)."),
+    out: str = typer.Option(
+        "-",
+        "--out",
+        "-o",
+        metavar="FILE|DIR/|-",
+        help="Where --to writes ('-' for stdout; DIR/: one file per dataset).",
+    ),
     table: str | None = typer.Option(
         None, "--table", metavar="NAME", help="Table name (SQL) or record name (Avro); default: the root folder's name."
     ),
-    rules: str | None = typer.Option(None, "--rules", metavar="FILE|-", help="Write the cast rules as JSON."),
+    rules: str | None = typer.Option(
+        None, "--rules", metavar="FILE|DIR/|-", help="Write the cast rules as JSON (DIR/: one file per dataset)."
+    ),
     strict: bool = typer.Option(False, "--strict", help="A conflict is an error: exit 1 and list the fields."),
     prefer_decimal: bool = typer.Option(False, "--prefer-decimal", help="Decimal-looking strings become decimal(p,s)."),
     timestamp_unit: str | None = typer.Option(
@@ -139,6 +179,15 @@ def schema_command(
         help="JSON Schema of the data as it arrives, or after the rules (default: the --strict setting).",
     ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
+    dataset: list[str] | None = typer.Option(
+        None,
+        "--dataset",
+        metavar="NAME",
+        help="Only this dataset of the root (repeatable); `driftline scan ROOT` names them.",
+    ),
+    one_table: bool = typer.Option(
+        False, "--one-table", help="Read the whole root as one table, even when it holds several datasets."
+    ),
     write_inside: bool = typer.Option(
         False,
         WRITE_INSIDE,
@@ -153,8 +202,13 @@ def schema_command(
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
         raise PolicyError(f"unknown --json-mode {json_mode!r}; choose permissive or strict")
+    from_set = not one_table and len(paths) == 1 and is_report_set(paths[0])
+    several = not one_table and (_one_folder(paths) or from_set)
+    if dataset and not several:
+        raise OptionError("--dataset picks datasets of one root folder: give one folder, without --one-table")
+    targets = Targets(out if to else None, rules)
     check_targets(
-        [("--out", out if to else None), ("--rules", rules)],
+        [(option, None if several and is_folder_target(t) else t) for option, t in targets.given()],
         scanned=paths,
         named=[config.file],
         write_inside=write_inside,
@@ -162,8 +216,8 @@ def schema_command(
     )
     if to == "arrow" and is_stdout(out) and sys.stdout.isatty():
         raise OutputError("--to arrow writes a binary IPC message; give --out FILE (or use --to arrow-text)")
-    _check_out(out if to else None, "--out")
-    _check_out(rules, "--rules")
+    for option, target in targets.given():
+        _check_out(target, option, folder_ok=several)
     opts = _options(
         config,
         strict,
@@ -176,10 +230,47 @@ def schema_command(
         min_field_share,
         leading_zeros,
     )
-    to_stdout = (to is not None and is_stdout(out)) or (rules is not None and is_stdout(rules))
+    to_stdout = any(is_stdout(t) for _, t in targets.given())
     console = err_console if to_stdout else Console(highlight=False)
+    if not several:
+        rec = _recommended(lambda: driftline.recommend(paths, options=opts, scan_options=options), console, quiet)
+        return _write_one(rec, to, targets, table, json_mode, console, quiet)
+    if from_set:  # a saved report set (`driftline scan ROOT --json FILE`): its datasets as they were read
+        landing = picked_from_set(driftline.load_report_set(paths[0]), dataset or None, options)
+        return by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths)
+    # One root folder: split into datasets as `driftline scan` does (the verb is that library call).
+    landing = driftline.scan_datasets(paths[0], dataset=dataset or None, whole_if_one=True, options=options)
+    if landing.whole is not None:
+        for option, target in targets.given():
+            if is_folder_target(target):
+                raise OutputError(
+                    f"{option} {target!r} is a folder, for one file per dataset, but {paths[0]!r} reads as one "
+                    "table; give a file name (or --dataset NAME)"
+                )
+        note = one_table_note(landing)
+        if note and not quiet:
+            err_console.print(note, markup=False)
+        whole = landing.whole
+        if all_failed(whole):
+            raise InputPathError(
+                f"nothing readable: every one of {len(whole.files)} files failed (driftline scan shows the problems)"
+            )
+        rec = _recommended(lambda: driftline.recommend(whole, options=opts), console, quiet)
+        return _write_one(rec, to, targets, table, json_mode, console, quiet)
+    by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths)
+
+
+def _one_folder(paths: list[str]) -> bool:
+    """Whether the paths name one local folder: the only case split into datasets (as scan does)."""
+    return len(paths) == 1 and not is_url(paths[0]) and os.path.isdir(paths[0])
+
+
+def _recommended(
+    make: Callable[[], driftline.Recommendation], console: Console, quiet: bool
+) -> driftline.Recommendation:
+    """The recommendation; on a conflict in strict mode, the summary and the conflicts, then exit 1."""
     try:
-        rec = driftline.recommend(paths, options=opts, scan_options=options)
+        return make()
     except SchemaConflictError as exc:
         if not quiet:
             summary.render(exc.recommendation, console)
@@ -187,12 +278,23 @@ def schema_command(
         for plan in exc.conflicts:
             err_console.print("  " + summary.rule_line(plan), markup=False)
         raise typer.Exit(EXIT_VIOLATION) from None
-    if to is not None:
-        write_output(out, schema_file(rec, to, table=table, json_mode=json_mode))  # type: ignore[arg-type]
-    if rules is not None:
-        write_output(rules, rules_json.dumps(rec))
+
+
+def _write_one(
+    rec: driftline.Recommendation,
+    to: str | None,
+    targets: Targets,
+    table: str | None,
+    json_mode: str | None,
+    console: Console,
+    quiet: bool,
+) -> None:
+    if to is not None and targets.out is not None:
+        write_output(targets.out, schema_file(rec, to, table=table, json_mode=json_mode))  # type: ignore[arg-type]
+    if targets.rules is not None:
+        write_output(targets.rules, rules_json.dumps(rec))
     if not quiet:
         summary.render(rec, console)
-        for target, what in ((out if to else None, to), (rules, "cast rules")):
+        for target, what in ((targets.out, to), (targets.rules, "cast rules")):
             if target is not None and not is_stdout(target):
                 console.print(f"{what} written to {safe_text(target)}", markup=False)
