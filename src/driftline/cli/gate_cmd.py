@@ -20,9 +20,8 @@ from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
 from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, render
 from driftline.gate.policy import ACTION_MEANING, key_help
-from driftline.gate.verdict import junit_xml
+from driftline.gate.verdict import junit_xml, render_split
 from driftline.gate.verdict import render as render_verdict
-from driftline.gate.verdict import render_split
 
 EXIT_CODES = """Exit codes:
 

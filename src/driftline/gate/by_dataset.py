@@ -217,7 +217,7 @@ def changed_datasets(
             moved_from = prev.path if prev is not None else None
         if prev is None or prev.dataset == d.name:
             continue
-        where = f"was {moved_from} in" if moved_from else "was in"
+        where = f"was at {moved_from} in" if moved_from else "was in"
         moves.setdefault(d.name, []).append(
             Violation(
                 CHANGED_DATASET,

@@ -300,7 +300,7 @@ def render(verdict: Verdict, console: Console) -> None:
         head.append("FAIL", style="bold red")
         head.append(f"  {len(verdict.violations)} violation(s), {len(verdict.warnings)} warning(s)")
     head.append(
-        f"\nchecked {safe_text(verdict.root, None)} against {safe_text(verdict.baseline, None)}: "
+        f"\nchecked {safe_text(verdict.root, None)} against {safe_text(verdict.baseline or 'no baseline', None)}: "
         f"{c.get('files', 0)} files ({c.get('files_read', 0)} read, {c.get('files_reused', 0)} "
         f"from state), {c.get('rows', 0):,} rows, {c.get('fields', 0)} fields"
     )
