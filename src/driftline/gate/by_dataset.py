@@ -230,20 +230,28 @@ def changed_datasets(
                 file=rel,
             )
         )
-    to_loose = [
-        Violation(
-            CHANGED_DATASET,
-            action,
-            None,
-            f"dataset {was[x.file.rel].dataset} → loose",
-            f"the file {x.file.rel} was in the dataset {was[x.file.rel].dataset!r} when the state was written; "
-            f"now it fits no dataset: {x.reason}",
-            files=1,
-            file=x.file.rel,
+    to_loose = []
+    for x in layout.loose:
+        prev = was.get(x.file.rel)
+        moved_from = None
+        if prev is None:
+            prev = gone.get((os.path.basename(x.file.rel), x.file.size, x.file.mtime_ns))
+            moved_from = prev.path if prev is not None else None
+        if prev is None:
+            continue
+        where = f"was at {moved_from} in" if moved_from else "was in"
+        to_loose.append(
+            Violation(
+                CHANGED_DATASET,
+                action,
+                None,
+                f"dataset {prev.dataset} → loose",
+                f"the file {x.file.rel} {where} the dataset {prev.dataset!r} when the state was written; "
+                f"now it fits no dataset: {x.reason}",
+                files=1,
+                file=x.file.rel,
+            )
         )
-        for x in layout.loose
-        if x.file.rel in was
-    ]
     return moves, to_loose
 
 
