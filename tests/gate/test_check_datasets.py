@@ -6,9 +6,12 @@ The layouts come from tests/fixtures/datasets/make_layouts.py (their datasets: e
 
 from __future__ import annotations
 
+import doctest
+import importlib
 import importlib.util
 import json
 import os
+import re
 import xml.etree.ElementTree as ET
 from pathlib import Path
 from typing import Any
@@ -16,8 +19,9 @@ from typing import Any
 import pytest
 
 import driftline
-from conftest import fixture_path
-from driftline.gate.baselines import assign, file_stem
+from conftest import ROOT, fixture_path
+from driftline.gate.baselines import assign, file_stem, load_dataset_rules
+from driftline.gate.policy import load_policy
 from driftline.gate.verdict import junit_xml
 
 
@@ -164,3 +168,26 @@ def test_a_one_table_state_and_a_per_dataset_state_never_mix(tmp_path: Path) -> 
     assert sorted({f["dataset"]["name"] for f in doc["files"]}) == ["depot_exports", "readings"]
     again = driftline.check(root, baseline=schema, one_table=True, state=state, jobs=1)
     assert (again.counts["files_read"], again.counts["files_reused"]) == (8, 0)
+
+
+def test_the_documented_policy_tables_load(tmp_path: Path) -> None:
+    text = (ROOT / "docs" / "gate.md").read_text(encoding="utf-8")
+    toml = next(b for b in re.findall(r"```toml\n(.*?)```", text, re.S) if "[baselines]" in b)
+    (tmp_path / "gate.toml").write_text(toml, encoding="utf-8")
+    assert load_policy(tmp_path / "gate.toml") == driftline.Policy()  # the tables leave the flat keys alone
+    rules = load_dataset_rules(tmp_path / "gate.toml")
+    assert dict(rules.baselines) == {
+        "readings": str(tmp_path / "contracts" / "readings.schema.json"),
+        "depot_exports": str(tmp_path / "contracts" / "depot_exports.report.json"),
+        "stations.parquet": str(tmp_path / "contracts" / "stations.rules.json"),
+        "crm/orders": str(tmp_path / "contracts" / "orders.schema.json"),
+    }
+    assert (rules.no_baseline, rules.changed_dataset) == ("warn", "warn")
+    (tmp_path / "bad.toml").write_text("[baselines]\nreadings = 3\n", encoding="utf-8")
+    with pytest.raises(driftline.DamagedFileError, match="/baselines/readings"):
+        load_policy(tmp_path / "bad.toml")
+
+
+def test_the_examples_of_the_baselines_module_run() -> None:
+    result = doctest.testmod(importlib.import_module("driftline.gate.baselines"), optionflags=doctest.ELLIPSIS)
+    assert result.failed == 0 and result.attempted > 0
