@@ -315,6 +315,8 @@ def test_the_documented_check_commands_run_as_written(work: Path) -> None:
     assert block == _check_block((ROOT / "docs" / "gate.md").read_text(encoding="utf-8"))
     commands = [ln.split("  #")[0].strip() for ln in block.splitlines() if ln.startswith("driftline ")]
     assert len(commands) == 3
+    helped = run("check", "--help").stdout
+    assert set(commands) <= {ln.strip() for ln in helped.splitlines()}, helped  # --help shows the same commands
     codes = [run(*cmd.split()[1:], cwd=work).returncode for cmd in commands]
     # every dataset passes; readings alone passes; the root as one table fails (the CSV rows lack readings' fields)
     assert codes == [0, 0, 1]

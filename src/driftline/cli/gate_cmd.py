@@ -71,8 +71,8 @@ that is one table is checked against --baseline FILE as before.
 
 \b
   driftline check landing/ --baseline baselines/
-  driftline check landing/ --baseline readings.schema.json --dataset readings
-  driftline check landing/ --baseline landing.schema.json --one-table
+  driftline check landing/ --baseline baselines/readings.schema.json --dataset readings
+  driftline check landing/ --baseline baselines/readings.schema.json --one-table
 
 {_policy_table()}
 With --state FILE only new or changed files are read (same relative path, size and
