@@ -53,10 +53,10 @@ class DatasetRules:
     baselines: Mapping[str, str] = field(default_factory=dict)
     no_baseline: str = "warn"
     changed_dataset: str = "warn"
-    source: str = ""  # the policy file, when there is one
+    source: str = ""  # the policy file (its path), when there is one
 
 
-def dataset_rules(data: Mapping[str, Any], *, folder: str, source: str) -> DatasetRules:
+def dataset_rules(data: Mapping[str, Any], *, folder: str, source: str, path: str = "") -> DatasetRules:
     """The [baselines] and [datasets] tables of a parsed policy file (the schema checked them)."""
     table = data.get("baselines", {})
     baselines = {str(k): os.path.join(folder, str(v)) for k, v in table.items()}
@@ -72,7 +72,7 @@ def dataset_rules(data: Mapping[str, Any], *, folder: str, source: str) -> Datas
         baselines,
         switches.get("no_baseline", "warn"),
         switches.get("changed_dataset", "warn"),
-        source,
+        path,
     )
 
 
@@ -85,7 +85,7 @@ def load_dataset_rules(path: str | os.PathLike[str]) -> DatasetRules:
     data.pop("output", None)
     source = f"policy file {os.fspath(path)!r}"
     check_document(data, "policy", "policy file", repr(os.fspath(path)))
-    return dataset_rules(data, folder=os.path.dirname(os.path.abspath(path)), source=source)
+    return dataset_rules(data, folder=os.path.dirname(os.path.abspath(path)), source=source, path=os.fspath(path))
 
 
 @dataclass(frozen=True, slots=True)

@@ -17,6 +17,7 @@ import os
 import time
 from collections.abc import Mapping, Sequence
 
+from driftline.core.files import FileResult
 from driftline.core.options import ScanOptions
 from driftline.core.valuepolicy import ValuePolicy
 from driftline.emit.atomic import write_output
@@ -88,7 +89,7 @@ def check_layout(
     for d in chosen:
         reused: set[str] = set()
 
-        def reuse(ref: FileRef, d: Dataset = d, reused: set[str] = reused) -> object:
+        def reuse(ref: FileRef, d: Dataset = d, reused: set[str] = reused) -> FileResult | None:
             prev = kept.get((d.name, ref.rel))
             if prev is None or prev.path != root_path(d, ref.rel) or not unchanged(prev.result, ref, verify=verify):
                 return None
@@ -102,7 +103,7 @@ def check_layout(
             jobs,
             started=began,
             progress=_offset(progress, done, total),
-            reuse=reuse if state is not None else None,  # type: ignore[arg-type]
+            reuse=reuse if state is not None else None,
         )
         done += len(d.files)
         if state is not None:

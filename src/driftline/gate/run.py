@@ -30,6 +30,7 @@ from driftline.results.conceal import conceal
 from driftline.results.profile import Profile
 from driftline.scanning.by_dataset import is_one_table, picked, survey
 from driftline.scanning.run import Progress
+from driftline.sources.datasets import Layout
 from driftline.sources.remote import is_url
 
 
@@ -85,28 +86,10 @@ def run_check(
                 "give one baseline file"
             )
     else:
-        found, layout = survey(opts.merged(paths=[items[0]]))
+        _, layout = survey(opts.merged(paths=[items[0]]))
         if per_dataset or dataset is not None or not is_one_table(layout):
-            if not per_dataset and dataset is None:
-                names = ", ".join(repr(d.name) for d in layout.datasets)
-                raise OptionError(
-                    f"{os.fspath(items[0])!r} holds {len(layout.datasets):,} datasets ({names}) and "
-                    f"{os.fspath(baseline)!r} is one baseline: give --baseline a folder with one baseline per "  # type: ignore[arg-type]
-                    "dataset (<dataset>.schema.json, '/' in a name as '.'), a [baselines] table in the policy "
-                    "file, --dataset NAME to check one dataset, or --one-table to check the root as one table"
-                )
             chosen = picked(layout, dataset)
-            found_names = [d.name for d in layout.datasets]
-            names_chosen = [d.name for d in chosen]
-            if isinstance(baseline, Mapping):
-                assigned = assign(names_chosen, found_names, mapping={k: os.fspath(v) for k, v in baseline.items()})
-            elif baseline is None:
-                assigned = assign(names_chosen, found_names, mapping=rules.baselines, source=rules.source)
-            elif os.path.isdir(baseline):  # type: ignore[arg-type]
-                assigned = assign(names_chosen, found_names, folder=os.fspath(baseline))  # type: ignore[arg-type]
-            else:
-                one = os.fspath(baseline)  # type: ignore[arg-type]
-                assigned = Assigned({n: one for n in names_chosen}, (), one)
+            assigned = _assigned(baseline, rules, [d.name for d in chosen], layout, os.fspath(items[0]), dataset)
             verdict, note = check_layout(
                 layout,
                 chosen,
@@ -148,6 +131,36 @@ def run_check(
     _log(note)
     profile = conceal(profile, values)
     return compare(profile, base, pol, counts=counts), note
+
+
+def _assigned(
+    baseline: Baseline | str | os.PathLike[str] | Mapping[str, str | os.PathLike[str]] | None,
+    rules: DatasetRules,
+    names: list[str],
+    layout: Layout,
+    root: str,
+    dataset: str | Sequence[str] | None,
+) -> Assigned:
+    """Each chosen dataset's baseline: from a mapping, the policy's [baselines] table, a folder, or
+    one file for each dataset picked; OptionError for one baseline on a root of several datasets."""
+    found = [d.name for d in layout.datasets]
+    if isinstance(baseline, Mapping):
+        return assign(names, found, mapping={k: os.fspath(v) for k, v in baseline.items()})
+    if baseline is None:
+        return assign(names, found, mapping=rules.baselines, source=rules.source)
+    if isinstance(baseline, Baseline):
+        raise OptionError("a Baseline value is one baseline; a root of several datasets needs a baseline per dataset")
+    if os.path.isdir(baseline):
+        return assign(names, found, folder=os.fspath(baseline))
+    if dataset is None:
+        listed = ", ".join(repr(n) for n in found)
+        raise OptionError(
+            f"{root!r} holds {len(found):,} datasets ({listed}) and {os.fspath(baseline)!r} is one baseline: give "
+            "--baseline a folder with one baseline per dataset (<dataset>.schema.json, '/' in a name as '.'), a "
+            "[baselines] table in the policy file, --dataset NAME to check one dataset, or --one-table to check "
+            "the root as one table"
+        )
+    return Assigned(dict.fromkeys(names, os.fspath(baseline)), (), os.fspath(baseline))
 
 
 def _log(note: str | None) -> None:
