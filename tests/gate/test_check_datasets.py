@@ -191,3 +191,15 @@ def test_the_documented_policy_tables_load(tmp_path: Path) -> None:
 def test_the_examples_of_the_baselines_module_run() -> None:
     result = doctest.testmod(importlib.import_module("driftline.gate.baselines"), optionflags=doctest.ELLIPSIS)
     assert result.failed == 0 and result.attempted > 0
+
+
+def test_a_roots_own_table_takes_the_baseline_named_after_its_folder(tmp_path: Path) -> None:
+    root = _layout(tmp_path, "done_when")
+    folder = tmp_path / "b"
+    folder.mkdir()
+    _schema(folder / "readings.schema.json", {"station_id": "string", "ts": "string", "temp_c": "number"})
+    _schema(folder / "depot_exports.schema.json", {"depot": "string"})
+    v = driftline.check(root / "readings", baseline=folder, jobs=1)
+    assert list(v.datasets) == ["."] and v.datasets["."].baseline == str(folder / "readings.schema.json")
+    assert v.datasets["."].counts["rows"] == 12 and v.passed
+    assert [(x.rule, x.change) for x in v.warnings] == [("unknown_dataset", "baseline for 'depot_exports'")]

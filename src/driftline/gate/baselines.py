@@ -2,7 +2,8 @@
 
 The naming rule (docs/gate.md, "A root of several datasets"): a dataset's baseline in a folder
 is the file `<stem><suffix>`, where the stem is the dataset's name with each `/` written as `.`
-(`readings`, `crm.orders`, `stations.parquet`) and the suffix names the kind: `.schema.json`
+(`readings`, `crm.orders`, `stations.parquet`; the dataset `.`, a root's own files, is named
+after the root's folder) and the suffix names the kind: `.schema.json`
 (a JSON Schema), `.rules.json` (a cast-rules file) or `.report.json` (a saved scan report).
 The file's kind is still told from its content, as for one baseline file.
 
@@ -39,9 +40,10 @@ NO_BASELINE = ("warn", "fail")
 CHANGED_DATASET = ("allow", "warn", "fail")
 
 
-def file_stem(name: str) -> str:
-    """A dataset's name as the stem of its files: each '/' becomes '.'."""
-    return name.replace("/", ".")
+def file_stem(name: str, root_name: str = ".") -> str:
+    """A dataset's name as the stem of its files: each '/' becomes '.'; the dataset '.' (a root's
+    own files) is named after the root's folder (root_name)."""
+    return root_name if name == "." else name.replace("/", ".")
 
 
 @dataclass(frozen=True, slots=True)
@@ -127,6 +129,7 @@ def assign(
     folder: str | None = None,
     mapping: Mapping[str, str] | None = None,
     source: str = "",
+    root_name: str = ".",
 ) -> Assigned:
     """The baseline of each dataset named (names), from a folder (by the naming rule) or a mapping
     (by name); the baselines naming none of the datasets found in the root are unmatched.
@@ -139,14 +142,14 @@ def assign(
         files = folder_baselines(folder)
         stems: dict[str, list[str]] = {}
         for n in found:
-            stems.setdefault(file_stem(n), []).append(n)
+            stems.setdefault(file_stem(n, root_name), []).append(n)
         clash = next((ns for ns in stems.values() if len(ns) > 1), None)
         if clash is not None:
             raise OptionError(
-                f"datasets {', '.join(map(repr, clash))} share the baseline file name {file_stem(clash[0])!r}: "
-                "name their baselines in the policy file's [baselines] table instead"
+                f"datasets {', '.join(map(repr, clash))} share the baseline file name "
+                f"{file_stem(clash[0], root_name)!r}: name their baselines in the policy file's [baselines] table"
             )
-        chosen: dict[str, str | None] = {n: files.get(file_stem(n)) for n in names}
+        chosen: dict[str, str | None] = {n: files.get(file_stem(n, root_name)) for n in names}
         unmatched = tuple((stem, path) for stem, path in files.items() if stem not in stems)
         return Assigned(chosen, unmatched, folder)
     table = dict(mapping or {})

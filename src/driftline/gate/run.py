@@ -151,7 +151,7 @@ def _assigned(
     if isinstance(baseline, Baseline):
         raise OptionError("a Baseline value is one baseline; a root of several datasets needs a baseline per dataset")
     if os.path.isdir(baseline):
-        return assign(names, found, folder=os.fspath(baseline))
+        return assign(names, found, folder=os.fspath(baseline), root_name=os.path.basename(os.path.abspath(root)))
     if dataset is None:
         listed = ", ".join(repr(n) for n in found)
         raise OptionError(

@@ -155,7 +155,7 @@ class Verdict:
                 **{s: statuses.count(s) for s in ("passed", "warned", "failed")},
                 **dict(self.counts),
             },
-            "datasets": {name: {"status": dataset_status(v), **v.to_json()} for name, v in self.datasets.items()},
+            "datasets": {name: {**v.to_json(), "status": dataset_status(v)} for name, v in self.datasets.items()},
             "violations": [v.to_json() for v in self.violations],
             "warnings": [v.to_json() for v in self.warnings],
             "allowed": [v.to_json() for v in self.allowed],
