@@ -320,3 +320,10 @@ def test_the_documented_check_commands_run_as_written(work: Path) -> None:
     codes = [run(*cmd.split()[1:], cwd=work).returncode for cmd in commands]
     # every dataset passes; readings alone passes; the root as one table fails (the CSV rows lack readings' fields)
     assert codes == [0, 0, 1]
+
+
+def test_an_output_never_replaces_a_baseline_of_the_folder(work: Path) -> None:
+    before = (work / "baselines" / "readings.schema.json").read_bytes()
+    res = run("check", "landing/", "-b", "baselines/", "--json", "baselines/readings.schema.json", cwd=work)
+    assert res.returncode == 2 and "an input of this run" in res.stderr
+    assert (work / "baselines" / "readings.schema.json").read_bytes() == before

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import sys
 from pathlib import Path
 
@@ -18,6 +19,7 @@ from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
+from driftline.gate.baselines import folder_baselines
 from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, render
 from driftline.gate.policy import ACTION_MEANING, key_help
 from driftline.gate.verdict import junit_xml, render_split
@@ -165,7 +167,7 @@ def check_command(
     check_targets(
         [("--json", json_out), ("--junit", junit), ("--state", state)],
         scanned=paths,
-        named=[baseline, policy, config.file],
+        named=[baseline, policy, config.file, *_baseline_files(baseline)],
         write_inside=write_inside,
         include_hidden=options.include_hidden,
     )
@@ -196,6 +198,11 @@ def check_command(
         console = err_console if to_stdout else Console(highlight=False)
         (render_split if verdict.split else render_verdict)(verdict, console)
     raise typer.Exit(verdict.exit_code)
+
+
+def _baseline_files(baseline: str | None) -> list[str]:
+    """The baseline files of a folder of baselines (one per dataset): inputs no output may replace."""
+    return list(folder_baselines(baseline).values()) if baseline is not None and os.path.isdir(baseline) else []
 
 
 @app.command("diff", help=DIFF_HELP, no_args_is_help=True)
