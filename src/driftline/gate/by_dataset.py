@@ -121,8 +121,6 @@ def check_layout(
             if base is not None
             else _no_baseline(profile, d.name, assigned.source, rules, counts)
         )
-        if base is not None:
-            verdicts[d.name] = dataclasses.replace(verdicts[d.name], baseline=str(assigned.baselines[d.name]))
     root_findings: list[Violation] = [
         Violation(
             UNKNOWN_DATASET,
