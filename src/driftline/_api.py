@@ -439,12 +439,14 @@ def scan_datasets(
 def check(
     paths: str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]] | Profile,
     *,
-    baseline: str | _os.PathLike[str],
+    baseline: str | _os.PathLike[str] | _Mapping[str, str | _os.PathLike[str]] | None = None,
     policy: Policy | str | _os.PathLike[str] | None = None,
     state: str | _os.PathLike[str] | None = None,
     verify: bool = False,
     rebuild: bool = False,
     write_inside: bool = False,
+    dataset: str | _Sequence[str] | None = None,
+    one_table: bool = False,
     options: ScanOptions | None = None,
     progress: _Callable[[int, int, str], None] | None = None,
     **keywords: _Unpack[_ScanKeywords],
@@ -458,6 +460,14 @@ def check(
     with the read options of scan (options and keywords, example_values included: the
     verdict's examples). Verdict.passed / Verdict.exit_code say whether the gate passes
     (docs/gate.md). A note (a damaged state set aside) goes to the "driftline" logger.
+
+    A root folder of several datasets (driftline.datasets) is checked dataset by dataset when
+    baseline is a folder of baselines (<dataset>.schema.json, .rules.json or .report.json; a
+    '/' in a dataset's name as '.'), a mapping of dataset name → baseline file, or None with a
+    policy file whose [baselines] table names them; dataset picks some (one baseline file then
+    serves each). The Verdict then holds one verdict per dataset in Verdict.datasets and is the
+    overall one (passed when each passed). One baseline file on a root of several datasets is
+    an OptionError unless one_table (the root as one table, as before) or dataset is given.
 
     >>> import driftline, tempfile, pathlib, json
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": "1"}\\n')
@@ -479,6 +489,8 @@ def check(
         options=(options or ScanOptions()).merged(**keywords),
         progress=progress,
         write_inside=write_inside,
+        dataset=dataset,
+        one_table=one_table,
     )
     return verdict
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import sys
 from pathlib import Path
 
@@ -18,10 +19,11 @@ from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
+from driftline.gate.baselines import folder_baselines
 from driftline.gate.dataset_diff import DatasetDiff, diff_by_dataset, render_datasets
 from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, render
 from driftline.gate.policy import ACTION_MEANING, key_help
-from driftline.gate.verdict import junit_xml
+from driftline.gate.verdict import junit_xml, render_split
 from driftline.gate.verdict import render as render_verdict
 
 EXIT_CODES = """Exit codes:
@@ -61,11 +63,27 @@ Examples:
   driftline check landing/ --baseline contract.schema.json --policy gate.toml
   driftline check landing/ --baseline contract.schema.json --state .driftline-state --junit gate.xml
 
+A folder holding several tables (datasets: docs/datasets.md) is checked dataset by dataset
+against one baseline per dataset: --baseline DIR holds <dataset>.schema.json,
+<dataset>.rules.json or <dataset>.report.json (a '/' in a dataset's name written '.'), or
+the policy file names them in a [baselines] table. Each dataset gets its verdict under a
+heading, then the overall one (the worst); --json writes a verdict set, --junit one
+testsuite per dataset. A dataset no baseline names is a warning ([datasets] no_baseline =
+"fail" makes it a failure); a baseline naming no dataset of the root is a warning. A root
+that is one table is checked against --baseline FILE as before.
+
+\b
+  driftline check landing/ --baseline baselines/
+  driftline check landing/ --baseline baselines/readings.schema.json --dataset readings
+  driftline check landing/ --baseline baselines/readings.schema.json --one-table
+
 {_policy_table()}
 With --state FILE only new or changed files are read (same relative path, size and
 modification time; with --verify also the same content hash); removed files drop out.
 The result equals a full rescan. A damaged state file is set aside (<name>.damaged) and
 every file is read again, with a warning; a foreign one is an error; --rebuild starts over.
+Checked dataset by dataset, the state records each file's dataset, and a file found in
+another dataset than before (or among the loose files) is reported: changed_dataset.
 
 {EXIT_CODES}"""
 
@@ -113,12 +131,14 @@ _INSIDE = typer.Option(
 @takes_read_options
 def check_command(
     paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
-    baseline: str = typer.Option(
-        ...,
+    baseline: str | None = typer.Option(
+        None,
         "--baseline",
         "-b",
-        metavar="FILE",
-        help="JSON Schema, cast-rules file or saved scan report to check against.",
+        metavar="FILE|DIR",
+        help="JSON Schema, cast-rules file or saved scan report to check against; for a root of several "
+        "datasets, a folder of one baseline per dataset (<dataset>.schema.json, '/' in a name as '.'). "
+        "Without it, the policy file's [baselines] table.",
     ),
     policy: str | None = typer.Option(
         None,
@@ -138,6 +158,15 @@ def check_command(
     rebuild: bool = typer.Option(False, "--rebuild", help="With --state: ignore the old state and start over."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary; only the exit code and files."),
     write_inside: bool = _INSIDE,
+    dataset: list[str] | None = typer.Option(
+        None,
+        "--dataset",
+        metavar="NAME",
+        help="Check only this dataset of the root (repeatable); `driftline scan ROOT` names them.",
+    ),
+    one_table: bool = typer.Option(
+        False, "--one-table", help="Check the whole root as one table, even when it holds several datasets."
+    ),
     *,
     options: ScanOptions,
     config: Config,
@@ -147,7 +176,7 @@ def check_command(
     check_targets(
         [("--json", json_out), ("--junit", junit), ("--state", state)],
         scanned=paths,
-        named=[baseline, policy, config.file],
+        named=[baseline, policy, config.file, *_baseline_files(baseline)],
         write_inside=write_inside,
         include_hidden=options.include_hidden,
     )
@@ -162,6 +191,8 @@ def check_command(
             verify=verify,
             rebuild=rebuild,
             write_inside=write_inside,
+            dataset=dataset or None,
+            one_table=one_table,
             options=options,
             progress=bar,
         )
@@ -174,8 +205,13 @@ def check_command(
     if not quiet:
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, junit))
         console = err_console if to_stdout else Console(highlight=False)
-        render_verdict(verdict, console)
+        (render_split if verdict.split else render_verdict)(verdict, console)
     raise typer.Exit(verdict.exit_code)
+
+
+def _baseline_files(baseline: str | None) -> list[str]:
+    """The baseline files of a folder of baselines (one per dataset): inputs no output may replace."""
+    return list(folder_baselines(baseline).values()) if baseline is not None and os.path.isdir(baseline) else []
 
 
 @app.command("diff", help=DIFF_HELP, no_args_is_help=True)

@@ -90,6 +90,8 @@ def rule_of_event(kind: str, level: str, *, required: bool = True) -> str:
     return rule
 
 
+DATASET_TABLES = ("baselines", "datasets")  # the policy file's tables for a root of several datasets
+
 _THRESHOLDS: dict[str, tuple[type, float, float, str]] = {
     # key: (type, lowest, highest, unit); the rule it limits is the key without "max_"
     "max_null_share_rise": (float, 0.0, 100.0, "percentage points"),
@@ -215,12 +217,14 @@ def load_policy(path: str | Path) -> Policy:
     except tomllib.TOMLDecodeError as exc:
         raise PolicyError(f"policy file {str(path)!r} is not valid TOML: {exc}") from None
     data.pop("output", None)  # the [output] table: how examples are shown (driftline.core.valuepolicy.output_values)
-    tables = [k for k, v in data.items() if isinstance(v, dict)]
+    # [baselines] and [datasets]: a root of several datasets (gate/baselines.py reads them)
+    tables = [k for k, v in data.items() if isinstance(v, dict) and k not in DATASET_TABLES]
     if tables:
         raise PolicyError(
             f"policy file {str(path)!r} at {pointer([tables[0]])}: unknown policy key {tables[0]!r} (a table); "
             f"policy keys are flat, one per line; allowed keys: {', '.join(keys())}"
         )
-    policy = policy_from_mapping(data, source=f"policy file {str(path)!r}")
+    flat = {k: v for k, v in data.items() if not (k in DATASET_TABLES and isinstance(v, dict))}
+    policy = policy_from_mapping(flat, source=f"policy file {str(path)!r}")
     check_document(data, "policy", "policy file", repr(str(path)))  # docs/policy.schema.json
     return policy

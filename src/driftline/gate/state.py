@@ -53,11 +53,26 @@ DIGEST = "blake2b-128"
 
 @dataclass(frozen=True)
 class State:
-    """A loaded state: the root it was made for, its read options and per-file results."""
+    """A loaded state: the root it was made for, its read options and per-file results.
+
+    files holds the entries of a root checked as one table (by relative path); placed those of
+    a root checked dataset by dataset, each with its dataset and its path relative to the root
+    (the entry's own path is relative to the dataset's folder, as the dataset's profile has it).
+    """
 
     root: str
     read: Mapping[str, Any]
     files: Mapping[str, FileResult]
+    placed: tuple[Placed, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Placed:
+    """A state entry of a root checked dataset by dataset: the file's dataset and root-relative path."""
+
+    dataset: str
+    path: str  # relative to the root
+    result: FileResult  # rel relative to the dataset's folder
 
 
 @dataclass(frozen=True)
@@ -139,7 +154,13 @@ def load_state(path: str | Path) -> State | None:
     results = files_from_json(
         data["files"], "state file", source, lambda fd: dataclasses.replace(file_from_json(fd), digest=fd["digest"])
     )
-    return State(data["root"], data["read"], {f.rel: f for f in results})
+    whole = {f.rel: f for f, fd in zip(results, data["files"], strict=True) if "dataset" not in fd}
+    placed = tuple(
+        Placed(fd["dataset"]["name"], fd["dataset"]["path"], f)
+        for f, fd in zip(results, data["files"], strict=True)
+        if "dataset" in fd
+    )
+    return State(data["root"], data["read"], whole, placed)
 
 
 def set_aside(path: str) -> str:
@@ -156,16 +177,73 @@ def state_bytes(profile: Profile, opts: ReadOptions, *, verify: bool) -> bytes:
         entry = file_json(f)
         entry["digest"] = f.digest if verify else None
         files.append(entry)
+    return _state_doc(profile.root, files, opts, verify=verify)
+
+
+def placed_state_bytes(root: str, placed: Sequence[Placed], opts: ReadOptions, *, verify: bool) -> bytes:
+    """The state file's content for a root checked dataset by dataset: each entry with its dataset."""
+    files = []
+    for p in placed:
+        entry = file_json(p.result)
+        entry["digest"] = p.result.digest if verify else None
+        entry["dataset"] = {"name": p.dataset, "path": p.path}
+        files.append(entry)
+    return _state_doc(root, files, opts, verify=verify)
+
+
+def _state_doc(root: str, files: list[dict[str, Any]], opts: ReadOptions, *, verify: bool) -> bytes:
     doc = {
         "format": STATE_FORMAT,
         "version": STATE_VERSION,
         "tool": {"name": "driftline", "version": __version__},
-        "root": profile.root,
+        "root": root,
         "read": _read_options_json(opts),
         "digest": DIGEST if verify else None,
         "files": files,
     }
     return jsonnum.dumps(doc, option=orjson.OPT_NON_STR_KEYS) + b"\n"
+
+
+def open_state(state_path: str, opts: ReadOptions, *, rebuild: bool) -> tuple[State | None, str | None]:
+    """The state to reuse (None: read every file) and a note: a damaged state set aside, or read
+    options changed since it was written."""
+    note = None
+    try:
+        state = None if rebuild else load_state(state_path)
+    except DamagedFileError as exc:
+        # A damaged state costs a full rescan, never a wrong result and never a stop.
+        try:
+            aside = set_aside(state_path)
+        except OSError as err:
+            raise InputPathError(f"{exc}; it cannot be set aside ({err.strerror}); remove it, or --rebuild") from None
+        note = f"warning: {exc}; it was set aside as {aside!r} and every file is read again"
+        state = None
+    if state is not None and dict(state.read) != _read_options_json(opts):
+        note = "the read options changed since the state was written; every file is read again"
+        state = None
+    return state, note
+
+
+def unchanged(prev: FileResult, ref: FileRef, *, verify: bool) -> bool:
+    """Whether a state's result still holds for a listed file: read to the end, and the same size,
+    modification time, format, compression and partitions (with verify, the same content hash)."""
+    if not prev.complete:
+        return False  # a read cut short (permissions, a failing disk) may go through now
+    if (prev.size, prev.mtime_ns, prev.format, prev.compression, prev.partitions) != (
+        ref.size,
+        ref.mtime_ns,
+        ref.format,
+        ref.compression,
+        ref.partitions,
+    ):
+        return False
+    if verify:
+        try:
+            digest = file_digest(ref.path)
+        except OSError:
+            return False  # unreadable now: reading it reports why
+        return prev.digest == digest
+    return True
 
 
 def scan_incremental(
@@ -204,20 +282,7 @@ def scan_incremental(
     check_targets(
         [("--state", state_path)], scanned=paths, write_inside=write_inside, include_hidden=scan.include_hidden
     )
-    note = None
-    try:
-        state = None if rebuild else load_state(state_path)
-    except DamagedFileError as exc:
-        # A damaged state costs a full rescan, never a wrong result and never a stop.
-        try:
-            aside = set_aside(state_path)
-        except OSError as err:
-            raise InputPathError(f"{exc}; it cannot be set aside ({err.strerror}); remove it, or --rebuild") from None
-        note = f"warning: {exc}; it was set aside as {aside!r} and every file is read again"
-        state = None
-    if state is not None and dict(state.read) != _read_options_json(opts):
-        note = "the read options changed since the state was written; every file is read again"
-        state = None
+    state, note = open_state(state_path, opts, rebuild=rebuild)
     reused: dict[str, FileResult] = {}
     where: dict[str, str] = {}
 
@@ -235,23 +300,8 @@ def scan_incremental(
         prev = state.files.get(ref.rel)
         if prev is None or os.path.join(state.root, *ref.rel.split("/")) != ref.path:
             return None
-        if not prev.complete:
-            return None  # a read cut short (permissions, a failing disk) may go through now
-        if (prev.size, prev.mtime_ns, prev.format, prev.compression, prev.partitions) != (
-            ref.size,
-            ref.mtime_ns,
-            ref.format,
-            ref.compression,
-            ref.partitions,
-        ):
+        if not unchanged(prev, ref, verify=verify):
             return None
-        if verify:
-            try:
-                digest = file_digest(ref.path)
-            except OSError:
-                return None  # unreadable now: reading it reports why
-            if prev.digest != digest:
-                return None
         reused[ref.rel] = prev
         return prev
 

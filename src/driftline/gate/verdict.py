@@ -13,6 +13,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 from rich.console import Console
+from rich.rule import Rule
 from rich.text import Text
 
 from driftline.core.jsontypes import JSONObject
@@ -23,6 +24,8 @@ from driftline.gate.policy import RULES
 
 VERDICT_FORMAT = "driftline-verdict"
 VERDICT_VERSION = 1
+VERDICT_SET_FORMAT = "driftline-verdict-set"  # a root checked dataset by dataset
+VERDICT_SET_VERSION = 1
 MAX_SHOWN = 100  # violations and warnings listed on the terminal; --json has them all
 
 
@@ -108,14 +111,22 @@ class Verdict:
     counts: Mapping[str, int] = field(default_factory=dict)
     baseline: str = ""
     root: str = ""
+    # A root checked dataset by dataset (split): one Verdict per dataset, in name order; this
+    # verdict is then the overall one (passed when every dataset passed), its own violations and
+    # warnings those of the root (a baseline naming no dataset, a file gone to the loose files).
+    datasets: Mapping[str, Verdict] = field(default_factory=dict)
+    split: bool = False
 
     @property
     def exit_code(self) -> int:
-        """0 passed (warnings allowed), 1 a policy violation."""
+        """0 passed (warnings allowed), 1 a policy violation (in any dataset)."""
         return 0 if self.passed else 1
 
     def to_json(self) -> JSONObject:
-        """The verdict as plain JSON data: passed, exit code, violations, warnings and rules."""
+        """The verdict as plain JSON data: passed, exit code, violations, warnings and rules;
+        for a root checked dataset by dataset, the verdict set (one verdict per dataset)."""
+        if self.split:
+            return self._set_json()
         return {
             "format": VERDICT_FORMAT,
             "version": VERDICT_VERSION,
@@ -129,6 +140,31 @@ class Verdict:
             "warnings": [v.to_json() for v in self.warnings],
             "allowed": [v.to_json() for v in self.allowed],
         }
+
+    def _set_json(self) -> JSONObject:
+        statuses = [dataset_status(v) for v in self.datasets.values()]
+        return {
+            "format": VERDICT_SET_FORMAT,
+            "version": VERDICT_SET_VERSION,
+            "passed": self.passed,
+            "exit_code": self.exit_code,
+            "root": self.root,
+            "baselines": self.baseline,
+            "counts": {
+                "datasets": len(self.datasets),
+                **{s: statuses.count(s) for s in ("passed", "warned", "failed")},
+                **dict(self.counts),
+            },
+            "datasets": {name: {**v.to_json(), "status": dataset_status(v)} for name, v in self.datasets.items()},
+            "violations": [v.to_json() for v in self.violations],
+            "warnings": [v.to_json() for v in self.warnings],
+            "allowed": [v.to_json() for v in self.allowed],
+        }
+
+
+def dataset_status(v: Verdict) -> str:
+    """'failed' (a violation), 'warned' (passed with warnings) or 'passed'."""
+    return "failed" if not v.passed else "warned" if v.warnings else "passed"
 
 
 # -- JUnit XML ---------------------------------------------------------------------------
@@ -152,36 +188,72 @@ def junit_xml(verdict: Verdict, *, suite: str = "driftline check") -> bytes:
     """The verdict as JUnit XML: one <testcase> per policy rule, a <failure> per failing rule.
 
     Warnings go to the test case's <system-out>; rules the policy allows, or that the
-    baseline cannot check, are <skipped> with the reason.
+    baseline cannot check, are <skipped> with the reason. A root checked dataset by dataset
+    gives one <testsuite> per dataset (named after it), and one more, "(root)", when the root
+    itself has findings (a baseline naming no dataset, a file gone to the loose files).
     """
-    by_rule: dict[str, list[Violation]] = {}
-    for v in (*verdict.violations, *verdict.warnings, *verdict.allowed):
-        by_rule.setdefault(v.rule, []).append(v)
-    failures = sum(1 for r in verdict.rules if r.status == "failed")
-    skipped = sum(1 for r in verdict.rules if r.status == "skipped")
+    suites = [(name, v) for name, v in verdict.datasets.items()] if verdict.split else [(suite, verdict)]
+    if verdict.split and (verdict.violations or verdict.warnings or verdict.allowed):
+        suites.append((ROOT_SUITE, verdict))
+    tally = [_tally(v) for _, v in suites]
     root = ET.Element(
         "testsuites",
         name=suite,
-        tests=str(len(verdict.rules)),
-        failures=str(failures),
+        tests=str(sum(t[0] for t in tally)),
+        failures=str(sum(t[1] for t in tally)),
         errors="0",
-        skipped=str(skipped),
+        skipped=str(sum(t[2] for t in tally)),
     )
-    ts = ET.SubElement(
-        root,
-        "testsuite",
-        name=suite,
-        tests=str(len(verdict.rules)),
-        failures=str(failures),
-        errors="0",
-        skipped=str(skipped),
+    for (name, v), (tests, failures, skipped) in zip(suites, tally, strict=True):
+        ts = ET.SubElement(
+            root,
+            "testsuite",
+            name=_xml_text(name),
+            tests=str(tests),
+            failures=str(failures),
+            errors="0",
+            skipped=str(skipped),
+        )
+        props = ET.SubElement(ts, "properties")
+        ET.SubElement(props, "property", name="root", value=_xml_text(v.root))
+        ET.SubElement(props, "property", name="baseline", value=_xml_text(v.baseline))
+        for key, n in v.counts.items():
+            ET.SubElement(props, "property", name=key, value=str(n))
+        _cases(ts, v, _root_rules(v) if v is verdict and verdict.split else v.rules)
+    ET.indent(root)
+    body = ET.tostring(root, encoding="utf-8", xml_declaration=False)
+    # The declaration must come first (XML 1.0 section 2.8); the marker comment follows it.
+    mark = remark(f"a check verdict written by driftline {__version__}; driftline never reads it as data")
+    return b"<?xml version='1.0' encoding='utf-8'?>\n<!-- " + mark.encode() + b" -->\n" + body + b"\n"
+
+
+ROOT_SUITE = "(root)"  # the JUnit suite of what a root checked dataset by dataset shows outside its datasets
+
+
+def _root_rules(v: Verdict) -> tuple[RuleResult, ...]:
+    """The root's findings as rules: one per rule name, failed, warned or allowed (skipped)."""
+    out = []
+    for rule in dict.fromkeys(x.rule for x in (*v.violations, *v.warnings, *v.allowed)):
+        sev = {x.severity for x in (*v.violations, *v.warnings, *v.allowed) if x.rule == rule}
+        status = "failed" if "fail" in sev else "warned" if "warn" in sev else "skipped"
+        out.append(RuleResult(rule, "fail" if "fail" in sev else "warn", status, "allowed by the policy"))
+    return tuple(out)
+
+
+def _tally(v: Verdict) -> tuple[int, int, int]:
+    rules = _root_rules(v) if v.split else v.rules
+    return (
+        len(rules),
+        sum(1 for r in rules if r.status == "failed"),
+        sum(1 for r in rules if r.status == "skipped"),
     )
-    props = ET.SubElement(ts, "properties")
-    ET.SubElement(props, "property", name="root", value=_xml_text(verdict.root))
-    ET.SubElement(props, "property", name="baseline", value=_xml_text(verdict.baseline))
-    for key, n in verdict.counts.items():
-        ET.SubElement(props, "property", name=key, value=str(n))
-    for r in verdict.rules:
+
+
+def _cases(ts: ET.Element, verdict: Verdict, rules: tuple[RuleResult, ...]) -> None:
+    by_rule: dict[str, list[Violation]] = {}
+    for v in (*verdict.violations, *verdict.warnings, *verdict.allowed):
+        by_rule.setdefault(v.rule, []).append(v)
+    for r in rules:
         case = ET.SubElement(ts, "testcase", name=r.rule, classname="driftline.check")
         found = by_rule.get(r.rule, [])
         if r.status == "failed":
@@ -196,11 +268,6 @@ def junit_xml(verdict: Verdict, *, suite: str = "driftline check") -> bytes:
         if warns:
             out = ET.SubElement(case, "system-out")
             out.text = _xml_text("\n".join("warning: " + _line(v) for v in warns))
-    ET.indent(root)
-    body = ET.tostring(root, encoding="utf-8", xml_declaration=False)
-    # The declaration must come first (XML 1.0 section 2.8); the marker comment follows it.
-    mark = remark(f"a check verdict written by driftline {__version__}; driftline never reads it as data")
-    return b"<?xml version='1.0' encoding='utf-8'?>\n<!-- " + mark.encode() + b" -->\n" + body + b"\n"
 
 
 # -- terminal ----------------------------------------------------------------------------
@@ -233,7 +300,7 @@ def render(verdict: Verdict, console: Console) -> None:
         head.append("FAIL", style="bold red")
         head.append(f"  {len(verdict.violations)} violation(s), {len(verdict.warnings)} warning(s)")
     head.append(
-        f"\nchecked {safe_text(verdict.root, None)} against {safe_text(verdict.baseline, None)}: "
+        f"\nchecked {safe_text(verdict.root, None)} against {safe_text(verdict.baseline or 'no baseline', None)}: "
         f"{c.get('files', 0)} files ({c.get('files_read', 0)} read, {c.get('files_reused', 0)} "
         f"from state), {c.get('rows', 0):,} rows, {c.get('fields', 0)} fields"
     )
@@ -255,6 +322,39 @@ def render(verdict: Verdict, console: Console) -> None:
         console.print(
             "not checked: " + "; ".join(f"{r.rule} ({r.reason})" for r in skipped), markup=False, soft_wrap=True
         )
+
+
+def render_split(verdict: Verdict, console: Console) -> None:
+    """A root checked dataset by dataset: each dataset's verdict under a heading 'dataset NAME',
+    then the root's own findings, then the overall line (the worst of them)."""
+    for name, v in verdict.datasets.items():
+        console.print(Rule(Text(f"dataset {safe_text(name)}", style="bold"), align="left"))
+        render(v, console)
+        console.print()
+    items = [("Violations", verdict.violations, "red"), ("Warnings", verdict.warnings, "yellow")]
+    for title, found, style in items:
+        if found:
+            body = Text()
+            body.append(f"{title} of the root ({len(found)})\n", style="bold")
+            for x in found[:MAX_SHOWN]:
+                _block(body, x, style)
+            console.print(body, end="", soft_wrap=True)
+            console.print()
+    statuses = {name: dataset_status(v) for name, v in verdict.datasets.items()}
+    failed = [n for n, st in statuses.items() if st == "failed"]
+    warned = [n for n, st in statuses.items() if st == "warned"]
+    line = Text()
+    line.append("overall ")
+    line.append("PASS" if verdict.passed else "FAIL", style="bold green" if verdict.passed else "bold red")
+    line.append(
+        f"  {len(statuses)} dataset(s): {len(statuses) - len(failed) - len(warned)} passed, "
+        f"{len(warned)} warned, {len(failed)} failed"
+    )
+    if failed:
+        line.append(" (failed: " + ", ".join(safe_text(n) for n in failed) + ")")
+    if verdict.violations:
+        line.append(f"; {len(verdict.violations)} violation(s) of the root")
+    console.print(line, soft_wrap=True)
 
 
 def rule_names() -> tuple[str, ...]:
