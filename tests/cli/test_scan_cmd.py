@@ -18,13 +18,17 @@ def run(*args: str) -> subprocess.CompletedProcess[str]:
 
 
 def test_scan_demo_prints_summary_and_events(demo_dir: Path):
-    res = run("scan", str(demo_dir / "landing"), "--jobs", "1")
+    res = run("scan", str(demo_dir / "landing"), "--jobs", "1", "--events-detail")
     assert res.returncode == 0, res.stderr
     out = res.stdout
     assert "15 files (2 csv, 12 jsonl, 1 parquet), 4,694 rows" in out
     assert "type-conflict     pm25: float64 → string" in out
-    # One line per episode: where it starts and how far it reaches (docs/drift.md)
-    assert "2 files, 122 rows, from readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 90 (line 91) to " in out
+    # --events-detail: where each episode starts and how far it reaches (docs/drift.md), wrapped
+    # at 80 columns with the continuation lines indented.
+    said = " ".join(out.split())
+    assert "2 files, 122 rows, from readings/region=east/day=2026-11-29/part-0000.jsonl.gz row 90 (line 91) to " in said
+    events = out.split("breaking (11), by field\n")[1].split("\n\n")[0].splitlines()
+    assert len(events) > 17 and all(re.match(r" ?\d+  |widening |\s{22}\S", ln) for ln in events)
     assert "unexpected end of data" in out and "line 218" in out
 
 
@@ -48,7 +52,7 @@ def test_max_events_limits_the_terminal_list_only(tmp_path: Path):
     assert res.returncode == 0, res.stderr
     listed = [ln.split()[1:3] for ln in res.stdout.splitlines() if re.match(r"\d+  ", ln)]
     assert listed == [["field-gone", "f0:"], ["field-gone", "f1:"], ["field-gone", "f2:"]]  # breaking first
-    assert "drift: 4 breaking, 4 widening, 0 info" in res.stdout
+    assert "drift: 8 events, 4 breaking, 4 widening, 0 info" in res.stdout
     said = " ".join(res.stdout.split())  # the console wraps at 80 columns
     assert "… 5 more events not listed here (--max-events 3); the JSON report (--json) lists them all" in said
     report = json.loads(out.read_text())

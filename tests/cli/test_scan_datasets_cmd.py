@@ -58,7 +58,7 @@ def _table_rows(out: str) -> dict[str, list[str]]:
 
 
 def test_the_overview_names_three_datasets_then_each_summary(work: Path) -> None:
-    res = run("scan", "landing/", cwd=work)
+    res = run("scan", "landing/", "--full-table", cwd=work)
     assert res.returncode == 0, res.stderr
     out = res.stdout
     assert out.splitlines()[1] == "3 datasets, 8 files, 17 rows, 1.6 KiB; 0 loose files, 3 skipped"
@@ -72,7 +72,7 @@ def test_the_overview_names_three_datasets_then_each_summary(work: Path) -> None
     headings = [ln.split(" ─")[0] for ln in out.splitlines() if ln.startswith("dataset ") and " ─" in ln]
     assert headings == ["dataset depot_exports", "dataset readings", "dataset stations.parquet"]
     # Each dataset's summary is the one a scan of its folder alone prints (its duration aside).
-    alone = run("scan", "landing/readings", cwd=work).stdout
+    alone = run("scan", "landing/readings", "--full-table", cwd=work).stdout
     part = out.split("dataset readings ")[1].split("\n", 1)[1].split("\ndataset stations.parquet")[0]
     strip = re.compile(r"\d+\.\d\d s\b")
     assert strip.sub("", part).rstrip("\n") == strip.sub("", alone).rstrip("\n")

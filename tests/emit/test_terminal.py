@@ -22,29 +22,31 @@ def test_demo_events_grouped_by_level_with_counts(demo_profile):
     text = _text(demo_profile)
     lines = text.splitlines()
     # The overview (the first screen, before the field table) counts each level.
-    assert lines[2] == "drift: 11 breaking, 6 widening, 0 info"
-    assert text.index("drift: 11 breaking") < text.index("Fields")
+    assert lines[2] == "drift: 17 events, 11 breaking, 6 widening, 0 info"
+    assert text.index("drift: 17 events, 11 breaking") < text.index("Fields")
     # The breaking list is on the first screen: after the overview, before the field table.
-    assert text.index("breaking (11), in scan order") < text.index("widening (6)") < text.index("Fields")
-    assert "Drift events (17): 11 breaking, 6 widening, 0 info" in lines
-    assert lines.index("breaking (11), in scan order") < lines.index("widening (6), in scan order")
+    assert text.index("breaking (11), by field") < text.index("widening (6)") < text.index("Fields")
+    assert "Drift events (17)" not in text  # the overview's drift line counts them, just above
+    assert lines.index("breaking (11), by field") < lines.index("widening (6), by field")
     assert "info (" not in text  # no heading for a level without events
     listed = [m.groups() for m in re.finditer(r"^\s*(\d+)  (\S+)\s+(\S+):", text, re.M)]
     assert [(int(n), kind, path) for n, kind, path in listed] == [
+        # Within a level, grouped by field: the fields in the order they first drift, each
+        # field's events in scan order. region=west compared with the other three regions
+        # (demo/make_demo.py: the CSV export has no battery struct, tags as one string, local
+        # timestamps, blank cells); the walk's nulls-begin of temp_c and tags counted the same
+        # places: told once.
         (1, "type-conflict", "tags"),
-        (2, "type-conflict", "pm25"),
-        (3, "textclass-changed", "pm25"),
-        (4, "field-gone", "temp_c"),
-        (5, "textclass-changed", "ts"),
-        (6, "nulls-begin", "humidity"),
-        # region=west compared with the other three regions (demo/make_demo.py: the CSV export
-        # has no battery struct, tags as one string, local timestamps, blank cells); the walk's
-        # nulls-begin of temp_c and tags counted the same places: told once.
-        (7, "partition-lacks", "battery"),
-        (8, "partition-type", "tags"),
+        (2, "partition-type", "tags"),
+        (3, "partition-nulls", "tags"),
+        (4, "type-conflict", "pm25"),
+        (5, "textclass-changed", "pm25"),
+        (6, "field-gone", "temp_c"),
+        (7, "partition-nulls", "temp_c"),
+        (8, "textclass-changed", "ts"),
         (9, "partition-type", "ts"),
-        (10, "partition-nulls", "temp_c"),
-        (11, "partition-nulls", "tags"),
+        (10, "nulls-begin", "humidity"),
+        (11, "partition-lacks", "battery"),
         (12, "nested-new", "battery.charge_cycles"),
         (13, "type-widened", "pm10"),
         (14, "field-new", "ingested_at"),
@@ -57,8 +59,8 @@ def test_demo_events_grouped_by_level_with_counts(demo_profile):
     # breaking one.
     paths = [p for _, _, p in listed]
     assert paths.index("pm10") > 10 and paths.index("battery.charge_cycles") > 10 and paths.index("ingested_at") > 10
-    # A partition kind's line names the values and how many of the key's values were compared.
-    assert " 7  partition-lacks   battery: struct → –, at region=west, 1 of 4 region values; 2 files, 599 rows" in text
+    # A partition kind's line names the values; the reach is short (--events-detail: positions).
+    assert "11  partition-lacks   battery: struct → –; at region=west, 2 files, 599 rows, still going\n" in text
 
 
 def test_level_counts_are_of_every_event_not_only_the_listed(tmp_path: Path):
@@ -77,11 +79,11 @@ def test_level_counts_are_of_every_event_not_only_the_listed(tmp_path: Path):
     assert lines[0] == "Drift events (78): 39 breaking, 39 widening, 0 info"
     # The 10 listed are the first in the terminal's order, breaking first: f00..f09 gone,
     # each after its one file, in scan order; no widening one makes the cut.
-    assert lines[1] == "breaking (39), in scan order"
+    assert lines[1] == "breaking (39), by field"
     assert [ln.split()[1:3] for ln in lines if ln[:3].strip().isdigit()] == [
         ["field-gone", f"f{i:02d}:"] for i in range(10)
     ]
-    assert len(lines) == 12 and "widening (39), in scan order" not in lines
+    assert len(lines) == 12 and "widening (39), by field" not in lines
     # 45 listed: every breaking one (39), then the first 6 widening ones
     assert (
         sum(1 for ln in events_block(full.events, full.level_counts, 45).plain.splitlines() if "field-new" in ln) == 6

@@ -11,7 +11,7 @@ import typer
 from rich.console import Console
 
 import driftline
-from driftline.cli.app import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.cli.read_flags import policy_of, takes_read_options
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.core.options import Config, ScanOptions
@@ -114,7 +114,9 @@ Changes listed:
 \b
 {DIFF_KINDS_TEXT}
 
-Exit codes: 0 the diff was made (changes are information); 2 usage or input error.
+Exit codes: 0 the diff was made (changes are information, unless --fail-on-change); 1 with
+--fail-on-change, the sides differ (a change listed, or a dataset on one side only);
+2 usage or input error.
 """
 
 
@@ -233,6 +235,9 @@ def diff_command(
         False, "--one-table", help="Read each side as one table, even when both hold several datasets."
     ),
     write_inside: bool = _INSIDE,
+    fail_on_change: bool = typer.Option(
+        False, "--fail-on-change", help="Exit 1 when the sides differ (for a pipeline step)."
+    ),
     *,
     options: ScanOptions,
     config: Config,
@@ -257,7 +262,11 @@ def diff_command(
         else:  # dataset by dataset when both sides hold several (docs/datasets.md); else as one table each
             found = diff_by_dataset(sides[0], sides[1], min_null_points=null_points, options=options)
             if isinstance(found, DatasetDiff):
-                return _datasets_diff(found, json_out, quiet)
+                _datasets_diff(found, json_out, quiet)
+                differ = found.only_before or found.only_after or any(d.changes for d in found.diffs.values())
+                if fail_on_change and differ:
+                    raise typer.Exit(EXIT_VIOLATION)
+                return
             diffs = (found,)
     if json_out is not None:
         doc = {"format": "driftline-diff", "version": 1, "by": by, "diffs": [d.to_json() for d in diffs]}
@@ -269,6 +278,8 @@ def diff_command(
         render(diffs, console)
         if json_out is not None and not is_stdout(json_out):
             console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)
+    if fail_on_change and any(d.changes for d in diffs):
+        raise typer.Exit(EXIT_VIOLATION)
 
 
 def _datasets_diff(found: DatasetDiff, json_out: str | None, quiet: bool) -> None:

@@ -13,7 +13,7 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TaskID, TextColumn, TimeElapsedColumn
 
 import driftline
-from driftline.cli.app import EXIT_USAGE, app, err_console, handles_errors
+from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
@@ -24,6 +24,7 @@ from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.emit.terminal import render
 from driftline.errors import InputPathError, OptionError
 from driftline.results.landing import dumps_set
+from driftline.results.levels import LEVELS
 from driftline.results.report import dumps, limit_notes
 from driftline.sources.remote import is_url
 
@@ -57,9 +58,15 @@ A folder that is one table prints as it always did.
 An output is never written over an input, nor inside a scanned folder unless
 --write-inside is given; a device, a FIFO or /dev/stdout is written into.
 
-Exit codes: 0 the data could be read (drift is information); 2 usage or input error
-(a path that does not exist, nothing readable, an unwritable output, an output aimed at
-an input or at another output's target).
+The terminal lists the drift events first, one line each with a short reach
+(--events-detail: where each starts and ends, and an example), then the field table
+(on a terminal narrower than 120 columns without its string content; --full-table).
+Colours follow the terminal and NO_COLOR; --color/--no-color decide.
+
+Exit codes: 0 the data could be read (drift is information, unless --fail-at); 1 with
+--fail-at LEVEL, drift at that level or a more urgent one was found, or a file failed;
+2 usage or input error (a path that does not exist, nothing readable, an unwritable
+output, an output aimed at an input or at another output's target).
 """
 
 
@@ -127,10 +134,26 @@ def scan_command(
         help="Let --json/--html go inside a scanned folder (a new file or an earlier driftline output, never a "
         "data file); scans leave driftline's own outputs out.",
     ),
+    events_detail: bool = typer.Option(
+        False, "--events-detail", help="Each drift event with where it starts and ends, and an example."
+    ),
+    full_table: bool = typer.Option(False, "--full-table", help="Every column of the field table at any width."),
+    color: bool | None = typer.Option(
+        None, "--color/--no-color", help="Colour the terminal summary or not (default: on a terminal, unless NO_COLOR)."
+    ),
+    fail_at: str | None = typer.Option(
+        None,
+        "--fail-at",
+        metavar="LEVEL",
+        help=f"Exit 1 when drift at this level or a more urgent one is found ({', '.join(LEVELS)}), or a file failed.",
+    ),
     *,
     options: ScanOptions,
     config: Config,
 ) -> None:
+    if fail_at is not None and fail_at not in LEVELS:
+        raise OptionError(f"--fail-at {fail_at!r}: a level is one of {', '.join(LEVELS)}")
+    look = {"events_detail": events_detail, "full_table": full_table}
     check_targets(
         [("--json", json_out), ("--html", html_out)],
         scanned=paths,
@@ -151,7 +174,10 @@ def scan_command(
                 paths[0], dataset=dataset or None, whole_if_one=True, options=options, progress=bar
             )
             if landing.whole is None:
-                return _several(landing, options, json_out, html_out, quiet, write_inside)
+                _several(landing, options, json_out, html_out, quiet, write_inside, look, color)
+                if fail_at is not None and any(fails_at(p, fail_at) for p in landing.datasets.values()):
+                    raise typer.Exit(EXIT_VIOLATION)
+                return
             profile, note = landing.whole, one_table_note(landing)
     finally:
         bar.close()
@@ -173,8 +199,8 @@ def scan_command(
     if not quiet:
         # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, html_out))
-        console = err_console if failed or to_stdout else Console(highlight=False)
-        render(profile, console, options.max_events)
+        console = terminal(failed or to_stdout, color)
+        render(profile, console, options.max_events, **look)
         if json_out is not None and not is_stdout(json_out):
             console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
         if html_out is not None and not is_stdout(html_out):
@@ -190,6 +216,26 @@ def scan_command(
         raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed ({hint})")
     if profile.rows == 0 and not profile.files:
         raise typer.Exit(EXIT_USAGE)
+    if fail_at is not None and fails_at(profile, fail_at):
+        raise typer.Exit(EXIT_VIOLATION)
+
+
+def fails_at(profile: driftline.Profile, level: str) -> bool:
+    """Whether a scan meets --fail-at: an event at level or a more urgent one (LEVELS is most
+    urgent first), or a file error."""
+    order = list(LEVELS)
+    urgent = order[: order.index(level) + 1]
+    return bool(profile.error_count) or any(profile.level_counts.get(lv, 0) for lv in urgent)
+
+
+def terminal(to_stderr: bool, color: bool | None) -> Console:
+    """The console of the summary: stdout or stderr; --color forces colour, --no-color none;
+    neither: colour on a terminal unless NO_COLOR (rich reads it)."""
+    if color is None:
+        return err_console if to_stderr else Console(highlight=False)
+    if color:
+        return Console(stderr=to_stderr, highlight=False, force_terminal=True)
+    return Console(stderr=to_stderr, highlight=False, color_system=None)
 
 
 def _one_folder(paths: list[str]) -> bool:
@@ -204,6 +250,8 @@ def _several(
     html_out: str | None,
     quiet: bool,
     write_inside: bool,
+    look: dict[str, bool] | None = None,
+    color: bool | None = None,
 ) -> None:
     """A root of several datasets: the report set, one HTML page per dataset, the overview then
     each dataset's summary; exit 2 when every file of a dataset failed."""
@@ -228,8 +276,8 @@ def _several(
                 err_console.print(f"warning: dataset {safe_text(name)}: {note}", markup=False)
     else:
         to_stdout = json_out is not None and is_stdout(json_out)
-        console = err_console if to_stdout or len(failed) == len(landing.datasets) else Console(highlight=False)
-        render_landing(landing, console, options.max_events)
+        console = terminal(to_stdout or len(failed) == len(landing.datasets), color)
+        render_landing(landing, console, options.max_events, **(look or {}))
         if json_out is not None and not is_stdout(json_out):
             console.print(f"report set written to {safe_text(Path(json_out))}", markup=False)
         for page in pages.values():

@@ -111,7 +111,14 @@ def leftovers(landing: Landing) -> Text:
     return text
 
 
-def render_landing(landing: Landing, console: Console, max_events: int = DEFAULT_MAX_EVENTS) -> None:
+def render_landing(
+    landing: Landing,
+    console: Console,
+    max_events: int = DEFAULT_MAX_EVENTS,
+    *,
+    events_detail: bool = False,
+    full_table: bool = False,
+) -> None:
     """The overview of the datasets and what fits none, then each dataset's summary under a heading."""
     console.print(headline(landing))
     console.print()
@@ -123,7 +130,7 @@ def render_landing(landing: Landing, console: Console, max_events: int = DEFAULT
     for name, profile in landing.datasets.items():
         console.print()
         console.print(Rule(Text(f"dataset {safe_text(name)}", style="bold"), align="left"))
-        render(profile, console, max_events)
+        render(profile, console, max_events, events_detail=events_detail, full_table=full_table)
 
 
 def one_table_note(landing: Landing) -> str:

@@ -55,3 +55,22 @@ def reach_text(e: Event) -> str:
     if e.ended_file is None:
         return text + "; still going"
     return text + f"; ended at {_where(e.ended_file, e.ended_row)}"
+
+
+def short_reach(e: Event) -> str:
+    """An episode's reach in a few words for the compact list: where among partitions, files,
+    rows (or values), still going or ended; the positions are in reach_text (--events-detail).
+
+    >>> short_reach(Event("type-conflict", "t", "float64", "string", "a.jsonl", (), 0, 1500, 1501, None, 3,
+    ...     1512, 1512, 3, 3, "c.jsonl", 11))
+    '3 files, 1,512 rows, still going'
+    """
+    files = f"{e.files:,} file" + ("s" if e.files != 1 else "")
+    count, unit = (e.rows, "row") if e.rows is not None else (e.values, "value")
+    text = f"{files}, {count:,} {unit}" + ("s" if count != 1 else "")
+    if e.partition_key is not None:
+        key = safe_text(e.partition_key, 40)
+        shown = ", ".join(f"{key}={safe_text(v, 40)}" for v in e.partition_values[:2])
+        more = len(e.partition_values) - 2
+        text = f"at {shown}" + (f" and {more:,} more" if more > 0 else "") + ", " + text
+    return text + (", still going" if e.ended_file is None else ", ended")

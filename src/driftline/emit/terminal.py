@@ -5,14 +5,17 @@ Every piece of data goes through safe_text and into rich Text objects (never mar
 
 from __future__ import annotations
 
+import textwrap
 from collections import Counter
 
+from rich import box
+from rich.cells import cell_len
 from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
 from driftline.core.options import DEFAULT_MAX_EVENTS
-from driftline.emit.reach import reach_text
+from driftline.emit.reach import reach_text, short_reach
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
 from driftline.results.drift import Event
@@ -71,7 +74,8 @@ def overview(profile: Profile) -> Text:
         f"{len(profile.skipped)} skipped, {errors} file errors, {profile.duration_s:.2f} s"
     )
     if profile.event_total:  # on the first screen, before the field table
-        text.append(f"\ndrift: {levels_line(profile.level_counts)}")
+        text.append(f"\ndrift: {profile.event_total:,} event{'' if profile.event_total == 1 else 's'}, ")
+        text.append(levels_line(profile.level_counts))
     other = [s.rel for s in profile.skipped if s.reason == "other-extension"]
     if other:  # skipped unopened for their extension alone: say so, they may be data
         names = ", ".join(safe_text(r, 60) for r in other[:3])
@@ -157,24 +161,42 @@ def shapes_block(found: Discriminator) -> Text:
     return text
 
 
-def fields_table(profile: Profile) -> Table:
+# Below this width the field table drops its string content column (--full-table keeps it).
+FULL_TABLE_WIDTH = 120
+
+
+def fields_table(profile: Profile, width: int | None = None) -> Table:
+    """One row per field: types, null and absent shares, string content, drift events. Under
+    FULL_TABLE_WIDTH columns (width given) the string content column is left out and the
+    borders are light, so that a row stays one line; a field path is never cut."""
     drifting = Counter(e.path for e in profile.events)
-    table = Table(title="Fields", title_justify="left", show_lines=False, pad_edge=False)
-    table.add_column("field")
+    compact = width is not None and width < FULL_TABLE_WIDTH
+    paths = [safe_text(p) for p in profile.fields]
+    table = Table(
+        title="Fields" + (" (string content: --full-table)" if compact else ""),
+        title_justify="left",
+        show_lines=False,
+        pad_edge=False,
+        box=box.SIMPLE_HEAD if compact else box.HEAVY_HEAD,
+    )
+    table.add_column("field", no_wrap=True, min_width=max(map(cell_len, paths), default=5))
     table.add_column("types (share of values)")
-    table.add_column("null", justify="right")
-    table.add_column("absent", justify="right")
-    table.add_column("string content")
-    table.add_column("drift", justify="right")
-    for path, s in profile.fields.items():
-        table.add_row(
-            Text(safe_text(path)),
+    table.add_column("null", justify="right", no_wrap=True)
+    table.add_column("absent", justify="right", no_wrap=True)
+    if not compact:
+        table.add_column("string content")
+    table.add_column("drift", justify="right", no_wrap=True)
+    for path, s in zip(paths, profile.fields.values(), strict=True):
+        cells: list[Text | str] = [
+            Text(path),
             _types_cell(s),
             _pct(s.stats.nulls, s.container),
             _pct(s.absent, s.container),
-            _classes_cell(s),
-            str(drifting[path]) if drifting[path] else "",
-        )
+        ]
+        if not compact:
+            cells.append(_classes_cell(s))
+        cells.append(str(drifting[path]) if drifting[path] else "")
+        table.add_row(*cells)
     return table
 
 
@@ -209,40 +231,68 @@ def levels_line(counts: dict[str, int]) -> str:
 
 
 def by_level(events: tuple[Event, ...]) -> list[tuple[str, list[Event]]]:
-    """The events grouped by level, breaking first (LEVELS order), scan order kept within a level."""
-    groups: dict[str, list[Event]] = {level: [] for level in LEVELS}
+    """The events grouped by level, breaking first (LEVELS order); within a level grouped by
+    field, the fields in the order they first drift, each field's events in scan order."""
+    groups: dict[str, dict[str, list[Event]]] = {level: {} for level in LEVELS}
     for e in events:
-        groups[e.level].append(e)
-    return [(level, group) for level, group in groups.items() if group]
+        groups[e.level].setdefault(e.path, []).append(e)
+    return [(level, [e for fld in by_path.values() for e in fld]) for level, by_path in groups.items() if by_path]
+
+
+def hanging(head: str, body: str, width: int | None) -> list[str]:
+    """head then body on one line, or body wrapped to width with its continuation lines
+    indented under the body's start (never back at column 0); width None: one line.
+
+    >>> hanging(" 1  kind ", "a b c d", 13)
+    [' 1  kind a b', '         c d']
+    """
+    if width is None or cell_len(head) + cell_len(body) <= width:
+        return [head + body]
+    room = max(width - cell_len(head), 20)
+    lines = textwrap.wrap(body, room, break_long_words=False, break_on_hyphens=False) or [""]
+    return [head + lines[0]] + [" " * cell_len(head) + line for line in lines[1:]]
 
 
 def events_block(
-    events: tuple[Event, ...], counts: dict[str, int] | None = None, limit: int = DEFAULT_MAX_EVENTS
+    events: tuple[Event, ...],
+    counts: dict[str, int] | None = None,
+    limit: int = DEFAULT_MAX_EVENTS,
+    width: int | None = None,
+    detail: bool = False,
+    heading: bool = True,
 ) -> Text:
-    """Drift events grouped by level, breaking first, numbered, one line per episode: what
-    changed, then its reach (never wrapped, so that each episode stays one line to search and
-    copy); the first `limit` of them in that order (--max-events). counts (every event of each
-    level, listed or not) make the heading; without them the listed events are counted."""
+    """Drift events grouped by level, breaking first, then by field, numbered, one line per
+    episode when it fits width: kind, field, before → after and a short reach (detail: the
+    full reach with positions and an example, as --events-detail shows); a longer line wraps
+    indented. The first `limit` of them in that order (--max-events). counts (every event of
+    each level, listed or not) make the heading (left out with heading=False, when the overview
+    just above counts them); without them the listed events are counted."""
     total = counts or {level: sum(1 for e in events if e.level == level) for level in LEVELS}
     text = Text(no_wrap=True, overflow="ignore")
-    text.append(f"Drift events ({sum(total.values()):,}): {levels_line(total)}\n", style="bold")
-    width = len(str(min(len(events), limit)))
+    if heading:
+        text.append(f"Drift events ({sum(total.values()):,}): {levels_line(total)}\n", style="bold")
+    number = len(str(min(len(events), limit)))
+    kind = max((len(e.kind) for e in events), default=0)
     i = 0
     for level, group in by_level(events):
         if i >= limit:
             break
-        text.append(f"{level} ({total.get(level, len(group)):,}), in scan order\n", style="bold")
+        text.append(f"{level} ({total.get(level, len(group)):,}), by field\n", style="bold")
         for e in group[: limit - i]:
             i += 1
-            text.append(f"{i:>{width}}  ")
-            text.append(f"{e.kind:<18}", style="bold")
-            text.append(safe_text(e.path))
+            body = safe_text(e.path)
             if e.before or e.after:
-                text.append(f": {safe_text(e.before or '–')} → {safe_text(e.after or '–')}")
-            text.append(", " + reach_text(e))
-            if e.example:
-                text.append(f"; e.g. {safe_text(e.example, 40)}")
-            text.append("\n")
+                body += f": {safe_text(e.before or '–')} → {safe_text(e.after or '–')}"
+            if detail:
+                body += ", " + reach_text(e) + (f"; e.g. {safe_text(e.example, 40)}" if e.example else "")
+            else:
+                body += "; " + short_reach(e)
+            lines = hanging(f"{i:>{number}}  {e.kind:<{kind}} ", body, width)
+            text.append(lines[0][: number + 2])
+            text.append(e.kind, style="bold")
+            text.append(lines[0][number + 2 + len(e.kind) :] + "\n")
+            for line in lines[1:]:
+                text.append(line + "\n")
     return text
 
 
@@ -261,19 +311,24 @@ def issues_block(profile: Profile) -> Text:
     return text
 
 
-def render(profile: Profile, console: Console, max_events: int = DEFAULT_MAX_EVENTS) -> None:
+def render(
+    profile: Profile,
+    console: Console,
+    max_events: int = DEFAULT_MAX_EVENTS,
+    *,
+    events_detail: bool = False,
+    full_table: bool = False,
+) -> None:
     """The terminal summary: the overview and the drift first (the breaking changes on the
-    first screen), then the fields. max_events bounds the events listed (the others are
-    counted, and the JSON report holds them all)."""
+    first screen), then the CSV dialects and shapes, then the fields. max_events bounds the
+    events listed (the others are counted, and the JSON report holds them all); events_detail
+    gives each event's positions and example; full_table every column of the field table at
+    any width."""
     console.print(overview(profile))
-    if any(f.dialect is not None for f in profile.files):
-        console.print(dialects_block(profile), end="")
-    if profile.shapes is not None:
-        console.print(shapes_block(profile.shapes), end="", no_wrap=True, overflow="ignore", crop=False)
     console.print()
     if profile.events:
         console.print(
-            events_block(profile.events, profile.level_counts, max_events),
+            events_block(profile.events, profile.level_counts, max_events, console.width, events_detail, heading=False),
             end="",
             no_wrap=True,
             overflow="ignore",
@@ -287,8 +342,14 @@ def render(profile: Profile, console: Console, max_events: int = DEFAULT_MAX_EVE
             )
     else:
         console.print("No drift: every batch shows the same fields and types.")
+    if any(f.dialect is not None for f in profile.files) or profile.shapes is not None:
+        console.print()
+    if any(f.dialect is not None for f in profile.files):
+        console.print(dialects_block(profile), end="")
+    if profile.shapes is not None:
+        console.print(shapes_block(profile.shapes), end="", no_wrap=True, overflow="ignore", crop=False)
     console.print()
-    console.print(fields_table(profile))
+    console.print(fields_table(profile, None if full_table else console.width))
     if formats := formats_block(profile):
         console.print()
         console.print(formats)
