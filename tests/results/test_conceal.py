@@ -68,8 +68,16 @@ def outputs_of_every_verb(
         json.dumps({"type": "object", "properties": {"email": {"type": "integer"}, "code": {"type": "integer"}}})
     )
     texts: dict[str, str] = {}
-    r = run(
-        "scan", str(data), "--json", str(out / "r.json"), "--html", str(out / "r.html"), *flags, env_extra=env_extra
+    r = run(  # --events-detail: the terminal lists each event's example
+        "scan",
+        str(data),
+        "--events-detail",
+        "--json",
+        str(out / "r.json"),
+        "--html",
+        str(out / "r.html"),
+        *flags,
+        env_extra=env_extra,
     )
     assert r.returncode == 0, r.stderr
     texts["scan terminal"] = r.stdout + r.stderr

@@ -37,18 +37,22 @@ def _pct(part: int, whole: int) -> str:
     return "<0.1%" if share < 0.1 else f"{share:.1f}%"
 
 
-def _types_cell(s: FieldSummary) -> Text:
+def _types_cell(s: FieldSummary, most: int | None = None) -> Text:
+    """The types with their shares, most common first; the first `most` of them and how many
+    more (the compact table)."""
     total = s.stats.nonnull
     if not total:
         return Text("unknown (no values)" if not s.stats.nulls else "null only", style="dim")
     parts = sorted(s.stats.types.items(), key=lambda kv: (-kv[1], kv[0]))
     text = Text()
-    for i, (key, n) in enumerate(parts):
+    for i, (key, n) in enumerate(parts[:most]):
         if i:
             text.append(" · ")
         text.append(safe_text(key), style="bold" if i == 0 else "yellow")
         if len(parts) > 1:
             text.append(f" {_pct(n, total)}")
+    if most is not None and len(parts) > most:
+        text.append(f" +{len(parts) - most}", style="dim")
     return text
 
 
@@ -94,23 +98,24 @@ def overview(profile: Profile) -> Text:
 MAX_DIALECT_FILES_SHOWN = 3
 
 
-def dialects_block(profile: Profile) -> Text:
-    """The CSV dialects found, one line per distinct dialect with its files (a few named)."""
+def dialects_block(profile: Profile, width: int | None = None) -> Text:
+    """The CSV dialects found, one line per distinct dialect with its files (a few named),
+    wrapped to width with its continuation lines indented."""
     groups: dict[str, list[tuple[str, float, str]]] = {}
     for f in profile.files:
         if f.dialect is not None:
             groups.setdefault(f.dialect.shape(), []).append((f.rel, f.dialect.confidence, f.dialect.certainty()))
-    text = Text()
+    text = Text(no_wrap=True, overflow="ignore")
     for shape, files in groups.items():
-        text.append("dialect: ", style="bold")
-        text.append(safe_text(shape, None))
         low, high = min(c for _, c, _ in files), max(c for _, c, _ in files)
         how = files[0][2] if len({h for _, _, h in files}) == 1 else f"confidence {low:.2f}–{high:.2f}"
-        text.append(f" ({how}): ")
-        if len(files) > 1:
-            text.append(f"{len(files):,} files, e.g. ")
-        text.append(", ".join(safe_text(rel, 80) for rel, _, _ in files[:MAX_DIALECT_FILES_SHOWN]))
-        text.append("\n")
+        body = f"{safe_text(shape, None)} ({how}): " + (f"{len(files):,} files, e.g. " if len(files) > 1 else "")
+        body += ", ".join(safe_text(rel, 80) for rel, _, _ in files[:MAX_DIALECT_FILES_SHOWN])
+        lines = hanging("dialect: ", body, width)
+        text.append("dialect: ", style="bold")
+        text.append(lines[0][len("dialect: ") :] + "\n")
+        for line in lines[1:]:
+            text.append(line + "\n")
     return text
 
 
@@ -189,7 +194,7 @@ def fields_table(profile: Profile, width: int | None = None) -> Table:
     for path, s in zip(paths, profile.fields.values(), strict=True):
         cells: list[Text | str] = [
             Text(path),
-            _types_cell(s),
+            _types_cell(s, 2 if compact else None),
             _pct(s.stats.nulls, s.container),
             _pct(s.absent, s.container),
         ]
@@ -345,7 +350,7 @@ def render(
     if any(f.dialect is not None for f in profile.files) or profile.shapes is not None:
         console.print()
     if any(f.dialect is not None for f in profile.files):
-        console.print(dialects_block(profile), end="")
+        console.print(dialects_block(profile, console.width), end="", no_wrap=True, overflow="ignore", crop=False)
     if profile.shapes is not None:
         console.print(shapes_block(profile.shapes), end="", no_wrap=True, overflow="ignore", crop=False)
     console.print()
