@@ -248,8 +248,8 @@ def hanging(head: str, body: str, width: int | None) -> list[str]:
     """head then body on one line, or body wrapped to width with its continuation lines
     indented under the body's start (never back at column 0); width None: one line.
 
-    >>> hanging(" 1  kind ", "a b c d", 13)
-    [' 1  kind a b', '         c d']
+    >>> hanging(" 1  kind ", "alpha beta gamma delta epsilon zeta eta theta", 40)
+    [' 1  kind alpha beta gamma delta epsilon', '         zeta eta theta']
     """
     if width is None or cell_len(head) + cell_len(body) <= width:
         return [head + body]
