@@ -90,6 +90,9 @@ DOCTEST_MODULES = [
     "driftline.sources.datasets",
     "driftline.sources.peek",
     "driftline.results.reading",
+    "driftline.core.words",
+    "driftline.cli.app",
+    "driftline.gate.compare",
 ]
 
 

@@ -64,7 +64,7 @@ def test_cli_error_line_is_the_api_exception(tmp_path: Path):
     with pytest.raises(driftline.InputPathError) as info:
         driftline.scan(missing)
     assert res.returncode == 2
-    assert res.stderr.strip() == f"InputPathError: {info.value}"
+    assert res.stderr.strip() == f"error: {info.value}"
 
 
 # -- every verb is one library call: the CLI and the library on the same data ----------------
