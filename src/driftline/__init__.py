@@ -9,7 +9,7 @@ is internal and may change without notice. A session in brief:
 >>> _ = (d / "day=2").mkdir(), (d / "day=2" / "a.jsonl").write_text('{"x": "one"}\\n')
 >>> profile = driftline.scan(d)
 >>> profile  # doctest: +ELLIPSIS
-<Profile '...': 2 files, 2 rows, 1 fields, 1 drift events, 0 errors>
+<Profile '...': 2 files, 2 rows, 1 field, 1 drift event, 0 errors>
 >>> [(e.kind, e.path, e.before, e.after, e.file) for e in profile.events]
 [('type-conflict', 'x', 'int64', 'string', 'day=2/a.jsonl')]
 >>> {day: fields["x"].stats.types for day, fields in profile.by_partition("day").items()}

@@ -22,6 +22,7 @@ from typing import overload as _overload
 from driftline.core.jsontypes import JSONObject as _JSONObject
 from driftline.core.options import ScanKeywords as _ScanKeywords
 from driftline.core.options import ScanOptions
+from driftline.core.words import every
 from driftline.emit.atomic import write_output as _write_output
 from driftline.errors import (
     InputPathError,
@@ -608,7 +609,7 @@ def recommend(
         and all(not f.rows and (f.errors or not f.observations) for f in profile.files)
     ):
         raise InputPathError(
-            f"nothing readable: every one of {len(profile.files)} files failed (driftline scan shows the problems)"
+            f"nothing readable: {every(len(profile.files), 'file')} failed (driftline scan shows the problems)"
         )
     rest = {k: v for k, v in keywords.items() if k not in KEYWORDS}
     try:

@@ -176,6 +176,9 @@ class SchemaConflictError(PolicyError):
         self.conflicts: tuple[FieldPlan, ...] = recommendation.conflicts()
         names = ", ".join(f"{p.path} ({p.rule})" for p in self.conflicts[:8])
         more = f" and {len(self.conflicts) - 8} more" if len(self.conflicts) > 8 else ""
+        n = len(self.conflicts)
         super().__init__(
-            f"strict mode: {len(self.conflicts)} fields need a lossy or conflicting cast rule: {names}{more}"
+            # errors.py imports nothing of driftline at run time: core/words.count spelled out here
+            f"strict mode: {n:,} field{'s need' if n != 1 else ' needs'} a lossy or conflicting cast rule: "
+            f"{names}{more}"
         )

@@ -82,8 +82,8 @@ def test_three_datasets_against_their_baselines_pass(work: Path) -> None:
     assert res.returncode == 0, res.stderr
     heads = [line.split(" ─")[0] for line in res.stdout.splitlines() if line.startswith("dataset ")]
     assert heads == [f"dataset {n}" for n in NAMES]
-    assert res.stdout.count("\nPASS  0 warning(s), 0 violations\n") == 3
-    assert res.stdout.rstrip().splitlines()[-1] == "overall PASS  3 dataset(s): 3 passed, 0 warned, 0 failed"
+    assert res.stdout.count("\nPASS  0 violations, 0 warnings\n") == 3
+    assert res.stdout.rstrip().splitlines()[-1] == "overall PASS  3 datasets: 3 passed, 0 warned, 0 failed"
     doc = _verdict(run("check", "landing/", "--baseline", "baselines/", "--json", "-", "-q", cwd=work))
     assert (doc["format"], doc["version"], doc["passed"], doc["exit_code"]) == ("driftline-verdict-set", 1, True, 0)
     assert {n: d["status"] for n, d in doc["datasets"].items()} == dict.fromkeys(NAMES, "passed")
@@ -124,9 +124,9 @@ def test_a_changed_type_fails_that_dataset_as_a_check_of_its_folder_alone(work: 
     # the terminal: the dataset's FAIL under its heading, then the overall line
     text = run("check", "landing/", "-b", "baselines/", cwd=work).stdout
     after = text.split("dataset readings ─")[1]
-    assert after.split("\n", 1)[1].startswith("FAIL  1 violation(s), 0 warning(s)")
+    assert after.split("\n", 1)[1].startswith("FAIL  1 violation, 0 warnings")
     assert text.rstrip().splitlines()[-1] == (
-        "overall FAIL  3 dataset(s): 2 passed, 0 warned, 1 failed (failed: readings)"
+        "overall FAIL  3 datasets: 2 passed, 0 warned, 1 failed (failed: readings)"
     )
 
 
@@ -148,7 +148,7 @@ def test_the_policy_files_baselines_table_gives_the_same_verdicts(work: Path) ->
             b["warnings"],
             b["rules"],
         )
-        assert os.path.samefile(a["baseline"].strip("'"), work / "baselines" / f"{name}.schema.json")
+        assert os.path.samefile(a["baseline"], work / "baselines" / f"{name}.schema.json")
     assert by_table["baselines"] == "gate.toml"
 
 
@@ -167,7 +167,7 @@ def test_a_dataset_without_a_baseline_warns_or_fails_under_the_policy(work: Path
     res = run("check", "landing/", "-b", "baselines/", "-p", "gate.toml", cwd=work)
     assert res.returncode == 1
     assert "no baseline names the dataset 'stations.parquet' in baselines/; it is not checked" in res.stdout
-    assert res.stdout.rstrip().splitlines()[-1].startswith("overall FAIL  3 dataset(s): 2 passed, 0 warned, 1 failed")
+    assert res.stdout.rstrip().splitlines()[-1].startswith("overall FAIL  3 datasets: 2 passed, 0 warned, 1 failed")
     (work / "gate.toml").write_text('[datasets]\nno_baseline = "allow"\n', encoding="utf-8")
     res = run("check", "landing/", "-b", "baselines/", "-p", "gate.toml", cwd=work)
     assert res.returncode == 2 and "/datasets/no_baseline" in res.stderr and "Traceback" not in res.stderr

@@ -46,9 +46,7 @@ def test_quiet_is_quiet_on_exit_2(tmp_path: Path):
     assert res.returncode == 2
     assert res.stdout == ""
     # only the reason for the exit code, on one line: no table, no problem list
-    assert res.stderr == (
-        "InputPathError: nothing readable: every one of 1 files failed (run without -q to see the problems)\n"
-    )
+    assert res.stderr == ("error: nothing readable: the only file failed (run without -q to see the problems)\n")
 
 
 def test_every_file_failed_still_writes_the_json_report(tmp_path: Path):
@@ -59,9 +57,7 @@ def test_every_file_failed_still_writes_the_json_report(tmp_path: Path):
     out = tmp_path / "report.json"
     res = run("scan", str(d), "-q", "--json", str(out), "--jobs", "1", "--csv-dialect", PIN)
     assert res.returncode == 2
-    assert res.stderr == (
-        "InputPathError: nothing readable: every one of 2 files failed (the problems are in the report)\n"
-    )
+    assert res.stderr == ("error: nothing readable: every one of the 2 files failed (the problems are in the report)\n")
     report = json.loads(out.read_text())
     issues = {f["path"]: [(i["kind"], i["line"]) for i in f["issues"]] for f in report["files"]}
     assert issues == {"bad.jsonl": [("malformed-json", 1)], "r.csv": [("ragged-row", 2), ("ragged-row", 3)]}
@@ -73,9 +69,7 @@ def test_every_file_failed_without_q_shows_the_problems_on_stderr(tmp_path: Path
     res = run("scan", str(tmp_path / "r.csv"), "--csv-dialect", PIN)
     assert res.returncode == 2 and res.stdout == ""
     assert "expected 2 fields, found 3; row skipped" in res.stderr
-    assert res.stderr.endswith(
-        "InputPathError: nothing readable: every one of 1 files failed (see the problems above)\n"
-    )
+    assert res.stderr.endswith("error: nothing readable: the only file failed (see the problems above)\n")
 
 
 @pytest.mark.slow

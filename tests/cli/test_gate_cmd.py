@@ -97,14 +97,14 @@ def test_the_pipeline_flow(pipeline: dict[str, Path]):
     # 1. The baseline was written from day 1: day 1 passes against it, and the state is built.
     res = run(*check, "--state", state)
     assert res.returncode == 0, res.stderr
-    assert res.stdout.startswith("PASS  0 warning(s), 0 violations\n")
+    assert res.stdout.startswith("PASS  0 violations, 0 warnings\n")
 
     # 2. Day 2 arrives with a benign widening: exit 0, with a warning naming the field.
     _day(land, 2)
     res = run(*check, "--state", state, "--json", d / "day2.json")
     assert res.returncode == 0, res.stderr
     out = res.stdout
-    assert out.startswith("PASS  1 warning(s), 0 violations\n")
+    assert out.startswith("PASS  0 violations, 1 warning\n")
     assert "  WARN  widening          temp: int64 → float64\n" in out
     assert "        at day=2026-11-29/part-0.jsonl, partition day=2026-11-29, row 1 (line 2)\n" in out
     assert "        value 25.25\n" in out
@@ -117,7 +117,7 @@ def test_the_pipeline_flow(pipeline: dict[str, Path]):
     res = run(*check, "--junit", d / "gate.xml", "--json", d / "full.json")
     assert res.returncode == 1, res.stderr
     out = res.stdout
-    assert out.startswith("FAIL  1 violation(s), 1 warning(s)\n")
+    assert out.startswith("FAIL  1 violation, 1 warning\n")
     assert "  FAIL  type_change       seq: int64 → string\n" in out
     assert "        at day=2026-11-30/part-0.jsonl, partition day=2026-11-30, row 17 (line 18)\n" in out
     assert '        value "17b"\n' in out
@@ -137,7 +137,7 @@ def test_the_pipeline_flow(pipeline: dict[str, Path]):
     bad.write_text('widening = "warn"\nnew_fields = "fail"\n', encoding="utf-8")
     res = run("check", land, "--baseline", contract, "--policy", bad, "--jobs", "1")
     assert res.returncode == 2
-    assert "PolicyError: policy file" in res.stderr and "unknown policy key 'new_fields'" in res.stderr
+    assert "error: policy file" in res.stderr and "unknown policy key 'new_fields'" in res.stderr
     assert "did you mean 'new_field'" in res.stderr and "Traceback" not in res.stderr
 
     # 6. An incremental run after day 3 reads only the new file, counted from the report,

@@ -66,7 +66,7 @@ def test_max_events_limits_the_terminal_list_only(tmp_path: Path):
 def test_missing_path_exits_2_without_traceback(tmp_path: Path):
     res = run("scan", str(tmp_path / "nope"))
     assert res.returncode == 2
-    assert "InputPathError:" in res.stderr and "does not exist" in res.stderr
+    assert res.stderr.startswith("error: ") and "does not exist" in res.stderr
     assert "Traceback" not in res.stderr
 
 

@@ -89,7 +89,7 @@ def test_dataset_picks_and_an_unknown_name_is_exit_2(work: Path) -> None:
     bad = run("scan", "landing/", "--dataset", "telemetry", cwd=work)
     assert bad.returncode == 2 and bad.stdout == ""
     assert bad.stderr.strip() == (
-        f"OptionError: no dataset named 'telemetry' under {work / 'landing'}; its datasets: 'depot_exports', "
+        f"error: no dataset named 'telemetry' under {work / 'landing'}; its datasets: 'depot_exports', "
         "'readings', 'stations.parquet'"
     )
     both = run("scan", "landing/", "--dataset", "readings", "--one-table", cwd=work)

@@ -164,7 +164,7 @@ def test_several_datasets_to_one_file_or_stdout_is_a_usage_error(work: Path) -> 
     res = run("schema", "landing/", "--to", "json-schema", cwd=work)
     assert res.returncode == 2 and res.stdout == b""
     assert res.stderr.decode().strip() == (
-        f"OptionError: --out -: '{root}' holds 3 datasets {listed} and --out writes standard output; give a folder "
+        f"error: --out -: '{root}' holds 3 datasets {listed} and --out writes standard output; give a folder "
         "(--out DIR/, one file per dataset) or pick one with --dataset NAME"
     )
     one = run("schema", "landing/", "--rules", "rules.json", cwd=work)
@@ -294,9 +294,7 @@ def test_strict_writes_the_datasets_without_conflict_and_exits_1(tmp_path: Path)
     assert os.listdir(tmp_path / "out") == ["b.sql"]
     assert (tmp_path / "out" / "b.sql").read_bytes() == run("schema", "root/b", "--to", "sql", cwd=tmp_path).stdout
     message = " ".join(alone.stderr.decode().split())
-    assert " ".join(res.stderr.decode().split()) == message.replace(
-        "SchemaConflictError: ", "SchemaConflictError: dataset a: ", 1
-    )
+    assert " ".join(res.stderr.decode().split()) == message.replace("error: ", "error: dataset a: ", 1)
 
 
 def test_a_report_set_gives_the_same_files_as_its_root(work: Path) -> None:
@@ -313,7 +311,7 @@ def test_a_report_set_gives_the_same_files_as_its_root(work: Path) -> None:
     assert picked.stdout == (work / "from-root" / "readings.sql").read_bytes()
     bad = run("schema", "set-for-schema.json", "--dataset", "nope", cwd=work)
     assert bad.returncode == 2 and bad.stderr.decode().strip() == (
-        "OptionError: no dataset named 'nope' in the report set; its datasets: 'depot_exports', 'readings', "
+        "error: no dataset named 'nope' in the report set; its datasets: 'depot_exports', 'readings', "
         "'stations.parquet'"
     )
 

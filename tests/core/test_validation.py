@@ -379,7 +379,8 @@ def test_the_issue_s_damaged_reports(valid: dict[str, Any], tmp_path: Path, dama
     for args in (("check", valid["land"], "--baseline", f), ("diff", f, valid["land"]), ("schema", f)):
         code, out, err = _invoke(*args)
         assert code == 2 and out == "", (args, err)
-        assert " ".join(err.split()) == f"DamagedFileError: report '{f}' {message}" or message in " ".join(
-            err.split()
-        ), (args, err)
+        assert " ".join(err.split()) == f"error: report '{f}' {message}" or message in " ".join(err.split()), (
+            args,
+            err,
+        )
     assert f.read_bytes() == before

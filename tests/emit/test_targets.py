@@ -209,7 +209,7 @@ def test_outputs_aimed_at_inputs_are_refused(tmp_path: Path, land: Path):
         res = run(*args, "--quiet")
         assert res.returncode == 2, (args, res.stderr)
         assert message in flat(res.stderr), (args, res.stderr)
-        assert res.stderr.startswith("OutputError: ") and "Traceback" not in res.stderr
+        assert res.stderr.startswith("error: ") and "Traceback" not in res.stderr
         assert snapshot(land) == before and outside.read_bytes() == kept
     assert sorted(p.name for p in land.iterdir()) == ["a.jsonl", "b.csv", "linked.jsonl", "sub"]
 

@@ -139,7 +139,7 @@ def test_a_full_disk_gives_a_clear_error_and_keeps_the_earlier_file(tmp_path):
         timeout=60,
     )
     assert res.returncode == 2
-    assert "OutputError: cannot write" in res.stderr and "the disk is full" in res.stderr
+    assert "error: cannot write" in res.stderr and "the disk is full" in res.stderr
     assert "the earlier file, if any, is unchanged" in res.stderr and "Traceback" not in res.stderr
     assert _outputs(out_dir) == {"report.json": EARLIER}
 

@@ -71,7 +71,7 @@ def test_a_nested_dataset_names_its_baseline_with_dots(tmp_path: Path) -> None:
     assert v.split and v.passed and v.exit_code == 0
     assert list(v.datasets) == ["crm/customers", "crm/orders", "crm/orders/returns"]
     assert {n: d.baseline for n, d in v.datasets.items()} == {  # as a check of one baseline names it
-        n: repr(str(folder / f"{n.replace('/', '.')}.schema.json")) for n in NESTED
+        n: str(folder / f"{n.replace('/', '.')}.schema.json") for n in NESTED
     }
     assert all(d.passed and not d.violations and not d.warnings for d in v.datasets.values())
     by_map = driftline.check(root, baseline={n: folder / f"{file_stem(n)}.schema.json" for n in NESTED}, jobs=1)
@@ -105,7 +105,7 @@ def test_one_baseline_file_on_several_datasets_is_refused_unless_one_is_picked(t
     with pytest.raises(driftline.OptionError, match=r"holds 3 datasets .* is one baseline"):
         driftline.check(root, baseline=schema, jobs=1)
     v = driftline.check(root, baseline=schema, dataset="readings", jobs=1)
-    assert v.split and list(v.datasets) == ["readings"] and v.datasets["readings"].baseline == repr(os.fspath(schema))
+    assert v.split and list(v.datasets) == ["readings"] and v.datasets["readings"].baseline == os.fspath(schema)
     with pytest.raises(driftline.OptionError, match="--one-table checks the root as one table"):
         driftline.check(root, baseline=tmp_path, one_table=True, jobs=1)
     with pytest.raises(driftline.OptionError, match="check needs a baseline"):
@@ -200,6 +200,6 @@ def test_a_roots_own_table_takes_the_baseline_named_after_its_folder(tmp_path: P
     _schema(folder / "readings.schema.json", {"station_id": "string", "ts": "string", "temp_c": "number"})
     _schema(folder / "depot_exports.schema.json", {"depot": "string"})
     v = driftline.check(root / "readings", baseline=folder, jobs=1)
-    assert list(v.datasets) == ["."] and v.datasets["."].baseline == repr(str(folder / "readings.schema.json"))
+    assert list(v.datasets) == ["."] and v.datasets["."].baseline == str(folder / "readings.schema.json")
     assert v.datasets["."].counts["rows"] == 12 and v.passed
     assert [(x.rule, x.change) for x in v.warnings] == [("unknown_dataset", "baseline for 'depot_exports'")]

@@ -198,7 +198,7 @@ def test_missing_required_counts_rows_and_knows_the_row_when_a_batch_lacks_it(tm
     v = compare(driftline.scan(tmp_path / "b", batch_rows=2), base)
     [m] = v.violations
     assert (m.rule, m.field, m.count, m.file, m.row) == ("missing_required", "k", 2, "x.jsonl", 2)
-    assert m.message == "absent from 2 row(s) in 1 file, where the baseline requires it"
+    assert m.message == "absent from 2 rows in 1 file, where the baseline requires it"
 
 
 def test_null_share_rise_needs_a_report_and_respects_the_limit(tmp_path):

@@ -10,7 +10,7 @@ from rich.console import Console
 
 import driftline
 from conftest import write_lines
-from driftline.gate.baseline import baseline_from_json_schema
+from driftline.gate.baseline import baseline_from_json_schema, load_baseline
 from driftline.gate.compare import compare
 from driftline.gate.policy import RULES, Policy
 from driftline.gate.verdict import junit_xml, render
@@ -50,17 +50,17 @@ def test_junit_has_one_case_per_rule_and_the_failures(tmp_path):
     failure = failed[0].find("failure")
     assert failure.get("type") == "type_change"
     assert failure.get("message") == (
-        "1 violation(s); first: id: int64 → string — 1 value(s) of type string in 1 file, which the baseline type "
+        "1 violation; first: id: int64 → string — 1 value of type string in 1 file, which the baseline type "
         'int64 cannot hold at day=3/part-0.jsonl, partition day=3, row 1 (line 2), e.g. "17b"'
     )
     assert (suite.get("tests"), suite.get("failures"), suite.get("errors")) == (str(len(RULES)), "1", "0")
     skipped = {c.get("name"): c.find("skipped").get("message") for c in cases if c.find("skipped") is not None}
-    assert skipped["narrowing"] == "allowed by the policy (0 change(s) seen)"
+    assert skipped["narrowing"] == "allowed by the policy (0 changes seen)"
     assert skipped["cast_loss"] == "the baseline declares no cast rules"
     assert suite.get("skipped") == str(len(skipped))
     outs = {c.get("name"): c.find("system-out").text for c in cases if c.find("system-out") is not None}
     assert outs["widening"] == (
-        "warning: id: int64 → float64 — 1 value(s) of type float64 in 1 file widen the "
+        "warning: id: int64 → float64 — 1 value of type float64 in 1 file widen the "
         "baseline type at day=3/part-0.jsonl, partition day=3, row 0 (line 1), e.g. 1.5"
     )
     assert set(outs) == {"widening", "new_field", "content_class"}
@@ -91,7 +91,7 @@ def test_terminal_shows_the_verdict_first_then_each_violation(tmp_path):
     buf = io.StringIO()
     render(v, Console(file=buf, width=100, color_system=None))
     lines = buf.getvalue().splitlines()
-    assert lines[0] == "FAIL  2 violation(s), 0 warning(s)"
+    assert lines[0] == "FAIL  2 violations, 0 warnings"
     body = "\n".join(lines)
     assert "  FAIL  type_change       id: int64 → string\n" in body
     assert '        at day=3/part-0.jsonl, partition day=3, row 1 (line 2)\n        value "17b"' in body
@@ -122,3 +122,17 @@ def test_json_lists_everything(tmp_path):
     }
     assert {r["rule"]: r["status"] for r in doc["rules"]}["type_change"] == "passed"
     assert doc["counts"]["rows"] == 2 and doc["counts"]["violations"] == 0
+
+
+def test_a_baseline_file_is_named_by_its_plain_path_in_json_and_junit(tmp_path):
+    schema_file = tmp_path / "contract.schema.json"
+    schema_file.write_text(json.dumps(SCHEMA))
+    write_lines(tmp_path / "d" / "part-0.jsonl", ['{"id": 1}'])
+    v = compare(driftline.scan(tmp_path / "d"), load_baseline(schema_file))
+    # common practice: a path in JSON is the string itself, no quotes of a programming language inside it
+    assert v.to_json()["baseline"] == str(schema_file)
+    props = {p.get("name"): p.get("value") for p in ET.fromstring(junit_xml(v)).find("testsuite").find("properties")}
+    assert props["baseline"] == str(schema_file)
+    buf = io.StringIO()
+    render(v, Console(file=buf, width=300, color_system=None))
+    assert buf.getvalue().splitlines()[1].startswith(f"checked {tmp_path / 'd'} against {schema_file}: ")

@@ -90,7 +90,7 @@ def test_strict_mode_refuses_conflicts_and_lists_them(tmp_path: Path):
     p = driftline.scan(_jsonl(tmp_path, [{"a": 1, "b": [1]}, {"a": 2.5, "b": 2}, {"a": "n/a", "b": None}]))
     rec = recommend(p)  # permissive: every field gets a rule
     assert [(x.path, x.rule) for x in rec.conflicts()] == [("b", "wrap_scalar_in_list")]
-    with pytest.raises(SchemaConflictError, match=r"strict mode: 1 fields need .*: b \(wrap_scalar_in_list\)") as exc:
+    with pytest.raises(SchemaConflictError, match=r"strict mode: 1 field needs .*: b \(wrap_scalar_in_list\)") as exc:
         recommend(p, mode="strict")
     assert [x.path for x in exc.value.conflicts] == ["b"]
     assert isinstance(exc.value, PolicyError)  # the strict policy cannot be met

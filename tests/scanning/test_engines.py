@@ -197,7 +197,7 @@ def test_silent_scheduler_times_out(demo_dir: Path, silent_port: int) -> None:
     address = f"tcp://127.0.0.1:{silent_port}"
     run = _scheduler_run(demo_dir, address, "--connect-timeout", "2")
     assert run.stderr == (
-        f"EngineError: {address} accepted the connection but did not answer as a dask scheduler "
+        f"error: {address} accepted the connection but did not answer as a dask scheduler "
         "within 2 s (--connect-timeout); check that the port is the scheduler's (8786 by default), "
         "not its dashboard or another service\n"
     )
@@ -208,7 +208,7 @@ def test_dead_scheduler_port(demo_dir: Path) -> None:
     address = f"tcp://127.0.0.1:{dead_port()}"
     run = _scheduler_run(demo_dir, address)
     assert run.stderr == (
-        f"EngineError: nothing listens at {address} (connection refused); check the address and "
+        f"error: nothing listens at {address} (connection refused); check the address and "
         "that `dask scheduler` runs there\n"
     )
 
@@ -227,8 +227,7 @@ def test_malformed_scheduler_address(demo_dir: Path, address: str, problem: str)
     run = _scheduler_run(demo_dir, address)
     sep = " " if problem.startswith("names") else ": "
     assert (
-        run.stderr == f"EngineError: --scheduler {address!r}{sep}{problem}; write tcp://HOST:PORT, "
-        "e.g. tcp://10.0.0.5:8786\n"
+        run.stderr == f"error: --scheduler {address!r}{sep}{problem}; write tcp://HOST:PORT, e.g. tcp://10.0.0.5:8786\n"
     )
 
 
@@ -254,7 +253,7 @@ def test_a_hung_dask_task_times_out(many_files: Path) -> None:
     assert run.returncode == 2, run.stderr
     # 301 files on 1 worker thread: runs of 76 files (engines.runs_of); the hung file is in the first run.
     assert (
-        "EngineError: no dask task finished within 5 s (--task-timeout) while reading the files from "
+        "error: no dask task finished within 5 s (--task-timeout) while reading the files from "
         "day=2026-11-01/part-0000.jsonl to day=2026-11-04/part-0074.jsonl (one task); check the workers of "
         "the local cluster"
     ) in run.stderr
@@ -269,6 +268,6 @@ def test_a_worker_address_is_not_a_scheduler(cluster: Any, demo_dir: Path) -> No
     worker = next(iter(cluster.scheduler_info["workers"]))
     run = _scheduler_run(demo_dir, worker, "--connect-timeout", "5")
     assert run.stderr == (
-        f"EngineError: {worker} is a dask Worker, not a scheduler; give the scheduler's address "
+        f"error: {worker} is a dask Worker, not a scheduler; give the scheduler's address "
         "(the one `dask scheduler` prints, port 8786 by default)\n"
     )

@@ -97,7 +97,7 @@ def test_a_worker_killed_twice_is_an_error_naming_the_file(landing: Path) -> Non
     assert run.stdout == ""  # nothing reported
     # source: signal(7): SIGKILL, the signal the out-of-memory killer sends
     assert (
-        "WorkerError: the worker process reading f07.jsonl died twice, the second time alone "
+        "error: the worker process reading f07.jsonl died twice, the second time alone "
         "(killed by SIGKILL: the out-of-memory killer, or another process); nothing was reported."
     ) in run.stderr
     assert "Traceback" not in run.stderr
@@ -120,7 +120,7 @@ def test_a_hung_worker_times_out(landing: Path) -> None:
     )
     assert run.returncode == 2
     assert (
-        "WorkerError: reading f07.jsonl did not finish within 3 s (--task-timeout); nothing was reported. "
+        "error: reading f07.jsonl did not finish within 3 s (--task-timeout); nothing was reported. "
         "Check that the file's storage answers"
     ) in run.stderr
     assert "Traceback" not in run.stderr

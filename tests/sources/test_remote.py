@@ -462,7 +462,7 @@ def test_silent_endpoint_is_a_bounded_clear_error(silent_port: int, tmp_path: Pa
     )
     assert run.returncode == 2
     assert run.stderr == (
-        f"InputPathError: cannot list s3://lake/landing: no answer from {url} within 1 s "
+        f"error: cannot list s3://lake/landing: no answer from {url} within 1 s "
         "(4 attempts); check that the endpoint is an S3 server and reachable (--endpoint-url, "
         "network, proxy), or raise --request-timeout\n"
     )
@@ -487,7 +487,7 @@ def test_dead_endpoint_is_a_clear_error(tmp_path: Path) -> None:
     )
     assert run.returncode == 2
     assert run.stderr == (
-        f"InputPathError: cannot list s3://lake/landing: cannot connect to {url} (4 attempts "
+        f"error: cannot list s3://lake/landing: cannot connect to {url} (4 attempts "
         "within --connect-timeout 1 s); check --endpoint-url and that the server is running\n"
     )
     assert run.peak < PEAK_LIMIT

@@ -5,12 +5,14 @@ from __future__ import annotations
 
 import logging
 import sys
+import traceback
 from collections.abc import Callable
 from functools import wraps
 from typing import Any, TypeVar
 
 import typer
 from rich.console import Console
+from typer.core import TyperArgument, TyperCommand
 
 from driftline.core.version import __version__
 from driftline.emit.safe import safe_text
@@ -33,6 +35,28 @@ app = typer.Typer(
 )
 
 err_console = Console(stderr=True, highlight=False)
+
+
+class _NamedArgument(TyperArgument):
+    """An argument shown by its metavar alone: 'PATH...' on the usage line and in the list, not
+    typer's '{paths}...' and '<list[str]>'."""
+
+    def _usage_display_name(self) -> str:
+        return self.metavar or super()._usage_display_name()
+
+    def display_type_rich(self, ctx: Any) -> str | None:
+        return None if self.metavar else super().display_type_rich(ctx)
+
+
+class PlainHelp(TyperCommand):
+    """A verb whose --help names its arguments as a person reads them (each verb's metavar)."""
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        for p in self.params:
+            if type(p) is TyperArgument:
+                p.__class__ = _NamedArgument  # same fields; only how it is shown differs
+
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -57,8 +81,26 @@ def _warnings_to_stderr() -> None:
         logger.setLevel(logging.INFO)
 
 
+# --debug (the root option, before the verb): an error names its class and shows its traceback.
+_debug = {"on": False}
+
+
+def error_line(exc: DriftlineError, debug: bool = False) -> str:
+    """The line an error prints: 'error: message'; with --debug the class is named too.
+
+    >>> from driftline.errors import InputPathError
+    >>> error_line(InputPathError("'x' does not exist"))
+    "error: 'x' does not exist"
+    >>> error_line(InputPathError("'x' does not exist"), debug=True)
+    "error (InputPathError): 'x' does not exist"
+    """
+    kind = f" ({type(exc).__name__})" if debug else ""
+    return f"error{kind}: {safe_text(exc, None)}"
+
+
 def handles_errors(fn: F) -> F:
-    """Turn library errors into 'Type: message' on stderr and exit code 2, never a traceback."""
+    """Turn library errors into 'error: message' on stderr and exit code 2, never a traceback
+    (unless --debug asks for it)."""
 
     @wraps(fn)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
@@ -67,7 +109,9 @@ def handles_errors(fn: F) -> F:
             return fn(*args, **kwargs)
         except DriftlineError as exc:
             # Plain write: an error message is never re-wrapped or styled.
-            sys.stderr.write(f"{type(exc).__name__}: {safe_text(exc, None)}\n")
+            if _debug["on"]:
+                traceback.print_exc(file=sys.stderr)
+            sys.stderr.write(error_line(exc, _debug["on"]) + "\n")
             raise typer.Exit(EXIT_USAGE) from None
         except KeyboardInterrupt:
             sys.stderr.write("interrupted; no output file was left half-written\n")
@@ -108,5 +152,9 @@ def _root(
     version: bool = typer.Option(
         False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
     ),
+    debug: bool = typer.Option(
+        False, "--debug", help="On an error, name its class and show the traceback (for a bug report)."
+    ),
 ) -> None:
     """driftline: what is really in a landing directory."""
+    _debug["on"] = debug

@@ -11,7 +11,7 @@ import typer
 from rich.console import Console
 
 import driftline
-from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, app, err_console, handles_errors
+from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
 from driftline.cli.read_flags import policy_of, takes_read_options
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.core.options import Config, ScanOptions
@@ -128,11 +128,13 @@ _INSIDE = typer.Option(
 )
 
 
-@app.command("check", help=CHECK_HELP, no_args_is_help=True)
+@app.command("check", cls=PlainHelp, help=CHECK_HELP, no_args_is_help=True)
 @handles_errors
 @takes_read_options
 def check_command(
-    paths: list[str] = typer.Argument(..., help="Data files, folders or globs; or one saved scan report."),
+    paths: list[str] = typer.Argument(
+        ..., metavar="PATH...", help="Data files, folders or globs; or one saved scan report."
+    ),
     baseline: str | None = typer.Option(
         None,
         "--baseline",
@@ -216,16 +218,19 @@ def _baseline_files(baseline: str | None) -> list[str]:
     return list(folder_baselines(baseline).values()) if baseline is not None and os.path.isdir(baseline) else []
 
 
-@app.command("diff", help=DIFF_HELP, no_args_is_help=True)
+@app.command("diff", cls=PlainHelp, help=DIFF_HELP, no_args_is_help=True)
 @handles_errors
 @takes_read_options
 def diff_command(
-    sides: list[str] = typer.Argument(..., help="Two sides (reports or paths), or one side with --by."),
+    sides: list[str] = typer.Argument(
+        ..., metavar="BEFORE [AFTER]", help="Two sides (reports or paths), or one side with --by."
+    ),
     by: str | None = typer.Option(None, "--by", metavar="KEY", help="Compare consecutive values of partition KEY."),
     json_out: str | None = typer.Option(None, "--json", metavar="FILE|-", help="Write the changes as JSON."),
     null_points: float = typer.Option(
         DEFAULT_NULL_POINTS,
         "--null-points",
+        metavar="POINTS",
         min=0.0,
         max=100.0,
         help="Smallest change of null share listed, in percentage points.",

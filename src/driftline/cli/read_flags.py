@@ -18,6 +18,7 @@ from typing import Any
 import typer
 
 from driftline.cli.app import ENCODING_OPTION
+from driftline.core.bytesize import exact_bytes, parse_bytes
 from driftline.core.options import (
     DEFAULT_BATCH_BYTES,
     DEFAULT_BATCH_ROWS,
@@ -60,7 +61,33 @@ class Flag:
 
 def _int(name: str, default: int | None, flag: str, help: str, *more: str) -> Flag:
     kind: Any = int if default is not None else int | None
-    return Flag(name, kind, typer.Option(default, flag, *more, min=1, max=RANGES[name][1], help=help))
+    return Flag(name, kind, typer.Option(default, flag, *more, metavar="N", min=1, max=RANGES[name][1], help=help))
+
+
+def byte_size(option: str, value: object) -> int:
+    """A byte size as a person writes it ('64GiB', '64 MiB', '1048576'), within the option's range.
+
+    >>> byte_size("batch_bytes", "64MiB")
+    67108864
+    """
+    try:
+        n = value if isinstance(value, int) else parse_bytes(str(value))
+    except ValueError as exc:
+        raise typer.BadParameter(str(exc)) from None
+    low, high = RANGES[option]
+    if not low <= n <= high:
+        raise typer.BadParameter(f"{n:,} bytes is outside {exact_bytes(int(low))}..{exact_bytes(int(high))}")
+    return n
+
+
+def _bytes(name: str, default: int, help: str) -> Flag:
+    flag = "--" + name.replace("_", "-")
+    # The default in words ('64 GiB'), as the help shows the others; click would bracket a text default.
+    shown = f"{help}  [default: {exact_bytes(default)}]"
+    option = typer.Option(
+        default, flag, metavar="BYTES", parser=functools.partial(byte_size, name), show_default=False, help=shown
+    )
+    return Flag(name, int, option)
 
 
 def _seconds(name: str, default: float, top: int, help: str) -> Flag:
@@ -116,11 +143,10 @@ READ_FLAGS: tuple[Flag, ...] = (
         ),
     ),
     _int("batch_rows", DEFAULT_BATCH_ROWS, "--batch-rows", "Rows per batch: drift is tracked batch by batch."),
-    _int(
+    _bytes(
         "batch_bytes",
         DEFAULT_BATCH_BYTES,
-        "--batch-bytes",
-        "A batch also ends once its records reach this many bytes of input (bounds memory; default 64 MiB).",
+        "A batch also ends once its records reach this many bytes of input (bounds memory); e.g. 64MiB.",
     ),
     _int(
         "jobs",
@@ -131,16 +157,14 @@ READ_FLAGS: tuple[Flag, ...] = (
         "-j",
     ),
     _int("max_errors", None, "--max-errors", "Stop reading new files once this many errors were found."),
-    _int(
+    _bytes(
         "max_record_bytes",
         DEFAULT_MAX_RECORD_BYTES,
-        "--max-record-bytes",
         "Longer JSON lines / CSV rows are reported, not read.",
     ),
-    _int(
+    _bytes(
         "max_decompressed_bytes",
         DEFAULT_MAX_DECOMPRESSED_BYTES,
-        "--max-decompressed-bytes",
         "Stop reading a file past this many bytes of content (decompression bombs); rows before are kept.",
     ),
     Flag(
@@ -149,6 +173,7 @@ READ_FLAGS: tuple[Flag, ...] = (
         typer.Option(
             DEFAULT_MAX_DECOMPRESSION_RATIO,
             "--max-decompression-ratio",
+            metavar="RATIO",
             min=1,
             max=RANGES["max_decompression_ratio"][1],
             help="Stop a compressed file once it expands more than this many times (judged past 16 MiB).",
@@ -175,7 +200,7 @@ READ_FLAGS: tuple[Flag, ...] = (
     Flag(
         "delimiter",
         str | None,
-        typer.Option(None, "--delimiter", help="CSV delimiter; found from the data if not given."),
+        typer.Option(None, "--delimiter", metavar="CHAR", help="CSV delimiter; found from the data if not given."),
     ),
     Flag(
         "csv_dialect",
@@ -189,6 +214,7 @@ READ_FLAGS: tuple[Flag, ...] = (
         typer.Option(
             "local",
             "--engine",
+            metavar="local|dask",
             help="Where files are read: local (processes) or dask (a cluster; install driftline[dask]).",
         ),
     ),
@@ -216,7 +242,7 @@ READ_FLAGS: tuple[Flag, ...] = (
     Flag(
         "region",
         str | None,
-        typer.Option(None, "--region", help="Region of the s3:// bucket (else AWS_REGION)."),
+        typer.Option(None, "--region", metavar="NAME", help="Region of the s3:// bucket (else AWS_REGION)."),
     ),
     Flag(
         "anonymous",

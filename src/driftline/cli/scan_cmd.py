@@ -13,9 +13,10 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TaskID, TextColumn, TimeElapsedColumn
 
 import driftline
-from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, app, err_console, handles_errors
+from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.core.options import Config, ScanOptions
+from driftline.core.words import every
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.html import write_html
 from driftline.emit.landing_text import one_table_note, render_landing
@@ -104,11 +105,11 @@ class _Bar:
             self.progress.stop()
 
 
-@app.command("scan", help=SCAN_HELP, no_args_is_help=True)
+@app.command("scan", cls=PlainHelp, help=SCAN_HELP, no_args_is_help=True)
 @handles_errors
 @takes_read_options
 def scan_command(
-    paths: list[str] = typer.Argument(..., help="Files, folders or globs to scan."),
+    paths: list[str] = typer.Argument(..., metavar="PATH...", help="Files, folders or globs to scan."),
     json_out: str | None = typer.Option(
         None, "--json", metavar="FILE|-", help="Write the whole report as JSON ('-' for stdout)."
     ),
@@ -213,7 +214,7 @@ def scan_command(
             if json_out or html_out
             else "run without -q to see the problems"
         )
-        raise InputPathError(f"nothing readable: every one of {len(profile.files)} files failed ({hint})")
+        raise InputPathError(f"nothing readable: {every(len(profile.files), 'file')} failed ({hint})")
     if profile.rows == 0 and not profile.files:
         raise typer.Exit(EXIT_USAGE)
     if fail_at is not None and fails_at(profile, fail_at):

@@ -11,11 +11,12 @@ import typer
 from rich.console import Console
 
 import driftline
-from driftline.cli.app import EXIT_VIOLATION, app, err_console, handles_errors
+from driftline.cli.app import EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.cli.scan_cmd import _all_failed as all_failed
 from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
 from driftline.core.options import Config, ScanOptions
+from driftline.core.words import every
 from driftline.emit.atomic import is_stdout, own_descriptor, write_output
 from driftline.emit.dataset_files import is_folder_target
 from driftline.emit.landing_text import one_table_note
@@ -116,12 +117,12 @@ def _check_out(target: str | None, what: str, *, folder_ok: bool = False) -> Non
         raise OutputError(f"cannot write {target!r} ({what}): it is a folder; give a file name")
 
 
-@app.command("schema", help=SCHEMA_HELP, no_args_is_help=True)
+@app.command("schema", cls=PlainHelp, help=SCHEMA_HELP, no_args_is_help=True)
 @handles_errors
 @takes_read_options
 def schema_command(
     paths: list[str] = typer.Argument(
-        ..., help="Data files, folders or globs; or one saved scan report (or report set)."
+        ..., metavar="PATH...", help="Data files, folders or globs; or one saved scan report (or report set)."
     ),
     to: str | None = typer.Option(
         None, "--to", metavar="FORMAT", help=f"Write the schema as one of: {', '.join(FORMATS)}."
@@ -253,7 +254,7 @@ def schema_command(
         whole = landing.whole
         if all_failed(whole):
             raise InputPathError(
-                f"nothing readable: every one of {len(whole.files)} files failed (driftline scan shows the problems)"
+                f"nothing readable: {every(len(whole.files), 'file')} failed (driftline scan shows the problems)"
             )
         rec = _recommended(lambda: driftline.recommend(whole, options=opts), console, quiet)
         return _write_one(rec, to, targets, table, json_mode, console, quiet)
@@ -274,7 +275,7 @@ def _recommended(
     except SchemaConflictError as exc:
         if not quiet:
             summary.render(exc.recommendation, console)
-        err_console.print(f"SchemaConflictError: {safe_text(exc, None)}", markup=False)
+        err_console.print(f"error: {safe_text(exc, None)}", markup=False)
         for plan in exc.conflicts:
             err_console.print("  " + summary.rule_line(plan), markup=False)
         raise typer.Exit(EXIT_VIOLATION) from None

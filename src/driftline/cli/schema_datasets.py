@@ -16,6 +16,7 @@ import driftline
 from driftline.cli.app import EXIT_VIOLATION, err_console
 from driftline.cli.scan_cmd import _all_failed as all_failed
 from driftline.core.options import ScanOptions
+from driftline.core.words import every
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.dataset_files import dataset_files, is_folder_target
 from driftline.emit.safe import safe_text
@@ -138,14 +139,14 @@ def by_dataset(
             if name in recs or name in conflicts:
                 summary.render(recs[name] if name in recs else conflicts[name].recommendation, console)
             else:
-                console.print(f"nothing readable: every one of its {len(landing.datasets[name].files)} files failed")
+                console.print(f"nothing readable: {every(len(landing.datasets[name].files), 'file')} failed")
             for _, what, path in files[name] if name in recs else ():
                 if not is_stdout(path):
                     console.print(f"{what} written to {safe_text(path)}", markup=False)
         if name in conflicts:
             conflict = conflicts[name]
             prefix = f"dataset {safe_text(name)}: " if several else ""
-            err_console.print(f"SchemaConflictError: {prefix}{safe_text(conflict, None)}", markup=False)
+            err_console.print(f"error: {prefix}{safe_text(conflict, None)}", markup=False)
             for plan in conflict.conflicts:
                 err_console.print("  " + summary.rule_line(plan), markup=False)
     if failed:

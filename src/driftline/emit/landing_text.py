@@ -17,6 +17,7 @@ from rich.table import Table
 from rich.text import Text
 
 from driftline.core.options import DEFAULT_MAX_EVENTS
+from driftline.core.words import count
 from driftline.emit.safe import safe_text
 from driftline.emit.terminal import render
 from driftline.emit.units import human_bytes
@@ -28,10 +29,6 @@ MAX_LOOSE_SHOWN = 50
 MAX_NOTICE_PATHS_SHOWN = 3
 
 
-def _count(n: int, what: str) -> str:
-    return f"{n:,} {what}" + ("" if n == 1 else "s")
-
-
 def headline(landing: Landing) -> Text:
     """'driftline scan ROOT' and the totals over the datasets read."""
     text = Text()
@@ -41,8 +38,8 @@ def headline(landing: Landing) -> Text:
     read = len(landing.datasets)
     of = f" (of {len(landing.found):,} found)" if read != len(landing.found) else ""
     text.append(
-        f"{_count(read, 'dataset')}{of}, {_count(landing.files, 'file')}, {landing.rows:,} rows, "
-        f"{human_bytes(landing.bytes)}; {_count(len(landing.loose), 'loose file')}, "
+        f"{count(read, 'dataset')}{of}, {count(landing.files, 'file')}, {landing.rows:,} rows, "
+        f"{human_bytes(landing.bytes)}; {count(len(landing.loose), 'loose file')}, "
         f"{len(landing.skipped):,} skipped"
     )
     return text

@@ -10,6 +10,8 @@ from collections import Counter
 from html import escape
 from typing import TYPE_CHECKING
 
+from driftline.core.words import count
+
 if TYPE_CHECKING:
     from driftline.results.profile import Profile
 
@@ -33,8 +35,9 @@ def profile_html(profile: Profile) -> str:
     e = escape
     out = [
         '<div class="driftline-profile">',
-        f"<p><b>Profile</b> {e(profile.root)}: {len(profile.files):,} files, {profile.rows:,} rows, "
-        f"{len(profile.fields):,} fields, {len(profile.events):,} drift events, {profile.error_count:,} errors</p>",
+        f"<p><b>Profile</b> {e(profile.root)}: {count(len(profile.files), 'file')}, {count(profile.rows, 'row')}, "
+        f"{count(len(profile.fields), 'field')}, {count(len(profile.events), 'drift event')}, "
+        f"{count(profile.error_count, 'error')}</p>",
     ]
     if profile.fields:
         out.append("<table><thead><tr><th>field</th><th>types</th><th>null</th><th>absent</th></tr></thead><tbody>")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from driftline.core.words import count
 from driftline.emit.safe import safe_text
 from driftline.results.drift import Event
 
@@ -42,16 +43,16 @@ def reach_text(e: Event) -> str:
     >>> reach_text(Event("nulls-begin", "t", None, "null", "a.jsonl", (), 0, 4, 5, None, 1, 1, 1, 1, 1, "a.jsonl", 4))
     '1 file, 1 row, from a.jsonl row 4 (line 5); still going'
     """
-    files = f"{e.files:,} file" + ("s" if e.files != 1 else "")
-    count, unit = (e.rows, "row") if e.rows is not None else (e.values, "value")
-    amount = f"{count:,} {unit}" + ("s" if count != 1 else "")
+    files = count(e.files, "file")
+    n, unit = (e.rows, "row") if e.rows is not None else (e.values, "value")
+    amount = count(n, unit)
     text = f"{files}, {amount}, from {_where(e.file, e.row)}" + (f" (line {e.line:,})" if e.line is not None else "")
     if e.partition_key is not None:
         text = partition_text(e) + "; " + text
     if (e.last_file, e.last_row) != (e.file, e.row):
         text += f" to {_where(e.last_file, e.last_row)}"
     if e.recurrences:
-        text += f", came back {e.recurrences:,} time" + ("s" if e.recurrences != 1 else "")
+        text += f", came back {count(e.recurrences, 'time')}"
     if e.ended_file is None:
         return text + "; still going"
     return text + f"; ended at {_where(e.ended_file, e.ended_row)}"

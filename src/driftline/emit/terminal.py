@@ -15,6 +15,7 @@ from rich.table import Table
 from rich.text import Text
 
 from driftline.core.options import DEFAULT_MAX_EVENTS
+from driftline.core.words import count
 from driftline.emit.reach import reach_text, short_reach
 from driftline.emit.safe import safe_text
 from driftline.emit.units import human_bytes
@@ -73,12 +74,12 @@ def overview(profile: Profile) -> Text:
     text.append(safe_text(profile.root, None))
     text.append("\n")
     text.append(
-        f"{len(profile.files)} files ({', '.join(f'{n} {k}' for k, n in sorted(formats.items()))}), "
-        f"{profile.rows:,} rows, {human_bytes(profile.bytes)}, {len(profile.fields)} fields, "
-        f"{len(profile.skipped)} skipped, {errors} file errors, {profile.duration_s:.2f} s"
+        f"{count(len(profile.files), 'file')} ({', '.join(f'{n} {k}' for k, n in sorted(formats.items()))}), "
+        f"{count(profile.rows, 'row')}, {human_bytes(profile.bytes)}, {count(len(profile.fields), 'field')}, "
+        f"{len(profile.skipped):,} skipped, {count(errors, 'file error')}, {profile.duration_s:.2f} s"
     )
     if profile.event_total:  # on the first screen, before the field table
-        text.append(f"\ndrift: {profile.event_total:,} event{'' if profile.event_total == 1 else 's'}, ")
+        text.append(f"\ndrift: {count(profile.event_total, 'event')}, ")
         text.append(levels_line(profile.level_counts))
     other = [s.rel for s in profile.skipped if s.reason == "other-extension"]
     if other:  # skipped unopened for their extension alone: say so, they may be data
@@ -88,7 +89,9 @@ def overview(profile: Profile) -> Text:
     parts = partition_types(profile)
     if parts:
         text.append("\npartitions: ")
-        text.append(", ".join(f"{safe_text(k)} ({v['type']}, {len(v['values'])} values)" for k, v in parts.items()))
+        text.append(
+            ", ".join(f"{safe_text(k)} ({v['type']}, {count(len(v['values']), 'value')})" for k, v in parts.items())
+        )
     encodings = encodings_line(profile)
     if encodings:
         text.append("\n" + encodings)
@@ -130,7 +133,7 @@ def encodings_line(profile: Profile) -> str:
     if len(other) > MAX_ENCODINGS_SHOWN:
         parts.append(f"… {len(other) - MAX_ENCODINGS_SHOWN} more in the JSON report")
     utf8 = len(text_files) - len(other)
-    return "text encodings: " + (f"{utf8} files utf-8; " if utf8 else "") + "; ".join(parts)
+    return "text encodings: " + (f"{count(utf8, 'file')} utf-8; " if utf8 else "") + "; ".join(parts)
 
 
 def shapes_block(found: Discriminator) -> Text:
@@ -150,7 +153,7 @@ def shapes_block(found: Discriminator) -> Text:
     text.append("shapes: ", style="bold")
     text.append(f"{what} {safe_text(found.name)} explains which fields the records hold (")
     shared = len(found.shared)
-    text.append(f"{len(found.shapes):,} values, {shared:,} field{'' if shared == 1 else 's'} shared, ")
+    text.append(f"{count(len(found.shapes), 'value')}, {count(shared, 'field')} shared, ")
     text.append(f"{len(found.explained):,} explained)\n")
     labels = [f"{safe_text(found.name)}={safe_text(s.value, 40)}" for s in found.shapes[:MAX_SHAPES_SHOWN]]
     width = max(map(len, labels), default=0)

@@ -21,7 +21,7 @@ spells them ('a.b', 'a[]', 'm{key}', backtick-quoted odd names).
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -345,8 +345,12 @@ def load_baseline(path: str | Path) -> Baseline:
 
     A JSON Schema (it has "$schema", "properties" or "type"), a scan report
     ("format": "driftline-report") or a cast-rules file ("format": "driftline-rules").
+    Its source is the path as given, plain (messages quote it).
     """
-    source = repr(str(path))
+    return replace(_loaded(path, repr(str(path))), source=str(path))
+
+
+def _loaded(path: str | Path, source: str) -> Baseline:
     doc = read_json_document(path, "baseline", UnreadableFileError)
     if isinstance(doc, Mapping) and doc.get("format") == "driftline-report":
         from driftline.results.report import from_dict

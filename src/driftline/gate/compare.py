@@ -13,6 +13,7 @@ True
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from types import MappingProxyType
@@ -21,6 +22,7 @@ from driftline.core import paths
 from driftline.core.lattice import DType, family, join, join_all, parse_key, shallow, type_of_key, type_text
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
+from driftline.core.words import count
 from driftline.gate.baseline import NULL_CLASSES, Baseline, Expected
 from driftline.gate.policy import RULES, Policy
 from driftline.gate.verdict import RuleResult, Verdict, Violation
@@ -191,7 +193,7 @@ def check_types(w: _Walk, out: _Findings) -> None:
                         "widening",
                         path,
                         f"{type_text(b)} → {type_text(joined)}",
-                        f"{{n}} value(s) of type {key} in {{files}} widen the baseline type",
+                        f"{{n value}} of type {key} in {{files}} widen the baseline type",
                         n,
                         obs.file,
                         st.first(type_sample(key)),
@@ -201,8 +203,7 @@ def check_types(w: _Walk, out: _Findings) -> None:
                         "type_change",
                         path,
                         f"{type_text(b)} → {key}",
-                        f"{{n}} value(s) of type {key} in {{files}}, which the baseline type "
-                        f"{type_text(b)} cannot hold",
+                        f"{{n value}} of type {key} in {{files}}, which the baseline type {type_text(b)} cannot hold",
                         n,
                         obs.file,
                         st.first(type_sample(key)),
@@ -214,7 +215,7 @@ def check_types(w: _Walk, out: _Findings) -> None:
                             "cast_loss",
                             path,
                             f"cast rule {exp.rule}: string → {type_text(b)}",
-                            "{n} string(s) in {files} that the cast rule would turn into null",
+                            "{n string} in {files} that the cast rule would turn into null",
                             n,
                             obs.file,
                             st.first(class_sample(cls)) if not st.text else st.first(type_sample("string")),
@@ -263,7 +264,7 @@ def check_fields(w: _Walk, out: _Findings) -> None:
                         "new_field",
                         path,
                         f"new field ({types})",
-                        "a field the baseline does not name: {n} value(s) in {files}",
+                        "a field the baseline does not name: {n value} in {files}",
                         st.present,
                         obs.file,
                         _earliest(st),
@@ -274,7 +275,7 @@ def check_fields(w: _Walk, out: _Findings) -> None:
                     "unexpected_nulls",
                     path,
                     "null in a non-nullable field",
-                    "{n} null(s) in {files} where the baseline allows none",
+                    "{n null} in {files} where the baseline allows none",
                     st.nulls,
                     obs.file,
                     st.first(NULL_SAMPLE),
@@ -293,12 +294,12 @@ def check_fields(w: _Walk, out: _Findings) -> None:
             if absent > 0:
                 # The first absent row is known only when the whole batch lacks a top-level field.
                 row = obs.row_start if seen is None and parent is None else None
-                places = "row(s)" if parent is None else "of its containers"
+                places = "{n row}" if parent is None else "{n} of its containers"
                 out.add(
                     "missing_required",
                     path,
                     "required field absent",
-                    f"absent from {{n}} {places} in {{files}}, where the baseline requires it",
+                    f"absent from {places} in {{files}}, where the baseline requires it",
                     absent,
                     obs.file,
                     None,
@@ -345,7 +346,7 @@ def check_content(w: _Walk, out: _Findings) -> None:
                     "content_class",
                     path,
                     f"new content class {cls}",
-                    f"{{n}} string(s) in {{files}}; the baseline allows: {allowed}",
+                    f"{{n string}} in {{files}}; the baseline allows: {allowed}",
                     n,
                     obs.file,
                     st.first(class_sample(cls)),
@@ -500,6 +501,20 @@ def _applies(rule: str, baseline: Baseline) -> str:
     return ""
 
 
+def _filled(template: str, n: int, files: int) -> str:
+    """A tally's message with its counts: '{n}' the number alone, '{n noun}' the number and its
+    noun agreeing, '{files}' the files counted.
+
+    >>> _filled("{n null} in {files}", 1, 2)
+    '1 null in 2 files'
+    """
+    text = _NOUN_SLOT.sub(lambda m: count(n, m.group(1)), template)
+    return text.replace("{n}", f"{n:,}").replace("{files}", count(files, "file"))
+
+
+_NOUN_SLOT = re.compile(r"\{n (\w+)\}")
+
+
 def _violations(profile: Profile, tallies: Iterable[_Tally], policy: Policy) -> list[Violation]:
     parts = {f.rel: f.partitions for f in profile.files}
     out = []
@@ -507,8 +522,7 @@ def _violations(profile: Profile, tallies: Iterable[_Tally], policy: Policy) -> 
         within = t.within or t.rule == "cast_loss" and t.count <= policy.max_cast_loss
         severity = "allow" if within else policy.action(t.rule)
         ex = t.first
-        nfiles = f"{len(t.files)} file" + ("s" if len(t.files) != 1 else "")
-        message = t.message.replace("{n}", f"{t.count:,}").replace("{files}", nfiles)
+        message = _filled(t.message, t.count, len(t.files))
         out.append(
             Violation(
                 rule=t.rule,
@@ -546,7 +560,7 @@ def compare(
         hits = [v for v in judged if v.rule == rule]
         why_not = _applies(rule, baseline)
         if action == "allow":
-            status, reason = "skipped", f"allowed by the policy ({len(hits)} change(s) seen)"
+            status, reason = "skipped", f"allowed by the policy ({count(len(hits), 'change')} seen)"
         elif why_not:
             status, reason = "skipped", why_not
         elif any(v.severity == "fail" for v in hits):

@@ -26,6 +26,7 @@ from rich.text import Text
 
 from driftline.core.jsontypes import JSONObject
 from driftline.core.options import ScanOptions
+from driftline.core.words import count
 from driftline.emit.safe import safe_text
 from driftline.errors import InputPathError
 from driftline.gate.diff import DEFAULT_NULL_POINTS, Diff, diff_fields, render
@@ -56,7 +57,7 @@ class DatasetDiff:
         """One line: how many datasets were compared, how many changed, which are on one side only."""
         changed = sum(1 for d in self.diffs.values() if d.changes)
         n = len(self.diffs)
-        text = f"{n} dataset{'s' if n != 1 else ''} compared, {changed} with changes"
+        text = f"{count(n, 'dataset')} compared, {changed} with changes"
         for side, names in ((self.before, self.only_before), (self.after, self.only_after)):
             if names:
                 text += f"; only in {side}: {', '.join(names)}"

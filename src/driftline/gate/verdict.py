@@ -19,6 +19,7 @@ from rich.text import Text
 from driftline.core.jsontypes import JSONObject
 from driftline.core.marker import remark
 from driftline.core.version import __version__
+from driftline.core.words import count
 from driftline.emit.safe import safe_text
 from driftline.gate.policy import RULES
 
@@ -259,7 +260,7 @@ def _cases(ts: ET.Element, verdict: Verdict, rules: tuple[RuleResult, ...]) -> N
         if r.status == "failed":
             fails = [v for v in found if v.severity == "fail"]
             first = fails[0]
-            message = _xml_text(f"{len(fails)} violation(s); first: {_line(first)}")
+            message = _xml_text(f"{count(len(fails), 'violation')}; first: {_line(first)}")
             failure = ET.SubElement(case, "failure", message=message, type=r.rule)
             failure.text = _xml_text("\n".join(_line(v) for v in fails))
         elif r.status == "skipped":
@@ -293,16 +294,16 @@ def render(verdict: Verdict, console: Console) -> None:
     """Verdict first, then each violation and warning with field, change, where and value."""
     c = verdict.counts
     head = Text()
+    # Both verdict lines count violations first, then warnings: the order of the sections below.
     if verdict.passed:
         head.append("PASS", style="bold green")
-        head.append(f"  {len(verdict.warnings)} warning(s), 0 violations")
     else:
         head.append("FAIL", style="bold red")
-        head.append(f"  {len(verdict.violations)} violation(s), {len(verdict.warnings)} warning(s)")
+    head.append(f"  {count(len(verdict.violations), 'violation')}, {count(len(verdict.warnings), 'warning')}")
     head.append(
         f"\nchecked {safe_text(verdict.root, None)} against {safe_text(verdict.baseline or 'no baseline', None)}: "
-        f"{c.get('files', 0)} files ({c.get('files_read', 0)} read, {c.get('files_reused', 0)} "
-        f"from state), {c.get('rows', 0):,} rows, {c.get('fields', 0)} fields"
+        f"{count(c.get('files', 0), 'file')} ({c.get('files_read', 0):,} read, {c.get('files_reused', 0):,} "
+        f"from state), {count(c.get('rows', 0), 'row')}, {count(c.get('fields', 0), 'field')}"
     )
     console.print(head, soft_wrap=True)
     for title, items, style in (("Violations", verdict.violations, "red"), ("Warnings", verdict.warnings, "yellow")):
@@ -316,7 +317,7 @@ def render(verdict: Verdict, console: Console) -> None:
             body.append(f"  … {len(items) - MAX_SHOWN} more in --json\n")
         console.print(body, end="", soft_wrap=True)
     if verdict.allowed:
-        console.print(f"\n{len(verdict.allowed)} change(s) allowed by the policy (listed in --json)")
+        console.print(f"\n{count(len(verdict.allowed), 'change')} allowed by the policy (listed in --json)")
     skipped = [r for r in verdict.rules if r.status == "skipped" and r.action != "allow"]
     if skipped:
         console.print(
@@ -347,13 +348,13 @@ def render_split(verdict: Verdict, console: Console) -> None:
     line.append("overall ")
     line.append("PASS" if verdict.passed else "FAIL", style="bold green" if verdict.passed else "bold red")
     line.append(
-        f"  {len(statuses)} dataset(s): {len(statuses) - len(failed) - len(warned)} passed, "
+        f"  {count(len(statuses), 'dataset')}: {len(statuses) - len(failed) - len(warned)} passed, "
         f"{len(warned)} warned, {len(failed)} failed"
     )
     if failed:
         line.append(" (failed: " + ", ".join(safe_text(n) for n in failed) + ")")
     if verdict.violations:
-        line.append(f"; {len(verdict.violations)} violation(s) of the root")
+        line.append(f"; {count(len(verdict.violations), 'violation')} of the root")
     console.print(line, soft_wrap=True)
 
 

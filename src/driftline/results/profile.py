@@ -15,6 +15,7 @@ from driftline.core.files import FileIssue, FileResult, Skipped
 from driftline.core.jsontypes import JSONValue
 from driftline.core.observation import Observation
 from driftline.core.stats import FieldStats, merge_all
+from driftline.core.words import count
 from driftline.errors import ProfileError
 from driftline.results.drift import Event, drift_summary
 from driftline.results.levels import LEVELS
@@ -271,6 +272,7 @@ class Profile:
 
     def __repr__(self) -> str:
         return (
-            f"<Profile {self.root!r}: {len(self.files)} files, {self.rows:,} rows, "
-            f"{len(self.fields)} fields, {len(self.events)} drift events, {self.error_count} errors>"
+            f"<Profile {self.root!r}: {count(len(self.files), 'file')}, {count(self.rows, 'row')}, "
+            f"{count(len(self.fields), 'field')}, {count(len(self.events), 'drift event')}, "
+            f"{count(self.error_count, 'error')}>"
         )

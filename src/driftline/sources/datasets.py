@@ -44,6 +44,7 @@ from dataclasses import dataclass, field
 from driftline.core.dataformat import FORMATS, Format
 from driftline.core.fileref import FileRef
 from driftline.core.files import Skipped
+from driftline.core.words import count
 from driftline.sources.discover import Discovery, discover
 from driftline.sources.peek import Peek
 from driftline.sources.registry import spec
@@ -537,8 +538,8 @@ def _folder_notices(
         out.append(
             Notice(
                 "no-dataset",
-                f"folder '{folder}' holds no dataset: {_count(loose_here, 'loose file')} and "
-                f"{_count(skipped_here, 'skipped file')}",
+                f"folder '{folder}' holds no dataset: {count(loose_here, 'loose file')} and "
+                f"{count(skipped_here, 'skipped file')}",
                 tuple(inside),
             )
         )
@@ -550,10 +551,6 @@ def _partition_of(folder: str, tables: set[str]) -> bool:
     """Whether folder is a partition folder of a dataset (its first folder below the dataset's is key=value)."""
     parts = folder.split("/")
     return any(_shown("/".join(parts[:i])) in tables and _is_partition(parts[i]) for i in range(len(parts)))
-
-
-def _count(n: int, what: str) -> str:
-    return f"{n:,} {what}" + ("" if n == 1 else "s")
 
 
 # -- from a root ---------------------------------------------------------------------------------

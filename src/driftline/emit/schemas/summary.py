@@ -15,6 +15,7 @@ from rich.table import Table
 from rich.text import Text
 
 from driftline.core.stats import Example
+from driftline.core.words import count
 from driftline.emit.safe import safe_text
 from driftline.recommendation.plan import CAUSES, Effect, FieldPlan, Recommendation
 from driftline.recommendation.rules import describe_inputs
@@ -101,7 +102,8 @@ def schema_table(rec: Recommendation) -> Table:
 def rules_block(rec: Recommendation) -> Text:
     plans = [p for p in rec.walk() if p.rule != "identity"]
     text = Text()
-    text.append(f"Cast rules ({len(plans)} fields need one)\n", style="bold")
+    need = "needs" if len(plans) == 1 else "need"
+    text.append(f"Cast rules ({count(len(plans), 'field')} {need} one)\n", style="bold")
     for plan in plans[:MAX_RULES_SHOWN]:
         text.append(rule_line(plan) + "\n")
         text.append(f"    does: {safe_text(plan.does, 240)}\n", style="dim")
@@ -119,8 +121,8 @@ def render(rec: Recommendation, console: Console) -> None:
     head.append("driftline schema ", style="bold")
     head.append(safe_text(rec.root, None))
     head.append(
-        f"\n{rec.rows:,} rows in {rec.files:,} files → {len(rec.fields)} top-level fields "
-        f"({rec.options.mode}; {len(rec.conflicts())} fields strict mode would refuse)"
+        f"\n{count(rec.rows, 'row')} in {count(rec.files, 'file')} → {count(len(rec.fields), 'top-level field')} "
+        f"({rec.options.mode}; {count(len(rec.conflicts()), 'field')} strict mode would refuse)"
     )
     console.print(head)
     console.print()
