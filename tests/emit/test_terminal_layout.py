@@ -22,7 +22,7 @@ from driftline.emit.terminal import render
 FIRST_SCREEN_80 = [
     "driftline scan demo/landing",
     "15 files (2 csv, 12 jsonl, 1 parquet), 4,694 rows, 111.7 KiB, 17 fields, 2",
-    "skipped, 1 file errors, 0.25 s",
+    "skipped, 1 file error, 0.25 s",
     "drift: 17 events, 11 breaking, 6 widening, 0 info",
     "partitions: region (string, 4 values), day (date32, 4 values)",
     "",
