@@ -307,7 +307,7 @@ def test_the_report_carries_the_encoding_and_loads_it_back(tmp_path: Path):
     assert load_report(tmp_path / "r.json") == profile
     assert file_from_json(file_json(profile.files[0])).encoding == TextEncoding("utf-16-le", "bom", 2)
     assert encodings_line(profile) == (
-        "text encodings: 1 files utf-8; a.csv utf-16-le (byte order mark); b.csv windows-1252 (not UTF-8)"
+        "text encodings: 1 file utf-8; a.csv utf-16-le (byte order mark); b.csv windows-1252 (not UTF-8)"
     )
 
 
