@@ -18,7 +18,6 @@ import os
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass
-from pathlib import Path
 
 from rich.console import Console
 from rich.rule import Rule
@@ -30,7 +29,7 @@ from driftline.core.words import count
 from driftline.emit.safe import safe_text
 from driftline.errors import InputPathError
 from driftline.gate.diff import DEFAULT_NULL_POINTS, Diff, diff_fields, render
-from driftline.gate.inputs import profile_of
+from driftline.gate.inputs import begins_like, profile_of
 from driftline.results.conceal import conceal
 from driftline.results.landing import Landing, load_report_set
 from driftline.results.profile import Profile
@@ -77,15 +76,7 @@ class DatasetDiff:
 
 def is_report_set(path: str | os.PathLike[str]) -> bool:
     """True when path is a file that begins like a driftline report set."""
-    p = Path(path)
-    if not p.is_file():
-        return False
-    try:
-        with p.open("rb") as fh:
-            head = fh.read(256)
-    except OSError:
-        return False
-    return _SET_HEAD.match(head) is not None
+    return begins_like(path, _SET_HEAD)
 
 
 def _kind(side: str) -> str | None:

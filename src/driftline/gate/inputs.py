@@ -31,17 +31,22 @@ _REPORT_HEAD = re.compile(rb'\A\s*\{\s*"format"\s*:\s*"driftline-report"')
 Side = Profile | str | os.PathLike[str]
 
 
-def is_report(path: str | os.PathLike[str]) -> bool:
-    """True when path is a file that begins like a driftline scan report."""
+def begins_like(path: str | os.PathLike[str], head: re.Pattern[bytes]) -> bool:
+    """True when path is a readable file whose first 256 bytes match head."""
     p = Path(path)
     if not p.is_file():
         return False
     try:
         with p.open("rb") as fh:
-            head = fh.read(256)
+            first = fh.read(256)
     except OSError:
         return False
-    return _REPORT_HEAD.match(head) is not None
+    return head.match(first) is not None
+
+
+def is_report(path: str | os.PathLike[str]) -> bool:
+    """True when path is a file that begins like a driftline scan report."""
+    return begins_like(path, _REPORT_HEAD)
 
 
 def profile_of(
