@@ -66,6 +66,8 @@ DOCTEST_MODULES = [
     "driftline.core.documents",
     "driftline.results.drift",
     "driftline.emit.reach",
+    "driftline.emit.html",
+    "driftline.emit.typestyle",
     "driftline.emit.units",
     "driftline.emit.schemas.files",
     "driftline.errors",

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import base64
 import hashlib
+import html
 import importlib.util
 import json
 import re
@@ -25,7 +26,7 @@ from conftest import ROOT
 from driftline.cli import app
 from driftline.emit import html as html_report
 from driftline.emit import html_data as hd
-from driftline.emit import svg
+from driftline.emit import svg, typestyle
 
 SCRIPT_NAME = "<script>alert(1)</script>"
 IMG_VALUE = "<img src=x onerror=alert(2)>"
@@ -175,21 +176,32 @@ def test_demo_report_is_small_and_shows_every_injected_change(demo: dict[str, An
 
 
 def test_demo_file_errors_are_listed_with_their_line(demo: dict[str, Any]) -> None:
-    text = " ".join(demo["parsed"].text)
+    text = "".join(demo["parsed"].text)  # a path is cut by <wbr> elements: its pieces join back
     for change in demo["manifest"]["changes"]:
         if change["change"] == "malformed-line":
             row = re.search(re.escape(change["file"]) + r"\s+(\d+)", text)
             assert row is not None and int(row.group(1)) == change["line"]
 
 
+def _strip(page: str) -> dict[str, str]:
+    """The one-line strip at the top: each fact's bold value by its name, each level's count."""
+    facts = dict(re.findall(r'<span class="fact" data-fact="([^"]+)">(?:<a [^>]*>)?<b>([^<]+)</b>', page))
+    levels = dict(re.findall(r'data-level-count="([a-z]+)" href="#changes-[a-z]+"><b>([^<]+)</b>', page))
+    return {**facts, **{f"level {k}": v for k, v in levels.items()}}
+
+
 def test_demo_overview_counts_match_the_manifest(demo: dict[str, Any]) -> None:
     parsed: Page = demo["parsed"]
     manifest = demo["manifest"]
-    facts = dict(re.findall(r"<dt>([^<]+)</dt><dd>([^<]*)</dd>", demo["page"]))
+    facts = _strip(demo["page"])
     assert facts["files"] == f"{len(manifest['files']):,}"
     assert facts["rows"] == f"{sum(f['rows'] for f in manifest['files']):,}"
-    assert facts["skipped"] == str(len(manifest["skipped"]))
-    assert facts["driftline"] == driftline.__version__
+    assert facts["datasets"] == "1"
+    errors = [c for c in manifest["changes"] if c["change"] == "malformed-line"]
+    assert facts["file-errors"] == f"{len(errors):,}" and len(errors) > 0
+    assert f'<span data-note="skipped">skipped: {len(manifest["skipped"])}</span>' in demo["page"]
+    # the version is in the footer, not among the facts at the top
+    assert "version" not in facts and f'<span id="version">driftline {driftline.__version__}</span>' in demo["page"]
     assert parsed.count("tr") >= len(demo["profile"].fields)
 
 
@@ -250,10 +262,10 @@ def test_event_levels_are_the_json_reports_breaking_first(demo: dict[str, Any]) 
     expected = sorted(range(1, len(levels) + 1), key=lambda n: (order.index(levels[n - 1]), n))
     assert [int(i.removeprefix("ev-")) for i, _ in rows] == expected
     assert levels[expected[0] - 1] == "breaking" and set(levels) == {"breaking", "widening"}  # the demo has both
-    # the counts per level near the top: in the overview, as the JSON report's levels count them
-    facts = dict(re.findall(r"<dt>([^<]+)</dt><dd>([^<]*)</dd>", demo["page"]))
-    assert facts["drift by level"] == ", ".join(f"{levels.count(lv):,} {lv}" for lv in order)
-    assert facts["drift events"] == f"{report['summary']['events']:,}"
+    # the counts per level at the top: in the strip, as the JSON report's levels count them
+    facts = _strip(demo["page"])
+    assert [facts[f"level {lv}"] for lv in order] == [f"{levels.count(lv):,}" for lv in order]
+    assert facts["events"] == f"{report['summary']['events']:,}"
 
 
 # -- scale ---------------------------------------------------------------------------------------
@@ -290,7 +302,7 @@ def test_500_fields_by_10000_files_stays_bounded(big: dict[str, Any]) -> None:
     )
     assert 'data-page-size="50"' in page
     # Partition matrices: 20 regions as they are, 500 days folded into MAX_COLUMNS runs.
-    assert "(string, 20 columns)" in page and f"(date32, {hd.MAX_COLUMNS} columns)" in page
+    assert re.search(r"\(string, 20 columns[,)]", page) and re.search(rf"\(date32, {hd.MAX_COLUMNS} columns[,)]", page)
 
 
 def test_big_profile_charts_the_type_conflicts_first(big: dict[str, Any]) -> None:
@@ -331,8 +343,9 @@ def test_palette_contrast_meets_wcag() -> None:
     css = (Path(html_report.__file__).parent / "html_assets" / "report.css").read_text(encoding="utf-8")
     var = dict(re.findall(r"--([a-z0-9]+): (#[0-9a-f]{6})", css))
     # source: WCAG 2.1 SC 1.4.3 (text 4.5:1) and SC 1.4.11 (graphical objects 3:1)
-    for name, colour, _ in svg.PALETTE:
-        assert _contrast(colour, "#ffffff") >= 3.0, name
+    for name, colour in typestyle.COLOURS.items():
+        assert _contrast(colour.fill, "#ffffff") >= 3.0, name
+        assert _contrast(svg.INK, colour.tint) >= 4.5, name  # matrix cells: ink text on each tint
     flag = re.search(r"svg \.mk \.flag \{ fill: (#[0-9a-f]{6})", css).group(1)  # type: ignore[union-attr]
     for fg, bg in [
         (svg.INK, svg.PAPER),
@@ -341,16 +354,66 @@ def test_palette_contrast_meets_wcag() -> None:
         ("#ffffff", flag),
         (var["accent"], "#ffffff"),
         (var["odd"], "#ffffff"),
+        ("#ffffff", var["odd"]),  # the breaking count's badge
+        ("#ffffff", var["accent"]),  # the widening one's
+        ("#ffffff", var["muted"]),  # the info one's
         (svg.ABSENT_COLOUR, "#ffffff"),
     ]:
         assert _contrast(fg, bg) >= 4.5, (fg, bg)
-    for i in range(len(svg.PALETTE)):  # matrix cells: ink text on each tint
-        assert _contrast(svg.INK, var[f"t{i}"]) >= 4.5, i
     assert _contrast(var["focus"], "#ffffff") >= 3.0  # the focus ring
-    # Readable without colour: every slot has its own pattern, and null / absent their own.
-    assert len({p for _, _, p in svg.PALETTE}) == len(svg.PALETTE)
+    # Readable without colour: the eight most common types differ in pattern as well as colour,
+    # and no two types share both; null and absent have their own.
+    styles = list(typestyle.TYPE_STYLES.values())
+    assert len(set(styles)) == len(styles)
+    common = [typestyle.TYPE_STYLES[k] for k in ("int64", "float64", "string", "bool", "timestamp", "timestamp-tz")]
+    common += [typestyle.TYPE_STYLES[k] for k in ("list", "struct")]
+    assert len({p for _, p in common}) == len({c for c, _ in common}) == 8
     sheet = svg.defs()
-    assert sheet.count("<pattern") == len(svg.PALETTE) + 2 and 'id="fill-null"' in sheet and 'id="fill-absent"' in sheet
+    assert sheet.count("<pattern") == len(set(styles)) + 2 and 'id="fill-null"' in sheet and 'id="fill-absent"' in sheet
+
+
+def test_every_lattice_type_has_a_style() -> None:
+    from driftline.core.lattice import NAMES
+
+    # the table covers every type name driftline knows (null is a series of its own)
+    assert {typestyle.type_name(n) for n in NAMES if n != "null"} == set(typestyle.TYPE_STYLES) - {"timestamp-tz"}
+    assert typestyle.type_name("timestamp[ns, Europe/Paris]") == "timestamp-tz"
+    assert typestyle.type_name("some-future-type") == "unknown"
+
+
+def _type_fills(page: str) -> dict[str, set[str]]:
+    """Each series' fills as the page draws them: timeline bands (data-series) and legend keys."""
+    out: dict[str, set[str]] = {}
+    for key, fill in re.findall(r'<path class="series" data-series="([^"]+)" d="[^"]*" fill="url\(#([^)]+)\)"', page):
+        out.setdefault(html.unescape(key), set()).add(fill)
+    return out
+
+
+def test_a_type_has_one_colour_and_pattern_in_every_report(tmp_path: Path) -> None:
+    # Two scans whose type sets differ (and whose most common type differs): int64 is the
+    # rarer of two types in one and the most common of three in the other.
+    a, b = tmp_path / "a", tmp_path / "b"
+    a.mkdir(), b.mkdir()
+    rows_a = [{"n": "x"}] * 30 + [{"n": 1}] * 3  # string, then int64
+    rows_b = [{"n": 1}] * 30 + [{"n": 1.5}] * 5 + [{"n": True}] * 2  # int64, float64, bool
+    (a / "a.jsonl").write_text("".join(json.dumps(r) + "\n" for r in rows_a), encoding="utf-8")
+    (b / "b.jsonl").write_text("".join(json.dumps(r) + "\n" for r in rows_b), encoding="utf-8")
+    page_a = html_report.render_html(driftline.scan(a, batch_rows=10), rules=False)
+    page_b = html_report.render_html(driftline.scan(b, batch_rows=10), rules=False)
+    fills_a, fills_b = _type_fills(page_a), _type_fills(page_b)
+    assert set(fills_a) == {"string", "int64"} and set(fills_b) == {"int64", "float64", "bool"}
+    assert fills_a["int64"] == fills_b["int64"] == {"fill-moss-dots"}  # the table's int64, in both
+    assert fills_a["string"] == {"fill-ember-stripes"} and fills_b["bool"] == {"fill-iris-grid"}
+    # the pattern those ids name is the same drawing in both pages: moss's colour with dots
+    tile = re.search(r'<pattern id="fill-moss-dots".*?</pattern>', page_a).group(0)  # type: ignore[union-attr]
+    assert tile in page_b and typestyle.COLOURS["moss"].fill in tile and "<circle" in tile
+    # the legend and the type bars use the same ids
+    for page in (page_a, page_b):
+        assert 'fill="url(#fill-moss-dots)" stroke="#1b2330"' in page  # a legend key
+        assert re.search(r'<svg class="bar".*?fill="url\(#fill-moss-dots\)"', page)
+    # and the matrix tint of a type (the style sheet's rule) is its colour's tint, from the same table
+    for page in (page_a, page_b):
+        assert f".c-moss {{ background: {typestyle.COLOURS['moss'].tint}; }}" in page
 
 
 def test_print_stylesheet_shows_every_page() -> None:

@@ -20,15 +20,17 @@ from importlib import resources
 from typing import Any
 
 import jinja2
-from markupsafe import Markup
+from markupsafe import Markup, escape
 
 from driftline.core.marker import remark
 from driftline.core.version import __version__
+from driftline.core.words import plural
 from driftline.emit import html_data as hd
 from driftline.emit import svg
 from driftline.emit.atomic import write_output
-from driftline.emit.reach import reach_text
+from driftline.emit.reach import reach_text, short_reach
 from driftline.emit.safe import safe_text
+from driftline.emit.typestyle import tint_class, type_css
 from driftline.emit.units import human_bytes
 from driftline.results.drift import EVENT_KINDS, Event
 from driftline.results.levels import LEVELS
@@ -42,6 +44,7 @@ MAX_EVENTS = 1_000
 MAX_ISSUES = 1_000
 MAX_SKIPPED = 200
 CHART_EVENTS_LISTED = 8  # events written out under each chart; the events list has all
+CHANGES_LISTED = 10  # changes of each level listed at the top of the page; the events list has all
 _KIND_RANK = {
     "type-conflict": 0,
     "type-widened": 0,
@@ -81,7 +84,20 @@ def _env() -> jinja2.Environment:
     env = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
     env.filters["t"] = _t
     env.filters["num"] = lambda n: f"{n:,}"
+    env.filters["path"] = path_markup
     return env
+
+
+def path_markup(value: object, limit: int | None = 300) -> Markup:
+    """A file path as markup that a browser wraps only after a `/` or a `=` (a <wbr> there),
+    never inside a folder's value (`day=2026-11-28`); the style sheet keeps the other break
+    opportunities shut (.path: overflow-wrap: break-word, only for a part wider than its box).
+
+    >>> str(path_markup("readings/region=east/day=2026-11-28/a<1>.jsonl"))
+    'readings/<wbr>region=<wbr>east/<wbr>day=<wbr>2026-11-28/<wbr>a&lt;1&gt;.jsonl'
+    """
+    text = str(escape(_t(value, limit)))
+    return Markup(text.replace("/", "/<wbr>").replace("=", "=<wbr>"))
 
 
 def _where(e: Event) -> str:
@@ -175,42 +191,92 @@ def _by_format_text(by_format: Mapping[str, Mapping[str, int]]) -> str:
     return " · ".join(f"{fmt} {', '.join(types)}" for fmt, types in by_format.items())
 
 
-def _overview(profile: Profile) -> list[tuple[str, str]]:
+@dataclass(frozen=True)
+class Fact:
+    """One item of the one-line strip at the top: a number and what it counts."""
+
+    name: str  # data-fact, for the tests and for styling
+    value: str  # shown in bold
+    noun: str
+    href: str | None = None  # where the item leads (a level's changes)
+
+
+def _strip(profile: Profile, datasets: Sequence[tuple[str, str | None]]) -> list[Fact]:
+    """The scan in one line: files, rows, datasets, size, then the file errors when any (the
+    events by level follow in the template, each level's count leading to its changes)."""
+    errors = sum(1 for i in profile.issues if i.severity == "error")
+    files, sets = len(profile.files), max(1, len(datasets))
+    facts = [
+        Fact("files", f"{files:,}", plural(files, "file")),
+        Fact("rows", f"{profile.rows:,}", plural(profile.rows, "row")),
+        Fact("datasets", f"{sets:,}", plural(sets, "dataset")),
+        Fact("size", human_bytes(profile.bytes), ""),
+    ]
+    if errors:
+        facts.append(Fact("file-errors", f"{errors:,}", plural(errors, "file error"), "#problems"))
+    return facts
+
+
+def _notes(profile: Profile) -> list[tuple[str, str]]:
+    """What the strip leaves out, on a small line under it: formats, partitions, fields, ..."""
     formats = Counter(f.format for f in profile.files)
-    issues = profile.issues
     parts = partition_types(profile)
-    return [
-        ("files", f"{len(profile.files):,}"),
-        ("rows", f"{profile.rows:,}"),
-        ("bytes", human_bytes(profile.bytes)),
+    warnings = sum(1 for i in profile.issues if i.severity == "warning")
+    notes = [
         ("formats", ", ".join(f"{n:,} {k}" for k, n in sorted(formats.items())) or "none"),
         (
             "partitions",
             "; ".join(f"{k} ({v['type']}, {len(v['values']):,} values)" for k, v in parts.items()) or "none",
         ),
         ("fields", f"{len(profile.fields):,}"),
-        ("drift by level", ", ".join(f"{n:,} {level}" for level, n in profile.level_counts.items())),
-        (
-            "drift events",
-            f"{profile.event_total:,}"
-            + (
-                f" (the first {len(profile.events):,} followed and listed: the most a scan holds)"
-                if profile.event_total > len(profile.events)
-                else ""
-            ),
-        ),
-        *(("limit reached", note) for note in limit_notes(profile)),
-        ("file errors", f"{sum(1 for i in issues if i.severity == 'error'):,}"),
-        ("warnings", f"{sum(1 for i in issues if i.severity == 'warning'):,}"),
-        ("skipped", f"{len(profile.skipped):,}"),
-        ("duration", f"{profile.duration_s:.2f} s"),
-        ("driftline", __version__),
     ]
+    if profile.event_total > len(profile.events):
+        notes.append(
+            (
+                "drift events",
+                f"{profile.event_total:,} (the first {len(profile.events):,} followed and listed: "
+                "the most a scan holds)",
+            )
+        )
+    notes += [("limit reached", note) for note in limit_notes(profile)]
+    notes += [("warnings", f"{warnings:,}"), ("skipped", f"{len(profile.skipped):,}")]
+    notes.append(("duration", f"{profile.duration_s:.2f} s"))
+    return notes
+
+
+def _changes(
+    profile: Profile, numbers: Mapping[int, int], charted: Mapping[str, str], listed: set[int]
+) -> list[dict[str, Any]]:
+    """What changed, for the top of the page: per level, breaking first, the first
+    CHANGES_LISTED episodes grouped by field (the fields in the order they first drift, as the
+    terminal lists them), each with the anchor of its field's timeline and of its event."""
+    groups: dict[str, dict[str, list[Event]]] = {level: {} for level in LEVELS}
+    for e in profile.events:
+        groups[e.level].setdefault(e.path, []).append(e)
+    out = []
+    for level, by_path in groups.items():
+        found = profile.level_counts.get(level, 0)
+        if not found:
+            continue
+        events = [e for fld in by_path.values() for e in fld]
+        items = []
+        for e in events[:CHANGES_LISTED]:
+            n = numbers[id(e)]
+            items.append(
+                {
+                    "n": n,
+                    "e": e,
+                    "chart": charted.get(e.path),
+                    "event": n if n in listed else None,
+                    "reach": short_reach(e),
+                }
+            )
+        out.append({"level": level, "found": found, "changes": items, "more": found - len(items)})
+    return out
 
 
 def _field_rows(
     profile: Profile,
-    styles: svg.Styles,
     drift: Counter[str],
     charted: Mapping[str, str],
     recs: Mapping[str, FieldRule] | None,
@@ -223,7 +289,7 @@ def _field_rows(
         rows.append(
             {
                 "path": path,
-                "bar": Markup(svg.type_bar(counts, order, styles.assign(order))),
+                "bar": Markup(svg.type_bar(counts, order)),
                 "types": _types_text(s),
                 "by_format": _by_format_text(profile.types_by_format.get(path, {})),
                 "ntypes": len(s.stats.types),
@@ -246,7 +312,7 @@ def by_level(events: Sequence[Event]) -> list[tuple[int, Event]]:
     return sorted(enumerate(events, 1), key=lambda ne: rank[ne[1].level])  # stable: scan order within a level
 
 
-def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int], listed: set[int]) -> list[dict[str, Any]]:
+def _charts(profile: Profile, numbers: Mapping[int, int], listed: set[int]) -> list[dict[str, Any]]:
     by_path: dict[str, list[Event]] = {}
     for e in profile.events:
         by_path.setdefault(e.path, []).append(e)
@@ -266,7 +332,6 @@ def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int], li
         for c in counts:
             totals.update(c.series())
         order = hd.series_order(dict(totals))
-        fills = styles.assign(order)
         markers = []
         for e in by_path[path]:
             obs = units[e.seq][2]
@@ -278,7 +343,7 @@ def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int], li
             {
                 "id": chart_id,
                 "path": path,
-                "svg": Markup(svg.timeline(chart_id + "-svg", path, bks, counts, order, fills, markers)),
+                "svg": Markup(svg.timeline(chart_id + "-svg", path, bks, counts, order, markers)),
                 "events": [(numbers[id(e)], e) for e in by_path[path][:CHART_EVENTS_LISTED]],
                 "more_events": max(0, len(by_path[path]) - CHART_EVENTS_LISTED),
                 "hidden_markers": max(0, len(markers) - svg.MAX_MARKERS),
@@ -288,17 +353,17 @@ def _charts(profile: Profile, styles: svg.Styles, numbers: Mapping[int, int], li
     return charts
 
 
-def _cell(c: hd.Counts, slot: Mapping[str, str]) -> dict[str, Any]:
+def _cell(c: hd.Counts) -> dict[str, Any]:
     if not c.container:
-        return {"text": "·", "notes": "", "title": "no rows here", "cls": "none", "sig": None}
+        return {"text": "·", "notes": "", "title": "no rows here", "cls": "c-none", "sig": None}
     present = sorted(c.types.items(), key=lambda kv: (-kv[1], kv[0]))
     if not present:
         text = "null" if c.nulls else "absent"
-        cls = "null" if c.nulls else "absent"
+        cls = "c-null" if c.nulls else "c-absent"
     else:
         nonnull = sum(c.types.values())
         text = present[0][0] if len(present) == 1 else " · ".join(f"{k} {svg.pct(n, nonnull)}" for k, n in present[:2])
-        cls = slot[present[0][0]].removeprefix("fill-")
+        cls = tint_class(present[0][0])
     notes = []
     if c.nulls and present:
         notes.append(f"null {svg.pct(c.nulls, c.container)}")
@@ -309,7 +374,10 @@ def _cell(c: hd.Counts, slot: Mapping[str, str]) -> dict[str, Any]:
     return {"text": text, "notes": ", ".join(notes), "title": title, "cls": cls, "sig": sig}
 
 
-def _matrices(profile: Profile, styles: svg.Styles) -> list[dict[str, Any]]:
+def _matrices(profile: Profile) -> list[dict[str, Any]]:
+    """A matrix per partition key of two or more values: the fields with drift first, by the
+    key's values; the columns holding a cell unlike most of its row come first (in value
+    order), so the one partition that changed is in view without scrolling, then the others."""
     drifting = list(dict.fromkeys(e.path for e in profile.events))
     wanted = (drifting + [p for p in profile.fields if p not in set(drifting)])[:MAX_MATRIX_ROWS]
     out = []
@@ -320,19 +388,22 @@ def _matrices(profile: Profile, styles: svg.Styles) -> list[dict[str, Any]]:
         per_col = hd.partition_counts(profile, key, columns, wanted)
         rows = []
         for path in wanted:
-            cells = [per_col[i][path] for i in range(len(columns))]
-            fills = styles.assign(hd.series_order(dict(profile.fields[path].stats.types)))
-            shown = [_cell(c, fills) for c in cells]
+            shown = [_cell(per_col[i][path]) for i in range(len(columns))]
             sigs = Counter(c["sig"] for c in shown if c["sig"] is not None)
             usual = sigs.most_common(1)[0][0] if sigs else None
             for c in shown:
                 c["odd"] = c["sig"] is not None and c["sig"] != usual
             rows.append({"path": path, "cells": shown, "odd": sum(c["odd"] for c in shown)})
+        odd = [i for i in range(len(columns)) if any(r["cells"][i]["odd"] for r in rows)]
+        order = odd + [i for i in range(len(columns)) if i not in set(odd)]
+        for r in rows:
+            r["cells"] = [r["cells"][i] for i in order]
         out.append(
             {
                 "key": key,
                 "type": info["type"],
-                "columns": columns,
+                "columns": [{"label": columns[i].label, "odd": i in set(odd), "last_odd": i == odd[-1]} for i in order],
+                "odd_columns": len(odd),
                 "rows": rows,
                 "left_out": max(0, len(profile.fields) - len(wanted)),
             }
@@ -343,7 +414,7 @@ def _matrices(profile: Profile, styles: svg.Styles) -> list[dict[str, Any]]:
 def render_html(
     profile: Profile, *, rules: Mapping[str, FieldRule] | bool = True, datasets: Sequence[tuple[str, str | None]] = ()
 ) -> str:
-    """The whole report as one HTML document (a str). datasets: for a page of one dataset of a
+    r"""The whole report as one HTML document (a str). datasets: for a page of one dataset of a
     root of several, every dataset's name with the address of its page (None for this page's
     own), shown as the page's dataset picker.
 
@@ -362,17 +433,14 @@ def render_html(
     else:
         recs = rules
     template, css, js = _assets()
-    totals: Counter[str] = Counter()
-    for s in profile.fields.values():
-        totals.update(s.stats.types)
-    styles = svg.Styles.for_totals(dict(totals))
+    css += type_css()  # the types' tints, from the one table the charts' patterns come from
     numbers = {id(e): i for i, e in enumerate(profile.events, 1)}
     events = by_level(profile.events)[:MAX_EVENTS]
     listed = {n for n, _ in events}
-    charts = _charts(profile, styles, numbers, listed)
+    charts = _charts(profile, numbers, listed)
     charted = {c["path"]: c["id"] for c in charts}
     drift = Counter(e.path for e in profile.events)
-    fields = _field_rows(profile, styles, drift, charted, recs)
+    fields = _field_rows(profile, drift, charted, recs)
     page = (
         _env()
         .from_string(template)
@@ -387,13 +455,16 @@ def render_html(
             css=Markup(css),
             js=Markup(js),
             defs=Markup(svg.defs()),
-            overview=_overview(profile),
+            strip=_strip(profile, datasets),
+            notes=_notes(profile),
+            changes=_changes(profile, numbers, charted, listed),
+            event_total=profile.event_total,
             fields=fields,
             fields_left_out=max(0, len(profile.fields) - len(fields)),
             with_recs=recs is not None,
             charts=charts,
             charts_left_out=max(0, len(drift) - len(charts)),
-            matrices=_matrices(profile, styles),
+            matrices=_matrices(profile),
             events=events,
             events_left_out=max(0, len(profile.events) - MAX_EVENTS),
             listed=listed,
@@ -407,7 +478,6 @@ def render_html(
             where=_where,
             parts=_parts,
             count_text=_count_text,
-            palette=svg.PALETTE,
             datasets=datasets,
         )
     )

@@ -18,7 +18,7 @@ from driftline.core.observation import Observation
 from driftline.results.profile import Profile
 
 MAX_BUCKETS = 96  # points on a timeline: about 10 px each on a 960 px chart
-MAX_COLUMNS = 40  # columns of a partition matrix
+MAX_COLUMNS = 150  # columns of a partition matrix (it scrolls sideways in its own box)
 NULL, ABSENT = "null", "absent"  # the two series that are not types
 
 

@@ -1,31 +1,22 @@
 """Inline SVG for the HTML report: the palette, fill patterns, type-share bars and drift timelines.
 
 Our own visual language: each type gets a colour AND a fill pattern (solid, stripes,
-dots, grid, ...), nulls are grey dots and absent values a grey hatch on white, so the
-charts read without colour and in greyscale print. Every piece of data passes through
+dots, grid, ...), the same in every report (emit.typestyle's table), nulls are grey dots
+and absent values a grey hatch on white, so the charts read without colour and in
+greyscale print. Every piece of data passes through
 esc() (safe_text, then HTML escaping) before it enters the markup.
 """
 
 from __future__ import annotations
 
 import html
-from collections.abc import Mapping, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 
-from driftline.emit.html_data import ABSENT, NULL, Bucket, Counts, bucket_of
+from driftline.emit.html_data import Bucket, Counts, bucket_of
 from driftline.emit.safe import safe_text
+from driftline.emit.typestyle import COLOURS, fill_id, used_styles
 
-# (name, colour, pattern): every colour has at least 3:1 contrast on white (WCAG 2.1 1.4.11).
-PALETTE: tuple[tuple[str, str, str], ...] = (
-    ("tide", "#1f6f8b", "solid"),
-    ("ember", "#b8491f", "stripes"),
-    ("moss", "#55731a", "dots"),
-    ("iris", "#6148a8", "grid"),
-    ("clay", "#8f5f22", "rows"),
-    ("berry", "#a3306a", "columns"),
-    ("slate", "#3f5068", "checks"),
-    ("lagoon", "#0e7a66", "backslash"),
-)
 NULL_COLOUR, ABSENT_COLOUR = "#767676", "#6e6e6e"
 INK, PAPER, MUTED = "#1b2330", "#fbfaf6", "#525a66"
 
@@ -55,12 +46,12 @@ def _marks(pattern: str) -> str:
 
 
 def defs() -> str:
-    """One hidden SVG holding every pattern; the other SVGs of the page refer to them by id."""
+    """One hidden SVG holding every pattern of the type table; the other SVGs of the page refer to them by id."""
     tiles = []
-    for i, (_, colour, pattern) in enumerate(PALETTE):
+    for colour, pattern in used_styles():
         tiles.append(
-            f'<pattern id="fill-{i}" width="8" height="8" patternUnits="userSpaceOnUse">'
-            f'<rect width="8" height="8" fill="{colour}"/>{_marks(pattern)}</pattern>'
+            f'<pattern id="fill-{colour}-{pattern}" width="8" height="8" patternUnits="userSpaceOnUse">'
+            f'<rect width="8" height="8" fill="{COLOURS[colour].fill}"/>{_marks(pattern)}</pattern>'
         )
     tiles.append(
         f'<pattern id="fill-null" width="6" height="6" patternUnits="userSpaceOnUse">'
@@ -78,39 +69,6 @@ def defs() -> str:
     )
 
 
-@dataclass(frozen=True)
-class Styles:
-    """Which palette slot each type key gets: by how common it is in the whole scan."""
-
-    preferred: Mapping[str, int]
-
-    @staticmethod
-    def for_totals(totals: Mapping[str, int]) -> Styles:
-        order = sorted(totals, key=lambda k: (-totals[k], k))
-        return Styles({k: i % len(PALETTE) for i, k in enumerate(order)})
-
-    def assign(self, series: Sequence[str]) -> dict[str, str]:
-        """Fill ids for the series of one chart: the preferred slot, or the next free one.
-
-        >>> Styles({"int64": 0, "string": 0}).assign(["int64", "string", "null"])
-        {'int64': 'fill-0', 'string': 'fill-1', 'null': 'fill-null'}
-        """
-        taken: set[int] = set()
-        out = {}
-        for key in series:
-            if key in (NULL, ABSENT):
-                out[key] = f"fill-{key}"
-                continue
-            slot = self.preferred.get(key, 0)
-            for step in range(len(PALETTE)):
-                if (slot + step) % len(PALETTE) not in taken:
-                    slot = (slot + step) % len(PALETTE)
-                    break
-            taken.add(slot)
-            out[key] = f"fill-{slot}"
-        return out
-
-
 def pct(part: int, whole: int) -> str:
     """A share as short text.
 
@@ -123,7 +81,7 @@ def pct(part: int, whole: int) -> str:
     return "<0.1%" if share < 0.1 else f"{share:.1f}%".replace(".0%", "%")
 
 
-def type_bar(counts: Counts, order: Sequence[str], fills: Mapping[str, str], width: int = 120) -> str:
+def type_bar(counts: Counts, order: Sequence[str], width: int = 120) -> str:
     """A small stacked bar of one field's shares (types, null, absent) with a text alternative."""
     total = counts.container or 1
     parts, x = [], 0.0
@@ -134,7 +92,7 @@ def type_bar(counts: Counts, order: Sequence[str], fills: Mapping[str, str], wid
         if not n:
             continue
         w = width * n / total
-        parts.append(f'<rect x="{x:.1f}" width="{max(w, 0.8):.1f}" height="12" fill="url(#{fills[key]})"/>')
+        parts.append(f'<rect x="{x:.1f}" width="{max(w, 0.8):.1f}" height="12" fill="url(#{fill_id(key)})"/>')
         x += w
     return (
         f'<svg class="bar" viewBox="0 0 {width} 12" width="{width}" height="12" role="img" aria-label="{esc(label)}">'
@@ -185,7 +143,6 @@ def timeline(
     bks: Sequence[Bucket],
     counts: Sequence[Counts],
     order: Sequence[str],
-    fills: Mapping[str, str],
     markers: Sequence[Marker],
 ) -> str:
     """A stacked step chart of a field's shares over the scan-order buckets, with event markers."""
@@ -215,7 +172,7 @@ def timeline(
         ys_hi = [bottom - PLOT_H * min(v, 1.0) for v in upper]
         out.append(
             f'<path class="series" data-series="{esc(key, None)}" d="{_step_band(xs, ys_lo, ys_hi)}" '
-            f'fill="url(#{fills[key]})" stroke="#fff" stroke-width=".6"><title>{esc(key)}</title></path>'
+            f'fill="url(#{fill_id(key)})" stroke="#fff" stroke-width=".6"><title>{esc(key)}</title></path>'
         )
         lower = upper
     # Steps where nothing could hold the field (its parent absent): a labelled gap.
@@ -231,7 +188,7 @@ def timeline(
         f'stroke="{INK}" stroke-width="1"/>'
     )
     out.append(_axis(bks, xs, bottom))
-    out.append(_legend(order, fills, counts, bottom + 46))
+    out.append(_legend(order, counts, bottom + 46))
     out.append(_markers(bks, xs, markers, bottom))
     out.append("</svg>")
     return "".join(out)
@@ -291,14 +248,14 @@ def _common_folders(groups: Sequence[str]) -> int:
     return n
 
 
-def _legend(order: Sequence[str], fills: Mapping[str, str], counts: Sequence[Counts], y: float) -> str:
+def _legend(order: Sequence[str], counts: Sequence[Counts], y: float) -> str:
     total = sum(c.container for c in counts) or 1
     x, parts = float(LEFT), []
     for key in order:
         n = sum(c.series().get(key, 0) for c in counts)
         text = f"{safe_text(key, 40)} {pct(n, total)}"
         parts.append(
-            f'<g class="key"><rect x="{x:.1f}" y="{y}" width="14" height="12" fill="url(#{fills[key]})" '
+            f'<g class="key"><rect x="{x:.1f}" y="{y}" width="14" height="12" fill="url(#{fill_id(key)})" '
             f'stroke="{INK}" stroke-width=".8"/>'
             f'<text x="{x + 19:.1f}" y="{y + 10}">{esc(text, None)}</text></g>'
         )

@@ -45,9 +45,12 @@
     var pages = Math.max(1, Math.ceil(shown.length / this.size));
     this.page = Math.min(Math.max(this.page, 0), pages - 1);
     var lo = this.page * this.size, hi = lo + this.size;
+    var onPage = shown.slice(lo, hi);
     all.forEach(function (el) { el.classList.add("off-page"); });
-    shown.slice(lo, hi).forEach(function (el) { el.classList.remove("off-page"); });
-    this.status.textContent = "page " + (this.page + 1) + " of " + pages + " · " + shown.length + " shown";
+    onPage.forEach(function (el) { el.classList.remove("off-page"); });
+    // What this page shows, out of the items that pass the filters (all of them without one).
+    this.status.textContent = "page " + (this.page + 1) + " of " + pages + " · " + onPage.length + " shown of " +
+      shown.length + (shown.length < all.length ? " (" + (all.length - shown.length) + " filtered out)" : "");
     this.prev.disabled = this.page === 0;
     this.next.disabled = this.page >= pages - 1;
     this.nav.hidden = pages <= 1 && shown.length === all.length;
