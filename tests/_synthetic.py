@@ -9,6 +9,7 @@ a string instead of int64 (a type conflict per such field).
 from __future__ import annotations
 
 from datetime import date, timedelta
+from pathlib import Path
 
 from driftline.core.files import FileResult
 from driftline.core.observation import Observation
@@ -37,3 +38,21 @@ def big_profile(n_files: int = 10_000, n_fields: int = 500, per_file: int = 10, 
         obs = Observation(rel, 0, 0, rows, dict(sorted(fields.items())))
         files.append(FileResult(rel, "jsonl", None, (("region", region), ("day", day)), 4096, 0, rows, (obs,)))
     return Profile("synthetic", tuple(files))
+
+
+def partition_landing(root: Path, values: int = 120, odd: int = 77) -> Path:
+    """A landing folder of `values` partition folders station=s000, s001, ... of three rows
+    each, where the partition `odd` alone carries temperature_celsius as a JSON string
+    instead of a number: one changed column among many in the partition matrix."""
+    import json
+
+    for i in range(values):
+        folder = root / f"station=s{i:03d}"
+        folder.mkdir(parents=True, exist_ok=True)
+        rows = []
+        for j in range(3):
+            temp: float | str = 20.5 + j
+            rows.append({"reading_id": i * 10 + j, "temperature_celsius": str(temp) if i == odd else temp})
+            rows[-1]["station_name"] = f"station {i}"
+        (folder / "part-0.jsonl").write_text("".join(json.dumps(r) + "\n" for r in rows), encoding="utf-8")
+    return root

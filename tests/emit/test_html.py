@@ -536,3 +536,148 @@ def test_types_cell_says_which_format_gave_which_type(demo_profile) -> None:
     titles = re.findall(r'title="by format: ([^"]*)"', page)
     assert "csv timestamp[us] · jsonl string · parquet timestamp[us, UTC]" in titles
     assert len(titles) == 4  # pm10, pm25, tags, ts: the fields whose formats differ
+
+
+# -- the first screen: what changed ------------------------------------------------------------------
+
+
+class Changes(HTMLParser):
+    """The 'What changed' list read back: per level, each item's event number, its text and its links."""
+
+    def __init__(self, text: str) -> None:
+        super().__init__(convert_charrefs=True)
+        self.levels: list[str] = []
+        self.items: list[dict[str, Any]] = []
+        self._ul: str | None = None
+        self._li: dict[str, Any] | None = None
+        self.feed(text)
+        self.close()
+
+    def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        a = {k: v or "" for k, v in attrs}
+        if tag == "ul" and "changes" in a.get("class", "").split():
+            self._ul = a["data-level"]
+            self.levels.append(self._ul)
+        elif tag == "li" and self._ul and "data-event" in a:
+            self._li = {"level": self._ul, "n": int(a["data-event"]), "text": "", "links": []}
+            self.items.append(self._li)
+        elif tag == "a" and self._li is not None:
+            self._li["links"].append(a["href"])
+
+    def handle_endtag(self, tag: str) -> None:
+        if tag == "li":
+            self._li = None
+        elif tag == "ul":
+            self._ul = None
+
+    def handle_data(self, data: str) -> None:
+        if self._li is not None:
+            self._li["text"] += data
+
+
+def test_what_changed_comes_first_by_level_with_links(demo: dict[str, Any]) -> None:
+    from driftline.emit.reach import short_reach
+    from driftline.results.report import to_dict
+
+    page = demo["page"]
+    report = json.loads(json.dumps(to_dict(demo["profile"])))
+    events = report["events"]
+    # the list comes before every other section: right after the strip
+    assert page.index('id="changes"') < page.index('id="fields"') < page.index('id="timelines"')
+    changes = Changes(page)
+    order = ["breaking", "widening", "info"]  # source: docs/drift.md, "Levels"
+    assert changes.levels == [lv for lv in order if any(e["level"] == lv for e in events)]
+    listed = changes.items
+    per_level = {lv: [i for i in listed if i["level"] == lv] for lv in order}
+    for lv, items in per_level.items():
+        found = [n for n, e in enumerate(events, 1) if e["level"] == lv]
+        assert len(items) == min(len(found), html_report.CHANGES_LISTED), lv
+        # each level's items are its events (the JSON report's numbers), grouped by field as the terminal does
+        fields = list(dict.fromkeys(events[n - 1]["path"] for n in found))
+        grouped = [n for f in fields for n in found if events[n - 1]["path"] == f]
+        assert [i["n"] for i in items] == grouped[: html_report.CHANGES_LISTED], lv
+        more = len(found) - len(items)
+        assert (f"… {more} more {lv} change" in page) == (more > 0)
+    charts = dict(re.findall(r'<figure class="chart" id="(chart-\d+)" data-item>\s*<figcaption><code>([^<]*)', page))
+    chart_of = {html.unescape(p): c for c, p in charts.items()}
+    profile_events = demo["profile"].events
+    for item in listed:
+        e = events[item["n"] - 1]
+        text = " ".join(item["text"].split())
+        # one line: its number, field, kind, from → to and short reach
+        before, after = e["before"] or "–", e["after"] or "–"
+        assert text.startswith(f"#{item['n']} {e['path']} {e['kind']} {before} → {after} "), text
+        assert text.endswith(short_reach(profile_events[item["n"] - 1])), text
+        # it links to its field's timeline and to its row of the events list, both on the page
+        assert item["links"] == [f"#ev-{item['n']}", f"#{chart_of[e['path']]}"]
+        assert f'<tr id="ev-{item["n"]}"' in page
+    # the demo's first change is breaking, and the strip's level counts lead to their lists
+    assert listed[0]["level"] == "breaking"
+    assert 'href="#changes-breaking"' in page and 'id="changes-breaking"' in page
+
+
+def test_a_scan_without_drift_says_so_at_the_top(tmp_path: Path) -> None:
+    (tmp_path / "a.jsonl").write_text('{"a": 1}\n{"a": 2}\n', encoding="utf-8")
+    page = html_report.render_html(driftline.scan(tmp_path), rules=False)
+    assert Changes(page).items == []
+    top = page[page.index('id="changes"') : page.index('id="fields"')]
+    assert "No drift: every batch shows the same fields and types." in top
+    assert _strip(page) == {"files": "1", "rows": "2", "datasets": "1", "size": "18 B", "events": "0"}
+
+
+def test_the_strip_counts_datasets_of_a_report_set(demo: dict[str, Any]) -> None:
+    page = html_report.render_html(demo["profile"], rules=False, datasets=[("a", None), ("b", "p.b.html")])
+    assert _strip(page)["datasets"] == "2"
+
+
+# -- paths ---------------------------------------------------------------------------------------------
+
+
+def test_paths_break_only_after_slash_and_equals() -> None:
+    markup = str(html_report.path_markup("readings/region=east/day=2026-11-28/part-0.jsonl.gz"))
+    # source: HTML Living Standard, the wbr element: a line break opportunity
+    pieces = markup.split("<wbr>")
+    assert [Page(p).text for p in pieces] == [
+        ["readings/"],
+        ["region="],
+        ["east/"],
+        ["day="],
+        ["2026-11-28/"],
+        ["part-0.jsonl.gz"],
+    ]
+    assert all(p.startswith('<span class="seg">') for p in pieces)  # each kept whole (.path .seg: nowrap)
+    # markup in a name stays text; a part past SEGMENT_KEPT may break rather than overflow
+    long = "x" * (html_report.SEGMENT_KEPT + 1)
+    assert str(html_report.path_markup(f"a<b>/{long}")) == f'<span class="seg">a&lt;b&gt;/</span><wbr>{long}'
+    css = (Path(html_report.__file__).parent / "html_assets" / "report.css").read_text(encoding="utf-8")
+    assert ".path .seg { white-space: nowrap; }" in css
+
+
+def test_demo_paths_are_marked_to_wrap_at_slash_and_equals(demo: dict[str, Any]) -> None:
+    page = demo["page"]
+    for issue in demo["profile"].issues:
+        assert f'<code class="path">{html_report.path_markup(issue.file)}</code>' in page
+    first = demo["profile"].events[0]
+    assert f'<td class="where"><code class="path">{html_report.path_markup(first.file)}</code>' in page
+
+
+# -- the partition matrix ----------------------------------------------------------------------------------
+
+
+def test_matrix_of_120_partition_values_puts_the_changed_column_first(tmp_path: Path) -> None:
+    from _synthetic import partition_landing
+
+    page = html_report.render_html(driftline.scan(partition_landing(tmp_path / "landing")), rules=False)
+    table = re.search(r'<table class="matrix" data-key="station">.*?</table>', page, re.S)
+    assert table is not None
+    heads = re.findall(r'<th scope="col" class="([^"]*)" data-value="([^"]+)">', table.group(0))
+    # every value its own column (no runs folded together), the changed one first and marked
+    assert [v for _, v in heads] == ["s077"] + [f"s{i:03d}" for i in range(120) if i != 77]
+    assert heads[0][0].split() == ["odd", "last-odd"] and all(c == "" for c, _ in heads[1:])
+    rows = dict(
+        re.findall(r'<th scope="row" class="fieldcol"><code>([^<]+)</code></th>\s*(.*?)\s*</tr>', table.group(0))
+    )
+    temp = re.findall(r'<td class="([^"]*)"[^>]*>(.*?)</td>', rows["temperature_celsius"])
+    assert temp[0] == ("c-ember odd last-odd", '<span class="oddmark" aria-label="differs">◆</span> string')
+    assert {t for t in temp[1:]} == {("c-tide", "float64")}
+    assert "(string, 120 columns, 1 differing first)" in page

@@ -24,7 +24,7 @@ from markupsafe import Markup, escape
 
 from driftline.core.marker import remark
 from driftline.core.version import __version__
-from driftline.core.words import plural
+from driftline.core.words import count, plural
 from driftline.emit import html_data as hd
 from driftline.emit import svg
 from driftline.emit.atomic import write_output
@@ -88,16 +88,28 @@ def _env() -> jinja2.Environment:
     return env
 
 
+SEGMENT_KEPT = 40  # a path's parts up to this long never break inside; longer ones may, rather than overflow
+
+
 def path_markup(value: object, limit: int | None = 300) -> Markup:
     """A file path as markup that a browser wraps only after a `/` or a `=` (a <wbr> there),
-    never inside a folder's value (`day=2026-11-28`); the style sheet keeps the other break
-    opportunities shut (.path: overflow-wrap: break-word, only for a part wider than its box).
+    never inside a folder's value (`day=2026-11-28`, `part-0.jsonl`: each part is kept whole
+    by the style sheet's .path .seg); a part longer than SEGMENT_KEPT may break inside
+    rather than run out of its box.
 
-    >>> str(path_markup("readings/region=east/day=2026-11-28/a<1>.jsonl"))
-    'readings/<wbr>region=<wbr>east/<wbr>day=<wbr>2026-11-28/<wbr>a&lt;1&gt;.jsonl'
+    >>> str(path_markup("day=2026-11-28/a<1>.jsonl")).split("<wbr>")
+    ['<span class="seg">day=</span>', '<span class="seg">2026-11-28/</span>',
+     '<span class="seg">a&lt;1&gt;.jsonl</span>']
     """
-    text = str(escape(_t(value, limit)))
-    return Markup(text.replace("/", "/<wbr>").replace("=", "=<wbr>"))
+    text, parts, start = _t(value, limit), [], 0
+    for i, ch in enumerate(text):
+        if ch in "/=":
+            parts.append(text[start : i + 1])
+            start = i + 1
+    parts.append(text[start:])
+    return Markup("<wbr>").join(
+        Markup('<span class="seg">{}</span>').format(p) if len(p) <= SEGMENT_KEPT else escape(p) for p in parts if p
+    )
 
 
 def _where(e: Event) -> str:
@@ -113,7 +125,7 @@ def _parts(parts: Sequence[tuple[str, str]]) -> str:
 
 def _count_text(e: Event) -> str:
     """The episode's reach: the terminal's line, and how many batches."""
-    return f"{reach_text(e)} ({e.batches:,} batches)"
+    return f"{reach_text(e)} ({count(e.batches, 'batch', 'batches')})"
 
 
 def _tip(number: int, e: Event) -> str:

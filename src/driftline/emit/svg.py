@@ -222,7 +222,7 @@ def _axis(bks: Sequence[Bucket], xs: Sequence[float], bottom: float) -> str:
     labels = "".join(
         f'<text x="{xs[a] + 4:.1f}" y="{bottom + 30}">{esc(g, max(4, int((xs[b] - xs[a]) / 6.5)))}</text>'
         for a, b, g in runs
-        if xs[b] - xs[a] >= 40
+        if xs[b] - xs[a] >= 40 and g != "."  # "." is the scanned folder itself: nothing to say
     )
     return (
         f'<g class="xlab" font-size="10" fill="{MUTED}" text-anchor="middle">{ticks}</g>'
