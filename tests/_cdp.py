@@ -87,8 +87,8 @@ class Page:
                 "Input.dispatchKeyEvent", type=kind, key=key, code=code, windowsVirtualKeyCode=keycode, modifiers=mods
             )
 
-    def screenshot(self, width: int, height: int) -> bytes:
-        self.send("Emulation.setDeviceMetricsOverride", width=width, height=height, deviceScaleFactor=1, mobile=False)
+    def screenshot(self, width: int, height: int, mobile: bool = False) -> bytes:
+        self.send("Emulation.setDeviceMetricsOverride", width=width, height=height, deviceScaleFactor=1, mobile=mobile)
         # clip is in document coordinates: the part of the page the window shows now.
         x, y = self.evaluate("[window.scrollX, window.scrollY]")
         clip = {"x": x, "y": y, "width": width, "height": height, "scale": 1}
@@ -159,10 +159,11 @@ class Browser:
             page.send(f"{domain}.enable")
         return page
 
-    def open(self, url: str, width: int = 1280, height: int = 900) -> Page:
-        """A new page showing url, after its load event."""
+    def open(self, url: str, width: int = 1280, height: int = 900, mobile: bool = False) -> Page:
+        """A new page showing url, after its load event (mobile: as a phone lays it out, the
+        page's viewport meta tag applied)."""
         page = self.new_page()
-        page.send("Emulation.setDeviceMetricsOverride", width=width, height=height, deviceScaleFactor=1, mobile=False)
+        page.send("Emulation.setDeviceMetricsOverride", width=width, height=height, deviceScaleFactor=1, mobile=mobile)
         page.events.clear()
         page.send("Page.navigate", url=url)
         page.wait_for("Page.loadEventFired")

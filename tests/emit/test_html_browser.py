@@ -237,7 +237,7 @@ def test_large_report_pages_and_flags_open_the_page_of_their_event(browser: Brow
     rows = "Array.from(document.querySelectorAll('#field-table tbody tr')).filter(r => r.offsetParent !== null).length"
     assert page.evaluate(rows) == PAGE["fields"]
     status = "document.getElementById('field-table').parentNode.nextElementSibling.querySelector('span').textContent"
-    assert page.evaluate(status) == f"page 1 of {500 // PAGE['fields']} · 500 shown"
+    assert page.evaluate(status) == f"page 1 of {500 // PAGE['fields']} · {PAGE['fields']} shown of 500"
     # A real click on a flag whose event is past the first page of the events list.
     href = page.evaluate("""(() => {
         const a = Array.from(document.querySelectorAll('a.mk[href]'))
@@ -261,3 +261,210 @@ def test_large_report_pages_and_flags_open_the_page_of_their_event(browser: Brow
     )
     assert place >= 0
     assert page.evaluate(events_status).startswith(f"page {place // PAGE['events'] + 1} of ")
+
+
+# -- the first screen, a phone, the pager, the matrix and paths (issue: the first screen tells what changed) --
+
+DESKTOP, PHONE = (1400, 900), (390, 844)  # a laptop window; a phone (CSS pixels of a common 6.1" one)
+
+
+def _viewport(browser: Browser, url: str, size: tuple[int, int]) -> Page:
+    page = browser.open(url, *size, mobile=size == PHONE)
+    page.evaluate("window.scrollTo(0, 0)")
+    return page
+
+
+def _save_shot(page: Page, size: tuple[int, int], folder: Path, name: str) -> Path:
+    """A screenshot of the first viewport, kept in the test's folder (its path printed)."""
+    data = page.screenshot(*size, mobile=size == PHONE)
+    width, height, _ = decode_png(data)
+    assert (width, height) == size
+    out = folder / f"{name}-{size[0]}x{size[1]}.png"
+    out.write_bytes(data)
+    print(f"screenshot: {out}")
+    return out
+
+
+RECT = "(el => { const r = el.getBoundingClientRect(); return [r.left, r.top, r.right, r.bottom]; })"
+
+
+@pytest.mark.parametrize("size", [DESKTOP, PHONE], ids=["1400x900", "390x844"])
+def test_first_viewport_shows_what_changed(browser: Browser, demo: dict[str, Any], tmp_path: Path, size) -> None:
+    page = _viewport(browser, demo["url"], size)
+    _save_shot(page, size, tmp_path, "demo-first-viewport")
+    width, height = size
+    assert page.evaluate("[window.innerWidth, window.innerHeight, window.scrollY]") == [width, height, 0]
+    first = demo["report"]["events"]
+    breaking = [n for n, e in enumerate(first, 1) if e["level"] == "breaking"]
+    assert breaking  # the demo has breaking changes
+    item = "document.querySelector('ul.changes[data-level=breaking] li[data-event]')"
+    # the first breaking change is the first one the JSON report lists, and all of it is in view
+    assert page.evaluate(f"{item}.dataset.event") == str(breaking[0])
+    left, top, right, bottom = page.evaluate(f"{RECT}({item})")
+    assert left >= 0 and right <= width and top >= 0 and bottom <= height, (left, top, right, bottom)
+    # so are the strip's counts, each level's count in its own colour
+    left, top, right, bottom = page.evaluate(f"{RECT}(document.getElementById('strip'))")
+    assert top >= 0 and bottom <= height and right <= width
+    colours = page.evaluate(
+        "Array.from(document.querySelectorAll('.lvc'))"
+        ".map(a => [a.dataset.levelCount, getComputedStyle(a).backgroundColor])"
+    )
+    assert dict(colours)["breaking"] == "rgb(138, 31, 61)"  # report.css --odd, the breaking colour
+    assert dict(colours)["widening"] == "rgb(31, 95, 134)"  # --accent
+    assert len({c for _, c in colours}) == len(colours)
+    if size == DESKTOP:
+        # the strip is one line: as tall as one of its items
+        strip_h = bottom - top
+        fact_h = page.evaluate("document.querySelector('#strip .lvc').getBoundingClientRect().height")
+        assert strip_h < 1.5 * fact_h, (strip_h, fact_h)
+        # every breaking change listed is in the first viewport too
+        bottoms = page.evaluate(
+            "Array.from(document.querySelectorAll('ul.changes[data-level=breaking] li'))"
+            ".map(li => li.getBoundingClientRect().bottom)"
+        )
+        assert bottoms and max(bottoms) <= height
+
+
+def _overflowing(page: Page, width: int) -> list[str]:
+    """Elements whose box runs past the right edge of the window, outside a matrix's own scroll box."""
+    return page.evaluate(f"""(() => {{
+        const out = [];
+        for (const el of document.querySelectorAll('body *')) {{
+          if (el.closest('.matrix-box') && el !== el.closest('.matrix-box')) continue;
+          if (el.closest('svg.defs') || el.id === 'tip') continue;
+          const r = el.getBoundingClientRect();
+          if (r.width === 0 && r.height === 0) continue;
+          if (r.right > {width} + 0.5 || r.left < -0.5) out.push(el.tagName + '.' + el.className + ' ' + r.right);
+        }}
+        return out; }})()""")
+
+
+def test_no_sideways_scroll_on_a_phone(browser: Browser, demo: dict[str, Any], tmp_path: Path) -> None:
+    from _synthetic import partition_landing
+
+    landing = partition_landing(tmp_path / "landing")
+    out = tmp_path / "p120.html"
+    res = CliRunner().invoke(app, ["scan", str(landing), "--html", str(out), "-q"])
+    assert res.exit_code == 0, res.output
+    for url in (demo["url"], out.as_uri()):
+        page = _viewport(browser, url, PHONE)
+        # the page itself never scrolls sideways (CSSOM View: scrollWidth past clientWidth would)
+        assert page.evaluate("[document.documentElement.scrollWidth, document.documentElement.clientWidth]") == [
+            PHONE[0],
+            PHONE[0],
+        ]
+        assert _overflowing(page, PHONE[0]) == []
+        # ... while a matrix wider than the phone scrolls inside its own box
+        boxes = page.evaluate(
+            "Array.from(document.querySelectorAll('.matrix-box')).map(b => [b.scrollWidth, b.clientWidth, "
+            "getComputedStyle(b).overflowX])"
+        )
+        assert boxes and all(ov == "auto" for _, _, ov in boxes)
+        assert any(sw > cw for sw, cw, _ in boxes)
+    page.evaluate("document.getElementById('partitions').scrollIntoView()")
+    _save_shot(page, PHONE, tmp_path, "p120-matrix")
+
+
+PAGERS = """Array.from(document.querySelectorAll('[data-pager]')).map(box => {
+    const nav = (box.parentNode.classList.contains('scroll') ? box.parentNode : box).nextElementSibling;
+    const items = Array.from(box.tBodies ? box.tBodies[0].children : box.children)
+      .filter(el => el.hasAttribute('data-item'));
+    return {id: box.id || box.className, status: nav.querySelector('span').textContent, hidden: nav.hidden,
+            shown: items.filter(el => el.getClientRects().length > 0).length, all: items.length};
+})"""
+
+
+def _check_pagers(page: Page) -> list[dict[str, Any]]:
+    import re
+
+    pagers = page.evaluate(PAGERS)
+    for p in pagers:
+        m = re.fullmatch(r"page (\d+) of (\d+) · (\d+) shown of (\d+)(?: \((\d+) filtered out\))?", p["status"])
+        assert m is not None, p
+        # the text says what the page displays: the rows or charts shown, out of those that pass the filter
+        assert int(m.group(3)) == p["shown"], p
+        assert int(m.group(4)) + int(m.group(5) or 0) == p["all"], p
+    return pagers
+
+
+def test_pager_says_what_it_shows(browser: Browser, demo: dict[str, Any]) -> None:
+    page = _viewport(browser, demo["url"], DESKTOP)
+    charts = len({e["path"] for e in demo["report"]["events"]})
+    assert charts > 6  # the demo's charts take two pages of six
+    pagers = {p["id"]: p for p in _check_pagers(page)}
+    assert pagers["chart-list"]["status"] == f"page 1 of 2 · 6 shown of {charts}"
+    page.evaluate("document.getElementById('chart-list').nextElementSibling.querySelectorAll('button')[1].click()")
+    pagers = {p["id"]: p for p in _check_pagers(page)}
+    assert pagers["chart-list"]["status"] == f"page 2 of 2 · {charts - 6} shown of {charts}"
+    # filtered: the field table says how many pass the filter and how many it hides
+    page.evaluate("document.getElementById('drift-only').click()")
+    pagers = {p["id"]: p for p in _check_pagers(page)}
+    fields = len(demo["report"]["fields"])
+    assert (
+        pagers["field-table"]["status"] == f"page 1 of 1 · {charts} shown of {charts} ({fields - charts} filtered out)"
+    )
+
+
+def test_matrix_of_120_values_shows_the_changed_column_and_keeps_names_whole(browser: Browser, tmp_path: Path) -> None:
+    from _synthetic import partition_landing
+
+    landing = partition_landing(tmp_path / "landing")
+    out = tmp_path / "p120.html"
+    res = CliRunner().invoke(app, ["scan", str(landing), "--html", str(out), "-q"])
+    assert res.exit_code == 0, res.output
+    for size in (DESKTOP, PHONE):
+        page = _viewport(browser, out.as_uri(), size)
+        page.evaluate("document.querySelector('.matrix-box').scrollIntoView()")
+        box = page.evaluate(f"{RECT}(document.querySelector('.matrix-box'))")
+        assert page.evaluate("document.querySelector('.matrix-box').scrollLeft") == 0
+        # the changed cell (station s077) is inside the box's visible part, no scrolling needed
+        odd = "document.querySelector('.matrix td.odd')"
+        assert page.evaluate(f"{odd}.closest('tr').querySelector('th').textContent") == "temperature_celsius"
+        assert page.evaluate(f"{odd}.closest('table').tHead.rows[0].cells[{odd}.cellIndex].dataset.value") == "s077"
+        left, _, right, _ = page.evaluate(f"{RECT}({odd})")
+        assert box[0] <= left and right <= box[2], (box, left, right)
+        # field names and values are never wrapped (each one line box), columns keep a minimum width
+        lines = page.evaluate(
+            "Array.from(document.querySelectorAll('.matrix code')).map(c => [c.textContent, c.getClientRects().length])"
+        )
+        assert len(lines) == 120 + 3 and all(n == 1 for _, n in lines), [x for x in lines if x[1] != 1]
+        widths = page.evaluate(
+            "Array.from(document.querySelectorAll('.matrix thead th')).map(th => th.getBoundingClientRect().width)"
+        )
+        assert min(widths) >= 6 * 13  # 6.5em of 13 px text at the least
+        # scrolled to the far right, the field column stays in place (position: sticky)
+        page.evaluate("document.querySelector('.matrix-box').scrollLeft = 1e6")
+        name = page.evaluate(f"{RECT}(document.querySelector('.matrix tbody th'))")
+        assert page.evaluate("document.querySelector('.matrix-box').scrollLeft") > 0
+        assert abs(name[0] - box[0]) <= 2, (name, box)
+        _save_shot(page, size, tmp_path, "p120-matrix-scrolled")
+
+
+LINE_BREAKS = """Array.from(document.querySelectorAll('.path')).filter(el => el.getClientRects().length > 0).map(el => {
+    // each character's line, from a Range around it (CSSOM View: Range.getClientRects)
+    const chars = [];
+    const walk = document.createTreeWalker(el, NodeFilter.SHOW_TEXT);
+    for (let node = walk.nextNode(); node; node = walk.nextNode()) {
+      for (let i = 0; i < node.data.length; i++) {
+        const r = document.createRange(); r.setStart(node, i); r.setEnd(node, i + 1);
+        const box = r.getClientRects()[0];
+        if (box) chars.push([node.data[i], Math.round(box.top)]);
+      }
+    }
+    const breaks = [];
+    for (let i = 1; i < chars.length; i++) {
+      if (chars[i][1] > chars[i - 1][1] + 2) breaks.push(chars[i - 1][0] + chars[i][0]);
+    }
+    return [el.textContent, breaks];
+})"""
+
+
+def test_paths_wrap_only_after_slash_or_equals_on_a_phone(browser: Browser, demo: dict[str, Any]) -> None:
+    page = _viewport(browser, demo["url"], PHONE)
+    page.evaluate("document.getElementById('events').scrollIntoView()")
+    found = page.evaluate(LINE_BREAKS)
+    wrapped = [(text, b) for text, b in found if b]
+    assert wrapped, "no path wraps at 390 px: the check saw nothing"
+    for text, breaks in wrapped:
+        # the character before each line break is a / or a = (or the space after a comma between partitions)
+        assert all(pair[0] in "/= " for pair in breaks), (text, breaks)
