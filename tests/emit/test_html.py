@@ -650,7 +650,7 @@ def test_paths_break_only_after_slash_and_equals() -> None:
     long = "x" * (html_report.SEGMENT_KEPT + 1)
     assert str(html_report.path_markup(f"a<b>/{long}")) == f'<span class="seg">a&lt;b&gt;/</span><wbr>{long}'
     css = (Path(html_report.__file__).parent / "html_assets" / "report.css").read_text(encoding="utf-8")
-    assert ".path .seg { white-space: nowrap; }" in css
+    assert ".path .seg, .paths .seg { white-space: nowrap; }" in css
 
 
 def test_demo_paths_are_marked_to_wrap_at_slash_and_equals(demo: dict[str, Any]) -> None:
@@ -658,7 +658,10 @@ def test_demo_paths_are_marked_to_wrap_at_slash_and_equals(demo: dict[str, Any])
     for issue in demo["profile"].issues:
         assert f'<code class="path">{html_report.path_markup(issue.file)}</code>' in page
     first = demo["profile"].events[0]
-    assert f'<td class="where"><code class="path">{html_report.path_markup(first.file)}</code>' in page
+    assert (
+        f'<td class="where" data-label="begins at"><code class="path">{html_report.path_markup(first.file)}</code>'
+        in page
+    )
 
 
 # -- the partition matrix ----------------------------------------------------------------------------------

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import base64
 import hashlib
+import re
 from collections import Counter
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
@@ -85,6 +86,7 @@ def _env() -> jinja2.Environment:
     env.filters["t"] = _t
     env.filters["num"] = lambda n: f"{n:,}"
     env.filters["path"] = path_markup
+    env.filters["paths"] = paths_markup
     return env
 
 
@@ -110,6 +112,18 @@ def path_markup(value: object, limit: int | None = 300) -> Markup:
     return Markup("<wbr>").join(
         Markup('<span class="seg">{}</span>').format(p) if len(p) <= SEGMENT_KEPT else escape(p) for p in parts if p
     )
+
+
+def paths_markup(value: object, limit: int | None = 300) -> Markup:
+    """Prose that names paths (an episode's reach, a partition list): each word holding a `/`
+    or a `=` marked as path_markup marks a path, the rest plain text wrapping at its spaces.
+
+    >>> str(paths_markup("1 file, from a/day=2026-11-28 row 3")).split("<wbr>")
+    ['1 file, from <span class="seg">a/</span>', '<span class="seg">day=</span>',
+     '<span class="seg">2026-11-28</span> row 3']
+    """
+    words = re.split(r"(\s+)", _t(value, limit))
+    return Markup("").join(path_markup(w, None) if ("/" in w or "=" in w) else escape(w) for w in words)
 
 
 def _where(e: Event) -> str:
