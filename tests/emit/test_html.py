@@ -684,3 +684,13 @@ def test_matrix_of_120_partition_values_puts_the_changed_column_first(tmp_path: 
     assert temp[0] == ("c-ember odd last-odd", '<span class="oddmark" aria-label="differs">◆</span> string')
     assert {t for t in temp[1:]} == {("c-tide", "float64")}
     assert "(string, 120 columns, 1 differing first)" in page
+
+
+def test_matrix_where_no_partition_differs_keeps_the_value_order(tmp_path: Path) -> None:
+    from _synthetic import partition_landing
+
+    page = html_report.render_html(driftline.scan(partition_landing(tmp_path / "landing", 5, odd=-1)), rules=False)
+    heads = re.findall(r'<th scope="col" class="([^"]*)" data-value="([^"]+)">', page)
+    assert heads == [("", f"s{i:03d}") for i in range(5)]
+    body = page[page.index('<section id="partitions"') : page.index('<section id="events"')]
+    assert "(string, 5 columns)" in body and "last-odd" not in body and " odd" not in body and "◆ <" not in body

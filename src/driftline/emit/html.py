@@ -422,13 +422,16 @@ def _matrices(profile: Profile) -> list[dict[str, Any]]:
             rows.append({"path": path, "cells": shown, "odd": sum(c["odd"] for c in shown)})
         odd = [i for i in range(len(columns)) if any(r["cells"][i]["odd"] for r in rows)]
         order = odd + [i for i in range(len(columns)) if i not in set(odd)]
+        last_odd = odd[-1] if odd else None  # the rule between the differing columns and the others
         for r in rows:
             r["cells"] = [r["cells"][i] for i in order]
         out.append(
             {
                 "key": key,
                 "type": info["type"],
-                "columns": [{"label": columns[i].label, "odd": i in set(odd), "last_odd": i == odd[-1]} for i in order],
+                "columns": [
+                    {"label": columns[i].label, "odd": i in set(odd), "last_odd": i == last_odd} for i in order
+                ],
                 "odd_columns": len(odd),
                 "rows": rows,
                 "left_out": max(0, len(profile.fields) - len(wanted)),
