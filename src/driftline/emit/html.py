@@ -100,8 +100,7 @@ def path_markup(value: object, limit: int | None = 300) -> Markup:
     rather than run out of its box.
 
     >>> str(path_markup("day=2026-11-28/a<1>.jsonl")).split("<wbr>")
-    ['<span class="seg">day=</span>', '<span class="seg">2026-11-28/</span>',
-     '<span class="seg">a&lt;1&gt;.jsonl</span>']
+    ['day=', '<span class="seg">2026-11-28/</span>', '<span class="seg">a&lt;1&gt;.jsonl</span>']
     """
     text, parts, start = _t(value, limit), [], 0
     for i, ch in enumerate(text):
@@ -109,9 +108,18 @@ def path_markup(value: object, limit: int | None = 300) -> Markup:
             parts.append(text[start : i + 1])
             start = i + 1
     parts.append(text[start:])
-    return Markup("<wbr>").join(
-        Markup('<span class="seg">{}</span>').format(p) if len(p) <= SEGMENT_KEPT else escape(p) for p in parts if p
-    )
+    return Markup("<wbr>").join(_segment(p) for p in parts if p)
+
+
+_BREAKABLE = re.compile(r"[^A-Za-z0-9_./=]")  # ASCII letters, digits, _ and . give a browser no place to break
+
+
+def _segment(part: str) -> Markup:
+    """One part of a path: held whole by a span when a browser could break it (a hyphen, a
+    space, other scripts), plain when it could not (the page stays small) or is too long."""
+    if len(part) > SEGMENT_KEPT or not _BREAKABLE.search(part):
+        return escape(part)
+    return Markup('<span class="seg">{}</span>').format(part)
 
 
 def paths_markup(value: object, limit: int | None = 300) -> Markup:
@@ -119,8 +127,7 @@ def paths_markup(value: object, limit: int | None = 300) -> Markup:
     or a `=` marked as path_markup marks a path, the rest plain text wrapping at its spaces.
 
     >>> str(paths_markup("1 file, from a/day=2026-11-28 row 3")).split("<wbr>")
-    ['1 file, from <span class="seg">a/</span>', '<span class="seg">day=</span>',
-     '<span class="seg">2026-11-28</span> row 3']
+    ['1 file, from a/', 'day=', '<span class="seg">2026-11-28</span> row 3']
     """
     words = re.split(r"(\s+)", _t(value, limit))
     return Markup("").join(path_markup(w, None) if ("/" in w or "=" in w) else escape(w) for w in words)
