@@ -695,3 +695,14 @@ def test_matrix_where_no_partition_differs_keeps_the_value_order(tmp_path: Path)
     assert heads == [("", f"s{i:03d}") for i in range(5)]
     body = page[page.index('<section id="partitions"') : page.index('<section id="events"')]
     assert "(string, 5 columns)" in body and "last-odd" not in body and " odd" not in body and "◆ <" not in body
+
+
+def test_matrix_where_every_column_differs_somewhere_keeps_the_value_order(demo: dict[str, Any]) -> None:
+    # the demo's regions: each holds a cell unlike its row (west's new fields, east's tags, ...)
+    page = demo["page"]
+    table = re.search(r'<table class="matrix" data-key="region">.*?</table>', page, re.S)
+    assert table is not None
+    heads = re.findall(r'<th scope="col" class="([^"]*)" data-value="([^"]+)">', table.group(0))
+    assert heads == [("", v) for v in ("east", "north", "south", "west")]
+    assert re.search(r'<td class="c-[a-z]+ odd"', table.group(0))  # its odd cells are still marked
+    assert "differing first" not in page[page.index("by <code>region</code>") :][:200]

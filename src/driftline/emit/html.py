@@ -428,6 +428,8 @@ def _matrices(profile: Profile) -> list[dict[str, Any]]:
                 c["odd"] = c["sig"] is not None and c["sig"] != usual
             rows.append({"path": path, "cells": shown, "odd": sum(c["odd"] for c in shown)})
         odd = [i for i in range(len(columns)) if any(r["cells"][i]["odd"] for r in rows)]
+        if len(odd) == len(columns):  # each column differs somewhere: none stands out, keep value order
+            odd = []
         order = odd + [i for i in range(len(columns)) if i not in set(odd)]
         last_odd = odd[-1] if odd else None  # the rule between the differing columns and the others
         for r in rows:
