@@ -68,7 +68,10 @@ def _classes_cell(s: FieldSummary) -> Text:
 
 def overview(profile: Profile) -> Text:
     formats = Counter(f.format for f in profile.files)
-    errors = sum(1 for i in profile.issues if i.severity == "error")
+    errors = profile.error_count
+    # A file may hold several errors: say over how many files, so that the count agrees with
+    # "every one of the N files failed" and with the problems listed.
+    spread = f" in {count(profile.failed_files, 'file')}" if errors != profile.failed_files else ""
     text = Text()
     text.append("driftline scan ", style="bold")
     text.append(safe_text(profile.root, None))
@@ -76,7 +79,7 @@ def overview(profile: Profile) -> Text:
     text.append(
         f"{count(len(profile.files), 'file')} ({', '.join(f'{n} {k}' for k, n in sorted(formats.items()))}), "
         f"{count(profile.rows, 'row')}, {human_bytes(profile.bytes)}, {count(len(profile.fields), 'field')}, "
-        f"{len(profile.skipped):,} skipped, {count(errors, 'file error')}, {profile.duration_s:.2f} s"
+        f"{len(profile.skipped):,} skipped, {count(errors, 'file error')}{spread}, {profile.duration_s:.2f} s"
     )
     if profile.event_total:  # on the first screen, before the field table
         text.append(f"\ndrift: {count(profile.event_total, 'event')}, ")
@@ -348,6 +351,8 @@ def render(
                 f"… {left_out:,} more events not listed here (--max-events {max_events:,}); "
                 "the JSON report (--json) lists them all"
             )
+    elif profile.rows == 0:  # no batch to compare: no verdict, rather than a "No drift" that reads as one
+        console.print("Nothing to compare: no file gave a row.")
     else:
         console.print("No drift: every batch shows the same fields and types.")
     if any(f.dialect is not None for f in profile.files) or profile.shapes is not None:
@@ -356,8 +361,9 @@ def render(
         console.print(dialects_block(profile, console.width), end="", no_wrap=True, overflow="ignore", crop=False)
     if profile.shapes is not None:
         console.print(shapes_block(profile.shapes), end="", no_wrap=True, overflow="ignore", crop=False)
-    console.print()
-    console.print(fields_table(profile, None if full_table else console.width))
+    if profile.fields:
+        console.print()
+        console.print(fields_table(profile, None if full_table else console.width))
     if formats := formats_block(profile):
         console.print()
         console.print(formats)

@@ -1,0 +1,113 @@
+"""Outcomes that used to be silent or to contradict themselves, as the command line says them:
+files of other extensions, a folder of bad files, --where that keeps nothing, one file named,
+click's own usage errors, byte sizes in the config file."""
+
+from __future__ import annotations
+
+import gzip
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+EXE = [sys.executable, "-m", "driftline.cli"]
+
+
+def run(*args: str, cwd: Path) -> subprocess.CompletedProcess[str]:
+    # A wide terminal: a line of the summary is one line however long the temporary path is.
+    env = {**os.environ, "COLUMNS": "200"}
+    return subprocess.run([*EXE, *args], capture_output=True, text=True, timeout=120, cwd=cwd, env=env)
+
+
+def _partitioned(root: Path) -> Path:
+    """Two day=... partitions of JSON Lines; the second holds a notes.txt beside its data."""
+    for day, rows in (("2026-11-01", '{"x": 1}\n{"x": 2}\n'), ("2026-11-02", '{"x": 3}\n')):
+        folder = root / "landing" / f"day={day}"
+        folder.mkdir(parents=True)
+        (folder / "part-0.jsonl").write_text(rows)
+    # Comma-separated text: Python's csv.Sniffer would take it for CSV (two columns).
+    (root / "landing" / "day=2026-11-02" / "notes.txt").write_text("checked by, Ana\nnext run, Monday\n")
+    return root / "landing"
+
+
+def test_a_text_file_in_a_partition_is_skipped_and_named_not_read_as_csv(tmp_path: Path):
+    _partitioned(tmp_path)
+    res = run("scan", "landing", cwd=tmp_path)
+    assert res.returncode == 0
+    lines = res.stdout.splitlines()
+    # common practice: a .txt is not a data format; only the sniffing option reads it
+    assert lines[1].startswith("2 files (2 jsonl), 3 rows, ")
+    assert ", 1 field, 1 skipped, 0 file errors, " in lines[1]
+    assert "skipped for their extension: day=2026-11-02/notes.txt (--sniff-unknown reads them)" in " ".join(lines)
+    sniffed = run("scan", "landing", "--sniff-unknown", cwd=tmp_path)
+    # source: RFC 4180 section 2 item 3 (a header line, then records): the notes give 1 row of their 2 lines
+    assert sniffed.stdout.splitlines()[1].startswith("3 files (1 csv, 2 jsonl), 4 rows, ")
+
+
+def test_a_text_file_is_listed_as_skipped_in_the_json_report(tmp_path: Path):
+    import json
+
+    _partitioned(tmp_path)
+    res = run("scan", "landing", "--json", "-", "-q", cwd=tmp_path)
+    report = json.loads(res.stdout)
+    assert report["skipped"] == [{"path": "day=2026-11-02/notes.txt", "reason": "other-extension"}]
+    assert [f["path"] for f in report["files"]] == ["day=2026-11-01/part-0.jsonl", "day=2026-11-02/part-0.jsonl"]
+
+
+def test_a_one_table_scan_of_a_root_of_datasets_names_the_text_file_too(tmp_path: Path):
+    _partitioned(tmp_path)
+    (tmp_path / "landing").rename(tmp_path / "orders")
+    (tmp_path / "root").mkdir()
+    (tmp_path / "orders").rename(tmp_path / "root" / "orders")
+    (tmp_path / "root" / "users").mkdir()
+    (tmp_path / "root" / "users" / "u.csv").write_text("id,name\n1,a\n")
+    for extra in ((), ("--one-table",)):
+        res = run("scan", "root", *extra, cwd=tmp_path)
+        assert res.returncode == 0
+        joined = " ".join(res.stdout.split())
+        assert "skipped for their extension: orders/day=2026-11-02/notes.txt" in joined or (
+            "skipped for their extension: day=2026-11-02/notes.txt" in joined
+            and "Skipped: 1 other-extension (orders/day=2026-11-02/notes.txt)" in joined
+        )
+
+
+def _bad_folder(root: Path) -> Path:
+    """5 JSON Lines files, none giving a row: 3 not JSON at all, 2 empty."""
+    folder = root / "bad"
+    folder.mkdir()
+    for i in (1, 2, 3):
+        (folder / f"f{i}.jsonl").write_bytes(b"\x00\x01garbage{{{\n")
+    for i in (4, 5):
+        (folder / f"f{i}.jsonl").write_bytes(b"")
+    return folder
+
+
+def test_a_folder_of_bad_and_empty_files_counts_them_one_way(tmp_path: Path):
+    _bad_folder(tmp_path)
+    res = run("scan", "bad", cwd=tmp_path)
+    assert res.returncode == 2
+    # The summary goes to stderr when nothing was read (stdout holds no data).
+    assert res.stdout == ""
+    lines = res.stderr.splitlines()
+    assert ", 0 rows, " in lines[1] and ", 3 file errors, " in lines[1] + " "
+    assert "No drift" not in res.stderr
+    assert "Nothing to compare: no file gave a row." in lines
+    assert "Fields" not in res.stderr  # no empty field table
+    assert lines[-1] == (
+        "error: nothing readable: 3 of the 5 files failed and the other 2 hold no row (see the problems above)"
+    )
+
+
+def test_several_errors_per_file_are_counted_over_their_files(tmp_path: Path):
+    folder = tmp_path / "cut"
+    folder.mkdir()
+    whole = gzip.compress(b'{"a": 1}\n')
+    for i in range(1, 6):
+        # source: RFC 1952 section 2.2 (a member ends with CRC32 and ISIZE): cut, it is truncated
+        (folder / f"f{i}.jsonl.gz").write_bytes(whole[:15])
+    res = run("scan", "cut", cwd=tmp_path)
+    assert res.returncode == 2
+    head = " ".join(res.stderr.split("\n\n")[0].split())
+    assert ", 10 file errors in 5 files, " in head
+    assert res.stderr.endswith("error: nothing readable: every one of the 5 files failed (see the problems above)\n")
+    assert "No drift" not in res.stderr
