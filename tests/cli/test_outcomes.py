@@ -111,3 +111,36 @@ def test_several_errors_per_file_are_counted_over_their_files(tmp_path: Path):
     assert ", 10 file errors in 5 files, " in head
     assert res.stderr.endswith("error: nothing readable: every one of the 5 files failed (see the problems above)\n")
     assert "No drift" not in res.stderr
+
+
+def test_where_with_an_unknown_key_names_it_and_the_known_keys(tmp_path: Path):
+    _partitioned(tmp_path)
+    res = run("scan", "landing", "--where", "daye>=2026-11-01", cwd=tmp_path)
+    assert (res.returncode, res.stdout) == (2, "")
+    assert res.stderr == (
+        "error: --where 'daye>=2026-11-01' names the partition key 'daye', which no file has; "
+        "the partition keys are: day\n"
+    )
+
+
+def test_where_with_a_reversed_operator_is_malformed_and_lists_the_operators(tmp_path: Path):
+    _partitioned(tmp_path)
+    res = run("scan", "landing", "--where", "day=>2026-11-01", cwd=tmp_path)
+    assert (res.returncode, res.stdout) == (2, "")
+    assert res.stderr == (
+        "error: malformed --where 'day=>2026-11-01': '=>' is not an operator; write key OP value, "
+        "e.g. 'day>=2026-11-01', with OP one of = == != < <= > >=\n"
+    )
+
+
+def test_where_that_keeps_no_file_says_the_filter_removed_every_file(tmp_path: Path):
+    _partitioned(tmp_path)
+    res = run("scan", "landing", "--where", "day>=2026-12-01", cwd=tmp_path)
+    assert (res.returncode, res.stdout) == (2, "")
+    # source: ISO 8601 calendar dates (YYYY-MM-DD) order as text: 2026-12-01 is after both days
+    assert res.stderr == (
+        "error: the filter removed every file (2 files matched none of --where 'day>=2026-12-01'; "
+        "day runs from 2026-11-01 to 2026-11-02)\n"
+    )
+    kept = run("scan", "landing", "--where", "day>=2026-11-02", cwd=tmp_path)
+    assert kept.returncode == 0 and kept.stdout.splitlines()[1].startswith("1 file (1 jsonl), 1 row, ")
