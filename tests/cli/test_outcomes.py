@@ -144,3 +144,14 @@ def test_where_that_keeps_no_file_says_the_filter_removed_every_file(tmp_path: P
     )
     kept = run("scan", "landing", "--where", "day>=2026-11-02", cwd=tmp_path)
     assert kept.returncode == 0 and kept.stdout.splitlines()[1].startswith("1 file (1 jsonl), 1 row, ")
+
+
+def test_a_single_file_is_named_in_the_header_not_its_folder(tmp_path: Path):
+    landing = _partitioned(tmp_path)
+    res = run("scan", "landing/day=2026-11-01/part-0.jsonl", cwd=tmp_path)
+    assert res.returncode == 0
+    lines = res.stdout.splitlines()
+    assert lines[0] == f"driftline scan {landing / 'day=2026-11-01' / 'part-0.jsonl'}"
+    assert lines[1].startswith("1 file (1 jsonl), 2 rows, ")
+    folder = run("scan", "landing/day=2026-11-01", cwd=tmp_path)
+    assert folder.stdout.splitlines()[0] == f"driftline scan {landing / 'day=2026-11-01'}"

@@ -196,7 +196,7 @@ def scan_command(
         # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, html_out))
         console = terminal(failed or to_stdout, color)
-        render(profile, console, options.max_events, **look)
+        render(profile, console, options.max_events, **look, title=_file_named(paths, profile))
         if json_out is not None and not is_stdout(json_out):
             console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
         if html_out is not None and not is_stdout(html_out):
@@ -222,6 +222,14 @@ def fails_at(profile: driftline.Profile, level: str) -> bool:
     order = list(LEVELS)
     urgent = order[: order.index(level) + 1]
     return bool(profile.error_count) or any(profile.level_counts.get(lv, 0) for lv in urgent)
+
+
+def _file_named(paths: list[str], profile: driftline.Profile) -> str | None:
+    """The file a scan of one local file read, for the header: the profile is rooted at its
+    folder (relative paths are from there), but the scan was of that file alone."""
+    if len(paths) == 1 and not is_url(paths[0]) and os.path.isfile(paths[0]) and len(profile.files) == 1:
+        return os.path.join(profile.root, profile.files[0].rel)
+    return None
 
 
 def terminal(to_stderr: bool, color: bool | None) -> Console:

@@ -66,7 +66,9 @@ def _classes_cell(s: FieldSummary) -> Text:
     return Text(", ".join(f"{c} {_pct(n, total)}" for c, n in top) + (" …" if len(classes) > 3 else ""))
 
 
-def overview(profile: Profile) -> Text:
+def overview(profile: Profile, title: str | None = None) -> Text:
+    """The first lines: what was scanned (title, else the profile's root folder), the counts, the
+    drift by level, what was skipped for its extension, the partitions and encodings."""
     formats = Counter(f.format for f in profile.files)
     errors = profile.error_count
     # A file may hold several errors: say over how many files, so that the count agrees with
@@ -74,7 +76,7 @@ def overview(profile: Profile) -> Text:
     spread = f" in {count(profile.failed_files, 'file')}" if errors != profile.failed_files else ""
     text = Text()
     text.append("driftline scan ", style="bold")
-    text.append(safe_text(profile.root, None))
+    text.append(safe_text(profile.root if title is None else title, None))
     text.append("\n")
     text.append(
         f"{count(len(profile.files), 'file')} ({', '.join(f'{n} {k}' for k, n in sorted(formats.items()))}), "
@@ -329,13 +331,14 @@ def render(
     *,
     events_detail: bool = False,
     full_table: bool = False,
+    title: str | None = None,
 ) -> None:
     """The terminal summary: the overview and the drift first (the breaking changes on the
     first screen), then the CSV dialects and shapes, then the fields. max_events bounds the
     events listed (the others are counted, and the JSON report holds them all); events_detail
     gives each event's positions and example; full_table every column of the field table at
-    any width."""
-    console.print(overview(profile))
+    any width; title names what was scanned when it is not the root folder (a file named alone)."""
+    console.print(overview(profile, title))
     console.print()
     if profile.events:
         console.print(
