@@ -155,3 +155,46 @@ def test_a_single_file_is_named_in_the_header_not_its_folder(tmp_path: Path):
     assert lines[1].startswith("1 file (1 jsonl), 2 rows, ")
     folder = run("scan", "landing/day=2026-11-01", cwd=tmp_path)
     assert folder.stdout.splitlines()[0] == f"driftline scan {landing / 'day=2026-11-01'}"
+
+
+# source: click's usage errors keep their usage line and help hint (click.exceptions.UsageError.show);
+# only the last line reads as ours, and the exit code stays 2 (README exit codes: 2 = usage error).
+USAGE = "Usage: driftline scan [OPTIONS] PATH...\nTry 'driftline scan -h' for help.\n\n"
+
+
+def test_an_unknown_option_reads_error_like_ours(tmp_path: Path):
+    _partitioned(tmp_path)
+    res = run("scan", "landing", "--format", "json", cwd=tmp_path)
+    assert (res.returncode, res.stdout) == (2, "")
+    assert res.stderr == USAGE + "error: no such option: --format\n"
+
+
+def test_a_missing_argument_reads_error_like_ours(tmp_path: Path):
+    res = run("scan", "-q", cwd=tmp_path)
+    assert (res.returncode, res.stderr) == (2, USAGE + "error: missing argument 'PATH...'\n")
+
+
+def test_a_bad_value_and_an_unknown_verb_read_error_like_ours(tmp_path: Path):
+    _partitioned(tmp_path)
+    res = run("scan", "landing", "--batch-rows", "0", cwd=tmp_path)
+    assert res.returncode == 2
+    assert res.stderr.startswith(USAGE + "error: invalid value for '--batch-rows': ")
+    verb = run("scna", "landing", cwd=tmp_path)
+    assert (verb.returncode, verb.stderr) == (
+        2,
+        "Usage: driftline [OPTIONS] COMMAND [ARGS]...\nTry 'driftline -h' for help.\n\n"
+        "error: no such command 'scna'. Did you mean 'scan', 'schema'?\n",
+    )
+
+
+def test_a_usage_error_names_its_class_with_debug(tmp_path: Path):
+    res = run("--debug", "scan", "x", "--fromat", "json", cwd=tmp_path)
+    assert (res.returncode, res.stderr) == (2, USAGE + "error (NoSuchOption): no such option: --fromat\n")
+
+
+def test_help_and_version_still_exit_0(tmp_path: Path):
+    assert run("--version", cwd=tmp_path).returncode == 0
+    helped = run("scan", "-h", cwd=tmp_path)
+    assert (helped.returncode, helped.stdout.splitlines()[0]) == (0, "Usage: driftline scan [OPTIONS] PATH...")
+    alone = run(cwd=tmp_path)  # no verb: the help, as before, with click's exit code for it
+    assert alone.returncode == 2 and "Usage: driftline [OPTIONS] COMMAND [ARGS]..." in alone.stdout + alone.stderr
