@@ -198,3 +198,39 @@ def test_help_and_version_still_exit_0(tmp_path: Path):
     assert (helped.returncode, helped.stdout.splitlines()[0]) == (0, "Usage: driftline scan [OPTIONS] PATH...")
     alone = run(cwd=tmp_path)  # no verb: the help, as before, with click's exit code for it
     assert alone.returncode == 2 and "Usage: driftline [OPTIONS] COMMAND [ARGS]..." in alone.stdout + alone.stderr
+
+
+def test_byte_sizes_with_units_in_the_config_file(tmp_path: Path):
+    import json
+
+    _partitioned(tmp_path)
+    # source: IEC 80000-13 item 13-9.a: 1 KiB = 1024 B
+    (tmp_path / "driftline.toml").write_text('[scan]\nbatch_bytes = "1 KiB"\nmax_record_bytes = "10 B"\n')
+    res = run("scan", "landing", "--json", "-", "-q", cwd=tmp_path)
+    assert res.returncode == 0
+    assert json.loads(res.stdout)["options"]["batch_bytes"] == 1024
+    # '{"x": 3}' is 8 bytes: over "7 B", so the limit took the unit (the file fails, exit 2)
+    (tmp_path / "driftline.toml").write_text('[scan]\nmax_record_bytes = "7 B"\n')
+    cut = run("scan", "landing/day=2026-11-02/part-0.jsonl", "--json", "-", "-q", cwd=tmp_path)
+    issues = [(i["kind"], i["message"]) for f in json.loads(cut.stdout)["files"] for i in f["issues"]]
+    assert issues == [("too-large", "line longer than 7 bytes (--max-record-bytes); skipped")]
+
+
+def test_a_bad_byte_size_in_the_config_file_names_the_file_and_key(tmp_path: Path):
+    _partitioned(tmp_path)
+    (tmp_path / "driftline.toml").write_text('[scan]\nbatch_bytes = "64 MB s"\n')
+    res = run("scan", "landing", cwd=tmp_path)
+    assert (res.returncode, res.stdout) == (2, "")
+    assert res.stderr == (
+        "error: config file 'driftline.toml' [scan]: batch_bytes = '64 MB s' is not a byte size; write a number "
+        "of bytes, or one with a unit: KiB, MiB, GiB, TiB (powers of 1024) or kB, MB, GB, TB (powers of 1000), "
+        "e.g. 64MiB\n"
+    )
+    # source: IEC 80000-13 item 13-9.c: 2 GiB = 2 × 1024³ B, past the batch limit of 1 GiB (core/ranges.py)
+    (tmp_path / "driftline.toml").write_text('[scan]\nbatch_bytes = "2 GiB"\n')
+    big = run("scan", "landing", cwd=tmp_path)
+    assert (big.returncode, big.stderr) == (
+        2,
+        "error: config file 'driftline.toml' [scan]: batch_bytes = '2 GiB' is 2,147,483,648 bytes, "
+        "outside 1 B..1 GiB\n",
+    )
