@@ -6,7 +6,7 @@ from __future__ import annotations
 import logging
 import sys
 import traceback
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from functools import wraps
 from typing import Any, TypeVar
 
@@ -53,12 +53,21 @@ def usage_error_text(exc: UsageError, debug: bool = False) -> str:
 class _Verbs(TyperGroup):
     """The verbs' group: click's usage errors read 'error: …' like ours, exit 2 as click's do."""
 
-    def main(self, *args: Any, standalone_mode: bool = True, **kwargs: Any) -> Any:
+    def main(
+        self,
+        args: Sequence[str] | None = None,
+        prog_name: str | None = None,
+        complete_var: str | None = None,
+        standalone_mode: bool = True,
+        windows_expand_args: bool = True,
+        **extra: Any,
+    ) -> Any:
+        more = {"windows_expand_args": windows_expand_args, **extra}
         if not standalone_mode:
-            return super().main(*args, standalone_mode=False, **kwargs)
+            return super().main(args, prog_name, complete_var, False, **more)
         try:
             # Not standalone: click hands back the exit code of typer.Exit, and raises its own errors.
-            code = super().main(*args, standalone_mode=False, **kwargs)
+            code = super().main(args, prog_name, complete_var, False, **more)
         except NoArgsIsHelpError as exc:  # 'driftline' alone: the help, as click shows it
             exc.show()
             sys.exit(exc.exit_code)
