@@ -234,3 +234,35 @@ def test_a_bad_byte_size_in_the_config_file_names_the_file_and_key(tmp_path: Pat
         "error: config file 'driftline.toml' [scan]: batch_bytes = '2 GiB' is 2,147,483,648 bytes, "
         "outside 1 B..1 GiB\n",
     )
+
+
+def test_counts_of_one_read_in_the_singular_in_the_limit_note(tmp_path: Path):
+    (tmp_path / "a.jsonl").write_text('{"a": 1, "b": 2}\n')
+    res = run("scan", "a.jsonl", "--max-paths", "1", cwd=tmp_path)
+    # common practice (English grammar): one value, one path, is counted
+    assert (
+        "warning  field paths capped at 1 (--max-paths): 1 value of 1 more path (counted per batch) "
+        "is counted as other fields"
+    ) in res.stdout
+
+
+def test_a_csv_preamble_of_one_line_reads_in_the_singular(tmp_path: Path):
+    (tmp_path / "b.csv").write_text("Sales report\nid,name\n1,a\n2,b\n3,c\n")
+    res = run("scan", "b.csv", cwd=tmp_path)
+    assert "dialect: ',' \"-quoted, header, LF, 1 preamble line skipped (confidence " in res.stdout
+    assert "warning  1 line before the header skipped (comments, a title or notes)" in res.stdout
+
+
+def test_a_narrowing_of_one_value_reads_the_only_value_fits(tmp_path: Path):
+    import json
+
+    (tmp_path / "then").mkdir()
+    (tmp_path / "then" / "c.jsonl").write_text('{"a": 1.5}\n')
+    assert run("scan", "then", "--json", "base.json", "-q", cwd=tmp_path).returncode == 0
+    (tmp_path / "now").mkdir()
+    (tmp_path / "now" / "b.jsonl").write_text('{"a": 1}\n')
+    res = run("check", "now", "--baseline", "base.json", "--json", "-", cwd=tmp_path)
+    # source: RFC 8259 section 6: 1 is an integer, 1.5 is not; the one value fits int64
+    verdict = json.loads(res.stdout)
+    messages = [f["message"] for key in ("violations", "warnings", "allowed") for f in verdict[key]]
+    assert "the only value fits int64" in messages

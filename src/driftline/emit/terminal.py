@@ -170,7 +170,7 @@ def shapes_block(found: Discriminator) -> Text:
         optional = f"; {len(shape.optional):,} optional" if shape.optional else ""
         text.append(f"  {label:<{width}}  {shape.rows:>{rows_width},} rows: {names}{more}{optional}\n")
     if len(found.shapes) > MAX_SHAPES_SHOWN:
-        text.append(f"  … {len(found.shapes) - MAX_SHAPES_SHOWN:,} more values in the JSON report (--json)\n")
+        text.append(f"  … {count(len(found.shapes) - MAX_SHAPES_SHOWN, 'more value')} in the JSON report (--json)\n")
     return text
 
 
