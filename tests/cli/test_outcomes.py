@@ -266,3 +266,13 @@ def test_a_narrowing_of_one_value_reads_the_only_value_fits(tmp_path: Path):
     verdict = json.loads(res.stdout)
     messages = [f["message"] for key in ("violations", "warnings", "allowed") for f in verdict[key]]
     assert "the only value fits int64" in messages
+
+
+def test_schema_file_headers_count_one_row_in_one_file(tmp_path: Path):
+    (tmp_path / "b.jsonl").write_text('{"a": 1}\n')
+    assert run("schema", "b.jsonl", "--to", "sql", "--out", "s.sql", "-q", cwd=tmp_path).returncode == 0
+    assert (tmp_path / "s.sql").read_text().splitlines()[
+        0
+    ] == f"-- driftline-output: driftline schema: {tmp_path} (1 row in 1 file)"
+    assert run("schema", "b.jsonl", "--to", "arrow-text", "--out", "s.txt", "-q", cwd=tmp_path).returncode == 0
+    assert (tmp_path / "s.txt").read_text().splitlines()[0].endswith(f"for {tmp_path} (1 row)")
