@@ -156,11 +156,13 @@ class Profile:
         """Why nothing was read, counting the files that failed apart from those without a row.
 
         >>> from driftline.core.files import FileIssue, FileResult
-        >>> bad = FileResult("a.jsonl", "jsonl", None, (), 3, 0, issues=(FileIssue("a.jsonl", "parse", "x"),))
-        >>> empty = FileResult("b.jsonl", "jsonl", None, (), 0, 0)
-        >>> Profile(".", (bad, bad)).unread_text(), Profile(".", (bad, empty, empty)).unread_text()
-        ('every one of the 2 files failed', '1 of the 3 files failed and the other 2 hold no row')
-        >>> Profile(".", (bad, bad, empty)).unread_text()
+        >>> def bad(rel): return FileResult(rel, "jsonl", None, (), 3, 0, issues=(FileIssue(rel, "parse", "x"),))
+        >>> def empty(rel): return FileResult(rel, "jsonl", None, (), 0, 0)
+        >>> Profile(".", (bad("a"), bad("b"))).unread_text()
+        'every one of the 2 files failed'
+        >>> Profile(".", (bad("a"), empty("b"), empty("c"))).unread_text()
+        '1 of the 3 files failed and the other 2 hold no row'
+        >>> Profile(".", (bad("a"), bad("b"), empty("c"))).unread_text()
         '2 of the 3 files failed and the other one holds no row'
         """
         failed, n = self.failed_files, len(self.files)
