@@ -22,7 +22,6 @@ from typing import overload as _overload
 from driftline.core.jsontypes import JSONObject as _JSONObject
 from driftline.core.options import ScanKeywords as _ScanKeywords
 from driftline.core.options import ScanOptions
-from driftline.core.words import every
 from driftline.emit.atomic import write_output as _write_output
 from driftline.errors import (
     InputPathError,
@@ -602,15 +601,8 @@ def recommend(
     read: dict[str, _Any] = {k: v for k, v in keywords.items() if k in KEYWORDS}
     opts = (scan_options or ScanOptions()).merged(**read)
     profile = conceal(profile_of(source, options=opts), opts.values)
-    if (
-        not isinstance(source, Profile)
-        and profile.rows == 0
-        and profile.error_count
-        and all(not f.rows and (f.errors or not f.observations) for f in profile.files)
-    ):
-        raise InputPathError(
-            f"nothing readable: {every(len(profile.files), 'file')} failed (driftline scan shows the problems)"
-        )
+    if not isinstance(source, Profile) and profile.nothing_read:
+        raise InputPathError(f"nothing readable: {profile.unread_text()} (driftline scan shows the problems)")
     rest = {k: v for k, v in keywords.items() if k not in KEYWORDS}
     try:
         return Recommendation._of(_recommend(profile, options=options, **rest))

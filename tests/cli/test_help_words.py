@@ -60,4 +60,4 @@ def test_a_byte_size_is_read_with_its_unit(tmp_path):
     )
     assert bad.returncode == 2
     # 2 GiB is past the batch limit of 1 GiB (core/ranges.py: Arrow's 32-bit offsets)
-    assert "Invalid value for '--batch-bytes': 2,147,483,648 bytes is outside 1 B..1 GiB" in bad.stderr
+    assert "error: invalid value for '--batch-bytes': 2,147,483,648 bytes is outside 1 B..1 GiB" in bad.stderr

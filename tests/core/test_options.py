@@ -60,7 +60,7 @@ def test_bad_values_are_option_errors_naming_the_option(land: Path):
     cases = {
         "jobs": (0, "jobs must be an integer"),
         "engine": ("spark", "unknown engine 'spark'; choose local or dask"),
-        "where": ("day~1", "cannot read --where 'day~1'"),
+        "where": ("day~1", "malformed --where 'day~1'"),
         "include_hidden": ("yes", "include_hidden must be true or false, got 'yes'"),
         "connect_timeout": (-1, "--connect-timeout must be between 0 and 86400 seconds, got -1"),
         "encoding": ("base64", "'base64' is not a text encoding"),

@@ -101,11 +101,11 @@ def test_an_option_out_of_range_is_an_option_error(tmp_path: Path, options: dict
 @pytest.mark.parametrize(
     ("flag", "value", "said"),
     [
-        ("--batch-rows", "99999999999999999999", "Invalid value for '--batch-rows'"),
-        ("--batch-rows", "0", "Invalid value for '--batch-rows'"),
-        ("--batch-bytes", "0", "Invalid value for '--batch-bytes'"),
-        ("--max-paths", "0", "Invalid value for '--max-paths'"),
-        ("--max-events", "10000000000", "Invalid value for '--max-events'"),
+        ("--batch-rows", "99999999999999999999", "error: invalid value for '--batch-rows'"),
+        ("--batch-rows", "0", "error: invalid value for '--batch-rows'"),
+        ("--batch-bytes", "0", "error: invalid value for '--batch-bytes'"),
+        ("--max-paths", "0", "error: invalid value for '--max-paths'"),
+        ("--max-events", "10000000000", "error: invalid value for '--max-events'"),
     ],
 )
 def test_cli_option_out_of_range_exits_2_without_a_traceback(tmp_path: Path, flag: str, value: str, said: str):

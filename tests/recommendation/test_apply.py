@@ -97,5 +97,5 @@ def test_apply_refuses_data_the_profile_did_not_see(tmp_path: Path):
         apply(raw.batch, rec)
     (tmp_path / "a.jsonl").write_text('{"m": 1}\n')
     [raw] = list(raw_batches(tmp_path))
-    with pytest.raises(SchemaMismatch, match="n: 1 nulls where the schema says not null"):
+    with pytest.raises(SchemaMismatch, match="n: 1 null where the schema says not null"):
         apply(raw.batch, rec)

@@ -102,7 +102,7 @@ def test_max_null_share_trades_text_for_a_typed_target(tmp_path: Path):
     keep = recommend(p).plan("n")
     assert (keep.rule, keep.target.key()) == ("format_as_string", "string")
     assert [(a.rule, a.target) for a in keep.alternatives] == [("parse_integer", "int64")]
-    assert "would null 1 strings (5.0%)" in keep.alternatives[0].note
+    assert "would null 1 string (5.0%)" in keep.alternatives[0].note
     typed = recommend(p, max_null_share=0.05).plan("n")
     assert (typed.rule, typed.target.key(), typed.nulled) == ("parse_integer", "int64", 1)
     assert typed.effect("unparsed").examples[0].value == '"lots"'
@@ -118,7 +118,7 @@ def test_parse_strings_keeps_quoted_numbers_by_default(tmp_path: Path):
         (
             "parse_integer",
             "int64",
-            'drops the leading zeros of 1 values; leading_zeros = "parse" and parse_strings = "always" chooses it',
+            'drops the leading zeros of 1 value; leading_zeros = "parse" and parse_strings = "always" chooses it',
         )
     ]
     assert recommend(p, parse_strings="always").plan("zip").rule == "identity"

@@ -135,7 +135,7 @@ def test_leading_zeros_keep_the_field_text_or_count_as_changed(tmp_path: Path):
     assert (plan.rule, plan.target.key(), _effects(plan)) == ("map_null_tokens", "string", {"null_token": 1})
     assert "1 value has leading zeros" in plan.why
     assert [(a.rule, a.target) for a in plan.alternatives] == [("parse_integer", "int64"), ("parse_integer", "int64")]
-    assert plan.alternatives[1].note == 'drops the leading zeros of 1 values; leading_zeros = "parse" chooses it'
+    assert plan.alternatives[1].note == 'drops the leading zeros of 1 value; leading_zeros = "parse" chooses it'
     table, tally = _applied(root, rec)
     assert table.column("qty").to_pylist() == ["7", "007", None, "12"]
     parsed = _rec(root, leading_zeros="parse").plan("qty")

@@ -106,7 +106,7 @@ def test_condition_parsing() -> None:
     assert not parse_condition("day>=2026-11-29").holds("2026-11-28")
     assert parse_condition("n<10").holds("9")  # integers compare as numbers: "9" < "10"
     assert not parse_condition("region!=east").holds("east")
-    with pytest.raises(OptionError, match=r"cannot read --where 'day~1'"):
+    with pytest.raises(OptionError, match=r"malformed --where 'day~1'"):
         parse_condition("day~1")
 
 

@@ -6,13 +6,16 @@ from __future__ import annotations
 import logging
 import sys
 import traceback
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from functools import wraps
 from typing import Any, TypeVar
 
 import typer
 from rich.console import Console
-from typer.core import TyperArgument, TyperCommand
+
+# typer carries its own copy of click's parser (typer._click): its usage errors are these classes.
+from typer._click.exceptions import ClickException, NoArgsIsHelpError, UsageError
+from typer.core import TyperArgument, TyperCommand, TyperGroup
 
 from driftline.core.version import __version__
 from driftline.emit.safe import safe_text
@@ -20,8 +23,69 @@ from driftline.errors import DriftlineError
 
 EXIT_OK, EXIT_VIOLATION, EXIT_USAGE = 0, 1, 2
 
+# --debug (the root option, before the verb): an error names its class and shows its traceback.
+_debug = {"on": False}
+
+
+def usage_error_text(exc: UsageError, debug: bool = False) -> str:
+    """What a usage error click finds (a missing argument, an unknown option, a bad choice)
+    prints: its usage line and help hint as click gives them, then 'error: message' as every
+    other error of ours reads (the message's first letter in lower case, no final stop).
+
+    >>> print(usage_error_text(UsageError("No such option: --format")))
+    error: no such option: --format
+    >>> print(usage_error_text(UsageError("Missing argument 'PATH...'."), debug=True))
+    error (UsageError): missing argument 'PATH...'
+    """
+    head = ""
+    if exc.ctx is not None:
+        head = exc.ctx.get_usage() + "\n"
+        if exc.ctx.command.get_help_option(exc.ctx) is not None:
+            head += f"Try '{exc.ctx.command_path} {exc.ctx.help_option_names[0]}' for help.\n"
+        head += "\n"
+    message = exc.format_message().rstrip(".")
+    if message[:1].isupper() and message[1:2].islower():  # a sentence, not a name such as 'PATH'
+        message = message[0].lower() + message[1:]
+    kind = f" ({type(exc).__name__})" if debug else ""
+    return f"{head}error{kind}: {message}"
+
+
+class _Verbs(TyperGroup):
+    """The verbs' group: click's usage errors read 'error: …' like ours, exit 2 as click's do."""
+
+    def main(
+        self,
+        args: Sequence[str] | None = None,
+        prog_name: str | None = None,
+        complete_var: str | None = None,
+        standalone_mode: bool = True,
+        windows_expand_args: bool = True,
+        **extra: Any,
+    ) -> Any:
+        more = {"windows_expand_args": windows_expand_args, **extra}
+        if not standalone_mode:
+            return super().main(args, prog_name, complete_var, False, **more)
+        try:
+            # Not standalone: click hands back the exit code of typer.Exit, and raises its own errors.
+            code = super().main(args, prog_name, complete_var, False, **more)
+        except NoArgsIsHelpError as exc:  # 'driftline' alone: the help, as click shows it
+            exc.show()
+            sys.exit(exc.exit_code)
+        except UsageError as exc:
+            sys.stderr.write(usage_error_text(exc, _debug["on"]) + "\n")
+            sys.exit(exc.exit_code)
+        except ClickException as exc:
+            sys.stderr.write(f"error: {exc.format_message()}\n")
+            sys.exit(exc.exit_code)
+        except typer.Abort:
+            sys.stderr.write("aborted\n")
+            sys.exit(1)
+        sys.exit(code if isinstance(code, int) and not isinstance(code, bool) else 0)
+
+
 app = typer.Typer(
     name="driftline",
+    cls=_Verbs,
     help=(
         "Profile raw landing directories (JSON Lines, JSON, CSV/TSV, Parquet; gz/bz2/zst/xz) in record "
         "batches: observed schemas, drift with file/partition/row provenance, unified schema and cast "
@@ -79,10 +143,6 @@ def _warnings_to_stderr() -> None:
         logger.addHandler(_Lines())
         logger.propagate = False
         logger.setLevel(logging.INFO)
-
-
-# --debug (the root option, before the verb): an error names its class and shows its traceback.
-_debug = {"on": False}
 
 
 def error_line(exc: DriftlineError, debug: bool = False) -> str:

@@ -16,7 +16,6 @@ import driftline
 from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.core.options import Config, ScanOptions
-from driftline.core.words import every
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.html import write_html
 from driftline.emit.landing_text import one_table_note, render_landing
@@ -185,11 +184,7 @@ def scan_command(
     if note and not quiet:
         err_console.print(note, markup=False)
     # Every file failed: the report (with the problems) is still written, then exit 2.
-    failed = (
-        profile.rows == 0
-        and profile.error_count
-        and all(not f.rows and (f.errors or not f.observations) for f in profile.files)
-    )
+    failed = profile.nothing_read
     if json_out is not None:
         write_output(json_out, dumps(profile))
     if html_out is not None:
@@ -201,7 +196,7 @@ def scan_command(
         # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, html_out))
         console = terminal(failed or to_stdout, color)
-        render(profile, console, options.max_events, **look)
+        render(profile, console, options.max_events, **look, title=_file_named(paths, profile))
         if json_out is not None and not is_stdout(json_out):
             console.print(f"report written to {safe_text(Path(json_out))}", markup=False)
         if html_out is not None and not is_stdout(html_out):
@@ -214,7 +209,7 @@ def scan_command(
             if json_out or html_out
             else "run without -q to see the problems"
         )
-        raise InputPathError(f"nothing readable: {every(len(profile.files), 'file')} failed ({hint})")
+        raise InputPathError(f"nothing readable: {profile.unread_text()} ({hint})")
     if profile.rows == 0 and not profile.files:
         raise typer.Exit(EXIT_USAGE)
     if fail_at is not None and fails_at(profile, fail_at):
@@ -227,6 +222,14 @@ def fails_at(profile: driftline.Profile, level: str) -> bool:
     order = list(LEVELS)
     urgent = order[: order.index(level) + 1]
     return bool(profile.error_count) or any(profile.level_counts.get(lv, 0) for lv in urgent)
+
+
+def _file_named(paths: list[str], profile: driftline.Profile) -> str | None:
+    """The file a scan of one local file read, for the header: the profile is rooted at its
+    folder (relative paths are from there), but the scan was of that file alone."""
+    if len(paths) == 1 and not is_url(paths[0]) and os.path.isfile(paths[0]) and len(profile.files) == 1:
+        return os.path.join(profile.root, profile.files[0].rel)
+    return None
 
 
 def terminal(to_stderr: bool, color: bool | None) -> Console:
@@ -284,12 +287,19 @@ def _several(
         for page in pages.values():
             console.print(f"HTML report written to {safe_text(Path(page))}", markup=False)
     if failed:
-        names = ", ".join(safe_text(n) for n in failed)
-        raise InputPathError(f"nothing readable in dataset {names}: every one of its files failed")
+        raise InputPathError(unread_datasets(landing, failed))
 
 
 def _all_failed(p: driftline.Profile) -> bool:
-    return bool(p.rows == 0 and p.error_count and all(not f.rows and (f.errors or not f.observations) for f in p.files))
+    return p.nothing_read
+
+
+def unread_datasets(landing: driftline.Landing, failed: list[str]) -> str:
+    """The error of a root whose datasets named in failed gave no row: why, for one of them."""
+    if len(failed) == 1:
+        return f"nothing readable in dataset {safe_text(failed[0])}: {landing.datasets[failed[0]].unread_text()}"
+    names = ", ".join(safe_text(n) for n in failed)
+    return f"nothing readable in the datasets {names}: in each, every file failed or holds no row"
 
 
 def _pages(html_out: str | None, names: list[str]) -> dict[str, str]:

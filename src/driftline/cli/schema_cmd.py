@@ -16,7 +16,6 @@ from driftline.cli.read_flags import takes_read_options
 from driftline.cli.scan_cmd import _all_failed as all_failed
 from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
 from driftline.core.options import Config, ScanOptions
-from driftline.core.words import every
 from driftline.emit.atomic import is_stdout, own_descriptor, write_output
 from driftline.emit.dataset_files import is_folder_target
 from driftline.emit.landing_text import one_table_note
@@ -253,9 +252,7 @@ def schema_command(
             err_console.print(note, markup=False)
         whole = landing.whole
         if all_failed(whole):
-            raise InputPathError(
-                f"nothing readable: {every(len(whole.files), 'file')} failed (driftline scan shows the problems)"
-            )
+            raise InputPathError(f"nothing readable: {whole.unread_text()} (driftline scan shows the problems)")
         rec = _recommended(lambda: driftline.recommend(whole, options=opts), console, quiet)
         return _write_one(rec, to, targets, table, json_mode, console, quiet)
     by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths)

@@ -15,8 +15,8 @@ from rich.text import Text
 import driftline
 from driftline.cli.app import EXIT_VIOLATION, err_console
 from driftline.cli.scan_cmd import _all_failed as all_failed
+from driftline.cli.scan_cmd import unread_datasets
 from driftline.core.options import ScanOptions
-from driftline.core.words import every
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.dataset_files import dataset_files, is_folder_target
 from driftline.emit.safe import safe_text
@@ -139,7 +139,7 @@ def by_dataset(
             if name in recs or name in conflicts:
                 summary.render(recs[name] if name in recs else conflicts[name].recommendation, console)
             else:
-                console.print(f"nothing readable: {every(len(landing.datasets[name].files), 'file')} failed")
+                console.print(f"nothing readable: {landing.datasets[name].unread_text()}")
             for _, what, path in files[name] if name in recs else ():
                 if not is_stdout(path):
                     console.print(f"{what} written to {safe_text(path)}", markup=False)
@@ -150,7 +150,6 @@ def by_dataset(
             for plan in conflict.conflicts:
                 err_console.print("  " + summary.rule_line(plan), markup=False)
     if failed:
-        names = ", ".join(safe_text(n) for n in failed)
-        raise InputPathError(f"nothing readable in dataset {names}: every one of its files failed")
+        raise InputPathError(unread_datasets(landing, failed))
     if conflicts:
         raise typer.Exit(EXIT_VIOLATION)

@@ -38,11 +38,12 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Literal, TypedDict
 
+from driftline.core.bytesize import exact_bytes, parse_bytes
 from driftline.core.codecnames import codec_name
 from driftline.core.dialectpin import parse_pin
 from driftline.core.jsontypes import JSONValue
 from driftline.core.partitions import Condition, parse_condition
-from driftline.core.ranges import check
+from driftline.core.ranges import RANGES, check
 from driftline.core.valuepolicy import OUTPUT_KEYS, ValuePolicy, value_policy, values_from_table
 from driftline.errors import DriftlineError, OptionError, PolicyError
 
@@ -219,9 +220,9 @@ class ScanKeywords(TypedDict, total=False):
     as keys of a config file's [scan] table; a name left out keeps its value (or default)."""
 
     batch_rows: int
-    batch_bytes: int
-    max_record_bytes: int
-    max_decompressed_bytes: int
+    batch_bytes: int | str  # a byte size: 67108864, or with a unit, "64 MiB" (core/bytesize.py)
+    max_record_bytes: int | str
+    max_decompressed_bytes: int | str
     max_decompression_ratio: float
     max_columns: int
     max_paths: int
@@ -286,6 +287,28 @@ _FLAGS = ("include_hidden", "sniff_unknown", "follow_links", "anonymous")
 _TEXTS = ("delimiter", "encoding", "scheduler", "endpoint_url", "region", "engine", "example_values")
 _SECONDS = ("connect_timeout", "request_timeout", "task_timeout")
 _LIMITS = ("jobs", "max_errors", "max_events")
+BYTE_KEYS = ("batch_bytes", "max_record_bytes", "max_decompressed_bytes")  # a number, or text with a unit
+
+
+def _byte_size(name: str, value: str) -> int:
+    """A byte option written with a unit ('64 MiB'), as a number of bytes within its range.
+
+    >>> _byte_size("batch_bytes", "64 MiB")
+    67108864
+    >>> _byte_size("batch_bytes", "2 GiB")
+    Traceback (most recent call last):
+    driftline.errors.OptionError: batch_bytes = '2 GiB' is 2,147,483,648 bytes, outside 1 B..1 GiB
+    """
+    try:
+        n = parse_bytes(value)
+    except ValueError as exc:
+        raise OptionError(f"{name} = {exc}") from None
+    low, high = RANGES[name]
+    if not low <= n <= high:
+        raise OptionError(
+            f"{name} = {value!r} is {n:,} bytes, outside {exact_bytes(int(low))}..{exact_bytes(int(high))}"
+        )
+    return n
 
 
 def _strings(value: object, name: str) -> tuple[str, ...]:
@@ -317,6 +340,8 @@ def _checked(name: str, value: object) -> object:
         if not ok or not 0 < value <= top:  # type: ignore[operator]
             raise OptionError(f"--{name.replace('_', '-')} must be between 0 and {top} seconds, got {value!r}")
         return float(value)  # type: ignore[arg-type]
+    if name in BYTE_KEYS and isinstance(value, str):
+        return _byte_size(name, value)
     if name in _LIMITS or name in READ_KEYS:
         return check(name, value)
     if name == "hash_key" and not isinstance(value, bytes | str):

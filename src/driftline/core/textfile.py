@@ -9,6 +9,7 @@ from typing import Any
 
 from driftline.core.codecnames import UTF8
 from driftline.core.dialectpin import PIN_KEYS
+from driftline.core.words import count
 
 # How the encoding was found (the report's "evidence").
 BY_BOM, BY_NULS, BY_SAMPLE, BY_FALLBACK, BY_PIN = "bom", "nul-pattern", "sample", "fallback", "pinned"
@@ -49,7 +50,7 @@ class Dialect:
         if self.comment is not None:
             parts.append(f"{self.comment!r} comments")
         if self.skip:
-            parts.append(f"{self.skip} preamble line{'s' if self.skip != 1 else ''} skipped")
+            parts.append(f"{count(self.skip, 'preamble line')} skipped")
         return ", ".join(parts)
 
     def certainty(self) -> str:

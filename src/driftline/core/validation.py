@@ -21,6 +21,7 @@ from functools import cache
 from importlib.resources import files
 from typing import Any
 
+from driftline.core.words import count, plural
 from driftline.errors import DamagedFileError
 
 SCHEMAS = {
@@ -110,7 +111,7 @@ def found(v: Any) -> str:
         text = json.dumps(v[:60], ensure_ascii=False) + ("…" if len(v) > 60 else "")
         return f"the string {text}"
     if isinstance(v, dict):
-        return f"an object of {len(v)} keys"
+        return f"an object of {count(len(v), 'key')}"
     return f"an array of {len(v)} items"
 
 
@@ -190,7 +191,8 @@ class _Compiler:
         )
         if unknown:
             raise ValueError(
-                f"the schema keyword(s) {sorted(unknown)} are not compiled; add them to core/validation.py"
+                f"the schema {plural(len(unknown), 'keyword')} {sorted(unknown)} {plural(len(unknown), 'is', 'are')} "
+                "not compiled; add them to core/validation.py"
             )
         checks: list[Check] = []
         if s.get("type") == "integer" and set(s) - _ANNOTATIONS == {"type", "minimum"}:

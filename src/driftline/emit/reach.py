@@ -66,9 +66,8 @@ def short_reach(e: Event) -> str:
     ...     1512, 1512, 3, 3, "c.jsonl", 11))
     '3 files, 1,512 rows, still going'
     """
-    files = f"{e.files:,} file" + ("s" if e.files != 1 else "")
-    count, unit = (e.rows, "row") if e.rows is not None else (e.values, "value")
-    text = f"{files}, {count:,} {unit}" + ("s" if count != 1 else "")
+    n, unit = (e.rows, "row") if e.rows is not None else (e.values, "value")
+    text = f"{count(e.files, 'file')}, {count(n, unit)}"
     if e.partition_key is not None:
         key = safe_text(e.partition_key, 40)
         shown = ", ".join(f"{key}={safe_text(v, 40)}" for v in e.partition_values[:2])

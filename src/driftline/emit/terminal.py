@@ -66,17 +66,22 @@ def _classes_cell(s: FieldSummary) -> Text:
     return Text(", ".join(f"{c} {_pct(n, total)}" for c, n in top) + (" …" if len(classes) > 3 else ""))
 
 
-def overview(profile: Profile) -> Text:
+def overview(profile: Profile, title: str | None = None) -> Text:
+    """The first lines: what was scanned (title, else the profile's root folder), the counts, the
+    drift by level, what was skipped for its extension, the partitions and encodings."""
     formats = Counter(f.format for f in profile.files)
-    errors = sum(1 for i in profile.issues if i.severity == "error")
+    errors = profile.error_count
+    # A file may hold several errors: say over how many files, so that the count agrees with
+    # "every one of the N files failed" and with the problems listed.
+    spread = f" in {count(profile.failed_files, 'file')}" if errors != profile.failed_files else ""
     text = Text()
     text.append("driftline scan ", style="bold")
-    text.append(safe_text(profile.root, None))
+    text.append(safe_text(profile.root if title is None else title, None))
     text.append("\n")
     text.append(
         f"{count(len(profile.files), 'file')} ({', '.join(f'{n} {k}' for k, n in sorted(formats.items()))}), "
         f"{count(profile.rows, 'row')}, {human_bytes(profile.bytes)}, {count(len(profile.fields), 'field')}, "
-        f"{len(profile.skipped):,} skipped, {count(errors, 'file error')}, {profile.duration_s:.2f} s"
+        f"{len(profile.skipped):,} skipped, {count(errors, 'file error')}{spread}, {profile.duration_s:.2f} s"
     )
     if profile.event_total:  # on the first screen, before the field table
         text.append(f"\ndrift: {count(profile.event_total, 'event')}, ")
@@ -165,7 +170,7 @@ def shapes_block(found: Discriminator) -> Text:
         optional = f"; {len(shape.optional):,} optional" if shape.optional else ""
         text.append(f"  {label:<{width}}  {shape.rows:>{rows_width},} rows: {names}{more}{optional}\n")
     if len(found.shapes) > MAX_SHAPES_SHOWN:
-        text.append(f"  … {len(found.shapes) - MAX_SHAPES_SHOWN:,} more values in the JSON report (--json)\n")
+        text.append(f"  … {count(len(found.shapes) - MAX_SHAPES_SHOWN, 'more value')} in the JSON report (--json)\n")
     return text
 
 
@@ -326,13 +331,14 @@ def render(
     *,
     events_detail: bool = False,
     full_table: bool = False,
+    title: str | None = None,
 ) -> None:
     """The terminal summary: the overview and the drift first (the breaking changes on the
     first screen), then the CSV dialects and shapes, then the fields. max_events bounds the
     events listed (the others are counted, and the JSON report holds them all); events_detail
     gives each event's positions and example; full_table every column of the field table at
-    any width."""
-    console.print(overview(profile))
+    any width; title names what was scanned when it is not the root folder (a file named alone)."""
+    console.print(overview(profile, title))
     console.print()
     if profile.events:
         console.print(
@@ -348,6 +354,8 @@ def render(
                 f"… {left_out:,} more events not listed here (--max-events {max_events:,}); "
                 "the JSON report (--json) lists them all"
             )
+    elif profile.rows == 0:  # no batch to compare: no verdict, rather than a "No drift" that reads as one
+        console.print("Nothing to compare: no file gave a row.")
     else:
         console.print("No drift: every batch shows the same fields and types.")
     if any(f.dialect is not None for f in profile.files) or profile.shapes is not None:
@@ -356,8 +364,9 @@ def render(
         console.print(dialects_block(profile, console.width), end="", no_wrap=True, overflow="ignore", crop=False)
     if profile.shapes is not None:
         console.print(shapes_block(profile.shapes), end="", no_wrap=True, overflow="ignore", crop=False)
-    console.print()
-    console.print(fields_table(profile, None if full_table else console.width))
+    if profile.fields:
+        console.print()
+        console.print(fields_table(profile, None if full_table else console.width))
     if formats := formats_block(profile):
         console.print()
         console.print(formats)

@@ -22,7 +22,7 @@ from driftline.core import paths
 from driftline.core.lattice import DType, family, join, join_all, parse_key, shallow, type_of_key, type_text
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
-from driftline.core.words import count
+from driftline.core.words import count, plural
 from driftline.gate.baseline import NULL_CLASSES, Baseline, Expected
 from driftline.gate.policy import RULES, Policy
 from driftline.gate.verdict import RuleResult, Verdict, Violation
@@ -235,7 +235,7 @@ def check_narrowing(w: _Walk, out: _Findings) -> None:
                 "narrowing",
                 path,
                 f"{type_text(b)} → {type_text(seen)}",
-                f"all {s.stats.nonnull:,} values fit {type_text(seen)}",
+                f"{_all(s.stats.nonnull, 'value')} {plural(s.stats.nonnull, 'fits', 'fit')} {type_text(seen)}",
                 s.stats.nonnull,
                 ex.file if ex else "",
                 ex,
@@ -321,7 +321,7 @@ def check_gone(w: _Walk, out: _Findings) -> None:
                 "optional_gone",
                 path,
                 "optional field no longer seen",
-                f"absent from all {w.profile.rows:,} rows",
+                f"absent from {_all(w.profile.rows, 'row')}",
                 w.profile.rows,
                 "",
             )
@@ -419,6 +419,11 @@ def check_null_share(w: _Walk, out: _Findings) -> None:
         )
 
 
+def _all(n: int, noun: str) -> str:
+    """'all 3 values', and 'the only value' for one."""
+    return f"the only {noun}" if n == 1 else f"all {count(n, noun)}"
+
+
 def check_file_errors(w: _Walk, out: _Findings) -> None:
     """file_errors: the share of files with at least one read error, against the limit."""
     files = w.profile.files
@@ -433,7 +438,8 @@ def check_file_errors(w: _Walk, out: _Findings) -> None:
             "file_errors",
             None,
             f"file error: {issue.kind}",
-            f"{len(bad)} of {len(files)} files ({rate:.1f}%) have read errors; the limit is {limit:g}%",
+            f"{len(bad):,} of {count(len(files), 'file')} ({rate:.1f}%) {plural(len(bad), 'has', 'have')} read errors; "
+            f"the limit is {limit:g}%",
             f.errors,
             f.rel,
             Example(f.rel, issue.row if issue.row is not None else -1, issue.line, issue.message),

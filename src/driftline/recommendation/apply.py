@@ -25,6 +25,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from driftline.core.lattice import DType, to_arrow
+from driftline.core.words import count
 from driftline.observe import textclass as tc
 from driftline.recommendation.plan import FieldPlan, Recommendation, arrow_field, arrow_type, target_schema
 from driftline.recommendation.raw import TEXT, json_text, jsonable, plain_value
@@ -378,7 +379,8 @@ def _check_nulls(plan: FieldPlan, arr: pa.Array, where: pa.Array | None = None) 
     nulls = pc.is_null(arr) if where is None else pc.and_(pc.is_null(arr), where)
     if _true(nulls):
         raise SchemaMismatch(
-            f"{plan.path}: {_true(nulls):,} nulls where the schema says not null; the data is not what the profile saw"
+            f"{plan.path}: {count(_true(nulls), 'null')} where the schema says not null; "
+            "the data is not what the profile saw"
         )
 
 

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from typing import Literal
 
 from driftline.core.lattice import BOOL, DATE32, FLOAT64, INT64, STRING, DType, family, join_all, parse_key
+from driftline.core.words import count, plural
 from driftline.recommendation.facts import Facts
 from driftline.recommendation.options import RecommendOptions
 
@@ -216,7 +217,8 @@ def _target(forms: list[Form], f: Facts, opts: RecommendOptions) -> tuple[DType,
         share = lost / f.values if f.values else 1.0
         if all(x.source != "typed" for x in rest) and share <= opts.max_null_share:
             notes.append(
-                f"{lost:,} strings that are not {core} become null: {share:.1%} of the values, "
+                f"{count(lost, 'string')} that {plural(lost, 'is', 'are')} not {core} "
+                f"{plural(lost, 'becomes', 'become')} null: {share:.1%} of the values, "
                 f"within max_null_share = {opts.max_null_share:g}"
             )
         elif all(x.key == PADDED for x in rest):
@@ -226,7 +228,8 @@ def _target(forms: list[Form], f: Facts, opts: RecommendOptions) -> tuple[DType,
             why = (
                 "typed values of other kinds"
                 if any(x.source == "typed" for x in rest)
-                else f"{lost:,} strings ({share:.1%}) that do not parse, above max_null_share = {opts.max_null_share:g}"
+                else f"{count(lost, 'string')} ({share:.1%}) that {plural(lost, 'does', 'do')} not parse, "
+                f"above max_null_share = {opts.max_null_share:g}"
             )
             notes.append(f"kept as text: {' and '.join(sorted(groups))} values meet in this field, with {why}")
             return STRING, [], notes

@@ -18,6 +18,7 @@ from dataclasses import dataclass, field
 from driftline.core import paths
 from driftline.core.lattice import STRING, DType, family
 from driftline.core.stats import FieldStats, class_sample, type_sample
+from driftline.core.words import count, plural
 from driftline.observe.records import is_int_key
 from driftline.recommendation.bounds import json_chars, value_chars
 from driftline.recommendation.effects import scalar_effects, target_nullable
@@ -195,10 +196,11 @@ def _lossy_alternatives(f: Facts, ctx: Context) -> tuple[Alternative, ...]:
         share = lost / f.values if f.values else 0.0
         if note == "leading_zeros":
             both = ' and parse_strings = "always"' if "parse_strings" in change else ""
-            text = f'drops the leading zeros of {padded:,} values; leading_zeros = "parse"{both} chooses it'
+            text = f'drops the leading zeros of {count(padded, "value")}; leading_zeros = "parse"{both} chooses it'
         else:
             text = (
-                f"would null {lost:,} strings ({share:.1%}) that do not parse; max_null_share >= {share:.4g} chooses it"
+                f"would null {count(lost, 'string')} ({share:.1%}) that {plural(lost, 'does', 'do')} not parse; "
+                f"max_null_share >= {share:.4g} chooses it"
                 if note
                 else 'parse_strings = "always" parses these strings'
             )
@@ -277,7 +279,7 @@ def _parse(name: str) -> Rule:
         others = [x.key for x in r.forms if x.source == "typed" and x.dtype != r.target]
         if others:
             does += f"; {', '.join(others)} values are widened"
-        why = f"{r.parsed:,} of {strings:,} strings parse as {r.target.key()}"
+        why = f"{r.parsed:,} of {count(strings, 'string')} {plural(r.parsed, 'parses', 'parse')} as {r.target.key()}"
         alts: tuple[Alternative, ...] = ()
         if name == "parse_float" and not ctx.opts.prefer_decimal:
             dec = read_scalar(f, ctx.opts.replace(prefer_decimal=True))
@@ -415,7 +417,8 @@ def merge_struct(f: Facts, ctx: Context) -> FieldPlan | None:
         "merge_struct",
         children,
         "merges the objects into one struct with the union of their fields; a field an object lacks is null there",
-        f"{len(sometimes)} of {len(children)} fields appear in only some objects "
+        f"{len(sometimes):,} of {count(len(children), 'field')} {plural(len(sometimes), 'appears', 'appear')} "
+        "in only some objects "
         f"({', '.join(sometimes[:5])}{', …' if len(sometimes) > 5 else ''})",
     )
 

@@ -15,7 +15,7 @@ from driftline.core.files import FileIssue, FileResult, Skipped
 from driftline.core.jsontypes import JSONValue
 from driftline.core.observation import Observation
 from driftline.core.stats import FieldStats, merge_all
-from driftline.core.words import count
+from driftline.core.words import count, every
 from driftline.errors import ProfileError
 from driftline.results.drift import Event, drift_summary
 from driftline.results.levels import LEVELS
@@ -137,6 +137,39 @@ class Profile:
     def error_count(self) -> int:
         """How many file problems were errors (data may be lost), not warnings."""
         return sum(f.errors for f in self.files)
+
+    @property
+    def failed_files(self) -> int:
+        """How many files had at least one error (a file may have several: error_count counts them all)."""
+        return sum(1 for f in self.files if f.errors)
+
+    @property
+    def nothing_read(self) -> bool:
+        """Whether no file gave a row and some failed: the scan has nothing to judge (exit 2)."""
+        return (
+            self.rows == 0
+            and self.error_count > 0
+            and all(not f.rows and (f.errors or not f.observations) for f in self.files)
+        )
+
+    def unread_text(self) -> str:
+        """Why nothing was read, counting the files that failed apart from those without a row.
+
+        >>> from driftline.core.files import FileIssue, FileResult
+        >>> def bad(rel): return FileResult(rel, "jsonl", None, (), 3, 0, issues=(FileIssue(rel, "parse", "x"),))
+        >>> def empty(rel): return FileResult(rel, "jsonl", None, (), 0, 0)
+        >>> Profile(".", (bad("a"), bad("b"))).unread_text()
+        'every one of the 2 files failed'
+        >>> Profile(".", (bad("a"), empty("b"), empty("c"))).unread_text()
+        '1 of the 3 files failed and the other 2 hold no row'
+        >>> Profile(".", (bad("a"), bad("b"), empty("c"))).unread_text()
+        '2 of the 3 files failed and the other one holds no row'
+        """
+        failed, n = self.failed_files, len(self.files)
+        if failed == n:
+            return f"{every(n, 'file')} failed"
+        rest = "the other one holds" if n - failed == 1 else f"the other {n - failed:,} hold"
+        return f"{failed:,} of the {count(n, 'file')} failed and {rest} no row"
 
     def observations(self) -> Iterable[Observation]:
         """Every batch observation in scan order: path order, then batch order."""

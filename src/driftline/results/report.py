@@ -24,6 +24,7 @@ from driftline.core.options import DEFAULT_MAX_PATHS
 from driftline.core.textfile import Dialect, TextEncoding
 from driftline.core.validation import check_document, damaged, found, pointer
 from driftline.core.version import __version__
+from driftline.core.words import count, plural
 from driftline.errors import ReportVersionError
 from driftline.observe.textclass import classify
 from driftline.results.profile import Profile
@@ -119,8 +120,9 @@ def limit_notes(profile: Profile) -> list[str]:
     if "other_paths" in got:
         cap = profile.options.get("max_paths", DEFAULT_MAX_PATHS)
         notes.append(
-            f"field paths capped at {cap:,} (--max-paths): {got['other_values']:,} values of "
-            f"{got['other_paths']:,} more paths (counted per batch) are counted as other fields"
+            f"field paths capped at {cap:,} (--max-paths): {count(got['other_values'], 'value')} of "
+            f"{got['other_paths']:,} more {plural(got['other_paths'], 'path')} (counted per batch) "
+            f"{plural(got['other_values'], 'is', 'are')} counted as other fields"
         )
     if "events_listed" in got:
         notes.append(

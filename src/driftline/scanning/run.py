@@ -12,7 +12,7 @@ from typing import Any
 
 from driftline.core.files import FileResult
 from driftline.core.options import DEFAULT_TASK_TIMEOUT, ReadOptions, ScanOptions, StorageOptions
-from driftline.core.partitions import partitions_pass
+from driftline.core.partitions import filter_problem, partitions_pass, where_text
 from driftline.errors import InputPathError
 from driftline.observe.thinning import ScanThinner, cap_paths, thin_result, thin_scan
 from driftline.results.profile import Profile
@@ -110,10 +110,15 @@ def discover_for(o: ScanOptions) -> Discovery:
             follow_links=o.follow_links,
         )
         if conditions:
-            found = replace(found, files=tuple(f for f in found.files if partitions_pass(f.partitions, conditions)))
+            kept = tuple(f for f in found.files if partitions_pass(f.partitions, conditions))
+            if not kept and found.files:  # the filter, not the folder, left nothing: say which part of it
+                raise InputPathError(filter_problem([f.partitions for f in found.files], conditions))
+            found = replace(found, files=kept)
     if not found.files:
+        # Object store listings apply --where as they go: the filter may be why nothing is left.
+        kept_by = f" that passes {where_text(conditions)}" if conditions else ""
         raise InputPathError(
-            f"no readable data file under {', '.join(map(str, paths))} "
+            f"no readable data file{kept_by} under {', '.join(map(str, paths))} "
             f"({_skipped_summary(found.skipped)}); formats read: {suffix_list()}, optionally compressed"
         )
     return found

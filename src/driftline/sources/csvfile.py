@@ -21,6 +21,7 @@ from driftline.core.files import FileIssue
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
 from driftline.core.textfile import Dialect
+from driftline.core.words import count
 from driftline.observe.fast.columnar import observe_table
 from driftline.observe.fast.valuebytes import value_view
 from driftline.sources.dialect import ROW_NAME_COLUMN, SAMPLE_BYTES, Finding, find_dialect, pin_for, positional_name
@@ -241,7 +242,7 @@ def read_header(stream: BinaryIO, rel: str, opts: ReadOptions, tsv: bool) -> Ite
         yield FileIssue(
             rel,
             "too-large",
-            f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
+            f"line longer than {count(opts.max_record_bytes, 'byte')} (--max-record-bytes); "
             "it and the rest of the file were not profiled",
             line=1,
             byte_offset=0,
@@ -310,7 +311,7 @@ def _dialect_notes(rel: str, sample: bytes, finding: Finding) -> Iterator[FileIs
         yield FileIssue(
             rel,
             "preamble",
-            f"{d.skip:,} line{'s' if d.skip != 1 else ''} before the header skipped (comments, a title or notes)",
+            f"{count(d.skip, 'line')} before the header skipped (comments, a title or notes)",
             "warning",
             line=1,
             byte_offset=0,
@@ -414,7 +415,9 @@ def _read_rows(
 
     def on_invalid(row: pcsv.InvalidRow) -> str:
         places.set_aside(
-            row.number, row.text, f"expected {row.expected_columns} fields, found {row.actual_columns}; row skipped"
+            row.number,
+            row.text,
+            f"expected {count(row.expected_columns, 'field')}, found {row.actual_columns:,}; row skipped",
         )
         return "skip"
 
@@ -464,9 +467,7 @@ def _ending(rel: str, opts: ReadOptions, guard: LineGuard) -> Iterator[FileIssue
     yield from guard.take_issues(rel)
     if guard.comments:
         n = guard.comments
-        yield FileIssue(
-            rel, "comments", f"{n:,} comment line{'s' if n != 1 else ''} skipped", "warning", line=guard.first_comment
-        )
+        yield FileIssue(rel, "comments", f"{count(n, 'comment line')} skipped", "warning", line=guard.first_comment)
     yield from guard.rest_issue(rel)
     if guard.cut is not None:
         yield _too_long(rel, opts, guard)
@@ -477,7 +478,7 @@ def _too_long(rel: str, opts: ReadOptions, guard: LineGuard) -> FileIssue:
     return FileIssue(
         rel,
         "too-large",
-        f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); "
+        f"line longer than {count(opts.max_record_bytes, 'byte')} (--max-record-bytes); "
         "it and the rest of the file were not profiled",
         line=line,
         byte_offset=offset,

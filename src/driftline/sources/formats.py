@@ -16,6 +16,7 @@ from typing import Any, BinaryIO
 
 from driftline.core.dataformat import Compression
 from driftline.core.options import RATIO_FLOOR_BYTES
+from driftline.core.words import plural
 
 COMPRESSION_BY_SUFFIX: dict[str, Compression] = {
     ".gz": "gzip",
@@ -195,7 +196,11 @@ class IgnoredTail:
     offset: int  # compressed byte offset where it starts
 
     def message(self, size: int | None) -> str:
-        count = f"{size - self.offset:,} bytes" if size is not None and size > self.offset else "the bytes"
+        count = (
+            f"{size - self.offset:,} {plural(size - self.offset, 'byte')}"
+            if size is not None and size > self.offset
+            else "the bytes"
+        )
         name = "gzip member" if self.codec == "gzip" else "bzip2 stream"
         return (
             f"{count} from byte {self.offset:,} on are not a {name}: ignored, as `{_TOOL[self.codec]}` "

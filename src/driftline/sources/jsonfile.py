@@ -16,6 +16,7 @@ from driftline.core import jsonnum
 from driftline.core.files import FileIssue
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
+from driftline.core.words import count
 from driftline.observe.fast.jsonbatch import observe_json_lines
 from driftline.observe.fast.strprofile import EXACT_ENV, exact_requested  # noqa: F401 - EXACT_ENV re-exported
 from driftline.observe.records import observe_records
@@ -289,7 +290,7 @@ def read_jsonl(
         if got is None:
             break
         if isinstance(got, _TooLong):
-            msg = f"line longer than {opts.max_record_bytes:,} bytes (--max-record-bytes); skipped"
+            msg = f"line longer than {count(opts.max_record_bytes, 'byte')} (--max-record-bytes); skipped"
             yield FileIssue(rel, "too-large", msg, line=got.line, byte_offset=got.offset)
             continue
         whole = len(got) == want or got.full or src.ends(got)
@@ -512,7 +513,7 @@ def array_elements(data: bytes, stream: BinaryIO, at: int, max_bytes: int) -> It
         while True:
             i = (_RUN_TOP if depth == 0 else _RUN_IN).match(buf, i).end()  # type: ignore[union-attr]
             if i - begin > max_bytes:
-                yield f"an element longer than {max_bytes:,} bytes (--max-record-bytes)"
+                yield f"an element longer than {count(max_bytes, 'byte')} (--max-record-bytes)"
                 return
             if i == len(buf) or buf[i] == ord('"'):  # the text ends, or inside a string: read on
                 more = stream.read(_ARRAY_CHUNK)

@@ -17,6 +17,7 @@ from driftline.core import paths
 from driftline.core.files import FileIssue
 from driftline.core.lattice import from_arrow, unsupported_reason
 from driftline.core.options import RATIO_FLOOR_BYTES, ReadOptions
+from driftline.core.words import count
 from driftline.observe.fast.bulk import Batch
 
 Item = Batch | FileIssue | dict
@@ -94,7 +95,9 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
             return
     if rows != expected:
         # Nothing lost silently: a footer promising rows the pages do not hold is corrupt.
-        yield FileIssue(rel, "row-count", f"the footer declares {expected:,} rows but {rows:,} could be read", row=rows)
+        yield FileIssue(
+            rel, "row-count", f"the footer declares {count(expected, 'row')} but {rows:,} could be read", row=rows
+        )
 
 
 def _source(path: object) -> tuple[object, int]:

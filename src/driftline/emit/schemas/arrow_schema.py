@@ -10,6 +10,7 @@ from __future__ import annotations
 import pyarrow as pa
 
 from driftline.core.marker import remark
+from driftline.core.words import count
 from driftline.recommendation.plan import Recommendation, target_schema
 
 
@@ -32,5 +33,6 @@ def read_ipc(data: bytes) -> pa.Schema:
 def schema_text(rec: Recommendation) -> str:
     """The schema as pyarrow prints it, each top-level field with its rule."""
     schema = target_schema(rec)
-    head = f"# {remark(f'Arrow schema recommended by driftline for {rec.root} ({rec.rows:,} rows)')}\n"
+    rows = count(rec.rows, "row")
+    head = f"# {remark(f'Arrow schema recommended by driftline for {rec.root} ({rows})')}\n"
     return head + schema.to_string(show_field_metadata=True, show_schema_metadata=False) + "\n"

@@ -29,6 +29,7 @@ from driftline.core import paths
 from driftline.core.lattice import DType, parse_key
 from driftline.core.marker import remark
 from driftline.core.observation import TEXT_CLASS_TYPE
+from driftline.core.words import count
 from driftline.recommendation.plan import FieldPlan, Recommendation
 
 META_SCHEMA = "https://json-schema.org/draft/2020-12/schema"
@@ -188,7 +189,7 @@ def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | 
                 if mode == "permissive"
                 else "records after the cast rules validate"
             )
-            + f"; {rec.rows:,} rows in {rec.files:,} files"
+            + f"; {count(rec.rows, 'row')} in {count(rec.files, 'file')}"
         ),
         "$schema": META_SCHEMA,
         "title": title or f"records of {rec.root}",

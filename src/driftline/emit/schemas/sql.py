@@ -29,6 +29,7 @@ import pyarrow as pa
 
 from driftline.core.lattice import DType
 from driftline.core.marker import remark
+from driftline.core.words import count
 from driftline.observe.textclass import INT64_MAX, INT64_MIN, NULL_TOKENS
 from driftline.recommendation.options import zone_is_fixed
 from driftline.recommendation.plan import FieldPlan, Recommendation
@@ -288,8 +289,9 @@ def insert_select(rec: Recommendation, table: str) -> str:
 
 def script(rec: Recommendation, table: str) -> str:
     """The whole SQL file: target table, staging table, and the cast rules."""
+    read = f"{count(rec.rows, 'row')} in {count(rec.files, 'file')}"
     head = (
-        f"-- {remark(f'driftline schema: {rec.root} ({rec.rows:,} rows in {rec.files:,} files)')}\n"
+        f"-- {remark(f'driftline schema: {rec.root} ({read})')}\n"
         "-- Portable SQL. Load the raw values as text into the staging table\n"
         "-- (blank CSV cells as NULL; lists and JSON-text columns as JSON text), then run the INSERT.\n"
     )

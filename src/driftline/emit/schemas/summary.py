@@ -73,7 +73,7 @@ def effect_text(e: Effect, zone: str | None = None) -> str:
 
 def _inputs_text(plan: FieldPlan) -> str:
     strings, cells = plan.inputs.get("string", 0), plan.inputs.get("text", 0)
-    parts = [f"{strings:,} strings"] * bool(strings) + [f"{cells:,} CSV cells"] * bool(cells)
+    parts = [count(strings, "string")] * bool(strings) + [count(cells, "CSV cell")] * bool(cells)
     return " and ".join(parts) if parts else describe_inputs(plan.inputs)
 
 
