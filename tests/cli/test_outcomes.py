@@ -98,6 +98,16 @@ def test_a_folder_of_bad_and_empty_files_counts_them_one_way(tmp_path: Path):
     )
 
 
+def test_the_html_of_a_folder_of_bad_files_gives_no_drift_verdict(tmp_path: Path):
+    _bad_folder(tmp_path)
+    res = run("scan", "bad", "--html", "r.html", cwd=tmp_path)
+    assert res.returncode == 2
+    page = (tmp_path / "r.html").read_text()
+    # The changes list and the timelines say the same as the terminal.
+    assert page.count("Nothing to compare: no file gave a row.") == 2
+    assert "No drift:" not in page
+
+
 def test_several_errors_per_file_are_counted_over_their_files(tmp_path: Path):
     folder = tmp_path / "cut"
     folder.mkdir()

@@ -497,6 +497,8 @@ def render_html(
             notes=_notes(profile),
             changes=_changes(profile, numbers, charted, listed),
             event_total=profile.event_total,
+            # no batch to compare: no verdict, rather than a "No drift" that reads as one
+            nothing_read=profile.rows == 0,
             fields=fields,
             fields_left_out=max(0, len(profile.fields) - len(fields)),
             with_recs=recs is not None,
