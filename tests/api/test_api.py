@@ -64,6 +64,7 @@ NO_DOCSTRING_YET: set[str] = set()
 DOCTEST_MODULES = [
     "driftline",
     "driftline.core.documents",
+    "driftline.core.validation",
     "driftline.results.drift",
     "driftline.emit.reach",
     "driftline.emit.html",

@@ -9,7 +9,7 @@ keywords the published schemas use are compiled; any other keyword is refused wh
 schema is compiled, so a schema can never be checked more loosely than it reads.
 
 >>> problem_in({"format": "driftline-rules", "version": "1"}, "rules")
-('/version', 'the value 1', 'the string "1"')
+('/tool', 'a required key', 'none')
 """
 
 from __future__ import annotations
