@@ -82,6 +82,7 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
                 "nullable": s.nullable,
                 **s.stats.to_json(),
                 **_formats(profile.types_by_format.get(path, {})),
+                **_by_source(profile.classes_by_source.get(path, {})),
             }
             for path, s in profile.fields.items()
         },
@@ -95,6 +96,11 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
 def _formats(by_format: dict[str, dict[str, int]]) -> dict[str, Any]:
     """{"formats": format → type → values} for a field whose values came in more than one format."""
     return {"formats": by_format} if len(by_format) > 1 else {}
+
+
+def _by_source(by_source: dict[str, dict[str, int]]) -> dict[str, Any]:
+    """{"classes_by_source": strings / cells → class → count} for a field with content classes."""
+    return {"classes_by_source": by_source} if by_source else {}
 
 
 def summarised(profile: Profile) -> dict[str, Any]:
