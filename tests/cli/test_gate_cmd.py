@@ -248,7 +248,7 @@ def test_check_a_saved_report(pipeline: dict[str, Path], tmp_path: Path):
     doc = json.loads(res.stdout)
     assert (doc["counts"]["files_read"], doc["counts"]["files_reused"]) == (0, 2)
     assert [(v["rule"], v["field"], v["row"], v["example"]) for v in doc["violations"]] == [
-        ("type_change", "seq", 17, '"17b"')
+        ("type_change", "seq", 17, {"value": "17b"})  # source: RFC 8259 section 7 (a JSON string)
     ]
     res = invoke("check", tmp_path / "r.json", "--baseline", pipeline["contract"], "--state", tmp_path / ".s")
     assert res.returncode == 2 and "give data paths, not a saved report" in res.stderr
