@@ -16,7 +16,9 @@ import pytest
 import driftline
 from conftest import fixture_path
 from driftline.core.stats import Example, example_json, example_text
+from driftline.emit.schemas.rules_json import RULES_VERSION, load_rules, rules_document
 from driftline.errors import ReportVersionError
+from driftline.gate.baseline import load_baseline
 from driftline.gate.state import STATE_VERSION, load_state, scan_incremental
 from driftline.results.landing import from_dict_set, to_dict_set
 from driftline.results.report import REPORT_VERSION, dumps, from_dict, to_dict
@@ -138,3 +140,20 @@ def test_a_version_1_state_file_loads_upgraded(tmp_path: Path):
     }
     assert texts[("b.csv", "price", "class:decimal")] == ['"19.9"']
     assert texts[("a.jsonl", "price", "type:float64")] == ["19.9"]
+
+
+def test_a_version_1_rules_file_loads_upgraded_and_serves_as_a_baseline():
+    # tests/fixtures/report_v1/rules-v1.json: written by rules version 1 from rules-data (its root made relative).
+    v1 = fixture_path("report_v1/rules-v1.json")
+    old = json.loads(v1.read_text(encoding="utf-8"))
+    assert old["version"] == 1
+    [effect] = old["fields"][0]["effects"]
+    assert effect["examples"][0]["value"] == '"n/a"'
+    doc = load_rules(v1)
+    assert doc["version"] == RULES_VERSION == 2
+    # source: RFC 8259 section 7: the example is the JSON string n/a itself.
+    assert doc["fields"][0]["effects"][0]["examples"][0] == {"file": "a.jsonl", "row": 9, "line": 10, "value": "n/a"}
+    fresh = rules_document(driftline.scan(fixture_path("report_v1/rules-data")).recommend())
+    assert doc["fields"][0]["effects"] == fresh["fields"][0]["effects"]
+    base = load_baseline(v1)
+    assert (base.kind, base.fields["qty"].rule, base.fields["qty"].type.key()) == ("rules", "parse_integer", "int64")

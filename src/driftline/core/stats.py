@@ -47,10 +47,6 @@ class Example:
         """The example as a report writes it: its value as a JSON value (example_json)."""
         return {"file": self.file, "row": self.row, "line": self.line, **example_json(self.value)}
 
-    def to_text_json(self) -> dict[str, Any]:
-        """The example with its value as JSON text in a string: the cast rules file (version 1)."""
-        return {"file": self.file, "row": self.row, "line": self.line, "value": self.value}
-
     @staticmethod
     def from_json(d: Mapping[str, Any]) -> Example:
         return Example(d["file"], d["row"], d.get("line"), example_text(d))

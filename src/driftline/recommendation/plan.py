@@ -67,7 +67,7 @@ class Effect:
             "cause": self.cause,
             "count": self.count,
             "exact": self.exact,
-            "examples": [e.to_text_json() for e in self.examples],  # rules file version 1: JSON text
+            "examples": [e.to_json() for e in self.examples],
         }
         if self.note:
             out["note"] = self.note
