@@ -85,7 +85,7 @@ def test_three_datasets_against_their_baselines_pass(work: Path) -> None:
     assert res.stdout.count("\nPASS  0 violations, 0 warnings\n") == 3
     assert res.stdout.rstrip().splitlines()[-1] == "overall PASS  3 datasets: 3 passed, 0 warned, 0 failed"
     doc = _verdict(run("check", "landing/", "--baseline", "baselines/", "--json", "-", "-q", cwd=work))
-    assert (doc["format"], doc["version"], doc["passed"], doc["exit_code"]) == ("driftline-verdict-set", 1, True, 0)
+    assert (doc["format"], doc["version"], doc["passed"], doc["exit_code"]) == ("driftline-verdict-set", 2, True, 0)
     assert {n: d["status"] for n, d in doc["datasets"].items()} == dict.fromkeys(NAMES, "passed")
     assert {n: d["format"] for n, d in doc["datasets"].items()} == dict.fromkeys(NAMES, "driftline-verdict")
     # rows per dataset, from make_layouts.done_when: 2 regions x 2 days x 3 rows, 3 exports of 1 row, 2 stations
@@ -118,7 +118,15 @@ def test_a_changed_type_fails_that_dataset_as_a_check_of_its_folder_alone(work: 
     got = doc["datasets"]["readings"]
     assert got["violations"] == single["violations"]
     assert [(v["rule"], v["field"], v["change"], v["file"], v["row"], v["example"]) for v in got["violations"]] == [
-        ("type_change", "temp_c", "float64 → string", "region=south/day=2026-03-02/part-0.jsonl.gz", 1, '"warm"')
+        # source: RFC 8259 section 7: the example is the JSON string warm, not the text "\"warm\"".
+        (
+            "type_change",
+            "temp_c",
+            "float64 → string",
+            "region=south/day=2026-03-02/part-0.jsonl.gz",
+            1,
+            {"value": "warm"},
+        )
     ]
     assert (got["rules"], got["root"], got["baseline"]) == (single["rules"], single["root"], single["baseline"])
     # the terminal: the dataset's FAIL under its heading, then the overall line

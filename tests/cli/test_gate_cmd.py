@@ -233,7 +233,8 @@ def test_diff_a_report_against_a_partition_and_by_day(pipeline: dict[str, Path],
         ("day=2026-11-29", "day=2026-11-30", [("type-changed", "seq"), ("narrowed", "temp")]),
     ]
     widened = doc["diffs"][0]["changes"][0]
-    assert (widened["file"], widened["row"], widened["example"]) == ("day=2026-11-29/part-0.jsonl", 1, "25.25")
+    # source: RFC 8259 section 6: the example 25.25 is a JSON number, not the text "25.25".
+    assert (widened["file"], widened["row"], widened["example"]) == ("day=2026-11-29/part-0.jsonl", 1, {"value": 25.25})
     assert "day=2026-11-28 → day=2026-11-29: 1 widened" in res.stderr  # the human view moved to stderr
 
 
@@ -247,7 +248,7 @@ def test_check_a_saved_report(pipeline: dict[str, Path], tmp_path: Path):
     doc = json.loads(res.stdout)
     assert (doc["counts"]["files_read"], doc["counts"]["files_reused"]) == (0, 2)
     assert [(v["rule"], v["field"], v["row"], v["example"]) for v in doc["violations"]] == [
-        ("type_change", "seq", 17, '"17b"')
+        ("type_change", "seq", 17, {"value": "17b"})  # source: RFC 8259 section 7 (a JSON string)
     ]
     res = invoke("check", tmp_path / "r.json", "--baseline", pipeline["contract"], "--state", tmp_path / ".s")
     assert res.returncode == 2 and "give data paths, not a saved report" in res.stderr

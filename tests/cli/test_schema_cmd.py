@@ -122,12 +122,12 @@ def test_bad_options_exit_2_with_a_clear_message(report: Path, args: list[str], 
 
 
 def test_bad_inputs_exit_2(report: Path, tmp_path: Path):
-    other = tmp_path / "v2.json"
-    other.write_text(report.read_text().replace('"version": 1', '"version": 2', 1))
+    other = tmp_path / "v3.json"
+    other.write_text(report.read_text().replace('"version": 2', '"version": 3', 1))
     res = run("schema", str(other), "--to", "sql")
     assert res.returncode == 2
-    assert res.stderr.startswith("error: ") and "has report version 2" in res.stderr
-    assert "has report version 2 (at /version); this driftline reads version 1" in res.stderr
+    assert res.stderr.startswith("error: ") and "has report version 3" in res.stderr
+    assert "has report version 3 (at /version); this driftline reads versions 1 and 2" in res.stderr
     config = tmp_path / "bad.toml"
     config.write_text("[recommend]\nstrictness = 1\n")
     res = run("schema", str(report), "--config", str(config))

@@ -204,7 +204,8 @@ def test_sample_keys_are_written_as_the_reports_text_and_read_back():
     # source: docs/report.schema.json, stats.samples propertyNames ^(type:.+|class:.+|null)$
     d = MERGED.to_json()
     assert list(d["samples"]) == ["class:date", "null", "type:string"]
-    assert d["samples"]["type:string"][0] == {"file": "f", "row": 1, "line": None, "value": '"a"'}
+    # source: RFC 8259 section 7: the example string a is the JSON value "a", not the text "\"a\"".
+    assert d["samples"]["type:string"][0] == {"file": "f", "row": 1, "line": None, "value": "a"}
     back = FieldStats.from_json(orjson.loads(orjson.dumps(d)))
     assert back == MERGED
     assert all(type(k) is SampleKey for k in back.samples)

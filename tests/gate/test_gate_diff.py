@@ -124,6 +124,7 @@ def test_partitions_each_against_the_one_before(tmp_path):
 
 def test_json_shape(tmp_path):
     d = diff_fields(_one({"int64": 1}), _one({"float64": 1}), before="r1", after="r2")
+    side = {"nullable": False, "null_share": 0.0, "classes": []}
     assert d.to_json() == {
         "before": "r1",
         "after": "r2",
@@ -132,8 +133,9 @@ def test_json_shape(tmp_path):
             {
                 "kind": "widened",
                 "path": "x",
-                "before": "int64",
-                "after": "float64",
+                "before": {"type": "int64", **side},
+                "after": {"type": "float64", **side},
+                "message": "int64 → float64",
                 "file": None,
                 "row": None,
                 "line": None,
@@ -141,3 +143,23 @@ def test_json_shape(tmp_path):
             }
         ],
     }
+
+
+def test_json_carries_numbers_and_types_and_the_words_only_in_message(tmp_path):
+    land = tmp_path / "landing"
+    write_lines(land / "day=1" / "a.jsonl", ['{"x": 1, "s": "2026-11-28"}', '{"x": 2, "s": "2026-11-29"}'])
+    write_lines(land / "day=2" / "a.jsonl", ['{"x": 3, "s": "abc"}', '{"x": null, "s": "x"}', '{"s": "y"}'])
+    [d] = diff_partitions(driftline.scan(land), "day")
+    got = {c["kind"]: c for c in d.to_json()["changes"]}
+    nullable = got["newly-nullable"]
+    # 1 null and 1 absent of 3 rows: 2/3 of the rows hold no value (exact binary64 quotient).
+    assert nullable["before"] == {"type": "int64", "nullable": False, "null_share": 0.0, "classes": []}
+    assert nullable["after"] == {"type": "int64", "nullable": True, "null_share": 2 / 3, "classes": []}
+    assert nullable["message"] == "not nullable → nullable (0.0% → 66.7%)"
+    # source: RFC 8259 section 3: the example of a null is the JSON value null, not the text "null".
+    assert (nullable["file"], nullable["row"], nullable["example"]) == ("day=2/a.jsonl", 1, {"value": None})
+    classes = got["content-class"]
+    assert (classes["before"]["classes"], classes["after"]["classes"]) == (["date"], ["text"])
+    assert classes["message"] == "date → text"
+    # source: RFC 8259 section 7: a string example is a JSON string, written once.
+    assert classes["example"] == {"value": "abc"}

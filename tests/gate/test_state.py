@@ -94,7 +94,7 @@ def test_verify_catches_a_rewrite_with_the_same_size_and_mtime(tmp_path):
         (b"\x00\x01 not json", r"is not a driftline state file \(it is not JSON\); give --state another file name"),
         (
             b'{"format": "driftline-state", "version": 7, "files": []}',
-            r"has format version 7; this driftline reads version 1; run with --rebuild",
+            r"has format version 7; this driftline reads versions 1 and 2; run with --rebuild",
         ),
         (b'{"format": "something", "files": []}', r"is not a driftline state file \(its format is 'something'\)"),
         (b"[1, 2]", r"is not a driftline state file; give --state another file name, or --rebuild"),

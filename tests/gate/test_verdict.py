@@ -101,7 +101,7 @@ def test_terminal_shows_the_verdict_first_then_each_violation(tmp_path):
 def test_json_lists_everything(tmp_path):
     v = _verdict(tmp_path, ['{"id": 1, "t": 1}', '{"id": 2.5, "t": 2}'])
     doc = json.loads(json.dumps(v.to_json()))
-    assert (doc["format"], doc["version"], doc["passed"], doc["exit_code"]) == ("driftline-verdict", 1, True, 0)
+    assert (doc["format"], doc["version"], doc["passed"], doc["exit_code"]) == ("driftline-verdict", 2, True, 0)
     assert [(a["rule"], a["field"], a["change"]) for a in doc["allowed"]] == [
         ("widening", "id", "int64 → float64"),
         ("narrowing", "t", "float64 → int64"),
@@ -118,7 +118,7 @@ def test_json_lists_everything(tmp_path):
         "partitions": {"day": "3"},
         "row": 1,
         "line": 2,
-        "example": "2.5",
+        "example": {"value": 2.5},  # source: RFC 8259 section 6: a number, not the text "2.5"
     }
     assert {r["rule"]: r["status"] for r in doc["rules"]}["type_change"] == "passed"
     assert doc["counts"]["rows"] == 2 and doc["counts"]["violations"] == 0

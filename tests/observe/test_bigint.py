@@ -154,5 +154,6 @@ def test_cli_scan_shows_the_type_and_leaves_inputs_alone(tmp_path: Path):
     assert "decimal(30,0)" in res.stdout and "float64" not in res.stdout and "e+29" not in res.stdout
     report = jsonnum.loads((tmp_path / "r.json").read_bytes())
     assert report["fields"]["id"]["types"] == {"decimal(30,0)": 3}
-    assert report["fields"]["id"]["samples"]["type:decimal(30,0)"][0]["value"] == str(10**29)
+    # source: RFC 8259 section 6: the example is the JSON number itself, all 30 digits kept.
+    assert report["fields"]["id"]["samples"]["type:decimal(30,0)"][0]["value"] == 10**29
     assert hashlib.sha256((data / "a.jsonl").read_bytes()).hexdigest() == before

@@ -14,6 +14,7 @@ import driftline
 from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
 from driftline.cli.read_flags import policy_of, takes_read_options
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
+from driftline.core import jsonnum
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
@@ -21,7 +22,7 @@ from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
 from driftline.gate.baselines import folder_baselines
 from driftline.gate.dataset_diff import DatasetDiff, diff_by_dataset, render_datasets
-from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_KINDS, Diff, render
+from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_FORMAT, DIFF_KINDS, DIFF_VERSION, Diff, render
 from driftline.gate.policy import ACTION_MEANING, key_help
 from driftline.gate.verdict import junit_xml, render_split
 from driftline.gate.verdict import render as render_verdict
@@ -274,8 +275,8 @@ def diff_command(
                 return
             diffs = (found,)
     if json_out is not None:
-        doc = {"format": "driftline-diff", "version": 1, "by": by, "diffs": [d.to_json() for d in diffs]}
-        write_output(json_out, orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
+        doc = {"format": DIFF_FORMAT, "version": DIFF_VERSION, "by": by, "diffs": [d.to_json() for d in diffs]}
+        write_output(json_out, jsonnum.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
         console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
         if not diffs:
@@ -291,8 +292,8 @@ def _datasets_diff(found: DatasetDiff, json_out: str | None, quiet: bool) -> Non
     """Two roots (or report sets) compared dataset by dataset: the diff document with each diff's
     dataset and the names on one side only; the overall line, then each dataset under a heading."""
     if json_out is not None:
-        doc = {"format": "driftline-diff", "version": 1, "by": None, **found.to_json()}
-        write_output(json_out, orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
+        doc = {"format": DIFF_FORMAT, "version": DIFF_VERSION, "by": None, **found.to_json()}
+        write_output(json_out, jsonnum.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
         console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
         render_datasets(found, console)

@@ -18,6 +18,8 @@ from functools import reduce
 from operator import add, attrgetter, call
 from typing import Any, Generic, Literal, NamedTuple, TypedDict, TypeVar
 
+from driftline.core import jsonnum
+
 SAMPLES_PER_KEY = 3  # earliest examples kept per type / class / null key
 
 _T = TypeVar("_T")
@@ -42,11 +44,39 @@ class Example:
     value: str = field(default="", compare=False)  # short JSON text of the value
 
     def to_json(self) -> dict[str, Any]:
-        return {"file": self.file, "row": self.row, "line": self.line, "value": self.value}
+        """The example as a report writes it: its value as a JSON value (example_json)."""
+        return {"file": self.file, "row": self.row, "line": self.line, **example_json(self.value)}
 
     @staticmethod
     def from_json(d: Mapping[str, Any]) -> Example:
-        return Example(d["file"], d["row"], d.get("line"), d.get("value", ""))
+        return Example(d["file"], d["row"], d.get("line"), example_text(d))
+
+
+def example_json(text: str) -> dict[str, Any]:
+    """An example's JSON text as the report writes it: {"value": the value itself} when the text
+    is the whole JSON text of one value, else {"text": text} for a value that has none: cut at
+    80 characters (ends with '…'), hidden (''), hashed ('hmac:…') or not JSON (a Python repr).
+    Only a text that reads back to itself is a value, so example_text is its exact inverse.
+
+    >>> example_json('"19.9"'), example_json('[1,2]'), example_json('"abc…'), example_json('')
+    ({'value': '19.9'}, {'value': [1, 2]}, {'text': '"abc…'}, {'text': ''})
+    """
+    try:
+        value = jsonnum.loads(text)
+    except ValueError:  # orjson.JSONDecodeError is a ValueError
+        return {"text": text}
+    return {"value": value} if jsonnum.dumps(value).decode() == text else {"text": text}
+
+
+def example_text(d: Mapping[str, Any]) -> str:
+    """The JSON text of an example written by example_json.
+
+    >>> example_text({"value": "19.9"}), example_text({"value": None}), example_text({"text": "hmac:0a"})
+    ('"19.9"', 'null', 'hmac:0a')
+    """
+    if "value" in d:
+        return jsonnum.dumps(d["value"]).decode()
+    return str(d.get("text", ""))
 
 
 SampleKind = Literal["class", "null", "type"]

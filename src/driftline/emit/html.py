@@ -202,6 +202,14 @@ def _rule(plan: Any) -> FieldRule:
     return FieldRule(plan.target.key(), plan.rule, plan.does, loss, lost)
 
 
+# The one denominator of every share the page writes (svg.share_pct), said where shares are
+# shown: the field table, the timelines' legends and the partition matrix.
+SHARES_NOTE = (
+    "A type's share is of the non-null values (nulls excluded); the null and absent shares are of the rows "
+    "(of the parent's values for a nested field)."
+)
+
+
 def _summary_counts(s: FieldSummary) -> hd.Counts:
     return hd.Counts(dict(s.stats.types), s.stats.nulls, s.absent, s.container)
 
@@ -502,6 +510,7 @@ def render_html(
             fields=fields,
             fields_left_out=max(0, len(profile.fields) - len(fields)),
             with_recs=recs is not None,
+            shares_note=SHARES_NOTE,
             charts=charts,
             charts_left_out=max(0, len(drift) - len(charts)),
             matrices=_matrices(profile),

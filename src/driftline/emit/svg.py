@@ -10,10 +10,10 @@ esc() (safe_text, then HTML escaping) before it enters the markup.
 from __future__ import annotations
 
 import html
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
-from driftline.emit.html_data import Bucket, Counts, bucket_of
+from driftline.emit.html_data import ABSENT, NULL, Bucket, Counts, bucket_of
 from driftline.emit.safe import safe_text
 from driftline.emit.typestyle import COLOURS, fill_id, used_styles
 
@@ -81,12 +81,30 @@ def pct(part: int, whole: int) -> str:
     return "<0.1%" if share < 0.1 else f"{share:.1f}%".replace(".0%", "%")
 
 
+def share_pct(key: str, n: int, nonnull: int, container: int) -> str:
+    """A series' share on the report's one denominator: a type's share is of the non-null
+    values, null and absent are shares of the container (rows, or the parent's values), as the
+    field table and the terminal give them.
+
+    >>> share_pct("list", 871, 981, 1000), share_pct("null", 19, 981, 1000)
+    ('88.8%', '1.9%')
+    """
+    return pct(n, container if key in (NULL, ABSENT) else nonnull)
+
+
+def share_text(series: Mapping[str, int], order: Sequence[str], container: int) -> list[str]:
+    """'key share' for each series in order that holds any (share_pct)."""
+    nonnull = sum(n for k, n in series.items() if k not in (NULL, ABSENT))
+    return [f"{k} {share_pct(k, series[k], nonnull, container)}" for k in order if series.get(k)]
+
+
 def type_bar(counts: Counts, order: Sequence[str], width: int = 120) -> str:
-    """A small stacked bar of one field's shares (types, null, absent) with a text alternative."""
+    """A small stacked bar of one field's places (types, null, absent: each drawn as its share of
+    the container) with a text alternative that gives the shares on the one denominator."""
     total = counts.container or 1
     parts, x = [], 0.0
     series = counts.series()
-    label = ", ".join(f"{k} {pct(series[k], total)}" for k in order if series.get(k))
+    label = ", ".join(share_text(series, order, counts.container))
     for key in order:
         n = series.get(key, 0)
         if not n:
@@ -249,11 +267,15 @@ def _common_folders(groups: Sequence[str]) -> int:
 
 
 def _legend(order: Sequence[str], counts: Sequence[Counts], y: float) -> str:
-    total = sum(c.container for c in counts) or 1
+    totals: dict[str, int] = {}
+    for c in counts:
+        for k, n in c.series().items():
+            totals[k] = totals.get(k, 0) + n
+    nonnull = sum(n for k, n in totals.items() if k not in (NULL, ABSENT))
+    container = sum(c.container for c in counts)
     x, parts = float(LEFT), []
     for key in order:
-        n = sum(c.series().get(key, 0) for c in counts)
-        text = f"{safe_text(key, 40)} {pct(n, total)}"
+        text = f"{safe_text(key, 40)} {share_pct(key, totals.get(key, 0), nonnull, container)}"
         parts.append(
             f'<g class="key"><rect x="{x:.1f}" y="{y}" width="14" height="12" fill="url(#{fill_id(key)})" '
             f'stroke="{INK}" stroke-width=".8"/>'

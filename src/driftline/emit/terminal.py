@@ -57,13 +57,19 @@ def _types_cell(s: FieldSummary, most: int | None = None) -> Text:
     return text
 
 
-def _classes_cell(s: FieldSummary) -> Text:
-    classes = s.stats.classes
-    if not classes:
-        return Text("")
-    total = sum(classes.values())
-    top = sorted(classes.items(), key=lambda kv: (-kv[1], kv[0]))[:3]
-    return Text(", ".join(f"{c} {_pct(n, total)}" for c, n in top) + (" …" if len(classes) > 3 else ""))
+SOURCE_LABELS = {"strings": "strings", "cells": "CSV cells"}
+
+
+def _classes_cell(by_source: dict[str, dict[str, int]]) -> Text:
+    """The content classes of a field's strings and of its CSV cells, apart, each as shares of
+    its own count (Profile.classes_by_source): 'CSV cells: integer 98.0%, empty 2.0%'."""
+    lines = []
+    for source, classes in by_source.items():
+        total = sum(classes.values())
+        top = list(classes.items())[:3]
+        more = " …" if len(classes) > 3 else ""
+        lines.append(f"{SOURCE_LABELS[source]}: " + ", ".join(f"{c} {_pct(n, total)}" for c, n in top) + more)
+    return Text("\n".join(lines))
 
 
 def overview(profile: Profile, title: str | None = None) -> Text:
@@ -174,6 +180,11 @@ def shapes_block(found: Discriminator) -> Text:
     return text
 
 
+# The denominators of the field table's shares, said on a line under it (the HTML and the report's
+# JSON Schema say the same): a type's share is of the non-null values, so that a field's
+# types add up to 100% however many nulls it holds.
+SHARES_NOTE = "types: % of non-null values; null, absent: % of rows or of the parent's values"
+
 # Below this width the field table drops its string content column (--full-table keeps it).
 FULL_TABLE_WIDTH = 120
 
@@ -193,13 +204,14 @@ def fields_table(profile: Profile, width: int | None = None) -> Table:
         box=box.SIMPLE_HEAD if compact else box.HEAVY_HEAD,
     )
     table.add_column("field", no_wrap=True, min_width=max(map(cell_len, paths), default=5))
-    table.add_column("types (share of values)")
+    table.add_column("types (share of non-null)")
     table.add_column("null", justify="right", no_wrap=True)
     table.add_column("absent", justify="right", no_wrap=True)
     if not compact:
         table.add_column("string content")
     table.add_column("drift", justify="right", no_wrap=True)
-    for path, s in zip(paths, profile.fields.values(), strict=True):
+    by_source = profile.classes_by_source
+    for path, (path_key, s) in zip(paths, profile.fields.items(), strict=True):
         cells: list[Text | str] = [
             Text(path),
             _types_cell(s, 2 if compact else None),
@@ -207,7 +219,7 @@ def fields_table(profile: Profile, width: int | None = None) -> Table:
             _pct(s.absent, s.container),
         ]
         if not compact:
-            cells.append(_classes_cell(s))
+            cells.append(_classes_cell(by_source.get(path_key, {})))
         cells.append(str(drifting[path]) if drifting[path] else "")
         table.add_row(*cells)
     return table
@@ -367,6 +379,7 @@ def render(
     if profile.fields:
         console.print()
         console.print(fields_table(profile, None if full_table else console.width))
+        console.print(Text(SHARES_NOTE, style="dim"))
     if formats := formats_block(profile):
         console.print()
         console.print(formats)

@@ -29,7 +29,7 @@ from driftline.core import paths
 from driftline.core.documents import read_json_document
 from driftline.core.lattice import NULL, UNKNOWN, DType, join_all, parse_key, type_of_key
 from driftline.core.validation import check_document, check_json_schema, damaged
-from driftline.emit.schemas.rules_json import RULES_FORMAT, RULES_VERSION
+from driftline.emit.schemas.rules_json import RULES_FORMAT, RULES_VERSION, upgrade_rules_v1
 from driftline.errors import ReportVersionError, UnreadableFileError
 from driftline.results.profile import Profile
 
@@ -357,10 +357,12 @@ def _loaded(path: str | Path, source: str) -> Baseline:
 
         return baseline_from_profile(from_dict(doc, source=source), source=source)
     if isinstance(doc, Mapping) and doc.get("format") == RULES_FORMAT:
+        if doc.get("version") == 1 and isinstance(doc, dict):
+            doc = upgrade_rules_v1(doc)
         if doc.get("version") != RULES_VERSION:
             raise ReportVersionError(
                 f"baseline {source} has rules version {doc.get('version')!r} (at /version); "
-                f"this driftline reads version {RULES_VERSION}; write the rules again with "
+                f"this driftline reads versions 1 and {RULES_VERSION}; write the rules again with "
                 "driftline schema --rules"
             )
         check_document(doc, "rules", "baseline", source)

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 from collections import Counter
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from rich.console import Console
 from rich.text import Text
@@ -23,7 +23,7 @@ from rich.text import Text
 from driftline.core import paths
 from driftline.core.jsontypes import JSONObject
 from driftline.core.lattice import DType, join, join_all, type_of_key, type_text
-from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, SampleKey, class_sample, type_sample
+from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, SampleKey, class_sample, example_json, type_sample
 from driftline.emit.safe import safe_text
 from driftline.gate.baseline import NULL_CLASSES
 from driftline.results.profile import FieldSummary, Profile
@@ -43,27 +43,64 @@ _ORDER = {k: i for i, k in enumerate(DIFF_KINDS)}
 DEFAULT_NULL_POINTS = 1.0
 
 
+DIFF_FORMAT, DIFF_VERSION = "driftline-diff", 2  # 2: each side of a change as data, the prose in "message"
+
+
+@dataclass(frozen=True, slots=True)
+class Side:
+    """A field on one side of a diff, as data: its type (the join of its non-null values'
+    types, 'null' when it has none), whether it holds null or absent values, the share of them
+    (of the rows, or of the parent's values for a nested path: 0 to 1), and its string content
+    classes (of JSON strings and CSV cells both)."""
+
+    type: str
+    nullable: bool
+    null_share: float
+    classes: tuple[str, ...]
+
+    def to_json(self) -> JSONObject:
+        return {
+            "type": self.type,
+            "nullable": self.nullable,
+            "null_share": self.null_share,
+            "classes": list(self.classes),
+        }
+
+
+def side_of(s: FieldSummary) -> Side:
+    return Side(_types_text(s.stats), s.nullable, _share(s), tuple(sorted(set(s.stats.classes) - NULL_CLASSES)))
+
+
 @dataclass(frozen=True, slots=True)
 class FieldChange:
-    """One change of one field; example is the first place the second side shows it."""
+    """One change of one field; example is the first place the second side shows it. before
+    and after are the words a person reads; was and now are the field on each side, as data."""
 
     kind: str
     path: str
     before: str | None
     after: str | None
     example: Example | None = None
+    was: Side | None = None
+    now: Side | None = None
+
+    @property
+    def message(self) -> str:
+        """The change in words, as the terminal prints it after the path."""
+        return f"{self.before or '–'} → {self.after or '–'}"
 
     def to_json(self) -> JSONObject:
         ex = self.example
         return {
             "kind": self.kind,
             "path": self.path,
-            "before": self.before,
-            "after": self.after,
+            "before": self.was.to_json() if self.was else None,
+            "after": self.now.to_json() if self.now else None,
+            "message": self.message,
             "file": ex.file if ex else None,
             "row": ex.row if ex else None,
             "line": ex.line if ex else None,
-            "example": ex.value if ex and ex.value else None,
+            "example": example_json(ex.value) if ex and ex.value else None,
         }
 
 
@@ -162,11 +199,15 @@ def diff_fields(
         parent, _ = paths.parent(path)
         if path not in a:
             if parent is None or parent in a:
-                out.append(FieldChange("added", path, None, _types_text(b[path].stats), _earliest(b[path].stats)))
+                out.append(
+                    FieldChange(
+                        "added", path, None, _types_text(b[path].stats), _earliest(b[path].stats), now=side_of(b[path])
+                    )
+                )
             continue
         if path not in b:
             if parent is None or parent in b:
-                out.append(FieldChange("removed", path, _types_text(a[path].stats), None))
+                out.append(FieldChange("removed", path, _types_text(a[path].stats), None, was=side_of(a[path])))
             continue
         for change in (
             _type_change(path, a[path].stats, b[path].stats),
@@ -174,7 +215,7 @@ def diff_fields(
             _class_change(path, a[path].stats, b[path].stats),
         ):
             if change is not None:
-                out.append(change)
+                out.append(replace(change, was=side_of(a[path]), now=side_of(b[path])))
     out.sort(key=lambda c: (_ORDER[c.kind], c.path))
     return Diff(before, after, tuple(out))
 

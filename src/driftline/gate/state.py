@@ -42,12 +42,12 @@ from driftline.emit.atomic import write_output
 from driftline.emit.targets import check_targets
 from driftline.errors import DamagedFileError, InputPathError, ReportVersionError
 from driftline.results.profile import Profile
-from driftline.results.report import file_from_json, file_json, files_from_json
+from driftline.results.report import file_from_json, file_json, files_from_json, upgrade_file_v1
 from driftline.scanning.run import Progress, scan_paths
 from driftline.sources.discover import FileRef
 
 STATE_FORMAT = "driftline-state"
-STATE_VERSION = 1
+STATE_VERSION = 2  # 2: example values as JSON values (the report's version 2); version 1 is upgraded on load
 DIGEST = "blake2b-128"
 
 
@@ -145,10 +145,12 @@ def load_state(path: str | Path) -> State | None:
             + (f" (its format is {what!r})" if isinstance(what, str) else "")
             + "; give --state another file name, or --rebuild to replace it with a new state"
         )
+    if data.get("version") == 1 and isinstance(data.get("files"), list):
+        data = {**data, "version": STATE_VERSION, "files": [upgrade_file_v1(fd) for fd in data["files"]]}
     if data.get("version") != STATE_VERSION:
         raise ReportVersionError(
             f"state file {str(path)!r} has format version {data.get('version')!r}; this driftline "
-            f"reads version {STATE_VERSION}; run with --rebuild to start over"
+            f"reads versions 1 and {STATE_VERSION}; run with --rebuild to start over"
         )
     check_document(data, "state", "state file", source)
     results = files_from_json(

@@ -18,15 +18,16 @@ from rich.text import Text
 
 from driftline.core.jsontypes import JSONObject
 from driftline.core.marker import remark
+from driftline.core.stats import example_json
 from driftline.core.version import __version__
 from driftline.core.words import count
 from driftline.emit.safe import safe_text
 from driftline.gate.policy import RULES
 
 VERDICT_FORMAT = "driftline-verdict"
-VERDICT_VERSION = 1
+VERDICT_VERSION = 2  # 2: the example as a JSON value ({"value": …} or {"text": …}, as in the report)
 VERDICT_SET_FORMAT = "driftline-verdict-set"  # a root checked dataset by dataset
-VERDICT_SET_VERSION = 1
+VERDICT_SET_VERSION = 2  # 2: its verdicts are version 2
 MAX_SHOWN = 100  # violations and warnings listed on the terminal; --json has them all
 
 
@@ -80,7 +81,7 @@ class Violation:
             "partitions": dict(self.partitions),
             "row": self.row,
             "line": self.line,
-            "example": self.example,
+            "example": None if self.example is None else example_json(self.example),
         }
 
 

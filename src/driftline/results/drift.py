@@ -17,7 +17,7 @@ from driftline.core.files import FileResult
 from driftline.core.jsontypes import JSONObject, JSONValue
 from driftline.core.lattice import UNKNOWN, DType, is_widening, join, type_of_key, type_text
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
-from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, type_sample
+from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, class_sample, example_json, example_text, type_sample
 from driftline.results.levels import level_of
 from driftline.results.partition_compare import (
     PARTITION_KINDS,
@@ -124,7 +124,7 @@ class Event:
             "batch": self.batch,
             "row": self.row,
             "line": self.line,
-            "example": self.example,
+            "example": None if self.example is None else example_json(self.example),
             "count": self.count,
             "values": self.values,
             "rows": self.rows,
@@ -164,7 +164,7 @@ class Event:
             d["batch"],
             d.get("row"),
             d.get("line"),
-            d.get("example"),
+            None if d.get("example") is None else example_text(d["example"]),
             d.get("count", 0),
             d.get("values", 0),
             d.get("rows"),

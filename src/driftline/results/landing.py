@@ -22,12 +22,12 @@ from driftline.core.validation import check_document
 from driftline.core.version import __version__
 from driftline.errors import ReportVersionError
 from driftline.results.profile import Profile
-from driftline.results.report import REPORT_FORMAT, from_dict, to_dict
+from driftline.results.report import REPORT_FORMAT, from_dict, to_dict, upgrade_v1
 from driftline.sources.datasets import LooseFile, Notice
 from driftline.sources.discover import FileRef, partition_values
 
 REPORT_SET_FORMAT = "driftline-report-set"
-REPORT_SET_VERSION = 1
+REPORT_SET_VERSION = 2  # 2: its reports are version 2 (example values as JSON values); version 1 is upgraded on load
 
 
 @dataclass(frozen=True)
@@ -100,10 +100,13 @@ def from_dict_set(data: Mapping[str, Any], *, source: str = "report set") -> Lan
     if not isinstance(data, Mapping) or data.get("format") != REPORT_SET_FORMAT:
         hint = " (it is a scan report of one table: load_report reads it)" if _is_report(data) else ""
         raise ReportVersionError(f'{source} is not a driftline report set (no "format": "{REPORT_SET_FORMAT}"){hint}')
+    if data.get("version") == 1 and isinstance(data.get("datasets"), Mapping):
+        datasets_v2 = {n: upgrade_v1(d) if isinstance(d, Mapping) else d for n, d in data["datasets"].items()}
+        data = {**data, "version": REPORT_SET_VERSION, "datasets": datasets_v2}
     if data.get("version") != REPORT_SET_VERSION:
         raise ReportVersionError(
-            f"{source} has report set version {data.get('version')!r} (at /version); this driftline reads version "
-            f"{REPORT_SET_VERSION}. Rescan the data to make a new report."
+            f"{source} has report set version {data.get('version')!r} (at /version); this driftline reads versions "
+            f"1 and {REPORT_SET_VERSION}. Rescan the data to make a new report."
         )
     check_document(data, "report-set", "report set", source)
     root = data["root"]

@@ -21,6 +21,7 @@ from driftline.results.drift import Event, drift_summary
 from driftline.results.levels import LEVELS
 from driftline.results.partition_compare import container_count, group_fields, partition_groups, partition_keys
 from driftline.results.shapes import Discriminator, find_discriminator
+from driftline.sources.registry import spec
 
 
 @dataclass(frozen=True, slots=True)
@@ -191,6 +192,37 @@ class Profile:
         """The partition key or record field that explains which fields the records hold, with
         the shape of each of its values (results/shapes.py), or None when none does."""
         return self.saved_shapes if self.saved_shapes is not None else find_discriminator(self.files)
+
+    @cached_property
+    def classes_by_source(self) -> dict[str, dict[str, dict[str, int]]]:
+        """Per field path: the content classes of its strings ("strings": JSON and Parquet
+        string values) and of its CSV or TSV cells ("cells": the text of every cell, whatever
+        type it reads as), counted apart, most common first; a source with none is left out.
+        FieldStats.classes is their sum.
+
+        >>> import driftline, tempfile, pathlib
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": "5"}\\n')
+        >>> _ = (d / "b.csv").write_text("n,m\\n5,1\\n,2\\n")
+        >>> driftline.scan(d).classes_by_source["n"]
+        {'strings': {'integer': 1}, 'cells': {'empty': 1, 'integer': 1}}
+        """
+        out: dict[str, dict[str, dict[str, int]]] = {}
+        for f in self.files:
+            source = "cells" if spec(f.format).text_cells else "strings"
+            for o in f.observations:
+                for path, st in o.fields.items():
+                    if st.classes:
+                        counts = out.setdefault(path, {}).setdefault(source, {})
+                        for name, n in st.classes.items():
+                            counts[name] = counts.get(name, 0) + n
+        return {
+            path: {
+                source: dict(sorted(by[source].items(), key=lambda kv: (-kv[1], kv[0])))
+                for source in ("strings", "cells")
+                if source in by
+            }
+            for path, by in out.items()
+        }
 
     @cached_property
     def types_by_format(self) -> dict[str, dict[str, dict[str, int]]]:

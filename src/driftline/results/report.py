@@ -21,6 +21,7 @@ from driftline.core.files import FileIssue, FileResult, Skipped
 from driftline.core.lattice import join_all, parse_key
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
 from driftline.core.options import DEFAULT_MAX_PATHS
+from driftline.core.stats import example_json
 from driftline.core.textfile import Dialect, TextEncoding
 from driftline.core.validation import check_document, damaged, found, pointer
 from driftline.core.version import __version__
@@ -32,7 +33,7 @@ from driftline.results.shapes import Discriminator
 
 REPORT_FORMAT = "driftline-report"
 SHALLOW_KINDS = frozenset({"list", "struct", "map"})  # lattice._SHALLOW: nested kinds without children
-REPORT_VERSION = 1
+REPORT_VERSION = 2  # 2: example values as JSON values (1: as JSON text in a string); version 1 is upgraded on load
 
 
 def partition_types(profile: Profile) -> dict[str, dict[str, Any]]:
@@ -82,6 +83,7 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
                 "nullable": s.nullable,
                 **s.stats.to_json(),
                 **_formats(profile.types_by_format.get(path, {})),
+                **_by_source(profile.classes_by_source.get(path, {})),
             }
             for path, s in profile.fields.items()
         },
@@ -95,6 +97,11 @@ def to_dict(profile: Profile, *, batches: bool = True) -> dict[str, Any]:
 def _formats(by_format: dict[str, dict[str, int]]) -> dict[str, Any]:
     """{"formats": format → type → values} for a field whose values came in more than one format."""
     return {"formats": by_format} if len(by_format) > 1 else {}
+
+
+def _by_source(by_source: dict[str, dict[str, int]]) -> dict[str, Any]:
+    """{"classes_by_source": strings / cells → class → count} for a field with content classes."""
+    return {"classes_by_source": by_source} if by_source else {}
 
 
 def summarised(profile: Profile) -> dict[str, Any]:
@@ -247,10 +254,57 @@ def files_from_json(
     return tuple(files)
 
 
+def _upgrade_samples(stats: Mapping[str, Any]) -> dict[str, Any]:
+    samples = stats.get("samples")
+    if not isinstance(samples, Mapping):
+        return dict(stats)
+    return {**stats, "samples": {k: [_upgrade_example(e) for e in exs] for k, exs in samples.items()}}
+
+
+def _upgrade_example(e: Any) -> Any:
+    if not isinstance(e, Mapping) or not isinstance(e.get("value"), str):
+        return e  # left for the schema check to name
+    rest = {k: v for k, v in e.items() if k != "value"}
+    return {**rest, **example_json(e["value"])}
+
+
+def upgrade_file_v1(fd: Any) -> Any:
+    """One file entry of version 1 (a report's or a state file's) with its examples as version 2 writes them."""
+    if not isinstance(fd, Mapping) or not isinstance(fd.get("batches"), list):
+        return fd
+    batches = [
+        {**b, "fields": {p: _upgrade_samples(st) for p, st in b["fields"].items()}}
+        if isinstance(b, Mapping) and isinstance(b.get("fields"), Mapping)
+        else b
+        for b in fd["batches"]
+    ]
+    return {**fd, "batches": batches}
+
+
+def upgrade_v1(data: Mapping[str, Any]) -> dict[str, Any]:
+    """A version 1 report as version 2 writes it: every example value (fields.*.samples,
+    files.*.batches.*.fields.*.samples, events.*.example) from JSON text in a string to the
+    JSON value itself (example_json). Nothing else differs between the two versions."""
+    out = {**data, "version": REPORT_VERSION}
+    if isinstance(data.get("fields"), Mapping):
+        out["fields"] = {p: _upgrade_samples(st) if isinstance(st, Mapping) else st for p, st in data["fields"].items()}
+    if isinstance(data.get("events"), list):
+        out["events"] = [
+            {**e, "example": example_json(e["example"])}
+            if isinstance(e, Mapping) and isinstance(e.get("example"), str)
+            else e
+            for e in data["events"]
+        ]
+    if isinstance(data.get("files"), list):
+        out["files"] = [upgrade_file_v1(fd) for fd in data["files"]]
+    return out
+
+
 def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
     """Load report data back into a Profile.
 
-    Raises ReportVersionError for another format or version, DamagedFileError (with the
+    A version 1 report is upgraded first (upgrade_v1). Raises ReportVersionError for another
+    format or version, DamagedFileError (with the
     JSON pointer of the first problem) for a report that does not match
     docs/report.schema.json or whose values do not fit together.
     """
@@ -261,10 +315,12 @@ def from_dict(data: Mapping[str, Any], *, source: str = "report") -> Profile:
             else ""
         )
         raise ReportVersionError(f'{source} is not a driftline scan report (no "format": "{REPORT_FORMAT}"){hint}')
+    if data.get("version") == 1:
+        data = upgrade_v1(data)
     if data.get("version") != REPORT_VERSION:
         raise ReportVersionError(
-            f"{source} has report version {data.get('version')!r} (at /version); this driftline reads version "
-            f"{REPORT_VERSION}. Rescan the data to make a new report."
+            f"{source} has report version {data.get('version')!r} (at /version); this driftline reads versions "
+            f"1 and {REPORT_VERSION}. Rescan the data to make a new report."
         )
     check_document(data, "report", "report", source)
     for i, fd in enumerate(data["files"]):

@@ -126,6 +126,7 @@ def events_table(profile: Profile) -> pa.Table:
         d = e.to_json()
         d["partitions"] = [{"key": k, "value": v} for k, v in e.partitions]
         d.pop("ended")
+        d["example"] = e.example  # the JSON text: the table's column is a string
         d.update(ended_file=e.ended_file, ended_batch=e.ended_batch, ended_row=e.ended_row)
         rows.append(d)
     return pa.Table.from_pylist(rows, schema=EVENTS_SCHEMA)

@@ -56,7 +56,7 @@ def test_rules_carry_the_loss_with_examples(demo_dir: Path):
         "file": "readings/region=east/day=2026-11-29/part-0000.jsonl.gz",
         "row": 185,
         "line": 186,
-        "value": '"n/a"',
+        "value": "n/a",  # source: RFC 8259 section 7: the JSON string n/a, not the text "\"n/a\""
     }
     assert pm25["params"]["tokens"] == {"string": "null", "text": "null"}
 
@@ -68,8 +68,10 @@ def test_load_rules_round_trip_and_errors(tmp_path: Path):
     good.write_bytes(dumps(rec))
     assert load_rules(good)["fields"][0]["rule"] == "identity"
     other = tmp_path / "other.json"
-    other.write_text(json.dumps({**json.loads(dumps(rec)), "version": 2}))
-    with pytest.raises(ReportVersionError, match=r"has rules version 2 \(at /version\); this driftline reads"):
+    other.write_text(json.dumps({**json.loads(dumps(rec)), "version": 3}))
+    with pytest.raises(
+        ReportVersionError, match=r"has rules version 3 \(at /version\); this driftline reads versions 1 and 2"
+    ):
         load_rules(other)
     report = tmp_path / "report.json"
     report.write_text('{"format": "driftline-report", "version": 1}')

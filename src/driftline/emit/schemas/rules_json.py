@@ -11,15 +11,38 @@ from typing import Any
 
 import orjson
 
-from driftline.core import paths
+from driftline.core import jsonnum, paths
 from driftline.core.documents import read_json_document
+from driftline.core.stats import example_json
 from driftline.core.validation import check_document
 from driftline.core.version import __version__
 from driftline.errors import ReportVersionError
 from driftline.recommendation.plan import FieldPlan, Recommendation
 
 RULES_FORMAT = "driftline-rules"
-RULES_VERSION = 1
+RULES_VERSION = 2  # 2: example values are JSON values (1: JSON text in a string); version 1 is upgraded on load
+
+
+def upgrade_rules_v1(doc: dict[str, Any]) -> dict[str, Any]:
+    """A version 1 rules file as version 2 writes it: every example's value (in each effect's
+    examples, the alternatives' included) from JSON text in a string to the value itself."""
+
+    def walk(node: Any) -> Any:
+        if isinstance(node, dict):
+            return {
+                k: [upgraded(e) for e in v] if k == "examples" and isinstance(v, list) else walk(v)
+                for k, v in node.items()
+            }
+        if isinstance(node, list):
+            return [walk(x) for x in node]
+        return node
+
+    def upgraded(e: Any) -> Any:
+        if not isinstance(e, dict) or not isinstance(e.get("value"), str):
+            return e  # left for the schema check to name
+        return {**{k: v for k, v in e.items() if k != "value"}, **example_json(e["value"])}
+
+    return {**walk(doc), "version": RULES_VERSION}
 
 
 def _field(plan: FieldPlan) -> dict[str, Any]:
@@ -69,7 +92,7 @@ def rules_document(rec: Recommendation) -> dict[str, Any]:
 
 
 def dumps(rec: Recommendation) -> bytes:
-    return orjson.dumps(rules_document(rec), option=orjson.OPT_INDENT_2) + b"\n"
+    return jsonnum.dumps(rules_document(rec), option=orjson.OPT_INDENT_2) + b"\n"
 
 
 def load_rules(path: str | Path) -> dict[str, Any]:
@@ -78,10 +101,12 @@ def load_rules(path: str | Path) -> dict[str, Any]:
     doc = read_json_document(path, "rules file", ReportVersionError)
     if not isinstance(doc, dict) or doc.get("format") != RULES_FORMAT:
         raise ReportVersionError(f'{source} is not a driftline rules file (no "format": "{RULES_FORMAT}")')
+    if doc.get("version") == 1:
+        doc = upgrade_rules_v1(doc)
     if doc.get("version") != RULES_VERSION:
         raise ReportVersionError(
             f"{source} has rules version {doc.get('version')!r} (at /version); this driftline "
-            f"reads version {RULES_VERSION}. Write the rules again with driftline schema --rules"
+            f"reads versions 1 and {RULES_VERSION}. Write the rules again with driftline schema --rules"
         )
     check_document(doc, "rules", "rules file", source)
     return doc
