@@ -179,12 +179,16 @@ class Recommendation(_RecommendationValue):
 
         return _rules_document(self)
 
-    def to_json_schema(self, *, mode: _JsonMode | None = None, title: str | None = None) -> str:
-        """The JSON Schema 2020-12 document as text: `--to json-schema` (`--json-mode`, `--table`).
+    def to_json_schema(
+        self, *, mode: _JsonMode | None = None, title: str | None = None, bounds_from_sample: bool = False
+    ) -> str:
+        """The JSON Schema 2020-12 document as text: `--to json-schema` (`--json-mode`, `--table`,
+        `--bounds-from-sample`).
 
         mode 'permissive' describes the records as they arrive, 'strict' the records after
         the cast rules (default: the recommendation's own mode); title defaults to the root
-        folder's name. json.loads gives the document as a dict.
+        folder's name; bounds_from_sample makes the longest string and the number range seen
+        enforced bounds (by default only described). json.loads gives the document as a dict.
 
         >>> import driftline, tempfile, pathlib, json
         >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
@@ -194,7 +198,9 @@ class Recommendation(_RecommendationValue):
         """
         from driftline.emit.schemas.files import schema_file as _schema_file
 
-        return _schema_file(self, "json-schema", table=title, json_mode=mode).decode()
+        return _schema_file(
+            self, "json-schema", table=title, json_mode=mode, bounds_from_sample=bounds_from_sample
+        ).decode()
 
     def to_sql(self, *, table: str | None = None) -> str:
         """The SQL script `--to sql --table TABLE` writes: CREATE TABLE, a staging table, and the
@@ -245,6 +251,7 @@ class Recommendation(_RecommendationValue):
         *,
         table: str | None = None,
         json_mode: _JsonMode | None = None,
+        bounds_from_sample: bool = False,
     ) -> None:
         """Write one file as `driftline schema --to TO --out PATH` (or `--rules PATH` for to="rules") does.
 
@@ -259,7 +266,7 @@ class Recommendation(_RecommendationValue):
         """
         from driftline.emit.schemas.files import write_file as _write_file
 
-        _write_file(self, path, to, table=table, json_mode=json_mode)
+        _write_file(self, path, to, table=table, json_mode=json_mode, bounds_from_sample=bounds_from_sample)
 
 
 @_dataclasses.dataclass(frozen=True)

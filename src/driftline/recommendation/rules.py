@@ -91,6 +91,12 @@ def _observed(f: Facts) -> dict[str, object]:
         out["leap_seconds"] = leap
     if isinstance(f.typed.minimum, str) and isinstance(f.typed.maximum, str):
         out["range"] = [f.typed.minimum, f.typed.maximum]  # temporal values, as ISO 8601 text
+    low, high = f.typed.minimum, f.typed.maximum
+    if isinstance(low, int | float) and isinstance(high, int | float) and not isinstance(low, bool):
+        out["numbers"] = [low, high]  # the smallest and largest number seen: an annotation, never a bound
+    s = f.summary
+    if s.container:
+        out["null_share"] = (s.stats.nulls + s.absent) / s.container  # null or absent, as a report records it
     return out
 
 
@@ -481,6 +487,7 @@ def _map(f: Facts, ctx: Context) -> FieldPlan:
         children=(key, value),
         required=f.summary.absent == 0,
         input_chars=json_chars(ctx.tree, f),
+        observed=_observed(f),
     )
 
 
