@@ -231,6 +231,32 @@ class Recommendation(_RecommendationValue):
 
         return _schema_file(self, "avro", table=name).decode()
 
+    def to_iceberg(self) -> str:
+        """The Apache Iceberg table schema `--to iceberg` writes, as JSON text: the schema with field
+        ids and the identity partition spec of the partition keys (needs the iceberg extra: pyiceberg).
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> doc = json.loads(driftline.scan(d).recommend().to_iceberg())
+        >>> doc["schema"]["fields"][0]["id"], doc["schema"]["fields"][0]["type"]
+        (1, 'long')
+        """
+        from driftline.emit.schemas.files import schema_file as _schema_file
+
+        return _schema_file(self, "iceberg").decode()
+
+    def to_spark(self) -> str:
+        """The Spark struct type `--to spark` writes, as JSON text (Spark's DataType.json, Delta's schemaString).
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> [(f["name"], f["type"]) for f in json.loads(driftline.scan(d).recommend().to_spark())["fields"]]
+        [('x', 'long')]
+        """
+        from driftline.emit.schemas.files import schema_file as _schema_file
+
+        return _schema_file(self, "spark").decode()
+
     def to_arrow_ipc(self) -> bytes:
         """The Arrow IPC schema message `--to arrow` writes (pyarrow.ipc.read_schema reads it).
 

@@ -46,6 +46,10 @@ Examples:
 
   driftline schema landing/ --to avro --out landing.avsc
 
+  driftline schema landing/ --to iceberg --out landing.iceberg.json   (needs driftline[iceberg])
+
+  driftline schema landing/ --to spark --out landing.spark.json
+
   driftline schema landing/ --rules rules.json
 
   driftline schema report.json --to sql          (a saved `driftline scan --json` report)

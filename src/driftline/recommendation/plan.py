@@ -17,9 +17,10 @@ from driftline.core.lattice import DType, to_arrow
 from driftline.core.stats import Example
 from driftline.core.words import count
 from driftline.recommendation.options import RecommendOptions
+from driftline.recommendation.partitions import PartitionColumn
 
 #: The schema files of `driftline schema --to`.
-SchemaFormat = Literal["json-schema", "arrow", "arrow-text", "sql", "avro"]
+SchemaFormat = Literal["json-schema", "arrow", "arrow-text", "sql", "avro", "iceberg", "spark"]
 #: What Recommendation.write writes: a schema file, or the cast rules (`--rules`).
 OutputFormat = SchemaFormat | Literal["rules"]
 #: JSON Schema of the records as they arrive (permissive), or after the cast rules (strict).
@@ -177,6 +178,8 @@ class Recommendation:
     fields: tuple[FieldPlan, ...]
     options: RecommendOptions
     dropped: tuple[Dropped, ...] = ()
+    #: The key=value folder keys, typed by their values: the partition columns of the formats that have them.
+    partitions: tuple[PartitionColumn, ...] = ()
 
     def walk(self) -> Iterator[FieldPlan]:
         """Every plan, top-level fields first, each followed by the plans below it."""

@@ -12,7 +12,7 @@ from pathlib import Path
 from typing import get_args
 
 from driftline.emit.atomic import write_output
-from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json
+from driftline.emit.schemas import arrow_schema, avro, iceberg, json_schema, rules_json, spark
 from driftline.emit.schemas import sql as sql_file
 from driftline.errors import OptionError
 from driftline.recommendation.plan import JsonMode, OutputFormat, Recommendation, SchemaFormat
@@ -68,6 +68,10 @@ def schema_file(
         return sql_file.script(rec, name).encode()
     if to == "avro":
         return avro.dumps(avro.avro_schema(rec, name=avro.avro_name(name)))
+    if to == "iceberg":
+        return iceberg.dumps(iceberg.iceberg_document(rec))
+    if to == "spark":
+        return spark.dumps(spark.spark_schema(rec))
     raise OptionError(f"unknown schema format {to!r}; choose one of {', '.join(FORMATS)}")
 
 
