@@ -15,6 +15,7 @@ from __future__ import annotations
 import datetime as dt
 import decimal
 import json
+import subprocess
 import sys
 from pathlib import Path
 from typing import Any
@@ -372,3 +373,14 @@ def test_spark_partition_columns(recs) -> None:
         ("day", "date", False),
     ]
     assert doc["fields"][0]["metadata"]["driftline"].startswith("driftline-output: ")
+
+
+def test_the_cli_without_pyiceberg_says_which_extra(tmp_path: Path) -> None:
+    (tmp_path / "a.jsonl").write_text('{"x": 1}\n')
+    code = (
+        "import sys; sys.modules['pyiceberg.types'] = None; from driftline.cli import main; "
+        "sys.argv = ['driftline', 'schema', sys.argv[1], '--to', 'iceberg', '-q']; main()"
+    )
+    res = subprocess.run([sys.executable, "-c", code, str(tmp_path)], capture_output=True, text=True, timeout=120)
+    assert (res.returncode, res.stdout) == (2, "")
+    assert res.stderr == "error: --to iceberg needs the pyiceberg package: pip install 'driftline[iceberg]'\n"
