@@ -384,3 +384,14 @@ def test_the_cli_without_pyiceberg_says_which_extra(tmp_path: Path) -> None:
     res = subprocess.run([sys.executable, "-c", code, str(tmp_path)], capture_output=True, text=True, timeout=120)
     assert (res.returncode, res.stdout) == (2, "")
     assert res.stderr == "error: --to iceberg needs the pyiceberg package: pip install 'driftline[iceberg]'\n"
+
+
+def test_iceberg_format_version_goes_by_types_not_names(tmp_path: Path) -> None:
+    (tmp_path / "a.jsonl").write_text('{"unknown": 1, "timestamp_ns": "x"}\n')
+    doc = json.loads(schema_file(driftline.scan(tmp_path).recommend(), "iceberg"))
+    # source: Iceberg table spec, "Version 3": timestamp_ns and unknown are its types; these are names.
+    assert doc["format-version"] == 2
+    assert [(f["name"], f["type"]) for f in doc["schema"]["fields"]] == [
+        ("timestamp_ns", "string"),
+        ("unknown", "long"),
+    ]

@@ -45,7 +45,6 @@ if TYPE_CHECKING:
     from pyiceberg.types import IcebergType
 
 PARTITION_ID_START = 1000  # source: Iceberg table spec, "Partition Specs" (field ids from 1000)
-_V3 = ("timestamp_ns", "timestamptz_ns", "unknown")
 
 
 def _pyiceberg() -> Any:
@@ -177,10 +176,15 @@ def iceberg_schema(rec: Recommendation) -> tuple[Schema, PartitionSpec]:
 
 def iceberg_document(rec: Recommendation) -> dict[str, Any]:
     """The file `--to iceberg` writes, as a dict (see the module docstring)."""
+    it = _pyiceberg()
+    from pyiceberg.schema import index_by_id
+
     schema, spec = iceberg_schema(rec)
     schema_json = orjson.loads(schema.model_dump_json())
     spec_json = orjson.loads(spec.model_dump_json())
-    version = 3 if any(t in orjson.dumps(schema_json).decode() for t in (f'"{v}"' for v in _V3)) else 2
+    # Nanosecond timestamps and the unknown type came with format version 3 (table spec, "Version 3").
+    v3 = (it.TimestampNanoType, it.TimestamptzNanoType, it.UnknownType)
+    version = 3 if any(isinstance(f.field_type, v3) for f in index_by_id(schema).values()) else 2
     return {
         # First, so that a scan knows its own output from the first bytes (driftline.core.marker).
         "doc": remark(f"Apache Iceberg table schema of {rec.root}, as recommended by driftline"),
