@@ -178,12 +178,16 @@ class Recommendation(_RecommendationValue):
 
         return _rules_document(self)
 
-    def to_json_schema(self, *, mode: _JsonMode | None = None, title: str | None = None) -> str:
-        """The JSON Schema 2020-12 document as text: `--to json-schema` (`--json-mode`, `--table`).
+    def to_json_schema(
+        self, *, mode: _JsonMode | None = None, title: str | None = None, bounds_from_sample: bool = False
+    ) -> str:
+        """The JSON Schema 2020-12 document as text: `--to json-schema` (`--json-mode`, `--table`,
+        `--bounds-from-sample`).
 
         mode 'permissive' describes the records as they arrive, 'strict' the records after
         the cast rules (default: the recommendation's own mode); title defaults to the root
-        folder's name. json.loads gives the document as a dict.
+        folder's name; bounds_from_sample makes the longest string and the number range seen
+        enforced bounds (by default only described). json.loads gives the document as a dict.
 
         >>> import driftline, tempfile, pathlib, json
         >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
@@ -193,7 +197,9 @@ class Recommendation(_RecommendationValue):
         """
         from driftline.emit.schemas.files import schema_file as _schema_file
 
-        return _schema_file(self, "json-schema", table=title, json_mode=mode).decode()
+        return _schema_file(
+            self, "json-schema", table=title, json_mode=mode, bounds_from_sample=bounds_from_sample
+        ).decode()
 
     def to_sql(self, *, table: str | None = None) -> str:
         """The SQL script `--to sql --table TABLE` writes: CREATE TABLE, a staging table, and the
@@ -224,6 +230,32 @@ class Recommendation(_RecommendationValue):
 
         return _schema_file(self, "avro", table=name).decode()
 
+    def to_iceberg(self) -> str:
+        """The Apache Iceberg table schema `--to iceberg` writes, as JSON text: the schema with field
+        ids and the identity partition spec of the partition keys (needs the iceberg extra: pyiceberg).
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> doc = json.loads(driftline.scan(d).recommend().to_iceberg())
+        >>> doc["schema"]["fields"][0]["id"], doc["schema"]["fields"][0]["type"]
+        (1, 'long')
+        """
+        from driftline.emit.schemas.files import schema_file as _schema_file
+
+        return _schema_file(self, "iceberg").decode()
+
+    def to_spark(self) -> str:
+        """The Spark struct type `--to spark` writes, as JSON text (Spark's DataType.json, Delta's schemaString).
+
+        >>> import driftline, tempfile, pathlib, json
+        >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
+        >>> [(f["name"], f["type"]) for f in json.loads(driftline.scan(d).recommend().to_spark())["fields"]]
+        [('x', 'long')]
+        """
+        from driftline.emit.schemas.files import schema_file as _schema_file
+
+        return _schema_file(self, "spark").decode()
+
     def to_arrow_ipc(self) -> bytes:
         """The Arrow IPC schema message `--to arrow` writes (pyarrow.ipc.read_schema reads it).
 
@@ -244,6 +276,7 @@ class Recommendation(_RecommendationValue):
         *,
         table: str | None = None,
         json_mode: _JsonMode | None = None,
+        bounds_from_sample: bool = False,
     ) -> None:
         """Write one file as `driftline schema --to TO --out PATH` (or `--rules PATH` for to="rules") does.
 
@@ -258,7 +291,7 @@ class Recommendation(_RecommendationValue):
         """
         from driftline.emit.schemas.files import write_file as _write_file
 
-        _write_file(self, path, to, table=table, json_mode=json_mode)
+        _write_file(self, path, to, table=table, json_mode=json_mode, bounds_from_sample=bounds_from_sample)
 
 
 @_dataclasses.dataclass(frozen=True)

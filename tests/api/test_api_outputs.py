@@ -89,6 +89,9 @@ CASES = [
     ("avro", [], lambda r: r.to_avro().encode()),
     ("avro", ["--table", "pm2.5 readings"], lambda r: r.to_avro(name="pm2.5 readings").encode()),
     ("arrow", [], lambda r: r.to_arrow_ipc()),
+    ("iceberg", [], lambda r: r.to_iceberg().encode()),
+    ("spark", [], lambda r: r.to_spark().encode()),
+    ("json-schema", ["--bounds-from-sample"], lambda r: r.to_json_schema(bounds_from_sample=True).encode()),
 ]
 
 
@@ -100,7 +103,7 @@ def test_recommendation_gives_the_file_schema_writes(scanned: Path, tmp_path: Pa
     assert call(rec) == out.read_bytes()
     table = flags[1] if flags[:1] == ["--table"] else None
     mode = flags[1] if flags[:1] == ["--json-mode"] else None
-    rec.write(tmp_path / "api.out", to, table=table, json_mode=mode)
+    rec.write(tmp_path / "api.out", to, table=table, json_mode=mode, bounds_from_sample="--bounds-from-sample" in flags)
     assert (tmp_path / "api.out").read_bytes() == out.read_bytes()
 
 

@@ -32,7 +32,7 @@ from conftest import ROOT, SHARED_TESTDATA, fixture_path
 PINS = fixture_path("pinned/outputs.json")
 EXE = [sys.executable, "-m", "driftline.cli"]
 TEMP: list[Path] = [Path("/nonexistent")]  # pytest's base temporary folder, set by the test
-SCHEMA_FORMATS = ("json-schema", "arrow", "arrow-text", "sql", "avro")
+SCHEMA_FORMATS = ("json-schema", "arrow", "arrow-text", "sql", "avro", "iceberg", "spark")
 ENV = {**os.environ, "COLUMNS": "100", "NO_COLOR": "1", "TERM": "dumb"}
 
 # source: the public conformance suites of ../shared/testdata (README there: MIT, BSD-2-Clause,

@@ -86,7 +86,7 @@ def _write_contract(p: dict[str, Path]) -> None:
     assert res.returncode == 0, res.stderr
     schema = json.loads(p["contract"].read_text())
     Draft202012Validator.check_schema(schema)  # source: jsonschema 4.26.0, the 2020-12 meta-schema
-    assert schema["properties"]["seq"]["x-driftline"] == {"arrow": "int64", "rule": "identity"}
+    assert schema["properties"]["seq"]["x-driftline"] == {"arrow": "int64", "rule": "identity", "null_share": 0.0}
 
 
 def test_the_pipeline_flow(pipeline: dict[str, Path]):

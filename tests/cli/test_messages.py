@@ -39,7 +39,9 @@ def test_an_unknown_target_lists_the_choices(tmp_path: Path):
     (tmp_path / "a.jsonl").write_text('{"a": 1}\n')
     res = run("schema", "a.jsonl", "--to", "yaml", cwd=tmp_path)
     assert res.returncode == 2
-    assert res.stderr == "error: unknown --to 'yaml'; choose one of json-schema, arrow, arrow-text, sql, avro\n"
+    assert res.stderr == (
+        "error: unknown --to 'yaml'; choose one of json-schema, arrow, arrow-text, sql, avro, iceberg, spark\n"
+    )
 
 
 def test_every_file_failed_says_the_only_file_for_one(tmp_path: Path):

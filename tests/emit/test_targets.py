@@ -268,6 +268,8 @@ def test_every_output_inside_the_folder_is_skipped_as_own_output(tmp_path: Path,
             "create.sql",
             "schema.arrow",
             "schema.arrow.txt",
+            "schema.iceberg.json",
+            "schema.spark.json",
             "rules.json",
             "verdict.json",
             "verdict.xml",
@@ -283,6 +285,8 @@ def test_every_output_inside_the_folder_is_skipped_as_own_output(tmp_path: Path,
         ("schema", land, "--to", "sql", "--table", "t", "--out", out["create.sql"], w),
         ("schema", land, "--to", "arrow", "--out", out["schema.arrow"], w),
         ("schema", land, "--to", "arrow-text", "--out", out["schema.arrow.txt"], w),
+        ("schema", land, "--to", "iceberg", "--out", out["schema.iceberg.json"], w),
+        ("schema", land, "--to", "spark", "--out", out["schema.spark.json"], w),
         (
             "check",
             land,
@@ -324,6 +328,16 @@ def test_every_output_inside_the_folder_is_skipped_as_own_output(tmp_path: Path,
         ).fetchall()
     ] == ["id", "name"]
     assert pa.ipc.read_schema(pa.py_buffer(out["schema.arrow"].read_bytes())).names == ["id", "name"]
+    # source: Iceberg table spec, Appendix C (JSON serialization); pyiceberg's model loads the schema
+    from pyiceberg.schema import Schema
+
+    iceberg = json.loads(out["schema.iceberg.json"].read_text(encoding="utf-8"))
+    assert [f.name for f in Schema.model_validate(iceberg["schema"]).fields] == ["id", "name"]
+    # source: Delta protocol "Schema Serialization Format" (Spark's DataType.json); delta-rs parses it
+    import deltalake
+
+    spark = deltalake.Schema.from_json(out["schema.spark.json"].read_text(encoding="utf-8"))
+    assert [f.name for f in spark.fields] == ["id", "name"]
     # source: XML 1.0 section 2.8 — the declaration first, then comments; ElementTree parses it
     assert ET.parse(out["verdict.xml"]).getroot().tag == "testsuites"
     # source: HTML Living Standard 13.1 — comments may come before the DOCTYPE

@@ -45,6 +45,10 @@ Examples:
 
   driftline schema landing/ --to avro --out landing.avsc
 
+  driftline schema landing/ --to iceberg --out landing.iceberg.json   (needs driftline[iceberg])
+
+  driftline schema landing/ --to spark --out landing.spark.json
+
   driftline schema landing/ --rules rules.json
 
   driftline schema report.json --to sql          (a saved `driftline scan --json` report)
@@ -178,6 +182,13 @@ def schema_command(
         metavar="permissive|strict",
         help="JSON Schema of the data as it arrives, or after the rules (default: the --strict setting).",
     ),
+    bounds_from_sample: bool = typer.Option(
+        False,
+        "--bounds-from-sample",
+        help="Enforce the longest string and the number range seen (maxLength, minimum/maximum, "
+        "VARCHAR(n)). Warning: the sample is not the contract; the next longer id or larger value "
+        "then fails. By default these figures are only described.",
+    ),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No terminal summary."),
     dataset: list[str] | None = typer.Option(
         None,
@@ -234,10 +245,23 @@ def schema_command(
     console = err_console if to_stdout else Console(highlight=False)
     if not several:
         rec = _recommended(lambda: driftline.recommend(paths, options=opts, scan_options=options), console, quiet)
-        return _write_one(rec, to, targets, table, json_mode, console, quiet)
+        return _write_one(rec, to, targets, table, json_mode, console, quiet, bounds_from_sample)
     if from_set:  # a saved report set (`driftline scan ROOT --json FILE`): its datasets as they were read
         landing = picked_from_set(driftline.load_report_set(paths[0]), dataset or None, options)
-        return by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths)
+        return by_dataset(
+            landing,
+            opts,
+            to,
+            targets,
+            table,
+            json_mode,
+            console,
+            quiet,
+            write_inside,
+            options,
+            paths,
+            bounds_from_sample=bounds_from_sample,
+        )
     # One root folder: split into datasets as `driftline scan` does (the verb is that library call).
     landing = driftline.scan_datasets(paths[0], dataset=dataset or None, whole_if_one=True, options=options)
     if landing.whole is not None:
@@ -254,8 +278,21 @@ def schema_command(
         if all_failed(whole):
             raise InputPathError(f"nothing readable: {whole.unread_text()} (driftline scan shows the problems)")
         rec = _recommended(lambda: driftline.recommend(whole, options=opts), console, quiet)
-        return _write_one(rec, to, targets, table, json_mode, console, quiet)
-    by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths)
+        return _write_one(rec, to, targets, table, json_mode, console, quiet, bounds_from_sample)
+    by_dataset(
+        landing,
+        opts,
+        to,
+        targets,
+        table,
+        json_mode,
+        console,
+        quiet,
+        write_inside,
+        options,
+        paths,
+        bounds_from_sample=bounds_from_sample,
+    )
 
 
 def _one_folder(paths: list[str]) -> bool:
@@ -286,9 +323,17 @@ def _write_one(
     json_mode: str | None,
     console: Console,
     quiet: bool,
+    bounds_from_sample: bool = False,
 ) -> None:
     if to is not None and targets.out is not None:
-        write_output(targets.out, schema_file(rec, to, table=table, json_mode=json_mode))  # type: ignore[arg-type]
+        data = schema_file(
+            rec,
+            to,  # type: ignore[arg-type]
+            table=table,
+            json_mode=json_mode,  # type: ignore[arg-type]
+            bounds_from_sample=bounds_from_sample,
+        )
+        write_output(targets.out, data)
     if targets.rules is not None:
         write_output(targets.rules, rules_json.dumps(rec))
     if not quiet:

@@ -92,6 +92,8 @@ def by_dataset(
     write_inside: bool,
     options: ScanOptions,
     inputs: list[str],
+    *,
+    bounds_from_sample: bool = False,
 ) -> None:
     """One recommendation per dataset, its files written, its summary under a heading `dataset NAME`
     (no heading for a lone dataset); exit 1 when a dataset conflicts under --strict (its files are not
@@ -130,7 +132,16 @@ def by_dataset(
             if option == "--rules":
                 write_output(path, rules_json.dumps(rec))
             else:
-                write_output(path, schema_file(rec, to, table=table, json_mode=json_mode))  # type: ignore[arg-type]
+                write_output(
+                    path,
+                    schema_file(
+                        rec,
+                        to,  # type: ignore[arg-type]
+                        table=table,
+                        json_mode=json_mode,  # type: ignore[arg-type]
+                        bounds_from_sample=bounds_from_sample,
+                    ),
+                )
     for name in landing.datasets:
         if not quiet:
             if several:

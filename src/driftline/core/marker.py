@@ -5,7 +5,9 @@ consumers read:
 
   JSON documents (report, rules, verdict, diff, state)  the first key: "format": "driftline-<kind>"
   JSON Schema                                           the first key: "$comment": "driftline-output: ..."
-  Avro schema                                           the first key: "doc": "driftline-output: ..."
+  Avro schema, Iceberg schema                           the first key: "doc": "driftline-output: ..."
+  Spark struct type JSON                                the first field's first metadata key:
+                                                        "driftline": "driftline-output: ..."
   SQL                                                   the first line: -- driftline-output: ...
   Arrow schema as text                                  the first line: # driftline-output: ...
   Arrow IPC schema message                              the schema metadata key driftline.rules
@@ -40,6 +42,8 @@ _HEAD = re.compile(
     rb"\A(?:\xef\xbb\xbf)?\s*(?:"
     rb'\{\s*"format"\s*:\s*"driftline-(?:' + b"|".join(k.encode() for k in OWN_JSON_FORMATS) + rb')"'
     rb'|\{\s*"(?:\$comment|doc)"\s*:\s*"'
+    + MARKER.encode()
+    + rb'|\{\s*"type"\s*:\s*"struct"\s*,\s*"fields"\s*:\s*\[\s*\{\s*"metadata"\s*:\s*\{\s*"driftline"\s*:\s*"'
     + MARKER.encode()
     + rb"|(?:<\?xml[^>]{0,200}\?>\s*)?<!--\s*"
     + MARKER.encode()

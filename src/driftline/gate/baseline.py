@@ -2,10 +2,13 @@
 
 A baseline comes from
   * a JSON Schema 2020-12 file (as `driftline schema --to json-schema` writes): only the
-    standard keywords type / properties / required / items / format / minimum / maximum
-    are read, plus an optional per-property annotation
-    ``"x-driftline": {"arrow": "<type key>", "rule": "<cast rule name>"}``;
-  * a saved scan report (`driftline scan --json`): what was observed then is the baseline;
+    standard keywords type / properties / required / items / format / minimum / maximum /
+    maxLength are read, plus an optional per-property annotation
+    ``"x-driftline": {"arrow": "<type key>", "rule": "<cast rule name>", "classes": [...],
+    "null_share": 0.0}`` (the content classes and null share the scan saw);
+  * a saved scan report (`driftline scan --json`): read as the JSON Schema that `driftline
+    schema --to json-schema` writes from it, so that both kinds go through one comparison
+    and give one verdict on one change;
   * a cast-rules file (`driftline schema --rules`, docs/rules.schema.json): each path's
     target type, nullability, presence, rule and the content classes the rule parses.
 
@@ -27,7 +30,7 @@ from typing import TYPE_CHECKING, Any
 
 from driftline.core import paths
 from driftline.core.documents import read_json_document
-from driftline.core.lattice import NULL, UNKNOWN, DType, join_all, parse_key, type_of_key
+from driftline.core.lattice import UNKNOWN, DType, join_all, parse_key
 from driftline.core.validation import check_document, check_json_schema, damaged
 from driftline.emit.schemas.rules_json import RULES_FORMAT, RULES_VERSION, upgrade_rules_v1
 from driftline.errors import ReportVersionError, UnreadableFileError
@@ -76,6 +79,7 @@ class Expected:
     classes: frozenset[str] | None = None
     minimum: float | None = None
     maximum: float | None = None
+    max_length: int | None = None
     rule: str | None = None
     accept: frozenset[str] | None = None
     null_share: float | None = None
@@ -99,7 +103,9 @@ class Baseline:
 
     @property
     def has_ranges(self) -> bool:
-        return any(e.minimum is not None or e.maximum is not None for e in self.fields.values())
+        return any(
+            e.minimum is not None or e.maximum is not None or e.max_length is not None for e in self.fields.values()
+        )
 
 
 # -- JSON Schema ------------------------------------------------------------------------
@@ -139,6 +145,44 @@ def _number(node: Mapping[str, Any], key: str, ptr: str) -> float | None:
     return value
 
 
+@dataclass(frozen=True, slots=True)
+class _Note:
+    """What the x-driftline annotation of one schema node says."""
+
+    arrow: DType | None = None
+    rule: str | None = None
+    classes: frozenset[str] | None = None
+    null_share: float | None = None
+
+
+def _note(node: Mapping[str, Any], ptr: str) -> _Note:
+    arrow, rule = _annotation(node, ptr)
+    note = node.get("x-driftline")
+    if not isinstance(note, Mapping):
+        return _Note(arrow, rule)
+    classes, share = note.get("classes"), note.get("null_share")
+    if classes is not None and not (isinstance(classes, list) and all(isinstance(c, str) for c in classes)):
+        raise _SchemaError(
+            ptr + "/x-driftline/classes", f"'classes' must be a list of content classes, not {classes!r}"
+        )
+    if share is not None and (isinstance(share, bool) or not isinstance(share, int | float) or not 0 <= share <= 1):
+        raise _SchemaError(ptr + "/x-driftline/null_share", f"'null_share' must be from 0 to 1, not {share!r}")
+    return _Note(arrow, rule, frozenset(classes) if classes is not None else None, share)
+
+
+def _format_classes(fmt: object) -> frozenset[str] | None:
+    return FORMAT_CLASSES.get(fmt) if isinstance(fmt, str) else None
+
+
+def _length(node: Mapping[str, Any], ptr: str) -> int | None:
+    value = node.get("maxLength")
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, int) or value < 0:
+        raise _SchemaError(ptr + "/maxLength", f"'maxLength' must be a non-negative integer, not {value!r}")
+    return value
+
+
 def _annotation(node: Mapping[str, Any], ptr: str) -> tuple[DType | None, str | None]:
     note = node.get("x-driftline")
     if note is None:
@@ -165,7 +209,8 @@ def _walk_schema(node: Any, path: str | None, ptr: str, required: bool, out: dic
     if not isinstance(node, Mapping):
         raise _SchemaError(ptr, f"a schema must be an object or a boolean, not {type(node).__name__}")
     names, nullable = _types_of(node, ptr)
-    arrow, rule = _annotation(node, ptr)
+    note = _note(node, ptr)
+    arrow, rule = note.arrow, note.rule
     json_type = join_all(_JSON_TYPES[n] for n in names) if names else None
     dtype = arrow.with_nullable(False) if arrow is not None else json_type
     fmt = node.get("format")
@@ -179,10 +224,17 @@ def _walk_schema(node: Any, path: str | None, ptr: str, required: bool, out: dic
             nullable=nullable or not names,
             required=required,
             open=props is None and arrow is None and (dtype is None or dtype.name == "struct"),
-            classes=FORMAT_CLASSES.get(fmt) if isinstance(fmt, str) else None,
+            # The classes the scan saw, when the annotation says; else those the format allows.
+            classes=note.classes
+            if note.classes is not None
+            else FORMAT_CLASSES.get(fmt)
+            if isinstance(fmt, str)
+            else None,
             minimum=_number(node, "minimum", ptr),
             maximum=_number(node, "maximum", ptr),
+            max_length=_length(node, ptr),
             rule=rule,
+            null_share=note.null_share,
         )
     if props is not None:
         req = node.get("required", [])
@@ -236,29 +288,24 @@ def baseline_from_json_schema(doc: Any, *, source: str = "schema") -> Baseline:
 # -- saved scan report -------------------------------------------------------------------
 
 
-def _shallow_type(types: Mapping[str, int]) -> DType:
-    # A field seen only as null had type null then: any value type later widens it.
-    return join_all(type_of_key(k) for k in types).with_nullable(False) if types else NULL
-
-
 def baseline_from_profile(profile: Profile, *, source: str = "report") -> Baseline:
-    """What a profile observed, as a baseline: its types, nullability, presence and shares."""
-    out: dict[str, Expected] = {}
-    for p, s in profile.fields.items():
-        st = s.stats
-        # No classes means no strings then: the type rules judge strings that arrive now.
-        classes = frozenset(st.classes) - NULL_CLASSES or None
-        out[p] = Expected(
-            path=p,
-            type=_shallow_type(st.types),
-            nullable=st.nulls > 0 or not st.types,
-            required=s.absent == 0,
-            open=False,
-            classes=classes,
-            rule=None,
-            null_share=(st.nulls + s.absent) / s.container if s.container else None,
-        )
-    return Baseline("report", source, out)
+    """What a profile observed, as a baseline: the JSON Schema `driftline schema --to json-schema`
+    writes from it (default recommendation options), read back as any JSON Schema baseline is.
+
+    One reading for both kinds: a change gets the same verdict and rule against a saved
+    report as against the schema written from that report (tests/gate/test_one_comparison.py).
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": null}\\n{}\\n')
+    >>> e = baseline_from_profile(driftline.scan(d)).fields["x"]
+    >>> e.type.key(), e.nullable, e.required, round(e.null_share, 4), e.rule
+    ('int64', True, False, 0.6667, 'identity')
+    """
+    from driftline.emit.schemas.json_schema import json_schema
+    from driftline.recommendation import recommend
+
+    doc = json_schema(recommend(profile), mode="permissive")
+    return replace(baseline_from_json_schema(doc, source=source), kind="report")
 
 
 # -- a recommendation (what a cast-rules file records) -------------------------------------

@@ -364,7 +364,7 @@ def _class_kept(cls: str, b: DType, st: FieldStats, casting: bool, accept: froze
 
 
 def check_range(w: _Walk, out: _Findings) -> None:
-    """out_of_range: batch minimum / maximum against the baseline's; reports the extreme value."""
+    """out_of_range: batch minimum / maximum (and longest string) against the baseline's; reports the extreme."""
     hits: dict[tuple[str, str], list[tuple[float, str]]] = {}
     for obs, _ in w.batches():
         for path, st in obs.fields.items():
@@ -376,22 +376,24 @@ def check_range(w: _Walk, out: _Findings) -> None:
                     continue
                 if value < limit if side == "minimum" else value > limit:
                     hits.setdefault((path, side), []).append((value, obs.file))
+            if exp.max_length is not None and st.max_length > exp.max_length and (st.types.get("string") or st.text):
+                hits.setdefault((path, "maxLength"), []).append((st.max_length, obs.file))
     for (path, side), found in hits.items():
         exp = w.expected(path)
         assert exp is not None
-        limit = exp.minimum if side == "minimum" else exp.maximum
         value, file = min(found) if side == "minimum" else max(found)
-        word = "below" if side == "minimum" else "above"
-        out.add(
-            "out_of_range",
-            path,
-            f"{word} the {side} {limit:g}",
-            f"{len(found)} batch(es) hold values {word} it; the most extreme is {value!r}",
-            len(found),
-            file,
-            Example(file, -1, None, repr(value)),
-        )
-        out.tallies[("out_of_range", path, f"{word} the {side} {limit:g}")].files.update(f for _, f in found)
+        if side == "maxLength":  # a string longer than the baseline's maxLength (JSON Schema §6.3.1)
+            change = f"longer than the maxLength {exp.max_length}"
+            message = f"{len(found)} batch(es) hold longer strings; the longest has {value:,} characters"
+            ex = Example(file, -1, None, f"{value} characters")
+        else:
+            limit = exp.minimum if side == "minimum" else exp.maximum
+            word = "below" if side == "minimum" else "above"
+            change = f"{word} the {side} {limit:g}"
+            message = f"{len(found)} batch(es) hold values {word} it; the most extreme is {value!r}"
+            ex = Example(file, -1, None, repr(value))
+        out.add("out_of_range", path, change, message, len(found), file, ex)
+        out.tallies[("out_of_range", path, change)].files.update(f for _, f in found)
 
 
 def check_null_share(w: _Walk, out: _Findings) -> None:
@@ -501,7 +503,7 @@ def _applies(rule: str, baseline: Baseline) -> str:
     if rule == "null_share_rise" and not baseline.has_shares:
         return "the baseline records no null shares; a saved scan report does"
     if rule == "out_of_range" and not baseline.has_ranges:
-        return "the baseline declares no minimum or maximum"
+        return "the baseline declares no minimum, maximum or maxLength"
     if rule == "content_class" and not any(e.classes is not None for e in baseline.fields.values()):
         return "the baseline declares no string formats or content classes"
     return ""

@@ -44,7 +44,7 @@ RULES: dict[str, str] = {
     "optional_gone": "an optional field absent from every scanned row",
     "unexpected_nulls": "nulls in a field the baseline declares non-nullable",
     "content_class": "strings of a content class the baseline lacks (e.g. not its format)",
-    "out_of_range": "a number below the baseline's minimum or above its maximum",
+    "out_of_range": "a number below the baseline's minimum or above its maximum, a string longer than its maxLength",
     "null_share_rise": "null/absent share up more than max_null_share_rise points",
     "file_errors": "more than max_file_error_rate percent of files have read errors",
     "unread_rows": "a file with rows set aside, or read as empty although it holds data",

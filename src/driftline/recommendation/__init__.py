@@ -18,6 +18,7 @@ from __future__ import annotations
 from driftline.errors import OptionError, SchemaConflictError
 from driftline.recommendation.facts import gather
 from driftline.recommendation.options import RecommendOptions
+from driftline.recommendation.partitions import partition_columns
 from driftline.recommendation.plan import CAUSES, Alternative, Dropped, Effect, FieldPlan, Recommendation, is_conflict
 from driftline.recommendation.rules import REGISTRY, Context
 from driftline.results.profile import Profile
@@ -66,6 +67,7 @@ def recommend(profile: Profile, *, options: RecommendOptions | None = None, **ov
         fields=fields,
         options=opts,
         dropped=tuple(sorted(ctx.dropped, key=lambda d: d.path)),
+        partitions=partition_columns(profile.files, profile.partition_keys()),
     )
     if opts.strict and rec.conflicts():
         raise SchemaConflictError(rec)

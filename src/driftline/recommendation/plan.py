@@ -15,10 +15,12 @@ import pyarrow as pa
 
 from driftline.core.lattice import DType, to_arrow
 from driftline.core.stats import Example
+from driftline.core.words import count
 from driftline.recommendation.options import RecommendOptions
+from driftline.recommendation.partitions import PartitionColumn
 
 #: The schema files of `driftline schema --to`.
-SchemaFormat = Literal["json-schema", "arrow", "arrow-text", "sql", "avro"]
+SchemaFormat = Literal["json-schema", "arrow", "arrow-text", "sql", "avro", "iceberg", "spark"]
 #: What Recommendation.write writes: a schema file, or the cast rules (`--rules`).
 OutputFormat = SchemaFormat | Literal["rules"]
 #: JSON Schema of the records as they arrive (permissive), or after the cast rules (strict).
@@ -176,6 +178,8 @@ class Recommendation:
     fields: tuple[FieldPlan, ...]
     options: RecommendOptions
     dropped: tuple[Dropped, ...] = ()
+    #: The key=value folder keys, typed by their values: the partition columns of the formats that have them.
+    partitions: tuple[PartitionColumn, ...] = ()
 
     def walk(self) -> Iterator[FieldPlan]:
         """Every plan, top-level fields first, each followed by the plans below it."""
@@ -238,12 +242,57 @@ def is_conflict(plan: FieldPlan) -> bool:
     return any((e.count or not e.exact) and e.cause not in BENIGN_CAUSES for e in plan.effects)
 
 
+# -- what the scan saw, as a note: never a bound ---------------------------------------------
+# A schema file is a contract for data still to come, so the figures of the sample (the longest
+# string, the smallest and largest number, the share of nulls) go where no validator enforces
+# them: JSON Schema "description", Avro "doc", Arrow field metadata (driftline.observed).
+# `driftline schema --bounds-from-sample` turns some of them into bounds on purpose.
+
+
+def _longest_string(plan: FieldPlan) -> int | None:
+    """The longest string value the scan saw at this path (typed strings and CSV cells), if any."""
+    lengths = plan.observed.get("max_length", {})
+    return max(lengths.values()) if lengths else None
+
+
+def _number(x: float) -> str:
+    return f"{x:,}" if isinstance(x, int) else f"{x:g}"
+
+
+def observed_note(plan: FieldPlan) -> str:
+    """One line of observed figures, or '' when the scan saw nothing to tell.
+
+    >>> p = FieldPlan("n", "n", DType("int64"), "identity", "", "", {"int64": 3},
+    ...     observed={"numbers": [1, 2077], "null_share": 0.25})
+    >>> observed_note(p)
+    'observed (not enforced): 3 values; numbers from 1 to 2,077; 25.0% null or absent'
+    """
+    parts = []
+    values = sum(plan.inputs.values())
+    if values:
+        parts.append(count(values, "value"))
+    longest = _longest_string(plan)
+    if longest is not None:
+        parts.append(f"longest string {count(longest, 'character')}")
+    numbers = plan.observed.get("numbers")
+    if numbers:
+        parts.append(f"numbers from {_number(numbers[0])} to {_number(numbers[1])}")
+    span = plan.observed.get("range")
+    if span:
+        parts.append(f"from {span[0]} to {span[1]}")
+    share = plan.observed.get("null_share")
+    if share:
+        parts.append(f"{100 * share:.1f}% null or absent")
+    return "observed (not enforced): " + "; ".join(parts) if parts else ""
+
+
 # -- the recommendation as an Arrow schema: the exact schema apply() produces -----------------
 # Field order is name order at every level (struct fields included); each top-level field
 # carries its rule as metadata, and the schema carries every path's rule as JSON.
 
 RULE_KEY = b"driftline.rule"
 RULES_KEY = b"driftline.rules"
+OBSERVED_KEY = b"driftline.observed"
 
 
 def arrow_type(plan: FieldPlan) -> pa.DataType:
@@ -263,6 +312,14 @@ def arrow_field(plan: FieldPlan, name: str | None = None) -> pa.Field:
     return pa.field(plan.name if name is None else name, arrow_type(plan), nullable=plan.nullable)
 
 
+def _field_metadata(plan: FieldPlan) -> dict[bytes, bytes]:
+    out = {RULE_KEY: plan.rule.encode()}
+    note = observed_note(plan)
+    if note:
+        out[OBSERVED_KEY] = note.encode()
+    return out
+
+
 def target_schema(rec: Recommendation) -> pa.Schema:
     """The unified schema, with rules as metadata.
 
@@ -271,6 +328,6 @@ def target_schema(rec: Recommendation) -> pa.Schema:
     >>> print(target_schema(driftline.scan(d).recommend()).field("x"))
     pyarrow.Field<x: double not null>
     """
-    fields = [arrow_field(p).with_metadata({RULE_KEY: p.rule.encode()}) for p in rec.fields]
+    fields = [arrow_field(p).with_metadata(_field_metadata(p)) for p in rec.fields]
     rules = {p.path: p.rule for p in rec.walk()}
     return pa.schema(fields, metadata={RULES_KEY: orjson.dumps(rules)})

@@ -12,6 +12,7 @@ the last resort. Nested rules plan their children through ``ctx.plan``.
 from __future__ import annotations
 
 import dataclasses
+import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
@@ -92,6 +93,12 @@ def _observed(f: Facts) -> dict[str, object]:
         out["leap_seconds"] = leap
     if isinstance(f.typed.minimum, str) and isinstance(f.typed.maximum, str):
         out["range"] = [f.typed.minimum, f.typed.maximum]  # temporal values, as ISO 8601 text
+    low, high = f.typed.minimum, f.typed.maximum
+    if all(isinstance(x, int | float) and not isinstance(x, bool) and math.isfinite(x) for x in (low, high)):
+        out["numbers"] = [low, high]  # the smallest and largest number seen: an annotation, never a bound
+    s = f.summary
+    if s.container:
+        out["null_share"] = (s.stats.nulls + s.absent) / s.container  # null or absent, as a report records it
     return out
 
 
@@ -484,6 +491,7 @@ def _map(f: Facts, ctx: Context) -> FieldPlan:
         children=(key, value),
         required=f.summary.absent == 0,
         input_chars=json_chars(ctx.tree, f),
+        observed=_observed(f),
     )
 
 

@@ -71,18 +71,23 @@ def test_the_format_checker_really_checks():
 @pytest.mark.parametrize("name", ["demo", "orders"])
 @pytest.mark.parametrize("mode", ["permissive", "strict"])
 def test_schema_passes_the_meta_schema_with_plain_keywords(sources, name: str, mode: str):
-    _, rec = sources[name]
+    root, rec = sources[name]
+    profiles = {name: driftline.scan(root)}
     schema = json_schema(rec, mode=mode)
     Draft202012Validator.check_schema(schema)
     assert schema["$schema"] == META_SCHEMA == Draft202012Validator.META_SCHEMA["$id"]
     for where, node in _nodes(schema)[1:]:
         assert set(node) <= ALLOWED, where
         note = node["x-driftline"]
-        assert set(note) == {"arrow", "rule"}
+        assert {"arrow", "rule"} <= set(note) <= {"arrow", "rule", "classes", "null_share"}
         assert parse_key(note["arrow"]).key() == note["arrow"]
+        assert "maxLength" not in node, where  # a contract: no length taken from the sample
     top = {p.name: p for p in rec.fields}
     for name_, node in schema["properties"].items():
-        assert node["x-driftline"] == {"arrow": top[name_].target.key(), "rule": top[name_].rule}
+        plan = top[name_]
+        assert (node["x-driftline"]["arrow"], node["x-driftline"]["rule"]) == (plan.target.key(), plan.rule)
+        s = profiles[name].fields[plan.path]
+        assert node["x-driftline"]["null_share"] == (s.stats.nulls + s.absent) / s.container
 
 
 @pytest.mark.parametrize("name", ["demo", "orders"])

@@ -27,7 +27,7 @@ import pyarrow.compute as pc
 
 from driftline.core.lattice import DType
 from driftline.core.marker import remark
-from driftline.recommendation.plan import FieldPlan, Recommendation
+from driftline.recommendation.plan import FieldPlan, Recommendation, observed_note
 
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 _TIMESTAMP = {"s": "millis", "ms": "millis", "us": "micros", "ns": "nanos"}
@@ -156,7 +156,8 @@ def _fields(plans: tuple[FieldPlan, ...], names: _Names, record: str) -> list[di
         if p.nullable:
             f["default"] = None
         note = None if p.rule == "keep_as_json_text" else stand_in(p.target)
-        f["doc"] = f"{p.rule}: {p.does}" + (f"; {note}" if note else "")
+        seen = observed_note(p)
+        f["doc"] = f"{p.rule}: {p.does}" + (f"; {note}" if note else "") + (f"; {seen}" if seen else "")
         f["x-driftline"] = {"path": p.path, "name": p.name, "arrow": p.target.key(), "rule": p.rule}
         out.append(f)
     return out

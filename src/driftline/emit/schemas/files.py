@@ -12,7 +12,7 @@ from pathlib import Path
 from typing import get_args
 
 from driftline.emit.atomic import write_output
-from driftline.emit.schemas import arrow_schema, avro, json_schema, rules_json
+from driftline.emit.schemas import arrow_schema, avro, iceberg, json_schema, rules_json, spark
 from driftline.emit.schemas import sql as sql_file
 from driftline.errors import OptionError
 from driftline.recommendation.plan import JsonMode, OutputFormat, Recommendation, SchemaFormat
@@ -32,12 +32,19 @@ def default_name(rec: Recommendation) -> str:
 
 
 def schema_file(
-    rec: Recommendation, to: SchemaFormat, *, table: str | None = None, json_mode: JsonMode | None = None
+    rec: Recommendation,
+    to: SchemaFormat,
+    *,
+    table: str | None = None,
+    json_mode: JsonMode | None = None,
+    bounds_from_sample: bool = False,
 ) -> bytes:
-    """The file `driftline schema --to TO [--table TABLE] [--json-mode MODE]` writes.
+    """The file `driftline schema --to TO [--table TABLE] [--json-mode MODE] [--bounds-from-sample]` writes.
 
     table names the SQL table, the Avro record and the JSON Schema's title (default: the
-    root folder's name); json_mode defaults to the recommendation's mode.
+    root folder's name); json_mode defaults to the recommendation's mode; bounds_from_sample
+    makes the JSON Schema enforce the longest string and the number range seen (by default
+    they are only described).
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
@@ -51,7 +58,8 @@ def schema_file(
         mode = json_mode or rec.options.mode
         if mode not in get_args(JsonMode):
             raise OptionError(f"json_mode must be permissive or strict, got {mode!r}")
-        return json_schema.dumps(json_schema.json_schema(rec, mode=mode, title=name))
+        doc = json_schema.json_schema(rec, mode=mode, title=name, bounds_from_sample=bounds_from_sample)
+        return json_schema.dumps(doc)
     if to == "arrow":
         return arrow_schema.ipc_bytes(rec)
     if to == "arrow-text":
@@ -60,6 +68,10 @@ def schema_file(
         return sql_file.script(rec, name).encode()
     if to == "avro":
         return avro.dumps(avro.avro_schema(rec, name=avro.avro_name(name)))
+    if to == "iceberg":
+        return iceberg.dumps(iceberg.iceberg_document(rec))
+    if to == "spark":
+        return spark.dumps(spark.spark_schema(rec))
     raise OptionError(f"unknown schema format {to!r}; choose one of {', '.join(FORMATS)}")
 
 
@@ -70,7 +82,12 @@ def write_file(
     *,
     table: str | None = None,
     json_mode: JsonMode | None = None,
+    bounds_from_sample: bool = False,
 ) -> None:
     """Write a schema file (as schema_file) or, for to="rules", the cast rules file (--rules)."""
-    data = rules_json.dumps(rec) if to == "rules" else schema_file(rec, to, table=table, json_mode=json_mode)
+    data = (
+        rules_json.dumps(rec)
+        if to == "rules"
+        else schema_file(rec, to, table=table, json_mode=json_mode, bounds_from_sample=bounds_from_sample)
+    )
     write_output(os.fspath(path), data)

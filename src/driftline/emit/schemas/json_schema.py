@@ -1,10 +1,11 @@
 """The recommendation as JSON Schema 2020-12: plain standard keywords plus one annotation.
 
 Keywords used: type, properties, required, items, additionalProperties (a map's values),
-format, minimum, maximum, maxLength, description (the unit of a duration, which JSON
-holds as an integer);
+format, minimum, maximum, description, and with bounds_from_sample maxLength;
 each property (and each ``items``) carries ``"x-driftline": {"arrow": "<type key>",
-"rule": "<rule name>"}``. Two modes:
+"rule": "<rule name>"}`` and, when the scan saw them, ``"classes"`` (the content classes
+of its strings) and ``"null_share"`` (the share of null or absent values), which `check`
+reads as a saved report's. Two modes:
 
 * ``permissive``: describes the data as it arrives (JSON records; CSV cells read by their
   content class; Parquet values as JSON), so every scanned record validates: a field's
@@ -12,10 +13,17 @@ each property (and each ``items``) carries ``"x-driftline": {"arrow": "<type key
 * ``strict``: describes the records after the cast rules (apply(), as JSON): only the
   target's JSON type.
 
+A contract, not a snapshot: no length or range taken from the sample is a keyword a
+validator enforces. The observed figures (longest string, smallest and largest number,
+null share) are written in ``description``. ``bounds_from_sample=True`` (`driftline schema
+--bounds-from-sample`) opts into tight bounds: ``maxLength`` the longest string seen (or
+the target's text bound in strict mode), ``minimum``/``maximum`` the smallest and largest
+number seen; the next longer id or larger reading then fails.
+
 JSON Schema counts 1.0 as an integer and gives integers no width (§6.1.1), so integer
-types carry their range as minimum/maximum and floats are "number". ``format:
-date-time`` is given only when every value is RFC 3339 (in permissive mode: every
-string the scan saw, no leap second, which the format checker rejects).
+types carry the range of their type (not of the sample) as minimum/maximum and floats are
+"number". ``format: date-time`` is given only when every value is RFC 3339 (in permissive
+mode: every string the scan saw, no leap second, which the format checker rejects).
 """
 
 from __future__ import annotations
@@ -30,7 +38,7 @@ from driftline.core.lattice import DType, parse_key
 from driftline.core.marker import remark
 from driftline.core.observation import TEXT_CLASS_TYPE
 from driftline.core.words import count
-from driftline.recommendation.plan import FieldPlan, Recommendation
+from driftline.recommendation.plan import FieldPlan, Recommendation, observed_note
 
 META_SCHEMA = "https://json-schema.org/draft/2020-12/schema"
 Mode = Literal["permissive", "strict"]
@@ -134,44 +142,81 @@ def _string_bound(plan: FieldPlan, mode: Mode) -> int | None:
     return out
 
 
-def node(plan: FieldPlan, mode: Mode = "permissive") -> dict[str, Any]:
+def _classes(plan: FieldPlan) -> list[str]:
+    """The content classes of the strings seen (typed and CSV cells), nulls in all but spelling left out."""
+    seen: set[str] = set()
+    for side in plan.observed.get("classes", {}).values():
+        seen |= set(side)
+    return sorted(seen - {"empty", "null_token"})
+
+
+def annotation(plan: FieldPlan) -> dict[str, Any]:
+    """The x-driftline annotation: the target type, the rule, and what `check` compares as a report's."""
+    out: dict[str, Any] = {"arrow": plan.target.key(), "rule": plan.rule}
+    classes = _classes(plan)
+    if classes:
+        out["classes"] = classes
+    share = plan.observed.get("null_share")
+    if share is not None:
+        out["null_share"] = share
+    return out
+
+
+def node(plan: FieldPlan, mode: Mode = "permissive", *, bounds_from_sample: bool = False) -> dict[str, Any]:
     """The schema of one field (its children included)."""
     types = _types(plan, mode)
     out: dict[str, Any] = {"type": types[0] if len(types) == 1 else types}
     t = plan.target
-    if t.name in _INT_RANGES and "integer" in types:
+    numbers = plan.observed.get("numbers") if bounds_from_sample else None
+    if numbers and ("integer" in types or "number" in types):
+        out["minimum"], out["maximum"] = numbers
+    elif t.name in _INT_RANGES and "integer" in types:
         out["minimum"], out["maximum"] = _INT_RANGES[t.name]
     if "string" in types:
         fmt = _format(plan, mode)
         if fmt:
             out["format"] = fmt
-        bound = _string_bound(plan, mode)
+        bound = _string_bound(plan, mode) if bounds_from_sample else None
         if bound is not None:
             out["maxLength"] = max(bound, 0)
     if plan.rule != "keep_as_json_text":
+
+        def kid(c: FieldPlan) -> dict[str, Any]:
+            return node(c, mode, bounds_from_sample=bounds_from_sample)
+
         if t.name == "struct":
-            out["properties"] = {c.name: node(c, mode) for c in plan.children}
+            out["properties"] = {c.name: kid(c) for c in plan.children}
             required = [c.name for c in plan.children if c.required]
             if required:
                 out["required"] = required
         elif t.name == "list":
-            out["items"] = node(plan.children[0], mode)
+            out["items"] = kid(plan.children[0])
         elif t.name == "map":  # a map is an object of its entries: the value's schema (nulls included)
-            out["additionalProperties"] = node(plan.children[1], mode)
+            out["additionalProperties"] = kid(plan.children[1])
+    notes = []
     if t.name == "duration" and plan.rule != "keep_as_json_text":  # JSON has no duration of its own
-        out["description"] = f"{t.key()}: an integer count of {_UNIT_NAMES[t.unit or 's']}"
-    out["x-driftline"] = {"arrow": t.key(), "rule": plan.rule}
+        notes.append(f"{t.key()}: an integer count of {_UNIT_NAMES[t.unit or 's']}")
+    seen = observed_note(plan)
+    if seen:
+        notes.append(seen)
+    if notes:
+        out["description"] = "; ".join(notes)
+    out["x-driftline"] = annotation(plan)
     return out
 
 
-def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | None = None) -> dict[str, Any]:
-    """The JSON Schema of one record.
+def json_schema(
+    rec: Recommendation, *, mode: Mode = "permissive", title: str | None = None, bounds_from_sample: bool = False
+) -> dict[str, Any]:
+    """The JSON Schema of one record (bounds_from_sample: maxLength, minimum and maximum from the sample).
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"n": 1}\\n{"n": "2"}\\n')
     >>> s = json_schema(driftline.scan(d).recommend(parse_strings="always"))
-    >>> s["properties"]["n"]["type"], s["properties"]["n"]["maximum"], s["properties"]["n"]["x-driftline"]
-    (['integer', 'string'], 9223372036854775807, {'arrow': 'int64', 'rule': 'parse_integer'})
+    >>> s["properties"]["n"]["type"], s["properties"]["n"]["maximum"], s["properties"]["n"]["x-driftline"]["rule"]
+    (['integer', 'string'], 9223372036854775807, 'parse_integer')
+    >>> s["properties"]["n"]["x-driftline"]["classes"], s["properties"]["n"]["description"]
+    (['integer'], 'observed (not enforced): 2 values; longest string 1 character; numbers from 1 to 1')
     """
     if mode not in ("permissive", "strict"):
         raise ValueError(f"mode must be 'permissive' or 'strict', not {mode!r}")
@@ -194,12 +239,12 @@ def json_schema(rec: Recommendation, *, mode: Mode = "permissive", title: str | 
         "$schema": META_SCHEMA,
         "title": title or f"records of {rec.root}",
         "type": "object",
-        "properties": {p.name: node(p, mode) for p in fields},
+        "properties": {p.name: node(p, mode, bounds_from_sample=bounds_from_sample) for p in fields},
     }
     if required:
         out["required"] = required
     if bare is not None:
-        extra = node(bare, mode)
+        extra = node(bare, mode, bounds_from_sample=bounds_from_sample)
         kinds = extra.pop("type")
         out["type"] = ["object", *(t for t in ([kinds] if isinstance(kinds, str) else kinds) if t != "object")]
         extra.pop("x-driftline")
