@@ -92,6 +92,9 @@ def by_dataset(
     write_inside: bool,
     options: ScanOptions,
     inputs: list[str],
+    *,
+    dialect: str | None = None,
+    flatten: str | None = None,
 ) -> None:
     """One recommendation per dataset, its files written, its summary under a heading `dataset NAME`
     (no heading for a lone dataset); exit 1 when a dataset conflicts under --strict (its files are not
@@ -128,9 +131,10 @@ def by_dataset(
     for name, rec in recs.items():
         for option, _, path in files[name]:
             if option == "--rules":
-                write_output(path, rules_json.dumps(rec))
+                write_output(path, rules_json.dumps(rec, flatten=flatten))
             else:
-                write_output(path, schema_file(rec, to, table=table, json_mode=json_mode))  # type: ignore[arg-type]
+                data = schema_file(rec, to, table=table, json_mode=json_mode, dialect=dialect, flatten=flatten)  # type: ignore[arg-type]
+                write_output(path, data)
     for name in landing.datasets:
         if not quiet:
             if several:

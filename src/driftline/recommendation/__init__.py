@@ -18,7 +18,16 @@ from __future__ import annotations
 from driftline.errors import OptionError, SchemaConflictError
 from driftline.recommendation.facts import gather
 from driftline.recommendation.options import RecommendOptions
-from driftline.recommendation.plan import CAUSES, Alternative, Dropped, Effect, FieldPlan, Recommendation, is_conflict
+from driftline.recommendation.plan import (
+    CAUSES,
+    Alternative,
+    Dropped,
+    Effect,
+    FieldPlan,
+    Partition,
+    Recommendation,
+    is_conflict,
+)
 from driftline.recommendation.rules import REGISTRY, Context
 from driftline.results.profile import Profile
 
@@ -29,12 +38,23 @@ __all__ = [
     "Dropped",
     "Effect",
     "FieldPlan",
+    "Partition",
     "RecommendOptions",
     "Recommendation",
     "SchemaConflictError",
     "is_conflict",
     "recommend",
 ]
+
+
+def partitions(profile: Profile) -> tuple[Partition, ...]:
+    """The partition keys of the profile's files, each with its values and the rows that carry it."""
+    out = []
+    for key in profile.partition_keys():
+        having = [f for f in profile.files if key in dict(f.partitions)]
+        values = tuple(sorted({dict(f.partitions)[key] for f in having}))
+        out.append(Partition(key, values, sum(f.rows for f in having)))
+    return tuple(out)
 
 
 def recommend(profile: Profile, *, options: RecommendOptions | None = None, **overrides: object) -> Recommendation:
@@ -66,6 +86,7 @@ def recommend(profile: Profile, *, options: RecommendOptions | None = None, **ov
         fields=fields,
         options=opts,
         dropped=tuple(sorted(ctx.dropped, key=lambda d: d.path)),
+        partitions=partitions(profile),
     )
     if opts.strict and rec.conflicts():
         raise SchemaConflictError(rec)

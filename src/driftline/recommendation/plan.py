@@ -159,6 +159,16 @@ class Dropped:
         return {"path": self.path, "present": self.present, "container": self.container}
 
 
+@dataclass(frozen=True, slots=True)
+class Partition:
+    """A partition key of the files (key=value folders): its values (sorted), and the rows of
+    the files that carry it (the rest have no value for it)."""
+
+    key: str
+    values: tuple[str, ...]
+    rows: int
+
+
 @dataclass(frozen=True)
 class Recommendation:
     """The unified schema: one plan per top-level field (sorted by name), plus what was dropped.
@@ -176,6 +186,7 @@ class Recommendation:
     fields: tuple[FieldPlan, ...]
     options: RecommendOptions
     dropped: tuple[Dropped, ...] = ()
+    partitions: tuple[Partition, ...] = ()  # the files' partition keys, in order of first appearance
 
     def walk(self) -> Iterator[FieldPlan]:
         """Every plan, top-level fields first, each followed by the plans below it."""
