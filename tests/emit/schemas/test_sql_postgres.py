@@ -12,13 +12,13 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from test_sql import _applied, scan_nulls, staged
 
 import _postgres
 import driftline
 from _orders import make_orders
 from driftline.emit.schemas import sql
 from driftline.recommendation import Recommendation
-from test_sql import _applied, scan_nulls, staged
 
 
 @pytest.fixture(scope="module")
@@ -53,7 +53,9 @@ def test_the_demo_loads_in_postgres_with_the_scans_counts(postgres: str, demo_di
         (count,) = con.execute('SELECT count(*) FROM "readings"').fetchone()
         assert count == rec.rows == demo_profile.rows
         q = ", ".join(f'count(*) - count("{c.name}")' for c in lay.columns)
-        nulls = dict(zip([c.name for c in lay.columns], con.execute(f'SELECT {q} FROM "readings"').fetchone()))
+        nulls = dict(
+            zip([c.name for c in lay.columns], con.execute(f'SELECT {q} FROM "readings"').fetchone(), strict=True)
+        )
         assert nulls == scan_nulls(demo_profile, rec, lay)
         types = dict(
             con.execute(
