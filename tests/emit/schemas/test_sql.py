@@ -387,3 +387,46 @@ def test_reserved_words_are_quoted_in_every_dialect(tmp_path: Path):
         assert con.execute('SELECT "order", "select" FROM "table"').fetchall() == [(1, "x")]
     for d in sql.DIALECTS:
         assert len(sqlglot.parse(sql.script(rec, "table", dialect=d), read=d)) == 3
+
+
+# -- the command line -----------------------------------------------------------------------------
+
+
+def _cli(*args: object) -> Any:
+    from typer.testing import CliRunner
+
+    from driftline.cli.app import app
+
+    return CliRunner().invoke(app, [*map(str, args), "--jobs", "1"])
+
+
+def test_dialect_and_flatten_on_the_command_line(tmp_path: Path):
+    src = tmp_path / "in"
+    src.mkdir()
+    (src / "a.jsonl").write_text('{"Id": 1, "id": 2, "gps": {"alt": 3}, "gps__alt": 4}\n')
+    out, rules = tmp_path / "t.sql", tmp_path / "rules.json"
+    res = _cli(
+        "schema", src, "--to", "sql", "--dialect", "spark", "--flatten", "__", "--out", out, "--rules", rules, "-q"
+    )
+    assert res.exit_code == 0, res.output
+    rec = driftline.scan(src).recommend()
+    assert out.read_text() == sql.script(rec, "in", dialect="spark", flatten="__")
+    assert json.loads(rules.read_text())["renames"] == rules_json.rules_document(rec, flatten="__")["renames"]
+    assert [(r["from"], r["to"]) for r in json.loads(rules.read_text())["renames"]] == [
+        ("gps__alt", "gps__alt_2"),
+        ("id", "id_2"),
+    ]
+    assert "`gps__alt_2` BIGINT" in out.read_text() and "`id_2` BIGINT" in out.read_text()
+
+
+@pytest.mark.parametrize(
+    ("flags", "message"),
+    [
+        (["--dialect", "oracle"], "error: unknown SQL dialect 'oracle'; choose one of duckdb, postgres, spark"),
+        (["--flatten", "."], "error: bad --flatten separator: '.' holds a character outside A-Z a-z 0-9 _"),
+    ],
+)
+def test_a_bad_dialect_or_separator_is_a_usage_error(tmp_path: Path, flags: list[str], message: str):
+    (tmp_path / "a.jsonl").write_text('{"x": 1}\n')
+    res = _cli("schema", tmp_path / "a.jsonl", "--to", "sql", *flags, "-q")
+    assert res.exit_code == 2 and message in res.output
