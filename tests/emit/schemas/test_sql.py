@@ -212,6 +212,7 @@ def test_partition_keys_become_partition_columns(demo_profile, dialect: str, par
     create = _creates(text, dialect)["t"]
     found = create.find(exp.PartitionedByProperty)
     flat = " ".join(text.split())
+    assert re.search(r"region.? \w+, /\* partition key 'region' of the folder names \*/", text)
     if partitioned is None:
         assert found is None and "-- Partition columns (from key=value folders): region, day" in text
     else:
@@ -281,7 +282,7 @@ def test_keys_that_differ_by_case_or_hold_dots_and_spaces_load_in_duckdb(tmp_pat
         duckdb.connect().execute(text)  # the file as written creates both tables in DuckDB
         renames = {(r.path, r.name, r.to) for r in lay.renames}
         for r in lay.renames:
-            assert f"--   {r.path}: {r.name!r} -> {r.to!r} ({r.why})" in text
+            assert f"--   {r.path!r}: {r.name!r} -> {r.to!r} ({r.why})" in text
         doc = rules_json.rules_document(rec, flatten=flatten)
         assert {(r["path"], r["from"], r["to"]) for r in doc["renames"]} == renames
         schema = json.loads((ROOT / "docs" / "rules.schema.json").read_text(encoding="utf-8"))
@@ -430,3 +431,19 @@ def test_a_bad_dialect_or_separator_is_a_usage_error(tmp_path: Path, flags: list
     (tmp_path / "a.jsonl").write_text('{"x": 1}\n')
     res = _cli("schema", tmp_path / "a.jsonl", "--to", "sql", *flags, "-q")
     assert res.exit_code == 2 and message in res.output
+
+
+def test_names_and_folder_names_cannot_end_a_comment(tmp_path: Path):
+    # A line break in a field name or a partition folder's key would end a -- comment: they are
+    # written as Python literals, so the file stays three statements.
+    part = tmp_path / "k\ney=1"
+    part.mkdir()
+    (part / "a.jsonl").write_text(json.dumps({"a\nDROP TABLE t; --": 1, "*/ x": 2}) + "\n")
+    rec = driftline.scan(tmp_path).recommend()
+    for d in sql.DIALECTS:
+        text = sql.script(rec, "t", dialect=d)
+        assert [type(e).__name__ for e in sql.parses(text, d)] == ["Create", "Create", "Insert"]
+    con = duckdb.connect()
+    lay = _load(con, rec, tmp_path, "t")
+    assert [c.name for c in lay.columns] == ["___x", "a_DROP_TABLE_t____", "k_ey"]
+    assert con.execute('SELECT * FROM "t"').fetchall() == [(2, 1, 1)]

@@ -276,7 +276,8 @@ def stand_in(t: DType) -> str | None:
 def notes(col: Column) -> list[str]:
     """The comments on a column's line: what stands in for its type, the longest value seen."""
     if col.partition is not None:
-        return [f"partition key {col.partition.key}= of the folder names"]
+        # repr: a folder name may hold anything, a line break or '*/' that would end the comment
+        return [f"partition key {col.partition.key!r} of the folder names".replace("*/", "*\\/")]
     assert col.plan is not None
     out = []
     if not col.nested and (note := stand_in(col.plan.target)):
@@ -629,7 +630,8 @@ def script(
     )
     if not lay.columns:
         return head + "\n" + _NO_COLUMNS
-    renamed = "".join(f"--   {r.path}: {r.name!r} -> {r.to!r} ({r.why})\n" for r in lay.renames)
+    # repr: a field name may hold a line break, which would end the comment
+    renamed = "".join(f"--   {r.path!r}: {r.name!r} -> {r.to!r} ({r.why})\n" for r in lay.renames)
     parts = [c for c in lay.columns if c.partition is not None]
     partitioned = ""
     if parts and _partitioning(lay) is None or parts and PARTITIONING.get(lay.dialect) == "one date":
