@@ -189,6 +189,9 @@ def test_every_dialect_parses_back_to_the_same_column_types(demo_profile, orders
             assert [d.name for d in defs] == [c.name for c in lay.columns]
             for d, c in zip(defs, lay.columns, strict=True):
                 assert d.args["kind"].sql(dialect) == sql.column_type(c, lay).sql(dialect), c.name
+            # and each statement, read back and written again, is the text we wrote (comments included)
+            for part in (sql.create_table(rec, "t", lay), sql.insert_select(rec, "t", lay)):
+                assert sqlglot.parse_one(part, read=dialect).sql(dialect, pretty=True, identify=True) + ";\n" == part
             (insert,) = [e for e in sql.parses(text, dialect) if isinstance(e, exp.Insert)]
             assert len(insert.expression.expressions) == len(lay.columns)
             # no length taken from the sample, in any dialect (issue 19: contracts, not snapshots)
