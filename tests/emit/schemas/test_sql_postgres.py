@@ -107,3 +107,14 @@ def test_unparsed_text_is_null_in_postgres(postgres: str, tmp_path: Path):
     # source: int64 is -2**63 .. 2**63 - 1 (PostgreSQL bigint, manual 8.1.1); common practice: "007" is a
     # code, kept out of a number under leading_zeros = "keep"; 'lots' is no number
     assert got == _applied(tmp_path, rec).column("n").to_pylist() == [*range(40), 2**63 - 1, -(2**63), None, None]
+
+
+@pytest.mark.parametrize(("ci", "outcome"), [("1", pytest.fail.Exception), (None, pytest.skip.Exception)])
+def test_a_missing_server_fails_under_ci_and_skips_elsewhere(monkeypatch: pytest.MonkeyPatch, ci, outcome):
+    if ci is None:
+        monkeypatch.delenv("CI", raising=False)
+    else:
+        monkeypatch.setenv("CI", ci)
+    monkeypatch.setattr(_postgres, "_bin", lambda name: None)  # as on a machine without the package
+    with pytest.raises(outcome, match="PostgreSQL is not available: no initdb or pg_ctl"), _postgres.server():
+        pass
