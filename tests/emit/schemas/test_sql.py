@@ -450,3 +450,25 @@ def test_names_and_folder_names_cannot_end_a_comment(tmp_path: Path):
     lay = _load(con, rec, tmp_path, "t")
     assert [c.name for c in lay.columns] == ["___x", "a_DROP_TABLE_t____", "k_ey"]
     assert con.execute('SELECT * FROM "t"').fetchall() == [(2, 1, 1)]
+
+
+def test_a_json_file_with_keys_duck_and_Duck_gives_a_file_duckdb_runs(tmp_path: Path):
+    # Issue 19, tried as a new user would: a JSON file (an array of objects) whose keys differ by
+    # case or hold a dot or a space. DuckDB refused the file before ('Column with name "duck"
+    # already exists!', test_the_engines_are_the_checks_we_say); now it runs it as written.
+    src = tmp_path / "in"
+    src.mkdir()
+    records = [{"duck": 1, "Duck": "a", "a.b": 2.5, "a b": True}, {"duck": 2, "Duck": "bb", "a.b": None, "a b": False}]
+    (src / "keys.json").write_text(json.dumps(records))
+    out = tmp_path / "keys.sql"
+    assert _cli("schema", src, "--to", "sql", "--table", "keys", "--out", out, "-q").exit_code == 0
+    con = duckdb.connect()
+    con.execute(out.read_text())
+    # source: DuckDB's own description of the table it created
+    assert [r[:2] for r in con.execute('DESCRIBE "keys"').fetchall()] == [
+        ("Duck", "VARCHAR"),
+        ("a_b", "BOOLEAN"),
+        ("a_b_2", "DOUBLE"),
+        ("duck_2", "BIGINT"),
+    ]
+    assert '"Duck" TEXT NOT NULL, /* longest value seen: 2 characters */' in out.read_text()

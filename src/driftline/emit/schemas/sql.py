@@ -35,6 +35,7 @@ from sqlglot import exp
 
 from driftline.core.lattice import DType
 from driftline.core.marker import remark
+from driftline.core.words import count
 from driftline.emit.schemas.names import Rename, check_separator, distinct
 from driftline.errors import OptionError
 from driftline.observe.textclass import INT64_MAX, INT64_MIN, NULL_TOKENS
@@ -284,7 +285,7 @@ def notes(col: Column) -> list[str]:
         out.append(note)
     if col.plan.max_chars is not None and (col.plan.target.name == "string" or col.plan.rule in JSON_TEXT_RULES):
         what = "JSON text" if col.plan.rule in JSON_TEXT_RULES or col.plan.target.name != "string" else "value"
-        out.append(f"longest {what} seen: {col.plan.max_chars:,} characters")
+        out.append(f"longest {what} seen: {count(col.plan.max_chars, 'character')}")
     return out
 
 
