@@ -472,3 +472,18 @@ def test_a_json_file_with_keys_duck_and_Duck_gives_a_file_duckdb_runs(tmp_path: 
         ("duck_2", "BIGINT"),
     ]
     assert '"Duck" TEXT NOT NULL, /* longest value seen: 2 characters */' in out.read_text()
+
+
+@pytest.mark.parametrize("flatten", [None, "__"])
+def test_an_empty_struct_is_json(tmp_path: Path, flatten: str | None):
+    # No engine has a struct type without fields (Spark, BigQuery and Trino need at least one).
+    (tmp_path / "a.jsonl").write_text('{"e": {}, "m": [{}], "x": 1}\n{"e": {}, "m": [], "x": 2}\n')
+    rec = driftline.scan(tmp_path).recommend()
+    con = duckdb.connect()
+    lay = _load(con, rec, tmp_path, "t", flatten=flatten)
+    types = dict(
+        con.execute("SELECT column_name, data_type FROM information_schema.columns WHERE table_name = 't'").fetchall()
+    )
+    assert types == {"e": "JSON", "m": "JSON[]", "x": "BIGINT"}  # source: DuckDB's type names
+    assert con.execute('SELECT "e", "m" FROM "t"').fetchall() == [("{}", ["{}"]), ("{}", [])]
+    assert [c.name for c in lay.columns] == ["e", "m", "x"]

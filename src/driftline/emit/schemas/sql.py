@@ -119,7 +119,8 @@ class Layout:
 
 
 def _kept_whole(plan: FieldPlan) -> bool:
-    return plan.target.name == "struct" and plan.rule != "keep_as_json_text"
+    """A struct with fields (one without any is JSON: no engine has an empty struct type)."""
+    return plan.target.name == "struct" and plan.rule != "keep_as_json_text" and bool(plan.children)
 
 
 def layout(rec: Recommendation, dialect: str = DEFAULT_DIALECT, flatten: str | None = None) -> Layout:
@@ -207,7 +208,7 @@ def data_type(plan: FieldPlan, lay: Layout, bounds: bool = False) -> exp.DataTyp
     """The SQL type of a plan's target in the layout's dialect (as a sqlglot tree)."""
     t = plan.target
     n = t.name
-    if plan.rule == "keep_as_json_text" or n == "map":
+    if plan.rule == "keep_as_json_text" or n == "map" or (n == "struct" and not plan.children):
         return json_type(lay.dialect)
     if n in ("struct", "list"):
         if not lay.nesting:
