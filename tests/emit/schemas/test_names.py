@@ -11,6 +11,8 @@ import sqlite3
 
 import duckdb
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from driftline.emit.schemas.names import MAX_NAME, Rename, check_separator, distinct, plain
 
@@ -63,3 +65,16 @@ def test_a_name_the_rule_leaves_alone_keeps_its_case():
 )
 def test_flatten_separators(sep: str, why: str | None):
     assert check_separator(sep) == why
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.text(max_size=80), max_size=12))
+def test_any_names_come_out_valid_distinct_and_listed(names: list[str]):
+    new, renames = distinct(names)
+    assert len(new) == len(names)
+    assert all(re.fullmatch(r"[A-Za-z_][A-Za-z0-9_]{0,62}", n) for n in new)
+    assert len({n.lower() for n in new}) == len(new)
+    # every change is listed, in order, and nothing else is
+    assert [(r.name, r.to) for r in renames] == [(a, b) for a, b in zip(names, new, strict=True) if a != b]
+    # the rule leaves its own output alone
+    assert distinct(new) == (new, [])
