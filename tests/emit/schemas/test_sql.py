@@ -487,3 +487,20 @@ def test_an_empty_struct_is_json(tmp_path: Path, flatten: str | None):
     assert types == {"e": "JSON", "m": "JSON[]", "x": "BIGINT"}  # source: DuckDB's type names
     assert con.execute('SELECT "e", "m" FROM "t"').fetchall() == [("{}", ["{}"]), ("{}", [])]
     assert [c.name for c in lay.columns] == ["e", "m", "x"]
+
+
+def test_local_times_in_a_named_zone(orders: Path):
+    # source: the IANA zone database as pyarrow's assume_timezone (apply) and DuckDB's ICU read it:
+    # local times in Europe/Berlin become the same instants in both.
+    rec = driftline.scan(orders).recommend(timestamp_zone="Europe/Berlin")
+    assert rec.plan("created").target.key() == "timestamp[us, Europe/Berlin]" and rec.plan("created").effect(
+        "assumed_zone"
+    )
+    con = duckdb.connect()
+    con.execute("SET TimeZone = 'UTC'")
+    _load(con, rec, orders, "t")
+    got = [r[0] for r in con.execute('SELECT "created" FROM "t"').fetchall()]
+    assert got == _applied(orders, rec).column("created").to_pylist()
+    for d in sql.DIALECTS:  # every dialect's spelling reads back
+        text = sql.script(rec, "t", dialect=d)
+        assert [type(e).__name__ for e in sql.parses(text, d)] == ["Create", "Create", "Insert"]

@@ -118,3 +118,13 @@ def test_a_missing_server_fails_under_ci_and_skips_elsewhere(monkeypatch: pytest
     monkeypatch.setattr(_postgres, "_bin", lambda name: None)  # as on a machine without the package
     with pytest.raises(outcome, match="PostgreSQL is not available: no initdb or pg_ctl"), _postgres.server():
         pass
+
+
+def test_local_times_in_a_named_zone_in_postgres(postgres: str, tmp_path: Path):
+    # source: PostgreSQL's timestamp AT TIME ZONE (manual 9.9.4) against pyarrow's assume_timezone
+    orders = make_orders(tmp_path / "orders")
+    rec = driftline.scan(orders).recommend(timestamp_zone="Europe/Berlin")
+    con, _ = _load_postgres(postgres, rec, orders, "zoned")
+    with con:
+        got = [r[0] for r in con.execute('SELECT "created" FROM "zoned"').fetchall()]
+    assert got == _applied(orders, rec).column("created").to_pylist()

@@ -515,15 +515,29 @@ def _timestamp(x: exp.Expr, plan: FieldPlan, t: DType, to: exp.DataType, dialect
     zone = t.tz
     assert zone is not None
     if not zone_is_fixed(zone):
-        # A zone name needs AT TIME ZONE (sqlglot spells it per dialect; sqlite has none).
-        local = exp.AtTimeZone(this=safe_cast(s, exp.DataType.build("TIMESTAMP"), "timestamp", dialect), zone=_s(zone))
-        return _case(zoned, safe_cast(s, to, "timestamp", dialect), local)
+        return _case(zoned, safe_cast(s, to, "timestamp", dialect), _in_zone(s, zone, to, dialect))
     offset = "+00:00" if zone in ("UTC", "Etc/UTC", "Z") else zone
     day_only = _case(
         exp.EQ(this=_length(s), expression=_n(10)), exp.DPipe(this=s.copy(), expression=_s(" 00:00:00")), s.copy()
     )
     local_text = exp.DPipe(this=day_only, expression=_s(offset))
     return safe_cast(_case(zoned, s.copy(), local_text), to, "timestamp", dialect)
+
+
+def _in_zone(s: exp.Expr, zone: str, to: exp.DataType, dialect: str) -> exp.Expr:
+    """A local time read in a named zone, as an instant: each engine has its own function for it."""
+    naive = safe_cast(s, exp.DataType.build("TIMESTAMP"), "timestamp", dialect)
+    if dialect in ("duckdb", "postgres"):  # timestamp AT TIME ZONE zone: the local time there (PostgreSQL 9.9.4)
+        return exp.AtTimeZone(this=naive, zone=_s(zone))
+    if dialect == "trino":  # with_timezone(timestamp, zone)
+        return exp.func("WITH_TIMEZONE", naive, _s(zone))
+    if dialect == "bigquery":  # TIMESTAMP(datetime, zone)
+        return exp.Timestamp(this=naive, zone=_s(zone))
+    if dialect in ("spark", "snowflake"):  # convert_timezone(source, 'UTC', local): UTC wall time, then the instant
+        utc = exp.func("CONVERT_TIMEZONE", _s(zone), _s("UTC"), naive)
+        text = exp.DPipe(this=exp.Cast(this=utc, to=exp.DataType.build("TEXT")), expression=_s("+00:00"))
+        return safe_cast(text, to, "timestamp", dialect)
+    return safe_cast(s, to, "timestamp", dialect)  # sqlite has no zone database: read as UTC
 
 
 def _from_json(v: exp.Expr, to: exp.DataType, lay: Layout) -> exp.Expr:
