@@ -201,9 +201,19 @@ class Recommendation(_RecommendationValue):
             self, "json-schema", table=title, json_mode=mode, bounds_from_sample=bounds_from_sample
         ).decode()
 
-    def to_sql(self, *, table: str | None = None) -> str:
-        """The SQL script `--to sql --table TABLE` writes: CREATE TABLE, a staging table, and the
-        cast rules as INSERT … SELECT (table defaults to the root folder's name).
+    def to_sql(
+        self,
+        *,
+        table: str | None = None,
+        dialect: str | None = None,
+        flatten: str | None = None,
+        bounds_from_sample: bool = False,
+    ) -> str:
+        """The SQL script `--to sql --table TABLE --dialect DIALECT --flatten SEP` writes: CREATE TABLE,
+        a staging table, and the cast rules as INSERT … SELECT (table defaults to the root folder's
+        name, dialect to duckdb; flatten makes each struct field a column of its own, its names
+        joined by the separator; bounds_from_sample writes VARCHAR(n) of the longest value seen).
+        OptionError for an unknown dialect or a bad separator.
 
         >>> import driftline, tempfile, pathlib
         >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
@@ -214,7 +224,9 @@ class Recommendation(_RecommendationValue):
         """
         from driftline.emit.schemas.files import schema_file as _schema_file
 
-        return _schema_file(self, "sql", table=table).decode()
+        return _schema_file(
+            self, "sql", table=table, dialect=dialect, flatten=flatten, bounds_from_sample=bounds_from_sample
+        ).decode()
 
     def to_avro(self, *, name: str | None = None) -> str:
         """The Avro schema `--to avro --table NAME` writes, as JSON text (name: the record's,
@@ -276,9 +288,12 @@ class Recommendation(_RecommendationValue):
         *,
         table: str | None = None,
         json_mode: _JsonMode | None = None,
+        dialect: str | None = None,
+        flatten: str | None = None,
         bounds_from_sample: bool = False,
     ) -> None:
-        """Write one file as `driftline schema --to TO --out PATH` (or `--rules PATH` for to="rules") does.
+        """Write one file as `driftline schema --to TO --out PATH` (or `--rules PATH` for to="rules") does
+        (dialect and flatten: as to_sql; flatten also names the renames of the rules file).
 
         The file is replaced atomically ('-' is standard output; see README, "Where outputs
         go"); OutputError when it cannot be written, OptionError for an unknown format.
@@ -291,7 +306,16 @@ class Recommendation(_RecommendationValue):
         """
         from driftline.emit.schemas.files import write_file as _write_file
 
-        _write_file(self, path, to, table=table, json_mode=json_mode, bounds_from_sample=bounds_from_sample)
+        _write_file(
+            self,
+            path,
+            to,
+            table=table,
+            json_mode=json_mode,
+            dialect=dialect,
+            flatten=flatten,
+            bounds_from_sample=bounds_from_sample,
+        )
 
 
 @_dataclasses.dataclass(frozen=True)

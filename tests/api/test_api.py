@@ -510,4 +510,4 @@ def test_docs_python_md_session_runs_as_written(tmp_path: Path, monkeypatch: pyt
     test = parser.get_doctest(text, {}, "docs/python.md", "docs/python.md", 0)
     runner = doctest.DocTestRunner(optionflags=doctest.ELLIPSIS)
     runner.run(test)
-    assert runner.summarize(verbose=False) == (0, 46)  # docs/python.md holds 46 examples
+    assert runner.summarize(verbose=False) == (0, 47)  # docs/python.md holds 47 examples

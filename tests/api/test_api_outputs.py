@@ -86,6 +86,12 @@ CASES = [
     ("json-schema", ["--table", "raw"], lambda r: r.to_json_schema(title="raw").encode()),
     ("sql", [], lambda r: r.to_sql().encode()),
     ("sql", ["--table", "raw_readings"], lambda r: r.to_sql(table="raw_readings").encode()),
+    (
+        "sql",
+        ["--dialect", "postgres", "--flatten", "__"],
+        lambda r: r.to_sql(dialect="postgres", flatten="__").encode(),
+    ),
+    ("sql", ["--dialect", "bigquery"], lambda r: r.to_sql(dialect="bigquery").encode()),
     ("avro", [], lambda r: r.to_avro().encode()),
     ("avro", ["--table", "pm2.5 readings"], lambda r: r.to_avro(name="pm2.5 readings").encode()),
     ("arrow", [], lambda r: r.to_arrow_ipc()),
@@ -101,9 +107,18 @@ def test_recommendation_gives_the_file_schema_writes(scanned: Path, tmp_path: Pa
     run("schema", str(scanned / "r.json"), "--to", to, "--out", str(out), *flags, "-q")
     rec = driftline.load_report(scanned / "r.json").recommend()
     assert call(rec) == out.read_bytes()
-    table = flags[1] if flags[:1] == ["--table"] else None
-    mode = flags[1] if flags[:1] == ["--json-mode"] else None
-    rec.write(tmp_path / "api.out", to, table=table, json_mode=mode, bounds_from_sample="--bounds-from-sample" in flags)
+    bounds = "--bounds-from-sample" in flags
+    flags = [f for f in flags if f != "--bounds-from-sample"]
+    given = dict(zip(flags[::2], flags[1::2], strict=True))
+    rec.write(
+        tmp_path / "api.out",
+        to,
+        table=given.get("--table"),
+        json_mode=given.get("--json-mode"),
+        dialect=given.get("--dialect"),
+        flatten=given.get("--flatten"),
+        bounds_from_sample=bounds,
+    )
     assert (tmp_path / "api.out").read_bytes() == out.read_bytes()
 
 

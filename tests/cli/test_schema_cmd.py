@@ -11,6 +11,7 @@ import sys
 from pathlib import Path
 
 import avro.schema
+import duckdb
 import pyarrow as pa
 import pytest
 from jsonschema import Draft202012Validator
@@ -58,10 +59,32 @@ def test_each_format_passes_its_reference_reader(report: Path, tmp_path: Path):
     Draft202012Validator.check_schema(json.loads(files["json-schema"].read_text()))
     schema = pa.ipc.read_schema(pa.py_buffer(files["arrow"].read_bytes()))
     assert schema.field("pm25").type == pa.float64()
-    con = sqlite3.connect(":memory:")
-    con.executescript(files["sql"].read_text())
-    columns = [r[1] for r in con.execute('PRAGMA table_info("raw_readings")')]
-    assert columns[:2] == ["battery.charge_cycles", "battery.level"]
+    # the default dialect is DuckDB's, which runs it; --dialect sqlite flattened, sqlite's
+    con = duckdb.connect()
+    con.execute(files["sql"].read_text())
+    assert [r[0] for r in con.execute('DESCRIBE "raw_readings"').fetchall()][:2] == ["battery", "battery_level"]
+    lite = tmp_path / "lite.sql"
+    res = run(
+        "schema",
+        str(report),
+        "--to",
+        "sql",
+        "--dialect",
+        "sqlite",
+        "--flatten",
+        "__",
+        "--table",
+        "raw_readings",
+        "--out",
+        str(lite),
+        "-q",
+    )
+    assert res.returncode == 0, res.stderr
+    con3 = sqlite3.connect(":memory:")
+    con3.executescript(lite.read_text())
+    columns = [r[1] for r in con3.execute('PRAGMA table_info("raw_readings")')]
+    assert columns[:2] == ["battery__charge_cycles", "battery__level"]
+    lite.unlink()
     parsed = avro.schema.parse(files["avro"].read_text())
     assert parsed.name == "raw_readings"
     assert sorted(os.listdir(tmp_path)) == sorted(p.name for p in files.values())  # no temporary files left

@@ -103,19 +103,21 @@ def _check_everything(root: Path, *, avro_round_trip: bool = True) -> Recommenda
         buf.seek(0)
         assert _same(list(fastavro.reader(buf)), data)
 
-    rows = [r for b in raw_batches(root) for r in sql.staging_rows(b.batch, rec)]
-    names = [c.name for c in sql.columns(rec)]
-    for con in (duckdb.connect(), sqlite3.connect(":memory:")):
-        con.execute(sql.create_table(rec, "t"))
-        con.execute(sql.create_staging(rec, "t"))
+    batches = list(raw_batches(root))
+    for con, dialect in ((duckdb.connect(), "duckdb"), (sqlite3.connect(":memory:"), "sqlite")):
+        lay = sql.layout(rec, dialect)
+        rows = [r for b in batches for r in sql.staging_rows(b.batch, rec, lay, file=b.file)]
+        names = [c.name for c in lay.columns]
+        con.execute(sql.create_table(rec, "t", lay))
+        con.execute(sql.create_staging(rec, "t", lay))
         if not names:
             continue
         if isinstance(con, duckdb.DuckDBPyConnection):
             staged = pa.table({f"c{i}": pa.array([r[i] for r in rows], pa.string()) for i in range(len(names))})  # noqa: F841
             con.execute('INSERT INTO "t_staging" SELECT * FROM staged')
         else:
-            con.executemany(sql.staging_insert(rec, "t"), rows)
-        con.execute(sql.insert_select(rec, "t"))
+            con.executemany(sql.staging_insert(rec, "t", lay), rows)
+        con.execute(sql.insert_select(rec, "t", lay))
         assert con.execute('SELECT count(*) FROM "t"').fetchone() == (rec.rows,)
     return rec
 

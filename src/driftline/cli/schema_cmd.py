@@ -6,6 +6,7 @@ import os
 import sys
 from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 import typer
 from rich.console import Console
@@ -22,6 +23,7 @@ from driftline.emit.landing_text import one_table_note
 from driftline.emit.safe import safe_text
 from driftline.emit.schemas import rules_json, summary
 from driftline.emit.schemas.files import FORMATS, schema_file
+from driftline.emit.schemas.sql import DEFAULT_DIALECT, DIALECTS, check_dialect, check_flatten
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError, OptionError, OutputError, PolicyError
 from driftline.gate.dataset_diff import is_report_set
@@ -42,6 +44,8 @@ Examples:
   driftline schema landing/ --to arrow --out landing.arrow-schema
 
   driftline schema landing/ --to sql --table raw_readings --out create.sql
+
+  driftline schema landing/ --to sql --dialect postgres --flatten __
 
   driftline schema landing/ --to avro --out landing.avsc
 
@@ -140,6 +144,19 @@ def schema_command(
     table: str | None = typer.Option(
         None, "--table", metavar="NAME", help="Table name (SQL) or record name (Avro); default: the root folder's name."
     ),
+    dialect: str | None = typer.Option(
+        None,
+        "--dialect",
+        metavar="NAME",
+        help=f"SQL dialect of --to sql: {', '.join(DIALECTS)} (default {DEFAULT_DIALECT}).",
+    ),
+    flatten: str | None = typer.Option(
+        None,
+        "--flatten",
+        metavar="SEP",
+        help="--to sql: each struct field a column of its own, its names joined by SEP (gps__alt with __); "
+        "default: struct columns.",
+    ),
     rules: str | None = typer.Option(
         None, "--rules", metavar="FILE|DIR/|-", help="Write the cast rules as JSON (DIR/: one file per dataset)."
     ),
@@ -213,6 +230,10 @@ def schema_command(
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
         raise PolicyError(f"unknown --json-mode {json_mode!r}; choose permissive or strict")
+    if dialect is not None:
+        check_dialect(dialect)
+    check_flatten(flatten)
+    sql: dict[str, Any] = {"dialect": dialect, "flatten": flatten, "bounds_from_sample": bounds_from_sample}
     from_set = not one_table and len(paths) == 1 and is_report_set(paths[0])
     several = not one_table and (_one_folder(paths) or from_set)
     if dataset and not several:
@@ -245,22 +266,11 @@ def schema_command(
     console = err_console if to_stdout else Console(highlight=False)
     if not several:
         rec = _recommended(lambda: driftline.recommend(paths, options=opts, scan_options=options), console, quiet)
-        return _write_one(rec, to, targets, table, json_mode, console, quiet, bounds_from_sample)
+        return _write_one(rec, to, targets, table, json_mode, console, quiet, **sql)
     if from_set:  # a saved report set (`driftline scan ROOT --json FILE`): its datasets as they were read
         landing = picked_from_set(driftline.load_report_set(paths[0]), dataset or None, options)
         return by_dataset(
-            landing,
-            opts,
-            to,
-            targets,
-            table,
-            json_mode,
-            console,
-            quiet,
-            write_inside,
-            options,
-            paths,
-            bounds_from_sample=bounds_from_sample,
+            landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths, **sql
         )
     # One root folder: split into datasets as `driftline scan` does (the verb is that library call).
     landing = driftline.scan_datasets(paths[0], dataset=dataset or None, whole_if_one=True, options=options)
@@ -278,21 +288,8 @@ def schema_command(
         if all_failed(whole):
             raise InputPathError(f"nothing readable: {whole.unread_text()} (driftline scan shows the problems)")
         rec = _recommended(lambda: driftline.recommend(whole, options=opts), console, quiet)
-        return _write_one(rec, to, targets, table, json_mode, console, quiet, bounds_from_sample)
-    by_dataset(
-        landing,
-        opts,
-        to,
-        targets,
-        table,
-        json_mode,
-        console,
-        quiet,
-        write_inside,
-        options,
-        paths,
-        bounds_from_sample=bounds_from_sample,
-    )
+        return _write_one(rec, to, targets, table, json_mode, console, quiet, **sql)
+    by_dataset(landing, opts, to, targets, table, json_mode, console, quiet, write_inside, options, paths, **sql)
 
 
 def _one_folder(paths: list[str]) -> bool:
@@ -323,6 +320,9 @@ def _write_one(
     json_mode: str | None,
     console: Console,
     quiet: bool,
+    *,
+    dialect: str | None = None,
+    flatten: str | None = None,
     bounds_from_sample: bool = False,
 ) -> None:
     if to is not None and targets.out is not None:
@@ -331,11 +331,13 @@ def _write_one(
             to,  # type: ignore[arg-type]
             table=table,
             json_mode=json_mode,  # type: ignore[arg-type]
+            dialect=dialect,
+            flatten=flatten,
             bounds_from_sample=bounds_from_sample,
         )
         write_output(targets.out, data)
     if targets.rules is not None:
-        write_output(targets.rules, rules_json.dumps(rec))
+        write_output(targets.rules, rules_json.dumps(rec, flatten=flatten))
     if not quiet:
         summary.render(rec, console)
         for target, what in ((targets.out, to), (targets.rules, "cast rules")):

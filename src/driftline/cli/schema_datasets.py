@@ -93,6 +93,8 @@ def by_dataset(
     options: ScanOptions,
     inputs: list[str],
     *,
+    dialect: str | None = None,
+    flatten: str | None = None,
     bounds_from_sample: bool = False,
 ) -> None:
     """One recommendation per dataset, its files written, its summary under a heading `dataset NAME`
@@ -130,18 +132,18 @@ def by_dataset(
     for name, rec in recs.items():
         for option, _, path in files[name]:
             if option == "--rules":
-                write_output(path, rules_json.dumps(rec))
+                write_output(path, rules_json.dumps(rec, flatten=flatten))
             else:
-                write_output(
-                    path,
-                    schema_file(
-                        rec,
-                        to,  # type: ignore[arg-type]
-                        table=table,
-                        json_mode=json_mode,  # type: ignore[arg-type]
-                        bounds_from_sample=bounds_from_sample,
-                    ),
+                data = schema_file(
+                    rec,
+                    to,  # type: ignore[arg-type]
+                    table=table,
+                    json_mode=json_mode,  # type: ignore[arg-type]
+                    dialect=dialect,
+                    flatten=flatten,
+                    bounds_from_sample=bounds_from_sample,
                 )
+                write_output(path, data)
     for name in landing.datasets:
         if not quiet:
             if several:

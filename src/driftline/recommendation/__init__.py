@@ -30,6 +30,7 @@ __all__ = [
     "Dropped",
     "Effect",
     "FieldPlan",
+    "Partition",
     "RecommendOptions",
     "Recommendation",
     "SchemaConflictError",

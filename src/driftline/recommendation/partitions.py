@@ -18,11 +18,13 @@ from driftline.observe.textclass import class_of
 
 @dataclass(frozen=True, slots=True)
 class PartitionColumn:
-    """One partition key: its name, the type of its values, and the values seen (sorted)."""
+    """One partition key: its name, the type of its values, the values seen (sorted), and the
+    rows of the files that carry it (the rest have no value for it)."""
 
     name: str
     type: DType
     values: tuple[str, ...]
+    rows: int = 0
 
 
 def _type(values: Sequence[str]) -> DType:
@@ -39,11 +41,12 @@ def partition_columns(files: Sequence[FileResult], keys: Sequence[str]) -> tuple
 
     >>> f = FileResult("day=2026-11-27/region=1/a", "jsonl", None, (("day", "2026-11-27"), ("region", "1")), 0, 0)
     >>> cols = partition_columns([f], ["day", "region"])
-    >>> [(c.name, c.type.key(), c.values) for c in cols]
-    [('day', 'date32', ('2026-11-27',)), ('region', 'int64', ('1',))]
+    >>> [(c.name, c.type.key(), c.values, c.rows) for c in cols]
+    [('day', 'date32', ('2026-11-27',), 0), ('region', 'int64', ('1',), 0)]
     """
     out = []
     for key in keys:
-        values = sorted({v for f in files for k, v in f.partitions if k == key})
-        out.append(PartitionColumn(key, _type(values), tuple(values)))
+        having = [(dict(f.partitions)[key], f.rows) for f in files if key in dict(f.partitions)]
+        values = sorted({v for v, _ in having})
+        out.append(PartitionColumn(key, _type(values), tuple(values), sum(n for _, n in having)))
     return tuple(out)

@@ -37,14 +37,17 @@ def schema_file(
     *,
     table: str | None = None,
     json_mode: JsonMode | None = None,
+    dialect: str | None = None,
+    flatten: str | None = None,
     bounds_from_sample: bool = False,
 ) -> bytes:
     """The file `driftline schema --to TO [--table TABLE] [--json-mode MODE] [--bounds-from-sample]` writes.
 
     table names the SQL table, the Avro record and the JSON Schema's title (default: the
     root folder's name); json_mode defaults to the recommendation's mode; bounds_from_sample
-    makes the JSON Schema enforce the longest string and the number range seen (by default
-    they are only described).
+    makes the JSON Schema enforce the longest string and the number range seen, and SQL write
+    VARCHAR(n) of the longest value seen (by default they are only described). For SQL, dialect
+    (default duckdb) and flatten (struct fields as columns joined by this separator).
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n')
@@ -65,7 +68,13 @@ def schema_file(
     if to == "arrow-text":
         return arrow_schema.schema_text(rec).encode()
     if to == "sql":
-        return sql_file.script(rec, name).encode()
+        return sql_file.script(
+            rec,
+            name,
+            dialect=dialect or sql_file.DEFAULT_DIALECT,
+            flatten=flatten,
+            bounds_from_sample=bounds_from_sample,
+        ).encode()
     if to == "avro":
         return avro.dumps(avro.avro_schema(rec, name=avro.avro_name(name)))
     if to == "iceberg":
@@ -82,12 +91,21 @@ def write_file(
     *,
     table: str | None = None,
     json_mode: JsonMode | None = None,
+    dialect: str | None = None,
+    flatten: str | None = None,
     bounds_from_sample: bool = False,
 ) -> None:
     """Write a schema file (as schema_file) or, for to="rules", the cast rules file (--rules)."""
-    data = (
-        rules_json.dumps(rec)
-        if to == "rules"
-        else schema_file(rec, to, table=table, json_mode=json_mode, bounds_from_sample=bounds_from_sample)
-    )
+    if to == "rules":
+        data = rules_json.dumps(rec, flatten=flatten)
+    else:
+        data = schema_file(
+            rec,
+            to,
+            table=table,
+            json_mode=json_mode,
+            dialect=dialect,
+            flatten=flatten,
+            bounds_from_sample=bounds_from_sample,
+        )
     write_output(os.fspath(path), data)

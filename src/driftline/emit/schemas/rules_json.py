@@ -16,6 +16,7 @@ from driftline.core.documents import read_json_document
 from driftline.core.stats import example_json
 from driftline.core.validation import check_document
 from driftline.core.version import __version__
+from driftline.emit.schemas.sql import layout
 from driftline.errors import ReportVersionError
 from driftline.recommendation.plan import FieldPlan, Recommendation
 
@@ -71,8 +72,13 @@ def _field(plan: FieldPlan) -> dict[str, Any]:
     return out
 
 
-def rules_document(rec: Recommendation) -> dict[str, Any]:
-    """The rules file as JSON data.
+def renames(rec: Recommendation, flatten: str | None = None) -> list[dict[str, str]]:
+    """The column names the naming rule changed (emit/schemas/names.py), as the SQL file makes them."""
+    return [r.to_json() for r in layout(rec, "duckdb", flatten).renames]
+
+
+def rules_document(rec: Recommendation, *, flatten: str | None = None) -> dict[str, Any]:
+    """The rules file as JSON data (flatten: the renames of the SQL columns flattened with that separator).
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "a.jsonl").write_text('{"x": 1}\\n{"x": 2.5}\\n')
@@ -88,11 +94,12 @@ def rules_document(rec: Recommendation) -> dict[str, Any]:
         "options": rec.options.to_json(),
         "fields": [_field(p) for p in rec.walk()],
         "dropped": [d.to_json() for d in rec.dropped],
+        "renames": renames(rec, flatten),
     }
 
 
-def dumps(rec: Recommendation) -> bytes:
-    return jsonnum.dumps(rules_document(rec), option=orjson.OPT_INDENT_2) + b"\n"
+def dumps(rec: Recommendation, *, flatten: str | None = None) -> bytes:
+    return jsonnum.dumps(rules_document(rec, flatten=flatten), option=orjson.OPT_INDENT_2) + b"\n"
 
 
 def load_rules(path: str | Path) -> dict[str, Any]:
