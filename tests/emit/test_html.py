@@ -591,11 +591,11 @@ def test_what_changed_comes_first_by_level_with_links(demo: dict[str, Any]) -> N
     per_level = {lv: [i for i in listed if i["level"] == lv] for lv in order}
     for lv, items in per_level.items():
         found = [n for n, e in enumerate(events, 1) if e["level"] == lv]
-        assert len(items) == min(len(found), html_report.CHANGES_LISTED), lv
+        assert len(items) == min(len(found), html_report.CHANGES_LISTED[lv]), lv
         # each level's items are its events (the JSON report's numbers), grouped by field as the terminal does
         fields = list(dict.fromkeys(events[n - 1]["path"] for n in found))
         grouped = [n for f in fields for n in found if events[n - 1]["path"] == f]
-        assert [i["n"] for i in items] == grouped[: html_report.CHANGES_LISTED], lv
+        assert [i["n"] for i in items] == grouped[: html_report.CHANGES_LISTED[lv]], lv
         more = len(found) - len(items)
         assert (f"… {more} more {lv} change" in page) == (more > 0)
     charts = dict(re.findall(r'<figure class="chart" id="(chart-\d+)" data-item>\s*<figcaption><code>([^<]*)', page))

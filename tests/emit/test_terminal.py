@@ -36,31 +36,34 @@ def test_demo_events_grouped_by_level_with_counts(demo_profile):
         # (demo/make_demo.py: the CSV export has no battery struct, tags as one string, local
         # timestamps, blank cells); the walk's nulls-begin of temp_c and tags counted the same
         # places: told once.
+        # Each keeps its number in the JSON report's events (scan order), as the HTML does.
         (1, "type-conflict", "tags"),
-        (2, "partition-type", "tags"),
-        (3, "partition-nulls", "tags"),
-        (4, "type-conflict", "pm25"),
-        (5, "textclass-changed", "pm25"),
-        (6, "field-gone", "temp_c"),
-        (7, "partition-nulls", "temp_c"),
-        (8, "textclass-changed", "ts"),
-        (9, "partition-type", "ts"),
-        (10, "nulls-begin", "humidity"),
-        (11, "partition-lacks", "battery"),
-        (12, "nested-new", "battery.charge_cycles"),
-        (13, "type-widened", "pm10"),
-        (14, "field-new", "ingested_at"),
-        (15, "field-new", "battery_level"),
-        (16, "field-new", "battery_voltage"),
-        (17, "field-new", "site_note"),
+        (14, "partition-type", "tags"),
+        (17, "partition-nulls", "tags"),
+        (2, "type-conflict", "pm25"),
+        (3, "textclass-changed", "pm25"),
+        (5, "field-gone", "temp_c"),
+        (16, "partition-nulls", "temp_c"),
+        (7, "textclass-changed", "ts"),
+        (15, "partition-type", "ts"),
+        (8, "nulls-begin", "humidity"),
+        (13, "partition-lacks", "battery"),
+        (4, "nested-new", "battery.charge_cycles"),
+        (6, "type-widened", "pm10"),
+        (9, "field-new", "ingested_at"),
+        (10, "field-new", "battery_level"),
+        (11, "field-new", "battery_voltage"),
+        (12, "field-new", "site_note"),
     ]
+    for n, kind, path in listed:  # the number names that event of the report
+        assert (demo_profile.events[int(n) - 1].kind, demo_profile.events[int(n) - 1].path) == (kind, path)
     # The manifest's injected changes that widen (demo/make_demo.py notes: pm10 "arrives as a
     # float ... (int before)", charge_cycles and ingested_at newly written) are listed after every
     # breaking one.
     paths = [p for _, _, p in listed]
     assert paths.index("pm10") > 10 and paths.index("battery.charge_cycles") > 10 and paths.index("ingested_at") > 10
     # A partition kind's line names the values; the reach is short (--events-detail: positions).
-    assert "11  partition-lacks   battery: struct → –; at region=west, 2 files, 599 rows, still going\n" in text
+    assert "13  partition-lacks   battery: struct → –; at region=west, 2 files, 599 rows, still going\n" in text
 
 
 def test_level_counts_are_of_every_event_not_only_the_listed(tmp_path: Path):

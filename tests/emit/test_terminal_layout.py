@@ -28,44 +28,44 @@ FIRST_SCREEN_80 = [
     "",
     "breaking (11), by field",
     " 1  type-conflict     tags: list → string; 3 files, 516 rows, still going",
-    " 2  partition-type    tags: list → string; at region=west, 2 files, 510 rows,",
+    "14  partition-type    tags: list → string; at region=west, 2 files, 510 rows,",
     "                      still going",
-    " 3  partition-nulls   tags: – → null; at region=west, 2 files, 89 rows, still",
+    "17  partition-nulls   tags: – → null; at region=west, 2 files, 89 rows, still",
     "                      going",
-    " 4  type-conflict     pm25: float64 → string; 2 files, 122 rows, ended",
-    " 5  textclass-changed pm25: decimal → null_token; 2 files, 6 rows, ended",
-    " 6  field-gone        temp_c: float64 → –; 1 file, 344 rows, still going",
-    " 7  partition-nulls   temp_c: – → null; at region=west, 2 files, 14 rows, still",
+    " 2  type-conflict     pm25: float64 → string; 2 files, 122 rows, ended",
+    " 3  textclass-changed pm25: decimal → null_token; 2 files, 6 rows, ended",
+    " 5  field-gone        temp_c: float64 → –; 1 file, 344 rows, still going",
+    "16  partition-nulls   temp_c: – → null; at region=west, 2 files, 14 rows, still",
     "                      going",
-    " 8  textclass-changed ts: timestamp_rfc3339 → timestamp_local; 4 files, 1,117",
+    " 7  textclass-changed ts: timestamp_rfc3339 → timestamp_local; 4 files, 1,117",
     "                      rows, still going",
-    " 9  partition-type    ts: timestamp[us, UTC] → timestamp[us]; at region=west, 2",
+    "15  partition-type    ts: timestamp[us, UTC] → timestamp[us]; at region=west, 2",
     "                      files, 599 rows, still going",
-    "10  nulls-begin       humidity: – → null; 4 files, 83 rows, still going",
-    "11  partition-lacks   battery: struct → –; at region=west, 2 files, 599 rows,",
+    " 8  nulls-begin       humidity: – → null; 4 files, 83 rows, still going",
+    "13  partition-lacks   battery: struct → –; at region=west, 2 files, 599 rows,",
     "                      still going",
 ]
 
 EVENTS_200 = [
     "breaking (11), by field",
     " 1  type-conflict     tags: list → string; 3 files, 516 rows, still going",
-    " 2  partition-type    tags: list → string; at region=west, 2 files, 510 rows, still going",
-    " 3  partition-nulls   tags: – → null; at region=west, 2 files, 89 rows, still going",
-    " 4  type-conflict     pm25: float64 → string; 2 files, 122 rows, ended",
-    " 5  textclass-changed pm25: decimal → null_token; 2 files, 6 rows, ended",
-    " 6  field-gone        temp_c: float64 → –; 1 file, 344 rows, still going",
-    " 7  partition-nulls   temp_c: – → null; at region=west, 2 files, 14 rows, still going",
-    " 8  textclass-changed ts: timestamp_rfc3339 → timestamp_local; 4 files, 1,117 rows, still going",
-    " 9  partition-type    ts: timestamp[us, UTC] → timestamp[us]; at region=west, 2 files, 599 rows, still going",
-    "10  nulls-begin       humidity: – → null; 4 files, 83 rows, still going",
-    "11  partition-lacks   battery: struct → –; at region=west, 2 files, 599 rows, still going",
+    "14  partition-type    tags: list → string; at region=west, 2 files, 510 rows, still going",
+    "17  partition-nulls   tags: – → null; at region=west, 2 files, 89 rows, still going",
+    " 2  type-conflict     pm25: float64 → string; 2 files, 122 rows, ended",
+    " 3  textclass-changed pm25: decimal → null_token; 2 files, 6 rows, ended",
+    " 5  field-gone        temp_c: float64 → –; 1 file, 344 rows, still going",
+    "16  partition-nulls   temp_c: – → null; at region=west, 2 files, 14 rows, still going",
+    " 7  textclass-changed ts: timestamp_rfc3339 → timestamp_local; 4 files, 1,117 rows, still going",
+    "15  partition-type    ts: timestamp[us, UTC] → timestamp[us]; at region=west, 2 files, 599 rows, still going",
+    " 8  nulls-begin       humidity: – → null; 4 files, 83 rows, still going",
+    "13  partition-lacks   battery: struct → –; at region=west, 2 files, 599 rows, still going",
     "widening (6), by field",
-    "12  nested-new        battery.charge_cycles: – → int64; 3 files, 896 rows, ended",
-    "13  type-widened      pm10: int64 → float64; 3 files, 773 rows, ended",
-    "14  field-new         ingested_at: – → timestamp[us, UTC]; 1 file, 135 rows, ended",
-    "15  field-new         battery_level: – → int64; 2 files, 599 rows, still going",
-    "16  field-new         battery_voltage: – → float64; 2 files, 599 rows, still going",
-    "17  field-new         site_note: – → string; 2 files, 599 rows, still going",
+    " 4  nested-new        battery.charge_cycles: – → int64; 3 files, 896 rows, ended",
+    " 6  type-widened      pm10: int64 → float64; 3 files, 773 rows, ended",
+    " 9  field-new         ingested_at: – → timestamp[us, UTC]; 1 file, 135 rows, ended",
+    "10  field-new         battery_level: – → int64; 2 files, 599 rows, still going",
+    "11  field-new         battery_voltage: – → float64; 2 files, 599 rows, still going",
+    "12  field-new         site_note: – → string; 2 files, 599 rows, still going",
 ]
 
 
@@ -100,6 +100,14 @@ def test_field_table_at_80_columns_keeps_every_path_and_one_line_rows(demo_profi
     for path in demo_profile.fields:  # never cut: each path starts its own row in full
         assert any(ln.startswith(f" {path} ") for ln in table), path
     assert "…" not in "\n".join(table[: len(demo_profile.fields) + 4])
+    # one line per field: the rows right under the header rule are the fields, in order
+    rows = table[4 : 4 + len(demo_profile.fields)]
+    assert [ln.split()[0] for ln in rows] == list(demo_profile.fields)
+    assert table[4 + len(demo_profile.fields)].strip() == ""
+    # ts holds three types: as many as fit, then how many more
+    assert rows[-1].split("  ")[0:1] == [" ts"] and "string 84.4% +2" in rows[-1]
+    for width in (80, 100, 119):
+        assert max(map(len, _lines(demo_profile, width))) <= width
     assert "string content" not in table[2]  # the column is left out under 120 columns
     full = _lines(demo_profile, 80, full_table=True)
     header = next(ln for ln in full if ln.startswith("┃"))

@@ -45,7 +45,9 @@ MAX_EVENTS = 1_000
 MAX_ISSUES = 1_000
 MAX_SKIPPED = 200
 CHART_EVENTS_LISTED = 8  # events written out under each chart; the events list has all
-CHANGES_LISTED = 10  # changes of each level listed at the top of the page; the events list has all
+# Changes of each level listed at the top of the page (the events list has all): every breaking
+# one a screen holds, fewer of the levels that break nothing.
+CHANGES_LISTED = {"breaking": 25, "widening": 10, "info": 10}
 _KIND_RANK = {
     "type-conflict": 0,
     "type-widened": 0,
@@ -289,7 +291,7 @@ def _changes(
     profile: Profile, numbers: Mapping[int, int], charted: Mapping[str, str], listed: set[int]
 ) -> list[dict[str, Any]]:
     """What changed, for the top of the page: per level, breaking first, the first
-    CHANGES_LISTED episodes grouped by field (the fields in the order they first drift, as the
+    CHANGES_LISTED[level] episodes grouped by field (the fields in the order they first drift, as the
     terminal lists them), each with the anchor of its field's timeline and of its event."""
     groups: dict[str, dict[str, list[Event]]] = {level: {} for level in LEVELS}
     for e in profile.events:
@@ -301,7 +303,7 @@ def _changes(
             continue
         events = [e for fld in by_path.values() for e in fld]
         items = []
-        for e in events[:CHANGES_LISTED]:
+        for e in events[: CHANGES_LISTED[level]]:
             n = numbers[id(e)]
             items.append(
                 {

@@ -38,22 +38,33 @@ def _pct(part: int, whole: int) -> str:
     return "<0.1%" if share < 0.1 else f"{share:.1f}%"
 
 
-def _types_cell(s: FieldSummary, most: int | None = None) -> Text:
-    """The types with their shares, most common first; the first `most` of them and how many
-    more (the compact table)."""
+def _types_cell(s: FieldSummary, budget: int | None = None) -> Text:
+    """The types with their shares, most common first; in the compact table (budget: the
+    characters the column may take) as many as fit on one line, then how many more."""
     total = s.stats.nonnull
     if not total:
         return Text("unknown (no values)" if not s.stats.nulls else "null only", style="dim")
     parts = sorted(s.stats.types.items(), key=lambda kv: (-kv[1], kv[0]))
+    words = [safe_text(key) + (f" {_pct(n, total)}" if len(parts) > 1 else "") for key, n in parts]
+    shown = len(words)
+    if budget is not None:  # the first type always; each next one while it and the "+N" still fit
+        shown = 1
+        while shown < len(words):
+            more = len(words) - shown - 1
+            need = cell_len(" · ".join(words[: shown + 1])) + (len(f" +{more}") if more else 0)
+            if need > budget:
+                break
+            shown += 1
     text = Text()
-    for i, (key, n) in enumerate(parts[:most]):
+    for i, word in enumerate(words[:shown]):
         if i:
             text.append(" · ")
-        text.append(safe_text(key), style="bold" if i == 0 else "yellow")
-        if len(parts) > 1:
-            text.append(f" {_pct(n, total)}")
-    if most is not None and len(parts) > most:
-        text.append(f" +{len(parts) - most}", style="dim")
+        key, _, share = word.rpartition(" ") if len(parts) > 1 else (word, "", "")
+        text.append(key, style="bold" if i == 0 else "yellow")
+        if share:
+            text.append(f" {share}")
+    if shown < len(words):
+        text.append(f" +{len(words) - shown}", style="dim")
     return text
 
 
@@ -189,6 +200,9 @@ SHARES_NOTE = "types: % of non-null values; null, absent: % of rows or of the pa
 FULL_TABLE_WIDTH = 120
 
 
+_NARROW_COLUMNS = 26  # the compact table's null, absent and drift columns with every column's padding
+
+
 def fields_table(profile: Profile, width: int | None = None) -> Table:
     """One row per field: types, null and absent shares, string content, drift events. Under
     FULL_TABLE_WIDTH columns (width given) the string content column is left out and the
@@ -203,7 +217,8 @@ def fields_table(profile: Profile, width: int | None = None) -> Table:
         pad_edge=False,
         box=box.SIMPLE_HEAD if compact else box.HEAVY_HEAD,
     )
-    table.add_column("field", no_wrap=True, min_width=max(map(cell_len, paths), default=5))
+    widest = max(map(cell_len, paths), default=5)
+    table.add_column("field", no_wrap=True, min_width=widest)
     table.add_column("types (share of non-null)")
     table.add_column("null", justify="right", no_wrap=True)
     table.add_column("absent", justify="right", no_wrap=True)
@@ -211,10 +226,13 @@ def fields_table(profile: Profile, width: int | None = None) -> Table:
         table.add_column("string content")
     table.add_column("drift", justify="right", no_wrap=True)
     by_source = profile.classes_by_source
+    # What the other columns leave the types in the compact table: the field, then null,
+    # absent and drift (each with its padding), so that a row stays one line.
+    budget = max(12, width - widest - _NARROW_COLUMNS) if compact and width is not None else None
     for path, (path_key, s) in zip(paths, profile.fields.items(), strict=True):
         cells: list[Text | str] = [
             Text(path),
-            _types_cell(s, 2 if compact else None),
+            _types_cell(s, budget),
             _pct(s.stats.nulls, s.container),
             _pct(s.absent, s.container),
         ]
@@ -287,7 +305,8 @@ def events_block(
     heading: bool = True,
 ) -> Text:
     """Drift events grouped by level, breaking first, then by field, numbered, one line per
-    episode when it fits width: kind, field, before → after and a short reach (detail: the
+    episode when it fits width, numbered as the JSON report lists them (scan order): kind, field,
+    before → after and a short reach (detail: the
     full reach with positions and an example, as --events-detail shows); a longer line wraps
     indented. The first `limit` of them in that order (--max-events). counts (every event of
     each level, listed or not) make the heading (left out with heading=False, when the overview
@@ -296,7 +315,9 @@ def events_block(
     text = Text(no_wrap=True, overflow="ignore")
     if heading:
         text.append(f"Drift events ({sum(total.values()):,}): {levels_line(total)}\n", style="bold")
-    number = len(str(min(len(events), limit)))
+    # Each event keeps its number in the JSON report's list (scan order), as the HTML shows it.
+    numbers = {id(e): n for n, e in enumerate(events, 1)}
+    number = len(str(len(events)))
     kind = max((len(e.kind) for e in events), default=0)
     i = 0
     for level, group in by_level(events):
@@ -312,7 +333,7 @@ def events_block(
                 body += ", " + reach_text(e) + (f"; e.g. {safe_text(e.example, 40)}" if e.example else "")
             else:
                 body += "; " + short_reach(e)
-            lines = hanging(f"{i:>{number}}  {e.kind:<{kind}} ", body, width)
+            lines = hanging(f"{numbers[id(e)]:>{number}}  {e.kind:<{kind}} ", body, width)
             text.append(lines[0][: number + 2])
             text.append(e.kind, style="bold")
             text.append(lines[0][number + 2 + len(e.kind) :] + "\n")
