@@ -161,3 +161,11 @@ def test_no_color_and_color(tmp_path: Path):
     plain = _run("scan", str(tmp_path), "--no-color")
     coloured = _run("scan", str(tmp_path), "--color")
     assert "\x1b[" not in plain.stdout and "\x1b[1m" in coloured.stdout  # ANSI SGR bold: ECMA-48 section 8.3.117
+
+
+def test_the_readme_shows_this_first_screen():
+    # The README's example output is the pinned first screen above, so it cannot fall behind.
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+    start = readme.index("```\ndriftline scan demo/landing\n") + 4
+    shown = readme[start : readme.index("\n```", start)].splitlines()
+    assert shown == FIRST_SCREEN_80
