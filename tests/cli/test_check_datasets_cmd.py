@@ -11,13 +11,11 @@ dataset's verdict is held to `driftline check` run on that folder alone.
 from __future__ import annotations
 
 import gzip
-import importlib.util
 import json
 import os
 import re
 import shutil
 import subprocess
-import sys
 import xml.etree.ElementTree as ET
 from pathlib import Path
 from typing import Any
@@ -25,10 +23,9 @@ from typing import Any
 import jsonschema
 import pytest
 
-from conftest import ROOT, fixture_path
+from _cli import ENV, EXE, make_layouts
+from conftest import ROOT
 
-EXE = [sys.executable, "-m", "driftline.cli"]
-ENV = {**os.environ, "COLUMNS": "100", "NO_COLOR": "1", "TERM": "dumb"}
 NAMES = ["depot_exports", "readings", "stations.parquet"]
 
 
@@ -36,19 +33,11 @@ def run(*args: str | Path, cwd: Path | None = None) -> subprocess.CompletedProce
     return subprocess.run([*EXE, *map(str, args)], capture_output=True, text=True, timeout=120, env=ENV, cwd=cwd)
 
 
-def _make_layouts() -> Any:
-    spec = importlib.util.spec_from_file_location("make_layouts", fixture_path("datasets/make_layouts.py"))
-    assert spec is not None and spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
 @pytest.fixture(scope="module")
 def made(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """The Done-when root as landing/ and baselines/ made by `driftline schema` on each dataset's folder."""
     out = tmp_path_factory.mktemp("check-landing")
-    _make_layouts().main(out, ["done_when"])
+    make_layouts().main(out, ["done_when"])
     (out / "done_when").rename(out / "landing")
     (out / "baselines").mkdir()
     for name in NAMES:

@@ -6,40 +6,26 @@ tests/fixtures/datasets/make_layouts.py, copied as landing/).
 
 from __future__ import annotations
 
-import importlib.util
 import json
-import os
 import re
 import subprocess
-import sys
 from pathlib import Path
-from typing import Any
 
 import pytest
 
 import driftline
-from conftest import ROOT, fixture_path
-
-EXE = [sys.executable, "-m", "driftline.cli"]
-ENV = {**os.environ, "COLUMNS": "100", "NO_COLOR": "1", "TERM": "dumb"}
+from _cli import ENV, EXE, make_layouts
+from conftest import ROOT
 
 
 def run(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess[str]:
     return subprocess.run([*EXE, *args], capture_output=True, text=True, timeout=120, env=ENV, cwd=cwd)
 
 
-def _make_layouts() -> Any:
-    spec = importlib.util.spec_from_file_location("make_layouts", fixture_path("datasets/make_layouts.py"))
-    assert spec is not None and spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
 @pytest.fixture(scope="module")
 def work(tmp_path_factory: pytest.TempPathFactory) -> Path:
     out = tmp_path_factory.mktemp("cli-landing")
-    _make_layouts().main(out, ["done_when", "uneven_depth"])
+    make_layouts().main(out, ["done_when", "uneven_depth"])
     (out / "done_when").rename(out / "landing")
     return out
 

@@ -9,15 +9,12 @@ from __future__ import annotations
 
 import doctest
 import gzip
-import importlib.util
 import json
 import os
 import re
 import shutil
 import subprocess
-import sys
 from pathlib import Path
-from typing import Any
 
 import jsonschema
 import pyarrow.csv as pacsv
@@ -27,11 +24,10 @@ import pytest
 import driftline
 import driftline.emit.dataset_files
 import driftline.gate.dataset_diff
-from conftest import ROOT, fixture_path
+from _cli import ENV, EXE, make_layouts
+from conftest import ROOT
 from driftline.emit.dataset_files import dataset_files
 
-EXE = [sys.executable, "-m", "driftline.cli"]
-ENV = {**os.environ, "COLUMNS": "100", "NO_COLOR": "1", "TERM": "dumb"}
 FORMATS = ("json-schema", "arrow", "arrow-text", "sql", "avro")
 # Each dataset of make_layouts.done_when, its folder (or lone file) and its own columns.
 DATASETS = {
@@ -52,18 +48,10 @@ def run(*args: str, cwd: Path) -> subprocess.CompletedProcess[bytes]:
     return subprocess.run([*EXE, *args], capture_output=True, timeout=120, env=ENV, cwd=cwd)
 
 
-def _make_layouts() -> Any:
-    spec = importlib.util.spec_from_file_location("make_layouts", fixture_path("datasets/make_layouts.py"))
-    assert spec is not None and spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
 @pytest.fixture(scope="module")
 def work(tmp_path_factory: pytest.TempPathFactory) -> Path:
     out = tmp_path_factory.mktemp("cli-schema-diff")
-    _make_layouts().main(out, ["done_when", "uneven_depth"])
+    make_layouts().main(out, ["done_when", "uneven_depth"])
     (out / "done_when").rename(out / "landing")
     # The copy: one readings file gains a field, the reference file is gone, the rest as it was.
     shutil.copytree(out / "landing", out / "landing-copy")
