@@ -209,7 +209,7 @@ def check_command(
         write_output(junit, junit_xml(verdict))
     if not quiet:
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, junit))
-        console = err_console if to_stdout else Console(highlight=False)
+        console = err_console() if to_stdout else Console(highlight=False)
         (render_split if verdict.split else render_verdict)(verdict, console)
     raise typer.Exit(verdict.exit_code)
 
@@ -278,7 +278,7 @@ def diff_command(
         doc = {"format": DIFF_FORMAT, "version": DIFF_VERSION, "by": by, "diffs": [d.to_json() for d in diffs]}
         write_output(json_out, jsonnum.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
-        console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
+        console = err_console() if json_out is not None and is_stdout(json_out) else Console(highlight=False)
         if not diffs:
             console.print(f"only one value of partition {safe_text(by)}: nothing to compare", markup=False)
         render(diffs, console)
@@ -295,7 +295,7 @@ def _datasets_diff(found: DatasetDiff, json_out: str | None, quiet: bool) -> Non
         doc = {"format": DIFF_FORMAT, "version": DIFF_VERSION, "by": None, **found.to_json()}
         write_output(json_out, jsonnum.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
-        console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
+        console = err_console() if json_out is not None and is_stdout(json_out) else Console(highlight=False)
         render_datasets(found, console)
         if json_out is not None and not is_stdout(json_out):
             console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)
