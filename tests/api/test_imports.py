@@ -49,6 +49,7 @@ HEAVY = (
     "dask",
     "distributed",
     "duckdb",
+    "pydantic",  # typer's coercion of option values: no value to coerce before a verb's --help
     "pyarrow",  # pyarrow.dataset, .compute, .csv, .json, .parquet with it
     "driftline._api",
     "driftline.emit.html",

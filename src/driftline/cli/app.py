@@ -79,6 +79,22 @@ class _Verbs(TyperGroup):
                 self._load(name)
         return super().get_command(ctx, cmd_name)
 
+    def get_help_option(self, ctx: Context) -> Any:
+        option = super().get_help_option(ctx)
+        # The root's -h/--help is a bool flag left unset (None) on `driftline VERB ...`, and typer
+        # coerces that None through pydantic, whose import would be a third of `driftline scan
+        # --help`: the flag's value needs no coercion. Typer's internals; without them, the default.
+        if option is not None and getattr(option, "_runtime_param", False) is None:
+            try:
+                from typer._coercion import PassThroughRuntimeParam
+
+                option._runtime_param = PassThroughRuntimeParam(
+                    annotation=bool, parameter_info=option.type_descriptor.parameter_info
+                )
+            except (ImportError, AttributeError, TypeError):
+                pass
+        return option
+
     def _load(self, name: str) -> None:
         from typer.main import get_command_from_info
 
