@@ -154,7 +154,8 @@ READ_FLAGS: tuple[Flag, ...] = (
         DEFAULT_JOBS,
         "--jobs",
         "Files read in parallel (processes); 1 reads in this process. At most one per core and per 256 MB of free "
-        "memory (a warning says when lowered). Results do not depend on it.",
+        "memory (a warning says when lowered); a scan of under about a second of reading stays in this process. "
+        "Results do not depend on it.",
         "-j",
     ),
     _int("max_errors", None, "--max-errors", "Stop reading new files once this many errors were found."),
