@@ -152,9 +152,7 @@ def scan_command(
     options: ScanOptions,
     config: Config,
 ) -> None:
-    from driftline.emit.html import write_html
-    from driftline.emit.landing_text import one_table_note
-    from driftline.emit.terminal import render
+    # Each output's renderer is imported when that output is asked for (-q: no terminal, no rich tables).
     from driftline.results.report import dumps, limit_notes
 
     if fail_at is not None and fail_at not in LEVELS:
@@ -184,7 +182,7 @@ def scan_command(
                 if fail_at is not None and any(fails_at(p, fail_at) for p in landing.datasets.values()):
                     raise typer.Exit(EXIT_VIOLATION)
                 return
-            profile, note = landing.whole, one_table_note(landing)
+            profile, note = landing.whole, "" if quiet else _one_table_note(landing)
     finally:
         bar.close()
     if note and not quiet:
@@ -194,11 +192,15 @@ def scan_command(
     if json_out is not None:
         write_output(json_out, dumps(profile))
     if html_out is not None:
+        from driftline.emit.html import write_html
+
         write_html(profile, html_out)
     if quiet:
         for note in limit_notes(profile):  # a limit reached is said even without the summary
             err_console().print(f"warning: {note}", markup=False)
     if not quiet:
+        from driftline.emit.terminal import render
+
         # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, html_out))
         console = terminal(failed or to_stdout, color)
@@ -220,6 +222,12 @@ def scan_command(
         raise typer.Exit(EXIT_USAGE)
     if fail_at is not None and fails_at(profile, fail_at):
         raise typer.Exit(EXIT_VIOLATION)
+
+
+def _one_table_note(landing: driftline.Landing) -> str:
+    from driftline.emit.landing_text import one_table_note
+
+    return one_table_note(landing)
 
 
 def fails_at(profile: driftline.Profile, level: str) -> bool:
@@ -271,8 +279,6 @@ def _several(
 ) -> None:
     """A root of several datasets: the report set, one HTML page per dataset, the overview then
     each dataset's summary; exit 2 when every file of a dataset failed."""
-    from driftline.emit.html import write_html
-    from driftline.emit.landing_text import render_landing
     from driftline.results.landing import dumps_set
     from driftline.results.report import limit_notes
 
@@ -290,6 +296,8 @@ def _several(
     for name, page in pages.items():
         # Each page picks among the others by their file names: they are written side by side.
         picker = [(other, None if other == name else quote(os.path.basename(there))) for other, there in pages.items()]
+        from driftline.emit.html import write_html
+
         write_html(landing.datasets[name], page, picker)
     if quiet:
         for name, p in landing.datasets.items():
@@ -298,6 +306,8 @@ def _several(
     else:
         to_stdout = json_out is not None and is_stdout(json_out)
         console = terminal(to_stdout or len(failed) == len(landing.datasets), color)
+        from driftline.emit.landing_text import render_landing
+
         render_landing(landing, console, options.max_events, **(look or {}))
         if json_out is not None and not is_stdout(json_out):
             console.print(f"report set written to {safe_text(Path(json_out))}", markup=False)
