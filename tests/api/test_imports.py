@@ -126,3 +126,18 @@ def test_the_public_surface_loads_on_first_use(name):
     )
     run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=120)
     assert run.stdout == "True True True\n", run.stderr
+
+
+def test_every_verb_is_named_where_the_group_finds_it():
+    # A verb module registers its verbs on import; the group imports it by VERBS. A verb left out
+    # of VERBS would be missing from `driftline --help` in a fresh process: every *_cmd module's
+    # verbs are named there, with their own module.
+    import importlib
+
+    from driftline.cli.app import VERBS, app
+
+    folder = Path(driftline.__file__).parent / "cli"
+    for path in sorted(folder.glob("*_cmd.py")):
+        importlib.import_module(f"driftline.cli.{path.stem}")
+    found = {info.name: info.callback.__module__ for info in app.registered_commands}  # type: ignore[union-attr]
+    assert found == VERBS
