@@ -141,3 +141,16 @@ def test_every_verb_is_named_where_the_group_finds_it():
         importlib.import_module(f"driftline.cli.{path.stem}")
     found = {info.name: info.callback.__module__ for info in app.registered_commands}  # type: ignore[union-attr]
     assert found == VERBS
+
+
+@pytest.mark.parametrize("verb", ["check", "diff"])
+def test_the_gate_verbs_help_loads_no_comparison_and_no_reader(tmp_path, verb):
+    code, modules, stdout = _loaded(tmp_path, verb, "--help")
+    assert code == 0
+    assert stdout.startswith(f"Usage: driftline {verb} [OPTIONS] ")
+    words = " ".join(stdout.split())
+    # the names the help lists: the diff's kinds of change, the policy's keys
+    assert ("added" in words and "null-share" in words) if verb == "diff" else 'type_change "fail"' in words
+    gate = [m for m in modules if m.startswith("driftline.gate.")]
+    assert gate == ["driftline.gate.diff_kinds", "driftline.gate.policy"]  # the help's names, alone
+    assert [m for m in _heavy(modules) if not m.startswith("driftline.gate")] == []  # the package and those two
