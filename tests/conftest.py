@@ -11,6 +11,7 @@ from __future__ import annotations
 import importlib
 import importlib.util
 import json
+import os
 import sys
 from pathlib import Path
 from types import ModuleType
@@ -24,6 +25,11 @@ SHARED_TESTDATA = ROOT.parent / "shared" / "testdata"
 # Golden inputs: the tests' own under tests/fixtures/, the real-file corpus (which scripts read
 # too) under the repository's fixtures/.
 FIXTURE_DIRS = (TESTS / "fixtures", ROOT / "fixtures")
+
+# A scan asked for several jobs starts its pool even on the suite's small folders, so that the
+# pool's paths stay exercised (faults, order, results equal to the serial run's); the decision
+# itself, with this unset, is tested in tests/scanning/test_pool_choice.py. Subprocesses inherit it.
+os.environ["DRIFTLINE_TEST_ALWAYS_POOL"] = "1"  # driftline.scanning.workers.TEST_POOL_ENV
 
 
 def fixture_path(name: str) -> Path:

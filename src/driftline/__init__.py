@@ -33,20 +33,9 @@ InputPathError
 
 from __future__ import annotations
 
-from driftline._api import (
-    Landing,
-    Profile,
-    Recommendation,
-    check,
-    datasets,
-    diff,
-    load_report,
-    load_report_set,
-    recommend,
-    scan,
-    scan_datasets,
-)
-from driftline.core.options import ReadOptions, ScanOptions
+import importlib as _importlib
+from typing import TYPE_CHECKING as _TYPE_CHECKING
+
 from driftline.core.version import __version__
 from driftline.errors import (
     DamagedFileError,
@@ -62,11 +51,69 @@ from driftline.errors import (
     UnreadableFileError,
     WorkerError,
 )
-from driftline.gate.diff import Diff
-from driftline.gate.policy import Policy
-from driftline.gate.verdict import Verdict
-from driftline.results.drift import Event
-from driftline.results.profile import FieldSummary
+
+if _TYPE_CHECKING:
+    from driftline._api import (
+        Landing,
+        Profile,
+        Recommendation,
+        check,
+        datasets,
+        diff,
+        load_report,
+        load_report_set,
+        recommend,
+        scan,
+        scan_datasets,
+    )
+    from driftline.core.options import ReadOptions, ScanOptions
+    from driftline.gate.diff import Diff
+    from driftline.gate.policy import Policy
+    from driftline.gate.verdict import Verdict
+    from driftline.results.drift import Event
+    from driftline.results.profile import FieldSummary
+
+# The rest of the surface is imported on first use (PEP 562): `driftline --version` and a
+# verb's --help need none of the readers, the recommender, the gate or the renderers.
+_LAZY: dict[str, str] = {
+    **dict.fromkeys(
+        (
+            "Landing",
+            "Profile",
+            "Recommendation",
+            "check",
+            "datasets",
+            "diff",
+            "load_report",
+            "load_report_set",
+            "recommend",
+            "scan",
+            "scan_datasets",
+        ),
+        "driftline._api",
+    ),
+    "ReadOptions": "driftline.core.options",
+    "ScanOptions": "driftline.core.options",
+    "Diff": "driftline.gate.diff",
+    "Policy": "driftline.gate.policy",
+    "Verdict": "driftline.gate.verdict",
+    "Event": "driftline.results.drift",
+    "FieldSummary": "driftline.results.profile",
+}
+
+
+def __getattr__(name: str) -> object:
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module 'driftline' has no attribute {name!r}")
+    value = getattr(_importlib.import_module(module), name)
+    globals()[name] = value  # once imported, an ordinary attribute
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted({*globals(), *_LAZY})
+
 
 __all__ = [
     "DamagedFileError",

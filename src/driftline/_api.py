@@ -28,9 +28,6 @@ from driftline.errors import (
     SchemaConflictError,
 )
 from driftline.errors import OptionError as _OptionError
-from driftline.gate.diff import Diff
-from driftline.gate.policy import Policy
-from driftline.gate.verdict import Verdict
 from driftline.recommendation import Recommendation as _RecommendationValue
 from driftline.recommendation import recommend as _recommend
 from driftline.recommendation.options import RecommendOptions as _RecommendOptions
@@ -51,6 +48,10 @@ if _TYPE_CHECKING:
     import polars as _pl
     import pyarrow as _pa
 
+    # The gate is imported by check() and diff() when they run: a scan never needs it.
+    from driftline.gate.diff import Diff
+    from driftline.gate.policy import Policy
+    from driftline.gate.verdict import Verdict
     from driftline.results.tables import Tables as _Tables
 
 

@@ -177,3 +177,23 @@ def test_discovery_line(tmp_path: Path) -> None:
     lines = proc.stdout.splitlines()
     assert lines[0].startswith("| 20 Parquet files | seconds | CPU seconds | of the scan (wall) |")
     assert lines[-1].startswith("- discovery / scan <= 0.1: measured ")
+
+
+def test_startup_rows_and_their_targets(results: dict) -> None:
+    # The start-up rows close the default run: whole processes, with the ratios the issue sets.
+    startup = results["json"]["startup"]
+    assert [r["command"] for r in startup["rows"]] == [
+        "python -c 'import pyarrow'",
+        "driftline --version",
+        "driftline scan --help",
+        "pyarrow reads the demo's 15 files",  # the demo's 15 data files (tests/scripts/test_make_demo.py)
+        "driftline scan demo -q",
+        "driftline scan demo (summary)",
+    ]
+    assert all(r["ok"] and r["seconds"] > 0 for r in startup["rows"]), startup["rows"]
+    assert [(t["target"], t["limit"]) for t in startup["targets"]] == [
+        ("driftline --version / import pyarrow <= 2", 2.0),
+        ("driftline scan --help / import pyarrow <= 2", 2.0),
+        ("driftline scan demo -q / pyarrow reading its files <= 1.5", 1.5),
+    ]
+    assert "| driftline --version |" in results["stdout"]

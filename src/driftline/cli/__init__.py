@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import sys
 
-# Verbs register themselves on `app` when imported.
-from driftline.cli import gate_cmd, scan_cmd, schema_cmd  # noqa: F401
+# Verbs register themselves on `app` when imported: the group imports a verb's module when
+# that verb is asked for (driftline.cli.app.VERBS).
 from driftline.cli.app import app
 
 

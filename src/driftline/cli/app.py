@@ -3,15 +3,16 @@ codes, the stderr console and the --encoding option."""
 
 from __future__ import annotations
 
+import functools
+import importlib
 import logging
 import sys
 import traceback
 from collections.abc import Callable, Sequence
 from functools import wraps
-from typing import Any, TypeVar
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import typer
-from rich.console import Console
 
 # typer carries its own copy of click's parser (typer._click): its usage errors are these classes.
 from typer._click.exceptions import ClickException, NoArgsIsHelpError, UsageError
@@ -20,6 +21,10 @@ from typer.core import TyperArgument, TyperCommand, TyperGroup
 from driftline.core.version import __version__
 from driftline.emit.safe import safe_text
 from driftline.errors import DriftlineError
+
+if TYPE_CHECKING:
+    from rich.console import Console
+    from typer._click.core import Command, Context
 
 EXIT_OK, EXIT_VIOLATION, EXIT_USAGE = 0, 1, 2
 
@@ -50,8 +55,57 @@ def usage_error_text(exc: UsageError, debug: bool = False) -> str:
     return f"{head}error{kind}: {message}"
 
 
+# Each verb's module, imported when the verb runs or its help is shown (and every one for the
+# list of verbs): `driftline --version` imports none, `driftline scan --help` only scan's.
+VERBS: dict[str, str] = {
+    "scan": "driftline.cli.scan_cmd",
+    "check": "driftline.cli.gate_cmd",
+    "diff": "driftline.cli.gate_cmd",
+    "schema": "driftline.cli.schema_cmd",
+}
+
+
 class _Verbs(TyperGroup):
-    """The verbs' group: click's usage errors read 'error: …' like ours, exit 2 as click's do."""
+    """The verbs' group: click's usage errors read 'error: …' like ours, exit 2 as click's do;
+    a verb's module is imported when that verb is asked for."""
+
+    def list_commands(self, ctx: Context) -> list[str]:
+        return list(dict.fromkeys([*VERBS, *self.commands]))
+
+    def get_command(self, ctx: Context, cmd_name: str) -> Command | None:
+        if cmd_name not in self.commands:
+            # An unknown name loads them all, so that click's "did you mean" sees every verb.
+            for name in [cmd_name] if cmd_name in VERBS else list(VERBS):
+                self._load(name)
+        return super().get_command(ctx, cmd_name)
+
+    def get_help_option(self, ctx: Context) -> Any:
+        option = super().get_help_option(ctx)
+        # The root's -h/--help is a bool flag left unset (None) on `driftline VERB ...`, and typer
+        # coerces that None through pydantic, whose import would be a third of `driftline scan
+        # --help`: the flag's value needs no coercion. Typer's internals; without them, the default.
+        if option is not None and getattr(option, "_runtime_param", False) is None:
+            try:
+                from typer._coercion import PassThroughRuntimeParam
+
+                option._runtime_param = PassThroughRuntimeParam(
+                    annotation=bool, parameter_info=option.type_descriptor.parameter_info
+                )
+            except (ImportError, AttributeError, TypeError):
+                pass
+        return option
+
+    def _load(self, name: str) -> None:
+        from typer.main import get_command_from_info
+
+        if name in self.commands:
+            return
+        importlib.import_module(VERBS[name])  # registers the verb on `app`
+        for info in app.registered_commands:
+            if info.name == name:
+                self.commands[name] = get_command_from_info(
+                    info, pretty_exceptions_short=app.pretty_exceptions_short, rich_markup_mode=app.rich_markup_mode
+                )
 
     def main(
         self,
@@ -98,7 +152,13 @@ app = typer.Typer(
     context_settings={"help_option_names": ["-h", "--help"]},
 )
 
-err_console = Console(stderr=True, highlight=False)
+
+@functools.cache
+def err_console() -> Console:
+    """The console of notes and warnings on stderr (rich is imported when something is printed)."""
+    from rich.console import Console
+
+    return Console(stderr=True, highlight=False)
 
 
 class _NamedArgument(TyperArgument):

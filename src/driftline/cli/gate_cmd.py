@@ -5,27 +5,27 @@ from __future__ import annotations
 import os
 import sys
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-import orjson
 import typer
-from rich.console import Console
 
 import driftline
 from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
 from driftline.cli.read_flags import policy_of, takes_read_options
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
-from driftline.core import jsonnum
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError
-from driftline.gate.baselines import folder_baselines
-from driftline.gate.dataset_diff import DatasetDiff, diff_by_dataset, render_datasets
-from driftline.gate.diff import DEFAULT_NULL_POINTS, DIFF_FORMAT, DIFF_KINDS, DIFF_VERSION, Diff, render
+from driftline.gate.diff_kinds import DEFAULT_NULL_POINTS, DIFF_FORMAT, DIFF_KINDS, DIFF_VERSION
 from driftline.gate.policy import ACTION_MEANING, key_help
-from driftline.gate.verdict import junit_xml, render_split
-from driftline.gate.verdict import render as render_verdict
+
+# The gate's comparisons and renderers (and the profile, pyarrow, rich) are imported when a verb
+# runs: its --help needs only the names above.
+if TYPE_CHECKING:
+    from driftline.gate.dataset_diff import DatasetDiff
+    from driftline.gate.diff import Diff
 
 EXIT_CODES = """Exit codes:
 
@@ -176,6 +176,12 @@ def check_command(
     options: ScanOptions,
     config: Config,
 ) -> None:
+    import orjson
+    from rich.console import Console
+
+    from driftline.gate.verdict import junit_xml, render_split
+    from driftline.gate.verdict import render as render_verdict
+
     if (verify or rebuild) and state is None:
         raise InputPathError("--verify and --rebuild work on a state file; add --state FILE")
     check_targets(
@@ -209,13 +215,15 @@ def check_command(
         write_output(junit, junit_xml(verdict))
     if not quiet:
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, junit))
-        console = err_console if to_stdout else Console(highlight=False)
+        console = err_console() if to_stdout else Console(highlight=False)
         (render_split if verdict.split else render_verdict)(verdict, console)
     raise typer.Exit(verdict.exit_code)
 
 
 def _baseline_files(baseline: str | None) -> list[str]:
     """The baseline files of a folder of baselines (one per dataset): inputs no output may replace."""
+    from driftline.gate.baselines import folder_baselines
+
     return list(folder_baselines(baseline).values()) if baseline is not None and os.path.isdir(baseline) else []
 
 
@@ -248,6 +256,13 @@ def diff_command(
     options: ScanOptions,
     config: Config,
 ) -> None:
+    import orjson
+    from rich.console import Console
+
+    from driftline.core import jsonnum
+    from driftline.gate.dataset_diff import DatasetDiff, diff_by_dataset
+    from driftline.gate.diff import render
+
     check_targets(
         [("--json", json_out)],
         scanned=sides,
@@ -278,7 +293,7 @@ def diff_command(
         doc = {"format": DIFF_FORMAT, "version": DIFF_VERSION, "by": by, "diffs": [d.to_json() for d in diffs]}
         write_output(json_out, jsonnum.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
-        console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
+        console = err_console() if json_out is not None and is_stdout(json_out) else Console(highlight=False)
         if not diffs:
             console.print(f"only one value of partition {safe_text(by)}: nothing to compare", markup=False)
         render(diffs, console)
@@ -291,11 +306,17 @@ def diff_command(
 def _datasets_diff(found: DatasetDiff, json_out: str | None, quiet: bool) -> None:
     """Two roots (or report sets) compared dataset by dataset: the diff document with each diff's
     dataset and the names on one side only; the overall line, then each dataset under a heading."""
+    import orjson
+    from rich.console import Console
+
+    from driftline.core import jsonnum
+    from driftline.gate.dataset_diff import render_datasets
+
     if json_out is not None:
         doc = {"format": DIFF_FORMAT, "version": DIFF_VERSION, "by": None, **found.to_json()}
         write_output(json_out, jsonnum.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
-        console = err_console if json_out is not None and is_stdout(json_out) else Console(highlight=False)
+        console = err_console() if json_out is not None and is_stdout(json_out) else Console(highlight=False)
         render_datasets(found, console)
         if json_out is not None and not is_stdout(json_out):
             console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)

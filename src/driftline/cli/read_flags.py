@@ -13,7 +13,7 @@ import inspect
 import typing
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import typer
 
@@ -39,8 +39,9 @@ from driftline.core.options import (
 )
 from driftline.core.ranges import RANGES
 from driftline.core.valuepolicy import MODES
-from driftline.gate.policy import Policy, policy_from_mapping
-from driftline.recommendation.options import RecommendOptions
+
+if TYPE_CHECKING:
+    from driftline.gate.policy import Policy
 
 CSV_DIALECT_HELP = (
     "Pin the CSV dialect of the files matching GLOB (all CSV/TSV files without it); repeatable, later pins win. "
@@ -153,7 +154,8 @@ READ_FLAGS: tuple[Flag, ...] = (
         DEFAULT_JOBS,
         "--jobs",
         "Files read in parallel (processes); 1 reads in this process. At most one per core and per 256 MB of free "
-        "memory (a warning says when lowered). Results do not depend on it.",
+        "memory (a warning says when lowered); a scan of under about a second of reading stays in this process. "
+        "Results do not depend on it.",
         "-j",
     ),
     _int("max_errors", None, "--max-errors", "Stop reading new files once this many errors were found."),
@@ -305,6 +307,8 @@ FLAG_NAMES = tuple(f.name for f in READ_FLAGS)
 
 def policy_of(config: Config) -> Policy | None:
     """The config file's [check] table as the policy of driftline check, or None when it has none."""
+    from driftline.gate.policy import policy_from_mapping
+
     return policy_from_mapping(config.check, source=config.where("check")) if config.check else None
 
 
@@ -314,6 +318,8 @@ def options_of(flags: dict[str, Any], given: set[str]) -> tuple[ScanOptions, Con
     config = load_config(config_path if config_path is not None else find_config())
     policy_of(config)  # every table is checked before anything is read, whichever verb runs
     if config.recommend:
+        from driftline.recommendation.options import RecommendOptions
+
         RecommendOptions.from_mapping(config.recommend, source=config.where("recommend"))
     chosen = {k: v for k, v in flags.items() if k in given and k != "config"}
     return config.scan_options().merged(**chosen), config

@@ -6,27 +6,26 @@ import os
 import sys
 import time
 from pathlib import Path
+from typing import TYPE_CHECKING
 from urllib.parse import quote
 
 import typer
-from rich.console import Console
-from rich.progress import BarColumn, MofNCompleteColumn, Progress, TaskID, TextColumn, TimeElapsedColumn
 
 import driftline
 from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
 from driftline.cli.read_flags import takes_read_options
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
-from driftline.emit.html import write_html
-from driftline.emit.landing_text import one_table_note, render_landing
 from driftline.emit.safe import safe_text
 from driftline.emit.targets import WRITE_INSIDE, check_targets
-from driftline.emit.terminal import render
 from driftline.errors import InputPathError, OptionError
-from driftline.results.landing import dumps_set
-from driftline.results.levels import LEVELS
-from driftline.results.report import dumps, limit_notes
-from driftline.sources.remote import is_url
+from driftline.results.level_names import LEVELS
+
+# Rendering, the readers and rich are imported where they are used: `driftline scan --help`
+# needs none of them (tests/api/test_imports.py).
+if TYPE_CHECKING:
+    from rich.console import Console
+    from rich.progress import Progress, TaskID
 
 SCAN_HELP = """Profile files and folders: fields, types, nulls, string content and drift over batches.
 
@@ -85,13 +84,15 @@ class _Bar:
         if self.progress is None:
             if time.monotonic() - self.started < 0.5 or done >= total:
                 return
+            from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
             self.progress = Progress(
                 TextColumn("scanning"),
                 BarColumn(),
                 MofNCompleteColumn(),
                 TimeElapsedColumn(),
                 TextColumn("{task.description}"),
-                console=err_console,
+                console=err_console(),
                 transient=True,
             )
             self.progress.start()
@@ -151,6 +152,9 @@ def scan_command(
     options: ScanOptions,
     config: Config,
 ) -> None:
+    # Each output's renderer is imported when that output is asked for (-q: no terminal, no rich tables).
+    from driftline.results.report import dumps, limit_notes
+
     if fail_at is not None and fail_at not in LEVELS:
         raise OptionError(f"--fail-at {fail_at!r}: a level is one of {', '.join(LEVELS)}")
     look = {"events_detail": events_detail, "full_table": full_table}
@@ -178,21 +182,25 @@ def scan_command(
                 if fail_at is not None and any(fails_at(p, fail_at) for p in landing.datasets.values()):
                     raise typer.Exit(EXIT_VIOLATION)
                 return
-            profile, note = landing.whole, one_table_note(landing)
+            profile, note = landing.whole, "" if quiet else _one_table_note(landing)
     finally:
         bar.close()
     if note and not quiet:
-        err_console.print(note, markup=False)
+        err_console().print(note, markup=False)
     # Every file failed: the report (with the problems) is still written, then exit 2.
     failed = profile.nothing_read
     if json_out is not None:
         write_output(json_out, dumps(profile))
     if html_out is not None:
+        from driftline.emit.html import write_html
+
         write_html(profile, html_out)
     if quiet:
         for note in limit_notes(profile):  # a limit reached is said even without the summary
-            err_console.print(f"warning: {note}", markup=False)
+            err_console().print(f"warning: {note}", markup=False)
     if not quiet:
+        from driftline.emit.terminal import render
+
         # Data goes to stdout; when the JSON report takes stdout, or there is no data, the summary goes to stderr.
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, html_out))
         console = terminal(failed or to_stdout, color)
@@ -216,6 +224,12 @@ def scan_command(
         raise typer.Exit(EXIT_VIOLATION)
 
 
+def _one_table_note(landing: driftline.Landing) -> str:
+    from driftline.emit.landing_text import one_table_note
+
+    return one_table_note(landing)
+
+
 def fails_at(profile: driftline.Profile, level: str) -> bool:
     """Whether a scan meets --fail-at: an event at level or a more urgent one (LEVELS is most
     urgent first), or a file error."""
@@ -227,6 +241,8 @@ def fails_at(profile: driftline.Profile, level: str) -> bool:
 def _file_named(paths: list[str], profile: driftline.Profile) -> str | None:
     """The file a scan of one local file read, for the header: the profile is rooted at its
     folder (relative paths are from there), but the scan was of that file alone."""
+    from driftline.sources.remote import is_url
+
     if len(paths) == 1 and not is_url(paths[0]) and os.path.isfile(paths[0]) and len(profile.files) == 1:
         return os.path.join(profile.root, profile.files[0].rel)
     return None
@@ -235,8 +251,10 @@ def _file_named(paths: list[str], profile: driftline.Profile) -> str | None:
 def terminal(to_stderr: bool, color: bool | None) -> Console:
     """The console of the summary: stdout or stderr; --color forces colour, --no-color none;
     neither: colour on a terminal unless NO_COLOR (rich reads it)."""
+    from rich.console import Console
+
     if color is None:
-        return err_console if to_stderr else Console(highlight=False)
+        return err_console() if to_stderr else Console(highlight=False)
     if color:
         return Console(stderr=to_stderr, highlight=False, force_terminal=True)
     return Console(stderr=to_stderr, highlight=False, color_system=None)
@@ -244,6 +262,8 @@ def terminal(to_stderr: bool, color: bool | None) -> Console:
 
 def _one_folder(paths: list[str]) -> bool:
     """Whether the scan names one local folder: the only case split into datasets."""
+    from driftline.sources.remote import is_url
+
     return len(paths) == 1 and not is_url(paths[0]) and os.path.isdir(paths[0])
 
 
@@ -259,6 +279,9 @@ def _several(
 ) -> None:
     """A root of several datasets: the report set, one HTML page per dataset, the overview then
     each dataset's summary; exit 2 when every file of a dataset failed."""
+    from driftline.results.landing import dumps_set
+    from driftline.results.report import limit_notes
+
     pages = _pages(html_out, list(landing.datasets))
     if pages:  # the names are known now, before anything is written
         check_targets(
@@ -273,14 +296,18 @@ def _several(
     for name, page in pages.items():
         # Each page picks among the others by their file names: they are written side by side.
         picker = [(other, None if other == name else quote(os.path.basename(there))) for other, there in pages.items()]
+        from driftline.emit.html import write_html
+
         write_html(landing.datasets[name], page, picker)
     if quiet:
         for name, p in landing.datasets.items():
             for note in limit_notes(p):
-                err_console.print(f"warning: dataset {safe_text(name)}: {note}", markup=False)
+                err_console().print(f"warning: dataset {safe_text(name)}: {note}", markup=False)
     else:
         to_stdout = json_out is not None and is_stdout(json_out)
         console = terminal(to_stdout or len(failed) == len(landing.datasets), color)
+        from driftline.emit.landing_text import render_landing
+
         render_landing(landing, console, options.max_events, **(look or {}))
         if json_out is not None and not is_stdout(json_out):
             console.print(f"report set written to {safe_text(Path(json_out))}", markup=False)

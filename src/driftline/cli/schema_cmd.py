@@ -263,7 +263,7 @@ def schema_command(
         leading_zeros,
     )
     to_stdout = any(is_stdout(t) for _, t in targets.given())
-    console = err_console if to_stdout else Console(highlight=False)
+    console = err_console() if to_stdout else Console(highlight=False)
     if not several:
         rec = _recommended(lambda: driftline.recommend(paths, options=opts, scan_options=options), console, quiet)
         return _write_one(rec, to, targets, table, json_mode, console, quiet, **sql)
@@ -283,7 +283,7 @@ def schema_command(
                 )
         note = one_table_note(landing)
         if note and not quiet:
-            err_console.print(note, markup=False)
+            err_console().print(note, markup=False)
         whole = landing.whole
         if all_failed(whole):
             raise InputPathError(f"nothing readable: {whole.unread_text()} (driftline scan shows the problems)")
@@ -306,9 +306,9 @@ def _recommended(
     except SchemaConflictError as exc:
         if not quiet:
             summary.render(exc.recommendation, console)
-        err_console.print(f"error: {safe_text(exc, None)}", markup=False)
+        err_console().print(f"error: {safe_text(exc, None)}", markup=False)
         for plan in exc.conflicts:
-            err_console.print("  " + summary.rule_line(plan), markup=False)
+            err_console().print("  " + summary.rule_line(plan), markup=False)
         raise typer.Exit(EXIT_VIOLATION) from None
 
 

@@ -159,9 +159,9 @@ def by_dataset(
         if name in conflicts:
             conflict = conflicts[name]
             prefix = f"dataset {safe_text(name)}: " if several else ""
-            err_console.print(f"error: {prefix}{safe_text(conflict, None)}", markup=False)
+            err_console().print(f"error: {prefix}{safe_text(conflict, None)}", markup=False)
             for plan in conflict.conflicts:
-                err_console.print("  " + summary.rule_line(plan), markup=False)
+                err_console().print("  " + summary.rule_line(plan), markup=False)
     if failed:
         raise InputPathError(unread_datasets(landing, failed))
     if conflicts:

@@ -26,24 +26,13 @@ from driftline.core.lattice import DType, join, join_all, type_of_key, type_text
 from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, SampleKey, class_sample, example_json, type_sample
 from driftline.emit.safe import safe_text
 from driftline.gate.baseline import NULL_CLASSES
+from driftline.gate.diff_kinds import DEFAULT_NULL_POINTS as DEFAULT_NULL_POINTS
+from driftline.gate.diff_kinds import DIFF_FORMAT as DIFF_FORMAT
+from driftline.gate.diff_kinds import DIFF_KINDS as DIFF_KINDS
+from driftline.gate.diff_kinds import DIFF_VERSION as DIFF_VERSION
 from driftline.results.profile import FieldSummary, Profile
 
-# Kinds of change, in the order they are listed.
-DIFF_KINDS: dict[str, str] = {
-    "added": "a field the second side has and the first has not",
-    "removed": "a field the first side has and the second has not",
-    "type-changed": "values of another kind of type: the two types meet only in a union",
-    "widened": "the type grew to a wider one of the same kind (int64 → float64)",
-    "narrowed": "the type shrank to a narrower one (float64 → int64)",
-    "newly-nullable": "null or absent values where the first side had none",
-    "null-share": "the share of null or absent values moved by at least the threshold (points)",
-    "content-class": "string content classes appeared or disappeared",
-}
 _ORDER = {k: i for i, k in enumerate(DIFF_KINDS)}
-DEFAULT_NULL_POINTS = 1.0
-
-
-DIFF_FORMAT, DIFF_VERSION = "driftline-diff", 2  # 2: each side of a change as data, the prose in "message"
 
 
 @dataclass(frozen=True, slots=True)

@@ -21,13 +21,7 @@ from __future__ import annotations
 
 from driftline.core.lattice import UNKNOWN, DType, is_widening, join_all, type_of_key
 from driftline.core.observation import TEXT_CLASS_TYPE
-
-# The levels, most urgent first: the terminal lists them in this order.
-LEVELS: dict[str, str] = {
-    "breaking": "a reader of yesterday's schema fails or loses data",
-    "widening": "the schema grows without loss (a wider type of the same kind, a new optional field)",
-    "info": "the schema still holds every value; worth knowing",
-}
+from driftline.results.level_names import LEVELS as LEVELS  # the names alone: the CLI's help needs no lattice
 
 # Kinds whose level is fixed; the others depend on their before/after types (below).
 _FIXED: dict[str, str] = {

@@ -16,7 +16,7 @@ from driftline.core.partitions import filter_problem, partitions_pass, where_tex
 from driftline.errors import InputPathError
 from driftline.observe.thinning import ScanThinner, cap_paths, thin_result, thin_scan
 from driftline.results.profile import Profile
-from driftline.scanning.workers import cap_jobs, run_ordered
+from driftline.scanning.workers import cap_jobs, pool_pays, run_ordered
 from driftline.sources.discover import Discovery, FileRef, discover
 from driftline.sources.readers import read_file, read_files
 from driftline.sources.registry import OBSERVED_TOGETHER, suffix_list
@@ -172,6 +172,8 @@ def _read_all(
     *,
     task_timeout: float = DEFAULT_TASK_TIMEOUT,
 ) -> list[FileResult]:
+    if not pool_pays(files, jobs):
+        jobs = 1  # small work: the serial run, whose results the pool's equal (tests/differential/)
     if jobs > 1 and any(can_split(ref, opts) for ref in files):
         return _read_split(files, opts, jobs, max_errors, progress, task_timeout)
     keep = ScanThinner()  # batch observations summarised as they come: memory stays bounded

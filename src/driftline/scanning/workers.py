@@ -20,6 +20,7 @@ from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
+from driftline.core.fileref import FileRef
 from driftline.core.options import DEFAULT_TASK_TIMEOUT
 from driftline.errors import WorkerError
 
@@ -30,6 +31,23 @@ WORKER_BYTES = 256 * 2**20  # one worker (about 70 MB measured at rest) and the 
 # itself with SIGKILL as the out-of-memory killer would ("kill:NAME|FLAG": only while the file
 # FLAG does not exist yet, so once); "hang:NAME" sleeps, as on a hung mount.
 TEST_FAULT_ENV = "DRIFTLINE_TEST_WORKER_FAULT"
+
+# Tests only: with this set to 1 a scan asked for several jobs starts its pool whatever the size
+# of the work, so that the pool's own paths (faults, ordering, results equal to the serial run's)
+# are exercised on small test folders (tests/conftest.py sets it for the suite).
+TEST_POOL_ENV = "DRIFTLINE_TEST_ALWAYS_POOL"
+
+# When a pool pays (docs/performance.md, "When a pool starts"): the serial reading time of the
+# files is estimated from their number and size, and under POOL_MIN_SECONDS they are read in
+# this process, since the pool's start, its transfers and the loss of the large serial Parquet
+# groups cost more than a second core can save. Measured on 2 cores, in-process, median of 5:
+# a small JSON Lines or CSV file costs about 2.5 ms, a small Parquet file 0.65 ms, and text is
+# read at about 50 MB/s (a compressed file's bytes expand about 6 times, measured on gzip'd JSON).
+POOL_MIN_SECONDS = 1.0
+FILE_SECONDS = {"parquet": 0.00065}
+TEXT_FILE_SECONDS = 0.0025
+BYTES_PER_SECOND = 50e6
+COMPRESSED_EXPANSION = 6
 
 Names = Callable[[Any], list[str]]  # the relative paths a task reads, for messages
 
@@ -90,6 +108,36 @@ def cap_jobs(requested: int, *, cores: int | None = None, memory: int | None = -
             f"and {memory // 2**20:,} MB of memory is available"
         )
     return jobs, why
+
+
+def serial_seconds(files: Sequence[FileRef]) -> float:
+    """The estimated time to read files one after another in this process (see POOL_MIN_SECONDS).
+
+    >>> ref = FileRef("/d/a.jsonl", "a.jsonl", (), "jsonl", None, 5_000_000, 0)
+    >>> round(serial_seconds([ref] * 4), 3)  # 4 × (2.5 ms + 5 MB at 50 MB/s)
+    0.41
+    """
+    total = 0.0
+    for ref in files:
+        size = ref.size * (COMPRESSED_EXPANSION if ref.compression else 1)
+        total += FILE_SECONDS.get(ref.format, TEXT_FILE_SECONDS) + size / BYTES_PER_SECOND
+    return total
+
+
+def pool_pays(files: Sequence[FileRef], jobs: int) -> bool:
+    """Whether reading files in a pool of `jobs` workers is worth starting it: several files or
+    spans, and either an object store (whose waits overlap) or a second of estimated work
+    (tests/scanning/test_pool_choice.py).
+
+    >>> small = FileRef("/d/a.csv", "a.csv", (), "csv", None, 10_000, 0)
+    >>> round(serial_seconds([small] * 45), 2), round(serial_seconds([small] * 1_000), 2)  # 45 files: no pool
+    (0.12, 2.7)
+    """
+    if jobs <= 1 or not files:
+        return False
+    if os.environ.get(TEST_POOL_ENV) == "1" or any(ref.is_remote for ref in files):
+        return True
+    return serial_seconds(files) >= POOL_MIN_SECONDS
 
 
 def run_ordered(

@@ -16,7 +16,6 @@ from driftline.core.documents import read_json_document
 from driftline.core.stats import example_json
 from driftline.core.validation import check_document
 from driftline.core.version import __version__
-from driftline.emit.schemas.sql import layout
 from driftline.errors import ReportVersionError
 from driftline.recommendation.plan import FieldPlan, Recommendation
 
@@ -74,6 +73,8 @@ def _field(plan: FieldPlan) -> dict[str, Any]:
 
 def renames(rec: Recommendation, flatten: str | None = None) -> list[dict[str, str]]:
     """The column names the naming rule changed (emit/schemas/names.py), as the SQL file makes them."""
+    from driftline.emit.schemas.sql import layout  # sqlglot: only when a rules file is written
+
     return [r.to_json() for r in layout(rec, "duckdb", flatten).renames]
 
 
