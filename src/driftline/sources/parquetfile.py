@@ -19,6 +19,7 @@ from driftline.core.lattice import from_arrow, unsupported_reason
 from driftline.core.options import RATIO_FLOOR_BYTES, ReadOptions
 from driftline.core.words import count
 from driftline.observe.fast.bulk import Batch
+from driftline.sources import parquetstats
 
 Item = Batch | FileIssue | dict
 # A local file this small is read into memory first: pyarrow then decodes it without its
@@ -76,6 +77,8 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         return
     yield _declared(schema)
     rows, batch, expected = 0, 0, 0
+    footer = parquetstats.footer_first(opts)
+    leaves: dict[str, int] | None = None
     for rg in range(pf.metadata.num_row_groups):
         meta = pf.metadata.row_group(rg)
         too_big = _oversized(meta, stored, opts)
@@ -83,8 +86,18 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
             yield FileIssue(rel, "too-large", f"row group {rg}: {too_big}; row group not read", row=rows)
             continue
         expected += meta.num_rows
+        per_batch = _rows_per_batch(meta, opts)
+        if footer and parquetstats.FOOTER_MIN_ROWS <= meta.num_rows <= per_batch:
+            if leaves is None:
+                leaves = parquetstats.leaf_indices(schema, pf.schema) or {}
+            got = _footer_answered(pf, rg, meta, leaves, rel, batch, rows) if leaves else None
+            if got is not None:
+                yield got
+                rows += got.data.num_rows
+                batch += 1
+                continue
         try:
-            for rb in _row_group(pf, rg, meta.num_rows, _rows_per_batch(meta, opts)):
+            for rb in _row_group(pf, rg, meta.num_rows, per_batch):
                 yield Batch(rb, rel, batch, rows)
                 rows += rb.num_rows
                 batch += 1
@@ -98,6 +111,29 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         yield FileIssue(
             rel, "row-count", f"the footer declares {count(expected, 'row')} but {rows:,} could be read", row=rows
         )
+
+
+def _footer_answered(
+    pf: pq.ParquetFile, rg: int, meta: pq.RowGroupMetaData, leaves: dict[str, int], rel: str, batch: int, row_start: int
+) -> Batch | None:
+    """The row group as one Batch whose columns the footer answers (parquetstats) come as
+    statistics and whose other columns are read by projection; None when the footer answers
+    none of them, or the prefix cannot be read: the row group is then read whole, as always,
+    and a damaged or encrypted column is reported by that reading. The prefix is read before
+    any column's metadata is touched: that of an encrypted column aborts the process (pyarrow
+    26.0.1), and its data raises first."""
+    try:
+        prefix = next(pf.iter_batches(batch_size=parquetstats.PREFIX_ROWS, row_groups=[rg], use_threads=False))
+        known = parquetstats.answer(meta, prefix, leaves, file=rel, row_start=row_start)
+        if not known:
+            return None
+        rest = [n for n in prefix.schema.names if n not in known]
+        data = pf.read_row_group(rg, columns=rest, use_threads=False)
+    except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError, StopIteration):
+        return None
+    if data.num_rows != meta.num_rows:
+        return None
+    return Batch(data, rel, batch, row_start, known)
 
 
 def _source(path: object) -> tuple[object, int]:
