@@ -119,16 +119,17 @@ def _footer_answered(
     """The row group as one Batch whose columns the footer answers (parquetstats) come as
     statistics and whose other columns are read by projection; None when the footer answers
     none of them, or the prefix cannot be read: the row group is then read whole, as always,
-    and a damaged or encrypted column is reported by that reading. The prefix is read before
-    any column's metadata is touched: that of an encrypted column aborts the process (pyarrow
-    26.0.1), and its data raises first."""
+    and a damaged or encrypted column is reported by that reading. The prefix of the columns
+    the footer may answer is read before their metadata is touched: that of an encrypted
+    column aborts the process (pyarrow 26.0.1), and its data raises first."""
     try:
-        prefix = next(pf.iter_batches(batch_size=parquetstats.PREFIX_ROWS, row_groups=[rg], use_threads=False))
-        known = parquetstats.answer(meta, prefix, leaves, file=rel, row_start=row_start)
+        first = pf.iter_batches(
+            batch_size=parquetstats.PREFIX_ROWS, row_groups=[rg], columns=list(leaves), use_threads=False
+        )
+        known = parquetstats.answer(meta, next(first), leaves, file=rel, row_start=row_start)
         if not known:
             return None
-        rest = [n for n in prefix.schema.names if n not in known]
-        data = pf.read_row_group(rg, columns=rest, use_threads=False)
+        data = pf.read_row_group(rg, columns=[n for n in pf.schema_arrow.names if n not in known], use_threads=False)
     except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError, StopIteration):
         return None
     if data.num_rows != meta.num_rows:

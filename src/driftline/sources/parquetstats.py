@@ -60,8 +60,9 @@ def footer_first(opts: ReadOptions) -> bool:
 
 
 def leaf_indices(schema: pa.Schema, pschema: pq.ParquetSchema) -> dict[str, int] | None:
-    """Each flat top-level column's index among the Parquet leaf columns; None when the schema's
-    names repeat or its leaves do not line up with the Arrow fields (nothing is answered then)."""
+    """Each top-level column of a type the footer may answer, with its index among the Parquet
+    leaf columns; None when the schema's names repeat or its leaves do not line up with the
+    Arrow fields (nothing is answered then). Only the schema is read, never a column's metadata."""
     if len(set(schema.names)) != len(schema.names):
         return None
     out: dict[str, int] = {}
