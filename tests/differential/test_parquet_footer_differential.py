@@ -140,6 +140,8 @@ def _columns(rng: random.Random, n: int) -> dict[str, pa.Array]:
         "sec": pa.array([rng.randrange(0, 2**32) for _ in range(n)], pa.int64()).cast(pa.timestamp("s")),
         "dict_int": pa.array([v % 7 for v in ints], pa.int64()).dictionary_encode(),
         "text": pa.array(nulls([rng.choice(["12", "x", "2026-01-02", "", "NaN"]) for _ in range(n)], 0.1)),
+        "codes": pa.array([f"c{v % 40:03d}" for v in ints]).dictionary_encode(),  # read back as a dictionary
+        "ids": pa.array([str(v * 7919) for v in ints]),  # many distinct values
         "nested": pa.array([{"a": v, "b": [v, v]} for v in ints]),
     }
 

@@ -79,6 +79,7 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
     rows, batch, expected = 0, 0, 0
     footer = parquetstats.footer_first(opts)
     leaves: dict[str, int] | None = None
+    words: pq.ParquetFile | None = None  # the same file, its string columns read with their dictionaries
     for rg in range(pf.metadata.num_row_groups):
         meta = pf.metadata.row_group(rg)
         too_big = _oversized(meta, stored, opts)
@@ -90,7 +91,8 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         if footer and parquetstats.FOOTER_MIN_ROWS <= meta.num_rows <= per_batch:
             if leaves is None:
                 leaves = parquetstats.leaf_indices(schema, pf.schema) or {}
-            got = _footer_answered(pf, rg, meta, leaves, rel, batch, rows) if leaves else None
+                words = _with_dictionaries(source, schema) if leaves else None
+            got = _footer_answered(pf, words or pf, rg, meta, leaves, rel, batch, rows) if leaves else None
             if got is not None:
                 yield got
                 rows += got.data.num_rows
@@ -113,11 +115,41 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         )
 
 
+def _with_dictionaries(source: object, schema: pa.Schema) -> pq.ParquetFile | None:
+    """The file opened again with its top-level string columns read as dictionaries: dictionary
+    pages are then decoded once per value, not once per row, and string_profile classifies the
+    dictionary and counts through the indices (observe/fast/strprofile.encoded_rows)."""
+    names = [f.name for f in schema if f.type == pa.string()]
+    if not names:
+        return None
+    try:
+        return pq.ParquetFile(source, read_dictionary=names)
+    except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError):
+        return None
+
+
+def _one_dictionary(data: pa.Table) -> pa.Table:
+    """data with each dictionary column of several chunks (each its own dictionary) decoded: one
+    chunk per column is what the observers concatenate without unifying dictionaries."""
+    for i, col in enumerate(data.columns):
+        if pa.types.is_dictionary(col.type) and col.num_chunks > 1:
+            data = data.set_column(i, data.field(i).with_type(col.type.value_type), col.cast(col.type.value_type))
+    return data
+
+
 def _footer_answered(
-    pf: pq.ParquetFile, rg: int, meta: pq.RowGroupMetaData, leaves: dict[str, int], rel: str, batch: int, row_start: int
+    pf: pq.ParquetFile,
+    words: pq.ParquetFile,
+    rg: int,
+    meta: pq.RowGroupMetaData,
+    leaves: dict[str, int],
+    rel: str,
+    batch: int,
+    row_start: int,
 ) -> Batch | None:
     """The row group as one Batch whose columns the footer answers (parquetstats) come as
-    statistics and whose other columns are read by projection; None when the footer answers
+    statistics and whose other columns are read by projection (from words: strings with their
+    dictionaries); None when the footer answers
     none of them, or the prefix cannot be read: the row group is then read whole, as always,
     and a damaged or encrypted column is reported by that reading. The prefix of the columns
     the footer may answer is read before their metadata is touched: that of an encrypted
@@ -129,7 +161,8 @@ def _footer_answered(
         known = parquetstats.answer(meta, next(first), leaves, file=rel, row_start=row_start)
         if not known:
             return None
-        data = pf.read_row_group(rg, columns=[n for n in pf.schema_arrow.names if n not in known], use_threads=False)
+        rest = [n for n in pf.schema_arrow.names if n not in known]
+        data = _one_dictionary(words.read_row_group(rg, columns=rest, use_threads=False))
     except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError, StopIteration):
         return None
     if data.num_rows != meta.num_rows:
