@@ -31,19 +31,18 @@ from __future__ import annotations
 import json
 import os
 from collections.abc import Mapping
-from dataclasses import replace
 from typing import Any
 
 import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
-from driftline.core import paths
+from driftline.core.lattice import from_arrow
 from driftline.core.options import ReadOptions
-from driftline.core.stats import FieldStats
-from driftline.observe.fast.columnar import _temporal_text, observe_column
+from driftline.core.stats import NULL_SAMPLE, Example, FieldStats, Samples, type_sample
+from driftline.observe.fast.columnar import _first_null, _first_valid, _sample, _temporal_text
 from driftline.observe.fast.strprofile import exact_requested
-from driftline.observe.records import SAFE_INT
+from driftline.observe.records import SAFE_INT, value_text
 
 FOOTER_ENV = "DRIFTLINE_FOOTER_STATS"  # "0": every column read from its pages (for the differential tests)
 # A row group shorter than this is read whole: decoding a few thousand rows costs less than the
@@ -127,14 +126,14 @@ def answer(
         if leaf is None or not _flat(col.type):
             continue
         arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
-        got = _column(meta.column(leaf), arr, name, rows, file=file, row_start=row_start)
+        got = _column(meta.column(leaf), arr, rows, file=file, row_start=row_start)
         if got is not None:
             out[name] = got
     return out
 
 
 def _column(
-    chunk: pq.ColumnChunkMetaData, head: pa.Array, name: str, rows: int, *, file: str, row_start: int
+    chunk: pq.ColumnChunkMetaData, head: pa.Array, rows: int, *, file: str, row_start: int
 ) -> FieldStats | None:
     if not chunk.is_stats_set:
         return None
@@ -165,12 +164,17 @@ def _column(
         if got is None:
             return None
         extremes = {"minimum": got[0], "maximum": got[1]}
-    seen = observe_column(head, name, file=file, row_start=row_start)
-    if isinstance(seen, str):
-        return None
-    base = seen[paths.child(None, name)]
+    # The examples as columnar._observe makes them: the first null, the first value (as _sample shows it).
+    samples: Samples = {}
+    if (fn := _first_null(head)) is not None:
+        samples[NULL_SAMPLE] = (Example(file, row_start + fn, None, value_text(None)),)
+    key = from_arrow(head.type).shallow_key()
+    if (fv := _first_valid(head)) is not None:
+        samples[type_sample(key)] = (Example(file, row_start + fv, None, value_text(_sample(head, head, fv))),)
     values = rows - nulls
-    return replace(base, types={k: values for k in base.types} if values else {}, nulls=nulls, **extremes)
+    return FieldStats(
+        types={key: values} if values else {}, nulls=nulls, samples=dict(sorted(samples.items())), **extremes
+    )
 
 
 def _extremes(st: pq.Statistics, t: pa.DataType) -> tuple[Any, Any] | None:
