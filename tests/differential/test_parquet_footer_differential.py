@@ -209,3 +209,19 @@ def test_answers_equal_pyarrow_compute(tmp_path: Path, answered: list[str]) -> N
                 assert (stats.minimum, stats.maximum) == (lo.as_py(), hi.as_py())
             seen += 1
     assert seen >= 10
+
+
+def test_as_shipped_on_large_row_groups(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # source: pyarrow.parquet.write_table (row groups of 20,000 rows, past FOOTER_MIN_ROWS); the
+    # thresholds as shipped, the strings read with their dictionary pages
+    monkeypatch.delenv(jsonfile.EXACT_ENV, raising=False)
+    monkeypatch.delenv(parquetstats.FOOTER_ENV, raising=False)
+    rng = random.Random(11)
+    path = tmp_path / "big.parquet"
+    pq.write_table(pa.table(_columns(rng, 50_000)), path, row_group_size=20_000)
+    batches = [b for b in read_parquet(str(path), "big.parquet", ReadOptions()) if hasattr(b, "known")]
+    assert [len(b.known) > 0 for b in batches] == [True, True, False]  # the last group: 10,000 rows, read whole
+    assert pa.types.is_dictionary(batches[0].data.schema.field("text").type)
+    assert pa.types.is_dictionary(batches[0].data.schema.field("ids").type)
+    assert not pa.types.is_dictionary(batches[2].data.schema.field("text").type)
+    _same_three_ways([path])
