@@ -128,10 +128,12 @@ def string_profile(arr: pa.Array, keep_first: int = 3, encoded: pa.DictionaryArr
 def encoded_rows(arr: pa.Array) -> pa.DictionaryArray | None:
     """arr itself when it is a dictionary of strings string_profile can classify through: every
     dictionary value distinct, not null and used by a row (as pyarrow.compute.dictionary_encode
-    makes them); else None."""
+    makes them), and few enough for string_profile to use it; else None."""
     if not pa.types.is_dictionary(arr.type) or arr.type.value_type != pa.string():
         return None
     values = arr.dictionary
+    if len(values) > FEW and len(values) * DICTIONARY_SHARE > len(arr):
+        return None  # string_profile would classify the rows one by one anyway: no checks for nothing
     if values.null_count or len(pc.unique(values)) != len(values):
         return None
     used = pc.unique(arr.indices).drop_null()
