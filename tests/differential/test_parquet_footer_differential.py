@@ -30,7 +30,7 @@ from driftline.core.options import ReadOptions
 from driftline.core.stats import FieldStats
 from driftline.results.report import to_dict
 from driftline.scanning.run import scan_paths
-from driftline.sources import parquetstats
+from driftline.sources import parquetfile, parquetstats
 from driftline.sources.parquetfile import read_parquet
 
 SUITE = SHARED_TESTDATA / "parquet-conformance"
@@ -49,6 +49,7 @@ def answered(monkeypatch: pytest.MonkeyPatch) -> list[str]:
     """The shortcut on every row group, with a 3-row prefix; the names of the columns it answered."""
     monkeypatch.setattr(parquetstats, "FOOTER_MIN_ROWS", 1)
     monkeypatch.setattr(parquetstats, "PREFIX_ROWS", 3)
+    monkeypatch.setattr(parquetfile, "_UNANSWERED", {})
     monkeypatch.delenv(jsonfile.EXACT_ENV, raising=False)
     monkeypatch.delenv(parquetstats.FOOTER_ENV, raising=False)
     names: list[str] = []
@@ -216,6 +217,7 @@ def test_as_shipped_on_large_row_groups(tmp_path: Path, monkeypatch: pytest.Monk
     # thresholds as shipped, the strings read with their dictionary pages
     monkeypatch.delenv(jsonfile.EXACT_ENV, raising=False)
     monkeypatch.delenv(parquetstats.FOOTER_ENV, raising=False)
+    monkeypatch.setattr(parquetfile, "_UNANSWERED", {})
     rng = random.Random(11)
     path = tmp_path / "big.parquet"
     pq.write_table(pa.table(_columns(rng, 50_000)), path, row_group_size=20_000)
@@ -225,3 +227,28 @@ def test_as_shipped_on_large_row_groups(tmp_path: Path, monkeypatch: pytest.Monk
     assert pa.types.is_dictionary(batches[0].data.schema.field("ids").type)
     assert not pa.types.is_dictionary(batches[2].data.schema.field("text").type)
     _same_three_ways([path])
+
+
+def test_footers_without_statistics_are_asked_again_now_and_then(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # source: pyarrow.parquet.write_table(write_statistics=False); the same schema and writer
+    monkeypatch.delenv(jsonfile.EXACT_ENV, raising=False)
+    monkeypatch.delenv(parquetstats.FOOTER_ENV, raising=False)
+    monkeypatch.setattr(parquetfile, "_UNANSWERED", {})
+    monkeypatch.setattr(parquetstats, "FOOTER_MIN_ROWS", 1)
+    table = pa.table(_columns(random.Random(3), 40))
+    bare, full = tmp_path / "bare.parquet", tmp_path / "full.parquet"
+    pq.write_table(table, bare, write_statistics=False)
+    pq.write_table(table, full)
+
+    def answered(path: Path) -> bool:
+        return any(getattr(b, "known", None) for b in read_parquet(str(path), path.name, ReadOptions()))
+
+    assert answered(full)
+    assert not answered(bare)
+    # the next files of that schema and writer are read whole, but one in _RETRY_EVERY asks again
+    asked = [answered(full) for _ in range(parquetfile._RETRY_EVERY)]
+    assert asked == [False] * (parquetfile._RETRY_EVERY - 1) + [True]
+    assert answered(full)  # answered once: asked every time again
+    _same_three_ways([bare, full])

@@ -6,6 +6,7 @@ batches at once (observe.bulk, through readers.read_files).
 
 from __future__ import annotations
 
+import contextlib
 import io
 import os
 from collections.abc import Iterator
@@ -77,9 +78,13 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         return
     yield _declared(schema)
     rows, batch, expected = 0, 0, 0
-    footer = parquetstats.footer_first(opts)
+    shape = (schema, pf.metadata.created_by)
+    misses = _UNANSWERED.get(shape, 0)
+    footer = parquetstats.footer_first(opts) and misses % _RETRY_EVERY == 0
+    if misses and not footer:
+        _UNANSWERED[shape] = misses + 1
     leaves: dict[str, int] | None = None
-    words: pq.ParquetFile | None = None  # the same file, its string columns read with their dictionaries
+    words = _Words(source, schema)  # the same file, its string columns read with their dictionaries
     for rg in range(pf.metadata.num_row_groups):
         meta = pf.metadata.row_group(rg)
         too_big = _oversized(meta, stored, opts)
@@ -91,13 +96,19 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         if footer and parquetstats.FOOTER_MIN_ROWS <= meta.num_rows <= per_batch:
             if leaves is None:
                 leaves = parquetstats.leaf_indices(schema, pf.schema) or {}
-                words = _with_dictionaries(source, schema) if leaves else None
-            got = _footer_answered(pf, words or pf, rg, meta, leaves, rel, batch, rows) if leaves else None
+            got = _footer_answered(pf, words, rg, meta, leaves, rel, batch, rows) if leaves else None
             if got is not None:
+                _UNANSWERED.pop(shape, None)
                 yield got
                 rows += got.data.num_rows
                 batch += 1
                 continue
+            # A footer that answered nothing (no statistics) is not asked again in this file, nor
+            # in most next files of its schema and writer: the prefix would be read for nothing.
+            footer = False
+            if len(_UNANSWERED) > 256:
+                _UNANSWERED.clear()
+            _UNANSWERED[shape] = misses + 1
         try:
             for rb in _row_group(pf, rg, meta.num_rows, per_batch):
                 yield Batch(rb, rel, batch, rows)
@@ -115,17 +126,24 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         )
 
 
-def _with_dictionaries(source: object, schema: pa.Schema) -> pq.ParquetFile | None:
-    """The file opened again with its top-level string columns read as dictionaries: dictionary
-    pages are then decoded once per value, not once per row, and string_profile classifies the
-    dictionary and counts through the indices (observe/fast/strprofile.encoded_rows)."""
-    names = [f.name for f in schema if f.type == pa.string()]
-    if not names:
-        return None
-    try:
-        return pq.ParquetFile(source, read_dictionary=names)
-    except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError):
-        return None
+class _Words:
+    """The file opened again, once and only when needed, with its top-level string columns read
+    as dictionaries: dictionary pages are then decoded once per value, not once per row, and
+    string_profile classifies the dictionary and counts through the indices
+    (observe/fast/strprofile.encoded_rows)."""
+
+    def __init__(self, source: object, schema: pa.Schema) -> None:
+        self._source = source
+        self._names = [f.name for f in schema if f.type == pa.string()]
+        self._file: pq.ParquetFile | None = None
+
+    def file(self, plain: pq.ParquetFile) -> pq.ParquetFile:
+        if self._file is None:
+            self._file = plain
+            if self._names:
+                with contextlib.suppress(OSError, pa.ArrowException, ValueError, IndexError, MemoryError):
+                    self._file = pq.ParquetFile(self._source, read_dictionary=self._names)
+        return self._file
 
 
 def _one_dictionary(data: pa.Table) -> pa.Table:
@@ -139,7 +157,7 @@ def _one_dictionary(data: pa.Table) -> pa.Table:
 
 def _footer_answered(
     pf: pq.ParquetFile,
-    words: pq.ParquetFile,
+    words: _Words,
     rg: int,
     meta: pq.RowGroupMetaData,
     leaves: dict[str, int],
@@ -162,7 +180,7 @@ def _footer_answered(
         if not known:
             return None
         rest = [n for n in pf.schema_arrow.names if n not in known]
-        data = _one_dictionary(words.read_row_group(rg, columns=rest, use_threads=False))
+        data = _one_dictionary(words.file(pf).read_row_group(rg, columns=rest, use_threads=False))
     except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError, StopIteration):
         return None
     if data.num_rows != meta.num_rows:
@@ -200,6 +218,9 @@ def _row_group(pf: pq.ParquetFile, rg: int, rows: int, batch_rows: int) -> Itera
         yield from pf.iter_batches(batch_size=batch_rows, row_groups=[rg], use_threads=False)
 
 
+# (schema, writer) -> files since its footers last answered nothing: one file in _RETRY_EVERY asks again
+_UNANSWERED: dict[tuple[pa.Schema, str | None], int] = {}
+_RETRY_EVERY = 16
 _DECLARED: dict[pa.Schema, dict[str, str]] = {}  # files of one schema share its declared paths
 
 
