@@ -78,13 +78,9 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         return
     yield _declared(schema)
     rows, batch, expected = 0, 0, 0
-    shape = (schema, pf.metadata.created_by)
-    misses = _UNANSWERED.get(shape, 0)
-    footer = parquetstats.footer_first(opts) and misses % _RETRY_EVERY == 0
-    if misses and not footer:
-        _UNANSWERED[shape] = misses + 1
-    leaves: dict[str, int] | None = None
-    words = _Words(source, schema)  # the same file, its string columns read with their dictionaries
+    footer = parquetstats.footer_first(opts)
+    leaves: dict[str, int] | None = None  # set on the first row group large enough to ask the footer
+    words: _Words | None = None  # the same file, its string columns read with their dictionaries
     for rg in range(pf.metadata.num_row_groups):
         meta = pf.metadata.row_group(rg)
         too_big = _oversized(meta, stored, opts)
@@ -95,8 +91,10 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         per_batch = _rows_per_batch(meta, opts)
         if footer and parquetstats.FOOTER_MIN_ROWS <= meta.num_rows <= per_batch:
             if leaves is None:
-                leaves = parquetstats.leaf_indices(schema, pf.schema) or {}
-            got = _footer_answered(pf, words, rg, meta, leaves, rel, batch, rows) if leaves else None
+                shape = (schema, pf.metadata.created_by)
+                leaves = (parquetstats.leaf_indices(schema, pf.schema) or {}) if _asked(shape) else {}
+                words = _Words(source, schema)
+            got = _footer_answered(pf, words, rg, meta, leaves, rel, batch, rows) if leaves and words else None
             if got is not None:
                 _UNANSWERED.pop(shape, None)
                 yield got
@@ -106,9 +104,8 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
             # A footer that answered nothing (no statistics) is not asked again in this file, nor
             # in most next files of its schema and writer: the prefix would be read for nothing.
             footer = False
-            if len(_UNANSWERED) > 256:
-                _UNANSWERED.clear()
-            _UNANSWERED[shape] = misses + 1
+            if leaves:
+                _missed(shape)
         try:
             for rb in _row_group(pf, rg, meta.num_rows, per_batch):
                 yield Batch(rb, rel, batch, rows)
@@ -124,6 +121,22 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         yield FileIssue(
             rel, "row-count", f"the footer declares {count(expected, 'row')} but {rows:,} could be read", row=rows
         )
+
+
+def _asked(shape: tuple[pa.Schema, str | None]) -> bool:
+    """Whether to ask a file's footer: not while files of its schema and writer answered nothing,
+    but for one in _RETRY_EVERY of them."""
+    misses = _UNANSWERED.get(shape, 0)
+    if misses % _RETRY_EVERY:
+        _UNANSWERED[shape] = misses + 1
+        return False
+    return True
+
+
+def _missed(shape: tuple[pa.Schema, str | None]) -> None:
+    if len(_UNANSWERED) > 256:
+        _UNANSWERED.clear()
+    _UNANSWERED[shape] = _UNANSWERED.get(shape, 0) + 1
 
 
 class _Words:
