@@ -13,7 +13,7 @@ tests/test_bulk.py holds every Observation equal to observe_table's.
 from __future__ import annotations
 
 from collections.abc import Iterator, Mapping, Sequence
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from itertools import accumulate
 from typing import Any
 
@@ -59,7 +59,7 @@ class Batch:
     row_start: int
     # Columns answered without their data (a Parquet footer's statistics): their statistics, by
     # top-level column name; data then holds only the other columns (and every row).
-    known: Mapping[str, FieldStats] = field(default_factory=dict)
+    known: Mapping[str, FieldStats] | None = None
 
 
 def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Observation]:
@@ -88,7 +88,8 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
             out[i].update(whole.fields)
             unobserved[i].update(whole.unobserved)
             continue
-        out[i].update(_known_paths(b))
+        if b.known:
+            out[i].update(_known_paths(b))
         for name, col in zip(names, b.data.columns, strict=True):
             arr = _whole(col)
             groups.setdefault((name, arr.type), []).append((i, arr))
@@ -116,7 +117,7 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
 
 
 def _known_paths(b: Batch) -> dict[str, FieldStats]:
-    return {paths.child(None, name): st for name, st in b.known.items()}
+    return {paths.child(None, name): st for name, st in (b.known or {}).items()}
 
 
 def _with_known(obs: Observation, b: Batch) -> Observation:
