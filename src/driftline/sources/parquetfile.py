@@ -78,7 +78,7 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         return
     yield _declared(schema)
     rows, batch, expected = 0, 0, 0
-    footer = parquetstats.footer_first(opts)
+    footer: bool | None = None  # whether to ask the footer; looked up on the first large row group
     leaves: dict[str, int] | None = None  # set on the first row group large enough to ask the footer
     words: _Words | None = None  # the same file, its string columns read with their dictionaries
     for rg in range(pf.metadata.num_row_groups):
@@ -89,7 +89,10 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
             continue
         expected += meta.num_rows
         per_batch = _rows_per_batch(meta, opts)
-        if footer and parquetstats.FOOTER_MIN_ROWS <= meta.num_rows <= per_batch:
+        large = parquetstats.FOOTER_MIN_ROWS <= meta.num_rows <= per_batch
+        if large and footer is None:
+            footer = parquetstats.footer_first(opts)
+        if large and footer:
             if leaves is None:
                 shape = (schema, pf.metadata.created_by)
                 leaves = (parquetstats.leaf_indices(schema, pf.schema) or {}) if _asked(shape) else {}
