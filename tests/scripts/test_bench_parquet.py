@@ -20,7 +20,8 @@ BENCH = ROOT / "scripts" / "bench"
 def results(tmp_path_factory: pytest.TempPathFactory) -> dict:
     tmp = tmp_path_factory.mktemp("bench")
     out = tmp / "results.json"
-    cmd = [sys.executable, str(BENCH), "--parquet", "--quick", "--scale", "0.01", "--data-dir", str(tmp / "data")]
+    cmd = [sys.executable, str(BENCH), "--parquet", "--quick", "--scale", "0.01", "--jobs", "2"]
+    cmd += ["--data-dir", str(tmp / "data")]
     proc = subprocess.run([*cmd, "--out", str(out)], capture_output=True, text=True, timeout=240)
     assert proc.returncode == 0, proc.stderr
     return {"json": json.loads(out.read_text()), "stdout": proc.stdout}
@@ -28,11 +29,16 @@ def results(tmp_path_factory: pytest.TempPathFactory) -> dict:
 
 def test_every_variant_on_both_sets(results: dict) -> None:
     rows = results["json"]["parquet"]["rows"]
-    got = sorted((r["dataset"], r["tool"], r["version"]) for r in rows)
+    got = sorted((r["dataset"], r["tool"], r["version"], r["jobs"] or 0) for r in rows)
     want = sorted(
-        (d, t, v)
+        (d, t, v, j)
         for d in ("parquet", "parquet-heavy")
-        for t, v in (("pyarrow", "pyarrow"), ("pyarrow-read", "pyarrow-read"), ("driftline", "working tree"))
+        for t, v, j in (
+            ("pyarrow", "pyarrow", 0),
+            ("pyarrow-read", "pyarrow-read", 0),
+            ("driftline", "working tree", 1),
+            ("driftline", "working tree", 2),
+        )
     )
     assert got == want
     assert all(r["ok"] for r in rows), rows
@@ -43,16 +49,16 @@ def test_driftline_counts_the_rows_pyarrow_reads(results: dict) -> None:
     rows = results["json"]["parquet"]["rows"]
     for d in ("parquet", "parquet-heavy"):
         read = next(r["result"] for r in rows if r["dataset"] == d and r["tool"] == "pyarrow-read")
-        _, _, scanned = next(r["result"] for r in rows if r["dataset"] == d and r["tool"] == "driftline")
-        assert scanned == read
+        for r in rows:
+            if r["dataset"] == d and r["tool"] == "driftline":
+                assert r["result"][2] == read  # profile.rows, with each --jobs
     heavy = next(r["result"] for r in rows if r["dataset"] == "parquet-heavy" and r["tool"] == "pyarrow-read")
     assert heavy == 20 * 6_000  # 20 files of 600,000 rows at scale 1, 6,000 at 0.01
 
 
 def test_table(results: dict) -> None:
     lines = results["stdout"].splitlines()
-    assert lines[0] == "| data set | MB | footer loop | read_table | driftline | / footer loop | / read_table |"
-    assert [ln.split("|")[1].strip() for ln in lines[2:4]] == [
-        "2,000 small Parquet files",
-        "data-heavy Parquet (20 files)",
-    ]
+    assert lines[0] == "| data set | MB | jobs | footer loop | read_table | driftline | / footer loop | / read_table |"
+    cells = [[c.strip() for c in ln.split("|")[1:4]] for ln in lines[2:6]]
+    small, heavy = "2,000 small Parquet files", "data-heavy Parquet (20 files)"
+    assert [(c[0], c[2]) for c in cells] == [(small, "1"), (small, "2"), (heavy, "1"), (heavy, "2")]
