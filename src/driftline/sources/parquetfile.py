@@ -183,11 +183,11 @@ def _footer_answered(
 ) -> Batch | None:
     """The row group as one Batch whose columns the footer answers (parquetstats) come as
     statistics and whose other columns are read by projection (from words: strings with their
-    dictionaries); None when the footer answers
-    none of them, or the prefix cannot be read: the row group is then read whole, as always,
-    and a damaged or encrypted column is reported by that reading. The prefix of the columns
-    the footer may answer is read before their metadata is touched: that of an encrypted
-    column aborts the process (pyarrow 26.0.1), and its data raises first."""
+    dictionaries); None when the footer answers none of them, or the prefix cannot be read:
+    the row group is then read whole, as always, and a damaged or encrypted column is
+    reported by that reading. The prefix of the columns the footer may answer is read before
+    their metadata is touched: that of an encrypted column aborts the process (pyarrow
+    26.0.1), and its data raises first."""
     try:
         first = pf.iter_batches(
             batch_size=parquetstats.PREFIX_ROWS, row_groups=[rg], columns=list(leaves), use_threads=False
