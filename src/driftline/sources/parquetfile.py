@@ -6,6 +6,7 @@ batches at once (observe.bulk, through readers.read_files).
 
 from __future__ import annotations
 
+import contextlib
 import io
 import os
 from collections.abc import Iterator
@@ -19,6 +20,7 @@ from driftline.core.lattice import from_arrow, unsupported_reason
 from driftline.core.options import RATIO_FLOOR_BYTES, ReadOptions
 from driftline.core.words import count
 from driftline.observe.fast.bulk import Batch
+from driftline.sources import parquetstats
 
 Item = Batch | FileIssue | dict
 # A local file this small is read into memory first: pyarrow then decodes it without its
@@ -76,6 +78,9 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         return
     yield _declared(schema)
     rows, batch, expected = 0, 0, 0
+    footer: bool | None = None  # whether to ask the footer; looked up on the first large row group
+    leaves: dict[str, int] | None = None  # set on the first row group large enough to ask the footer
+    words: _Words | None = None  # the same file, its string columns read with their dictionaries
     for rg in range(pf.metadata.num_row_groups):
         meta = pf.metadata.row_group(rg)
         too_big = _oversized(meta, stored, opts)
@@ -83,8 +88,29 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
             yield FileIssue(rel, "too-large", f"row group {rg}: {too_big}; row group not read", row=rows)
             continue
         expected += meta.num_rows
+        per_batch = _rows_per_batch(meta, opts)
+        large = parquetstats.FOOTER_MIN_ROWS <= meta.num_rows <= per_batch
+        if large and footer is None:
+            footer = parquetstats.footer_first(opts)
+        if large and footer:
+            if leaves is None:
+                shape = (schema, pf.metadata.created_by)
+                leaves = (parquetstats.leaf_indices(schema, pf.schema) or {}) if _asked(shape) else {}
+                words = _Words(source, schema)
+            got = _footer_answered(pf, words, rg, meta, leaves, rel, batch, rows) if leaves and words else None
+            if got is not None:
+                _UNANSWERED.pop(shape, None)
+                yield got
+                rows += got.data.num_rows
+                batch += 1
+                continue
+            # A footer that answered nothing (no statistics) is not asked again in this file, nor
+            # in most next files of its schema and writer: the prefix would be read for nothing.
+            footer = False
+            if leaves:
+                _missed(shape)
         try:
-            for rb in _row_group(pf, rg, meta.num_rows, _rows_per_batch(meta, opts)):
+            for rb in _row_group(pf, rg, meta.num_rows, per_batch):
                 yield Batch(rb, rel, batch, rows)
                 rows += rb.num_rows
                 batch += 1
@@ -98,6 +124,84 @@ def read_parquet(path: str, rel: str, opts: ReadOptions) -> Iterator[Item]:
         yield FileIssue(
             rel, "row-count", f"the footer declares {count(expected, 'row')} but {rows:,} could be read", row=rows
         )
+
+
+def _asked(shape: tuple[pa.Schema, str | None]) -> bool:
+    """Whether to ask a file's footer: not while files of its schema and writer answered nothing,
+    but for one in _RETRY_EVERY of them."""
+    misses = _UNANSWERED.get(shape, 0)
+    if misses % _RETRY_EVERY:
+        _UNANSWERED[shape] = misses + 1
+        return False
+    return True
+
+
+def _missed(shape: tuple[pa.Schema, str | None]) -> None:
+    if len(_UNANSWERED) > 256:
+        _UNANSWERED.clear()
+    _UNANSWERED[shape] = _UNANSWERED.get(shape, 0) + 1
+
+
+class _Words:
+    """The file opened again, once and only when needed, with its top-level string columns read
+    as dictionaries: dictionary pages are then decoded once per value, not once per row, and
+    string_profile classifies the dictionary and counts through the indices
+    (observe/fast/strprofile.encoded_rows)."""
+
+    def __init__(self, source: object, schema: pa.Schema) -> None:
+        self._source = source
+        self._names = [f.name for f in schema if f.type == pa.string()]
+        self._file: pq.ParquetFile | None = None
+
+    def file(self, plain: pq.ParquetFile) -> pq.ParquetFile:
+        if self._file is None:
+            self._file = plain
+            if self._names:
+                with contextlib.suppress(OSError, pa.ArrowException, ValueError, IndexError, MemoryError):
+                    self._file = pq.ParquetFile(self._source, read_dictionary=self._names)
+        return self._file
+
+
+def _one_dictionary(data: pa.Table) -> pa.Table:
+    """data with each dictionary column of several chunks (each its own dictionary) decoded: one
+    chunk per column is what the observers concatenate without unifying dictionaries."""
+    for i, col in enumerate(data.columns):
+        if pa.types.is_dictionary(col.type) and col.num_chunks > 1:
+            data = data.set_column(i, data.field(i).with_type(col.type.value_type), col.cast(col.type.value_type))
+    return data
+
+
+def _footer_answered(
+    pf: pq.ParquetFile,
+    words: _Words,
+    rg: int,
+    meta: pq.RowGroupMetaData,
+    leaves: dict[str, int],
+    rel: str,
+    batch: int,
+    row_start: int,
+) -> Batch | None:
+    """The row group as one Batch whose columns the footer answers (parquetstats) come as
+    statistics and whose other columns are read by projection (from words: strings with their
+    dictionaries); None when the footer answers none of them, or the prefix cannot be read:
+    the row group is then read whole, as always, and a damaged or encrypted column is
+    reported by that reading. The prefix of the columns the footer may answer is read before
+    their metadata is touched: that of an encrypted column aborts the process (pyarrow
+    26.0.1), and its data raises first."""
+    try:
+        first = pf.iter_batches(
+            batch_size=parquetstats.PREFIX_ROWS, row_groups=[rg], columns=list(leaves), use_threads=False
+        )
+        known = parquetstats.answer(meta, next(first), leaves, file=rel, row_start=row_start)
+        if not known:
+            return None
+        rest = [n for n in pf.schema_arrow.names if n not in known]
+        data = _one_dictionary(words.file(pf).read_row_group(rg, columns=rest, use_threads=False))
+    except (OSError, pa.ArrowException, ValueError, IndexError, MemoryError, StopIteration):
+        return None
+    if data.num_rows != meta.num_rows:
+        return None
+    return Batch(data, rel, batch, row_start, known)
 
 
 def _source(path: object) -> tuple[object, int]:
@@ -130,6 +234,9 @@ def _row_group(pf: pq.ParquetFile, rg: int, rows: int, batch_rows: int) -> Itera
         yield from pf.iter_batches(batch_size=batch_rows, row_groups=[rg], use_threads=False)
 
 
+# (schema, writer) -> files since its footers last answered nothing: one file in _RETRY_EVERY asks again
+_UNANSWERED: dict[tuple[pa.Schema, str | None], int] = {}
+_RETRY_EVERY = 16
 _DECLARED: dict[pa.Schema, dict[str, str]] = {}  # files of one schema share its declared paths
 
 

@@ -11,6 +11,7 @@ numbers checked in one pass) and so that each is refused at its edges.
 from __future__ import annotations
 
 import random
+from pathlib import Path
 
 import pyarrow as pa
 import pytest
@@ -227,3 +228,51 @@ def test_value_bytes_of_slices(typ: pa.DataType) -> None:
     assert value_bytes(arr.slice(3)) == b"cdef"
     assert value_bytes(arr.slice(2, 1)) == b""
     assert value_bytes(arr.slice(5)) == b""
+
+
+# -- a column read with its dictionary: the dictionary classified, the rows counted through it --
+
+_POOL = ["7", "-12.50", "0042", "x", "", "2026-02-03", "2026-02-03T10:11:60Z", "2026-02-03t10:11:12z", "NaN", "é"]
+
+
+@SETTINGS
+@given(st.lists(st.sampled_from([*_POOL, None]), min_size=1, max_size=3000))
+def test_dictionary_rows_against_the_reference(values: list[str | None]) -> None:
+    # source: textclass.class_of value by value (the module's reference)
+    dense = pa.array(values, pa.string())
+    enc = dense.dictionary_encode()
+    assert strprofile.encoded_rows(enc) is enc
+    assert string_profile(dense, encoded=enc) == reference(values)
+
+
+def test_parquet_dictionary_pages(tmp_path: Path) -> None:
+    # source: pyarrow.parquet.read_table(read_dictionary=...), the column's dictionary pages as Arrow gives them
+    import pyarrow.parquet as pq
+
+    rng = random.Random(5)
+    values = [rng.choice([*_POOL, None]) for _ in range(20_000)]
+    path = f"{tmp_path}/d.parquet"
+    pq.write_table(pa.table({"s": pa.array(values, pa.string())}), path, row_group_size=5_000)
+    col = pq.read_table(path, read_dictionary=["s"])["s"]
+    for chunk, start in zip(col.chunks, range(0, 20_000, 5_000), strict=True):
+        assert pa.types.is_dictionary(chunk.type)
+        enc = strprofile.encoded_rows(chunk)
+        assert enc is chunk
+        dense = chunk.cast(pa.string())
+        assert string_profile(dense, encoded=enc) == reference(values[start : start + 5_000])
+
+
+@pytest.mark.parametrize(
+    "arr",
+    [
+        pa.DictionaryArray.from_arrays(pa.array([0, 0, 2], pa.int32()), pa.array(["a", "b", "7"])),  # 'b' unused
+        pa.DictionaryArray.from_arrays(pa.array([0, 1, 2], pa.int32()), pa.array(["a", None, "7"])),  # null value
+        pa.DictionaryArray.from_arrays(pa.array([0, 1, 2], pa.int32()), pa.array(["7", "a", "7"])),  # repeated
+        pa.array(["a", "7"], pa.large_string()).dictionary_encode(),
+        pa.array(["a", "7"]),
+    ],
+)
+def test_dictionaries_not_classified_through(arr: pa.Array) -> None:
+    # common practice: a dictionary with values no row uses, nulls or repeats would count them
+    # (the longest value, the digits), so the column is classified row by row
+    assert strprofile.encoded_rows(arr) is None

@@ -12,8 +12,8 @@ tests/test_bulk.py holds every Observation equal to observe_table's.
 
 from __future__ import annotations
 
-from collections.abc import Iterator, Sequence
-from dataclasses import dataclass
+from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass, replace
 from itertools import accumulate
 from typing import Any
 
@@ -57,6 +57,9 @@ class Batch:
     file: str
     batch: int
     row_start: int
+    # Columns answered without their data (a Parquet footer's statistics): their statistics, by
+    # top-level column name; data then holds only the other columns (and every row).
+    known: Mapping[str, FieldStats] | None = None
 
 
 def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Observation]:
@@ -70,7 +73,9 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
     """
     if exact or exact_requested() or len(batches) == 1:
         return [
-            observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start, exact=exact or None)
+            _with_known(
+                observe_table(b.data, file=b.file, batch=b.batch, row_start=b.row_start, exact=exact or None), b
+            )
             for b in batches
         ]
     out: list[dict[str, FieldStats]] = [{} for _ in batches]
@@ -83,6 +88,8 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
             out[i].update(whole.fields)
             unobserved[i].update(whole.unobserved)
             continue
+        if b.known:
+            out[i].update(_known_paths(b))
         for name, col in zip(names, b.data.columns, strict=True):
             arr = _whole(col)
             groups.setdefault((name, arr.type), []).append((i, arr))
@@ -107,6 +114,16 @@ def observe_batches(batches: Sequence[Batch], *, exact: bool = False) -> list[Ob
         )
         for i, b in enumerate(batches)
     ]
+
+
+def _known_paths(b: Batch) -> dict[str, FieldStats]:
+    return {paths.child(None, name): st for name, st in (b.known or {}).items()}
+
+
+def _with_known(obs: Observation, b: Batch) -> Observation:
+    if not b.known:
+        return obs
+    return replace(obs, fields=dict(sorted({**obs.fields, **_known_paths(b)}.items())))
 
 
 def _whole(col: pa.Array | pa.ChunkedArray) -> pa.Array:

@@ -25,7 +25,7 @@ from driftline.core.stats import (
     merge_all,
     type_sample,
 )
-from driftline.observe.fast.strprofile import exact_requested, string_profile
+from driftline.observe.fast.strprofile import encoded_rows, exact_requested, string_profile
 from driftline.observe.records import SAFE_INT, pa_indices, value_text
 from driftline.observe.textclass import class_masks, classify
 
@@ -215,7 +215,7 @@ def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None
         else:
             _empty_items(path, ctx)
     elif pa.types.is_string(t) or pa.types.is_large_string(t):
-        extra.update(_string_stats(arr, rows, ctx, samples))
+        extra.update(_string_stats(arr, rows, ctx, samples, encoded_rows(shown)))
     elif pa.types.is_binary(t) or pa.types.is_large_binary(t) or pa.types.is_fixed_size_binary(t):
         if nonnull:
             fixed = pa.types.is_fixed_size_binary(t)
@@ -374,12 +374,14 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> Measured:
     return out
 
 
-def _string_stats(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: Samples) -> Measured:
+def _string_stats(
+    arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: Samples, encoded: pa.DictionaryArray | None = None
+) -> Measured:
     if arr.null_count == len(arr):
         return {}
     if ctx.exact:
         return _string_stats_reference(arr, rows, ctx, samples)
-    prof = string_profile(arr, SAMPLES_PER_KEY)
+    prof = string_profile(arr, SAMPLES_PER_KEY, encoded)
     # Three examples per class once any lossy class repeats, else the first of each (as before).
     many = any(prof.counts.get(c, 0) > 1 for c in _LOSSY_CLASSES)
     for cls, firsts in prof.first.items():

@@ -56,8 +56,12 @@ class StringProfile:
     lowercase_rfc3339: int
 
 
-def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
+def string_profile(arr: pa.Array, keep_first: int = 3, encoded: pa.DictionaryArray | None = None) -> StringProfile:
     """Classify a string array (nulls skipped), as textclass.classify would.
+
+    encoded, when given, is the same rows as a dictionary whose every value is distinct, not
+    null and used by a row (a Parquet column read with its dictionary pages: encoded_rows
+    says whether one is): its dictionary is classified instead of hashing the column again.
 
     >>> p = string_profile(pa.array(["7", "x", None, "8", "2026-02-30"]))
     >>> p.counts, p.first
@@ -74,11 +78,12 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     # (ids, amounts), and little otherwise: the head of the column decides.
     head_repeats = (
         masks is None
+        and encoded is None
         and len(arr) > DICTIONARY_MIN
         and (len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
     )
-    if masks is None and (head_repeats or len(arr) <= DICTIONARY_MIN):
-        enc = pc.dictionary_encode(arr)
+    if masks is None and (encoded is not None or head_repeats or len(arr) <= DICTIONARY_MIN):
+        enc = encoded if encoded is not None else pc.dictionary_encode(arr)
         if 0 < len(enc.dictionary) <= FEW:
             return _profile_few(enc, keep_first)
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
@@ -118,6 +123,21 @@ def string_profile(arr: pa.Array, keep_first: int = 3) -> StringProfile:
     lengths = pc.binary_length(values) if raw.isascii() else pc.utf8_length(values)
     longest = pc.max(lengths).as_py() if len(values) else 0
     return StringProfile(counts, first, int(longest or 0), int_digits, frac_digits, leap, lower)
+
+
+def encoded_rows(arr: pa.Array) -> pa.DictionaryArray | None:
+    """arr itself when it is a dictionary of strings string_profile can classify through: every
+    dictionary value distinct, not null and used by a row (as pyarrow.compute.dictionary_encode
+    makes them), and few enough for string_profile to use it; else None."""
+    if not pa.types.is_dictionary(arr.type) or arr.type.value_type != pa.string():
+        return None
+    values = arr.dictionary
+    if len(values) > FEW and len(values) * DICTIONARY_SHARE > len(arr):
+        return None  # string_profile would classify the rows one by one anyway: no checks for nothing
+    if values.null_count or len(pc.unique(values)) != len(values):
+        return None
+    used = pc.unique(arr.indices).drop_null()
+    return arr if len(used) == len(values) else None
 
 
 _HEAD_ROWS = 4096  # the first rows of a class are nearly always among these
