@@ -435,7 +435,10 @@ def test_check_passes_the_data_the_schema_was_written_for(tmp_path: Path, name: 
     contract, rules = tmp_path / "contract.schema.json", tmp_path / "rules.json"
     assert _cli("schema", folder, "--to", "json-schema", "--out", contract, "--rules", rules) == 0
     field = json.loads(contract.read_text())["properties"]["col"]
-    assert field["x-driftline"] == {"arrow": arrow, "rule": "identity"}
+    note = field["x-driftline"]
+    assert (note["arrow"], note["rule"]) == (arrow, "identity")
+    # the observed null share is a note for the reader (no validator enforces it): the array's own
+    assert note["null_share"] == round(case[1].null_count / len(case[1]), 4)
     for baseline in (contract, rules):
         assert _cli("check", folder, "--baseline", baseline, "-q") == 0, baseline.name
 
@@ -510,7 +513,7 @@ def test_every_schema_format_names_each_type_or_says_what_stands_in(every_type: 
     props = doc["properties"]
     assert sorted(n for n in valued if props[n]["x-driftline"]["arrow"] == "null") == []
     assert props["null"]["x-driftline"]["arrow"] == "null"  # a column of nulls is one
-    assert props["duration-us"]["description"] == "duration[us]: an integer count of microseconds"
+    assert props["duration-us"]["description"].startswith("duration[us]: an integer count of microseconds; ")
     # Avro: the Apache parser takes it (source: avro 1.12 avro.schema.parse); durations say their unit
     fields = {f["x-driftline"]["path"]: f for f in avro_schema(rec, name="every")["fields"]}
     with warnings.catch_warnings():
@@ -519,10 +522,10 @@ def test_every_schema_format_names_each_type_or_says_what_stands_in(every_type: 
         warnings.simplefilter("ignore", avro.errors.IgnoredLogicalType)
         avro.schema.parse(json.dumps(avro_schema(rec, name="every")))
     assert fields["duration-ms"]["type"] == ["null", "long"]
-    assert fields["duration-ms"]["doc"].endswith(
+    assert (
         "duration[ms] as a long count of milliseconds (Avro's duration "
-        "logical type counts months, days and milliseconds)"
-    )
+        "logical type counts months, days and milliseconds); observed (not enforced): 4 values"
+    ) in fields["duration-ms"]["doc"]
     # Arrow: the IPC message reads back equal (source: pyarrow.ipc.read_schema)
     assert arrow_schema.read_ipc(arrow_schema.ipc_bytes(rec)).equals(rec.arrow_schema(), check_metadata=True)
     # SQL: DuckDB creates and loads it (struct fields flattened), with as many NULLs per column as pyarrow counts
