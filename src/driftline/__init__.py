@@ -34,9 +34,11 @@ InputPathError
 from __future__ import annotations
 
 from driftline._api import (
+    ApplyResult,
     Landing,
     Profile,
     Recommendation,
+    apply,
     check,
     datasets,
     diff,
@@ -69,6 +71,7 @@ from driftline.results.drift import Event
 from driftline.results.profile import FieldSummary
 
 __all__ = [
+    "ApplyResult",
     "DamagedFileError",
     "Diff",
     "DriftlineError",
@@ -92,6 +95,7 @@ __all__ = [
     "Verdict",
     "WorkerError",
     "__version__",
+    "apply",
     "check",
     "datasets",
     "diff",

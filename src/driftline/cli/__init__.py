@@ -11,7 +11,7 @@ from __future__ import annotations
 import sys
 
 # Verbs register themselves on `app` when imported.
-from driftline.cli import gate_cmd, scan_cmd, schema_cmd  # noqa: F401
+from driftline.cli import apply_cmd, gate_cmd, scan_cmd, schema_cmd  # noqa: F401
 from driftline.cli.app import app
 
 

@@ -238,7 +238,8 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
 # -- files: read by the scan's own readers (sources/readers.read_values), as variants -------
 
 
-def _batches(ref: FileRef, batch_rows: int) -> Iterator[pa.RecordBatch]:
+def file_batches(ref: FileRef, batch_rows: int) -> Iterator[pa.RecordBatch]:
+    """One file's rows, batch_rows at a time, as variant columns."""
     text = SPECS[ref.format].text_cells
     for part in read_values(ref, batch_rows):
         if isinstance(part, list):
@@ -254,7 +255,7 @@ def raw_batches(
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
     for ref in found.files:
         row = 0
-        for rb in _batches(ref, batch_rows):
+        for rb in file_batches(ref, batch_rows):
             yield RawBatch(ref.rel, row, rb)
             row += rb.num_rows
 

@@ -1,0 +1,313 @@
+"""driftline apply, start to end: the rules (a scan's recommendation, or a saved rules file),
+the files grouped into output partitions, each partition's batches cast one at a time and
+written under temporary names, then renamed into place, and the reconciliation.
+
+Memory holds one raw batch and its cast at a time (batch_rows rows), as in the scan.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import posixpath
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, cast
+
+import orjson
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from driftline.applying.output import (
+    MARKER_FORMAT,
+    MARKER_NAME,
+    PART_NAME,
+    QUARANTINE_DIR,
+    RECONCILIATION_NAME,
+    REJECTED_DIR,
+    check_output,
+    json_bytes,
+    remove_leftovers,
+    remove_partition,
+    replace_file,
+    staged,
+    terminate_as_interrupt,
+)
+from driftline.applying.quarantine import QUARANTINE_SCHEMA, REJECTED_SCHEMA, Origin, quarantine_rows, rejected_rows
+from driftline.applying.reconcile import FileCount, reconcile
+from driftline.applying.rulesfile import load_recommendation
+from driftline.core.fileref import FileRef
+from driftline.core.jsontypes import JSONObject
+from driftline.core.options import ScanOptions
+from driftline.errors import InputPathError, OptionError
+from driftline.recommendation import recommend
+from driftline.recommendation.apply import SchemaMismatch, Tally, Touched, apply
+from driftline.recommendation.partitions import partition_type
+from driftline.recommendation.plan import FieldPlan, Recommendation, target_schema
+from driftline.recommendation.raw import file_batches
+from driftline.scanning.run import capped_jobs, discover_for, read_found
+from driftline.sources.formats import open_stream
+
+STATE_FORMAT = "driftline-apply-state"
+_CAST_ERRORS = (SchemaMismatch, pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError)
+
+
+@dataclass(frozen=True)
+class ApplyResult:
+    """What a run wrote: the output folder, its reconciliation (JSON data), and the partitions
+    rewritten and kept (with --state, the ones whose files had not changed).
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "in").mkdir()
+    >>> _ = (d / "in" / "a.csv").write_text("n\\n7\\nn/a\\n")
+    >>> r = driftline.apply(d / "in", out=d / "out")
+    >>> r.matches, [(e["path"], e["cause"], e["quarantined"]) for e in r.reconciliation["effects"]]
+    (True, [('n', 'null_token', 1)])
+    """
+
+    out: Path
+    reconciliation: JSONObject
+    written: tuple[str, ...]
+    kept: tuple[str, ...]
+
+    @property
+    def matches(self) -> bool:
+        """True when every row is accounted for and every count equals the prediction."""
+        return bool(self.reconciliation["matches"])
+
+
+# -- one batch --------------------------------------------------------------------------------
+
+
+def _shifted(t: Touched, by: int) -> Touched:
+    return Touched(t.path, t.cause, pc.add(t.rows, by), t.raw)
+
+
+def cast_batch(
+    batch: pa.RecordBatch, rec: Recommendation, tally: Tally
+) -> tuple[pa.RecordBatch, list[tuple[int, str]]]:
+    """The batch cast; when it cannot be cast whole, row by row, and the rows that fail are
+    rejected (row in the batch, reason). Only the kept rows count in the tally."""
+    try:
+        return apply(batch, rec, tally=tally), []
+    except _CAST_ERRORS:
+        pass
+    kept, rejected = [], []
+    for i in range(batch.num_rows):
+        one = Tally(keep=tally.keep)
+        try:
+            kept.append(apply(batch.slice(i, 1), rec, tally=one))
+        except _CAST_ERRORS as exc:
+            rejected.append((i, str(exc)))
+            continue
+        for path, per in one.counts.items():
+            for cause, n in per.items():
+                tally.add(path, cause, n)
+        tally.touched.extend(_shifted(t, i) for t in one.touched)
+    schema = target_schema(rec)
+    table = pa.Table.from_batches(kept, schema=schema).combine_chunks()
+    return (table.to_batches()[0] if table.num_rows else pa.RecordBatch.from_pylist([], schema=schema)), rejected
+
+
+# -- lines --------------------------------------------------------------------------------------
+
+
+def _jsonl_lines(ref: FileRef, rows: set[int]) -> dict[int, int]:
+    """The 1-based line of each wanted row of a JSON Lines file: rows are the non-blank lines
+    that parse (a malformed line is a problem of the scan's, not a row)."""
+    out: dict[int, int] = {}
+    if not rows:
+        return out
+    last, row = max(rows), 0
+    with open_stream(ref.path, ref.compression, limit=None) as stream:
+        for number, line in enumerate(stream, 1):
+            if not line.strip():
+                continue
+            try:
+                orjson.loads(line)
+            except orjson.JSONDecodeError:
+                continue
+            if row in rows:
+                out[row] = number
+            row += 1
+            if row > last:
+                break
+    return out
+
+
+def _lines(ref: FileRef, rows: set[int]) -> dict[int, int]:
+    if ref.format == "jsonl" and not ref.is_remote:
+        try:
+            return _jsonl_lines(ref, rows)
+        except (OSError, EOFError, ValueError):
+            return {}
+    return {}  # CSV rows may span lines and Parquet has none: the row alone places them
+
+
+# -- one partition ------------------------------------------------------------------------------
+
+
+def _file_counts(ref: FileRef, partition: str) -> FileCount:
+    return FileCount(ref.rel, partition)
+
+
+def write_partition(
+    out: Path, partition: str, refs: Sequence[FileRef], rec: Recommendation, batch_rows: int
+) -> list[FileCount]:
+    """Every file of one partition cast into its three files, renamed into place at the end."""
+    schema = target_schema(rec)
+    plans: dict[str, FieldPlan] = {p.path: p for p in rec.walk()}
+    where = Path(partition) if partition else Path()
+    counts = []
+    with staged(
+        [
+            (out / where / PART_NAME, schema),
+            (out / QUARANTINE_DIR / where / PART_NAME, QUARANTINE_SCHEMA),
+            (out / REJECTED_DIR / where / PART_NAME, REJECTED_SCHEMA),
+        ]
+    ) as (data, quarantine, rejected):
+        for ref in refs:
+            fc = _file_counts(ref, partition)
+            row = 0
+            for raw in file_batches(ref, batch_rows):
+                tally = Tally(keep=True)
+                good, bad = cast_batch(raw, rec, tally)
+                origin = Origin(ref.rel, partition, row)
+                wanted = {row + int(r) for t in tally.touched for r in t.rows.to_pylist()} | {row + i for i, _ in bad}
+                lines = _lines(ref, wanted) if wanted else {}
+                q = quarantine_rows(tally.touched, origin, plans, lines)
+                data.write(good)
+                quarantine.write(q)
+                rejected.write(rejected_rows(raw, bad, origin, lines))
+                fc.rows_in += raw.num_rows
+                fc.rows_written += good.num_rows
+                fc.rows_rejected += len(bad)
+                for t in tally.touched:
+                    fc.add(t.path, t.cause, len(t.rows))
+                for name, col in zip(good.schema.names, good.columns, strict=True):
+                    fc.nulls[name] = fc.nulls.get(name, 0) + col.null_count
+                row += raw.num_rows
+            counts.append(fc)
+    return counts
+
+
+# -- the run ------------------------------------------------------------------------------------
+
+
+def _digest(ref: FileRef) -> str:
+    h = hashlib.sha256()
+    with open(ref.path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return f"{ref.size}:{h.hexdigest()}"
+
+
+def rules_fingerprint(rec: Recommendation) -> str:
+    """What the output bytes depend on besides the data: the schema and each path's rule and parameters."""
+    doc = [(p.path, p.target.key(), p.nullable, p.rule, p.params) for p in rec.walk()]
+    return hashlib.sha256(
+        target_schema(rec).serialize().to_pybytes() + orjson.dumps(doc, option=orjson.OPT_SORT_KEYS)
+    ).hexdigest()
+
+
+def _partition_columns(refs: Sequence[FileRef]) -> list[dict[str, str]]:
+    keys: dict[str, set[str]] = {}
+    for ref in refs:
+        for k, v in ref.partitions:
+            keys.setdefault(k, set()).add(v)
+    return [{"name": k, "type": partition_type(sorted(vs)).key()} for k, vs in keys.items()]
+
+
+def _groups(refs: Sequence[FileRef]) -> dict[str, list[FileRef]]:
+    """Files by output partition: the folder each lies in, relative to the root (key=value kept)."""
+    out: dict[str, list[FileRef]] = {}
+    for ref in refs:
+        out.setdefault(posixpath.dirname(ref.rel), []).append(ref)
+    return dict(sorted(out.items()))
+
+
+def _read_json(path: Path) -> dict[str, Any] | None:
+    try:
+        doc = orjson.loads(path.read_bytes())
+    except (OSError, orjson.JSONDecodeError):
+        return None
+    return doc if isinstance(doc, dict) else None
+
+
+def apply_landing(
+    paths: str | os.PathLike[str] | Sequence[str | os.PathLike[str]],
+    out: str | os.PathLike[str],
+    *,
+    rules: str | os.PathLike[str] | Recommendation | None = None,
+    state: str | os.PathLike[str] | None = None,
+    options: ScanOptions | None = None,
+    batch_rows: int | None = None,
+) -> ApplyResult:
+    """Cast every file under paths with the rules into out (see the module docstring)."""
+    given = [paths] if isinstance(paths, str | os.PathLike) else list(paths)
+    opts = (options or ScanOptions()).merged(paths=given)
+    if any(str(p).startswith(("s3://", "gs://", "az://")) for p in opts.paths):
+        raise OptionError("apply reads local folders only; copy an object store prefix to a local folder first")
+    target = check_output(out, list(opts.paths))
+    rows = batch_rows or opts.read.batch_rows
+    found = discover_for(opts)
+    if rules is None:
+        profile = read_found(found, opts, capped_jobs(opts), started=0.0)
+        if profile.nothing_read:
+            raise InputPathError(f"nothing readable: {profile.unread_text()} (driftline scan shows the problems)")
+        rec, source = recommend(profile), "scan"
+    elif isinstance(rules, Recommendation):
+        rec, source = rules, "given"
+    else:
+        rec, source = load_recommendation(Path(rules)), Path(rules).name
+    groups = _groups(found.files)
+    fingerprint = rules_fingerprint(rec)
+    marker = _read_json(target / MARKER_NAME) or {}
+    before = list(marker.get("partitions", []))
+    previous = _read_json(Path(state)) if state is not None and Path(state).is_file() else None
+    reusable: dict[str, Any] = {}
+    same = previous and previous.get("format") == STATE_FORMAT and previous.get("rules") == fingerprint
+    if same and previous and previous.get("out") == str(target):
+        reusable = previous.get("partitions", {})
+    counts: list[FileCount] = []
+    written, kept, saved = [], [], {}
+    with terminate_as_interrupt():
+        target.mkdir(parents=True, exist_ok=True)
+        remove_leftovers(target)
+        replace_file(target / MARKER_NAME, json_bytes(_marker(sorted(set(before) | set(groups)), found.files)))
+        for partition, refs in groups.items():
+            digests = {r.rel: _digest(r) for r in refs} if state is not None else {}
+            old = reusable.get(partition)
+            if old and old.get("files") == digests and (target / partition / PART_NAME).is_file():
+                counts += [FileCount.from_json(c) for c in old["counts"]]
+                kept.append(partition)
+            else:
+                counts += write_partition(target, partition, refs, rec, rows)
+                written.append(partition)
+            saved[partition] = {"files": digests, "counts": [c.to_json() for c in counts if c.partition == partition]}
+        for gone in sorted(set(before) - set(groups)):
+            remove_partition(target, gone)
+        doc = reconcile(rec, counts, root=str(opts.paths[0]) if len(opts.paths) == 1 else "", rules_source=source)
+        replace_file(target / RECONCILIATION_NAME, json_bytes(doc))
+        replace_file(target / MARKER_NAME, json_bytes(_marker(list(groups), found.files)))
+        if state is not None:
+            state_doc = {
+                "format": STATE_FORMAT,
+                "version": 1,
+                "out": str(target),
+                "rules": fingerprint,
+                "partitions": saved,
+            }
+            replace_file(Path(state), json_bytes(state_doc))
+    return ApplyResult(target, cast(JSONObject, doc), tuple(written), tuple(kept))
+
+
+def _marker(partitions: Sequence[str], refs: Sequence[FileRef]) -> dict[str, Any]:
+    return {
+        "format": MARKER_FORMAT,
+        "version": 1,
+        "partitions": list(partitions),
+        "partition_columns": _partition_columns(refs),
+        "tables": {"data": PART_NAME, "quarantine": QUARANTINE_DIR, "rejected": REJECTED_DIR},
+    }
