@@ -29,7 +29,13 @@ REJECTED_DIR = "_rejected"
 PART_NAME = "part-0.parquet"
 _TMP = ".tmp-"
 # Fixed writer options: the same batches give the same bytes (no time in Parquet's metadata).
-_WRITER = {"compression": "zstd", "compression_level": 3, "write_statistics": True, "use_dictionary": True}
+_WRITER = {
+    "compression": "zstd",
+    "compression_level": 3,
+    "write_statistics": True,
+    "use_dictionary": True,
+    "use_compliant_nested_type": False,  # a list's item keeps the name the schema gives it
+}
 
 
 def _inside(a: Path, b: Path) -> bool:

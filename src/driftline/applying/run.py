@@ -44,7 +44,7 @@ from driftline.errors import InputPathError, OptionError
 from driftline.recommendation import recommend
 from driftline.recommendation.apply import SchemaMismatch, Tally, Touched, apply
 from driftline.recommendation.partitions import partition_type
-from driftline.recommendation.plan import FieldPlan, Recommendation, target_schema
+from driftline.recommendation.plan import OBSERVED_KEY, FieldPlan, Recommendation, target_schema
 from driftline.recommendation.raw import file_batches
 from driftline.scanning.run import capped_jobs, discover_for, read_found
 from driftline.sources.formats import open_stream
@@ -75,6 +75,15 @@ class ApplyResult:
     def matches(self) -> bool:
         """True when every row is accounted for and every count equals the prediction."""
         return bool(self.reconciliation["matches"])
+
+
+def output_schema(rec: Recommendation) -> pa.Schema:
+    """The recommended schema as the output's files carry it: names, types, nullability and
+    each field's rule; without the scan's observed notes (counts of values), which change
+    with every new file and would change every partition's bytes."""
+    schema = target_schema(rec)
+    fields = [f.with_metadata({k: v for k, v in (f.metadata or {}).items() if k != OBSERVED_KEY}) for f in schema]
+    return pa.schema(fields, metadata=schema.metadata)
 
 
 # -- one batch --------------------------------------------------------------------------------
@@ -156,7 +165,7 @@ def write_partition(
     out: Path, partition: str, refs: Sequence[FileRef], rec: Recommendation, batch_rows: int
 ) -> list[FileCount]:
     """Every file of one partition cast into its three files, renamed into place at the end."""
-    schema = target_schema(rec)
+    schema = output_schema(rec)
     plans: dict[str, FieldPlan] = {p.path: p for p in rec.walk()}
     where = Path(partition) if partition else Path()
     counts = []
@@ -177,7 +186,7 @@ def write_partition(
                 wanted = {row + int(r) for t in tally.touched for r in t.rows.to_pylist()} | {row + i for i, _ in bad}
                 lines = _lines(ref, wanted) if wanted else {}
                 q = quarantine_rows(tally.touched, origin, plans, lines)
-                data.write(good)
+                data.write(pa.RecordBatch.from_arrays(good.columns, schema=schema))
                 quarantine.write(q)
                 rejected.write(rejected_rows(raw, bad, origin, lines))
                 fc.rows_in += raw.num_rows
@@ -205,9 +214,13 @@ def _digest(ref: FileRef) -> str:
 
 def rules_fingerprint(rec: Recommendation) -> str:
     """What the output bytes depend on besides the data: the schema and each path's rule and parameters."""
-    doc = [(p.path, p.target.key(), p.nullable, p.rule, p.params) for p in rec.walk()]
+    # 'formats' counts the values by form (a description of the scan, not a parameter of the cast)
+    doc = [
+        (p.path, p.target.key(), p.nullable, p.rule, {k: v for k, v in p.params.items() if k != "formats"})
+        for p in rec.walk()
+    ]
     return hashlib.sha256(
-        target_schema(rec).serialize().to_pybytes() + orjson.dumps(doc, option=orjson.OPT_SORT_KEYS)
+        output_schema(rec).serialize().to_pybytes() + orjson.dumps(doc, option=orjson.OPT_SORT_KEYS)
     ).hexdigest()
 
 

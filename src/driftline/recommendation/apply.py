@@ -302,6 +302,8 @@ def _scalar(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -
     parts = []
     for key, arr in forms.items():
         if key in _NESTED:
+            if arr.null_count == len(arr):  # the kind is in the batch's type, not in these rows
+                continue
             raise SchemaMismatch(f"{plan.path}: a {key} value where the schema has {plan.target.key()}")
         if key in ("string", TEXT):
             parts.append(_strings(arr, "string" if key == "string" else "text", plan, tally))
