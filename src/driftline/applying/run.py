@@ -40,7 +40,7 @@ from driftline.applying.rulesfile import load_recommendation
 from driftline.core.fileref import FileRef
 from driftline.core.jsontypes import JSONObject
 from driftline.core.options import ScanOptions
-from driftline.errors import InputPathError, OptionError
+from driftline.errors import InputPathError, OptionError, OutputError
 from driftline.recommendation import recommend
 from driftline.recommendation.apply import SchemaMismatch, Tally, Touched, apply
 from driftline.recommendation.partitions import partition_type
@@ -296,7 +296,14 @@ def apply_landing(
                 counts += [FileCount.from_json(c) for c in old["counts"]]
                 kept.append(partition)
             else:
-                counts += write_partition(target, partition, refs, rec, rows)
+                try:
+                    counts += write_partition(target, partition, refs, rec, rows)
+                except OSError as exc:  # a full disk, a folder made read-only: the earlier partition stays
+                    where = exc.filename or str(target / partition)
+                    raise OutputError(
+                        f"cannot write partition {partition or '.'!r} in {str(target)!r}: {exc.strerror or exc} "
+                        f"({where}); the partitions written before it are complete, this one is unchanged"
+                    ) from None
                 written.append(partition)
             saved[partition] = {"files": digests, "counts": [c.to_json() for c in counts if c.partition == partition]}
         for gone in sorted(set(before) - set(groups)):
