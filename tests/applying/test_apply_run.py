@@ -274,3 +274,12 @@ def test_rows_a_rules_file_cannot_cast_are_rejected_and_fail_the_reconciliation(
     ]
     assert rejected[0]["reason"] == "n: 1 null where the schema says not null; the data is not what the profile saw"
     assert rejected[1]["reason"] == "n: a struct value where the schema has int64"
+
+
+def test_a_struct_without_fields_is_a_clear_error(tmp_path: Path):
+    # source: Apache Parquet format: a group needs at least one field (pyarrow refuses to write one)
+    (tmp_path / "in").mkdir()
+    (tmp_path / "in" / "a.jsonl").write_text('{"id": {}, "n": {"deep": {}}}\n')
+    with pytest.raises(driftline.OutputError, match=r"a struct with no fields \(id, n\.deep\), which Parquet"):
+        driftline.apply(tmp_path / "in", out=tmp_path / "out")
+    assert not (tmp_path / "out").exists() or not any((tmp_path / "out").rglob("*.parquet"))

@@ -11,7 +11,7 @@ import hashlib
 import os
 import posixpath
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, cast
 
@@ -39,7 +39,7 @@ from driftline.applying.reconcile import FileCount, reconcile
 from driftline.applying.rulesfile import load_recommendation
 from driftline.core.fileref import FileRef
 from driftline.core.jsontypes import JSONObject
-from driftline.core.options import ScanOptions
+from driftline.core.options import ReadOptions, ScanOptions
 from driftline.errors import InputPathError, OptionError, OutputError
 from driftline.recommendation import recommend
 from driftline.recommendation.apply import SchemaMismatch, Tally, Touched, apply
@@ -84,6 +84,19 @@ def output_schema(rec: Recommendation) -> pa.Schema:
     schema = target_schema(rec)
     fields = [f.with_metadata({k: v for k, v in (f.metadata or {}).items() if k != OBSERVED_KEY}) for f in schema]
     return pa.schema(fields, metadata=schema.metadata)
+
+
+def empty_structs(t: pa.DataType, path: str) -> list[str]:
+    """The paths of structs with no field at all, which Parquet cannot store."""
+    if pa.types.is_struct(t):
+        if not t.num_fields:
+            return [path]
+        return [p for i in range(t.num_fields) for p in empty_structs(t.field(i).type, f"{path}.{t.field(i).name}")]
+    if pa.types.is_list(t):
+        return empty_structs(t.value_type, f"{path}[]")
+    if pa.types.is_map(t):
+        return empty_structs(t.item_type, f"{path}{{value}}")
+    return []
 
 
 # -- one batch --------------------------------------------------------------------------------
@@ -162,7 +175,7 @@ def _file_counts(ref: FileRef, partition: str) -> FileCount:
 
 
 def write_partition(
-    out: Path, partition: str, refs: Sequence[FileRef], rec: Recommendation, batch_rows: int
+    out: Path, partition: str, refs: Sequence[FileRef], rec: Recommendation, read: ReadOptions
 ) -> list[FileCount]:
     """Every file of one partition cast into its three files, renamed into place at the end."""
     schema = output_schema(rec)
@@ -179,7 +192,7 @@ def write_partition(
         for ref in refs:
             fc = _file_counts(ref, partition)
             row = 0
-            for raw in file_batches(ref, batch_rows):
+            for raw in file_batches(ref, read.batch_rows, read):
                 tally = Tally(keep=True)
                 good, bad = cast_batch(raw, rec, tally)
                 origin = Origin(ref.rel, partition, row)
@@ -274,6 +287,13 @@ def apply_landing(
         rec, source = rules, "given"
     else:
         rec, source = load_recommendation(Path(rules)), Path(rules).name
+    schema = output_schema(rec)
+    unstorable = [p for f in schema for p in empty_structs(f.type, f.name)]
+    if unstorable:
+        raise OutputError(
+            f"the recommended schema has a struct with no fields ({', '.join(unstorable)}), which Parquet cannot "
+            "store; the data holds only empty objects there. Leave the field out (min_field_share) or fill it"
+        )
     groups = _groups(found.files)
     fingerprint = rules_fingerprint(rec)
     marker = _read_json(target / MARKER_NAME) or {}
@@ -297,7 +317,7 @@ def apply_landing(
                 kept.append(partition)
             else:
                 try:
-                    counts += write_partition(target, partition, refs, rec, rows)
+                    counts += write_partition(target, partition, refs, rec, replace(opts.read, batch_rows=rows))
                 except OSError as exc:  # a full disk, a folder made read-only: the earlier partition stays
                     where = exc.filename or str(target / partition)
                     raise OutputError(

@@ -33,6 +33,7 @@ import pyarrow.compute as pc
 from driftline.core import paths
 from driftline.core.lattice import from_arrow
 from driftline.core.observation import TEXT_CLASS_TYPE
+from driftline.core.options import ReadOptions
 from driftline.observe.records import int_key
 from driftline.observe.textclass import class_of
 from driftline.sources.discover import FileRef, discover
@@ -238,10 +239,10 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
 # -- files: read by the scan's own readers (sources/readers.read_values), as variants -------
 
 
-def file_batches(ref: FileRef, batch_rows: int) -> Iterator[pa.RecordBatch]:
-    """One file's rows, batch_rows at a time, as variant columns."""
+def file_batches(ref: FileRef, batch_rows: int, base: ReadOptions | None = None) -> Iterator[pa.RecordBatch]:
+    """One file's rows, batch_rows at a time, as variant columns (read with the scan's read options)."""
     text = SPECS[ref.format].text_cells
-    for part in read_values(ref, batch_rows):
+    for part in read_values(ref, batch_rows, base):
         if isinstance(part, list):
             yield records_to_batch(part)
         else:
