@@ -283,3 +283,22 @@ def test_a_struct_without_fields_is_a_clear_error(tmp_path: Path):
     with pytest.raises(driftline.OutputError, match=r"a struct with no fields \(id, n\.deep\), which Parquet"):
         driftline.apply(tmp_path / "in", out=tmp_path / "out")
     assert not (tmp_path / "out").exists() or not any((tmp_path / "out").rglob("*.parquet"))
+
+
+def test_apply_files_carry_the_mark_a_scan_skips(tmp_path: Path):
+    # a state file inside the landing folder is never read back as data (core/marker.py)
+    land = tmp_path / "land"
+    land.mkdir()
+    (land / "a.jsonl").write_text('{"n": 1}\n')
+    first = driftline.apply(land, out=tmp_path / "o", state=land / "apply-state.json")
+    again = driftline.apply(land, out=tmp_path / "o", state=land / "apply-state.json", include_hidden=True)
+    assert first.reconciliation["rows"]["in"] == again.reconciliation["rows"]["in"] == 1
+    assert again.kept == ("",)
+    for name in (MARKER_NAME, "_reconciliation.json"):
+        assert (tmp_path / "o" / name).read_text().startswith('{\n  "format": "driftline-')
+    skipped = driftline.scan(tmp_path / "o", include_hidden=True)
+    assert sorted(f.rel for f in skipped.files) == [
+        "_quarantine/part-0.parquet",
+        "_rejected/part-0.parquet",
+        "part-0.parquet",
+    ]

@@ -72,7 +72,8 @@ def check_output(out: str | os.PathLike[str], inputs: Sequence[str | os.PathLike
 
 
 def json_bytes(doc: object) -> bytes:
-    return orjson.dumps(doc, option=orjson.OPT_INDENT_2 | orjson.OPT_SORT_KEYS) + b"\n"
+    """Indented JSON in the document's own key order ("format" first: core/marker.py)."""
+    return orjson.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n"
 
 
 def replace_file(path: Path, payload: bytes) -> None:
