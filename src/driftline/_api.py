@@ -674,6 +674,7 @@ def apply(
     out: str | _os.PathLike[str],
     rules: str | _os.PathLike[str] | Recommendation | None = None,
     state: str | _os.PathLike[str] | None = None,
+    partition_by: _Sequence[str] = (),
     options: ScanOptions | None = None,
     **keywords: _Unpack[_ScanKeywords],
 ) -> ApplyResult:
@@ -690,7 +691,9 @@ def apply(
     is written under a temporary name and renamed into place; a re-run gives the same bytes;
     with state (a file), a partition whose files have
     not changed since the run that wrote it is kept. Raises OutputError for an output
-    folder that is an input, or is not empty and was not written by apply.
+    folder that is an input, or is not empty and was not written by apply. partition_by
+    re-partitions by folder keys or top-level columns instead (key=value folders of their
+    values; a column named there is held by the folder names, not the files).
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "in").mkdir()
@@ -702,4 +705,4 @@ def apply(
     from driftline.applying.run import apply_landing
 
     opts = (options or ScanOptions()).merged(**keywords)
-    return apply_landing(paths, out, rules=rules, state=state, options=opts)
+    return apply_landing(paths, out, rules=rules, state=state, options=opts, partition_by=partition_by)

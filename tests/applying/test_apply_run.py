@@ -302,3 +302,37 @@ def test_apply_files_carry_the_mark_a_scan_skips(tmp_path: Path):
         "_rejected/part-0.parquet",
         "part-0.parquet",
     ]
+
+
+def test_partition_by_a_folder_key_and_a_column(landing: Path, tmp_path: Path, demo_profile: Any):
+    out = tmp_path / "by"
+    result = driftline.apply(landing, out=out, partition_by=["day", "firmware"])
+    assert result.matches and result.reconciliation["rows"]["written"] == 4694
+    marker = json.loads((out / MARKER_NAME).read_text())
+    assert marker["partition_columns"] == [{"name": "day", "type": "date32"}, {"name": "firmware", "type": "string"}]
+    files = [str(out / p / PART_NAME) for p in marker["partitions"]]
+    # source: DuckDB's hive partitioning reads the folder names back as the columns
+    con = duckdb.connect()
+    by_day = dict(
+        con.sql(
+            f"select day::varchar, count(*) from read_parquet({files}, hive_partitioning=true) group by 1"
+        ).fetchall()
+    )
+    want_day: dict[str, int] = {}
+    for f in demo_profile.files:
+        day = dict(f.partitions)["day"]
+        want_day[day] = want_day.get(day, 0) + f.rows
+    assert by_day == want_day
+    assert "firmware" not in pq.read_schema(files[0]).names  # the folder names hold it, as Hive and Spark write it
+    plain = driftline.apply(landing, out=tmp_path / "plain")
+    firmware_plain = duckdb.sql(
+        f"select firmware, count(*) from read_parquet({[str(f) for f in _data_files(plain.out)]}) group by 1 order by 1"
+    ).fetchall()
+    firmware_split = con.sql(
+        f"select firmware, count(*) from read_parquet({files}, hive_partitioning=true) group by 1 order by 1"
+    ).fetchall()
+    assert firmware_split == firmware_plain
+    with pytest.raises(driftline.OptionError, match="--partition-by 'nope': no folder key or column"):
+        driftline.apply(landing, out=tmp_path / "bad", partition_by=["nope"])
+    with pytest.raises(driftline.OptionError, match="--partition-by 'tags': a list<string> column"):
+        driftline.apply(landing, out=tmp_path / "bad", partition_by=["tags"])

@@ -7,13 +7,15 @@ Memory holds one raw batch and its cast at a time (batch_rows rows), as in the s
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import os
 import posixpath
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, cast
+from urllib.parse import quote
 
 import orjson
 import pyarrow as pa
@@ -135,83 +137,186 @@ def cast_batch(
 # -- lines --------------------------------------------------------------------------------------
 
 
-def _jsonl_lines(ref: FileRef, rows: set[int]) -> dict[int, int]:
-    """The 1-based line of each wanted row of a JSON Lines file: rows are the non-blank lines
-    that parse (a malformed line is a problem of the scan's, not a row)."""
-    out: dict[int, int] = {}
-    if not rows:
-        return out
-    last, row = max(rows), 0
-    with open_stream(ref.path, ref.compression, limit=None) as stream:
-        for number, line in enumerate(stream, 1):
-            if not line.strip():
-                continue
-            try:
-                orjson.loads(line)
-            except orjson.JSONDecodeError:
-                continue
-            if row in rows:
-                out[row] = number
-            row += 1
-            if row > last:
-                break
-    return out
+class _Lines:
+    """The 1-based line of JSON Lines rows, found by one forward pass over the file as the
+    batches go (rows are asked for in increasing order): a row is a non-blank line that parses
+    (a malformed line is a problem of the scan's, not a row). Other formats give none: a CSV
+    row may span lines and Parquet has none, so the row alone places them."""
 
+    def __init__(self, ref: FileRef) -> None:
+        self.ref = ref
+        self.stream: Any = None
+        self.number = 0  # lines read
+        self.row = 0  # rows passed
+        self.usable = ref.format == "jsonl" and not ref.is_remote
 
-def _lines(ref: FileRef, rows: set[int]) -> dict[int, int]:
-    if ref.format == "jsonl" and not ref.is_remote:
+    def find(self, rows: set[int]) -> dict[int, int]:
+        out: dict[int, int] = {}
+        if not rows or not self.usable:
+            return out
         try:
-            return _jsonl_lines(ref, rows)
+            if self.stream is None:
+                self.stream = open_stream(self.ref.path, self.ref.compression, limit=None).__enter__()
+            last = max(rows)
+            while self.row <= last:
+                line = self.stream.readline()
+                if not line:
+                    break
+                self.number += 1
+                if not line.strip():
+                    continue
+                try:
+                    orjson.loads(line)
+                except orjson.JSONDecodeError:
+                    continue
+                if self.row in rows:
+                    out[self.row] = self.number
+                self.row += 1
         except (OSError, EOFError, ValueError):
-            return {}
-    return {}  # CSV rows may span lines and Parquet has none: the row alone places them
+            self.usable = False
+        return out
+
+    def close(self) -> None:
+        if self.stream is not None:
+            self.stream.close()
+            self.stream = None
+
+
+# -- one file, batch by batch ---------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class CastBatch:
+    """One batch cast: the typed rows (output schema), their quarantined values and rejected rows."""
+
+    good: pa.RecordBatch
+    quarantine: pa.RecordBatch
+    rejected: pa.RecordBatch
+
+
+def cast_file(
+    ref: FileRef, partition: str, rec: Recommendation, read: ReadOptions, fc: FileCount
+) -> Iterator[CastBatch]:
+    """One file's batches cast one at a time; fc counts what happened to its rows and values."""
+    schema = output_schema(rec)
+    plans: dict[str, FieldPlan] = {p.path: p for p in rec.walk()}
+    lines = _Lines(ref)
+    row = 0
+    try:
+        for raw in file_batches(ref, read.batch_rows, read):
+            tally = Tally(keep=True)
+            good, bad = cast_batch(raw, rec, tally)
+            origin = Origin(ref.rel, partition, row)
+            wanted = {row + r for t in tally.touched for r in t.rows.to_pylist()} | {row + i for i, _ in bad}
+            found = lines.find(wanted)
+            fc.rows_in += raw.num_rows
+            fc.rows_written += good.num_rows
+            fc.rows_rejected += len(bad)
+            for t in tally.touched:
+                fc.add(t.path, t.cause, len(t.rows))
+            for name, col in zip(good.schema.names, good.columns, strict=True):
+                fc.nulls[name] = fc.nulls.get(name, 0) + col.null_count
+            yield CastBatch(
+                pa.RecordBatch.from_arrays(good.columns, schema=schema),
+                quarantine_rows(tally.touched, origin, plans, found),
+                rejected_rows(raw, bad, origin, found),
+            )
+            row += raw.num_rows
+    finally:
+        lines.close()
 
 
 # -- one partition ------------------------------------------------------------------------------
 
 
-def _file_counts(ref: FileRef, partition: str) -> FileCount:
-    return FileCount(ref.rel, partition)
-
-
 def write_partition(
     out: Path, partition: str, refs: Sequence[FileRef], rec: Recommendation, read: ReadOptions
 ) -> list[FileCount]:
-    """Every file of one partition cast into its three files, renamed into place at the end."""
-    schema = output_schema(rec)
-    plans: dict[str, FieldPlan] = {p.path: p for p in rec.walk()}
+    """Every file of one input folder cast into its three files, renamed into place at the end."""
     where = Path(partition) if partition else Path()
     counts = []
     with staged(
         [
-            (out / where / PART_NAME, schema),
+            (out / where / PART_NAME, output_schema(rec)),
             (out / QUARANTINE_DIR / where / PART_NAME, QUARANTINE_SCHEMA),
             (out / REJECTED_DIR / where / PART_NAME, REJECTED_SCHEMA),
         ]
     ) as (data, quarantine, rejected):
         for ref in refs:
-            fc = _file_counts(ref, partition)
-            row = 0
-            for raw in file_batches(ref, read.batch_rows, read):
-                tally = Tally(keep=True)
-                good, bad = cast_batch(raw, rec, tally)
-                origin = Origin(ref.rel, partition, row)
-                wanted = {row + int(r) for t in tally.touched for r in t.rows.to_pylist()} | {row + i for i, _ in bad}
-                lines = _lines(ref, wanted) if wanted else {}
-                q = quarantine_rows(tally.touched, origin, plans, lines)
-                data.write(pa.RecordBatch.from_arrays(good.columns, schema=schema))
-                quarantine.write(q)
-                rejected.write(rejected_rows(raw, bad, origin, lines))
-                fc.rows_in += raw.num_rows
-                fc.rows_written += good.num_rows
-                fc.rows_rejected += len(bad)
-                for t in tally.touched:
-                    fc.add(t.path, t.cause, len(t.rows))
-                for name, col in zip(good.schema.names, good.columns, strict=True):
-                    fc.nulls[name] = fc.nulls.get(name, 0) + col.null_count
-                row += raw.num_rows
+            fc = FileCount(ref.rel, partition)
+            for cast in cast_file(ref, partition, rec, read, fc):
+                data.write(cast.good)
+                quarantine.write(cast.quarantine)
+                rejected.write(cast.rejected)
             counts.append(fc)
     return counts
+
+
+# -- re-partitioned by --partition-by -------------------------------------------------------------
+
+HIVE_NULL = "__HIVE_DEFAULT_PARTITION__"  # Hive's name for the partition of nulls
+
+
+def _folder_value(text: str | None) -> str:
+    """A value as a key=value folder name holds it: %XX escapes (of its UTF-8 bytes) for every
+    character but letters, digits and . _ - ~, as Hive escapes / = : and %; null and '' as Hive names them."""
+    return quote(text, safe="") if text else HIVE_NULL
+
+
+def _texts(col: pa.Array) -> list[str | None]:
+    if pa.types.is_timestamp(col.type) or pa.types.is_date(col.type):
+        return [None if v is None else v.isoformat() for v in col.to_pylist()]
+    return pc.cast(col, pa.string()).to_pylist()
+
+
+def split_schema(rec: Recommendation, keys: Sequence[str]) -> pa.Schema:
+    """The files' schema under --partition-by: the recommended one without the partition
+    columns, whose values the folder names hold (as Hive and Spark's partitionBy write them)."""
+    schema = output_schema(rec)
+    return pa.schema([f for f in schema if f.name not in keys], metadata=schema.metadata)
+
+
+def write_repartitioned(
+    out: Path, groups: dict[str, list[FileRef]], rec: Recommendation, read: ReadOptions, keys: Sequence[str]
+) -> tuple[list[FileCount], list[str]]:
+    """Every file cast, its rows split by the values of keys (folder keys or columns) into
+    key=value partitions; all of them renamed into place at the end, with one quarantine and one
+    rejected-rows file. Returns the counts and the partitions written."""
+    schema = split_schema(rec, keys)
+    counts: list[FileCount] = []
+    writers: dict[str, Any] = {}
+    with contextlib.ExitStack() as stack:
+        side = stack.enter_context(
+            staged(
+                [
+                    (out / QUARANTINE_DIR / PART_NAME, QUARANTINE_SCHEMA),
+                    (out / REJECTED_DIR / PART_NAME, REJECTED_SCHEMA),
+                ]
+            )
+        )
+        for partition, refs in groups.items():
+            for ref in refs:
+                fc = FileCount(ref.rel, partition)
+                folder = dict(ref.partitions)
+                for cast in cast_file(ref, partition, rec, read, fc):
+                    side[0].write(cast.quarantine)
+                    side[1].write(cast.rejected)
+                    n = cast.good.num_rows
+                    parts = [
+                        [folder.get(k)] * n if k not in cast.good.schema.names else _texts(cast.good.column(k))
+                        for k in keys
+                    ]
+                    where: dict[str, list[int]] = {}
+                    for i in range(n):
+                        name = "/".join(f"{k}={_folder_value(p[i])}" for k, p in zip(keys, parts, strict=True))
+                        where.setdefault(name, []).append(i)
+                    body = pa.RecordBatch.from_arrays([cast.good.column(f.name) for f in schema], schema=schema)
+                    for name, rows in where.items():
+                        if name not in writers:
+                            writers[name] = stack.enter_context(staged([(out / name / PART_NAME, schema)]))[0]
+                        writers[name].write(body.take(pa.array(rows, pa.int64())))
+                counts.append(fc)
+    return counts, sorted(writers)
 
 
 # -- the run ------------------------------------------------------------------------------------
@@ -269,6 +374,7 @@ def apply_landing(
     state: str | os.PathLike[str] | None = None,
     options: ScanOptions | None = None,
     batch_rows: int | None = None,
+    partition_by: Sequence[str] = (),
 ) -> ApplyResult:
     """Cast every file under paths with the rules into out (see the module docstring)."""
     given = [paths] if isinstance(paths, str | os.PathLike) else list(paths)
@@ -295,21 +401,34 @@ def apply_landing(
             "store; the data holds only empty objects there. Leave the field out (min_field_share) or fill it"
         )
     groups = _groups(found.files)
-    fingerprint = rules_fingerprint(rec)
+    keys = list(partition_by)
+    columns = _check_partition_by(keys, rec, found.files)
+    fingerprint = rules_fingerprint(rec) + "".join(f"|{k}" for k in keys)
     marker = _read_json(target / MARKER_NAME) or {}
     before = list(marker.get("partitions", []))
     previous = _read_json(Path(state)) if state is not None and Path(state).is_file() else None
     reusable: dict[str, Any] = {}
     same = previous and previous.get("format") == STATE_FORMAT and previous.get("rules") == fingerprint
-    if same and previous and previous.get("out") == str(target):
+    if same and previous and previous.get("out") == str(target) and not keys:
         reusable = previous.get("partitions", {})
     counts: list[FileCount] = []
-    written, kept, saved = [], [], {}
+    written: list[str] = []
+    kept: list[str] = []
+    saved: dict[str, Any] = {}
     with terminate_as_interrupt():
         target.mkdir(parents=True, exist_ok=True)
         remove_leftovers(target)
-        replace_file(target / MARKER_NAME, json_bytes(_marker(sorted(set(before) | set(groups)), found.files)))
-        for partition, refs in groups.items():
+        replace_file(target / MARKER_NAME, json_bytes(_marker(sorted(set(before) | set(groups)), columns)))
+        read = replace(opts.read, batch_rows=rows)
+        if keys:
+            try:
+                counts, written = write_repartitioned(target, groups, rec, read, keys)
+            except OSError as exc:
+                raise OutputError(
+                    f"cannot write into {str(target)!r}: {exc.strerror or exc} ({exc.filename or target}); "
+                    "the earlier output is unchanged"
+                ) from None
+        for partition, refs in groups.items() if not keys else ():
             digests = {r.rel: _digest(r) for r in refs} if state is not None else {}
             old = reusable.get(partition)
             if old and old.get("files") == digests and (target / partition / PART_NAME).is_file():
@@ -317,7 +436,7 @@ def apply_landing(
                 kept.append(partition)
             else:
                 try:
-                    counts += write_partition(target, partition, refs, rec, replace(opts.read, batch_rows=rows))
+                    counts += write_partition(target, partition, refs, rec, read)
                 except OSError as exc:  # a full disk, a folder made read-only: the earlier partition stays
                     where = exc.filename or str(target / partition)
                     raise OutputError(
@@ -326,11 +445,12 @@ def apply_landing(
                     ) from None
                 written.append(partition)
             saved[partition] = {"files": digests, "counts": [c.to_json() for c in counts if c.partition == partition]}
-        for gone in sorted(set(before) - set(groups)):
+        final = written if keys else list(groups)
+        for gone in sorted(set(before) - set(final) - ({""} if keys else set())):
             remove_partition(target, gone)
         doc = reconcile(rec, counts, root=str(opts.paths[0]) if len(opts.paths) == 1 else "", rules_source=source)
         replace_file(target / RECONCILIATION_NAME, json_bytes(doc))
-        replace_file(target / MARKER_NAME, json_bytes(_marker(list(groups), found.files)))
+        replace_file(target / MARKER_NAME, json_bytes(_marker(final, columns)))
         if state is not None:
             state_doc = {
                 "format": STATE_FORMAT,
@@ -343,11 +463,37 @@ def apply_landing(
     return ApplyResult(target, cast(JSONObject, doc), tuple(written), tuple(kept))
 
 
-def _marker(partitions: Sequence[str], refs: Sequence[FileRef]) -> dict[str, Any]:
+def _check_partition_by(keys: Sequence[str], rec: Recommendation, refs: Sequence[FileRef]) -> list[dict[str, str]]:
+    """The partition columns of the output, typed: the input's folder keys, or the keys of
+    --partition-by (a folder key, or a top-level column of a scalar type); OptionError otherwise."""
+    folder = {c["name"]: c for c in _partition_columns(refs)}
+    if not keys:
+        return list(folder.values())
+    if len(set(keys)) != len(keys):
+        raise OptionError(f"--partition-by names a key twice: {', '.join(keys)}")
+    out = []
+    for k in keys:
+        if k in folder:
+            out.append(folder[k])
+            continue
+        try:
+            plan = rec.field(k)
+        except KeyError:
+            known = sorted({*folder, *(p.name for p in rec.fields)})
+            raise OptionError(
+                f"--partition-by {k!r}: no folder key or column of that name; known: {', '.join(known)}"
+            ) from None
+        if plan.target.name in ("struct", "list", "map", "null"):
+            raise OptionError(f"--partition-by {k!r}: a {plan.target.key()} column cannot name a folder")
+        out.append({"name": k, "type": plan.target.key()})
+    return out
+
+
+def _marker(partitions: Sequence[str], columns: Sequence[dict[str, str]]) -> dict[str, Any]:
     return {
         "format": MARKER_FORMAT,
         "version": 1,
         "partitions": list(partitions),
-        "partition_columns": _partition_columns(refs),
+        "partition_columns": list(columns),
         "tables": {"data": PART_NAME, "quarantine": QUARANTINE_DIR, "rejected": REJECTED_DIR},
     }

@@ -32,6 +32,8 @@ Examples:
   driftline apply landing/ --rules rules.json --out clean/
 
   driftline apply landing/ --out clean/ --state .apply-state
+
+  driftline apply landing/ --out clean/ --partition-by day
 """
 
 
@@ -72,10 +74,17 @@ def apply_command(
     state: str | None = typer.Option(
         None, "--state", metavar="FILE", help="Remember the files written; rewrite only partitions whose files changed."
     ),
+    partition_by: list[str] = typer.Option(
+        [],
+        "--partition-by",
+        metavar="KEY",
+        help="Partition by these folder keys or columns (repeat, or KEY,KEY) instead of the input's folders.",
+    ),
     options: ScanOptions | None = None,
     config: Config | None = None,
 ) -> None:
-    result = driftline.apply(paths, out=out, rules=rules, state=state, options=options)
+    keys = [k.strip() for given in partition_by for k in given.split(",") if k.strip()]
+    result = driftline.apply(paths, out=out, rules=rules, state=state, partition_by=keys, options=options)
     kept = f"; {count(len(result.kept), 'partition')} unchanged, kept" if result.kept else ""
     sys.stdout.write(
         f"wrote {count(len(result.written), 'partition')} to {safe_text(str(result.out), None)}{kept}\n"
