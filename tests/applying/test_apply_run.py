@@ -336,3 +336,10 @@ def test_partition_by_a_folder_key_and_a_column(landing: Path, tmp_path: Path, d
         driftline.apply(landing, out=tmp_path / "bad", partition_by=["nope"])
     with pytest.raises(driftline.OptionError, match="--partition-by 'tags': a list<string> column"):
         driftline.apply(landing, out=tmp_path / "bad", partition_by=["tags"])
+
+
+def test_jobs_give_the_same_bytes(clean: tuple[Path, Any], landing: Path, tmp_path: Path):
+    out, _ = clean
+    parallel = driftline.apply(landing, out=tmp_path / "j2", jobs=2)
+    assert parallel.matches and len(parallel.written) == 14
+    assert _tree(tmp_path / "j2") == _tree(out)

@@ -49,6 +49,7 @@ from driftline.recommendation.partitions import partition_type
 from driftline.recommendation.plan import OBSERVED_KEY, FieldPlan, Recommendation, target_schema
 from driftline.recommendation.raw import file_batches
 from driftline.scanning.run import capped_jobs, discover_for, read_found
+from driftline.scanning.workers import run_ordered
 from driftline.sources.formats import open_stream
 
 STATE_FORMAT = "driftline-apply-state"
@@ -252,6 +253,44 @@ def write_partition(
     return counts
 
 
+def _partition_task(item: tuple[str, list[FileRef]], shared: tuple[str, Recommendation, ReadOptions]) -> Any:
+    partition, refs = item
+    out, rec, read = shared
+    return write_partition(Path(out), partition, refs, rec, read)
+
+
+def _task_files(item: tuple[str, list[FileRef]]) -> list[str]:
+    return [r.rel for r in item[1]]
+
+
+def _write_all(
+    out: Path, todo: list[tuple[str, list[FileRef]]], rec: Recommendation, read: ReadOptions, jobs: int, timeout: float
+) -> Iterator[tuple[str, list[FileCount]]]:
+    """Each partition written (in worker processes with jobs > 1: the same bytes), with its counts."""
+    if jobs > 1:
+        results: Iterator[Any] = run_ordered(
+            _partition_task,
+            todo,
+            (str(out), rec, read),
+            jobs=jobs,
+            names=_task_files,
+            task_timeout=timeout,
+        )
+    else:
+        results = (write_partition(out, p, refs, rec, read) for p, refs in todo)
+    done = 0
+    try:
+        for got in results:
+            yield todo[done][0], got
+            done += 1
+    except OSError as exc:  # a full disk, a folder made read-only: the earlier partitions stay
+        partition = todo[done][0]  # the first partition not finished, in order
+        raise OutputError(
+            f"cannot write partition {partition or '.'!r} in {str(out)!r}: {exc.strerror or exc} "
+            f"({exc.filename or out / partition}); the partitions written before it are complete, this one is unchanged"
+        ) from None
+
+
 # -- re-partitioned by --partition-by -------------------------------------------------------------
 
 HIVE_NULL = "__HIVE_DEFAULT_PARTITION__"  # Hive's name for the partition of nulls
@@ -428,23 +467,21 @@ def apply_landing(
                     f"cannot write into {str(target)!r}: {exc.strerror or exc} ({exc.filename or target}); "
                     "the earlier output is unchanged"
                 ) from None
+        digests = {p: {r.rel: _digest(r) for r in refs} if state is not None else {} for p, refs in groups.items()}
+        todo = []
         for partition, refs in groups.items() if not keys else ():
-            digests = {r.rel: _digest(r) for r in refs} if state is not None else {}
             old = reusable.get(partition)
-            if old and old.get("files") == digests and (target / partition / PART_NAME).is_file():
-                counts += [FileCount.from_json(c) for c in old["counts"]]
+            if old and old.get("files") == digests[partition] and (target / partition / PART_NAME).is_file():
                 kept.append(partition)
             else:
-                try:
-                    counts += write_partition(target, partition, refs, rec, read)
-                except OSError as exc:  # a full disk, a folder made read-only: the earlier partition stays
-                    where = exc.filename or str(target / partition)
-                    raise OutputError(
-                        f"cannot write partition {partition or '.'!r} in {str(target)!r}: {exc.strerror or exc} "
-                        f"({where}); the partitions written before it are complete, this one is unchanged"
-                    ) from None
-                written.append(partition)
-            saved[partition] = {"files": digests, "counts": [c.to_json() for c in counts if c.partition == partition]}
+                todo.append((partition, refs))
+        fresh = dict(_write_all(target, todo, rec, read, capped_jobs(opts) if len(todo) > 1 else 1, opts.task_timeout))
+        for partition in groups if not keys else ():
+            got = fresh.get(partition)
+            part_counts = got if got is not None else [FileCount.from_json(c) for c in reusable[partition]["counts"]]
+            counts += part_counts
+            saved[partition] = {"files": digests[partition], "counts": [c.to_json() for c in part_counts]}
+        written += [p for p, _ in todo]
         final = written if keys else list(groups)
         for gone in sorted(set(before) - set(final) - ({""} if keys else set())):
             remove_partition(target, gone)
