@@ -136,6 +136,29 @@ class _Shape:
         return pa.struct(children)
 
 
+_ONE_KIND: dict[type, tuple[str, pa.DataType]] = {
+    str: ("string", pa.string()),
+    float: ("float64", pa.float64()),
+    bool: ("bool", pa.bool_()),
+    int: ("int64", pa.int64()),
+}
+_INT64 = (-(2**63), 2**63 - 1)
+
+
+def _one_kind(values: list[Any]) -> pa.StructArray | None:
+    """A column whose values are all of one scalar kind (or null) as its variant, built by Arrow
+    at once: the same array the per-value path builds, without a dict per value. None otherwise."""
+    kinds = {type(v) for v in values if v is not None}
+    if len(kinds) != 1:
+        return None
+    (t,) = kinds
+    if t not in _ONE_KIND or t is int and not all(_INT64[0] <= v <= _INT64[1] for v in values if v is not None):
+        return None
+    key, arrow = _ONE_KIND[t]
+    arr = pa.array(values, arrow)
+    return pa.StructArray.from_arrays([arr], names=[key], mask=pc.is_null(arr) if arr.null_count else None)
+
+
 def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
     """Parsed JSON records as a batch of variant columns ('$' for records that are not objects).
 
@@ -148,10 +171,13 @@ def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
             names[name] = None
     columns, fields = [], []
     for name in names:
-        values = [
-            variant_value(rec.get(name) if type(rec) is dict else (rec if name == paths.ROOT else None))
-            for rec in records
-        ]
+        plain = [rec.get(name) if type(rec) is dict else (rec if name == paths.ROOT else None) for rec in records]
+        one = _one_kind(plain)
+        if one is not None:
+            columns.append(one)
+            fields.append(pa.field(name, one.type))
+            continue
+        values = [variant_value(v) for v in plain]
         shape = _Shape()
         for v in values:
             shape.add(v)
