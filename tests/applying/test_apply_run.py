@@ -343,3 +343,36 @@ def test_jobs_give_the_same_bytes(clean: tuple[Path, Any], landing: Path, tmp_pa
     parallel = driftline.apply(landing, out=tmp_path / "j2", jobs=2)
     assert parallel.matches and len(parallel.written) == 14
     assert _tree(tmp_path / "j2") == _tree(out)
+
+
+def test_every_quarantined_json_value_is_on_the_line_named(clean: tuple[Path, Any], landing: Path):
+    # the files read with Python's gzip and json modules; the demo's malformed line
+    # (readings/region=north/day=2026-11-29, line 218) is not a row, and the lines after it still match
+    out, _ = clean
+    table = pa.concat_tables(pq.read_table(f) for f in sorted((out / QUARANTINE_DIR).rglob("*.parquet")))
+    checked, files = 0, {}
+    for r in table.to_pylist():
+        if r["line"] is None:
+            assert not r["file"].endswith(".jsonl.gz")
+            continue
+        if r["file"] not in files:
+            with gzip.open(landing / r["file"], "rt", encoding="utf-8") as fh:
+                files[r["file"]] = fh.read().split("\n")
+        raw = json.loads(files[r["file"]][r["line"] - 1])[r["path"]]
+        assert (raw if isinstance(raw, str) else json.dumps(raw)) == r["value"], r
+        checked += 1
+    assert checked == 6 + 516 - sum(1 for r in table.to_pylist() if r["line"] is None)
+    # the line finder itself on the file with the malformed line: row k is the k-th line that parses
+    from driftline.applying.run import _Lines
+    from driftline.sources.discover import discover
+
+    rel = "readings/region=north/day=2026-11-29/part-0000.jsonl.gz"
+    ref = next(f for f in discover([landing]).files if f.rel == rel)
+    rows = _jsonl_rows(landing / rel)
+    finder = _Lines(ref)
+    found = {**finder.find({0, 1, 215, 216}), **finder.find({217, len(rows) - 1})}
+    finder.close()
+    with gzip.open(landing / rel, "rt", encoding="utf-8") as fh:
+        text = fh.read().split("\n")
+    assert {r: json.loads(text[n - 1]) for r, n in found.items()} == {r: rows[r] for r in found}
+    assert found[217] == 219  # line 218 is the malformed one (make_demo.py's manifest)
