@@ -28,7 +28,7 @@ def _per_value(values: list[Any]) -> pa.Array:
     return pa.array(variants, type=shape.arrow())
 
 
-@settings(max_examples=200, deadline=None)
+@settings(max_examples=400, deadline=None)
 @given(
     st.one_of(
         st.lists(SCALARS, min_size=1, max_size=8),  # mixed kinds: the per-value path itself
@@ -36,6 +36,24 @@ def _per_value(values: list[Any]) -> pa.Array:
         st.lists(st.one_of(st.none(), st.integers(-(2**64), 2**64)), min_size=1, max_size=8),
         st.lists(st.one_of(st.none(), st.floats(allow_nan=False)), min_size=1, max_size=8),  # (JSON has no NaN)
         st.lists(st.one_of(st.none(), st.booleans()), min_size=1, max_size=8),
+        # objects and lists, of one kind all the way down or mixed
+        st.lists(
+            st.one_of(st.none(), st.dictionaries(st.sampled_from("abc"), SCALARS, max_size=3)), min_size=1, max_size=6
+        ),
+        st.lists(
+            st.one_of(st.none(), st.lists(st.one_of(st.none(), st.text(max_size=2)), max_size=3)),
+            min_size=1,
+            max_size=6,
+        ),
+        st.lists(
+            st.recursive(
+                SCALARS,
+                lambda k: st.one_of(st.lists(k, max_size=2), st.dictionaries(st.sampled_from("ab"), k, max_size=2)),
+                max_leaves=6,
+            ),
+            min_size=1,
+            max_size=6,
+        ),
     )
 )
 def test_one_kind_columns_equal_the_per_value_path(values: list[Any]):

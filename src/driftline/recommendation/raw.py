@@ -146,17 +146,45 @@ _INT64 = (-(2**63), 2**63 - 1)
 
 
 def _one_kind(values: list[Any]) -> pa.StructArray | None:
-    """A column whose values are all of one scalar kind (or null) as its variant, built by Arrow
-    at once: the same array the per-value path builds, without a dict per value. None otherwise."""
+    """A column whose values are all of one kind (or null) as its variant, built by Arrow at
+    once: the same array the per-value path builds, without a dict per value. Scalars of one
+    kind, objects whose fields are so in turn, lists whose items are. None otherwise."""
     kinds = {type(v) for v in values if v is not None}
     if len(kinds) != 1:
         return None
     (t,) = kinds
+    mask = pa.array([v is None for v in values], pa.bool_()) if None in values else None
+    if t is dict:
+        names: dict[str, None] = {}
+        for v in values:
+            if v is not None:
+                names.update(dict.fromkeys(v))
+        if not names:
+            return None
+        kids = []
+        for name in names:
+            kid = _one_kind([v.get(name) if v is not None else None for v in values])
+            if kid is None:
+                return None
+            kids.append(kid)
+        inner: pa.Array = pa.StructArray.from_arrays(kids, names=list(names), mask=mask)
+        return pa.StructArray.from_arrays([inner], names=["struct"], mask=mask)
+    if t is list:
+        flat = [x for v in values if v is not None for x in v]
+        items = _one_kind(flat)
+        if items is None:
+            return None
+        offsets, at = [0], 0
+        for v in values:
+            at += len(v) if v is not None else 0
+            offsets.append(at)
+        inner = pa.ListArray.from_arrays(pa.array(offsets, pa.int32()), items, mask=mask)
+        return pa.StructArray.from_arrays([inner], names=["list"], mask=mask)
     if t not in _ONE_KIND or t is int and not all(_INT64[0] <= v <= _INT64[1] for v in values if v is not None):
         return None
     key, arrow = _ONE_KIND[t]
     arr = pa.array(values, arrow)
-    return pa.StructArray.from_arrays([arr], names=[key], mask=pc.is_null(arr) if arr.null_count else None)
+    return pa.StructArray.from_arrays([arr], names=[key], mask=mask)
 
 
 def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
