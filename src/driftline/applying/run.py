@@ -51,6 +51,7 @@ from driftline.recommendation.raw import file_batches
 from driftline.scanning.run import capped_jobs, discover_for, read_found
 from driftline.scanning.workers import run_ordered
 from driftline.sources.formats import open_stream
+from driftline.sources.registry import SPECS
 
 STATE_FORMAT = "driftline-apply-state"
 _CAST_ERRORS = (SchemaMismatch, pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError)
@@ -149,7 +150,8 @@ class _Lines:
         self.stream: Any = None
         self.number = 0  # lines read
         self.row = 0  # rows passed
-        self.usable = ref.format == "jsonl" and not ref.is_remote
+        spec = SPECS[ref.format]  # one row a line: JSON Lines (its lines counted apart, no CSV cells)
+        self.usable = spec.count_lines and not spec.text_cells and not ref.is_remote
 
     def find(self, rows: set[int]) -> dict[int, int]:
         out: dict[int, int] = {}
