@@ -76,31 +76,50 @@ class Origin:
     row_start: int
 
 
+def _constant(value: str, n: int) -> pa.Array:
+    return pc.fill_null(pa.nulls(n, pa.string()), value)
+
+
 def quarantine_rows(
     touched: Sequence[Touched], origin: Origin, plans: Mapping[str, FieldPlan], lines: Mapping[int, int]
 ) -> pa.RecordBatch:
-    """The quarantined values of one batch, ordered by row, then field path order, then cause."""
+    """The quarantined values of one batch, ordered by row, then field path order, then cause
+    (built column by column: a batch can quarantine every value of a column)."""
     order = {path: i for i, path in enumerate(plans)}
-    rows: list[tuple[int, int, str, str, str | None]] = []
+    parts = []
     for t in touched:
-        if effect_kind(t.cause) == "note":
+        n = len(t.rows)
+        if effect_kind(t.cause) == "note" or not n:
             continue
-        for r, v in zip(pc.cast(t.rows, pa.int64()).to_pylist(), raw_texts(t.raw), strict=True):
-            rows.append((origin.row_start + r, order.get(t.path, len(order)), t.path, t.cause, v))
-    rows.sort(key=lambda x: (x[0], x[1], x[3]))
-    cols = {
-        "file": [origin.file] * len(rows),
-        "partition": [origin.partition] * len(rows),
-        "row": [r[0] for r in rows],
-        "line": [lines.get(r[0]) for r in rows],
-        "path": [r[2] for r in rows],
-        "value": [r[4] for r in rows],
-        "rule": [plans[r[2]].rule if r[2] in plans else "" for r in rows],
-        "cause": [r[3] for r in rows],
-        "kind": [effect_kind(r[3]) for r in rows],
-        "reason": [CAUSES.get(r[3], r[3]) for r in rows],
+        text = t.raw if pa.types.is_string(t.raw.type) else pa.array(raw_texts(t.raw), pa.string())
+        parts.append(
+            pa.table(
+                {
+                    "row": pc.add(pc.cast(t.rows, pa.int64()), origin.row_start),
+                    "order": pc.fill_null(pa.nulls(n, pa.int64()), order.get(t.path, len(order))),
+                    "path": _constant(t.path, n),
+                    "value": text,
+                    "rule": _constant(plans[t.path].rule if t.path in plans else "", n),
+                    "cause": _constant(t.cause, n),
+                    "kind": _constant(effect_kind(t.cause), n),
+                    "reason": _constant(CAUSES.get(t.cause, t.cause), n),
+                }
+            )
+        )
+    if not parts:
+        return pa.RecordBatch.from_pylist([], schema=QUARANTINE_SCHEMA)
+    table = pa.concat_tables(parts).sort_by([("row", "ascending"), ("order", "ascending"), ("cause", "ascending")])
+    n = table.num_rows
+    rows = table.column("row").combine_chunks()
+    line = pa.array([lines.get(r) for r in rows.to_pylist()], pa.int64()) if lines else pa.nulls(n, pa.int64())
+    columns = {
+        "file": _constant(origin.file, n),
+        "partition": _constant(origin.partition, n),
+        "row": rows,
+        "line": line,
+        **{k: table.column(k).combine_chunks() for k in ("path", "value", "rule", "cause", "kind", "reason")},
     }
-    return pa.RecordBatch.from_pydict(cols, schema=QUARANTINE_SCHEMA)
+    return pa.RecordBatch.from_arrays([columns[f.name] for f in QUARANTINE_SCHEMA], schema=QUARANTINE_SCHEMA)
 
 
 def rejected_rows(
