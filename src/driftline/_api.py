@@ -675,6 +675,7 @@ def apply(
     rules: str | _os.PathLike[str] | Recommendation | None = None,
     state: str | _os.PathLike[str] | None = None,
     partition_by: _Sequence[str] = (),
+    table_format: str = "parquet",
     options: ScanOptions | None = None,
     **keywords: _Unpack[_ScanKeywords],
 ) -> ApplyResult:
@@ -693,7 +694,8 @@ def apply(
     not changed since the run that wrote it is kept. Raises OutputError for an output
     folder that is an input, or is not empty and was not written by apply. partition_by
     re-partitions by folder keys or top-level columns instead (key=value folders of their
-    values; a column named there is held by the folder names, not the files).
+    values; a column named there is held by the folder names, not the files). table_format
+    'delta' writes the rows as a Delta Lake table through the deltalake package instead.
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "in").mkdir()
@@ -705,4 +707,6 @@ def apply(
     from driftline.applying.run import apply_landing
 
     opts = (options or ScanOptions()).merged(**keywords)
-    return apply_landing(paths, out, rules=rules, state=state, options=opts, partition_by=partition_by)
+    return apply_landing(
+        paths, out, rules=rules, state=state, options=opts, partition_by=partition_by, table_format=table_format
+    )

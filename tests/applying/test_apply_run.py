@@ -376,3 +376,26 @@ def test_every_quarantined_json_value_is_on_the_line_named(clean: tuple[Path, An
         text = fh.read().split("\n")
     assert {r: json.loads(text[n - 1]) for r, n in found.items()} == {r: rows[r] for r in found}
     assert found[217] == 219  # line 218 is the malformed one (make_demo.py's manifest)
+
+
+def test_a_delta_table_reads_back_with_the_same_rows(clean: tuple[Path, Any], landing: Path, tmp_path: Path):
+    deltalake = pytest.importorskip("deltalake")
+    out, plain = clean
+    result = driftline.apply(landing, out=tmp_path / "delta", table_format="delta")
+    assert result.matches and result.reconciliation["effects"] == plain.reconciliation["effects"]
+    # source: the deltalake package's own reader
+    table = deltalake.DeltaTable(str(tmp_path / "delta"))
+    assert table.metadata().partition_columns == ["region", "day"]
+    got = table.to_pyarrow_table()
+    rec_schema = pq.read_schema(_data_files(out)[0])
+    assert [(f.name, f.type) for f in got.schema][: len(rec_schema)] == [(f.name, f.type) for f in rec_schema]
+    assert got.schema.field("day").type == pa.date32() and got.schema.field("region").type == pa.string()
+    part = ds.partitioning(pa.schema([("region", pa.string()), ("day", pa.date32())]), flavor="hive")
+    files = [str(f) for f in _data_files(out)]
+    want = ds.dataset(files, format="parquet", partitioning=part, partition_base_dir=str(out / "readings")).to_table()
+    keys = [("station_id", "ascending"), ("ts", "ascending"), ("pm25", "ascending")]
+    cols = ["station_id", "ts", "pm25", "tags", "region", "day"]
+    assert got.select(cols).sort_by(keys).to_pylist() == want.select(cols).sort_by(keys).to_pylist()
+    # the quarantine is the Parquet output's, byte for byte
+    q = sorted((out / QUARANTINE_DIR).rglob("*.parquet"))
+    assert [p.read_bytes() for p in q] == [(tmp_path / "delta" / p.relative_to(out)).read_bytes() for p in q]

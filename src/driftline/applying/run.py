@@ -21,6 +21,7 @@ import orjson
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from driftline.applying.delta import delta_schema, with_partitions, write_delta
 from driftline.applying.output import (
     MARKER_FORMAT,
     MARKER_NAME,
@@ -293,6 +294,39 @@ def _write_all(
         ) from None
 
 
+def write_delta_table(
+    target: Path,
+    groups: dict[str, list[FileRef]],
+    rec: Recommendation,
+    read: ReadOptions,
+    columns: list[dict[str, str]],
+) -> list[FileCount]:
+    """The typed rows as a Delta table in target (partitioned by columns); the quarantine and the
+    rejected rows per input folder, as for Parquet."""
+    base = output_schema(rec)
+    schema = delta_schema(base, [c for c in columns if c["name"] not in base.names])
+    counts: list[FileCount] = []
+
+    def batches() -> Iterator[pa.RecordBatch]:
+        for partition, refs in groups.items():
+            where = Path(partition) if partition else Path()
+            sides = [
+                (target / QUARANTINE_DIR / where / PART_NAME, QUARANTINE_SCHEMA),
+                (target / REJECTED_DIR / where / PART_NAME, REJECTED_SCHEMA),
+            ]
+            with staged(sides) as (quarantine, rejected):
+                for ref in refs:
+                    fc = FileCount(ref.rel, partition)
+                    for cast in cast_file(ref, partition, rec, read, fc):
+                        quarantine.write(cast.quarantine)
+                        rejected.write(cast.rejected)
+                        yield with_partitions(cast.good, dict(ref.partitions), schema)
+                    counts.append(fc)
+
+    write_delta(target, schema, [c["name"] for c in columns], batches)
+    return counts
+
+
 # -- re-partitioned by --partition-by -------------------------------------------------------------
 
 HIVE_NULL = "__HIVE_DEFAULT_PARTITION__"  # Hive's name for the partition of nulls
@@ -416,12 +450,15 @@ def apply_landing(
     options: ScanOptions | None = None,
     batch_rows: int | None = None,
     partition_by: Sequence[str] = (),
+    table_format: str = "parquet",
 ) -> ApplyResult:
     """Cast every file under paths with the rules into out (see the module docstring)."""
     given = [paths] if isinstance(paths, str | os.PathLike) else list(paths)
     opts = (options or ScanOptions()).merged(paths=given)
     if any(str(p).startswith(("s3://", "gs://", "az://")) for p in opts.paths):
         raise OptionError("apply reads local folders only; copy an object store prefix to a local folder first")
+    if table_format not in ("parquet", "delta"):
+        raise OptionError(f"--table-format must be parquet or delta; got {table_format!r}")
     target = check_output(out, list(opts.paths))
     rows = batch_rows or opts.read.batch_rows
     found = discover_for(opts)
@@ -461,7 +498,13 @@ def apply_landing(
         remove_leftovers(target)
         replace_file(target / MARKER_NAME, json_bytes(_marker(sorted(set(before) | set(groups)), columns)))
         read = replace(opts.read, batch_rows=rows)
-        if keys:
+        if table_format == "delta":
+            try:
+                counts = write_delta_table(target, groups, rec, read, columns)
+            except OSError as exc:
+                raise OutputError(f"cannot write the Delta table {str(target)!r}: {exc.strerror or exc}") from None
+            written = list(groups)
+        elif keys:
             try:
                 counts, written = write_repartitioned(target, groups, rec, read, keys)
             except OSError as exc:
@@ -471,20 +514,20 @@ def apply_landing(
                 ) from None
         digests = {p: {r.rel: _digest(r) for r in refs} if state is not None else {} for p, refs in groups.items()}
         todo = []
-        for partition, refs in groups.items() if not keys else ():
+        for partition, refs in groups.items() if not keys and table_format == "parquet" else ():
             old = reusable.get(partition)
             if old and old.get("files") == digests[partition] and (target / partition / PART_NAME).is_file():
                 kept.append(partition)
             else:
                 todo.append((partition, refs))
         fresh = dict(_write_all(target, todo, rec, read, capped_jobs(opts) if len(todo) > 1 else 1, opts.task_timeout))
-        for partition in groups if not keys else ():
+        for partition in groups if not keys and table_format == "parquet" else ():
             got = fresh.get(partition)
             part_counts = got if got is not None else [FileCount.from_json(c) for c in reusable[partition]["counts"]]
             counts += part_counts
             saved[partition] = {"files": digests[partition], "counts": [c.to_json() for c in part_counts]}
         written += [p for p, _ in todo]
-        final = written if keys else list(groups)
+        final = written if keys or table_format == "delta" else list(groups)
         for gone in sorted(set(before) - set(final) - ({""} if keys else set())):
             remove_partition(target, gone)
         doc = reconcile(rec, counts, root=str(opts.paths[0]) if len(opts.paths) == 1 else "", rules_source=source)

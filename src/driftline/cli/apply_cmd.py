@@ -34,6 +34,8 @@ Examples:
   driftline apply landing/ --out clean/ --state .apply-state
 
   driftline apply landing/ --out clean/ --partition-by day
+
+  driftline apply landing/ --out clean/ --table-format delta   (the deltalake package)
 """
 
 
@@ -80,11 +82,16 @@ def apply_command(
         metavar="KEY",
         help="Partition by these folder keys or columns (repeat, or KEY,KEY) instead of the input's folders.",
     ),
+    table_format: str = typer.Option(
+        "parquet", "--table-format", metavar="parquet|delta", help="Parquet files, or a Delta Lake table (deltalake)."
+    ),
     options: ScanOptions | None = None,
     config: Config | None = None,
 ) -> None:
     keys = [k.strip() for given in partition_by for k in given.split(",") if k.strip()]
-    result = driftline.apply(paths, out=out, rules=rules, state=state, partition_by=keys, options=options)
+    result = driftline.apply(
+        paths, out=out, rules=rules, state=state, partition_by=keys, table_format=table_format, options=options
+    )
     kept = f"; {count(len(result.kept), 'partition')} unchanged, kept" if result.kept else ""
     sys.stdout.write(
         f"wrote {count(len(result.written), 'partition')} to {safe_text(str(result.out), None)}{kept}\n"
