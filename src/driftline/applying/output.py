@@ -10,13 +10,16 @@ folder without it is refused, as is a folder inside an input or holding one.
 from __future__ import annotations
 
 import contextlib
+import decimal
 import os
 import signal
 from collections.abc import Iterator, Sequence
 from pathlib import Path
+from typing import Any
 
 import orjson
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from driftline.errors import OutputError
@@ -98,6 +101,52 @@ def remove_leftovers(root: Path) -> None:
             p.unlink()
 
 
+def _blank(t: pa.DataType) -> Any:
+    """The value a required child holds where its parent is null (never read: the parent is null)."""
+    if pa.types.is_struct(t):
+        return {t.field(i).name: _blank(t.field(i).type) for i in range(t.num_fields)}
+    if pa.types.is_list(t) or pa.types.is_map(t):
+        return []
+    if pa.types.is_string(t) or pa.types.is_large_string(t):
+        return ""
+    if pa.types.is_binary(t) or pa.types.is_large_binary(t):
+        return b""
+    if pa.types.is_boolean(t):
+        return False
+    if pa.types.is_floating(t):
+        return 0.0
+    if pa.types.is_decimal(t):
+        return decimal.Decimal(0)
+    return None if pa.types.is_null(t) else 0
+
+
+def _storable(arr: pa.Array) -> pa.Array:
+    """arr with a placeholder, never a null, in each required struct field under a null parent:
+    Parquet writers refuse a null in a non-nullable column even where its parent is null."""
+    t = arr.type
+    mask = pc.is_null(arr) if arr.null_count else None
+    if pa.types.is_struct(t) and t.num_fields:
+        valid = pc.is_valid(arr)
+        kids = []
+        for i in range(t.num_fields):
+            f, child = t.field(i), _storable(arr.field(i))
+            if not f.nullable and child.null_count:
+                blank = pa.array([_blank(f.type)], f.type).take(pa.array([0] * len(arr), pa.int64()))
+                child = pc.if_else(valid, child, blank)
+            kids.append(child)
+        return pa.StructArray.from_arrays(kids, fields=list(t), mask=mask)
+    if pa.types.is_list(t):
+        return pa.ListArray.from_arrays(arr.offsets, _storable(arr.values), type=t, mask=mask)
+    if pa.types.is_map(t):
+        return pa.MapArray.from_arrays(arr.offsets, _storable(arr.keys), _storable(arr.items), type=t, mask=mask)
+    return arr
+
+
+def storable(batch: pa.RecordBatch) -> pa.RecordBatch:
+    """The batch as a Parquet writer takes it (the same values wherever a parent is not null)."""
+    return pa.RecordBatch.from_arrays([_storable(c) for c in batch.columns], schema=batch.schema)
+
+
 class Staged:
     """One Parquet file written batch by batch under a temporary name; commit() renames it into place."""
 
@@ -110,7 +159,7 @@ class Staged:
 
     def write(self, batch: pa.RecordBatch) -> None:
         if batch.num_rows and self.writer is not None:
-            self.writer.write_batch(batch)
+            self.writer.write_batch(storable(batch))
             self.rows += batch.num_rows
 
     def close(self) -> None:

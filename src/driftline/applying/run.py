@@ -35,6 +35,7 @@ from driftline.applying.output import (
     remove_partition,
     replace_file,
     staged,
+    storable,
     terminate_as_interrupt,
 )
 from driftline.applying.quarantine import QUARANTINE_SCHEMA, REJECTED_SCHEMA, Origin, quarantine_rows, rejected_rows
@@ -320,7 +321,7 @@ def write_delta_table(
                     for cast in cast_file(ref, partition, rec, read, fc):
                         quarantine.write(cast.quarantine)
                         rejected.write(cast.rejected)
-                        yield with_partitions(cast.good, dict(ref.partitions), schema)
+                        yield with_partitions(storable(cast.good), dict(ref.partitions), schema)
                     counts.append(fc)
 
     write_delta(target, schema, [c["name"] for c in columns], batches)

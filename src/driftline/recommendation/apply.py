@@ -18,10 +18,8 @@ and cause, the counts the recommendation predicted from the profile alone.
 
 from __future__ import annotations
 
-import decimal
 from collections.abc import Iterable
 from dataclasses import dataclass, field
-from typing import Any
 
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -424,36 +422,8 @@ def _struct(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -
     for c in plan.children:
         child = _cast(c, kids[c.name], tally) if c.name in kids else _cast_forms(c, {}, n, tally)
         _check_nulls(c, child, present)
-        if not c.nullable and child.null_count:
-            # Under an absent parent a required child holds a placeholder, never a null: Parquet
-            # writers refuse a null in a non-nullable column even where its parent is null.
-            child = pc.if_else(present, child, _placeholder(child.type, n))
         children.append(child)
     return pa.StructArray.from_arrays(children, fields=[arrow_field(c) for c in plan.children], mask=pc.invert(present))
-
-
-def _blank(t: pa.DataType) -> Any:
-    """The value a required child holds where its parent is null (never read: the parent is null)."""
-    if pa.types.is_struct(t):
-        return {t.field(i).name: _blank(t.field(i).type) for i in range(t.num_fields)}
-    if pa.types.is_list(t) or pa.types.is_map(t):
-        return []
-    if pa.types.is_string(t) or pa.types.is_large_string(t):
-        return ""
-    if pa.types.is_binary(t) or pa.types.is_large_binary(t):
-        return b""
-    if pa.types.is_boolean(t):
-        return False
-    if pa.types.is_floating(t):
-        return 0.0
-    if pa.types.is_decimal(t):
-        return decimal.Decimal(0)
-    return None if pa.types.is_null(t) else 0
-
-
-def _placeholder(t: pa.DataType, n: int) -> pa.Array:
-    one = pa.array([_blank(t)], t)
-    return one.take(pa.array([0] * n, pa.int64()))
 
 
 def _check_nulls(plan: FieldPlan, arr: pa.Array, where: pa.Array | None = None) -> None:
