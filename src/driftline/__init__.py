@@ -54,9 +54,11 @@ from driftline.errors import (
 
 if _TYPE_CHECKING:
     from driftline._api import (
+        ApplyResult,
         Landing,
         Profile,
         Recommendation,
+        apply,
         check,
         datasets,
         diff,
@@ -78,9 +80,11 @@ if _TYPE_CHECKING:
 _LAZY: dict[str, str] = {
     **dict.fromkeys(
         (
+            "ApplyResult",
             "Landing",
             "Profile",
             "Recommendation",
+            "apply",
             "check",
             "datasets",
             "diff",
@@ -116,6 +120,7 @@ def __dir__() -> list[str]:
 
 
 __all__ = [
+    "ApplyResult",
     "DamagedFileError",
     "Diff",
     "DriftlineError",
@@ -139,6 +144,7 @@ __all__ = [
     "Verdict",
     "WorkerError",
     "__version__",
+    "apply",
     "check",
     "datasets",
     "diff",

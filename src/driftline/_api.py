@@ -19,6 +19,7 @@ from typing import Any as _Any
 from typing import Unpack as _Unpack
 from typing import overload as _overload
 
+from driftline.applying.run import ApplyResult
 from driftline.core.jsontypes import JSONObject as _JSONObject
 from driftline.core.options import ScanKeywords as _ScanKeywords
 from driftline.core.options import ScanOptions
@@ -666,3 +667,47 @@ def recommend(
         return Recommendation._of(_recommend(profile, options=options, **rest))
     except SchemaConflictError as exc:  # the refused plans, with their files (to_json_schema, ...)
         raise SchemaConflictError(Recommendation._of(exc.recommendation)) from None
+
+
+def apply(
+    paths: str | _os.PathLike[str] | _Sequence[str | _os.PathLike[str]],
+    *,
+    out: str | _os.PathLike[str],
+    rules: str | _os.PathLike[str] | Recommendation | None = None,
+    state: str | _os.PathLike[str] | None = None,
+    partition_by: _Sequence[str] = (),
+    table_format: str = "parquet",
+    options: ScanOptions | None = None,
+    **keywords: _Unpack[_ScanKeywords],
+) -> ApplyResult:
+    """Cast a landing folder with the cast rules into a typed Parquet table in out.
+
+    The rules are the recommendation of a scan of paths (with the read options of scan,
+    as keywords or options), a saved rules file (`driftline schema --rules`) or a
+    Recommendation. out gets one Parquet file per partition folder of the input (key=value
+    folders kept), with exactly the recommended Arrow schema; `_quarantine/` every value a
+    rule nulled or changed, with its file, partition, row, line, field path, raw text, rule
+    and reason; `_rejected/` the rows that could not be cast at all; `_reconciliation.json`
+    the rows and values accounted for against the loss the recommendation predicted
+    (docs/apply.md). Batches of batch_rows rows are cast one at a time. Each partition
+    is written under a temporary name and renamed into place; a re-run gives the same bytes;
+    with state (a file), a partition whose files have
+    not changed since the run that wrote it is kept. Raises OutputError for an output
+    folder that is an input, or is not empty and was not written by apply. partition_by
+    re-partitions by folder keys or top-level columns instead (key=value folders of their
+    values; a column named there is held by the folder names, not the files). table_format
+    'delta' writes the rows as a Delta Lake table through the deltalake package instead.
+
+    >>> import driftline, tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "in").mkdir()
+    >>> _ = (d / "in" / "a.jsonl").write_text('{"v": 1.5}\\n{"v": "n/a"}\\n')
+    >>> result = driftline.apply(d / "in", out=d / "clean")
+    >>> result.matches, result.reconciliation["rows"]["written"], result.written
+    (True, 2, ('',))
+    """
+    from driftline.applying.run import apply_landing
+
+    opts = (options or ScanOptions()).merged(**keywords)
+    return apply_landing(
+        paths, out, rules=rules, state=state, options=opts, partition_by=partition_by, table_format=table_format
+    )

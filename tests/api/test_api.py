@@ -23,6 +23,7 @@ from driftline.results.tables import EVENTS_SCHEMA, FIELDS_SCHEMA
 
 # The public surface. A change here is an API change: update docs/python.md with it.
 SURFACE = [
+    "ApplyResult",
     "DamagedFileError",
     "Diff",
     "DriftlineError",
@@ -46,6 +47,7 @@ SURFACE = [
     "Verdict",
     "WorkerError",
     "__version__",
+    "apply",
     "check",
     "datasets",
     "diff",

@@ -17,6 +17,7 @@ from conftest import ROOT
 FLOORS: tuple[tuple[str, ...], ...] = (
     ("cli",),
     ("_api",),
+    ("applying",),
     ("gate",),
     ("emit",),
     ("recommendation",),

@@ -25,6 +25,7 @@ def _help(verb: str) -> str:
         ("schema", "Usage: driftline schema [OPTIONS] PATH..."),
         ("check", "Usage: driftline check [OPTIONS] PATH..."),
         ("diff", "Usage: driftline diff [OPTIONS] BEFORE [AFTER]"),
+        ("apply", "Usage: driftline apply [OPTIONS] LANDING..."),
     ],
 )
 def test_help_shows_no_internals(verb, usage):

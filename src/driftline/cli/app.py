@@ -62,6 +62,7 @@ VERBS: dict[str, str] = {
     "check": "driftline.cli.gate_cmd",
     "diff": "driftline.cli.gate_cmd",
     "schema": "driftline.cli.schema_cmd",
+    "apply": "driftline.cli.apply_cmd",
 }
 
 

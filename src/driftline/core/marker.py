@@ -3,7 +3,8 @@
 Each format carries it where the format allows a remark without changing what its
 consumers read:
 
-  JSON documents (report, rules, verdict, diff, state)  the first key: "format": "driftline-<kind>"
+  JSON documents (report, rules, verdict, diff, state,  the first key: "format": "driftline-<kind>"
+  apply's marker, reconciliation and state)
   JSON Schema                                           the first key: "$comment": "driftline-output: ..."
   Avro schema, Iceberg schema                           the first key: "doc": "driftline-output: ..."
   Spark struct type JSON                                the first field's first metadata key:
@@ -33,7 +34,17 @@ import re
 MARKER = "driftline-output"
 OWN_OUTPUT = "own-output"  # the reason discovery gives for a skipped output of driftline's
 HEAD_BYTES = 4096
-OWN_JSON_FORMATS = ("report-set", "report", "rules", "verdict", "diff", "state")
+OWN_JSON_FORMATS = (
+    "report-set",
+    "report",
+    "rules",
+    "verdict",
+    "diff",
+    "state",
+    "apply-state",
+    "apply",
+    "reconciliation",
+)
 ARROW_KEY = b"driftline.rules"  # recommendation/plan.RULES_KEY: every IPC schema driftline writes has it
 _IPC_CONTINUATION = b"\xff\xff\xff\xff"
 _MAX_IPC_MESSAGE = 64 << 20  # an Arrow schema message longer than this is not one of ours

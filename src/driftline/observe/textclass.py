@@ -427,6 +427,14 @@ def _masks(arr: pa.Array) -> dict[str, pa.BooleanArray]:
         masks[name] = mask
         remaining = pc.and_not(remaining, mask)
 
+    def settled() -> bool:
+        """Every value has its class: the classes left hold none (their patterns need not run)."""
+        if pc.any(remaining).as_py():
+            return False
+        for name in CLASSES:
+            masks.setdefault(name, remaining)  # all false
+        return True
+
     trimmed = pc.utf8_trim_whitespace(arr)
     take("empty", pc.equal(pc.binary_length(trimmed), 0))
     # ascii_lower, not utf8_lower: Arrow lowers U+0130 'İ' to a plain 'i'
@@ -440,10 +448,14 @@ def _masks(arr: pa.Array) -> dict[str, pa.BooleanArray]:
     split = plain_numerals(arr.filter(plain)) if plain.true_count else None
     for name in ("zero_padded", "integer", "decimal"):
         take(name, plain if split is None else pc.replace_with_mask(plain, plain, split[name]))
+    if settled():  # a column of numerals (the common case) needs no float or date pattern
+        return {name: masks[name] for name in CLASSES}
     floats = pc.and_(_false_if_null(pc.match_substring_regex(arr, _RE2["float"])), remaining)
     beyond = _beyond_float64_mask(arr, floats)
     take("float", pc.and_not(floats, beyond))
     take("float_out_of_range", beyond)
+    if settled():
+        return {name: masks[name] for name in CLASSES}
     for name in ("date", *_TIMESTAMP_CLASSES):
         shaped = pc.and_(_false_if_null(pc.match_substring_regex(arr, _RE2[name])), remaining)
         if shaped.true_count:

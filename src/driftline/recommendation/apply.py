@@ -49,20 +49,54 @@ _TOKENS = pa.array(sorted(tc.NULL_TOKENS), pa.string())
 _NESTED = ("struct", "list", "map")
 
 
+@dataclass(frozen=True, slots=True)
+class Touched:
+    """The values one cause touched at one path in one batch: their rows and raw values."""
+
+    path: str
+    cause: str
+    rows: pa.Array  # int64: the batch rows holding the values (a list's items name their row)
+    raw: pa.Array  # the values as they arrived, before the cast
+
+
 @dataclass
 class Tally:
     """Counts measured while casting: path → cause → count.
 
     'nulled' is measured apart from the causes: values that were not null before the
-    cast and are null after it.
+    cast and are null after it. With keep, each counted value is kept too (`touched`),
+    with the batch row it sits in, for a quarantine.
     """
 
     counts: dict[str, dict[str, int]] = field(default_factory=dict)
+    keep: bool = False
+    touched: list[Touched] = field(default_factory=list)
+    # The batch row of each position of the array being cast (None: the batch itself);
+    # a list's or map's items push their parents' rows.
+    _rows: list[pa.Array] = field(default_factory=list)
 
     def add(self, path: str, cause: str, n: int) -> None:
         if n:
             per = self.counts.setdefault(path, {})
             per[cause] = per.get(cause, 0) + int(n)
+
+    def mark(self, path: str, cause: str, mask: pa.Array, raw: pa.Array) -> None:
+        """Count the values where mask is true, and keep them (with keep)."""
+        mask = pc.fill_null(mask, False)
+        n = _true(mask)
+        self.add(path, cause, n)
+        if self.keep and n:
+            where = pc.indices_nonzero(mask)
+            rows = self._rows[-1].take(where) if self._rows else pc.cast(where, pa.int64())
+            self.touched.append(Touched(path, cause, rows, raw.filter(mask)))
+
+    def push_rows(self, positions: pa.Array) -> None:
+        """The items about to be cast sit in these positions of the current array."""
+        positions = pc.cast(positions, pa.int64())
+        self._rows.append(self._rows[-1].take(positions) if self._rows else positions)
+
+    def pop_rows(self) -> None:
+        self._rows.pop()
 
     def get(self, path: str, cause: str) -> int:
         return self.counts.get(path, {}).get(cause, 0)
@@ -137,14 +171,14 @@ def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally) -> No
     """Count what a number cast did beyond parsing: leading zeros dropped, values beyond float64."""
     parsed = pc.is_valid(out)
     zeros = pc.fill_null(pc.match_substring_regex(arr, _LEADING_ZERO), False)
-    tally.add(path, "leading_zeros", _true(pc.and_(parsed, zeros)))
+    tally.mark(path, "leading_zeros", pc.and_(parsed, zeros), arr)
     if not pa.types.is_floating(out.type):
         return
     finite_text = pc.invert(pc.fill_null(pc.match_substring_regex(arr, _SPECIAL), False))
     inf = pc.and_(pc.fill_null(pc.is_inf(out), False), finite_text)
     nonzero = pc.fill_null(pc.match_substring_regex(arr, _NONZERO_MANTISSA), False)
     zero = pc.and_(pc.fill_null(pc.equal(out, 0.0), False), nonzero)
-    tally.add(path, "out_of_range", _true(pc.or_(inf, zero)))
+    tally.mark(path, "out_of_range", pc.or_(inf, zero), arr)
 
 
 def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
@@ -160,7 +194,7 @@ def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
 def _timestamps(arr: pa.Array, ok: pa.Array, plan: FieldPlan, t: DType, tally: Tally) -> pa.Array:
     """Cast timestamp-shaped strings; leap seconds, lower case and long fractions first."""
     assert t.unit is not None
-    path = plan.path
+    path, raw = plan.path, arr
     rfc = _matches(arr, ["timestamp_rfc3339"])
     lower = pc.and_(rfc, pc.fill_null(pc.match_substring_regex(arr, "[tz]"), False))
     arr = pc.if_else(lower, pc.ascii_upper(arr), arr)
@@ -179,14 +213,14 @@ def _timestamps(arr: pa.Array, ok: pa.Array, plan: FieldPlan, t: DType, tally: T
         instants = _try_cast(_null_where(arr, pc.invert(pc.and_(ok, zoned))), pa.timestamp(t.unit, "UTC"))
         naive_valid = pc.is_valid(naive)
         naive = pc.assume_timezone(naive, t.tz, ambiguous="earliest", nonexistent="earliest")
-        tally.add(path, "assumed_zone", _true(naive_valid))
+        tally.mark(path, "assumed_zone", naive_valid, raw)
         out = pc.coalesce(pc.cast(instants, out_type), pc.cast(naive, out_type))
     else:
         out = pc.cast(naive, out_type)
     parsed = pc.is_valid(out)
-    tally.add(path, "lowercase", _true(pc.and_(lower, parsed)))
-    tally.add(path, "leap_second", _true(pc.and_(leap, parsed)))
-    tally.add(path, "truncated", _true(pc.and_(cut, parsed)))
+    tally.mark(path, "lowercase", pc.and_(lower, parsed), raw)
+    tally.mark(path, "leap_second", pc.and_(leap, parsed), raw)
+    tally.mark(path, "truncated", pc.and_(cut, parsed), raw)
     return out
 
 
@@ -198,13 +232,13 @@ def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Ar
     trimmed = pc.utf8_trim_whitespace(arr)
     if params.get("tokens", {}).get(source) == "null":
         token = pc.fill_null(pc.is_in(pc.ascii_lower(trimmed), value_set=_TOKENS), False)
-        tally.add(path, "null_token", _true(token))
+        tally.mark(path, "null_token", token, arr)
         arr = _null_where(arr, token)
     if t.name == "string":
         return arr if arr.type == out_type else pc.cast(arr, out_type)
     if source == "string" and params.get("empty") == "null":
         blank = pc.fill_null(pc.equal(pc.utf8_length(trimmed), 0), False)
-        tally.add(path, "empty", _true(pc.and_(blank, pc.is_valid(arr))))
+        tally.mark(path, "empty", pc.and_(blank, pc.is_valid(arr)), arr)
         arr = _null_where(arr, blank)
     accept = params.get("accept", [])
     ok = pc.and_(pc.is_valid(arr), _accepted(arr, accept))
@@ -214,7 +248,7 @@ def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Ar
         out = _try_cast(_null_where(arr, pc.invert(ok)), out_type)
         if t.name.startswith(("int", "uint", "float")) or t.name == "decimal":
             _number_changes(arr, out, path, tally)
-    tally.add(path, "unparsed", _true(pc.and_(pc.is_valid(arr), pc.is_null(out))))
+    tally.mark(path, "unparsed", pc.and_(pc.is_valid(arr), pc.is_null(out)), arr)
     return out
 
 
@@ -224,14 +258,13 @@ def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Ar
 def _typed(arr: pa.Array, key: str, plan: FieldPlan, tally: Tally) -> pa.Array:
     t, path = plan.target, plan.path
     out_type = to_arrow(t)
-    valid = _true(pc.is_valid(arr))
     if t.name == "string":
-        tally.add(path, "as_text", valid)
+        tally.mark(path, "as_text", pc.is_valid(arr), arr)
         return pc.cast(arr, out_type)
     src = arr.type
     if t.name.startswith("float") and pa.types.is_integer(src):
         beyond = pc.greater(pc.abs(pc.cast(arr, pa.decimal128(20, 0))), SAFE_INT)
-        tally.add(path, "unsafe_int", _true(pc.fill_null(beyond, False)))
+        tally.mark(path, "unsafe_int", beyond, arr)
         out = pc.cast(arr, out_type, safe=False)
         # Measured apart: how many really changed (2**53 + 2 survives, 2**53 + 1 does not).
         back = pc.cast(out, pa.decimal128(38, 0), safe=False)
@@ -241,14 +274,14 @@ def _typed(arr: pa.Array, key: str, plan: FieldPlan, tally: Tally) -> pa.Array:
     if t.name.startswith("float") and pa.types.is_decimal(src) and src.scale == 0:
         # Integers as decimal(N,0) (JSON literals past uint64, or a Parquet column): as for int64.
         beyond = pc.greater(pc.abs(arr), pa.scalar(SAFE_INT, pa.int64()))
-        tally.add(path, "unsafe_int", _true(pc.fill_null(beyond, False)))
+        tally.mark(path, "unsafe_int", beyond, arr)
         out = pc.cast(arr, out_type, safe=False)
         back = pc.cast(out, src, safe=False)
         tally.add(path, "unsafe_int:changed", _true(pc.fill_null(pc.not_equal(back, arr), False)))
         return out
     if t.name == "timestamp" and t.tz and (pa.types.is_date(src) or pa.types.is_timestamp(src) and not src.tz):
         naive = pc.cast(arr, pa.timestamp(t.unit))
-        tally.add(path, "assumed_zone", valid)
+        tally.mark(path, "assumed_zone", pc.is_valid(arr), arr)
         return pc.cast(pc.assume_timezone(naive, t.tz, ambiguous="earliest", nonexistent="earliest"), out_type)
     # decimal → float64 rounds by design (the 'rounded' effect); every other cast is safe.
     return pc.cast(arr, out_type, safe=not (t.name.startswith("float") and pa.types.is_decimal(src)))
@@ -262,11 +295,13 @@ def _scalar(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -
         for key in ("string", TEXT):  # ... or tokens: a CSV column of 'n/a' maps them
             if key in forms and plan.params.get("tokens", {}).get("text" if key == TEXT else key) == "null":
                 token = pc.is_in(pc.ascii_lower(pc.utf8_trim_whitespace(forms[key])), value_set=_TOKENS)
-                tally.add(plan.path, "null_token", _true(pc.fill_null(token, False)))
+                tally.mark(plan.path, "null_token", token, forms[key])
         return pa.nulls(n)
     parts = []
     for key, arr in forms.items():
         if key in _NESTED:
+            if arr.null_count == len(arr):  # the kind is in the batch's type, not in these rows
+                continue
             raise SchemaMismatch(f"{plan.path}: a {key} value where the schema has {plan.target.key()}")
         if key in ("string", TEXT):
             parts.append(_strings(arr, "string" if key == "string" else "text", plan, tally))
@@ -279,18 +314,25 @@ def _json_text(plan: FieldPlan, variant: pa.Array, tally: Tally) -> pa.Array:
     """The last resort: each value as its JSON text (the one step done in Python per value)."""
     tokens = plan.params.get("tokens", {}).get("text") == "null"
     out: list[str | None] = []
+    nulled: list[bool] = []
     for v in jsonable(variant).to_pylist():
         cell = v.get(TEXT) if v else None
-        if cell is not None and tokens and cell.strip().lower() in tc.NULL_TOKENS:
-            tally.add(plan.path, "null_token", 1)
-            out.append(None)
-        elif v is None or all(x is None for x in v.values()):
+        nulled.append(cell is not None and tokens and cell.strip().lower() in tc.NULL_TOKENS)
+        if nulled[-1] or v is None or all(x is None for x in v.values()):
             out.append(None)
         else:
             out.append(json_text(cell if cell is not None else plain_value(v)))
     arr = pa.array(out, pa.string())
-    tally.add(plan.path, "as_json_text", len(arr) - arr.null_count)
+    tally.mark(plan.path, "null_token", pa.array(nulled, pa.bool_()), variant)
+    tally.mark(plan.path, "as_json_text", pc.is_valid(arr), variant)
     return arr
+
+
+def _raw_variant(forms: dict[str, pa.Array], n: int) -> pa.Array:
+    """Forms back as one variant array (what a quarantine shows as the raw value)."""
+    if not forms:
+        return pa.nulls(n, pa.struct([]))
+    return pa.StructArray.from_arrays(list(forms.values()), names=list(forms))
 
 
 def _offsets(lengths: pa.Array) -> pa.Array:
@@ -314,15 +356,15 @@ def _list(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> 
             drop = pa.repeat(False, n)
             if plan.params.get("tokens", {}).get(source) == "null":
                 token = pc.fill_null(pc.is_in(pc.ascii_lower(trimmed), value_set=_TOKENS), False)
-                tally.add(plan.path, "null_token", _true(token))
+                tally.mark(plan.path, "null_token", token, arr)
                 drop = pc.or_(drop, token)
             if source == "string" and plan.params.get("empty") == "null":
                 blank = pc.fill_null(pc.equal(pc.utf8_length(trimmed), 0), False)
-                tally.add(plan.path, "empty", _true(blank))
+                tally.mark(plan.path, "empty", blank, arr)
                 drop = pc.or_(drop, blank)
             scalars[key] = _null_where(arr, drop)
         wrapped = _valid_any(scalars, n)
-        tally.add(plan.path, "wrapped", _true(wrapped))
+        tally.mark(plan.path, "wrapped", wrapped, _raw_variant(scalars, n))
         rows = pc.indices_nonzero(wrapped)
         keys = sorted(set(flat) | set(scalars))
         m = len(parents)
@@ -337,11 +379,17 @@ def _list(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> 
                     b.filter(wrapped) if b is not None else pa.nulls(len(rows), typ),
                 ]
             )
-        order = pc.sort_indices(pa.concat_arrays([pc.cast(parents, pa.int64()), pc.cast(rows, pa.int64())]))
+        owners = pa.concat_arrays([pc.cast(parents, pa.int64()), pc.cast(rows, pa.int64())])
+        order = pc.sort_indices(owners)
         flat = {k: a.take(order) for k, a in merged.items()}
+        parents = owners.take(order)
         lengths = pc.if_else(wrapped, pa.scalar(1, lengths.type), lengths)
     n_items = int(pc.sum(pc.fill_null(pc.cast(lengths, pa.int64()), 0)).as_py() or 0)
-    items = _cast_forms(item_plan, flat, n_items, tally)
+    tally.push_rows(parents)
+    try:
+        items = _cast_forms(item_plan, flat, n_items, tally)
+    finally:
+        tally.pop_rows()
     _check_nulls(item_plan, items)
     valid = pc.is_valid(lengths)
     return pa.ListArray.from_arrays(_offsets(lengths), items, type=arrow_type(plan), mask=pc.invert(valid))
@@ -353,8 +401,14 @@ def _map(plan: FieldPlan, forms: dict[str, pa.Array], n: int, tally: Tally) -> p
     if m is None:
         return pa.nulls(n, arrow_type(plan))
     start, end = m.offsets[0].as_py(), m.offsets[-1].as_py()
-    keys = _cast(key_plan, m.keys.slice(start, end - start), tally)
-    values = _cast(value_plan, m.items.slice(start, end - start), tally)
+    # (list_parent_indices aborts on a map in pyarrow 26: the owners come from the offsets)
+    owners = pa.ListArray.from_arrays(pc.subtract(m.offsets, start), pa.nulls(end - start))
+    tally.push_rows(pc.list_parent_indices(owners))
+    try:
+        keys = _cast(key_plan, m.keys.slice(start, end - start), tally)
+        values = _cast(value_plan, m.items.slice(start, end - start), tally)
+    finally:
+        tally.pop_rows()
     _check_nulls(value_plan, values)
     offsets = pc.subtract(m.offsets, start)
     return pa.MapArray.from_arrays(offsets, keys, values, type=arrow_type(plan), mask=pc.is_null(m))

@@ -27,7 +27,8 @@ class PartitionColumn:
     rows: int = 0
 
 
-def _type(values: Sequence[str]) -> DType:
+def partition_type(values: Sequence[str]) -> DType:
+    """The type of a partition key's values (their content classes)."""
     classes = {class_of(v) for v in values}
     if classes == {"integer"}:
         return DType("int64")
@@ -48,5 +49,5 @@ def partition_columns(files: Sequence[FileResult], keys: Sequence[str]) -> tuple
     for key in keys:
         having = [(dict(f.partitions)[key], f.rows) for f in files if key in dict(f.partitions)]
         values = sorted({v for v, _ in having})
-        out.append(PartitionColumn(key, _type(values), tuple(values), sum(n for _, n in having)))
+        out.append(PartitionColumn(key, partition_type(values), tuple(values), sum(n for _, n in having)))
     return tuple(out)

@@ -33,6 +33,7 @@ import pyarrow.compute as pc
 from driftline.core import paths
 from driftline.core.lattice import from_arrow
 from driftline.core.observation import TEXT_CLASS_TYPE
+from driftline.core.options import ReadOptions
 from driftline.observe.records import int_key
 from driftline.observe.textclass import class_of
 from driftline.sources.discover import FileRef, discover
@@ -135,6 +136,57 @@ class _Shape:
         return pa.struct(children)
 
 
+_ONE_KIND: dict[type, tuple[str, pa.DataType]] = {
+    str: ("string", pa.string()),
+    float: ("float64", pa.float64()),
+    bool: ("bool", pa.bool_()),
+    int: ("int64", pa.int64()),
+}
+_INT64 = (-(2**63), 2**63 - 1)
+
+
+def _one_kind(values: list[Any]) -> pa.StructArray | None:
+    """A column whose values are all of one kind (or null) as its variant, built by Arrow at
+    once: the same array the per-value path builds, without a dict per value. Scalars of one
+    kind, objects whose fields are so in turn, lists whose items are. None otherwise."""
+    kinds = {type(v) for v in values if v is not None}
+    if len(kinds) != 1:
+        return None
+    (t,) = kinds
+    mask = pa.array([v is None for v in values], pa.bool_()) if None in values else None
+    if t is dict:
+        names: dict[str, None] = {}
+        for v in values:
+            if v is not None:
+                names.update(dict.fromkeys(v))
+        if not names:
+            return None
+        kids = []
+        for name in names:
+            kid = _one_kind([v.get(name) if v is not None else None for v in values])
+            if kid is None:
+                return None
+            kids.append(kid)
+        inner: pa.Array = pa.StructArray.from_arrays(kids, names=list(names), mask=mask)
+        return pa.StructArray.from_arrays([inner], names=["struct"], mask=mask)
+    if t is list:
+        flat = [x for v in values if v is not None for x in v]
+        items = _one_kind(flat)
+        if items is None:
+            return None
+        offsets, at = [0], 0
+        for v in values:
+            at += len(v) if v is not None else 0
+            offsets.append(at)
+        inner = pa.ListArray.from_arrays(pa.array(offsets, pa.int32()), items, mask=mask)
+        return pa.StructArray.from_arrays([inner], names=["list"], mask=mask)
+    if t not in _ONE_KIND or t is int and not all(_INT64[0] <= v <= _INT64[1] for v in values if v is not None):
+        return None
+    key, arrow = _ONE_KIND[t]
+    arr = pa.array(values, arrow)
+    return pa.StructArray.from_arrays([arr], names=[key], mask=mask)
+
+
 def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
     """Parsed JSON records as a batch of variant columns ('$' for records that are not objects).
 
@@ -147,10 +199,13 @@ def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
             names[name] = None
     columns, fields = [], []
     for name in names:
-        values = [
-            variant_value(rec.get(name) if type(rec) is dict else (rec if name == paths.ROOT else None))
-            for rec in records
-        ]
+        plain = [rec.get(name) if type(rec) is dict else (rec if name == paths.ROOT else None) for rec in records]
+        one = _one_kind(plain)
+        if one is not None:
+            columns.append(one)
+            fields.append(pa.field(name, one.type))
+            continue
+        values = [variant_value(v) for v in plain]
         shape = _Shape()
         for v in values:
             shape.add(v)
@@ -238,9 +293,10 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
 # -- files: read by the scan's own readers (sources/readers.read_values), as variants -------
 
 
-def _batches(ref: FileRef, batch_rows: int) -> Iterator[pa.RecordBatch]:
+def file_batches(ref: FileRef, batch_rows: int, base: ReadOptions | None = None) -> Iterator[pa.RecordBatch]:
+    """One file's rows, batch_rows at a time, as variant columns (read with the scan's read options)."""
     text = SPECS[ref.format].text_cells
-    for part in read_values(ref, batch_rows):
+    for part in read_values(ref, batch_rows, base):
         if isinstance(part, list):
             yield records_to_batch(part)
         else:
@@ -254,7 +310,7 @@ def raw_batches(
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
     for ref in found.files:
         row = 0
-        for rb in _batches(ref, batch_rows):
+        for rb in file_batches(ref, batch_rows):
             yield RawBatch(ref.rel, row, rb)
             row += rb.num_rows
 

@@ -62,14 +62,14 @@ def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str,
     return "unreadable", f"read failed: {exc}"
 
 
-def read_values(ref: FileRef, batch_rows: int) -> Iterator[list[Any] | pa.RecordBatch]:
+def read_values(ref: FileRef, batch_rows: int, base: ReadOptions | None = None) -> Iterator[list[Any] | pa.RecordBatch]:
     """The values of the rows read_file reads from a local file, at most batch_rows at a time, for
     casting them (recommendation/raw): lists of parsed JSON records, or Arrow batches (the format's
     text_cells, or its typed columns).  The same reader, encoding and dialect as read_file with
     default options; the problems are read_file's to report, and a file that cannot be read at
-    all raises."""
+    all raises. base: the scan's read options (encoding, delimiter, dialect pins), when not the defaults."""
     spec = SPECS[ref.format]
-    opts = ReadOptions(batch_rows=batch_rows, batch_bytes=_LARGEST_BATCH)
+    opts = replace(base or ReadOptions(), batch_rows=batch_rows, batch_bytes=_LARGEST_BATCH)
     if spec.read is None:
         yield from spec.values(ref.path, ref.rel, opts)
         return
