@@ -697,6 +697,8 @@ def apply(
     re-partitions by folder keys or top-level columns instead (key=value folders of their
     values; a column named there is held by the folder names, not the files). table_format
     'delta' writes the rows as a Delta Lake table through the deltalake package instead.
+    paths and out may be s3:// URLs (each object uploaded whole under its final key);
+    engine='dask' writes each partition as a task on a dask cluster, with the same bytes.
 
     >>> import driftline, tempfile, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp()); _ = (d / "in").mkdir()

@@ -7,68 +7,21 @@ server's own request log shows what was listed and fetched.
 from __future__ import annotations
 
 import os
-import threading
 from collections.abc import Iterator
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
-from urllib.parse import parse_qs, unquote
 
 import pytest
 
 from _endpoints import dead_port, silent_endpoint
+from _moto import ACCESS_KEY, BUCKET, SECRET, Server, boto3
 from driftline.core.options import StorageOptions
 from driftline.core.partitions import parse_condition
 from driftline.errors import InputPathError, OptionError
 from driftline.scanning.run import scan_paths
 from driftline.sources.discover import discover
 from driftline.sources.remote import discover_remote, locator, parse_locator
-
-if os.environ.get("CI"):
-    import boto3  # CI installs the test extra: a missing package is a failure, never a skip
-    from moto.server import DomainDispatcherApplication, create_backend_app
-else:
-    boto3 = pytest.importorskip("boto3")
-    moto_server = pytest.importorskip("moto.server")
-    DomainDispatcherApplication = moto_server.DomainDispatcherApplication
-    create_backend_app = moto_server.create_backend_app
-
-BUCKET = "lake"
-ACCESS_KEY = "AKIDRIFTLINETEST0001"
-SECRET = "test-secret-never-shown-0123456789"
-
-
-class Server:
-    """moto's WSGI app behind werkzeug on loopback, logging every request it serves."""
-
-    def __init__(self) -> None:
-        from werkzeug.serving import make_server
-
-        app = DomainDispatcherApplication(create_backend_app)
-        self.requests: list[dict[str, Any]] = []
-        self.after: Any = None  # called with each request once it was answered (tests change the bucket there)
-
-        def logged(environ: dict[str, Any], start_response: Any) -> Any:
-            request = {
-                "method": environ["REQUEST_METHOD"],
-                "path": unquote(environ.get("PATH_INFO", "")),
-                "query": parse_qs(environ.get("QUERY_STRING", "")),
-                "range": environ.get("HTTP_RANGE"),
-            }
-            self.requests.append(request)
-            answer = list(app(environ, start_response))  # the body is made now, before any change
-            if self.after is not None:
-                self.after(request)
-            return answer
-
-        self.server = make_server("127.0.0.1", 0, logged, threaded=True)
-        self.url = f"http://127.0.0.1:{self.server.server_port}"
-        self.thread = threading.Thread(target=self.server.serve_forever, daemon=True)
-        self.thread.start()
-
-    def stop(self) -> None:
-        self.server.shutdown()
-        self.thread.join(5)
 
 
 @pytest.fixture(scope="module")

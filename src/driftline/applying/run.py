@@ -11,6 +11,7 @@ import contextlib
 import hashlib
 import os
 import posixpath
+import uuid
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -22,6 +23,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from driftline.applying.delta import delta_schema, with_partitions, write_delta
+from driftline.applying.objectstore import RemoteOut, check_remote_output, local_stage
 from driftline.applying.output import (
     MARKER_FORMAT,
     MARKER_NAME,
@@ -44,7 +46,7 @@ from driftline.applying.rulesfile import load_recommendation
 from driftline.core.fileref import FileRef
 from driftline.core.jsontypes import JSONObject
 from driftline.core.options import ReadOptions, ScanOptions
-from driftline.errors import InputPathError, OptionError, OutputError
+from driftline.errors import EngineError, InputPathError, OptionError, OutputError
 from driftline.recommendation import recommend
 from driftline.recommendation.apply import SchemaMismatch, Tally, Touched, apply
 from driftline.recommendation.partitions import partition_type
@@ -54,6 +56,7 @@ from driftline.scanning.run import capped_jobs, discover_for, read_found
 from driftline.scanning.workers import run_ordered
 from driftline.sources.formats import open_stream
 from driftline.sources.registry import SPECS
+from driftline.sources.remote import is_url, open_binary, open_stream_remote
 
 STATE_FORMAT = "driftline-apply-state"
 _CAST_ERRORS = (SchemaMismatch, pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError)
@@ -72,7 +75,7 @@ class ApplyResult:
     (True, [('n', 'null_token', 1)])
     """
 
-    out: Path
+    out: Path | str  # a local folder, or an s3:// URL
     reconciliation: JSONObject
     written: tuple[str, ...]
     kept: tuple[str, ...]
@@ -153,7 +156,7 @@ class _Lines:
         self.number = 0  # lines read
         self.row = 0  # rows passed
         spec = SPECS[ref.format]  # one row a line: JSON Lines (its lines counted apart, no CSV cells)
-        self.usable = spec.count_lines and not spec.text_cells and not ref.is_remote
+        self.usable = spec.count_lines and not spec.text_cells
 
     def find(self, rows: set[int]) -> dict[int, int]:
         out: dict[int, int] = {}
@@ -161,7 +164,8 @@ class _Lines:
             return out
         try:
             if self.stream is None:
-                self.stream = open_stream(self.ref.path, self.ref.compression, limit=None).__enter__()
+                opener = open_stream_remote if self.ref.is_remote else open_stream  # an object: one more GET
+                self.stream = opener(self.ref.path, self.ref.compression, limit=None).__enter__()
             last = max(rows)
             while self.row <= last:
                 line = self.stream.readline()
@@ -257,31 +261,100 @@ def write_partition(
     return counts
 
 
-def _partition_task(item: tuple[str, list[FileRef]], shared: tuple[str, Recommendation, ReadOptions]) -> Any:
+def write_partition_to(
+    out: str | RemoteOut, partition: str, refs: Sequence[FileRef], rec: Recommendation, read: ReadOptions
+) -> list[FileCount]:
+    """write_partition into a local folder, or, for an object store, into a temporary local
+    folder whose files are then uploaded under their final keys (objectstore.py)."""
+    if isinstance(out, str):
+        return write_partition(Path(out), partition, refs, rec, read)
+    with local_stage() as stage:
+        counts = write_partition(stage, partition, refs, rec, read)
+        out.upload_tree(stage)  # sorted: the quarantine and rejected rows, then the data file
+    return counts
+
+
+def _partition_task(
+    item: tuple[str, list[FileRef]], shared: tuple[str | RemoteOut, Recommendation, ReadOptions]
+) -> Any:
     partition, refs = item
     out, rec, read = shared
-    return write_partition(Path(out), partition, refs, rec, read)
+    return write_partition_to(out, partition, refs, rec, read)
 
 
 def _task_files(item: tuple[str, list[FileRef]]) -> list[str]:
     return [r.rel for r in item[1]]
 
 
+def _write_dask(
+    out: str | RemoteOut,
+    todo: list[tuple[str, list[FileRef]]],
+    rec: Recommendation,
+    read: ReadOptions,
+    opts: ScanOptions,
+    jobs: int,
+) -> Iterator[list[FileCount]]:
+    """One dask task a partition, results in partition order: each worker writes its partition
+    where a local run would (a folder every worker reaches, or the object store)."""
+    from driftline.scanning.engines import connect
+
+    distributed, client, cluster = connect(opts.scheduler, jobs, opts.storage.connect_timeout)
+    where = opts.scheduler or "the local cluster"
+    try:
+        shared = (out, rec, read)
+        token = uuid.uuid4().hex[:12]  # fresh keys: a re-run rewrites partitions whose files changed
+        futures = [
+            client.submit(_partition_task, item, shared, pure=False, key=f"driftline-apply-{token}-{i}")
+            for i, item in enumerate(todo)
+        ]
+        for (partition, _), fut in zip(todo, futures, strict=True):
+            try:
+                got = fut.result(timeout=opts.task_timeout)
+            except (TimeoutError, distributed.TimeoutError):
+                raise EngineError(
+                    f"no dask task finished within {opts.task_timeout:g} s (--task-timeout) while writing partition "
+                    f"{partition or '.'!r}; check the workers of {where}, or raise --task-timeout"
+                ) from None
+            except (OSError, OutputError, KeyboardInterrupt):
+                raise
+            except Exception as exc:
+                if type(exc).__name__ in ("KilledWorker", "CommClosedError", "CancelledError", "FutureCancelledError"):
+                    raise EngineError(
+                        f"the dask cluster lost partition {partition or '.'!r} ({type(exc).__name__}: {exc}); "
+                        "the partitions written before it are complete"
+                    ) from None
+                raise
+            yield got
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+
+
 def _write_all(
-    out: Path, todo: list[tuple[str, list[FileRef]]], rec: Recommendation, read: ReadOptions, jobs: int, timeout: float
+    out: str | RemoteOut,
+    todo: list[tuple[str, list[FileRef]]],
+    rec: Recommendation,
+    read: ReadOptions,
+    opts: ScanOptions,
+    jobs: int,
 ) -> Iterator[tuple[str, list[FileCount]]]:
-    """Each partition written (in worker processes with jobs > 1: the same bytes), with its counts."""
-    if jobs > 1:
-        results: Iterator[Any] = run_ordered(
+    """Each partition written (in worker processes with jobs > 1, or on dask workers: the same
+    bytes), with its counts."""
+    shown = out if isinstance(out, str) else out.url
+    if opts.engine == "dask" and todo:
+        results: Iterator[Any] = _write_dask(out, todo, rec, read, opts, jobs)
+    elif jobs > 1:
+        results = run_ordered(
             _partition_task,
             todo,
-            (str(out), rec, read),
+            (out, rec, read),
             jobs=jobs,
             names=_task_files,
-            task_timeout=timeout,
+            task_timeout=opts.task_timeout,
         )
     else:
-        results = (write_partition(out, p, refs, rec, read) for p, refs in todo)
+        results = (write_partition_to(out, p, refs, rec, read) for p, refs in todo)
     done = 0
     try:
         for got in results:
@@ -290,8 +363,9 @@ def _write_all(
     except OSError as exc:  # a full disk, a folder made read-only: the earlier partitions stay
         partition = todo[done][0]  # the first partition not finished, in order
         raise OutputError(
-            f"cannot write partition {partition or '.'!r} in {str(out)!r}: {exc.strerror or exc} "
-            f"({exc.filename or out / partition}); the partitions written before it are complete, this one is unchanged"
+            f"cannot write partition {partition or '.'!r} in {shown!r}: {exc.strerror or exc} "
+            f"({exc.filename or posixpath.join(shown, partition)}); the partitions written before it are complete, "
+            "this one is unchanged"
         ) from None
 
 
@@ -400,7 +474,7 @@ def write_repartitioned(
 
 def _digest(ref: FileRef) -> str:
     h = hashlib.sha256()
-    with open(ref.path, "rb") as fh:
+    with open_binary(ref.path) if ref.is_remote else open(ref.path, "rb") as fh:
         for block in iter(lambda: fh.read(1 << 20), b""):
             h.update(block)
     return f"{ref.size}:{h.hexdigest()}"
@@ -442,6 +516,55 @@ def _read_json(path: Path) -> dict[str, Any] | None:
     return doc if isinstance(doc, dict) else None
 
 
+class _Dest:
+    """Where the run writes: a local folder, or an object store prefix (remote set)."""
+
+    def __init__(self, out: str | os.PathLike[str], inputs: Sequence[str | os.PathLike[str]], opts: ScanOptions):
+        given = os.fspath(out)
+        self.remote: RemoteOut | None = None
+        if isinstance(given, str) and is_url(given):
+            self.remote = check_remote_output(given, [str(p) for p in inputs], opts.storage)
+            self.local = Path()
+            self.shown = self.remote.url
+        else:
+            self.local = check_output(out, [p for p in inputs if not is_url(str(p))])
+            self.shown = str(self.local)
+
+    @property
+    def task_out(self) -> str | RemoteOut:
+        return self.remote if self.remote is not None else str(self.local)
+
+    def read_json(self, rel: str) -> dict[str, Any] | None:
+        if self.remote is None:
+            return _read_json(self.local / rel)
+        payload = self.remote.read(rel)
+        try:
+            doc = orjson.loads(payload) if payload is not None else None
+        except orjson.JSONDecodeError:
+            return None
+        return doc if isinstance(doc, dict) else None
+
+    def prepare(self) -> None:
+        if self.remote is None:  # an object store keeps no temporary keys (objectstore.py)
+            self.local.mkdir(parents=True, exist_ok=True)
+            remove_leftovers(self.local)
+
+    def put(self, rel: str, payload: bytes) -> None:
+        if self.remote is None:
+            replace_file(self.local / rel, payload)
+        else:
+            self.remote.put(rel, payload)
+
+    def has(self, rel: str) -> bool:
+        return self.remote.exists(rel) if self.remote is not None else (self.local / rel).is_file()
+
+    def remove_partition(self, partition: str) -> None:
+        if self.remote is None:
+            remove_partition(self.local, partition)
+        else:
+            self.remote.remove_partition(partition)
+
+
 def apply_landing(
     paths: str | os.PathLike[str] | Sequence[str | os.PathLike[str]],
     out: str | os.PathLike[str],
@@ -456,11 +579,14 @@ def apply_landing(
     """Cast every file under paths with the rules into out (see the module docstring)."""
     given = [paths] if isinstance(paths, str | os.PathLike) else list(paths)
     opts = (options or ScanOptions()).merged(paths=given)
-    if any(str(p).startswith(("s3://", "gs://", "az://")) for p in opts.paths):
-        raise OptionError("apply reads local folders only; copy an object store prefix to a local folder first")
+    if any(str(p).startswith(("gs://", "az://")) for p in [*opts.paths, out]):
+        raise OptionError("apply reaches object stores through s3:// URLs only (S3 and S3-compatible servers)")
     if table_format not in ("parquet", "delta"):
         raise OptionError(f"--table-format must be parquet or delta; got {table_format!r}")
-    target = check_output(out, list(opts.paths))
+    if table_format == "delta" and is_url(os.fspath(out)):
+        raise OptionError("--table-format delta writes a local folder; give --out a local folder")
+    dest = _Dest(out, list(opts.paths), opts)
+    target = dest.local
     rows = batch_rows or opts.read.batch_rows
     found = discover_for(opts)
     if rules is None:
@@ -483,21 +609,20 @@ def apply_landing(
     keys = list(partition_by)
     columns = _check_partition_by(keys, rec, found.files)
     fingerprint = rules_fingerprint(rec) + "".join(f"|{k}" for k in keys)
-    marker = _read_json(target / MARKER_NAME) or {}
+    marker = dest.read_json(MARKER_NAME) or {}
     before = list(marker.get("partitions", []))
     previous = _read_json(Path(state)) if state is not None and Path(state).is_file() else None
     reusable: dict[str, Any] = {}
     same = previous and previous.get("format") == STATE_FORMAT and previous.get("rules") == fingerprint
-    if same and previous and previous.get("out") == str(target) and not keys:
+    if same and previous and previous.get("out") == dest.shown and not keys:
         reusable = previous.get("partitions", {})
     counts: list[FileCount] = []
     written: list[str] = []
     kept: list[str] = []
     saved: dict[str, Any] = {}
     with terminate_as_interrupt():
-        target.mkdir(parents=True, exist_ok=True)
-        remove_leftovers(target)
-        replace_file(target / MARKER_NAME, json_bytes(_marker(sorted(set(before) | set(groups)), columns)))
+        dest.prepare()
+        dest.put(MARKER_NAME, json_bytes(_marker(sorted(set(before) | set(groups)), columns)))
         read = replace(opts.read, batch_rows=rows)
         if table_format == "delta":
             try:
@@ -507,21 +632,27 @@ def apply_landing(
             written = list(groups)
         elif keys:
             try:
-                counts, written = write_repartitioned(target, groups, rec, read, keys)
+                if dest.remote is None:
+                    counts, written = write_repartitioned(target, groups, rec, read, keys)
+                else:
+                    with local_stage() as stage:
+                        counts, written = write_repartitioned(stage, groups, rec, read, keys)
+                        dest.remote.upload_tree(stage)
             except OSError as exc:
                 raise OutputError(
-                    f"cannot write into {str(target)!r}: {exc.strerror or exc} ({exc.filename or target}); "
+                    f"cannot write into {dest.shown!r}: {exc.strerror or exc} ({exc.filename or dest.shown}); "
                     "the earlier output is unchanged"
                 ) from None
         digests = {p: {r.rel: _digest(r) for r in refs} if state is not None else {} for p, refs in groups.items()}
         todo = []
         for partition, refs in groups.items() if not keys and table_format == "parquet" else ():
             old = reusable.get(partition)
-            if old and old.get("files") == digests[partition] and (target / partition / PART_NAME).is_file():
+            if old and old.get("files") == digests[partition] and dest.has(posixpath.join(partition, PART_NAME)):
                 kept.append(partition)
             else:
                 todo.append((partition, refs))
-        fresh = dict(_write_all(target, todo, rec, read, capped_jobs(opts) if len(todo) > 1 else 1, opts.task_timeout))
+        jobs = capped_jobs(opts) if len(todo) > 1 or opts.engine == "dask" else 1
+        fresh = dict(_write_all(dest.task_out, todo, rec, read, opts, jobs))
         for partition in groups if not keys and table_format == "parquet" else ():
             got = fresh.get(partition)
             part_counts = got if got is not None else [FileCount.from_json(c) for c in reusable[partition]["counts"]]
@@ -530,20 +661,21 @@ def apply_landing(
         written += [p for p, _ in todo]
         final = written if keys or table_format == "delta" else list(groups)
         for gone in sorted(set(before) - set(final) - ({""} if keys else set())):
-            remove_partition(target, gone)
+            dest.remove_partition(gone)
         doc = reconcile(rec, counts, root=str(opts.paths[0]) if len(opts.paths) == 1 else "", rules_source=source)
-        replace_file(target / RECONCILIATION_NAME, json_bytes(doc))
-        replace_file(target / MARKER_NAME, json_bytes(_marker(final, columns)))
+        dest.put(RECONCILIATION_NAME, json_bytes(doc))
+        dest.put(MARKER_NAME, json_bytes(_marker(final, columns)))
         if state is not None:
             state_doc = {
                 "format": STATE_FORMAT,
                 "version": 1,
-                "out": str(target),
+                "out": dest.shown,
                 "rules": fingerprint,
                 "partitions": saved,
             }
             replace_file(Path(state), json_bytes(state_doc))
-    return ApplyResult(target, cast(JSONObject, doc), tuple(written), tuple(kept))
+    shown: Path | str = target if dest.remote is None else dest.shown
+    return ApplyResult(shown, cast(JSONObject, doc), tuple(written), tuple(kept))
 
 
 def _check_partition_by(keys: Sequence[str], rec: Recommendation, refs: Sequence[FileRef]) -> list[dict[str, str]]:

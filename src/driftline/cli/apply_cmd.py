@@ -36,6 +36,8 @@ Examples:
   driftline apply landing/ --out clean/ --partition-by day
 
   driftline apply landing/ --out clean/ --table-format delta   (the deltalake package)
+
+  driftline apply s3://lake/landing/ --out s3://lake/clean --engine dask
 """
 
 
@@ -66,7 +68,9 @@ def _summary(doc: JSONObject) -> str:
 @takes_read_options
 def apply_command(
     paths: list[str] = typer.Argument(..., metavar="LANDING...", help="The landing folders (or files) to cast."),
-    out: str = typer.Option(..., "--out", "-o", metavar="DIR", help="The output folder (new, empty, or apply's own)."),
+    out: str = typer.Option(
+        ..., "--out", "-o", metavar="DIR", help="The output folder or s3:// prefix (new, empty, or apply's own)."
+    ),
     rules: str | None = typer.Option(
         None,
         "--rules",

@@ -194,6 +194,14 @@ def _connect(
     return client, cluster
 
 
+def connect(scheduler: str | None, workers: int, timeout: float = CONNECT_TIMEOUT_S) -> tuple[Any, Any, Any]:
+    """(distributed, a Client, the LocalCluster to close or None) for other verbs' tasks (apply):
+    the scheduler given, or a loopback LocalCluster of workers processes."""
+    distributed = _import_distributed()
+    client, cluster = _connect(distributed, scheduler, workers, timeout)
+    return distributed, client, cluster
+
+
 def read_dask(
     files: Sequence[FileRef],
     opts: ReadOptions,

@@ -22,7 +22,14 @@ from driftline.sources.encoding import TextStream
 from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
 from driftline.sources.linecount import LineTally, jsonl_issue
 from driftline.sources.registry import SPECS, FormatSpec
-from driftline.sources.remote import ObjectVersion, object_changed, open_random_pinned, open_stream_pinned
+from driftline.sources.remote import (
+    ObjectVersion,
+    object_changed,
+    open_random,
+    open_random_pinned,
+    open_stream_pinned,
+    open_stream_remote,
+)
 
 
 class _SafeStream(CountingRaw):
@@ -63,17 +70,18 @@ def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str,
 
 
 def read_values(ref: FileRef, batch_rows: int, base: ReadOptions | None = None) -> Iterator[list[Any] | pa.RecordBatch]:
-    """The values of the rows read_file reads from a local file, at most batch_rows at a time, for
+    """The values of the rows read_file reads from a file (local or an object), at most batch_rows at a time, for
     casting them (recommendation/raw): lists of parsed JSON records, or Arrow batches (the format's
     text_cells, or its typed columns).  The same reader, encoding and dialect as read_file with
     default options; the problems are read_file's to report, and a file that cannot be read at
     all raises. base: the scan's read options (encoding, delimiter, dialect pins), when not the defaults."""
     spec = SPECS[ref.format]
     opts = replace(base or ReadOptions(), batch_rows=batch_rows, batch_bytes=_LARGEST_BATCH)
-    if spec.read is None:
-        yield from spec.values(ref.path, ref.rel, opts)
+    if spec.read is None:  # an object is read with ranged GETs, as read_file reads it
+        yield from spec.values(open_random(ref.path) if ref.is_remote else ref.path, ref.rel, opts)
         return
-    with open_stream(ref.path, ref.compression, limit=None) as stream:
+    opened = open_stream_remote(ref.path, ref.compression, limit=None) if ref.is_remote else None
+    with opened or open_stream(ref.path, ref.compression, limit=None) as stream:
         yield from spec.values(TextStream(stream, spec.json_text).stream, ref.rel, opts)
 
 
