@@ -32,6 +32,7 @@ class Server:
         app = DomainDispatcherApplication(create_backend_app)
         self.requests: list[dict[str, Any]] = []
         self.after: Any = None  # called with each request once it was answered (tests change the bucket there)
+        self.refuse: Any = None  # a request for which it returns True is answered 403 AccessDenied, not served
 
         def logged(environ: dict[str, Any], start_response: Any) -> Any:
             request = {
@@ -41,6 +42,16 @@ class Server:
                 "range": environ.get("HTTP_RANGE"),
             }
             self.requests.append(request)
+            if self.refuse is not None and self.refuse(request):
+                # source: Amazon S3 API Reference, "Error responses": the XML body and AccessDenied (403)
+                body = (
+                    b'<?xml version="1.0" encoding="UTF-8"?>'
+                    b"<Error><Code>AccessDenied</Code><Message>Access Denied</Message></Error>"
+                )
+                start_response(
+                    "403 Forbidden", [("Content-Type", "application/xml"), ("Content-Length", str(len(body)))]
+                )
+                return [body]
             answer = list(app(environ, start_response))  # the body is made now, before any change
             if self.after is not None:
                 self.after(request)

@@ -220,3 +220,39 @@ def test_dask_workers_write_to_s3(s3: Server, local_clean: Path) -> None:
     for key, body in _files(local_clean).items():
         if key.endswith(".parquet"):
             assert remote[key] == body, key
+
+
+def test_a_refused_upload_leaves_every_object_whole(s3: Server, tmp_path: Path) -> None:
+    """The server refuses the data object of the second partition (403 AccessDenied): the run
+    stops naming it; the first partition is new, the refused object is the previous run's,
+    whole; nothing partial or temporary is in the bucket; a re-run completes."""
+    landing = tmp_path / "in"
+    days = ("2026-02-01", "2026-02-02")
+    for day in days:
+        (landing / f"day={day}").mkdir(parents=True)
+        (landing / f"day={day}" / "a.jsonl").write_text('{"n": 1}\n{"n": "x"}\n')
+    out = f"s3://{BUCKET}/clean-g"
+    driftline.apply(landing, out=out, endpoint_url=s3.url)
+    before = _objects(s3, "clean-g")
+    for day in days:
+        (landing / f"day={day}" / "a.jsonl").write_text('{"n": 2}\n{"n": 3}\n{"n": "y"}\n')
+    fresh = tmp_path / "local"
+    driftline.apply(landing, out=fresh, endpoint_url=s3.url)
+    want = _files(fresh)
+    refused = f"/{BUCKET}/clean-g/day=2026-02-02/{PART_NAME}"
+    s3.refuse = lambda r: r["method"] in ("PUT", "POST") and r["path"] == refused
+    try:
+        with pytest.raises(OutputError, match=r"^cannot write partition 'day=2026-02-02' in 's3://lake/clean-g': "):
+            driftline.apply(landing, out=out, endpoint_url=s3.url)
+    finally:
+        s3.refuse = None
+    now = _objects(s3, "clean-g")
+    assert sorted(now) == sorted(before)  # no partial, no temporary object
+    first = [k for k in now if "day=2026-02-01" in k]
+    assert len(first) == 3 and all(now[k] == want[k] for k in first)
+    assert now[f"day=2026-02-01/{PART_NAME}"] != before[f"day=2026-02-01/{PART_NAME}"]  # the new rows
+    data = f"day=2026-02-02/{PART_NAME}"
+    assert now[data] == before[data] != want[data]  # the previous version, whole
+    assert now[RECONCILIATION_NAME] == before[RECONCILIATION_NAME]  # written last: still the run before
+    driftline.apply(landing, out=out, endpoint_url=s3.url)
+    assert _objects(s3, "clean-g") == want

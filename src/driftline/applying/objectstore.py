@@ -88,13 +88,14 @@ class RemoteOut:
             raise self._fail("write", rel, exc) from None
 
     def upload(self, local: Path, rel: str) -> None:
-        """A local file uploaded under its final key (the object appears when the upload completes)."""
+        """A local file uploaded under its final key (the object appears when the upload completes).
+        A failure is an OSError naming the object, for the caller to say which partition it cut."""
         try:
             with open(local, "rb") as src, self._fs().open_output_stream(self.path(rel), compression=None) as fh:
                 for block in iter(lambda: src.read(_CHUNK), b""):
                     fh.write(block)
         except OSError as exc:
-            raise self._fail("write", rel, exc) from None
+            raise OSError(exc.errno, explain(exc, self.storage), f"s3://{self.path(rel)}") from None
 
     def delete(self, rel: str) -> None:
         try:
