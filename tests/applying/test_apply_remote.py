@@ -10,6 +10,7 @@ relative path. boto3 (an S3 client independent of pyarrow.fs) fetches what was w
 from __future__ import annotations
 
 import os
+import signal
 import subprocess
 import sys
 from collections.abc import Iterator
@@ -18,7 +19,9 @@ from typing import Any
 
 import duckdb
 import orjson
+import pyarrow as pa
 import pyarrow.dataset as ds
+import pyarrow.parquet as pq
 import pytest
 from pyarrow import fs as pafs
 
@@ -256,3 +259,48 @@ def test_a_refused_upload_leaves_every_object_whole(s3: Server, tmp_path: Path) 
     assert now[RECONCILIATION_NAME] == before[RECONCILIATION_NAME]  # written last: still the run before
     driftline.apply(landing, out=out, endpoint_url=s3.url)
     assert _objects(s3, "clean-g") == want
+
+
+def test_sigint_during_an_upload_leaves_the_object_whole(s3: Server, tmp_path: Path) -> None:
+    """SIGINT arrives while the second partition's data object is being uploaded (sent when the
+    server receives the upload's first request): the run stops (KeyboardInterrupt), and the
+    object is the whole new file, never a part of it or an empty one; the marker and the
+    reconciliation are still the previous run's; a re-run completes."""
+    landing = tmp_path / "in"
+    days = ("2026-03-01", "2026-03-02")
+    for day in days:
+        (landing / f"day={day}").mkdir(parents=True)
+        (landing / f"day={day}" / "a.jsonl").write_text('{"n": 1}\n{"n": "x"}\n')
+    out = f"s3://{BUCKET}/clean-h"
+    driftline.apply(landing, out=out, endpoint_url=s3.url)
+    before = _objects(s3, "clean-h")
+    for day in days:
+        (landing / f"day={day}" / "a.jsonl").write_text('{"n": 2}\n{"n": 3}\n{"n": "y"}\n')
+    fresh = tmp_path / "local"
+    driftline.apply(landing, out=fresh, endpoint_url=s3.url)
+    want = _files(fresh)
+    target = f"/{BUCKET}/clean-h/day=2026-03-02/{PART_NAME}"
+
+    sent: list[int] = []
+
+    def interrupt(request: dict[str, Any]) -> None:
+        # the upload's first request (CreateMultipartUpload, or a PutObject): the object is not whole yet
+        if request["method"] in ("POST", "PUT") and request["path"] == target and not sent:
+            sent.append(1)
+            os.kill(os.getpid(), signal.SIGINT)  # source: POSIX kill(2); Python raises KeyboardInterrupt
+
+    s3.after = interrupt
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            driftline.apply(landing, out=out, endpoint_url=s3.url)
+    finally:
+        s3.after = None
+    assert sent == [1]
+    now = _objects(s3, "clean-h")
+    assert sorted(now) == sorted(before)
+    data = f"day=2026-03-02/{PART_NAME}"
+    assert now[data] == want[data] != before[data]  # uploaded whole before the interrupt was acted on
+    assert pq.read_table(pa.BufferReader(now[data])).num_rows == 3
+    assert now[MARKER_NAME] == before[MARKER_NAME] and now[RECONCILIATION_NAME] == before[RECONCILIATION_NAME]
+    driftline.apply(landing, out=out, endpoint_url=s3.url)
+    assert _objects(s3, "clean-h") == want

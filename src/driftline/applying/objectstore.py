@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import contextlib
 import shutil
+import signal
 import tempfile
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
@@ -32,6 +33,35 @@ from driftline.errors import OutputError
 from driftline.sources.remote import explain, filesystem, is_url, split_url
 
 _CHUNK = 1 << 20
+
+
+@contextlib.contextmanager
+def signals_deferred() -> Iterator[None]:
+    """SIGINT and SIGTERM held until the block ends, then acted on (KeyboardInterrupt).
+
+    pyarrow's output stream completes its upload when it is closed, and closing is all a
+    `with` block or the stream's destructor does when an exception leaves it: an interrupt
+    between opening and the last write would complete an object holding part of the file
+    (or none of it). Held here, the signal waits until the object is whole. Only the main
+    thread receives signals in Python; elsewhere (a dask worker's thread) nothing changes.
+    """
+    caught: list[int] = []
+
+    def hold(signum: int, frame: object) -> None:
+        caught.append(signum)
+
+    try:
+        previous = {sig: signal.signal(sig, hold) for sig in (signal.SIGINT, signal.SIGTERM)}
+    except ValueError:  # not the main thread
+        yield
+        return
+    try:
+        yield
+    finally:
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
+    if caught:
+        raise KeyboardInterrupt
 
 
 @dataclass(frozen=True)
@@ -82,7 +112,7 @@ class RemoteOut:
     def put(self, rel: str, payload: bytes) -> None:
         """A whole object in one upload: readers see the old object or this one, never a part."""
         try:
-            with self._fs().open_output_stream(self.path(rel), compression=None) as fh:
+            with signals_deferred(), self._fs().open_output_stream(self.path(rel), compression=None) as fh:
                 fh.write(payload)
         except OSError as exc:
             raise self._fail("write", rel, exc) from None
@@ -91,7 +121,11 @@ class RemoteOut:
         """A local file uploaded under its final key (the object appears when the upload completes).
         A failure is an OSError naming the object, for the caller to say which partition it cut."""
         try:
-            with open(local, "rb") as src, self._fs().open_output_stream(self.path(rel), compression=None) as fh:
+            with (
+                signals_deferred(),
+                open(local, "rb") as src,
+                self._fs().open_output_stream(self.path(rel), compression=None) as fh,
+            ):
                 for block in iter(lambda: src.read(_CHUNK), b""):
                     fh.write(block)
         except OSError as exc:
