@@ -304,3 +304,18 @@ def test_sigint_during_an_upload_leaves_the_object_whole(s3: Server, tmp_path: P
     assert now[MARKER_NAME] == before[MARKER_NAME] and now[RECONCILIATION_NAME] == before[RECONCILIATION_NAME]
     driftline.apply(landing, out=out, endpoint_url=s3.url)
     assert _objects(s3, "clean-h") == want
+
+
+def test_s3_input_to_a_local_folder_and_partition_by(s3: Server, demo_dir: Path, tmp_path: Path) -> None:
+    """An s3:// landing prefix into a local folder, and --partition-by into a prefix: the bytes of the local run."""
+    local = tmp_path / "local"
+    driftline.apply(demo_dir / "landing", out=local, partition_by=["day"])
+    from_s3 = tmp_path / "from-s3"
+    got = driftline.apply(f"s3://{BUCKET}/landing/", out=from_s3, partition_by=["day"], endpoint_url=s3.url)
+    assert got.matches and got.out == from_s3
+    want = _files(local)
+    parquet = sorted(k for k in want if k.endswith(".parquet"))
+    assert len([k for k in parquet if k.startswith("day=")]) == 4  # the demo's four days
+    assert {k: v for k, v in _files(from_s3).items() if k.endswith(".parquet")} == {k: want[k] for k in parquet}
+    driftline.apply(demo_dir / "landing", out=f"s3://{BUCKET}/clean-i", partition_by=["day"], endpoint_url=s3.url)
+    assert _objects(s3, "clean-i") == want
