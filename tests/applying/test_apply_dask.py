@@ -110,3 +110,18 @@ def test_cli_engine_dask(cluster: Any, demo_dir: Path, serial: dict[str, str], t
     assert proc.returncode == 0, proc.stderr
     assert proc.stdout.startswith(f"wrote 14 partitions to {out}\n")
     assert _tree(out) == serial
+
+
+def test_a_task_past_the_task_timeout_is_a_clear_error(cluster: Any, demo_dir: Path, tmp_path: Path) -> None:
+    rules = tmp_path / "rules.json"
+    driftline.scan(demo_dir / "landing").recommend().write(rules, "rules")
+    first = "readings/region=east/day=2026-11-27"  # the first partition in path order
+    with pytest.raises(EngineError, match=rf"^no dask task finished within 0.001 s \(--task-timeout\) .*'{first}'"):
+        driftline.apply(
+            demo_dir / "landing",
+            out=tmp_path / "clean",
+            rules=rules,
+            engine="dask",
+            scheduler=cluster.scheduler_address,
+            task_timeout=0.001,
+        )

@@ -310,7 +310,7 @@ def _write_dask(
         for (partition, _), fut in zip(todo, futures, strict=True):
             try:
                 got = fut.result(timeout=opts.task_timeout)
-            except (TimeoutError, distributed.TimeoutError):
+            except (TimeoutError, getattr(distributed, "TimeoutError", TimeoutError)):
                 raise EngineError(
                     f"no dask task finished within {opts.task_timeout:g} s (--task-timeout) while writing partition "
                     f"{partition or '.'!r}; check the workers of {where}, or raise --task-timeout"
