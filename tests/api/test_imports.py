@@ -25,19 +25,19 @@ SRC = str(Path(driftline.__file__).resolve().parents[1])
 
 # Runs driftline's console-script entry point (pyproject's [project.scripts]) with the given
 # arguments, then writes the loaded modules' names to the file named by the first argument.
+# main ends the process with os._exit (cli/__init__.py, _leave): the wrapper writes the list there.
 WRAPPER = """
-import json, sys
+import json, os, sys
 out, args = sys.argv[1], sys.argv[2:]
 sys.argv = ["driftline", *args]
+real_exit = os._exit
+def written_exit(code):
+    with open(out, "w") as f:
+        json.dump({"code": code, "modules": sorted(sys.modules)}, f)
+    real_exit(code)
+os._exit = written_exit
 from driftline.cli import main
-try:
-    main()
-except SystemExit as exc:
-    code = exc.code
-else:
-    code = 0
-with open(out, "w") as f:
-    json.dump({"code": code, "modules": sorted(sys.modules)}, f)
+main()
 """
 
 # Packages and modules neither command needs (a name stands for the module and its submodules).
