@@ -51,7 +51,7 @@ from driftline.recommendation import recommend
 from driftline.recommendation.apply import SchemaMismatch, Tally, Touched, apply
 from driftline.recommendation.partitions import partition_type
 from driftline.recommendation.plan import OBSERVED_KEY, FieldPlan, Recommendation, target_schema
-from driftline.recommendation.raw import file_batches
+from driftline.recommendation.raw import lined_batches
 from driftline.scanning.run import capped_jobs, discover_for, read_found
 from driftline.scanning.workers import run_ordered
 from driftline.sources.formats import open_stream
@@ -147,8 +147,8 @@ def cast_batch(
 class _Lines:
     """The 1-based line of JSON Lines rows, found by one forward pass over the file as the
     batches go (rows are asked for in increasing order): a row is a non-blank line that parses
-    (a malformed line is a problem of the scan's, not a row). Other formats give none: a CSV
-    row may span lines and Parquet has none, so the row alone places them."""
+    (a malformed line is a problem of the scan's, not a row). CSV and TSV rows come with their
+    lines from the reader (a row may span lines: it counts them); Parquet rows have none."""
 
     def __init__(self, ref: FileRef) -> None:
         self.ref = ref
@@ -212,12 +212,12 @@ def cast_file(
     lines = _Lines(ref)
     row = 0
     try:
-        for raw in file_batches(ref, read.batch_rows, read):
+        for raw, starts in lined_batches(ref, read.batch_rows, read):
             tally = Tally(keep=True)
             good, bad = cast_batch(raw, rec, tally)
             origin = Origin(ref.rel, partition, row)
             wanted = {row + r for t in tally.touched for r in t.rows.to_pylist()} | {row + i for i, _ in bad}
-            found = lines.find(wanted)
+            found = {r: starts[r - row] for r in wanted} if starts is not None else lines.find(wanted)
             fc.rows_in += raw.num_rows
             fc.rows_written += good.num_rows
             fc.rows_rejected += len(bad)

@@ -36,6 +36,7 @@ from driftline.core.observation import TEXT_CLASS_TYPE
 from driftline.core.options import ReadOptions
 from driftline.observe.records import int_key
 from driftline.observe.textclass import class_of
+from driftline.sources.csvfile import LinedCells
 from driftline.sources.discover import FileRef, discover
 from driftline.sources.readers import read_values
 from driftline.sources.registry import SPECS
@@ -295,12 +296,25 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
 
 def file_batches(ref: FileRef, batch_rows: int, base: ReadOptions | None = None) -> Iterator[pa.RecordBatch]:
     """One file's rows, batch_rows at a time, as variant columns (read with the scan's read options)."""
+    for batch, _ in lined_batches(ref, batch_rows, base):
+        yield batch
+
+
+def lined_batches(
+    ref: FileRef, batch_rows: int, base: ReadOptions | None = None
+) -> Iterator[tuple[pa.RecordBatch, Sequence[int] | None]]:
+    """file_batches, each with the line its rows start on when the reader knows it (CSV and TSV,
+    numbered as the scan numbers them), else None."""
     text = SPECS[ref.format].text_cells
     for part in read_values(ref, batch_rows, base):
         if isinstance(part, list):
-            yield records_to_batch(part)
-        else:
-            yield pa.RecordBatch.from_arrays([as_variant(c, text=text) for c in part.columns], names=part.schema.names)
+            yield records_to_batch(part), None
+            continue
+        cells, lines = (part.cells, part.lines) if isinstance(part, LinedCells) else (part, None)
+        yield (
+            pa.RecordBatch.from_arrays([as_variant(c, text=text) for c in cells.columns], names=cells.schema.names),
+            lines,
+        )
 
 
 def raw_batches(
@@ -416,12 +430,12 @@ def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str
     """(file, row, record) for every record, as JSON data (see the module docstring)."""
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
     for ref in found.files:
-        text, row = SPECS[ref.format].text_cells, 0
+        row = 0
         for part in read_values(ref, 65_536):
             if isinstance(part, list):
                 records: list[Any] = part
-            elif text:
-                records = [{k: cell_value(v) for k, v in rec.items()} for rec in part.to_pylist()]
+            elif isinstance(part, LinedCells):
+                records = [{k: cell_value(v) for k, v in rec.items()} for rec in part.cells.to_pylist()]
             else:
                 plain = pa.RecordBatch.from_arrays([jsonable(c) for c in part.columns], names=part.schema.names)
                 # Maps as JSON objects (their keys), as a JSON producer would write them.

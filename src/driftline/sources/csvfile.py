@@ -388,11 +388,19 @@ def read_csv(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False
     return _read_rows(stream, rel, opts, tsv, CsvState.observe)
 
 
-def read_csv_cells(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[pa.RecordBatch]:
-    """The rows read_csv observes, as batches of text cells (recommendation/raw casts them): the same
-    dialect, header, rows and batches; the problems are read_csv's to report."""
+@dataclass(frozen=True, slots=True)
+class LinedCells:
+    """A batch of text cells and the line each row starts on (1-based, as the scan numbers them)."""
+
+    cells: pa.RecordBatch
+    lines: Sequence[int]
+
+
+def read_csv_cells(stream: BinaryIO, rel: str, opts: ReadOptions, *, tsv: bool = False) -> Iterator[LinedCells]:
+    """The rows read_csv observes, as batches of text cells (recommendation/raw casts them) with their
+    lines: the same dialect, header, rows, batches and lines; the problems are read_csv's to report."""
     for item in _read_rows(stream, rel, opts, tsv, CsvState.cells):
-        if isinstance(item, pa.RecordBatch) and item.num_rows:
+        if isinstance(item, LinedCells) and item.cells.num_rows:
             yield item
 
 
@@ -611,12 +619,12 @@ class CsvState:
         self.batch += 1
         return obs
 
-    def cells(self, cells: pa.RecordBatch) -> pa.RecordBatch:
-        """One batch of binary cells as text, counted and placed as observe does."""
-        self._lines(cells)
+    def cells(self, cells: pa.RecordBatch) -> LinedCells:
+        """One batch of binary cells as text, counted and placed as observe does, with its rows' lines."""
+        lines = self._lines(cells)
         self.rows += cells.num_rows
         self.batch += 1
-        return as_text(cells)
+        return LinedCells(as_text(cells), lines)
 
     def _lines(self, cells: pa.RecordBatch) -> Sequence[int]:
         # Each row starts one line after the previous one, plus the newlines inside its cells.

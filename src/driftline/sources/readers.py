@@ -18,6 +18,7 @@ from driftline.core.textfile import Dialect, TextEncoding
 from driftline.observe import thinning
 from driftline.observe.fast.bulk import Batch, observe_batches
 from driftline.observe.thinning import Thinner, thin
+from driftline.sources.csvfile import LinedCells
 from driftline.sources.encoding import TextStream
 from driftline.sources.formats import CorruptStream, CountingRaw, IgnoredTail, LimitExceeded, open_stream
 from driftline.sources.linecount import LineTally, jsonl_issue
@@ -69,12 +70,15 @@ def _describe_failure(exc: BaseException, compression: str | None) -> tuple[str,
     return "unreadable", f"read failed: {exc}"
 
 
-def read_values(ref: FileRef, batch_rows: int, base: ReadOptions | None = None) -> Iterator[list[Any] | pa.RecordBatch]:
+def read_values(
+    ref: FileRef, batch_rows: int, base: ReadOptions | None = None
+) -> Iterator[list[Any] | pa.RecordBatch | LinedCells]:
     """The values of the rows read_file reads from a file (local or an object), at most batch_rows at a time, for
-    casting them (recommendation/raw): lists of parsed JSON records, or Arrow batches (the format's
-    text_cells, or its typed columns).  The same reader, encoding and dialect as read_file with
-    default options; the problems are read_file's to report, and a file that cannot be read at
-    all raises. base: the scan's read options (encoding, delimiter, dialect pins), when not the defaults."""
+    casting them (recommendation/raw): lists of parsed JSON records, Arrow batches of typed columns, or
+    (the format's text_cells) batches of text cells with the line each row starts on.  The same
+    reader, encoding and dialect as read_file with default options; the problems are read_file's
+    to report, and a file that cannot be read at all raises. base: the scan's read options (encoding,
+    delimiter, dialect pins), when not the defaults."""
     spec = SPECS[ref.format]
     opts = replace(base or ReadOptions(), batch_rows=batch_rows, batch_bytes=_LARGEST_BATCH)
     if spec.read is None:  # an object is read with ranged GETs, as read_file reads it

@@ -20,7 +20,7 @@ from driftline.core.dataformat import Format
 from driftline.core.fileref import FileRef
 from driftline.core.options import ReadOptions
 from driftline.sources import csvsplit, jsonsplit
-from driftline.sources.csvfile import read_csv, read_csv_cells
+from driftline.sources.csvfile import LinedCells, read_csv, read_csv_cells
 from driftline.sources.encoding import decide
 from driftline.sources.formats import data_extension, decode_errors, detect_compression, head_bytes, open_stream
 from driftline.sources.jsonfile import read_json, read_json_values, read_jsonl
@@ -31,9 +31,10 @@ from driftline.sources.peek import Peek, peek_delimited, peek_document, peek_foo
 StreamReader = Callable[[Any, str, ReadOptions, "list[int] | None"], Iterator[Any]]
 # A random-access reader: (path or object-store file, relative path, options) → items
 PathReader = Callable[[Any, str, ReadOptions], Iterator[Any]]
-# The values of the rows a reader reads, for recommendation/raw: lists of parsed JSON records or Arrow
-# batches; from a stream when the format has `read`, from its path when it has `read_path`
-ValuesReader = Callable[[Any, str, ReadOptions], Iterator["list[Any] | pa.RecordBatch"]]
+# The values of the rows a reader reads, for recommendation/raw: lists of parsed JSON records, Arrow
+# batches, or CSV text cells with their rows' lines; from a stream when the format has `read`, from its
+# path when it has `read_path`
+ValuesReader = Callable[[Any, str, ReadOptions], Iterator["list[Any] | pa.RecordBatch | LinedCells"]]
 
 
 @dataclass(frozen=True, slots=True)
