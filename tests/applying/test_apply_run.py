@@ -4,6 +4,7 @@ casts, and the safety rules (refusals, byte-identical re-runs, incremental == fu
 
 from __future__ import annotations
 
+import csv
 import gzip
 import hashlib
 import json
@@ -144,6 +145,72 @@ def test_a_quarantine_row_points_at_its_raw_line(clean: tuple[Path, Any], landin
     for r in rows:
         if r["line"] is not None and r["path"] == "pm25":
             assert json.loads(lines[r["line"] - 1])["pm25"] == r["value"]
+
+
+def _csv_rows_by_line(path: Path, delimiter: str = ",") -> dict[int, dict[str, str]]:
+    """Each data row of a CSV file by the physical line where it starts, found with Python's csv module.
+
+    source: RFC 4180 section 2: a record ends at a line break, except one inside a double-quoted field.
+    csv.reader's line_num counts the lines read so far, so it names the line where a record ends: a
+    record starts one line after the previous one ended (a blank line reads as an empty record)."""
+    out: dict[int, dict[str, str]] = {}
+    with path.open(newline="", encoding="utf-8") as fh:
+        reader = csv.reader(fh, delimiter=delimiter)
+        header = next(reader)
+        ended = reader.line_num
+        for record in reader:
+            start, ended = ended + 1, reader.line_num
+            if record:
+                out[start] = dict(zip(header, record, strict=True))
+    return out
+
+
+def test_a_csv_quarantine_row_names_the_line_of_its_raw_value(clean: tuple[Path, Any], landing: Path):
+    out, _ = clean
+    table = pq.read_table(out / QUARANTINE_DIR).to_pylist()
+    rows = [r for r in table if r["file"].endswith(".csv")]
+    assert len(rows) == 510  # the demo's tags written as one word in its CSV exports (scripts/make_demo.py)
+    by_file: dict[str, dict[int, dict[str, str]]] = {}
+    for r in rows:
+        raw = by_file.setdefault(r["file"], _csv_rows_by_line(landing / r["file"]))
+        assert r["line"] in raw, r
+        assert raw[r["line"]][r["path"]] == r["value"], r
+        # the row number agrees: the line holds the file's row-th data row
+        assert sorted(raw).index(r["line"]) == r["row"], r
+    assert sorted(by_file) == [
+        "readings/region=west/day=2026-11-28/export.csv",
+        "readings/region=west/day=2026-11-29/export.csv",
+    ]
+
+
+def test_csv_and_tsv_lines_count_multiline_values_and_blank_lines(tmp_path: Path):
+    land = tmp_path / "in"
+    land.mkdir()
+    (land / "a.jsonl").write_text('{"id": 1, "tags": ["a", "b"]}\n{"id": 2, "tags": ["c"]}\n')
+    # quoted values with line breaks (one holding a blank line and doubled quotes) and a blank line
+    # between rows, before the quarantined cells: a one-word tags value is wrapped into a list
+    (land / "b.csv").write_bytes(
+        b'id,note,tags\n3,"two\nlines",park\n\n4,plain,school\n5,"three\n\nlines ""q""",road\n6,,lake\n'
+    )
+    (land / "c.tsv").write_bytes(b'id\tnote\ttags\n7\t"a\nb"\thill\n8\tz\tfield\n')
+    result = driftline.apply(land, out=tmp_path / "o")
+    assert result.matches
+    rows = pq.read_table(tmp_path / "o" / QUARANTINE_DIR).to_pylist()
+    got = [(r["file"], r["row"], r["line"], r["value"]) for r in rows]
+    assert got == [
+        ("b.csv", 0, 2, "park"),
+        ("b.csv", 1, 5, "school"),
+        ("b.csv", 2, 6, "road"),
+        ("b.csv", 3, 9, "lake"),
+        ("c.tsv", 0, 2, "hill"),
+        ("c.tsv", 1, 4, "field"),
+    ]
+    for name, delimiter in (("b.csv", ","), ("c.tsv", "\t")):
+        raw = _csv_rows_by_line(land / name, delimiter)
+        # source: RFC 4180 section 2, read with Python's csv module (_csv_rows_by_line)
+        assert [(line, rec["tags"]) for line, rec in sorted(raw.items())] == [
+            (line, value) for file, _, line, value in got if file == name
+        ]
 
 
 def _jsonl_rows(path: Path) -> list[dict[str, Any]]:
@@ -352,16 +419,16 @@ def test_every_quarantined_json_value_is_on_the_line_named(clean: tuple[Path, An
     table = pa.concat_tables(pq.read_table(f) for f in sorted((out / QUARANTINE_DIR).rglob("*.parquet")))
     checked, files = 0, {}
     for r in table.to_pylist():
-        if r["line"] is None:
-            assert not r["file"].endswith(".jsonl.gz")
-            continue
+        assert r["line"] is not None, r  # the demo quarantines values of JSON Lines and CSV files only
+        if not r["file"].endswith(".jsonl.gz"):
+            continue  # CSV: test_a_csv_quarantine_row_names_the_line_of_its_raw_value
         if r["file"] not in files:
             with gzip.open(landing / r["file"], "rt", encoding="utf-8") as fh:
                 files[r["file"]] = fh.read().split("\n")
         raw = json.loads(files[r["file"]][r["line"] - 1])[r["path"]]
         assert (raw if isinstance(raw, str) else json.dumps(raw)) == r["value"], r
         checked += 1
-    assert checked == 6 + 516 - sum(1 for r in table.to_pylist() if r["line"] is None)
+    assert checked == 6 + 516 - 510  # all but the 510 CSV values
     # the line finder itself on the file with the malformed line: row k is the k-th line that parses
     from driftline.applying.run import _Lines
     from driftline.sources.discover import discover
