@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import contextlib
 import os
 import threading
+from collections.abc import Iterator
+from pathlib import Path
 from typing import Any
 from urllib.parse import parse_qs, unquote
 
@@ -65,3 +68,26 @@ class Server:
     def stop(self) -> None:
         self.server.shutdown()
         self.thread.join(5)
+
+
+@contextlib.contextmanager
+def landing_bucket(landing: Path) -> Iterator[Server]:
+    """A server whose bucket holds landing's files under landing/, with the test credentials in
+    the environment while it runs (restored after)."""
+    saved = {k: os.environ.get(k) for k in ("AWS_ACCESS_KEY_ID", "AWS_SECRET_ACCESS_KEY", "AWS_REGION")}
+    os.environ.update({"AWS_ACCESS_KEY_ID": ACCESS_KEY, "AWS_SECRET_ACCESS_KEY": SECRET, "AWS_REGION": "us-east-1"})
+    server = Server()
+    client = boto3.client("s3", endpoint_url=server.url, region_name="us-east-1")
+    client.create_bucket(Bucket=BUCKET)
+    for path in sorted(landing.rglob("*")):
+        if path.is_file():
+            client.upload_file(str(path), BUCKET, "landing/" + path.relative_to(landing).as_posix())
+    try:
+        yield server
+    finally:
+        server.stop()
+        for k, v in saved.items():
+            if v is None:
+                os.environ.pop(k, None)
+            else:
+                os.environ[k] = v

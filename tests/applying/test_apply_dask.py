@@ -8,7 +8,6 @@ write the same files with the same bytes.
 from __future__ import annotations
 
 import hashlib
-import os
 import subprocess
 import sys
 from collections.abc import Iterator
@@ -18,21 +17,14 @@ from typing import Any
 import pytest
 
 import driftline
+from _dask import local_cluster
 from driftline.applying.output import PART_NAME
 from driftline.errors import EngineError
-
-if os.environ.get("CI"):
-    import distributed  # CI installs the test extra: a missing package is a failure, never a skip
-else:
-    distributed = pytest.importorskip("distributed")
 
 
 @pytest.fixture(scope="module")
 def cluster() -> Iterator[Any]:
-    # source: distributed LocalCluster: worker processes behind nannies, loopback only
-    with distributed.LocalCluster(
-        n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=":0"
-    ) as c:
+    with local_cluster() as c:
         yield c
 
 

@@ -26,31 +26,15 @@ import pytest
 from pyarrow import fs as pafs
 
 import driftline
-from _moto import ACCESS_KEY, BUCKET, SECRET, Server, boto3
+from _moto import ACCESS_KEY, BUCKET, SECRET, Server, boto3, landing_bucket
 from driftline.applying.output import MARKER_NAME, PART_NAME, QUARANTINE_DIR, RECONCILIATION_NAME
 from driftline.errors import OutputError
 
 
 @pytest.fixture(scope="module")
 def s3(demo_dir: Path) -> Iterator[Server]:
-    saved = {k: os.environ.get(k) for k in ("AWS_ACCESS_KEY_ID", "AWS_SECRET_ACCESS_KEY", "AWS_REGION")}
-    os.environ.update({"AWS_ACCESS_KEY_ID": ACCESS_KEY, "AWS_SECRET_ACCESS_KEY": SECRET, "AWS_REGION": "us-east-1"})
-    server = Server()
-    client = boto3.client("s3", endpoint_url=server.url, region_name="us-east-1")
-    client.create_bucket(Bucket=BUCKET)
-    landing = demo_dir / "landing"
-    for path in sorted(landing.rglob("*")):
-        if path.is_file():
-            client.upload_file(str(path), BUCKET, "landing/" + path.relative_to(landing).as_posix())
-    try:
+    with landing_bucket(demo_dir / "landing") as server:
         yield server
-    finally:
-        server.stop()
-        for k, v in saved.items():
-            if v is None:
-                os.environ.pop(k, None)
-            else:
-                os.environ[k] = v
 
 
 @pytest.fixture(scope="module")

@@ -16,22 +16,15 @@ from typing import Any
 
 import pytest
 
+from _dask import distributed, local_cluster
 from _endpoints import dead_port, silent_endpoint
 from driftline.scanning.engines import EngineError, runs_of, tree_levels
 from driftline.scanning.run import scan_paths
 
-if os.environ.get("CI"):
-    import distributed  # CI installs the test extra: a missing package is a failure, never a skip
-else:
-    distributed = pytest.importorskip("distributed")
-
 
 @pytest.fixture(scope="module")
 def cluster() -> Iterator[Any]:
-    # source: distributed 2026.8.0 LocalCluster: worker processes behind nannies, loopback only
-    with distributed.LocalCluster(
-        n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=":0"
-    ) as c:
+    with local_cluster() as c:
         yield c
 
 

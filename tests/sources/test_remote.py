@@ -15,7 +15,7 @@ from typing import Any
 import pytest
 
 from _endpoints import dead_port, silent_endpoint
-from _moto import ACCESS_KEY, BUCKET, SECRET, Server, boto3
+from _moto import ACCESS_KEY, BUCKET, SECRET, Server, boto3, landing_bucket
 from driftline.core.options import StorageOptions
 from driftline.core.partitions import parse_condition
 from driftline.errors import InputPathError, OptionError
@@ -26,25 +26,9 @@ from driftline.sources.remote import discover_remote, locator, parse_locator
 
 @pytest.fixture(scope="module")
 def s3(demo_dir: Path) -> Iterator[Server]:
-    saved = {k: os.environ.get(k) for k in ("AWS_ACCESS_KEY_ID", "AWS_SECRET_ACCESS_KEY", "AWS_REGION")}
-    os.environ.update({"AWS_ACCESS_KEY_ID": ACCESS_KEY, "AWS_SECRET_ACCESS_KEY": SECRET, "AWS_REGION": "us-east-1"})
-    server = Server()
-    client = boto3.client("s3", endpoint_url=server.url, region_name="us-east-1")
-    client.create_bucket(Bucket=BUCKET)
-    landing = demo_dir / "landing"
-    for path in sorted(landing.rglob("*")):
-        if path.is_file():
-            client.upload_file(str(path), BUCKET, "landing/" + path.relative_to(landing).as_posix())
-    server.requests.clear()
-    try:
+    with landing_bucket(demo_dir / "landing") as server:
+        server.requests.clear()
         yield server
-    finally:
-        server.stop()
-        for k, v in saved.items():
-            if v is None:
-                os.environ.pop(k, None)
-            else:
-                os.environ[k] = v
 
 
 def test_locator_round_trip() -> None:
