@@ -17,12 +17,12 @@ from driftline.cli.read_flags import takes_read_options
 from driftline.cli.scan_cmd import _all_failed as all_failed
 from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
 from driftline.core.options import Config, ScanOptions
-from driftline.emit.atomic import is_stdout, own_descriptor, write_output
+from driftline.emit.atomic import is_stdout, own_descriptor
 from driftline.emit.dataset_files import is_folder_target
 from driftline.emit.landing_text import one_table_note
 from driftline.emit.safe import safe_text
-from driftline.emit.schemas import rules_json, summary
-from driftline.emit.schemas.files import FORMATS, schema_file
+from driftline.emit.schemas import summary
+from driftline.emit.schemas.files import FORMATS, write_file
 from driftline.emit.schemas.sql import DEFAULT_DIALECT, DIALECTS, check_dialect, check_flatten
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError, OptionError, OutputError, PolicyError
@@ -325,19 +325,19 @@ def _write_one(
     flatten: str | None = None,
     bounds_from_sample: bool = False,
 ) -> None:
-    if to is not None and targets.out is not None:
-        data = schema_file(
-            rec,
-            to,  # type: ignore[arg-type]
-            table=table,
-            json_mode=json_mode,  # type: ignore[arg-type]
-            dialect=dialect,
-            flatten=flatten,
-            bounds_from_sample=bounds_from_sample,
-        )
-        write_output(targets.out, data)
-    if targets.rules is not None:
-        write_output(targets.rules, rules_json.dumps(rec, flatten=flatten))
+    files = [(targets.out, to)] if to is not None else []
+    for path, fmt in [*files, (targets.rules, "rules")]:
+        if path is not None:
+            write_file(
+                rec,
+                path,
+                fmt,  # type: ignore[arg-type]
+                table=table,
+                json_mode=json_mode,  # type: ignore[arg-type]
+                dialect=dialect,
+                flatten=flatten,
+                bounds_from_sample=bounds_from_sample,
+            )
     if not quiet:
         summary.render(rec, console)
         for target, what in ((targets.out, to), (targets.rules, "cast rules")):

@@ -17,11 +17,11 @@ from driftline.cli.app import EXIT_VIOLATION, err_console
 from driftline.cli.scan_cmd import _all_failed as all_failed
 from driftline.cli.scan_cmd import unread_datasets
 from driftline.core.options import ScanOptions
-from driftline.emit.atomic import is_stdout, write_output
+from driftline.emit.atomic import is_stdout
 from driftline.emit.dataset_files import dataset_files, is_folder_target
 from driftline.emit.safe import safe_text
-from driftline.emit.schemas import rules_json, summary
-from driftline.emit.schemas.files import schema_file
+from driftline.emit.schemas import summary
+from driftline.emit.schemas.files import write_file
 from driftline.emit.targets import check_targets
 from driftline.errors import InputPathError, OptionError, OutputError
 from driftline.recommendation import RecommendOptions, SchemaConflictError
@@ -131,19 +131,16 @@ def by_dataset(
                 raise OutputError(f"cannot make the folder {target!r}: {exc.strerror or exc}") from None
     for name, rec in recs.items():
         for option, _, path in files[name]:
-            if option == "--rules":
-                write_output(path, rules_json.dumps(rec, flatten=flatten))
-            else:
-                data = schema_file(
-                    rec,
-                    to,  # type: ignore[arg-type]
-                    table=table,
-                    json_mode=json_mode,  # type: ignore[arg-type]
-                    dialect=dialect,
-                    flatten=flatten,
-                    bounds_from_sample=bounds_from_sample,
-                )
-                write_output(path, data)
+            write_file(
+                rec,
+                path,
+                "rules" if option == "--rules" else to,  # type: ignore[arg-type]
+                table=table,
+                json_mode=json_mode,  # type: ignore[arg-type]
+                dialect=dialect,
+                flatten=flatten,
+                bounds_from_sample=bounds_from_sample,
+            )
     for name in landing.datasets:
         if not quiet:
             if several:
