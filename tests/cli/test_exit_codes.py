@@ -102,3 +102,34 @@ def test_scan_exit_codes_are_stable_under_load(tmp_path: Path):
     codes = Counter((name, code) for name, code, _ in done)
     assert codes == Counter({(name, code): 40 for name, (_, code) in files.items()})
     assert not [err for _, _, err in done if "terminate" in err]
+
+
+def _closed_stdout(*args: str) -> tuple[int, str]:
+    """Run the CLI with its standard output a pipe whose reader is already gone, as
+    `driftline … | head` leaves it once head has its lines: every write meets EPIPE."""
+    import os
+
+    read_end, write_end = os.pipe()
+    os.close(read_end)
+    try:
+        proc = subprocess.run([*EXE, *args], stdout=write_end, stderr=subprocess.PIPE, text=True, timeout=120)
+    finally:
+        os.close(write_end)
+    return proc.returncode, proc.stderr
+
+
+@pytest.mark.parametrize(
+    ("extra", "code"),
+    [
+        ((), 0),  # drift is information: the reader leaving early changes nothing
+        (("--fail-at", "breaking"), 1),  # the command's own code survives the closed pipe
+        (("--json", "-", "-q"), 0),  # the report itself on the closed pipe
+    ],
+)
+def test_a_closed_pipe_keeps_the_commands_own_exit_code(tmp_path: Path, extra: tuple[str, ...], code: int):
+    # source: Python's signal module documentation, "Note on SIGPIPE" (stdout to /dev/null, then go on).
+    # Before, rich's console exited 1 on the broken pipe whatever the scan found.
+    (tmp_path / "a.jsonl").write_text('{"n": 1}\n{"n": 2}\n')
+    (tmp_path / "b.jsonl").write_text('{"n": "x"}\n')
+    returncode, stderr = _closed_stdout("scan", str(tmp_path), "--jobs", "1", *extra)
+    assert (returncode, stderr) == (code, "")

@@ -19,6 +19,7 @@ from typer._click.exceptions import ClickException, NoArgsIsHelpError, UsageErro
 from typer.core import TyperArgument, TyperCommand, TyperGroup
 
 from driftline.core.version import __version__
+from driftline.emit.atomic import quiet_stdout
 from driftline.emit.safe import safe_text
 from driftline.errors import DriftlineError
 
@@ -96,6 +97,15 @@ class _Verbs(TyperGroup):
                 pass
         return option
 
+    def invoke(self, ctx: Context) -> Any:
+        try:
+            return super().invoke(ctx)
+        except BrokenPipeError:
+            # A write to a closed pipe that no writer of ours caught (out_console and write_output
+            # carry on to the command's own exit code): exit 0, not click's 1, which means drift here.
+            quiet_stdout()
+            return EXIT_OK
+
     def _load(self, name: str) -> None:
         from typer.main import get_command_from_info
 
@@ -152,6 +162,20 @@ app = typer.Typer(
     rich_markup_mode=None,
     context_settings={"help_option_names": ["-h", "--help"]},
 )
+
+
+def out_console(**options: Any) -> Console:
+    """A console on standard output that, when its reader closes the pipe (`driftline scan … |
+    head`), goes quiet and lets the command finish with its own exit code; rich's own console
+    exits 1 there, which for us would mean drift or a violation."""
+    from rich.console import Console
+
+    class _PipeConsole(Console):
+        def on_broken_pipe(self) -> None:
+            self.quiet = True
+            quiet_stdout()
+
+    return _PipeConsole(**options)
 
 
 @functools.cache

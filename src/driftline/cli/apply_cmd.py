@@ -13,6 +13,7 @@ from driftline.cli.read_flags import takes_read_options
 from driftline.core.jsontypes import JSONObject
 from driftline.core.options import Config, ScanOptions
 from driftline.core.words import count
+from driftline.emit.atomic import write_output
 from driftline.emit.safe import safe_text
 
 APPLY_HELP = """Cast a landing folder with the recommended cast rules (or a saved rules file)
@@ -97,10 +98,11 @@ def apply_command(
         paths, out=out, rules=rules, state=state, partition_by=keys, table_format=table_format, options=options
     )
     kept = f"; {count(len(result.kept), 'partition')} unchanged, kept" if result.kept else ""
-    sys.stdout.write(
+    write_output(
+        "-",
         f"wrote {count(len(result.written), 'partition')} to {safe_text(str(result.out), None)}{kept}\n"
         + _summary(result.reconciliation)
-        + "\n"
+        + "\n",
     )
     if not result.matches:
         sys.stderr.write("error: the outcome differs from the recommendation's prediction (see above)\n")

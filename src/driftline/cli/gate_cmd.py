@@ -10,7 +10,7 @@ from typing import TYPE_CHECKING
 import typer
 
 import driftline
-from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
+from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors, out_console
 from driftline.cli.read_flags import policy_of, takes_read_options
 from driftline.cli.scan_cmd import _Bar  # the scan's progress bar: stderr, terminals only
 from driftline.core.options import Config, ScanOptions
@@ -177,7 +177,6 @@ def check_command(
     config: Config,
 ) -> None:
     import orjson
-    from rich.console import Console
 
     from driftline.gate.verdict import junit_xml, render_split
     from driftline.gate.verdict import render as render_verdict
@@ -215,7 +214,7 @@ def check_command(
         write_output(junit, junit_xml(verdict))
     if not quiet:
         to_stdout = any(t is not None and is_stdout(t) for t in (json_out, junit))
-        console = err_console() if to_stdout else Console(highlight=False)
+        console = err_console() if to_stdout else out_console(highlight=False)
         (render_split if verdict.split else render_verdict)(verdict, console)
     raise typer.Exit(verdict.exit_code)
 
@@ -257,7 +256,6 @@ def diff_command(
     config: Config,
 ) -> None:
     import orjson
-    from rich.console import Console
 
     from driftline.core import jsonnum
     from driftline.gate.dataset_diff import DatasetDiff, diff_by_dataset
@@ -293,7 +291,7 @@ def diff_command(
         doc = {"format": DIFF_FORMAT, "version": DIFF_VERSION, "by": by, "diffs": [d.to_json() for d in diffs]}
         write_output(json_out, jsonnum.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
-        console = err_console() if json_out is not None and is_stdout(json_out) else Console(highlight=False)
+        console = err_console() if json_out is not None and is_stdout(json_out) else out_console(highlight=False)
         if not diffs:
             console.print(f"only one value of partition {safe_text(by)}: nothing to compare", markup=False)
         render(diffs, console)
@@ -307,7 +305,6 @@ def _datasets_diff(found: DatasetDiff, json_out: str | None, quiet: bool) -> Non
     """Two roots (or report sets) compared dataset by dataset: the diff document with each diff's
     dataset and the names on one side only; the overall line, then each dataset under a heading."""
     import orjson
-    from rich.console import Console
 
     from driftline.core import jsonnum
     from driftline.gate.dataset_diff import render_datasets
@@ -316,7 +313,7 @@ def _datasets_diff(found: DatasetDiff, json_out: str | None, quiet: bool) -> Non
         doc = {"format": DIFF_FORMAT, "version": DIFF_VERSION, "by": None, **found.to_json()}
         write_output(json_out, jsonnum.dumps(doc, option=orjson.OPT_INDENT_2) + b"\n")
     if not quiet:
-        console = err_console() if json_out is not None and is_stdout(json_out) else Console(highlight=False)
+        console = err_console() if json_out is not None and is_stdout(json_out) else out_console(highlight=False)
         render_datasets(found, console)
         if json_out is not None and not is_stdout(json_out):
             console.print(f"diff written to {safe_text(Path(json_out))}", markup=False)

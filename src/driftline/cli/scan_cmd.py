@@ -12,7 +12,7 @@ from urllib.parse import quote
 import typer
 
 import driftline
-from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
+from driftline.cli.app import EXIT_USAGE, EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors, out_console
 from driftline.cli.read_flags import takes_read_options
 from driftline.core.options import Config, ScanOptions
 from driftline.emit.atomic import is_stdout, write_output
@@ -251,13 +251,12 @@ def _file_named(paths: list[str], profile: driftline.Profile) -> str | None:
 def terminal(to_stderr: bool, color: bool | None) -> Console:
     """The console of the summary: stdout or stderr; --color forces colour, --no-color none;
     neither: colour on a terminal unless NO_COLOR (rich reads it)."""
-    from rich.console import Console
 
     if color is None:
-        return err_console() if to_stderr else Console(highlight=False)
+        return err_console() if to_stderr else out_console(highlight=False)
     if color:
-        return Console(stderr=to_stderr, highlight=False, force_terminal=True)
-    return Console(stderr=to_stderr, highlight=False, color_system=None)
+        return out_console(stderr=to_stderr, highlight=False, force_terminal=True)
+    return out_console(stderr=to_stderr, highlight=False, color_system=None)
 
 
 def _one_folder(paths: list[str]) -> bool:

@@ -12,7 +12,7 @@ import typer
 from rich.console import Console
 
 import driftline
-from driftline.cli.app import EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors
+from driftline.cli.app import EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors, out_console
 from driftline.cli.read_flags import takes_read_options
 from driftline.cli.scan_cmd import _all_failed as all_failed
 from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
@@ -263,7 +263,7 @@ def schema_command(
         leading_zeros,
     )
     to_stdout = any(is_stdout(t) for _, t in targets.given())
-    console = err_console() if to_stdout else Console(highlight=False)
+    console = err_console() if to_stdout else out_console(highlight=False)
     if not several:
         rec = _recommended(lambda: driftline.recommend(paths, options=opts, scan_options=options), console, quiet)
         return _write_one(rec, to, targets, table, json_mode, console, quiet, **sql)

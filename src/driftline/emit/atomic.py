@@ -103,6 +103,18 @@ def _write_into(target: str, path: str, payload: bytes) -> None:
         raise OutputError(f"cannot write into {target!r}: {exc.strerror or exc}") from None
 
 
+def quiet_stdout() -> None:
+    """Send what is still written to standard output to /dev/null, once its reader has gone (the
+    pattern Python's signal module documents for SIGPIPE): the command goes on to its own exit
+    code, and the last flush at exit cannot fail again."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError):  # no file descriptor (a test's captured stdout): nothing to redirect
+        pass
+
+
 def write_output(target: str, data: str | bytes) -> None:
     """Write data to target where a person expects it (see the module); '-' is standard output."""
     payload = data.encode("utf-8") if isinstance(data, str) else data
@@ -110,8 +122,11 @@ def write_output(target: str, data: str | bytes) -> None:
         raise OutputError("an output needs a file name, or '-' for standard output")
     fd = 1 if target == "-" else own_descriptor(target)
     if fd == 1:
-        sys.stdout.buffer.write(payload)
-        sys.stdout.buffer.flush()
+        try:
+            sys.stdout.buffer.write(payload)
+            sys.stdout.buffer.flush()
+        except BrokenPipeError:  # `… | head` closed the pipe: the reader has what it wanted
+            quiet_stdout()
         return
     if fd is not None:
         try:
