@@ -156,15 +156,17 @@ def test_where_that_keeps_no_file_says_the_filter_removed_every_file(tmp_path: P
     assert kept.returncode == 0 and kept.stdout.splitlines()[1].startswith("1 file (1 jsonl), 1 row, ")
 
 
-def test_a_single_file_is_named_in_the_header_not_its_folder(tmp_path: Path):
-    landing = _partitioned(tmp_path)
+def test_the_header_names_the_path_as_typed(tmp_path: Path):
+    _partitioned(tmp_path)
     res = run("scan", "landing/day=2026-11-01/part-0.jsonl", cwd=tmp_path)
     assert res.returncode == 0
     lines = res.stdout.splitlines()
-    assert lines[0] == f"driftline scan {landing / 'day=2026-11-01' / 'part-0.jsonl'}"
+    assert lines[0] == "driftline scan landing/day=2026-11-01/part-0.jsonl"  # the file, not its folder
     assert lines[1].startswith("1 file (1 jsonl), 2 rows, ")
-    folder = run("scan", "landing/day=2026-11-01", cwd=tmp_path)
-    assert folder.stdout.splitlines()[0] == f"driftline scan {landing / 'day=2026-11-01'}"
+    folder = run("scan", "landing/day=2026-11-01/", cwd=tmp_path)
+    assert folder.stdout.splitlines()[0] == "driftline scan landing/day=2026-11-01/"  # not the absolute path
+    both = run("scan", "landing/day=2026-11-01", "landing/day=2026-11-02", cwd=tmp_path)
+    assert both.stdout.splitlines()[0] == f"driftline scan {tmp_path / 'landing'}"  # several: their common folder
 
 
 # source: click's usage errors keep their usage line and help hint (click.exceptions.UsageError.show);

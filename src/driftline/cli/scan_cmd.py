@@ -239,13 +239,9 @@ def fails_at(profile: driftline.Profile, level: str) -> bool:
 
 
 def _file_named(paths: list[str], profile: driftline.Profile) -> str | None:
-    """The file a scan of one local file read, for the header: the profile is rooted at its
-    folder (relative paths are from there), but the scan was of that file alone."""
-    from driftline.sources.remote import is_url
-
-    if len(paths) == 1 and not is_url(paths[0]) and os.path.isfile(paths[0]) and len(profile.files) == 1:
-        return os.path.join(profile.root, profile.files[0].rel)
-    return None
+    """What the header names: the path as it was typed when one was given (the profile is rooted
+    at the absolute folder, a file's at its folder), else the profile's root."""
+    return paths[0] if len(paths) == 1 else None
 
 
 def terminal(to_stderr: bool, color: bool | None) -> Console:
