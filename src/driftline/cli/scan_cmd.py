@@ -178,7 +178,7 @@ def scan_command(
                 paths[0], dataset=dataset or None, whole_if_one=True, options=options, progress=bar
             )
             if landing.whole is None:
-                _several(landing, options, json_out, html_out, quiet, write_inside, look, color)
+                _several(landing, options, json_out, html_out, quiet, write_inside, look, color, paths[0])
                 if fail_at is not None and any(fails_at(p, fail_at) for p in landing.datasets.values()):
                     raise typer.Exit(EXIT_VIOLATION)
                 return
@@ -271,6 +271,7 @@ def _several(
     write_inside: bool,
     look: dict[str, bool] | None = None,
     color: bool | None = None,
+    typed_root: str | None = None,
 ) -> None:
     """A root of several datasets: the report set, one HTML page per dataset, the overview then
     each dataset's summary; exit 2 when every file of a dataset failed."""
@@ -303,7 +304,7 @@ def _several(
         console = terminal(to_stdout or len(failed) == len(landing.datasets), color)
         from driftline.emit.landing_text import render_landing
 
-        render_landing(landing, console, options.max_events, **(look or {}))
+        render_landing(landing, console, options.max_events, **(look or {}), title=typed_root)
         if json_out is not None and not is_stdout(json_out):
             console.print(f"report set written to {safe_text(Path(json_out))}", markup=False)
         for page in pages.values():

@@ -29,11 +29,11 @@ MAX_LOOSE_SHOWN = 50
 MAX_NOTICE_PATHS_SHOWN = 3
 
 
-def headline(landing: Landing) -> Text:
-    """'driftline scan ROOT' and the totals over the datasets read."""
+def headline(landing: Landing, title: str | None = None) -> Text:
+    """'driftline scan ROOT' (title: the root as it was typed) and the totals over the datasets read."""
     text = Text()
     text.append("driftline scan ", style="bold")
-    text.append(safe_text(landing.root, None))
+    text.append(safe_text(landing.root if title is None else title, None))
     text.append("\n")
     read = len(landing.datasets)
     of = f" (of {len(landing.found):,} found)" if read != len(landing.found) else ""
@@ -115,9 +115,11 @@ def render_landing(
     *,
     events_detail: bool = False,
     full_table: bool = False,
+    title: str | None = None,
 ) -> None:
-    """The overview of the datasets and what fits none, then each dataset's summary under a heading."""
-    console.print(headline(landing))
+    """The overview of the datasets and what fits none, then each dataset's summary under a heading;
+    title is the root as it was typed, and each dataset's header names its folder under it."""
+    console.print(headline(landing, title))
     console.print()
     console.print(datasets_table(landing))
     rest = leftovers(landing)
@@ -127,7 +129,8 @@ def render_landing(
     for name, profile in landing.datasets.items():
         console.print()
         console.print(Rule(Text(f"dataset {safe_text(name)}", style="bold"), align="left"))
-        render(profile, console, max_events, events_detail=events_detail, full_table=full_table)
+        shown = None if title is None else os.path.join(title, os.path.relpath(profile.root, landing.root))
+        render(profile, console, max_events, events_detail=events_detail, full_table=full_table, title=shown)
 
 
 def one_table_note(landing: Landing) -> str:
