@@ -181,3 +181,23 @@ def test_leading_zeros_flag(tmp_path: Path):
     assert "2 would change (leading zeros dropped)" in shown.stdout + shown.stderr
     bad = run("schema", str(tmp_path), "--leading-zeros", "drop")
     assert bad.returncode == 2 and "error: leading_zeros must be one of keep, parse; got 'drop'" in bad.stderr
+
+
+@pytest.mark.parametrize("columns", [80, 60])
+def test_the_schema_table_never_cuts_a_field_name(report: Path, columns: int):
+    # common practice: a table shrinks its free-text column first and keeps identifiers whole.
+    # At 80 columns 'battery.charge_cycles' was cut to 'battery.charge_cyc…'.
+    res = run_at(columns, "schema", str(report))
+    assert res.returncode == 0, res.stderr
+    lines = res.stdout.split("Unified schema", 1)[1].split("\n\n", 1)[0].splitlines()
+    assert max(len(ln) for ln in lines) <= columns  # nothing spills past the edge
+    cells = [ln.split("│")[1].strip() for ln in lines if ln.startswith("│")]
+    folded = " ".join(cells).replace(" ", "")  # a name folded over two lines reads whole again
+    for path in ("battery.charge_cycles", "battery.voltage", "battery_voltage", "ingested_at", "tags[]"):
+        assert path in folded
+    assert "…" not in res.stdout.split("Cast rules", 1)[0]
+
+
+def run_at(columns: int, *args: str) -> subprocess.CompletedProcess[str]:
+    env = {**os.environ, "COLUMNS": str(columns)}
+    return subprocess.run([*EXE, *args], capture_output=True, text=True, timeout=120, env=env)

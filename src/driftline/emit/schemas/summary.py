@@ -10,7 +10,8 @@ safe_text into rich Text objects (never markup).
 from __future__ import annotations
 
 import orjson
-from rich.console import Console
+from rich.console import Console, ConsoleOptions, RenderResult
+from rich.measure import Measurement
 from rich.table import Table
 from rich.text import Text
 
@@ -84,15 +85,42 @@ def rule_line(plan: FieldPlan) -> str:
     return f"{safe_text(plan.path)}: {plan.rule} → {safe_text(plan.target.key(), 80)}; {_inputs_text(plan)}, {loss}"
 
 
-def schema_table(rec: Recommendation) -> Table:
+class _Folding:
+    """A cell that may be narrower than its longest word and folds there: a type such as
+    'struct<charge_cycles: int64, …>' gives way before the field names do."""
+
+    def __init__(self, text: Text) -> None:
+        self.text = text
+
+    def __rich_measure__(self, console: Console, options: ConsoleOptions) -> Measurement:
+        return Measurement(min(12, self.text.cell_len), self.text.cell_len)
+
+    def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
+        yield self.text
+
+
+def schema_table(rec: Recommendation, width: int = 120) -> Table:
+    """The unified schema, one row per field; width is the console's."""
     table = Table(title="Unified schema", title_justify="left", pad_edge=False)
-    for col in ("field", "type", "nullable", "rule"):
-        table.add_column(col)
-    for plan in rec.walk():
-        depth = plan.path.count(".") + plan.path.count("[]")
+    plans = list(rec.walk())
+    names = ["  " * (p.path.count(".") + p.path.count("[]")) + safe_text(p.path) for p in plans]
+    # A field's name is what the reader looks for: it keeps its width (up to 40) and folds past
+    # that, never cut, and so does the rule's; the type wraps, and folds, in what is left. On a
+    # console too narrow to leave the type 16 columns, every column gives way.
+    fixed = [
+        min(40, max((len(n) for n in names), default=5)),
+        len("nullable"),
+        max((len(p.rule) for p in plans), default=4),
+    ]
+    keep = sum(fixed) + 13 + 16 <= width  # 13: the borders and the padding of four columns
+    table.add_column("field", overflow="fold", width=fixed[0] if keep else None)
+    table.add_column("type", overflow="fold")
+    table.add_column("nullable", width=fixed[1] if keep else None)
+    table.add_column("rule", overflow="fold", width=fixed[2] if keep else None)
+    for plan, name in zip(plans, names, strict=True):
         table.add_row(
-            Text("  " * depth + safe_text(plan.path)),
-            Text(safe_text(plan.target.key(), 60)),
+            Text(name),
+            _Folding(Text(safe_text(plan.target.key(), 60), overflow="fold")),
             "yes" if plan.nullable else "no",
             Text(plan.rule, style="bold" if plan.rule != "identity" else "dim"),
         )
@@ -115,18 +143,19 @@ def rules_block(rec: Recommendation) -> Text:
     return text
 
 
-def render(rec: Recommendation, console: Console) -> None:
-    """Print the recommendation: overview, schema table, rules, dropped fields."""
+def render(rec: Recommendation, console: Console, title: str | None = None) -> None:
+    """Print the recommendation: overview (title: what was read, as typed; else the root), schema
+    table, rules, dropped fields."""
     head = Text()
     head.append("driftline schema ", style="bold")
-    head.append(safe_text(rec.root, None))
+    head.append(safe_text(rec.root if title is None else title, None))
     head.append(
         f"\n{count(rec.rows, 'row')} in {count(rec.files, 'file')} → {count(len(rec.fields), 'top-level field')} "
         f"({rec.options.mode}; {count(len(rec.conflicts()), 'field')} strict mode would refuse)"
     )
     console.print(head)
     console.print()
-    console.print(schema_table(rec))
+    console.print(schema_table(rec, console.width))
     console.print()
     console.print(rules_block(rec), end="")
     if rec.dropped:
