@@ -76,7 +76,9 @@ if _TYPE_CHECKING:
     from driftline.results.profile import FieldSummary
 
 # The rest of the surface is imported on first use (PEP 562): `driftline --version` and a
-# verb's --help need none of the readers, the recommender, the gate or the renderers.
+# verb's --help need none of the readers, the recommender, the gate or the renderers. The names
+# are written three times on purpose: the TYPE_CHECKING imports for type checkers, this table
+# for the runtime, and __all__ as the literal list tools read; tests/api/test_api.py holds them equal.
 _LAZY: dict[str, str] = {
     **dict.fromkeys(
         (

@@ -108,6 +108,9 @@ def _public_objects() -> list[tuple[str, object]]:
 def test_public_surface_is_exactly_the_sorted_all():
     assert sorted(driftline.__all__) == SURFACE
     assert driftline.__all__ == sorted(driftline.__all__)
+    # The lazy table and the names imported at once are exactly the surface, nothing beside it.
+    eager = {n for n in driftline.__all__ if n not in driftline._LAZY and n in vars(driftline)}
+    assert sorted(eager | set(driftline._LAZY)) == SURFACE
     assert driftline.__version__ == importlib.metadata.version("driftline")
 
 
