@@ -114,6 +114,17 @@ def test_the_guard_sees_an_eager_import(tmp_path):
     assert {"pyarrow", "driftline.sources.jsonfile", "driftline._api"} <= set(modules)
 
 
+def test_a_scan_imports_neither_pydantic_nor_the_gate(tmp_path):
+    # typer coerces flag values through pydantic; a verb's defaults and plain values are settled
+    # without it (cli/plainvalues.py), and the gate is read only for a config file's [check] table.
+    data = tmp_path / "a.jsonl"
+    data.write_text('{"x": 1}\n')
+    code, modules, _ = _loaded(tmp_path, "scan", str(data), "-q", "--batch-rows", "100", "--include", "*.jsonl")
+    assert code == 0
+    assert "driftline.sources.jsonfile" in modules  # the scan really read the file
+    assert [m for m in modules if m.split(".")[0] == "pydantic" or m.startswith("driftline.gate")] == []
+
+
 @pytest.mark.parametrize("name", driftline.__all__)
 def test_the_public_surface_loads_on_first_use(name):
     # `import driftline` stays light; each public name is there when asked for (PEP 562).
