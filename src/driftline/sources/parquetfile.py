@@ -208,10 +208,10 @@ def _source(path: object) -> tuple[object, int]:
     """What pyarrow reads (the path, the object-store file, or the bytes of a small local file) and its size."""
     if not isinstance(path, str):
         return path, path.size()  # type: ignore[attr-defined]  # an object-store file
-    size = os.path.getsize(path)
-    if size > IN_MEMORY_BYTES:
-        return path, size
     with open(path, "rb") as fh:
+        size = os.fstat(fh.fileno()).st_size  # of the file opened: no second lookup of the path
+        if size > IN_MEMORY_BYTES:
+            return path, size
         data = fh.read(IN_MEMORY_BYTES + 1)
     return pa.BufferReader(data), len(data)
 
@@ -238,14 +238,22 @@ def _row_group(pf: pq.ParquetFile, rg: int, rows: int, batch_rows: int) -> Itera
 _UNANSWERED: dict[tuple[pa.Schema, str | None], int] = {}
 _RETRY_EVERY = 16
 _DECLARED: dict[pa.Schema, dict[str, str]] = {}  # files of one schema share its declared paths
+# The previous file's schema and its declared paths: most files have the shape of the one before,
+# and Schema.equals is a C++ comparison where hashing a Schema for the dict builds every field
+# in Python (about 30 µs a file).  Equal schemas (metadata aside, as the dict's == has it) have
+# equal declared paths: declared_paths reads the types alone.
+_PREVIOUS: list[tuple[pa.Schema, dict[str, str]]] = []
 
 
 def _declared(schema: pa.Schema) -> dict[str, str]:
+    if _PREVIOUS and schema.equals(_PREVIOUS[0][0]):
+        return dict(_PREVIOUS[0][1])
     got = _DECLARED.get(schema)
     if got is None:
         if len(_DECLARED) > 256:
             _DECLARED.clear()
         got = _DECLARED[schema] = declared_paths(schema)
+    _PREVIOUS[:] = [(schema, got)]
     return dict(got)
 
 
