@@ -71,9 +71,10 @@ def _settle_plainly(params: list[Parameter]) -> list[Parameter]:
     third of a small scan (cli/plainvalues.py); typer's own coercion when its internals moved."""
     try:
         from driftline.cli.plainvalues import settle_plainly
-    except ImportError:
+
+        return settle_plainly(params)
+    except (ImportError, AttributeError, TypeError):
         return params
-    return settle_plainly(params)
 
 
 class _Verbs(TyperGroup):
