@@ -54,7 +54,6 @@ from driftline.errors import (
 
 if _TYPE_CHECKING:
     from driftline._api import (
-        ApplyResult,
         Landing,
         Profile,
         Recommendation,
@@ -68,6 +67,7 @@ if _TYPE_CHECKING:
         scan,
         scan_datasets,
     )
+    from driftline.applying.run import ApplyResult
     from driftline.core.options import ReadOptions, ScanOptions
     from driftline.gate.diff import Diff
     from driftline.gate.policy import Policy
@@ -82,7 +82,6 @@ if _TYPE_CHECKING:
 _LAZY: dict[str, str] = {
     **dict.fromkeys(
         (
-            "ApplyResult",
             "Landing",
             "Profile",
             "Recommendation",
@@ -98,6 +97,7 @@ _LAZY: dict[str, str] = {
         ),
         "driftline._api",
     ),
+    "ApplyResult": "driftline.applying.run",
     "ReadOptions": "driftline.core.options",
     "ScanOptions": "driftline.core.options",
     "Diff": "driftline.gate.diff",

@@ -19,7 +19,6 @@ from typing import Any as _Any
 from typing import Unpack as _Unpack
 from typing import overload as _overload
 
-from driftline.applying.run import ApplyResult
 from driftline.core.jsontypes import JSONObject as _JSONObject
 from driftline.core.options import ScanKeywords as _ScanKeywords
 from driftline.core.options import ScanOptions
@@ -48,6 +47,9 @@ from driftline.sources.datasets import find_datasets as _find_datasets
 if _TYPE_CHECKING:
     import polars as _pl
     import pyarrow as _pa
+
+    # apply() imports its runner when it runs: a scan never needs it (driftline.ApplyResult is its own name).
+    from driftline.applying.run import ApplyResult
 
     # The gate is imported by check() and diff() when they run: a scan never needs it.
     from driftline.gate.diff import Diff

@@ -105,6 +105,20 @@ def test_scan_help_imports_the_scan_verb_alone_and_nothing_heavy(tmp_path):
     assert _heavy(modules) == []
 
 
+def test_schema_help_imports_the_schema_verb_alone_and_nothing_heavy(tmp_path):
+    # The help names the schema files and SQL dialects (core/schemaformats.py) without the
+    # recommender, the writers or sqlglot, whose dialect list it once imported.
+    code, modules, stdout = _loaded(tmp_path, "schema", "--help")
+    assert code == 0
+    assert stdout.startswith("Usage: driftline schema [OPTIONS] PATH...\n")
+    words = " ".join(stdout.split())
+    assert "one of: json-schema, arrow, arrow-text, sql, avro, iceberg, spark." in words
+    assert "SQL dialect of --to sql: duckdb, postgres, spark, trino, bigquery, snowflake, sqlite" in words
+    assert [m for m in modules if m.endswith("_cmd")] == ["driftline.cli.schema_cmd"]
+    assert _heavy(modules) == []
+    assert "rich" not in {m.split(".")[0] for m in modules}
+
+
 def test_the_guard_sees_an_eager_import(tmp_path):
     # The same wrapper on a command that reads data loads the readers: the check can fail.
     data = tmp_path / "a.jsonl"
@@ -112,6 +126,17 @@ def test_the_guard_sees_an_eager_import(tmp_path):
     code, modules, _ = _loaded(tmp_path, "scan", str(data), "-q")
     assert code == 0
     assert {"pyarrow", "driftline.sources.jsonfile", "driftline._api"} <= set(modules)
+
+
+def test_a_scan_imports_neither_pydantic_nor_the_gate(tmp_path):
+    # typer coerces flag values through pydantic; a verb's defaults and plain values are settled
+    # without it (cli/plainvalues.py), and the gate is read only for a config file's [check] table.
+    data = tmp_path / "a.jsonl"
+    data.write_text('{"x": 1}\n')
+    code, modules, _ = _loaded(tmp_path, "scan", str(data), "-q", "--batch-rows", "100", "--include", "*.jsonl")
+    assert code == 0
+    assert "driftline.sources.jsonfile" in modules  # the scan really read the file
+    assert [m for m in modules if m.split(".")[0] == "pydantic" or m.startswith("driftline.gate")] == []
 
 
 @pytest.mark.parametrize("name", driftline.__all__)

@@ -186,6 +186,7 @@ def test_startup_rows_and_their_targets(results: dict) -> None:
         "python -c 'import pyarrow'",
         "driftline --version",
         "driftline scan --help",
+        "driftline schema --help",
         "pyarrow reads the demo's 15 files",  # the demo's 15 data files (tests/scripts/test_make_demo.py)
         "driftline scan demo -q",
         "driftline scan demo (summary)",
@@ -194,6 +195,7 @@ def test_startup_rows_and_their_targets(results: dict) -> None:
     assert [(t["target"], t["limit"]) for t in startup["targets"]] == [
         ("driftline --version / import pyarrow <= 2", 2.0),
         ("driftline scan --help / import pyarrow <= 2", 2.0),
+        ("driftline schema --help / import pyarrow <= 2", 2.0),
         ("driftline scan demo -q / pyarrow reading its files <= 1.5", 1.5),
     ]
     assert "| driftline --version |" in results["stdout"]

@@ -25,7 +25,7 @@ from driftline.errors import DriftlineError
 
 if TYPE_CHECKING:
     from rich.console import Console
-    from typer._click.core import Command, Context
+    from typer._click.core import Command, Context, Parameter
 
 EXIT_OK, EXIT_VIOLATION, EXIT_USAGE = 0, 1, 2
 
@@ -67,6 +67,17 @@ VERBS: dict[str, str] = {
 }
 
 
+def _settle_plainly(params: list[Parameter]) -> list[Parameter]:
+    """Each parameter's plain values settled without pydantic, whose import and adapters would be a
+    third of a small scan (cli/plainvalues.py); typer's own coercion when its internals moved."""
+    try:
+        from driftline.cli.plainvalues import settle_plainly
+
+        return settle_plainly(params)
+    except (ImportError, AttributeError, TypeError):
+        return params
+
+
 class _Verbs(TyperGroup):
     """The verbs' group: click's usage errors read 'error: …' like ours, exit 2 as click's do;
     a verb's module is imported when that verb is asked for."""
@@ -81,21 +92,8 @@ class _Verbs(TyperGroup):
                 self._load(name)
         return super().get_command(ctx, cmd_name)
 
-    def get_help_option(self, ctx: Context) -> Any:
-        option = super().get_help_option(ctx)
-        # The root's -h/--help is a bool flag left unset (None) on `driftline VERB ...`, and typer
-        # coerces that None through pydantic, whose import would be a third of `driftline scan
-        # --help`: the flag's value needs no coercion. Typer's internals; without them, the default.
-        if option is not None and getattr(option, "_runtime_param", False) is None:
-            try:
-                from typer._coercion import PassThroughRuntimeParam
-
-                option._runtime_param = PassThroughRuntimeParam(
-                    annotation=bool, parameter_info=option.type_descriptor.parameter_info
-                )
-            except (ImportError, AttributeError, TypeError):
-                pass
-        return option
+    def get_params(self, ctx: Context) -> list[Parameter]:
+        return _settle_plainly(super().get_params(ctx))
 
     def invoke(self, ctx: Context) -> Any:
         try:
@@ -198,7 +196,11 @@ class _NamedArgument(TyperArgument):
 
 
 class PlainHelp(TyperCommand):
-    """A verb whose --help names its arguments as a person reads them (each verb's metavar)."""
+    """A verb whose --help names its arguments as a person reads them (each verb's metavar), and
+    whose plain flag values are settled without pydantic (cli/plainvalues.py)."""
+
+    def get_params(self, ctx: Context) -> list[Parameter]:
+        return _settle_plainly(super().get_params(ctx))
 
     def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)

@@ -307,9 +307,11 @@ FLAG_NAMES = tuple(f.name for f in READ_FLAGS)
 
 def policy_of(config: Config) -> Policy | None:
     """The config file's [check] table as the policy of driftline check, or None when it has none."""
-    from driftline.gate.policy import policy_from_mapping
+    if not config.check:
+        return None
+    from driftline.gate.policy import policy_from_mapping  # the gate only when there is a table to read
 
-    return policy_from_mapping(config.check, source=config.where("check")) if config.check else None
+    return policy_from_mapping(config.check, source=config.where("check"))
 
 
 def options_of(flags: dict[str, Any], given: set[str]) -> tuple[ScanOptions, Config]:

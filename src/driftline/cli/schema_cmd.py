@@ -6,29 +6,28 @@ import os
 import sys
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import typer
-from rich.console import Console
 
 import driftline
 from driftline.cli.app import EXIT_VIOLATION, PlainHelp, app, err_console, handles_errors, out_console
 from driftline.cli.read_flags import takes_read_options
-from driftline.cli.scan_cmd import _all_failed as all_failed
-from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
 from driftline.core.options import Config, ScanOptions
+from driftline.core.schemaformats import DEFAULT_DIALECT, DIALECTS, FORMATS
 from driftline.emit.atomic import is_stdout, own_descriptor
-from driftline.emit.dataset_files import is_folder_target
-from driftline.emit.landing_text import one_table_note
 from driftline.emit.safe import safe_text
-from driftline.emit.schemas import summary
-from driftline.emit.schemas.files import FORMATS, write_file
-from driftline.emit.schemas.sql import DEFAULT_DIALECT, DIALECTS, check_dialect, check_flatten
 from driftline.emit.targets import WRITE_INSIDE, check_targets
 from driftline.errors import InputPathError, OptionError, OutputError, PolicyError
-from driftline.gate.dataset_diff import is_report_set
-from driftline.recommendation import RecommendOptions, SchemaConflictError
-from driftline.sources.remote import is_url
+
+# The recommender, the schema writers (sqlglot), the gate's report sets, rich and the readers are
+# imported where they are used: `driftline schema --help` needs none of them (tests/api/test_imports.py).
+if TYPE_CHECKING:
+    from rich.console import Console
+
+    from driftline.cli.schema_datasets import Targets
+    from driftline.recommendation import RecommendOptions
+
 
 SCHEMA_HELP = """Recommend one schema for files and folders (or a saved scan report), with a cast
 rule per field and what each rule would null or change, counted by the scan.
@@ -91,6 +90,8 @@ def _options(
     min_field_share: float | None,
     leading_zeros: str | None = None,
 ) -> RecommendOptions:
+    from driftline.recommendation import RecommendOptions
+
     # The config file's [recommend] table first, then the flags that were given on the command line.
     source = config.where("recommend")
     base = RecommendOptions.from_mapping(config.recommend, source=source) if config.recommend else RecommendOptions()
@@ -110,6 +111,8 @@ def _options(
 def _check_out(target: str | None, what: str, *, folder_ok: bool = False) -> None:
     """Refuse an unwritable output before any scanning is done (folder_ok: a folder, for one file per
     dataset, must exist or have a parent folder that does)."""
+    from driftline.emit.dataset_files import is_folder_target
+
     if target is None or target == "-" or own_descriptor(target) is not None:
         return
     if folder_ok and is_folder_target(target):
@@ -226,6 +229,15 @@ def schema_command(
     options: ScanOptions,
     config: Config,
 ) -> None:
+    from rich.console import Console
+
+    from driftline.cli.scan_cmd import _all_failed as all_failed
+    from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
+    from driftline.emit.dataset_files import is_folder_target
+    from driftline.emit.landing_text import one_table_note
+    from driftline.emit.schemas.sql import check_dialect, check_flatten
+    from driftline.gate.dataset_diff import is_report_set
+
     if to is not None and to not in FORMATS:
         raise PolicyError(f"unknown --to {to!r}; choose one of {', '.join(FORMATS)}")
     if json_mode is not None and json_mode not in ("permissive", "strict"):
@@ -294,6 +306,8 @@ def schema_command(
 
 def _one_folder(paths: list[str]) -> bool:
     """Whether the paths name one local folder: the only case split into datasets (as scan does)."""
+    from driftline.sources.remote import is_url
+
     return len(paths) == 1 and not is_url(paths[0]) and os.path.isdir(paths[0])
 
 
@@ -301,6 +315,9 @@ def _recommended(
     make: Callable[[], driftline.Recommendation], console: Console, quiet: bool
 ) -> driftline.Recommendation:
     """The recommendation; on a conflict in strict mode, the summary and the conflicts, then exit 1."""
+    from driftline.emit.schemas import summary
+    from driftline.recommendation import SchemaConflictError
+
     try:
         return make()
     except SchemaConflictError as exc:
@@ -325,6 +342,9 @@ def _write_one(
     flatten: str | None = None,
     bounds_from_sample: bool = False,
 ) -> None:
+    from driftline.emit.schemas import summary
+    from driftline.emit.schemas.files import write_file
+
     files = [(targets.out, to)] if to is not None else []
     for path, fmt in [*files, (targets.rules, "rules")]:
         if path is not None:

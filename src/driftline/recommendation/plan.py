@@ -14,17 +14,15 @@ import orjson
 import pyarrow as pa
 
 from driftline.core.lattice import DType, to_arrow
+
+# The schema files' names (core/schemaformats.py, for a verb's --help), kept here for the recommender's users.
+from driftline.core.schemaformats import JsonMode as JsonMode
+from driftline.core.schemaformats import OutputFormat as OutputFormat
+from driftline.core.schemaformats import SchemaFormat as SchemaFormat
 from driftline.core.stats import Example
 from driftline.core.words import count
 from driftline.recommendation.options import RecommendOptions
 from driftline.recommendation.partitions import PartitionColumn
-
-#: The schema files of `driftline schema --to`.
-SchemaFormat = Literal["json-schema", "arrow", "arrow-text", "sql", "avro", "iceberg", "spark"]
-#: What Recommendation.write writes: a schema file, or the cast rules (`--rules`).
-OutputFormat = SchemaFormat | Literal["rules"]
-#: JSON Schema of the records as they arrive (permissive), or after the cast rules (strict).
-JsonMode = Literal["permissive", "strict"]
 
 EffectKind = Literal["null", "change", "note"]
 

@@ -11,6 +11,7 @@ import os
 from pathlib import Path
 from typing import get_args
 
+from driftline.core.schemaformats import FORMATS as FORMATS
 from driftline.emit.atomic import write_output
 from driftline.emit.schemas import arrow_schema, avro, iceberg, json_schema, rules_json, spark
 from driftline.emit.schemas import sql as sql_file
@@ -18,7 +19,6 @@ from driftline.errors import OptionError
 from driftline.recommendation.plan import JsonMode, OutputFormat, Recommendation, SchemaFormat
 
 #: The formats of --to, in the order --help lists them.
-FORMATS: tuple[SchemaFormat, ...] = get_args(SchemaFormat)
 
 
 def default_name(rec: Recommendation) -> str:

@@ -25,7 +25,7 @@ import decimal
 import math
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Any, Literal, get_args
+from typing import Any
 
 import orjson
 import pyarrow as pa
@@ -34,6 +34,9 @@ from sqlglot import exp
 
 from driftline.core.lattice import DType
 from driftline.core.marker import remark
+from driftline.core.schemaformats import DEFAULT_DIALECT as DEFAULT_DIALECT
+from driftline.core.schemaformats import DIALECTS as DIALECTS
+from driftline.core.schemaformats import SqlDialect
 from driftline.core.words import count
 from driftline.emit.schemas.names import Rename, check_separator, distinct
 from driftline.errors import OptionError
@@ -44,11 +47,8 @@ from driftline.recommendation.plan import FieldPlan, Recommendation
 from driftline.recommendation.raw import json_text, jsonable, plain_value
 from driftline.sources.discover import partition_values
 
-#: The dialects of `--dialect`, as sqlglot names them.
-Dialect = Literal["duckdb", "postgres", "spark", "trino", "bigquery", "snowflake", "sqlite"]
-DIALECTS: tuple[str, ...] = get_args(Dialect)
-#: DuckDB: it runs in-process, checks every type name, and reads the staging data straight from files.
-DEFAULT_DIALECT: Dialect = "duckdb"
+#: The dialects of `--dialect` (core/schemaformats.py: the names alone, for the verb's --help).
+Dialect = SqlDialect
 
 MAX_DECIMAL = 38
 JSON_TEXT_RULES = frozenset({"keep_as_json_text", "wrap_scalar_in_list"})
