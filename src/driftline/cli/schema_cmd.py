@@ -229,8 +229,6 @@ def schema_command(
     options: ScanOptions,
     config: Config,
 ) -> None:
-    from rich.console import Console
-
     from driftline.cli.scan_cmd import _all_failed as all_failed
     from driftline.cli.schema_datasets import Targets, by_dataset, picked_from_set
     from driftline.emit.dataset_files import is_folder_target
