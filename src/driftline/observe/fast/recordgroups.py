@@ -84,7 +84,7 @@ def walk(
     return Walked(records, file, batch, row_start, lines, max_paths, shapes, size, accs, other)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True)
 class _Facts:
     """records.StringFacts of one path's strings, counted from the group's table."""
 
