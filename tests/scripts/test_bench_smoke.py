@@ -199,3 +199,51 @@ def test_startup_rows_and_their_targets(results: dict) -> None:
         ("driftline scan demo -q / pyarrow reading its files <= 1.5", 1.5),
     ]
     assert "| driftline --version |" in results["stdout"]
+
+
+def test_small_json_line(tmp_path: Path) -> None:
+    # 20 small nested JSON files (the floor of the scale): DuckDB, driftline jobs 1 and 2, in turn
+    out = tmp_path / "small.json"
+    proc = subprocess.run(
+        [
+            sys.executable,
+            str(BENCH),
+            "--small-json",
+            "--quick",
+            "--scale",
+            "0.01",
+            "--jobs",
+            "2",
+            "--data-dir",
+            str(tmp_path / "data"),
+            "--out",
+            str(out),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=240,
+    )
+    assert proc.returncode == 0, proc.stderr
+    got = json.loads(out.read_text())["small_json"]
+    assert got["files"] == 20
+    rows = got["rows"]
+    assert [(r["tool"], r["jobs"], r["version"], r["ok"]) for r in rows] == [
+        ("duckdb", None, "duckdb", True),
+        ("driftline", 1, "working tree", True),
+        ("driftline", 2, "working tree", True),
+    ]
+    # both read every record: DuckDB's DESCRIBE lists the top-level columns the files hold, and
+    # driftline's rows are the records Python's json module finds (one per element or line)
+    folder = tmp_path / "data" / "scale-0.01" / "small-json"
+    records = [rec for f in sorted(folder.iterdir()) for rec in _records(f)]
+    assert rows[1]["result"][2] == rows[2]["result"][2] == len(records)
+    assert rows[0]["result"] == len({k for rec in records for k in rec})  # source: DuckDB DESCRIBE, a row a column
+    lines = proc.stdout.splitlines()
+    assert lines[0].startswith("| 20 small nested JSON files (")
+    assert lines[-1].startswith("- small-json / duckdb <= 2: measured ")
+
+
+def _records(path: Path) -> list[dict]:
+    """The records of a file as Python's json module reads them: a JSON array, or one per line."""
+    text = path.read_text(encoding="utf-8")
+    return [json.loads(x) for x in text.splitlines()] if path.suffix == ".jsonl" else json.loads(text)

@@ -7,8 +7,8 @@ in bulk, so the per-value Python work is only the walk itself.
 from __future__ import annotations
 
 import sys
-from collections.abc import Sequence
-from typing import Any
+from collections.abc import Callable, Sequence
+from typing import Any, Protocol
 
 import orjson
 import pyarrow as pa
@@ -222,14 +222,7 @@ def observe_records(
     >>> obs.fields["a"].types, obs.rows
     ({'int64': 1, 'string': 1}, 3)
     """
-    accs: dict[str, _Acc] = {}
-    other = _Other(_NO_CAP if max_paths is None else max_paths)
-    for i, rec in enumerate(records):
-        if type(rec) is dict:
-            for name, sub in rec.items():
-                _walk(sub, _child(None, name), i, accs, 1, other)
-        else:
-            _walk(rec, paths.ROOT, i, accs, 0, other)
+    accs, other = walk_records(records, max_paths)
     where = _Where(file, row_start, lines, rows)
     fields = {p: _finish(acc, where, samples_only) for p, acc in sorted(accs.items())}
     return Observation(
@@ -244,6 +237,20 @@ def observe_records(
     )
 
 
+def walk_records(records: Sequence[Any], max_paths: int | None = None) -> tuple[dict[str, _Acc], _Other]:
+    """The walk of observe_records: each path's accumulated values (its strings not yet classified),
+    and the values of the paths past max_paths."""
+    accs: dict[str, _Acc] = {}
+    other = _Other(_NO_CAP if max_paths is None else max_paths)
+    for i, rec in enumerate(records):
+        if type(rec) is dict:
+            for name, sub in rec.items():
+                _walk(sub, _child(None, name), i, accs, 1, other)
+        else:
+            _walk(rec, paths.ROOT, i, accs, 0, other)
+    return accs, other
+
+
 class _Where:
     __slots__ = ("file", "row_start", "lines", "rows")
 
@@ -255,7 +262,30 @@ class _Where:
         return Example(self.file, row, self.lines[i] if self.lines is not None else None, value_text(value))
 
 
-def _finish(acc: _Acc, where: _Where, samples_only: bool = False) -> FieldStats:
+class StringFacts(Protocol):
+    """What classify and class_masks tell _finish about a path's strings: per class (those that
+    occur, in CLASSES order) its count and its first positions (up to SAMPLES_PER_KEY), and the
+    digit, leap-second and lowercase counts (observe/fast/recordgroups.py gives them for a
+    group of batches at once)."""
+
+    counts: dict[str, int]
+    first: dict[str, list[int]]
+    int_digits: int
+    frac_digits: int
+    leap_seconds: int
+    lowercase_rfc3339: int
+
+
+def finish_fields(
+    accs: dict[str, _Acc], where: _Where, strings: Callable[[list[str]], StringFacts]
+) -> dict[str, FieldStats]:
+    """Each path's statistics, as observe_records finishes them, with the strings' facts from `strings`."""
+    return {p: _finish(acc, where, strings=strings) for p, acc in sorted(accs.items())}
+
+
+def _finish(
+    acc: _Acc, where: _Where, samples_only: bool = False, strings: Callable[[list[str]], StringFacts] | None = None
+) -> FieldStats:
     samples: Samples = {k: tuple(where.example(i, v) for i, v in got) for k, got in acc.samples.items()}
     measured: Measured = {
         "classes": {},
@@ -264,7 +294,25 @@ def _finish(acc: _Acc, where: _Where, samples_only: bool = False) -> FieldStats:
         "unsafe_ints": acc.unsafe,
         "items": acc.items,
     }
-    if acc.strings and samples_only:
+    if acc.strings and strings is not None and not samples_only:
+        facts = strings(acc.strings)
+        rows = acc.string_rows
+        samples[type_sample("string")] = tuple(
+            where.example(rows[j], acc.strings[j]) for j in range(min(SAMPLES_PER_KEY, len(rows)))
+        )
+        for cls, picks in facts.first.items():  # the first of a class, or its first 3 when it has more
+            samples[class_sample(cls)] = tuple(where.example(rows[j], acc.strings[j]) for j in picks)
+        measured.update(
+            {
+                "classes": dict(facts.counts),
+                "max_length": max(map(len, acc.strings)),
+                "int_digits": facts.int_digits,
+                "frac_digits": facts.frac_digits,
+                "leap_seconds": facts.leap_seconds,
+                "lowercase_rfc3339": facts.lowercase_rfc3339,
+            }
+        )
+    elif acc.strings and samples_only:
         # The same masks classify() counts (one pass of class_masks), without its other statistics.
         rows = acc.string_rows
         samples[type_sample("string")] = tuple(

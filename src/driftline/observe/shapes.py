@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from collections import Counter
 from collections.abc import Mapping, Sequence
+from functools import lru_cache
 from typing import Any
 
 import pyarrow as pa
@@ -35,22 +36,33 @@ def candidates(fields: Mapping[str, FieldStats], rows: int) -> list[str]:
         if st.nulls == 0
         and st.types.get("string") == rows
         and len(st.types) == 1
-        and paths.parent(p)[0] is None
+        and _parent(p)[0] is None
         and p != paths.ROOT  # bare strings, not records
     )[:MAX_CANDIDATES]
 
 
+@lru_cache(maxsize=65_536)
+def _segments(path: str) -> tuple[tuple[str, str], ...]:
+    """paths.split, remembered: the same paths come back in every batch of a scan of many small files."""
+    return tuple(paths.split(path))
+
+
+@lru_cache(maxsize=65_536)
+def _parent(path: str) -> tuple[str | None, str]:
+    return paths.parent(path)
+
+
 def _field_path(path: str) -> bool:
-    return all(kind == "field" for kind, _ in paths.split(path))
+    return all(kind == "field" for kind, _ in _segments(path))
 
 
 def split_fields(fields: Mapping[str, FieldStats], rows: int) -> tuple[frozenset[str], list[str]]:
     """(the field paths in every row, the other field paths: structs before their fields)."""
     every: set[str] = set()
     others: list[str] = []
-    for p in sorted((p for p in fields if _field_path(p)), key=lambda q: (len(paths.split(q)), q)):
+    for p in sorted((p for p in fields if _field_path(p)), key=lambda q: (len(_segments(q)), q)):
         st = fields[p]
-        parent, _ = paths.parent(p)
+        parent, _ = _parent(p)
         if parent is None:
             always = st.present == rows
         else:
@@ -79,7 +91,7 @@ def tally_records(records: Sequence[Any], fields: Mapping[str, FieldStats]) -> S
     every, others = split_fields(fields, len(records))
     if not others:
         return _uniform(every, {p: Counter(r[_name(p)] for r in records) for p in names})
-    steps = [(p, [name for _, name in paths.split(p)]) for p in others]
+    steps = [(p, [name for _, name in _segments(p)]) for p in others]
     interned: dict[frozenset[str], frozenset[str]] = {}
     shapes: list[frozenset[str]] = []
     for r in records:
@@ -97,7 +109,7 @@ def tally_records(records: Sequence[Any], fields: Mapping[str, FieldStats]) -> S
 
 
 def _name(path: str) -> str:
-    return paths.split(path)[0][1]
+    return _segments(path)[0][1]
 
 
 def _holds(record: Any, keys: list[str]) -> bool:
@@ -179,7 +191,7 @@ def table_tally(
                 shape = interned[key] = every.union(p for p, h in zip(others, key, strict=True) if h)
             for path, vals in values.items():
                 shapes[path].setdefault(vals[i], []).append(shape)
-    steps = [(p, [name for _, name in paths.split(p)]) for p in others]
+    steps = [(p, [name for _, name in _segments(p)]) for p in others]
     for r in rest.values():
         shape = every.union(p for p, keys in steps if _holds(r, keys))
         for path in counts:

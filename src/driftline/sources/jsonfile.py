@@ -18,6 +18,7 @@ from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
 from driftline.core.words import count
 from driftline.observe.fast.jsonbatch import observe_json_lines
+from driftline.observe.fast.recordgroups import Walked, groups_enabled, walk
 from driftline.observe.fast.strprofile import EXACT_ENV, exact_requested  # noqa: F401 - EXACT_ENV re-exported
 from driftline.observe.records import observe_records
 
@@ -26,8 +27,9 @@ _WINDOW_BYTES = 256 * 1024 * 1024  # a window stops growing here, whatever batch
 _BOM = b"\xef\xbb\xbf"
 
 FAST_MIN_ROWS = 256  # smaller batches take the exact walk: the columnar set-up would cost more
+GROUP_MAX_ROWS = 1024  # a file of fewer lines, read in one batch, is walked and observed in a group
 
-Item = Observation | FileIssue
+Item = Observation | FileIssue | Walked  # Walked: only from a reader asked to group (group=True)
 
 
 def iter_lines(stream: BinaryIO, max_bytes: int) -> Iterator[tuple[int, int, bytes | None]]:
@@ -76,8 +78,10 @@ class _Batcher:
     """Collects parsed records into batches: a batch ends at batch_rows records, or once its
     records' input bytes (each with its line end or separator) reach batch_bytes."""
 
-    def __init__(self, rel: str, opts: ReadOptions) -> None:
+    def __init__(self, rel: str, opts: ReadOptions, group: bool = False) -> None:
         self.rel, self.opts = rel, opts
+        # a file read in one batch is handed on walked, to be observed with other small files (recordgroups)
+        self.defer = group and groups_enabled() and not (opts.exact or exact_requested())
         self.records: list[Any] = []
         self.lines: list[int] | None = []
         self.bytes = 0  # input bytes of the records held
@@ -111,6 +115,26 @@ class _Batcher:
         self.records, self.lines = [], ([] if self.lines is not None else None)
         self.bytes = 0
         return obs
+
+    def last(self, size: int | None = None) -> Observation | Walked | None:
+        """The last batch: observed now, or walked only when it is the file's one batch and the
+        reader groups small files (size: the file's input bytes, when the batch did not count them)."""
+        if not (self.defer and self.batch == 0 and self.records):
+            return self.flush()
+        got = walk(
+            self.records,
+            file=self.rel,
+            batch=0,
+            row_start=self.rows,
+            lines=self.lines,
+            max_paths=self.opts.max_paths,
+            shapes=True,
+            size=self.bytes if size is None else size,
+        )
+        self.rows += len(self.records)
+        self.batch += 1
+        self.records, self.lines, self.bytes = [], ([] if self.lines is not None else None), 0
+        return got
 
     def observe_all(self, records: list[Any]) -> Observation:
         """One batch of records gathered elsewhere (a JSON array read element by element)."""
@@ -267,6 +291,7 @@ def read_jsonl(
     start: tuple[int, int, int] = (0, 0, 0),
     lines_read: list[int] | None = None,
     blank_read: list[int] | None = None,
+    group: bool = False,
 ) -> Iterator[Item]:
     """One JSON value per line. Blank lines are skipped; a bad line is reported and skipped.
 
@@ -274,9 +299,11 @@ def read_jsonl(
     which answers exactly or declines; everything else takes the exact walk line by line.
     start is (lines, rows, batches) before the stream, for a part of a file (jsonsplit);
     lines_read, when given, receives the number of lines the stream held; blank_read, the
-    number of blank lines skipped (for the reconciliation of lines, linecount.py).
+    number of blank lines skipped (for the reconciliation of lines, linecount.py).  group: a file
+    read in one batch of the exact walk is yielded walked (observe/fast/recordgroups.Walked), for
+    the scan to observe it with other small files.
     """
-    out = _Batcher(rel, opts)
+    out = _Batcher(rel, opts, group)
     out.rows, out.batch = start[1], start[2]
     src = _Lines(stream, opts.max_record_bytes, first_line_offset)
     src.lineno = start[0]
@@ -294,7 +321,10 @@ def read_jsonl(
             yield FileIssue(rel, "too-large", msg, line=got.line, byte_offset=got.offset)
             continue
         whole = len(got) == want or got.full or src.ends(got)
-        if fast and not out.records and len(got) >= FAST_MIN_ROWS and whole:
+        # a small file whole in this window is walked and observed with other small files instead:
+        # on nested records the grouped walk costs less than the columnar set-up (scripts/bench --small-json)
+        grouped = out.defer and out.batch == 0 and len(got) < GROUP_MAX_ROWS and src.ends(got)
+        if fast and not out.records and len(got) >= FAST_MIN_ROWS and whole and not grouped:
             try:
                 done = observe_json_lines(
                     got.items,
@@ -352,7 +382,7 @@ def read_jsonl(
             if added is not None:
                 yield added
         src.advance(len(got))
-    last = out.flush()
+    last = out.last()
     if last is not None:
         yield last
     if lines_read is not None:
@@ -372,13 +402,14 @@ def _looks_like_lines(data: bytes) -> bool:
     return isinstance(first, dict)
 
 
-def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
+def read_json(stream: BinaryIO, rel: str, opts: ReadOptions, group: bool = False) -> Iterator[Item]:
     """A JSON document: an array gives one record per element, anything else one record.
 
     A document of at most batch_bytes is parsed whole.  A larger array is read element by
     element (array_elements), one batch at a time, so memory follows the batch and not the
     file; a larger document that is not an array is one record, read whole up to
-    max_record_bytes.  A .json file that holds JSON Lines is read as JSON Lines.
+    max_record_bytes.  A .json file that holds JSON Lines is read as JSON Lines.  group: as
+    read_jsonl's.
     """
     whole = max(opts.batch_bytes, opts.max_record_bytes)
     data = stream.read(whole + 1)
@@ -395,7 +426,7 @@ def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
     if len(data) > whole:
         if first == ord("{") and _first_line_is_object(data, start):
             chained = io.BufferedReader(_Chain(data[start:], stream), buffer_size=1 << 20)
-            yield from read_jsonl(chained, rel, opts, first_line_offset=start)
+            yield from read_jsonl(chained, rel, opts, first_line_offset=start, group=group)
             return
         yield FileIssue(
             rel,
@@ -414,7 +445,7 @@ def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
         doc = jsonnum.loads(body)
     except orjson.JSONDecodeError as exc:
         if _looks_like_lines(body):
-            yield from read_jsonl(io.BytesIO(body), rel, opts, first_line_offset=start)
+            yield from read_jsonl(io.BytesIO(body), rel, opts, first_line_offset=start, group=group)
             return
         msg, line, col, pos = _decode_error(exc, body)
         yield FileIssue(
@@ -425,14 +456,14 @@ def read_json(stream: BinaryIO, rel: str, opts: ReadOptions) -> Iterator[Item]:
             byte_offset=start + pos,
         )
         return
-    out = _Batcher(rel, opts)
+    out = _Batcher(rel, opts, group)
     for record in doc if isinstance(doc, list) else [doc]:
         obs = out.add(record, None)
         if obs is not None:
             yield obs
-    obs = out.flush()
-    if obs is not None:
-        yield obs
+    last = out.last(size=len(body))
+    if last is not None:
+        yield last
 
 
 def _first_byte(data: bytes, start: int) -> int | None:

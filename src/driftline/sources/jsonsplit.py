@@ -164,6 +164,7 @@ def read_span(span: Span, opts: ReadOptions) -> SpanResult:
             if isinstance(item, FileIssue):
                 issues.append(item)
             else:
+                assert isinstance(item, Observation)  # a span is never handed on walked (no group=True)
                 thinner.add(item)
     lines = counter[0] if counter else 0
     observations, block = thinner.result()

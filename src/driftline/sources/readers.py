@@ -17,6 +17,7 @@ from driftline.core.options import ReadOptions
 from driftline.core.textfile import Dialect, TextEncoding
 from driftline.observe import thinning
 from driftline.observe.fast.bulk import Batch, observe_batches
+from driftline.observe.fast.recordgroups import Walked, observe_walked
 from driftline.observe.thinning import Thinner, thin
 from driftline.sources.csvfile import LinedCells
 from driftline.sources.encoding import TextStream
@@ -100,8 +101,9 @@ def read_file(ref: FileRef, opts: ReadOptions, *, digest: bool = False) -> FileR
 def read_files(
     refs: Sequence[FileRef], opts: ReadOptions, *, digest: bool = False, before: Callable[[FileRef], None] | None = None
 ) -> list[FileResult]:
-    """Read files in order, each as read_file would; the batches of Parquet files are observed
-    together, a group of at most about batch_rows rows at a time (observe.bulk).
+    """Read files in order, each as read_file would; the batches of Parquet files, and the records
+    of JSON files read in one batch, are observed together, a group of at most about batch_rows rows
+    at a time (observe.bulk, observe.fast.recordgroups).
 
     before, when given, is called with each file just before it is read (progress).
     """
@@ -117,39 +119,75 @@ def read_files(
 
 
 class _Pending:
-    """Parquet batches waiting to be observed together: memory stays bounded by batch_rows rows."""
+    """Batches waiting to be observed together: Parquet batches (observe.bulk) and the walked
+    records of JSON files read in one batch (observe.fast.recordgroups).  A group is observed
+    once it holds about batch_rows rows or batch_bytes bytes: memory stays bounded."""
 
     def __init__(self, opts: ReadOptions) -> None:
         self._limit = opts.batch_rows
         self._byte_limit = opts.batch_bytes
         self._exact = opts.exact
-        self._batches: list[Batch] = []
+        self._batches: list[tuple[int, Batch]] = []
+        self._walked: list[tuple[int, Walked]] = []
         self._rows = 0
         self._bytes = 0
+        self._tickets = 0
         self.done: dict[int, Observation | Exception] = {}  # ticket -> its observation, or what went wrong
 
     def add(self, batch: Batch) -> int:
-        ticket = len(self.done) + len(self._batches)
-        self._batches.append(batch)
-        self._rows += batch.data.num_rows
-        self._bytes += batch.data.nbytes
-        if self._rows >= self._limit or self._bytes >= self._byte_limit:
-            self.flush()
+        ticket = self._ticket()
+        self._batches.append((ticket, batch))
+        self._grow(batch.data.num_rows, batch.data.nbytes)
         return ticket
 
+    def add_walked(self, walked: Walked) -> int:
+        ticket = self._ticket()
+        self._walked.append((ticket, walked))
+        # parsed records and their walk hold many times their text: a group of them ends sooner
+        self._grow(walked.rows, walked.size * _WALKED_WEIGHT)
+        return ticket
+
+    def _ticket(self) -> int:
+        self._tickets += 1
+        return self._tickets - 1
+
+    def _grow(self, rows: int, size: int) -> None:
+        self._rows += rows
+        self._bytes += size
+        if self._rows >= self._limit or self._bytes >= self._byte_limit:
+            self.flush()
+
     def flush(self) -> None:
-        first = len(self.done)
-        try:
-            got: list[Observation | Exception] = list(observe_batches(self._batches, exact=self._exact))
-        except Exception:  # a bug in one batch must not cost the others: observe them one by one
-            got = [_observe_one(b, self._exact) for b in self._batches]
-        self.done.update(enumerate(got, start=first))
-        self._batches, self._rows, self._bytes = [], 0, 0
+        if self._batches:
+            tickets, batches = zip(*self._batches, strict=True)
+            try:
+                got: list[Observation | Exception] = list(observe_batches(batches, exact=self._exact))
+            except Exception:  # a bug in one batch must not cost the others: observe them one by one
+                got = [_observe_one(b, self._exact) for b in batches]
+            self.done.update(zip(tickets, got, strict=True))
+        if self._walked:
+            tickets, walked = zip(*self._walked, strict=True)
+            try:
+                got = list(observe_walked(walked))
+            except Exception:  # as above: each alone, by the reference walk
+                got = [_observe_alone(w) for w in walked]
+            self.done.update(zip(tickets, got, strict=True))
+        self._batches, self._walked, self._rows, self._bytes = [], [], 0, 0
+
+
+_WALKED_WEIGHT = 16  # a walked file counts as 16 times its input bytes against batch_bytes (4 MB of JSON a group)
 
 
 def _observe_one(b: Batch, exact: bool) -> Observation | Exception:
     try:
         return observe_batches([b], exact=exact)[0]
+    except Exception as exc:
+        return exc
+
+
+def _observe_alone(w: Walked) -> Observation | Exception:
+    try:
+        return w.alone()
     except Exception as exc:
         return exc
 
@@ -281,7 +319,7 @@ def _read_one(ref: FileRef, opts: ReadOptions, pending: _Pending) -> _Read:
         if spec.read is None:
             _read_random(ref, spec, opts, pending, read)
         else:
-            _read_stream(ref, spec, opts, read)
+            _read_stream(ref, spec, opts, pending, read)
     except Exception as exc:  # a reader bug must not stop the scan of the other files
         read.fail(exc)
     return read
@@ -318,7 +356,7 @@ def _read_random(ref: FileRef, spec: FormatSpec, opts: ReadOptions, pending: _Pe
             read.parts.append(pending.add(item))
 
 
-def _read_stream(ref: FileRef, spec: FormatSpec, opts: ReadOptions, read: _Read) -> None:
+def _read_stream(ref: FileRef, spec: FormatSpec, opts: ReadOptions, pending: _Pending, read: _Read) -> None:
     assert spec.read is not None
     notes: list[IgnoredTail] = []
     try:
@@ -341,7 +379,10 @@ def _read_stream(ref: FileRef, spec: FormatSpec, opts: ReadOptions, read: _Read)
         blanks: list[int] = []
         rows = 0
         for item in spec.read(tally or text.stream, ref.rel, opts, blanks):
-            if isinstance(item, Dialect):
+            if isinstance(item, Walked):  # a file read in one batch: observed with other small files
+                rows += item.rows
+                read.parts.append(pending.add_walked(item))
+            elif isinstance(item, Dialect):
                 read.dialect = item
             elif isinstance(item, FileIssue):
                 # The readers count bytes of the UTF-8 text they see, which are not the file's

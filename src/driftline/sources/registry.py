@@ -28,6 +28,7 @@ from driftline.sources.parquetfile import has_parquet_magic, read_parquet, read_
 from driftline.sources.peek import Peek, peek_delimited, peek_document, peek_footer, peek_lines
 
 # A stream reader: (decompressed UTF-8 binary stream, relative path, options, blank lines seen) → items
+# (Observations, FileIssues, a Dialect; a JSON file read in one batch: a recordgroups.Walked)
 StreamReader = Callable[[Any, str, ReadOptions, "list[int] | None"], Iterator[Any]]
 # A random-access reader: (path or object-store file, relative path, options) → items
 PathReader = Callable[[Any, str, ReadOptions], Iterator[Any]]
@@ -70,16 +71,18 @@ class FormatSpec:
     json_text: bool = False  # JSON text: Unicode only, never a single-byte fallback (RFC 8259 section 8.1)
     count_lines: bool = False  # line feeds counted apart and reconciled with the rows (linecount.jsonl_issue)
     header_row: bool = False  # a header then rows: no row from a file of many lines is a problem (readers.nothing_read)
-    observed_together: bool = False  # batches of many small files observed at once (observe.bulk, scan groups)
+    # batches of many small files observed at once (observe.bulk; observe.fast.recordgroups for JSON), and
+    # the files read in groups by the scan (scanning/run._groups)
+    observed_together: bool = False
     split: Splitter | None = None  # big files read as spans (split.py)
 
 
 def _jsonl(stream: BinaryIO, rel: str, opts: ReadOptions, blanks: list[int] | None) -> Iterator[Any]:
-    return read_jsonl(stream, rel, opts, blank_read=blanks)
+    return read_jsonl(stream, rel, opts, blank_read=blanks, group=True)
 
 
 def _json(stream: BinaryIO, rel: str, opts: ReadOptions, blanks: list[int] | None) -> Iterator[Any]:
-    return read_json(stream, rel, opts)
+    return read_json(stream, rel, opts, group=True)
 
 
 def _delimited(tsv: bool) -> StreamReader:
@@ -121,6 +124,7 @@ _TABLE = (
         json_text=True,
         count_lines=True,
         split=_JSON_SPLIT,
+        observed_together=True,
     ),
     FormatSpec(
         "json",
@@ -131,6 +135,7 @@ _TABLE = (
         read=_json,
         sniff=lambda text, head: text.startswith(b"["),
         json_text=True,
+        observed_together=True,
     ),
     FormatSpec(
         "csv",
