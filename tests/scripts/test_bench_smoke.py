@@ -197,3 +197,60 @@ def test_startup_rows_and_their_targets(results: dict) -> None:
         ("driftline scan demo -q / pyarrow reading its files <= 1.5", 1.5),
     ]
     assert "| driftline --version |" in results["stdout"]
+
+
+def test_scaling_and_files_scaling_rows_and_their_targets(tmp_path: Path) -> None:
+    # steps are multiples of --scale; each row carries its cost per unit and peak RSS against the
+    # first step's, and the targets are checked at the last step (never asserted: reported)
+    out = tmp_path / "scaling.json"
+    proc = subprocess.run(
+        [
+            sys.executable,
+            str(BENCH),
+            "--scaling",
+            "1,2",
+            "--scale",
+            "0.01",
+            "--files-scaling",
+            "20,40",
+            "--quick",
+            "--jobs",
+            "1",
+            "--data-dir",
+            str(tmp_path / "data"),
+            "--out",
+            str(out),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
+    assert proc.returncode == 0, proc.stderr
+    got = json.loads(out.read_text())
+    scaling = got["scaling"]
+    assert scaling["base_scale"] == 0.01
+    assert [(r["dataset"], r["step"], r["scale"], r["ok"]) for r in scaling["rows"]] == [
+        (d, s, s * 0.01, True) for s in (1.0, 2.0) for d in DATASETS
+    ]
+    firsts = [r for r in scaling["rows"] if r["step"] == 1.0]
+    assert all(r["per_unit_vs_first"] == 1.0 and r["rss_vs_first"] == 1.0 for r in firsts)
+    assert [t["target"] for t in scaling["targets"]][:3] == [
+        "clean-json: wall per unit at 2x / at 1x <= 1.25",
+        "clean-json: CPU per unit at 2x / at 1x <= 1.25",
+        "clean-json: peak RSS at 2x / at 1x <= 1.25",
+    ]
+    files = got["files_scaling"]
+    assert [(r["format"], r["files"], r["ok"]) for r in files["rows"]] == [
+        ("jsonl", 20, True),
+        ("jsonl", 40, True),
+        ("parquet", 20, True),
+        ("parquet", 40, True),
+    ]
+    # the scan read every file, and its discovery is a part of it, timed in the same process
+    assert [r["result"]["files"] for r in files["rows"]] == [20, 40, 20, 40]
+    assert all(0 < r["discovery_seconds"] < r["seconds"] for r in files["rows"])
+    assert [t["target"] for t in files["targets"]][-2:] == [
+        "jsonl: discovery / scan at 40 files < 0.05",
+        "parquet: discovery / scan at 40 files < 0.05",
+    ]
+    assert "| format | files | seconds |" in proc.stdout and "| data set | step | scale | MB |" in proc.stdout
