@@ -199,20 +199,13 @@ def test_startup_rows_and_their_targets(results: dict) -> None:
     assert "| driftline --version |" in results["stdout"]
 
 
-def test_scaling_and_files_scaling_rows_and_their_targets(tmp_path: Path) -> None:
-    # steps are multiples of --scale; each row carries its cost per unit and peak RSS against the
-    # first step's, and the targets are checked at the last step (never asserted: reported)
-    out = tmp_path / "scaling.json"
+def _bench(tmp_path: Path, *args: str) -> tuple[dict, str]:
+    out = tmp_path / "results.json"
     proc = subprocess.run(
         [
             sys.executable,
             str(BENCH),
-            "--scaling",
-            "1,2",
-            "--scale",
-            "0.01",
-            "--files-scaling",
-            "20,40",
+            *args,
             "--quick",
             "--jobs",
             "1",
@@ -223,14 +216,20 @@ def test_scaling_and_files_scaling_rows_and_their_targets(tmp_path: Path) -> Non
         ],
         capture_output=True,
         text=True,
-        timeout=300,
+        timeout=280,
     )
     assert proc.returncode == 0, proc.stderr
-    got = json.loads(out.read_text())
+    return json.loads(out.read_text()), proc.stdout
+
+
+def test_scaling_rows_and_their_targets(tmp_path: Path) -> None:
+    # steps are multiples of --scale; each row carries its cost per MB and peak RSS against the
+    # first step's, and the targets are checked at the last step (reported, never asserted)
+    got, stdout = _bench(tmp_path, "--scaling", "1,2", "--scale", "0.01")
     scaling = got["scaling"]
     assert scaling["base_scale"] == 0.01
     assert [(r["dataset"], r["step"], r["scale"], r["ok"]) for r in scaling["rows"]] == [
-        (d, s, s * 0.01, True) for s in (1.0, 2.0) for d in DATASETS
+        (d, s, s * 0.01, True) for d in DATASETS for s in (1.0, 2.0)
     ]
     firsts = [r for r in scaling["rows"] if r["step"] == 1.0]
     assert all(r["per_unit_vs_first"] == 1.0 and r["rss_vs_first"] == 1.0 for r in firsts)
@@ -239,6 +238,11 @@ def test_scaling_and_files_scaling_rows_and_their_targets(tmp_path: Path) -> Non
         "clean-json: CPU per unit at 2x / at 1x <= 1.25",
         "clean-json: peak RSS at 2x / at 1x <= 1.25",
     ]
+    assert "| data set | step | scale | MB |" in stdout
+
+
+def test_files_scaling_rows_and_the_discovery_share(tmp_path: Path) -> None:
+    got, stdout = _bench(tmp_path, "--files-scaling", "20,40")
     files = got["files_scaling"]
     assert [(r["format"], r["files"], r["ok"]) for r in files["rows"]] == [
         ("jsonl", 20, True),
@@ -253,4 +257,4 @@ def test_scaling_and_files_scaling_rows_and_their_targets(tmp_path: Path) -> Non
         "jsonl: discovery / scan at 40 files < 0.05",
         "parquet: discovery / scan at 40 files < 0.05",
     ]
-    assert "| format | files | seconds |" in proc.stdout and "| data set | step | scale | MB |" in proc.stdout
+    assert "| format | files | seconds |" in stdout
