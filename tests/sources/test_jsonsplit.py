@@ -14,7 +14,8 @@ from driftline.sources import jsonsplit
 def _by_the_rule(data: bytes, rows: int, budget: int) -> list[tuple[int, int, int]]:
     """Batch starts as read_jsonl makes them when every line is a record: a batch ends at its
     rows-th line, or at the line whose bytes with its newline bring it to budget bytes; the
-    rest after the last newline belongs to the last batch (docs/performance.md, byte spans)."""
+    rest after the last newline belongs to the last batch (DEVELOPERS.md, "Adding a format": a batch
+    ends at batch_rows or batch_bytes, whichever comes first)."""
     out = []
     start, lines, size, line, batch = 0, 0, 0, 0, 0
     for k, byte in enumerate(data):
