@@ -247,3 +247,64 @@ def _records(path: Path) -> list[dict]:
     """The records of a file as Python's json module reads them: a JSON array, or one per line."""
     text = path.read_text(encoding="utf-8")
     return [json.loads(x) for x in text.splitlines()] if path.suffix == ".jsonl" else json.loads(text)
+
+
+def _bench(tmp_path: Path, *args: str) -> tuple[dict, str]:
+    out = tmp_path / "results.json"
+    proc = subprocess.run(
+        [
+            sys.executable,
+            str(BENCH),
+            *args,
+            "--quick",
+            "--jobs",
+            "1",
+            "--data-dir",
+            str(tmp_path / "data"),
+            "--out",
+            str(out),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=280,
+    )
+    assert proc.returncode == 0, proc.stderr
+    return json.loads(out.read_text()), proc.stdout
+
+
+def test_scaling_rows_and_their_targets(tmp_path: Path) -> None:
+    # steps are multiples of --scale; each row carries its cost per MB and peak RSS against the
+    # first step's, and the targets are checked at the last step (reported, never asserted)
+    got, stdout = _bench(tmp_path, "--scaling", "1,2", "--scale", "0.01")
+    scaling = got["scaling"]
+    assert scaling["base_scale"] == 0.01
+    assert [(r["dataset"], r["step"], r["scale"], r["ok"]) for r in scaling["rows"]] == [
+        (d, s, s * 0.01, True) for d in DATASETS for s in (1.0, 2.0)
+    ]
+    firsts = [r for r in scaling["rows"] if r["step"] == 1.0]
+    assert all(r["per_unit_vs_first"] == 1.0 and r["rss_vs_first"] == 1.0 for r in firsts)
+    assert [t["target"] for t in scaling["targets"]][:3] == [
+        "clean-json: wall per unit at 2x / at 1x <= 1.25",
+        "clean-json: CPU per unit at 2x / at 1x <= 1.25",
+        "clean-json: peak RSS at 2x / at 1x <= 1.25",
+    ]
+    assert "| data set | step | scale | MB |" in stdout
+
+
+def test_files_scaling_rows_and_the_discovery_share(tmp_path: Path) -> None:
+    got, stdout = _bench(tmp_path, "--files-scaling", "20,40")
+    files = got["files_scaling"]
+    assert [(r["format"], r["files"], r["ok"]) for r in files["rows"]] == [
+        ("jsonl", 20, True),
+        ("jsonl", 40, True),
+        ("parquet", 20, True),
+        ("parquet", 40, True),
+    ]
+    # the scan read every file, and its discovery is a part of it, timed in the same process
+    assert [r["result"]["files"] for r in files["rows"]] == [20, 40, 20, 40]
+    assert all(0 < r["discovery_seconds"] < r["seconds"] for r in files["rows"])
+    assert [t["target"] for t in files["targets"]][-2:] == [
+        "jsonl: discovery / scan at 40 files < 0.05",
+        "parquet: discovery / scan at 40 files < 0.05",
+    ]
+    assert "| format | files | seconds |" in stdout

@@ -80,15 +80,39 @@ def carries_marker(path: str | os.PathLike[str]) -> bool:
     Reads the first HEAD_BYTES bytes; an Arrow IPC schema message is read whole (it is
     where its metadata sits), up to 64 MiB.
     """
+    return read_head(path)[0]
+
+
+def read_head(path: str | os.PathLike[str]) -> tuple[bool, bytes]:
+    """(carries_marker(path), the file's first HEAD_BYTES bytes) from one open: discovery asks both
+    of every file, and on a folder of many small files the opens are most of its cost (hence the
+    bare descriptor, without a buffered file object).  (False, b'') when the file cannot be read."""
     try:
-        with open(path, "rb") as fh:
-            head = fh.read(HEAD_BYTES)
-            if head.startswith(_IPC_CONTINUATION) and len(head) >= 8:
-                length = int.from_bytes(head[4:8], "little", signed=True)
-                if not 0 < length <= _MAX_IPC_MESSAGE:
-                    return False
-                message = head[8:] + fh.read(max(0, length - len(head) + 8))
-                return ARROW_KEY in message[:length]
+        fd = os.open(path, os.O_RDONLY)
     except OSError:
-        return False
-    return carries_marker_bytes(head)
+        return False, b""
+    try:
+        head = _read_upto(fd, HEAD_BYTES)
+        if head.startswith(_IPC_CONTINUATION) and len(head) >= 8:
+            length = int.from_bytes(head[4:8], "little", signed=True)
+            if not 0 < length <= _MAX_IPC_MESSAGE:
+                return False, head
+            message = head[8:] + _read_upto(fd, max(0, length - len(head) + 8))
+            return ARROW_KEY in message[:length], head
+    except OSError:
+        return False, b""
+    finally:
+        os.close(fd)
+    return carries_marker_bytes(head), head
+
+
+def _read_upto(fd: int, n: int) -> bytes:
+    """n bytes from fd, fewer only at the end of the file."""
+    parts = []
+    while n > 0:
+        got = os.read(fd, n)
+        if not got:
+            break
+        parts.append(got)
+        n -= len(got)
+    return b"".join(parts)

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 
 from driftline.core.fileref import FileRef
 from driftline.core.files import Skipped
-from driftline.core.marker import OWN_OUTPUT, carries_marker
+from driftline.core.marker import OWN_OUTPUT, read_head
 from driftline.errors import InputPathError
 from driftline.sources.formats import detect_compression
 from driftline.sources.registry import detect_format, skip_reason
@@ -117,7 +117,8 @@ def _walk(top: str, bounds: Sequence[str] | None = None) -> Iterable[tuple[str, 
             yield folder, None, f"cannot list: {exc.strerror}"
             continue
         for entry in entries:
-            if outside_root(entry.path, bounds):
+            # is_symlink answers from the listing (no system call): only links are judged
+            if bounds is not None and entry.is_symlink() and outside_root(entry.path, bounds):
                 yield entry.path, None, "link-outside-root"
                 continue
             try:
@@ -168,6 +169,7 @@ def discover(
     args = [os.fspath(p) for p in paths]
     bounds = None if follow_links else _bounds([os.path.abspath(a) for a in args], args)
     root = _common_root(absolute)
+    below = root.rstrip(os.sep) + os.sep
     files: dict[str, FileRef] = {}
     skipped: list[Skipped] = []
     for top in absolute:
@@ -175,7 +177,11 @@ def discover(
         if outside_root(top, bounds):  # a glob's match that links out of the folder it searched
             entries = [(top, None, "link-outside-root")]
         for path, st, problem in entries:
-            rel = _display(os.path.relpath(path, root).replace(os.sep, "/"))
+            # paths below the root are normalised (abspath, then names joined): cutting the root's
+            # prefix is what relpath answers, without its per-call normalising of both
+            rel = _display(
+                (path[len(below) :] if path.startswith(below) else os.path.relpath(path, root)).replace(os.sep, "/")
+            )
             if rel == ".":
                 rel = _display(os.path.basename(path))
             if problem is not None:
@@ -185,7 +191,8 @@ def discover(
             if verdict is not None:
                 skipped.append(Skipped(rel, verdict))
                 continue
-            if carries_marker(path):  # driftline's own output is never data
+            marked, head = read_head(path)  # one open for the marker and the compression's magic
+            if marked:  # driftline's own output is never data
                 skipped.append(Skipped(rel, OWN_OUTPUT))
                 continue
             sniff = sniff_unknown or path in named
@@ -204,7 +211,7 @@ def discover(
                 rel=rel,
                 partitions=partition_values(rel),
                 format=fmt,
-                compression=detect_compression(path),
+                compression=detect_compression(path, head),
                 size=st.st_size,
                 mtime_ns=st.st_mtime_ns,
             )

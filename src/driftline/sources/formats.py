@@ -40,12 +40,14 @@ def _suffixes(path: str) -> list[str]:
     return ["." + s for s in name.split(".")[1:]]
 
 
-def detect_compression(path: str) -> Compression | None:
-    """Compression from the last suffix, else from the file's magic number."""
+def detect_compression(path: str, head: bytes | None = None) -> Compression | None:
+    """Compression from the last suffix, else from the file's magic number (in head, the file's
+    first bytes when the caller has them already, or read here)."""
     sfx = _suffixes(path)
     if sfx and sfx[-1] in COMPRESSION_BY_SUFFIX:
         return COMPRESSION_BY_SUFFIX[sfx[-1]]
-    head = head_bytes(path, 8)
+    if head is None:
+        head = head_bytes(path, 8)
     for magic, name in _MAGIC:
         if head.startswith(magic):
             return name

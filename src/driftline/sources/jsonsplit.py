@@ -89,39 +89,41 @@ def plan(ref: FileRef, opts: ReadOptions, parts: int) -> list[Span]:
 
 
 def _batch_starts(fh: Any, rows: int, budget: int) -> Iterator[tuple[int, int, int]]:
-    """(byte offset, line, batch) of each batch start after the first, if every line were a record."""
-    buf = b""
-    base = 0  # file offset of buf[0]
+    """(byte offset, line, batch) of each batch start after the first, if every line were a record.
+
+    A batch ends at its rows-th line, or at the line whose bytes (with its newline) reach the
+    budget: the first newline at or past start + budget - 1.  Only newlines are looked for, one
+    chunk of _SCAN_CHUNK bytes at a time, so memory holds one chunk whatever the budget (a
+    buffer of a whole budget, grown by copies, took the planning process to three times the
+    default budget of 64 MiB).
+    """
+    off = 0  # file offset of chunk[0]
     at, line, batch = 0, 0, 0  # the current batch's start
-    eof = False
-    while True:
-        p = at - base
-        while not eof and len(buf) - p < budget + 1:
-            chunk = fh.read(max(_SCAN_CHUNK, budget + 1))
-            if not chunk:
-                eof = True
-                break
-            buf, base, p = buf[p:] + chunk, at, 0
-        under = buf.count(b"\n", p, p + budget - 1)  # lines that end before the budget is reached
-        if under >= rows:
-            end = p
-            for _ in range(rows):
-                end = buf.find(b"\n", end) + 1
-            n = rows
-        else:
-            nl = buf.find(b"\n", p + budget - 1)
-            while nl < 0 and not eof:  # the line that reaches the budget goes on past the buffer
-                chunk = fh.read(_SCAN_CHUNK)
-                if not chunk:
-                    eof = True
+    seen = 0  # newlines since `at` that end before the budget is reached
+    while chunk := fh.read(_SCAN_CHUNK):
+        i = 0  # where the current batch's search goes on in this chunk
+        while True:
+            limit = at + budget - 1 - off  # a newline here or past it ends the line that reaches the budget
+            if i < limit:  # lines that end before the budget
+                stop = min(len(chunk), limit)
+                found = chunk.count(b"\n", i, stop)
+                if seen + found < rows:
+                    seen, i = seen + found, stop
+                    if stop == len(chunk):
+                        break  # on in the next chunk
+                    continue
+                end = i
+                for _ in range(rows - seen):
+                    end = chunk.find(b"\n", end) + 1
+                n = rows
+            else:  # the line that reaches the budget: it ends at the first newline from here
+                nl = chunk.find(b"\n", i)
+                if nl < 0:
                     break
-                buf = buf + chunk
-                nl = buf.find(b"\n", p + budget - 1)
-            if nl < 0:
-                return  # the rest of the file is the last batch
-            end, n = nl + 1, under + 1
-        at, line, batch = base + end, line + n, batch + 1
-        yield at, line, batch
+                end, n = nl + 1, seen + 1
+            at, line, batch, seen, i = off + end, line + n, batch + 1, 0, end
+            yield at, line, batch
+        off += len(chunk)
 
 
 class _Slice(io.RawIOBase):
