@@ -16,6 +16,7 @@ from driftline.core import jsonnum
 from driftline.core.files import FileIssue
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
+from driftline.core.stagetime import staged
 from driftline.core.words import count
 from driftline.observe.fast.jsonbatch import observe_json_lines
 from driftline.observe.fast.strprofile import EXACT_ENV, exact_requested  # noqa: F401 - EXACT_ENV re-exported
@@ -174,6 +175,7 @@ class _Lines:
         self.lineno = 0  # lines consumed so far
         self.eof = False
 
+    @staged("read")
     def _fill(self) -> None:
         chunk = self.stream.read(_CHUNK)
         if not chunk:

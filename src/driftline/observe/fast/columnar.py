@@ -14,6 +14,7 @@ import pyarrow.compute as pc
 from driftline.core import paths
 from driftline.core.lattice import from_arrow, unsupported_reason
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
+from driftline.core.stagetime import staged
 from driftline.core.stats import (
     NULL_SAMPLE,
     SAMPLES_PER_KEY,
@@ -51,6 +52,7 @@ class _Ctx:
         return Example(self.file, self.row_start + row, line, value_text(value))
 
 
+@staged("columnar")
 def observe_table(
     table: pa.Table | pa.RecordBatch,
     *,
@@ -87,6 +89,7 @@ def observe_table(
     )
 
 
+@staged("columnar")
 def observe_column(arr: pa.Array, name: str, *, file: str, row_start: int) -> dict[str, FieldStats] | str:
     """The statistics one top-level column of a (non-text) batch gives: its path and those below it;
     or, for a column of a type driftline cannot observe, why (see unsupported_reason)."""

@@ -38,6 +38,7 @@ from driftline.core import paths
 from driftline.core.jsonnum import loads as json_loads
 from driftline.core.observation import Observation
 from driftline.core.shapetally import ShapeTally
+from driftline.core.stagetime import staged
 from driftline.core.stats import SAMPLES_PER_KEY, FieldStats, Measured
 from driftline.observe import linetext
 from driftline.observe.fast.strprofile import string_profile
@@ -94,6 +95,7 @@ class _Batch:
 _HEAD = 256
 
 
+@staged("columnar")
 def observe_json_lines(
     lines: Sequence[bytes],
     *,
@@ -121,12 +123,9 @@ def observe_json_lines(
     n = len(lines)
     if n == 0 or keys_vary(lines):
         return None
-    # One join with an empty last piece, not join + b"\n": a second copy of the batch costs
-    # a fresh allocation (page faults) each time.
-    data = b"\n".join([*lines, b""])
-    if len(data) >= 2**31:
+    data, arr = _buffers(lines)
+    if arr is None:
         return None  # Arrow's binary offsets are 32-bit
-    arr = pa.array(lines, pa.binary())
     walk_only = linetext.odd_rows(lines, arr, data)
     if walk_only is None:
         return None
@@ -149,6 +148,24 @@ def observe_json_lines(
     return obs, Hint(got[1], tuple(aside))
 
 
+@staged("read")
+def _buffers(lines: Sequence[bytes]) -> tuple[bytes, pa.BinaryArray | None]:
+    """The batch's lines joined (each ending in a newline) and as an Arrow array (None past 2 GiB)."""
+    # One join with an empty last piece, not join + b"\n": a second copy of the batch costs
+    # a fresh allocation (page faults) each time.
+    data = b"\n".join([*lines, b""])
+    if len(data) >= 2**31:
+        return data, None
+    return data, pa.array(lines, pa.binary())
+
+
+@staged("walk")
+def _loads(lines: Sequence[bytes], rows: Sequence[int]) -> list[Any]:
+    """The records of some lines, parsed one by one for the exact walk (orjson's errors pass)."""
+    return [json_loads(lines[r]) for r in rows]
+
+
+@staged("exactness")
 def _shapes(lines: Sequence[bytes], fields: dict[str, FieldStats], pieces: list[Piece]) -> ShapeTally | None:
     """The batch's shape tally, as the exact walk makes it (None: a line orjson refuses, left to
     the walk): from Arrow's tables and the lines no table holds, parsed again; when the
@@ -175,6 +192,7 @@ _SPARSE_CELLS = 50_000_000  # rows × columns past which Arrow's parse of mostly
 _SPARSE_COLUMNS = 256
 
 
+@staged("exactness")
 def keys_vary(lines: Sequence[bytes]) -> bool:
     """Whether the records seem to hold many more distinct paths than one record holds (records
     keyed by ids, say), so many that Arrow's parse, which builds every column over every row,
@@ -318,7 +336,7 @@ def _observe_part(
     if walked:
         at = sorted(walked)
         try:
-            records = [json_loads(text.lines[r]) for r in at]
+            records = _loads(text.lines, at)
         except orjson.JSONDecodeError:
             return None
         groups.append(_walk(records, at, text.where))
@@ -334,6 +352,7 @@ def _without_fields(schema: pa.Schema | None, names: set[str]) -> pa.Schema | No
 _MAX_DEPTH = 2  # rows set aside, and rows set aside among those, are typed by Arrow; deeper ones walked
 
 
+@staged("exactness")
 def _kept(text: _Text, rows: list[int] | None, out: set[int]) -> tuple[list[int] | None, bytes]:
     """The rows (of rows, or of the batch) not in out, and their lines joined; None: the whole batch."""
     if rows is None and not out:
@@ -368,6 +387,7 @@ def _walk(records: list[Any], rows: list[int], where: Where, samples_only: bool 
     ).fields
 
 
+@staged("columnar")
 def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[str, FieldStats] | None:
     """One parsed table (rows keep of the batch, or all): columnar counts, the walk for the rest."""
     b = _Batch(text.arr, len(text.arr), table.schema)
@@ -381,7 +401,7 @@ def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[
         return None
     rows = _needed_rows(b)
     try:
-        records = [json_loads(text.lines[r]) for r in rows]
+        records = _loads(text.lines, rows)
     except orjson.JSONDecodeError:
         return None  # Arrow took a line orjson refuses
     # The columns gave the string statistics: the walk over these rows is for examples, counts
@@ -389,6 +409,7 @@ def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[
     return _combine(b.partials, _walk(records, rows, text.where, samples_only=True), pa.array(rows, pa.int64()))
 
 
+@staged("merge")
 def _merge_groups(groups: list[dict[str, FieldStats]]) -> dict[str, FieldStats] | None:
     """Merge the parts of one batch (disjoint rows); examples keep their order within a row."""
     if len(groups) == 1:
@@ -552,6 +573,7 @@ def _strings(arr: pa.Array, rows: pa.Array | None, b: _Batch) -> Measured:
     }
 
 
+@staged("merge")
 def _combine(
     partials: dict[str, _Partial], walked: dict[str, FieldStats], seen: pa.Array
 ) -> dict[str, FieldStats] | None:

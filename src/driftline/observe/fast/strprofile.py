@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from driftline.core.stagetime import staged
 from driftline.observe.fast.numbers import number_masks
 from driftline.observe.fast.valuebytes import value_bytes
 from driftline.observe.textclass import (
@@ -56,6 +57,7 @@ class StringProfile:
     lowercase_rfc3339: int
 
 
+@staged("classify")
 def string_profile(arr: pa.Array, keep_first: int = 3, encoded: pa.DictionaryArray | None = None) -> StringProfile:
     """Classify a string array (nulls skipped), as textclass.classify would.
 
