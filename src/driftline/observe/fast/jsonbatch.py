@@ -41,7 +41,7 @@ from driftline.core.shapetally import ShapeTally
 from driftline.core.stagetime import staged
 from driftline.core.stats import SAMPLES_PER_KEY, FieldStats, Measured
 from driftline.observe import linetext
-from driftline.observe.fast.strprofile import string_profile
+from driftline.observe.fast.strprofile import string_profiles
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.records import SAFE_INT, is_int_key, observe_records
 from driftline.observe.shapes import Piece, has_candidates, table_tally, tally_records
@@ -75,6 +75,7 @@ class _Batch:
         self.unique_names = linetext.unique_names(schema) if schema is not None else set()
         self.n = n
         self.rows_needed: list[pa.Array] = []  # batch rows the exact walk must see
+        self.strings: list[tuple[pa.Array, pa.Array | None, _Partial]] = []  # classified together, at the end
         self.partials: dict[str, _Partial] = {}
 
     def need(self, rows: pa.Array | None, positions: pa.Array) -> None:
@@ -397,6 +398,7 @@ def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[
             # fails in pyarrow 26.0.1 ("array slice would exceed array length").
             whole = col.chunk(0) if col.num_chunks == 1 else col.combine_chunks()
             _visit(whole, paths.child(None, name), keep, name, b, False)
+        _strings(b)
     except (NotExact, pa.ArrowException):
         return None
     rows = _needed_rows(b)
@@ -493,7 +495,7 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
         _doubles(arr, rows, part, b, name, listed)
     elif pa.types.is_string(t):
         part.types = {"string": part.nonnull}
-        part.extra = _strings(arr, rows, b)
+        b.strings.append((arr, rows, part))
     elif pa.types.is_struct(t):
         part.types = {"struct": part.nonnull}
         sub_rows = rows
@@ -558,19 +560,21 @@ def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, na
         part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py()}
 
 
-def _strings(arr: pa.Array, rows: pa.Array | None, b: _Batch) -> Measured:
-    """Class counts and string statistics, as textclass.classify gives them over arr."""
-    prof = string_profile(arr, SAMPLES_PER_KEY)
-    for positions in prof.first.values():
-        b.need(rows, pa.array(positions, pa.int64()))
-    return {
-        "classes": prof.counts,
-        "max_length": prof.max_length,
-        "int_digits": prof.int_digits,
-        "frac_digits": prof.frac_digits,
-        "leap_seconds": prof.leap_seconds,
-        "lowercase_rfc3339": prof.lowercase_rfc3339,
-    }
+def _strings(b: _Batch) -> None:
+    """Class counts and string statistics of the batch's string paths, as textclass.classify gives
+    them over each (string_profiles: on a few threads when they pay)."""
+    profiles = string_profiles([(arr, None) for arr, _, _ in b.strings], SAMPLES_PER_KEY)
+    for (_, rows, part), prof in zip(b.strings, profiles, strict=True):
+        for positions in prof.first.values():
+            b.need(rows, pa.array(positions, pa.int64()))
+        part.extra = {
+            "classes": prof.counts,
+            "max_length": prof.max_length,
+            "int_digits": prof.int_digits,
+            "frac_digits": prof.frac_digits,
+            "leap_seconds": prof.leap_seconds,
+            "lowercase_rfc3339": prof.lowercase_rfc3339,
+        }
 
 
 @staged("merge")

@@ -9,8 +9,11 @@ digits, leap seconds and lowercase RFC 3339 counts over the rows.
 
 from __future__ import annotations
 
+import multiprocessing
 import os
 import re
+from collections.abc import Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import pyarrow as pa
@@ -35,6 +38,44 @@ EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) for the reference paths every
 def exact_requested() -> bool:
     """Whether the environment asks for the reference (exact, slower) paths."""
     return bool(os.environ.get(EXACT_ENV))
+
+
+THREADS_ENV = "DRIFTLINE_STRING_THREADS"  # threads classifying a batch's string columns; 1: one at a time
+THREADS_MIN_VALUES = 20_000  # fewer values in all: a thread's hand-over costs more than it saves
+_pool: ThreadPoolExecutor | None = None
+_pool_size = 0
+
+
+def string_threads() -> int:
+    """Threads for a batch's string columns: THREADS_ENV when set, else two in a scan's own process
+    (pyarrow.compute releases the GIL) and one in a pool's worker, whose siblings hold the other cores."""
+    got = os.environ.get(THREADS_ENV)
+    if got:
+        return max(1, int(got)) if got.isdigit() else 1
+    if multiprocessing.parent_process() is not None:
+        return 1
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        cores = os.cpu_count() or 1
+    return max(1, min(2, cores))
+
+
+def string_profiles(
+    columns: Sequence[tuple[pa.Array, pa.DictionaryArray | None]], keep_first: int = 3
+) -> list[StringProfile]:
+    """string_profile of each (array, encoded) pair: the same profiles, on a few threads when the
+    columns are several and large enough to pay for them."""
+    threads = min(string_threads(), len(columns))
+    if threads < 2 or sum(len(a) for a, _ in columns) < THREADS_MIN_VALUES:
+        return [string_profile(a, keep_first, e) for a, e in columns]
+    global _pool, _pool_size
+    if _pool is None or _pool_size != threads:
+        _pool, _pool_size = ThreadPoolExecutor(threads, thread_name_prefix="driftline-strings"), threads
+    # Longest columns first, so the last one to start is a short one.
+    order = sorted(range(len(columns)), key=lambda i: -columns[i][0].nbytes)
+    futures = {i: _pool.submit(string_profile, columns[i][0], keep_first, columns[i][1]) for i in order}
+    return [futures[i].result() for i in range(len(columns))]
 
 
 DICTIONARY_MIN = 1024  # shorter columns are classified value by value
@@ -162,10 +203,7 @@ def _profile_few(enc: pa.DictionaryArray, keep_first: int) -> StringProfile:
     """A column of few distinct values: each value's verdict is looked up (class_masks decides
     the ones not seen before), then the rows are counted per class."""
     distinct = enc.dictionary.to_pylist()
-    unseen = [v for v in distinct if v not in _SEEN]
-    if unseen:
-        _learn(unseen)
-    verdicts = [_SEEN[v] for v in distinct]
+    verdicts = _known(distinct)
     # Every value of a dictionary occurs in the rows it was made from: the maxima need no counts.
     int_digits = max((v[3] for v in verdicts), default=0)
     frac_digits = max((v[4] for v in verdicts), default=0)
@@ -191,10 +229,22 @@ def _flagged_rows(indices: pa.Array, flags: list[bool]) -> int:
     return int(pc.sum(pc.take(pa.array([int(f) for f in flags], pa.int64()), indices)).as_py() or 0)
 
 
-def _learn(values: list[str]) -> None:
-    """Record class_masks's verdict on each value, with what classify counts for it."""
+def _known(values: list[str]) -> list[tuple[int, bool, bool, int, int]]:
+    """Each value's verdict: from the table, or learnt now.  Each value is looked up once, so a
+    thread clearing the table in between (string_profiles) costs nothing but a verdict learnt again."""
+    got = [_SEEN.get(v) for v in values]
+    unseen = [v for v, g in zip(values, got, strict=True) if g is None]
+    if not unseen:
+        return got  # type: ignore[return-value]
+    learnt = _learn(unseen)
+    return [learnt[v] if g is None else g for v, g in zip(values, got, strict=True)]
+
+
+def _learn(values: list[str]) -> dict[str, tuple[int, bool, bool, int, int]]:
+    """class_masks's verdict on each value, with what classify counts for it; recorded in the table."""
     if len(_SEEN) + len(values) > _SEEN_MAX:
         _SEEN.clear()
+    learnt: dict[str, tuple[int, bool, bool, int, int]] = {}
     masks = class_masks(pa.array(values, pa.string()))
     kind = [0] * len(values)
     for k, cls in enumerate(CLASSES):
@@ -208,13 +258,15 @@ def _learn(values: list[str]) -> None:
             body = v[1:] if v.startswith("-") else v
             head, dot, tail = body.partition(".")
             d_int, d_frac = len(head), (len(tail) if dot else 0)
-        _SEEN[v] = (
+        learnt[v] = (
             k,
             stamp and v[_SECONDS_AT : _SECONDS_AT + 2] == "60",
             cls == "timestamp_rfc3339" and ("t" in v or "z" in v),
             d_int,
             d_frac,
         )
+    _SEEN.update(learnt)
+    return learnt
 
 
 def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
@@ -284,11 +336,7 @@ def verdicts(values: pa.Array) -> Verdicts:
     (['integer', 'text', 'decimal', 'timestamp_rfc3339'], [False, False, False, True], [0, 0, 2, 0])
     """
     if len(values) <= FEW:  # few values: the process-wide table answers most of them
-        py = values.to_pylist()
-        unseen = [v for v in py if v not in _SEEN]
-        if unseen:
-            _learn(unseen)
-        got = [_SEEN[v] for v in py]
+        got = _known(values.to_pylist())
         return Verdicts(*(pa.array([g[i] for g in got], t) for i, t in enumerate(_VERDICT_TYPES)))
     masks = class_masks(values)
     kind = pc.case_when(
