@@ -231,3 +231,47 @@ def test_stress_strings_in_files(tmp_path: Path) -> None:
         if name == "s.csv":  # an empty cell and a missing value are one thing in CSV (RFC 4180 has no null)
             want["empty"] += sum(v is None or v == "" for v in cols["s1"])
         assert counts == {c: k for c, k in want.items() if k}
+
+
+def _stamps(rng: random.Random, shape: str, distinct: int) -> list[str]:
+    """distinct timestamps of one shape, some on days that do not exist, some with second 60, some
+    with a long fraction, RFC 3339 ones sometimes in lowercase."""
+    out = []
+    for i in range(distinct):
+        day = f"{2020 + i % 5}-{1 + i % 12:02d}-{1 + i % 31:02d}"  # 2023-02-29, 2021-04-31: no such days
+        clock = f"{i % 24:02d}:{i // 24 % 60:02d}:{60 if i % 97 == 0 else i % 60:02d}"  # RFC 3339 5.7: 60 a leap second
+        if i % 13 == 0:
+            clock += ".123456789"  # RFC 3339 section 5.6: time-secfrac is 1*DIGIT
+        if shape == "timestamp_rfc3339":
+            v = f"{day}T{clock}Z"
+            out.append(v.lower() if i % 11 == 0 else v)  # RFC 3339 section 5.6: t and z may be lowercase
+        elif shape == "timestamp_offset":
+            out.append(f"{day} {clock}+0100")
+        else:
+            out.append(f"{day} {clock}")
+    return out
+
+
+@pytest.mark.parametrize("shape", ["timestamp_rfc3339", "timestamp_offset", "timestamp_local"])
+@pytest.mark.parametrize("distinct", [300, 2_000, 9_000])
+@pytest.mark.parametrize("mixed", [False, True])
+def test_repeated_timestamps_equal_classify(shape: str, distinct: int, mixed: bool) -> None:
+    """Timestamp columns whose values repeat are classified on their dictionary (string_profile);
+    the profile equals textclass.classify's over every row, mixed with text or not."""
+    rng = random.Random(distinct)
+    pool = _stamps(rng, shape, distinct)
+    values: list[str | None] = [pool[0]] + [None if rng.random() < 0.02 else rng.choice(pool) for _ in range(9_999)]
+    if mixed:
+        values[5_000] = "not a time"
+    col = pa.array(values, pa.string())
+    prof = strprofile.string_profile(col, 3)
+    scan = textclass.classify(col)
+    assert prof.counts == scan.counts
+    assert {k: v[0] for k, v in prof.first.items()} == scan.first_index
+    assert (prof.leap_seconds, prof.lowercase_rfc3339) == (scan.leap_seconds, scan.lowercase_rfc3339)
+    assert prof.max_length == max(len(v) for v in values if v is not None)
+    # source: Gregorian calendar: 2023-02-29 does not exist, so some rows are text whatever the shape
+    assert scan.counts.get("text", 0) > 0 and scan.counts.get(shape, 0) > 0
+    if shape == "timestamp_rfc3339":
+        assert scan.lowercase_rfc3339 > 0
+    assert scan.leap_seconds > 0

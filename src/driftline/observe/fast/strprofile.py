@@ -112,19 +112,18 @@ def string_profile(arr: pa.Array, keep_first: int = 3, encoded: pa.DictionaryArr
     """
     values, index = arr, None
     raw = value_bytes(arr)  # for byte-level checks: one copy of the values' bytes, not a pass per value
-    masks = _timestamp_masks(arr)
+    # Timestamps of one shape: their pattern over every value, unless they repeat (a clock of a few
+    # readings a day), when the dictionary's values are enough (below); a dictionary page always is.
+    stamp_like = _stamp_like(arr)
+    head_repeats = _head_repeats(arr) if stamp_like and encoded is None else None
+    stamps_tried = stamp_like and encoded is None and not head_repeats
+    masks = _timestamp_masks(arr) if stamps_tried else None
     # Digits alone (ids, counts) are cheaper to check whole than to hash, however often they repeat.
-    numbers = number_masks(arr, raw) if masks is None and raw.isdigit() else None
+    numbers = number_masks(arr, raw) if not stamp_like and raw.isdigit() else None
     if numbers is not None:
         masks = numbers.masks
-    # Hashing costs about as much as classifying when nearly every value is distinct
-    # (ids, amounts), and little otherwise: the head of the column decides.
-    head_repeats = (
-        masks is None
-        and encoded is None
-        and len(arr) > DICTIONARY_MIN
-        and (len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
-    )
+    if masks is None and encoded is None and head_repeats is None:
+        head_repeats = _head_repeats(arr)
     if masks is None and (encoded is not None or head_repeats or len(arr) <= DICTIONARY_MIN):
         enc = encoded if encoded is not None else pc.dictionary_encode(arr)
         if 0 < len(enc.dictionary) <= FEW:
@@ -132,6 +131,8 @@ def string_profile(arr: pa.Array, keep_first: int = 3, encoded: pa.DictionaryArr
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
             raw = value_bytes(values)
+    if masks is None and not (stamps_tried and index is None):
+        masks = _timestamp_masks(values)
     if masks is None:
         numbers = number_masks(values, raw)
         masks = numbers.masks if numbers is not None else class_masks(values)
@@ -295,6 +296,21 @@ def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
     masks[name] = ok
     masks["text"] = pc.and_(pc.is_valid(values), pc.invert(ok))
     return masks
+
+
+def _head_repeats(arr: pa.Array) -> bool:
+    """Whether the column's values repeat enough to classify its dictionary instead: hashing
+    costs about as much as classifying when nearly every value is distinct (ids, amounts), and
+    little otherwise; the head of the column decides."""
+    return len(arr) > DICTIONARY_MIN and len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr))
+
+
+def _stamp_like(values: pa.Array) -> bool:
+    """Whether the first value that is not null has a timestamp shape (the others may not)."""
+    if not len(values) or values.null_count == len(values):
+        return False
+    first = values[_first_valid(values)].as_py()
+    return any(_STAMP_PY[n].fullmatch(first) for n in _STAMP_SHAPES)
 
 
 def _first_valid(arr: pa.Array) -> int:
