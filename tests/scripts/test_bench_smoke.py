@@ -226,7 +226,7 @@ def test_profile_stages(tmp_path: Path) -> None:
     assert proc.returncode == 0, proc.stderr
     got = json.loads(out.read_text())["profile"]
     assert [g["dataset"] for g in got] == ["clean-json", "drift-json", "csv"]
-    stages = ["parse", "read", "classify", "exactness", "walk", "columnar", "merge", "other", "outside"]
+    stages = ["parse", "read", "dialect", "classify", "exactness", "walk", "columnar", "merge", "other", "outside"]
     for g in got:
         assert g["driftline"]["ok"] and g["pyarrow"]["ok"], g
         assert [s["stage"] for s in g["stages"]] == stages

@@ -23,7 +23,7 @@ from pathlib import Path
 from typing import Any, TypeVar
 
 ENV = "DRIFTLINE_STAGE_TIMES"  # a folder: on when set (read once, at import)
-STAGES = ("read", "parse", "classify", "exactness", "walk", "columnar", "merge")
+STAGES = ("read", "dialect", "parse", "classify", "exactness", "walk", "columnar", "merge")
 
 _FOLDER = os.environ.get(ENV) or None
 _lock = threading.Lock()
@@ -62,23 +62,13 @@ def staged(stage: str) -> Callable[[F], F]:
                     stack[-1] += spent
                 with _lock:
                     _totals[stage] = _totals.get(stage, 0.0) + spent - inner
+                    if not stack and threading.current_thread() is not threading.main_thread():
+                        # a helper thread's (string_profiles' pool, a callback on Arrow's reader thread)
+                        _totals["threads"] = _totals.get("threads", 0.0) + spent
 
         return timed  # type: ignore[return-value]
 
     return wrap
-
-
-def thread_work(fn: Callable[[], Any], stage: str) -> Any:
-    """Run fn on a helper thread (a pool's), its CPU time counted to stage as other threads' work."""
-    if _FOLDER is None:
-        return fn()
-    start = time.thread_time()
-    try:
-        return fn()
-    finally:
-        with _lock:
-            _totals[stage] = _totals.get(stage, 0.0) + time.thread_time() - start
-            _totals["threads"] = _totals.get("threads", 0.0) + time.thread_time() - start
 
 
 def _stack() -> list[float]:
