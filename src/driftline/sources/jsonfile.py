@@ -195,6 +195,7 @@ class _Lines:
         self.items.extend(parts)
         self.held += sum(map(len, parts)) + len(parts)
 
+    @staged("read")
     def peek(self, k: int, room: int = 2**62) -> _Window | _TooLong | None:
         """The next lines: at most k, through the first one whose bytes (with its newline)
         bring the window's total to room."""
@@ -234,6 +235,7 @@ class _Lines:
         """Whether w holds every line left in the stream."""
         return self.eof and not self.tail and self.k + len(w) == len(self.items)
 
+    @staged("read")
     def advance(self, m: int) -> None:
         gone = self.items[self.k : self.k + m]
         size = sum(map(len, gone)) + m
