@@ -275,3 +275,19 @@ def test_repeated_timestamps_equal_classify(shape: str, distinct: int, mixed: bo
     if shape == "timestamp_rfc3339":
         assert scan.lowercase_rfc3339 > 0
     assert scan.leap_seconds > 0
+
+
+def test_threads_forced_in_pool_workers(bench_data: dict[str, Path], monkeypatch: pytest.MonkeyPatch) -> None:
+    """Threads forced on in a pool's workers, forked after this process made its own pool of
+    threads (a child makes its own: the parent's threads are not in it): the serial report."""
+    files = [bench_data["clean"], bench_data["drift"], bench_data["csv"]]
+    serial = _report(files, "serial", 700)
+    assert _report(files, "threads", 700) == serial  # this process's pool of threads now exists
+    monkeypatch.setenv(strprofile.THREADS_ENV, "3")
+    monkeypatch.setattr(strprofile, "THREADS_MIN_VALUES", 0)
+    monkeypatch.setattr(jsonfile, "FAST_MIN_ROWS", 1)
+    monkeypatch.setenv("DRIFTLINE_TEST_ALWAYS_POOL", "1")  # workers.TEST_POOL_ENV: a pool for small work
+    profile = scan_paths([str(p) for p in files], jobs=2, read=ReadOptions(batch_rows=700))
+    data = to_dict(profile)
+    data.pop("duration_s")
+    assert jsonnum.dumps(data, option=orjson.OPT_SORT_KEYS) == serial

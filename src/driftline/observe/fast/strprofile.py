@@ -43,7 +43,7 @@ def exact_requested() -> bool:
 THREADS_ENV = "DRIFTLINE_STRING_THREADS"  # threads classifying a batch's string columns; 1: one at a time
 THREADS_MIN_VALUES = 20_000  # fewer values in all: a thread's hand-over costs more than it saves
 _pool: ThreadPoolExecutor | None = None
-_pool_size = 0
+_pool_key = (0, 0)  # (process, threads) the pool was made for: a forked child makes its own
 
 
 def string_threads() -> int:
@@ -69,9 +69,9 @@ def string_profiles(
     threads = min(string_threads(), len(columns))
     if threads < 2 or sum(len(a) for a, _ in columns) < THREADS_MIN_VALUES:
         return [string_profile(a, keep_first, e) for a, e in columns]
-    global _pool, _pool_size
-    if _pool is None or _pool_size != threads:
-        _pool, _pool_size = ThreadPoolExecutor(threads, thread_name_prefix="driftline-strings"), threads
+    global _pool, _pool_key
+    if _pool is None or _pool_key != (os.getpid(), threads):
+        _pool, _pool_key = ThreadPoolExecutor(threads, thread_name_prefix="driftline-strings"), (os.getpid(), threads)
     # Longest columns first, so the last one to start is a short one.
     order = sorted(range(len(columns)), key=lambda i: -columns[i][0].nbytes)
     futures = {i: _pool.submit(string_profile, columns[i][0], keep_first, columns[i][1]) for i in order}
