@@ -30,6 +30,7 @@ from driftline.core import jsonnum
 from driftline.core.options import ReadOptions
 from driftline.observe import textclass
 from driftline.observe.fast import strprofile
+from driftline.observe.fast.columnar import observe_table
 from driftline.results.report import to_dict
 from driftline.scanning.run import scan_paths
 
@@ -291,3 +292,20 @@ def test_threads_forced_in_pool_workers(bench_data: dict[str, Path], monkeypatch
     data = to_dict(profile)
     data.pop("duration_s")
     assert jsonnum.dumps(data, option=orjson.OPT_SORT_KEYS) == serial
+
+
+def test_columns_of_one_name(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Two string columns of one name (Arrow allows it) are observed as one column at a time does."""
+    rng = random.Random(9)
+    a = pa.array(_column(rng, 3_000, len(STRESS)), pa.string())
+    b = pa.array(_column(rng, 3_000, 600), pa.string())
+    c = pa.array(_column(rng, 3_000, 3), pa.string())
+    table = pa.Table.from_arrays([a, b, c], names=["x", "x", "y"])
+    got = {}
+    for threads in ("1", "3"):
+        monkeypatch.setenv(strprofile.THREADS_ENV, threads)
+        monkeypatch.setattr(strprofile, "THREADS_MIN_VALUES", 0)
+        got[threads] = observe_table(table, file="t.parquet", batch=0, row_start=0)
+    assert got["1"] == got["3"]
+    # the last column of a name is the one kept, as a dict keeps the last value of a key
+    assert got["3"].fields["x"].classes == textclass.classify(b).counts

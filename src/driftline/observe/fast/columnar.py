@@ -5,6 +5,7 @@ Everything here is a pyarrow.compute call over whole arrays; no per-value Python
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Sequence
 from typing import Any
 
@@ -103,14 +104,20 @@ def _string_columns(names: Sequence[str], arrays: Sequence[pa.Array], ctx: _Ctx)
     on a few threads when they pay); _string_stats takes each from here as string_profile would give it."""
     if ctx.exact:
         return {}
+    twice = {name for name, n in Counter(names).items() if n > 1}  # one path for two columns: each alone
     picked = [
         (paths.child(None, name), arr)
         for name, arr in zip(names, arrays, strict=True)
-        if (pa.types.is_string(arr.type) or pa.types.is_large_string(arr.type)) and arr.null_count < len(arr)
+        if (pa.types.is_string(arr.type) or pa.types.is_large_string(arr.type))
+        and arr.null_count < len(arr)
+        and name not in twice
     ]
     if len(picked) < 2:
         return {}
-    got = string_profiles([(arr, None) for _, arr in picked], SAMPLES_PER_KEY)
+    try:
+        got = string_profiles([(arr, None) for _, arr in picked], SAMPLES_PER_KEY)
+    except pa.ArrowException:
+        return {}  # each column alone then, where _observe_or_why reports the one that fails
     return {path: prof for (path, _), prof in zip(picked, got, strict=True)}
 
 
