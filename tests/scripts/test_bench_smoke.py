@@ -6,6 +6,7 @@ No timing is asserted here: the targets are reported by the benchmark, never tes
 from __future__ import annotations
 
 import json
+import os
 import subprocess
 import sys
 from pathlib import Path
@@ -308,3 +309,42 @@ def test_files_scaling_rows_and_the_discovery_share(tmp_path: Path) -> None:
         "parquet: discovery / scan at 40 files < 0.05",
     ]
     assert "| format | files | seconds |" in stdout
+
+
+def test_profile_stages(tmp_path: Path) -> None:
+    # --profile: per JSON and CSV data set, each stage's CPU seconds beside pyarrow's read, in a pool too
+    out = tmp_path / "profile.json"
+    proc = subprocess.run(
+        [
+            sys.executable,
+            str(BENCH),
+            "--profile",
+            "--quick",
+            "--scale",
+            "0.01",
+            "--jobs",
+            "2",
+            "--data-dir",
+            str(tmp_path / "data"),
+            "--out",
+            str(out),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=300,
+        env={**os.environ, "DRIFTLINE_TEST_ALWAYS_POOL": "1"},
+    )
+    assert proc.returncode == 0, proc.stderr
+    got = json.loads(out.read_text())["profile"]
+    assert [g["dataset"] for g in got] == ["clean-json", "drift-json", "csv"]
+    stages = ["parse", "read", "dialect", "classify", "exactness", "walk", "columnar", "merge", "other", "outside"]
+    for g in got:
+        assert g["driftline"]["ok"] and g["pyarrow"]["ok"], g
+        assert [s["stage"] for s in g["stages"]] == stages
+        assert all(s["cpu_seconds"] >= 0 for s in g["stages"])
+        cpu = {s["stage"]: s["cpu_seconds"] for s in g["stages"]}
+        # the stages account for the whole scan's CPU time (outside: what no stage holds)
+        assert sum(cpu.values()) == pytest.approx(max(g["driftline"]["cpu_seconds"], sum(cpu.values())), abs=0.01)
+        assert cpu["parse"] > 0 and cpu["classify"] > 0  # every set has strings, every scan parses
+    assert "| classify strings (content classes) |" in proc.stdout
+    assert "| pyarrow reading the clean file (the floor) |" in proc.stdout

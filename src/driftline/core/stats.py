@@ -19,6 +19,7 @@ from operator import add, attrgetter, call
 from typing import Any, Generic, Literal, NamedTuple, TypedDict, TypeVar
 
 from driftline.core import jsonnum
+from driftline.core.stagetime import staged
 
 SAMPLES_PER_KEY = 3  # earliest examples kept per type / class / null key
 
@@ -442,6 +443,7 @@ def merge_fields(a: Mapping[str, FieldStats], b: Mapping[str, FieldStats]) -> di
     return dict(sorted(out.items()))
 
 
+@staged("merge")
 def merge_all(maps: Iterable[Mapping[str, FieldStats]]) -> dict[str, FieldStats]:
     """Merge path → FieldStats maps in order: the same as folding merge_fields over them,
     in one pass per path instead of a new dictionary per map.

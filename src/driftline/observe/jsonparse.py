@@ -13,7 +13,10 @@ import re
 import pyarrow as pa
 import pyarrow.json as pj
 
+from driftline.core.stagetime import staged
 
+
+@staged("parse")
 def parse_lines(data: bytes, hint: pa.Schema | None) -> tuple[pa.Table | None, str]:
     """Arrow's parse of newline-terminated JSON objects, with timestamps kept as strings.
 

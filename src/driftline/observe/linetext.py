@@ -17,9 +17,12 @@ import orjson
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from driftline.core.stagetime import staged
+
 MAX_BRACKETS_PER_LINE = 512  # far below orjson's 1,024 levels: deeper lines take the exact walk
 
 
+@staged("exactness")
 def matching(data: bytes, pattern: tuple[str, str], limit: int) -> set[int] | None:
     """Rows of a batch (its lines joined, each ending in a newline) whose line gives the key
     the kind, or None when more than limit rows do.
@@ -56,6 +59,7 @@ _CONFLICT = re.compile(r"Column\((/[^)]*)\) changed from (\w+) to (\w+)")
 _KIND_START = {"string": '"', "array": r"\[", "object": r"\{", "number": "[-0-9]", "boolean": "[tf]", "null": "n"}
 
 
+@staged("exactness")
 def conflict_rows(
     arr: pa.BinaryArray,
     why: str,
@@ -92,6 +96,7 @@ def conflict_rows(
     return set((at if rows is None else rows.take(at)).to_pylist()), pattern
 
 
+@staged("exactness")
 def odd_rows(lines: Sequence[bytes], arr: pa.BinaryArray, data: bytes) -> set[int] | None:
     """Rows to walk exactly because they are not a plain '{...}' line; None if one is not a record.
 
@@ -124,6 +129,7 @@ def odd_rows(lines: Sequence[bytes], arr: pa.BinaryArray, data: bytes) -> set[in
     return odd
 
 
+@staged("exactness")
 def absent_for_sure(lines: pa.BinaryArray, rows: pa.Array, name: str) -> pa.Array:
     """Mask over rows: their line holds neither '"name"' nor a backslash, so name is absent."""
     cand = lines.take(rows)
@@ -134,6 +140,7 @@ def absent_for_sure(lines: pa.BinaryArray, rows: pa.Array, name: str) -> pa.Arra
     return pc.invert(seen)
 
 
+@staged("exactness")
 def settle(
     lines: pa.BinaryArray,
     unique: set[str],

@@ -15,6 +15,7 @@ import pyarrow as pa
 
 from driftline.core import paths
 from driftline.core.observation import Observation
+from driftline.core.stagetime import staged
 from driftline.core.stats import (
     NULL_SAMPLE,
     SAMPLES_PER_KEY,
@@ -194,6 +195,7 @@ def _walk(v: Any, path: str, row: int, accs: dict[str, _Acc], depth: int, other:
         acc.count("string", row, str(v))
 
 
+@staged("walk")
 def observe_records(
     records: Sequence[Any],
     *,

@@ -89,6 +89,8 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from driftline.core.stagetime import staged
+
 __all__ = [
     "CLASSES",
     "NULL_TOKENS",
@@ -516,6 +518,7 @@ def _beyond_float64_mask(arr: pa.Array, floats: pa.BooleanArray) -> pa.BooleanAr
     return pc.replace_with_mask(at, at, lost)
 
 
+@staged("classify")
 def class_masks(arr: pa.Array | pa.ChunkedArray) -> dict[str, pa.BooleanArray]:
     """One boolean mask per class over ``arr``; disjoint, covering all non-nulls."""
     if isinstance(arr, pa.ChunkedArray):
@@ -527,6 +530,7 @@ def _first_true(mask: pa.BooleanArray) -> int:
     return pc.index(mask, True).as_py()
 
 
+@staged("classify")
 def classify(arr: pa.Array | pa.ChunkedArray) -> ClassScan:
     """Count the content classes of a string column; nulls are skipped.
 

@@ -20,6 +20,7 @@ from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
+from driftline.core import stagetime
 from driftline.core.fileref import FileRef
 from driftline.core.options import DEFAULT_TASK_TIMEOUT
 from driftline.errors import WorkerError
@@ -208,6 +209,7 @@ def _run_chunk(fn: Callable[[Any, Any], Any], names: Names, items: list[Any], op
     for item in items:
         inject_test_fault(names(item))
         out.append(fn(item, opts))
+    stagetime.flush()  # scripts/bench --profile: this worker's stage totals so far (nothing when off)
     return out
 
 

@@ -20,6 +20,7 @@ import pyarrow.csv as pcsv
 from driftline.core.files import FileIssue
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
+from driftline.core.stagetime import staged
 from driftline.core.textfile import Dialect
 from driftline.core.words import count
 from driftline.observe.fast.columnar import observe_table
@@ -132,6 +133,7 @@ class LineGuard(io.RawIOBase):
                     self.bad_utf8.append((line, offset + len(text[: m.start()].encode("utf-8", "surrogateescape"))))
         return _BAD_BYTES.sub(lambda m: "\ufffd" * len(m.group()), text).encode("utf-8")
 
+    @staged("read")
     def readinto(self, buf: memoryview) -> int:  # type: ignore[override]
         while not self._out and not self._eof:
             chunk = self._chunk()
@@ -446,7 +448,7 @@ def _read_rows(
     batches = Rebatch(opts.batch_rows, opts.batch_bytes)
     while True:
         try:
-            rb = reader.read_next_batch()
+            rb = _next_batch(reader)
         except StopIteration:
             break
         except (pa.ArrowInvalid, OSError, EOFError) as exc:
@@ -465,6 +467,11 @@ def _read_rows(
     # Every line is a row, a set-aside row or a blank line, unless the reading stopped early.
     yield from places.unplaced() if stopped or guard.cut is not None else places.finish(state.rows)
     yield from _ending(rel, opts, guard)
+
+
+@staged("parse")
+def _next_batch(reader: pcsv.CSVStreamingReader) -> pa.RecordBatch:
+    return reader.read_next_batch()
 
 
 def _no_rows(header: Header) -> pa.RecordBatch:

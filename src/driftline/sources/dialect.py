@@ -33,6 +33,7 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from driftline.core.dialectpin import Pin, parse_pin, pin_for
+from driftline.core.stagetime import staged
 from driftline.core.textfile import Dialect
 
 __all__ = ["Dialect", "Finding", "Pin", "find_dialect", "header_votes", "parse_pin", "pin_for", "positional_name"]
@@ -313,6 +314,7 @@ def header_votes(first: Sequence[str], rows: Sequence[Sequence[str]]) -> tuple[i
 # -- the finder ------------------------------------------------------------------------------
 
 
+@staged("dialect")
 def find_dialect(sample: bytes, *, at_end: bool, tsv: bool = False, pin: Pin | None = None) -> Finding:
     """The dialect of a delimited text sample (the file's first bytes, without a byte order mark).
 

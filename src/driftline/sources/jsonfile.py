@@ -16,6 +16,7 @@ from driftline.core import jsonnum
 from driftline.core.files import FileIssue
 from driftline.core.observation import Observation
 from driftline.core.options import ReadOptions
+from driftline.core.stagetime import staged
 from driftline.core.words import count
 from driftline.observe.fast.jsonbatch import observe_json_lines
 from driftline.observe.fast.recordgroups import Walked, groups_enabled, walk
@@ -198,6 +199,7 @@ class _Lines:
         self.lineno = 0  # lines consumed so far
         self.eof = False
 
+    @staged("read")
     def _fill(self) -> None:
         chunk = self.stream.read(_CHUNK)
         if not chunk:
@@ -217,6 +219,7 @@ class _Lines:
         self.items.extend(parts)
         self.held += sum(map(len, parts)) + len(parts)
 
+    @staged("read")
     def peek(self, k: int, room: int = 2**62) -> _Window | _TooLong | None:
         """The next lines: at most k, through the first one whose bytes (with its newline)
         bring the window's total to room."""
@@ -256,6 +259,7 @@ class _Lines:
         """Whether w holds every line left in the stream."""
         return self.eof and not self.tail and self.k + len(w) == len(self.items)
 
+    @staged("read")
     def advance(self, m: int) -> None:
         gone = self.items[self.k : self.k + m]
         size = sum(map(len, gone)) + m

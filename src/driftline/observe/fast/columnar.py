@@ -5,6 +5,7 @@ Everything here is a pyarrow.compute call over whole arrays; no per-value Python
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Sequence
 from typing import Any
 
@@ -14,6 +15,7 @@ import pyarrow.compute as pc
 from driftline.core import paths
 from driftline.core.lattice import from_arrow, unsupported_reason
 from driftline.core.observation import TEXT_CLASS_TYPE, Observation
+from driftline.core.stagetime import staged
 from driftline.core.stats import (
     NULL_SAMPLE,
     SAMPLES_PER_KEY,
@@ -25,7 +27,13 @@ from driftline.core.stats import (
     merge_all,
     type_sample,
 )
-from driftline.observe.fast.strprofile import encoded_rows, exact_requested, string_profile
+from driftline.observe.fast.strprofile import (
+    StringProfile,
+    encoded_rows,
+    exact_requested,
+    string_profile,
+    string_profiles,
+)
 from driftline.observe.records import SAFE_INT, pa_indices, value_text
 from driftline.observe.textclass import class_masks, classify
 
@@ -34,7 +42,7 @@ _LOSSY_CLASSES = ("text", "null_token", "empty", "zero_padded", "float_out_of_ra
 
 
 class _Ctx:
-    __slots__ = ("file", "row_start", "lines", "text_source", "out", "exact")
+    __slots__ = ("file", "row_start", "lines", "text_source", "out", "exact", "profiles")
 
     def __init__(
         self, file: str, row_start: int, lines: Sequence[int] | None, text_source: bool, exact: bool = False
@@ -45,12 +53,14 @@ class _Ctx:
         self.lines = lines
         self.text_source = text_source
         self.out: dict[str, FieldStats] = {}
+        self.profiles: dict[str, StringProfile] = {}  # top-level string columns, classified together first
 
     def example(self, row: int, value: Any) -> Example:
         line = self.lines[row] if self.lines is not None else None
         return Example(self.file, self.row_start + row, line, value_text(value))
 
 
+@staged("columnar")
 def observe_table(
     table: pa.Table | pa.RecordBatch,
     *,
@@ -72,8 +82,9 @@ def observe_table(
     """
     ctx = _Ctx(file, row_start, lines, text_source, exact_requested() if exact is None else exact)
     unobserved: dict[str, str] = {}
-    for name, col in zip(table.column_names, table.columns, strict=True):
-        arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
+    arrays = [col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col for col in table.columns]
+    ctx.profiles = _string_columns(table.column_names, arrays, ctx)
+    for name, arr in zip(table.column_names, arrays, strict=True):
         reason = _observe_or_why(arr, name, ctx)
         if reason is not None:
             unobserved[name] = reason
@@ -85,6 +96,29 @@ def observe_table(
         fields=dict(sorted(ctx.out.items())),
         unobserved=tuple(sorted(unobserved.items())),
     )
+
+
+@staged("columnar")
+def _string_columns(names: Sequence[str], arrays: Sequence[pa.Array], ctx: _Ctx) -> dict[str, StringProfile]:
+    """The profiles of a batch's plain string columns, by path, classified together (string_profiles:
+    on a few threads when they pay); _string_stats takes each from here as string_profile would give it."""
+    if ctx.exact:
+        return {}
+    twice = {name for name, n in Counter(names).items() if n > 1}  # one path for two columns: each alone
+    picked = [
+        (paths.child(None, name), arr)
+        for name, arr in zip(names, arrays, strict=True)
+        if (pa.types.is_string(arr.type) or pa.types.is_large_string(arr.type))
+        and arr.null_count < len(arr)
+        and name not in twice
+    ]
+    if len(picked) < 2:
+        return {}
+    try:
+        got = string_profiles([(arr, None) for _, arr in picked], SAMPLES_PER_KEY)
+    except pa.ArrowException:
+        return {}  # each column alone then, where _observe_or_why reports the one that fails
+    return {path: prof for (path, _), prof in zip(picked, got, strict=True)}
 
 
 def observe_column(arr: pa.Array, name: str, *, file: str, row_start: int) -> dict[str, FieldStats] | str:
@@ -215,7 +249,7 @@ def _observe(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None
         else:
             _empty_items(path, ctx)
     elif pa.types.is_string(t) or pa.types.is_large_string(t):
-        extra.update(_string_stats(arr, rows, ctx, samples, encoded_rows(shown)))
+        extra.update(_string_stats(arr, rows, ctx, samples, encoded_rows(shown), path))
     elif pa.types.is_binary(t) or pa.types.is_large_binary(t) or pa.types.is_fixed_size_binary(t):
         if nonnull:
             fixed = pa.types.is_fixed_size_binary(t)
@@ -375,13 +409,21 @@ def _number_stats(arr: pa.Array, t: pa.DataType) -> Measured:
 
 
 def _string_stats(
-    arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, samples: Samples, encoded: pa.DictionaryArray | None = None
+    arr: pa.Array,
+    rows: pa.Array | None,
+    ctx: _Ctx,
+    samples: Samples,
+    encoded: pa.DictionaryArray | None = None,
+    path: str | None = None,
 ) -> Measured:
     if arr.null_count == len(arr):
         return {}
     if ctx.exact:
         return _string_stats_reference(arr, rows, ctx, samples)
-    prof = string_profile(arr, SAMPLES_PER_KEY, encoded)
+    # A top-level plain string column was classified with its batch's others (arr is that column then).
+    prof = ctx.profiles.pop(path, None) if path is not None and encoded is None else None
+    if prof is None:
+        prof = string_profile(arr, SAMPLES_PER_KEY, encoded)
     # Three examples per class once any lossy class repeats, else the first of each (as before).
     many = any(prof.counts.get(c, 0) > 1 for c in _LOSSY_CLASSES)
     for cls, firsts in prof.first.items():
@@ -448,7 +490,7 @@ def _big_integers(arr: pa.Array, rows: pa.Array | None, ctx: _Ctx, types: dict[s
 def _observe_text(arr: pa.Array, path: str, rows: pa.Array | None, ctx: _Ctx) -> None:
     """A text column: types are inferred from content classes; empty and null tokens are null."""
     samples: Samples = {}
-    stats = _string_stats(arr, rows, ctx, samples)
+    stats = _string_stats(arr, rows, ctx, samples, None, path)
     classes: dict[str, int] = stats.get("classes", {})
     types: dict[str, int] = {}
     nulls = arr.null_count

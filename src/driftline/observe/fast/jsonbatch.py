@@ -38,9 +38,10 @@ from driftline.core import paths
 from driftline.core.jsonnum import loads as json_loads
 from driftline.core.observation import Observation
 from driftline.core.shapetally import ShapeTally
+from driftline.core.stagetime import staged
 from driftline.core.stats import SAMPLES_PER_KEY, FieldStats, Measured
 from driftline.observe import linetext
-from driftline.observe.fast.strprofile import string_profile
+from driftline.observe.fast.strprofile import string_profiles
 from driftline.observe.jsonparse import conflict_field, parse_lines
 from driftline.observe.records import SAFE_INT, is_int_key, observe_records
 from driftline.observe.shapes import Piece, has_candidates, table_tally, tally_records
@@ -74,6 +75,7 @@ class _Batch:
         self.unique_names = linetext.unique_names(schema) if schema is not None else set()
         self.n = n
         self.rows_needed: list[pa.Array] = []  # batch rows the exact walk must see
+        self.strings: list[tuple[pa.Array, pa.Array | None, _Partial]] = []  # classified together, at the end
         self.partials: dict[str, _Partial] = {}
 
     def need(self, rows: pa.Array | None, positions: pa.Array) -> None:
@@ -94,6 +96,7 @@ class _Batch:
 _HEAD = 256
 
 
+@staged("columnar")
 def observe_json_lines(
     lines: Sequence[bytes],
     *,
@@ -121,12 +124,9 @@ def observe_json_lines(
     n = len(lines)
     if n == 0 or keys_vary(lines):
         return None
-    # One join with an empty last piece, not join + b"\n": a second copy of the batch costs
-    # a fresh allocation (page faults) each time.
-    data = b"\n".join([*lines, b""])
-    if len(data) >= 2**31:
+    data, arr = _buffers(lines)
+    if arr is None:
         return None  # Arrow's binary offsets are 32-bit
-    arr = pa.array(lines, pa.binary())
     walk_only = linetext.odd_rows(lines, arr, data)
     if walk_only is None:
         return None
@@ -149,6 +149,24 @@ def observe_json_lines(
     return obs, Hint(got[1], tuple(aside))
 
 
+@staged("read")
+def _buffers(lines: Sequence[bytes]) -> tuple[bytes, pa.BinaryArray | None]:
+    """The batch's lines joined (each ending in a newline) and as an Arrow array (None past 2 GiB)."""
+    # One join with an empty last piece, not join + b"\n": a second copy of the batch costs
+    # a fresh allocation (page faults) each time.
+    data = b"\n".join([*lines, b""])
+    if len(data) >= 2**31:
+        return data, None
+    return data, pa.array(lines, pa.binary())
+
+
+@staged("walk")
+def _loads(lines: Sequence[bytes], rows: Sequence[int]) -> list[Any]:
+    """The records of some lines, parsed one by one for the exact walk (orjson's errors pass)."""
+    return [json_loads(lines[r]) for r in rows]
+
+
+@staged("exactness")
 def _shapes(lines: Sequence[bytes], fields: dict[str, FieldStats], pieces: list[Piece]) -> ShapeTally | None:
     """The batch's shape tally, as the exact walk makes it (None: a line orjson refuses, left to
     the walk): from Arrow's tables and the lines no table holds, parsed again; when the
@@ -175,6 +193,7 @@ _SPARSE_CELLS = 50_000_000  # rows × columns past which Arrow's parse of mostly
 _SPARSE_COLUMNS = 256
 
 
+@staged("exactness")
 def keys_vary(lines: Sequence[bytes]) -> bool:
     """Whether the records seem to hold many more distinct paths than one record holds (records
     keyed by ids, say), so many that Arrow's parse, which builds every column over every row,
@@ -318,7 +337,7 @@ def _observe_part(
     if walked:
         at = sorted(walked)
         try:
-            records = [json_loads(text.lines[r]) for r in at]
+            records = _loads(text.lines, at)
         except orjson.JSONDecodeError:
             return None
         groups.append(_walk(records, at, text.where))
@@ -334,6 +353,7 @@ def _without_fields(schema: pa.Schema | None, names: set[str]) -> pa.Schema | No
 _MAX_DEPTH = 2  # rows set aside, and rows set aside among those, are typed by Arrow; deeper ones walked
 
 
+@staged("exactness")
 def _kept(text: _Text, rows: list[int] | None, out: set[int]) -> tuple[list[int] | None, bytes]:
     """The rows (of rows, or of the batch) not in out, and their lines joined; None: the whole batch."""
     if rows is None and not out:
@@ -368,6 +388,7 @@ def _walk(records: list[Any], rows: list[int], where: Where, samples_only: bool 
     ).fields
 
 
+@staged("columnar")
 def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[str, FieldStats] | None:
     """One parsed table (rows keep of the batch, or all): columnar counts, the walk for the rest."""
     b = _Batch(text.arr, len(text.arr), table.schema)
@@ -377,11 +398,12 @@ def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[
             # fails in pyarrow 26.0.1 ("array slice would exceed array length").
             whole = col.chunk(0) if col.num_chunks == 1 else col.combine_chunks()
             _visit(whole, paths.child(None, name), keep, name, b, False)
+        _strings(b)
     except (NotExact, pa.ArrowException):
         return None
     rows = _needed_rows(b)
     try:
-        records = [json_loads(text.lines[r]) for r in rows]
+        records = _loads(text.lines, rows)
     except orjson.JSONDecodeError:
         return None  # Arrow took a line orjson refuses
     # The columns gave the string statistics: the walk over these rows is for examples, counts
@@ -389,6 +411,7 @@ def _observe_table(table: pa.Table, text: _Text, keep: pa.Array | None) -> dict[
     return _combine(b.partials, _walk(records, rows, text.where, samples_only=True), pa.array(rows, pa.int64()))
 
 
+@staged("merge")
 def _merge_groups(groups: list[dict[str, FieldStats]]) -> dict[str, FieldStats] | None:
     """Merge the parts of one batch (disjoint rows); examples keep their order within a row."""
     if len(groups) == 1:
@@ -472,7 +495,7 @@ def _visit(arr: pa.Array, path: str, rows: pa.Array | None, name: str | None, b:
         _doubles(arr, rows, part, b, name, listed)
     elif pa.types.is_string(t):
         part.types = {"string": part.nonnull}
-        part.extra = _strings(arr, rows, b)
+        b.strings.append((arr, rows, part))
     elif pa.types.is_struct(t):
         part.types = {"struct": part.nonnull}
         sub_rows = rows
@@ -537,21 +560,24 @@ def _doubles(arr: pa.Array, rows: pa.Array | None, part: _Partial, b: _Batch, na
         part.extra = {"minimum": mm["min"].as_py(), "maximum": mm["max"].as_py()}
 
 
-def _strings(arr: pa.Array, rows: pa.Array | None, b: _Batch) -> Measured:
-    """Class counts and string statistics, as textclass.classify gives them over arr."""
-    prof = string_profile(arr, SAMPLES_PER_KEY)
-    for positions in prof.first.values():
-        b.need(rows, pa.array(positions, pa.int64()))
-    return {
-        "classes": prof.counts,
-        "max_length": prof.max_length,
-        "int_digits": prof.int_digits,
-        "frac_digits": prof.frac_digits,
-        "leap_seconds": prof.leap_seconds,
-        "lowercase_rfc3339": prof.lowercase_rfc3339,
-    }
+def _strings(b: _Batch) -> None:
+    """Class counts and string statistics of the batch's string paths, as textclass.classify gives
+    them over each (string_profiles: on a few threads when they pay)."""
+    profiles = string_profiles([(arr, None) for arr, _, _ in b.strings], SAMPLES_PER_KEY)
+    for (_, rows, part), prof in zip(b.strings, profiles, strict=True):
+        for positions in prof.first.values():
+            b.need(rows, pa.array(positions, pa.int64()))
+        part.extra = {
+            "classes": prof.counts,
+            "max_length": prof.max_length,
+            "int_digits": prof.int_digits,
+            "frac_digits": prof.frac_digits,
+            "leap_seconds": prof.leap_seconds,
+            "lowercase_rfc3339": prof.lowercase_rfc3339,
+        }
 
 
+@staged("merge")
 def _combine(
     partials: dict[str, _Partial], walked: dict[str, FieldStats], seen: pa.Array
 ) -> dict[str, FieldStats] | None:

@@ -9,13 +9,17 @@ digits, leap seconds and lowercase RFC 3339 counts over the rows.
 
 from __future__ import annotations
 
+import multiprocessing
 import os
 import re
+from collections.abc import Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from driftline.core.stagetime import staged
 from driftline.observe.fast.numbers import number_masks
 from driftline.observe.fast.valuebytes import value_bytes
 from driftline.observe.textclass import (
@@ -34,6 +38,44 @@ EXACT_ENV = "DRIFTLINE_EXACT"  # set (to anything) for the reference paths every
 def exact_requested() -> bool:
     """Whether the environment asks for the reference (exact, slower) paths."""
     return bool(os.environ.get(EXACT_ENV))
+
+
+THREADS_ENV = "DRIFTLINE_STRING_THREADS"  # threads classifying a batch's string columns; 1: one at a time
+THREADS_MIN_VALUES = 20_000  # fewer values in all: a thread's hand-over costs more than it saves
+_pool: ThreadPoolExecutor | None = None
+_pool_key = (0, 0)  # (process, threads) the pool was made for: a forked child makes its own
+
+
+def string_threads() -> int:
+    """Threads for a batch's string columns: THREADS_ENV when set, else two in a scan's own process
+    (pyarrow.compute releases the GIL) and one in a pool's worker, whose siblings hold the other cores."""
+    got = os.environ.get(THREADS_ENV)
+    if got:
+        return max(1, int(got)) if got.isdigit() else 1
+    if multiprocessing.parent_process() is not None:
+        return 1
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        cores = os.cpu_count() or 1
+    return max(1, min(2, cores))
+
+
+def string_profiles(
+    columns: Sequence[tuple[pa.Array, pa.DictionaryArray | None]], keep_first: int = 3
+) -> list[StringProfile]:
+    """string_profile of each (array, encoded) pair: the same profiles, on a few threads when the
+    columns are several and large enough to pay for them."""
+    threads = min(string_threads(), len(columns))
+    if threads < 2 or sum(len(a) for a, _ in columns) < THREADS_MIN_VALUES:
+        return [string_profile(a, keep_first, e) for a, e in columns]
+    global _pool, _pool_key
+    if _pool is None or _pool_key != (os.getpid(), threads):
+        _pool, _pool_key = ThreadPoolExecutor(threads, thread_name_prefix="driftline-strings"), (os.getpid(), threads)
+    # Longest columns first, so the last one to start is a short one.
+    order = sorted(range(len(columns)), key=lambda i: -columns[i][0].nbytes)
+    futures = {i: _pool.submit(string_profile, columns[i][0], keep_first, columns[i][1]) for i in order}
+    return [futures[i].result() for i in range(len(columns))]
 
 
 DICTIONARY_MIN = 1024  # shorter columns are classified value by value
@@ -56,6 +98,7 @@ class StringProfile:
     lowercase_rfc3339: int
 
 
+@staged("classify")
 def string_profile(arr: pa.Array, keep_first: int = 3, encoded: pa.DictionaryArray | None = None) -> StringProfile:
     """Classify a string array (nulls skipped), as textclass.classify would.
 
@@ -69,19 +112,18 @@ def string_profile(arr: pa.Array, keep_first: int = 3, encoded: pa.DictionaryArr
     """
     values, index = arr, None
     raw = value_bytes(arr)  # for byte-level checks: one copy of the values' bytes, not a pass per value
-    masks = _timestamp_masks(arr)
+    # Timestamps of one shape: their pattern over every value, unless they repeat (a clock of a few
+    # readings a day), when the dictionary's values are enough (below); a dictionary page always is.
+    stamp_like = _stamp_like(arr)
+    head_repeats = _head_repeats(arr) if stamp_like and encoded is None else None
+    stamps_tried = stamp_like and encoded is None and not head_repeats
+    masks = _timestamp_masks(arr) if stamps_tried else None
     # Digits alone (ids, counts) are cheaper to check whole than to hash, however often they repeat.
-    numbers = number_masks(arr, raw) if masks is None and raw.isdigit() else None
+    numbers = number_masks(arr, raw) if not stamp_like and raw.isdigit() else None
     if numbers is not None:
         masks = numbers.masks
-    # Hashing costs about as much as classifying when nearly every value is distinct
-    # (ids, amounts), and little otherwise: the head of the column decides.
-    head_repeats = (
-        masks is None
-        and encoded is None
-        and len(arr) > DICTIONARY_MIN
-        and (len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr)))
-    )
+    if masks is None and encoded is None and head_repeats is None:
+        head_repeats = _head_repeats(arr)
     if masks is None and (encoded is not None or head_repeats or len(arr) <= DICTIONARY_MIN):
         enc = encoded if encoded is not None else pc.dictionary_encode(arr)
         if 0 < len(enc.dictionary) <= FEW:
@@ -89,6 +131,8 @@ def string_profile(arr: pa.Array, keep_first: int = 3, encoded: pa.DictionaryArr
         if len(enc.dictionary) * DICTIONARY_SHARE <= len(arr):
             values, index = enc.dictionary, enc.indices
             raw = value_bytes(values)
+    if masks is None and not (stamps_tried and index is None):
+        masks = _timestamp_masks(values)
     if masks is None:
         numbers = number_masks(values, raw)
         masks = numbers.masks if numbers is not None else class_masks(values)
@@ -160,10 +204,7 @@ def _profile_few(enc: pa.DictionaryArray, keep_first: int) -> StringProfile:
     """A column of few distinct values: each value's verdict is looked up (class_masks decides
     the ones not seen before), then the rows are counted per class."""
     distinct = enc.dictionary.to_pylist()
-    unseen = [v for v in distinct if v not in _SEEN]
-    if unseen:
-        _learn(unseen)
-    verdicts = [_SEEN[v] for v in distinct]
+    verdicts = _known(distinct)
     # Every value of a dictionary occurs in the rows it was made from: the maxima need no counts.
     int_digits = max((v[3] for v in verdicts), default=0)
     frac_digits = max((v[4] for v in verdicts), default=0)
@@ -189,10 +230,22 @@ def _flagged_rows(indices: pa.Array, flags: list[bool]) -> int:
     return int(pc.sum(pc.take(pa.array([int(f) for f in flags], pa.int64()), indices)).as_py() or 0)
 
 
-def _learn(values: list[str]) -> None:
-    """Record class_masks's verdict on each value, with what classify counts for it."""
+def _known(values: list[str]) -> list[tuple[int, bool, bool, int, int]]:
+    """Each value's verdict: from the table, or learnt now.  Each value is looked up once, so a
+    thread clearing the table in between (string_profiles) costs nothing but a verdict learnt again."""
+    got = [_SEEN.get(v) for v in values]
+    unseen = [v for v, g in zip(values, got, strict=True) if g is None]
+    if not unseen:
+        return got  # type: ignore[return-value]
+    learnt = _learn(unseen)
+    return [learnt[v] if g is None else g for v, g in zip(values, got, strict=True)]
+
+
+def _learn(values: list[str]) -> dict[str, tuple[int, bool, bool, int, int]]:
+    """class_masks's verdict on each value, with what classify counts for it; recorded in the table."""
     if len(_SEEN) + len(values) > _SEEN_MAX:
         _SEEN.clear()
+    learnt: dict[str, tuple[int, bool, bool, int, int]] = {}
     masks = class_masks(pa.array(values, pa.string()))
     kind = [0] * len(values)
     for k, cls in enumerate(CLASSES):
@@ -206,13 +259,15 @@ def _learn(values: list[str]) -> None:
             body = v[1:] if v.startswith("-") else v
             head, dot, tail = body.partition(".")
             d_int, d_frac = len(head), (len(tail) if dot else 0)
-        _SEEN[v] = (
+        learnt[v] = (
             k,
             stamp and v[_SECONDS_AT : _SECONDS_AT + 2] == "60",
             cls == "timestamp_rfc3339" and ("t" in v or "z" in v),
             d_int,
             d_frac,
         )
+    _SEEN.update(learnt)
+    return learnt
 
 
 def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
@@ -241,6 +296,21 @@ def _timestamp_masks(values: pa.Array) -> dict[str, pa.Array] | None:
     masks[name] = ok
     masks["text"] = pc.and_(pc.is_valid(values), pc.invert(ok))
     return masks
+
+
+def _head_repeats(arr: pa.Array) -> bool:
+    """Whether the column's values repeat enough to classify its dictionary instead: hashing
+    costs about as much as classifying when nearly every value is distinct (ids, amounts), and
+    little otherwise; the head of the column decides."""
+    return len(arr) > DICTIONARY_MIN and len(pc.unique(arr.slice(0, SAMPLE))) < SAMPLE_DISTINCT * min(SAMPLE, len(arr))
+
+
+def _stamp_like(values: pa.Array) -> bool:
+    """Whether the first value that is not null has a timestamp shape (the others may not)."""
+    if not len(values) or values.null_count == len(values):
+        return False
+    first = values[_first_valid(values)].as_py()
+    return any(_STAMP_PY[n].fullmatch(first) for n in _STAMP_SHAPES)
 
 
 def _first_valid(arr: pa.Array) -> int:
@@ -282,11 +352,7 @@ def verdicts(values: pa.Array) -> Verdicts:
     (['integer', 'text', 'decimal', 'timestamp_rfc3339'], [False, False, False, True], [0, 0, 2, 0])
     """
     if len(values) <= FEW:  # few values: the process-wide table answers most of them
-        py = values.to_pylist()
-        unseen = [v for v in py if v not in _SEEN]
-        if unseen:
-            _learn(unseen)
-        got = [_SEEN[v] for v in py]
+        got = _known(values.to_pylist())
         return Verdicts(*(pa.array([g[i] for g in got], t) for i, t in enumerate(_VERDICT_TYPES)))
     masks = class_masks(values)
     kind = pc.case_when(
