@@ -27,6 +27,7 @@ import pyarrow.compute as pc
 from driftline.core.lattice import DType, to_arrow
 from driftline.core.words import count
 from driftline.observe import textclass as tc
+from driftline.observe.fast.strprofile import exact_requested
 from driftline.recommendation.plan import FieldPlan, Recommendation, arrow_field, arrow_type, target_schema
 from driftline.recommendation.raw import TEXT, json_text, jsonable, plain_value
 
@@ -167,18 +168,91 @@ def _accepted(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
     return out
 
 
-def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally) -> None:
-    """Count what a number cast did beyond parsing: leading zeros dropped, values beyond float64."""
-    parsed = pc.is_valid(out)
-    zeros = pc.fill_null(pc.match_substring_regex(arr, _LEADING_ZERO), False)
-    tally.mark(path, "leading_zeros", pc.and_(parsed, zeros), arr)
+def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally, *, plain: bool = False) -> None:
+    """Count what a number cast did beyond parsing: leading zeros dropped, values beyond float64.
+
+    plain: every value is a plain numeral without a leading zero (_plainly_accepted), so none
+    lost a zero nor names infinity, and only the zeros' texts need reading."""
+    if not plain:
+        parsed = pc.is_valid(out)
+        zeros = pc.fill_null(pc.match_substring_regex(arr, _LEADING_ZERO), False)
+        tally.mark(path, "leading_zeros", pc.and_(parsed, zeros), arr)
     if not pa.types.is_floating(out.type):
+        return
+    if plain:
+        inf = pc.fill_null(pc.is_inf(out), False)
+        zero = pc.fill_null(pc.equal(out, 0.0), False)
+        if zero.true_count:  # the regex on the zeros alone, its verdicts put back in place
+            zero = pc.replace_with_mask(zero, zero, pc.match_substring_regex(arr.filter(zero), _NONZERO_MANTISSA))
+        tally.mark(path, "out_of_range", pc.or_(inf, zero), arr)
         return
     finite_text = pc.invert(pc.fill_null(pc.match_substring_regex(arr, _SPECIAL), False))
     inf = pc.and_(pc.fill_null(pc.is_inf(out), False), finite_text)
     nonzero = pc.fill_null(pc.match_substring_regex(arr, _NONZERO_MANTISSA), False)
     zero = pc.and_(pc.fill_null(pc.equal(out, 0.0), False), nonzero)
     tally.mark(path, "out_of_range", pc.or_(inf, zero), arr)
+
+
+# -- plain forms: proof without the class patterns ----------------------------------------------
+# Stricter forms than textclass's classes, each wholly inside one class (and outside the
+# classes before it): a column whose values all take one of them needs neither the class
+# masks nor the normalising steps. A value that takes none sends the column the full way.
+_DAY = r"[0-9]{4}-(?:0[1-9]|1[0-2])-(?:0[1-9]|[12][0-9]|3[01])"  # textclass's full-date
+_CLOCK = r"(?:[01][0-9]|2[0-3]):[0-5][0-9]:[0-5][0-9]"  # no leap second
+_PLAIN = {
+    "integer": r"-?(?:0|[1-9][0-9]{0,17})",  # at most 18 digits: within int64
+    "decimal": r"-?(?:0|[1-9][0-9]*)\.[0-9]+",  # at most 76 digits: checked apart
+    "boolean": tc.BOOLEAN_RE,
+}
+_DECIMAL_CHARS = tc.MAX_DECIMAL_DIGITS + 1  # a point, and at most 76 digits (a minus sign: one fewer)
+
+
+def _plain_forms_all(values: pa.Array, forms: Iterable[str]) -> pa.Array:
+    return pc.match_substring_regex(values, "^(?:" + "|".join(f"(?:{f})" for f in forms) + ")$")
+
+
+def _plainly_accepted(arr: pa.Array, accept: Iterable[str]) -> bool:
+    """Whether every value of arr is, provably, of a class in accept (see _PLAIN)."""
+    wanted = set(accept)
+    values = pc.drop_null(arr)
+    forms = [_PLAIN[c] for c in sorted(wanted & set(_PLAIN))]
+    if forms and len(values):
+        hit = _plain_forms_all(values, forms)
+        longest = pc.max(pc.binary_length(values.filter(hit))).as_py() if hit.true_count else 0
+        if "decimal" in wanted and (longest or 0) > _DECIMAL_CHARS:
+            return False
+        values = values.filter(pc.invert(hit))
+    if len(values) and "date" in wanted:
+        if not pc.all(_plain_forms_all(values, [_DAY])).as_py():
+            return False
+        try:  # a real calendar day: what the date class asks of its shape
+            pc.cast(values, pa.date32())
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            return False
+        return True
+    return not len(values)
+
+
+def _plain_timestamps(arr: pa.Array, accept: Iterable[str], t: DType) -> pa.Array | None:
+    """_timestamps' result when every value is a plain RFC 3339 date-time (a zone asked) or a
+    plain local one (none asked): upper case, no leap second, no digits past the unit; else None."""
+    assert t.unit is not None
+    u = _UNIT_DIGITS[t.unit]
+    fraction = rf"(?:\.[0-9]{{1,{u}}})?" if u else ""
+    if t.tz:
+        cls, form = "timestamp_rfc3339", rf"{_DAY}T{_CLOCK}{fraction}(?:Z|[+-](?:[01][0-9]|2[0-3]):[0-5][0-9])"
+    else:
+        cls, form = "timestamp_local", rf"{_DAY}[T ]{_CLOCK}{fraction}"
+    if cls not in set(accept):
+        return None
+    values = pc.drop_null(arr)
+    if len(values) and not pc.all(_plain_forms_all(values, [form])).as_py():
+        return None
+    try:
+        parsed = pc.cast(arr, pa.timestamp(t.unit, "UTC" if t.tz else None))
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        return None
+    return pc.cast(parsed, to_arrow(t))
 
 
 def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
@@ -241,13 +315,19 @@ def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Ar
         tally.mark(path, "empty", pc.and_(blank, pc.is_valid(arr)), arr)
         arr = _null_where(arr, blank)
     accept = params.get("accept", [])
-    ok = pc.and_(pc.is_valid(arr), _accepted(arr, accept))
+    fast = not exact_requested()
+    if fast and t.name == "timestamp":
+        out = _plain_timestamps(arr, accept, t)
+        if out is not None:
+            return out  # nothing to count: every value parsed as it is
+    plain = fast and t.name != "timestamp" and _plainly_accepted(arr, accept)
+    ok = pc.is_valid(arr) if plain else pc.and_(pc.is_valid(arr), _accepted(arr, accept))
     if t.name == "timestamp":
         out = _timestamps(arr, ok, plan, t, tally)
     else:
         out = _try_cast(_null_where(arr, pc.invert(ok)), out_type)
         if t.name.startswith(("int", "uint", "float")) or t.name == "decimal":
-            _number_changes(arr, out, path, tally)
+            _number_changes(arr, out, path, tally, plain=plain)
     tally.mark(path, "unparsed", pc.and_(pc.is_valid(arr), pc.is_null(out)), arr)
     return out
 

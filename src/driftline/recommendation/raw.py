@@ -38,6 +38,7 @@ from driftline.observe.records import int_key
 from driftline.observe.textclass import class_of
 from driftline.sources.csvfile import LinedCells
 from driftline.sources.discover import FileRef, discover
+from driftline.sources.jsonlined import LinedRecords
 from driftline.sources.readers import read_values
 from driftline.sources.registry import SPECS
 
@@ -218,6 +219,13 @@ def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
     return pa.RecordBatch.from_arrays(columns, schema=pa.schema(fields))
 
 
+def table_batch(table: pa.Table | None) -> pa.RecordBatch:
+    """Arrow's table of JSON Lines records (sources/jsonlined, proven the same values) as variant
+    columns: the batch records_to_batch builds from the parsed records."""
+    assert table is not None
+    return pa.RecordBatch.from_arrays([as_variant(c) for c in table.columns], names=table.column_names)
+
+
 # -- Arrow arrays to variants ---------------------------------------------------------------
 
 
@@ -304,11 +312,14 @@ def lined_batches(
     ref: FileRef, batch_rows: int, base: ReadOptions | None = None
 ) -> Iterator[tuple[pa.RecordBatch, Sequence[int] | None]]:
     """file_batches, each with the line its rows start on when the reader knows it (CSV and TSV,
-    numbered as the scan numbers them), else None."""
+    numbered as the scan numbers them; JSON Lines), else None."""
     text = SPECS[ref.format].text_cells
     for part in read_values(ref, batch_rows, base):
         if isinstance(part, list):
             yield records_to_batch(part), None
+            continue
+        if isinstance(part, LinedRecords):
+            yield (records_to_batch(part.records) if part.records is not None else table_batch(part.table)), part.lines
             continue
         cells, lines = (part.cells, part.lines) if isinstance(part, LinedCells) else (part, None)
         yield (
@@ -431,9 +442,11 @@ def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
     for ref in found.files:
         row = 0
-        for part in read_values(ref, 65_536):
-            if isinstance(part, list):
-                records: list[Any] = part
+        for part in read_values(ref, 65_536, ReadOptions(exact=True)):  # records, not Arrow's tables
+            if isinstance(part, LinedRecords) and part.records is not None:
+                records: list[Any] = part.records
+            elif isinstance(part, list):
+                records = part
             elif isinstance(part, LinedCells):
                 records = [{k: cell_value(v) for k, v in rec.items()} for rec in part.cells.to_pylist()]
             else:
