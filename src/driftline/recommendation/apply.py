@@ -171,7 +171,7 @@ def _accepted(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
 def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally, *, plain: bool = False) -> None:
     """Count what a number cast did beyond parsing: leading zeros dropped, values beyond float64.
 
-    plain: every value is a plain numeral without a leading zero (_plainly_accepted), so none
+    plain: every value takes a plain form (_proven): no numeral with a leading zero, so none
     lost a zero nor names infinity, and only the zeros' texts need reading."""
     if not plain:
         parsed = pc.is_valid(out)
@@ -193,6 +193,13 @@ def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally, *, pl
     tally.mark(path, "out_of_range", pc.or_(inf, zero), arr)
 
 
+def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
+    body = "|".join(f"(?:{_CLASS_RE[c]})" for c in sorted(classes) if c in _CLASS_RE)
+    if not body:
+        return pa.repeat(False, len(arr))
+    return pc.fill_null(pc.match_substring_regex(arr, f"^(?:{body})$"), False)
+
+
 # -- plain forms: proof without the class patterns ----------------------------------------------
 # Stricter forms than textclass's classes, each wholly inside one class (and outside the
 # classes before it): a column whose values all take one of them needs neither the class
@@ -207,59 +214,62 @@ _PLAIN = {
 _DECIMAL_CHARS = tc.MAX_DECIMAL_DIGITS + 1  # a point, and at most 76 digits (a minus sign: one fewer)
 
 
-def _plain_forms_all(values: pa.Array, forms: Iterable[str]) -> pa.Array:
-    return pc.match_substring_regex(values, "^(?:" + "|".join(f"(?:{f})" for f in forms) + ")$")
+def _plain_forms(values: pa.Array, forms: Iterable[str]) -> pa.Array:
+    return pc.fill_null(pc.match_substring_regex(values, "^(?:" + "|".join(f"(?:{f})" for f in forms) + ")$"), False)
 
 
-def _plainly_accepted(arr: pa.Array, accept: Iterable[str]) -> bool:
-    """Whether every value of arr is, provably, of a class in accept (see _PLAIN)."""
-    wanted = set(accept)
-    values = pc.drop_null(arr)
-    forms = [_PLAIN[c] for c in sorted(wanted & set(_PLAIN))]
-    if forms and len(values):
-        hit = _plain_forms_all(values, forms)
-        longest = pc.max(pc.binary_length(values.filter(hit))).as_py() if hit.true_count else 0
-        if "decimal" in wanted and (longest or 0) > _DECIMAL_CHARS:
-            return False
-        values = values.filter(pc.invert(hit))
-    if len(values) and "date" in wanted:
-        if not pc.all(_plain_forms_all(values, [_DAY])).as_py():
-            return False
-        try:  # a real calendar day: what the date class asks of its shape
-            pc.cast(values, pa.date32())
-        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
-            return False
-        return True
-    return not len(values)
-
-
-def _plain_timestamps(arr: pa.Array, accept: Iterable[str], t: DType) -> pa.Array | None:
-    """_timestamps' result when every value is a plain RFC 3339 date-time (a zone asked) or a
-    plain local one (none asked): upper case, no leap second, no digits past the unit; else None."""
+def _stamp_form(t: DType) -> tuple[str, str]:
+    """The class and plain form of the date-times a timestamp cast takes as they are: RFC 3339 in
+    upper case (a zone asked) or local ones (none asked), no leap second, no digits past the unit."""
     assert t.unit is not None
     u = _UNIT_DIGITS[t.unit]
     fraction = rf"(?:\.[0-9]{{1,{u}}})?" if u else ""
     if t.tz:
-        cls, form = "timestamp_rfc3339", rf"{_DAY}T{_CLOCK}{fraction}(?:Z|[+-](?:[01][0-9]|2[0-3]):[0-5][0-9])"
-    else:
-        cls, form = "timestamp_local", rf"{_DAY}[T ]{_CLOCK}{fraction}"
-    if cls not in set(accept):
+        return "timestamp_rfc3339", rf"{_DAY}T{_CLOCK}{fraction}(?:Z|[+-](?:[01][0-9]|2[0-3]):[0-5][0-9])"
+    return "timestamp_local", rf"{_DAY}[T ]{_CLOCK}{fraction}"
+
+
+def _proven(arr: pa.Array, accept: Iterable[str], t: DType) -> pa.Array | None:
+    """Per value, whether it is provably of a class in accept, in a plain form (false for nulls);
+    None when no plain form applies. A timestamp's calendar is left to its cast."""
+    wanted = set(accept)
+    if t.name == "timestamp":
+        cls, form = _stamp_form(t)
+        return _plain_forms(arr, [form]) if cls in wanted else None
+    forms = [_PLAIN[c] for c in sorted(wanted & set(_PLAIN))]
+    if not forms and "date" not in wanted:
         return None
-    values = pc.drop_null(arr)
-    if len(values) and not pc.all(_plain_forms_all(values, [form])).as_py():
+    hit = _plain_forms(arr, forms) if forms else pa.repeat(False, len(arr))
+    if (
+        "decimal" in wanted
+        and hit.true_count
+        and (pc.max(pc.binary_length(arr.filter(hit))).as_py() or 0) > _DECIMAL_CHARS
+    ):
         return None
+    if "date" in wanted:
+        day = pc.and_not(_plain_forms(arr, [_DAY]), hit)
+        if day.true_count:
+            try:  # a real calendar day: what the date class asks of its shape
+                pc.cast(arr.filter(day), pa.date32())
+            except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+                return None
+            hit = pc.or_(hit, day)
+    return hit
+
+
+def _all_proven(proven: pa.Array | None, arr: pa.Array) -> bool:
+    valid = len(arr) - arr.null_count
+    return proven is not None and (not valid or _true(pc.and_(proven, pc.is_valid(arr))) == valid)
+
+
+def _plain_stamps(arr: pa.Array, t: DType) -> pa.Array | None:
+    """_timestamps' result for values all in _stamp_form: one cast (None if a calendar day fails it)."""
+    assert t.unit is not None
     try:
         parsed = pc.cast(arr, pa.timestamp(t.unit, "UTC" if t.tz else None))
     except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
         return None
     return pc.cast(parsed, to_arrow(t))
-
-
-def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
-    body = "|".join(f"(?:{_CLASS_RE[c]})" for c in sorted(classes) if c in _CLASS_RE)
-    if not body:
-        return pa.repeat(False, len(arr))
-    return pc.fill_null(pc.match_substring_regex(arr, f"^(?:{body})$"), False)
 
 
 # -- strings ----------------------------------------------------------------------------------
@@ -299,33 +309,40 @@ def _timestamps(arr: pa.Array, ok: pa.Array, plan: FieldPlan, t: DType, tally: T
 
 
 def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Array:
-    """Strings (source 'string') or CSV cells ('text') by the rule's grammar, then cast."""
+    """Strings (source 'string') or CSV cells ('text') by the rule's grammar, then cast.
+
+    The fast way (not DRIFTLINE_EXACT): values that all take a plain form of an accepted class
+    (_proven) hold no null token and no blank, and need neither the class masks nor the
+    normalising steps; the counts and values are the same (tests/differential)."""
     t = plan.target
     path, params = plan.path, plan.params
     out_type = to_arrow(t)
-    trimmed = pc.utf8_trim_whitespace(arr)
-    if params.get("tokens", {}).get(source) == "null":
-        token = pc.fill_null(pc.is_in(pc.ascii_lower(trimmed), value_set=_TOKENS), False)
-        tally.mark(path, "null_token", token, arr)
-        arr = _null_where(arr, token)
+    accept = params.get("accept", [])
+    proven = _proven(arr, accept, t) if t.name != "string" and not exact_requested() else None
+    clean = _all_proven(proven, arr)  # no token, no blank: their steps change nothing
+    if not clean:
+        trimmed = pc.utf8_trim_whitespace(arr)
+        if params.get("tokens", {}).get(source) == "null":
+            token = pc.fill_null(pc.is_in(pc.ascii_lower(trimmed), value_set=_TOKENS), False)
+            tally.mark(path, "null_token", token, arr)
+            arr = _null_where(arr, token)
     if t.name == "string":
         return arr if arr.type == out_type else pc.cast(arr, out_type)
-    if source == "string" and params.get("empty") == "null":
+    if not clean and source == "string" and params.get("empty") == "null":
         blank = pc.fill_null(pc.equal(pc.utf8_length(trimmed), 0), False)
         tally.mark(path, "empty", pc.and_(blank, pc.is_valid(arr)), arr)
         arr = _null_where(arr, blank)
-    accept = params.get("accept", [])
-    fast = not exact_requested()
-    if fast and t.name == "timestamp":
-        out = _plain_timestamps(arr, accept, t)
+    plain = clean or _all_proven(proven, arr)
+    if plain and t.name == "timestamp":
+        out = _plain_stamps(arr, t)
         if out is not None:
             return out  # nothing to count: every value parsed as it is
-    plain = fast and t.name != "timestamp" and _plainly_accepted(arr, accept)
+        plain = False
     ok = pc.is_valid(arr) if plain else pc.and_(pc.is_valid(arr), _accepted(arr, accept))
     if t.name == "timestamp":
         out = _timestamps(arr, ok, plan, t, tally)
     else:
-        out = _try_cast(_null_where(arr, pc.invert(ok)), out_type)
+        out = _try_cast(arr if plain else _null_where(arr, pc.invert(ok)), out_type)
         if t.name.startswith(("int", "uint", "float")) or t.name == "decimal":
             _number_changes(arr, out, path, tally, plain=plain)
     tally.mark(path, "unparsed", pc.and_(pc.is_valid(arr), pc.is_null(out)), arr)
