@@ -275,8 +275,12 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
     if pa.types.is_null(arr.type):
         return pa.StructArray.from_arrays([], fields=[], mask=pa.repeat(True, len(arr)))
     if text:
-        blank = pc.equal(pc.utf8_length(pc.utf8_trim_whitespace(arr)), 0)
-        cells = pc.if_else(pc.fill_null(blank, True), pa.nulls(len(arr), pa.string()), arr)
+        # Blank: empty, or only characters utf8_trim_whitespace removes (utf8_is_space tests the
+        # same set, code point for code point, without building the trimmed strings).
+        blank = pc.fill_null(pc.or_(pc.equal(pc.binary_length(arr), 0), pc.utf8_is_space(arr)), True)
+        if not blank.true_count:
+            return pa.StructArray.from_arrays([arr], names=[TEXT])
+        cells = pc.if_else(blank, pa.nulls(len(arr), pa.string()), arr)
         return pa.StructArray.from_arrays([cells], names=[TEXT], mask=pc.is_null(cells))
     t = arr.type
     if pa.types.is_struct(t):

@@ -7,8 +7,9 @@ lines to Arrow's JSON reader (observe.jsonparse, timestamps kept as strings) and
 table only when it must hold the same values:
 
 * one row per line: a line Arrow reads as several values (or skips) changes the count;
-* what Arrow accepts and orjson refuses: NaN and infinities (no double may be non-finite),
-  very deep nesting (a schema deeper than MAX_DEPTH);
+* what Arrow accepts and orjson refuses, or cannot take: the scan's guard first (observe.linetext:
+  '{...}' lines only, valid UTF-8, no deep nesting), then NaN and infinities (no double may be
+  non-finite) and schemas deeper than MAX_DEPTH;
 * integer vs float literals: Arrow types a field mixing 1 and 2.5 (or holding integers
   past int64) as double; the lines of every integral double are parsed exactly, and a single
   integer literal among them sends the batch to the line-by-line parse;
@@ -30,6 +31,8 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from driftline.core import jsonnum
+from driftline.observe import linetext
+from driftline.observe.fast.jsonbatch import keys_vary
 from driftline.observe.jsonparse import parse_lines
 
 _BOM = b"\xef\xbb\xbf"
@@ -80,7 +83,17 @@ def lined_records(data: bytes, batch_rows: int, *, fast: bool = True) -> Iterato
 
 def _arrow_batch(text: list[bytes], chunk: Sequence[int], hint: pa.Schema | None) -> pa.Table | None:
     """Arrow's table of the lines numbered chunk, or None when it may differ from their parse."""
-    data = b"\n".join([text[n - 1] for n in chunk]) + b"\n"
+    lines = [text[n - 1].removesuffix(b"\r") for n in chunk]
+    if keys_vary(lines):
+        return None  # many distinct keys: Arrow's columns would cost more than the parse
+    data = b"\n".join([*lines, b""])
+    if len(data) >= 2**31:
+        return None  # Arrow's binary offsets are 32-bit
+    # The scan's own guard before Arrow's parse: '{...}' lines only, valid UTF-8, no deep nesting
+    # (which Arrow's reader may not survive).
+    odd = linetext.odd_rows(lines, pa.array(lines, pa.binary()), data)
+    if odd is None or odd:
+        return None
     table, _ = parse_lines(data, hint)
     if table is None or table.num_rows != len(chunk) or not table.num_columns:
         return None
