@@ -11,6 +11,7 @@ falls back in the middle of files.
 
 from __future__ import annotations
 
+import itertools
 import json
 import random
 import shutil
@@ -221,3 +222,19 @@ def test_blank_cells_are_what_python_strips() -> None:
     got = pc.is_null(variant).to_pylist()
     assert got == [c.strip() == "" for c in cells]
     assert sum(got) == sum(c.isspace() for c in cps) + 2  # and "", " \u3000\t"
+
+
+def test_line_numbers_by_byte_search_are_pythons() -> None:
+    """The non-blank lines found by byte searches are those bytes.strip() leaves something of
+    (# source: Python's bytes.split and bytes.strip), for every file of up to 4 lines from an
+    alphabet of the awkward ones."""
+    alphabet = [b"{}", b"", b" ", b"\r", b"\t{}", b"{} ", b"\x0c", b"\x1c", b"\x0b"]
+    checked = 0
+    for k in range(5):
+        for combo in itertools.product(alphabet, repeat=k):
+            for end in (b"", b"\n", b"\n\n"):
+                data = b"\n".join(combo) + end
+                text = data.split(b"\n")
+                assert list(jsonlined._non_blank(data, text)) == [i for i, s in enumerate(text, 1) if s.strip()]
+                checked += 1
+    assert checked == 3 * sum(9**k for k in range(5))

@@ -22,6 +22,7 @@ parse, so batches keep their boundaries (every batch before it held batch_rows r
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -52,8 +53,9 @@ class LinedRecords:
 
 def lined_records(data: bytes, batch_rows: int, *, fast: bool = True) -> Iterator[LinedRecords]:
     """The rows of JSON Lines text, batch_rows at a time, with their lines (see the module docstring)."""
-    text = data.removeprefix(_BOM).split(b"\n")
-    numbers = [i for i, line in enumerate(text, 1) if line.strip()]
+    data = data.removeprefix(_BOM)
+    text = data.split(b"\n")
+    numbers: Sequence[int] = _non_blank(data, text)
     start = 0
     hint: pa.Schema | None = None
     while fast and start < len(numbers):
@@ -81,9 +83,30 @@ def lined_records(data: bytes, batch_rows: int, *, fast: bool = True) -> Iterato
         yield LinedRecords(records, None, lines)
 
 
+_STARTS_BLANK = re.compile(rb"\n[ \t\r\x0b\x0c]")  # a line that starts with what bytes.strip() removes
+
+
+def _non_blank(data: bytes, text: list[bytes]) -> Sequence[int]:
+    """The 1-based numbers of the lines that are not blank (bytes.strip() leaves something).
+
+    Found with two byte searches when no line starts with white space and none ends in CR: then
+    every line but an empty last one counts (a range, which lets batches slice the lines)."""
+    body = data[:-1] if data.endswith(b"\n") else data
+    edges = body[:1] not in _WHITE and not body.endswith(b"\n")  # the first and the last line hold something
+    if body and edges and b"\r" not in data and b"\n\n" not in body and not _STARTS_BLANK.search(body):
+        return range(1, len(text) + (0 if data.endswith(b"\n") else 1))
+    return [i for i, line in enumerate(text, 1) if line.strip()]
+
+
+_WHITE = (b"\n", b" ", b"\t", b"\r", b"\x0b", b"\x0c")  # (a first line that is empty, too)
+
+
 def _arrow_batch(text: list[bytes], chunk: Sequence[int], hint: pa.Schema | None) -> pa.Table | None:
     """Arrow's table of the lines numbered chunk, or None when it may differ from their parse."""
-    lines = [text[n - 1].removesuffix(b"\r") for n in chunk]
+    if isinstance(chunk, range):
+        lines = text[chunk.start - 1 : chunk.stop - 1]  # every line a row, none ends in CR (_non_blank)
+    else:
+        lines = [text[n - 1].removesuffix(b"\r") for n in chunk]
     if keys_vary(lines):
         return None  # many distinct keys: Arrow's columns would cost more than the parse
     data = b"\n".join([*lines, b""])
