@@ -163,8 +163,6 @@ def cast_file(
         tally = Tally(keep=True)
         good, bad = cast_batch(raw, rec, tally)
         origin = Origin(ref.rel, partition, row)
-        wanted = {row + r for t in tally.touched for r in t.rows.to_pylist()} | {row + i for i, _ in bad}
-        found = {r: starts[r - row] for r in wanted} if starts is not None else {}
         fc.rows_in += raw.num_rows
         fc.rows_written += good.num_rows
         fc.rows_rejected += len(bad)
@@ -174,8 +172,8 @@ def cast_file(
             fc.nulls[name] = fc.nulls.get(name, 0) + col.null_count
         yield CastBatch(
             pa.RecordBatch.from_arrays(good.columns, schema=schema),
-            quarantine_rows(tally.touched, origin, plans, found),
-            rejected_rows(raw, bad, origin, found),
+            quarantine_rows(tally.touched, origin, plans, starts),
+            rejected_rows(raw, bad, origin, starts),
         )
         row += raw.num_rows
 
