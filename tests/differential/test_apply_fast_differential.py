@@ -20,6 +20,7 @@ from pathlib import Path
 import orjson
 import pyarrow as pa
 import pyarrow.compute as pc
+import pyarrow.parquet as pq
 import pytest
 
 import driftline
@@ -238,3 +239,18 @@ def test_line_numbers_by_byte_search_are_pythons() -> None:
                 assert list(jsonlined._non_blank(data, text)) == [i for i, s in enumerate(text, 1) if s.strip()]
                 checked += 1
     assert checked == 3 * sum(9**k for k in range(5))
+
+
+@pytest.mark.parametrize("encoding", ["utf-8-sig", "utf-16"])
+def test_quarantine_lines_of_json_lines_with_a_byte_order_mark(tmp_path: Path, encoding: str) -> None:
+    """The line of a quarantined value is its line in the text (# source: Python's codecs and
+    str.split on LF), whatever the encoding: a byte order mark is no part of the first line."""
+    root = tmp_path / "in"
+    root.mkdir()
+    text = '{"a": 1}\n{"a": "x"}\n\n{"a": 2}\n'
+    (root / "f.jsonl").write_bytes(text.encode(encoding))
+    driftline.apply(root, out=tmp_path / "out")
+    got = pq.read_table(tmp_path / "out" / "_quarantine" / "part-0.parquet").select(["row", "line", "value"])
+    want = [n for n, line in enumerate(text.split("\n"), 1) if line.strip()]
+    assert got.to_pylist() == [{"row": 0, "line": want[0], "value": "1"}, {"row": 2, "line": want[2], "value": "2"}]
+    assert want == [1, 2, 4]
