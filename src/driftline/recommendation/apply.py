@@ -565,14 +565,16 @@ def _cast(plan: FieldPlan, variant: pa.Array, tally: Tally) -> pa.Array:
 
 
 THREAD_MIN_ROWS = 4096  # smaller batches cast their columns one after another: threads would cost more
-_POOL: list[ThreadPoolExecutor] = []
+_POOL: dict[int, ThreadPoolExecutor] = {}  # by process: a forked worker has none of its parent's threads
 
 
 def _pool() -> ThreadPoolExecutor:
     """Threads for the columns of a batch: pyarrow.compute releases the GIL while it works."""
-    if not _POOL:
-        _POOL.append(ThreadPoolExecutor(max_workers=min(4, os.cpu_count() or 1), thread_name_prefix="driftline-cast"))
-    return _POOL[0]
+    pid = os.getpid()
+    if pid not in _POOL:
+        _POOL.clear()
+        _POOL[pid] = ThreadPoolExecutor(max_workers=min(4, os.cpu_count() or 1), thread_name_prefix="driftline-cast")
+    return _POOL[pid]
 
 
 def _merge(into: Tally, part: Tally) -> None:
