@@ -11,6 +11,7 @@ falls back in the middle of files.
 
 from __future__ import annotations
 
+import importlib
 import itertools
 import json
 import random
@@ -30,6 +31,8 @@ from driftline.observe.fast.strprofile import EXACT_ENV
 from driftline.recommendation.raw import as_variant
 from driftline.sources import jsonlined
 
+cast_module = importlib.import_module("driftline.recommendation.apply")  # the module, not a name it exports
+
 JSON_SUITE = SHARED_TESTDATA / "json-parsing" / "test_parsing"
 CSV_SUITE = SHARED_TESTDATA / "csv-edge-cases" / "csvs"
 
@@ -37,6 +40,7 @@ CSV_SUITE = SHARED_TESTDATA / "csv-edge-cases" / "csvs"
 @pytest.fixture(autouse=True)
 def _fast_path_on_small_batches(monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setattr(jsonlined, "FAST_MIN_ROWS", 1)
+    monkeypatch.setattr(cast_module, "THREAD_MIN_ROWS", 1)  # columns on threads for every batch
     monkeypatch.delenv(EXACT_ENV, raising=False)
 
 
@@ -254,3 +258,21 @@ def test_quarantine_lines_of_json_lines_with_a_byte_order_mark(tmp_path: Path, e
     want = [n for n, line in enumerate(text.split("\n"), 1) if line.strip()]
     assert got.to_pylist() == [{"row": 0, "line": want[0], "value": "1"}, {"row": 2, "line": want[2], "value": "2"}]
     assert want == [1, 2, 4]
+
+
+def test_jobs_after_a_run_in_process_give_the_same_bytes(tmp_path: Path) -> None:
+    """A run in this process starts the cast threads; worker processes forked after it must
+    start their own (a forked child has none of its parent's threads) and write the same bytes."""
+    root = tmp_path / "in"
+    for part in ("p=1", "p=2"):
+        (root / part).mkdir(parents=True)
+        rows = "\n".join(f"{i},{i}.5,2026-01-0{i % 9 + 1}" for i in range(50))
+        (root / part / "a.csv").write_text("n,x,d\n" + rows + "\n")
+    one = driftline.apply(root, out=tmp_path / "one")
+    two = driftline.apply(root, out=tmp_path / "two", jobs=2)
+    assert one.matches and two.matches
+
+    def tree(d: Path) -> dict[str, bytes]:
+        return {str(f.relative_to(d)): f.read_bytes() for f in sorted(d.rglob("*.parquet"))}
+
+    assert tree(tmp_path / "one") == tree(tmp_path / "two") and len(tree(tmp_path / "one")) == 6
