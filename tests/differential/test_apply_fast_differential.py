@@ -276,3 +276,23 @@ def test_jobs_after_a_run_in_process_give_the_same_bytes(tmp_path: Path) -> None
         return {str(f.relative_to(d)): f.read_bytes() for f in sorted(d.rglob("*.parquet"))}
 
     assert tree(tmp_path / "one") == tree(tmp_path / "two") and len(tree(tmp_path / "one")) == 6
+
+
+def test_a_rejected_row_leaves_the_other_values_counted_once(tmp_path: Path) -> None:
+    """A batch with a row that cannot be cast is cast row by row; what the whole batch's attempt
+    counted before failing is not counted again (# common practice: each value quarantined once)."""
+    (tmp_path / "a").mkdir()
+    (tmp_path / "b").mkdir()
+    (tmp_path / "a" / "f.jsonl").write_text('{"a": "n/a", "b": 1}\n{"a": 2, "b": 2}\n')
+    (tmp_path / "b" / "f.jsonl").write_text('{"a": "n/a", "b": 1}\n{"a": 2, "b": null}\n{"a": "n/a", "b": 3}\n')
+    rec = driftline.scan(tmp_path / "a").recommend()
+    for exact in (False, True):
+        with pytest.MonkeyPatch.context() as mp:
+            if exact:
+                mp.setenv(EXACT_ENV, "1")
+            got = driftline.apply(tmp_path / "b", out=tmp_path / f"out{exact}", rules=rec)
+        assert got.reconciliation["rows"] == {"in": 3, "written": 2, "rejected": 1, "balanced": True}
+        (effect,) = got.reconciliation["effects"]
+        assert (effect["path"], effect["cause"], effect["quarantined"]) == ("a", "null_token", 2)
+        table = pq.read_table(tmp_path / f"out{exact}" / "_quarantine" / "part-0.parquet")
+        assert table.select(["row", "line"]).to_pylist() == [{"row": 0, "line": 1}, {"row": 2, "line": 3}]

@@ -118,10 +118,17 @@ def cast_batch(
 ) -> tuple[pa.RecordBatch, list[tuple[int, str]]]:
     """The batch cast; when it cannot be cast whole, row by row, and the rows that fail are
     rejected (row in the batch, reason). Only the kept rows count in the tally."""
+    whole = Tally(keep=tally.keep)  # counted into tally only when the whole batch casts: else row by row
     try:
-        return apply(batch, rec, tally=tally), []
+        good = apply(batch, rec, tally=whole)
     except _CAST_ERRORS:
         pass
+    else:
+        for path, per in whole.counts.items():
+            for cause, n in per.items():
+                tally.add(path, cause, n)
+        tally.touched.extend(whole.touched)
+        return good, []
     kept, rejected = [], []
     for i in range(batch.num_rows):
         one = Tally(keep=tally.keep)
