@@ -429,16 +429,16 @@ def test_every_quarantined_json_value_is_on_the_line_named(clean: tuple[Path, An
         assert (raw if isinstance(raw, str) else json.dumps(raw)) == r["value"], r
         checked += 1
     assert checked == 6 + 516 - 510  # all but the 510 CSV values
-    # the line finder itself on the file with the malformed line: row k is the k-th line that parses
-    from driftline.applying.run import _Lines
+    # the reader's lines on the file with the malformed line: row k is the k-th line that parses
+    from driftline.recommendation.raw import lined_batches
     from driftline.sources.discover import discover
 
     rel = "readings/region=north/day=2026-11-29/part-0000.jsonl.gz"
     ref = next(f for f in discover([landing]).files if f.rel == rel)
     rows = _jsonl_rows(landing / rel)
-    finder = _Lines(ref)
-    found = {**finder.find({0, 1, 215, 216}), **finder.find({217, len(rows) - 1})}
-    finder.close()
+    starts = [n for _, lines in lined_batches(ref, 100) for n in (lines or ())]
+    assert len(starts) == len(rows)
+    found = {r: starts[r] for r in (0, 1, 215, 216, 217, len(rows) - 1)}
     with gzip.open(landing / rel, "rt", encoding="utf-8") as fh:
         text = fh.read().split("\n")
     assert {r: json.loads(text[n - 1]) for r, n in found.items()} == {r: rows[r] for r in found}

@@ -80,11 +80,22 @@ def _constant(value: str, n: int) -> pa.Array:
     return pc.fill_null(pa.nulls(n, pa.string()), value)
 
 
+def _lines_of(rows: pa.Array, origin: Origin, starts: Sequence[int] | None) -> pa.Array:
+    """The line each row (of the file) starts on: starts holds the batch's rows' lines, if known."""
+    if starts is None:
+        return pa.nulls(len(rows), pa.int64())
+    at = pc.subtract(rows, origin.row_start)
+    if isinstance(starts, range) and starts.step == 1:  # one line a row (the common CSV case)
+        return pc.add(at, starts.start)
+    return pa.array(starts, pa.int64()).take(at)
+
+
 def quarantine_rows(
-    touched: Sequence[Touched], origin: Origin, plans: Mapping[str, FieldPlan], lines: Mapping[int, int]
+    touched: Sequence[Touched], origin: Origin, plans: Mapping[str, FieldPlan], starts: Sequence[int] | None
 ) -> pa.RecordBatch:
     """The quarantined values of one batch, ordered by row, then field path order, then cause
-    (built column by column: a batch can quarantine every value of a column)."""
+    (built column by column: a batch can quarantine every value of a column); starts: the
+    line each row of the batch starts on, when the reader knows it."""
     order = {path: i for i, path in enumerate(plans)}
     parts = []
     for t in touched:
@@ -111,7 +122,7 @@ def quarantine_rows(
     table = pa.concat_tables(parts).sort_by([("row", "ascending"), ("order", "ascending"), ("cause", "ascending")])
     n = table.num_rows
     rows = table.column("row").combine_chunks()
-    line = pa.array([lines.get(r) for r in rows.to_pylist()], pa.int64()) if lines else pa.nulls(n, pa.int64())
+    line = _lines_of(rows, origin, starts)
     columns = {
         "file": _constant(origin.file, n),
         "partition": _constant(origin.partition, n),
@@ -123,7 +134,7 @@ def quarantine_rows(
 
 
 def rejected_rows(
-    batch: pa.RecordBatch, rejected: Sequence[tuple[int, str]], origin: Origin, lines: Mapping[int, int]
+    batch: pa.RecordBatch, rejected: Sequence[tuple[int, str]], origin: Origin, starts: Sequence[int] | None
 ) -> pa.RecordBatch:
     """The rows that could not be cast, each whole as the JSON text of its raw values."""
     records = []
@@ -135,7 +146,7 @@ def rejected_rows(
         "file": [origin.file] * len(rows),
         "partition": [origin.partition] * len(rows),
         "row": rows,
-        "line": [lines.get(r) for r in rows],
+        "line": [starts[i] if starts is not None else None for i, _ in rejected],
         "record": records,
         "reason": [why for _, why in rejected],
     }

@@ -54,9 +54,7 @@ from driftline.recommendation.plan import OBSERVED_KEY, FieldPlan, Recommendatio
 from driftline.recommendation.raw import lined_batches
 from driftline.scanning.run import capped_jobs, discover_for, read_found
 from driftline.scanning.workers import run_ordered
-from driftline.sources.formats import open_stream
-from driftline.sources.registry import SPECS
-from driftline.sources.remote import is_url, open_binary, open_stream_remote
+from driftline.sources.remote import is_url, open_binary
 
 STATE_FORMAT = "driftline-apply-state"
 _CAST_ERRORS = (SchemaMismatch, pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError)
@@ -120,10 +118,17 @@ def cast_batch(
 ) -> tuple[pa.RecordBatch, list[tuple[int, str]]]:
     """The batch cast; when it cannot be cast whole, row by row, and the rows that fail are
     rejected (row in the batch, reason). Only the kept rows count in the tally."""
+    whole = Tally(keep=tally.keep)  # counted into tally only when the whole batch casts: else row by row
     try:
-        return apply(batch, rec, tally=tally), []
+        good = apply(batch, rec, tally=whole)
     except _CAST_ERRORS:
         pass
+    else:
+        for path, per in whole.counts.items():
+            for cause, n in per.items():
+                tally.add(path, cause, n)
+        tally.touched.extend(whole.touched)
+        return good, []
     kept, rejected = [], []
     for i in range(batch.num_rows):
         one = Tally(keep=tally.keep)
@@ -139,56 +144,6 @@ def cast_batch(
     schema = target_schema(rec)
     table = pa.Table.from_batches(kept, schema=schema).combine_chunks()
     return (table.to_batches()[0] if table.num_rows else pa.RecordBatch.from_pylist([], schema=schema)), rejected
-
-
-# -- lines --------------------------------------------------------------------------------------
-
-
-class _Lines:
-    """The 1-based line of JSON Lines rows, found by one forward pass over the file as the
-    batches go (rows are asked for in increasing order): a row is a non-blank line that parses
-    (a malformed line is a problem of the scan's, not a row). CSV and TSV rows come with their
-    lines from the reader (a row may span lines: it counts them); Parquet rows have none."""
-
-    def __init__(self, ref: FileRef) -> None:
-        self.ref = ref
-        self.stream: Any = None
-        self.number = 0  # lines read
-        self.row = 0  # rows passed
-        spec = SPECS[ref.format]  # one row a line: JSON Lines (its lines counted apart, no CSV cells)
-        self.usable = spec.count_lines and not spec.text_cells
-
-    def find(self, rows: set[int]) -> dict[int, int]:
-        out: dict[int, int] = {}
-        if not rows or not self.usable:
-            return out
-        try:
-            if self.stream is None:
-                opener = open_stream_remote if self.ref.is_remote else open_stream  # an object: one more GET
-                self.stream = opener(self.ref.path, self.ref.compression, limit=None).__enter__()
-            last = max(rows)
-            while self.row <= last:
-                line = self.stream.readline()
-                if not line:
-                    break
-                self.number += 1
-                if not line.strip():
-                    continue
-                try:
-                    orjson.loads(line)
-                except orjson.JSONDecodeError:
-                    continue
-                if self.row in rows:
-                    out[self.row] = self.number
-                self.row += 1
-        except (OSError, EOFError, ValueError):
-            self.usable = False
-        return out
-
-    def close(self) -> None:
-        if self.stream is not None:
-            self.stream.close()
-            self.stream = None
 
 
 # -- one file, batch by batch ---------------------------------------------------------------------
@@ -209,30 +164,25 @@ def cast_file(
     """One file's batches cast one at a time; fc counts what happened to its rows and values."""
     schema = output_schema(rec)
     plans: dict[str, FieldPlan] = {p.path: p for p in rec.walk()}
-    lines = _Lines(ref)
     row = 0
-    try:
-        for raw, starts in lined_batches(ref, read.batch_rows, read):
-            tally = Tally(keep=True)
-            good, bad = cast_batch(raw, rec, tally)
-            origin = Origin(ref.rel, partition, row)
-            wanted = {row + r for t in tally.touched for r in t.rows.to_pylist()} | {row + i for i, _ in bad}
-            found = {r: starts[r - row] for r in wanted} if starts is not None else lines.find(wanted)
-            fc.rows_in += raw.num_rows
-            fc.rows_written += good.num_rows
-            fc.rows_rejected += len(bad)
-            for t in tally.touched:
-                fc.add(t.path, t.cause, len(t.rows))
-            for name, col in zip(good.schema.names, good.columns, strict=True):
-                fc.nulls[name] = fc.nulls.get(name, 0) + col.null_count
-            yield CastBatch(
-                pa.RecordBatch.from_arrays(good.columns, schema=schema),
-                quarantine_rows(tally.touched, origin, plans, found),
-                rejected_rows(raw, bad, origin, found),
-            )
-            row += raw.num_rows
-    finally:
-        lines.close()
+    # Rows come with their lines from the readers (CSV, TSV and JSON Lines); Parquet rows have none.
+    for raw, starts in lined_batches(ref, read.batch_rows, read):
+        tally = Tally(keep=True)
+        good, bad = cast_batch(raw, rec, tally)
+        origin = Origin(ref.rel, partition, row)
+        fc.rows_in += raw.num_rows
+        fc.rows_written += good.num_rows
+        fc.rows_rejected += len(bad)
+        for t in tally.touched:
+            fc.add(t.path, t.cause, len(t.rows))
+        for name, col in zip(good.schema.names, good.columns, strict=True):
+            fc.nulls[name] = fc.nulls.get(name, 0) + col.null_count
+        yield CastBatch(
+            pa.RecordBatch.from_arrays(good.columns, schema=schema),
+            quarantine_rows(tally.touched, origin, plans, starts),
+            rejected_rows(raw, bad, origin, starts),
+        )
+        row += raw.num_rows
 
 
 # -- one partition ------------------------------------------------------------------------------

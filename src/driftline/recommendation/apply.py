@@ -18,7 +18,9 @@ and cause, the counts the recommendation predicted from the profile alone.
 
 from __future__ import annotations
 
+import os
 from collections.abc import Iterable
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import pyarrow as pa
@@ -27,6 +29,7 @@ import pyarrow.compute as pc
 from driftline.core.lattice import DType, to_arrow
 from driftline.core.words import count
 from driftline.observe import textclass as tc
+from driftline.observe.fast.strprofile import exact_requested
 from driftline.recommendation.plan import FieldPlan, Recommendation, arrow_field, arrow_type, target_schema
 from driftline.recommendation.raw import TEXT, json_text, jsonable, plain_value
 
@@ -167,12 +170,23 @@ def _accepted(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
     return out
 
 
-def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally) -> None:
-    """Count what a number cast did beyond parsing: leading zeros dropped, values beyond float64."""
-    parsed = pc.is_valid(out)
-    zeros = pc.fill_null(pc.match_substring_regex(arr, _LEADING_ZERO), False)
-    tally.mark(path, "leading_zeros", pc.and_(parsed, zeros), arr)
+def _number_changes(arr: pa.Array, out: pa.Array, path: str, tally: Tally, *, plain: bool = False) -> None:
+    """Count what a number cast did beyond parsing: leading zeros dropped, values beyond float64.
+
+    plain: every value takes a plain form (_proven): no numeral with a leading zero, so none
+    lost a zero nor names infinity, and only the zeros' texts need reading."""
+    if not plain:
+        parsed = pc.is_valid(out)
+        zeros = pc.fill_null(pc.match_substring_regex(arr, _LEADING_ZERO), False)
+        tally.mark(path, "leading_zeros", pc.and_(parsed, zeros), arr)
     if not pa.types.is_floating(out.type):
+        return
+    if plain:
+        inf = pc.fill_null(pc.is_inf(out), False)
+        zero = pc.fill_null(pc.equal(out, 0.0), False)
+        if zero.true_count:  # the regex on the zeros alone, its verdicts put back in place
+            zero = pc.replace_with_mask(zero, zero, pc.match_substring_regex(arr.filter(zero), _NONZERO_MANTISSA))
+        tally.mark(path, "out_of_range", pc.or_(inf, zero), arr)
         return
     finite_text = pc.invert(pc.fill_null(pc.match_substring_regex(arr, _SPECIAL), False))
     inf = pc.and_(pc.fill_null(pc.is_inf(out), False), finite_text)
@@ -186,6 +200,78 @@ def _matches(arr: pa.Array, classes: Iterable[str]) -> pa.Array:
     if not body:
         return pa.repeat(False, len(arr))
     return pc.fill_null(pc.match_substring_regex(arr, f"^(?:{body})$"), False)
+
+
+# -- plain forms: proof without the class patterns ----------------------------------------------
+# Stricter forms than textclass's classes, each wholly inside one class (and outside the
+# classes before it): a column whose values all take one of them needs neither the class
+# masks nor the normalising steps. A value that takes none sends the column the full way.
+_DAY = r"[0-9]{4}-(?:0[1-9]|1[0-2])-(?:0[1-9]|[12][0-9]|3[01])"  # textclass's full-date
+_CLOCK = r"(?:[01][0-9]|2[0-3]):[0-5][0-9]:[0-5][0-9]"  # no leap second
+_PLAIN = {
+    "integer": r"-?(?:0|[1-9][0-9]{0,17})",  # at most 18 digits: within int64
+    "decimal": r"-?(?:0|[1-9][0-9]*)\.[0-9]+",  # at most 76 digits: checked apart
+    "boolean": tc.BOOLEAN_RE,
+}
+_DECIMAL_CHARS = tc.MAX_DECIMAL_DIGITS + 1  # a point, and at most 76 digits (a minus sign: one fewer)
+
+
+def _plain_forms(values: pa.Array, forms: Iterable[str]) -> pa.Array:
+    return pc.fill_null(pc.match_substring_regex(values, "^(?:" + "|".join(f"(?:{f})" for f in forms) + ")$"), False)
+
+
+def _stamp_form(t: DType) -> tuple[str, str]:
+    """The class and plain form of the date-times a timestamp cast takes as they are: RFC 3339 in
+    upper case (a zone asked) or local ones (none asked), no leap second, no digits past the unit."""
+    assert t.unit is not None
+    u = _UNIT_DIGITS[t.unit]
+    fraction = rf"(?:\.[0-9]{{1,{u}}})?" if u else ""
+    if t.tz:
+        return "timestamp_rfc3339", rf"{_DAY}T{_CLOCK}{fraction}(?:Z|[+-](?:[01][0-9]|2[0-3]):[0-5][0-9])"
+    return "timestamp_local", rf"{_DAY}[T ]{_CLOCK}{fraction}"
+
+
+def _proven(arr: pa.Array, accept: Iterable[str], t: DType) -> pa.Array | None:
+    """Per value, whether it is provably of a class in accept, in a plain form (false for nulls);
+    None when no plain form applies. A timestamp's calendar is left to its cast."""
+    wanted = set(accept)
+    if t.name == "timestamp":
+        cls, form = _stamp_form(t)
+        return _plain_forms(arr, [form]) if cls in wanted else None
+    forms = [_PLAIN[c] for c in sorted(wanted & set(_PLAIN))]
+    if not forms and "date" not in wanted:
+        return None
+    hit = _plain_forms(arr, forms) if forms else pa.repeat(False, len(arr))
+    if (
+        "decimal" in wanted
+        and hit.true_count
+        and (pc.max(pc.binary_length(arr.filter(hit))).as_py() or 0) > _DECIMAL_CHARS
+    ):
+        return None
+    if "date" in wanted:
+        day = pc.and_not(_plain_forms(arr, [_DAY]), hit)
+        if day.true_count:
+            try:  # a real calendar day: what the date class asks of its shape
+                pc.cast(arr.filter(day), pa.date32())
+            except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+                return None
+            hit = pc.or_(hit, day)
+    return hit
+
+
+def _all_proven(proven: pa.Array | None, arr: pa.Array) -> bool:
+    valid = len(arr) - arr.null_count
+    return proven is not None and (not valid or _true(pc.and_(proven, pc.is_valid(arr))) == valid)
+
+
+def _plain_stamps(arr: pa.Array, t: DType) -> pa.Array | None:
+    """_timestamps' result for values all in _stamp_form: one cast (None if a calendar day fails it)."""
+    assert t.unit is not None
+    try:
+        parsed = pc.cast(arr, pa.timestamp(t.unit, "UTC" if t.tz else None))
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        return None
+    return pc.cast(parsed, to_arrow(t))
 
 
 # -- strings ----------------------------------------------------------------------------------
@@ -225,29 +311,42 @@ def _timestamps(arr: pa.Array, ok: pa.Array, plan: FieldPlan, t: DType, tally: T
 
 
 def _strings(arr: pa.Array, source: str, plan: FieldPlan, tally: Tally) -> pa.Array:
-    """Strings (source 'string') or CSV cells ('text') by the rule's grammar, then cast."""
+    """Strings (source 'string') or CSV cells ('text') by the rule's grammar, then cast.
+
+    The fast way (not DRIFTLINE_EXACT): values that all take a plain form of an accepted class
+    (_proven) hold no null token and no blank, and need neither the class masks nor the
+    normalising steps; the counts and values are the same (tests/differential)."""
     t = plan.target
     path, params = plan.path, plan.params
     out_type = to_arrow(t)
-    trimmed = pc.utf8_trim_whitespace(arr)
-    if params.get("tokens", {}).get(source) == "null":
-        token = pc.fill_null(pc.is_in(pc.ascii_lower(trimmed), value_set=_TOKENS), False)
-        tally.mark(path, "null_token", token, arr)
-        arr = _null_where(arr, token)
+    accept = params.get("accept", [])
+    proven = _proven(arr, accept, t) if t.name != "string" and not exact_requested() else None
+    clean = _all_proven(proven, arr)  # no token, no blank: their steps change nothing
+    if not clean:
+        trimmed = pc.utf8_trim_whitespace(arr)
+        if params.get("tokens", {}).get(source) == "null":
+            token = pc.fill_null(pc.is_in(pc.ascii_lower(trimmed), value_set=_TOKENS), False)
+            tally.mark(path, "null_token", token, arr)
+            arr = _null_where(arr, token)
     if t.name == "string":
         return arr if arr.type == out_type else pc.cast(arr, out_type)
-    if source == "string" and params.get("empty") == "null":
+    if not clean and source == "string" and params.get("empty") == "null":
         blank = pc.fill_null(pc.equal(pc.utf8_length(trimmed), 0), False)
         tally.mark(path, "empty", pc.and_(blank, pc.is_valid(arr)), arr)
         arr = _null_where(arr, blank)
-    accept = params.get("accept", [])
-    ok = pc.and_(pc.is_valid(arr), _accepted(arr, accept))
+    plain = clean or _all_proven(proven, arr)
+    if plain and t.name == "timestamp":
+        out = _plain_stamps(arr, t)
+        if out is not None:
+            return out  # nothing to count: every value parsed as it is
+        plain = False
+    ok = pc.is_valid(arr) if plain else pc.and_(pc.is_valid(arr), _accepted(arr, accept))
     if t.name == "timestamp":
         out = _timestamps(arr, ok, plan, t, tally)
     else:
-        out = _try_cast(_null_where(arr, pc.invert(ok)), out_type)
+        out = _try_cast(arr if plain else _null_where(arr, pc.invert(ok)), out_type)
         if t.name.startswith(("int", "uint", "float")) or t.name == "decimal":
-            _number_changes(arr, out, path, tally)
+            _number_changes(arr, out, path, tally, plain=plain)
     tally.mark(path, "unparsed", pc.and_(pc.is_valid(arr), pc.is_null(out)), arr)
     return out
 
@@ -465,18 +564,52 @@ def _cast(plan: FieldPlan, variant: pa.Array, tally: Tally) -> pa.Array:
     return _cast_forms(plan, _forms(variant), len(variant), tally)
 
 
+THREAD_MIN_ROWS = 4096  # smaller batches cast their columns one after another: threads would cost more
+_POOL: dict[int, ThreadPoolExecutor] = {}  # by process: a forked worker has none of its parent's threads
+
+
+def _pool() -> ThreadPoolExecutor:
+    """Threads for the columns of a batch: pyarrow.compute releases the GIL while it works."""
+    pid = os.getpid()
+    if pid not in _POOL:
+        _POOL.clear()
+        _POOL[pid] = ThreadPoolExecutor(max_workers=min(4, os.cpu_count() or 1), thread_name_prefix="driftline-cast")
+    return _POOL[pid]
+
+
+def _merge(into: Tally, part: Tally) -> None:
+    for path, per in part.counts.items():
+        for cause, n in per.items():
+            into.add(path, cause, n)
+    into.touched.extend(part.touched)
+
+
+def _column(batch: pa.RecordBatch, plan: FieldPlan, tally: Tally) -> pa.Array:
+    names = batch.schema.names
+    col = (
+        _cast(plan, batch.column(plan.name), tally) if plan.name in names else _cast_forms(plan, {}, len(batch), tally)
+    )
+    _check_nulls(plan, col)
+    return col
+
+
 def apply(batch: pa.RecordBatch, rec: Recommendation, *, tally: Tally | None = None) -> pa.RecordBatch:
-    """One raw batch (variant columns, raw.py) cast into exactly rec's Arrow schema."""
+    """One raw batch (variant columns, raw.py) cast into exactly rec's Arrow schema.
+
+    The columns are cast side by side on threads (not with DRIFTLINE_EXACT, nor for small
+    batches), each into a tally of its own; the tallies are merged in column order, so the
+    counts, the values kept and a failure are those of casting the columns one by one."""
     tally = tally if tally is not None else Tally()
     schema = target_schema(rec)
-    n = batch.num_rows
+    if exact_requested() or len(rec.fields) < 2 or batch.num_rows < THREAD_MIN_ROWS or (os.cpu_count() or 1) < 2:
+        columns = [_column(batch, plan, tally) for plan in rec.fields]
+        return pa.RecordBatch.from_arrays(columns, schema=schema)
+    parts = [Tally(keep=tally.keep) for _ in rec.fields]
+    futures = [_pool().submit(_column, batch, plan, part) for plan, part in zip(rec.fields, parts, strict=True)]
     columns = []
-    for plan in rec.fields:
-        col = (
-            _cast(plan, batch.column(plan.name), tally)
-            if plan.name in batch.schema.names
-            else _cast_forms(plan, {}, n, tally)
-        )
-        _check_nulls(plan, col)
-        columns.append(col)
+    for future, part in zip(futures, parts, strict=True):
+        try:
+            columns.append(future.result())
+        finally:  # a column that fails counts what it counted before failing, as one by one
+            _merge(tally, part)
     return pa.RecordBatch.from_arrays(columns, schema=schema)

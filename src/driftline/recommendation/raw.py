@@ -38,6 +38,7 @@ from driftline.observe.records import int_key
 from driftline.observe.textclass import class_of
 from driftline.sources.csvfile import LinedCells
 from driftline.sources.discover import FileRef, discover
+from driftline.sources.jsonlined import LinedRecords
 from driftline.sources.readers import read_values
 from driftline.sources.registry import SPECS
 
@@ -218,6 +219,13 @@ def records_to_batch(records: Sequence[Any]) -> pa.RecordBatch:
     return pa.RecordBatch.from_arrays(columns, schema=pa.schema(fields))
 
 
+def table_batch(table: pa.Table | None) -> pa.RecordBatch:
+    """Arrow's table of JSON Lines records (sources/jsonlined, proven the same values) as variant
+    columns: the batch records_to_batch builds from the parsed records."""
+    assert table is not None
+    return pa.RecordBatch.from_arrays([as_variant(c) for c in table.columns], names=table.column_names)
+
+
 # -- Arrow arrays to variants ---------------------------------------------------------------
 
 
@@ -267,8 +275,12 @@ def as_variant(arr: pa.Array | pa.ChunkedArray, *, text: bool = False) -> pa.Str
     if pa.types.is_null(arr.type):
         return pa.StructArray.from_arrays([], fields=[], mask=pa.repeat(True, len(arr)))
     if text:
-        blank = pc.equal(pc.utf8_length(pc.utf8_trim_whitespace(arr)), 0)
-        cells = pc.if_else(pc.fill_null(blank, True), pa.nulls(len(arr), pa.string()), arr)
+        # Blank: empty, or only characters utf8_trim_whitespace removes (utf8_is_space tests the
+        # same set, code point for code point, without building the trimmed strings).
+        blank = pc.fill_null(pc.or_(pc.equal(pc.binary_length(arr), 0), pc.utf8_is_space(arr)), True)
+        if not blank.true_count:
+            return pa.StructArray.from_arrays([arr], names=[TEXT])
+        cells = pc.if_else(blank, pa.nulls(len(arr), pa.string()), arr)
         return pa.StructArray.from_arrays([cells], names=[TEXT], mask=pc.is_null(cells))
     t = arr.type
     if pa.types.is_struct(t):
@@ -304,11 +316,14 @@ def lined_batches(
     ref: FileRef, batch_rows: int, base: ReadOptions | None = None
 ) -> Iterator[tuple[pa.RecordBatch, Sequence[int] | None]]:
     """file_batches, each with the line its rows start on when the reader knows it (CSV and TSV,
-    numbered as the scan numbers them), else None."""
+    numbered as the scan numbers them; JSON Lines), else None."""
     text = SPECS[ref.format].text_cells
     for part in read_values(ref, batch_rows, base):
         if isinstance(part, list):
             yield records_to_batch(part), None
+            continue
+        if isinstance(part, LinedRecords):
+            yield (records_to_batch(part.records) if part.records is not None else table_batch(part.table)), part.lines
             continue
         cells, lines = (part.cells, part.lines) if isinstance(part, LinedCells) else (part, None)
         yield (
@@ -431,9 +446,11 @@ def iter_records(paths_: str | os.PathLike[str] | Sequence[str | os.PathLike[str
     found = discover([paths_] if isinstance(paths_, str | os.PathLike) else list(paths_))
     for ref in found.files:
         row = 0
-        for part in read_values(ref, 65_536):
-            if isinstance(part, list):
-                records: list[Any] = part
+        for part in read_values(ref, 65_536, ReadOptions(exact=True)):  # records, not Arrow's tables
+            if isinstance(part, LinedRecords) and part.records is not None:
+                records: list[Any] = part.records
+            elif isinstance(part, list):
+                records = part
             elif isinstance(part, LinedCells):
                 records = [{k: cell_value(v) for k, v in rec.items()} for rec in part.cells.to_pylist()]
             else:

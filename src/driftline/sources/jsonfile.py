@@ -22,6 +22,7 @@ from driftline.observe.fast.jsonbatch import observe_json_lines
 from driftline.observe.fast.recordgroups import Walked, groups_enabled, walk
 from driftline.observe.fast.strprofile import EXACT_ENV, exact_requested  # noqa: F401 - EXACT_ENV re-exported
 from driftline.observe.records import observe_records
+from driftline.sources.jsonlined import LinedRecords, lined_records
 
 _CHUNK = 4 * 1024 * 1024
 _WINDOW_BYTES = 256 * 1024 * 1024  # a window stops growing here, whatever batch_rows asks
@@ -632,12 +633,18 @@ def _parse_elements(pieces: list[bytes], where: list[tuple[int, int]], rel: str)
     return values, None
 
 
-def read_json_values(stream: BinaryIO, rel: str, opts: ReadOptions, *, document: bool) -> Iterator[list[Any]]:
+def read_json_values(
+    stream: BinaryIO, rel: str, opts: ReadOptions, *, document: bool
+) -> Iterator[list[Any] | LinedRecords]:
     """The records of a JSON Lines file (document False) or a JSON document, parsed as the scan
     parses values (observe.jsonnum: exact integers and decimals), in lists of at most
     opts.batch_rows (recommendation/raw casts them).  A line that does not parse is left out, as the
     scan leaves it out (and reports it); a document that does not parse is read as lines.
+    JSON Lines come as LinedRecords (jsonlined.py): with their lines, and typed by Arrow where exact.
     """
+    if not document:
+        yield from lined_records(stream.read(), opts.batch_rows, fast=not (opts.exact or exact_requested()))
+        return
     records = list(_values(stream.read(), document))
     for start in range(0, len(records), opts.batch_rows):
         yield records[start : start + opts.batch_rows]
