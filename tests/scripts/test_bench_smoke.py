@@ -40,7 +40,7 @@ def results(tmp_path_factory: pytest.TempPathFactory) -> dict:
         ],
         capture_output=True,
         text=True,
-        timeout=240,
+        timeout=600,
     )
     assert proc.returncode == 0, proc.stderr
     return {"json": json.loads(out.read_text()), "stdout": proc.stdout}
@@ -79,6 +79,27 @@ def test_table_and_targets(results: dict) -> None:
     assert "fails (ArrowInvalid)" in lines[3]
     names = [t["target"] for t in results["json"]["targets"]]
     assert len(names) == 8 and names[0] == "drift-json / pyarrow clean-json <= 1.5"
+
+
+def test_every_target_is_met_or_has_figures_and_a_reason(results: dict) -> None:
+    # The default run ends with every target: the side-by-side ones, start-up, the data-heavy
+    # Parquet set and the small JSON files; a missed one carries its stage figures and its reason.
+    got = results["json"]["issue_targets"]
+    assert [t["target"] for t in got][-3:] == [
+        "driftline scan demo -q / pyarrow reading its files <= 1.5",
+        "parquet-heavy / read_table <= 1.2 (jobs 2)",
+        "small-json / duckdb <= 2 (jobs 2)",
+    ]
+    assert len(got) == 8 + 4 + 2
+    for t in got:
+        assert t["met"] is not None, t
+        if t["met"] is False:
+            assert t["figures"] and t["reason"], t
+    drift = got[0]
+    assert drift["figures"].startswith("CPU s: parse ")  # the stages of the same run's --profile rows
+    lines = results["stdout"].splitlines()
+    head = lines.index("| target | measured | met | stage figures | why it cannot go lower on this design |")
+    assert len(lines) - head - 2 == len(got)  # the table is the run's last lines, a row a target
 
 
 def test_dask_engine_line(tmp_path: Path) -> None:
@@ -189,6 +210,7 @@ def test_startup_rows_and_their_targets(results: dict) -> None:
         "driftline scan --help",
         "driftline schema --help",
         "pyarrow reads the demo's 15 files",  # the demo's 15 data files (tests/scripts/test_make_demo.py)
+        "imports a scan of the demo needs (python -c)",  # the floor the demo's target meets first
         "driftline scan demo -q",
         "driftline scan demo (summary)",
     ]
