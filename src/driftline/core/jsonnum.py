@@ -21,11 +21,14 @@ from typing import Any
 
 import orjson
 
+from driftline.core.stagetime import staged
+
 # orjson keeps integers within [-2**63, 2**64): 19 digits and more may fall outside.
 _LONG_DIGITS = re.compile(rb"[0-9]{19}")
 INT64_MIN, UINT64_MAX = -(2**63), 2**64 - 1
 
 
+@staged("parse")  # the JSON parse of records read one by one (small files, the exact walk)
 def loads(data: bytes | str) -> Any:
     """orjson.loads, with integer literals beyond int64/uint64 kept as Python ints.
 

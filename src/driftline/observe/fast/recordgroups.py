@@ -22,6 +22,7 @@ from typing import Any
 import pyarrow as pa
 
 from driftline.core.observation import Observation
+from driftline.core.stagetime import staged
 from driftline.core.stats import SAMPLES_PER_KEY
 from driftline.observe.fast.strprofile import verdicts
 from driftline.observe.records import _Acc, _Other, _Where, finish_fields, observe_records, walk_records
@@ -68,6 +69,7 @@ class Walked:
         )
 
 
+@staged("walk")
 def walk(
     records: Sequence[Any],
     *,
@@ -99,6 +101,7 @@ class _Facts:
 Verdict = tuple[int, bool, bool, int, int]  # class index, leap second, lowercase RFC 3339, int digits, frac digits
 
 
+@staged("classify")
 def verdict_table(values: list[str]) -> dict[str, Verdict]:
     """Each distinct value's verdict (strprofile.verdicts: what textclass.classify counts for it)."""
     if not values:
@@ -108,6 +111,7 @@ def verdict_table(values: list[str]) -> dict[str, Verdict]:
     return dict(zip(values, zip(*(c.to_pylist() for c in columns), strict=True), strict=True))
 
 
+@staged("classify")
 def facts(table: dict[str, Verdict], strings: list[str]) -> _Facts:
     """What classify and class_masks say of strings (in order), from the verdicts of their values."""
     per_class = [0] * len(CLASSES)
@@ -135,6 +139,7 @@ def facts(table: dict[str, Verdict], strings: list[str]) -> _Facts:
     return _Facts(counts, {CLASSES[k]: first[k] for k in sorted(first)}, int_digits, frac_digits, leap, lower)
 
 
+@staged("columnar")
 def observe_walked(items: Sequence[Walked]) -> list[Observation]:
     """One Observation per walked batch, equal to observe_records on each alone.
 
