@@ -20,30 +20,25 @@ DATASETS = ["clean-json", "drift-json", "csv", "parquet"]
 PEERS = ["pyarrow", "polars", "duckdb"]
 
 
-@pytest.fixture(scope="module")
-def results(tmp_path_factory: pytest.TempPathFactory) -> dict:
-    tmp = tmp_path_factory.mktemp("bench")
-    out = tmp / "results.json"
+def _bench(folder: Path, *args: str, env: dict[str, str] | None = None) -> tuple[dict, str]:
+    """scripts/bench with args, one run each (--quick), its data under folder: the results JSON and stdout."""
+    out = folder / "results.json"
     proc = subprocess.run(
-        [
-            sys.executable,
-            str(BENCH),
-            "--quick",
-            "--scale",
-            "0.01",
-            "--jobs",
-            "2",
-            "--data-dir",
-            str(tmp / "data"),
-            "--out",
-            str(out),
-        ],
+        [sys.executable, str(BENCH), *args, "--quick", "--data-dir", str(folder / "data"), "--out", str(out)],
         capture_output=True,
         text=True,
         timeout=600,
+        env=env,
     )
     assert proc.returncode == 0, proc.stderr
-    return {"json": json.loads(out.read_text()), "stdout": proc.stdout}
+    return json.loads(out.read_text()), proc.stdout
+
+
+@pytest.fixture(scope="module")
+def results(tmp_path_factory: pytest.TempPathFactory) -> dict:
+    tmp = tmp_path_factory.mktemp("bench")
+    got, stdout = _bench(tmp, "--scale", "0.01", "--jobs", "2")
+    return {"json": got, "stdout": stdout}
 
 
 def test_every_tool_on_every_data_set(results: dict) -> None:
@@ -103,60 +98,19 @@ def test_every_target_is_met_or_has_figures_and_a_reason(results: dict) -> None:
 
 
 def test_dask_engine_line(tmp_path: Path) -> None:
-    out = tmp_path / "engines.json"
-    proc = subprocess.run(
-        [
-            sys.executable,
-            str(BENCH),
-            "--dask",
-            "--quick",
-            "--scale",
-            "0.01",
-            "--jobs",
-            "2",
-            "--data-dir",
-            str(tmp_path / "data"),
-            "--out",
-            str(out),
-        ],
-        capture_output=True,
-        text=True,
-        timeout=240,
-    )
-    assert proc.returncode == 0, proc.stderr
-    rows = json.loads(out.read_text())["engines"]
+    got, stdout = _bench(tmp_path, "--dask", "--scale", "0.01", "--jobs", "2")
+    rows = got["engines"]
     assert [(r["tool"], r["dataset"], r["jobs"], r["ok"]) for r in rows] == [
         ("driftline", "parquet", 2, True),
         ("driftline-dask", "parquet", 2, True),
     ]
-    assert "--engine dask, 2 local workers" in proc.stdout
+    assert "--engine dask, 2 local workers" in stdout
 
 
 def test_against_a_revision_interleaves_both_versions(tmp_path: Path) -> None:
     # HEAD's src/ (extracted with git archive) against the working tree, pyarrow as the yardstick
-    out = tmp_path / "against.json"
-    proc = subprocess.run(
-        [
-            sys.executable,
-            str(BENCH),
-            "--against",
-            "HEAD",
-            "--quick",
-            "--scale",
-            "0.01",
-            "--jobs",
-            "2",
-            "--data-dir",
-            str(tmp_path / "data"),
-            "--out",
-            str(out),
-        ],
-        capture_output=True,
-        text=True,
-        timeout=300,
-    )
-    assert proc.returncode == 0, proc.stderr
-    got = json.loads(out.read_text())["against"]
+    got, stdout = _bench(tmp_path, "--against", "HEAD", "--scale", "0.01", "--jobs", "2")
+    got = got["against"]
     assert got["revision"] == "HEAD"
     rows = sorted((r["dataset"], r["tool"], r["jobs"], r["version"], r["ok"]) for r in got["rows"])
     want = sorted(
@@ -165,38 +119,20 @@ def test_against_a_revision_interleaves_both_versions(tmp_path: Path) -> None:
     )
     assert rows == want
     # the drifting file's yardstick is pyarrow's read of the clean one, which succeeds
-    lines = proc.stdout.splitlines()
+    lines = stdout.splitlines()
     assert lines[0] == "| data set | jobs | HEAD | working tree | faster | HEAD / pyarrow | working tree / pyarrow |"
     assert [ln.split("|")[1].strip() for ln in lines[2:10]] == [d for d in DATASETS for _ in (1, 2)]
 
 
 def test_discovery_line(tmp_path: Path) -> None:
-    out = tmp_path / "discovery.json"
-    proc = subprocess.run(
-        [
-            sys.executable,
-            str(BENCH),
-            "--discovery",
-            "--quick",
-            "--scale",
-            "0.01",
-            "--data-dir",
-            str(tmp_path / "data"),
-            "--out",
-            str(out),
-        ],
-        capture_output=True,
-        text=True,
-        timeout=240,
-    )
-    assert proc.returncode == 0, proc.stderr
-    rows = json.loads(out.read_text())["discovery"]
+    got, stdout = _bench(tmp_path, "--discovery", "--scale", "0.01")
+    rows = got["discovery"]
     assert [(r["tool"], r["dataset"], r["jobs"], r["ok"]) for r in rows] == [
         ("driftline-datasets", "parquet", 1, True),
         ("driftline-peeks", "parquet", 1, True),
         ("driftline", "parquet", 1, True),
     ]
-    lines = proc.stdout.splitlines()
+    lines = stdout.splitlines()
     assert lines[0].startswith("| 20 Parquet files | seconds | CPU seconds | of the scan (wall) |")
     assert lines[-1].startswith("- discovery / scan <= 0.1: measured ")
 
@@ -226,28 +162,8 @@ def test_startup_rows_and_their_targets(results: dict) -> None:
 
 def test_small_json_line(tmp_path: Path) -> None:
     # 20 small nested JSON files (the floor of the scale): DuckDB, driftline jobs 1 and 2, in turn
-    out = tmp_path / "small.json"
-    proc = subprocess.run(
-        [
-            sys.executable,
-            str(BENCH),
-            "--small-json",
-            "--quick",
-            "--scale",
-            "0.01",
-            "--jobs",
-            "2",
-            "--data-dir",
-            str(tmp_path / "data"),
-            "--out",
-            str(out),
-        ],
-        capture_output=True,
-        text=True,
-        timeout=240,
-    )
-    assert proc.returncode == 0, proc.stderr
-    got = json.loads(out.read_text())["small_json"]
+    got, stdout = _bench(tmp_path, "--small-json", "--scale", "0.01", "--jobs", "2")
+    got = got["small_json"]
     assert got["files"] == 20
     rows = got["rows"]
     assert [(r["tool"], r["jobs"], r["version"], r["ok"]) for r in rows] == [
@@ -261,7 +177,7 @@ def test_small_json_line(tmp_path: Path) -> None:
     records = [rec for f in sorted(folder.iterdir()) for rec in _records(f)]
     assert rows[1]["result"][2] == rows[2]["result"][2] == len(records)
     assert rows[0]["result"] == len({k for rec in records for k in rec})  # source: DuckDB DESCRIBE, a row a column
-    lines = proc.stdout.splitlines()
+    lines = stdout.splitlines()
     assert lines[0].startswith("| 20 small nested JSON files (")
     assert lines[-1].startswith("- small-json / duckdb <= 2: measured ")
 
@@ -272,33 +188,10 @@ def _records(path: Path) -> list[dict]:
     return [json.loads(x) for x in text.splitlines()] if path.suffix == ".jsonl" else json.loads(text)
 
 
-def _bench(tmp_path: Path, *args: str) -> tuple[dict, str]:
-    out = tmp_path / "results.json"
-    proc = subprocess.run(
-        [
-            sys.executable,
-            str(BENCH),
-            *args,
-            "--quick",
-            "--jobs",
-            "1",
-            "--data-dir",
-            str(tmp_path / "data"),
-            "--out",
-            str(out),
-        ],
-        capture_output=True,
-        text=True,
-        timeout=280,
-    )
-    assert proc.returncode == 0, proc.stderr
-    return json.loads(out.read_text()), proc.stdout
-
-
 def test_scaling_rows_and_their_targets(tmp_path: Path) -> None:
     # steps are multiples of --scale; each row carries its cost per MB and peak RSS against the
     # first step's, and the targets are checked at the last step (reported, never asserted)
-    got, stdout = _bench(tmp_path, "--scaling", "1,2", "--scale", "0.01")
+    got, stdout = _bench(tmp_path, "--scaling", "1,2", "--scale", "0.01", "--jobs", "1")
     scaling = got["scaling"]
     assert scaling["base_scale"] == 0.01
     assert [(r["dataset"], r["step"], r["scale"], r["ok"]) for r in scaling["rows"]] == [
@@ -315,7 +208,7 @@ def test_scaling_rows_and_their_targets(tmp_path: Path) -> None:
 
 
 def test_files_scaling_rows_and_the_discovery_share(tmp_path: Path) -> None:
-    got, stdout = _bench(tmp_path, "--files-scaling", "20,40")
+    got, stdout = _bench(tmp_path, "--files-scaling", "20,40", "--jobs", "1")
     files = got["files_scaling"]
     assert [(r["format"], r["files"], r["ok"]) for r in files["rows"]] == [
         ("jsonl", 20, True),
@@ -335,29 +228,10 @@ def test_files_scaling_rows_and_the_discovery_share(tmp_path: Path) -> None:
 
 def test_profile_stages(tmp_path: Path) -> None:
     # --profile: per JSON and CSV data set, each stage's CPU seconds beside pyarrow's read, in a pool too
-    out = tmp_path / "profile.json"
-    proc = subprocess.run(
-        [
-            sys.executable,
-            str(BENCH),
-            "--profile",
-            "--quick",
-            "--scale",
-            "0.01",
-            "--jobs",
-            "2",
-            "--data-dir",
-            str(tmp_path / "data"),
-            "--out",
-            str(out),
-        ],
-        capture_output=True,
-        text=True,
-        timeout=300,
-        env={**os.environ, "DRIFTLINE_TEST_ALWAYS_POOL": "1"},
+    got, stdout = _bench(
+        tmp_path, "--profile", "--scale", "0.01", "--jobs", "2", env={**os.environ, "DRIFTLINE_TEST_ALWAYS_POOL": "1"}
     )
-    assert proc.returncode == 0, proc.stderr
-    got = json.loads(out.read_text())["profile"]
+    got = got["profile"]
     assert [g["dataset"] for g in got] == ["clean-json", "drift-json", "csv"]
     stages = ["parse", "read", "dialect", "classify", "exactness", "walk", "columnar", "merge", "other", "outside"]
     for g in got:
@@ -368,5 +242,5 @@ def test_profile_stages(tmp_path: Path) -> None:
         # the stages account for the whole scan's CPU time (outside: what no stage holds)
         assert sum(cpu.values()) == pytest.approx(max(g["driftline"]["cpu_seconds"], sum(cpu.values())), abs=0.01)
         assert cpu["parse"] > 0 and cpu["classify"] > 0  # every set has strings, every scan parses
-    assert "| classify strings (content classes) |" in proc.stdout
-    assert "| pyarrow reading the clean file (the floor) |" in proc.stdout
+    assert "| classify strings (content classes) |" in stdout
+    assert "| pyarrow reading the clean file (the floor) |" in stdout
